@@ -1,0 +1,5 @@
+"""Allow ``python -m tracker``."""
+
+from tracker.cli import main
+
+main()

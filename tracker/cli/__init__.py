@@ -1,0 +1,85 @@
+"""The ``tracker`` command: global options, and every command registered in one place."""
+
+from typing import Annotated
+
+import typer
+
+from tracker import __version__
+from tracker.cli import cmd_inspect, cmd_lab, cmd_loans, cmd_setup
+from tracker.cli.cmd_demo import DEMO_EPILOG, demo
+from tracker.cli.state import State, TrackerGroup
+
+app = typer.Typer(
+    cls=TrackerGroup,
+    help="Sample tracking and chain of custody for isotope-geochemistry labs.\n\n"
+    "Run with no command to see the loans overview.",
+    epilog="Example: tracker --db lab.sqlite --as amira show SP-00001-W",
+    add_completion=False,
+    rich_markup_mode=None,
+    pretty_exceptions_enable=False,
+)
+
+
+def _version(value: bool) -> None:
+    if value:
+        typer.echo(f"tracker {__version__}")
+        raise typer.Exit()
+
+
+@app.callback(invoke_without_command=True)
+def root(
+    ctx: typer.Context,
+    db: Annotated[
+        str | None,
+        typer.Option("--db", envvar="TRACKER_DB", help="Database file or URL (postgresql://...)."),
+    ] = None,
+    actor: Annotated[
+        str | None,
+        typer.Option(
+            "--as", envvar="TRACKER_OPERATOR", help="Operator code recorded in the ledger."
+        ),
+    ] = None,
+    as_json: Annotated[
+        bool, typer.Option("--json", help="Print exactly one JSON document on stdout.")
+    ] = False,
+    version: Annotated[
+        bool, typer.Option("--version", callback=_version, is_eager=True, help="Show the version.")
+    ] = False,
+) -> None:
+    """Global options; with no command, show the overview of loans."""
+    ctx.obj = State(db=db, actor=actor, as_json=as_json)
+    if ctx.invoked_subcommand is None:
+        cmd_inspect.show_overview(ctx)
+
+
+def _register() -> None:
+    command = app.command
+    command("init", epilog=cmd_setup.INIT_EPILOG)(cmd_setup.init)
+    command("demo", epilog=DEMO_EPILOG)(demo)
+    command("overview", epilog=cmd_inspect.OVERVIEW_EPILOG)(cmd_inspect.show_overview)
+    command("show", epilog=cmd_inspect.SHOW_EPILOG)(cmd_inspect.show)
+    command("checkin", epilog=cmd_loans.CHECKIN_EPILOG)(cmd_loans.checkin)
+    command("return", epilog=cmd_loans.RETURN_EPILOG)(cmd_loans.return_specimen)
+    command("move", epilog=cmd_lab.MOVE_EPILOG)(cmd_lab.move)
+    command("drill", epilog=cmd_lab.DRILL_EPILOG)(cmd_lab.drill)
+    command("dissolve", epilog=cmd_lab.DISSOLVE_EPILOG)(cmd_lab.dissolve)
+    command("concentration", epilog=cmd_lab.CONCENTRATION_EPILOG)(cmd_lab.concentration)
+    command("aliquot", epilog=cmd_lab.ALIQUOT_EPILOG)(cmd_lab.aliquot)
+    command("dispose", epilog=cmd_lab.DISPOSE_EPILOG)(cmd_lab.dispose)
+    app.add_typer(cmd_setup.operator_app, name="operator")
+    app.add_typer(cmd_setup.location_app, name="location")
+    app.add_typer(cmd_loans.lender_app, name="lender")
+    app.add_typer(cmd_loans.loan_app, name="loan")
+    app.add_typer(cmd_loans.specimen_app, name="specimen")
+    app.add_typer(cmd_lab.reference_app, name="reference")
+    app.add_typer(cmd_lab.batch_app, name="batch")
+    app.add_typer(cmd_inspect.ledger_app, name="ledger")
+    app.add_typer(cmd_setup.db_app, name="db")
+
+
+_register()
+
+
+def main() -> None:
+    """Console-script entry point."""
+    app(prog_name="tracker")

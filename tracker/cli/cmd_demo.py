@@ -1,0 +1,31 @@
+"""``tracker demo``: build the invented demo database and show it."""
+
+from pathlib import Path
+from typing import Annotated
+
+import typer
+
+from tracker.cli import cmd_inspect
+from tracker.cli.state import errors, state
+
+DEMO_FILE = "tracker-demo.sqlite"
+DEMO_EPILOG = f"Example: tracker demo --out {DEMO_FILE}"
+
+
+def demo(
+    ctx: typer.Context,
+    out: Annotated[Path, typer.Option("--out", help="Where to write the demo database.")] = Path(
+        DEMO_FILE
+    ),
+) -> None:
+    """Build the demo database (invented loans and specimens) and show its overview."""
+    from tracker.io.demo import build_demo
+
+    steps = build_demo(out)
+    errors.print(
+        f"built {out} from the demo scenario ({steps} steps, all invented data); "
+        f"explore it with: tracker --db {out} show KF-2026-014",
+        markup=False,
+    )
+    state(ctx).db = str(out)
+    cmd_inspect.show_overview(ctx)

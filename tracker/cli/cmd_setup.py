@@ -1,0 +1,109 @@
+"""Commands that set a database up: init, operators, locations, schema upgrades."""
+
+from typing import Annotated
+
+import typer
+from rich.table import Table
+
+from tracker.cli.render import done, plain_table
+from tracker.cli.state import database, emit, state
+from tracker.domain.models import LocationKind, Role
+from tracker.services import setup
+
+operator_app = typer.Typer(help="People who record events.", no_args_is_help=True)
+location_app = typer.Typer(
+    help="Buildings, rooms, cabinets, shelves, boxes, positions.", no_args_is_help=True
+)
+db_app = typer.Typer(help="Database schema maintenance.", no_args_is_help=True)
+
+
+def init(
+    ctx: typer.Context,
+    code: Annotated[str, typer.Option("--code", help="Your operator code (what --as takes).")],
+    name: Annotated[str, typer.Option("--name", help="Your full name.")],
+) -> None:
+    """Create a new database with you as its first manager and open its ledger."""
+    from tracker.services.setup import init_database
+
+    db = init_database(state(ctx).target, {"code": code, "name": name})
+    try:
+        answer = {"database": db.url, "operator": code, "role": Role.MANAGER.value}
+        emit(ctx, answer, lambda: f"created {db.url}; operator {code} (manager)")
+    finally:
+        db.close()
+
+
+INIT_EPILOG = "Example: tracker --db lab.sqlite init --code amira --name 'Amira Haddad'"
+
+
+@operator_app.command(
+    "add",
+    epilog="Example: tracker --as amira operator add tomas --name 'Tomas Rieger' --role technician",
+)
+def operator_add(
+    ctx: typer.Context,
+    code: Annotated[str, typer.Argument(help="Short code typed after --as.")],
+    name: Annotated[str, typer.Option("--name", help="Full name.")],
+    role: Annotated[Role, typer.Option("--role", help="technician or manager.")] = Role.TECHNICIAN,
+) -> None:
+    """Register an operator (managers only)."""
+    with database(ctx) as db:
+        answer = setup.add_operator(
+            db, state(ctx).actor, {"code": code, "name": name, "role": role}
+        )
+    emit(ctx, answer, lambda: done(answer, f"operator {code} ({role.value})"))
+
+
+@operator_app.command("list", epilog="Example: tracker operator list")
+def operator_list(ctx: typer.Context) -> None:
+    """List operators and their roles."""
+    with database(ctx) as db:
+        rows = setup.list_operators(db)
+
+    def table() -> Table:
+        t = plain_table("code", "name", "role", "active")
+        for o in rows:
+            t.add_row(o.code, o.name, o.role, "yes" if o.active else "no")
+        return t
+
+    emit(ctx, rows, table)
+
+
+@location_app.command("add", epilog="Example: tracker location add box 'Box 7' --in LC-00004-X")
+def location_add(
+    ctx: typer.Context,
+    kind: Annotated[LocationKind, typer.Argument(help="What kind of place.")],
+    name: Annotated[str, typer.Argument(help="Its name, e.g. 'Box 7' or '2.14'.")],
+    inside: Annotated[str | None, typer.Option("--in", help="The enclosing location's ID.")] = None,
+) -> None:
+    """Add a place to the location tree."""
+    with database(ctx) as db:
+        answer = setup.add_location(
+            db, state(ctx).actor, {"kind": kind, "name": name, "parent": inside}
+        )
+    emit(ctx, answer, lambda: done(answer, f"{answer.item.id} {answer.item.path}"))
+
+
+@location_app.command("list", epilog="Example: tracker location list")
+def location_list(ctx: typer.Context) -> None:
+    """List every location with its full path."""
+    with database(ctx) as db:
+        rows = setup.list_locations(db)
+
+    def table() -> Table:
+        t = plain_table("id", "kind", "path")
+        for loc in rows:
+            t.add_row(loc.id, loc.kind, loc.path)
+        return t
+
+    emit(ctx, rows, table)
+
+
+@db_app.command("upgrade", epilog="Example: tracker --db lab.sqlite db upgrade")
+def db_upgrade(ctx: typer.Context) -> None:
+    """Bring the database schema to this version (SQLite files are backed up first)."""
+    from tracker.db.database import upgrade_database
+
+    old, new = upgrade_database(state(ctx).target)
+    answer = {"from": old, "to": new, "changed": old != new}
+    emit(ctx, answer, lambda: f"schema {old} → {new}" if old != new else f"schema already at {new}")

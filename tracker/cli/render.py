@@ -1,0 +1,148 @@
+"""Rich renderings of service views for people at a terminal.
+
+No colour carries meaning on its own: every status is also written in words.
+"""
+
+from typing import Any
+
+from rich import box
+from rich.console import Group, RenderableType
+from rich.table import Table
+from rich.text import Text
+from rich.tree import Tree
+
+from tracker.domain.units import format_mass_mg, format_value_u
+from tracker.services.lineage import ItemDetail, Node
+from tracker.services.overview import LoanLine
+from tracker.services.views import Done, EventView
+
+BAR_WIDTH = 8
+
+
+def done(answer: Done[Any], what: str) -> Text:
+    """One line confirming what was recorded, with the ledger event number."""
+    return Text.assemble(
+        ("recorded ", "green"), (what, "bold"), f"  (ledger event #{answer.event_seq})"
+    )
+
+
+def plain_table(*headers: str) -> Table:
+    """The house style for lists: a header rule, no cell borders, fits 80 columns."""
+    table = Table(box=box.SIMPLE_HEAD, padding=(0, 1))
+    for header in headers:
+        table.add_column(header)
+    return table
+
+
+def usage_bar(fraction: float | None) -> Text:
+    """A bar with the percentage written beside it (meaning never by colour alone)."""
+    if fraction is None:
+        return Text("no mass limit", style="dim")
+    filled = min(BAR_WIDTH, round(fraction * BAR_WIDTH))
+    style = "red" if fraction > 1 else "yellow" if fraction >= 0.9 else "green"
+    return Text.assemble(
+        ("█" * filled, style), ("░" * (BAR_WIDTH - filled), "dim"), f" {fraction * 100:.0f} %"
+    )
+
+
+def overview_table(lines: list[LoanLine]) -> RenderableType:
+    """Fits 80 columns: each cell stacks two short lines instead of adding columns."""
+    if not lines:
+        return Text("No loans yet. Add one with `tracker loan add --help`.")
+    table = Table(
+        title="Loans, most urgent first", title_justify="left", box=box.SIMPLE_HEAD, padding=(0, 1)
+    )
+    table.add_column("loan", no_wrap=True)
+    table.add_column("specimens", no_wrap=True)
+    table.add_column("mass drilled", no_wrap=True)
+    table.add_column("due", no_wrap=True)
+    table.add_column("flags")
+    for line in lines:
+        allowed = f"/{line.max_total_mass_mg:g} mg" if line.max_total_mass_mg else " mg"
+        due = (
+            f"{line.due_on.isoformat()}\n{_days(line.days_left)}"
+            if line.status == "open"
+            else line.status
+        )
+        sampled = f"{line.sampled}/{line.max_specimens_sampled or '-'} sampled"
+        table.add_row(
+            Text.assemble(line.reference, "\n", (f"{line.lender_code} {line.id}", "dim")),
+            f"{sampled}\n{line.on_hand}/{line.specimens} on hand",
+            Text.assemble(f"{line.drilled_mg:.3f}{allowed}\n", usage_bar(line.used_fraction)),
+            due,
+            "\n".join(line.flags) or "ok",
+        )
+    return table
+
+
+def _days(days: int) -> str:
+    if days < 0:
+        return f"{-days} d overdue"
+    return f"{days} d left"
+
+
+def lineage_tree(node: Node) -> Tree:
+    tree = Tree(_node_label(node))
+    _add_children(tree, node)
+    return tree
+
+
+def _add_children(tree: Tree, node: Node) -> None:
+    for child in node.children:
+        branch = tree.add(_node_label(child))
+        _add_children(branch, child)
+
+
+def _node_label(node: Node) -> Text:
+    text = Text.assemble((node.id, "bold cyan"), f"  {node.label}")
+    if node.status:
+        text.append(f"  [{node.status.replace('_', ' ')}]", style="dim")
+    facts = _facts(node.facts)
+    if facts:
+        text.append(f"  {facts}")
+    return text
+
+
+def _facts(facts: dict[str, Any]) -> str:
+    parts = []
+    if "mass_mg" in facts:
+        parts.append(format_mass_mg(facts["mass_mg"], facts["mass_u_mg"]))
+    if "remaining_mg" in facts:
+        parts.append(f"left {format_mass_mg(facts['remaining_mg'])}")
+    if "solution_mass_g" in facts:
+        parts.append(format_value_u(facts["solution_mass_g"], facts["solution_mass_u_g"], "g"))
+        parts.append(f"left {facts['remaining_g']:.4f} g")
+    if "mass_g" in facts:
+        parts.append(format_value_u(facts["mass_g"], facts["mass_u_g"], "g"))
+    if facts.get("element_ug") is not None:
+        amount = format_value_u(facts["element_ug"], facts["element_u_ug"], "µg")
+        parts.append(f"{facts['element']} {amount}")
+    if facts.get("loaded_ug") is not None:
+        parts.append(f"loaded {format_value_u(facts['loaded_ug'], facts['loaded_u_ug'], 'µg')}")
+    return ", ".join(parts)
+
+
+def history_table(events: list[EventView]) -> Table:
+    table = plain_table("#", "when (UTC)", "who", "action", "item")
+    table.title, table.title_justify = "Custody history", "left"
+    for event in events:
+        table.add_row(
+            str(event.seq),
+            event.at.strftime("%Y-%m-%d %H:%M"),
+            event.operator,
+            event.action,
+            event.object,
+        )
+    return table
+
+
+def item_detail(detail: ItemDetail) -> RenderableType:
+    parts: list[RenderableType] = []
+    if detail.ancestors:
+        path = " › ".join(f"{a.id} {a.label}" for a in detail.ancestors)
+        parts.append(Text(f"from: {path}", style="dim"))
+    if detail.location:
+        parts.append(Text(f"location: {detail.location}"))
+    parts.append(lineage_tree(detail.item))
+    parts.append(history_table(detail.history))
+    return Group(*parts)

@@ -1,0 +1,59 @@
+"""The two kinds of refusal every entry point must tell apart.
+
+``InputError`` (exit 2): the request itself is malformed — an unknown unit, a
+negative mass, an ID that does not exist. ``RuleViolation`` (exit 1): the
+request is well formed but the domain forbids it — over an allowance, checking
+in twice. Both carry one line naming the field and the offending value.
+"""
+
+from __future__ import annotations
+
+
+class TrackerError(Exception):
+    """Base class: a refusal with a one-line, user-facing message."""
+
+    exit_code = 2
+
+    def __init__(self, field: str, value: object, reason: str) -> None:
+        self.field = field
+        self.value = value
+        self.reason = reason
+        super().__init__(self.one_line())
+
+    def one_line(self) -> str:
+        shown = _show(self.value)
+        return f"{self.field}: {shown}: {self.reason}" if shown else f"{self.field}: {self.reason}"
+
+    def as_dict(self) -> dict[str, object]:
+        return {
+            "error": type(self).__name__,
+            "field": self.field,
+            "value": None if self.value is None else str(self.value),
+            "reason": self.reason,
+            "exit_code": self.exit_code,
+        }
+
+
+class InputError(TrackerError):
+    """Malformed input: exit code 2, nothing written."""
+
+    exit_code = 2
+
+
+class NotFound(InputError):
+    """An ID or reference that names nothing in this database."""
+
+
+class RuleViolation(TrackerError):
+    """Well-formed input refused by a domain rule: exit code 1, nothing written."""
+
+    exit_code = 1
+
+
+def _show(value: object) -> str:
+    if value is None:
+        return ""
+    text = str(value)
+    if len(text) > 60:
+        text = text[:57] + "..."
+    return repr(text) if isinstance(value, str) else text

@@ -1,0 +1,56 @@
+"""All mapped classes; importing this module registers every table on ``Base.metadata``."""
+
+from tracker.domain.models.chemistry import BatchPosition, ColumnBatch, Cut, ReferenceMaterial
+from tracker.domain.models.enums import (
+    AliquotPurpose,
+    ContainerStatus,
+    Disposition,
+    LoanStatus,
+    LocationKind,
+    MeasurementRole,
+    PositionKind,
+    Role,
+    ShipmentDirection,
+    SpecimenStatus,
+    TermsKind,
+)
+from tracker.domain.models.instrument import InstrumentSession, Measurement, Result
+from tracker.domain.models.ledger import CustodyEvent
+from tracker.domain.models.loans import Document, Loan, LoanDocument, LoanTerms, Shipment
+from tracker.domain.models.material import Aliquot, Concentration, Powder, Solution, Specimen
+from tracker.domain.models.people import Lender, Location, Operator
+
+__all__ = [
+    "Aliquot",
+    "AliquotPurpose",
+    "BatchPosition",
+    "ColumnBatch",
+    "Concentration",
+    "ContainerStatus",
+    "CustodyEvent",
+    "Cut",
+    "Disposition",
+    "Document",
+    "InstrumentSession",
+    "Lender",
+    "Loan",
+    "LoanDocument",
+    "LoanStatus",
+    "LoanTerms",
+    "Location",
+    "LocationKind",
+    "Measurement",
+    "MeasurementRole",
+    "Operator",
+    "PositionKind",
+    "Powder",
+    "ReferenceMaterial",
+    "Result",
+    "Role",
+    "Shipment",
+    "ShipmentDirection",
+    "Solution",
+    "Specimen",
+    "SpecimenStatus",
+    "TermsKind",
+]

@@ -1,0 +1,123 @@
+"""Quantities with units: parsed exactly, stored in one named base unit each.
+
+Masses are stored in the unit named in the column (``_mg``, ``_g``, ``_ug``,
+``_ng``); input always carries its unit ("2.15 mg", "0.00215 g") because a bare
+number on a bench form is the commonest way to be wrong by a factor of 1000.
+Parsing goes through ``Decimal`` so that the number of decimals a person typed is
+kept — the balance's readability check needs it.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from decimal import Decimal, InvalidOperation
+
+# Factors to one milligram. "u", "µ" (micro sign) and "μ" (Greek mu) all mean micro.
+_MASS_TO_MG: dict[str, Decimal] = {
+    "ng": Decimal("1e-6"),
+    "ug": Decimal("1e-3"),
+    "mg": Decimal(1),
+    "g": Decimal(1000),
+    "kg": Decimal(1000000),
+}
+
+# Mass fractions (concentrations in a solution by mass), as factors to µg/g.
+_FRACTION_TO_UG_PER_G: dict[str, Decimal] = {
+    "ng/g": Decimal("1e-3"),
+    "ppb": Decimal("1e-3"),
+    "ug/g": Decimal(1),
+    "ppm": Decimal(1),
+    "mg/kg": Decimal(1),
+    "mg/g": Decimal(1000),
+    "g/kg": Decimal(1000),
+    "%": Decimal(10000),
+    "wt%": Decimal(10000),
+}
+
+_VOLUME_BASED = {"mg/l", "ug/l", "ng/l", "ug/ml", "mg/ml", "ng/ml", "g/l", "ppmv"}
+
+_QUANTITY = re.compile(
+    r"^\s*(?P<num>[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?)\s*(?P<unit>[^\d\s].*?)?\s*$"
+)
+
+
+class UnitError(ValueError):
+    """A quantity that cannot be read: the message says what was expected."""
+
+
+def _normalise_unit(unit: str) -> str:
+    return unit.strip().replace("µ", "u").replace("μ", "u").replace(" ", "").lower()
+
+
+def split_quantity(text: str) -> tuple[Decimal, str]:
+    """Split "2.15 mg" into (Decimal("2.15"), "mg"); the unit is normalised."""
+    match = _QUANTITY.match(text)
+    if not match:
+        raise UnitError("is not a number followed by a unit, e.g. '2.15 mg'")
+    try:
+        number = Decimal(match["num"])
+    except InvalidOperation as exc:  # pragma: no cover - the regex admits only valid numbers
+        raise UnitError("is not a number") from exc
+    unit = match["unit"]
+    if not unit:
+        raise UnitError("has no unit; write it with one, e.g. '2.15 mg'")
+    return number, _normalise_unit(unit)
+
+
+def mass_to_mg(text: str) -> Decimal:
+    """Parse a mass with its unit and return it in milligrams, exactly."""
+    number, unit = split_quantity(text)
+    try:
+        factor = _MASS_TO_MG[unit]
+    except KeyError:
+        raise UnitError(f"unknown mass unit {unit!r}; use ng, ug, mg, g or kg") from None
+    return number * factor
+
+
+def mass_fraction_to_ug_per_g(text: str) -> Decimal:
+    """Parse a concentration given as a mass fraction and return it in µg/g."""
+    number, unit = split_quantity(text)
+    if unit in _VOLUME_BASED:
+        raise UnitError(
+            f"{unit!r} is per volume; weigh the solution and give a mass fraction such as ug/g"
+        )
+    try:
+        factor = _FRACTION_TO_UG_PER_G[unit]
+    except KeyError:
+        known = ", ".join(sorted(_FRACTION_TO_UG_PER_G))
+        raise UnitError(f"unknown concentration unit {unit!r}; use one of {known}") from None
+    return number * factor
+
+
+def decimals_below(value: Decimal, step: Decimal) -> bool:
+    """True when ``value`` is not a whole multiple of ``step`` (finer than the balance reads)."""
+    if step <= 0:
+        raise UnitError("readability must be positive")
+    return value % step != 0
+
+
+def decimals_for(u: float, significant: int = 2, most: int = 6) -> int:
+    """Decimal places that show an uncertainty with ``significant`` digits (GUM 7.2.6)."""
+    if u <= 0 or not math.isfinite(u):
+        return 3
+    return max(0, min(most, significant - 1 - math.floor(math.log10(u))))
+
+
+def format_value_u(value: float, u: float | None, unit: str) -> str:
+    """ "2.56100 ± 0.00041 mg": the value rounded to the uncertainty's last digit."""
+    if u is None:
+        return f"{value:.3f} {unit}"
+    places = decimals_for(u)
+    return f"{value:.{places}f} ± {u:.{places}f} {unit}"
+
+
+def format_mass_mg(mg: float, u_mg: float | None = None) -> str:
+    """Format a mass given in mg, choosing µg or g when that reads better."""
+    if mg != 0 and abs(mg) < 0.1:
+        unit, scale = "µg", 1000.0
+    elif abs(mg) >= 10000:
+        unit, scale = "g", 0.001
+    else:
+        unit, scale = "mg", 1.0
+    return format_value_u(mg * scale, None if u_mg is None else u_mg * scale, unit)

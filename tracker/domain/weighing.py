@@ -1,0 +1,41 @@
+"""Weighings and the uncertainty of a mass by difference (GUM, JCGM 100:2008).
+
+A digital balance of readability *d* rounds each reading; GUM F.2.2.1 treats
+that as a rectangular distribution of half-width d/2, standard uncertainty
+u = d/√12. A mass by difference uses two independent readings (gross and
+tare), so u(m) = √2 · d/√12 = d/√6. Labs that know their balance's
+repeatability better can pass it explicitly; readability is the floor.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from decimal import Decimal
+
+from uncertainties import ufloat
+from uncertainties.core import Variable
+
+
+def reading_uncertainty(readability: float) -> float:
+    """Standard uncertainty of one reading from a balance of the given readability."""
+    return readability / math.sqrt(12.0)
+
+
+@dataclass(frozen=True)
+class MassByDifference:
+    """A net mass from a tare and a gross reading, in the unit of the inputs."""
+
+    tare: Decimal
+    gross: Decimal
+    readability: Decimal
+
+    @property
+    def net(self) -> Decimal:
+        return self.gross - self.tare
+
+    def as_ufloat(self) -> Variable:
+        tare = ufloat(float(self.tare), reading_uncertainty(float(self.readability)))
+        gross = ufloat(float(self.gross), reading_uncertainty(float(self.readability)))
+        result: Variable = gross - tare
+        return result

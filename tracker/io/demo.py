@@ -1,0 +1,126 @@
+"""Build the demo database from ``demo_db/scenario.toml``, deterministically.
+
+The scenario is plain text a person can read and edit. Every step goes through
+the same service a person would call, with the ledger clock set to the step's
+time, so the demo database — IDs, timestamps and hash chain — is identical on
+every machine.
+"""
+
+from __future__ import annotations
+
+import tomllib
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from datetime import datetime
+from importlib import resources
+from pathlib import Path
+from typing import Any
+
+from tracker.db.database import Database
+from tracker.domain.errors import InputError
+from tracker.services import chemistry, custody, lab, loans, setup, specimens
+
+Service = Callable[[Database, str, dict[str, Any]], Any]
+
+SERVICES: dict[str, Service] = {
+    "operator": setup.add_operator,
+    "location": setup.add_location,
+    "lender": loans.add_lender,
+    "loan": loans.add_loan,
+    "specimen": specimens.add_specimen,
+    "checkin": specimens.check_in,
+    "return": specimens.return_specimen,
+    "move": custody.move,
+    "dispose": custody.dispose,
+    "loan_returned": custody.mark_loan_returned,
+    "drill": lab.drill,
+    "dissolve": lab.dissolve,
+    "concentration": lab.record_concentration,
+    "aliquot": lab.take_aliquot,
+    "reference": chemistry.add_reference_material,
+    "batch": chemistry.create_batch,
+    "position": chemistry.add_position,
+}
+
+
+def scenario_path() -> Path:
+    """The scenario in the source tree, else the copy packaged into the wheel."""
+    source = Path(__file__).resolve().parents[2] / "demo_db" / "scenario.toml"
+    if source.exists():
+        return source
+    return Path(str(resources.files("tracker") / "_demo_db" / "scenario.toml"))
+
+
+@dataclass
+class StepClock:
+    """A clock that reads whatever time the current step says."""
+
+    now: datetime
+
+    def __call__(self) -> datetime:
+        return self.now
+
+
+@dataclass
+class Replay:
+    db: Database
+    clock: StepClock
+    aliases: dict[str, str] = field(default_factory=dict)
+
+    def resolve(self, value: Any) -> Any:
+        if isinstance(value, str) and value.startswith("@"):
+            try:
+                return self.aliases[value[1:]]
+            except KeyError:
+                raise InputError("scenario", value, "alias used before it is defined") from None
+        if isinstance(value, dict):
+            return {key: self.resolve(item) for key, item in value.items()}
+        if isinstance(value, list):
+            return [self.resolve(item) for item in value]
+        return value
+
+    def run(self, number: int, step: dict[str, Any]) -> None:
+        action = step["do"]
+        if action not in SERVICES:
+            raise InputError(f"steps[{number}].do", action, "unknown demo action")
+        self.clock.now = _aware(step["at"])
+        answer = SERVICES[action](self.db, step["by"], self.resolve(step.get("args", {})))
+        if "as" in step:
+            self.aliases[step["as"]] = answer.item.id
+
+
+def _aware(value: datetime | str) -> datetime:
+    moment = value if isinstance(value, datetime) else datetime.fromisoformat(value)
+    if moment.tzinfo is None:
+        raise InputError("scenario.at", str(value), "needs a time zone")
+    return moment
+
+
+def load_scenario(path: Path | None = None) -> dict[str, Any]:
+    with (path or scenario_path()).open("rb") as handle:
+        return tomllib.load(handle)
+
+
+def build_demo(out: Path, scenario: Path | None = None) -> int:
+    """Write the demo database to ``out`` (replacing it); returns the number of steps."""
+    data = load_scenario(scenario)
+    steps = sorted(data["steps"], key=lambda s: _aware(s["at"]))  # stable: file order on ties
+    partial = out.with_name(out.name + ".partial")
+    _remove(partial)
+    founder = data["founder"]
+    clock = StepClock(_aware(founder["at"]))
+    db = setup.init_database(partial, {"code": founder["code"], "name": founder["name"]}, clock)
+    try:
+        replay = Replay(db, clock)
+        for number, step in enumerate(steps):
+            replay.run(number, step)
+    finally:
+        db.close()
+    _remove(out)
+    partial.replace(out)
+    return len(steps)
+
+
+def _remove(path: Path) -> None:
+    for suffix in ("", "-wal", "-shm"):
+        Path(str(path) + suffix).unlink(missing_ok=True)

@@ -1,0 +1,220 @@
+"""Column chemistry set-up: reference materials, batches and their positions."""
+
+from __future__ import annotations
+
+from datetime import date
+from typing import Annotated
+
+from pydantic import Field, field_validator, model_validator
+from sqlalchemy import func, select
+
+from tracker.db.database import Database
+from tracker.domain.errors import InputError, RuleViolation
+from tracker.domain.models import (
+    Aliquot,
+    BatchPosition,
+    ColumnBatch,
+    ContainerStatus,
+    PositionKind,
+    ReferenceMaterial,
+)
+from tracker.services.common import finish
+from tracker.services.inputs import Element, Name, Request, Text, parse
+from tracker.services.lab import aliquot_element
+from tracker.services.lookup import get_by_id, get_reference_material
+from tracker.services.uow import unit_of_work
+from tracker.services.views import Done, View
+
+
+class ReferenceMaterialView(View):
+    id: str
+    name: str
+    element: str
+    matrix: str | None
+
+
+class NewReferenceMaterial(Request):
+    name: Name
+    element: Element
+    matrix: Annotated[str, Field(max_length=120)] | None = None
+    notes: Text | None = None
+
+
+def add_reference_material(
+    db: Database, actor: str | None, data: NewReferenceMaterial | dict[str, object]
+) -> Done[ReferenceMaterialView]:
+    """Register a reference material or bracketing standard the lab runs."""
+    request = parse(NewReferenceMaterial, data)
+    with unit_of_work(db, actor) as uow:
+        clash = select(ReferenceMaterial.id).where(
+            func.lower(ReferenceMaterial.name) == request.name.lower()
+        )
+        if uow.session.scalar(clash) is not None:
+            raise RuleViolation("name", request.name, "a reference material has this name")
+        row = ReferenceMaterial(**request.model_dump(), created_at=uow.now)
+        uow.session.add(row)
+        return finish(
+            uow,
+            "reference_material.added",
+            row,
+            request.model_dump(),
+            lambda: ReferenceMaterialView(
+                id=row.public_id, name=row.name, element=row.element, matrix=row.matrix
+            ),
+        )
+
+
+class BatchView(View):
+    id: str
+    name: str
+    performed_on: date
+    element: str
+    resin: str
+    cut_names: list[str]
+    positions: int
+
+
+class NewBatch(Request):
+    name: Name
+    performed_on: date
+    element: Element
+    resin: Annotated[str, Field(min_length=1, max_length=120)]
+    elution_scheme: Annotated[str, Field(min_length=1, max_length=4000)]
+    cut_names: list[str]
+    yield_threshold: Annotated[float, Field(gt=0, le=1)] = 0.95
+    blank_limit: Annotated[float, Field(gt=0, lt=1)] = 0.01
+
+    @field_validator("cut_names", mode="before")
+    @classmethod
+    def _split(cls, value: object) -> list[str]:
+        items = value.split(",") if isinstance(value, str) else list(value)  # type: ignore[call-overload]
+        names = [str(item).strip() for item in items if str(item).strip()]
+        if not names:
+            raise ValueError("name at least one cut, e.g. 'matrix,Ca'")
+        if len(set(names)) != len(names):
+            raise ValueError("cut names must differ")
+        return names
+
+
+def _batch_view(batch: ColumnBatch) -> BatchView:
+    return BatchView(
+        id=batch.public_id,
+        name=batch.name,
+        performed_on=batch.performed_on,
+        element=batch.element,
+        resin=batch.resin,
+        cut_names=list(batch.cut_names),
+        positions=len(batch.positions),
+    )
+
+
+def create_batch(
+    db: Database, actor: str | None, data: NewBatch | dict[str, object]
+) -> Done[BatchView]:
+    """Open a column batch: resin, elution scheme and the cuts it will collect."""
+    request = parse(NewBatch, data)
+    with unit_of_work(db, actor) as uow:
+        if request.performed_on > uow.now.date():
+            raise InputError("performed-on", request.performed_on.isoformat(), "is in the future")
+        batch = ColumnBatch(**request.model_dump(), operator=uow.operator.code, created_at=uow.now)
+        uow.session.add(batch)
+        return finish(
+            uow, "batch.created", batch, request.model_dump(mode="json"), lambda: _batch_view(batch)
+        )
+
+
+class PositionView(View):
+    id: str
+    batch: str
+    slot: int
+    kind: str
+    holds: str | None
+    loaded_ug: float | None
+    loaded_u_ug: float | None
+
+
+class AddPosition(Request):
+    batch: str
+    kind: PositionKind
+    aliquot: str | None = None
+    reference_material: str | None = None
+    loaded_ug: Annotated[float, Field(gt=0)] | None = None  # for reference materials
+    loaded_u_ug: Annotated[float, Field(ge=0)] | None = None
+
+    @model_validator(mode="after")
+    def _holds_right_thing(self) -> AddPosition:
+        needs = {PositionKind.SAMPLE: "aliquot", PositionKind.REFERENCE: "reference_material"}
+        wanted = needs.get(self.kind)
+        for name in ("aliquot", "reference_material"):
+            given = getattr(self, name) is not None
+            if given != (name == wanted):
+                verb = "needs" if name == wanted else "takes no"
+                raise ValueError(f"a {self.kind.value} position {verb} {name.replace('_', ' ')}")
+        return self
+
+
+def add_position(
+    db: Database, actor: str | None, data: AddPosition | dict[str, object]
+) -> Done[PositionView]:
+    """Put a sample aliquot, a procedural blank or a reference material on the next column."""
+    request = parse(AddPosition, data)
+    with unit_of_work(db, actor) as uow:
+        batch = get_by_id(uow.session, ColumnBatch, "batch", request.batch)
+        slot = 1 + max((p.slot for p in batch.positions), default=0)
+        position = BatchPosition(batch=batch, slot=slot, kind=request.kind, created_at=uow.now)
+        uow.session.add(position)
+        holds = None
+        if request.aliquot:
+            aliquot = get_by_id(uow.session, Aliquot, "aliquot", request.aliquot)
+            if aliquot.status is not ContainerStatus.AVAILABLE or aliquot.positions:
+                raise RuleViolation(
+                    "aliquot", aliquot.public_id, "is already used or not available"
+                )
+            element = aliquot_element(aliquot)
+            if element is None:
+                raise RuleViolation(
+                    "aliquot",
+                    aliquot.public_id,
+                    "its solution has no concentration yet; record one first",
+                )
+            if element[0] != batch.element:
+                raise RuleViolation(
+                    "aliquot",
+                    aliquot.public_id,
+                    f"holds {element[0]}, but the batch separates {batch.element}",
+                )
+            position.aliquot = aliquot
+            position.loaded_ug, position.loaded_u_ug = element[1], element[2]
+            aliquot.status = ContainerStatus.CONSUMED
+            holds = aliquot.public_id
+        if request.reference_material:
+            material = get_reference_material(
+                uow.session, "reference-material", request.reference_material
+            )
+            position.reference_material = material
+            position.loaded_ug, position.loaded_u_ug = request.loaded_ug, request.loaded_u_ug
+            holds = material.name
+        payload = {
+            "batch": batch.public_id,
+            "slot": slot,
+            "kind": request.kind.value,
+            "holds": holds,
+            "loaded_ug": position.loaded_ug,
+            "loaded_u_ug": position.loaded_u_ug,
+        }
+        return finish(
+            uow,
+            "batch.position_added",
+            position,
+            payload,
+            lambda: PositionView(
+                id=position.public_id,
+                batch=batch.public_id,
+                slot=slot,
+                kind=request.kind.value,
+                holds=holds,
+                loaded_ug=position.loaded_ug,
+                loaded_u_ug=position.loaded_u_ug,
+            ),
+            parent=batch,
+        )

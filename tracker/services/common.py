@@ -1,0 +1,48 @@
+"""Small rules every service shares: action times, finishing a unit of work."""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from datetime import datetime, timedelta
+from typing import Any, TypeVar
+
+from pydantic import BaseModel
+
+from tracker.domain.errors import InputError
+from tracker.domain.timeutil import as_utc, iso_utc
+from tracker.services.uow import Ref, UnitOfWork
+from tracker.services.views import Done
+
+V = TypeVar("V", bound=BaseModel)
+
+# Workstation clocks drift; a time this far ahead of the recording clock is still "now".
+CLOCK_SKEW = timedelta(minutes=5)
+
+
+def action_time(uow: UnitOfWork, given: datetime | None, field: str) -> datetime:
+    """When the action happened: the given time (never in the future) or now."""
+    if given is None:
+        return uow.now
+    moment = as_utc(given)
+    if moment > uow.now + CLOCK_SKEW:
+        raise InputError(field, iso_utc(moment), f"is in the future (now is {iso_utc(uow.now)})")
+    return moment
+
+
+def finish(
+    uow: UnitOfWork,
+    action: str,
+    obj: Ref,
+    payload: dict[str, Any],
+    view: Callable[[], V],
+    parent: Ref = None,
+) -> Done[V]:
+    """Record the unit's custody event, commit, and answer with the view and the event.
+
+    ``view`` is called after the event is recorded (new rows then have their IDs)
+    and before the commit ends the session.
+    """
+    event = uow.record(action, obj, payload, parent)
+    answer = view()
+    uow.commit()
+    return Done[V](item=answer, event_seq=event.seq, event_hash=event.hash)

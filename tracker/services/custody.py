@@ -1,0 +1,161 @@
+"""Where things are and where they went: moves, disposals, the loan's return."""
+
+from __future__ import annotations
+
+from datetime import date
+from typing import Annotated
+
+from pydantic import Field
+from sqlalchemy import select
+
+from tracker.db.database import Database
+from tracker.domain.errors import InputError, RuleViolation
+from tracker.domain.models import (
+    Aliquot,
+    ContainerStatus,
+    Cut,
+    LoanStatus,
+    Location,
+    Powder,
+    Solution,
+    Specimen,
+    SpecimenStatus,
+)
+from tracker.services.common import finish
+from tracker.services.inputs import Request, Text, parse
+from tracker.services.lookup import get_any, get_by_id, get_loan
+from tracker.services.uow import unit_of_work
+from tracker.services.views import Done, ItemView, LoanView
+
+Container = Powder | Solution | Aliquot | Cut
+MOVABLE = (Specimen, Powder, Solution, Aliquot, Cut)
+
+
+class Move(Request):
+    item: str
+    to: str
+    note: Text | None = None
+
+
+def move(db: Database, actor: str | None, data: Move | dict[str, object]) -> Done[ItemView]:
+    """Put a specimen or a vial somewhere else; the ledger keeps both places."""
+    request = parse(Move, data)
+    with unit_of_work(db, actor) as uow:
+        item = get_any(uow.session, "item", request.item)
+        if not isinstance(item, MOVABLE):
+            raise InputError(
+                "item", request.item, "is not a specimen or a vial; it cannot be moved"
+            )
+        _require_here(item)
+        target = get_by_id(uow.session, Location, "to", request.to)
+        if item.location_id == target.id:
+            raise RuleViolation("to", target.public_id, f"{item.public_id} is already there")
+        before = item.location.path if item.location else None
+        item.location = target
+        payload = {
+            "from": before,
+            "to": target.path,
+            "to_id": target.public_id,
+            "note": request.note,
+        }
+        return finish(uow, "item.moved", item, payload, lambda: ItemView.of(item), parent=target)
+
+
+def _require_here(item: Specimen | Container) -> None:
+    if isinstance(item, Specimen):
+        if item.status is not SpecimenStatus.ON_HAND:
+            raise RuleViolation(
+                "item", item.public_id, f"is {item.status.value.replace('_', ' ')}, not in the lab"
+            )
+    elif item.status not in (ContainerStatus.AVAILABLE, ContainerStatus.RETAINED):
+        raise RuleViolation("item", item.public_id, f"is {item.status.value}, not in the lab")
+
+
+_FINAL = {
+    "returned": ContainerStatus.RETURNED,
+    "destroyed": ContainerStatus.DESTROYED,
+    "retained": ContainerStatus.RETAINED,
+    "consumed": ContainerStatus.CONSUMED,
+}
+
+
+class Dispose(Request):
+    item: str
+    outcome: Annotated[str, Field(pattern="^(returned|destroyed|retained|consumed)$")]
+    reason: Annotated[str, Field(min_length=1, max_length=4000)]
+    permission: Annotated[str, Field(max_length=300)] | None = None  # lender's written consent
+
+
+def dispose(db: Database, actor: str | None, data: Dispose | dict[str, object]) -> Done[ItemView]:
+    """End a vial's life in the lab: returned to the lender, destroyed, retained or used up."""
+    request = parse(Dispose, data)
+    with unit_of_work(db, actor) as uow:
+        item = get_any(uow.session, "item", request.item)
+        if not isinstance(item, Powder | Solution | Aliquot | Cut):
+            raise InputError("item", request.item, "is not a powder, solution, aliquot or cut")
+        _require_here(item)
+        outcome = _FINAL[request.outcome]
+        if outcome is ContainerStatus.RETAINED and not request.permission:
+            raise RuleViolation(
+                "permission", None, "retaining lent material needs the lender's written permission"
+            )
+        before = item.location.path if item.location else None
+        item.status = outcome
+        item.location = None
+        payload = {
+            "outcome": outcome.value,
+            "reason": request.reason,
+            "permission": request.permission,
+            "from": before,
+        }
+        action = f"{type(item).__name__.lower()}.{outcome.value}"
+        return finish(uow, action, item, payload, lambda: ItemView.of(item))
+
+
+class MarkReturned(Request):
+    loan: str
+    returned_on: date | None = None
+
+
+def mark_loan_returned(
+    db: Database, actor: str | None, data: MarkReturned | dict[str, object]
+) -> Done[LoanView]:
+    """Close the material side of a loan once every specimen has gone back."""
+    request = parse(MarkReturned, data)
+    with unit_of_work(db, actor) as uow:
+        loan = get_loan(uow.session, "loan", request.loan)
+        if loan.status is not LoanStatus.OPEN:
+            raise RuleViolation("loan", loan.reference, f"is already {loan.status.value}")
+        on_hand = [s.public_id for s in loan.specimens if s.status is SpecimenStatus.ON_HAND]
+        if on_hand:
+            raise RuleViolation(
+                "loan",
+                loan.reference,
+                f"{len(on_hand)} specimen(s) still on hand: {', '.join(on_hand[:5])}",
+            )
+        open_powders = uow.session.scalars(
+            select(Powder)
+            .join(Specimen)
+            .where(Specimen.loan_id == loan.id, Powder.status == ContainerStatus.AVAILABLE)
+        ).all()
+        if open_powders:
+            names = ", ".join(p.public_id for p in open_powders[:5])
+            raise RuleViolation(
+                "loan",
+                loan.reference,
+                f"{len(open_powders)} powder vial(s) still open: {names}; "
+                "return, destroy, retain or use them up first",
+            )
+        returned_on = request.returned_on or uow.now.date()
+        if returned_on > uow.now.date():
+            raise InputError("returned-on", returned_on.isoformat(), "is in the future")
+        loan.status = LoanStatus.RETURNED
+        loan.returned_on = returned_on
+        return finish(
+            uow,
+            "loan.returned",
+            loan,
+            {"returned_on": returned_on.isoformat()},
+            lambda: LoanView.of(loan),
+            parent=loan.lender,
+        )

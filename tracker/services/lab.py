@@ -1,0 +1,386 @@
+"""Bench actions on material: drill, dissolve, record a concentration, take an aliquot."""
+
+from __future__ import annotations
+
+from decimal import Decimal
+from typing import Annotated
+
+from pydantic import Field, field_validator, model_validator
+
+from tracker.db.database import Database
+from tracker.domain.budget import (
+    Amount,
+    element_mass_ug,
+    is_significant,
+    overdraws,
+    remaining,
+)
+from tracker.domain.errors import InputError, RuleViolation
+from tracker.domain.models import (
+    Aliquot,
+    AliquotPurpose,
+    Concentration,
+    ContainerStatus,
+    Location,
+    Powder,
+    Solution,
+    Specimen,
+    SpecimenStatus,
+)
+from tracker.domain.units import decimals_below, format_mass_mg, format_value_u
+from tracker.domain.weighing import MassByDifference
+from tracker.services.common import action_time, finish
+from tracker.services.inputs import (
+    AwareDatetime,
+    Element,
+    FractionUgPerG,
+    PositiveMassMg,
+    Request,
+    parse,
+)
+from tracker.services.lookup import get_by_id
+from tracker.services.uow import UnitOfWork, unit_of_work
+from tracker.services.views import AliquotView, ConcentrationView, Done, PowderView, SolutionView
+
+# Defaults when the form does not say (common practice): a microbalance reading to
+# 0.001 mg for powders, an analytical balance reading to 0.1 mg (0.0001 g) for solutions.
+MICROBALANCE_MG = Decimal("0.001")
+ANALYTICAL_BALANCE_MG = Decimal("0.1")
+
+
+def weigh(
+    tare: Decimal, gross: Decimal, readability: Decimal, names: tuple[str, str] = ("tare", "gross")
+) -> MassByDifference:
+    """Check a tare/gross pair against the balance and return the mass by difference."""
+    for name, value in zip(names, (tare, gross), strict=True):
+        if decimals_below(value, readability):
+            raise InputError(
+                name, f"{value} mg", f"has more decimals than the balance reads ({readability} mg)"
+            )
+    if gross <= tare:
+        raise InputError(names[1], f"{gross} mg", f"is not heavier than the tare ({tare} mg)")
+    return MassByDifference(tare, gross, readability)
+
+
+def _place(uow: UnitOfWork, location: str | None) -> Location | None:
+    return get_by_id(uow.session, Location, "location", location) if location else None
+
+
+class Drill(Request):
+    specimen: str
+    tissue: Annotated[str, Field(min_length=1, max_length=60)]
+    site: Annotated[str, Field(max_length=200)] | None = None
+    tare: PositiveMassMg
+    gross: PositiveMassMg
+    readability: PositiveMassMg = MICROBALANCE_MG
+    drilled_at: AwareDatetime | None = None
+    location: str | None = None
+
+    @field_validator("tissue")
+    @classmethod
+    def _lower(cls, value: str) -> str:
+        return value.lower()
+
+
+def drill(db: Database, actor: str | None, data: Drill | dict[str, object]) -> Done[PowderView]:
+    """Drill powder from a specimen; its mass is gross − tare with the balance's uncertainty."""
+    request = parse(Drill, data)
+    weighing = weigh(request.tare, request.gross, request.readability)
+    mass = weighing.as_ufloat()
+    with unit_of_work(db, actor) as uow:
+        specimen = get_by_id(uow.session, Specimen, "specimen", request.specimen)
+        if specimen.status is not SpecimenStatus.ON_HAND:
+            raise RuleViolation(
+                "specimen",
+                specimen.public_id,
+                f"is {specimen.status.value.replace('_', ' ')}, not on hand",
+            )
+        powder = Powder(
+            specimen=specimen,
+            tissue=request.tissue,
+            site=request.site,
+            tare_mg=float(request.tare),
+            gross_mg=float(request.gross),
+            readability_mg=float(request.readability),
+            mass_mg=float(weighing.net),
+            mass_u_mg=mass.std_dev,
+            drilled_at=action_time(uow, request.drilled_at, "drilled-at"),
+            drilled_by=uow.operator.code,
+            location=_place(uow, request.location),
+            created_at=uow.now,
+        )
+        uow.session.add(powder)
+        payload = {
+            "specimen": specimen.public_id,
+            "tissue": powder.tissue,
+            "site": powder.site,
+            "tare_mg": powder.tare_mg,
+            "gross_mg": powder.gross_mg,
+            "readability_mg": powder.readability_mg,
+            "mass_mg": powder.mass_mg,
+            "mass_u_mg": powder.mass_u_mg,
+            "drilled_at": powder.drilled_at.isoformat(),
+        }
+        return finish(
+            uow, "powder.drilled", powder, payload, lambda: PowderView.of(powder), parent=specimen
+        )
+
+
+def powder_remaining(powder: Powder) -> Amount:
+    """Powder not yet taken into a solution."""
+    taken = (Amount(s.powder_mass_mg, s.powder_mass_u_mg) for s in powder.solutions)
+    return remaining(Amount(powder.mass_mg, powder.mass_u_mg), taken)
+
+
+class Dissolve(Request):
+    powder: str
+    acid: Annotated[str, Field(min_length=1, max_length=120)]
+    vial_tare: PositiveMassMg
+    vial_gross: PositiveMassMg
+    readability: PositiveMassMg = ANALYTICAL_BALANCE_MG
+    powder_taken: PositiveMassMg | None = None  # None: all the powder that remains
+    powder_readability: PositiveMassMg = MICROBALANCE_MG
+    dissolved_at: AwareDatetime | None = None
+    location: str | None = None
+
+
+def dissolve(
+    db: Database, actor: str | None, data: Dissolve | dict[str, object]
+) -> Done[SolutionView]:
+    """Dissolve all or part of a powder; the solution is weighed by difference."""
+    request = parse(Dissolve, data)
+    solution_mass = weigh(
+        request.vial_tare, request.vial_gross, request.readability, ("vial-tare", "vial-gross")
+    )
+    with unit_of_work(db, actor) as uow:
+        powder = get_by_id(uow.session, Powder, "powder", request.powder)
+        _require_available(powder)
+        left = powder_remaining(powder)
+        taken = _portion(request, left)
+        if overdraws(left, taken):
+            raise RuleViolation(
+                "powder-taken",
+                format_mass_mg(taken.value),
+                f"is more than remains of {powder.public_id} "
+                f"({format_mass_mg(left.value, left.u)})",
+            )
+        if not is_significant(remaining(left, [taken])):  # nothing measurable is left
+            powder.status = ContainerStatus.CONSUMED
+        grams = solution_mass.as_ufloat() / 1000
+        solution = Solution(
+            powder=powder,
+            powder_mass_mg=taken.value,
+            powder_mass_u_mg=taken.u,
+            acid=request.acid,
+            solution_mass_g=grams.nominal_value,
+            solution_mass_u_g=grams.std_dev,
+            dissolved_at=action_time(uow, request.dissolved_at, "dissolved-at"),
+            dissolved_by=uow.operator.code,
+            location=_place(uow, request.location),
+            created_at=uow.now,
+        )
+        uow.session.add(solution)
+        payload = {
+            "powder": powder.public_id,
+            "powder_mass_mg": taken.value,
+            "powder_mass_u_mg": taken.u,
+            "acid": request.acid,
+            "vial_tare_mg": float(request.vial_tare),
+            "vial_gross_mg": float(request.vial_gross),
+            "readability_mg": float(request.readability),
+            "solution_mass_g": solution.solution_mass_g,
+            "solution_mass_u_g": solution.solution_mass_u_g,
+            "powder_status": powder.status.value,
+        }
+        return finish(
+            uow,
+            "solution.dissolved",
+            solution,
+            payload,
+            lambda: SolutionView.of(solution),
+            parent=powder,
+        )
+
+
+def _portion(request: Dissolve, left: Amount) -> Amount:
+    if request.powder_taken is None:
+        if left.value <= 0:
+            raise RuleViolation("powder", request.powder, "no powder remains to dissolve")
+        return left
+    if decimals_below(request.powder_taken, request.powder_readability):
+        raise InputError(
+            "powder-taken",
+            f"{request.powder_taken} mg",
+            f"has more decimals than the balance reads ({request.powder_readability} mg)",
+        )
+    weighed = MassByDifference(Decimal(0), request.powder_taken, request.powder_readability)
+    return Amount(float(request.powder_taken), weighed.as_ufloat().std_dev)
+
+
+def _require_available(container: Powder | Solution) -> None:
+    if container.status is not ContainerStatus.AVAILABLE:
+        raise RuleViolation(
+            type(container).__name__.lower(),
+            container.public_id,
+            f"is {container.status.value}, not available",
+        )
+
+
+class RecordConcentration(Request):
+    solution: str
+    element: Element
+    value: FractionUgPerG
+    uncertainty: FractionUgPerG | None = None
+    relative_uncertainty_percent: Annotated[float, Field(gt=0, lt=100)] | None = None
+    method: Annotated[str, Field(max_length=120)] | None = None
+    measured_at: AwareDatetime | None = None
+
+    @model_validator(mode="after")
+    def _one_uncertainty(self) -> RecordConcentration:
+        if (self.uncertainty is None) == (self.relative_uncertainty_percent is None):
+            raise ValueError("give exactly one of uncertainty or relative-uncertainty-percent")
+        if self.value <= 0:
+            raise ValueError(f"concentration {self.value} ug/g must be greater than zero")
+        return self
+
+    def standard_uncertainty(self) -> float:
+        if self.uncertainty is not None:
+            return float(self.uncertainty)
+        assert self.relative_uncertainty_percent is not None
+        return float(self.value) * self.relative_uncertainty_percent / 100
+
+
+def latest_concentration(solution: Solution, element: str | None = None) -> Concentration | None:
+    """The newest measurement (for ``element`` if given); corrections supersede older rows."""
+    rows = [c for c in solution.concentrations if element is None or c.element == element]
+    return max(rows, key=lambda c: (c.measured_at, c.id)) if rows else None
+
+
+def solution_element(solution: Solution, element: str | None = None) -> tuple[str, Amount] | None:
+    concentration = latest_concentration(solution, element)
+    if concentration is None:
+        return None
+    amount = element_mass_ug(
+        Amount(solution.solution_mass_g, solution.solution_mass_u_g),
+        Amount(concentration.value_ug_per_g, concentration.u_ug_per_g),
+    )
+    return concentration.element, amount
+
+
+def record_concentration(
+    db: Database, actor: str | None, data: RecordConcentration | dict[str, object]
+) -> Done[ConcentrationView]:
+    """Record an element mass fraction measured in a solution (e.g. Ca by ICP-OES)."""
+    request = parse(RecordConcentration, data)
+    with unit_of_work(db, actor) as uow:
+        solution = get_by_id(uow.session, Solution, "solution", request.solution)
+        row = Concentration(
+            solution=solution,
+            element=request.element,
+            value_ug_per_g=float(request.value),
+            u_ug_per_g=request.standard_uncertainty(),
+            method=request.method,
+            measured_at=action_time(uow, request.measured_at, "measured-at"),
+            recorded_by=uow.operator.code,
+            created_at=uow.now,
+        )
+        uow.session.add(row)
+        uow.session.flush()
+        element = element_mass_ug(
+            Amount(solution.solution_mass_g, solution.solution_mass_u_g),
+            Amount(row.value_ug_per_g, row.u_ug_per_g),
+        )
+        payload = {
+            "element": row.element,
+            "value_ug_per_g": row.value_ug_per_g,
+            "u_ug_per_g": row.u_ug_per_g,
+            "method": row.method,
+            "element_ug": element.value,
+            "element_u_ug": element.u,
+        }
+        return finish(
+            uow,
+            "concentration.recorded",
+            solution,
+            payload,
+            lambda: ConcentrationView.of(row, element.value, element.u),
+        )
+
+
+class TakeAliquot(Request):
+    solution: str
+    tare: PositiveMassMg
+    gross: PositiveMassMg
+    readability: PositiveMassMg = ANALYTICAL_BALANCE_MG
+    purpose: AliquotPurpose = AliquotPurpose.ISOTOPES
+    taken_at: AwareDatetime | None = None
+    location: str | None = None
+
+
+def solution_remaining_g(solution: Solution) -> Amount:
+    taken = (Amount(a.mass_g, a.mass_u_g) for a in solution.aliquots)
+    return remaining(Amount(solution.solution_mass_g, solution.solution_mass_u_g), taken)
+
+
+def take_aliquot(
+    db: Database, actor: str | None, data: TakeAliquot | dict[str, object]
+) -> Done[AliquotView]:
+    """Weigh out part of a solution; its element content follows from the concentration."""
+    request = parse(TakeAliquot, data)
+    weighing = weigh(request.tare, request.gross, request.readability)
+    grams = weighing.as_ufloat() / 1000
+    with unit_of_work(db, actor) as uow:
+        solution = get_by_id(uow.session, Solution, "solution", request.solution)
+        _require_available(solution)
+        left = solution_remaining_g(solution)
+        wanted = Amount(grams.nominal_value, grams.std_dev)
+        if overdraws(left, wanted):
+            raise RuleViolation(
+                "gross",
+                f"{wanted.value:.5f} g",
+                f"aliquot is more than remains of {solution.public_id} "
+                f"({format_value_u(left.value, left.u, 'g')})",
+            )
+        aliquot = Aliquot(
+            solution=solution,
+            mass_g=wanted.value,
+            mass_u_g=wanted.u,
+            purpose=request.purpose,
+            taken_at=action_time(uow, request.taken_at, "taken-at"),
+            taken_by=uow.operator.code,
+            location=_place(uow, request.location),
+            created_at=uow.now,
+        )
+        uow.session.add(aliquot)
+        element = aliquot_element(aliquot)
+        payload = {
+            "solution": solution.public_id,
+            "mass_g": aliquot.mass_g,
+            "mass_u_g": aliquot.mass_u_g,
+            "tare_mg": float(request.tare),
+            "gross_mg": float(request.gross),
+            "readability_mg": float(request.readability),
+            "purpose": aliquot.purpose.value,
+            "element": element[0] if element else None,
+            "element_ug": element[1] if element else None,
+        }
+        return finish(
+            uow,
+            "aliquot.taken",
+            aliquot,
+            payload,
+            lambda: AliquotView.of(aliquot, element),
+            parent=solution,
+        )
+
+
+def aliquot_element(aliquot: Aliquot) -> tuple[str, float, float] | None:
+    """Element in an aliquot (µg) = aliquot mass × the solution's latest concentration."""
+    concentration = latest_concentration(aliquot.solution)
+    if concentration is None:
+        return None
+    amount = element_mass_ug(
+        Amount(aliquot.mass_g, aliquot.mass_u_g),
+        Amount(concentration.value_ug_per_g, concentration.u_ug_per_g),
+    )
+    return concentration.element, amount.value, amount.u

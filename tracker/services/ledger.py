@@ -1,0 +1,71 @@
+"""Reading the custody ledger: verify the chain, list events, export them as JSON Lines."""
+
+from __future__ import annotations
+
+import json
+from collections.abc import Iterator
+from typing import TextIO
+
+from sqlalchemy import select
+
+from tracker.db.database import Database
+from tracker.domain.ledger import LedgerRow, VerifyReport, verify_chain
+from tracker.domain.models import CustodyEvent
+from tracker.domain.timeutil import iso_utc
+from tracker.services.views import EventView
+
+_COLUMNS = (
+    CustodyEvent.seq,
+    CustodyEvent.at,
+    CustodyEvent.operator,
+    CustodyEvent.action,
+    CustodyEvent.object_ref,
+    CustodyEvent.parent_ref,
+    CustodyEvent.payload,
+    CustodyEvent.prev_hash,
+    CustodyEvent.hash,
+)
+BATCH = 5000
+
+
+def _rows(db: Database) -> Iterator[LedgerRow]:
+    """Stream ledger rows in sequence order without holding them all in memory."""
+    with db.engine.connect() as connection:
+        result = connection.execution_options(yield_per=BATCH).execute(
+            select(*_COLUMNS).order_by(CustodyEvent.seq)
+        )
+        for row in result:
+            yield LedgerRow(*row)
+
+
+def verify(db: Database) -> VerifyReport:
+    """Walk the whole chain; the report names the first broken event, if any."""
+    return verify_chain(_rows(db))
+
+
+def recent_events(db: Database, limit: int = 50, action: str | None = None) -> list[EventView]:
+    with db.read_session() as session:
+        query = select(CustodyEvent).order_by(CustodyEvent.seq.desc()).limit(limit)
+        if action:
+            query = query.where(CustodyEvent.action.startswith(action))
+        return [EventView.of(e) for e in session.scalars(query)]
+
+
+def export_jsonl(db: Database, out: TextIO) -> int:
+    """Write one JSON object per event, fields exactly as hashed; returns the count."""
+    count = 0
+    for row in _rows(db):
+        record = {
+            "seq": row.seq,
+            "at": row.at if isinstance(row.at, str) else iso_utc(row.at),
+            "operator": row.operator,
+            "action": row.action,
+            "object": row.object_ref,
+            "parent": row.parent_ref,
+            "prev_hash": row.prev_hash,
+            "payload": row.payload,
+            "hash": row.hash,
+        }
+        out.write(json.dumps(record, ensure_ascii=False) + "\n")
+        count += 1
+    return count

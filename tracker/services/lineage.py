@@ -1,0 +1,203 @@
+"""Read side: an item, the tree of what came from it, where it came from, and its history."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from pydantic import Field
+from sqlalchemy import or_, select
+from sqlalchemy.orm import Session, selectinload
+
+from tracker.db.database import Database
+from tracker.domain.base import HasPublicId
+from tracker.domain.models import (
+    Aliquot,
+    BatchPosition,
+    ColumnBatch,
+    CustodyEvent,
+    Cut,
+    Lender,
+    Loan,
+    Powder,
+    Solution,
+    Specimen,
+)
+from tracker.services.lab import powder_remaining, solution_element, solution_remaining_g
+from tracker.services.lookup import get_any
+from tracker.services.views import EventView, View
+
+
+class Node(View):
+    """One item in a lineage tree; ``facts`` holds its masses and amounts with units in the keys."""
+
+    id: str
+    kind: str
+    label: str
+    status: str | None = None
+    facts: dict[str, Any] = Field(default_factory=dict)
+    children: list[Node] = Field(default_factory=list)
+
+
+class ItemDetail(View):
+    item: Node
+    ancestors: list[Node]
+    location: str | None
+    history: list[EventView]
+
+
+def show_item(db: Database, ref: str) -> ItemDetail:
+    """Everything about one ID: its lineage below, its ancestors above, its custody history."""
+    with db.read_session() as session:
+        row = get_any(session, "id", ref)
+        if isinstance(row, Specimen):
+            load_specimen_tree(session, row.id)  # one query per level instead of per node
+        location = getattr(row, "location", None)
+        return ItemDetail(
+            item=node_of(row),
+            ancestors=[node_of(a, with_children=False) for a in ancestors_of(row)],
+            location=location.path if location is not None else None,
+            history=history_of(session, row.public_id),
+        )
+
+
+def history_of(session: Session, public_id: str) -> list[EventView]:
+    query = (
+        select(CustodyEvent)
+        .where(or_(CustodyEvent.object_ref == public_id, CustodyEvent.parent_ref == public_id))
+        .order_by(CustodyEvent.seq)
+    )
+    return [EventView.of(e) for e in session.scalars(query)]
+
+
+def ancestors_of(row: HasPublicId) -> list[HasPublicId]:
+    """From the loan down to the item's parent, in that order."""
+    chain: list[HasPublicId] = []
+    parent = _parent(row)
+    while parent is not None:
+        chain.append(parent)
+        parent = _parent(parent)
+    return list(reversed(chain))
+
+
+def _parent(row: HasPublicId) -> HasPublicId | None:
+    match row:
+        case Loan():
+            return row.lender
+        case Specimen():
+            return row.loan
+        case Powder():
+            return row.specimen
+        case Solution():
+            return row.powder
+        case Aliquot():
+            return row.solution
+        case BatchPosition():
+            return row.aliquot if row.aliquot is not None else row.batch
+        case Cut():
+            return row.position
+    return None
+
+
+def node_of(row: HasPublicId, *, with_children: bool = True) -> Node:
+    kind = type(row).__name__.lower()
+    label, facts = _describe(row)
+    status = getattr(row, "status", None)
+    children = [node_of(c) for c in _children(row)] if with_children else []
+    return Node(
+        id=row.public_id,
+        kind=kind,
+        label=label,
+        status=status.value if status is not None else None,
+        facts=facts,
+        children=children,
+    )
+
+
+def _children(row: HasPublicId) -> list[HasPublicId]:
+    match row:
+        case Lender():
+            return list(row.loans)
+        case Loan():
+            return list(row.specimens)
+        case Specimen():
+            return list(row.powders)
+        case Powder():
+            return list(row.solutions)
+        case Solution():
+            return list(row.aliquots)
+        case Aliquot():
+            return list(row.positions)
+        case ColumnBatch():
+            return list(row.positions)
+        case BatchPosition():
+            return list(row.cuts)
+    return []
+
+
+def _describe(row: HasPublicId) -> tuple[str, dict[str, Any]]:
+    match row:
+        case Lender():
+            return row.name, {}
+        case Loan():
+            return f"{row.reference}: {row.title}", {"lender": row.lender.name}
+        case Specimen():
+            taxon = row.scientific_name or "unnamed taxon"
+            return f"{row.catalog_number} {taxon} ({row.skeletal_element or 'element ?'})", {}
+        case Powder():
+            left = powder_remaining(row)
+            return f"{row.tissue} powder{f' from {row.site}' if row.site else ''}", {
+                "mass_mg": row.mass_mg,
+                "mass_u_mg": row.mass_u_mg,
+                "remaining_mg": left.value,
+                "remaining_u_mg": left.u,
+            }
+        case Solution():
+            return _solution_facts(row)
+        case Aliquot():
+            return f"{row.purpose.value} aliquot", {"mass_g": row.mass_g, "mass_u_g": row.mass_u_g}
+        case BatchPosition():
+            what = row.reference_material.name if row.reference_material else row.kind.value
+            return f"column {row.slot} of {row.batch.name}: {what}", {
+                "loaded_ug": row.loaded_ug,
+                "loaded_u_ug": row.loaded_u_ug,
+            }
+        case Cut():
+            return f"{row.name} cut", {"recovered_ug": row.recovered_ug}
+    name = getattr(row, "name", None) or getattr(row, "code", None) or row.public_id
+    return str(name), {}
+
+
+def _solution_facts(row: Solution) -> tuple[str, dict[str, Any]]:
+    left = solution_remaining_g(row)
+    facts: dict[str, Any] = {
+        "powder_mass_mg": row.powder_mass_mg,
+        "solution_mass_g": row.solution_mass_g,
+        "solution_mass_u_g": row.solution_mass_u_g,
+        "remaining_g": left.value,
+        "remaining_u_g": left.u,
+    }
+    element = solution_element(row)
+    if element is not None:
+        facts.update(
+            {"element": element[0], "element_ug": element[1].value, "element_u_ug": element[1].u}
+        )
+    return f"solution in {row.acid}", facts
+
+
+def load_specimen_tree(session: Session, specimen_id: int) -> Specimen | None:
+    """A specimen with its whole lineage loaded in a fixed number of queries."""
+    query = (
+        select(Specimen)
+        .where(Specimen.id == specimen_id)
+        .options(
+            selectinload(Specimen.powders)
+            .selectinload(Powder.solutions)
+            .selectinload(Solution.aliquots)
+            .selectinload(Aliquot.positions)
+            .selectinload(BatchPosition.cuts),
+            selectinload(Specimen.powders)
+            .selectinload(Powder.solutions)
+            .selectinload(Solution.concentrations),
+        )
+    )
+    return session.scalars(query).one_or_none()

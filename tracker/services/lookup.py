@@ -1,0 +1,121 @@
+"""Resolve what a person typed or scanned into a row: public IDs, loan references, names."""
+
+from __future__ import annotations
+
+from typing import Any, TypeVar
+
+from sqlalchemy import func, select
+from sqlalchemy.orm import Session
+
+from tracker.domain.base import Base, HasPublicId
+from tracker.domain.errors import InputError, NotFound
+from tracker.domain.ids import BadId, Kind, PublicId, parse_id
+from tracker.domain.models import (
+    Aliquot,
+    BatchPosition,
+    ColumnBatch,
+    Cut,
+    Document,
+    InstrumentSession,
+    Lender,
+    Loan,
+    Location,
+    Operator,
+    Powder,
+    ReferenceMaterial,
+    Shipment,
+    Solution,
+    Specimen,
+)
+
+MODEL_BY_KIND: dict[Kind, type[Any]] = {
+    Kind.LENDER: Lender,
+    Kind.LOAN: Loan,
+    Kind.SPECIMEN: Specimen,
+    Kind.POWDER: Powder,
+    Kind.SOLUTION: Solution,
+    Kind.ALIQUOT: Aliquot,
+    Kind.COLUMN_BATCH: ColumnBatch,
+    Kind.POSITION: BatchPosition,
+    Kind.CUT: Cut,
+    Kind.REFERENCE_MATERIAL: ReferenceMaterial,
+    Kind.INSTRUMENT_SESSION: InstrumentSession,
+    Kind.LOCATION: Location,
+    Kind.SHIPMENT: Shipment,
+    Kind.OPERATOR: Operator,
+    Kind.DOCUMENT: Document,
+}
+
+T = TypeVar("T", bound=Base)
+
+
+def read_id(field: str, text: str) -> PublicId:
+    try:
+        return parse_id(text)
+    except BadId as exc:
+        raise InputError(field, text, str(exc)) from None
+
+
+def get_any(session: Session, field: str, text: str) -> HasPublicId:
+    """The row a public ID names, whatever its kind."""
+    public = read_id(field, text)
+    row = session.get(MODEL_BY_KIND[public.kind], public.number)
+    if row is None:
+        raise NotFound(field, text, f"no {public.kind.name.lower().replace('_', ' ')} has this ID")
+    assert isinstance(row, HasPublicId)
+    return row
+
+
+def get_by_id(session: Session, model: type[T], field: str, text: str) -> T:
+    """The row of a given kind; an ID of another kind is refused by name."""
+    public = read_id(field, text)
+    expected = model.id_kind  # type: ignore[attr-defined]
+    if public.kind is not expected:
+        raise InputError(
+            field,
+            text,
+            f"is a {public.kind.name.lower().replace('_', ' ')} ID; "
+            f"expected a {expected.name.lower().replace('_', ' ')} ID ({expected.value}-...)",
+        )
+    row = session.get(model, public.number)
+    if row is None:
+        raise NotFound(field, text, f"no {expected.name.lower().replace('_', ' ')} has this ID")
+    return row
+
+
+def _kind_of(text: str) -> Kind | None:
+    try:
+        return parse_id(text).kind
+    except BadId:
+        return None
+
+
+def _by_id_or_label(
+    session: Session, model: type[T], field: str, text: str, label: Any, what: str
+) -> T:
+    """A row by its public ID or, failing that, by a unique label column (case-insensitive)."""
+    if _kind_of(text) is model.id_kind:  # type: ignore[attr-defined]
+        return get_by_id(session, model, field, text)
+    matches = session.scalars(select(model).where(func.lower(label) == text.lower())).all()
+    if len(matches) == 1:
+        return matches[0]
+    if matches:
+        raise InputError(field, text, f"matches several; give the {what}'s ID instead")
+    raise NotFound(field, text, f"no {what} has this ID or name")
+
+
+def get_loan(session: Session, field: str, text: str) -> Loan:
+    """A loan by its public ID (LN-...) or by the lender's own loan reference."""
+    return _by_id_or_label(session, Loan, field, text, Loan.reference, "loan")
+
+
+def get_lender(session: Session, field: str, text: str) -> Lender:
+    """A lender by its public ID (LE-...) or its name."""
+    return _by_id_or_label(session, Lender, field, text, Lender.name, "lender")
+
+
+def get_reference_material(session: Session, field: str, text: str) -> ReferenceMaterial:
+    """A reference material by its public ID (RM-...) or its name."""
+    return _by_id_or_label(
+        session, ReferenceMaterial, field, text, ReferenceMaterial.name, "reference material"
+    )

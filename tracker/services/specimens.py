@@ -1,0 +1,175 @@
+"""Specimens: listed on a loan, checked in when they arrive, moved, returned."""
+
+from __future__ import annotations
+
+from typing import Annotated, Any
+
+from pydantic import Field, model_validator
+from sqlalchemy import select
+from sqlalchemy.orm import selectinload
+
+from tracker.db.database import Database
+from tracker.domain.errors import RuleViolation
+from tracker.domain.models import LoanStatus, Location, Specimen, SpecimenStatus
+from tracker.services.common import action_time, finish
+from tracker.services.inputs import AwareDatetime, Name, Request, Text, parse
+from tracker.services.lookup import get_by_id, get_loan
+from tracker.services.uow import unit_of_work
+from tracker.services.views import Done, SpecimenView
+
+Short = Annotated[str, Field(max_length=120)]
+
+
+class NewSpecimen(Request):
+    loan: str
+    catalog_number: Annotated[str, Field(min_length=1, max_length=80)]
+    institution_code: Annotated[str, Field(max_length=40)] | None = None
+    collection_code: Annotated[str, Field(max_length=40)] | None = None
+    scientific_name: Name | None = None
+    skeletal_element: Short | None = None
+    locality: Annotated[str, Field(max_length=300)] | None = None
+    formation: Short | None = None
+    earliest_epoch: Short | None = None
+    latest_epoch: Short | None = None
+    age_max_ma: Annotated[float, Field(ge=0, le=4600)] | None = None
+    age_min_ma: Annotated[float, Field(ge=0, le=4600)] | None = None
+    extra: dict[str, Any] = Field(default_factory=dict)
+
+    @model_validator(mode="after")
+    def _ages_ordered(self) -> NewSpecimen:
+        oldest, youngest = self.age_max_ma, self.age_min_ma
+        if oldest is not None and youngest is not None and youngest > oldest:
+            raise ValueError(f"youngest age {youngest} Ma is older than oldest age {oldest} Ma")
+        return self
+
+
+def add_specimen(
+    db: Database, actor: str | None, data: NewSpecimen | dict[str, object]
+) -> Done[SpecimenView]:
+    """List a specimen on a loan (status: expected until it is checked in)."""
+    request = parse(NewSpecimen, data)
+    with unit_of_work(db, actor) as uow:
+        loan = get_loan(uow.session, "loan", request.loan)
+        if loan.status is not LoanStatus.OPEN:
+            raise RuleViolation(
+                "loan", loan.reference, f"is {loan.status.value}; it takes no new specimens"
+            )
+        clash = select(Specimen.id).where(
+            Specimen.loan_id == loan.id, Specimen.catalog_number == request.catalog_number
+        )
+        if uow.session.scalar(clash) is not None:
+            raise RuleViolation("catalog-number", request.catalog_number, "is already on this loan")
+        fields = request.model_dump(exclude={"loan"})
+        specimen = Specimen(loan=loan, **fields, created_at=uow.now)
+        uow.session.add(specimen)
+        return finish(
+            uow,
+            "specimen.added",
+            specimen,
+            {"loan": loan.public_id, **fields},
+            lambda: SpecimenView.of(specimen),
+            parent=loan,
+        )
+
+
+class CheckIn(Request):
+    specimen: str
+    condition: Annotated[str, Field(min_length=1, max_length=4000)]
+    location: str | None = None
+    received_at: AwareDatetime | None = None
+
+
+def check_in(
+    db: Database, actor: str | None, data: CheckIn | dict[str, object]
+) -> Done[SpecimenView]:
+    """Receive a listed specimen: note its condition and where it is put."""
+    request = parse(CheckIn, data)
+    with unit_of_work(db, actor) as uow:
+        specimen = get_by_id(uow.session, Specimen, "specimen", request.specimen)
+        if specimen.status is not SpecimenStatus.EXPECTED:
+            raise RuleViolation(
+                "specimen",
+                specimen.public_id,
+                f"is already {specimen.status.value.replace('_', ' ')}; it cannot be checked in "
+                "twice",
+            )
+        if specimen.loan.status is not LoanStatus.OPEN:
+            raise RuleViolation(
+                "specimen", specimen.public_id, f"its loan is {specimen.loan.status.value}"
+            )
+        location = (
+            get_by_id(uow.session, Location, "location", request.location)
+            if request.location
+            else None
+        )
+        specimen.received_at = action_time(uow, request.received_at, "received-at")
+        specimen.status = SpecimenStatus.ON_HAND
+        specimen.condition_in = request.condition
+        specimen.location = location
+        payload = {
+            "condition": request.condition,
+            "location": location.public_id if location else None,
+            "location_path": location.path if location else None,
+            "received_at": specimen.received_at.isoformat(),
+        }
+        return finish(
+            uow,
+            "specimen.checked_in",
+            specimen,
+            payload,
+            lambda: SpecimenView.of(specimen),
+            parent=specimen.loan,
+        )
+
+
+class ReturnSpecimen(Request):
+    specimen: str
+    condition: Annotated[str, Field(min_length=1, max_length=4000)]
+    returned_at: AwareDatetime | None = None
+    note: Text | None = None
+
+
+def return_specimen(
+    db: Database, actor: str | None, data: ReturnSpecimen | dict[str, object]
+) -> Done[SpecimenView]:
+    """Send a specimen back to its lender, noting its condition at return."""
+    request = parse(ReturnSpecimen, data)
+    with unit_of_work(db, actor) as uow:
+        specimen = get_by_id(uow.session, Specimen, "specimen", request.specimen)
+        if specimen.status is not SpecimenStatus.ON_HAND:
+            raise RuleViolation(
+                "specimen",
+                specimen.public_id,
+                f"is {specimen.status.value.replace('_', ' ')}, not on hand",
+            )
+        specimen.returned_at = action_time(uow, request.returned_at, "returned-at")
+        specimen.status = SpecimenStatus.RETURNED
+        specimen.condition_out = request.condition
+        previous = specimen.location.path if specimen.location else None
+        specimen.location = None
+        payload = {
+            "condition": request.condition,
+            "note": request.note,
+            "from": previous,
+            "returned_at": specimen.returned_at.isoformat(),
+        }
+        return finish(
+            uow,
+            "specimen.returned",
+            specimen,
+            payload,
+            lambda: SpecimenView.of(specimen),
+            parent=specimen.loan,
+        )
+
+
+def list_specimens(db: Database, loan: str | None = None) -> list[SpecimenView]:
+    with db.read_session() as session:
+        query = (
+            select(Specimen)
+            .options(selectinload(Specimen.loan), selectinload(Specimen.location))
+            .order_by(Specimen.id)
+        )
+        if loan:
+            query = query.where(Specimen.loan_id == get_loan(session, "--loan", loan).id)
+        return [SpecimenView.of(s) for s in session.scalars(query)]

@@ -1,0 +1,139 @@
+"""The unit of work: one transaction, one operator, exactly one custody event.
+
+Every service that changes anything runs inside :func:`unit_of_work`. The
+transaction takes the writer lock (``BEGIN IMMEDIATE`` on SQLite, an advisory
+lock on PostgreSQL), so reading the ledger head, checking rules and appending
+the next event cannot interleave with another writer. Leaving the block
+without :meth:`UnitOfWork.commit` rolls everything back.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterator
+from contextlib import contextmanager
+from dataclasses import dataclass, field
+from datetime import datetime
+from typing import Any
+
+from sqlalchemy import select
+from sqlalchemy.orm import Session
+
+from tracker.db.database import Database
+from tracker.domain.base import HasPublicId
+from tracker.domain.errors import InputError, RuleViolation
+from tracker.domain.ledger import GENESIS_HASH, canonical_json, event_hash
+from tracker.domain.models import CustodyEvent, Operator, Role
+from tracker.domain.timeutil import as_utc
+
+Ref = HasPublicId | str | None
+
+
+@dataclass
+class UnitOfWork:
+    session: Session
+    operator: Operator
+    now: datetime
+    events: list[CustodyEvent] = field(default_factory=list)
+    committed: bool = False
+
+    def require_manager(self, action: str) -> None:
+        """Refuse an action reserved for managers, saying who tried and what it needs."""
+        if self.operator.role is not Role.MANAGER:
+            raise RuleViolation(
+                "--as",
+                self.operator.code,
+                f"{action} needs an operator with the manager role "
+                f"({self.operator.code} is a {self.operator.role.value})",
+            )
+
+    def record(
+        self, action: str, obj: Ref, payload: dict[str, Any], parent: Ref = None
+    ) -> CustodyEvent:
+        """Append this unit's one custody event, chained to the current head."""
+        if self.events:
+            raise RuntimeError("a service records exactly one custody event")
+        self.session.flush()  # new rows get their IDs before the event names them
+        event = append_event(
+            self.session,
+            at=self.now,
+            operator=self.operator.code,
+            action=action,
+            object_ref=_ref(obj),
+            parent_ref=_ref(parent),
+            payload=payload,
+        )
+        self.events.append(event)
+        return event
+
+    def commit(self) -> None:
+        if len(self.events) != 1:
+            raise RuntimeError("a service must record exactly one custody event before commit")
+        self.session.commit()
+        self.committed = True
+
+
+def _ref(obj: Ref) -> str:
+    if obj is None:
+        return ""
+    return obj if isinstance(obj, str) else obj.public_id
+
+
+def append_event(
+    session: Session,
+    *,
+    at: datetime,
+    operator: str,
+    action: str,
+    object_ref: str,
+    parent_ref: str,
+    payload: dict[str, Any],
+) -> CustodyEvent:
+    """Write the next ledger event; the caller must hold the writer lock."""
+    head = session.execute(
+        select(CustodyEvent.seq, CustodyEvent.hash).order_by(CustodyEvent.seq.desc()).limit(1)
+    ).first()
+    seq, prev = (head.seq + 1, head.hash) if head else (1, GENESIS_HASH)
+    text = canonical_json(payload)
+    event = CustodyEvent(
+        seq=seq,
+        at=at,
+        operator=operator,
+        action=action,
+        object_ref=object_ref,
+        parent_ref=parent_ref,
+        payload=text,
+        prev_hash=prev,
+        hash=event_hash(seq, at, operator, action, object_ref, parent_ref, prev, text),
+    )
+    session.add(event)
+    session.flush()
+    return event
+
+
+@contextmanager
+def unit_of_work(db: Database, actor: str | None) -> Iterator[UnitOfWork]:
+    """Open a write transaction as ``actor``; roll back unless the service commits."""
+    session = db.write_session()
+    try:
+        session.begin()
+        operator = find_operator(session, actor)
+        uow = UnitOfWork(session, operator, as_utc(db.clock()))
+        yield uow
+        if not uow.committed:
+            session.rollback()
+    except BaseException:
+        session.rollback()
+        raise
+    finally:
+        session.close()
+
+
+def find_operator(session: Session, actor: str | None) -> Operator:
+    if not actor:
+        raise InputError("--as", None, "no operator given; pass --as CODE or set TRACKER_OPERATOR")
+    operator = session.scalars(select(Operator).where(Operator.code == actor)).one_or_none()
+    if operator is None:
+        raise InputError("--as", actor, "no such operator; see `tracker operator list`")
+    if not operator.active:
+        raise RuleViolation("--as", actor, "this operator has been deactivated")
+    return operator
