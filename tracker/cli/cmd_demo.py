@@ -23,9 +23,10 @@ def demo(
 
     steps = build_demo(out)
     errors.print(
-        f"built {out} from the demo scenario ({steps} steps, all invented data); "
-        f"explore it with: tracker --db {out} show KF-2026-014",
+        f"built {out} from the demo scenario ({steps} steps, all invented data)",
         markup=False,
+        soft_wrap=True,
     )
+    errors.print(f"explore it: tracker --db {out} show KF-2026-014", markup=False, soft_wrap=True)
     state(ctx).db = str(out)
     cmd_inspect.show_overview(ctx)

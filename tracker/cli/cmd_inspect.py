@@ -10,7 +10,11 @@ from tracker.cli.render import history_table, item_detail, overview_table
 from tracker.cli.state import database, emit, errors
 from tracker.services import ledger, lineage, overview
 
-ledger_app = typer.Typer(help="The hash-chained custody ledger.", no_args_is_help=True)
+ledger_app = typer.Typer(
+    epilog="Example: tracker ledger verify",
+    help="The hash-chained custody ledger.",
+    no_args_is_help=True,
+)
 
 
 def show_overview(ctx: typer.Context) -> None:
@@ -78,9 +82,10 @@ def ledger_export(
 ) -> None:
     """Write the ledger as JSON Lines, each field exactly as hashed (see README)."""
     with database(ctx) as db:
-        if out is None:
+        if out is None:  # the JSON Lines themselves are the output
             count = ledger.export_jsonl(db, sys.stdout)
-        else:
-            with out.open("w", encoding="utf-8") as handle:
-                count = ledger.export_jsonl(db, handle)
-    errors.print(f"exported {count} events")
+            errors.print(f"exported {count} events")
+            return
+        with out.open("w", encoding="utf-8") as handle:
+            count = ledger.export_jsonl(db, handle)
+    emit(ctx, {"events": count, "out": str(out)}, lambda: f"exported {count} events to {out}")

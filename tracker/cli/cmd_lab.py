@@ -16,9 +16,15 @@ At = Annotated[str | None, Opt("--at", help="When it happened, ISO 8601 with zon
 To = Annotated[str | None, Opt("--to", help="Location ID where the new vial goes.")]
 
 reference_app = typer.Typer(
-    help="Reference materials and bracketing standards.", no_args_is_help=True
+    epilog="Example: tracker reference add 'SRM 915b' --element Ca",
+    help="Reference materials and bracketing standards.",
+    no_args_is_help=True,
 )
-batch_app = typer.Typer(help="Ion-exchange column batches.", no_args_is_help=True)
+batch_app = typer.Typer(
+    epilog="Example: tracker batch add CB-00001-G --blank",
+    help="Ion-exchange column batches.",
+    no_args_is_help=True,
+)
 
 SAFETY = (
     "Drilling makes fine dust and digestion uses concentrated acids: follow your "

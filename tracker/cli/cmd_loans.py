@@ -11,9 +11,21 @@ from tracker.cli.state import database, emit, state
 from tracker.domain.models import Disposition
 from tracker.services import custody, loans, specimens
 
-lender_app = typer.Typer(help="Institutions that lend specimens.", no_args_is_help=True)
-loan_app = typer.Typer(help="Loan agreements and their terms.", no_args_is_help=True)
-specimen_app = typer.Typer(help="Specimens listed on loans.", no_args_is_help=True)
+lender_app = typer.Typer(
+    epilog="Example: tracker lender list",
+    help="Institutions that lend specimens.",
+    no_args_is_help=True,
+)
+loan_app = typer.Typer(
+    epilog="Example: tracker loan list",
+    help="Loan agreements and their terms.",
+    no_args_is_help=True,
+)
+specimen_app = typer.Typer(
+    epilog="Example: tracker specimen list --loan KF-2026-014",
+    help="Specimens listed on loans.",
+    no_args_is_help=True,
+)
 
 Opt = typer.Option
 

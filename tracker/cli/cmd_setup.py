@@ -10,11 +10,17 @@ from tracker.cli.state import database, emit, state
 from tracker.domain.models import LocationKind, Role
 from tracker.services import setup
 
-operator_app = typer.Typer(help="People who record events.", no_args_is_help=True)
-location_app = typer.Typer(
-    help="Buildings, rooms, cabinets, shelves, boxes, positions.", no_args_is_help=True
+operator_app = typer.Typer(
+    epilog="Example: tracker operator list", help="People who record events.", no_args_is_help=True
 )
-db_app = typer.Typer(help="Database schema maintenance.", no_args_is_help=True)
+location_app = typer.Typer(
+    epilog="Example: tracker location list",
+    help="Buildings, rooms, cabinets, shelves, boxes, positions.",
+    no_args_is_help=True,
+)
+db_app = typer.Typer(
+    epilog="Example: tracker db upgrade", help="Database schema maintenance.", no_args_is_help=True
+)
 
 
 def init(

@@ -7,7 +7,9 @@ exactly one JSON document for scripts (``--json``).
 
 import json
 import os
-from collections.abc import Callable, Iterator
+import re
+import sys
+from collections.abc import Callable, Iterator, Sequence
 from contextlib import contextmanager
 from dataclasses import dataclass
 from pathlib import Path
@@ -49,16 +51,61 @@ def state(ctx: typer.Context) -> State:
     return root.obj
 
 
+# Service field names that the CLI spells differently (the option a person actually typed).
+FIELD_OPTIONS = {
+    "parent": "--in",
+    "location": "--to",
+    "aliquot": "--sample",
+    "reference-material": "--reference",
+    "catalog-number": "--catalog",
+    "scientific-name": "--taxon",
+    "received-on": "--received",
+    "due-on": "--due",
+    "returned-on": "--on",
+    "performed-on": "--date",
+    "cut-names": "--cuts",
+    "elution-scheme": "--scheme",
+    "uncertainty": "--u",
+    "relative-uncertainty-percent": "--rel-u",
+    "terms.permitted-tissues": "--tissues",
+    "terms.max-mass-per-specimen": "--max-per-specimen",
+    "terms.max-total-mass": "--max-total",
+    "terms.max-specimens-sampled": "--max-specimens",
+    "terms": "--max-per-specimen/--max-total",
+}
+
+
+def cli_field(ctx: typer.Context, field: str) -> str:
+    """The name a person typed for a service field: its option, or its argument in capitals."""
+    if field.startswith("-"):
+        return field
+    options = {opt for param in ctx.command.params for opt in param.opts if opt.startswith("--")}
+    arguments = {param.name for param in ctx.command.params if not param.opts[0].startswith("-")}
+    if f"--{field}" in options:
+        return f"--{field}"
+    if field.endswith("-at") and "--at" in options:
+        return "--at"
+    if FIELD_OPTIONS.get(field) in options or field == "terms":
+        return FIELD_OPTIONS[field]
+    if field.replace("-", "_") in arguments or field == "id":
+        return (field if field != "id" else "ITEM").upper().replace("-", "_")
+    return field
+
+
 @contextmanager
 def database(ctx: typer.Context) -> Iterator[Any]:
-    """Open the selected database for one command and close it afterwards."""
+    """Open the selected database for one command; refusals name the CLI's own fields."""
     from tracker.db.database import open_database
 
-    db = open_database(state(ctx).target)
     try:
-        yield db
-    finally:
-        db.close()
+        db = open_database(state(ctx).target)
+        try:
+            yield db
+        finally:
+            db.close()
+    except TrackerError as error:
+        error.field = cli_field(ctx, error.field)
+        raise
 
 
 def jsonable(data: Any) -> Any:
@@ -76,17 +123,88 @@ def emit(ctx: typer.Context, data: Any, human: Callable[[], RenderableType | str
     if state(ctx).as_json:
         typer.echo(json.dumps(jsonable(data), ensure_ascii=False, indent=2))
     else:
-        console.print(human())
+        rendered = human()
+        console.print(rendered, soft_wrap=isinstance(rendered, str))  # paths stay whole
+
+
+def refuse(error: TrackerError, as_json: bool) -> int:
+    """Print a refusal: one line on stderr, and with --json one JSON object on stdout."""
+    if as_json:
+        typer.echo(json.dumps(error.as_dict(), ensure_ascii=False))
+    errors.print(f"error: {error.one_line()}", markup=False, soft_wrap=True)
+    return error.exit_code
+
+
+class UsageProblem(TrackerError):
+    """A command line the parser could not read (unknown option, a number that is not one)."""
+
+    exit_code = 2
 
 
 class TrackerGroup(TyperGroup):
-    """Turns a service's refusal into one line on stderr and the documented exit code."""
+    """Gives every refusal the same shape: one line naming field and value, exit 1 or 2.
+
+    Service refusals arrive as TrackerError from ``invoke``; the parser's own
+    complaints (a date that is not one, a missing option) are caught in ``main``
+    and reshaped the same way instead of Click's multi-line usage text.
+    """
 
     def invoke(self, ctx: Any) -> Any:
         try:
             return super().invoke(ctx)
         except TrackerError as error:
-            if isinstance(ctx.obj, State) and ctx.obj.as_json:
-                typer.echo(json.dumps(error.as_dict(), ensure_ascii=False))
-            errors.print(f"error: {error.one_line()}", markup=False, soft_wrap=True)
-            raise typer.Exit(error.exit_code) from None
+            as_json = isinstance(ctx.obj, State) and ctx.obj.as_json
+            raise typer.Exit(refuse(error, as_json)) from None
+
+    def main(
+        self,
+        args: Sequence[str] | None = None,
+        prog_name: str | None = None,
+        complete_var: str | None = None,
+        standalone_mode: bool = True,
+        windows_expand_args: bool = True,
+        **extra: Any,
+    ) -> Any:
+        argv = list(sys.argv[1:] if args is None else args)
+        try:
+            outcome = super().main(
+                argv, prog_name, complete_var, False, windows_expand_args, **extra
+            )
+            code = outcome if isinstance(outcome, int) else 0  # Click returns Exit's code
+        except typer.Exit as done:
+            code = done.exit_code
+        except typer.Abort:
+            errors.print("aborted")
+            code = 1
+        except typer.TyperException as problem:  # the parser's own complaints
+            if type(problem).__name__ == "NoArgsIsHelpError":  # a group typed alone: its help
+                problem.show()  # type: ignore[attr-defined]
+                code = 2
+            else:
+                code = refuse(_usage_problem(problem, argv), "--json" in argv)
+        if not standalone_mode:
+            return code
+        sys.exit(code)
+
+
+def _usage_problem(problem: Any, argv: list[str]) -> UsageProblem:
+    """Reshape a parser error: the option, the value typed for it, and Click's reason."""
+    param = getattr(problem, "param", None)
+    field = param.opts[0] if param is not None and param.opts else "command line"
+    message = " ".join(problem.format_message().split())
+    message = re.sub(r"^Invalid value for '[^']*': (Value error, )?", "", message)
+    value = _typed_value(argv, param.opts) if param is not None and param.opts else None
+    context = getattr(problem, "ctx", None)
+    command = context.command_path if context is not None else "tracker"
+    return UsageProblem(field, value, f"{message} (see `{command} --help`)")
+
+
+def _typed_value(argv: list[str], options: list[str]) -> str | None:
+    """What followed the option on the command line (``--x v`` or ``--x=v``), if anything."""
+    for index, token in enumerate(argv):
+        for option in options:
+            if token == option and index + 1 < len(argv):
+                return argv[index + 1]
+            if token.startswith(option + "="):
+                return token.split("=", 1)[1]
+    return None

@@ -1,6 +1,6 @@
 """Public identifiers: a type prefix, a number and an ISO/IEC 7064 MOD 37-2 check character.
 
-``SP-00042-Y`` names specimen 42. The check character is computed over the
+``SP-00042-E`` names specimen 42. The check character is computed over the
 prefix and the digits by the pure system MOD 37-2 of ISO/IEC 7064 (prime
 modulus 37, weights 2^i), so any single mistyped or misread character and any
 swap of two adjacent characters — the check character included — is rejected
@@ -43,6 +43,7 @@ class Kind(StrEnum):
 
 
 _BY_PREFIX = {kind.value: kind for kind in Kind}
+MAX_DIGITS = 12
 _CLEAN = re.compile(r"[\s\-_./]")
 _SHAPE = re.compile(r"^([A-Z]{2})(\d{1,12})([0-9A-Z*])$")
 
@@ -71,6 +72,10 @@ class PublicId:
     kind: Kind
     number: int
 
+    def __post_init__(self) -> None:
+        if not 0 <= self.number < 10**MAX_DIGITS:
+            raise ValueError(f"ID numbers run from 0 to {10**MAX_DIGITS - 1}")
+
     def __str__(self) -> str:
         digits = f"{self.number:05d}"
         return f"{self.kind.value}-{digits}-{check_character(self.kind.value + digits)}"
@@ -96,6 +101,8 @@ def parse_id(text: str) -> PublicId:
     if not match:
         raise BadId("is not an ID of the form XX-00000-C (two letters, digits, check character)")
     prefix, digits, check = match.groups()
+    if digits != f"{int(digits):05d}":
+        raise BadId("has the wrong number of digits (at least five, no extra leading zeros)")
     kind = _BY_PREFIX.get(prefix)
     if kind is None:
         known = ", ".join(sorted(_BY_PREFIX))
@@ -106,5 +113,10 @@ def parse_id(text: str) -> PublicId:
 
 
 def looks_like_id(text: str) -> bool:
-    """Cheap test used to tell a scanned/typed ID from a free-text reference."""
-    return _SHAPE.match(_CLEAN.sub("", text).upper()) is not None
+    """Cheap test used to tell a scanned/typed ID from a free-text reference (a loan number).
+
+    True when the text has an ID's shape and a known prefix, even if its check
+    character is wrong — a mistyped ID must be reported as such, not looked up as text.
+    """
+    match = _SHAPE.match(_CLEAN.sub("", text).upper())
+    return match is not None and match.group(1) in _BY_PREFIX

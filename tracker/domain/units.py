@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import math
 import re
-from decimal import Decimal, InvalidOperation
+from decimal import Decimal, InvalidOperation, localcontext
 
 # Factors to one milligram. "u", "µ" (micro sign) and "μ" (Greek mu) all mean micro.
 _MASS_TO_MG: dict[str, Decimal] = {
@@ -94,22 +94,33 @@ def decimals_below(value: Decimal, step: Decimal) -> bool:
     """True when ``value`` is not a whole multiple of ``step`` (finer than the balance reads)."""
     if step <= 0:
         raise UnitError("readability must be positive")
-    return value % step != 0
+    with localcontext() as context:
+        context.prec = 80  # exact for any value a person can type (the remainder is exact)
+        return value % step != 0
 
 
 def decimals_for(u: float, significant: int = 2, most: int = 6) -> int:
-    """Decimal places that show an uncertainty with ``significant`` digits (GUM 7.2.6)."""
+    """Decimal places showing an uncertainty with ``significant`` digits (GUM 7.2.6).
+
+    Negative for large uncertainties (-2 rounds to hundreds). Decided after
+    rounding, so 0.0996 becomes 0.10, not 0.100.
+    """
     if u <= 0 or not math.isfinite(u):
         return 3
-    return max(0, min(most, significant - 1 - math.floor(math.log10(u))))
+    places = significant - 1 - math.floor(math.log10(u))
+    rounded = round(u, places)
+    if rounded > 0:
+        places = significant - 1 - math.floor(math.log10(rounded))
+    return min(most, places)
 
 
 def format_value_u(value: float, u: float | None, unit: str) -> str:
-    """ "2.56100 ± 0.00041 mg": the value rounded to the uncertainty's last digit."""
+    """Value and uncertainty rounded to the uncertainty's last digit: 2.56100 ± 0.00041 mg."""
     if u is None:
         return f"{value:.3f} {unit}"
     places = decimals_for(u)
-    return f"{value:.{places}f} ± {u:.{places}f} {unit}"
+    shown = max(places, 0)
+    return f"{round(value, places):.{shown}f} ± {round(u, places):.{shown}f} {unit}"
 
 
 def format_mass_mg(mg: float, u_mg: float | None = None) -> str:

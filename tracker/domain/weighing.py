@@ -16,6 +16,8 @@ from decimal import Decimal
 from uncertainties import ufloat
 from uncertainties.core import Variable
 
+from tracker.domain.budget import Amount, by_difference
+
 
 def reading_uncertainty(readability: float) -> float:
     """Standard uncertainty of one reading from a balance of the given readability."""
@@ -33,6 +35,10 @@ class MassByDifference:
     @property
     def net(self) -> Decimal:
         return self.gross - self.tare
+
+    def amount(self, scale: float = 1.0) -> Amount:
+        """The net mass as a budget Amount, optionally rescaled (1e-3 turns mg into g)."""
+        return by_difference(float(self.net) * scale, float(self.readability) * scale)
 
     def as_ufloat(self) -> Variable:
         tare = ufloat(float(self.tare), reading_uncertainty(float(self.readability)))

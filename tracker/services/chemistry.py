@@ -19,7 +19,7 @@ from tracker.domain.models import (
     ReferenceMaterial,
 )
 from tracker.services.common import finish
-from tracker.services.inputs import Element, Name, Request, Text, parse
+from tracker.services.inputs import Element, Name, Raw, Request, Text, parse
 from tracker.services.lab import aliquot_element
 from tracker.services.lookup import get_by_id, get_reference_material
 from tracker.services.uow import unit_of_work
@@ -41,7 +41,7 @@ class NewReferenceMaterial(Request):
 
 
 def add_reference_material(
-    db: Database, actor: str | None, data: NewReferenceMaterial | dict[str, object]
+    db: Database, actor: str | None, data: NewReferenceMaterial | Raw
 ) -> Done[ReferenceMaterialView]:
     """Register a reference material or bracketing standard the lab runs."""
     request = parse(NewReferenceMaterial, data)
@@ -108,9 +108,7 @@ def _batch_view(batch: ColumnBatch) -> BatchView:
     )
 
 
-def create_batch(
-    db: Database, actor: str | None, data: NewBatch | dict[str, object]
-) -> Done[BatchView]:
+def create_batch(db: Database, actor: str | None, data: NewBatch | Raw) -> Done[BatchView]:
     """Open a column batch: resin, elution scheme and the cuts it will collect."""
     request = parse(NewBatch, data)
     with unit_of_work(db, actor) as uow:
@@ -153,9 +151,7 @@ class AddPosition(Request):
         return self
 
 
-def add_position(
-    db: Database, actor: str | None, data: AddPosition | dict[str, object]
-) -> Done[PositionView]:
+def add_position(db: Database, actor: str | None, data: AddPosition | Raw) -> Done[PositionView]:
     """Put a sample aliquot, a procedural blank or a reference material on the next column."""
     request = parse(AddPosition, data)
     with unit_of_work(db, actor) as uow:

@@ -22,7 +22,7 @@ from tracker.domain.models import (
     SpecimenStatus,
 )
 from tracker.services.common import finish
-from tracker.services.inputs import Request, Text, parse
+from tracker.services.inputs import Raw, Request, Text, parse
 from tracker.services.lookup import get_any, get_by_id, get_loan
 from tracker.services.uow import unit_of_work
 from tracker.services.views import Done, ItemView, LoanView
@@ -37,7 +37,7 @@ class Move(Request):
     note: Text | None = None
 
 
-def move(db: Database, actor: str | None, data: Move | dict[str, object]) -> Done[ItemView]:
+def move(db: Database, actor: str | None, data: Move | Raw) -> Done[ItemView]:
     """Put a specimen or a vial somewhere else; the ledger keeps both places."""
     request = parse(Move, data)
     with unit_of_work(db, actor) as uow:
@@ -86,7 +86,7 @@ class Dispose(Request):
     permission: Annotated[str, Field(max_length=300)] | None = None  # lender's written consent
 
 
-def dispose(db: Database, actor: str | None, data: Dispose | dict[str, object]) -> Done[ItemView]:
+def dispose(db: Database, actor: str | None, data: Dispose | Raw) -> Done[ItemView]:
     """End a vial's life in the lab: returned to the lender, destroyed, retained or used up."""
     request = parse(Dispose, data)
     with unit_of_work(db, actor) as uow:
@@ -117,9 +117,7 @@ class MarkReturned(Request):
     returned_on: date | None = None
 
 
-def mark_loan_returned(
-    db: Database, actor: str | None, data: MarkReturned | dict[str, object]
-) -> Done[LoanView]:
+def mark_loan_returned(db: Database, actor: str | None, data: MarkReturned | Raw) -> Done[LoanView]:
     """Close the material side of a loan once every specimen has gone back."""
     request = parse(MarkReturned, data)
     with unit_of_work(db, actor) as uow:

@@ -7,6 +7,7 @@ refuse it with an :class:`InputError` naming the field and the value.
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from datetime import date, datetime
 from decimal import Decimal
 from typing import Annotated, Any, TypeVar
@@ -32,9 +33,10 @@ class Request(BaseModel):
 
 
 R = TypeVar("R", bound=BaseModel)
+Raw = Mapping[str, Any]  # what an entry point hands over: field name -> typed text or value
 
 
-def parse(model: type[R], data: R | dict[str, Any]) -> R:
+def parse(model: type[R], data: R | Raw) -> R:
     """Validate ``data`` into ``model``; the first problem becomes a one-line InputError."""
     if isinstance(data, model):
         return data
@@ -46,8 +48,23 @@ def parse(model: type[R], data: R | dict[str, Any]) -> R:
         value = first.get("input")
         if isinstance(value, dict):
             value = None
-        reason = first["msg"].removeprefix("Value error, ")
+        reason = _PLAIN_REASONS.get(first["type"], first["msg"].removeprefix("Value error, "))
         raise InputError(field.replace("_", "-"), value, reason) from None
+
+
+# Pydantic's wording for the commonest slips, said the way a bench form would say it.
+_PLAIN_REASONS = {
+    "datetime_parsing": "is not a date and time; write ISO 8601 with a zone: 2026-03-04T09:15Z",
+    "datetime_from_date_parsing": "is not a date and time; write e.g. 2026-03-04T09:15Z",
+    "datetime_type": "is not a date and time; write e.g. 2026-03-04T09:15Z",
+    "date_parsing": "is not a date; write YYYY-MM-DD",
+    "date_from_datetime_parsing": "is not a date; write YYYY-MM-DD",
+    "float_parsing": "is not a number",
+    "int_parsing": "is not a whole number",
+    "decimal_parsing": "is not a number",
+    "missing": "is required",
+    "extra_forbidden": "is not a field this action takes",
+}
 
 
 def _require_text(value: Any) -> str:

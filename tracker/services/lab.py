@@ -10,10 +10,12 @@ from pydantic import Field, field_validator, model_validator
 from tracker.db.database import Database
 from tracker.domain.budget import (
     Amount,
+    by_difference,
     element_mass_ug,
     is_significant,
     overdraws,
     remaining,
+    weighed,
 )
 from tracker.domain.errors import InputError, RuleViolation
 from tracker.domain.models import (
@@ -35,6 +37,7 @@ from tracker.services.inputs import (
     Element,
     FractionUgPerG,
     PositiveMassMg,
+    Raw,
     Request,
     parse,
 )
@@ -82,11 +85,10 @@ class Drill(Request):
         return value.lower()
 
 
-def drill(db: Database, actor: str | None, data: Drill | dict[str, object]) -> Done[PowderView]:
+def drill(db: Database, actor: str | None, data: Drill | Raw) -> Done[PowderView]:
     """Drill powder from a specimen; its mass is gross − tare with the balance's uncertainty."""
     request = parse(Drill, data)
-    weighing = weigh(request.tare, request.gross, request.readability)
-    mass = weighing.as_ufloat()
+    mass = weigh(request.tare, request.gross, request.readability).amount()
     with unit_of_work(db, actor) as uow:
         specimen = get_by_id(uow.session, Specimen, "specimen", request.specimen)
         if specimen.status is not SpecimenStatus.ON_HAND:
@@ -102,8 +104,8 @@ def drill(db: Database, actor: str | None, data: Drill | dict[str, object]) -> D
             tare_mg=float(request.tare),
             gross_mg=float(request.gross),
             readability_mg=float(request.readability),
-            mass_mg=float(weighing.net),
-            mass_u_mg=mass.std_dev,
+            mass_mg=mass.value,
+            mass_u_mg=mass.u,
             drilled_at=action_time(uow, request.drilled_at, "drilled-at"),
             drilled_by=uow.operator.code,
             location=_place(uow, request.location),
@@ -128,8 +130,8 @@ def drill(db: Database, actor: str | None, data: Drill | dict[str, object]) -> D
 
 def powder_remaining(powder: Powder) -> Amount:
     """Powder not yet taken into a solution."""
-    taken = (Amount(s.powder_mass_mg, s.powder_mass_u_mg) for s in powder.solutions)
-    return remaining(Amount(powder.mass_mg, powder.mass_u_mg), taken)
+    taken = (weighed(s.powder_mass_mg, s.powder_mass_u_mg) for s in powder.solutions)
+    return remaining(by_difference(powder.mass_mg, powder.readability_mg), taken)
 
 
 class Dissolve(Request):
@@ -144,9 +146,7 @@ class Dissolve(Request):
     location: str | None = None
 
 
-def dissolve(
-    db: Database, actor: str | None, data: Dissolve | dict[str, object]
-) -> Done[SolutionView]:
+def dissolve(db: Database, actor: str | None, data: Dissolve | Raw) -> Done[SolutionView]:
     """Dissolve all or part of a powder; the solution is weighed by difference."""
     request = parse(Dissolve, data)
     solution_mass = weigh(
@@ -166,14 +166,14 @@ def dissolve(
             )
         if not is_significant(remaining(left, [taken])):  # nothing measurable is left
             powder.status = ContainerStatus.CONSUMED
-        grams = solution_mass.as_ufloat() / 1000
+        grams = solution_mass.amount(scale=1e-3)
         solution = Solution(
             powder=powder,
             powder_mass_mg=taken.value,
             powder_mass_u_mg=taken.u,
             acid=request.acid,
-            solution_mass_g=grams.nominal_value,
-            solution_mass_u_g=grams.std_dev,
+            solution_mass_g=grams.value,
+            solution_mass_u_g=grams.u,
             dissolved_at=action_time(uow, request.dissolved_at, "dissolved-at"),
             dissolved_by=uow.operator.code,
             location=_place(uow, request.location),
@@ -213,8 +213,7 @@ def _portion(request: Dissolve, left: Amount) -> Amount:
             f"{request.powder_taken} mg",
             f"has more decimals than the balance reads ({request.powder_readability} mg)",
         )
-    weighed = MassByDifference(Decimal(0), request.powder_taken, request.powder_readability)
-    return Amount(float(request.powder_taken), weighed.as_ufloat().std_dev)
+    return by_difference(float(request.powder_taken), float(request.powder_readability))
 
 
 def _require_available(container: Powder | Solution) -> None:
@@ -268,7 +267,7 @@ def solution_element(solution: Solution, element: str | None = None) -> tuple[st
 
 
 def record_concentration(
-    db: Database, actor: str | None, data: RecordConcentration | dict[str, object]
+    db: Database, actor: str | None, data: RecordConcentration | Raw
 ) -> Done[ConcentrationView]:
     """Record an element mass fraction measured in a solution (e.g. Ca by ICP-OES)."""
     request = parse(RecordConcentration, data)
@@ -318,28 +317,24 @@ class TakeAliquot(Request):
 
 
 def solution_remaining_g(solution: Solution) -> Amount:
-    taken = (Amount(a.mass_g, a.mass_u_g) for a in solution.aliquots)
-    return remaining(Amount(solution.solution_mass_g, solution.solution_mass_u_g), taken)
+    taken = (weighed(a.mass_g, a.mass_u_g) for a in solution.aliquots)
+    return remaining(weighed(solution.solution_mass_g, solution.solution_mass_u_g), taken)
 
 
-def take_aliquot(
-    db: Database, actor: str | None, data: TakeAliquot | dict[str, object]
-) -> Done[AliquotView]:
+def take_aliquot(db: Database, actor: str | None, data: TakeAliquot | Raw) -> Done[AliquotView]:
     """Weigh out part of a solution; its element content follows from the concentration."""
     request = parse(TakeAliquot, data)
-    weighing = weigh(request.tare, request.gross, request.readability)
-    grams = weighing.as_ufloat() / 1000
+    wanted = weigh(request.tare, request.gross, request.readability).amount(scale=1e-3)
     with unit_of_work(db, actor) as uow:
         solution = get_by_id(uow.session, Solution, "solution", request.solution)
         _require_available(solution)
         left = solution_remaining_g(solution)
-        wanted = Amount(grams.nominal_value, grams.std_dev)
         if overdraws(left, wanted):
             raise RuleViolation(
                 "gross",
-                f"{wanted.value:.5f} g",
-                f"aliquot is more than remains of {solution.public_id} "
-                f"({format_value_u(left.value, left.u, 'g')})",
+                f"{(request.gross / 1000).normalize()} g",
+                f"gives an aliquot of {wanted.value:.5f} g, more than remains of "
+                f"{solution.public_id} ({format_value_u(left.value, left.u, 'g')})",
             )
         aliquot = Aliquot(
             solution=solution,

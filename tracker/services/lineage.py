@@ -10,6 +10,7 @@ from sqlalchemy.orm import Session, selectinload
 
 from tracker.db.database import Database
 from tracker.domain.base import HasPublicId
+from tracker.domain.ids import looks_like_id
 from tracker.domain.models import (
     Aliquot,
     BatchPosition,
@@ -23,7 +24,7 @@ from tracker.domain.models import (
     Specimen,
 )
 from tracker.services.lab import powder_remaining, solution_element, solution_remaining_g
-from tracker.services.lookup import get_any
+from tracker.services.lookup import get_any, get_loan
 from tracker.services.views import EventView, View
 
 
@@ -48,7 +49,7 @@ class ItemDetail(View):
 def show_item(db: Database, ref: str) -> ItemDetail:
     """Everything about one ID: its lineage below, its ancestors above, its custody history."""
     with db.read_session() as session:
-        row = get_any(session, "id", ref)
+        row = get_any(session, "id", ref) if looks_like_id(ref) else get_loan(session, "id", ref)
         if isinstance(row, Specimen):
             load_specimen_tree(session, row.id)  # one query per level instead of per node
         location = getattr(row, "location", None)

@@ -14,7 +14,7 @@ from tracker.db.database import Database
 from tracker.domain.errors import InputError, RuleViolation
 from tracker.domain.models import Disposition, Lender, Loan, LoanTerms, TermsKind
 from tracker.services.common import finish
-from tracker.services.inputs import Name, PositiveMassMg, Request, Text, parse
+from tracker.services.inputs import Name, PositiveMassMg, Raw, Request, Text, parse
 from tracker.services.lookup import get_lender
 from tracker.services.uow import unit_of_work
 from tracker.services.views import Done, LenderView, LoanView
@@ -28,9 +28,7 @@ class NewLender(Request):
     address: Annotated[str, Field(max_length=500)] | None = None
 
 
-def add_lender(
-    db: Database, actor: str | None, data: NewLender | dict[str, object]
-) -> Done[LenderView]:
+def add_lender(db: Database, actor: str | None, data: NewLender | Raw) -> Done[LenderView]:
     """Register an institution that lends specimens."""
     request = parse(NewLender, data)
     with unit_of_work(db, actor) as uow:
@@ -95,7 +93,7 @@ class NewLoan(Request):
     terms: TermsInput
 
 
-def add_loan(db: Database, actor: str | None, data: NewLoan | dict[str, object]) -> Done[LoanView]:
+def add_loan(db: Database, actor: str | None, data: NewLoan | Raw) -> Done[LoanView]:
     """Record a loan agreement and its original terms (version 1)."""
     request = parse(NewLoan, data)
     with unit_of_work(db, actor) as uow:

@@ -41,30 +41,28 @@ def overview(db: Database, *, include_closed: bool = False) -> list[LoanLine]:
         loans = session.scalars(
             select(Loan).options(selectinload(Loan.terms), selectinload(Loan.lender))
         ).all()
-        drilled = dict(
-            session.execute(
+        drilled = {
+            row[0]: row[1]
+            for row in session.execute(
                 select(Specimen.loan_id, func.sum(Powder.mass_mg))
                 .join(Powder.specimen)
                 .group_by(Specimen.loan_id)
             )
-            .tuples()
-            .all()
-        )
-        sampled = dict(
-            session.execute(
+        }
+        sampled = {
+            row[0]: row[1]
+            for row in session.execute(
                 select(Specimen.loan_id, func.count(func.distinct(Powder.specimen_id)))
                 .join(Powder.specimen)
                 .group_by(Specimen.loan_id)
             )
-            .tuples()
-            .all()
-        )
+        }
         counts: dict[int, dict[SpecimenStatus, int]] = defaultdict(dict)
         for loan_id, status, n in session.execute(
             select(Specimen.loan_id, Specimen.status, func.count()).group_by(
                 Specimen.loan_id, Specimen.status
             )
-        ).tuples():
+        ):
             counts[loan_id][status] = n
         lines = [
             _line(

@@ -13,7 +13,7 @@ from tracker.domain.ledger import FORMAT
 from tracker.domain.models import Location, LocationKind, Operator, Role
 from tracker.domain.timeutil import Clock, utcnow
 from tracker.services.common import finish
-from tracker.services.inputs import Name, Request, ShortCode, parse
+from tracker.services.inputs import Name, Raw, Request, ShortCode, parse
 from tracker.services.lookup import get_by_id
 from tracker.services.uow import append_event, unit_of_work
 from tracker.services.views import Done, LocationView, OperatorView
@@ -26,7 +26,7 @@ class NewOperator(Request):
 
 
 def init_database(
-    target: str | Path, first_operator: NewOperator | dict[str, object], clock: Clock = utcnow
+    target: str | Path, first_operator: NewOperator | Raw, clock: Clock = utcnow
 ) -> Database:
     """Create a database, its first operator (a manager) and the ledger's first event."""
     request = parse(NewOperator, first_operator)
@@ -57,9 +57,7 @@ def init_database(
     return db
 
 
-def add_operator(
-    db: Database, actor: str | None, data: NewOperator | dict[str, object]
-) -> Done[OperatorView]:
+def add_operator(db: Database, actor: str | None, data: NewOperator | Raw) -> Done[OperatorView]:
     """Register a person who may record events (managers only)."""
     request = parse(NewOperator, data)
     with unit_of_work(db, actor) as uow:
@@ -99,9 +97,7 @@ _DEPTH = {
 }
 
 
-def add_location(
-    db: Database, actor: str | None, data: NewLocation | dict[str, object]
-) -> Done[LocationView]:
+def add_location(db: Database, actor: str | None, data: NewLocation | Raw) -> Done[LocationView]:
     """Add a place (building, room, cabinet or freezer, shelf, box, position) to the tree."""
     request = parse(NewLocation, data)
     with unit_of_work(db, actor) as uow:

@@ -12,7 +12,7 @@ from tracker.db.database import Database
 from tracker.domain.errors import RuleViolation
 from tracker.domain.models import LoanStatus, Location, Specimen, SpecimenStatus
 from tracker.services.common import action_time, finish
-from tracker.services.inputs import AwareDatetime, Name, Request, Text, parse
+from tracker.services.inputs import AwareDatetime, Name, Raw, Request, Text, parse
 from tracker.services.lookup import get_by_id, get_loan
 from tracker.services.uow import unit_of_work
 from tracker.services.views import Done, SpecimenView
@@ -43,9 +43,7 @@ class NewSpecimen(Request):
         return self
 
 
-def add_specimen(
-    db: Database, actor: str | None, data: NewSpecimen | dict[str, object]
-) -> Done[SpecimenView]:
+def add_specimen(db: Database, actor: str | None, data: NewSpecimen | Raw) -> Done[SpecimenView]:
     """List a specimen on a loan (status: expected until it is checked in)."""
     request = parse(NewSpecimen, data)
     with unit_of_work(db, actor) as uow:
@@ -79,9 +77,7 @@ class CheckIn(Request):
     received_at: AwareDatetime | None = None
 
 
-def check_in(
-    db: Database, actor: str | None, data: CheckIn | dict[str, object]
-) -> Done[SpecimenView]:
+def check_in(db: Database, actor: str | None, data: CheckIn | Raw) -> Done[SpecimenView]:
     """Receive a listed specimen: note its condition and where it is put."""
     request = parse(CheckIn, data)
     with unit_of_work(db, actor) as uow:
@@ -130,7 +126,7 @@ class ReturnSpecimen(Request):
 
 
 def return_specimen(
-    db: Database, actor: str | None, data: ReturnSpecimen | dict[str, object]
+    db: Database, actor: str | None, data: ReturnSpecimen | Raw
 ) -> Done[SpecimenView]:
     """Send a specimen back to its lender, noting its condition at return."""
     request = parse(ReturnSpecimen, data)

@@ -1,0 +1,153 @@
+"""Fixtures shared by the whole suite.
+
+``db`` is parametrised over SQLite and PostgreSQL: every test that takes it runs
+on both backends, each time on a fresh database copied from a template that
+already holds the schema, a manager (``boss``) and a technician (``tech``).
+"""
+
+from __future__ import annotations
+
+import itertools
+import os
+import shutil
+from collections.abc import Callable, Iterator
+from dataclasses import dataclass
+from datetime import UTC, datetime, timedelta
+from pathlib import Path
+from typing import Any
+
+import pytest
+from sqlalchemy import create_engine, func, select, text
+from sqlalchemy.engine import make_url
+
+from tests.pg import private_cluster, server_binaries
+from tracker.db.database import Database, open_database
+from tracker.domain.base import Base
+from tracker.domain.models import CustodyEvent
+from tracker.services import setup
+
+START = datetime(2026, 1, 5, 9, 0, tzinfo=UTC)
+
+
+@dataclass
+class TickingClock:
+    """Deterministic time: each reading is one second after the previous one."""
+
+    now: datetime = START
+    step: timedelta = timedelta(seconds=1)
+
+    def __call__(self) -> datetime:
+        self.now += self.step
+        return self.now
+
+
+def seed(target: str) -> None:
+    """Schema, a manager (boss), a technician (tech) and their ledger events."""
+    db = setup.init_database(target, {"code": "boss", "name": "Bea Oswald"}, TickingClock())
+    setup.add_operator(db, "boss", {"code": "tech", "name": "Teo Chandler", "role": "technician"})
+    db.close()
+
+
+# ---------------------------------------------------------------- SQLite
+
+
+@pytest.fixture(scope="session")
+def sqlite_template(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    path = tmp_path_factory.mktemp("template") / "template.sqlite"
+    seed(str(path))
+    return path
+
+
+# ---------------------------------------------------------------- PostgreSQL
+
+
+@pytest.fixture(scope="session")
+def pg_server() -> Iterator[str]:
+    """URL of a PostgreSQL server's maintenance database, or skip (fail in CI)."""
+    url = os.environ.get("TRACKER_TEST_PG_URL")
+    if url:
+        yield url
+        return
+    binaries = server_binaries()
+    if binaries is None:
+        reason = (
+            "PostgreSQL server binaries not found (install postgresql or set TRACKER_TEST_PG_URL)"
+        )
+        if os.environ.get("TRACKER_REQUIRE_PG") == "1":
+            pytest.fail(reason + " — TRACKER_REQUIRE_PG=1 forbids skipping")
+        pytest.skip(reason)
+    with private_cluster(binaries) as started:
+        yield started
+
+
+def _admin(url: str) -> Any:
+    return create_engine(make_url(url).set(database="postgres"), isolation_level="AUTOCOMMIT")
+
+
+_names = itertools.count()
+
+
+@pytest.fixture(scope="session")
+def pg_template(pg_server: str) -> Iterator[str]:
+    name = f"tracker_tmpl_{os.getpid()}"
+    admin = _admin(pg_server)
+    with admin.connect() as conn:
+        conn.execute(text(f"DROP DATABASE IF EXISTS {name}"))
+        conn.execute(text(f"CREATE DATABASE {name}"))
+    seed(make_url(pg_server).set(database=name).render_as_string(hide_password=False))
+    yield name
+    with admin.connect() as conn:
+        conn.execute(text(f"DROP DATABASE IF EXISTS {name} WITH (FORCE)"))
+    admin.dispose()
+
+
+# ---------------------------------------------------------------- the fixture tests use
+
+
+@pytest.fixture(params=["sqlite", pytest.param("postgresql", marks=pytest.mark.postgresql)])
+def db_url(request: pytest.FixtureRequest, tmp_path: Path) -> Iterator[str]:
+    """URL of a fresh, seeded database on the parametrised backend."""
+    if request.param == "sqlite":
+        target = tmp_path / "test.sqlite"
+        shutil.copyfile(request.getfixturevalue("sqlite_template"), target)
+        target.chmod(0o600)
+        yield str(target)
+        return
+    server = request.getfixturevalue("pg_server")
+    template = request.getfixturevalue("pg_template")
+    name = f"tracker_t{os.getpid()}_{next(_names)}"
+    admin = _admin(server)
+    with admin.connect() as conn:
+        conn.execute(text(f"CREATE DATABASE {name} TEMPLATE {template}"))
+    yield make_url(server).set(database=name).render_as_string(hide_password=False)
+    with admin.connect() as conn:
+        conn.execute(text(f"DROP DATABASE IF EXISTS {name} WITH (FORCE)"))
+    admin.dispose()
+
+
+@pytest.fixture
+def clock() -> TickingClock:
+    return TickingClock()
+
+
+@pytest.fixture
+def db(db_url: str, clock: TickingClock) -> Iterator[Database]:
+    database = open_database(db_url, clock=clock)
+    yield database
+    database.close()
+
+
+def snapshot_counts(db: Database) -> dict[str, int]:
+    """Row count of every table plus the ledger head: equal before and after = nothing written."""
+    with db.read_session() as session:
+        counts = {
+            table.name: session.scalar(select(func.count()).select_from(table)) or 0
+            for table in Base.metadata.sorted_tables
+        }
+        counts["ledger_head"] = session.scalar(select(func.max(CustodyEvent.seq))) or 0
+    return counts
+
+
+@pytest.fixture
+def counts(db: Database) -> Callable[[], dict[str, int]]:
+    return lambda: snapshot_counts(db)

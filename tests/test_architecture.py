@@ -1,0 +1,41 @@
+"""Layers point one way: domain <- db <- services <- entry points."""
+
+from __future__ import annotations
+
+import pkgutil
+import shutil
+import subprocess
+import sys
+
+import pytest
+
+import tracker.services
+
+
+def _service_modules() -> list[str]:
+    return [f"tracker.services.{m.name}" for m in pkgutil.iter_modules(tracker.services.__path__)]
+
+
+def test_services_never_load_ui_or_cli_toolkits() -> None:
+    """Importing every service module in a fresh interpreter loads no textual, typer or rich."""
+    modules = ["tracker.domain.models", "tracker.db", *_service_modules()]
+    code = (
+        "import sys\n"
+        + "".join(f"import {m}\n" for m in modules)
+        + "top = {m.split('.')[0] for m in sys.modules}\n"
+        + "print(','.join(sorted(top & {'textual', 'typer', 'rich'})))\n"
+    )
+    result = subprocess.run(
+        [sys.executable, "-c", code], capture_output=True, text=True, check=True
+    )
+    assert result.stdout.strip() == ""
+    assert len(modules) > 8
+
+
+def test_import_contracts_hold() -> None:
+    """The import-linter contracts in pyproject.toml (layers and forbidden imports)."""
+    exe = shutil.which("lint-imports")
+    if exe is None:
+        pytest.skip("import-linter is not installed")
+    result = subprocess.run([exe], capture_output=True, text=True)
+    assert result.returncode == 0, result.stdout + result.stderr

@@ -1,0 +1,69 @@
+"""The README's promises hold: two Quick-start commands, CI runs the second, the recipe works."""
+
+from __future__ import annotations
+
+import re
+import subprocess
+import sys
+from pathlib import Path
+
+from tests import factories as make
+from tests.conftest import TickingClock, seed
+from tracker.db.database import open_database
+from tracker.services import ledger
+
+ROOT = Path(__file__).resolve().parents[1]
+README = (ROOT / "README.md").read_text(encoding="utf-8")
+
+
+def _section(title: str) -> str:
+    match = re.search(rf"^## {title}\n(.*?)(?=^## )", README, flags=re.S | re.M)
+    assert match, f"README has no '## {title}' section"
+    return match.group(1)
+
+
+def _blocks(text: str, language: str) -> list[str]:
+    return re.findall(rf"```{language}\n(.*?)```", text, flags=re.S)
+
+
+def test_quick_start_is_exactly_two_commands() -> None:
+    commands = [block.strip() for block in _blocks(_section("Quick start"), "bash")]
+    assert len(commands) == 2
+    assert all("\n" not in command for command in commands)
+    assert commands[0].endswith("tracker demo")
+    assert commands[1].endswith("python -m pytest")
+
+
+def test_ci_runs_the_readme_test_command_verbatim() -> None:
+    test_command = _blocks(_section("Quick start"), "bash")[1].strip()
+    ci = (ROOT / ".ci" / "run").read_text(encoding="utf-8")
+    assert test_command in ci.splitlines()
+    assert "TRACKER_REQUIRE_PG=1" in ci  # PostgreSQL tests may not be skipped in CI
+
+
+def test_readme_verification_recipe_accepts_an_export_and_rejects_tampering(tmp_path: Path) -> None:
+    recipe = _blocks(_section("The custody ledger"), "python")
+    assert len(recipe) == 1 and len(recipe[0].splitlines()) <= 20
+    script = tmp_path / "verify.py"
+    script.write_text(recipe[0], encoding="utf-8")
+
+    seed(str(tmp_path / "l.sqlite"))
+    db = open_database(tmp_path / "l.sqlite", clock=TickingClock())
+    make.powder(db, make.specimen(db, make.loan(db)), mg="1.500")
+    export = tmp_path / "ledger.jsonl"
+    with export.open("w", encoding="utf-8") as handle:
+        count = ledger.export_jsonl(db, handle)
+    head = ledger.verify(db).head_hash
+    db.close()
+
+    good = subprocess.run(
+        [sys.executable, str(script), str(export)], capture_output=True, text=True
+    )
+    assert good.returncode == 0, good.stderr
+    assert f"intact: {count} events, head {head}" in good.stdout
+
+    lines = export.read_text(encoding="utf-8").splitlines()
+    lines[3] = lines[3].replace("Test loan", "Test lean")
+    export.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    bad = subprocess.run([sys.executable, str(script), str(export)], capture_output=True, text=True)
+    assert bad.returncode != 0 and "broken at event 4" in bad.stderr

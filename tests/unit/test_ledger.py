@@ -1,0 +1,273 @@
+"""Ledger canonical form, hashing and chain verification, checked against the docstring."""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import math
+from dataclasses import replace
+from datetime import UTC, datetime, timedelta, timezone
+
+import pytest
+from hypothesis import given
+from hypothesis import strategies as st
+
+from tracker.domain.ledger import (
+    GENESIS_HASH,
+    LedgerRow,
+    canonical_bytes,
+    canonical_json,
+    event_hash,
+    verify_chain,
+)
+
+
+def reference_hash(
+    seq: int, at: str, op: str, action: str, obj: str, parent: str, prev: str, payload: str
+) -> str:
+    """Written from the module docstring of tracker.domain.ledger, not from its code."""
+    lines = ["tracker-ledger/1", str(seq), at, op, action, obj, parent, prev, payload]
+    assert not any("\n" in line for line in lines)
+    data = "\n".join(lines).encode("utf-8")  # joined by LF, no trailing LF, UTF-8
+    return hashlib.sha256(data).hexdigest()  # lower-case hex SHA-256 (hashlib)
+
+
+# ---------------------------------------------------------------- canonical JSON
+
+
+def test_canonical_json_sorted_and_compact() -> None:
+    # RFC 8259 JSON; sorted keys, no insignificant white space (module docstring)
+    payload = {"b": 1, "a": [1, 2, {"z": None, "y": True}], "c": "x y"}
+    assert canonical_json(payload) == '{"a":[1,2,{"y":true,"z":null}],"b":1,"c":"x y"}'
+    assert json.loads(canonical_json(payload)) == payload
+
+
+@pytest.mark.parametrize("bad", [math.nan, math.inf, -math.inf])
+def test_canonical_json_refuses_nan(bad: float) -> None:
+    # RFC 8259 §6: NaN and Infinity are not permitted in JSON
+    with pytest.raises(ValueError):
+        canonical_json({"mass_mg": bad})
+
+
+def test_canonical_json_keeps_non_ascii_as_utf8() -> None:
+    text = canonical_json({"unit": "µg", "delta": "δ44/40Ca ‰"})
+    assert text == '{"delta":"δ44/40Ca ‰","unit":"µg"}'
+    assert "\\u" not in text
+    data = canonical_bytes(1, "t", "op", "a", "", "", GENESIS_HASH, text)
+    assert "µg".encode() in data  # UTF-8 bytes C2 B5 (Unicode standard)
+
+
+def test_canonical_json_escapes_line_feeds() -> None:
+    # RFC 8259 §7: control characters in strings are escaped, so the payload stays one line
+    text = canonical_json({"note": "line one\nline two"})
+    assert "\n" not in text
+    canonical_bytes(1, "t", "op", "a", "", "", GENESIS_HASH, text)  # accepted
+
+
+# ---------------------------------------------------------------- canonical bytes
+
+
+ARGS = (
+    7,
+    "2026-03-04T09:15:00.000000Z",
+    "tech",
+    "powder.drilled",
+    "PW-00003-K",
+    "",
+    "ab" * 32,
+    '{"mass_mg":2.15}',
+)
+
+
+def test_canonical_bytes_layout() -> None:
+    data = canonical_bytes(*ARGS)
+    assert data.startswith(b"tracker-ledger/1\n7\n2026-03-04T09:15:00.000000Z\n")
+    assert data.count(b"\n") == 8  # nine lines, eight separators
+    assert not data.endswith(b"\n")
+    assert b"\nPW-00003-K\n\n" in data  # empty parent: two consecutive line feeds
+    assert hashlib.sha256(data).hexdigest() == reference_hash(*ARGS)
+
+
+def test_event_hash_matches_reference() -> None:
+    digest = event_hash(*ARGS)
+    assert digest == reference_hash(*ARGS)
+    assert len(digest) == 64
+    assert digest == digest.lower()
+
+
+def test_event_hash_formats_datetimes_in_utc() -> None:
+    # ISO 8601 basic UTC with microseconds and Z (module docstring example)
+    at_utc = datetime(2026, 3, 4, 9, 15, tzinfo=UTC)
+    at_cet = datetime(2026, 3, 4, 10, 15, tzinfo=timezone(timedelta(hours=1)))
+    expected = reference_hash(*ARGS)
+    assert event_hash(ARGS[0], at_utc, *ARGS[2:]) == expected
+    assert event_hash(ARGS[0], at_cet, *ARGS[2:]) == expected
+    with pytest.raises(ValueError):
+        event_hash(ARGS[0], datetime(2026, 3, 4, 9, 15), *ARGS[2:])  # naive: zone unknown
+
+
+@pytest.mark.parametrize("index", range(1, 8))
+def test_line_feed_in_any_field_refused(index: int) -> None:
+    args = list(ARGS)
+    args[index] = str(args[index]) + "\nforged"
+    with pytest.raises(ValueError, match="line feed"):
+        canonical_bytes(*args)
+
+
+# ---------------------------------------------------------------- chain verification
+
+
+def build_chain(n: int) -> list[LedgerRow]:
+    rows: list[LedgerRow] = []
+    prev = "0" * 64  # module docstring: 64 zeros before event 1
+    start = datetime(2026, 2, 2, 8, 0, tzinfo=UTC)
+    for seq in range(1, n + 1):
+        at = (start + timedelta(minutes=seq)).strftime("%Y-%m-%dT%H:%M:%S.%fZ")
+        fields = (seq, at, "tech", "powder.drilled", f"PW-{seq}", "SP-1", prev, f'{{"n":{seq}}}')
+        digest = reference_hash(*fields)
+        rows.append(
+            LedgerRow(
+                seq,
+                at,
+                "tech",
+                "powder.drilled",
+                f"PW-{seq}",
+                "SP-1",
+                f'{{"n":{seq}}}',
+                prev,
+                digest,
+            )
+        )
+        prev = digest
+    return rows
+
+
+def test_intact_chain() -> None:
+    rows = build_chain(5)
+    report = verify_chain(rows)
+    assert report.ok
+    assert report.events == 5
+    assert report.head_seq == 5
+    assert report.head_hash == rows[-1].hash
+    assert report.broken_seq is None
+
+
+def test_empty_chain() -> None:
+    report = verify_chain([])
+    assert report.ok
+    assert report.events == 0
+    assert report.head_seq == 0
+    assert report.head_hash == GENESIS_HASH == "0" * 64
+
+
+def test_altered_payload() -> None:
+    rows = build_chain(5)
+    rows[2] = replace(rows[2], payload='{"n":999}')
+    report = verify_chain(rows)
+    assert not report.ok
+    assert report.broken_seq == 3
+    assert report.events == 2
+    assert report.reason is not None and "altered" in report.reason
+
+
+def test_deleted_middle_event() -> None:
+    rows = build_chain(5)
+    del rows[2]
+    report = verify_chain(rows)
+    assert not report.ok
+    assert report.broken_seq == 3
+    assert report.reason is not None and "missing" in report.reason
+
+
+def test_swapped_events() -> None:
+    rows = build_chain(5)
+    rows[1], rows[2] = rows[2], rows[1]
+    report = verify_chain(rows)
+    assert not report.ok
+    assert report.broken_seq == 2
+
+
+def test_swapped_and_renumbered_events() -> None:
+    # contents of events 2 and 3 exchanged, seq numbers and own hashes made consistent
+    rows = build_chain(5)
+    second, third = rows[1], rows[2]
+    for seq, source in ((2, third), (3, second)):
+        fields = (
+            seq,
+            source.at,
+            source.operator,
+            source.action,
+            source.object_ref,
+            source.parent_ref,
+            source.prev_hash,
+            source.payload,
+        )
+        rows[seq - 1] = replace(source, seq=seq, hash=reference_hash(*fields))
+    report = verify_chain(rows)
+    assert not report.ok
+    assert report.broken_seq == 2
+
+
+def test_wrong_prev_hash() -> None:
+    rows = build_chain(5)
+    row = rows[3]
+    forged_prev = "f" * 64
+    fields = (
+        row.seq,
+        row.at,
+        row.operator,
+        row.action,
+        row.object_ref,
+        row.parent_ref,
+        forged_prev,
+        row.payload,
+    )
+    rows[3] = replace(row, prev_hash=forged_prev, hash=reference_hash(*fields))
+    report = verify_chain(rows)
+    assert not report.ok
+    assert report.broken_seq == 4
+    assert report.reason is not None and "previous-hash" in report.reason
+
+
+def test_repeated_event() -> None:
+    rows = build_chain(3)
+    report = verify_chain([*rows, rows[-1]])
+    assert not report.ok
+    assert report.broken_seq == 3
+    assert report.events == 3
+
+
+def test_stored_hash_altered() -> None:
+    rows = build_chain(3)
+    rows[0] = replace(rows[0], hash="0" * 63 + "1")
+    report = verify_chain(rows)
+    assert not report.ok
+    assert report.broken_seq == 1
+
+
+JSON_VALUES = st.recursive(
+    st.none()
+    | st.booleans()
+    | st.integers()
+    | st.floats(allow_nan=False, allow_infinity=False)
+    | st.text(),
+    lambda children: (
+        st.lists(children, max_size=4) | st.dictionaries(st.text(max_size=6), children, max_size=4)
+    ),
+    max_leaves=12,
+)
+
+
+def _keys_sorted(pairs: list[tuple[str, object]]) -> dict[str, object]:
+    keys = [key for key, _ in pairs]
+    assert keys == sorted(keys)
+    return dict(pairs)
+
+
+@given(st.dictionaries(st.text(max_size=6), JSON_VALUES, max_size=5))
+def test_canonical_json_properties(payload: dict[str, object]) -> None:
+    # RFC 8259 round trip through the standard library parser; keys sorted at every level
+    text = canonical_json(payload)
+    assert json.loads(text, object_pairs_hook=_keys_sorted) == payload
+    assert "\n" not in text
+    assert canonical_json(json.loads(text)) == text  # idempotent
