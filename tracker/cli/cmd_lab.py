@@ -6,7 +6,7 @@ from typing import Annotated
 import typer
 
 from tracker.cli.render import done
-from tracker.cli.state import database, emit, state
+from tracker.cli.state import emit, perform
 from tracker.domain.models import AliquotPurpose, PositionKind
 from tracker.domain.units import format_mass_mg
 from tracker.services import chemistry, custody, lab
@@ -54,8 +54,7 @@ def drill(
         "drilled_at": at,
         "location": to,
     }
-    with database(ctx) as db:
-        answer = lab.drill(db, state(ctx).actor, request)
+    answer = perform(ctx, lab.drill, request)
     item = answer.item
     emit(
         ctx,
@@ -96,8 +95,7 @@ def dissolve(
         "dissolved_at": at,
         "location": to,
     }
-    with database(ctx) as db:
-        answer = lab.dissolve(db, state(ctx).actor, request)
+    answer = perform(ctx, lab.dissolve, request)
     item = answer.item
     emit(
         ctx,
@@ -135,8 +133,7 @@ def concentration(
         "method": method,
         "measured_at": at,
     }
-    with database(ctx) as db:
-        answer = lab.record_concentration(db, state(ctx).actor, request)
+    answer = perform(ctx, lab.record_concentration, request)
     item = answer.item
     emit(
         ctx,
@@ -177,8 +174,7 @@ def aliquot(
         "taken_at": at,
         "location": to,
     }
-    with database(ctx) as db:
-        answer = lab.take_aliquot(db, state(ctx).actor, request)
+    answer = perform(ctx, lab.take_aliquot, request)
     item = answer.item
     amount = f", {item.element} {item.element_ug:.2f} µg" if item.element_ug is not None else ""
     emit(ctx, answer, lambda: done(answer, f"{item.id} {item.mass_g:.4f} g{amount}"))
@@ -194,8 +190,7 @@ def move(
     note: Annotated[str | None, Opt("--note", help="Why.")] = None,
 ) -> None:
     """Move a specimen or vial to another location."""
-    with database(ctx) as db:
-        answer = custody.move(db, state(ctx).actor, {"item": item, "to": to, "note": note})
+    answer = perform(ctx, custody.move, {"item": item, "to": to, "note": note})
     emit(ctx, answer, lambda: done(answer, f"{answer.item.id} → {answer.item.location}"))
 
 
@@ -213,8 +208,7 @@ def dispose(
 ) -> None:
     """End a vial's life in the lab."""
     request = {"item": item, "outcome": outcome, "reason": reason, "permission": permission}
-    with database(ctx) as db:
-        answer = custody.dispose(db, state(ctx).actor, request)
+    answer = perform(ctx, custody.dispose, request)
     emit(ctx, answer, lambda: done(answer, f"{answer.item.id} {answer.item.status}"))
 
 
@@ -236,8 +230,7 @@ def reference_add(
 ) -> None:
     """Register a reference material or bracketing standard."""
     request = {"name": name, "element": element, "matrix": matrix}
-    with database(ctx) as db:
-        answer = chemistry.add_reference_material(db, state(ctx).actor, request)
+    answer = perform(ctx, chemistry.add_reference_material, request)
     emit(ctx, answer, lambda: done(answer, f"{answer.item.id} {name}"))
 
 
@@ -265,8 +258,7 @@ def batch_create(
         "elution_scheme": scheme,
         "cut_names": cuts,
     }
-    with database(ctx) as db:
-        answer = chemistry.create_batch(db, state(ctx).actor, request)
+    answer = perform(ctx, chemistry.create_batch, request)
     emit(ctx, answer, lambda: done(answer, f"{answer.item.id} {name}"))
 
 
@@ -302,6 +294,5 @@ def batch_add(
         "reference_material": reference,
         "loaded_ug": loaded,
     }
-    with database(ctx) as db:
-        answer = chemistry.add_position(db, state(ctx).actor, request)
+    answer = perform(ctx, chemistry.add_position, request)
     emit(ctx, answer, lambda: done(answer, f"{answer.item.id} column {answer.item.slot}"))

@@ -7,7 +7,7 @@ import typer
 from rich.table import Table
 
 from tracker.cli.render import done, plain_table
-from tracker.cli.state import database, emit, state
+from tracker.cli.state import database, emit, perform
 from tracker.domain.models import Disposition
 from tracker.services import custody, loans, specimens
 
@@ -45,8 +45,7 @@ def lender_add(
         "contact_name": contact,
         "contact_email": email,
     }
-    with database(ctx) as db:
-        answer = loans.add_lender(db, state(ctx).actor, request)
+    answer = perform(ctx, loans.add_lender, request)
     emit(ctx, answer, lambda: done(answer, f"{answer.item.id} {name}"))
 
 
@@ -113,8 +112,7 @@ def loan_add(
             "solution_disposition": solutions,
         },
     }
-    with database(ctx) as db:
-        answer = loans.add_loan(db, state(ctx).actor, request)
+    answer = perform(ctx, loans.add_loan, request)
     emit(ctx, answer, lambda: done(answer, f"{answer.item.id} {reference}"))
 
 
@@ -147,10 +145,9 @@ def loan_mark_returned(
     on: Annotated[datetime | None, Opt("--on", formats=["%Y-%m-%d"], help="Return date.")] = None,
 ) -> None:
     """Mark a loan's material as returned once every specimen and powder is dealt with."""
-    with database(ctx) as db:
-        answer = custody.mark_loan_returned(
-            db, state(ctx).actor, {"loan": loan, "returned_on": on.date() if on else None}
-        )
+    answer = perform(
+        ctx, custody.mark_loan_returned, {"loan": loan, "returned_on": on.date() if on else None}
+    )
     emit(ctx, answer, lambda: done(answer, f"{answer.item.reference} returned"))
 
 
@@ -181,8 +178,7 @@ def specimen_add(
         "age_max_ma": age_max,
         "age_min_ma": age_min,
     }
-    with database(ctx) as db:
-        answer = specimens.add_specimen(db, state(ctx).actor, request)
+    answer = perform(ctx, specimens.add_specimen, request)
     emit(ctx, answer, lambda: done(answer, f"{answer.item.id} {catalog}"))
 
 
@@ -220,8 +216,7 @@ def checkin(
 ) -> None:
     """Receive a listed specimen: note its condition and where it goes."""
     request = {"specimen": specimen, "condition": condition, "location": to, "received_at": at}
-    with database(ctx) as db:
-        answer = specimens.check_in(db, state(ctx).actor, request)
+    answer = perform(ctx, specimens.check_in, request)
     emit(ctx, answer, lambda: done(answer, f"{answer.item.id} checked in"))
 
 
@@ -236,8 +231,7 @@ def return_specimen(
 ) -> None:
     """Send a specimen back to its lender, recording its condition."""
     request = {"specimen": specimen, "condition": condition, "note": note}
-    with database(ctx) as db:
-        answer = specimens.return_specimen(db, state(ctx).actor, request)
+    answer = perform(ctx, specimens.return_specimen, request)
     emit(ctx, answer, lambda: done(answer, f"{answer.item.id} returned"))
 
 

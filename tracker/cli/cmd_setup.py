@@ -6,7 +6,7 @@ import typer
 from rich.table import Table
 
 from tracker.cli.render import done, plain_table
-from tracker.cli.state import database, emit, state
+from tracker.cli.state import database, emit, perform, state
 from tracker.domain.models import LocationKind, Role
 from tracker.services import setup
 
@@ -53,10 +53,7 @@ def operator_add(
     role: Annotated[Role, typer.Option("--role", help="technician or manager.")] = Role.TECHNICIAN,
 ) -> None:
     """Register an operator (managers only)."""
-    with database(ctx) as db:
-        answer = setup.add_operator(
-            db, state(ctx).actor, {"code": code, "name": name, "role": role}
-        )
+    answer = perform(ctx, setup.add_operator, {"code": code, "name": name, "role": role})
     emit(ctx, answer, lambda: done(answer, f"operator {code} ({role.value})"))
 
 
@@ -83,10 +80,7 @@ def location_add(
     inside: Annotated[str | None, typer.Option("--in", help="The enclosing location's ID.")] = None,
 ) -> None:
     """Add a place to the location tree."""
-    with database(ctx) as db:
-        answer = setup.add_location(
-            db, state(ctx).actor, {"kind": kind, "name": name, "parent": inside}
-        )
+    answer = perform(ctx, setup.add_location, {"kind": kind, "name": name, "parent": inside})
     emit(ctx, answer, lambda: done(answer, f"{answer.item.id} {answer.item.path}"))
 
 

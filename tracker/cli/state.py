@@ -108,6 +108,12 @@ def database(ctx: typer.Context) -> Iterator[Any]:
         raise
 
 
+def perform(ctx: typer.Context, service: Callable[..., Any], request: dict[str, Any]) -> Any:
+    """Call one write service on the selected database as the selected operator."""
+    with database(ctx) as db:
+        return service(db, state(ctx).actor, request)
+
+
 def jsonable(data: Any) -> Any:
     if isinstance(data, BaseModel):
         return data.model_dump(mode="json")

@@ -8,8 +8,10 @@ from typing import Any, TypeVar
 
 from pydantic import BaseModel
 
-from tracker.domain.errors import InputError
+from tracker.domain.errors import InputError, RuleViolation
+from tracker.domain.models import Location, Specimen, SpecimenStatus
 from tracker.domain.timeutil import as_utc, iso_utc
+from tracker.services.lookup import get_by_id
 from tracker.services.uow import Ref, UnitOfWork
 from tracker.services.views import Done
 
@@ -27,6 +29,18 @@ def action_time(uow: UnitOfWork, given: datetime | None, field: str) -> datetime
     if moment > uow.now + CLOCK_SKEW:
         raise InputError(field, iso_utc(moment), f"is in the future (now is {iso_utc(uow.now)})")
     return moment
+
+
+def optional_location(uow: UnitOfWork, field: str, text: str | None) -> Location | None:
+    """The location an ID names, or None when the form left it empty."""
+    return get_by_id(uow.session, Location, field, text) if text else None
+
+
+def require_on_hand(specimen: Specimen, field: str = "specimen") -> None:
+    """Refuse to act on a specimen that is not physically in the lab."""
+    if specimen.status is not SpecimenStatus.ON_HAND:
+        state = specimen.status.value.replace("_", " ")
+        raise RuleViolation(field, specimen.public_id, f"is {state}, not on hand")
 
 
 def finish(

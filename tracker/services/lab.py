@@ -23,15 +23,13 @@ from tracker.domain.models import (
     AliquotPurpose,
     Concentration,
     ContainerStatus,
-    Location,
     Powder,
     Solution,
     Specimen,
-    SpecimenStatus,
 )
 from tracker.domain.units import decimals_below, format_mass_mg, format_value_u
 from tracker.domain.weighing import MassByDifference
-from tracker.services.common import action_time, finish
+from tracker.services.common import action_time, finish, optional_location, require_on_hand
 from tracker.services.inputs import (
     AwareDatetime,
     Element,
@@ -42,7 +40,7 @@ from tracker.services.inputs import (
     parse,
 )
 from tracker.services.lookup import get_by_id
-from tracker.services.uow import UnitOfWork, unit_of_work
+from tracker.services.uow import unit_of_work
 from tracker.services.views import AliquotView, ConcentrationView, Done, PowderView, SolutionView
 
 # Defaults when the form does not say (common practice): a microbalance reading to
@@ -63,10 +61,6 @@ def weigh(
     if gross <= tare:
         raise InputError(names[1], f"{gross} mg", f"is not heavier than the tare ({tare} mg)")
     return MassByDifference(tare, gross, readability)
-
-
-def _place(uow: UnitOfWork, location: str | None) -> Location | None:
-    return get_by_id(uow.session, Location, "location", location) if location else None
 
 
 class Drill(Request):
@@ -91,12 +85,7 @@ def drill(db: Database, actor: str | None, data: Drill | Raw) -> Done[PowderView
     mass = weigh(request.tare, request.gross, request.readability).amount()
     with unit_of_work(db, actor) as uow:
         specimen = get_by_id(uow.session, Specimen, "specimen", request.specimen)
-        if specimen.status is not SpecimenStatus.ON_HAND:
-            raise RuleViolation(
-                "specimen",
-                specimen.public_id,
-                f"is {specimen.status.value.replace('_', ' ')}, not on hand",
-            )
+        require_on_hand(specimen)
         powder = Powder(
             specimen=specimen,
             tissue=request.tissue,
@@ -108,7 +97,7 @@ def drill(db: Database, actor: str | None, data: Drill | Raw) -> Done[PowderView
             mass_u_mg=mass.u,
             drilled_at=action_time(uow, request.drilled_at, "drilled-at"),
             drilled_by=uow.operator.code,
-            location=_place(uow, request.location),
+            location=optional_location(uow, "location", request.location),
             created_at=uow.now,
         )
         uow.session.add(powder)
@@ -176,7 +165,7 @@ def dissolve(db: Database, actor: str | None, data: Dissolve | Raw) -> Done[Solu
             solution_mass_u_g=grams.u,
             dissolved_at=action_time(uow, request.dissolved_at, "dissolved-at"),
             dissolved_by=uow.operator.code,
-            location=_place(uow, request.location),
+            location=optional_location(uow, "location", request.location),
             created_at=uow.now,
         )
         uow.session.add(solution)
@@ -343,7 +332,7 @@ def take_aliquot(db: Database, actor: str | None, data: TakeAliquot | Raw) -> Do
             purpose=request.purpose,
             taken_at=action_time(uow, request.taken_at, "taken-at"),
             taken_by=uow.operator.code,
-            location=_place(uow, request.location),
+            location=optional_location(uow, "location", request.location),
             created_at=uow.now,
         )
         uow.session.add(aliquot)

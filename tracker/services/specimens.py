@@ -10,8 +10,8 @@ from sqlalchemy.orm import selectinload
 
 from tracker.db.database import Database
 from tracker.domain.errors import RuleViolation
-from tracker.domain.models import LoanStatus, Location, Specimen, SpecimenStatus
-from tracker.services.common import action_time, finish
+from tracker.domain.models import LoanStatus, Specimen, SpecimenStatus
+from tracker.services.common import action_time, finish, optional_location, require_on_hand
 from tracker.services.inputs import AwareDatetime, Name, Raw, Request, Text, parse
 from tracker.services.lookup import get_by_id, get_loan
 from tracker.services.uow import unit_of_work
@@ -93,11 +93,7 @@ def check_in(db: Database, actor: str | None, data: CheckIn | Raw) -> Done[Speci
             raise RuleViolation(
                 "specimen", specimen.public_id, f"its loan is {specimen.loan.status.value}"
             )
-        location = (
-            get_by_id(uow.session, Location, "location", request.location)
-            if request.location
-            else None
-        )
+        location = optional_location(uow, "location", request.location)
         specimen.received_at = action_time(uow, request.received_at, "received-at")
         specimen.status = SpecimenStatus.ON_HAND
         specimen.condition_in = request.condition
@@ -132,12 +128,7 @@ def return_specimen(
     request = parse(ReturnSpecimen, data)
     with unit_of_work(db, actor) as uow:
         specimen = get_by_id(uow.session, Specimen, "specimen", request.specimen)
-        if specimen.status is not SpecimenStatus.ON_HAND:
-            raise RuleViolation(
-                "specimen",
-                specimen.public_id,
-                f"is {specimen.status.value.replace('_', ' ')}, not on hand",
-            )
+        require_on_hand(specimen)
         specimen.returned_at = action_time(uow, request.returned_at, "returned-at")
         specimen.status = SpecimenStatus.RETURNED
         specimen.condition_out = request.condition
