@@ -6,7 +6,7 @@ import itertools
 from typing import Any
 
 from tracker.db.database import Database
-from tracker.services import chemistry, lab, loans, setup, specimens
+from tracker.services import chemistry, drilling, lab, loans, setup, specimens
 
 _n = itertools.count(1)
 
@@ -64,7 +64,7 @@ def specimen(db: Database, loan_ref: str, *, checked_in: bool = True) -> str:
 def powder(db: Database, specimen_id: str, mg: str = "2.000") -> str:
     tare = 1000.000
     gross = tare + float(mg)
-    return lab.drill(
+    return drilling.drill(
         db,
         "tech",
         {

@@ -186,22 +186,13 @@ def test_option_type_errors_follow_the_same_contract(case: Case, lab: Lab) -> No
     check_refusal(case, lab)
 
 
-ALLOWANCE_BUG = pytest.mark.xfail(
-    strict=True,
-    reason="BUG: lab.drill never checks the loan's terms: a tissue the loan does not permit and "
-    "mass beyond the per-specimen limit are recorded (exit 0); only the overview flags it later",
-)
-
-
-@ALLOWANCE_BUG
 def test_drilling_a_tissue_the_loan_does_not_permit_is_refused(lab: Lab) -> None:
     # The lab's loan permits enamel only.
     case = Case("tissue not permitted", ("drill", "{on_hand}", "--tissue", "bone",
-                *GOOD_DRILL[2:]), T, 1, "tissue", "bone")  # fmt: skip
+                *GOOD_DRILL[2:]), T, 1, "--tissue", "bone")  # fmt: skip
     check_refusal(case, lab)
 
 
-@ALLOWANCE_BUG
 def test_drilling_beyond_the_per_specimen_limit_is_refused(lab: Lab) -> None:
     # 2.561 mg already drilled; 4.000 mg more passes the loan's 6 mg per specimen.
     before = counts(lab.path)

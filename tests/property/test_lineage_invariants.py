@@ -25,7 +25,7 @@ from tracker.db.database import open_database
 from tracker.domain.budget import COVERAGE_FACTOR, Amount, total
 from tracker.domain.errors import TrackerError
 from tracker.domain.models import CustodyEvent, Powder, Solution
-from tracker.services import lab, setup
+from tracker.services import drilling, lab, setup
 from tracker.services.ledger import verify
 
 _TEMPLATE: Path | None = None
@@ -87,7 +87,7 @@ class LabBench(RuleBasedStateMachine):
     @rule(target=powders, specimen=specimens, mass=masses_mg)
     def drill(self, specimen: str, mass: Decimal) -> str | None:
         return self._attempt(
-            lambda: lab.drill(
+            lambda: drilling.drill(
                 self.db,
                 "tech",
                 {

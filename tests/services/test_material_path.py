@@ -12,7 +12,7 @@ from tests import factories as make
 from tracker.db.database import Database
 from tracker.domain.errors import InputError, NotFound, RuleViolation
 from tracker.domain.models import ContainerStatus, CustodyEvent, Powder, SpecimenStatus
-from tracker.services import chemistry, custody, lab, lineage, specimens
+from tracker.services import chemistry, custody, drilling, lab, lineage, specimens
 from tracker.services.ledger import verify
 
 Counts = Callable[[], dict[str, int]]
@@ -39,7 +39,7 @@ def test_each_action_appends_exactly_one_event(db: Database, counts: Counts) -> 
 
 def test_drill_records_mass_by_difference_with_gum_uncertainty(db: Database) -> None:
     spec = make.specimen(db, make.loan(db))
-    answer = lab.drill(
+    answer = drilling.drill(
         db,
         "tech",
         {"specimen": spec, "tissue": "Enamel", "tare": "1234.567 mg", "gross": "1.236717 g"},
@@ -71,7 +71,7 @@ def test_bad_weighings_are_refused_and_nothing_written(
     request = {"specimen": spec, "tissue": "enamel", "tare": "1234.567 mg", "gross": "1236.717 mg"}
     before = counts()
     with pytest.raises(InputError) as caught:
-        lab.drill(db, "tech", request | {field: value})
+        drilling.drill(db, "tech", request | {field: value})
     assert caught.value.field == field
     assert fragment in caught.value.reason
     assert value.split()[0] in caught.value.one_line() or value in caught.value.one_line()
@@ -92,7 +92,7 @@ def test_unknown_and_mistyped_ids_are_input_errors(db: Database, counts: Counts)
     wrong_check = spec[:-1] + ("A" if spec[-1] != "A" else "B")
     for bad in (wrong_check, "SP-99999-", "XX-00001-0", "PW-00001-5"):
         with pytest.raises(InputError):
-            lab.drill(
+            drilling.drill(
                 db,
                 "tech",
                 {"specimen": bad, "tissue": "enamel", "tare": "1.000 mg", "gross": "2.000 mg"},

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import uuid
 from pathlib import Path
 
 import pytest
@@ -10,6 +11,7 @@ from alembic.config import Config
 from alembic.migration import MigrationContext
 from alembic.script import ScriptDirectory
 from sqlalchemy import create_engine, text
+from sqlalchemy.engine import make_url
 
 from tests import factories as make
 from tests.conftest import TickingClock
@@ -18,6 +20,7 @@ from tracker.db.database import Database, open_database, upgrade_database
 from tracker.db.engine import build_engine, create_private_file
 from tracker.domain.base import Base
 from tracker.domain.errors import RuleViolation
+from tracker.domain.ids import check_character
 from tracker.services import lineage, setup
 from tracker.services.ledger import verify
 
@@ -52,9 +55,7 @@ def test_old_sqlite_file_is_backed_up_and_upgraded_on_open(tmp_path: Path) -> No
     db = _database_at_first_revision(tmp_path)
     with db.engine.connect() as conn:
         assert migrate.current_revision(conn) == migrate.REVISIONS[0]
-    _seed_at_old_revision(db)  # the services write at the first revision too
-    spec = make.specimen(db, make.loan(db))
-    make.powder(db, spec)
+    _write_first_revision_rows(db)
     head_before = verify(db)
     db.close()
 
@@ -64,8 +65,11 @@ def test_old_sqlite_file_is_backed_up_and_upgraded_on_open(tmp_path: Path) -> No
         with reopened.engine.connect() as conn:
             assert migrate.current_revision(conn) == migrate.HEAD
         assert verify(reopened) == head_before
-        powder = lineage.show_item(reopened, spec).item.children[0]
-        assert powder.facts["mass_mg"] == pytest.approx(2.0)
+        specimen = lineage.show_item(reopened, "SP-00001-" + check_character("SP00001")).item
+        assert specimen.children[0].facts["mass_mg"] == pytest.approx(2.15)
+        # the upgraded file takes new writes through today's services
+        make.powder(reopened, make.specimen(reopened, make.loan(reopened)))
+        assert verify(reopened).ok
     finally:
         reopened.close()
     backup = tmp_path / f"old.sqlite.bak-{migrate.REVISIONS[0]}"
@@ -75,27 +79,76 @@ def test_old_sqlite_file_is_backed_up_and_upgraded_on_open(tmp_path: Path) -> No
     assert revision == migrate.REVISIONS[0]
 
 
-def _seed_at_old_revision(db: Database) -> None:
-    """Operators and the ledger's first event, written straight into the old schema."""
-    from tracker.domain.models import Operator, Role
+# Rows exactly as the first revision's tables hold them (columns of 0001_initial only).
+_FIRST_REVISION_ROWS = [
+    "INSERT INTO operator (id, code, name, role, active, created_at) VALUES (1, 'boss', "
+    "'Bea Oswald', 'manager', TRUE, :now), (2, 'tech', 'Teo Chandler', 'technician', TRUE, :now)",
+    "INSERT INTO lender (id, name, created_at) VALUES (1, 'Old Museum', :now)",
+    "INSERT INTO loan (id, lender_id, reference, title, borrower, status, created_at) "
+    "VALUES (1, 1, 'OLD-1', 'Old loan', 'Dr. Past', 'open', :now)",
+    "INSERT INTO loan_terms (loan_id, version, kind, effective_from, permitted_tissues, "
+    "due_on, return_specimens, powder_disposition, solution_disposition, report_data, "
+    "acknowledgement, recorded_by, recorded_at) VALUES (1, 1, 'original', '2026-01-01', "
+    "'[\"enamel\"]', '2027-01-01', TRUE, 'return', 'destroy', TRUE, TRUE, 'boss', :now)",
+    "INSERT INTO specimen (id, loan_id, catalog_number, extra, status, created_at) "
+    "VALUES (1, 1, 'OLD 1', '{}', 'on_hand', :now)",
+    "INSERT INTO powder (id, specimen_id, tissue, tare_mg, gross_mg, readability_mg, mass_mg, "
+    "mass_u_mg, drilled_at, drilled_by, status, created_at) VALUES (1, 1, 'enamel', 1000.0, "
+    "1002.15, 0.001, 2.15, 0.0004, :now, 'tech', 'available', :now)",
+]
+
+
+def _write_first_revision_rows(db: Database) -> None:
     from tracker.services.uow import append_event
 
     with db.write_session() as session, session.begin():
         now = db.clock()
-        session.add(Operator(code="boss", name="Bea Oswald", role=Role.MANAGER, created_at=now))
-        session.add(
-            Operator(code="tech", name="Teo Chandler", role=Role.TECHNICIAN, created_at=now)
-        )
-        session.flush()
-        append_event(
-            session,
-            at=now,
-            operator="boss",
-            action="ledger.opened",
-            object_ref="",
-            parent_ref="",
-            payload={"note": "made at the first revision"},
-        )
+        for statement in _FIRST_REVISION_ROWS:
+            session.execute(text(statement), {"now": now.replace(tzinfo=None)})
+        for seq, action in enumerate(("ledger.opened", "powder.drilled"), start=1):
+            append_event(
+                session,
+                at=now,
+                operator="boss",
+                action=action,
+                object_ref="",
+                parent_ref="",
+                payload={"step": seq},
+            )
+
+
+@pytest.mark.postgresql
+def test_postgresql_upgrade_keeps_data_and_refuses_ledger_edits(pg_server: str) -> None:
+    """The same first-revision rows on PostgreSQL, upgraded by `tracker db upgrade`."""
+    name = f"tracker_mig_{uuid.uuid4().hex[:8]}"
+    admin = create_engine(
+        make_url(pg_server).set(database="postgres"), isolation_level="AUTOCOMMIT"
+    )
+    with admin.connect() as conn:
+        conn.execute(text(f"CREATE DATABASE {name}"))
+    url = make_url(pg_server).set(database=name).render_as_string(hide_password=False)
+    try:
+        engine = build_engine(url)
+        migrate.upgrade(engine, migrate.REVISIONS[0])
+        engine.dispose()
+        old = Database(url, build_engine(url), TickingClock())
+        _write_first_revision_rows(old)
+        head_before = verify(old)
+        old.close()
+        with pytest.raises(RuleViolation, match="pg_dump"):
+            open_database(url)  # a shared database is never upgraded silently
+        assert upgrade_database(url) == (migrate.REVISIONS[0], migrate.HEAD)
+        db = open_database(url, clock=TickingClock())
+        try:
+            assert verify(db) == head_before
+            with pytest.raises(Exception, match="append-only"), db.engine.begin() as conn:
+                conn.execute(text("UPDATE custody_event SET payload = '{}'"))
+        finally:
+            db.close()
+    finally:
+        with admin.connect() as conn:
+            conn.execute(text(f"DROP DATABASE IF EXISTS {name} WITH (FORCE)"))
+        admin.dispose()
 
 
 def test_explicit_upgrade_reports_revisions(tmp_path: Path) -> None:

@@ -65,7 +65,11 @@ def test_loan_records_original_terms(db: Database) -> None:
 @pytest.mark.parametrize(
     ("terms", "field", "fragment"),
     [
-        ({"max_mass_per_specimen": "10 mg", "max_total_mass": "5 mg"}, "terms", "exceeds"),
+        (
+            {"max_mass_per_specimen": "10 mg", "max_total_mass": "5 mg"},
+            "max-mass-per-specimen",
+            "exceeds",
+        ),
         ({"permitted_tissues": " , "}, "terms.permitted-tissues", "at least one tissue"),
         ({"max_total_mass": "-3 mg"}, "terms.max-total-mass", "greater than zero"),
         ({"max_specimens_sampled": 0}, "terms.max-specimens-sampled", "greater than 0"),
@@ -92,7 +96,7 @@ def test_same_catalogue_number_twice_on_a_loan_is_refused(db: Database) -> None:
     specimens.add_specimen(db, "boss", {"loan": ref, "catalog_number": "X 1"})
     with pytest.raises(RuleViolation, match="already on this loan"):
         specimens.add_specimen(db, "boss", {"loan": ref, "catalog_number": "X 1"})
-    with pytest.raises(InputError, match="older than oldest"):
+    with pytest.raises(InputError, match="older than the oldest"):
         specimens.add_specimen(
             db, "boss", {"loan": ref, "catalog_number": "X 2", "age_max_ma": 10, "age_min_ma": 12}
         )

@@ -5,7 +5,7 @@ from typing import Annotated
 import typer
 
 from tracker import __version__
-from tracker.cli import cmd_inspect, cmd_lab, cmd_loans, cmd_setup
+from tracker.cli import cmd_budget, cmd_inspect, cmd_lab, cmd_loans, cmd_setup
 from tracker.cli.cmd_demo import DEMO_EPILOG, demo
 from tracker.cli.state import State, TrackerGroup
 
@@ -66,12 +66,18 @@ def _register() -> None:
     command("concentration", epilog=cmd_lab.CONCENTRATION_EPILOG)(cmd_lab.concentration)
     command("aliquot", epilog=cmd_lab.ALIQUOT_EPILOG)(cmd_lab.aliquot)
     command("dispose", epilog=cmd_lab.DISPOSE_EPILOG)(cmd_lab.dispose)
+    command("plan", epilog=cmd_budget.PLAN_EPILOG)(cmd_budget.plan)
+    command("reconcile", epilog=cmd_budget.RECONCILE_EPILOG)(cmd_budget.reconcile_command)
+    loan = cmd_loans.loan_app.command
+    loan("amend", epilog=cmd_budget.AMEND_EPILOG)(cmd_budget.amend)
+    loan("attach", epilog=cmd_budget.ATTACH_EPILOG)(cmd_budget.attach)
     app.add_typer(cmd_setup.operator_app, name="operator")
     app.add_typer(cmd_setup.location_app, name="location")
     app.add_typer(cmd_loans.lender_app, name="lender")
     app.add_typer(cmd_loans.loan_app, name="loan")
     app.add_typer(cmd_loans.specimen_app, name="specimen")
     app.add_typer(cmd_lab.reference_app, name="reference")
+    app.add_typer(cmd_budget.material_app, name="material")
     app.add_typer(cmd_lab.batch_app, name="batch")
     app.add_typer(cmd_inspect.ledger_app, name="ledger")
     app.add_typer(cmd_setup.db_app, name="db")

@@ -8,7 +8,7 @@ import typer
 
 from tracker.cli.render import history_table, item_detail, overview_table
 from tracker.cli.state import database, emit, errors
-from tracker.services import ledger, lineage, overview
+from tracker.services import ledger, lineage, reconcile
 
 ledger_app = typer.Typer(
     epilog="Example: tracker ledger verify",
@@ -20,7 +20,7 @@ ledger_app = typer.Typer(
 def show_overview(ctx: typer.Context) -> None:
     """Open loans, allowance used, due dates and flags, most urgent first."""
     with database(ctx) as db:
-        lines = overview.overview(db)
+        lines = reconcile.reconcile(db, specimens=False)
     emit(ctx, lines, lambda: overview_table(lines))
 
 

@@ -9,7 +9,7 @@ from tracker.cli.render import done
 from tracker.cli.state import emit, perform
 from tracker.domain.models import AliquotPurpose, PositionKind
 from tracker.domain.units import format_mass_mg
-from tracker.services import chemistry, custody, lab
+from tracker.services import chemistry, custody, drilling, lab
 
 Opt = typer.Option
 At = Annotated[str | None, Opt("--at", help="When it happened, ISO 8601 with zone; default now.")]
@@ -40,10 +40,16 @@ def drill(
     gross: Annotated[str, Opt("--gross", help="Vial with powder, with unit.")],
     readability: Annotated[str, Opt("--readability", help="Balance readability.")] = "0.001 mg",
     site: Annotated[str | None, Opt("--site", help="Where on the specimen.")] = None,
+    material: Annotated[
+        str | None, Opt("--material", help="e.g. calcite; default follows the tissue.")
+    ] = None,
+    override: Annotated[
+        str | None, Opt("--override", help="Manager only: the written reason to exceed a limit.")
+    ] = None,
     at: At = None,
     to: To = None,
 ) -> None:
-    """Drill powder from a specimen; mass by difference with its uncertainty."""
+    """Drill powder from a specimen within the loan's terms; mass by difference with its u."""
     request = {
         "specimen": specimen,
         "tissue": tissue,
@@ -51,10 +57,12 @@ def drill(
         "gross": gross,
         "readability": readability,
         "site": site,
+        "material": material,
+        "override_reason": override,
         "drilled_at": at,
         "location": to,
     }
-    answer = perform(ctx, lab.drill, request)
+    answer = perform(ctx, drilling.drill, request)
     item = answer.item
     emit(
         ctx,
@@ -205,16 +213,34 @@ def dispose(
     permission: Annotated[
         str | None, Opt("--permission", help="Lender's written permission (for retained).")
     ] = None,
+    residual_tare: Annotated[
+        str | None, Opt("--residual-tare", help="Weigh what leaves: the empty vial's tare.")
+    ] = None,
+    residual_gross: Annotated[
+        str | None, Opt("--residual-gross", help="The vial with what is left in it.")
+    ] = None,
+    readability: Annotated[
+        str | None, Opt("--readability", help="Balance readability for those readings.")
+    ] = None,
 ) -> None:
-    """End a vial's life in the lab."""
-    request = {"item": item, "outcome": outcome, "reason": reason, "permission": permission}
+    """End a vial's life in the lab, weighing what is left in it as it goes."""
+    request = {
+        "item": item,
+        "outcome": outcome,
+        "reason": reason,
+        "permission": permission,
+        "residual_tare": residual_tare,
+        "residual_gross": residual_gross,
+        "readability": readability,
+    }
     answer = perform(ctx, custody.dispose, request)
     emit(ctx, answer, lambda: done(answer, f"{answer.item.id} {answer.item.status}"))
 
 
 DISPOSE_EPILOG = (
     "Example: tracker dispose PW-00003-1 --outcome returned "
-    "--reason 'unused powder returned with the specimen'"
+    "--reason 'unused powder returned with the specimen' "
+    "--residual-tare '512.004 mg' --residual-gross '513.022 mg'"
 )
 
 

@@ -13,7 +13,8 @@ from rich.tree import Tree
 
 from tracker.domain.units import format_mass_mg, format_value_u
 from tracker.services.lineage import ItemDetail, Node
-from tracker.services.overview import LoanLine
+from tracker.services.planning import Plan
+from tracker.services.reconcile import LoanLine
 from tracker.services.views import Done, EventView
 
 BAR_WIDTH = 8
@@ -29,8 +30,8 @@ def done(answer: Done[Any], what: str) -> Text:
 def plain_table(*headers: str) -> Table:
     """The house style for lists: a header rule, no cell borders, fits 80 columns."""
     table = Table(box=box.SIMPLE_HEAD, padding=(0, 1))
-    for header in headers:
-        table.add_column(header)
+    for number, header in enumerate(headers):
+        table.add_column(header, no_wrap=number == 0)  # IDs in the first column stay whole
     return table
 
 
@@ -146,3 +147,74 @@ def item_detail(detail: ItemDetail) -> RenderableType:
     parts.append(lineage_tree(detail.item))
     parts.append(history_table(detail.history))
     return Group(*parts)
+
+
+def _flags(flags: list[str]) -> str:
+    return "\n".join(flags) or "ok"
+
+
+def reconcile_tables(lines: list[LoanLine]) -> RenderableType:
+    """One block per loan: its totals and terms, then a row per specimen."""
+    if not lines:
+        return Text("No loans.")
+    blocks: list[RenderableType] = []
+    for line in lines:
+        limit = f"{line.max_total_mass_mg:g} mg" if line.max_total_mass_mg else "no total limit"
+        due = (
+            f"due {line.due_on.isoformat()} ({_days(line.days_left)})"
+            if line.status == "open"
+            else line.status
+        )
+        head = Text.assemble(
+            (f"{line.reference}", "bold"),
+            f"  {line.lender_code}  {line.id}  terms v{line.terms_version}  {due}\n",
+            f"drilled {format_value_u(line.drilled_mg, line.drilled_u_mg, 'mg')} of {limit}; "
+            f"{line.sampled}/{line.max_specimens_sampled or '-'} specimens sampled; "
+            f"dissolved {line.dissolved_mg:.3f} mg; powder on hand "
+            f"{line.powder_on_hand_mg:.3f} mg; returned {line.powder_returned_mg:.3f} mg\n",
+            ("flags: " + (", ".join(line.flags) or "none"), "bold red" if line.flags else "green"),
+        )
+        table = plain_table(
+            "specimen", "drilled / permitted", "dissolved", "on hand", "returned", "flags"
+        )
+        for s in line.specimen_lines:
+            permitted = f"/{s.permitted_mg:g} mg" if s.permitted_mg else " mg"
+            table.add_row(
+                f"{s.id}\n[dim]{s.catalog_number}[/dim]",
+                f"{s.drilled_mg:.3f}{permitted}",
+                f"{s.dissolved_mg:.3f}",
+                f"{s.powder_on_hand_mg:.3f}",
+                f"{s.powder_returned_mg:.3f}",
+                _flags(s.flags),
+            )
+        blocks += [head, table]
+    return Group(*blocks)
+
+
+def plan_table(plan: Plan) -> RenderableType:
+    span = plan.specimens[0] if plan.specimens else None
+    fraction = f"{span.mass_fraction_low:.4f}–{span.mass_fraction_high:.4f}" if span else "—"
+    head = Text.assemble(
+        (f"Plan for {plan.loan}", "bold"),
+        f": {plan.tissue} as {plan.material} (mass fraction {fraction}), terms v"
+        f"{plan.terms_version}\n",
+        f"to drill in all {plan.total_to_drill_mg:.3f} mg; loan total left "
+        f"{_mg_or_dash(plan.loan_remaining_before_mg)} → "
+        f"{_mg_or_dash(plan.loan_remaining_after_mg)}",
+    )
+    table = plain_table("specimen", "element µg", "powder needed", "on hand", "to drill", "verdict")
+    for s in plan.specimens:
+        verdict = ("yes: " if s.feasible else "NO: ") + s.reason
+        table.add_row(
+            f"{s.id}\n[dim]{s.catalog_number}[/dim]",
+            f"{s.element_needed_ug:.2f}",
+            f"{s.powder_needed_mg:.3f} mg",
+            f"{s.powder_on_hand_mg:.3f} mg",
+            f"{s.to_drill_mg:.3f} mg",
+            verdict,
+        )
+    return Group(head, table)
+
+
+def _mg_or_dash(value: float | None) -> str:
+    return "no limit" if value is None else f"{value:.3f} mg"

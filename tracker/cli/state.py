@@ -72,6 +72,16 @@ FIELD_OPTIONS = {
     "terms.max-total-mass": "--max-total",
     "terms.max-specimens-sampled": "--max-specimens",
     "terms": "--max-per-specimen/--max-total",
+    "max-mass-per-specimen": "--max-per-specimen",
+    "max-total-mass": "--max-total",
+    "max-specimens-sampled": "--max-specimens",
+    "permitted-tissues": "--tissues",
+    "fraction-low": "--low",
+    "fraction-high": "--high",
+    "effective-from": "--effective",
+    "override-reason": "--override",
+    "age-min-ma": "--age-min",
+    "age-max-ma": "--age-max",
 }
 
 

@@ -11,7 +11,7 @@ from pathlib import Path
 
 from sqlalchemy import Connection, Engine, inspect, text
 
-REVISIONS: tuple[str, ...] = ("0001_initial", "0002_append_only_ledger")
+REVISIONS: tuple[str, ...] = ("0001_initial", "0002_append_only_ledger", "0003_materials_residuals")
 HEAD = REVISIONS[-1]
 MIGRATIONS_DIR = Path(__file__).with_name("migrations")
 

@@ -40,6 +40,7 @@ class Kind(StrEnum):
     SHIPMENT = "SH"
     OPERATOR = "OP"
     DOCUMENT = "DC"
+    MATERIAL = "MT"
 
 
 _BY_PREFIX = {kind.value: kind for kind in Kind}

@@ -18,7 +18,17 @@ from typing import Any
 
 from tracker.db.database import Database
 from tracker.domain.errors import InputError
-from tracker.services import chemistry, custody, lab, loans, setup, specimens
+from tracker.services import (
+    amendments,
+    chemistry,
+    custody,
+    drilling,
+    lab,
+    loans,
+    materials,
+    setup,
+    specimens,
+)
 
 Service = Callable[[Database, str, dict[str, Any]], Any]
 
@@ -33,13 +43,16 @@ SERVICES: dict[str, Service] = {
     "move": custody.move,
     "dispose": custody.dispose,
     "loan_returned": custody.mark_loan_returned,
-    "drill": lab.drill,
+    "drill": drilling.drill,
     "dissolve": lab.dissolve,
     "concentration": lab.record_concentration,
     "aliquot": lab.take_aliquot,
     "reference": chemistry.add_reference_material,
     "batch": chemistry.create_batch,
     "position": chemistry.add_position,
+    "amend": amendments.amend_loan,
+    "attach": amendments.attach_document,
+    "material": materials.add_material,
 }
 
 
@@ -65,16 +78,21 @@ class StepClock:
 class Replay:
     db: Database
     clock: StepClock
+    folder: Path
     aliases: dict[str, str] = field(default_factory=dict)
 
-    def resolve(self, value: Any) -> Any:
+    def resolve(self, value: Any, key: str = "") -> Any:
+        """Aliases become IDs; a ``document`` names a file beside the scenario."""
+        if key == "document" and isinstance(value, str):
+            path = self.folder / value
+            return {"filename": path.name, "content": path.read_bytes()}
         if isinstance(value, str) and value.startswith("@"):
             try:
                 return self.aliases[value[1:]]
             except KeyError:
                 raise InputError("scenario", value, "alias used before it is defined") from None
         if isinstance(value, dict):
-            return {key: self.resolve(item) for key, item in value.items()}
+            return {name: self.resolve(item, name) for name, item in value.items()}
         if isinstance(value, list):
             return [self.resolve(item) for item in value]
         return value
@@ -111,7 +129,7 @@ def build_demo(out: Path, scenario: Path | None = None) -> int:
     clock = StepClock(_aware(founder["at"]))
     db = setup.init_database(partial, {"code": founder["code"], "name": founder["name"]}, clock)
     try:
-        replay = Replay(db, clock)
+        replay = Replay(db, clock, (scenario or scenario_path()).parent)
         for number, step in enumerate(steps):
             replay.run(number, step)
     finally:

@@ -19,7 +19,7 @@ from tracker.domain.models import (
     ReferenceMaterial,
 )
 from tracker.services.common import finish
-from tracker.services.inputs import Element, Name, Raw, Request, Text, parse
+from tracker.services.inputs import Element, FieldProblem, Name, Raw, Request, Text, parse
 from tracker.services.lab import aliquot_element
 from tracker.services.lookup import get_by_id, get_reference_material
 from tracker.services.uow import unit_of_work
@@ -147,7 +147,11 @@ class AddPosition(Request):
             given = getattr(self, name) is not None
             if given != (name == wanted):
                 verb = "needs" if name == wanted else "takes no"
-                raise ValueError(f"a {self.kind.value} position {verb} {name.replace('_', ' ')}")
+                raise FieldProblem(
+                    name.replace("_", "-"),
+                    getattr(self, name),
+                    f"a {self.kind.value} position {verb} {name.replace('_', ' ')}",
+                )
         return self
 
 

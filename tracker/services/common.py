@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from collections.abc import Callable
 from datetime import datetime, timedelta
+from decimal import Decimal
 from typing import Any, TypeVar
 
 from pydantic import BaseModel
@@ -11,6 +12,8 @@ from pydantic import BaseModel
 from tracker.domain.errors import InputError, RuleViolation
 from tracker.domain.models import Location, Specimen, SpecimenStatus
 from tracker.domain.timeutil import as_utc, iso_utc
+from tracker.domain.units import decimals_below
+from tracker.domain.weighing import MassByDifference
 from tracker.services.lookup import get_by_id
 from tracker.services.uow import Ref, UnitOfWork
 from tracker.services.views import Done
@@ -29,6 +32,26 @@ def action_time(uow: UnitOfWork, given: datetime | None, field: str) -> datetime
     if moment > uow.now + CLOCK_SKEW:
         raise InputError(field, iso_utc(moment), f"is in the future (now is {iso_utc(uow.now)})")
     return moment
+
+
+# Defaults when the form does not say (common practice): a microbalance reading to
+# 0.001 mg for powders, an analytical balance reading to 0.1 mg (0.0001 g) for solutions.
+MICROBALANCE_MG = Decimal("0.001")
+ANALYTICAL_BALANCE_MG = Decimal("0.1")
+
+
+def weigh(
+    tare: Decimal, gross: Decimal, readability: Decimal, names: tuple[str, str] = ("tare", "gross")
+) -> MassByDifference:
+    """Check a tare/gross pair against the balance and return the mass by difference."""
+    for name, value in zip(names, (tare, gross), strict=True):
+        if decimals_below(value, readability):
+            raise InputError(
+                name, f"{value} mg", f"has more decimals than the balance reads ({readability} mg)"
+            )
+    if gross <= tare:
+        raise InputError(names[1], f"{gross} mg", f"is not heavier than the tare ({tare} mg)")
+    return MassByDifference(tare, gross, readability)
 
 
 def optional_location(uow: UnitOfWork, field: str, text: str | None) -> Location | None:

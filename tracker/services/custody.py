@@ -21,8 +21,8 @@ from tracker.domain.models import (
     Specimen,
     SpecimenStatus,
 )
-from tracker.services.common import finish
-from tracker.services.inputs import Raw, Request, Text, parse
+from tracker.services.common import ANALYTICAL_BALANCE_MG, MICROBALANCE_MG, finish, weigh
+from tracker.services.inputs import PositiveMassMg, Raw, Request, Text, parse
 from tracker.services.lookup import get_any, get_by_id, get_loan
 from tracker.services.uow import unit_of_work
 from tracker.services.views import Done, ItemView, LoanView
@@ -84,6 +84,10 @@ class Dispose(Request):
     outcome: Annotated[str, Field(pattern="^(returned|destroyed|retained|consumed)$")]
     reason: Annotated[str, Field(min_length=1, max_length=4000)]
     permission: Annotated[str, Field(max_length=300)] | None = None  # lender's written consent
+    # What is left in the vial, weighed by difference as it leaves (powders and solutions).
+    residual_tare: PositiveMassMg | None = None
+    residual_gross: PositiveMassMg | None = None
+    readability: PositiveMassMg | None = None
 
 
 def dispose(db: Database, actor: str | None, data: Dispose | Raw) -> Done[ItemView]:
@@ -99,6 +103,7 @@ def dispose(db: Database, actor: str | None, data: Dispose | Raw) -> Done[ItemVi
             raise RuleViolation(
                 "permission", None, "retaining lent material needs the lender's written permission"
             )
+        residual = _residual(request, item, outcome)
         before = item.location.path if item.location else None
         item.status = outcome
         item.location = None
@@ -107,9 +112,40 @@ def dispose(db: Database, actor: str | None, data: Dispose | Raw) -> Done[ItemVi
             "reason": request.reason,
             "permission": request.permission,
             "from": before,
+            "residual": residual,
         }
         action = f"{type(item).__name__.lower()}.{outcome.value}"
         return finish(uow, action, item, payload, lambda: ItemView.of(item))
+
+
+def _residual(
+    request: Dispose, item: Container, outcome: ContainerStatus
+) -> dict[str, float] | None:
+    """Weigh what leaves the lab; store it on powders (mg) and solutions (g)."""
+    given = (request.residual_tare, request.residual_gross)
+    if all(v is None for v in given):
+        return None
+    if any(v is None for v in given):
+        raise InputError("residual-gross", None, "give both the residual tare and gross readings")
+    if outcome is ContainerStatus.CONSUMED:
+        raise InputError("residual-gross", None, "a consumed vial is empty; nothing to weigh")
+    if not isinstance(item, Powder | Solution):
+        raise InputError(
+            "item", item.public_id, "residual weighings apply to powders and solutions"
+        )
+    default = MICROBALANCE_MG if isinstance(item, Powder) else ANALYTICAL_BALANCE_MG
+    assert request.residual_tare is not None and request.residual_gross is not None
+    mass = weigh(
+        request.residual_tare,
+        request.residual_gross,
+        request.readability or default,
+        ("residual-tare", "residual-gross"),
+    ).amount()
+    if isinstance(item, Powder):
+        item.residual_mg, item.residual_u_mg = mass.value, mass.u
+        return {"residual_mg": mass.value, "residual_u_mg": mass.u}
+    item.residual_g, item.residual_u_g = mass.value / 1000, mass.u / 1000
+    return {"residual_g": item.residual_g, "residual_u_g": item.residual_u_g}
 
 
 class MarkReturned(Request):
@@ -154,6 +190,6 @@ def mark_loan_returned(db: Database, actor: str | None, data: MarkReturned | Raw
             "loan.returned",
             loan,
             {"returned_on": returned_on.isoformat()},
-            lambda: LoanView.of(loan),
+            lambda: LoanView.of(loan, returned_on),
             parent=loan.lender,
         )

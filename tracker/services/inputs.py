@@ -33,6 +33,16 @@ class Request(BaseModel):
 
 
 R = TypeVar("R", bound=BaseModel)
+
+
+class FieldProblem(ValueError):
+    """Raised by a model-level validator to blame one field (and its value) by name."""
+
+    def __init__(self, field: str, value: object, reason: str) -> None:
+        super().__init__(reason)
+        self.field, self.value, self.reason = field, value, reason
+
+
 Raw = Mapping[str, Any]  # what an entry point hands over: field name -> typed text or value
 
 
@@ -44,6 +54,10 @@ def parse(model: type[R], data: R | Raw) -> R:
         return model.model_validate(data)
     except ValidationError as exc:
         first = exc.errors(include_url=False)[0]
+        blamed = first.get("ctx", {}).get("error")
+        if isinstance(blamed, FieldProblem):
+            value = None if blamed.value is None else str(blamed.value)
+            raise InputError(blamed.field, value, blamed.reason) from None
         field = ".".join(str(part) for part in first["loc"]) or model.__name__
         value = first.get("input")
         if isinstance(value, dict):

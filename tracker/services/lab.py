@@ -1,11 +1,10 @@
-"""Bench actions on material: drill, dissolve, record a concentration, take an aliquot."""
+"""Bench actions on solutions: dissolve a powder, record a concentration, take an aliquot."""
 
 from __future__ import annotations
 
-from decimal import Decimal
 from typing import Annotated
 
-from pydantic import Field, field_validator, model_validator
+from pydantic import Field, model_validator
 
 from tracker.db.database import Database
 from tracker.domain.budget import (
@@ -25,14 +24,20 @@ from tracker.domain.models import (
     ContainerStatus,
     Powder,
     Solution,
-    Specimen,
 )
 from tracker.domain.units import decimals_below, format_mass_mg, format_value_u
-from tracker.domain.weighing import MassByDifference
-from tracker.services.common import action_time, finish, optional_location, require_on_hand
+from tracker.services.common import (
+    ANALYTICAL_BALANCE_MG,
+    MICROBALANCE_MG,
+    action_time,
+    finish,
+    optional_location,
+    weigh,
+)
 from tracker.services.inputs import (
     AwareDatetime,
     Element,
+    FieldProblem,
     FractionUgPerG,
     PositiveMassMg,
     Raw,
@@ -41,80 +46,7 @@ from tracker.services.inputs import (
 )
 from tracker.services.lookup import get_by_id
 from tracker.services.uow import unit_of_work
-from tracker.services.views import AliquotView, ConcentrationView, Done, PowderView, SolutionView
-
-# Defaults when the form does not say (common practice): a microbalance reading to
-# 0.001 mg for powders, an analytical balance reading to 0.1 mg (0.0001 g) for solutions.
-MICROBALANCE_MG = Decimal("0.001")
-ANALYTICAL_BALANCE_MG = Decimal("0.1")
-
-
-def weigh(
-    tare: Decimal, gross: Decimal, readability: Decimal, names: tuple[str, str] = ("tare", "gross")
-) -> MassByDifference:
-    """Check a tare/gross pair against the balance and return the mass by difference."""
-    for name, value in zip(names, (tare, gross), strict=True):
-        if decimals_below(value, readability):
-            raise InputError(
-                name, f"{value} mg", f"has more decimals than the balance reads ({readability} mg)"
-            )
-    if gross <= tare:
-        raise InputError(names[1], f"{gross} mg", f"is not heavier than the tare ({tare} mg)")
-    return MassByDifference(tare, gross, readability)
-
-
-class Drill(Request):
-    specimen: str
-    tissue: Annotated[str, Field(min_length=1, max_length=60)]
-    site: Annotated[str, Field(max_length=200)] | None = None
-    tare: PositiveMassMg
-    gross: PositiveMassMg
-    readability: PositiveMassMg = MICROBALANCE_MG
-    drilled_at: AwareDatetime | None = None
-    location: str | None = None
-
-    @field_validator("tissue")
-    @classmethod
-    def _lower(cls, value: str) -> str:
-        return value.lower()
-
-
-def drill(db: Database, actor: str | None, data: Drill | Raw) -> Done[PowderView]:
-    """Drill powder from a specimen; its mass is gross − tare with the balance's uncertainty."""
-    request = parse(Drill, data)
-    mass = weigh(request.tare, request.gross, request.readability).amount()
-    with unit_of_work(db, actor) as uow:
-        specimen = get_by_id(uow.session, Specimen, "specimen", request.specimen)
-        require_on_hand(specimen)
-        powder = Powder(
-            specimen=specimen,
-            tissue=request.tissue,
-            site=request.site,
-            tare_mg=float(request.tare),
-            gross_mg=float(request.gross),
-            readability_mg=float(request.readability),
-            mass_mg=mass.value,
-            mass_u_mg=mass.u,
-            drilled_at=action_time(uow, request.drilled_at, "drilled-at"),
-            drilled_by=uow.operator.code,
-            location=optional_location(uow, "location", request.location),
-            created_at=uow.now,
-        )
-        uow.session.add(powder)
-        payload = {
-            "specimen": specimen.public_id,
-            "tissue": powder.tissue,
-            "site": powder.site,
-            "tare_mg": powder.tare_mg,
-            "gross_mg": powder.gross_mg,
-            "readability_mg": powder.readability_mg,
-            "mass_mg": powder.mass_mg,
-            "mass_u_mg": powder.mass_u_mg,
-            "drilled_at": powder.drilled_at.isoformat(),
-        }
-        return finish(
-            uow, "powder.drilled", powder, payload, lambda: PowderView.of(powder), parent=specimen
-        )
+from tracker.services.views import AliquotView, ConcentrationView, Done, SolutionView
 
 
 def powder_remaining(powder: Powder) -> Amount:
@@ -226,9 +158,13 @@ class RecordConcentration(Request):
     @model_validator(mode="after")
     def _one_uncertainty(self) -> RecordConcentration:
         if (self.uncertainty is None) == (self.relative_uncertainty_percent is None):
-            raise ValueError("give exactly one of uncertainty or relative-uncertainty-percent")
+            raise FieldProblem(
+                "uncertainty",
+                self.uncertainty,
+                "give exactly one of uncertainty or relative-uncertainty-percent",
+            )
         if self.value <= 0:
-            raise ValueError(f"concentration {self.value} ug/g must be greater than zero")
+            raise FieldProblem("value", f"{self.value} ug/g", "must be greater than zero")
         return self
 
     def standard_uncertainty(self) -> float:

@@ -19,13 +19,14 @@ from tracker.domain.models import (
     Cut,
     Lender,
     Loan,
+    LoanDocument,
     Powder,
     Solution,
     Specimen,
 )
 from tracker.services.lab import powder_remaining, solution_element, solution_remaining_g
 from tracker.services.lookup import get_any, get_loan
-from tracker.services.views import EventView, View
+from tracker.services.views import DocumentView, EventView, TermsView, View
 
 
 class Node(View):
@@ -44,6 +45,8 @@ class ItemDetail(View):
     ancestors: list[Node]
     location: str | None
     history: list[EventView]
+    terms: list[TermsView] = Field(default_factory=list)  # loans: every version, oldest first
+    documents: list[DocumentView] = Field(default_factory=list)  # loans: kept by SHA-256
 
 
 def show_item(db: Database, ref: str) -> ItemDetail:
@@ -53,12 +56,20 @@ def show_item(db: Database, ref: str) -> ItemDetail:
         if isinstance(row, Specimen):
             load_specimen_tree(session, row.id)  # one query per level instead of per node
         location = getattr(row, "location", None)
+        loan_rows = row if isinstance(row, Loan) else None
         return ItemDetail(
+            terms=[TermsView.of(t) for t in loan_rows.terms] if loan_rows else [],
+            documents=_documents(session, loan_rows.id) if loan_rows else [],
             item=node_of(row),
             ancestors=[node_of(a, with_children=False) for a in ancestors_of(row)],
             location=location.path if location is not None else None,
             history=history_of(session, row.public_id),
         )
+
+
+def _documents(session: Session, loan_id: int) -> list[DocumentView]:
+    links = session.scalars(select(LoanDocument).where(LoanDocument.loan_id == loan_id))
+    return [DocumentView.of(link.document, link.role) for link in links]
 
 
 def history_of(session: Session, public_id: str) -> list[EventView]:

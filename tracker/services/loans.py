@@ -14,7 +14,7 @@ from tracker.db.database import Database
 from tracker.domain.errors import InputError, RuleViolation
 from tracker.domain.models import Disposition, Lender, Loan, LoanTerms, TermsKind
 from tracker.services.common import finish
-from tracker.services.inputs import Name, PositiveMassMg, Raw, Request, Text, parse
+from tracker.services.inputs import FieldProblem, Name, PositiveMassMg, Raw, Request, Text, parse
 from tracker.services.lookup import get_lender
 from tracker.services.uow import unit_of_work
 from tracker.services.views import Done, LenderView, LoanView
@@ -78,8 +78,8 @@ class TermsInput(Request):
     def _limits_consistent(self) -> TermsInput:
         per, total = self.max_mass_per_specimen, self.max_total_mass
         if per is not None and total is not None and per > total:
-            raise ValueError(
-                f"the per-specimen limit ({per} mg) exceeds the loan's total ({total} mg)"
+            raise FieldProblem(
+                "max-mass-per-specimen", f"{per} mg", f"exceeds the loan's total ({total} mg)"
             )
         return self
 
@@ -119,7 +119,7 @@ def add_loan(db: Database, actor: str | None, data: NewLoan | Raw) -> Done[LoanV
             received_on=request.received_on,
             created_at=uow.now,
         )
-        terms = _terms_row(
+        terms = terms_row(
             request.terms,
             version=1,
             kind=TermsKind.ORIGINAL,
@@ -137,10 +137,17 @@ def add_loan(db: Database, actor: str | None, data: NewLoan | Raw) -> Done[LoanV
             "received_on": request.received_on.isoformat() if request.received_on else None,
             "terms": terms_payload(request.terms),
         }
-        return finish(uow, "loan.added", loan, payload, lambda: LoanView.of(loan), parent=lender)
+        return finish(
+            uow,
+            "loan.added",
+            loan,
+            payload,
+            lambda: LoanView.of(loan, uow.now.date()),
+            parent=lender,
+        )
 
 
-def _terms_row(
+def terms_row(
     terms: TermsInput, *, version: int, kind: TermsKind, effective_from: date, recorded_by: str
 ) -> LoanTerms:
     return LoanTerms(
@@ -181,4 +188,5 @@ def list_loans(db: Database) -> list[LoanView]:
             .options(selectinload(Loan.terms), selectinload(Loan.lender))
             .order_by(Loan.id)
         )
-        return [LoanView.of(loan) for loan in loans]
+        today = db.clock().date()
+        return [LoanView.of(loan, today) for loan in loans]

@@ -26,6 +26,7 @@ from tracker.domain.models import (
     Shipment,
     Solution,
     Specimen,
+    UserMaterial,
 )
 
 MODEL_BY_KIND: dict[Kind, type[Any]] = {
@@ -44,6 +45,7 @@ MODEL_BY_KIND: dict[Kind, type[Any]] = {
     Kind.SHIPMENT: Shipment,
     Kind.OPERATOR: Operator,
     Kind.DOCUMENT: Document,
+    Kind.MATERIAL: UserMaterial,
 }
 
 T = TypeVar("T", bound=Base)

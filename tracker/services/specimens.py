@@ -12,7 +12,7 @@ from tracker.db.database import Database
 from tracker.domain.errors import RuleViolation
 from tracker.domain.models import LoanStatus, Specimen, SpecimenStatus
 from tracker.services.common import action_time, finish, optional_location, require_on_hand
-from tracker.services.inputs import AwareDatetime, Name, Raw, Request, Text, parse
+from tracker.services.inputs import AwareDatetime, FieldProblem, Name, Raw, Request, Text, parse
 from tracker.services.lookup import get_by_id, get_loan
 from tracker.services.uow import unit_of_work
 from tracker.services.views import Done, SpecimenView
@@ -39,7 +39,7 @@ class NewSpecimen(Request):
     def _ages_ordered(self) -> NewSpecimen:
         oldest, youngest = self.age_max_ma, self.age_min_ma
         if oldest is not None and youngest is not None and youngest > oldest:
-            raise ValueError(f"youngest age {youngest} Ma is older than oldest age {oldest} Ma")
+            raise FieldProblem("age-min-ma", youngest, f"is older than the oldest age {oldest} Ma")
         return self
 
 

@@ -16,6 +16,7 @@ from tracker.domain.models import (
     Aliquot,
     Concentration,
     CustodyEvent,
+    Document,
     Lender,
     Loan,
     LoanTerms,
@@ -25,6 +26,7 @@ from tracker.domain.models import (
     Solution,
     Specimen,
 )
+from tracker.domain.terms import terms_in_force
 
 
 class View(BaseModel):
@@ -122,10 +124,11 @@ class LoanView(View):
     status: str
     received_on: date | None
     returned_on: date | None
-    terms: TermsView
+    terms: TermsView  # the version in force on the day asked about
+    versions: int
 
     @classmethod
-    def of(cls, row: Loan) -> LoanView:
+    def of(cls, row: Loan, on: date) -> LoanView:
         return cls(
             id=row.public_id,
             reference=row.reference,
@@ -135,7 +138,8 @@ class LoanView(View):
             status=row.status.value,
             received_on=row.received_on,
             returned_on=row.returned_on,
-            terms=TermsView.of(row.terms[-1]),
+            terms=TermsView.of(terms_in_force(row.terms, on)),
+            versions=len(row.terms),
         )
 
 
@@ -308,6 +312,24 @@ class ItemView(View):
             kind=type(row).__name__.lower(),
             status=row.status.value,
             location=location,
+        )
+
+
+class DocumentView(View):
+    id: str
+    sha256: str
+    filename: str
+    size_bytes: int
+    role: str | None = None
+
+    @classmethod
+    def of(cls, row: Document, role: str | None = None) -> DocumentView:
+        return cls(
+            id=row.public_id,
+            sha256=row.sha256,
+            filename=row.filename,
+            size_bytes=row.size_bytes,
+            role=role,
         )
 
 

@@ -16,7 +16,14 @@ from tracker.domain.models.enums import (
 )
 from tracker.domain.models.instrument import InstrumentSession, Measurement, Result
 from tracker.domain.models.ledger import CustodyEvent
-from tracker.domain.models.loans import Document, Loan, LoanDocument, LoanTerms, Shipment
+from tracker.domain.models.loans import (
+    Document,
+    Loan,
+    LoanDocument,
+    LoanTerms,
+    Shipment,
+    UserMaterial,
+)
 from tracker.domain.models.material import Aliquot, Concentration, Powder, Solution, Specimen
 from tracker.domain.models.people import Lender, Location, Operator
 
@@ -53,4 +60,5 @@ __all__ = [
     "Specimen",
     "SpecimenStatus",
     "TermsKind",
+    "UserMaterial",
 ]

@@ -125,3 +125,19 @@ class Shipment(HasPublicId, Base):
     tracking: Mapped[str | None] = mapped_column(String(120))
     notes: Mapped[str | None] = mapped_column(Text)
     created_at: Mapped[datetime]
+
+
+class UserMaterial(HasPublicId, Base):
+    """A material the lab defines: a formula, or a measured range of one element's fraction."""
+
+    __tablename__ = "user_material"
+    id_kind = Kind.MATERIAL
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    name: Mapped[str] = mapped_column(String(120), unique=True)
+    formula: Mapped[str | None] = mapped_column(String(200))
+    element: Mapped[str | None] = mapped_column(String(3))
+    fraction_low: Mapped[float | None]
+    fraction_high: Mapped[float | None]
+    notes: Mapped[str | None] = mapped_column(Text)
+    created_at: Mapped[datetime]

@@ -83,10 +83,14 @@ class Powder(HasPublicId, Base):
     mass_u_mg: Mapped[float]
     drilled_at: Mapped[datetime]
     drilled_by: Mapped[str] = mapped_column(String(32), ForeignKey("operator.code"))
+    material: Mapped[str | None] = mapped_column(String(120))  # preset or user material name
     override_reason: Mapped[str | None] = mapped_column(Text)
     status: Mapped[ContainerStatus] = mapped_column(
         enum_type(ContainerStatus), default=ContainerStatus.AVAILABLE
     )
+    # What was left in the vial when it left the lab (returned/destroyed/retained), weighed.
+    residual_mg: Mapped[float | None]
+    residual_u_mg: Mapped[float | None]
     location_id: Mapped[int | None] = mapped_column(ForeignKey("location.id"), index=True)
     created_at: Mapped[datetime]
 
@@ -115,6 +119,8 @@ class Solution(HasPublicId, Base):
     status: Mapped[ContainerStatus] = mapped_column(
         enum_type(ContainerStatus), default=ContainerStatus.AVAILABLE
     )
+    residual_g: Mapped[float | None]  # solution left when the vial left the lab, weighed
+    residual_u_g: Mapped[float | None]
     location_id: Mapped[int | None] = mapped_column(ForeignKey("location.id"), index=True)
     created_at: Mapped[datetime]
 
