@@ -151,3 +151,9 @@ def demo_db(tmp_path_factory: pytest.TempPathFactory) -> Path:
     result = invoke("demo", "--out", str(out))
     assert result.exit_code == 0, result.stderr
     return out
+
+
+@pytest.fixture
+def demo(demo_db: Path, tmp_path: Path) -> Path:
+    """A private copy of the demo database for a test that writes."""
+    return copy_sqlite(demo_db, tmp_path / "demo.sqlite")

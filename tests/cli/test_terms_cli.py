@@ -1,281 +1,33 @@
-"""Loan budgets through the CLI: reconcile, plan, overrides, amendments, materials, residuals.
-
-Expected numbers are computed here, independently of tracker: from the demo scenario
-TOML with Decimal arithmetic, by hand (formula in a comment), or with the
-``periodictable`` package. SQLite only; every write goes through CliRunner.
-"""
+"""Limits, overrides, amendments, materials and residual weighings through the CLI."""
 
 from __future__ import annotations
 
 import hashlib
-import json
 import math
 import re
-import tomllib
-from dataclasses import dataclass, field
-from datetime import UTC, date, datetime, timedelta
+from datetime import date, timedelta
 from decimal import Decimal
 from pathlib import Path
 from typing import Any
 
 import periodictable
 import pytest
-from jsonschema import Draft202012Validator, ValidationError
 from typer.testing import Result
 
-from tests.cli.conftest import Lab, copy_sqlite, counts, invoke, ok_json
-
-ROOT = Path(__file__).resolve().parents[2]
-SCENARIO = ROOT / "demo_db" / "scenario.toml"
-SCHEMAS = ROOT / "schemas"
-KF, MDGC, NMFI = "KF-2026-014", "MDGC/LN/0457", "NMFI-25-033"
-TOLERANCE = Decimal("1e-9")  # mg
-REASON = "repeat drill agreed by the lender in writing (invented letter, test only)"
-
-
-# ---------------------------------------------------------------- helpers
-
-
-def today() -> date:
-    return datetime.now(UTC).date()  # tracker's clock is UTC
-
-
-def mg(text: str) -> Decimal:
-    number, unit = text.split()
-    assert unit == "mg", text
-    return Decimal(number)
-
-
-def close(actual: float, expected: Decimal) -> bool:
-    return abs(Decimal(repr(actual)) - expected) <= TOLERANCE
-
-
-def refused(result: Result, exit_code: int, field_name: str | None) -> str:
-    """Exit code and exactly one "error: <field>: <value>: <reason>" line; return it."""
-    assert result.exit_code == exit_code, (result.exit_code, result.stdout, result.stderr)
-    lines = result.stderr.splitlines()
-    assert len(lines) == 1, result.stderr
-    assert re.fullmatch(r"error: [^:\s]+: [^:]+: .+", lines[0]), lines[0]
-    if field_name is not None:
-        assert lines[0].startswith(f"error: {field_name}: "), lines[0]
-    return lines[0]
-
-
-def validate(document: Any, schema_name: str) -> None:
-    schema = json.loads((SCHEMAS / schema_name).read_text(encoding="utf-8"))
-    validator = Draft202012Validator(schema, format_checker=Draft202012Validator.FORMAT_CHECKER)
-    validator.validate(document)
-
-
-def reconcile(db: Path, loan: str) -> dict[str, Any]:
-    lines = ok_json(invoke("reconcile", "--loan", loan, db=db, as_json=True))
-    assert [line["reference"] for line in lines] == [loan]
-    return dict(lines[0])
-
-
-def specimen_line(loan_line: dict[str, Any], catalog: str) -> dict[str, Any]:
-    (line,) = [s for s in loan_line["specimen_lines"] if s["catalog_number"] == catalog]
-    return dict(line)
-
-
-def specimen_id(db: Path, loan: str, catalog: str) -> str:
-    rows = ok_json(invoke("specimen", "list", "--loan", loan, db=db, as_json=True))
-    (row,) = [r for r in rows if r["catalog_number"] == catalog]
-    return str(row["id"])
-
-
-def open_powder(db: Path, specimen: str) -> str:
-    """The specimen's one powder vial still in the lab."""
-    tree = ok_json(invoke("show", specimen, db=db, as_json=True))["item"]
-    (found,) = [
-        c["id"] for c in tree["children"] if c["kind"] == "powder" and c["status"] == "available"
-    ]
-    return str(found)
-
-
-@pytest.fixture
-def demo(demo_db: Path, tmp_path: Path) -> Path:
-    """A private copy of the demo database for a test that writes."""
-    return copy_sqlite(demo_db, tmp_path / "demo.sqlite")
-
-
-# ---------------------------------------------------------------- the scenario, by hand
-
-
-@dataclass
-class PowderBook:
-    specimen: str  # alias
-    drilled: Decimal
-    dissolved: Decimal = Decimal(0)
-    residual: Decimal | None = None
-    disposed: bool = False
-    override: bool = False
-
-
-@dataclass
-class LoanBook:
-    """What the scenario says one loan should show today."""
-
-    catalog: dict[str, str]  # specimen alias -> catalogue number
-    terms: dict[str, Any]
-    version: int
-    powders: list[PowderBook] = field(default_factory=list)
-
-    def of(self, alias: str) -> list[PowderBook]:
-        return [p for p in self.powders if p.specimen == alias]
-
-    @staticmethod
-    def drilled(powders: list[PowderBook]) -> Decimal:
-        return sum((p.drilled for p in powders), Decimal(0))
-
-    @staticmethod
-    def dissolved(powders: list[PowderBook]) -> Decimal:
-        return sum((p.dissolved for p in powders), Decimal(0))
-
-    @staticmethod
-    def on_hand(powders: list[PowderBook]) -> Decimal:
-        return sum((p.drilled - p.dissolved for p in powders if not p.disposed), Decimal(0))
-
-
-def _at(step: dict[str, Any]) -> datetime:
-    return datetime.fromisoformat(step["at"])
-
-
-def book(reference: str) -> LoanBook:
-    """Replay the scenario TOML by hand (Decimal mg) for one loan, with the terms in force today."""
-    with SCENARIO.open("rb") as handle:
-        steps = sorted(tomllib.load(handle)["steps"], key=_at)  # stable, like the builder
-    (loan_step,) = [s for s in steps if s["do"] == "loan" and s["args"]["reference"] == reference]
-    loan = "@" + loan_step["as"]
-    original = loan_step["args"]["terms"]
-    keys = ("permitted_tissues", "max_mass_per_specimen", "max_total_mass",
-            "max_specimens_sampled", "due_on")  # fmt: skip
-    terms = {key: term(key, original[key]) for key in keys}
-    catalog = {
-        s["as"]: s["args"]["catalog_number"]
-        for s in steps
-        if s["do"] == "specimen" and s["args"]["loan"] == loan
-    }
-    result = LoanBook(catalog, terms, 1)
-    powders: dict[str, PowderBook] = {}
-    for step in steps:
-        args = step["args"]
-        if step["do"] == "drill" and args["specimen"][1:] in catalog:
-            powder = PowderBook(args["specimen"][1:], mg(args["gross"]) - mg(args["tare"]))
-            powder.override = "override_reason" in args
-            powders[step["as"]] = powder
-            result.powders.append(powder)
-        elif step["do"] == "dissolve" and args["powder"][1:] in powders:
-            powder = powders[args["powder"][1:]]
-            whole = powder.drilled - powder.dissolved  # no powder_taken: all that remains
-            powder.dissolved += mg(args["powder_taken"]) if "powder_taken" in args else whole
-        elif step["do"] == "dispose" and args["item"][1:] in powders:
-            powder = powders[args["item"][1:]]
-            powder.disposed = True
-            if "residual_tare" in args:
-                powder.residual = mg(args["residual_gross"]) - mg(args["residual_tare"])
-        elif step["do"] == "amend" and args["loan"] == loan and in_force(args):
-            result.version += 1
-            terms.update({key: term(key, args[key]) for key in terms if key in args})
-    return result
-
-
-def in_force(amendment: dict[str, Any]) -> bool:
-    return date.fromisoformat(amendment["effective_from"]) <= today()
-
-
-def term(key: str, value: Any) -> Any:
-    return mg(value) if key in ("max_mass_per_specimen", "max_total_mass") else value
-
-
-# ---------------------------------------------------------------- a. documents match schemas
-
-
-def test_reconcile_plan_and_show_validate_against_their_schemas(demo_db: Path) -> None:
-    reconciled = ok_json(invoke("reconcile", db=demo_db, as_json=True))
-    validate(reconciled, "reconcile.schema.json")
-    plan = ("plan", KF, "--ug", "2", "--replicates", "4")
-    planned = ok_json(invoke(*plan, db=demo_db, as_json=True))
-    validate(planned, "plan.schema.json")
-    specimen = specimen_id(demo_db, KF, "KFMNH P 20314")  # a specimen with a full lineage
-    shown = ok_json(invoke("show", specimen, db=demo_db, as_json=True))
-    validate(shown, "show.schema.json")
-    # the check has teeth: a loan line without its flags is not a valid reconcile document
-    del reconciled[0]["flags"]
-    with pytest.raises(ValidationError, match="flags"):
-        validate(reconciled, "reconcile.schema.json")
-
-
-# ---------------------------------------------------------------- b. done-when, by hand
-
-
-def test_reconcile_kf_matches_the_scenario_per_loan_and_per_specimen(demo_db: Path) -> None:
-    expected = book(KF)
-    line = reconcile(demo_db, KF)
-    terms = expected.terms
-    assert line["terms_version"] == expected.version == 2  # the amendment took effect 2026-06-01
-    assert line["permitted_tissues"] == terms["permitted_tissues"]
-    assert close(line["max_mass_per_specimen_mg"], terms["max_mass_per_specimen"])
-    assert close(line["max_total_mass_mg"], terms["max_total_mass"])
-    assert line["max_specimens_sampled"] == terms["max_specimens_sampled"]
-    assert line["due_on"] == terms["due_on"]
-    assert line["specimens"] == len(expected.catalog)
-    assert line["sampled"] == len({p.specimen for p in expected.powders})
-    assert close(line["drilled_mg"], LoanBook.drilled(expected.powders))
-    assert close(line["dissolved_mg"], LoanBook.dissolved(expected.powders))
-    assert close(line["powder_on_hand_mg"], LoanBook.on_hand(expected.powders))
-    assert close(
-        line["used_fraction"], LoanBook.drilled(expected.powders) / terms["max_total_mass"]
-    )
-    assert {s["catalog_number"] for s in line["specimen_lines"]} == set(expected.catalog.values())
-    for alias, catalog in expected.catalog.items():
-        mine, got = expected.of(alias), specimen_line(line, catalog)
-        assert got["powders"] == len(mine), catalog
-        assert close(got["drilled_mg"], LoanBook.drilled(mine)), catalog
-        assert close(got["dissolved_mg"], LoanBook.dissolved(mine)), catalog
-        assert close(got["powder_on_hand_mg"], LoanBook.on_hand(mine)), catalog
-        assert close(got["permitted_mg"], terms["max_mass_per_specimen"]), catalog
-
-
-@pytest.mark.parametrize("reference", [KF, MDGC, NMFI])
-def test_reconcile_loan_totals_match_the_scenario(demo_db: Path, reference: str) -> None:
-    expected = book(reference)
-    line = reconcile(demo_db, reference)
-    assert line["terms_version"] == expected.version
-    assert line["sampled"] == len({p.specimen for p in expected.powders})
-    assert close(line["drilled_mg"], LoanBook.drilled(expected.powders))
-    assert close(line["dissolved_mg"], LoanBook.dissolved(expected.powders))
-    assert close(line["powder_on_hand_mg"], LoanBook.on_hand(expected.powders))
-
-
-def test_mdgc_carries_the_managers_override_and_is_over_limit(demo_db: Path) -> None:
-    expected = book(MDGC)
-    line = reconcile(demo_db, MDGC)
-    assert {"override used", "over limit"} <= set(line["flags"])
-    # the scenario's override drill, and the specimens whose sum passes the per-specimen limit
-    overridden = {p.specimen for p in expected.powders if p.override}
-    limit = expected.terms["max_mass_per_specimen"]
-    over = {a for a in expected.catalog if LoanBook.drilled(expected.of(a)) > limit}
-    assert overridden and over
-    for alias, catalog in expected.catalog.items():
-        flags = specimen_line(line, catalog)["flags"]
-        assert ("override used" in flags) == (alias in overridden), (catalog, flags)
-        assert ("over limit" in flags) == (alias in over), (catalog, flags)
-
-
-def test_returned_loan_with_weighed_out_vials_has_nothing_unaccounted(demo_db: Path) -> None:
-    expected = book(NMFI)
-    # premise, from the TOML: every powder left weighed, and its books close to one reading
-    assert expected.powders and all(p.disposed for p in expected.powders)
-    for p in expected.powders:
-        assert p.residual is not None
-        assert abs(p.drilled - p.dissolved - p.residual) <= Decimal("0.001")
-    line = reconcile(demo_db, NMFI)
-    assert line["status"] == "returned"
-    for flags in [line["flags"], *(s["flags"] for s in line["specimen_lines"])]:
-        assert "unaccounted material" not in flags
-        assert "missing weighing" not in flags
-
+from tests.cli.budget_book import (
+    KF,
+    REASON,
+    LoanBook,
+    book,
+    close,
+    open_powder,
+    reconcile,
+    refused,
+    specimen_id,
+    specimen_line,
+    today,
+)
+from tests.cli.conftest import Lab, counts, invoke, ok_json
 
 # ---------------------------------------------------------------- c. limits and overrides
 
