@@ -5,7 +5,7 @@ from typing import Annotated
 import typer
 
 from tracker import __version__
-from tracker.cli import cmd_budget, cmd_inspect, cmd_lab, cmd_loans, cmd_setup
+from tracker.cli import cmd_budget, cmd_inspect, cmd_instrument, cmd_lab, cmd_loans, cmd_setup
 from tracker.cli.cmd_demo import DEMO_EPILOG, demo
 from tracker.cli.state import State, TrackerGroup
 
@@ -71,6 +71,20 @@ def _register() -> None:
     loan = cmd_loans.loan_app.command
     loan("amend", epilog=cmd_budget.AMEND_EPILOG)(cmd_budget.amend)
     loan("attach", epilog=cmd_budget.ATTACH_EPILOG)(cmd_budget.attach)
+    instrument = cmd_instrument
+    loan("curve", epilog=instrument.LOAN_CURVE_EPILOG)(instrument.loan_curve)
+    command("results", epilog=instrument.RESULTS_EPILOG)(instrument.results_command)
+    command("screen", epilog=instrument.SCREEN_EPILOG)(instrument.screen_command)
+    batch = cmd_lab.batch_app.command
+    batch("cut", epilog=instrument.BATCH_CUT_EPILOG)(instrument.batch_cut)
+    batch("show", epilog="Example: tracker batch show CB-00001-G")(instrument.batch_show)
+    batch(
+        "blank-delta",
+        epilog="Example: tracker batch blank-delta CB-00001-G --ratio 44/40 --delta -0.8",
+    )(instrument.batch_blank_delta)
+    cmd_lab.reference_app.command("value", epilog=instrument.REFERENCE_VALUE_EPILOG)(
+        instrument.reference_value
+    )
     app.add_typer(cmd_setup.operator_app, name="operator")
     app.add_typer(cmd_setup.location_app, name="location")
     app.add_typer(cmd_loans.lender_app, name="lender")
@@ -78,6 +92,9 @@ def _register() -> None:
     app.add_typer(cmd_loans.specimen_app, name="specimen")
     app.add_typer(cmd_lab.reference_app, name="reference")
     app.add_typer(cmd_budget.material_app, name="material")
+    app.add_typer(cmd_instrument.profile_app, name="profile")
+    app.add_typer(cmd_instrument.session_app, name="session")
+    app.add_typer(cmd_instrument.curve_app, name="curve")
     app.add_typer(cmd_lab.batch_app, name="batch")
     app.add_typer(cmd_inspect.ledger_app, name="ledger")
     app.add_typer(cmd_setup.db_app, name="db")

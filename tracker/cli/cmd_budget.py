@@ -7,8 +7,7 @@ from typing import Annotated, Any
 import typer
 
 from tracker.cli.render import done, plain_table, plan_table, reconcile_tables
-from tracker.cli.state import database, emit, perform
-from tracker.domain.errors import InputError
+from tracker.cli.state import database, emit, perform, read_upload
 from tracker.domain.models import Disposition, TermsKind
 from tracker.services import amendments, materials, planning, reconcile
 
@@ -19,16 +18,6 @@ material_app = typer.Typer(
     no_args_is_help=True,
     epilog="Example: tracker material list",
 )
-
-
-def _upload(path: Path | None, option: str) -> dict[str, Any] | None:
-    """Read a file for a service; the service keeps it by SHA-256."""
-    if path is None:
-        return None
-    try:
-        return {"filename": path.name, "content": path.read_bytes()}
-    except OSError as error:
-        raise InputError(option, str(path), f"cannot be read ({error.strerror})") from None
 
 
 def amend(
@@ -57,7 +46,7 @@ def amend(
     """Record an amendment to a loan's terms (managers only); it applies from --effective on."""
     request = {
         "loan": loan, "kind": kind, "effective_from": effective.date(), "reason": reason,
-        "document": _upload(document, "--document"), "due_on": due.date() if due else None,
+        "document": read_upload(document, "--document"), "due_on": due.date() if due else None,
         "permitted_tissues": tissues, "max_mass_per_specimen": max_per_specimen,
         "max_total_mass": max_total, "max_specimens_sampled": max_specimens,
         "powder_disposition": powder, "solution_disposition": solutions,
@@ -85,7 +74,7 @@ def attach(
     ] = "agreement",
 ) -> None:
     """Keep a loan document (agreement, letter, photo), identified by its SHA-256."""
-    request = {"loan": loan, "role": role, "document": _upload(file, "FILE")}
+    request = {"loan": loan, "role": role, "document": read_upload(file, "FILE")}
     answer = perform(ctx, amendments.attach_document, request)
     emit(ctx, answer, lambda: done(answer, f"{answer.item.filename} sha256 {answer.item.sha256}"))
 

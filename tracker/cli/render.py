@@ -115,12 +115,25 @@ def _facts(facts: dict[str, Any]) -> str:
         parts.append(f"left {facts['remaining_g']:.4f} g")
     if "mass_g" in facts:
         parts.append(format_value_u(facts["mass_g"], facts["mass_u_g"], "g"))
-    if facts.get("element_ug") is not None:
-        amount = format_value_u(facts["element_ug"], facts["element_u_ug"], "µg")
-        parts.append(f"{facts['element']} {amount}")
+    for symbol, amount in facts.get("elements", {}).items():
+        parts.append(f"{symbol} {format_value_u(amount['ug'], amount['u_ug'], 'µg')}")
+    if facts.get("recovered_ug") is not None:
+        parts.append(f"recovered {facts['recovered_ug']:.2f} µg")
+    if facts.get("yield") is not None:
+        parts.append(f"yield {facts['yield'] * 100:.1f} %")
+    for result in facts.get("results", []):
+        parts.append(_result_text(result))
     if facts.get("loaded_ug") is not None:
         parts.append(f"loaded {format_value_u(facts['loaded_ug'], facts['loaded_u_ug'], 'µg')}")
     return ", ".join(parts)
+
+
+def _result_text(result: dict[str, Any]) -> str:
+    """δ44/40 +0.884 ± 0.150 (n=4), or 87/86 0.708257 ± 0.000014 (n=3) for ratios."""
+    delta = result["kind"] == "delta"
+    digits, sign, symbol = (3, "+", "δ") if delta else (6, "", "")
+    spread = "" if result["two_sd"] is None else f" ± {result['two_sd']:.{digits}f}"
+    return f"{symbol}{result['ratio']} {result['value']:{sign}.{digits}f}{spread} (n={result['n']})"
 
 
 def history_table(events: list[EventView]) -> Table:

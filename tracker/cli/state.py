@@ -20,7 +20,7 @@ from pydantic import BaseModel
 from rich.console import Console, RenderableType
 from typer.core import TyperGroup
 
-from tracker.domain.errors import TrackerError
+from tracker.domain.errors import InputError, TrackerError
 
 console = Console(highlight=False)
 errors = Console(stderr=True, highlight=False)
@@ -122,6 +122,16 @@ def perform(ctx: typer.Context, service: Callable[..., Any], request: dict[str, 
     """Call one write service on the selected database as the selected operator."""
     with database(ctx) as db:
         return service(db, state(ctx).actor, request)
+
+
+def read_upload(path: Path | None, option: str) -> dict[str, Any] | None:
+    """Read a file for a service; the service keeps it by SHA-256."""
+    if path is None:
+        return None
+    try:
+        return {"filename": path.name, "content": path.read_bytes()}
+    except OSError as error:
+        raise InputError(option, str(path), f"cannot be read ({error.strerror})") from None
 
 
 def jsonable(data: Any) -> Any:

@@ -11,7 +11,12 @@ from pathlib import Path
 
 from sqlalchemy import Connection, Engine, inspect, text
 
-REVISIONS: tuple[str, ...] = ("0001_initial", "0002_append_only_ledger", "0003_materials_residuals")
+REVISIONS: tuple[str, ...] = (
+    "0001_initial",
+    "0002_append_only_ledger",
+    "0003_materials_residuals",
+    "0004_instrument",
+)
 HEAD = REVISIONS[-1]
 MIGRATIONS_DIR = Path(__file__).with_name("migrations")
 
@@ -30,9 +35,32 @@ def upgrade(engine: Engine, target: str = "head") -> None:
 
     config = Config()
     config.set_main_option("script_location", str(MIGRATIONS_DIR))
-    with engine.begin() as connection:
-        config.attributes["connection"] = connection
-        command.upgrade(config, target)
+    with engine.connect() as connection:
+        sqlite = connection.dialect.name == "sqlite"
+        if sqlite:  # table rebuilds drop and re-create tables: pause FK checks, verify after
+            _pragma(connection, "foreign_keys = OFF")
+        try:
+            with connection.begin():
+                config.attributes["connection"] = connection
+                command.upgrade(config, target)
+                if sqlite:
+                    _check_foreign_keys(connection)
+        finally:
+            if sqlite:
+                _pragma(connection, "foreign_keys = ON")
+
+
+def _pragma(connection: Connection, setting: str) -> None:
+    """A PRAGMA on the raw driver connection, outside SQLAlchemy's transaction."""
+    raw = connection.connection.driver_connection
+    assert raw is not None
+    raw.execute(f"PRAGMA {setting}")
+
+
+def _check_foreign_keys(connection: Connection) -> None:
+    broken = connection.exec_driver_sql("PRAGMA foreign_key_check").fetchall()
+    if broken:
+        raise RuntimeError(f"migration left {len(broken)} broken foreign keys: {broken[:3]}")
 
 
 def is_known(revision: str) -> bool:

@@ -53,6 +53,7 @@ class Base(DeclarativeBase):
         datetime: UTCDateTime(),
         dict[str, Any]: JSON(),
         list[str]: JSON(),
+        list[Any]: JSON(),
     }
 
 

@@ -21,11 +21,16 @@ from tracker.domain.errors import InputError
 from tracker.services import (
     amendments,
     chemistry,
+    columns,
     custody,
     drilling,
+    instrument,
     lab,
     loans,
     materials,
+    reduction,
+    results,
+    screening,
     setup,
     specimens,
 )
@@ -53,6 +58,14 @@ SERVICES: dict[str, Service] = {
     "amend": amendments.amend_loan,
     "attach": amendments.attach_document,
     "material": materials.add_material,
+    "cut": columns.record_cut,
+    "blank_delta": columns.set_blank_delta,
+    "profile": instrument.save_profile,
+    "session_import": instrument.import_session,
+    "reduce": reduction.reduce_session,
+    "reference_value": results.set_reference_value,
+    "curve": screening.add_curve,
+    "loan_curve": screening.use_curve,
 }
 
 
@@ -82,10 +95,18 @@ class Replay:
     aliases: dict[str, str] = field(default_factory=dict)
 
     def resolve(self, value: Any, key: str = "") -> Any:
-        """Aliases become IDs; a ``document`` names a file beside the scenario."""
+        """Aliases become IDs; ``document``, ``file`` and ``definition_file`` name files
+        beside the scenario (a document is uploaded, a file's bytes and name are handed
+        over, a definition file is read as TOML)."""
         if key == "document" and isinstance(value, str):
             path = self.folder / value
             return {"filename": path.name, "content": path.read_bytes()}
+        if isinstance(value, dict) and "file" in value:
+            path = self.folder / value.pop("file")
+            value = {**value, "filename": path.name, "content": path.read_bytes()}
+        if isinstance(value, dict) and "definition_file" in value:
+            path = self.folder / value.pop("definition_file")
+            value = {**value, "definition": tomllib.loads(path.read_text(encoding="utf-8"))}
         if isinstance(value, str) and value.startswith("@"):
             try:
                 return self.aliases[value[1:]]

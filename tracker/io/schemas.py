@@ -13,9 +13,14 @@ from typing import Any
 
 from pydantic import TypeAdapter
 
+from tracker.services.columns import BatchSummary
+from tracker.services.instrument import ProfileDefinition, SessionView
 from tracker.services.lineage import ItemDetail
 from tracker.services.planning import Plan
 from tracker.services.reconcile import LoanLine
+from tracker.services.reduction import Reduction
+from tracker.services.results import SpecimenResult
+from tracker.services.screening import Screening
 
 SCHEMA_DIALECT = "https://json-schema.org/draft/2020-12/schema"
 
@@ -28,6 +33,36 @@ DOCUMENTS: dict[str, tuple[Any, str, str]] = {
         "Output of `tracker --json reconcile`.",
     ),
     "show.schema.json": (ItemDetail, "tracker show", "Output of `tracker --json show`."),
+    "batch-summary.schema.json": (
+        BatchSummary,
+        "tracker batch show",
+        "Output of `tracker --json batch show`.",
+    ),
+    "session-import.schema.json": (
+        SessionView,
+        "tracker session import",
+        "Output of `tracker --json session import`.",
+    ),
+    "reduction.schema.json": (
+        Reduction,
+        "tracker session reduce",
+        "Output of `tracker --json session reduce`.",
+    ),
+    "results.schema.json": (
+        list[SpecimenResult],
+        "tracker results",
+        "Output of `tracker --json results`.",
+    ),
+    "screening.schema.json": (
+        list[Screening],
+        "tracker screen",
+        "Output of `tracker --json screen`.",
+    ),
+    "mapping-profile.schema.json": (
+        ProfileDefinition,
+        "mapping profile",
+        "A column mapping profile file, read by `tracker profile save NAME FILE`.",
+    ),
 }
 
 

@@ -170,18 +170,12 @@ def add_position(db: Database, actor: str | None, data: AddPosition | Raw) -> Do
                 raise RuleViolation(
                     "aliquot", aliquot.public_id, "is already used or not available"
                 )
-            element = aliquot_element(aliquot)
+            element = aliquot_element(aliquot, batch.element)
             if element is None:
                 raise RuleViolation(
                     "aliquot",
                     aliquot.public_id,
-                    "its solution has no concentration yet; record one first",
-                )
-            if element[0] != batch.element:
-                raise RuleViolation(
-                    "aliquot",
-                    aliquot.public_id,
-                    f"holds {element[0]}, but the batch separates {batch.element}",
+                    f"its solution has no {batch.element} concentration yet; record one first",
                 )
             position.aliquot = aliquot
             position.loaded_ug, position.loaded_u_ug = element[1], element[2]

@@ -294,9 +294,11 @@ def take_aliquot(db: Database, actor: str | None, data: TakeAliquot | Raw) -> Do
         )
 
 
-def aliquot_element(aliquot: Aliquot) -> tuple[str, float, float] | None:
-    """Element in an aliquot (µg) = aliquot mass × the solution's latest concentration."""
-    concentration = latest_concentration(aliquot.solution)
+def aliquot_element(
+    aliquot: Aliquot, element: str | None = None
+) -> tuple[str, float, float] | None:
+    """Element in an aliquot (µg) = aliquot mass × the solution's latest concentration of it."""
+    concentration = latest_concentration(aliquot.solution, element)
     if concentration is None:
         return None
     amount = element_mass_ug(

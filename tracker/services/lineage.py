@@ -10,7 +10,7 @@ from sqlalchemy.orm import Session, selectinload
 
 from tracker.db.database import Database
 from tracker.domain.base import HasPublicId
-from tracker.domain.ids import looks_like_id
+from tracker.domain.ids import Kind, format_id, looks_like_id
 from tracker.domain.models import (
     Aliquot,
     BatchPosition,
@@ -24,6 +24,7 @@ from tracker.domain.models import (
     Solution,
     Specimen,
 )
+from tracker.services.columns import cut_yield
 from tracker.services.lab import powder_remaining, solution_element, solution_remaining_g
 from tracker.services.lookup import get_any, get_loan
 from tracker.services.views import DocumentView, EventView, TermsView, View
@@ -174,9 +175,23 @@ def _describe(row: HasPublicId) -> tuple[str, dict[str, Any]]:
                 "loaded_u_ug": row.loaded_u_ug,
             }
         case Cut():
-            return f"{row.name} cut", {"recovered_ug": row.recovered_ug}
+            return _cut_facts(row)
     name = getattr(row, "name", None) or getattr(row, "code", None) or row.public_id
     return str(name), {}
+
+
+def _cut_facts(row: Cut) -> tuple[str, dict[str, Any]]:
+    facts: dict[str, Any] = {"recovered_ug": row.recovered_ug, "recovered_u_ug": row.recovered_u_ug}
+    ratio = cut_yield(row)
+    if ratio is not None:
+        facts |= {"yield": ratio.value, "yield_u": ratio.u}
+    facts["results"] = [
+        {"session": format_id(Kind.INSTRUMENT_SESSION, r.session_id), "ratio": r.ratio,
+         "kind": r.kind, "value": r.delta_permil, "scale": r.scale, "n": r.n,
+         "two_sd": None if r.sd_permil is None else 2 * r.sd_permil, "flags": list(r.flags)}
+        for r in row.results
+    ]  # fmt: skip
+    return f"{row.name} cut", facts
 
 
 def _solution_facts(row: Solution) -> tuple[str, dict[str, Any]]:
@@ -188,11 +203,11 @@ def _solution_facts(row: Solution) -> tuple[str, dict[str, Any]]:
         "remaining_g": left.value,
         "remaining_u_g": left.u,
     }
-    element = solution_element(row)
-    if element is not None:
-        facts.update(
-            {"element": element[0], "element_ug": element[1].value, "element_u_ug": element[1].u}
-        )
+    facts["elements"] = {}  # every element measured in it: µg in the whole solution
+    for symbol in dict.fromkeys(c.element for c in row.concentrations):
+        amount = solution_element(row, symbol)
+        if amount is not None:
+            facts["elements"][symbol] = {"ug": amount[1].value, "u_ug": amount[1].u}
     return f"solution in {row.acid}", facts
 
 

@@ -14,7 +14,14 @@ from tracker.domain.models.enums import (
     SpecimenStatus,
     TermsKind,
 )
-from tracker.domain.models.instrument import InstrumentSession, Measurement, Result
+from tracker.domain.models.instrument import (
+    InstrumentSession,
+    MappingProfile,
+    Measurement,
+    ReferenceValue,
+    Result,
+    SrCurve,
+)
 from tracker.domain.models.ledger import CustodyEvent
 from tracker.domain.models.loans import (
     Document,
@@ -46,12 +53,14 @@ __all__ = [
     "LoanTerms",
     "Location",
     "LocationKind",
+    "MappingProfile",
     "Measurement",
     "MeasurementRole",
     "Operator",
     "PositionKind",
     "Powder",
     "ReferenceMaterial",
+    "ReferenceValue",
     "Result",
     "Role",
     "Shipment",
@@ -59,6 +68,7 @@ __all__ = [
     "Solution",
     "Specimen",
     "SpecimenStatus",
+    "SrCurve",
     "TermsKind",
     "UserMaterial",
 ]

@@ -4,7 +4,7 @@ reference materials) and the cuts collected from each position."""
 from __future__ import annotations
 
 from datetime import date, datetime
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
 from sqlalchemy import ForeignKey, String, Text, UniqueConstraint
 from sqlalchemy.orm import Mapped, mapped_column, relationship
@@ -14,6 +14,7 @@ from tracker.domain.ids import Kind
 from tracker.domain.models.enums import ContainerStatus, PositionKind, enum_type
 
 if TYPE_CHECKING:
+    from tracker.domain.models.instrument import Result
     from tracker.domain.models.material import Aliquot
     from tracker.domain.models.people import Location
 
@@ -48,6 +49,8 @@ class ColumnBatch(HasPublicId, Base):
     cut_names: Mapped[list[str]]
     yield_threshold: Mapped[float] = mapped_column(default=0.95)
     blank_limit: Mapped[float] = mapped_column(default=0.01)
+    # δ (‰) of the procedural blank per ratio, when known: enables the mixing correction
+    blank_deltas: Mapped[dict[str, Any]] = mapped_column(default=dict)
     created_at: Mapped[datetime]
 
     positions: Mapped[list[BatchPosition]] = relationship(
@@ -98,3 +101,4 @@ class Cut(HasPublicId, Base):
 
     position: Mapped[BatchPosition] = relationship(back_populates="cuts")
     location: Mapped[Location | None] = relationship()
+    results: Mapped[list[Result]] = relationship(viewonly=True, order_by="Result.id")

@@ -26,6 +26,10 @@ class InstrumentSession(HasPublicId, Base):
     started_at: Mapped[datetime]
     operator: Mapped[str] = mapped_column(String(32), ForeignKey("operator.code"))
     bracketing_standard: Mapped[str] = mapped_column(String(120))
+    mode: Mapped[str] = mapped_column(String(10), default="delta")  # delta or ratio
+    ratio_names: Mapped[list[str]] = mapped_column(default=list)
+    # ratio mode: the bracketing standard's accepted ratio per ratio name
+    standard_values: Mapped[dict[str, Any]] = mapped_column(default=dict)
     source_filename: Mapped[str | None] = mapped_column(String(255))
     source_sha256: Mapped[str | None] = mapped_column(String(64))
     profile_name: Mapped[str | None] = mapped_column(String(120))
@@ -50,6 +54,7 @@ class Measurement(Base):
     role: Mapped[MeasurementRole] = mapped_column(enum_type(MeasurementRole))
     cut_id: Mapped[int | None] = mapped_column(ForeignKey("cut.id"), index=True)
     reference_material_id: Mapped[int | None] = mapped_column(ForeignKey("reference_material.id"))
+    position_id: Mapped[int | None] = mapped_column(ForeignKey("batch_position.id"))  # blanks
     ratios: Mapped[dict[str, Any]]  # {"44/40": 2.1318, ...}
     errors: Mapped[dict[str, Any]] = mapped_column(default=dict)  # internal 2SE per ratio
     excluded_reason: Mapped[str | None] = mapped_column(String(300))
@@ -67,11 +72,57 @@ class Result(Base):
     session_id: Mapped[int] = mapped_column(ForeignKey("instrument_session.id"), index=True)
     cut_id: Mapped[int | None] = mapped_column(ForeignKey("cut.id"), index=True)
     reference_material_id: Mapped[int | None] = mapped_column(ForeignKey("reference_material.id"))
+    position_id: Mapped[int | None] = mapped_column(ForeignKey("batch_position.id"))
     ratio: Mapped[str] = mapped_column(String(20))
     scale: Mapped[str] = mapped_column(String(120))  # the reference scale, e.g. a standard's name
-    delta_permil: Mapped[float]
+    kind: Mapped[str] = mapped_column(String(10), default="delta")  # delta (‰) or ratio
+    delta_permil: Mapped[float]  # the value: δ in ‰, or the corrected ratio in ratio mode
+    blank_corrected: Mapped[bool] = mapped_column(default=False)
     sd_permil: Mapped[float | None]
     two_se_permil: Mapped[float | None]
     n: Mapped[int]
     flags: Mapped[list[str]] = mapped_column(default=list)
+    created_at: Mapped[datetime]
+
+
+class MappingProfile(Base):
+    """How to read one instrument's export: which column holds what (saved by name)."""
+
+    __tablename__ = "mapping_profile"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    name: Mapped[str] = mapped_column(String(120), unique=True)
+    definition: Mapped[dict[str, Any]]
+    created_at: Mapped[datetime]
+
+
+class ReferenceValue(Base):
+    """An accepted value of a reference material on a scale; the newest row is in force."""
+
+    __tablename__ = "reference_value"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    reference_material_id: Mapped[int] = mapped_column(
+        ForeignKey("reference_material.id"), index=True
+    )
+    ratio: Mapped[str] = mapped_column(String(20))
+    scale: Mapped[str] = mapped_column(String(120))
+    kind: Mapped[str] = mapped_column(String(10), default="delta")
+    value: Mapped[float]
+    two_sd: Mapped[float]  # tolerance: 2SD of the lab's long-term record
+    source: Mapped[str] = mapped_column(String(500))
+    recorded_by: Mapped[str] = mapped_column(String(32), ForeignKey("operator.code"))
+    created_at: Mapped[datetime]
+
+
+class SrCurve(Base):
+    """A user-supplied ⁸⁷Sr/⁸⁶Sr reference curve (age, ratio, u), kept with its file's hash."""
+
+    __tablename__ = "sr_curve"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    name: Mapped[str] = mapped_column(String(120), unique=True)
+    points: Mapped[list[Any]]  # [[age_ma, ratio, u], ...] sorted by age
+    source_sha256: Mapped[str] = mapped_column(String(64))
+    note: Mapped[str | None] = mapped_column(String(500))
     created_at: Mapped[datetime]

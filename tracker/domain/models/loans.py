@@ -38,6 +38,7 @@ class Loan(HasPublicId, Base):
     received_on: Mapped[date | None]
     status: Mapped[LoanStatus] = mapped_column(enum_type(LoanStatus), default=LoanStatus.OPEN)
     returned_on: Mapped[date | None]
+    sr_curve_id: Mapped[int | None] = mapped_column(ForeignKey("sr_curve.id"))  # age screening
     created_at: Mapped[datetime]
 
     lender: Mapped[Lender] = relationship(back_populates="loans")

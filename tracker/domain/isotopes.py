@@ -1,0 +1,67 @@
+"""Isotope masses (u) and the mass-dependent fractionation laws that relate two ratios.
+
+Masses are the AME2020 atomic masses (Wang et al. 2021, Chinese Phys. C 45:030003) as
+distributed by ``periodictable`` 2.1; a test compares every value with that package.
+
+For two ratios of one element that share an isotope, e.g. 44/40 and 44/42 for calcium
+or 87/86 and 88/86 for strontium, mass-dependent fractionation predicts
+    δ(44/40) = ((1 + δ(44/42)/1000)^k − 1) × 1000 ‰
+with, for the exponential (kinetic) law, k = ln(m44/m40) / ln(m44/m42) ≈ 2.048, and for
+the equilibrium law k = (1/m40 − 1/m44) / (1/m42 − 1/m44) ≈ 2.099 (Sr: 87/86 vs 88/86,
+k ≈ 0.504).
+"""
+
+from __future__ import annotations
+
+import math
+
+ISOTOPE_MASS: dict[str, dict[int, float]] = {
+    "Ca": {40: 39.962590851, 42: 41.95861778, 43: 42.95876638, 44: 43.9554815,
+           46: 45.9536877, 48: 47.952522654},
+    "Sr": {84: 83.9134191, 86: 85.909260725, 87: 86.908877495, 88: 87.905612254},
+    "Mg": {24: 23.985041689, 25: 24.98583697, 26: 25.98259297},
+}  # fmt: skip
+
+
+def parse_ratio(name: str) -> tuple[int, int]:
+    """ "44/40" → (44, 40): numerator and denominator mass numbers."""
+    top, _, bottom = name.partition("/")
+    if not (top.isdigit() and bottom.isdigit()) or top == bottom:
+        raise ValueError(f"{name!r} is not an isotope ratio such as 44/40")
+    return int(top), int(bottom)
+
+
+def _mass(element: str, number: int) -> float:
+    try:
+        return ISOTOPE_MASS[element][number]
+    except KeyError:
+        raise ValueError(f"no isotope mass for {number}{element}") from None
+
+
+def _pair(element: str, ratio_a: str, ratio_b: str) -> tuple[float, float, float, float]:
+    (num_a, den_a), (num_b, den_b) = parse_ratio(ratio_a), parse_ratio(ratio_b)
+    if not {num_a, den_a} & {num_b, den_b}:
+        raise ValueError("the two ratios must share an isotope, e.g. 44/40 and 44/42")
+    return (
+        _mass(element, num_a),
+        _mass(element, den_a),
+        _mass(element, num_b),
+        _mass(element, den_b),
+    )
+
+
+def exponential_factor(element: str, ratio_a: str, ratio_b: str) -> float:
+    """k with δa ≈ k·δb under the exponential law: ln(ma/ma') / ln(mb/mb')."""
+    num_a, den_a, num_b, den_b = _pair(element, ratio_a, ratio_b)
+    return math.log(num_a / den_a) / math.log(num_b / den_b)
+
+
+def equilibrium_factor(element: str, ratio_a: str, ratio_b: str) -> float:
+    """k of the equilibrium (high-temperature) law, for comparison."""
+    num_a, den_a, num_b, den_b = _pair(element, ratio_a, ratio_b)
+    return (1 / den_a - 1 / num_a) / (1 / den_b - 1 / num_b)
+
+
+def predicted_delta(delta_b_permil: float, k: float) -> float:
+    """δa predicted from δb by the exponential law, exactly (not the linear k·δb)."""
+    return float(((1 + delta_b_permil / 1000) ** k - 1) * 1000)

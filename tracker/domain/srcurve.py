@@ -1,0 +1,171 @@
+"""Strontium isotope stratigraphy: which ages a measured ⁸⁷Sr/⁸⁶Sr allows on a reference curve.
+
+The curve is a table of (age in Ma, ⁸⁷Sr/⁸⁶Sr, standard uncertainty), linearly
+interpolated. Because seawater ⁸⁷Sr/⁸⁶Sr rose and fell through time, one measured
+ratio may match several ages: every interval where the curve lies within the
+expanded combined uncertainty (k = 2) of the measurement is returned. A specimen
+whose stratigraphic age range overlaps none of them is flagged as possibly reworked
+or diagenetically altered — a prompt to look closer, not a verdict.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import math
+from collections.abc import Callable
+from dataclasses import dataclass
+from itertools import pairwise
+
+COVERAGE = 2.0
+_STEPS_PER_SEGMENT = 64
+_AGE = ("age_ma", "age")
+_RATIO = ("sr87_sr86", "87sr/86sr", "ratio")
+_U = ("u", "uncertainty", "u_ratio")
+
+
+class CurveError(ValueError):
+    """A curve file problem, naming the row (1 = header) and the column."""
+
+    def __init__(self, row: int, column: str, reason: str) -> None:
+        super().__init__(f"row {row}, column {column}: {reason}")
+        self.row, self.column, self.reason = row, column, reason
+
+
+@dataclass(frozen=True)
+class CurvePoint:
+    age_ma: float
+    ratio: float
+    u: float
+
+
+@dataclass(frozen=True)
+class Curve:
+    points: tuple[CurvePoint, ...]
+
+    @property
+    def span(self) -> tuple[float, float]:
+        return self.points[0].age_ma, self.points[-1].age_ma
+
+    def at(self, age: float) -> tuple[float, float]:
+        """Interpolated (ratio, u) at an age inside the curve."""
+        points = self.points
+        for left, right in pairwise(points):
+            if left.age_ma <= age <= right.age_ma:
+                share = (age - left.age_ma) / (right.age_ma - left.age_ma)
+                return (
+                    left.ratio + share * (right.ratio - left.ratio),
+                    left.u + share * (right.u - left.u),
+                )
+        raise ValueError(f"age {age} Ma is outside the curve ({self.span[0]}–{self.span[1]} Ma)")
+
+    def intervals(self, ratio: float, u: float, k: float = COVERAGE) -> list[tuple[float, float]]:
+        """Age intervals (Ma, young to old) where the curve agrees with ratio ± k·u_combined."""
+
+        def misfit(age: float) -> float:
+            value, u_curve = self.at(age)
+            return abs(value - ratio) - k * math.hypot(u, u_curve)
+
+        found: list[tuple[float, float]] = []
+        start: float | None = None
+        ages = self._grid()
+        previous = ages[0]
+        if misfit(previous) <= 0:
+            start = previous
+        for age in ages[1:]:
+            inside = misfit(age) <= 0
+            if inside and start is None:
+                start = _crossing(misfit, previous, age)
+            elif not inside and start is not None:
+                found.append((start, _crossing(misfit, previous, age)))
+                start = None
+            previous = age
+        if start is not None:
+            found.append((start, ages[-1]))
+        return found
+
+    def _grid(self) -> list[float]:
+        ages = [self.points[0].age_ma]
+        for left, right in pairwise(self.points):
+            step = (right.age_ma - left.age_ma) / _STEPS_PER_SEGMENT
+            ages += [left.age_ma + step * i for i in range(1, _STEPS_PER_SEGMENT + 1)]
+        return ages
+
+
+def _crossing(misfit: Callable[[float], float], low: float, high: float) -> float:
+    """The age between two grid ages where the misfit changes sign (bisection)."""
+    sign_low = misfit(low) <= 0
+    for _ in range(50):
+        middle = (low + high) / 2
+        if (misfit(middle) <= 0) == sign_low:
+            low = middle
+        else:
+            high = middle
+    return (low + high) / 2
+
+
+def overlaps(intervals: list[tuple[float, float]], youngest: float, oldest: float) -> bool:
+    return any(start <= oldest and end >= youngest for start, end in intervals)
+
+
+def parse_curve_csv(text: str) -> Curve:
+    """Read a curve: a header naming age_ma, 87sr/86sr (or ratio) and u, then rows by age."""
+    rows = list(csv.reader(io.StringIO(text)))
+    rows = [r for r in rows if r and not r[0].lstrip().startswith("#")]
+    if not rows:
+        raise CurveError(1, "header", "the file is empty")
+    header = [cell.strip().lower() for cell in rows[0]]
+    columns = {
+        name: _find(header, options)
+        for name, options in (("age_ma", _AGE), ("ratio", _RATIO), ("u", _U))
+    }
+    points: list[CurvePoint] = []
+    for number, row in enumerate(rows[1:], start=2):
+        values = {
+            name: _number(row, index, number, header[index]) for name, index in columns.items()
+        }
+        point = CurvePoint(values["age_ma"], values["ratio"], values["u"])
+        _check(point, points[-1] if points else None, number, header, columns)
+        points.append(point)
+    if len(points) < 2:
+        raise CurveError(len(rows), "age_ma", "a curve needs at least two points")
+    return Curve(tuple(points))
+
+
+def _find(header: list[str], options: tuple[str, ...]) -> int:
+    for option in options:
+        if option in header:
+            return header.index(option)
+    raise CurveError(1, options[0], f"no column named {' or '.join(options)}")
+
+
+def _number(row: list[str], index: int, number: int, column: str) -> float:
+    if index >= len(row) or not row[index].strip():
+        raise CurveError(number, column, "is empty (a gap in the curve)")
+    try:
+        value = float(row[index])
+    except ValueError:
+        raise CurveError(number, column, f"{row[index]!r} is not a number") from None
+    if not math.isfinite(value):
+        raise CurveError(number, column, f"{row[index]!r} is not a finite number")
+    return value
+
+
+def _check(
+    point: CurvePoint,
+    before: CurvePoint | None,
+    number: int,
+    header: list[str],
+    columns: dict[str, int],
+) -> None:
+    if point.ratio <= 0:
+        raise CurveError(number, header[columns["ratio"]], "a ratio must be positive")
+    if point.u < 0:
+        raise CurveError(number, header[columns["u"]], "an uncertainty cannot be negative")
+    if before is not None and point.age_ma <= before.age_ma:
+        raise CurveError(
+            number,
+            header[columns["age_ma"]],
+            f"{point.age_ma} is not older than the row above ({before.age_ma}); "
+            "sort the curve by increasing age",
+        )

@@ -1,0 +1,1 @@
+"""Things tracker renders for people outside the terminal: figures, labels, reports."""

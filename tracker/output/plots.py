@@ -1,0 +1,81 @@
+"""PNG figures for reports: the bracketing standard's drift and δ against age.
+
+matplotlib is imported lazily with the non-interactive Agg backend, so the tool never
+needs a display (and `tracker --help` never pays for the import).
+"""
+
+from __future__ import annotations
+
+import io
+from typing import Any
+
+from tracker.services.instrument import DriftSeries
+from tracker.services.results import SpecimenResult
+
+WIDTH_IN, HEIGHT_IN, DPI = 7.0, 4.0, 150
+
+
+def _pyplot() -> Any:
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    return plt
+
+
+def drift_png(series: DriftSeries) -> bytes:
+    """Each ratio of the standard as ‰ deviation from its session mean, against run number."""
+    plt = _pyplot()
+    figure, axes = plt.subplots(figsize=(WIDTH_IN, HEIGHT_IN), dpi=DPI)
+    for name, values in series.ratios.items():
+        mean = sum(values) / len(values)
+        axes.plot(
+            series.runs,
+            [(v / mean - 1) * 1000 for v in values],
+            marker="o",
+            label=f"{name} ({series.standard})",
+        )
+    axes.axhline(0.0, color="grey", linewidth=0.8)
+    axes.set_xlabel("run number")
+    axes.set_ylabel("deviation from session mean (‰)")
+    axes.set_title(f"Bracketing standard drift — {series.name} ({series.session})")
+    axes.legend()
+    return _png(plt, figure)
+
+
+def delta_vs_age_png(results: list[SpecimenResult], ratio: str) -> bytes:
+    """δ (± 2SD) against stratigraphic mid-age (± half the age range), one point per result."""
+    plt = _pyplot()
+    figure, axes = plt.subplots(figsize=(WIDTH_IN, HEIGHT_IN), dpi=DPI)
+    dated = [
+        r
+        for r in results
+        if r.ratio == ratio and r.age_min_ma is not None and r.age_max_ma is not None
+    ]
+    if not dated:
+        raise ValueError(f"no {ratio} results with a stratigraphic age to plot")
+    ages = [(r.age_min_ma + r.age_max_ma) / 2 for r in dated]  # type: ignore[operator]
+    spans = [(r.age_max_ma - r.age_min_ma) / 2 for r in dated]  # type: ignore[operator]
+    axes.errorbar(
+        ages,
+        [r.value for r in dated],
+        xerr=spans,
+        yerr=[r.two_sd or 0.0 for r in dated],
+        fmt="o",
+        capsize=3,
+    )
+    unit = "‰" if dated[0].kind == "delta" else ""
+    axes.set_xlabel("stratigraphic age (Ma)")
+    axes.set_ylabel(f"δ{ratio} {unit} ({dated[0].scale})" if unit else f"{ratio}")
+    axes.invert_xaxis()
+    axes.set_title(f"{ratio} against age ({len(dated)} results)")
+    return _png(plt, figure)
+
+
+def _png(plt: Any, figure: Any) -> bytes:
+    buffer = io.BytesIO()
+    figure.tight_layout()
+    figure.savefig(buffer, format="png")
+    plt.close(figure)
+    return buffer.getvalue()

@@ -1,0 +1,386 @@
+"""Instrument sessions: saved column-mapping profiles, and importing an export through one.
+
+Every row of the export becomes a measurement: a bracketing standard, a reference
+material, a sample (matched to its column cut by the ID on the vial's label), a
+procedural blank, or — when nothing matches — an *unmatched* row that is kept and
+listed, never dropped. The import is one transaction: a bad ratio, a duplicate run
+number or a sample without a standard on both sides refuses the whole file.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import math
+from typing import Annotated, Any, Literal
+
+from pydantic import Field
+from sqlalchemy import func, select
+from sqlalchemy.orm import Session
+
+from tracker.db.database import Database
+from tracker.domain.errors import InputError, NotFound
+from tracker.domain.ids import BadId, Kind, looks_like_id, parse_id
+from tracker.domain.isotopes import parse_ratio
+from tracker.domain.models import (
+    BatchPosition,
+    Cut,
+    InstrumentSession,
+    MappingProfile,
+    Measurement,
+    MeasurementRole,
+    PositionKind,
+    ReferenceMaterial,
+)
+from tracker.domain.tables import Row, TableError, read_table
+from tracker.services.common import action_time, finish
+from tracker.services.inputs import AwareDatetime, Element, Name, Raw, Request, parse
+from tracker.services.uow import unit_of_work
+from tracker.services.views import Done, View
+
+Header = Annotated[str, Field(min_length=1, max_length=120)]
+
+
+class ColumnMap(Request):
+    """Which column of the export holds what (names exactly as in its header row)."""
+
+    run_order: Header
+    sample_name: Header
+    ratios: Annotated[dict[str, Header], Field(min_length=1)]  # "44/40" -> "44Ca/40Ca"
+    errors: dict[str, Header] = Field(default_factory=dict)  # ratio -> internal 2SE column
+    sample_id: Header | None = None  # a column with the scanned vial ID, if the lab adds one
+
+
+class ProfileDefinition(Request):
+    """A saved way of reading one instrument's export files."""
+
+    format: Literal["csv", "tsv", "xlsx"]
+    columns: ColumnMap
+    sheet: str | None = None
+    header_row: Annotated[int, Field(ge=1, le=100)] = 1
+    comment_prefix: str | None = "#"
+
+
+class NewProfile(Request):
+    name: Name
+    definition: ProfileDefinition
+
+
+class ProfileView(View):
+    name: str
+    definition: dict[str, Any]
+
+
+def save_profile(db: Database, actor: str | None, data: NewProfile | Raw) -> Done[ProfileView]:
+    """Save (or replace, by name) a column mapping profile for an instrument's exports."""
+    request = parse(NewProfile, data)
+    for ratio in request.definition.columns.ratios:
+        try:
+            parse_ratio(ratio)
+        except ValueError as exc:
+            raise InputError("definition.columns.ratios", ratio, str(exc)) from None
+    with unit_of_work(db, actor) as uow:
+        row = uow.session.scalars(
+            select(MappingProfile).where(MappingProfile.name == request.name)
+        ).one_or_none()
+        definition = request.definition.model_dump(mode="json")
+        if row is None:
+            row = MappingProfile(name=request.name, definition=definition, created_at=uow.now)
+            uow.session.add(row)
+        else:
+            row.definition = definition
+        return finish(
+            uow,
+            "profile.saved",
+            "",
+            {"name": request.name, "definition": definition},
+            lambda: ProfileView(name=row.name, definition=row.definition),
+        )
+
+
+def list_profiles(db: Database) -> list[ProfileView]:
+    with db.read_session() as session:
+        rows = session.scalars(select(MappingProfile).order_by(MappingProfile.name))
+        return [ProfileView(name=r.name, definition=r.definition) for r in rows]
+
+
+def _profile(session: Session, name: str) -> ProfileDefinition:
+    row = session.scalars(
+        select(MappingProfile).where(func.lower(MappingProfile.name) == name.lower())
+    ).one_or_none()
+    if row is None:
+        raise NotFound("profile", name, "no saved profile has this name")
+    return ProfileDefinition.model_validate(row.definition)
+
+
+class ImportSession(Request):
+    profile: Name
+    filename: Annotated[str, Field(min_length=1, max_length=255)]
+    content: Annotated[bytes, Field(min_length=1)]
+    name: Name
+    instrument: Name
+    element: Element
+    bracketing_standard: Name
+    mode: Literal["delta", "ratio"] = "delta"
+    standard_values: dict[str, float] = Field(default_factory=dict)  # ratio mode only
+    started_at: AwareDatetime | None = None
+
+
+class UnmatchedRow(View):
+    row: int
+    run_order: int
+    sample_name: str
+    reason: str
+
+
+class SessionView(View):
+    id: str
+    name: str
+    measurements: int
+    standards: int
+    samples: int
+    references: int
+    blanks: int
+    unmatched: list[UnmatchedRow]
+
+
+def import_session(db: Database, actor: str | None, data: ImportSession | Raw) -> Done[SessionView]:
+    """Read an instrument export through a saved profile into a new session."""
+    request = parse(ImportSession, data)
+    if request.mode == "ratio" and not request.standard_values:
+        raise InputError("standard-values", None, "ratio mode needs the standard's accepted ratios")
+    with unit_of_work(db, actor) as uow:
+        profile = _profile(uow.session, request.profile)
+        rows = _read(request, profile)
+        session = InstrumentSession(
+            name=request.name, instrument=request.instrument, element=request.element,
+            started_at=action_time(uow, request.started_at, "started-at"),
+            operator=uow.operator.code, bracketing_standard=request.bracketing_standard,
+            mode=request.mode, ratio_names=list(profile.columns.ratios),
+            standard_values=request.standard_values, source_filename=request.filename,
+            source_sha256=hashlib.sha256(request.content).hexdigest(),
+            profile_name=request.profile, flags=[], created_at=uow.now,
+        )  # fmt: skip
+        uow.session.add(session)
+        matcher = _Matcher(uow.session, request.bracketing_standard, request.element)
+        unmatched: list[UnmatchedRow] = []
+        for row, run, name, label in rows:
+            measurement = Measurement(
+                session=session,
+                run_order=run,
+                sample_name=name,
+                created_at=uow.now,
+                **_values(row, profile),
+            )
+            uow.session.add(measurement)
+            reason = matcher.assign(measurement, label or name)
+            if reason:
+                unmatched.append(
+                    UnmatchedRow(row=row.number, run_order=run, sample_name=name, reason=reason)
+                )
+        _require_brackets(session.measurements, {r[1]: r[0].number for r in rows})
+        view = lambda: _view(session, unmatched)  # noqa: E731
+        payload = {
+            "file": request.filename,
+            "sha256": session.source_sha256,
+            "profile": request.profile,
+            "rows": len(rows),
+            "unmatched": [u.model_dump() for u in unmatched],
+        }
+        return finish(uow, "session.imported", session, payload, view)
+
+
+def _read(
+    request: ImportSession, profile: ProfileDefinition
+) -> list[tuple[Row, int, str, str | None]]:
+    """Rows with their run order, sample name and label ID; every problem names row and column."""
+    try:
+        header, rows = read_table(
+            request.content,
+            profile.format,
+            header_row=profile.header_row,
+            sheet=profile.sheet,
+            comment_prefix=profile.comment_prefix,
+        )
+    except TableError as exc:
+        raise InputError(f"row {exc.row}, column {exc.column}", None, exc.reason) from None
+    except (UnicodeDecodeError, OSError, KeyError, ValueError) as exc:
+        raise InputError(
+            "file", request.filename, f"cannot be read as {profile.format}: {exc}"
+        ) from None
+    columns = profile.columns
+    wanted = [
+        columns.run_order,
+        columns.sample_name,
+        *columns.ratios.values(),
+        *columns.errors.values(),
+        *([columns.sample_id] if columns.sample_id else []),
+    ]
+    for name in wanted:
+        if name not in header:
+            raise InputError(
+                f"column {name}",
+                None,
+                f"the profile names it but the file has only: {', '.join(header)}",
+            )
+    seen: dict[int, int] = {}
+    result = []
+    for row in rows:
+        run = _run_order(row, columns.run_order)
+        if run in seen:
+            raise InputError(
+                f"row {row.number}, column {columns.run_order}",
+                run,
+                f"run number repeats row {seen[run]}",
+            )
+        seen[run] = row.number
+        label = row.cells.get(columns.sample_id) if columns.sample_id else None
+        result.append((row, run, row.cells[columns.sample_name], label or None))
+    return sorted(result, key=lambda item: item[1])
+
+
+def _run_order(row: Row, column: str) -> int:
+    text = row.cells[column]
+    try:
+        value = float(text)
+    except ValueError:
+        raise InputError(
+            f"row {row.number}, column {column}", text, "is not a run number"
+        ) from None
+    if not value.is_integer():
+        raise InputError(f"row {row.number}, column {column}", text, "is not a whole number")
+    return int(value)
+
+
+def _values(row: Row, profile: ProfileDefinition) -> dict[str, Any]:
+    ratios = {name: _positive(row, column) for name, column in profile.columns.ratios.items()}
+    errors = {
+        name: _positive(row, column, allow_zero=True)
+        for name, column in profile.columns.errors.items()
+    }
+    return {"ratios": ratios, "errors": errors}
+
+
+def _positive(row: Row, column: str, *, allow_zero: bool = False) -> float:
+    text = row.cells.get(column, "")
+    where = f"row {row.number}, column {column}"
+    try:
+        value = float(text)
+    except ValueError:
+        raise InputError(where, text, "is not a number" if text else "is empty") from None
+    if not math.isfinite(value) or value < 0 or (value == 0 and not allow_zero):
+        raise InputError(where, text, "a ratio must be a positive finite number")
+    return value
+
+
+class _Matcher:
+    """Decides what each row measured, from its label ID or its name."""
+
+    def __init__(self, session: Session, standard: str, element: str) -> None:
+        self.session, self.standard, self.element = session, standard.lower(), element
+        self.materials = {m.name.lower(): m for m in session.scalars(select(ReferenceMaterial))}
+
+    def assign(self, measurement: Measurement, label: str) -> str:
+        """Set the measurement's role and target; return why it is unmatched, or ''."""
+        key = label.strip().lower()
+        if key == self.standard:
+            measurement.role = MeasurementRole.STANDARD
+            return ""
+        if key in self.materials:
+            measurement.role = MeasurementRole.REFERENCE
+            measurement.reference_material_id = self.materials[key].id
+            return ""
+        measurement.role = MeasurementRole.UNMATCHED
+        if not looks_like_id(label):
+            return "names no standard, reference material or labelled vial"
+        try:
+            public = parse_id(label)
+        except BadId as exc:
+            return f"label {label!r}: {exc}"
+        return self._by_id(measurement, public.kind, public.number, label)
+
+    def _by_id(self, measurement: Measurement, kind: Kind, number: int, label: str) -> str:
+        if kind is Kind.CUT:
+            cut = self.session.get(Cut, number)
+            position = cut.position if cut else None
+        elif kind is Kind.POSITION:
+            position = self.session.get(BatchPosition, number)
+            cut = None
+        else:
+            return f"{label} is not a cut or a column position"
+        if position is None:
+            return f"{label} names nothing in this database"
+        if position.batch.element != self.element:
+            return f"{label} is from a {position.batch.element} batch"
+        if position.kind is PositionKind.BLANK:
+            measurement.role, measurement.position_id = MeasurementRole.BLANK, position.id
+            return ""
+        if position.kind is PositionKind.REFERENCE:
+            measurement.role = MeasurementRole.REFERENCE
+            measurement.reference_material_id = position.reference_material_id
+            return ""
+        chosen = cut or next((c for c in position.cuts if c.name == self.element), None)
+        if chosen is None:
+            return f"{label}: no {self.element} cut recorded for this column yet"
+        measurement.role, measurement.cut_id = MeasurementRole.SAMPLE, chosen.id
+        return ""
+
+
+def _require_brackets(measurements: list[Measurement], rows: dict[int, int]) -> None:
+    """Every sample, reference and blank needs a standard measured before AND after it."""
+    ordered = sorted(measurements, key=lambda m: m.run_order)
+    standards = [m.run_order for m in ordered if m.role is MeasurementRole.STANDARD]
+    for m in ordered:
+        if m.role in (MeasurementRole.STANDARD, MeasurementRole.UNMATCHED):
+            continue
+        before = any(s < m.run_order for s in standards)
+        after = any(s > m.run_order for s in standards)
+        if not (before and after):
+            side = "before" if not before else "after"
+            raise InputError(
+                f"row {rows[m.run_order]}",
+                m.sample_name,
+                f"has no bracketing standard measured {side} it",
+            )
+
+
+def _view(session: InstrumentSession, unmatched: list[UnmatchedRow]) -> SessionView:
+    roles = [m.role for m in session.measurements]
+    return SessionView(
+        id=session.public_id,
+        name=session.name,
+        measurements=len(roles),
+        standards=roles.count(MeasurementRole.STANDARD),
+        samples=roles.count(MeasurementRole.SAMPLE),
+        references=roles.count(MeasurementRole.REFERENCE),
+        blanks=roles.count(MeasurementRole.BLANK),
+        unmatched=unmatched,
+    )
+
+
+class DriftSeries(View):
+    """The bracketing standard over a session: run numbers and each ratio's values."""
+
+    session: str
+    name: str
+    standard: str
+    runs: list[int]
+    ratios: dict[str, list[float]]
+
+
+def standard_drift(db: Database, session_ref: str) -> DriftSeries:
+    with db.read_session() as session:
+        from tracker.services.lookup import get_by_id
+
+        row = get_by_id(session, InstrumentSession, "session", session_ref)
+        standards = [
+            m
+            for m in row.measurements
+            if m.role is MeasurementRole.STANDARD and m.excluded_reason is None
+        ]
+        return DriftSeries(
+            session=row.public_id,
+            name=row.name,
+            standard=row.bracketing_standard,
+            runs=[m.run_order for m in standards],
+            ratios={r: [float(m.ratios[r]) for m in standards] for r in row.ratio_names},
+        )
