@@ -74,7 +74,7 @@ def results(
         if loan is not None:
             query = query.where(Loan.id == get_loan(session, "--loan", loan).id)
         lines = []
-        for result, cut, specimen, loan_row, run in session.execute(query).tuples():
+        for result, cut, specimen, loan_row, run in session.execute(query):
             value, on = _on_scale(session, result, scale)
             sd = result.sd_permil
             lines.append(SpecimenResult(
