@@ -241,8 +241,8 @@ def test_unmatched_rows_are_kept_and_listed(db: Database) -> None:
             "row 3, column Run",
             "repeats",
         ),
-        (["1,STD-X,0.0221,3.216", "2,{cut},0.0221,3.216"], "row 3", "after it"),
-        (["2,{cut},0.0221,3.216", "3,STD-X,0.0221,3.216"], "row 2", "before it"),
+        (["1,STD-X,0.0221,3.216", "2,{cut},0.0221,3.216"], "row 3, column Name", "after it"),
+        (["2,{cut},0.0221,3.216", "3,STD-X,0.0221,3.216"], "row 2, column Name", "before it"),
     ],
 )
 def test_bad_exports_import_nothing(
@@ -274,7 +274,7 @@ def test_profile_must_match_the_file(db: Database, counts: Counts) -> None:
         },
     )
     before = counts()
-    with pytest.raises(InputError, match="the profile names it") as caught:
+    with pytest.raises(InputError, match="names a column the file lacks") as caught:
         do_import(db, export(["1,STD-X,0.0221,3.216"]), profile="p2")
-    assert caught.value.field == "column missing column"
+    assert (caught.value.field, caught.value.value) == ("profile", "missing column")
     assert counts() == before

@@ -193,7 +193,7 @@ def session_reduce(
 ) -> None:
     """Bracket, average and check a session: δ with 2SD and n, reference materials pass/fail."""
     answer = perform(ctx, reduction.reduce_session, {"session": session})
-    emit(ctx, answer.item, lambda: reduction_table(answer.item))
+    emit(ctx, answer, lambda: reduction_table(answer.item))
 
 
 @session_app.command("plot", epilog="Example: tracker session plot IS-00001-P --out drift.png")
@@ -274,7 +274,14 @@ def curve_add(
     """Store a ⁸⁷Sr/⁸⁶Sr reference curve for age screening."""
     upload = read_upload(file, "FILE") or {}
     answer = perform(
-        ctx, screening.add_curve, {"name": name, "content": upload.get("content"), "note": note}
+        ctx,
+        screening.add_curve,
+        {
+            "name": name,
+            "content": upload.get("content"),
+            "filename": upload.get("filename"),
+            "note": note,
+        },
     )
     emit(ctx, answer, lambda: done(answer, f"curve {name} ({answer.item.points} points)"))
 

@@ -80,6 +80,7 @@ FIELD_OPTIONS = {
     "fraction-high": "--high",
     "effective-from": "--effective",
     "override-reason": "--override",
+    "standard-values": "--standard-value",
     "age-min-ma": "--age-min",
     "age-max-ma": "--age-max",
 }

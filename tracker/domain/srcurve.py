@@ -109,18 +109,27 @@ def overlaps(intervals: list[tuple[float, float]], youngest: float, oldest: floa
 
 
 def parse_curve_csv(text: str) -> Curve:
-    """Read a curve: a header naming age_ma, 87sr/86sr (or ratio) and u, then rows by age."""
-    rows = list(csv.reader(io.StringIO(text)))
-    rows = [r for r in rows if r and not r[0].lstrip().startswith("#")]
-    if not rows:
+    """Read a curve: a header naming age_ma, 87sr/86sr (or ratio) and u, then rows by age.
+
+    Rows are numbered as lines of the file (comment lines starting with # included), so an
+    error points at the line a person sees in an editor.
+    """
+    lines = list(enumerate(csv.reader(io.StringIO(text)), start=1))
+    kept = [
+        (n, r)
+        for n, r in lines
+        if r and any(c.strip() for c in r) and not r[0].lstrip().startswith("#")
+    ]
+    if not kept:
         raise CurveError(1, "header", "the file is empty")
-    header = [cell.strip().lower() for cell in rows[0]]
+    header_line, raw_header = kept[0]
+    header = [cell.strip().lower() for cell in raw_header]
     columns = {
-        name: _find(header, options)
+        name: _find(header, options, header_line)
         for name, options in (("age_ma", _AGE), ("ratio", _RATIO), ("u", _U))
     }
     points: list[CurvePoint] = []
-    for number, row in enumerate(rows[1:], start=2):
+    for number, row in kept[1:]:
         values = {
             name: _number(row, index, number, header[index]) for name, index in columns.items()
         }
@@ -128,15 +137,15 @@ def parse_curve_csv(text: str) -> Curve:
         _check(point, points[-1] if points else None, number, header, columns)
         points.append(point)
     if len(points) < 2:
-        raise CurveError(len(rows), "age_ma", "a curve needs at least two points")
+        raise CurveError(kept[-1][0], "age_ma", "a curve needs at least two points")
     return Curve(tuple(points))
 
 
-def _find(header: list[str], options: tuple[str, ...]) -> int:
+def _find(header: list[str], options: tuple[str, ...], line: int) -> int:
     for option in options:
         if option in header:
             return header.index(option)
-    raise CurveError(1, options[0], f"no column named {' or '.join(options)}")
+    raise CurveError(line, options[0], f"no column named {' or '.join(options)}")
 
 
 def _number(row: list[str], index: int, number: int, column: str) -> float:

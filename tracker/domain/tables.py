@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import csv
 import io
+import zipfile
 from dataclasses import dataclass
 
 
@@ -33,10 +34,20 @@ def read_table(
     comment_prefix: str | None = "#",
 ) -> tuple[list[str], list[Row]]:
     """(header, rows) from the file; the header is the ``header_row``-th kept line."""
+    zipped = content[:4] == b"PK\x03\x04"  # XLSX files are ZIP archives
+    if fmt == "xlsx" and not zipped:
+        raise TableError(1, "file", "is not an XLSX workbook; use a csv or tsv profile")
+    if fmt != "xlsx" and zipped:
+        raise TableError(1, "file", "looks like an XLSX workbook; use a profile with format xlsx")
     if fmt == "xlsx":
         lines = _xlsx_lines(content, sheet)
     else:
-        text = content.decode("utf-8-sig")
+        try:
+            text = content.decode("utf-8-sig")
+        except UnicodeDecodeError as exc:
+            raise TableError(
+                1, "file", f"is not UTF-8 text (byte {exc.start}); save it as UTF-8 CSV"
+            ) from None
         delimiter = "\t" if fmt == "tsv" else ","
         lines = list(enumerate(csv.reader(io.StringIO(text), delimiter=delimiter), start=1))
     kept = [
@@ -60,10 +71,15 @@ def read_table(
 def _xlsx_lines(content: bytes, sheet: str | None) -> list[tuple[int, list[str]]]:
     from openpyxl import load_workbook  # imported lazily: only XLSX imports need it
 
-    book = load_workbook(io.BytesIO(content), read_only=True, data_only=True)
+    try:
+        book = load_workbook(io.BytesIO(content), read_only=True, data_only=True)
+    except (zipfile.BadZipFile, KeyError, ValueError, OSError) as exc:
+        raise TableError(1, "file", f"is not a readable XLSX workbook ({exc})") from None
     try:
         if sheet is not None and sheet not in book.sheetnames:
-            raise TableError(1, "sheet", f"no sheet named {sheet!r} ({', '.join(book.sheetnames)})")
+            raise TableError(
+                1, "sheet", f"no sheet named {sheet!r}; it has {', '.join(book.sheetnames)}"
+            )
         page = book[sheet] if sheet else book.worksheets[0]
         return [
             (n, ["" if v is None else repr(v) if isinstance(v, float) else str(v) for v in values])

@@ -21,6 +21,7 @@ from tracker.services.reconcile import LoanLine
 from tracker.services.reduction import Reduction
 from tracker.services.results import SpecimenResult
 from tracker.services.screening import Screening
+from tracker.services.views import Done
 
 SCHEMA_DIALECT = "https://json-schema.org/draft/2020-12/schema"
 
@@ -39,12 +40,12 @@ DOCUMENTS: dict[str, tuple[Any, str, str]] = {
         "Output of `tracker --json batch show`.",
     ),
     "session-import.schema.json": (
-        SessionView,
+        Done[SessionView],
         "tracker session import",
         "Output of `tracker --json session import`.",
     ),
     "reduction.schema.json": (
-        Reduction,
+        Done[Reduction],
         "tracker session reduce",
         "Output of `tracker --json session reduce`.",
     ),

@@ -73,11 +73,19 @@ class ProfileView(View):
 def save_profile(db: Database, actor: str | None, data: NewProfile | Raw) -> Done[ProfileView]:
     """Save (or replace, by name) a column mapping profile for an instrument's exports."""
     request = parse(NewProfile, data)
-    for ratio in request.definition.columns.ratios:
+    columns = request.definition.columns
+    for ratio in columns.ratios:
         try:
             parse_ratio(ratio)
         except ValueError as exc:
             raise InputError("definition.columns.ratios", ratio, str(exc)) from None
+    for ratio in columns.errors:
+        if ratio not in columns.ratios:
+            raise InputError(
+                "definition.columns.errors",
+                ratio,
+                f"is not one of the profile's ratios ({', '.join(columns.ratios)})",
+            )
     with unit_of_work(db, actor) as uow:
         row = uow.session.scalars(
             select(MappingProfile).where(MappingProfile.name == request.name)
@@ -146,10 +154,9 @@ class SessionView(View):
 def import_session(db: Database, actor: str | None, data: ImportSession | Raw) -> Done[SessionView]:
     """Read an instrument export through a saved profile into a new session."""
     request = parse(ImportSession, data)
-    if request.mode == "ratio" and not request.standard_values:
-        raise InputError("standard-values", None, "ratio mode needs the standard's accepted ratios")
     with unit_of_work(db, actor) as uow:
         profile = _profile(uow.session, request.profile)
+        _require_standard_values(request, profile)
         rows = _read(request, profile)
         session = InstrumentSession(
             name=request.name, instrument=request.instrument, element=request.element,
@@ -177,7 +184,9 @@ def import_session(db: Database, actor: str | None, data: ImportSession | Raw) -
                 unmatched.append(
                     UnmatchedRow(row=row.number, run_order=run, sample_name=name, reason=reason)
                 )
-        _require_brackets(session.measurements, {r[1]: r[0].number for r in rows})
+        _require_brackets(
+            session.measurements, {r[1]: r[0].number for r in rows}, profile.columns.sample_name
+        )
         view = lambda: _view(session, unmatched)  # noqa: E731
         payload = {
             "file": request.filename,
@@ -187,6 +196,20 @@ def import_session(db: Database, actor: str | None, data: ImportSession | Raw) -
             "unmatched": [u.model_dump() for u in unmatched],
         }
         return finish(uow, "session.imported", session, payload, view)
+
+
+def _require_standard_values(request: ImportSession, profile: ProfileDefinition) -> None:
+    """Ratio mode scales every ratio to the standard's accepted value: all must be given."""
+    if request.mode != "ratio":
+        return
+    missing = [r for r in profile.columns.ratios if r not in request.standard_values]
+    if missing:
+        raise InputError(
+            "standard-values",
+            ", ".join(missing),
+            "ratio mode needs the bracketing standard's accepted value for each "
+            "ratio, e.g. 87/86=0.710248",
+        )
 
 
 def _read(
@@ -202,6 +225,9 @@ def _read(
             comment_prefix=profile.comment_prefix,
         )
     except TableError as exc:
+        if exc.column in ("file", "sheet"):  # the whole file, not one of its cells
+            value = request.filename if exc.column == "file" else profile.sheet
+            raise InputError(exc.column, value, exc.reason) from None
         raise InputError(f"row {exc.row}, column {exc.column}", None, exc.reason) from None
     except (UnicodeDecodeError, OSError, KeyError, ValueError) as exc:
         raise InputError(
@@ -218,9 +244,9 @@ def _read(
     for name in wanted:
         if name not in header:
             raise InputError(
-                f"column {name}",
-                None,
-                f"the profile names it but the file has only: {', '.join(header)}",
+                "profile",
+                name,
+                f"names a column the file lacks; the file has: {', '.join(header)}",
             )
     seen: dict[int, int] = {}
     result = []
@@ -325,7 +351,9 @@ class _Matcher:
         return ""
 
 
-def _require_brackets(measurements: list[Measurement], rows: dict[int, int]) -> None:
+def _require_brackets(
+    measurements: list[Measurement], rows: dict[int, int], sample_column: str
+) -> None:
     """Every sample, reference and blank needs a standard measured before AND after it."""
     ordered = sorted(measurements, key=lambda m: m.run_order)
     standards = [m.run_order for m in ordered if m.role is MeasurementRole.STANDARD]
@@ -337,7 +365,7 @@ def _require_brackets(measurements: list[Measurement], rows: dict[int, int]) -> 
         if not (before and after):
             side = "before" if not before else "after"
             raise InputError(
-                f"row {rows[m.run_order]}",
+                f"row {rows[m.run_order]}, column {sample_column}",
                 m.sample_name,
                 f"has no bracketing standard measured {side} it",
             )

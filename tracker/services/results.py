@@ -16,7 +16,7 @@ from sqlalchemy.orm import Session
 
 from tracker.db.database import Database
 from tracker.domain.delta import change_scale, invert
-from tracker.domain.errors import RuleViolation
+from tracker.domain.errors import NotFound, RuleViolation
 from tracker.domain.models import (
     Aliquot,
     BatchPosition,
@@ -73,24 +73,39 @@ def results(
         )
         if loan is not None:
             query = query.where(Loan.id == get_loan(session, "--loan", loan).id)
+        if scale is not None:
+            _require_reference(session, scale)
         lines = []
         for result, cut, specimen, loan_row, run in session.execute(query):
-            value, on = _on_scale(session, result, scale)
-            sd = result.sd_permil
+            value, on, factor = _on_scale(session, result, scale)
+            sd = None if result.sd_permil is None else result.sd_permil * factor
             lines.append(SpecimenResult(
                 specimen=specimen.public_id, catalog_number=specimen.catalog_number,
                 loan=loan_row.reference, cut=cut.public_id, session=run.public_id,
                 ratio=result.ratio, kind=result.kind, value=value,
-                two_sd=None if sd is None else 2 * sd, two_se=result.two_se_permil, n=result.n,
+                two_sd=None if sd is None else 2 * sd,
+                two_se=None if result.two_se_permil is None else result.two_se_permil * factor,
+                n=result.n,
                 scale=on, age_min_ma=specimen.age_min_ma, age_max_ma=specimen.age_max_ma,
                 flags=list(result.flags),
             ))  # fmt: skip
         return lines
 
 
-def _on_scale(session: Session, result: Result, scale: str | None) -> tuple[float, str]:
+def _require_reference(session: Session, scale: str) -> None:
+    try:
+        get_reference_material(session, "--scale", scale)
+    except NotFound:
+        raise NotFound("--scale", scale, "no reference material has this name") from None
+
+
+def _on_scale(session: Session, result: Result, scale: str | None) -> tuple[float, str, float]:
+    """The value on the asked scale, that scale, and the factor spreads scale by.
+
+    δ_new = (1 + δ/1000)/(1 + a/1000) − 1, so spreads scale by 1/(1 + a/1000) exactly.
+    """
     if scale is None or scale.lower() == result.scale.lower() or result.kind != "delta":
-        return result.delta_permil, result.scale
+        return result.delta_permil, result.scale, 1.0
     anchor = accepted_value(session, scale, result.ratio, result.scale, "delta")
     if anchor is None:
         raise RuleViolation(
@@ -99,7 +114,8 @@ def _on_scale(session: Session, result: Result, scale: str | None) -> tuple[floa
             f"no accepted δ{result.ratio} of {scale} on the {result.scale} scale; "
             "record one with `tracker reference value`",
         )
-    return change_scale(result.delta_permil, invert(anchor.value)), scale
+    factor = 1 / (1 + anchor.value / 1000)
+    return change_scale(result.delta_permil, invert(anchor.value)), scale, factor
 
 
 def accepted_value(
