@@ -11,7 +11,12 @@ from pathlib import Path
 
 from sqlalchemy import Connection, Engine, inspect, text
 
-REVISIONS: tuple[str, ...] = ("0001_initial", "0002_append_only_ledger", "0003_materials_residuals")
+REVISIONS: tuple[str, ...] = (
+    "0001_initial",
+    "0002_append_only_ledger",
+    "0003_materials_residuals",
+    "0004_labels",
+)
 HEAD = REVISIONS[-1]
 MIGRATIONS_DIR = Path(__file__).with_name("migrations")
 

@@ -5,6 +5,8 @@ from tracker.domain.models.enums import (
     AliquotPurpose,
     ContainerStatus,
     Disposition,
+    LabelJobKind,
+    LabelStatus,
     LoanStatus,
     LocationKind,
     MeasurementRole,
@@ -15,6 +17,7 @@ from tracker.domain.models.enums import (
     TermsKind,
 )
 from tracker.domain.models.instrument import InstrumentSession, Measurement, Result
+from tracker.domain.models.labels import Label, LabelJob, LabelSetting
 from tracker.domain.models.ledger import CustodyEvent
 from tracker.domain.models.loans import (
     Document,
@@ -39,6 +42,11 @@ __all__ = [
     "Disposition",
     "Document",
     "InstrumentSession",
+    "Label",
+    "LabelJob",
+    "LabelJobKind",
+    "LabelSetting",
+    "LabelStatus",
     "Lender",
     "Loan",
     "LoanDocument",
