@@ -99,19 +99,27 @@ def _specimen(row: Specimen) -> list[str]:
 
 
 def _powder(session: Session, row: Powder) -> list[str]:
-    made = _join(format_mass_mg(row.mass_mg), _day(row.drilled_at), _initials(session, row))
-    return [_join(row.specimen.catalog_number, row.tissue), made]
+    return [
+        row.specimen.catalog_number,
+        _join(row.tissue, format_mass_mg(row.mass_mg)),
+        _join(_day(row.drilled_at), _initials(session, row)),
+    ]
 
 
 def _solution(session: Session, row: Solution) -> list[str]:
-    mass = f"{row.solution_mass_g:.4f} g"
-    made = _join(mass, _day(row.dissolved_at), _initials(session, row))
-    return [_join(f"from {row.powder.public_id}", row.acid), made]
+    return [
+        f"from {row.powder.public_id}",
+        _join(row.acid, f"{row.solution_mass_g:.4f} g"),
+        _join(_day(row.dissolved_at), _initials(session, row)),
+    ]
 
 
 def _aliquot(session: Session, row: Aliquot) -> list[str]:
-    made = _join(f"{row.mass_g:.4f} g", _day(row.taken_at), _initials(session, row))
-    return [_join(f"from {row.solution.public_id}", row.purpose.value), made]
+    return [
+        f"from {row.solution.public_id}",
+        _join(row.purpose.value, f"{row.mass_g:.4f} g"),
+        _join(_day(row.taken_at), _initials(session, row)),
+    ]
 
 
 def _position(row: BatchPosition) -> list[str]:

@@ -16,7 +16,7 @@ from sqlalchemy.orm import Session
 
 from tracker.db.database import Database
 from tracker.domain.errors import InputError, RuleViolation
-from tracker.domain.labels import uri_prefix_problem
+from tracker.domain.labels import LabelFacts, uri_prefix_problem
 from tracker.domain.models import Label, LabelSetting, LabelStatus
 from tracker.services.common import finish
 from tracker.services.inputs import Raw, Request, parse
@@ -154,6 +154,22 @@ def _label_view(session: Session, label: Label) -> LabelView:
         queued_event=label.queued_event_seq,
         job=label.job.public_id if label.job is not None else None,
     )
+
+
+def queued_facts(db: Database) -> list[LabelFacts]:
+    """What the queued labels would say, in queue order (for a preview; nothing changes)."""
+    with db.read_session() as session:
+        query = select(Label).where(Label.status == LabelStatus.QUEUED).order_by(Label.id)
+        return [
+            facts_of(session, labelled_item(session, "queue", label.item_ref))
+            for label in session.scalars(query)
+        ]
+
+
+def facts_for(db: Database, items: list[str]) -> list[LabelFacts]:
+    """What the named items' labels say (for a preview; nothing changes)."""
+    with db.read_session() as session:
+        return [facts_of(session, row) for row in resolve_items(session, id_list(items))]
 
 
 class LabelSettings(View):
