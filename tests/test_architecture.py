@@ -39,3 +39,16 @@ def test_import_contracts_hold() -> None:
     result = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, cwd=root)
     assert result.returncode == 0, result.stdout + result.stderr
     assert "2 kept, 0 broken" in result.stdout
+
+
+def test_the_command_line_starts_without_the_rendering_libraries() -> None:
+    """reportlab, qrcode and Pillow load only inside the label commands that draw."""
+    code = (
+        "import sys\nimport tracker.cli\n"
+        "top = {m.split('.')[0] for m in sys.modules}\n"
+        "print(','.join(sorted(top & {'reportlab', 'qrcode', 'PIL', 'pypdfium2', 'zxingcpp'})))\n"
+    )
+    result = subprocess.run(
+        [sys.executable, "-c", code], capture_output=True, text=True, check=True
+    )
+    assert result.stdout.strip() == ""

@@ -208,15 +208,15 @@ def stocks_command(ctx: typer.Context, stocks: StocksFile = None) -> None:
             })  # fmt: skip
 
     def table() -> Table:
-        t = plain_table("stock", "label", "per page", "page", "from", "description")
+        t = plain_table("stock", "label", "per page", "page", "for")
         for r in rows:
+            origin = "" if r["source"] == "preset" else f" (from {r['source']})"
             if not r["ok"]:
-                t.add_row(r["name"], "", "", "", r["source"], f"NOT USABLE: {r['problem']}")
+                t.add_row(r["name"], "", "", "", f"NOT USABLE: {r['problem']}")
                 continue
             t.add_row(
-                r["name"], "{:g} × {:g} mm".format(*r["label_mm"]),
-                "{} × {}".format(*r["grid"]), "{:g} × {:g} mm".format(*r["page_mm"]),
-                r["source"], r["description"],
+                r["name"], "{:g} × {:g} mm".format(*r["label_mm"]), "{} × {}".format(*r["grid"]),
+                "{:g} × {:g} mm".format(*r["page_mm"]), r["description"] + origin,
             )  # fmt: skip
         return t
 
@@ -226,21 +226,21 @@ def stocks_command(ctx: typer.Context, stocks: StocksFile = None) -> None:
 @labels_app.command(
     "uri-prefix", epilog="Example: tracker labels uri-prefix HTTPS://LAB.EXAMPLE/T/"
 )
-def uri_prefix(
+def uri_prefix_command(
     ctx: typer.Context,
-    prefix: Annotated[
+    uri_prefix: Annotated[
         str | None, Arg(help="Put in front of every ID in the QR codes.", show_default=False)
     ] = None,
     clear: Annotated[bool, Opt("--clear", help="QR codes carry the bare ID again.")] = False,
 ) -> None:
     """Show or set (managers) the link prefix printed in front of IDs in QR codes."""
-    if prefix is None and not clear:
+    if uri_prefix is None and not clear:
         with database(ctx) as db:
             settings = labels.label_settings(db)
         shown = settings.uri_prefix or "none: QR codes carry the bare ID"
         emit(ctx, settings, lambda: f"label URI prefix: {shown}")
         return
-    answer = perform(ctx, labels.set_uri_prefix, {"uri_prefix": None if clear else prefix})
+    answer = perform(ctx, labels.set_uri_prefix, {"uri_prefix": None if clear else uri_prefix})
     value = answer.item.uri_prefix or "none"
     emit(ctx, answer, lambda: done(answer, f"label URI prefix: {value}"))
 
