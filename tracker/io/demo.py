@@ -24,6 +24,7 @@ from tracker.services import (
     custody,
     drilling,
     lab,
+    labels,
     loans,
     materials,
     setup,
@@ -53,6 +54,8 @@ SERVICES: dict[str, Service] = {
     "amend": amendments.amend_loan,
     "attach": amendments.attach_document,
     "material": materials.add_material,
+    "label_queue": labels.queue_labels,
+    "label_cancel": labels.cancel_labels,
 }
 
 
