@@ -80,6 +80,7 @@ def _stocks_file(tmp_path: Path) -> Path:
         (("--stock", "cap-dot"), "--stock", "cap-dot", "has no room"),
         (("--stock", "a4-65", "--out", "{tmp}/nowhere/x.pdf"), "--out", "/", "folder"),
         (("--stock", "a4-65", "--printer", "bad name"), "--printer", "bad name", "pattern"),
+        (("--stock", "a4-65", "--printer", "-h"), "--printer", "-h", "pattern"),
     ],
 )
 @pytest.mark.parametrize("as_json", [False, True], ids=["human", "json"])

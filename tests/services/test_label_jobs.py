@@ -5,6 +5,8 @@ from __future__ import annotations
 
 import hashlib
 import json
+import os
+import stat
 from collections.abc import Callable
 from pathlib import Path
 
@@ -72,6 +74,9 @@ def test_printing_the_queue_is_one_event_with_the_pdfs_hash(
     }
     assert outcome.printer is None
     assert not list(tmp_path.glob(".*partial"))  # the staged file was renamed into place
+    umask = os.umask(0)
+    os.umask(umask)
+    assert stat.S_IMODE(out.stat().st_mode) == 0o666 & ~umask  # the mode any new file gets
     assert verify(db).ok
 
 

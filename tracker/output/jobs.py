@@ -172,4 +172,7 @@ def _stage(target: Path, content: bytes) -> Path:
     handle, name = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".partial", dir=target.parent)
     with os.fdopen(handle, "wb") as stream:
         stream.write(content)
+    mask = os.umask(0)  # mkstemp makes the file private; give it the usual mode for new files
+    os.umask(mask)
+    Path(name).chmod(0o666 & ~mask)
     return Path(name)

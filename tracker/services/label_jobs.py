@@ -29,8 +29,9 @@ from tracker.services.views import Done, View
 
 Renderer = Callable[[PrintBatch], Rendered]
 StockName = Annotated[str, Field(min_length=1, max_length=60, pattern=r"^[A-Za-z0-9._-]+$")]
-# A print queue name as lp takes it: no spaces, slashes or '#'.
-PrinterName = Annotated[str, Field(min_length=1, max_length=120, pattern=r"^[^\s/#]+$")]
+# A print queue name as lp takes it: no spaces, slashes or '#', and no leading '-' (which
+# lp would read as an option).
+PrinterName = Annotated[str, Field(min_length=1, max_length=120, pattern=r"^[^\s/#-][^\s/#]*$")]
 
 
 class JobView(View):

@@ -20,7 +20,7 @@ from tracker.domain.labels import LabelFacts, uri_prefix_problem
 from tracker.domain.models import Label, LabelSetting, LabelStatus
 from tracker.services.common import finish
 from tracker.services.inputs import Raw, Request, parse
-from tracker.services.label_facts import Labelled, facts_of, labelled_item
+from tracker.services.label_facts import LABELLED, Labelled, facts_of, labelled_item
 from tracker.services.label_queue import queue_label, queued_labels
 from tracker.services.lineage import ancestors_of, node_of
 from tracker.services.lookup import (
@@ -235,10 +235,8 @@ def read_scan(db: Database, scanned: str) -> ScanView:
             raise InputError("scanned", scanned, "is empty; scan a label or type an ID")
         row = get_any(session, "scanned", scanned)
         node = node_of(row, with_children=False)
-        try:
-            lines = list(facts_of(session, labelled_item(session, "scanned", scanned)).lines)
-        except InputError:
-            lines = []  # a loan or an operator has an ID but wears no label
+        # a loan or an operator has an ID but wears no label
+        lines = list(facts_of(session, row).lines) if isinstance(row, LABELLED) else []
         location = getattr(row, "location", None)
         return ScanView(
             scanned=scanned,
