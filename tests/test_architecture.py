@@ -39,3 +39,19 @@ def test_import_contracts_hold() -> None:
     result = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, cwd=root)
     assert result.returncode == 0, result.stdout + result.stderr
     assert "2 kept, 0 broken" in result.stdout
+
+
+def test_the_command_line_and_services_load_no_rendering_library() -> None:
+    """reportlab, qrcode and Pillow load only inside the label commands that draw."""
+    modules = ["tracker.cli", *_service_modules()]
+    code = (
+        "import sys\n"
+        + "".join(f"import {m}\n" for m in modules)
+        + "top = {m.split('.')[0] for m in sys.modules}\n"
+        + "print(','.join(sorted(top & {'reportlab', 'qrcode', 'PIL', 'pypdfium2', 'zxingcpp'})))\n"
+    )
+    result = subprocess.run(
+        [sys.executable, "-c", code], capture_output=True, text=True, check=True
+    )
+    assert result.stdout.strip() == ""
+    assert "tracker.services.label_jobs" in modules

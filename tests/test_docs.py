@@ -67,3 +67,26 @@ def test_readme_verification_recipe_accepts_an_export_and_rejects_tampering(tmp_
     export.write_text("\n".join(lines) + "\n", encoding="utf-8")
     bad = subprocess.run([sys.executable, str(script), str(export)], capture_output=True, text=True)
     assert bad.returncode != 0 and "broken at event 4" in bad.stderr
+
+
+def test_readme_labels_section_names_real_stocks_commands_and_a_valid_stock_file(
+    tmp_path: Path,
+) -> None:
+    import tomllib
+
+    import typer
+
+    from tracker.cli import app
+    from tracker.output.stocks import entries, load_stock
+
+    section = _section("Labels")
+    (example,) = _blocks(section, "toml")
+    path = tmp_path / "stocks.toml"
+    path.write_text(example, encoding="utf-8")
+    for name in tomllib.loads(example)["stock"]:
+        assert load_stock(name, path).per_sheet > 1  # the example is a valid sheet stock
+    named = set(re.findall(r"`([a-z0-9-]+)`", section)) & set(entries())
+    assert named == set(entries())  # every preset is documented by its real name
+    labels_group = typer.main.get_command(app).commands["labels"]  # type: ignore[attr-defined]
+    for command in re.findall(r"^tracker labels ([a-z-]+)", _blocks(section, "bash")[0], re.M):
+        assert command in labels_group.commands

@@ -1,7 +1,7 @@
 """Helpers for driving the ``tracker`` command line through Typer's CliRunner.
 
-Every invocation clears TRACKER_DB and TRACKER_OPERATOR so that the developer's
-own environment can never leak a database or an operator into a test.
+Every invocation clears TRACKER_DB, TRACKER_OPERATOR and TRACKER_LABEL_STOCKS so that the
+developer's own environment can never leak a database, an operator or a stocks file into a test.
 """
 
 from __future__ import annotations
@@ -22,7 +22,11 @@ from tests.conftest import snapshot_counts
 from tracker.cli import app
 from tracker.db.database import open_database
 
-CLEAN_ENV: dict[str, str | None] = {"TRACKER_DB": None, "TRACKER_OPERATOR": None}
+CLEAN_ENV: dict[str, str | None] = {
+    "TRACKER_DB": None,
+    "TRACKER_OPERATOR": None,
+    "TRACKER_LABEL_STOCKS": None,
+}
 SQLITE_SUFFIXES = ("", "-wal", "-shm")
 
 

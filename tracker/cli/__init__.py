@@ -5,7 +5,15 @@ from typing import Annotated
 import typer
 
 from tracker import __version__
-from tracker.cli import cmd_budget, cmd_inspect, cmd_instrument, cmd_lab, cmd_loans, cmd_setup
+from tracker.cli import (
+    cmd_budget,
+    cmd_inspect,
+    cmd_instrument,
+    cmd_lab,
+    cmd_labels,
+    cmd_loans,
+    cmd_setup,
+)
 from tracker.cli.cmd_demo import DEMO_EPILOG, demo
 from tracker.cli.state import State, TrackerGroup
 
@@ -66,6 +74,7 @@ def _register() -> None:
     command("concentration", epilog=cmd_lab.CONCENTRATION_EPILOG)(cmd_lab.concentration)
     command("aliquot", epilog=cmd_lab.ALIQUOT_EPILOG)(cmd_lab.aliquot)
     command("dispose", epilog=cmd_lab.DISPOSE_EPILOG)(cmd_lab.dispose)
+    command("lookup", epilog=cmd_labels.LOOKUP_EPILOG)(cmd_labels.lookup)
     command("plan", epilog=cmd_budget.PLAN_EPILOG)(cmd_budget.plan)
     command("reconcile", epilog=cmd_budget.RECONCILE_EPILOG)(cmd_budget.reconcile_command)
     loan = cmd_loans.loan_app.command
@@ -96,6 +105,7 @@ def _register() -> None:
     app.add_typer(cmd_instrument.session_app, name="session")
     app.add_typer(cmd_instrument.curve_app, name="curve")
     app.add_typer(cmd_lab.batch_app, name="batch")
+    app.add_typer(cmd_labels.labels_app, name="labels")
     app.add_typer(cmd_inspect.ledger_app, name="ledger")
     app.add_typer(cmd_setup.db_app, name="db")
 

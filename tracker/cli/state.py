@@ -104,19 +104,26 @@ def cli_field(ctx: typer.Context, field: str) -> str:
 
 
 @contextmanager
+def cli_fields(ctx: typer.Context) -> Iterator[None]:
+    """Refusals raised inside name the option or argument a person typed."""
+    try:
+        yield
+    except TrackerError as error:
+        error.field = cli_field(ctx, error.field)
+        raise
+
+
+@contextmanager
 def database(ctx: typer.Context) -> Iterator[Any]:
     """Open the selected database for one command; refusals name the CLI's own fields."""
     from tracker.db.database import open_database
 
-    try:
+    with cli_fields(ctx):
         db = open_database(state(ctx).target)
         try:
             yield db
         finally:
             db.close()
-    except TrackerError as error:
-        error.field = cli_field(ctx, error.field)
-        raise
 
 
 def perform(ctx: typer.Context, service: Callable[..., Any], request: dict[str, Any]) -> Any:

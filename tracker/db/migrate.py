@@ -16,6 +16,7 @@ REVISIONS: tuple[str, ...] = (
     "0002_append_only_ledger",
     "0003_materials_residuals",
     "0004_instrument",
+    "0005_labels",
 )
 HEAD = REVISIONS[-1]
 MIGRATIONS_DIR = Path(__file__).with_name("migrations")

@@ -9,6 +9,10 @@ tried first and misses about 0.5 % of adjacent swaps.) The check character is
 one of 0-9, A-Z or ``*``; all of them fit a QR code's alphanumeric mode. IDs are upper case so that
 a QR code can carry them in its compact alphanumeric mode; lookups accept them
 in either case and with or without the hyphens.
+
+A label's QR code may carry the ID behind a lab-configured URI prefix
+(``HTTPS://LAB.EXAMPLE/T/SP-00042-E``); :func:`parse_id` then accepts the scanned
+link as well, and refuses a link with another prefix rather than guessing.
 """
 
 from __future__ import annotations
@@ -41,12 +45,16 @@ class Kind(StrEnum):
     OPERATOR = "OP"
     DOCUMENT = "DC"
     MATERIAL = "MT"
+    PRINT_JOB = "PJ"
 
 
 _BY_PREFIX = {kind.value: kind for kind in Kind}
 MAX_DIGITS = 12
 _CLEAN = re.compile(r"[\s\-_./]")
 _SHAPE = re.compile(r"^([A-Z]{2})(\d{1,12})([0-9A-Z*])$")
+# A URI scheme followed by its colon (RFC 3986): IDs never contain a colon.
+_URI = re.compile(r"^[A-Za-z][A-Za-z0-9+.\-]*:")
+_LINK = re.compile(r"^[A-Za-z][A-Za-z0-9+.\-]*://")
 
 
 def check_character(body: str) -> str:
@@ -95,9 +103,27 @@ class BadId(ValueError):
     """An identifier that cannot be read; the message says why."""
 
 
-def parse_id(text: str) -> PublicId:
-    """Read an ID typed in any case, with or without separators; verify its check character."""
-    cleaned = _CLEAN.sub("", text).upper()
+def strip_uri_prefix(text: str, uri_prefix: str | None = None) -> str:
+    """The ID part of a scanned payload: ``text`` without the lab's URI prefix.
+
+    Scanners type exactly what the QR code holds, so a label printed with the
+    lab's prefix arrives as a link. A link with any other prefix is refused:
+    another lab's tracker hands out the same IDs, and a silent match would
+    name the wrong vial.
+    """
+    stripped = text.strip()
+    if uri_prefix and stripped.upper().startswith(uri_prefix.upper()):
+        return stripped[len(uri_prefix) :]
+    if _URI.match(stripped):
+        if uri_prefix:
+            raise BadId(f"is a link, but not to this lab's labels (they start {uri_prefix!r})")
+        raise BadId("is a link, but this lab prints no link prefix on its labels")
+    return text
+
+
+def parse_id(text: str, uri_prefix: str | None = None) -> PublicId:
+    """Read an ID typed or scanned in any case, with or without separators; verify its check."""
+    cleaned = _CLEAN.sub("", strip_uri_prefix(text, uri_prefix)).upper()
     match = _SHAPE.match(cleaned)
     if not match:
         raise BadId("is not an ID of the form XX-00000-C (two letters, digits, check character)")
@@ -108,16 +134,25 @@ def parse_id(text: str) -> PublicId:
     if kind is None:
         known = ", ".join(sorted(_BY_PREFIX))
         raise BadId(f"unknown ID prefix {prefix!r}; known prefixes are {known}")
-    if check_character(prefix + digits) != check:
-        raise BadId("check character does not match: a character was mistyped or misread")
+    expected = check_character(prefix + digits)
+    if expected != check:
+        raise BadId(
+            f"check character {check!r} does not match {prefix}-{digits}, which would end in "
+            f"{expected!r}: a character was mistyped or misread; read the whole ID again"
+        )
     return PublicId(kind, int(digits))
 
 
-def looks_like_id(text: str) -> bool:
+def looks_like_id(text: str, uri_prefix: str | None = None) -> bool:
     """Cheap test used to tell a scanned/typed ID from a free-text reference (a loan number).
 
     True when the text has an ID's shape and a known prefix, even if its check
     character is wrong — a mistyped ID must be reported as such, not looked up as text.
+    A scanned link (the lab's URI prefix, or any ``scheme://``) counts as an ID, so
+    that it is read — or refused — as one rather than searched for as a loan number.
     """
+    stripped = text.strip()
+    if _LINK.match(stripped) or (uri_prefix and stripped.upper().startswith(uri_prefix.upper())):
+        return True
     match = _SHAPE.match(_CLEAN.sub("", text).upper())
     return match is not None and match.group(1) in _BY_PREFIX

@@ -26,6 +26,7 @@ from tracker.services import (
     drilling,
     instrument,
     lab,
+    labels,
     loans,
     materials,
     reduction,
@@ -66,6 +67,8 @@ SERVICES: dict[str, Service] = {
     "reference_value": results.set_reference_value,
     "curve": screening.add_curve,
     "loan_curve": screening.use_curve,
+    "label_queue": labels.queue_labels,
+    "label_cancel": labels.cancel_labels,
 }
 
 

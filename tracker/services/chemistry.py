@@ -21,6 +21,7 @@ from tracker.domain.models import (
 from tracker.services.common import finish
 from tracker.services.inputs import Element, FieldProblem, Name, Raw, Request, Text, parse
 from tracker.services.lab import aliquot_element
+from tracker.services.label_queue import queue_label
 from tracker.services.lookup import get_by_id, get_reference_material
 from tracker.services.uow import unit_of_work
 from tracker.services.views import Done, View
@@ -195,6 +196,7 @@ def add_position(db: Database, actor: str | None, data: AddPosition | Raw) -> Do
             "holds": holds,
             "loaded_ug": position.loaded_ug,
             "loaded_u_ug": position.loaded_u_ug,
+            "label": queue_label(uow, position),
         }
         return finish(
             uow,

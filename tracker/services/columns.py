@@ -23,6 +23,7 @@ from tracker.domain.errors import RuleViolation
 from tracker.domain.models import BatchPosition, ColumnBatch, Cut, PositionKind
 from tracker.services.common import finish, optional_location
 from tracker.services.inputs import FieldProblem, MassMg, Raw, Request, parse
+from tracker.services.label_queue import queue_label
 from tracker.services.lookup import get_by_id
 from tracker.services.uow import unit_of_work
 from tracker.services.views import Done, View
@@ -105,6 +106,7 @@ def record_cut(db: Database, actor: str | None, data: RecordCut | Raw) -> Done[C
             "cut": cut.name,
             "recovered_ug": cut.recovered_ug,
             "recovered_u_ug": cut.recovered_u_ug,
+            "label": queue_label(uow, cut),
         }
         return finish(uow, "cut.recorded", cut, payload, view, parent=position)
 

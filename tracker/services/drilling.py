@@ -35,6 +35,7 @@ from tracker.services.common import (
     weigh,
 )
 from tracker.services.inputs import AwareDatetime, PositiveMassMg, Raw, Request, parse
+from tracker.services.label_queue import queue_label
 from tracker.services.lookup import get_by_id
 from tracker.services.materials import find_material
 from tracker.services.uow import UnitOfWork, unit_of_work
@@ -92,6 +93,7 @@ def drill(db: Database, actor: str | None, data: Drill | Raw) -> Done[PowderView
             "drilled_at": powder.drilled_at.isoformat(), "terms_version": terms.version,
             "override": {"reason": request.override_reason,
                          "limits": [v.message for v in violations]} if violations else None,
+            "label": queue_label(uow, powder),
         }  # fmt: skip
         return finish(
             uow, "powder.drilled", powder, payload, lambda: PowderView.of(powder), parent=specimen

@@ -44,6 +44,7 @@ from tracker.services.inputs import (
     Request,
     parse,
 )
+from tracker.services.label_queue import queue_label
 from tracker.services.lookup import get_by_id
 from tracker.services.uow import unit_of_work
 from tracker.services.views import AliquotView, ConcentrationView, Done, SolutionView
@@ -112,6 +113,7 @@ def dissolve(db: Database, actor: str | None, data: Dissolve | Raw) -> Done[Solu
             "solution_mass_g": solution.solution_mass_g,
             "solution_mass_u_g": solution.solution_mass_u_g,
             "powder_status": powder.status.value,
+            "label": queue_label(uow, solution),
         }
         return finish(
             uow,
@@ -283,6 +285,7 @@ def take_aliquot(db: Database, actor: str | None, data: TakeAliquot | Raw) -> Do
             "purpose": aliquot.purpose.value,
             "element": element[0] if element else None,
             "element_ug": element[1] if element else None,
+            "label": queue_label(uow, aliquot),
         }
         return finish(
             uow,

@@ -26,7 +26,7 @@ from tracker.domain.models import (
 )
 from tracker.services.columns import cut_yield
 from tracker.services.lab import powder_remaining, solution_element, solution_remaining_g
-from tracker.services.lookup import get_any, get_loan
+from tracker.services.lookup import get_any, get_loan, uri_prefix
 from tracker.services.views import DocumentView, EventView, TermsView, View
 
 
@@ -53,7 +53,8 @@ class ItemDetail(View):
 def show_item(db: Database, ref: str) -> ItemDetail:
     """Everything about one ID: its lineage below, its ancestors above, its custody history."""
     with db.read_session() as session:
-        row = get_any(session, "id", ref) if looks_like_id(ref) else get_loan(session, "id", ref)
+        by_id = looks_like_id(ref, uri_prefix(session))
+        row = get_any(session, "id", ref) if by_id else get_loan(session, "id", ref)
         if isinstance(row, Specimen):
             load_specimen_tree(session, row.id)  # one query per level instead of per node
         location = getattr(row, "location", None)

@@ -17,6 +17,8 @@ from tracker.domain.models import (
     Cut,
     Document,
     InstrumentSession,
+    LabelJob,
+    LabelSetting,
     Lender,
     Loan,
     Location,
@@ -46,21 +48,45 @@ MODEL_BY_KIND: dict[Kind, type[Any]] = {
     Kind.OPERATOR: Operator,
     Kind.DOCUMENT: Document,
     Kind.MATERIAL: UserMaterial,
+    Kind.PRINT_JOB: LabelJob,
 }
 
 T = TypeVar("T", bound=Base)
 
 
-def read_id(field: str, text: str) -> PublicId:
+URI_PREFIX_KEY = "uri_prefix"
+_CACHE_KEY = "tracker.label_uri_prefix"
+
+
+def uri_prefix(session: Session) -> str | None:
+    """The lab's label URI prefix (None when labels carry the bare ID), read once per session.
+
+    Every ID a person types or scans goes through here, so a scanned label link is
+    accepted wherever an ID is.
+    """
+    if _CACHE_KEY not in session.info:
+        session.info[_CACHE_KEY] = session.scalar(
+            select(LabelSetting.value).where(LabelSetting.key == URI_PREFIX_KEY)
+        )
+    value = session.info[_CACHE_KEY]
+    return value if isinstance(value, str) else None
+
+
+def forget_uri_prefix(session: Session) -> None:
+    """Drop the cached prefix after the setting changed in this session."""
+    session.info.pop(_CACHE_KEY, None)
+
+
+def read_id(field: str, text: str, prefix: str | None = None) -> PublicId:
     try:
-        return parse_id(text)
+        return parse_id(text, prefix)
     except BadId as exc:
         raise InputError(field, text, str(exc)) from None
 
 
 def get_any(session: Session, field: str, text: str) -> HasPublicId:
     """The row a public ID names, whatever its kind."""
-    public = read_id(field, text)
+    public = read_id(field, text, uri_prefix(session))
     row = session.get(MODEL_BY_KIND[public.kind], public.number)
     if row is None:
         raise NotFound(field, text, f"no {public.kind.name.lower().replace('_', ' ')} has this ID")
@@ -70,7 +96,7 @@ def get_any(session: Session, field: str, text: str) -> HasPublicId:
 
 def get_by_id(session: Session, model: type[T], field: str, text: str) -> T:
     """The row of a given kind; an ID of another kind is refused by name."""
-    public = read_id(field, text)
+    public = read_id(field, text, uri_prefix(session))
     expected = model.id_kind  # type: ignore[attr-defined]
     if public.kind is not expected:
         raise InputError(
@@ -85,9 +111,9 @@ def get_by_id(session: Session, model: type[T], field: str, text: str) -> T:
     return row
 
 
-def _kind_of(text: str) -> Kind | None:
+def _kind_of(session: Session, text: str) -> Kind | None:
     try:
-        return parse_id(text).kind
+        return parse_id(text, uri_prefix(session)).kind
     except BadId:
         return None
 
@@ -96,7 +122,7 @@ def _by_id_or_label(
     session: Session, model: type[T], field: str, text: str, label: Any, what: str
 ) -> T:
     """A row by its public ID or, failing that, by a unique label column (case-insensitive)."""
-    if _kind_of(text) is model.id_kind:  # type: ignore[attr-defined]
+    if _kind_of(session, text) is model.id_kind:  # type: ignore[attr-defined]
         return get_by_id(session, model, field, text)
     matches = session.scalars(select(model).where(func.lower(label) == text.lower())).all()
     if len(matches) == 1:

@@ -13,6 +13,7 @@ from tracker.domain.errors import RuleViolation
 from tracker.domain.models import LoanStatus, Specimen, SpecimenStatus
 from tracker.services.common import action_time, finish, optional_location, require_on_hand
 from tracker.services.inputs import AwareDatetime, FieldProblem, Name, Raw, Request, Text, parse
+from tracker.services.label_queue import queue_label
 from tracker.services.lookup import get_by_id, get_loan
 from tracker.services.uow import unit_of_work
 from tracker.services.views import Done, SpecimenView
@@ -103,6 +104,7 @@ def check_in(db: Database, actor: str | None, data: CheckIn | Raw) -> Done[Speci
             "location": location.public_id if location else None,
             "location_path": location.path if location else None,
             "received_at": specimen.received_at.isoformat(),
+            "label": queue_label(uow, specimen),
         }
         return finish(
             uow,

@@ -9,7 +9,7 @@ without :meth:`UnitOfWork.commit` rolls everything back.
 
 from __future__ import annotations
 
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from contextlib import contextmanager
 from dataclasses import dataclass, field
 from datetime import datetime
@@ -35,6 +35,9 @@ class UnitOfWork:
     now: datetime
     events: list[CustodyEvent] = field(default_factory=list)
     committed: bool = False
+    # Rows that must name this unit's event (a queued label names the event that queued
+    # it) are written by these hooks once the event exists, inside the same transaction.
+    after_record: list[Callable[[CustodyEvent], None]] = field(default_factory=list)
 
     def require_manager(self, action: str) -> None:
         """Refuse an action reserved for managers, saying who tried and what it needs."""
@@ -63,6 +66,8 @@ class UnitOfWork:
             payload=payload,
         )
         self.events.append(event)
+        for hook in self.after_record:
+            hook(event)
         return event
 
     def commit(self) -> None:

@@ -5,6 +5,8 @@ from tracker.domain.models.enums import (
     AliquotPurpose,
     ContainerStatus,
     Disposition,
+    LabelJobKind,
+    LabelStatus,
     LoanStatus,
     LocationKind,
     MeasurementRole,
@@ -22,6 +24,7 @@ from tracker.domain.models.instrument import (
     Result,
     SrCurve,
 )
+from tracker.domain.models.labels import Label, LabelJob, LabelSetting
 from tracker.domain.models.ledger import CustodyEvent
 from tracker.domain.models.loans import (
     Document,
@@ -46,6 +49,11 @@ __all__ = [
     "Disposition",
     "Document",
     "InstrumentSession",
+    "Label",
+    "LabelJob",
+    "LabelJobKind",
+    "LabelSetting",
+    "LabelStatus",
     "Lender",
     "Loan",
     "LoanDocument",

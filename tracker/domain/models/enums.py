@@ -98,3 +98,16 @@ def enum_type(enum: type[StrEnum]) -> Enum:
         "validate_strings": True,
     }
     return Enum(enum, **options)
+
+
+class LabelStatus(StrEnum):
+    """Where a label is in the print queue."""
+
+    QUEUED = "queued"
+    PRINTED = "printed"
+    CANCELLED = "cancelled"
+
+
+class LabelJobKind(StrEnum):
+    PRINT = "print"  # the queue, printed
+    REPRINT = "reprint"  # named items printed again, with a reason

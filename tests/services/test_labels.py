@@ -1,0 +1,214 @@
+"""The label queue on SQLite and PostgreSQL: bench actions queue inside their own event,
+the manual queue and cancel record one event each, and the lab's link prefix is honoured
+wherever an ID is read."""
+
+from __future__ import annotations
+
+import json
+from collections.abc import Callable
+from typing import Any
+
+import pytest
+from sqlalchemy import select
+from stdnum.iso7064 import mod_37_2
+
+from tests import factories as make
+from tracker.db.database import Database
+from tracker.domain.errors import InputError, RuleViolation
+from tracker.domain.models import CustodyEvent, Label, LabelStatus
+from tracker.services import chemistry, drilling, lab, labels, specimens
+from tracker.services.ledger import verify
+
+Counts = Callable[[], dict[str, int]]
+
+
+def _events(db: Database) -> list[CustodyEvent]:
+    with db.read_session() as session:
+        return list(session.scalars(select(CustodyEvent).order_by(CustodyEvent.seq)))
+
+
+def _labels(db: Database) -> list[Label]:
+    with db.read_session() as session:
+        return list(session.scalars(select(Label).order_by(Label.id)))
+
+
+def _queued_by_one_event(db: Database, action: Callable[[], Any], item: Callable[[Any], str],
+                         counts: Counts) -> None:  # fmt: skip
+    before = counts()
+    answer = action()
+    after = counts()
+    assert after["ledger_head"] == before["ledger_head"] + 1  # one event, not two
+    assert after["label"] == before["label"] + 1
+    event = _events(db)[-1]
+    label = _labels(db)[-1]
+    assert (label.item_ref, label.status, label.queued_event_seq) == (
+        item(answer), LabelStatus.QUEUED, event.seq,
+    )  # fmt: skip
+    assert label.queued_by == event.operator and event.object_ref == item(answer)
+    assert json.loads(event.payload)["label"] == "queued"  # the ledger says so too
+
+
+def test_each_bench_action_queues_its_label_inside_its_own_event(
+    db: Database, counts: Counts
+) -> None:
+    spec = make.specimen(db, make.loan(db), checked_in=False)
+    _queued_by_one_event(
+        db, lambda: specimens.check_in(db, "tech", {"specimen": spec, "condition": "ok"}),
+        lambda a: a.item.id, counts,
+    )  # fmt: skip
+    drill = {"specimen": spec, "tissue": "enamel", "tare": "1.000 mg", "gross": "3.000 mg"}
+    _queued_by_one_event(db, lambda: drilling.drill(db, "tech", drill), lambda a: a.item.id, counts)
+    powder = _labels(db)[-1].item_ref
+    dissolve = {"powder": powder, "acid": "2 M HNO3", "vial_tare": "5.0000 g",
+                "vial_gross": "6.0000 g"}  # fmt: skip
+    _queued_by_one_event(
+        db, lambda: lab.dissolve(db, "tech", dissolve), lambda a: a.item.id, counts
+    )
+    solution = _labels(db)[-1].item_ref
+    make.concentration(db, solution)
+    take = {"solution": solution, "tare": "2.0000 g", "gross": "2.1000 g"}
+    _queued_by_one_event(
+        db, lambda: lab.take_aliquot(db, "tech", take), lambda a: a.item.id, counts
+    )
+    batch = make.batch(db)
+    blank = {"batch": batch, "kind": "blank"}
+    _queued_by_one_event(
+        db, lambda: chemistry.add_position(db, "tech", blank), lambda a: a.item.id, counts
+    )
+    assert [label.item_ref[:2] for label in _labels(db)] == ["SP", "PW", "SO", "AQ", "CP"]
+    assert verify(db).ok
+
+
+def test_a_refused_bench_action_queues_nothing(db: Database, counts: Counts) -> None:
+    spec = make.specimen(db, make.loan(db))
+    before = counts()
+    with pytest.raises(InputError):
+        drilling.drill(db, "tech", {"specimen": spec, "tissue": "enamel", "tare": "3.000 mg",
+                                    "gross": "1.000 mg"})  # fmt: skip
+    assert counts() == before
+
+
+def test_queue_by_hand_is_one_event_for_all_items(db: Database, counts: Counts) -> None:
+    spec = make.specimen(db, make.loan(db))
+    powder = make.powder(db, spec)
+    for label_id in (spec, powder):  # clear what the bench actions queued
+        labels.cancel_labels(db, "tech", {"items": [label_id], "reason": "test set-up"})
+    material = {"name": "Invented carbonate", "element": "Ca"}
+    reference = chemistry.add_reference_material(db, "boss", material).item.id
+    before = counts()
+    answer = labels.queue_labels(db, "tech", {"items": [spec, powder.lower(), reference],
+                                               "copies": 2})  # fmt: skip
+    assert counts()["ledger_head"] == before["ledger_head"] + 1
+    assert counts()["label"] == before["label"] + 6
+    assert answer.item.items == [spec, spec, powder, powder, reference, reference]
+    event = _events(db)[-1]
+    assert event.action == "labels.queued" and event.object_ref == ""  # several items
+    assert json.loads(event.payload) == {"items": [spec, powder, reference], "copies": 2}
+    listed = labels.list_labels(db)
+    assert [row.item for row in listed] == [spec, spec, powder, powder, reference, reference]
+    assert all(row.queued_event == event.seq for row in listed)
+
+
+@pytest.mark.parametrize(
+    ("items", "error", "field", "fragment"),
+    [
+        (["{loan_id}"], InputError, "items", "has no label"),
+        (["{spec}", "{spec_lower}"], InputError, "items", "a second time"),
+        (["{spec}"], RuleViolation, "items", "already has a label in the queue"),
+        (["SP-99999-" + mod_37_2.calc_check_digit("SP99999")], InputError, "items", "no specimen"),
+        ([], InputError, "items", "at least one"),
+    ],
+)
+def test_queue_refusals_write_nothing(
+    db: Database, counts: Counts, items: list[str], error: type[Exception], field: str,
+    fragment: str,
+) -> None:  # fmt: skip
+    loan = make.loan(db)
+    spec = make.specimen(db, loan)  # checked in: its label is queued
+    with db.read_session() as session:
+        from tracker.services.lookup import get_loan
+
+        loan_id = get_loan(session, "loan", loan).public_id
+    filled = [i.format(loan_id=loan_id, spec=spec, spec_lower=spec.lower().replace("-", ""))
+              for i in items]  # fmt: skip
+    before = counts()
+    with pytest.raises(error) as caught:
+        labels.queue_labels(db, "tech", {"items": filled})
+    assert caught.value.field == field and fragment in caught.value.reason  # type: ignore[attr-defined]
+    assert counts() == before
+
+
+def test_cancel_takes_labels_off_the_queue_with_one_event(db: Database, counts: Counts) -> None:
+    spec = make.specimen(db, make.loan(db))
+    before = counts()
+    answer = labels.cancel_labels(db, "tech", {"items": [spec], "reason": "returned unopened"})
+    assert answer.item.items == [spec]
+    assert counts()["ledger_head"] == before["ledger_head"] + 1
+    assert labels.list_labels(db) == []
+    assert [r.status for r in labels.list_labels(db, everything=True)] == ["cancelled"]
+    with pytest.raises(RuleViolation, match="no label in the queue"):
+        labels.cancel_labels(db, "tech", {"items": [spec], "reason": "again"})
+
+
+PREFIX = "HTTPS://LAB.EXAMPLE/T/"  # invented
+
+
+def test_the_link_prefix_is_a_manager_setting_recorded_in_the_ledger(
+    db: Database, counts: Counts
+) -> None:
+    before = counts()
+    with pytest.raises(RuleViolation, match="manager"):
+        labels.set_uri_prefix(db, "tech", {"uri_prefix": PREFIX})
+    with pytest.raises(InputError, match="not a URI prefix"):
+        labels.set_uri_prefix(db, "boss", {"uri_prefix": "lab example t"})
+    assert counts() == before
+    labels.set_uri_prefix(db, "boss", {"uri_prefix": PREFIX})
+    assert labels.label_settings(db).uri_prefix == PREFIX
+    event = _events(db)[-1]
+    assert (event.action, json.loads(event.payload)) == (
+        "labels.uri_prefix_set", {"uri_prefix": PREFIX, "previous": None},
+    )  # fmt: skip
+    labels.set_uri_prefix(db, "boss", {"uri_prefix": None})
+    assert labels.label_settings(db).uri_prefix is None
+    assert verify(db).ok
+
+
+def test_a_scanned_link_is_accepted_wherever_an_id_is(db: Database) -> None:
+    labels.set_uri_prefix(db, "boss", {"uri_prefix": PREFIX})
+    spec = make.specimen(db, make.loan(db))
+    powder = drilling.drill(
+        db, "tech",
+        {"specimen": PREFIX.lower() + spec, "tissue": "enamel", "tare": "1.000 mg",
+         "gross": "2.000 mg"},
+    ).item.id  # fmt: skip
+    assert labels.read_scan(db, PREFIX + powder).id == powder
+    assert labels.facts_for(db, [spec])[0].payload == PREFIX + spec
+    with pytest.raises(InputError, match="not to this lab's labels") as caught:
+        labels.read_scan(db, "HTTPS://OTHER-LAB.EXAMPLE/T/" + powder)
+    assert caught.value.field == "scanned"
+
+
+def test_a_link_is_refused_when_the_lab_prints_none(db: Database) -> None:
+    spec = make.specimen(db, make.loan(db))
+    with pytest.raises(InputError, match="prints no link prefix"):
+        labels.read_scan(db, PREFIX + spec)
+
+
+def test_a_scan_says_what_the_label_names(db: Database) -> None:
+    spec = make.specimen(db, make.loan(db))
+    powder = make.powder(db, spec, mg="2.150")
+    found = labels.read_scan(db, powder.lower().replace("-", ""))
+    assert (found.id, found.kind, found.status) == (powder, "powder", "available")
+    assert found.label[1] == "enamel · 2.150 mg"
+    assert [a.split()[0] for a in found.ancestors][-1] == spec
+
+
+def test_a_wrong_check_character_names_expected_and_typed(db: Database) -> None:
+    spec = make.specimen(db, make.loan(db))
+    right = spec[-1]
+    wrong = "0" if right != "0" else "1"
+    expected = mod_37_2.calc_check_digit(spec[:8].replace("-", ""))  # python-stdnum
+    with pytest.raises(InputError) as caught:
+        labels.read_scan(db, spec[:-1] + wrong)
+    reason = caught.value.reason
+    assert f"check character '{wrong}'" in reason and f"would end in '{expected}'" in reason

@@ -1,0 +1,270 @@
+"""Label commands: the print queue, printing and reprinting on a stock, previews, scanning.
+
+Rendering lives in ``tracker.output`` and is imported inside the commands, so
+``tracker --help`` does not load reportlab, qrcode or Pillow.
+"""
+
+from pathlib import Path
+from typing import Annotated, Any
+
+import typer
+from rich.table import Table
+from rich.text import Text
+
+from tracker.cli.render import done, plain_table
+from tracker.cli.state import cli_fields, database, emit, perform, state
+from tracker.services import labels
+
+Opt = typer.Option
+Arg = typer.Argument
+
+labels_app = typer.Typer(
+    epilog="Example: tracker labels print --stock a4-65 --out labels.pdf",
+    help="Labels: the print queue, printing on label stocks (PDF), previews (PNG).",
+    no_args_is_help=True,
+)
+
+Items = Annotated[list[str], Arg(help="IDs, typed or scanned.", show_default=False)]
+StockOpt = Annotated[str, Opt("--stock", help="Label stock; see `tracker labels stocks`.")]
+Start = Annotated[
+    int, Opt("--start", help="First free position on the first sheet (1 = top left, by rows).")
+]
+OutPdf = Annotated[Path | None, Opt("--out", help="PDF to write; default labels-<job>.pdf here.")]
+Printer = Annotated[
+    str | None, Opt("--printer", help="Also send the PDF to this print queue with `lp -d`.")
+]
+StocksFile = Annotated[
+    Path | None,
+    Opt("--stocks", envvar="TRACKER_LABEL_STOCKS", help="The lab's own stocks (TOML)."),
+]
+
+
+@labels_app.command("queue", epilog="Example: tracker labels queue PW-00001-5 SO-00002-K")
+def queue(
+    ctx: typer.Context,
+    items: Items,
+    copies: Annotated[int, Opt("--copies", help="Labels per item.")] = 1,
+) -> None:
+    """Queue labels by hand (drills, dissolutions, aliquots, check-ins queue their own)."""
+    answer = perform(ctx, labels.queue_labels, {"items": items, "copies": copies})
+    count = len(answer.item.items)
+    emit(ctx, answer, lambda: done(answer, f"{count} label(s) queued"))
+
+
+@labels_app.command(
+    "cancel", epilog="Example: tracker labels cancel SP-00003-8 --reason 'returned unopened'"
+)
+def cancel(
+    ctx: typer.Context,
+    items: Items,
+    reason: Annotated[str, Opt("--reason", help="Why these labels are not wanted.")],
+) -> None:
+    """Take items' queued labels off the queue."""
+    answer = perform(ctx, labels.cancel_labels, {"items": items, "reason": reason})
+    count = len(answer.item.items)
+    emit(ctx, answer, lambda: done(answer, f"{count} queued label(s) cancelled"))
+
+
+@labels_app.command("list", epilog="Example: tracker labels list --all --limit 50")
+def list_command(
+    ctx: typer.Context,
+    everything: Annotated[
+        bool, Opt("--all", help="Also printed and cancelled labels, newest first.")
+    ] = False,
+    limit: Annotated[int, Opt("--limit", min=1, help="At most this many.")] = 1000,
+) -> None:
+    """List the queued labels (what `tracker labels print` would print), in queue order."""
+    with database(ctx) as db:
+        rows = labels.list_labels(db, everything, limit)
+
+    def table() -> Table | Text:
+        if not rows:
+            return Text("No labels are queued." if not everything else "No labels yet.")
+        headers = ["item", "label text", "queued", "event"]
+        t = plain_table(*headers, *(["status", "job"] if everything else []))
+        for r in rows:
+            cells = [r.item, " / ".join(r.lines), f"{r.queued_at:%Y-%m-%d}", f"#{r.queued_event}"]
+            t.add_row(*cells, *([r.status, r.job or ""] if everything else []))
+        return t
+
+    emit(ctx, rows, table)
+
+
+@labels_app.command("print", epilog="Example: tracker labels print --stock a4-65 --start 14")
+def print_command(
+    ctx: typer.Context,
+    stock: StockOpt,
+    start: Start = 1,
+    out: OutPdf = None,
+    printer: Printer = None,
+    stocks: StocksFile = None,
+) -> None:
+    """Print every queued label to a vector PDF and record the job (one ledger event)."""
+    from tracker.output import jobs
+
+    with database(ctx) as db:
+        outcome = jobs.print_queue(
+            db, state(ctx).actor, stock=stock, start=start, out=out, printer=printer,
+            stocks_file=stocks,
+        )  # fmt: skip
+    emit(ctx, outcome, lambda: _job_text(outcome))
+
+
+@labels_app.command(
+    "reprint",
+    epilog="Example: tracker labels reprint PW-00001-5 --reason 'label smudged by acid' "
+    "--stock cryovial-wrap",
+)
+def reprint_command(
+    ctx: typer.Context,
+    items: Items,
+    reason: Annotated[str, Opt("--reason", help="Why a label is printed again.")],
+    stock: StockOpt,
+    start: Start = 1,
+    out: OutPdf = None,
+    printer: Printer = None,
+    stocks: StocksFile = None,
+) -> None:
+    """Print named items' labels again, with a reason (one ledger event); the queue stays."""
+    from tracker.output import jobs
+
+    with database(ctx) as db:
+        outcome = jobs.reprint(
+            db, state(ctx).actor, items=items, reason=reason, stock=stock, start=start, out=out,
+            printer=printer, stocks_file=stocks,
+        )  # fmt: skip
+    emit(ctx, outcome, lambda: _job_text(outcome))
+
+
+def _job_text(outcome: Any) -> Text:
+    job = outcome.job
+    text = Text.assemble(
+        ("recorded ", "green"),
+        (f"{job.kind} job {job.id}", "bold"),
+        f": {job.labels} label(s) on {job.stock}, {job.pages} page(s) → {outcome.out}"
+        f"  (ledger event #{outcome.event_seq})\nSHA-256 {job.sha256}",
+    )
+    if outcome.printer is not None:
+        style = "green" if outcome.printer.sent else "yellow"
+        text.append(f"\nprinter {outcome.printer.printer}: ")
+        text.append(outcome.printer.message, style=style)
+    return text
+
+
+@labels_app.command(
+    "preview", epilog="Example: tracker labels preview --stock a4-65 --out sheet.png"
+)
+def preview(
+    ctx: typer.Context,
+    stock: StockOpt,
+    out: Annotated[Path, Opt("--out", help="PNG to write.")],
+    items: Annotated[
+        list[str] | None, Arg(help="IDs to preview; default the queue.", show_default=False)
+    ] = None,
+    start: Start = 1,
+    page: Annotated[int, Opt("--page", help="Which sheet of the job.")] = 1,
+    dpi: Annotated[int, Opt("--dpi", help="Resolution of the PNG.")] = 300,
+    stocks: StocksFile = None,
+) -> None:
+    """Draw one sheet of labels as a PNG, with the label outlines; nothing is recorded."""
+    from tracker.output import jobs
+
+    with database(ctx) as db:
+        outcome = jobs.preview(
+            db, stock=stock, out=out, items=items or None, start=start, page=page, dpi=dpi,
+            stocks_file=stocks,
+        )  # fmt: skip
+    emit(
+        ctx,
+        outcome,
+        lambda: (
+            f"wrote {outcome.out}: page {outcome.page} of {outcome.pages}, "
+            f"{len(outcome.items)} label(s) on {outcome.stock} (preview only, nothing recorded)"
+        ),
+    )
+
+
+@labels_app.command("stocks", epilog="Example: tracker labels stocks --stocks lab-stocks.toml")
+def stocks_command(ctx: typer.Context, stocks: StocksFile = None) -> None:
+    """List the label stocks: presets and the lab's own, each checked."""
+    from tracker.domain.errors import InputError
+    from tracker.output.stocks import entries, validate
+
+    with cli_fields(ctx):
+        rows: list[dict[str, Any]] = []
+        for name, entry in sorted(entries(stocks).items()):
+            try:
+                stock = validate(entry)
+            except InputError as problem:
+                rows.append({"name": name, "source": entry.source, "ok": False,
+                             "problem": problem.reason})  # fmt: skip
+                continue
+            rows.append({
+                "name": name, "source": entry.source, "ok": True, "problem": None,
+                "label_mm": [stock.label_width_mm, stock.label_height_mm],
+                "grid": [stock.columns, stock.rows],
+                "page_mm": [stock.page_width_mm, stock.page_height_mm],
+                "description": stock.description,
+            })  # fmt: skip
+
+    def table() -> Table:
+        t = plain_table("stock", "label", "per page", "page", "for")
+        for r in rows:
+            origin = "" if r["source"] == "preset" else f" (from {r['source']})"
+            if not r["ok"]:
+                t.add_row(r["name"], "", "", "", f"NOT USABLE: {r['problem']}")
+                continue
+            t.add_row(
+                r["name"], "{:g} × {:g} mm".format(*r["label_mm"]), "{} × {}".format(*r["grid"]),
+                "{:g} × {:g} mm".format(*r["page_mm"]), r["description"] + origin,
+            )  # fmt: skip
+        return t
+
+    emit(ctx, rows, table)
+
+
+@labels_app.command(
+    "uri-prefix", epilog="Example: tracker labels uri-prefix HTTPS://LAB.EXAMPLE/T/"
+)
+def uri_prefix_command(
+    ctx: typer.Context,
+    uri_prefix: Annotated[
+        str | None, Arg(help="Put in front of every ID in the QR codes.", show_default=False)
+    ] = None,
+    clear: Annotated[bool, Opt("--clear", help="QR codes carry the bare ID again.")] = False,
+) -> None:
+    """Show or set (managers) the link prefix printed in front of IDs in QR codes."""
+    if uri_prefix is None and not clear:
+        with database(ctx) as db:
+            settings = labels.label_settings(db)
+        shown = settings.uri_prefix or "none: QR codes carry the bare ID"
+        emit(ctx, settings, lambda: f"label URI prefix: {shown}")
+        return
+    answer = perform(ctx, labels.set_uri_prefix, {"uri_prefix": None if clear else uri_prefix})
+    value = answer.item.uri_prefix or "none"
+    emit(ctx, answer, lambda: done(answer, f"label URI prefix: {value}"))
+
+
+def lookup(
+    ctx: typer.Context,
+    scanned: Annotated[str, Arg(help="What the scanner typed: an ID or the lab's link.")],
+) -> None:
+    """Say what a scanned label (or a typed ID) names: the item, its label, where it is."""
+    with database(ctx) as db:
+        found = labels.read_scan(db, scanned)
+
+    def human() -> Text:
+        text = Text.assemble((found.id, "bold"), f"  {found.kind}  {found.what}")
+        if found.status:
+            text.append(f"  [{found.status}]")
+        if found.label:
+            text.append("\nlabel: " + " / ".join(found.label))
+        text.append(f"\nlocation: {found.location or 'not recorded'}")
+        for ancestor in found.ancestors:
+            text.append(f"\nfrom: {ancestor}")
+        return text
+
+    emit(ctx, found, human)
+
+
+LOOKUP_EPILOG = "Example: tracker lookup HTTPS://LAB.EXAMPLE/T/PW-00001-5"

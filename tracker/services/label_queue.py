@@ -1,0 +1,47 @@
+"""Queueing a label inside another action's unit of work.
+
+Bench actions that make a new container (drill, dissolve, aliquot, check-in, a
+column position) call :func:`queue_label`, so the label row names the very
+custody event that made the need for it and no second event is written. This
+module imports nothing but models and the unit of work, so every service may
+use it.
+"""
+
+from __future__ import annotations
+
+from sqlalchemy import select
+from sqlalchemy.orm import Session
+
+from tracker.domain.base import HasPublicId
+from tracker.domain.models import CustodyEvent, Label, LabelStatus
+from tracker.services.uow import UnitOfWork
+
+
+def queue_label(
+    uow: UnitOfWork,
+    item: HasPublicId,
+    copies: int = 1,
+    status: LabelStatus = LabelStatus.QUEUED,
+    job_id: int | None = None,
+) -> str:
+    """Add ``copies`` labels of ``item`` as part of this unit's one custody event.
+
+    The rows are written when the event exists (they name it), in the same
+    transaction. The returned status goes into the event's payload, so the
+    ledger itself says that a label was queued (or, for a reprint, printed).
+    """
+
+    def add(event: CustodyEvent) -> None:
+        for _ in range(copies):
+            label = Label(item_ref=item.public_id, status=status, queued_event_seq=event.seq)
+            label.queued_by, label.queued_at, label.job_id = uow.operator.code, uow.now, job_id
+            uow.session.add(label)
+
+    uow.after_record.append(add)
+    return status.value
+
+
+def queued_labels(session: Session, item: str) -> list[Label]:
+    """The labels of one item (its public ID) still waiting in the queue."""
+    query = select(Label).where(Label.item_ref == item, Label.status == LabelStatus.QUEUED)
+    return list(session.scalars(query))
