@@ -84,7 +84,7 @@ def batch_blank_delta(
     emit(ctx, answer, lambda: done(answer, f"blank δ{ratio} = {delta:+.3f} ‰ for {batch}"))
 
 
-def _definition(path: Path) -> dict[str, Any]:
+def definition_file(path: Path) -> dict[str, Any]:
     text = path.read_text(encoding="utf-8")
     try:
         loaded: dict[str, Any] = tomllib.loads(text) if path.suffix == ".toml" else json.loads(text)
@@ -102,7 +102,9 @@ def profile_save(
     file: Annotated[Path, typer.Argument(help="TOML or JSON file (see schemas/profile).")],
 ) -> None:
     """Save a column mapping profile (replaces one of the same name)."""
-    answer = perform(ctx, instrument.save_profile, {"name": name, "definition": _definition(file)})
+    answer = perform(
+        ctx, instrument.save_profile, {"name": name, "definition": definition_file(file)}
+    )
     emit(ctx, answer, lambda: done(answer, f"profile {name}"))
 
 

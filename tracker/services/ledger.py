@@ -4,8 +4,9 @@ from __future__ import annotations
 
 import json
 from collections.abc import Iterator
-from typing import TextIO
+from typing import Annotated, TextIO
 
+from pydantic import BaseModel, Field
 from sqlalchemy import select
 
 from tracker.db.database import Database
@@ -49,6 +50,20 @@ def recent_events(db: Database, limit: int = 50, action: str | None = None) -> l
         if action:
             query = query.where(CustodyEvent.action.startswith(action))
         return [EventView.of(e) for e in session.scalars(query)]
+
+
+class LedgerLine(BaseModel):
+    """One line of an exported ledger (format tracker-ledger/1): every field as hashed."""
+
+    seq: Annotated[int, Field(ge=1)]
+    at: Annotated[str, Field(pattern=r"^\d{4}-\d{2}-\d{2}T\d{2}:\d{2}:\d{2}\.\d{6}Z$")]
+    operator: str
+    action: str
+    object: str
+    parent: str
+    prev_hash: Annotated[str, Field(pattern="^[0-9a-f]{64}$")]
+    payload: str  # canonical JSON, exactly the bytes that were hashed
+    hash: Annotated[str, Field(pattern="^[0-9a-f]{64}$")]
 
 
 def export_jsonl(db: Database, out: TextIO) -> int:

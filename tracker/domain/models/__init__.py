@@ -25,7 +25,7 @@ from tracker.domain.models.instrument import (
     SrCurve,
 )
 from tracker.domain.models.labels import Label, LabelJob, LabelSetting
-from tracker.domain.models.ledger import CustodyEvent
+from tracker.domain.models.ledger import CustodyEvent, EventRef
 from tracker.domain.models.loans import (
     Document,
     Loan,
@@ -34,7 +34,14 @@ from tracker.domain.models.loans import (
     Shipment,
     UserMaterial,
 )
-from tracker.domain.models.material import Aliquot, Concentration, Powder, Solution, Specimen
+from tracker.domain.models.material import (
+    Aliquot,
+    Concentration,
+    Powder,
+    Solution,
+    Specimen,
+    SpecimenPhoto,
+)
 from tracker.domain.models.people import Lender, Location, Operator
 
 __all__ = [
@@ -48,6 +55,7 @@ __all__ = [
     "Cut",
     "Disposition",
     "Document",
+    "EventRef",
     "InstrumentSession",
     "Label",
     "LabelJob",
@@ -75,6 +83,7 @@ __all__ = [
     "ShipmentDirection",
     "Solution",
     "Specimen",
+    "SpecimenPhoto",
     "SpecimenStatus",
     "SrCurve",
     "TermsKind",

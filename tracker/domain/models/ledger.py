@@ -28,3 +28,17 @@ class CustodyEvent(Base):
     payload: Mapped[str] = mapped_column(Text)  # canonical JSON, exactly as hashed
     prev_hash: Mapped[str] = mapped_column(String(64))
     hash: Mapped[str] = mapped_column(String(64), unique=True)
+
+
+class EventRef(Base):
+    """Every further item an event concerns, beyond its object and parent (derived index).
+
+    A manifest import or a print job concerns many items; this table lets an item's
+    history find such events without scanning payloads. It is not hashed: it can be
+    rebuilt from the payloads at any time.
+    """
+
+    __tablename__ = "event_ref"
+
+    seq: Mapped[int] = mapped_column(ForeignKey("custody_event.seq"), primary_key=True)
+    ref: Mapped[str] = mapped_column(String(40), primary_key=True, index=True)
