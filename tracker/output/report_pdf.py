@@ -218,10 +218,22 @@ def _totals(report: ReturnReport, styles: dict[str, ParagraphStyle]) -> list[Flo
         ["Mass removed (all specimens)", f"{drilled} of {_mg_limit(t.max_total_mass_mg)}"],
         ["Powder dissolved", f"{t.dissolved_mg:.3f} mg"],
         ["Powder returned", f"{t.powder_returned_mg:.3f} mg"],
+        *[[f"Powder {label}", f"{_left(report, status):.3f} mg"] for status, label in _FATES],
         ["Powder still held by the borrower", f"{t.powder_on_hand_mg:.3f} mg"],
         ["Flags", ", ".join(report.flags) or "none"],
     ]  # fmt: skip
     return [Paragraph("Totals", styles["h2"]), _table(rows, [0.38, 0.62], styles, header=False)]
+
+
+_FATES = (
+    ("destroyed", "destroyed"),
+    ("retained", "retained (with permission)"),
+    ("consumed", "used up (vial empty)"),
+)
+
+
+def _left(report: ReturnReport, status: str) -> float:
+    return sum(p.left_mg for s in report.specimens for p in s.powders if p.status == status)
 
 
 def _specimen(
@@ -335,12 +347,12 @@ def _thumbnails(
         cells.append([image, caption])
     if not cells:
         return []
-    return [
-        Table(
-            [[c for pair in cells[i : i + 3] for c in pair] for i in range(0, len(cells), 3)],
-            colWidths=[THUMB + 2 * mm, WIDTH / 3 - THUMB - 2 * mm] * min(3, len(cells)),
-        )
+    per_row = 2  # a thumbnail and a readable caption in each half of the page
+    rows = [
+        [c for pair in cells[i : i + per_row] for c in pair] for i in range(0, len(cells), per_row)
     ]
+    widths = [THUMB + 2 * mm, WIDTH / per_row - THUMB - 2 * mm] * min(per_row, len(cells))
+    return [Table(rows, colWidths=widths, hAlign="LEFT")]
 
 
 def _timeline(report: ReturnReport, styles: dict[str, ParagraphStyle]) -> list[Flowable]:

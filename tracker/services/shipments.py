@@ -62,7 +62,7 @@ def add_shipment(db: Database, actor: str | None, data: NewShipment | Raw) -> Do
         if request.direction is ShipmentDirection.OUTGOING and loan.status is not LoanStatus.OPEN:
             raise RuleViolation("loan", loan.reference, f"is already {loan.status.value}")
         row = Shipment(
-            loan=loan,
+            loan_id=loan.id,
             direction=request.direction,
             shipped_on=request.shipped_on,
             carrier=request.carrier,
