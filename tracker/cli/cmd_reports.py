@@ -233,6 +233,18 @@ def _export(columns: list[str], rows: list[dict[str, Any]], out: Path, sheet: st
     return _write(out, data)
 
 
+def _export_rows(ctx: typer.Context, reader: Any, loan: str, out: Path, noun: str) -> None:
+    """Read rows through one export service and write them as CSV or XLSX."""
+    with database(ctx) as db:
+        columns, rows = reader(db, loan)
+    digest = _export(columns, rows, out, noun)
+    emit(
+        ctx,
+        {"out": str(out), "rows": len(rows), "sha256": digest},
+        lambda: f"wrote {len(rows)} {noun} to {out}",
+    )
+
+
 @export_app.command(
     "specimens", epilog="Example: tracker export specimens --loan KF-2026-014 --out specimens.csv"
 )
@@ -242,14 +254,7 @@ def export_specimens(
     out: Annotated[Path, Opt("--out", help="CSV or XLSX file.")],
 ) -> None:
     """Specimens with Darwin Core headings."""
-    with database(ctx) as db:
-        columns, rows = exports.specimen_rows(db, loan)
-    digest = _export(columns, rows, out, "specimens")
-    emit(
-        ctx,
-        {"out": str(out), "rows": len(rows), "sha256": digest},
-        lambda: f"wrote {len(rows)} specimens to {out}",
-    )
+    _export_rows(ctx, exports.specimen_rows, loan, out, "specimens")
 
 
 @export_app.command(
@@ -262,14 +267,7 @@ def export_measurements(
     out: Annotated[Path, Opt("--out", help="CSV or XLSX file.")],
 ) -> None:
     """Drilled masses and results as Darwin Core measurement rows."""
-    with database(ctx) as db:
-        columns, rows = exports.measurement_rows(db, loan)
-    digest = _export(columns, rows, out, "measurements")
-    emit(
-        ctx,
-        {"out": str(out), "rows": len(rows), "sha256": digest},
-        lambda: f"wrote {len(rows)} measurements to {out}",
-    )
+    _export_rows(ctx, exports.measurement_rows, loan, out, "measurements")
 
 
 @export_app.command("loan", epilog="Example: tracker export loan KF-2026-014 --out loan.json")
