@@ -1,5 +1,6 @@
 """Return reports, manifests in, exports out, shipments and condition photos."""
 
+import hashlib
 import json
 import mimetypes
 from datetime import datetime
@@ -41,14 +42,18 @@ shipment_app = typer.Typer(
 
 def _write(path: Path, data: bytes) -> str:
     """Write a file atomically (beside it, then renamed) and return its SHA-256."""
-    import hashlib
+    staged = _stage(path, data)
+    staged.replace(path)
+    return hashlib.sha256(data).hexdigest()
 
+
+def _stage(path: Path, data: bytes) -> Path:
+    """Write ``data`` to a hidden file beside ``path``; the caller renames or removes it."""
     if not path.parent.exists():
         raise InputError("--out", str(path), "its folder does not exist")
-    partial = path.with_name(f".{path.name}.partial")
-    partial.write_bytes(data)
-    partial.replace(path)
-    return hashlib.sha256(data).hexdigest()
+    staged = path.with_name(f".{path.name}.partial")
+    staged.write_bytes(data)
+    return staged
 
 
 def _render(report: reports.ReturnReport, photos: dict[str, bytes], fmt: str) -> bytes:
@@ -84,42 +89,44 @@ def report_return(
         report, photos = reports.attach_photos(db, reports.build_return_report(db, loan))
     slug = "".join(c if c.isalnum() or c in "-_" else "-" for c in report.loan["reference"])
     target = out or Path(f"{slug}-return-report.{fmt}")
-    digest = _write(target, _render(report, photos, fmt))
-    extra = [*_attachments(target, photos), _anchor(target, report)]
-    record = perform(ctx, reports.record_report, {
-        "loan": loan, "files": {fmt: digest}, "head_seq": report.ledger.seq,
-        "head_hash": report.ledger.hash})  # fmt: skip
-    emit(ctx, record, lambda: done(record, f"{target} (sha256 {digest[:16]}…)"))
-    for path in extra:
-        errors.print(f"wrote {path}", markup=False, soft_wrap=True)
-
-
-def _attachments(target: Path, photos: dict[str, bytes]) -> list[Path]:
-    """Photos the report shows, kept beside it by SHA-256 (the lender can check each)."""
-    if not photos:
-        return []
+    data = _render(report, photos, fmt)
+    files = {target: data, target.with_name(f"{target.name}.anchor.json"): _anchor(report)}
     folder = target.with_name(f"{target.stem}-attachments")
-    folder.mkdir(exist_ok=True)
-    for digest, data in photos.items():
-        (folder / digest).write_bytes(data)
-    return [folder]
-
-
-def _anchor(target: Path, report: Any) -> Path:
-    """The ledger head the report shows, for `tracker ledger verify --anchor` later."""
-    path = target.with_name(f"{target.stem}.anchor.json")
-    path.write_text(
-        json.dumps(
-            {
-                "seq": report.ledger.seq,
-                "hash": report.ledger.hash,
-                "loan": report.loan["reference"],
-                "generated_at": report.generated_at.isoformat(),
-            },
-            indent=2,
-        )
+    files |= {folder / digest: photo for digest, photo in photos.items()}
+    made = bool(photos) and not folder.exists()
+    if photos:
+        folder.mkdir(exist_ok=True)
+    staged = {path: _stage(path, content) for path, content in files.items()}
+    try:  # the event is recorded first: a refused record leaves no file behind
+        record = perform(ctx, reports.record_report, {
+            "loan": loan, "files": {fmt: hashlib.sha256(data).hexdigest()},
+            "head_seq": report.ledger.seq, "head_hash": report.ledger.hash})  # fmt: skip
+    except BaseException:
+        for path in staged.values():
+            path.unlink(missing_ok=True)
+        if made:
+            folder.rmdir()
+        raise
+    for path, partial in staged.items():
+        partial.replace(path)
+    emit(ctx, record, lambda: done(record, f"{target} (sha256 {record.item.files[fmt][:16]}…)"))
+    errors.print(
+        f"wrote {len(files) - 1} companion file(s): the ledger anchor"
+        + (f" and {len(photos)} photo(s) in {folder}" if photos else ""),
+        markup=False,
+        soft_wrap=True,
     )
-    return path
+
+
+def _anchor(report: reports.ReturnReport) -> bytes:
+    """The ledger head the report shows, for `tracker ledger verify --anchor` later."""
+    anchor = {
+        "seq": report.ledger.seq,
+        "hash": report.ledger.hash,
+        "loan": report.loan["reference"],
+        "generated_at": report.generated_at.isoformat(),
+    }
+    return (json.dumps(anchor, indent=2) + "\n").encode()
 
 
 def _manifest_request(loan: str, file: Path, mapping: str | None) -> dict[str, Any]:

@@ -68,23 +68,6 @@ def read_table(
     return header, rows
 
 
-def decode_text(content: bytes) -> str:
-    """UTF-8 (with or without BOM) or UTF-16 with a BOM; anything else is refused by name."""
-    if content[:2] in (b"\xff\xfe", b"\xfe\xff"):
-        try:
-            return content.decode("utf-16")
-        except UnicodeDecodeError:
-            raise TableError(1, "file", "has a UTF-16 mark but is not UTF-16 text") from None
-    if b"\x00" in content[:4096]:
-        raise TableError(1, "file", "contains NUL bytes; it is not a text table")
-    try:
-        return content.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        raise TableError(
-            1, "file", f"is not UTF-8 text (byte {exc.start} cannot be read); save it as UTF-8 CSV"
-        ) from None
-
-
 def _xlsx_lines(content: bytes, sheet: str | None) -> list[tuple[int, list[str]]]:
     from openpyxl import load_workbook  # imported lazily: only XLSX imports need it
 

@@ -19,6 +19,7 @@ from reportlab.lib.styles import ParagraphStyle
 from reportlab.lib.units import mm
 from reportlab.lib.utils import ImageReader
 from reportlab.pdfbase import pdfmetrics
+from reportlab.pdfbase.pdfmetrics import registerFontFamily
 from reportlab.pdfbase.ttfonts import TTFont
 from reportlab.pdfgen import canvas as pdfcanvas
 from reportlab.platypus import (
@@ -32,7 +33,6 @@ from reportlab.platypus import (
     TableStyle,
 )
 
-from tracker.domain.units import format_value_u
 from tracker.services.reports import PowderLine, ReturnReport, SpecimenEntry
 
 FACE, BOLD = "TrackerReport", "TrackerReport-Bold"
@@ -48,6 +48,7 @@ def _fonts() -> None:
     folder = Path(matplotlib.get_data_path()) / "fonts" / "ttf"
     pdfmetrics.registerFont(TTFont(FACE, str(folder / "DejaVuSans.ttf")))
     pdfmetrics.registerFont(TTFont(BOLD, str(folder / "DejaVuSans-Bold.ttf")))
+    registerFontFamily(FACE, normal=FACE, bold=BOLD, italic=FACE, boldItalic=BOLD)
 
 
 def _styles() -> dict[str, ParagraphStyle]:
@@ -212,7 +213,7 @@ def _mg_limit(value: float | None) -> str:
 
 def _totals(report: ReturnReport, styles: dict[str, ParagraphStyle]) -> list[Flowable]:
     t = report.totals
-    drilled = format_value_u(t.drilled_mg, t.drilled_u_mg, "mg")
+    drilled = _mass(t.drilled_mg, t.drilled_u_mg)
     rows = [
         ["Specimens listed / sampled", f"{t.specimens} / {t.sampled}"],
         ["Mass removed (all specimens)", f"{drilled} of {_mg_limit(t.max_total_mass_mg)}"],
@@ -244,10 +245,12 @@ def _specimen(
         f"({_esc(entry.skeletal_element)}) · {entry.id}",
         styles["h3"],
     )
-    removed = format_value_u(entry.drilled_mg, entry.drilled_u_mg, "mg")
+    removed = f"{_mass(entry.drilled_mg, entry.drilled_u_mg)} / {_mg_limit(entry.permitted_mg)}"
+    if "over limit" in entry.flags:
+        removed += " — OVER the permitted mass (see overrides below)"
     rows: list[list[Any]] = [
         ["Sampled", "yes" if entry.sampled else "no"],
-        ["Mass removed / permitted", f"{removed} / {_mg_limit(entry.permitted_mg)}"],
+        ["Mass removed / permitted", removed],
         ["Condition at receipt", entry.condition_in],
         ["Condition at return", entry.condition_out],
         ["Returned", _returned(entry)],
@@ -259,8 +262,14 @@ def _specimen(
         powder_rows: list[list[Any]] = [header, *(_powder_row(p) for p in entry.powders)]
         widths = [0.13, 0.17, 0.13, 0.16, 0.11, 0.1, 0.2]
         flow += [Spacer(1, 2 * mm), _table(powder_rows, widths, styles)]
+    flow += [
+        Paragraph(f"<b>Override</b> on {p.id}: {_esc(p.override_reason)}", styles["small"])
+        for p in entry.powders
+        if p.override_reason
+    ]
     if entry.solutions:
         flow += [
+            Spacer(1, 1.5 * mm),
             Paragraph(
                 "Residual solutions: "
                 + "; ".join(
@@ -268,7 +277,7 @@ def _specimen(
                     for x in entry.solutions
                 ),
                 styles["small"],
-            )
+            ),
         ]
     if entry.results:
         result_rows: list[list[Any]] = [["Ratio", "Value", "2SD", "n", "Scale", "Session", "Flags"]]
@@ -299,12 +308,17 @@ def _returned(entry: SpecimenEntry) -> str:
     return f"{entry.returned_at:%Y-%m-%d}{parcel}"
 
 
+def _mass(value: float, u: float) -> str:
+    """A weighed mass as a person reads it: the balance's digits, then its uncertainty."""
+    return f"{value:.3f} mg (u = {u:.1g} mg)"
+
+
 def _powder_row(p: PowderLine) -> list[Any]:
     return [
         p.id,
         p.site,
         p.drilled_at.date(),
-        format_value_u(p.mass_mg, p.mass_u_mg, "mg"),
+        _mass(p.mass_mg, p.mass_u_mg),
         f"{p.dissolved_mg:.3f} mg",
         f"{p.left_mg:.3f} mg",
         _fate(p.status, p.shipment, p.permission, p.override_reason),
@@ -314,7 +328,7 @@ def _powder_row(p: PowderLine) -> list[Any]:
 def _fate(status: str, shipment: str | None, permission: str | None, override: str | None) -> str:
     text = status + (f" in {shipment}" if shipment else "")
     text += f"; permission: {permission}" if permission else ""
-    return text + (f"; OVERRIDE: {override}" if override else "")
+    return text + ("; drilled under an override" if override else "")
 
 
 def _value(kind: str, value: float | None) -> str:
@@ -337,8 +351,17 @@ def _thumbnails(
         data = photos.get(photo.sha256)
         if data is None:
             continue
-        reader = ImageReader(io.BytesIO(data))
-        width, height = reader.getSize()
+        try:
+            reader = ImageReader(io.BytesIO(data))
+            width, height = reader.getSize()
+        except Exception:  # a stored file that no longer reads as an image: say so, go on
+            cells.append(
+                [
+                    Paragraph("(image could not be read)", styles["small"]),
+                    Paragraph(photo.sha256[:16], styles["small"]),
+                ]
+            )
+            continue
         scale = THUMB / max(width, height)
         image = Image(io.BytesIO(data), width=width * scale, height=height * scale)
         caption = Paragraph(
@@ -352,7 +375,10 @@ def _thumbnails(
         [c for pair in cells[i : i + per_row] for c in pair] for i in range(0, len(cells), per_row)
     ]
     widths = [THUMB + 2 * mm, WIDTH / per_row - THUMB - 2 * mm] * min(per_row, len(cells))
-    return [Table(rows, colWidths=widths, hAlign="LEFT")]
+    heading = Paragraph(f"Photographs of {_esc(entry.catalog_number)}", styles["small"])
+    return [
+        KeepTogether([Spacer(1, 1.5 * mm), heading, Table(rows, colWidths=widths, hAlign="LEFT")])
+    ]
 
 
 def _timeline(report: ReturnReport, styles: dict[str, ParagraphStyle]) -> list[Flowable]:

@@ -4,12 +4,13 @@ from __future__ import annotations
 
 from typing import Any
 
+from tracker.domain.timeutil import iso_utc
 from tracker.services.reports import ReturnReport, SpecimenEntry
 
 COLUMNS = [
     "loanReference", "lender", "institutionCode", "catalogNumber", "trackerId",
     "scientificName", "element", "sampled", "massRemovedMg", "massRemovedUncertaintyMg",
-    "permittedMg", "powderReturnedMg", "powderDestroyedMg", "powderRetainedMg",
+    "permittedMg", "powderDissolvedMg", "powderReturnedMg", "powderDestroyedMg", "powderRetainedMg",
     "powderConsumedMg", "powderStillHeldMg", "residualSolutions", "conditionAtReceipt",
     "conditionAtReturn", "returnedAt", "returnShipment", "results", "overrides", "flags",
     "ledgerHeadSeq", "ledgerHeadHash",
@@ -30,6 +31,7 @@ def rows(report: ReturnReport) -> list[dict[str, Any]]:
             "element": s.skeletal_element, "sampled": s.sampled,
             "massRemovedMg": round(s.drilled_mg, 6),
             "massRemovedUncertaintyMg": round(s.drilled_u_mg, 6), "permittedMg": s.permitted_mg,
+            "powderDissolvedMg": round(sum(p.dissolved_mg for p in s.powders), 6),
             "powderReturnedMg": _fate_mass(s, "returned"),
             "powderDestroyedMg": _fate_mass(s, "destroyed"),
             "powderRetainedMg": _fate_mass(s, "retained"),
@@ -37,7 +39,7 @@ def rows(report: ReturnReport) -> list[dict[str, Any]]:
             "powderStillHeldMg": _fate_mass(s, "available"),
             "residualSolutions": "; ".join(f"{x.id} {x.status}" for x in s.solutions),
             "conditionAtReceipt": s.condition_in, "conditionAtReturn": s.condition_out,
-            "returnedAt": s.returned_at.isoformat() if s.returned_at else None,
+            "returnedAt": iso_utc(s.returned_at) if s.returned_at else None,
             "returnShipment": s.return_shipment,
             "results": "; ".join(
                 f"{r.ratio} {r.value:.6g} ±{r.two_sd or 0:.3g} (2SD, n={r.n}, {r.scale})"

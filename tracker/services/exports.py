@@ -15,6 +15,7 @@ from sqlalchemy import select
 from sqlalchemy.orm import selectinload
 
 from tracker.db.database import Database
+from tracker.domain.darwincore import is_term
 from tracker.domain.models import Loan, Powder, Specimen, SpecimenStatus
 from tracker.services.lookup import get_loan
 from tracker.services.results import results
@@ -38,7 +39,7 @@ _DISPOSITION = {
 
 def _specimens(db: Database, loan: str) -> list[Specimen]:
     with db.read_session() as session:
-        row = get_loan(session, "--loan", loan)
+        row = get_loan(session, "loan", loan)
         query = (
             select(Specimen)
             .where(Specimen.loan_id == row.id)
@@ -53,7 +54,9 @@ def _specimens(db: Database, loan: str) -> list[Specimen]:
 def specimen_rows(db: Database, loan: str) -> tuple[list[str], list[dict[str, Any]]]:
     """(columns, rows): the lender's terms for each specimen, plus what tracker adds."""
     specimens = _specimens(db, loan)
-    extra_terms = sorted({k for s in specimens for k in s.extra} - set(SPECIMEN_TERMS))
+    extra_terms = sorted(
+        {k for s in specimens for k in s.extra if is_term(k)} - set(SPECIMEN_TERMS)
+    )
     rows = []
     for s in specimens:
         row: dict[str, Any] = {
@@ -66,6 +69,7 @@ def specimen_rows(db: Database, loan: str) -> tuple[list[str], list[dict[str, An
                 "trackerId": s.public_id, "sampled": bool(s.powders),
                 "drilledMg": round(sum(p.mass_mg for p in s.powders), 6),
                 "ageMinMa": s.age_min_ma, "ageMaxMa": s.age_max_ma,
+                **{k: v for k, v in s.extra.items() if not is_term(k)},
             }, sort_keys=True),
         }  # fmt: skip
         row.update({term: s.extra.get(term) for term in extra_terms})
@@ -103,7 +107,8 @@ def measurement_rows(db: Database, loan: str) -> tuple[list[str], list[dict[str,
             "measurementValue": round(r.value, 6 if delta else 8),
             "measurementAccuracy": None if r.two_sd is None else f"{r.two_sd:.3g} (2SD, n={r.n})",
             "measurementUnit": "permil" if delta else "ratio",
-            "measurementDeterminedDate": None, "measurementDeterminedBy": None,
+            "measurementDeterminedDate": r.determined_on.isoformat(),
+            "measurementDeterminedBy": r.determined_by,
             "measurementMethod": f"MC-ICP-MS session {r.session}, standard-sample bracketing",
             "measurementRemarks": "; ".join(r.flags) or None,
         })  # fmt: skip
@@ -120,7 +125,7 @@ def loan_document(db: Database, loan: str) -> dict[str, Any]:
         ids = [
             s.public_id
             for s in session.scalars(
-                select(Specimen).join(Loan).where(Loan.id == get_loan(session, "--loan", loan).id)
+                select(Specimen).join(Loan).where(Loan.id == get_loan(session, "loan", loan).id)
             )
         ]
     lineage = [show_item(db, i).item.model_dump(mode="json") for i in ids]

@@ -258,15 +258,9 @@ def _preview(session: Session, request: ManifestRequest) -> ManifestPreview:
         s.catalog_number: s
         for s in session.scalars(select(Specimen).where(Specimen.loan_id == loan.id))
     }
-    file_problem = (
-        []
-        if REQUIRED in header
-        else [f"no {REQUIRED} column (Darwin Core term); headings are: {', '.join(header)}"]
-    )
+    file_problem = _header_problems(header)
     seen: dict[str, int] = {}
-    results = []
-    for row in rows:
-        results.append(_check(row, seen, existing, file_problem))
+    results = [_check(row, seen, existing, file_problem) for row in rows]
     extra = sorted(h for h in header if h not in TERM_FIELDS and h not in OWN_FIELDS)
     problems = sum(len(r.problems) for r in results) + (len(file_problem) if not rows else 0)
     tally = Counter(r.action for r in results)
@@ -278,6 +272,18 @@ def _preview(session: Session, request: ManifestRequest) -> ManifestPreview:
     )  # fmt: skip
 
 
+def _header_problems(header: list[str]) -> list[str]:
+    """Problems with the file as a whole, repeated on every row so no row looks clean."""
+    found = [
+        f"heading {h[:30]!r} looks like a spreadsheet formula"
+        for h in header
+        if looks_like_formula(h)
+    ]
+    if REQUIRED not in header:
+        found.append(f"no {REQUIRED} column (Darwin Core term); headings are: {', '.join(header)}")
+    return found
+
+
 def _check(
     row: Row, seen: dict[str, int], existing: dict[str, Specimen], file_problem: list[str]
 ) -> RowResult:
@@ -285,11 +291,11 @@ def _check(
     catalog = row.cells.get(REQUIRED, "").strip()
     for term, value in row.cells.items():
         problems += _cell_problems(term, value)
-    if not catalog and not file_problem:
+    if REQUIRED in row.cells and not catalog:
         problems.append(f"{REQUIRED} is empty")
-    elif catalog in seen:
+    elif catalog and catalog in seen:
         problems.append(f"{REQUIRED} {catalog!r} repeats row {seen[catalog]}")
-    else:
+    elif catalog:
         seen[catalog] = row.number
     fields: dict[str, Any] = {}
     if not problems:
@@ -302,11 +308,24 @@ def _check(
     current = existing.get(catalog)
     if current is None:
         return RowResult(row=row.number, catalog_number=catalog, action="create", problems=[])
-    changes = {k: [getattr(current, k), v] for k, v in fields.items() if getattr(current, k) != v}
+    changes = _changes(current, fields)
     action = "update" if changes else "unchanged"
     return RowResult(
         row=row.number, catalog_number=catalog, action=action, problems=[], changes=changes
     )
+
+
+def _changes(current: Specimen, fields: dict[str, Any]) -> dict[str, list[Any]]:
+    """Only what the file says differently: columns it lacks leave the specimen alone."""
+    changes = {
+        k: [getattr(current, k), v]
+        for k, v in fields.items()
+        if k != "extra" and getattr(current, k) != v
+    }
+    for term, value in fields.get("extra", {}).items():
+        if current.extra.get(term) != value:
+            changes[f"extra.{term}"] = [current.extra.get(term), value]
+    return changes
 
 
 def _cell_problems(term: str, value: str) -> list[str]:
@@ -327,25 +346,30 @@ def _cell_problems(term: str, value: str) -> list[str]:
 
 
 def _fields(row: Row) -> tuple[dict[str, Any], list[str]]:
-    """Specimen columns for a row, validated by the same model as `specimen add`."""
-    data: dict[str, Any] = {"loan": "-", "extra": {}}
+    """The specimen columns this row's file has, validated like `specimen add`.
+
+    Columns the file does not have are left out (an update never blanks them); other
+    headings become extra terms, kept with the specimen.
+    """
+    present: dict[str, Any] = {"extra": {}}
     for term, value in row.cells.items():
         value = value.strip()
         if term in TERM_FIELDS:
-            data[TERM_FIELDS[term]] = value or None
+            present[TERM_FIELDS[term]] = value or None
         elif term in OWN_FIELDS:
-            data[OWN_FIELDS[term]] = float(value) if value else None
+            present[OWN_FIELDS[term]] = float(value) if value else None
         elif value:
-            data["extra"][term] = value
+            present["extra"][term] = value
     try:
-        specimen = NewSpecimen.model_validate(data)
+        specimen = NewSpecimen.model_validate({"loan": "-", **present})
     except ValidationError as exc:
         first = exc.errors(include_url=False)[0]
         blamed = first.get("ctx", {}).get("error")
         reason = getattr(blamed, "reason", None) or first["msg"]
         where = getattr(blamed, "field", None) or ".".join(str(p) for p in first["loc"])
         return {}, [f"{where}: {reason}"]
-    return specimen.model_dump(exclude={"loan"}), []
+    checked = specimen.model_dump(exclude={"loan"})
+    return {key: checked[key] for key in present}, []
 
 
 def _write(
@@ -367,8 +391,13 @@ def _write(
             )
         elif result.action == "update":
             specimen = existing[result.catalog_number or ""]
+            extra = dict(specimen.extra)
             for name, (_, value) in result.changes.items():
-                setattr(specimen, name, value)
+                if name.startswith("extra."):
+                    extra[name.removeprefix("extra.")] = value
+                else:
+                    setattr(specimen, name, value)
+            specimen.extra = extra
             updated.append(specimen.public_id)
     if not new:
         return [], updated

@@ -288,7 +288,10 @@ def _shipments(session: Session, loan_id: int) -> list[dict[str, Any]]:
 def _timeline(session: Session, loan: Loan) -> list[TimelineEntry]:
     """Counts of each kind of custody event that touched the loan or its material."""
     refs = [loan.public_id] + [s.public_id for s in loan.specimens]
-    refs += [p.public_id for s in loan.specimens for p in s.powders]
+    powders = [p for s in loan.specimens for p in s.powders]
+    solutions = [x for p in powders for x in p.solutions]
+    refs += [p.public_id for p in powders] + [x.public_id for x in solutions]
+    refs += [a.public_id for x in solutions for a in x.aliquots]
     query = (select(CustodyEvent.action, func.count(), func.min(CustodyEvent.at),
                     func.max(CustodyEvent.at))
              .where((CustodyEvent.object_ref.in_(refs)) | (CustodyEvent.parent_ref.in_(refs)))

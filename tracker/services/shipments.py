@@ -7,6 +7,7 @@ can say which parcel carried what.
 
 from __future__ import annotations
 
+import io
 from datetime import date
 from typing import Annotated, Literal
 
@@ -31,7 +32,7 @@ from tracker.services.lookup import get_by_id, get_loan
 from tracker.services.uow import unit_of_work
 from tracker.services.views import DocumentView, Done, View
 
-PHOTO_TYPES = ("image/jpeg", "image/png", "image/tiff", "image/webp")
+PHOTO_FORMATS = ("JPEG", "PNG", "TIFF", "WEBP")  # Pillow's format names
 
 
 class ShipmentView(View):
@@ -107,13 +108,8 @@ def add_photo(db: Database, actor: str | None, data: AddPhoto | Raw) -> Done[Pho
     request = parse(AddPhoto, data)
     with unit_of_work(db, actor) as uow:
         specimen = get_by_id(uow.session, Specimen, "specimen", request.specimen)
+        _require_image(request.photo)
         document = store_document(uow.session, request.photo, uow.now)
-        if document.media_type not in PHOTO_TYPES:
-            raise InputError(
-                "photo",
-                request.photo.filename,
-                f"is {document.media_type}; photos are JPEG, PNG, TIFF or WebP",
-            )
         if any(p.document_id == document.id for p in _photos(uow.session, specimen.id)):
             raise RuleViolation("photo", request.photo.filename, "is already kept for it")
         row = SpecimenPhoto(
@@ -139,6 +135,22 @@ def add_photo(db: Database, actor: str | None, data: AddPhoto | Raw) -> Done[Pho
         return finish(
             uow, "specimen.photographed", specimen, payload, lambda: view, parent=document
         )
+
+
+def _require_image(upload: Upload) -> None:
+    """The bytes must decode as a JPEG, PNG, TIFF or WebP image, whatever the file is called."""
+    from PIL import Image, UnidentifiedImageError  # Pillow comes with qrcode[pil]
+
+    try:
+        with Image.open(io.BytesIO(upload.content)) as image:
+            image.verify()
+            kind = image.format
+    except (UnidentifiedImageError, OSError, SyntaxError, ValueError):
+        raise InputError(
+            "photo", upload.filename, "is not a readable image; photos are JPEG, PNG, TIFF or WebP"
+        ) from None
+    if kind not in PHOTO_FORMATS:
+        raise InputError("photo", upload.filename, f"is {kind}; photos are JPEG, PNG, TIFF or WebP")
 
 
 def _photos(session: Session, specimen_id: int) -> list[SpecimenPhoto]:
