@@ -302,6 +302,13 @@ class TrackerApp(App[None]):
             await super().on_event(key)
 
     def _scanned(self, text: str, focused: object) -> None:
+        if isinstance(focused, Input):
+            # The text box still has the scanned keys in its queue: act after it took them.
+            focused.call_later(self._finish_scan, text, focused)
+            return
+        self._finish_scan(text, focused)
+
+    def _finish_scan(self, text: str, focused: object) -> None:
         if self._typed_before is not None and isinstance(focused, Input):
             field, before = self._typed_before
             if field is focused:

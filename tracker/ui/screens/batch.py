@@ -28,11 +28,12 @@ from tracker.ui.widgets.operator_bar import OperatorBar
 
 class BatchScreen(Screen[None]):
     BINDINGS: ClassVar[list[BindingType]] = [
-        Binding("n", "new_batch", "New batch", id="batch.new"),
-        Binding("b", "add_blank", "Add blank", id="batch.blank"),
-        Binding("f", "add_reference", "Add ref. material", id="batch.reference"),
-        Binding("e", "enter_cut", "Enter recovery", id="batch.cut"),
-        Binding("o", "other_batch", "Other batch", id="batch.other"),
+        # Ctrl keys: the scan field keeps the focus between scans, so plain letters would type.
+        Binding("ctrl+n", "new_batch", "New batch", id="batch.new", priority=True),
+        Binding("ctrl+b", "add_blank", "Blank", id="batch.blank", priority=True),
+        Binding("ctrl+r", "add_reference", "Ref. material", id="batch.reference", priority=True),
+        Binding("ctrl+e", "enter_cut", "Recovery", id="batch.cut", priority=True),
+        Binding("ctrl+t", "other_batch", "Other batch", id="batch.other", priority=True),
         Binding("escape", "app.back", "Back", id="batch.back"),
     ]
 
@@ -89,7 +90,7 @@ class BatchScreen(Screen[None]):
             self.load(self.batch)
         else:
             self.query_one("#batch-head", Static).update(
-                "Choose a batch (Enter) or open a new one (n)."
+                "Choose a batch (Enter) or open a new one (Ctrl+N)."
             )
             self.list_batches()
 

@@ -107,6 +107,9 @@ class DrillScreen(FormScreen):
     def on_drill_screen_previewed(self, event: DrillScreen.Previewed) -> None:
         event.stop()
         self.preview_view = event.preview
+        tissue = self.query_one("#f-tissue", Input)
+        if not tissue.value and len(event.preview.permitted_tissues) == 1:
+            tissue.value = event.preview.tissue  # the loan permits only this one
         self.query_one("#preview", Static).update(render_preview(event.preview))
 
 

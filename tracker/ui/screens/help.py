@@ -39,9 +39,10 @@ limit or failed · ↩ powder to return · ? results or recovery missing.
    `1201.500 mg` is over the per-specimen and loan limits: **Ctrl+S** is refused and says
    by how much. Change the gross to `1200.500 mg` and save: ✓.
    Only a manager (★ in the top right) may give an override reason.
-3. **Build a column batch.** Press **F3**, then **n** to open a batch (name, resin, scheme),
-   Ctrl+S. Scan aliquots onto columns (`AQ-00002-D` on the demo), **b** adds a procedural
-   blank, **f** a reference material. Select a column and press **e** (or Enter) to enter the
+3. **Build a column batch.** Press **F3**, then **Ctrl+N** to open a batch (name, resin,
+   scheme), Ctrl+S. Scan aliquots onto columns (`AQ-00002-D` on the demo): the scan field
+   keeps the focus, so scan one after another. **Ctrl+B** adds a procedural blank, **Ctrl+R**
+   a reference material. Move to a column and press **Ctrl+E** (or Enter) to enter the
    recovered element: yields and blank shares are flagged against the batch's limits.
 4. **Import and reduce a session.** Press **F4**, then **i**. Give the export's path, a saved
    profile (`mc-ca` on the demo), a name, the instrument, element and bracketing standard,

@@ -67,6 +67,7 @@ class LabelsScreen(Screen[None]):
                 yield DataTable(id="queue", cursor_type="row", zebra_stripes=True)
             with TabPane("Sheet preview", id="tab-sheet"):
                 yield Static("press v to draw the sheet", id="sheet")
+        yield Static("", id="label-hint", classes="hint")
         yield Static("", id="outcome")
         yield Footer(compact=True)
 
@@ -100,8 +101,9 @@ class LabelsScreen(Screen[None]):
         table.clear()
         for label in event.queue:
             table.add_row(label.item, label.kind, " / ".join(label.lines[:2]), label.queued_by)
-        self._outcome(f"{len(event.queue)} label(s) queued · p prints them all · v draws the sheet",
-                      error=False)  # fmt: skip
+        self.query_one("#label-hint", Static).update(
+            f"{len(event.queue)} label(s) queued · p prints them all · v draws the sheet"
+        )
 
     def _options(self) -> tuple[str, str, str]:
         stock = str(self.query_one("#stock", Select).value)
