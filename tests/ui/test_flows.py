@@ -181,7 +181,7 @@ async def test_a_batch_built_by_scanning(lab: Lab) -> None:
         await pilot.press("ctrl+s")
         await settle(pilot)
         screen = pilot.app.screen
-        assert isinstance(screen, BatchScreen) and screen.batch is not None
+        assert isinstance(screen, BatchScreen) and screen.batch_id is not None
         assert pilot.app.focused is screen.query_one("#f-aliquot", Input)
         await scan(pilot, "AQ-00002-D")
         assert pilot.app.focused is screen.query_one("#f-aliquot", Input)  # ready for the next
@@ -269,7 +269,9 @@ async def test_a_session_imported_and_reduced(lab: Lab, tmp_path: Path) -> None:
         assert results.row_count == 4  # the sample and SRM 915b, each for two ratios
         rows = [str(results.get_row_at(i)) for i in range(results.row_count)]
         assert any("SRM 915b" in r and ("✓ pass" in r or "✗ FAIL" in r) for r in rows)
-    (session,) = query(lab, select(InstrumentSession).where(InstrumentSession.name == "Ca test run"))
+    (session,) = query(
+        lab, select(InstrumentSession).where(InstrumentSession.name == "Ca test run")
+    )
     runs = query(lab, select(Measurement).where(Measurement.session_id == session.id))
     assert len(runs) == 9
     assert [m.sample_name for m in runs if m.role is MeasurementRole.UNMATCHED] == [

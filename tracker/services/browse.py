@@ -69,12 +69,16 @@ def list_sessions(db: Database) -> list[SessionLine]:
     """Instrument sessions, newest first, with their run, unmatched and result counts."""
     with db.read_session() as session:
         count = func.count()
-        runs = _counts(session.execute(
-            select(Measurement.session_id, count).group_by(Measurement.session_id)))
-        unmatched = _counts(session.execute(
-            select(Measurement.session_id, count)
-            .where(Measurement.role == MeasurementRole.UNMATCHED)
-            .group_by(Measurement.session_id)))
+        runs = _counts(
+            session.execute(select(Measurement.session_id, count).group_by(Measurement.session_id))
+        )
+        unmatched = _counts(
+            session.execute(
+                select(Measurement.session_id, count)
+                .where(Measurement.role == MeasurementRole.UNMATCHED)
+                .group_by(Measurement.session_id)
+            )
+        )
         results = _counts(session.execute(
             select(Result.session_id, count).group_by(Result.session_id)))  # fmt: skip
         rows = session.scalars(

@@ -328,7 +328,9 @@ def session_detail(db: Database, ref: str) -> SessionDetail:
             for m in sorted(session.measurements, key=lambda m: m.run_order)
             if m.role is MeasurementRole.UNMATCHED
         ]  # fmt: skip
-        rows = sql.scalars(select(Result).where(Result.session_id == session.id).order_by(Result.id))
+        rows = sql.scalars(
+            select(Result).where(Result.session_id == session.id).order_by(Result.id)
+        )
         lines = [_stored_line(sql, session, row) for row in rows]
         return SessionDetail(
             id=session.public_id, name=session.name, instrument=session.instrument,

@@ -66,7 +66,7 @@ class TrackerApp(App[None]):
                 show=False),
         Binding("a", "bench('aliquot')", "Aliquot", id="bench.aliquot", show=False),
         Binding("m", "bench('move')", "Move", id="bench.move", show=False),
-        Binding("escape", "back", "Back", id="app.back", show=False),
+        Binding("escape", "previous", "Back", id="app.previous", show=False),
     ]  # fmt: skip
 
     operator_label: reactive[str] = reactive("no operator yet")
@@ -191,7 +191,7 @@ class TrackerApp(App[None]):
             return None
         return ItemScreen(public_id)
 
-    def action_back(self) -> None:
+    def action_previous(self) -> None:
         if len(self.screen_stack) > 2:
             self.pop_screen()
 
@@ -327,7 +327,9 @@ class TrackerApp(App[None]):
             return
         try:
             view = labels.read_scan(self.db, text)
-            batch = browse.batch_of_position(self.db, view.id) if view.kind == "batchposition" else None
+            batch = (
+                browse.batch_of_position(self.db, view.id) if view.kind == "batchposition" else None
+            )
         except TrackerError as error:
             self.post_message(ScanFailed(text, error))
             return

@@ -34,7 +34,7 @@ class BatchScreen(Screen[None]):
         Binding("ctrl+r", "add_reference", "Ref. material", id="batch.reference", priority=True),
         Binding("ctrl+e", "enter_cut", "Recovery", id="batch.cut", priority=True),
         Binding("ctrl+t", "other_batch", "Other batch", id="batch.other", priority=True),
-        Binding("escape", "app.back", "Back", id="batch.back"),
+        Binding("escape", "app.previous", "Back", id="batch.back"),
     ]
 
     class Listed(Message):
@@ -54,7 +54,7 @@ class BatchScreen(Screen[None]):
 
     def __init__(self, batch: str | None) -> None:
         super().__init__()
-        self.batch = batch
+        self.batch_id = batch
         self.summary: BatchSummary | None = None
 
     def compose(self) -> ComposeResult:
@@ -81,13 +81,13 @@ class BatchScreen(Screen[None]):
         self.refresh_view()
 
     def refresh_view(self) -> None:
-        showing = self.batch is not None
+        showing = self.batch_id is not None
         self.query_one("#batches").display = not showing
         self.query_one("#positions").display = showing
         self.query_one("#field-aliquot").display = showing
         if showing:
-            assert self.batch is not None
-            self.load(self.batch)
+            assert self.batch_id is not None
+            self.load(self.batch_id)
         else:
             self.query_one("#batch-head", Static).update(
                 "Choose a batch (Enter) or open a new one (Ctrl+N)."
@@ -117,12 +117,12 @@ class BatchScreen(Screen[None]):
     @on(DataTable.RowSelected, "#batches")
     def _chosen(self, event: DataTable.RowSelected) -> None:
         if event.row_key.value:
-            self.batch = str(event.row_key.value)
+            self.batch_id = str(event.row_key.value)
             self.refresh_view()
 
     def on_batch_screen_loaded(self, event: Loaded) -> None:
         s = self.summary = event.summary
-        self.batch = s.id
+        self.batch_id = s.id
         head = Text()
         head.append(f"{s.id} {s.name} · {s.element}", style="bold")
         head.append(f" · yield ≥ {s.yield_threshold * 100:g} % · blank ≤ {s.blank_limit * 100:g} %")
@@ -157,11 +157,11 @@ class BatchScreen(Screen[None]):
         self._add({"kind": "blank"})
 
     def _add(self, request: dict[str, Any]) -> None:
-        if self.batch is None:
+        if self.batch_id is None:
             self._outcome("✗ choose or open a batch first", error=True)
             return
         self._outcome("… adding", error=False)
-        self.add_position({"batch": self.batch, **request})
+        self.add_position({"batch": self.batch_id, **request})
 
     @work(thread=True, exclusive=True, group="save")
     def add_position(self, request: dict[str, Any]) -> None:
@@ -178,8 +178,8 @@ class BatchScreen(Screen[None]):
         self._outcome(f"✓ column {p.slot} ({p.id}): {p.kind} {p.holds or ''}{loaded} · label "
                       f"queued · event #{event.done.event_seq}", error=False)  # fmt: skip
         self.query_one("#f-aliquot", Input).value = ""
-        if self.batch:
-            self.load(self.batch)
+        if self.batch_id:
+            self.load(self.batch_id)
 
     def on_refused(self, event: Refused) -> None:
         self._outcome(refusal_text(event.error), error=True)
@@ -194,8 +194,8 @@ class BatchScreen(Screen[None]):
         self.app.push_screen(NewBatchScreen())
 
     def action_add_reference(self) -> None:
-        if self.batch:
-            self.app.push_screen(ReferencePositionScreen(batch=self.batch))
+        if self.batch_id:
+            self.app.push_screen(ReferencePositionScreen(batch=self.batch_id))
 
     def action_enter_cut(self) -> None:
         table = self.query_one("#positions", DataTable)
@@ -205,7 +205,7 @@ class BatchScreen(Screen[None]):
         self.app.push_screen(CutScreen(position=str(key), cut=self.summary.element))
 
     def action_other_batch(self) -> None:
-        self.batch = None
+        self.batch_id = None
         self.refresh_view()
 
     @on(DataTable.RowSelected, "#positions")

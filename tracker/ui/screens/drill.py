@@ -83,7 +83,7 @@ class DrillScreen(FormScreen):
     def _preview_now(self) -> None:
         draft = {k: v for k, v in self.values().items() if k in PREVIEWED_FIELDS}
         if "specimen" not in draft:
-            self.query_one("#preview", Static).update("Scan a specimen to see its allowance.")
+            self.show_preview("Scan a specimen to see its allowance.")
             return
         self.preview(draft)
 
@@ -100,7 +100,7 @@ class DrillScreen(FormScreen):
         if event.purpose == "preview":
             event.stop()
             self.preview_view = None
-            self.query_one("#preview", Static).update(Text(f"✗ {event.error.one_line()}"))
+            self.show_preview(Text(f"✗ {event.error.one_line()}"))
             return
         super().on_refused(event)
 
@@ -110,7 +110,12 @@ class DrillScreen(FormScreen):
         tissue = self.query_one("#f-tissue", Input)
         if not tissue.value and len(event.preview.permitted_tissues) == 1:
             tissue.value = event.preview.tissue  # the loan permits only this one
-        self.query_one("#preview", Static).update(render_preview(event.preview))
+        self.show_preview(render_preview(event.preview))
+
+    def show_preview(self, content: Text | str) -> None:
+        preview = self.query_one("#preview", Static)
+        preview.update(content)
+        preview.set_class(True, "-shown")
 
 
 def render_preview(view: DrillPreview) -> Text:

@@ -50,7 +50,7 @@ class FormScreen(Screen[None]):
     FIELDS: ClassVar[list[Field]] = []
     BINDINGS: ClassVar[list[BindingType]] = [
         Binding("ctrl+s", "save", "Save", id="form.save", priority=True),
-        Binding("escape", "app.back", "Back", id="form.back"),
+        Binding("escape", "app.previous", "Back", id="form.back"),
     ]
 
     class Saved(Message):
@@ -74,7 +74,7 @@ class FormScreen(Screen[None]):
                 yield Static(self.INTRO, classes="intro")
             for spec in self.FIELDS:
                 yield from self.compose_field(spec)
-            yield Static("", id="preview")
+        yield Static("", id="preview")  # outside the scroll: always in sight while typing
         yield Static("", id="outcome")
         yield Footer(compact=True)
 
@@ -99,9 +99,7 @@ class FormScreen(Screen[None]):
         )
 
     def on_mount(self) -> None:
-        first_empty = next(
-            (i for i in self.query(Input) if not i.value and not i.disabled), None
-        )
+        first_empty = next((i for i in self.query(Input) if not i.value and not i.disabled), None)
         (first_empty or self.query(Input).first()).focus()
 
     def values(self) -> dict[str, Any]:

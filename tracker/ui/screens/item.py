@@ -39,7 +39,7 @@ class ItemScreen(Screen[None]):
         Binding("c", "act('checkin')", "Check in", id="item.checkin"),
         Binding("r", "act('return')", "Return", id="item.return"),
         Binding("l", "queue_label", "Label", id="item.label"),
-        Binding("escape", "app.back", "Back", id="item.back"),
+        Binding("escape", "app.previous", "Back", id="item.back"),
     ]
 
     class Loaded(Message):

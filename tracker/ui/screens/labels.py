@@ -30,7 +30,7 @@ class LabelsScreen(Screen[None]):
         Binding("p", "print_queue", "Print queue", id="labels.print"),
         Binding("v", "preview", "Preview sheet", id="labels.preview"),
         Binding("r", "refresh", "Refresh", id="labels.refresh"),
-        Binding("escape", "app.back", "Back", id="labels.back"),
+        Binding("escape", "app.previous", "Back", id="labels.back"),
     ]
 
     class Loaded(Message):

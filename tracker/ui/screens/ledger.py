@@ -30,7 +30,7 @@ class LedgerScreen(Screen[None]):
     BINDINGS: ClassVar[list[BindingType]] = [
         Binding("v", "verify", "Verify chain", id="ledger.verify"),
         Binding("slash", "filter", "Filter", id="ledger.filter"),
-        Binding("escape", "app.back", "Back", id="ledger.back"),
+        Binding("escape", "app.previous", "Back", id="ledger.back"),
     ]
 
     class Listed(Message):
@@ -129,11 +129,13 @@ class LedgerScreen(Screen[None]):
         r = event.report
         result = self.query_one("#verify-result", Static)
         if r.ok:
-            result.update(Text(f"✓ ledger intact: {r.events} events · head #{r.head_seq} "
-                               f"{r.head_hash}", style="green"))  # fmt: skip
+            line = f"✓ ledger intact: {r.events} events · head #{r.head_seq} {r.head_hash}"
         else:
-            result.update(Text(f"✗ ledger BROKEN at event #{r.broken_seq}: {r.reason} "
-                               f"({r.events} events verified before it)", style="bold red"))  # fmt: skip
+            line = (
+                f"✗ ledger BROKEN at event #{r.broken_seq}: {r.reason} "
+                f"({r.events} events verified before it)"
+            )
+        result.update(Text(line, style="green" if r.ok else "bold red"))
         result.set_class(not r.ok, "-error")
 
     def on_refused(self, event: Refused) -> None:

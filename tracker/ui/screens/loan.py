@@ -33,7 +33,7 @@ class LoanScreen(Screen[None]):
         Binding("p", "plan", "Plan", id="loan.plan"),
         Binding("R", "report", "Return report", id="loan.report"),
         Binding("I", "manifest", "Manifest", id="loan.manifest"),
-        Binding("escape", "app.back", "Back", id="loan.back"),
+        Binding("escape", "app.previous", "Back", id="loan.back"),
     ]
 
     class Loaded(Message):
@@ -124,7 +124,9 @@ class LoanScreen(Screen[None]):
                 f"due {t.due_on}; powder: {t.powder_disposition}\n"
             )
         for d in detail.documents:
-            terms.append(f"document {d.filename} ({d.role or 'attached'}) sha256 {d.sha256[:16]}…\n")
+            terms.append(
+                f"document {d.filename} ({d.role or 'attached'}) sha256 {d.sha256[:16]}…\n"
+            )
         self.query_one("#terms", Static).update(terms)
 
     def on_refused(self, event: Refused) -> None:
@@ -183,12 +185,14 @@ class LoanScreen(Screen[None]):
     def on_loan_screen_planned(self, event: Planned) -> None:
         plan = event.plan
         text = Text()
-        text.append(f"{plan.material} · {plan.tissue} · terms v{plan.terms_version}\n", style="bold")
+        text.append(
+            f"{plan.material} · {plan.tissue} · terms v{plan.terms_version}\n", style="bold"
+        )
         before, after = plan.loan_remaining_before_mg, plan.loan_remaining_after_mg
         text.append(f"loan allows {before if before is None else f'{before:.3f}'} mg more; ")
         text.append(f"after this plan {after if after is None else f'{after:.3f}'} mg\n")
         for s in plan.specimens:
             mark = "✓" if s.feasible else "✗"
-            text.append(f"{mark} {s.id} {s.catalog_number}: drill {s.to_drill_mg:.3f} mg — {s.reason}\n",
-                        style="" if s.feasible else "red")  # fmt: skip
+            line = f"{mark} {s.id} {s.catalog_number}: drill {s.to_drill_mg:.3f} mg — {s.reason}\n"
+            text.append(line, style="" if s.feasible else "red")
         self.query_one("#plan", Static).update(text)

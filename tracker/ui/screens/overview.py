@@ -20,7 +20,6 @@ from tracker.ui.messages import Refused, refusal_text
 from tracker.ui.widgets.bars import flag_cell, usage_bar
 from tracker.ui.widgets.operator_bar import OperatorBar
 
-
 FLAGS_WIDTH = 17  # the whole table fits 80 columns; wider terminals show more of each flag
 
 

@@ -32,7 +32,7 @@ class SessionScreen(Screen[None]):
         Binding("i", "import_session", "Import", id="session.import"),
         Binding("r", "reduce", "Reduce", id="session.reduce"),
         Binding("o", "other_session", "Other session", id="session.other"),
-        Binding("escape", "app.back", "Back", id="session.back"),
+        Binding("escape", "app.previous", "Back", id="session.back"),
     ]
 
     class Listed(Message):

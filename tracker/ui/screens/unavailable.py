@@ -15,7 +15,7 @@ from tracker.ui.widgets.operator_bar import OperatorBar
 
 class UnavailableScreen(Screen[None]):
     BINDINGS: ClassVar[list[BindingType]] = [
-        Binding("escape", "app.back", "Back", id="unavailable.back"),
+        Binding("escape", "app.previous", "Back", id="unavailable.back"),
     ]
 
     def __init__(self, what: str, loan: str = "") -> None:

@@ -36,7 +36,16 @@ FLAG_SYMBOLS = {
     "high blank": "⚠",
     "recovery not measured": "?",
     "failed acceptance": "✗",
+    "reference material failed": "✗",
+    "mass-dependence off": "⚠",
+    "single run": "⚠",
+    "no procedural blank measured": "⚠",
 }
+
+
+def symbol_of(flag: str) -> str:
+    """The symbol that says how serious a flag is (the words always follow it)."""
+    return next((s for name, s in FLAG_SYMBOLS.items() if flag.startswith(name)), "•")
 
 
 def flag_text(flags: list[str]) -> Text:
@@ -45,7 +54,7 @@ def flag_text(flags: list[str]) -> Text:
         return Text("✓ ok", style="green")
     text = Text()
     for index, flag in enumerate(flags):
-        symbol = FLAG_SYMBOLS.get(flag.split(":")[0], "•")
+        symbol = symbol_of(flag)
         style = "bold red" if symbol == "✗" else "yellow" if symbol in "⚠?" else ""
         if index:
             text.append(" · ", style="dim")
@@ -54,7 +63,7 @@ def flag_text(flags: list[str]) -> Text:
 
 
 def _severity(flag: str) -> int:
-    return "✗⚠↩?•".index(FLAG_SYMBOLS.get(flag.split(":")[0], "•"))
+    return "✗⚠↩?•".index(symbol_of(flag))
 
 
 def flag_cell(flags: list[str], width: int, lines: int = 1) -> Text:
@@ -66,7 +75,7 @@ def flag_cell(flags: list[str], width: int, lines: int = 1) -> Text:
     rest = len(ordered) - len(shown)
     text = Text()
     for index, flag in enumerate(shown):
-        symbol = FLAG_SYMBOLS.get(flag.split(":")[0], "•")
+        symbol = symbol_of(flag)
         style = "bold red" if symbol == "✗" else "yellow" if symbol in "⚠?" else ""
         more = f" +{rest}" if rest and index == len(shown) - 1 else ""
         entry = f"{symbol} {flag}"

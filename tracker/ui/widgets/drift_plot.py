@@ -20,7 +20,9 @@ class DriftPlot(PlotextPlot):
                 continue
             mean = sum(values) / len(values)
             permil = [(v / mean - 1) * 1000 for v in values]
-            plt.scatter(series.runs, permil, marker=markers[index % 4], label=f"{ratio} (‰ from mean)")
+            plt.scatter(
+                series.runs, permil, marker=markers[index % 4], label=f"{ratio} (‰ from mean)"
+            )
         plt.title(f"{series.standard}: drift over {series.name}")
         plt.xlabel("run")
         self.refresh()
