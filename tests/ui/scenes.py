@@ -40,12 +40,14 @@ async def _drill(pilot: Pilot[None]) -> None:
     await settle(pilot)
     await scan(pilot, "SP-00010-U")
     screen = pilot.app.screen
+    screen.query_one("#f-tissue", Input).value = "enameloid"
     screen.query_one("#f-tare", Input).value = "1200.000 mg"
     screen.query_one("#f-gross", Input).value = "1201.500 mg"
-    screen.query_one("#f-gross", Input).focus()
     await pilot.pause(0.3)
     await settle(pilot)
     await pilot.press("ctrl+s")
+    await settle(pilot)
+    await pilot.pause(0.3)
     await settle(pilot)
 
 

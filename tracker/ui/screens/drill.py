@@ -49,13 +49,14 @@ class DrillScreen(FormScreen):
     ]
 
     class Previewed(Message):
-        def __init__(self, preview: DrillPreview) -> None:
+        def __init__(self, preview: DrillPreview, seq: int) -> None:
             super().__init__()
-            self.preview = preview
+            self.preview, self.seq = preview, seq
 
     def __init__(self, **values: str) -> None:
         super().__init__(**values)
         self._timer: Timer | None = None
+        self._seq = 0  # answers to older drafts arrive late sometimes: only the newest counts
         self.preview_view: DrillPreview | None = None
 
     @staticmethod
@@ -85,20 +86,23 @@ class DrillScreen(FormScreen):
         if "specimen" not in draft:
             self.show_preview("Scan a specimen to see its allowance.")
             return
-        self.preview(draft)
+        self._seq += 1
+        self.preview(draft, self._seq)
 
     @work(thread=True, exclusive=True, group="preview")
-    def preview(self, draft: dict[str, Any]) -> None:
+    def preview(self, draft: dict[str, Any], seq: int) -> None:
         try:
             view = drilling.preview_drill(database(self), draft)
         except TrackerError as error:
-            self.post_message(Refused(error, "preview"))
+            self.post_message(Refused(error, f"preview {seq}"))
             return
-        self.post_message(self.Previewed(view))
+        self.post_message(self.Previewed(view, seq))
 
     def on_refused(self, event: Refused) -> None:
-        if event.purpose == "preview":
+        if event.purpose.startswith("preview"):
             event.stop()
+            if event.purpose != f"preview {self._seq}":
+                return
             self.preview_view = None
             self.show_preview(Text(f"✗ {event.error.one_line()}"))
             return
@@ -106,6 +110,8 @@ class DrillScreen(FormScreen):
 
     def on_drill_screen_previewed(self, event: DrillScreen.Previewed) -> None:
         event.stop()
+        if event.seq != self._seq:
+            return
         self.preview_view = event.preview
         tissue = self.query_one("#f-tissue", Input)
         if not tissue.value and len(event.preview.permitted_tissues) == 1:

@@ -41,10 +41,10 @@ class IdField(Vertical):
 
     class Resolved(Message):
         def __init__(
-            self, field: IdField, view: ScanView | None, error: TrackerError | None
+            self, field: IdField, view: ScanView | None, error: TrackerError | None, seq: int = 0
         ) -> None:
             super().__init__()
-            self.field, self.view, self.error = field, view, error
+            self.field, self.view, self.error, self.seq = field, view, error, seq
 
         @property
         def control(self) -> IdField:
@@ -68,6 +68,7 @@ class IdField(Vertical):
         self.label, self.field_name = label, name
         self._value, self._placeholder = value, placeholder
         self._timer: Timer | None = None
+        self._seq = 0  # only the newest lookup's answer is shown
         self.view: ScanView | None = None
 
     def compose(self) -> ComposeResult:
@@ -115,17 +116,24 @@ class IdField(Vertical):
         if event.value.strip():
             self.lookup(event.value.strip())
 
-    @work(thread=True, exclusive=True, group="id-lookup")
     def lookup(self, text: str) -> None:
+        self._seq += 1
+        self._lookup(text, self._seq)
+
+    @work(thread=True, exclusive=True, group="id-lookup")
+    def _lookup(self, text: str, seq: int) -> None:
         try:
             view = labels.read_scan(database(self), text)
         except TrackerError as error:
-            self.post_message(self.Resolved(self, None, error))
+            self.post_message(self.Resolved(self, None, error, seq))
             return
-        self.post_message(self.Resolved(self, view, None))
+        self.post_message(self.Resolved(self, view, None, seq))
 
     def on_id_field_resolved(self, event: IdField.Resolved) -> None:
         if event.field is not self:
+            return
+        if event.seq != self._seq:
+            event.stop()  # a stale answer: a newer lookup is on its way
             return
         self.view = event.view
         if event.error is not None:
