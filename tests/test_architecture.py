@@ -55,3 +55,15 @@ def test_the_command_line_and_services_load_no_rendering_library() -> None:
     )
     assert result.stdout.strip() == ""
     assert "tracker.services.label_jobs" in modules
+
+
+def test_the_command_line_loads_textual_only_when_the_interface_opens() -> None:
+    """``tracker --help`` and every command stay fast: textual is imported by tracker.ui only."""
+    code = (
+        "import sys\nimport tracker.cli\n"
+        "print(','.join(sorted({m.split('.')[0] for m in sys.modules} & {'textual'})))\n"
+    )
+    result = subprocess.run(
+        [sys.executable, "-c", code], capture_output=True, text=True, check=True
+    )
+    assert result.stdout.strip() == ""

@@ -21,7 +21,8 @@ from tracker.cli.state import State, TrackerGroup
 app = typer.Typer(
     cls=TrackerGroup,
     help="Sample tracking and chain of custody for isotope-geochemistry labs.\n\n"
-    "Run with no command to see the loans overview.",
+    "Run with no command to open the terminal interface (on a terminal) or print the loans "
+    "overview (when the output is piped or --json is given).",
     epilog="Example: tracker --db lab.sqlite --as amira show SP-00001-W",
     add_completion=False,
     rich_markup_mode=None,
@@ -55,10 +56,10 @@ def root(
         bool, typer.Option("--version", callback=_version, is_eager=True, help="Show the version.")
     ] = False,
 ) -> None:
-    """Global options; with no command, show the overview of loans."""
+    """Global options; with no command, open the terminal interface or show the overview."""
     ctx.obj = State(db=db, actor=actor, as_json=as_json)
     if ctx.invoked_subcommand is None:
-        cmd_inspect.show_overview(ctx)
+        cmd_inspect.open_or_overview(ctx)
 
 
 def _register() -> None:

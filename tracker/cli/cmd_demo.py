@@ -17,8 +17,16 @@ def demo(
     out: Annotated[Path, typer.Option("--out", help="Where to write the demo database.")] = Path(
         DEMO_FILE
     ),
+    no_open: Annotated[
+        bool,
+        typer.Option("--no-open", help="Print the overview instead of opening the interface."),
+    ] = False,
 ) -> None:
-    """Build the demo database (invented loans and specimens) and show its overview."""
+    """Build the demo database (invented loans and specimens) and open it.
+
+    On a terminal the interface opens on the demo; piped, with --json or with --no-open
+    the loans overview is printed instead.
+    """
     from tracker.io.demo import build_demo
 
     steps = build_demo(out)
@@ -29,4 +37,7 @@ def demo(
     )
     errors.print(f"explore it: tracker --db {out} show KF-2026-014", markup=False, soft_wrap=True)
     state(ctx).db = str(out)
-    cmd_inspect.show_overview(ctx)
+    if no_open:
+        cmd_inspect.show_overview(ctx)
+    else:
+        cmd_inspect.open_or_overview(ctx)

@@ -7,7 +7,7 @@ from typing import Annotated
 import typer
 
 from tracker.cli.render import history_table, item_detail, overview_table
-from tracker.cli.state import database, emit, errors
+from tracker.cli.state import database, emit, errors, state
 from tracker.services import ledger, lineage, reconcile
 
 ledger_app = typer.Typer(
@@ -22,6 +22,23 @@ def show_overview(ctx: typer.Context) -> None:
     with database(ctx) as db:
         lines = reconcile.reconcile(db, specimens=False)
     emit(ctx, lines, lambda: overview_table(lines))
+
+
+def interactive(ctx: typer.Context) -> bool:
+    """A person at a terminal (not a pipe, not a script asking for --json)."""
+    return not state(ctx).as_json and sys.stdin.isatty() and sys.stdout.isatty()
+
+
+def open_or_overview(ctx: typer.Context) -> None:
+    """The terminal interface for a person at a terminal; the printed overview otherwise."""
+    if not interactive(ctx):
+        show_overview(ctx)
+        return
+    from tracker.ui import run_tui
+
+    code = run_tui(state(ctx).target, state(ctx).actor)
+    if code:
+        raise typer.Exit(code)
 
 
 OVERVIEW_EPILOG = "Example: tracker --db tracker-demo.sqlite overview"

@@ -61,10 +61,14 @@ def print_queue(
     out: Path | None = None,
     printer: str | None = None,
     stocks_file: Path | None = None,
+    folder: Path | None = None,
 ) -> PrintOutcome:
-    """Every queued label to a PDF, recorded as one print job."""
+    """Every queued label to a PDF, recorded as one print job.
+
+    Without ``out`` the PDF is named after its job, in ``folder`` (default: the current one).
+    """
     request = {"stock": stock, "start": start, "printer": printer}
-    return _run(db, actor, label_jobs.print_queue, request, out, stocks_file)
+    return _run(db, actor, label_jobs.print_queue, request, out, stocks_file, folder)
 
 
 def reprint(
@@ -94,9 +98,10 @@ def _run(
     request: dict[str, Any],
     out: Path | None,
     stocks_file: Path | None,
+    folder: Path | None = None,
 ) -> PrintOutcome:
     chosen = _stock(request["stock"], request["start"], stocks_file)
-    folder = _folder(out)
+    folder = _folder(out if out is not None or folder is None else folder / "labels.pdf")
     staged: list[tuple[Path, Path]] = []
 
     def render(batch: PrintBatch) -> Rendered:

@@ -39,7 +39,7 @@ from tracker.services.label_queue import queue_label
 from tracker.services.lookup import get_by_id
 from tracker.services.materials import find_material
 from tracker.services.uow import UnitOfWork, unit_of_work
-from tracker.services.views import Done, PowderView
+from tracker.services.views import Done, PowderView, View
 
 
 class Drill(Request):
@@ -168,3 +168,97 @@ def usage_of(session: Session, specimen: Specimen) -> Usage:
         sampled_specimens=int(sampled),
         specimen_already_sampled=own_count > 0,
     )
+
+
+class DrillDraft(Request):
+    """A drill form as it is being filled in: weighings may still be missing."""
+
+    specimen: str
+    tissue: Annotated[str, Field(max_length=60)] | None = None
+    tare: PositiveMassMg | None = None
+    gross: PositiveMassMg | None = None
+    readability: PositiveMassMg = MICROBALANCE_MG
+    drilled_at: AwareDatetime | None = None
+
+
+class LimitLine(View):
+    """One of the loan's mass limits as the draft would leave it (mg)."""
+
+    name: str
+    limit_mg: float | None
+    used_mg: float
+    used_u_mg: float
+    left_before_mg: float | None
+    left_after_mg: float | None
+
+
+class DrillPreview(View):
+    """What a drill would do to the loan's allowance; nothing is written."""
+
+    specimen: str
+    catalog_number: str
+    loan: str
+    status: str
+    terms_version: int
+    permitted_tissues: list[str]
+    tissue: str
+    mass_mg: float | None
+    mass_u_mg: float | None
+    per_specimen: LimitLine
+    loan_total: LimitLine
+    max_specimens_sampled: int | None
+    sampled_specimens: int
+    already_sampled: bool
+    due_on: date
+    problem: str | None  # the weighings cannot be read yet (one line, field first)
+    violations: list[str]
+    within: bool  # a mass is known, it is readable and no limit is broken
+
+
+def preview_drill(db: Database, data: DrillDraft | Raw) -> DrillPreview:
+    """The drill service's own limit check, run read-only on a draft as it is typed.
+
+    Uses the same terms-in-force, usage and :func:`check_drill` as :func:`drill`, so the
+    preview and the save can never disagree about what the loan allows.
+    """
+    request = parse(DrillDraft, data)
+    mass: Amount | None = None
+    problem: str | None = None
+    if request.tare is not None and request.gross is not None:
+        try:
+            mass = weigh(request.tare, request.gross, request.readability).amount()
+        except InputError as error:
+            problem = error.one_line()
+    with db.read_session() as session:
+        specimen = get_by_id(session, Specimen, "specimen", request.specimen)
+        day = (request.drilled_at or db.clock()).date()
+        terms = terms_in_force(specimen.loan.terms, day)
+        limits, usage = limits_of(terms), usage_of(session, specimen)
+        tissue = (request.tissue or terms.permitted_tissues[0]).lower()
+        violations = (
+            [v.message for v in check_drill(limits, usage, tissue, mass, day)] if mass else []
+        )
+        return DrillPreview(
+            specimen=specimen.public_id, catalog_number=specimen.catalog_number,
+            loan=specimen.loan.reference, status=specimen.status.value,
+            terms_version=terms.version, permitted_tissues=list(terms.permitted_tissues),
+            tissue=tissue, mass_mg=mass.value if mass else None, mass_u_mg=mass.u if mass else None,
+            per_specimen=_limit_line("per specimen", limits.max_mass_per_specimen_mg,
+                                     usage.specimen_drilled, mass),
+            loan_total=_limit_line("loan total", limits.max_total_mass_mg,
+                                   usage.loan_drilled, mass),
+            max_specimens_sampled=limits.max_specimens_sampled,
+            sampled_specimens=usage.sampled_specimens,
+            already_sampled=usage.specimen_already_sampled, due_on=limits.due_on,
+            problem=problem, violations=violations,
+            within=mass is not None and problem is None and not violations,
+        )  # fmt: skip
+
+
+def _limit_line(name: str, limit: float | None, used: Amount, mass: Amount | None) -> LimitLine:
+    before = None if limit is None else limit - used.value
+    after = None if before is None or mass is None else before - mass.value
+    return LimitLine(
+        name=name, limit_mg=limit, used_mg=used.value, used_u_mg=used.u,
+        left_before_mg=before, left_after_mg=after,
+    )  # fmt: skip

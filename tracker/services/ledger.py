@@ -3,11 +3,11 @@
 from __future__ import annotations
 
 import json
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from typing import Annotated, TextIO
 
 from pydantic import BaseModel, Field
-from sqlalchemy import select
+from sqlalchemy import func, or_, select
 
 from tracker.db.database import Database
 from tracker.domain.ledger import LedgerRow, VerifyReport, verify_chain
@@ -39,16 +39,55 @@ def _rows(db: Database) -> Iterator[LedgerRow]:
             yield LedgerRow(*row)
 
 
-def verify(db: Database) -> VerifyReport:
-    """Walk the whole chain; the report names the first broken event, if any."""
-    return verify_chain(_rows(db))
+Progress = Callable[[int, int], None]  # (events read, events in the ledger)
 
 
-def recent_events(db: Database, limit: int = 50, action: str | None = None) -> list[EventView]:
+def verify(db: Database, progress: Progress | None = None, every: int = 500) -> VerifyReport:
+    """Walk the whole chain; the report names the first broken event, if any.
+
+    ``progress`` (optional) is told how far the walk has got every ``every`` events and
+    at the end, so a screen can draw a progress bar; it never changes the verdict.
+    """
+    if progress is None:
+        return verify_chain(_rows(db))
+    with db.read_session() as session:
+        total = session.scalar(select(func.count()).select_from(CustodyEvent)) or 0
+    return verify_chain(_counted(_rows(db), total, progress, max(every, 1)))
+
+
+def _counted(
+    rows: Iterator[LedgerRow], total: int, progress: Progress, every: int
+) -> Iterator[LedgerRow]:
+    done = 0
+    progress(0, total)
+    for row in rows:
+        yield row
+        done += 1
+        if done % every == 0:
+            progress(done, max(total, done))
+    progress(done, max(total, done))
+
+
+def recent_events(
+    db: Database,
+    limit: int = 50,
+    action: str | None = None,
+    *,
+    operator: str | None = None,
+    item: str | None = None,
+) -> list[EventView]:
+    """Newest events first; optionally those whose action starts with ``action``, recorded by
+    ``operator``, or naming ``item`` (a public ID, as the event's object or its parent)."""
     with db.read_session() as session:
         query = select(CustodyEvent).order_by(CustodyEvent.seq.desc()).limit(limit)
         if action:
             query = query.where(CustodyEvent.action.startswith(action))
+        if operator:
+            query = query.where(CustodyEvent.operator == operator)
+        if item:
+            query = query.where(
+                or_(CustodyEvent.object_ref == item, CustodyEvent.parent_ref == item)
+            )
         return [EventView.of(e) for e in session.scalars(query)]
 
 

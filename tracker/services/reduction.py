@@ -11,6 +11,7 @@ mass-dependent consistency under the exponential law.
 
 from __future__ import annotations
 
+import json
 import math
 from collections import defaultdict
 from collections.abc import Iterable
@@ -28,6 +29,7 @@ from tracker.domain.ids import Kind, format_id
 from tracker.domain.isotopes import exponential_factor, parse_ratio, predicted_delta
 from tracker.domain.models import (
     ColumnBatch,
+    CustodyEvent,
     Cut,
     InstrumentSession,
     Measurement,
@@ -285,3 +287,92 @@ def _mass_dependence(session: InstrumentSession, lines: list[ResultLine]) -> Non
             if abs(residual) > 2 * se:
                 for line in (a, b):
                     line.flags.append(f"mass-dependence off ({pair.a} vs {pair.b})")
+
+
+class UnmatchedLine(View):
+    run_order: int
+    sample_name: str
+    reason: str
+
+
+class SessionDetail(View):
+    """One instrument session as stored: what was read, what matched, its latest results."""
+
+    id: str
+    name: str
+    instrument: str
+    element: str
+    mode: str
+    standard: str
+    started_at: datetime
+    source_filename: str | None
+    profile: str | None
+    ratios: list[str]
+    measurements: int
+    standards: int
+    unmatched: list[UnmatchedLine]
+    results: list[ResultLine]
+    flags: list[str]
+    reduced: bool
+
+
+def session_detail(db: Database, ref: str) -> SessionDetail:
+    """Read-only: the session's runs, its unmatched rows (with the import's reasons) and the
+    results its last reduction stored, reference materials judged as the reduction judged them."""
+    with db.read_session() as sql:
+        session = get_by_id(sql, InstrumentSession, "session", ref)
+        reasons = _import_reasons(sql, session.public_id)
+        unmatched = [
+            UnmatchedLine(run_order=m.run_order, sample_name=m.sample_name,
+                          reason=reasons.get(m.run_order, "not matched"))
+            for m in sorted(session.measurements, key=lambda m: m.run_order)
+            if m.role is MeasurementRole.UNMATCHED
+        ]  # fmt: skip
+        rows = sql.scalars(
+            select(Result).where(Result.session_id == session.id).order_by(Result.id)
+        )
+        lines = [_stored_line(sql, session, row) for row in rows]
+        return SessionDetail(
+            id=session.public_id, name=session.name, instrument=session.instrument,
+            element=session.element, mode=session.mode, standard=session.bracketing_standard,
+            started_at=session.started_at, source_filename=session.source_filename,
+            profile=session.profile_name, ratios=list(session.ratio_names),
+            measurements=len(session.measurements),
+            standards=sum(m.role is MeasurementRole.STANDARD for m in session.measurements),
+            unmatched=unmatched, results=lines, flags=list(session.flags), reduced=bool(lines),
+        )  # fmt: skip
+
+
+def _import_reasons(sql: Session, public_id: str) -> dict[int, str]:
+    event = sql.scalars(
+        select(CustodyEvent)
+        .where(CustodyEvent.object_ref == public_id, CustodyEvent.action == "session.imported")
+        .order_by(CustodyEvent.seq.desc())
+        .limit(1)
+    ).first()
+    if event is None:
+        return {}
+    payload = json.loads(event.payload)
+    return {int(u["run_order"]): str(u["reason"]) for u in payload.get("unmatched", [])}
+
+
+def _stored_line(sql: Session, session: InstrumentSession, row: Result) -> ResultLine:
+    accepted: ReferenceValue | None = None
+    if row.cut_id is not None:
+        kind, key, label = "cut", row.cut_id, _cut_label(sql.get_one(Cut, row.cut_id))
+    elif row.reference_material_id is not None:
+        material = sql.get_one(ReferenceMaterial, row.reference_material_id)
+        kind, key, label = "reference", material.id, material.name
+        accepted = _accepted(sql, material.id, row.ratio, session)
+    else:
+        key = row.position_id or 0
+        kind, label = "blank", f"procedural blank {key}"
+    passed = None if accepted is None else abs(row.delta_permil - accepted.value) <= accepted.two_sd
+    sd = row.sd_permil
+    return ResultLine(
+        target=_public(kind, key), kind=_KINDS[kind], label=label, ratio=row.ratio,
+        value=row.delta_permil, sd=sd, two_sd=None if sd is None else 2 * sd,
+        two_se=row.two_se_permil, n=row.n, accepted=accepted.value if accepted else None,
+        accepted_two_sd=accepted.two_sd if accepted else None, passed=passed,
+        blank_corrected=row.blank_corrected, flags=list(row.flags),
+    )  # fmt: skip

@@ -1,0 +1,119 @@
+"""The main screens as a person sees them on the demo. The snapshot tests check them and the
+README shows the committed snapshots, so its pictures are exactly what the tests check."""
+
+from __future__ import annotations
+
+from collections.abc import Awaitable, Callable
+from dataclasses import dataclass
+
+from textual.pilot import Pilot
+from textual.widgets import Input
+
+from tests.ui.conftest import scan, settle, until
+from tracker.ui.screens.drill import DrillScreen
+
+
+@dataclass(frozen=True)
+class Scene:
+    name: str
+    size: tuple[int, int]
+    steps: Callable[[Pilot[None]], Awaitable[None]]
+
+    async def run(self, pilot: Pilot[None]) -> None:
+        """The steps, then every text box's cursor held on: a blink caught mid-way on a busy
+        machine would make the same screen a different picture."""
+        await self.steps(pilot)
+        for box in pilot.app.screen.query(Input):
+            box.cursor_blink = False
+        await settle(pilot)
+
+
+async def _overview(pilot: Pilot[None]) -> None:
+    await settle(pilot)
+
+
+async def _loan(pilot: Pilot[None]) -> None:
+    await settle(pilot)
+    await pilot.press("down", "enter")  # KF-2026-014, the shark teeth
+    await settle(pilot)
+
+
+async def _item(pilot: Pilot[None]) -> None:
+    await settle(pilot)
+    await scan(pilot, "SP-00004-Q")
+
+
+async def _drill(pilot: Pilot[None]) -> None:
+    await settle(pilot)
+    await pilot.press("d")
+    await settle(pilot)
+    await scan(pilot, "SP-00010-U")
+    screen = pilot.app.screen
+    screen.query_one("#f-tissue", Input).value = "enameloid"
+    screen.query_one("#f-tare", Input).value = "1200.000 mg"
+    screen.query_one("#f-gross", Input).value = "1201.500 mg"
+    await until(pilot, lambda: _previewed_mass(screen) is not None)
+    await pilot.press("ctrl+s")
+    await settle(pilot)
+    await pilot.pause(0.3)
+    await settle(pilot)
+
+
+def _previewed_mass(screen: object) -> float | None:
+    view = screen.preview_view if isinstance(screen, DrillScreen) else None
+    return None if view is None else view.mass_mg
+
+
+async def _batch(pilot: Pilot[None]) -> None:
+    await settle(pilot)
+    await scan(pilot, "CB-00001-G")
+
+
+async def _session(pilot: Pilot[None]) -> None:
+    await settle(pilot)
+    await scan(pilot, "IS-00001-A")
+
+
+async def _drift(pilot: Pilot[None]) -> None:
+    await _session(pilot)
+    pilot.app.screen.query_one("#session-tabs").active = "tab-drift"  # type: ignore[attr-defined]
+    await settle(pilot)
+
+
+async def _labels(pilot: Pilot[None]) -> None:
+    await settle(pilot)
+    await pilot.press("f5")
+    await settle(pilot)
+    pilot.app.screen.query_one("#queue").focus()
+    await pilot.press("v")
+    await settle(pilot)
+
+
+async def _ledger(pilot: Pilot[None]) -> None:
+    await settle(pilot)
+    await pilot.press("f6")
+    await settle(pilot)
+    await pilot.press("v")
+    await settle(pilot)
+
+
+async def _help(pilot: Pilot[None]) -> None:
+    await settle(pilot)
+    await pilot.press("f1")
+    await settle(pilot)
+
+
+SCENES = [
+    Scene("overview-80x24", (80, 24), _overview),
+    Scene("overview-120x36", (120, 36), _overview),
+    Scene("loan-80x24", (80, 24), _loan),
+    Scene("item-80x24", (80, 24), _item),
+    Scene("drill-refused-80x24", (80, 24), _drill),
+    Scene("drill-refused-120x40", (120, 40), _drill),
+    Scene("batch-120x36", (120, 36), _batch),
+    Scene("session-120x36", (120, 36), _session),
+    Scene("drift-120x36", (120, 36), _drift),
+    Scene("labels-100x32", (100, 32), _labels),
+    Scene("ledger-120x36", (120, 36), _ledger),
+    Scene("help-80x24", (80, 24), _help),
+]

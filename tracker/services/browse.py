@@ -1,0 +1,150 @@
+"""Read-only listings that entry points browse: column batches, instrument sessions and
+reference materials. Nothing here writes or decides a rule."""
+
+from __future__ import annotations
+
+from datetime import date, datetime
+from typing import Any
+
+from sqlalchemy import func, select
+from sqlalchemy.orm import selectinload
+
+from tracker.db.database import Database
+from tracker.domain.ids import Kind, format_id
+from tracker.domain.models import (
+    Aliquot,
+    BatchPosition,
+    ColumnBatch,
+    Cut,
+    InstrumentSession,
+    Measurement,
+    MeasurementRole,
+    Powder,
+    ReferenceMaterial,
+    Result,
+    Solution,
+    Specimen,
+)
+from tracker.services.lookup import get_by_id
+from tracker.services.views import View
+
+
+class BatchLine(View):
+    id: str
+    name: str
+    element: str
+    performed_on: date
+    positions: int
+    cut_names: list[str]
+
+
+def list_batches(db: Database) -> list[BatchLine]:
+    """Column batches, newest first."""
+    with db.read_session() as session:
+        rows = session.scalars(
+            select(ColumnBatch)
+            .options(selectinload(ColumnBatch.positions))
+            .order_by(ColumnBatch.performed_on.desc(), ColumnBatch.id.desc())
+        )
+        return [
+            BatchLine(id=b.public_id, name=b.name, element=b.element, performed_on=b.performed_on,
+                      positions=len(b.positions), cut_names=list(b.cut_names))
+            for b in rows
+        ]  # fmt: skip
+
+
+class SessionLine(View):
+    id: str
+    name: str
+    element: str
+    instrument: str
+    started_at: datetime
+    runs: int
+    unmatched: int
+    results: int
+    flags: list[str]
+
+
+def list_sessions(db: Database) -> list[SessionLine]:
+    """Instrument sessions, newest first, with their run, unmatched and result counts."""
+    with db.read_session() as session:
+        count = func.count()
+        runs = _counts(
+            session.execute(select(Measurement.session_id, count).group_by(Measurement.session_id))
+        )
+        unmatched = _counts(
+            session.execute(
+                select(Measurement.session_id, count)
+                .where(Measurement.role == MeasurementRole.UNMATCHED)
+                .group_by(Measurement.session_id)
+            )
+        )
+        results = _counts(session.execute(
+            select(Result.session_id, count).group_by(Result.session_id)))  # fmt: skip
+        rows = session.scalars(
+            select(InstrumentSession).order_by(
+                InstrumentSession.started_at.desc(), InstrumentSession.id.desc()
+            )
+        )
+        return [
+            SessionLine(id=s.public_id, name=s.name, element=s.element, instrument=s.instrument,
+                        started_at=s.started_at, runs=runs.get(s.id, 0),
+                        unmatched=unmatched.get(s.id, 0), results=results.get(s.id, 0),
+                        flags=list(s.flags))
+            for s in rows
+        ]  # fmt: skip
+
+
+def _counts(rows: Any) -> dict[int, int]:
+    return {int(key): int(value) for key, value in rows}
+
+
+class MaterialLine(View):
+    id: str
+    name: str
+    element: str
+    matrix: str | None
+
+
+def list_reference_materials(db: Database, element: str | None = None) -> list[MaterialLine]:
+    """Reference materials and bracketing standards, optionally of one element."""
+    with db.read_session() as session:
+        query = select(ReferenceMaterial).order_by(ReferenceMaterial.name)
+        if element:
+            query = query.where(ReferenceMaterial.element == element)
+        return [
+            MaterialLine(id=r.public_id, name=r.name, element=r.element, matrix=r.matrix)
+            for r in session.scalars(query)
+        ]
+
+
+def batch_of_position(db: Database, position: str) -> str:
+    """The batch a column position belongs to (its public ID)."""
+    with db.read_session() as session:
+        return get_by_id(session, BatchPosition, "position", position).batch.public_id
+
+
+def results_missing(db: Database) -> dict[str, list[str]]:
+    """Per loan (its public ID): the sampled specimens that have no result yet."""
+    with db.read_session() as session:
+        sampled = session.execute(
+            select(Specimen.loan_id, Specimen.id).join(Powder, Powder.specimen_id == Specimen.id)
+            .distinct()
+        ).all()  # fmt: skip
+        measured = set(
+            session.scalars(
+                select(Powder.specimen_id)
+                .join(Solution, Solution.powder_id == Powder.id)
+                .join(Aliquot, Aliquot.solution_id == Solution.id)
+                .join(BatchPosition, BatchPosition.aliquot_id == Aliquot.id)
+                .join(Cut, Cut.position_id == BatchPosition.id)
+                .join(Result, Result.cut_id == Cut.id)
+                .distinct()
+            )
+        )
+        missing: dict[str, list[str]] = {}
+        for loan_id, specimen_id in sampled:
+            if specimen_id not in measured:
+                loan = format_id(Kind.LOAN, loan_id)
+                missing.setdefault(loan, []).append(format_id(Kind.SPECIMEN, specimen_id))
+        return missing

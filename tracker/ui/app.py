@@ -1,0 +1,389 @@
+"""The terminal interface: one app, a screen per task, every write through tracker.services.
+
+Database work happens only in thread workers, which post typed messages back; the UI thread
+only draws. A barcode scanner (a burst of keys ended by Enter) is recognised here, before
+any widget sees the keys: it fills the focused ID field or jumps to the scanned item.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable
+from pathlib import Path
+from typing import ClassVar
+
+from textual import events, work
+from textual.app import App, SystemCommand
+from textual.binding import Binding, BindingType
+from textual.command import CommandPalette
+from textual.message import Message
+from textual.reactive import reactive
+from textual.screen import Screen
+from textual.timer import Timer
+from textual.widgets import Input
+
+from tracker.db.database import Database
+from tracker.domain.errors import InputError, TrackerError
+from tracker.domain.ids import BadId, Kind, parse_id
+from tracker.domain.timeutil import Clock, utcnow
+from tracker.services import browse, labels, setup
+from tracker.services.views import OperatorView
+from tracker.ui import settings
+from tracker.ui.messages import ScanFailed, ScanResolved
+from tracker.ui.scan import BurstDetector
+from tracker.ui.widgets.id_field import IdInput
+
+
+class DatabaseOpened(Message):
+    def __init__(self, db: Database, operators: list[OperatorView]) -> None:
+        super().__init__()
+        self.db, self.operators = db, operators
+
+
+class DatabaseFailed(Message):
+    def __init__(self, error: TrackerError) -> None:
+        super().__init__()
+        self.error = error
+
+
+class TrackerApp(App[None]):
+    """``tracker`` with no command, on a terminal."""
+
+    CSS_PATH = "tracker.tcss"
+    TITLE = "tracker"
+    ENABLE_COMMAND_PALETTE = True
+    BINDINGS: ClassVar[list[BindingType]] = [
+        Binding("f1", "help", "Help", id="app.help"),
+        Binding("f2", "loans", "Loans", id="app.loans"),
+        Binding("f3", "batches", "Batches", id="app.batches"),
+        Binding("f4", "sessions", "Sessions", id="app.sessions"),
+        Binding("f5", "labels", "Labels", id="app.labels"),
+        Binding("f6", "ledger", "Ledger", id="app.ledger"),
+        Binding("ctrl+o", "choose_operator", "Operator", id="app.operator"),
+        Binding("c", "bench('checkin')", "Check in", id="bench.checkin", show=False),
+        Binding("d", "bench('drill')", "Drill", id="bench.drill", show=False),
+        Binding("s", "bench('dissolve')", "Dissolve", id="bench.dissolve", show=False),
+        Binding("k", "bench('concentration')", "Concentration", id="bench.concentration",
+                show=False),
+        Binding("a", "bench('aliquot')", "Aliquot", id="bench.aliquot", show=False),
+        Binding("m", "bench('move')", "Move", id="bench.move", show=False),
+        Binding("escape", "previous", "Back", id="app.previous", show=False),
+    ]  # fmt: skip
+
+    operator_label: reactive[str] = reactive("no operator yet")
+    status_line: reactive[str] = reactive("")
+
+    def __init__(
+        self,
+        target: str,
+        operator: str | None = None,
+        *,
+        clock: Clock = utcnow,
+        out_dir: Path | None = None,
+    ) -> None:
+        super().__init__()
+        self.target, self.preselected, self.clock = target, operator, clock
+        self.out_dir = out_dir or Path.cwd()  # where printed label PDFs are written
+        self.db: Database | None = None
+        self.operator: str | None = None
+        self.operators: list[OperatorView] = []
+        self._burst = BurstDetector()
+        self._held: list[events.Key] = []
+        self._held_timer: Timer | None = None
+        self._typed_before: tuple[Input, str] | None = None
+
+    # ------------------------------------------------------------------ start-up
+    def on_mount(self) -> None:
+        self.status_line = "opening the database …"
+        self.open_database()
+
+    @work(thread=True, exclusive=True, group="open")
+    def open_database(self) -> None:
+        from tracker.db.database import open_database
+
+        try:
+            db = open_database(self.target, clock=self.clock)
+            operators = setup.list_operators(db)
+        except TrackerError as error:
+            self.post_message(DatabaseFailed(error))
+            return
+        self.post_message(DatabaseOpened(db, operators))
+
+    def on_database_opened(self, event: DatabaseOpened) -> None:
+        self.db, self.operators = event.db, event.operators
+        self.status_line = ""
+        codes = {o.code for o in self.operators if o.active}
+        if self.preselected in codes:
+            self.set_operator(self.preselected)
+            return
+        if self.preselected:
+            self.notify(f"✗ --as {self.preselected}: no such active operator", severity="error")
+        self.action_choose_operator()
+
+    def on_database_failed(self, event: DatabaseFailed) -> None:
+        self.exit(message=f"error: {event.error.one_line()}", return_code=event.error.exit_code)
+
+    def on_unmount(self) -> None:
+        if self.db is not None:
+            self.db.close()
+
+    # ------------------------------------------------------------------ the operator
+    @property
+    def role(self) -> str | None:
+        found = next((o for o in self.operators if o.code == self.operator), None)
+        return found.role if found else None
+
+    @property
+    def is_manager(self) -> bool:
+        return self.role == "manager"
+
+    def set_operator(self, code: str) -> None:
+        first = self.operator is None
+        self.operator = code
+        settings.remember_operator(self.target, code)
+        role = self.role or "?"
+        mark = "★ manager" if role == "manager" else f"{role} (no overrides)"
+        self.operator_label = f"operator: {code} · {mark}"
+        if first:
+            from tracker.ui.screens.overview import OverviewScreen
+
+            self.push_screen(OverviewScreen())
+
+    def action_choose_operator(self) -> None:
+        from tracker.ui.screens.operator_pick import OperatorScreen
+
+        current = self.operator or settings.remembered_operator(self.target)
+
+        def chosen(code: str | None) -> None:
+            if code:
+                self.set_operator(code)
+
+        self.push_screen(OperatorScreen(self.operators, current), chosen)
+
+    # ------------------------------------------------------------------ navigation
+    def open_id(self, public_id: str, *, replace: bool = False) -> None:
+        """Show what an ID names: a loan, a batch, a session or any item's lineage."""
+        screen = self._screen_for(public_id)
+        if screen is None:
+            self.scan_lookup(public_id)  # a position: its batch is found in a worker
+            return
+        if replace and len(self.screen_stack) > 2:
+            self.switch_screen(screen)
+        else:
+            self.push_screen(screen)
+
+    def _screen_for(self, public_id: str) -> Screen[None] | None:
+        from tracker.ui.screens.batch import BatchScreen
+        from tracker.ui.screens.item import ItemScreen
+        from tracker.ui.screens.loan import LoanScreen
+        from tracker.ui.screens.session import SessionScreen
+
+        try:
+            kind = parse_id(public_id).kind
+        except BadId:
+            return LoanScreen(public_id)  # a lender's loan reference
+        if kind is Kind.LOAN:
+            return LoanScreen(public_id)
+        if kind is Kind.COLUMN_BATCH:
+            return BatchScreen(public_id)
+        if kind is Kind.INSTRUMENT_SESSION:
+            return SessionScreen(public_id)
+        if kind is Kind.POSITION:
+            return None
+        return ItemScreen(public_id)
+
+    def action_previous(self) -> None:
+        if len(self.screen_stack) > 2:
+            self.pop_screen()
+
+    def _go(self, screen: Screen[None]) -> None:
+        while len(self.screen_stack) > 2:
+            self.pop_screen()
+        self.push_screen(screen)
+
+    def action_loans(self) -> None:
+        while len(self.screen_stack) > 2:
+            self.pop_screen()
+
+    def action_batches(self) -> None:
+        from tracker.ui.screens.batch import BatchScreen
+
+        self._go(BatchScreen(None))
+
+    def action_sessions(self) -> None:
+        from tracker.ui.screens.session import SessionScreen
+
+        self._go(SessionScreen(None))
+
+    def action_labels(self) -> None:
+        from tracker.ui.screens.labels import LabelsScreen
+
+        self._go(LabelsScreen())
+
+    def action_ledger(self) -> None:
+        from tracker.ui.screens.ledger import LedgerScreen
+
+        self._go(LedgerScreen())
+
+    def action_help(self) -> None:
+        from tracker.ui.screens.help import HelpScreen
+
+        if not isinstance(self.screen, HelpScreen):
+            self.push_screen(HelpScreen())
+
+    def action_bench(self, form: str, **values: str) -> None:
+        self.push_screen(bench_form(form, **values))
+
+    def action_return_report(self, loan: str = "") -> None:
+        from tracker.ui.screens.unavailable import UnavailableScreen
+
+        self.push_screen(UnavailableScreen("return report", loan))
+
+    def action_manifest_import(self, loan: str = "") -> None:
+        from tracker.ui.screens.unavailable import UnavailableScreen
+
+        self.push_screen(UnavailableScreen("manifest import", loan))
+
+    def get_system_commands(self, screen: Screen[object]) -> Iterable[SystemCommand]:
+        yield from super().get_system_commands(screen)
+        for title, help_text, action in PALETTE:
+            yield SystemCommand(title, help_text, lambda a=action: self.run_action(a))
+
+    # ------------------------------------------------------------------ scanning
+    async def on_event(self, event: events.Event) -> None:
+        if (
+            isinstance(event, events.Key)
+            and not event.is_forwarded
+            and self.operator is not None
+            and not isinstance(self.screen, CommandPalette)
+            and await self._scan_key(event)
+        ):
+            return
+        await super().on_event(event)
+
+    async def _scan_key(self, event: events.Key) -> bool:
+        """True when the key was taken by the scanner logic (held back or a scan's Enter)."""
+        focused = self.focused
+        typing = isinstance(focused, Input)
+        char = event.character
+        if event.is_printable and char is not None and len(char) == 1 and event.key != "space":
+            continues = self._burst.feed(char, event.time)
+            if typing:
+                assert isinstance(focused, Input)
+                if not continues:
+                    self._typed_before = (focused, focused.value)
+                return False
+            self._held.append(event)
+            if self._held_timer is not None:
+                self._held_timer.stop()
+            self._held_timer = self.set_timer(self._burst.gap * 2, self._release_held)
+            return True
+        if event.key == "enter":
+            text = self._burst.enter(event.time)
+            held, self._held = self._held, []
+            if self._held_timer is not None:
+                self._held_timer.stop()
+            if text is not None:
+                self._scanned(text, focused)
+                return True
+            await self._replay(held)
+            return False
+        self._burst.reset()
+        await self._release_held()
+        return False
+
+    async def _release_held(self) -> None:
+        held, self._held = self._held, []
+        if held:
+            self._burst.reset()
+        await self._replay(held)
+
+    async def _replay(self, keys: list[events.Key]) -> None:
+        for key in keys:
+            await super().on_event(key)
+
+    def _scanned(self, text: str, focused: object) -> None:
+        if isinstance(focused, Input):
+            # The text box still has the scanned keys in its queue: act after it took them.
+            focused.call_later(self._finish_scan, text, focused)
+            return
+        self._finish_scan(text, focused)
+
+    def _finish_scan(self, text: str, focused: object) -> None:
+        if self._typed_before is not None and isinstance(focused, Input):
+            field, before = self._typed_before
+            if field is focused:
+                field.value = before  # the scan's characters do not stay in a text box
+        self._typed_before = None
+        if isinstance(focused, IdInput):
+            focused.fill_from_scan(text)
+            self.status_line = f"scanned {text.strip()} into the field"
+            return
+        self.status_line = f"scanned {text.strip()} …"
+        self.scan_lookup(text)
+
+    @work(thread=True, exclusive=True, group="scan")
+    def scan_lookup(self, text: str) -> None:
+        if self.db is None:
+            return
+        try:
+            view = labels.read_scan(self.db, text)
+            batch = (
+                browse.batch_of_position(self.db, view.id) if view.kind == "batchposition" else None
+            )
+        except TrackerError as error:
+            self.post_message(ScanFailed(text, error))
+            return
+        self.post_message(ScanResolved(view, batch))
+
+    def on_scan_resolved(self, event: ScanResolved) -> None:
+        self.status_line = f"✓ {event.view.id} · {event.view.what}"
+        self.open_id(event.batch or event.view.id)
+
+    def on_scan_failed(self, event: ScanFailed) -> None:
+        self.status_line = f"✗ scan {event.text.strip()!r}: {event.error.reason}"
+        self.notify(event.error.reason, title=f"✗ scan not understood: {event.text.strip()}",
+                    severity="error", timeout=8)  # fmt: skip
+
+
+def bench_form(form: str, **values: str) -> Screen[None]:
+    """The bench form by name, prefilled (e.g. the specimen on screen)."""
+    from tracker.ui.screens.aliquot import AliquotScreen
+    from tracker.ui.screens.checkin import CheckInScreen
+    from tracker.ui.screens.concentration import ConcentrationScreen
+    from tracker.ui.screens.dissolve import DissolveScreen
+    from tracker.ui.screens.drill import DrillScreen
+    from tracker.ui.screens.move import MoveScreen
+    from tracker.ui.screens.return_specimen import ReturnSpecimenScreen
+
+    forms = {
+        "checkin": CheckInScreen, "drill": DrillScreen, "dissolve": DissolveScreen,
+        "concentration": ConcentrationScreen, "aliquot": AliquotScreen, "move": MoveScreen,
+        "return": ReturnSpecimenScreen,
+    }  # fmt: skip
+    if form not in forms:
+        raise InputError("form", form, f"is not one of {', '.join(forms)}")
+    return forms[form](**values)
+
+
+# Every action in the command palette: title, what it does, the action it runs.
+PALETTE: list[tuple[str, str, str]] = [
+    ("Check in a specimen", "Scan a listed specimen as it arrives (key c)", "bench('checkin')"),
+    ("Drill a specimen", "Tare, gross, live allowance; refused over the limit (key d)",
+     "bench('drill')"),
+    ("Dissolve a powder", "Powder into acid, solution weighed by difference (key s)",
+     "bench('dissolve')"),
+    ("Record a concentration", "Element mass fraction of a solution (key k)",
+     "bench('concentration')"),
+    ("Take an aliquot", "Weigh out part of a solution (key a)", "bench('aliquot')"),
+    ("Move an item", "Scan an item and its new place (key m)", "bench('move')"),
+    ("Return a specimen", "Send a specimen back to its lender", "bench('return')"),
+    ("Loans overview", "Open loans by urgency (F2)", "loans"),
+    ("Column batches", "Build a batch by scanning aliquots; recoveries and yields (F3)", "batches"),
+    ("Instrument sessions", "Import an export, reduce, see QC and drift (F4)", "sessions"),
+    ("Labels", "Queue, preview on a stock, print (F5)", "labels"),
+    ("Ledger", "Browse, filter, verify the chain (F6)", "ledger"),
+    ("Switch operator", "Who is recording (Ctrl+O)", "choose_operator"),
+    ("Help", "Keys and a walk through every task (F1)", "help"),
+    ("Return report", "Report to the lender at return (not available yet)", "return_report"),
+    ("Import a loan manifest", "Lender's specimen list (not available yet)", "manifest_import"),
+]  # fmt: skip

@@ -1,0 +1,38 @@
+"""Messages shared by several screens: refusals, scans, navigation. Each screen defines the
+messages that carry its own data (``OverviewScreen.Loaded`` ...)."""
+
+from __future__ import annotations
+
+from textual.message import Message
+
+from tracker.domain.errors import TrackerError
+from tracker.services.labels import ScanView
+
+
+class Refused(Message):
+    """A service refused (InputError or RuleViolation): shown as one line where it happened."""
+
+    def __init__(self, error: TrackerError, purpose: str = "") -> None:
+        super().__init__()
+        self.error, self.purpose = error, purpose
+
+
+class ScanResolved(Message):
+    """A scan (or a typed ID) named something in the database."""
+
+    def __init__(self, view: ScanView, batch: str | None = None) -> None:
+        super().__init__()
+        self.view, self.batch = view, batch
+
+
+class ScanFailed(Message):
+    """A scan could not be read (a wrong check character, an unknown ID ...)."""
+
+    def __init__(self, text: str, error: TrackerError) -> None:
+        super().__init__()
+        self.text, self.error = text, error
+
+
+def refusal_text(error: TrackerError) -> str:
+    """How every refusal reads on screen: a cross, then the service's own one line."""
+    return f"✗ refused: {error.one_line()}"

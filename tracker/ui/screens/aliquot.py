@@ -1,0 +1,27 @@
+"""An aliquot weighed out of a solution; its element content follows from the concentration."""
+
+from __future__ import annotations
+
+from typing import Any, ClassVar
+
+from tracker.db.database import Database
+from tracker.services import lab
+from tracker.services.views import Done
+from tracker.ui.screens.form import Field, FormScreen
+
+
+class AliquotScreen(FormScreen):
+    TITLE = "Take an aliquot"
+    INTRO = "Weigh the aliquot vial empty (tare) and filled (gross), with units."
+    FIELDS: ClassVar[list[Field]] = [
+        Field("solution", "Solution", kind="id", placeholder="scan the solution, SO-"),
+        Field("tare", "Vial tare", placeholder="2.00000 g"),
+        Field("gross", "Vial gross", placeholder="2.02500 g"),
+        Field("readability", "Balance readability", value="0.01 mg"),
+        Field("purpose", "Purpose", value="isotopes", placeholder="isotopes or archive"),
+        Field("location", "Put it in (optional)", kind="id", placeholder="scan a location LC-"),
+    ]
+
+    @staticmethod
+    def service(db: Database, actor: str | None, values: dict[str, Any]) -> Done[Any]:
+        return lab.take_aliquot(db, actor, values)

@@ -1,0 +1,226 @@
+"""Column batch builder: scan aliquots onto columns, add blanks and reference materials,
+enter recoveries, and see yields and blank fractions flagged (in words and symbols)."""
+
+from __future__ import annotations
+
+from typing import Any, ClassVar
+
+from rich.text import Text
+from textual import on, work
+from textual.app import ComposeResult
+from textual.binding import Binding, BindingType
+from textual.message import Message
+from textual.screen import Screen
+from textual.widgets import DataTable, Footer, Input, Static
+
+from tracker.domain.errors import TrackerError
+from tracker.services import browse, chemistry, columns
+from tracker.services.browse import BatchLine
+from tracker.services.columns import BatchSummary
+from tracker.services.views import Done
+from tracker.ui.context import database, operator, tracker_app
+from tracker.ui.messages import Refused, refusal_text
+from tracker.ui.screens.batch_forms import CutScreen, NewBatchScreen, ReferencePositionScreen
+from tracker.ui.widgets.bars import flag_text
+from tracker.ui.widgets.id_field import IdField
+from tracker.ui.widgets.operator_bar import OperatorBar
+
+
+class BatchScreen(Screen[None]):
+    BINDINGS: ClassVar[list[BindingType]] = [
+        # Ctrl keys: the scan field keeps the focus between scans, so plain letters would type.
+        Binding("ctrl+n", "new_batch", "New batch", id="batch.new", priority=True),
+        Binding("ctrl+b", "add_blank", "Blank", id="batch.blank", priority=True),
+        Binding("ctrl+r", "add_reference", "Ref. material", id="batch.reference", priority=True),
+        Binding("ctrl+e", "enter_cut", "Recovery", id="batch.cut", priority=True),
+        Binding("ctrl+t", "other_batch", "Other batch", id="batch.other", priority=True),
+        Binding("escape", "app.previous", "Back", id="batch.back"),
+    ]
+
+    class Listed(Message):
+        def __init__(self, batches: list[BatchLine]) -> None:
+            super().__init__()
+            self.batches = batches
+
+    class Loaded(Message):
+        def __init__(self, summary: BatchSummary) -> None:
+            super().__init__()
+            self.summary = summary
+
+    class Added(Message):
+        def __init__(self, done: Done[Any]) -> None:
+            super().__init__()
+            self.done = done
+
+    def __init__(self, batch: str | None) -> None:
+        super().__init__()
+        self.batch_id = batch
+        self.summary: BatchSummary | None = None
+
+    def compose(self) -> ComposeResult:
+        yield OperatorBar("Column batch")
+        yield Static("", id="batch-head")
+        yield IdField("Scan an aliquot to put it on the next column", name="aliquot",
+                      placeholder="scan an aliquot AQ- (Enter adds it)")  # fmt: skip
+        yield DataTable(id="batches", cursor_type="row", zebra_stripes=True)
+        yield DataTable(id="positions", cursor_type="row", zebra_stripes=True)
+        yield Static("", id="outcome")
+        yield Footer(compact=True)
+
+    def on_mount(self) -> None:
+        batches = self.query_one("#batches", DataTable)
+        for label in ("Batch", "Name", "Element", "Date", "Columns"):
+            batches.add_column(label)
+        positions = self.query_one("#positions", DataTable)
+        for label in ("#", "Column", "Kind", "Holds", "Loaded µg", "Rec. µg", "Yield", "Blank",
+                      "Flags"):  # fmt: skip
+            positions.add_column(label)
+        self.refresh_view()
+
+    def on_screen_resume(self) -> None:
+        self.refresh_view()
+
+    def refresh_view(self) -> None:
+        showing = self.batch_id is not None
+        self.query_one("#batches").display = not showing
+        self.query_one("#positions").display = showing
+        self.query_one("#field-aliquot").display = showing
+        if showing:
+            assert self.batch_id is not None
+            self.load(self.batch_id)
+        else:
+            self.query_one("#batch-head", Static).update(
+                "Choose a batch (Enter) or open a new one (Ctrl+N)."
+            )
+            self.list_batches()
+
+    @work(thread=True, exclusive=True, group="load")
+    def list_batches(self) -> None:
+        self.post_message(self.Listed(browse.list_batches(database(self))))
+
+    @work(thread=True, exclusive=True, group="load")
+    def load(self, batch: str) -> None:
+        try:
+            summary = columns.summarize_batch(database(self), batch)
+        except TrackerError as error:
+            self.post_message(Refused(error, "load"))
+            return
+        self.post_message(self.Loaded(summary))
+
+    def on_batch_screen_listed(self, event: Listed) -> None:
+        table = self.query_one("#batches", DataTable)
+        table.clear()
+        for b in event.batches:
+            table.add_row(b.id, b.name, b.element, str(b.performed_on), str(b.positions), key=b.id)
+        table.focus()
+
+    @on(DataTable.RowSelected, "#batches")
+    def _chosen(self, event: DataTable.RowSelected) -> None:
+        if event.row_key.value:
+            self.batch_id = str(event.row_key.value)
+            self.refresh_view()
+
+    def on_batch_screen_loaded(self, event: Loaded) -> None:
+        s = self.summary = event.summary
+        self.batch_id = s.id
+        head = Text()
+        head.append(f"{s.id} {s.name} · {s.element}", style="bold")
+        head.append(f" · yield ≥ {s.yield_threshold * 100:g} % · blank ≤ {s.blank_limit * 100:g} %")
+        blank = "no blank measured" if s.blank_ng is None else f"{s.blank_ng:.1f} ng (n={s.blanks})"
+        head.append(f"\nprocedural blank: {blank} · ")
+        head.append_text(flag_text(s.flags))
+        self.query_one("#batch-head", Static).update(head)
+        table = self.query_one("#positions", DataTable)
+        keep = table.cursor_row
+        table.clear()
+        for p in s.positions:
+            table.add_row(
+                str(p.slot), p.id, p.kind, p.holds or "—", _num(p.loaded_ug, 2),
+                _num(p.recovered_ug, 3), _pct(p.yield_fraction, 1), _pct(p.blank_fraction, 2),
+                flag_text(p.flags), key=p.id,
+            )  # fmt: skip
+        if table.row_count:
+            table.move_cursor(row=min(keep, table.row_count - 1))
+        self.query_one("#f-aliquot", Input).focus()
+
+    # ------------------------------------------------------------------ building
+    def on_id_field_scanned(self, event: IdField.Scanned) -> None:
+        event.stop()
+        self._add({"kind": "sample", "aliquot": event.text})
+
+    @on(Input.Submitted, "#f-aliquot")
+    def _typed_aliquot(self, event: Input.Submitted) -> None:
+        if event.value.strip():
+            self._add({"kind": "sample", "aliquot": event.value.strip()})
+
+    def action_add_blank(self) -> None:
+        self._add({"kind": "blank"})
+
+    def _add(self, request: dict[str, Any]) -> None:
+        if self.batch_id is None:
+            self._outcome("✗ choose or open a batch first", error=True)
+            return
+        self._outcome("… adding", error=False)
+        self.add_position({"batch": self.batch_id, **request})
+
+    @work(thread=True, exclusive=True, group="save")
+    def add_position(self, request: dict[str, Any]) -> None:
+        try:
+            done = chemistry.add_position(database(self), operator(self), request)
+        except TrackerError as error:
+            self.post_message(Refused(error, "add"))
+            return
+        self.post_message(self.Added(done))
+
+    def on_batch_screen_added(self, event: Added) -> None:
+        p = event.done.item
+        loaded = f" · loaded {p.loaded_ug:.2f} µg" if p.loaded_ug else ""
+        self._outcome(f"✓ column {p.slot} ({p.id}): {p.kind} {p.holds or ''}{loaded} · label "
+                      f"queued · event #{event.done.event_seq}", error=False)  # fmt: skip
+        self.query_one("#f-aliquot", Input).value = ""
+        if self.batch_id:
+            self.load(self.batch_id)
+
+    def on_refused(self, event: Refused) -> None:
+        self._outcome(refusal_text(event.error), error=True)
+
+    def _outcome(self, text: str, *, error: bool) -> None:
+        outcome = self.query_one("#outcome", Static)
+        outcome.update(text)
+        outcome.set_class(error, "-error")
+
+    # ------------------------------------------------------------------ other forms
+    def action_new_batch(self) -> None:
+        self.app.push_screen(NewBatchScreen())
+
+    def action_add_reference(self) -> None:
+        if self.batch_id:
+            self.app.push_screen(ReferencePositionScreen(batch=self.batch_id))
+
+    def action_enter_cut(self) -> None:
+        table = self.query_one("#positions", DataTable)
+        if self.summary is None or not table.row_count:
+            return
+        key = table.coordinate_to_cell_key(table.cursor_coordinate).row_key.value
+        self.app.push_screen(CutScreen(position=str(key), cut=self.summary.element))
+
+    def action_other_batch(self) -> None:
+        self.batch_id = None
+        self.refresh_view()
+
+    @on(DataTable.RowSelected, "#positions")
+    def _open_position(self, event: DataTable.RowSelected) -> None:
+        if event.row_key.value:
+            tracker_app(self).push_screen(
+                CutScreen(position=str(event.row_key.value), cut=self.summary.element)
+                if self.summary
+                else CutScreen()
+            )
+
+
+def _num(value: float | None, places: int) -> str:
+    return "—" if value is None else f"{value:.{places}f}"
+
+
+def _pct(value: float | None, places: int) -> str:
+    return "—" if value is None else f"{value * 100:.{places}f} %"

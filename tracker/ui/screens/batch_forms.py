@@ -1,0 +1,71 @@
+"""The column batch's forms: open a batch, put a reference material on a column, record a cut."""
+
+from __future__ import annotations
+
+from datetime import date
+from typing import Any, ClassVar
+
+from tracker.db.database import Database
+from tracker.services import chemistry, columns
+from tracker.services.views import Done
+from tracker.ui.context import tracker_app
+from tracker.ui.screens.form import Field, FormScreen
+
+
+class NewBatchScreen(FormScreen):
+    TITLE = "Open a column batch"
+    INTRO = "Cut names in elution order, separated by commas; the element's cut is named like it."
+    FIELDS: ClassVar[list[Field]] = [
+        Field("name", "Batch name", placeholder="Ca 2026-12 A"),
+        Field("performed-on", "Performed on", value=date.today().isoformat()),
+        Field("element", "Element", value="Ca"),
+        Field("resin", "Resin", placeholder="DGA resin, 50-100 um, 0.25 mL"),
+        Field("elution-scheme", "Elution scheme", placeholder="load 3 M HNO3; elute Ca 0.05 M"),
+        Field("cut-names", "Cuts", value="matrix,Ca"),
+    ]
+
+    @staticmethod
+    def service(db: Database, actor: str | None, values: dict[str, Any]) -> Done[Any]:
+        return chemistry.create_batch(db, actor, values)
+
+
+class ReferencePositionScreen(FormScreen):
+    TITLE = "Add a reference material column"
+    INTRO = "The reference material by name (or RM- ID) and the element loaded on the column."
+    FIELDS: ClassVar[list[Field]] = [
+        Field("batch", "Batch", kind="id"),
+        Field("reference-material", "Reference material", placeholder="SRM 915b"),
+        Field("loaded-ug", "Element loaded (µg)", placeholder="10.0"),
+        Field("loaded-u-ug", "Its uncertainty (µg)", placeholder="0.05"),
+    ]
+
+    def values(self) -> dict[str, Any]:
+        return {**super().values(), "kind": "reference"}
+
+    @staticmethod
+    def service(db: Database, actor: str | None, values: dict[str, Any]) -> Done[Any]:
+        return chemistry.add_position(db, actor, values)
+
+    def after_save(self, done: Done[Any]) -> None:
+        tracker_app(self).pop_screen()
+
+
+class CutScreen(FormScreen):
+    TITLE = "Record a cut's recovery"
+    INTRO = (
+        "What the column's cut recovered, with its unit (10.31 ug). The yield and blank share "
+        "are computed and flagged against the batch's limits."
+    )
+    FIELDS: ClassVar[list[Field]] = [
+        Field("position", "Column position", kind="id", placeholder="CP-"),
+        Field("cut", "Cut", placeholder="Ca"),
+        Field("recovered", "Recovered element", placeholder="10.31 ug"),
+        Field("relative-uncertainty-percent", "Relative uncertainty (%)", value="1.5"),
+    ]
+
+    @staticmethod
+    def service(db: Database, actor: str | None, values: dict[str, Any]) -> Done[Any]:
+        return columns.record_cut(db, actor, values)
+
+    def after_save(self, done: Done[Any]) -> None:
+        tracker_app(self).pop_screen()

@@ -1,0 +1,165 @@
+"""Drilling: tare and gross as typed, the loan's remaining allowance recomputed live.
+
+The preview is the drill service's own check run read-only (``drilling.preview_drill``);
+Ctrl+S calls ``drilling.drill`` and shows its refusal when the drill is over a limit.
+A manager may fill the override reason; for anyone else that field is locked.
+"""
+
+from __future__ import annotations
+
+from typing import Any, ClassVar
+
+from rich.text import Text
+from textual import on, work
+from textual.message import Message
+from textual.timer import Timer
+from textual.widgets import Input, Static
+
+from tracker.db.database import Database
+from tracker.domain.errors import TrackerError
+from tracker.services import drilling
+from tracker.services.drilling import DrillPreview, LimitLine
+from tracker.services.views import Done
+from tracker.ui.context import database
+from tracker.ui.messages import Refused
+from tracker.ui.screens.form import Field, FormScreen
+from tracker.ui.widgets.bars import usage_bar
+from tracker.ui.widgets.id_field import IdField
+
+PREVIEW_DELAY = 0.15
+PREVIEWED_FIELDS = ("specimen", "tissue", "tare", "gross", "readability")
+
+
+class DrillScreen(FormScreen):
+    TITLE = "Drill a specimen"
+    INTRO = (
+        "Weigh the empty powder vial (tare), drill, weigh it again (gross). The allowance "
+        "below follows every keystroke. Caution: drilling makes fine dust — use extraction "
+        "and protection as your institution's rules require."
+    )
+    FIELDS: ClassVar[list[Field]] = [
+        Field("specimen", "Specimen", kind="id", placeholder="scan the specimen, SP-"),
+        Field("tissue", "Tissue", placeholder="as the loan permits, e.g. enameloid"),
+        Field("site", "Site on the specimen (optional)", placeholder="labial face, mid-crown"),
+        Field("tare", "Vial tare", placeholder="1203.557 mg"),
+        Field("gross", "Vial gross (with powder)", placeholder="1206.118 mg"),
+        Field("readability", "Balance readability", value="0.001 mg"),
+        Field("location", "Put the powder in (optional)", kind="id", placeholder="LC-"),
+        Field("override-reason", "Override reason (over a limit)", manager_only=True),
+    ]
+
+    class Previewed(Message):
+        def __init__(self, preview: DrillPreview, seq: int) -> None:
+            super().__init__()
+            self.preview, self.seq = preview, seq
+
+    def __init__(self, **values: str) -> None:
+        super().__init__(**values)
+        self._timer: Timer | None = None
+        self._seq = 0  # answers to older drafts arrive late sometimes: only the newest counts
+        self.preview_view: DrillPreview | None = None
+
+    @staticmethod
+    def service(db: Database, actor: str | None, values: dict[str, Any]) -> Done[Any]:
+        return drilling.drill(db, actor, values)
+
+    def on_mount(self) -> None:
+        super().on_mount()
+        self.schedule_preview()
+
+    @on(Input.Changed)
+    def _typed(self, event: Input.Changed) -> None:
+        if event.input.id and event.input.id.removeprefix("f-") in PREVIEWED_FIELDS:
+            self.schedule_preview()
+
+    def on_id_field_resolved(self, event: IdField.Resolved) -> None:
+        if event.field.field_name == "specimen":
+            self.schedule_preview()
+
+    def schedule_preview(self) -> None:
+        if self._timer is not None:
+            self._timer.stop()
+        self._timer = self.set_timer(PREVIEW_DELAY, self._preview_now)
+
+    def _preview_now(self) -> None:
+        draft = {k: v for k, v in self.values().items() if k in PREVIEWED_FIELDS}
+        if "specimen" not in draft:
+            self.show_preview("Scan a specimen to see its allowance.")
+            return
+        self._seq += 1
+        self.preview(draft, self._seq)
+
+    @work(thread=True, exclusive=True, group="preview")
+    def preview(self, draft: dict[str, Any], seq: int) -> None:
+        try:
+            view = drilling.preview_drill(database(self), draft)
+        except TrackerError as error:
+            self.post_message(Refused(error, f"preview {seq}"))
+            return
+        self.post_message(self.Previewed(view, seq))
+
+    def on_refused(self, event: Refused) -> None:
+        if event.purpose.startswith("preview"):
+            event.stop()
+            if event.purpose != f"preview {self._seq}":
+                return
+            self.preview_view = None
+            self.show_preview(Text(f"✗ {event.error.one_line()}"))
+            return
+        super().on_refused(event)
+
+    def on_drill_screen_previewed(self, event: DrillScreen.Previewed) -> None:
+        event.stop()
+        if event.seq != self._seq:
+            return
+        self.preview_view = event.preview
+        tissue = self.query_one("#f-tissue", Input)
+        if not tissue.value and len(event.preview.permitted_tissues) == 1:
+            tissue.value = event.preview.tissue  # the loan permits only this one
+        self.show_preview(render_preview(event.preview))
+
+    def show_preview(self, content: Text | str) -> None:
+        preview = self.query_one("#preview", Static)
+        preview.update(content)
+        preview.set_class(True, "-shown")
+
+
+def render_preview(view: DrillPreview) -> Text:
+    text = Text()
+    text.append(f"Allowance · {view.loan} terms v{view.terms_version} · ", style="bold")
+    text.append(f"{view.catalog_number} ({view.status.replace('_', ' ')})\n")
+    text.append(f"  permitted: {', '.join(view.permitted_tissues)} · due {view.due_on}\n")
+    if view.mass_mg is not None:
+        text.append(f"  this drill: {view.mass_mg:.3f} ± {view.mass_u_mg or 0:.3f} mg\n")
+    for line in (view.per_specimen, view.loan_total):
+        text.append_text(_limit(line, view.mass_mg))
+    if view.max_specimens_sampled is not None:
+        more = "" if view.already_sampled else " (+1 with this one)"
+        text.append(
+            f"  specimens: {view.sampled_specimens} of {view.max_specimens_sampled} sampled{more}\n"
+        )
+    if view.problem:
+        text.append(f"✗ {view.problem}\n", style="bold red")
+    for violation in view.violations:
+        text.append(f"✗ over: {violation}\n", style="bold red")
+    if view.violations:
+        text.append("Ctrl+S will be refused unless a manager gives an override reason.\n")
+    elif view.within:
+        text.append("✓ within the loan's terms\n", style="green")
+    else:
+        text.append("… type tare and gross to check the drill\n", style="dim")
+    return text
+
+
+def _limit(line: LimitLine, mass: float | None) -> Text:
+    text = Text(f"  {line.name:<13}")
+    if line.limit_mg is None or line.left_before_mg is None:
+        text.append("no limit\n")
+        return text
+    after = line.used_mg + (mass or 0.0)
+    text.append_text(usage_bar(after / line.limit_mg, 8))
+    text.append(f"  {line.limit_mg:g} mg, left {line.left_before_mg:.3f}")
+    if line.left_after_mg is not None:
+        text.append(f" → after {line.left_after_mg:.3f} mg")
+    text.append("\n")
+    return text

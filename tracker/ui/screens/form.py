@@ -1,0 +1,173 @@
+"""The shape every bench form shares: labelled fields, a live preview, one save key.
+
+Saving calls one service in a thread worker with exactly what was typed (text with units,
+IDs as scanned) and shows its answer: ✓ and the ledger event, or the service's own one-line
+refusal under the form, with the blamed field focused. The form decides nothing itself.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from dataclasses import dataclass
+from typing import Any, ClassVar
+
+from textual import work
+from textual.app import ComposeResult
+from textual.binding import Binding, BindingType
+from textual.containers import VerticalScroll
+from textual.message import Message
+from textual.screen import Screen
+from textual.widgets import Footer, Input, Static
+
+from tracker.db.database import Database
+from tracker.domain.errors import TrackerError
+from tracker.services.views import Done
+from tracker.ui.context import database, operator, tracker_app
+from tracker.ui.messages import Refused, refusal_text
+from tracker.ui.widgets.id_field import IdField, IdInput
+from tracker.ui.widgets.operator_bar import OperatorBar
+
+Service = Callable[[Database, str | None, dict[str, Any]], Done[Any]]
+
+
+@dataclass(frozen=True)
+class Field:
+    """One input of a form, named as the service names it."""
+
+    name: str
+    label: str
+    kind: str = "text"  # "id" for scannable IDs
+    placeholder: str = ""
+    value: str = ""
+    manager_only: bool = False
+
+
+class FormScreen(Screen[None]):
+    """Base of the bench forms; subclasses give TITLE, INTRO, FIELDS and ``service``."""
+
+    TITLE: ClassVar[str] = "Form"
+    INTRO: ClassVar[str] = ""
+    FIELDS: ClassVar[list[Field]] = []
+    BINDINGS: ClassVar[list[BindingType]] = [
+        Binding("ctrl+s", "save", "Save", id="form.save", priority=True),
+        Binding("escape", "app.previous", "Back", id="form.back"),
+    ]
+
+    class Saved(Message):
+        def __init__(self, done: Done[Any]) -> None:
+            super().__init__()
+            self.done = done
+
+    def __init__(self, **values: str) -> None:
+        super().__init__()
+        self.initial = values
+        self.last_done: Done[Any] | None = None
+
+    @staticmethod
+    def service(db: Database, actor: str | None, values: dict[str, Any]) -> Done[Any]:
+        raise NotImplementedError
+
+    def compose(self) -> ComposeResult:
+        yield OperatorBar(self.TITLE)
+        with VerticalScroll(id="form"):
+            if self.INTRO:
+                yield Static(self.INTRO, classes="intro")
+            for spec in self.FIELDS:
+                yield from self.compose_field(spec)
+        yield Static("", id="preview")  # outside the scroll: always in sight while typing
+        yield Static("", id="outcome")
+        yield Footer(compact=True)
+
+    def compose_field(self, spec: Field) -> ComposeResult:
+        value = self.initial.get(spec.name, spec.value)
+        if spec.kind == "id":
+            yield IdField(spec.label, name=spec.name, value=value, placeholder=spec.placeholder)
+            return
+        locked = spec.manager_only and not tracker_app(self).is_manager
+        yield Static(spec.label + ("  🔒 managers only" if spec.manager_only else ""),
+                     classes="field-label")  # fmt: skip
+        yield Input(
+            value,
+            placeholder=(
+                f"locked: {tracker_app(self).operator} is not a manager"
+                if locked
+                else spec.placeholder
+            ),
+            id=f"f-{spec.name}",
+            disabled=locked,
+            classes="field",
+        )
+
+    def on_mount(self) -> None:
+        first_empty = next((i for i in self.query(Input) if not i.value and not i.disabled), None)
+        (first_empty or self.query(Input).first()).focus()
+
+    def values(self) -> dict[str, Any]:
+        """What was typed, by service field name; empty fields are left out."""
+        typed: dict[str, Any] = {}
+        for spec in self.FIELDS:
+            text = self.query_one(f"#f-{spec.name}", Input).value.strip()
+            if text:
+                typed[spec.name.replace("-", "_")] = text
+        return typed
+
+    def action_save(self) -> None:
+        self.show_outcome("… saving", error=False)
+        self.save(self.values())
+
+    @work(thread=True, exclusive=True, group="save")
+    def save(self, values: dict[str, Any]) -> None:
+        try:
+            done = self.service(database(self), operator(self), values)
+        except TrackerError as error:
+            self.post_message(Refused(error, "save"))
+            return
+        self.post_message(self.Saved(done))
+
+    def on_refused(self, event: Refused) -> None:
+        event.stop()
+        self.show_outcome(refusal_text(event.error), error=True)
+        name = event.error.field.replace("_", "-")
+        for candidate in (name, name.split(".")[-1]):
+            found = self.query(f"#f-{candidate}")
+            if found:
+                found.first().focus()
+                break
+
+    def on_form_screen_saved(self, event: FormScreen.Saved) -> None:
+        event.stop()
+        self.last_done = event.done
+        item = getattr(event.done.item, "id", None)
+        self.show_outcome(
+            f"✓ saved {item or ''} · ledger event #{event.done.event_seq}", error=False
+        )
+        self.notify(f"✓ {self.TITLE}: saved {item or ''}", title="Saved")
+        self.after_save(event.done)
+
+    def after_save(self, done: Done[Any]) -> None:
+        """Default: open what was made (or changed), replacing the form."""
+        item = getattr(done.item, "id", None)
+        if item:
+            tracker_app(self).open_id(item, replace=True)
+
+    def show_outcome(self, text: str, *, error: bool) -> None:
+        outcome = self.query_one("#outcome", Static)
+        outcome.update(text)
+        outcome.set_class(error, "-error")
+        outcome.set_class(not error and text.startswith("✓"), "-ok")
+
+    def on_id_field_scanned(self, event: IdField.Scanned) -> None:
+        """A scan into this form's ID field moves on to the next field to fill."""
+        event.stop()
+        inputs = [i for i in self.query(Input) if not i.disabled]
+        try:
+            index = inputs.index(event.field.input)
+        except ValueError:
+            return
+        for following in inputs[index + 1 :]:
+            if not following.value:
+                following.focus()
+                return
+
+    def id_input(self, name: str) -> IdInput:
+        return self.query_one(f"#f-{name}", IdInput)

@@ -1,0 +1,89 @@
+"""Help: the keys, and a walk through every task on the demo database."""
+
+from __future__ import annotations
+
+from typing import ClassVar
+
+from textual.app import ComposeResult
+from textual.binding import Binding, BindingType
+from textual.containers import VerticalScroll
+from textual.screen import Screen
+from textual.widgets import Footer, Markdown
+
+from tracker.ui.widgets.operator_bar import OperatorBar
+
+HELP = """\
+# tracker — help
+
+**Scanning.** Point the scanner at any label, anywhere: tracker jumps to the item. When an ID
+field is focused (a form, the batch builder, the label queue) the scan fills that field
+instead. IDs may be typed too, in any case, with or without hyphens. A misread ID (wrong
+check character) shows a ✗ line and names what is wrong.
+
+**Keys everywhere** — F1 help · F2 loans · F3 column batches · F4 instrument sessions ·
+F5 labels · F6 ledger · Ctrl+O switch operator · Ctrl+P all actions (command palette) ·
+Esc back · Ctrl+Q quit. Bench forms: **c** check in · **d** drill · **s** dissolve ·
+**k** concentration · **a** aliquot · **m** move. In a form, **Ctrl+S** saves.
+
+Status is always written in words and symbols: ✓ ok/pass · ⚠ warning · ✗ refused, over a
+limit or failed · ↩ powder to return · ? results or recovery missing.
+
+## Walk-through on the demo database
+
+1. **Check in a specimen by scanning.** Press **c**. Scan the specimen's label (on the demo:
+   type `SP-00011-S` quickly, or type it and press Enter). Type its condition, scan or type a
+   location (`LC-00006-A` is *Loan box A*), press **Ctrl+S**. Its lineage opens; its label is
+   queued.
+2. **Drill within the allowance.** Press **d**, scan `SP-00010-U`. Type the tare
+   (`1200.000 mg`) and gross: the allowance under the form updates as you type. A gross of
+   `1201.500 mg` is over the per-specimen and loan limits: **Ctrl+S** is refused and says
+   by how much. Change the gross to `1200.500 mg` and save: ✓.
+   Only a manager (★ in the top right) may give an override reason.
+3. **Build a column batch.** Press **F3**, then **Ctrl+N** to open a batch (name, resin,
+   scheme), Ctrl+S. Scan aliquots onto columns (`AQ-00002-D` on the demo): the scan field
+   keeps the focus, so scan one after another. **Ctrl+B** adds a procedural blank, **Ctrl+R**
+   a reference material. Move to a column and press **Ctrl+E** (or Enter) to enter the
+   recovered element: yields and blank shares are flagged against the batch's limits.
+4. **Import and reduce a session.** Press **F4**, then **i**. Give the export's path, a saved
+   profile (`mc-ca` on the demo), a name, the instrument, element and bracketing standard,
+   Ctrl+S. The session opens: unmatched rows are listed with why; press **r** to reduce —
+   results with 2SD and n, reference materials ✓ pass or ✗ FAIL, and the standard's drift
+   plotted on its own tab.
+5. **Print labels.** Press **F5**. Choose the stock, the first free position, **v** draws the
+   sheet, **p** prints the whole queue to a PDF (and to a printer if you name one).
+6. **Return report.** On a loan (F2, Enter), **R** opens the return report. *Not available
+   in this build yet* — it needs the return-report service (issue 6); the screen says so.
+7. **The ledger.** Press **F6**: filter by action, operator or item; **v** verifies every
+   hash and shows the head hash to give the lender.
+
+## On a loan (F2, Enter)
+Enter opens a specimen · **c** check in · **d** drill the selected specimen · **p** plan what
+each specimen still needs · **R** return report · **I** manifest import · tabs: specimens
+with consumption bars, terms and amendments, plan.
+
+## On an item
+Its lineage (specimen → powders → solutions → aliquots → columns → cuts and results) with
+masses, element amounts and yields; its custody history on the second tab. **d s k a m c r**
+open the bench forms with this item filled in; **l** queues its label again.
+
+## Managers
+Overriding a loan limit needs a manager and a written reason (the drill form's last field,
+locked for technicians). Amendments and accepted reference values are also for managers
+(`tracker loan amend`, `tracker reference value`).
+
+> **Safety.** Drilling makes fine dust; digestion uses concentrated acids (sometimes HF).
+> tracker records the work; it is not a safety authority. Follow your institution's
+> chemical-hygiene plan and local rules.
+"""
+
+
+class HelpScreen(Screen[None]):
+    BINDINGS: ClassVar[list[BindingType]] = [
+        Binding("escape", "app.pop_screen", "Close help", id="help.close"),
+    ]
+
+    def compose(self) -> ComposeResult:
+        yield OperatorBar("Help")
+        with VerticalScroll(id="help"):
+            yield Markdown(HELP)
+        yield Footer(compact=True)

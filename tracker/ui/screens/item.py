@@ -1,0 +1,193 @@
+"""One item: where it came from, its lineage as a tree with masses and yields, its custody
+history, and the bench actions that apply to it (prefilled with its ID)."""
+
+from __future__ import annotations
+
+from typing import Any, ClassVar
+
+from rich.text import Text
+from textual import on, work
+from textual.app import ComposeResult
+from textual.binding import Binding, BindingType
+from textual.message import Message
+from textual.screen import Screen
+from textual.widgets import DataTable, Footer, Static, TabbedContent, TabPane, Tree
+from textual.widgets.tree import TreeNode
+
+from tracker.domain.errors import TrackerError
+from tracker.services import labels, lineage
+from tracker.services.lineage import ItemDetail, Node
+from tracker.services.views import Done
+from tracker.ui.context import database, operator, tracker_app
+from tracker.ui.messages import Refused, refusal_text
+from tracker.ui.widgets.operator_bar import OperatorBar
+
+# Which field of each bench form the item on screen fills.
+PREFILL = {
+    "checkin": "specimen", "drill": "specimen", "return": "specimen", "dissolve": "powder",
+    "concentration": "solution", "aliquot": "solution", "move": "item",
+}  # fmt: skip
+
+
+class ItemScreen(Screen[None]):
+    BINDINGS: ClassVar[list[BindingType]] = [
+        Binding("d", "act('drill')", "Drill", id="item.drill"),
+        Binding("s", "act('dissolve')", "Dissolve", id="item.dissolve"),
+        Binding("k", "act('concentration')", "Conc.", id="item.concentration"),
+        Binding("a", "act('aliquot')", "Aliquot", id="item.aliquot"),
+        Binding("m", "act('move')", "Move", id="item.move"),
+        Binding("c", "act('checkin')", "Check in", id="item.checkin"),
+        Binding("r", "act('return')", "Return", id="item.return"),
+        Binding("l", "queue_label", "Label", id="item.label"),
+        Binding("escape", "app.previous", "Back", id="item.back"),
+    ]
+
+    class Loaded(Message):
+        def __init__(self, detail: ItemDetail) -> None:
+            super().__init__()
+            self.detail = detail
+
+    class LabelQueued(Message):
+        def __init__(self, done: Done[Any]) -> None:
+            super().__init__()
+            self.done = done
+
+    def __init__(self, item_id: str) -> None:
+        super().__init__()
+        self.item_id = item_id
+
+    def compose(self) -> ComposeResult:
+        yield OperatorBar(f"Item {self.item_id}")
+        yield Static("loading …", id="item-head")
+        with TabbedContent(id="item-tabs"):
+            with TabPane("Lineage", id="tab-lineage"):
+                yield Tree("lineage", id="lineage")
+            with TabPane("Custody history", id="tab-history"):
+                yield DataTable(id="history", cursor_type="row", zebra_stripes=True)
+        yield Static("", id="outcome")
+        yield Footer(compact=True)
+
+    def on_mount(self) -> None:
+        history = self.query_one("#history", DataTable)
+        for label in ("#", "when (UTC)", "who", "action", "item", "parent"):
+            history.add_column(label)
+        self.load()
+
+    def on_screen_resume(self) -> None:
+        self.load()
+
+    @work(thread=True, exclusive=True, group="load")
+    def load(self) -> None:
+        try:
+            detail = lineage.show_item(database(self), self.item_id)
+        except TrackerError as error:
+            self.post_message(Refused(error, "load"))
+            return
+        self.post_message(self.Loaded(detail))
+
+    def on_item_screen_loaded(self, event: Loaded) -> None:
+        detail = event.detail
+        self.item_id = detail.item.id
+        path = " › ".join(f"{a.id}" for a in detail.ancestors)
+        head = Text()
+        head.append(f"{detail.item.id}  {detail.item.label}", style="bold")
+        if detail.item.status:
+            head.append(f"  · {detail.item.status.replace('_', ' ')}")
+        head.append(f"\nfrom: {path or '—'}\nwhere: {detail.location or '—'}")
+        self.query_one("#item-head", Static).update(head)
+        tree: Tree[str] = self.query_one("#lineage", Tree)
+        tree.clear()
+        tree.root.set_label(node_text(detail.item))
+        tree.root.data = detail.item.id
+        _grow(tree.root, detail.item)
+        tree.root.expand_all()
+        history = self.query_one("#history", DataTable)
+        history.clear()
+        for e in reversed(detail.history):
+            history.add_row(
+                str(e.seq), e.at.strftime("%Y-%m-%d %H:%M"), e.operator, e.action, e.object,
+                e.parent,
+            )  # fmt: skip
+
+    def on_refused(self, event: Refused) -> None:
+        outcome = self.query_one("#outcome", Static)
+        outcome.update(refusal_text(event.error))
+        outcome.set_class(True, "-error")
+
+    @on(Tree.NodeSelected, "#lineage")
+    def _open_node(self, event: Tree.NodeSelected[str]) -> None:
+        if event.node.data and event.node.data != self.item_id:
+            tracker_app(self).open_id(event.node.data)
+
+    def action_act(self, form: str) -> None:
+        tracker_app(self).action_bench(form, **{PREFILL[form]: self.item_id})
+
+    def action_queue_label(self) -> None:
+        self.queue_label()
+
+    @work(thread=True, exclusive=True, group="save")
+    def queue_label(self) -> None:
+        try:
+            done = labels.queue_labels(database(self), operator(self), {"items": [self.item_id]})
+        except TrackerError as error:
+            self.post_message(Refused(error, "label"))
+            return
+        self.post_message(self.LabelQueued(done))
+
+    def on_item_screen_label_queued(self, event: LabelQueued) -> None:
+        outcome = self.query_one("#outcome", Static)
+        outcome.set_class(False, "-error")
+        outcome.update(f"✓ label queued for {self.item_id} · event #{event.done.event_seq}")
+
+
+def _grow(parent: TreeNode[str], node: Node) -> None:
+    for child in node.children:
+        branch = parent.add(node_text(child), data=child.id, expand=True)
+        _grow(branch, child)
+    if not node.children:
+        parent.allow_expand = False
+
+
+def node_text(node: Node) -> Text:
+    """One lineage node: ID, what it is, status in words, and its amounts with units."""
+    text = Text()
+    text.append(node.id, style="bold")
+    text.append(f" {node.label}")
+    if node.status:
+        text.append(f" · {node.status.replace('_', ' ')}", style="dim")
+    facts = facts_text(node.kind, node.facts)
+    if facts:
+        text.append(f" · {facts}")
+    return text
+
+
+def _pm(value: Any, u: Any, unit: str, places: int = 3) -> str:
+    if value is None:
+        return "—"
+    return f"{value:.{places}f} ± {u or 0:.{places}f} {unit}"
+
+
+def facts_text(kind: str, facts: dict[str, Any]) -> str:
+    parts: list[str] = []
+    if kind == "powder":
+        parts.append(_pm(facts.get("mass_mg"), facts.get("mass_u_mg"), "mg"))
+        parts.append(f"left {facts.get('remaining_mg', 0):.3f} mg")
+    elif kind == "solution":
+        parts.append(f"{facts.get('powder_mass_mg', 0):.3f} mg powder")
+        parts.append(_pm(facts.get("solution_mass_g"), facts.get("solution_mass_u_g"), "g", 4))
+        for symbol, amount in (facts.get("elements") or {}).items():
+            parts.append(f"{symbol} {_pm(amount['ug'], amount['u_ug'], 'µg', 2)}")
+    elif kind == "aliquot":
+        parts.append(_pm(facts.get("mass_g"), facts.get("mass_u_g"), "g", 5))
+    elif kind == "batchposition" and facts.get("loaded_ug") is not None:
+        parts.append(f"loaded {_pm(facts['loaded_ug'], facts.get('loaded_u_ug'), 'µg', 2)}")
+    elif kind == "cut":
+        if facts.get("recovered_ug") is not None:
+            parts.append(f"recovered {facts['recovered_ug']:.2f} µg")
+        if facts.get("yield") is not None:
+            parts.append(f"yield {facts['yield'] * 100:.1f} %")
+        for r in facts.get("results") or []:
+            two_sd = f" ± {r['two_sd']:.2f}" if r.get("two_sd") is not None else ""
+            unit = "‰" if r.get("kind") == "delta" else ""
+            parts.append(f"δ{r['ratio']} {r['value']:.2f}{two_sd}{unit} (n={r['n']})")
+    return " · ".join(parts)

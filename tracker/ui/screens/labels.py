@@ -1,0 +1,202 @@
+"""Labels: the queue, a stock's sheet drawn in the terminal, and printing to PDF (and lp)."""
+
+from __future__ import annotations
+
+from typing import Any, ClassVar
+
+from rich.text import Text
+from textual import on, work
+from textual.app import ComposeResult
+from textual.binding import Binding, BindingType
+from textual.containers import Horizontal
+from textual.message import Message
+from textual.screen import Screen
+from textual.widgets import DataTable, Footer, Input, Select, Static, TabbedContent, TabPane
+
+from tracker.domain.errors import TrackerError
+from tracker.services import labels
+from tracker.services.labels import LabelView
+from tracker.services.views import Done
+from tracker.ui.context import database, operator, tracker_app
+from tracker.ui.messages import Refused, refusal_text
+from tracker.ui.widgets.id_field import IdField
+from tracker.ui.widgets.operator_bar import OperatorBar
+
+DEFAULT_STOCK = "a4-65"
+
+
+class LabelsScreen(Screen[None]):
+    BINDINGS: ClassVar[list[BindingType]] = [
+        Binding("p", "print_queue", "Print queue", id="labels.print"),
+        Binding("v", "preview", "Preview sheet", id="labels.preview"),
+        Binding("r", "refresh", "Refresh", id="labels.refresh"),
+        Binding("escape", "app.previous", "Back", id="labels.back"),
+    ]
+
+    class Loaded(Message):
+        def __init__(self, queue: list[LabelView], stocks: list[str]) -> None:
+            super().__init__()
+            self.queue, self.stocks = queue, stocks
+
+    class Previewed(Message):
+        def __init__(self, sheet: Text) -> None:
+            super().__init__()
+            self.sheet = sheet
+
+    class Printed(Message):
+        def __init__(self, outcome: Any) -> None:
+            super().__init__()
+            self.outcome = outcome
+
+    class Queued(Message):
+        def __init__(self, done: Done[Any]) -> None:
+            super().__init__()
+            self.done = done
+
+    def compose(self) -> ComposeResult:
+        yield OperatorBar("Labels")
+        with Horizontal(id="label-options"):
+            yield Select([(DEFAULT_STOCK, DEFAULT_STOCK)], value=DEFAULT_STOCK, id="stock",
+                         allow_blank=False)  # fmt: skip
+            yield Input("1", id="start", placeholder="start position")
+            yield Input("", id="printer", placeholder="printer (empty: PDF only)")
+        yield IdField("Scan an item to queue its label", name="queue-item",
+                      placeholder="scan any vial or specimen")  # fmt: skip
+        with TabbedContent(id="label-tabs"):
+            with TabPane("Queue", id="tab-queue"):
+                yield DataTable(id="queue", cursor_type="row", zebra_stripes=True)
+            with TabPane("Sheet preview", id="tab-sheet"):
+                yield Static("press v to draw the sheet", id="sheet")
+        yield Static("", id="label-hint", classes="hint")
+        yield Static("", id="outcome")
+        yield Footer(compact=True)
+
+    def on_mount(self) -> None:
+        table = self.query_one("#queue", DataTable)
+        for label in ("Item", "Kind", "Label text", "Queued by"):
+            table.add_column(label)
+        self.action_refresh()
+
+    def action_refresh(self) -> None:
+        self.load()
+
+    @work(thread=True, exclusive=True, group="load")
+    def load(self) -> None:
+        from tracker.output.stocks import entries
+
+        try:
+            queue = labels.list_labels(database(self))
+            stocks = sorted(entries())
+        except TrackerError as error:
+            self.post_message(Refused(error, "load"))
+            return
+        self.post_message(self.Loaded(queue, stocks))
+
+    def on_labels_screen_loaded(self, event: Loaded) -> None:
+        select: Select[str] = self.query_one("#stock", Select)
+        current = select.value
+        select.set_options([(name, name) for name in event.stocks])
+        select.value = current if current in event.stocks else event.stocks[0]
+        table = self.query_one("#queue", DataTable)
+        table.clear()
+        for label in event.queue:
+            table.add_row(label.item, label.kind, " / ".join(label.lines[:2]), label.queued_by)
+        self.query_one("#label-hint", Static).update(
+            f"{len(event.queue)} label(s) queued · p prints them all · v draws the sheet"
+        )
+
+    def _options(self) -> tuple[str, str, str]:
+        stock = str(self.query_one("#stock", Select).value)
+        return (stock, self.query_one("#start", Input).value.strip() or "1",
+                self.query_one("#printer", Input).value.strip())  # fmt: skip
+
+    def action_preview(self) -> None:
+        stock, start, _ = self._options()
+        self.query_one("#label-tabs", TabbedContent).active = "tab-sheet"
+        self.preview(stock, start)
+
+    @work(thread=True, exclusive=True, group="preview")
+    def preview(self, stock_name: str, start_text: str) -> None:
+        from tracker.domain.errors import InputError
+        from tracker.output.layout import lay_out
+        from tracker.output.stocks import load_stock
+        from tracker.ui.widgets.label_sheet import sheet_text
+
+        try:
+            if not start_text.isdigit():
+                raise InputError("start", start_text, "is not a whole number")
+            start = int(start_text)
+            stock = load_stock(stock_name)
+            pages = lay_out(stock, labels.queued_facts(database(self)), start)
+        except TrackerError as error:
+            self.post_message(Refused(error, "preview"))
+            return
+        sheet = sheet_text(stock, pages[0] if pages else None, start)
+        sheet.append(f"\n{len(pages)} page(s) for the queue")
+        self.post_message(self.Previewed(sheet))
+
+    def on_labels_screen_previewed(self, event: Previewed) -> None:
+        self.query_one("#sheet", Static).update(event.sheet)
+
+    def action_print_queue(self) -> None:
+        stock, start, printer = self._options()
+        self._outcome("… printing", error=False)
+        self.print_queue(stock, start, printer)
+
+    @work(thread=True, exclusive=True, group="save")
+    def print_queue(self, stock: str, start: str, printer: str) -> None:
+        from tracker.domain.errors import InputError
+        from tracker.output import jobs
+
+        try:
+            if not start.isdigit():
+                raise InputError("start", start, "is not a whole number")
+            outcome = jobs.print_queue(
+                database(self), operator(self), stock=stock, start=int(start),
+                printer=printer or None, folder=tracker_app(self).out_dir,
+            )  # fmt: skip
+        except TrackerError as error:
+            self.post_message(Refused(error, "print"))
+            return
+        self.post_message(self.Printed(outcome))
+
+    def on_labels_screen_printed(self, event: Printed) -> None:
+        job = event.outcome.job
+        sent = f" · sent to {job.printer}" if job.printer else ""
+        self._outcome(f"✓ printed {job.labels} label(s) on {job.pages} page(s) as {job.id} → "
+                      f"{event.outcome.out}{sent} · event #{event.outcome.event_seq}",
+                      error=False)  # fmt: skip
+        self.load()
+
+    @on(IdField.Scanned)
+    def _scanned(self, event: IdField.Scanned) -> None:
+        event.stop()
+        self.queue_item(event.text)
+
+    @on(Input.Submitted, "#f-queue-item")
+    def _typed(self, event: Input.Submitted) -> None:
+        if event.value.strip():
+            self.queue_item(event.value.strip())
+
+    @work(thread=True, exclusive=True, group="save")
+    def queue_item(self, item: str) -> None:
+        try:
+            done = labels.queue_labels(database(self), operator(self), {"items": [item]})
+        except TrackerError as error:
+            self.post_message(Refused(error, "queue"))
+            return
+        self.post_message(self.Queued(done))
+
+    def on_labels_screen_queued(self, event: Queued) -> None:
+        self._outcome(f"✓ queued {', '.join(event.done.item.items)} · event "
+                      f"#{event.done.event_seq}", error=False)  # fmt: skip
+        self.query_one("#f-queue-item", Input).value = ""
+        self.load()
+
+    def on_refused(self, event: Refused) -> None:
+        self._outcome(refusal_text(event.error), error=True)
+
+    def _outcome(self, text: str, *, error: bool) -> None:
+        outcome = self.query_one("#outcome", Static)
+        outcome.update(text)
+        outcome.set_class(error, "-error")

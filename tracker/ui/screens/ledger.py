@@ -1,0 +1,142 @@
+"""The custody ledger: browse and filter events, verify the chain with a progress bar, and
+show the head hash a lender can check independently."""
+
+from __future__ import annotations
+
+import json
+from typing import ClassVar
+
+from rich.text import Text
+from textual import on, work
+from textual.app import ComposeResult
+from textual.binding import Binding, BindingType
+from textual.containers import Horizontal
+from textual.message import Message
+from textual.screen import Screen
+from textual.widgets import DataTable, Footer, Input, ProgressBar, Static
+
+from tracker.domain.errors import TrackerError
+from tracker.domain.ledger import VerifyReport
+from tracker.services import ledger
+from tracker.services.views import EventView
+from tracker.ui.context import database
+from tracker.ui.messages import Refused, refusal_text
+from tracker.ui.widgets.operator_bar import OperatorBar
+
+LIMIT = 500
+
+
+class LedgerScreen(Screen[None]):
+    BINDINGS: ClassVar[list[BindingType]] = [
+        Binding("v", "verify", "Verify chain", id="ledger.verify"),
+        Binding("slash", "filter", "Filter", id="ledger.filter"),
+        Binding("escape", "app.previous", "Back", id="ledger.back"),
+    ]
+
+    class Listed(Message):
+        def __init__(self, events: list[EventView]) -> None:
+            super().__init__()
+            self.events = events
+
+    class Progress(Message):
+        def __init__(self, done: int, total: int) -> None:
+            super().__init__()
+            self.done, self.total = done, total
+
+    class Verified(Message):
+        def __init__(self, report: VerifyReport) -> None:
+            super().__init__()
+            self.report = report
+
+    def compose(self) -> ComposeResult:
+        yield OperatorBar("Custody ledger")
+        with Horizontal(id="ledger-filters"):
+            yield Input(placeholder="action starts with…", id="filter-action")
+            yield Input(placeholder="operator", id="filter-operator")
+            yield Input(placeholder="item ID", id="filter-item")
+        yield DataTable(id="events", cursor_type="row", zebra_stripes=True)
+        yield Static("", id="event-payload")
+        yield ProgressBar(total=None, id="verify-progress", show_eta=False)
+        yield Static("press v to verify the whole chain", id="verify-result")
+        yield Footer(compact=True)
+
+    def on_mount(self) -> None:
+        table = self.query_one("#events", DataTable)
+        for label in ("#", "when (UTC)", "who", "action", "item", "parent"):
+            table.add_column(label)
+        self.load("", "", "")
+        table.focus()
+
+    def action_filter(self) -> None:
+        self.query_one("#filter-action", Input).focus()
+
+    @on(Input.Submitted)
+    @on(Input.Changed)
+    def _filters(self) -> None:
+        self.load(*(self.query_one(f"#filter-{n}", Input).value.strip()
+                    for n in ("action", "operator", "item")))  # fmt: skip
+
+    @work(thread=True, exclusive=True, group="load")
+    def load(self, action: str, who: str, item: str) -> None:
+        try:
+            events = ledger.recent_events(
+                database(self), LIMIT, action or None, operator=who or None, item=item or None
+            )
+        except TrackerError as error:
+            self.post_message(Refused(error, "load"))
+            return
+        self.post_message(self.Listed(events))
+
+    def on_ledger_screen_listed(self, event: Listed) -> None:
+        table = self.query_one("#events", DataTable)
+        table.clear()
+        self.events = {str(e.seq): e for e in event.events}
+        for e in event.events:
+            table.add_row(str(e.seq), e.at.strftime("%Y-%m-%d %H:%M"), e.operator, e.action,
+                          e.object, e.parent, key=str(e.seq))  # fmt: skip
+
+    @on(DataTable.RowHighlighted, "#events")
+    def _show_payload(self, event: DataTable.RowHighlighted) -> None:
+        chosen = getattr(self, "events", {}).get(str(event.row_key.value))
+        if chosen is not None:
+            payload = json.dumps(chosen.payload, ensure_ascii=False)
+            self.query_one("#event-payload", Static).update(
+                Text(f"#{chosen.seq} {chosen.hash[:16]}… {payload[:300]}")
+            )
+
+    def action_verify(self) -> None:
+        self.query_one("#verify-result", Static).update("… verifying every event")
+        self.verify()
+
+    @work(thread=True, exclusive=True, group="verify")
+    def verify(self) -> None:
+        def progress(done: int, total: int) -> None:
+            self.post_message(self.Progress(done, total))
+
+        try:
+            report = ledger.verify(database(self), progress, every=50)
+        except TrackerError as error:
+            self.post_message(Refused(error, "verify"))
+            return
+        self.post_message(self.Verified(report))
+
+    def on_ledger_screen_progress(self, event: Progress) -> None:
+        self.query_one("#verify-progress", ProgressBar).update(
+            total=max(event.total, 1), progress=event.done
+        )
+
+    def on_ledger_screen_verified(self, event: Verified) -> None:
+        r = event.report
+        result = self.query_one("#verify-result", Static)
+        if r.ok:
+            line = f"✓ ledger intact: {r.events} events · head #{r.head_seq} {r.head_hash}"
+        else:
+            line = (
+                f"✗ ledger BROKEN at event #{r.broken_seq}: {r.reason} "
+                f"({r.events} events verified before it)"
+            )
+        result.update(Text(line, style="green" if r.ok else "bold red"))
+        result.set_class(not r.ok, "-error")
+
+    def on_refused(self, event: Refused) -> None:
+        self.query_one("#verify-result", Static).update(refusal_text(event.error))

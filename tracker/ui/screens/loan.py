@@ -1,0 +1,198 @@
+"""One loan: terms in force and their amendments, its specimens with consumption bars,
+what can still be drilled (planning), and the return report and manifest (issue 6)."""
+
+from __future__ import annotations
+
+from typing import ClassVar
+
+from rich.text import Text
+from textual import on, work
+from textual.app import ComposeResult
+from textual.binding import Binding, BindingType
+from textual.containers import Horizontal
+from textual.message import Message
+from textual.screen import Screen
+from textual.widgets import DataTable, Footer, Input, Static, TabbedContent, TabPane
+
+from tracker.domain.errors import TrackerError
+from tracker.services import lineage, planning, reconcile
+from tracker.services.lineage import ItemDetail
+from tracker.services.planning import Plan
+from tracker.services.reconcile import LoanLine
+from tracker.ui.context import database, tracker_app
+from tracker.ui.messages import Refused, refusal_text
+from tracker.ui.widgets.bars import flag_cell, flag_text, usage_bar
+from tracker.ui.widgets.operator_bar import OperatorBar
+
+
+class LoanScreen(Screen[None]):
+    BINDINGS: ClassVar[list[BindingType]] = [
+        Binding("enter", "open_specimen", "Open", id="loan.open"),
+        Binding("c", "act('checkin')", "Check in", id="loan.checkin"),
+        Binding("d", "act('drill')", "Drill", id="loan.drill"),
+        Binding("p", "plan", "Plan", id="loan.plan"),
+        Binding("R", "report", "Return report", id="loan.report"),
+        Binding("I", "manifest", "Manifest", id="loan.manifest"),
+        Binding("escape", "app.previous", "Back", id="loan.back"),
+    ]
+
+    class Loaded(Message):
+        def __init__(self, detail: ItemDetail, line: LoanLine) -> None:
+            super().__init__()
+            self.detail, self.line = detail, line
+
+    class Planned(Message):
+        def __init__(self, plan: Plan) -> None:
+            super().__init__()
+            self.plan = plan
+
+    def __init__(self, loan: str) -> None:
+        super().__init__()
+        self.loan = loan
+
+    def compose(self) -> ComposeResult:
+        yield OperatorBar(f"Loan {self.loan}")
+        yield Static("loading …", id="loan-head")
+        with TabbedContent(id="loan-tabs"):
+            with TabPane("Specimens", id="tab-specimens"):
+                yield DataTable(id="specimens", cursor_type="row", zebra_stripes=True)
+            with TabPane("Terms", id="tab-terms"):
+                yield Static("", id="terms")
+            with TabPane("Plan", id="tab-plan"):
+                with Horizontal(classes="plan-inputs"):
+                    yield Static("element, µg per analysis, replicates:")
+                    yield Input("Ca", id="plan-element", placeholder="element")
+                    yield Input("2", id="plan-ug", placeholder="µg per analysis")
+                    yield Input("4", id="plan-replicates", placeholder="replicates")
+                yield Static("Press p to see what each specimen still needs.", id="plan")
+        yield Static("", id="outcome")
+        yield Footer(compact=True)
+
+    def on_mount(self) -> None:
+        table = self.query_one("#specimens", DataTable)
+        for label, width in (("Specimen", 10), ("Catalogue no.", 13), ("Status", 8),
+                             ("Drilled / permitted", 24), ("Flags", None)):  # fmt: skip
+            table.add_column(label, width=width)
+        self.load()
+
+    def on_screen_resume(self) -> None:
+        self.load()
+
+    @work(thread=True, exclusive=True, group="load")
+    def load(self) -> None:
+        try:
+            db = database(self)
+            detail = lineage.show_item(db, self.loan)
+            (line,) = reconcile.reconcile(db, detail.item.id)
+        except TrackerError as error:
+            self.post_message(Refused(error, "load"))
+            return
+        self.post_message(self.Loaded(detail, line))
+
+    def on_loan_screen_loaded(self, event: Loaded) -> None:
+        line, detail = event.line, event.detail
+        self.loan = line.id
+        head = Text()
+        head.append(f"{line.reference} · {line.lender} · {line.status}\n", style="bold")
+        head.append(f"{detail.item.label.split(': ', 1)[-1]}\n")
+        head.append(f"terms v{line.terms_version}: {', '.join(line.permitted_tissues)}; ")
+        head.append(f"≤ {line.max_mass_per_specimen_mg or '—'} mg each, ")
+        head.append(f"≤ {line.max_total_mass_mg or '—'} mg total, ")
+        head.append(f"≤ {line.max_specimens_sampled or '—'} specimens; due {line.due_on}")
+        head.append(f" ({line.days_left} d)\n" if line.status == "open" else "\n")
+        head.append("used ")
+        head.append_text(usage_bar(line.used_fraction, 10))
+        head.append("  ")
+        head.append_text(flag_text(line.flags))
+        self.query_one("#loan-head", Static).update(head)
+        table = self.query_one("#specimens", DataTable)
+        table.clear()
+        for s in line.specimen_lines:
+            used = s.drilled_mg / s.permitted_mg if s.permitted_mg else None
+            bar = Text.assemble(f"{s.drilled_mg:.3f}/{s.permitted_mg or 0:g} mg ",
+                                usage_bar(used, 6))  # fmt: skip
+            table.add_row(
+                s.id, s.catalog_number, s.status.replace("_", " "), bar,
+                flag_cell(s.flags, 14), key=s.id,
+            )  # fmt: skip
+        terms = Text()
+        for t in detail.terms:
+            terms.append(f"v{t.version} {t.kind} from {t.effective_from}: ", style="bold")
+            terms.append(
+                f"{', '.join(t.permitted_tissues)}; ≤ {t.max_mass_per_specimen_mg} mg each, "
+                f"≤ {t.max_total_mass_mg} mg total, ≤ {t.max_specimens_sampled} specimens, "
+                f"due {t.due_on}; powder: {t.powder_disposition}\n"
+            )
+        for d in detail.documents:
+            terms.append(
+                f"document {d.filename} ({d.role or 'attached'}) sha256 {d.sha256[:16]}…\n"
+            )
+        self.query_one("#terms", Static).update(terms)
+
+    def on_refused(self, event: Refused) -> None:
+        outcome = self.query_one("#outcome", Static)
+        outcome.update(refusal_text(event.error))
+        outcome.set_class(True, "-error")
+
+    def _selected(self) -> str | None:
+        table = self.query_one("#specimens", DataTable)
+        if not table.row_count:
+            return None
+        value = table.coordinate_to_cell_key(table.cursor_coordinate).row_key.value
+        return str(value) if value else None
+
+    @on(DataTable.RowSelected, "#specimens")
+    def _row(self, event: DataTable.RowSelected) -> None:
+        if event.row_key.value:
+            tracker_app(self).open_id(str(event.row_key.value))
+
+    def action_open_specimen(self) -> None:
+        chosen = self._selected()
+        if chosen:
+            tracker_app(self).open_id(chosen)
+
+    def action_act(self, form: str) -> None:
+        chosen = self._selected()
+        tracker_app(self).action_bench(form, **({"specimen": chosen} if chosen else {}))
+
+    def action_report(self) -> None:
+        tracker_app(self).action_return_report(self.loan)
+
+    def action_manifest(self) -> None:
+        tracker_app(self).action_manifest_import(self.loan)
+
+    def action_plan(self) -> None:
+        request = {
+            "target": self.loan,
+            "analyses": [{
+                "element": self.query_one("#plan-element", Input).value.strip(),
+                "ug_per_analysis": self.query_one("#plan-ug", Input).value.strip(),
+                "replicates": self.query_one("#plan-replicates", Input).value.strip(),
+            }],
+        }  # fmt: skip
+        self.query_one("#loan-tabs", TabbedContent).active = "tab-plan"
+        self.plan(request)
+
+    @work(thread=True, exclusive=True, group="plan")
+    def plan(self, request: dict[str, object]) -> None:
+        try:
+            answer = planning.plan(database(self), request)
+        except TrackerError as error:
+            self.post_message(Refused(error, "plan"))
+            return
+        self.post_message(self.Planned(answer))
+
+    def on_loan_screen_planned(self, event: Planned) -> None:
+        plan = event.plan
+        text = Text()
+        text.append(
+            f"{plan.material} · {plan.tissue} · terms v{plan.terms_version}\n", style="bold"
+        )
+        before, after = plan.loan_remaining_before_mg, plan.loan_remaining_after_mg
+        text.append(f"loan allows {before if before is None else f'{before:.3f}'} mg more; ")
+        text.append(f"after this plan {after if after is None else f'{after:.3f}'} mg\n")
+        for s in plan.specimens:
+            mark = "✓" if s.feasible else "✗"
+            line = f"{mark} {s.id} {s.catalog_number}: drill {s.to_drill_mg:.3f} mg — {s.reason}\n"
+            text.append(line, style="" if s.feasible else "red")
+        self.query_one("#plan", Static).update(text)

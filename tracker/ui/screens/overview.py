@@ -1,0 +1,114 @@
+"""Overview: open loans, most urgent first — allowance used, due date, flags. Enter opens one."""
+
+from __future__ import annotations
+
+from typing import ClassVar
+
+from rich.text import Text
+from textual import on, work
+from textual.app import ComposeResult
+from textual.binding import Binding, BindingType
+from textual.message import Message
+from textual.screen import Screen
+from textual.widgets import DataTable, Footer, Static
+
+from tracker.domain.errors import TrackerError
+from tracker.services import browse, reconcile
+from tracker.services.reconcile import LoanLine
+from tracker.ui.context import database, tracker_app
+from tracker.ui.messages import Refused, refusal_text
+from tracker.ui.widgets.bars import flag_cell, usage_bar
+from tracker.ui.widgets.operator_bar import OperatorBar
+
+FLAGS_WIDTH = 17  # the whole table fits 80 columns; wider terminals show more of each flag
+
+
+class OverviewScreen(Screen[None]):
+    BINDINGS: ClassVar[list[BindingType]] = [
+        Binding("enter", "open_loan", "Open loan", id="overview.open"),
+        Binding("r", "refresh", "Refresh", id="overview.refresh"),
+    ]
+
+    class Loaded(Message):
+        def __init__(self, lines: list[LoanLine], missing: dict[str, list[str]]) -> None:
+            super().__init__()
+            self.lines, self.missing = lines, missing
+
+    def compose(self) -> ComposeResult:
+        yield OperatorBar("Loans · most urgent first")
+        table: DataTable[Text | str] = DataTable(id="loans", cursor_type="row", zebra_stripes=True)
+        yield table
+        yield Static("", id="loan-hint", classes="hint")
+        yield Footer(compact=True)
+
+    def on_mount(self) -> None:
+        table = self.query_one("#loans", DataTable)
+        for label, key, width in (("Loan", "loan", 12), ("Allowance used", "used", 17),
+                                  ("Due", "due", 10), ("Specimens", "specimens", 11),
+                                  ("Flags", "flags", FLAGS_WIDTH)):  # fmt: skip
+            table.add_column(label, key=key, width=width)
+        self.action_refresh()
+
+    def on_screen_resume(self) -> None:
+        if self.query_one("#loans", DataTable).row_count:
+            self.action_refresh()
+
+    def action_refresh(self) -> None:
+        self.load()
+
+    @work(thread=True, exclusive=True, group="load")
+    def load(self) -> None:
+        try:
+            db = database(self)
+            lines = reconcile.reconcile(db, specimens=False)
+            missing = browse.results_missing(db)
+        except TrackerError as error:
+            self.post_message(Refused(error, "load"))
+            return
+        self.post_message(self.Loaded(lines, missing))
+
+    def on_overview_screen_loaded(self, event: Loaded) -> None:
+        table = self.query_one("#loans", DataTable)
+        keep = table.cursor_row
+        table.clear()
+        for line in event.lines:
+            flags = list(line.flags)
+            if line.status == "open" and event.missing.get(line.id):
+                flags.append(f"results missing: {len(event.missing[line.id])}")
+            due = (
+                f"{line.due_on}\n{line.days_left} d left"
+                if line.status == "open"
+                else f"{line.due_on}\n{line.status}"
+            )
+            table.add_row(
+                Text(f"{line.reference}\n{line.lender_code}", style="bold"),
+                Text.assemble(
+                    f"{line.drilled_mg:.3f}/{line.max_total_mass_mg or 0:g} mg\n",
+                    usage_bar(line.used_fraction, 8),
+                ),
+                due,
+                f"{line.sampled}/{line.specimens} sampled\n{line.on_hand} on hand",
+                flag_cell(flags, FLAGS_WIDTH, 2),
+                height=2,
+                key=line.id,
+            )
+        if table.row_count:
+            table.move_cursor(row=min(keep, table.row_count - 1))
+        self.query_one("#loan-hint", Static).update(
+            f"{len(event.lines)} loans · Enter opens a loan · scan any label to jump to it"
+        )
+
+    def on_refused(self, event: Refused) -> None:
+        self.query_one("#loan-hint", Static).update(refusal_text(event.error))
+
+    @on(DataTable.RowSelected, "#loans")
+    def _selected(self, event: DataTable.RowSelected) -> None:
+        if event.row_key.value:
+            tracker_app(self).open_id(event.row_key.value)
+
+    def action_open_loan(self) -> None:
+        table = self.query_one("#loans", DataTable)
+        if table.row_count:
+            key = table.coordinate_to_cell_key(table.cursor_coordinate).row_key.value
+            if key:
+                tracker_app(self).open_id(key)

@@ -1,0 +1,24 @@
+"""Return a specimen to its lender, noting its condition as it leaves."""
+
+from __future__ import annotations
+
+from typing import Any, ClassVar
+
+from tracker.db.database import Database
+from tracker.services import specimens
+from tracker.services.views import Done
+from tracker.ui.screens.form import Field, FormScreen
+
+
+class ReturnSpecimenScreen(FormScreen):
+    TITLE = "Return a specimen"
+    INTRO = "The specimen goes back to the lender: scan it and describe its condition."
+    FIELDS: ClassVar[list[Field]] = [
+        Field("specimen", "Specimen", kind="id", placeholder="scan the specimen, SP-"),
+        Field("condition", "Condition at return", placeholder="as received; drill pit at core"),
+        Field("note", "Note (optional)", placeholder="courier parcel 1 of 1"),
+    ]
+
+    @staticmethod
+    def service(db: Database, actor: str | None, values: dict[str, Any]) -> Done[Any]:
+        return specimens.return_specimen(db, actor, values)

@@ -1,0 +1,203 @@
+"""Instrument sessions: import through a profile, unmatched rows, reduced results with 2SD
+and n, reference materials ✓ pass / ✗ FAIL, and the bracketing standard's drift."""
+
+from __future__ import annotations
+
+from typing import Any, ClassVar
+
+from rich.text import Text
+from textual import on, work
+from textual.app import ComposeResult
+from textual.binding import Binding, BindingType
+from textual.message import Message
+from textual.screen import Screen
+from textual.widgets import DataTable, Footer, Static, TabbedContent, TabPane
+
+from tracker.domain.errors import TrackerError
+from tracker.services import browse, instrument, reduction
+from tracker.services.browse import SessionLine
+from tracker.services.instrument import DriftSeries
+from tracker.services.reduction import ResultLine, SessionDetail
+from tracker.services.views import Done
+from tracker.ui.context import database, operator
+from tracker.ui.messages import Refused, refusal_text
+from tracker.ui.screens.session_import import ImportSessionScreen
+from tracker.ui.widgets.bars import flag_text
+from tracker.ui.widgets.drift_plot import DriftPlot
+from tracker.ui.widgets.operator_bar import OperatorBar
+
+
+class SessionScreen(Screen[None]):
+    BINDINGS: ClassVar[list[BindingType]] = [
+        Binding("i", "import_session", "Import", id="session.import"),
+        Binding("r", "reduce", "Reduce", id="session.reduce"),
+        Binding("o", "other_session", "Other session", id="session.other"),
+        Binding("escape", "app.previous", "Back", id="session.back"),
+    ]
+
+    class Listed(Message):
+        def __init__(self, sessions: list[SessionLine]) -> None:
+            super().__init__()
+            self.sessions = sessions
+
+    class Loaded(Message):
+        def __init__(self, detail: SessionDetail, drift: DriftSeries) -> None:
+            super().__init__()
+            self.detail, self.drift = detail, drift
+
+    class Reduced(Message):
+        def __init__(self, done: Done[Any]) -> None:
+            super().__init__()
+            self.done = done
+
+    def __init__(self, session: str | None) -> None:
+        super().__init__()
+        self.session = session
+
+    def compose(self) -> ComposeResult:
+        yield OperatorBar("Instrument session")
+        yield Static("", id="session-head")
+        yield DataTable(id="sessions", cursor_type="row", zebra_stripes=True)
+        with TabbedContent(id="session-tabs"):
+            with TabPane("Results", id="tab-results"):
+                yield DataTable(id="results", cursor_type="row", zebra_stripes=True)
+            with TabPane("Unmatched rows", id="tab-unmatched"):
+                yield DataTable(id="unmatched", cursor_type="row")
+            with TabPane("Standard drift", id="tab-drift"):
+                yield DriftPlot(id="drift")
+        yield Static("", id="outcome")
+        yield Footer(compact=True)
+
+    def on_mount(self) -> None:
+        for table_id, labels in (
+            ("#sessions", ("Session", "Name", "Element", "Started", "Runs", "Unmatched",
+                           "Results")),
+            ("#results", ("Target", "Ratio", "Value", "2SD", "n", "QC / flags")),
+            ("#unmatched", ("Run", "Sample name", "Why not matched")),
+        ):  # fmt: skip
+            table = self.query_one(table_id, DataTable)
+            for label in labels:
+                table.add_column(label)
+        self.refresh_view()
+
+    def on_screen_resume(self) -> None:
+        self.refresh_view()
+
+    def refresh_view(self) -> None:
+        showing = self.session is not None
+        self.query_one("#sessions").display = not showing
+        self.query_one("#session-tabs").display = showing
+        if self.session is not None:
+            self.load(self.session)
+        else:
+            self.query_one("#session-head", Static).update(
+                "Choose a session (Enter) or import an export (i)."
+            )
+            self.list_sessions()
+
+    @work(thread=True, exclusive=True, group="load")
+    def list_sessions(self) -> None:
+        self.post_message(self.Listed(browse.list_sessions(database(self))))
+
+    @work(thread=True, exclusive=True, group="load")
+    def load(self, session: str) -> None:
+        try:
+            db = database(self)
+            detail = reduction.session_detail(db, session)
+            drift = instrument.standard_drift(db, session)
+        except TrackerError as error:
+            self.post_message(Refused(error, "load"))
+            return
+        self.post_message(self.Loaded(detail, drift))
+
+    def on_session_screen_listed(self, event: Listed) -> None:
+        table = self.query_one("#sessions", DataTable)
+        table.clear()
+        for s in event.sessions:
+            table.add_row(s.id, s.name, s.element, s.started_at.strftime("%Y-%m-%d"),
+                          str(s.runs), str(s.unmatched), str(s.results), key=s.id)  # fmt: skip
+        table.focus()
+
+    @on(DataTable.RowSelected, "#sessions")
+    def _chosen(self, event: DataTable.RowSelected) -> None:
+        if event.row_key.value:
+            self.session = str(event.row_key.value)
+            self.refresh_view()
+
+    def on_session_screen_loaded(self, event: Loaded) -> None:
+        d = event.detail
+        self.session = d.id
+        head = Text()
+        head.append(f"{d.id} {d.name} · {d.element} · {d.instrument}\n", style="bold")
+        head.append(f"file {d.source_filename or '—'} via profile {d.profile or '—'} · standard "
+                    f"{d.standard} · {d.measurements} runs, {d.standards} standards\n")  # fmt: skip
+        head.append(f"{len(d.unmatched)} unmatched row(s) · ")
+        head.append("reduced · " if d.reduced else "⚠ not reduced yet (press r) · ")
+        head.append_text(flag_text(d.flags))
+        self.query_one("#session-head", Static).update(head)
+        results = self.query_one("#results", DataTable)
+        results.clear()
+        for line in d.results:
+            results.add_row(*result_cells(line, d.mode))
+        unmatched = self.query_one("#unmatched", DataTable)
+        unmatched.clear()
+        for u in d.unmatched:
+            unmatched.add_row(str(u.run_order), u.sample_name, u.reason)
+        self.query_one("#drift", DriftPlot).show(event.drift)
+
+    def on_refused(self, event: Refused) -> None:
+        outcome = self.query_one("#outcome", Static)
+        outcome.update(refusal_text(event.error))
+        outcome.set_class(True, "-error")
+
+    def action_import_session(self) -> None:
+        self.app.push_screen(ImportSessionScreen())
+
+    def action_other_session(self) -> None:
+        self.session = None
+        self.refresh_view()
+
+    def action_reduce(self) -> None:
+        if self.session is not None:
+            self.query_one("#outcome", Static).update("… reducing")
+            self.reduce(self.session)
+
+    @work(thread=True, exclusive=True, group="save")
+    def reduce(self, session: str) -> None:
+        try:
+            done = reduction.reduce_session(database(self), operator(self), {"session": session})
+        except TrackerError as error:
+            self.post_message(Refused(error, "reduce"))
+            return
+        self.post_message(self.Reduced(done))
+
+    def on_session_screen_reduced(self, event: Reduced) -> None:
+        answer = event.done.item
+        failed = sum(1 for x in answer.results if x.passed is False)
+        outcome = self.query_one("#outcome", Static)
+        outcome.set_class(failed > 0, "-error")
+        outcome.update(
+            f"✓ reduced: {len(answer.results)} results · event #{event.done.event_seq}"
+            + (f" · ✗ {failed} reference material(s) FAILED" if failed else " · ✓ QC passed")
+        )
+        self.refresh_view()
+
+
+def result_cells(line: ResultLine, mode: str) -> tuple[Any, ...]:
+    unit = " ‰" if mode == "delta" else ""
+    two_sd = "—" if line.two_sd is None else f"{line.two_sd:.3f}"
+    qc: list[str] = []
+    if line.passed is True:
+        qc.append("pass")
+    elif line.passed is False:
+        qc.append("failed acceptance")
+    flags = [f for f in line.flags if f != "failed acceptance"]
+    text = Text("✓ pass" if line.passed else "", style="green")
+    if line.passed is False:
+        text = Text(f"✗ FAIL (accepted {line.accepted:.2f} ± {line.accepted_two_sd:.2f})",
+                    style="bold red")  # fmt: skip
+    if flags:
+        if text.plain:
+            text.append(" · ")
+        text.append_text(flag_text(flags))
+    return (f"{line.label}", line.ratio, f"{line.value:.3f}{unit}", two_sd, str(line.n), text)

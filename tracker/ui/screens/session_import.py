@@ -1,0 +1,59 @@
+"""Import an instrument export through a saved column-mapping profile."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Any, ClassVar
+
+from textual import work
+from textual.message import Message
+from textual.widgets import Static
+
+from tracker.db.database import Database
+from tracker.domain.errors import InputError
+from tracker.services import instrument
+from tracker.services.instrument import ProfileView
+from tracker.services.views import Done
+from tracker.ui.context import database
+from tracker.ui.screens.form import Field, FormScreen
+
+
+class ImportSessionScreen(FormScreen):
+    TITLE = "Import an instrument session"
+    INTRO = "The export file (CSV, TSV or XLSX) is read through a saved profile."
+    FIELDS: ClassVar[list[Field]] = [
+        Field("file", "Export file (path)", placeholder="/data/run-2026-12-01.csv"),
+        Field("profile", "Mapping profile", placeholder="mc-ca"),
+        Field("name", "Session name", placeholder="Ca 2026-12-01"),
+        Field("instrument", "Instrument", placeholder="MC-ICP-MS 2"),
+        Field("element", "Element", value="Ca"),
+        Field("bracketing-standard", "Bracketing standard", placeholder="SRM 915a"),
+    ]
+
+    class Profiles(Message):
+        def __init__(self, profiles: list[ProfileView]) -> None:
+            super().__init__()
+            self.profiles = profiles
+
+    def on_mount(self) -> None:
+        super().on_mount()
+        self.list_profiles()
+
+    @work(thread=True, exclusive=True, group="load")
+    def list_profiles(self) -> None:
+        self.post_message(self.Profiles(instrument.list_profiles(database(self))))
+
+    def on_import_session_screen_profiles(self, event: Profiles) -> None:
+        names = ", ".join(p.name for p in event.profiles) or "none saved yet"
+        self.query_one(".intro", Static).update(f"{self.INTRO}\nSaved profiles: {names}")
+
+    @staticmethod
+    def service(db: Database, actor: str | None, values: dict[str, Any]) -> Done[Any]:
+        request = dict(values)
+        path = Path(str(request.pop("file", ""))).expanduser()
+        try:
+            content = path.read_bytes()
+        except OSError as error:
+            raise InputError("file", str(path), f"cannot be read ({error.strerror})") from None
+        request |= {"filename": path.name, "content": content}
+        return instrument.import_session(db, actor, request)

@@ -1,0 +1,88 @@
+"""Text bars for allowances and yields: the number is always written beside the bar, and an
+excess is marked with a symbol, so no meaning rests on colour."""
+
+from __future__ import annotations
+
+from rich.text import Text
+
+FULL, EMPTY = "█", "░"
+
+
+def usage_bar(fraction: float | None, width: int = 10) -> Text:
+    """``███████░░░  72 %``; past 100 % the bar is full and ends in ✗."""
+    if fraction is None:
+        return Text("no limit", style="dim")
+    shown = max(0.0, min(fraction, 1.0))
+    filled = round(shown * width)
+    style = "bold red" if fraction > 1 else "yellow" if fraction >= 0.9 else "green"
+    text = Text(FULL * filled, style=style)
+    text.append(EMPTY * (width - filled), style="dim")
+    mark = " ✗" if fraction > 1 else " ⚠" if fraction >= 0.9 else "  "
+    text.append(f"{fraction * 100:4.0f} %{mark}")
+    return text
+
+
+FLAG_SYMBOLS = {
+    "over limit": "✗",
+    "overdue": "✗",
+    "unaccounted material": "✗",
+    "missing weighing": "⚠",
+    "override used": "⚠",
+    "near limit": "⚠",
+    "due within 30 days": "⚠",
+    "powder to return": "↩",
+    "results missing": "?",
+    "low yield": "⚠",
+    "high blank": "⚠",
+    "recovery not measured": "?",
+    "failed acceptance": "✗",
+    "reference material failed": "✗",
+    "mass-dependence off": "⚠",
+    "single run": "⚠",
+    "no procedural blank measured": "⚠",
+}
+
+
+def symbol_of(flag: str) -> str:
+    """The symbol that says how serious a flag is (the words always follow it)."""
+    return next((s for name, s in FLAG_SYMBOLS.items() if flag.startswith(name)), "•")
+
+
+def flag_text(flags: list[str]) -> Text:
+    """Flags as symbol + words (``✗ over limit · ↩ powder to return``), or ``✓ ok``."""
+    if not flags:
+        return Text("✓ ok", style="green")
+    text = Text()
+    for index, flag in enumerate(flags):
+        symbol = symbol_of(flag)
+        style = "bold red" if symbol == "✗" else "yellow" if symbol in "⚠?" else ""
+        if index:
+            text.append(" · ", style="dim")
+        text.append(f"{symbol} {flag}", style=style)
+    return text
+
+
+def _severity(flag: str) -> int:
+    return "✗⚠↩?•".index(symbol_of(flag))
+
+
+def flag_cell(flags: list[str], width: int, lines: int = 1) -> Text:
+    """Flags for a narrow table cell, most serious first, one per line; ``+n`` counts the rest."""
+    if not flags:
+        return Text("✓ ok", style="green")
+    ordered = sorted(flags, key=_severity)
+    shown = ordered[:lines]
+    rest = len(ordered) - len(shown)
+    text = Text()
+    for index, flag in enumerate(shown):
+        symbol = symbol_of(flag)
+        style = "bold red" if symbol == "✗" else "yellow" if symbol in "⚠?" else ""
+        more = f" +{rest}" if rest and index == len(shown) - 1 else ""
+        entry = f"{symbol} {flag}"
+        if len(entry) + len(more) > width:
+            entry = entry[: width - len(more) - 1] + "…"
+        if index:
+            text.append("\n")
+        text.append(entry, style=style)
+        text.append(more, style="bold")
+    return text
