@@ -12,14 +12,18 @@ from collections.abc import Callable, Iterator
 from dataclasses import dataclass
 from datetime import UTC, datetime
 from pathlib import Path
+from typing import Any
 
 import pytest
+from sqlalchemy import func, select
 from textual import events
 from textual._time import get_time
 from textual.keys import _character_to_key
 from textual.pilot import Pilot
+from textual.widgets import Static
 
 from tracker.db.database import Database, open_database
+from tracker.domain.models import CustodyEvent
 from tracker.io.demo import build_demo
 from tracker.ui.app import TrackerApp
 
@@ -107,3 +111,35 @@ async def type_slowly(pilot: Pilot[None], text: str, gap: float = 0.25) -> None:
         key.time = start + index * gap
         pilot.app.post_message(key)
     await settle(pilot)
+
+
+def events_after(lab: Lab, seq: int) -> list[CustodyEvent]:
+    db = lab.open()
+    try:
+        with db.read_session() as session:
+            rows = session.scalars(select(CustodyEvent).where(CustodyEvent.seq > seq))
+            return list(rows)
+    finally:
+        db.close()
+
+
+def head(lab: Lab) -> int:
+    db = lab.open()
+    try:
+        with db.read_session() as session:
+            return int(session.scalar(select(func.max(CustodyEvent.seq))) or 0)
+    finally:
+        db.close()
+
+
+def query(lab: Lab, statement: Any) -> list[Any]:
+    db = lab.open()
+    try:
+        with db.read_session() as session:
+            return list(session.scalars(statement))
+    finally:
+        db.close()
+
+
+def text_of(widget: Static) -> str:
+    return str(widget.render())

@@ -97,6 +97,12 @@ async def _ledger(pilot: Pilot[None]) -> None:
     await settle(pilot)
 
 
+async def _report(pilot: Pilot[None]) -> None:
+    await _loan(pilot)
+    await pilot.press("R")
+    await settle(pilot)
+
+
 async def _help(pilot: Pilot[None]) -> None:
     await settle(pilot)
     await pilot.press("f1")
@@ -115,5 +121,6 @@ SCENES = [
     Scene("drift-120x36", (120, 36), _drift),
     Scene("labels-100x32", (100, 32), _labels),
     Scene("ledger-120x36", (120, 36), _ledger),
+    Scene("report-120x36", (120, 36), _report),
     Scene("help-80x24", (80, 24), _help),
 ]

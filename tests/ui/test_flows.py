@@ -6,15 +6,24 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Any
 
-from sqlalchemy import func, select
+from sqlalchemy import select
 from textual.widgets import Input, Static
 
-from tests.ui.conftest import Lab, scan, settle, type_slowly, until
+from tests.ui.conftest import (
+    Lab,
+    events_after,
+    head,
+    query,
+    scan,
+    settle,
+    text_of,
+    type_slowly,
+    until,
+)
 from tracker.domain.ids import Kind, format_id
 from tracker.domain.models import (
     BatchPosition,
     ColumnBatch,
-    CustodyEvent,
     Cut,
     InstrumentSession,
     Label,
@@ -35,41 +44,8 @@ from tracker.ui.screens.item import ItemScreen
 from tracker.ui.screens.labels import LabelsScreen
 from tracker.ui.screens.ledger import LedgerScreen
 from tracker.ui.screens.session import SessionScreen
-from tracker.ui.screens.unavailable import UnavailableScreen
 
 LOAN_BOX = format_id(Kind.LOCATION, 6)  # "Loan box A" in the demo scenario
-
-
-def events_after(lab: Lab, seq: int) -> list[CustodyEvent]:
-    db = lab.open()
-    try:
-        with db.read_session() as session:
-            rows = session.scalars(select(CustodyEvent).where(CustodyEvent.seq > seq))
-            return list(rows)
-    finally:
-        db.close()
-
-
-def head(lab: Lab) -> int:
-    db = lab.open()
-    try:
-        with db.read_session() as session:
-            return int(session.scalar(select(func.max(CustodyEvent.seq))) or 0)
-    finally:
-        db.close()
-
-
-def query(lab: Lab, statement: Any) -> list[Any]:
-    db = lab.open()
-    try:
-        with db.read_session() as session:
-            return list(session.scalars(statement))
-    finally:
-        db.close()
-
-
-def text_of(widget: Static) -> str:
-    return str(widget.render())
 
 
 def set_field(screen: Any, name: str, value: str) -> None:
@@ -317,17 +293,6 @@ async def test_labels_previewed_and_printed(lab: Lab) -> None:
     assert not query(lab, select(Label).where(Label.status == LabelStatus.QUEUED))
     (event,) = events_after(lab, start)
     assert (event.action, event.object_ref) == ("labels.printed", job.public_id)
-
-
-async def test_return_report_is_marked_not_available_yet(lab: Lab) -> None:
-    async with lab.app().run_test(size=(80, 24)) as pilot:
-        await settle(pilot)
-        await pilot.press("enter")  # the most urgent loan
-        await settle(pilot)
-        await pilot.press("R")
-        await settle(pilot)
-        assert isinstance(pilot.app.screen, UnavailableScreen)
-        assert "NOT AVAILABLE YET" in text_of(pilot.app.screen.query_one("#unavailable", Static))
 
 
 async def test_ledger_verified_with_its_head_hash(lab: Lab) -> None:

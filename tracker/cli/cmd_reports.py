@@ -1,6 +1,5 @@
 """Return reports, manifests in, exports out, shipments and condition photos."""
 
-import hashlib
 import json
 import mimetypes
 from datetime import datetime
@@ -10,13 +9,13 @@ from typing import Annotated, Any
 import typer
 
 from tracker.cli.render import done, plain_table
-from tracker.cli.state import database, emit, errors, perform, read_upload
+from tracker.cli.state import database, emit, errors, perform, read_upload, state
 from tracker.domain.errors import InputError
 from tracker.domain.models import ShipmentDirection
-from tracker.services import exports, manifests, reports, shipments
+from tracker.output import report_files
+from tracker.services import exports, manifests, shipments
 
 Opt = typer.Option
-FORMATS = ("pdf", "csv", "xlsx", "json")
 
 report_app = typer.Typer(
     help="Reports for lenders.",
@@ -40,37 +39,6 @@ shipment_app = typer.Typer(
 )
 
 
-def _write(path: Path, data: bytes) -> str:
-    """Write a file atomically (beside it, then renamed) and return its SHA-256."""
-    staged = _stage(path, data)
-    staged.replace(path)
-    return hashlib.sha256(data).hexdigest()
-
-
-def _stage(path: Path, data: bytes) -> Path:
-    """Write ``data`` to a hidden file beside ``path``; the caller renames or removes it."""
-    if not path.parent.exists():
-        raise InputError("--out", str(path), "its folder does not exist")
-    staged = path.with_name(f".{path.name}.partial")
-    staged.write_bytes(data)
-    return staged
-
-
-def _render(report: reports.ReturnReport, photos: dict[str, bytes], fmt: str) -> bytes:
-    from tracker.output import report_tables, tabular
-
-    if fmt == "json":
-        return (report.model_dump_json(indent=2) + "\n").encode()
-    if fmt == "pdf":
-        from tracker.output.report_pdf import render_pdf
-
-        return render_pdf(report, photos)
-    rows = report_tables.rows(report)
-    if fmt == "csv":
-        return tabular.csv_bytes(report_tables.COLUMNS, rows)
-    return tabular.xlsx_bytes(report_tables.COLUMNS, rows, "return report")
-
-
 @report_app.command(
     "return",
     epilog="Example: tracker --as ines report return NMFI-25-033 "
@@ -83,50 +51,16 @@ def report_return(
     out: Annotated[Path | None, Opt("--out", help="File to write.")] = None,
 ) -> None:
     """The lender's return report: terms, every specimen's account, results, ledger head."""
-    if fmt not in FORMATS:
-        raise InputError("--format", fmt, f"use one of {', '.join(FORMATS)}")
     with database(ctx) as db:
-        report, photos = reports.attach_photos(db, reports.build_return_report(db, loan))
-    slug = "".join(c if c.isalnum() or c in "-_" else "-" for c in report.loan["reference"])
-    target = out or Path(f"{slug}-return-report.{fmt}")
-    data = _render(report, photos, fmt)
-    files = {target: data, target.with_name(f"{target.name}.anchor.json"): _anchor(report)}
-    folder = target.with_name(f"{target.stem}-attachments")
-    files |= {folder / digest: photo for digest, photo in photos.items()}
-    made = bool(photos) and not folder.exists()
-    if photos:
-        folder.mkdir(exist_ok=True)
-    staged = {path: _stage(path, content) for path, content in files.items()}
-    try:  # the event is recorded first: a refused record leaves no file behind
-        record = perform(ctx, reports.record_report, {
-            "loan": loan, "files": {fmt: hashlib.sha256(data).hexdigest()},
-            "head_seq": report.ledger.seq, "head_hash": report.ledger.hash})  # fmt: skip
-    except BaseException:
-        for path in staged.values():
-            path.unlink(missing_ok=True)
-        if made:
-            folder.rmdir()
-        raise
-    for path, partial in staged.items():
-        partial.replace(path)
-    emit(ctx, record, lambda: done(record, f"{target} (sha256 {record.item.files[fmt][:16]}…)"))
+        written = report_files.write_return_report(db, state(ctx).actor, loan, fmt, out, Path.cwd())
+    record = written.record
+    emit(ctx, record, lambda: done(record, f"{written.target} (sha256 {written.sha256[:16]}…)"))
+    photos = f" and {written.photos} photo(s) in {written.photo_folder}" if written.photos else ""
     errors.print(
-        f"wrote {len(files) - 1} companion file(s): the ledger anchor"
-        + (f" and {len(photos)} photo(s) in {folder}" if photos else ""),
+        f"wrote {1 + written.photos} companion file(s): the ledger anchor{photos}",
         markup=False,
         soft_wrap=True,
     )
-
-
-def _anchor(report: reports.ReturnReport) -> bytes:
-    """The ledger head the report shows, for `tracker ledger verify --anchor` later."""
-    anchor = {
-        "seq": report.ledger.seq,
-        "hash": report.ledger.hash,
-        "loan": report.loan["reference"],
-        "generated_at": report.generated_at.isoformat(),
-    }
-    return (json.dumps(anchor, indent=2) + "\n").encode()
 
 
 def _manifest_request(loan: str, file: Path, mapping: str | None) -> dict[str, Any]:
@@ -237,7 +171,7 @@ def _export(columns: list[str], rows: list[dict[str, Any]], out: Path, sheet: st
         if out.suffix.lower() == ".xlsx"
         else tabular.csv_bytes(columns, rows)
     )
-    return _write(out, data)
+    return report_files.write_atomically(out, data)
 
 
 def _export_rows(ctx: typer.Context, reader: Any, loan: str, out: Path, noun: str) -> None:
@@ -286,7 +220,9 @@ def export_loan(
     """The whole loan as JSON: the return report's content and every specimen's lineage."""
     with database(ctx) as db:
         document = exports.loan_document(db, loan)
-    digest = _write(out, (json.dumps(document, indent=2, ensure_ascii=False) + "\n").encode())
+    digest = report_files.write_atomically(
+        out, (json.dumps(document, indent=2, ensure_ascii=False) + "\n").encode()
+    )
     emit(ctx, {"out": str(out), "sha256": digest}, lambda: f"wrote {out}")
 
 

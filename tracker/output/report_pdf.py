@@ -219,7 +219,7 @@ def _totals(report: ReturnReport, styles: dict[str, ParagraphStyle]) -> list[Flo
         ["Mass removed (all specimens)", f"{drilled} of {_mg_limit(t.max_total_mass_mg)}"],
         ["Powder dissolved", f"{t.dissolved_mg:.3f} mg"],
         ["Powder returned", f"{t.powder_returned_mg:.3f} mg"],
-        *[[f"Powder {label}", f"{_left(report, status):.3f} mg"] for status, label in _FATES],
+        *[[f"Powder {label}", f"{report.powder_left_mg(fate):.3f} mg"] for fate, label in _FATES],
         ["Powder still held by the borrower", f"{t.powder_on_hand_mg:.3f} mg"],
         ["Flags", ", ".join(report.flags) or "none"],
     ]  # fmt: skip
@@ -231,10 +231,6 @@ _FATES = (
     ("retained", "retained (with permission)"),
     ("consumed", "used up (vial empty)"),
 )
-
-
-def _left(report: ReturnReport, status: str) -> float:
-    return sum(p.left_mg for s in report.specimens for p in s.powders if p.status == status)
 
 
 def _specimen(

@@ -141,6 +141,10 @@ class ReturnReport(View):
     ledger: LedgerHead
     notes: list[str] = Field(default_factory=list)
 
+    def powder_left_mg(self, status: str) -> float:
+        """Powder mass left in vials that ended ``status`` (destroyed, retained, consumed)."""
+        return sum(p.left_mg for s in self.specimens for p in s.powders if p.status == status)
+
 
 def build_return_report(db: Database, loan_ref: str) -> ReturnReport:
     """Everything the lender's account contains, read in one consistent pass."""

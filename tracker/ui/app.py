@@ -234,14 +234,22 @@ class TrackerApp(App[None]):
         self.push_screen(bench_form(form, **values))
 
     def action_return_report(self, loan: str = "") -> None:
-        from tracker.ui.screens.unavailable import UnavailableScreen
+        from tracker.ui.screens.report import ReportScreen
 
-        self.push_screen(UnavailableScreen("return report", loan))
+        loan = loan or str(getattr(self.screen, "loan", ""))  # from the palette on a loan
+        if loan:
+            self.push_screen(ReportScreen(loan))
+        else:
+            self.notify("Open a loan (F2, Enter) and press R for its return report.")
 
     def action_manifest_import(self, loan: str = "") -> None:
-        from tracker.ui.screens.unavailable import UnavailableScreen
+        from tracker.ui.screens.manifest import ManifestScreen
 
-        self.push_screen(UnavailableScreen("manifest import", loan))
+        loan = loan or str(getattr(self.screen, "loan", ""))
+        if loan:
+            self.push_screen(ManifestScreen(loan))
+        else:
+            self.notify("Open a loan (F2, Enter) and press I to import its manifest.")
 
     def get_system_commands(self, screen: Screen[object]) -> Iterable[SystemCommand]:
         yield from super().get_system_commands(screen)
@@ -384,6 +392,6 @@ PALETTE: list[tuple[str, str, str]] = [
     ("Ledger", "Browse, filter, verify the chain (F6)", "ledger"),
     ("Switch operator", "Who is recording (Ctrl+O)", "choose_operator"),
     ("Help", "Keys and a walk through every task (F1)", "help"),
-    ("Return report", "Report to the lender at return (not available yet)", "return_report"),
-    ("Import a loan manifest", "Lender's specimen list (not available yet)", "manifest_import"),
+    ("Return report", "Open a loan, then R: the report for its lender", "return_report"),
+    ("Import a manifest", "Open a loan, then I: the lender's specimen list", "manifest_import"),
 ]  # fmt: skip

@@ -1,0 +1,139 @@
+"""The return report and manifest screens end to end: what they show, what they write, and
+what the database and the output folder hold afterwards. Loans, catalogue numbers and
+localities are the invented demo's; the manifest rows below are invented too."""
+
+from __future__ import annotations
+
+import hashlib
+import json
+from pathlib import Path
+
+from sqlalchemy import select
+from textual.pilot import Pilot
+from textual.widgets import DataTable, Input, Static
+
+from tests.ui.conftest import Lab, events_after, head, query, settle, text_of, until
+from tracker.domain.models import Loan, Specimen
+from tracker.services import reconcile
+from tracker.ui.screens.loan import LoanScreen
+from tracker.ui.screens.manifest import ManifestScreen
+from tracker.ui.screens.report import ReportScreen
+
+LOAN = "KF-2026-014"  # the shark-tooth loan of the demo
+
+
+def loan_specimens(lab: Lab) -> list[Specimen]:
+    statement = select(Specimen).join(Loan).where(Loan.reference == LOAN).order_by(Specimen.id)
+    return query(lab, statement)
+
+
+async def open_loan(pilot: Pilot[None], key: str) -> None:
+    """Loans overview → the demo's shark-tooth loan → the screen behind ``key``."""
+    await settle(pilot)
+    pilot.app.push_screen(LoanScreen(LOAN))
+    await settle(pilot)
+    await pilot.press(key)
+    await settle(pilot)
+
+
+async def test_the_report_shows_every_specimen_then_writes_a_recorded_pdf(lab: Lab) -> None:
+    start = head(lab)
+    db = lab.open()
+    (expected,) = reconcile.reconcile(db, LOAN)
+    db.close()
+    async with lab.app().run_test(size=(120, 40)) as pilot:
+        await open_loan(pilot, "R")
+        screen = pilot.app.screen
+        assert isinstance(screen, ReportScreen)
+        await until(pilot, lambda: screen.report is not None)
+        table = screen.query_one("#report-specimens", DataTable)
+        assert sorted(str(k.value) for k in table.rows) == sorted(
+            s.public_id for s in loan_specimens(lab)
+        )
+        totals = text_of(screen.query_one("#report-totals", Static))
+        assert f"drilled {expected.drilled_mg:.3f} (u {expected.drilled_u_mg:.1g}) mg" in totals
+        assert events_after(lab, start) == []  # looking writes nothing
+        await pilot.press("ctrl+s")
+        await until(pilot, lambda: "✓ wrote" in text_of(screen.query_one("#outcome", Static)))
+    pdf = lab.out / f"{LOAN}-return-report.pdf"
+    assert pdf.read_bytes().startswith(b"%PDF")
+    (event,) = events_after(lab, start)
+    assert (event.action, event.operator) == ("report.generated", "ines")
+    digest = hashlib.sha256(pdf.read_bytes()).hexdigest()
+    assert json.loads(event.payload)["files"] == {"pdf": digest}
+    anchor = json.loads((lab.out / f"{pdf.name}.anchor.json").read_text())
+    assert (anchor["seq"], anchor["loan"]) == (start, LOAN)  # the head the report shows
+    assert not list(lab.out.glob(".*.partial"))
+
+
+async def test_a_report_that_cannot_be_written_records_nothing(lab: Lab) -> None:
+    start = head(lab)
+    lab.out.rmdir()  # the output folder is gone: the file cannot be written
+    async with lab.app().run_test(size=(120, 40)) as pilot:
+        await open_loan(pilot, "R")
+        screen = pilot.app.screen
+        assert isinstance(screen, ReportScreen)
+        await until(pilot, lambda: screen.report is not None)
+        await pilot.press("ctrl+s")
+        outcome = screen.query_one("#outcome", Static)
+        await until(pilot, lambda: "✗" in text_of(outcome))
+        assert text_of(outcome).startswith("✗ refused: out: ")
+        assert "its folder does not exist" in text_of(outcome)
+    assert events_after(lab, start) == []
+    assert not lab.out.exists()
+
+
+MANIFEST = (
+    "catalogNumber,institutionCode,scientificName,locality,preparations\n"
+    "KFMNH P 20311,KFMNH,Otodontidae indet.,Ollen Brook pit (upper bed; invented),tooth\n"
+    "KFMNH P 20399,KFMNH,Lamniformes indet.,Ollen Brook pit (invented),tooth\n"
+)
+
+
+async def test_a_manifest_is_previewed_row_by_row_then_imported(lab: Lab, tmp_path: Path) -> None:
+    start = head(lab)
+    before = {s.catalog_number: s for s in loan_specimens(lab)}
+    assert "KFMNH P 20399" not in before and "KFMNH P 20311" in before
+    path = tmp_path / "kf-list.csv"
+    path.write_text(MANIFEST)
+    async with lab.app().run_test(size=(120, 36)) as pilot:
+        await open_loan(pilot, "I")
+        screen = pilot.app.screen
+        assert isinstance(screen, ManifestScreen)
+        screen.query_one("#f-file", Input).value = str(path)
+        await pilot.press("enter")  # the path field has focus
+        await until(pilot, lambda: screen.preview_view is not None)
+        preview = screen.preview_view
+        assert preview is not None
+        actions = {r.catalog_number: r.action for r in preview.rows}
+        assert actions == {"KFMNH P 20311": "update", "KFMNH P 20399": "create"}
+        table = screen.query_one("#manifest-rows", DataTable)
+        assert table.row_count == 2
+        assert events_after(lab, start) == []  # the preview writes nothing
+        await pilot.press("ctrl+s")
+        await until(pilot, lambda: "✓ imported" in text_of(screen.query_one("#outcome", Static)))
+    after = {s.catalog_number: s for s in loan_specimens(lab)}
+    assert set(after) == set(before) | {"KFMNH P 20399"}
+    assert after["KFMNH P 20311"].locality == "Ollen Brook pit (upper bed; invented)"
+    assert after["KFMNH P 20399"].scientific_name == "Lamniformes indet."
+    (event,) = events_after(lab, start)
+    assert event.action == "manifest.imported"
+    assert json.loads(event.payload)["created"] == [after["KFMNH P 20399"].public_id]
+
+
+async def test_a_manifest_with_a_problem_is_refused_whole(lab: Lab, tmp_path: Path) -> None:
+    start = head(lab)
+    count = len(loan_specimens(lab))
+    path = tmp_path / "kf-bad.csv"
+    path.write_text(MANIFEST + ",KFMNH,Lamniformes indet.,Ollen Brook pit (invented),tooth\n")
+    async with lab.app().run_test(size=(120, 36)) as pilot:
+        await open_loan(pilot, "I")
+        screen = pilot.app.screen
+        assert isinstance(screen, ManifestScreen)
+        screen.query_one("#f-file", Input).value = str(path)
+        await pilot.press("ctrl+s")
+        outcome = screen.query_one("#outcome", Static)
+        await until(pilot, lambda: "✗" in text_of(outcome))
+        assert "1 problem(s)" in text_of(outcome) and "nothing was written" in text_of(outcome)
+    assert events_after(lab, start) == []
+    assert len(loan_specimens(lab)) == count

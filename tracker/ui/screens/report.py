@@ -1,0 +1,185 @@
+"""The return report for one loan: what the lender will read, then the file written.
+
+The screen shows the report the service builds (totals, every specimen's account, flags,
+the ledger head) before anything is written; Ctrl+S writes it in the chosen format to the
+output folder through the same code as `tracker report return`, which records the report
+event first and leaves no file if that is refused.
+"""
+
+from __future__ import annotations
+
+from typing import ClassVar
+
+from rich.text import Text
+from textual import work
+from textual.app import ComposeResult
+from textual.binding import Binding, BindingType
+from textual.containers import Horizontal
+from textual.message import Message
+from textual.screen import Screen
+from textual.widgets import DataTable, Footer, Select, Static
+
+from tracker.domain.errors import TrackerError
+from tracker.output import report_files
+from tracker.output.report_files import WrittenReport
+from tracker.services import reports
+from tracker.services.reports import ReturnReport, SpecimenEntry
+from tracker.ui.context import database, operator, tracker_app
+from tracker.ui.messages import Refused, refusal_text
+from tracker.ui.widgets.bars import flag_cell, flag_text
+from tracker.ui.widgets.operator_bar import OperatorBar
+
+FATES = (("destroyed", "destroyed"), ("retained", "retained"), ("consumed", "used up"))
+
+
+class ReportScreen(Screen[None]):
+    BINDINGS: ClassVar[list[BindingType]] = [
+        Binding("ctrl+s", "write", "Write report", id="report.write", priority=True),
+        Binding("r", "reload", "Refresh", id="report.reload"),
+        Binding("escape", "app.previous", "Back", id="report.back"),
+    ]
+
+    class Built(Message):
+        def __init__(self, report: ReturnReport) -> None:
+            super().__init__()
+            self.report = report
+
+    class Written(Message):
+        def __init__(self, written: WrittenReport) -> None:
+            super().__init__()
+            self.written = written
+
+    def __init__(self, loan: str) -> None:
+        super().__init__()
+        self.loan = loan
+        self.report: ReturnReport | None = None
+
+    def compose(self) -> ComposeResult:
+        yield OperatorBar(f"Return report {self.loan}")
+        yield Static("building the report …", id="report-head")
+        yield DataTable(id="report-specimens", cursor_type="row", zebra_stripes=True)
+        yield Static("", id="report-totals")
+        with Horizontal(id="report-write"):
+            yield Static("Write as", classes="field-label")
+            options = [(fmt.upper(), fmt) for fmt in report_files.FORMATS]
+            yield Select(options, value="pdf", allow_blank=False, id="report-format")
+        yield Static("", id="outcome")
+        yield Footer(compact=True)
+
+    def on_mount(self) -> None:
+        table = self.query_one("#report-specimens", DataTable)
+        for label, width in (("Specimen", 10), ("Catalogue no.", 14), ("Status", 9),
+                             ("Drilled mg", 18), ("Returned mg", 11), ("Results", 7),
+                             ("Flags", None)):  # fmt: skip
+            table.add_column(label, width=width)
+        self.build()
+
+    def action_reload(self) -> None:
+        self.build()
+
+    @work(thread=True, exclusive=True, group="build")
+    def build(self) -> None:
+        try:
+            report = reports.build_return_report(database(self), self.loan)
+        except TrackerError as error:
+            self.post_message(Refused(error, "build"))
+            return
+        self.post_message(self.Built(report))
+
+    def on_report_screen_built(self, event: Built) -> None:
+        self.report = event.report
+        title = f"Return report {event.report.loan['reference']}"
+        self.query_one(".bar-title", Static).update(title)
+        self.query_one("#report-head", Static).update(_head(event.report))
+        table = self.query_one("#report-specimens", DataTable)
+        table.clear()
+        for entry in event.report.specimens:
+            table.add_row(*_row(entry), key=entry.id)
+        self.query_one("#report-totals", Static).update(_totals(event.report))
+
+    def action_write(self) -> None:
+        fmt = str(self.query_one("#report-format", Select).value)
+        self.show_outcome(f"… writing the {fmt.upper()} report", error=False)
+        self.write(fmt)
+
+    @work(thread=True, exclusive=True, group="write")
+    def write(self, fmt: str) -> None:
+        folder = tracker_app(self).out_dir
+        try:
+            written = report_files.write_return_report(
+                database(self), operator(self), self.loan, fmt, None, folder
+            )
+        except TrackerError as error:
+            self.post_message(Refused(error, "write"))
+            return
+        self.post_message(self.Written(written))
+
+    def on_report_screen_written(self, event: Written) -> None:
+        w = event.written
+        photos = f", {w.photos} photo(s) in {w.photo_folder.name}" if w.photo_folder else ""
+        self.show_outcome(
+            f"✓ wrote {w.target} (sha256 {w.sha256[:16]}…) with its ledger anchor{photos}"
+            f" · ledger event #{w.record.event_seq}",
+            error=False,
+        )
+        self.notify(f"✓ return report written: {w.target.name}", title="Report")
+
+    def on_refused(self, event: Refused) -> None:
+        event.stop()
+        if event.purpose == "build":
+            self.query_one("#report-head", Static).update(refusal_text(event.error))
+        self.show_outcome(refusal_text(event.error), error=True)
+
+    def show_outcome(self, text: str, *, error: bool) -> None:
+        outcome = self.query_one("#outcome", Static)
+        outcome.update(text)
+        outcome.set_class(error, "-error")
+        outcome.set_class(not error and text.startswith("✓"), "-ok")
+
+
+def _head(report: ReturnReport) -> Text:
+    loan, lender = report.loan, report.lender
+    text = Text()
+    text.append(f"{loan['reference']} · {loan['title'] or ''}\n", style="bold")
+    text.append(f"lender {lender['name']} ({lender['institution_code'] or '—'}) · ")
+    text.append(f"{loan['status']} · due {loan['due_on']}")
+    text.append(f" · returned {loan['returned_on']}\n" if loan["returned_on"] else "\n")
+    terms = report.terms_in_force
+    text.append(f"terms v{terms.version}: {', '.join(terms.permitted_tissues)}\n")
+    mark, style = ("✓ intact", "green") if report.ledger.intact else ("✗ BROKEN", "bold red")
+    text.append(f"ledger {mark}", style=style)
+    text.append(f" · head #{report.ledger.seq} {report.ledger.hash[:16]}…")
+    return text
+
+
+def _row(entry: SpecimenEntry) -> tuple[str | Text, ...]:
+    drilled = _mass(entry.drilled_mg, entry.drilled_u_mg) if entry.sampled else "—"
+    returned = sum(p.left_mg for p in entry.powders if p.status == "returned")
+    return (
+        entry.id,
+        entry.catalog_number,
+        entry.status.replace("_", " "),
+        drilled,
+        f"{returned:.3f}" if entry.powders else "—",
+        str(len(entry.results)),
+        flag_cell(entry.flags, 30),
+    )
+
+
+def _mass(mg: float, u_mg: float) -> str:
+    """``3.512 (u 0.0004)``: the balance's standard uncertainty to one significant figure."""
+    return f"{mg:.3f} (u {u_mg:.1g})" if u_mg else f"{mg:.3f}"
+
+
+def _totals(report: ReturnReport) -> Text:
+    t = report.totals
+    limit = "no limit" if t.max_total_mass_mg is None else f"{t.max_total_mass_mg:g} mg"
+    text = Text()
+    text.append(f"{t.specimens} specimens, {t.sampled} sampled · drilled ", style="bold")
+    text.append(f"{_mass(t.drilled_mg, t.drilled_u_mg)} mg of {limit}\n", style="bold")
+    text.append(f"powder dissolved {t.dissolved_mg:.3f} mg · returned ")
+    text.append(f"{t.powder_returned_mg:.3f} mg · ")
+    text.append(" · ".join(f"{label} {report.powder_left_mg(s):.3f} mg" for s, label in FATES))
+    text.append(f" · still held {t.powder_on_hand_mg:.3f} mg\n")
+    text.append_text(flag_text(report.flags))
+    return text
