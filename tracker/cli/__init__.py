@@ -6,6 +6,7 @@ import typer
 
 from tracker import __version__
 from tracker.cli import (
+    cmd_bench,
     cmd_budget,
     cmd_inspect,
     cmd_instrument,
@@ -117,6 +118,10 @@ def _register() -> None:
     app.add_typer(cmd_labels.labels_app, name="labels")
     app.add_typer(cmd_inspect.ledger_app, name="ledger")
     app.add_typer(cmd_setup.db_app, name="db")
+    bench = cmd_bench.bench_app.command
+    bench("generate", epilog=cmd_bench.GENERATE_EPILOG)(cmd_bench.generate)
+    bench("run", epilog=cmd_bench.RUN_EPILOG)(cmd_bench.run)
+    app.add_typer(cmd_bench.bench_app, name="bench")
 
 
 _register()

@@ -59,10 +59,14 @@ _LINK = re.compile(r"^[A-Za-z][A-Za-z0-9+.\-]*://")
 
 def check_character(body: str) -> str:
     """ISO/IEC 7064 MOD 37-2 check character for an alphanumeric string."""
-    total = 0
-    for char in body.upper():
+    return _CHECK[(1 - _running(0, body.upper())) % _MODULUS]
+
+
+def _running(total: int, chars: str) -> int:
+    """The MOD 37-2 running sum over ``chars``, continued from ``total``."""
+    for char in chars:
         total = (2 * (total + _DATA.index(char))) % _MODULUS
-    return _CHECK[(1 - total) % _MODULUS]
+    return total
 
 
 def is_valid(full: str) -> bool:
@@ -86,8 +90,7 @@ class PublicId:
             raise ValueError(f"ID numbers run from 0 to {10**MAX_DIGITS - 1}")
 
     def __str__(self) -> str:
-        digits = f"{self.number:05d}"
-        return f"{self.kind.value}-{digits}-{check_character(self.kind.value + digits)}"
+        return format_id(self.kind, self.number)
 
     @property
     def compact(self) -> str:
@@ -95,8 +98,21 @@ class PublicId:
         return str(self).replace("-", "")
 
 
+# The running sum after each kind's two-letter prefix: every ID of a kind starts from it.
+_PREFIX_SUM = {kind: _running(0, kind.value) for kind in Kind}
+_PREFIX = {kind: kind.value for kind in Kind}
+
+
 def format_id(kind: Kind, number: int) -> str:
-    return str(PublicId(kind, number))
+    """The printed form of an ID (``SP-00042-E``); every public ID is made here, so it is
+    kept fast: the prefix's share of the check sum is computed once per kind."""
+    if not 0 <= number < 10**MAX_DIGITS:
+        raise ValueError(f"ID numbers run from 0 to {10**MAX_DIGITS - 1}")
+    digits = f"{number:05d}"
+    total = _PREFIX_SUM[kind]
+    for char in digits:
+        total = (2 * (total + ord(char) - 48)) % _MODULUS  # a digit's value is its ordinal - 48
+    return f"{_PREFIX[kind]}-{digits}-{_CHECK[(1 - total) % _MODULUS]}"
 
 
 class BadId(ValueError):

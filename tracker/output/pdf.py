@@ -41,18 +41,30 @@ def render_pdf(stock: Stock, pages: list[Page], title: str) -> bytes:
 
 def _draw(canvas: Canvas, page_height: float, label: PlacedLabel) -> None:
     """Draw one label; layout boxes are top-down, PDF coordinates bottom-up."""
-    qr = label.qr
-    origin = qr.symbol_box
-    path = canvas.beginPath()
-    for row, column, length in dark_runs(qr.symbol):
-        x = origin.x + column * qr.module_mm
-        top = origin.y + row * qr.module_mm
-        path.rect(
-            x * mm, (page_height - top - qr.module_mm) * mm, length * qr.module_mm * mm,
-            qr.module_mm * mm,
-        )  # fmt: skip
     canvas.setFillColorRGB(0, 0, 0)
-    canvas.drawPath(path, stroke=0, fill=1)
+    canvas.addLiteral(_symbol_operators(page_height, label))
     for line in label.lines:
         canvas.setFont(line.font, line.size_pt)
         canvas.drawString(line.box.x * mm, (page_height - line.baseline_mm) * mm, line.text)
+
+
+def _symbol_operators(page_height: float, label: PlacedLabel) -> str:
+    """The QR symbol as PDF path operators, drawn in module units.
+
+    One transformation puts the symbol's top-left corner at the origin with one module per
+    unit and y pointing down, so each run of dark modules is a rectangle with whole-number
+    corners: ``column row length 1 re``. All runs are one path, filled once (no seams).
+    """
+    qr = label.qr
+    origin = qr.symbol_box
+    size = qr.module_mm * mm
+    corner = (_number(origin.x * mm), _number((page_height - origin.y) * mm))
+    head = f"q {_number(size)} 0 0 {_number(-size)} {corner[0]} {corner[1]} cm\n"
+    runs = "".join(f"{c} {r} {n} 1 re\n" for r, c, n in dark_runs(qr.symbol))
+    return f"{head}{runs}f Q"
+
+
+def _number(value: float) -> str:
+    """A PDF number: fixed point, no exponent, trailing zeros dropped (reproducible)."""
+    text = f"{value:.6f}".rstrip("0").rstrip(".")
+    return text if text not in ("", "-0") else "0"

@@ -20,9 +20,10 @@ from tracker.domain.labels import LabelFacts, uri_prefix_problem
 from tracker.domain.models import Label, LabelSetting, LabelStatus
 from tracker.services.common import finish
 from tracker.services.inputs import Raw, Request, parse
-from tracker.services.label_facts import LABELLED, Labelled, facts_of, labelled_item
+from tracker.services.label_facts import LABELLED, Labelled, facts_of, labelled_item, preload
 from tracker.services.label_queue import queue_label, queued_labels
 from tracker.services.lineage import ancestors_of, node_of
+from tracker.services.lineage_load import load_for_scan
 from tracker.services.lookup import (
     URI_PREFIX_KEY,
     forget_uri_prefix,
@@ -57,11 +58,14 @@ def id_list(value: object) -> list[str]:
 
 def resolve_items(session: Session, texts: list[str]) -> list[Labelled]:
     """The labelled rows the IDs name, each once (an ID typed twice in any form is refused)."""
+    preload(session, texts)
     rows: list[Labelled] = []
+    seen: set[str] = set()
     for text in texts:
         row = labelled_item(session, "items", text)
-        if any(seen.public_id == row.public_id for seen in rows):
+        if row.public_id in seen:
             raise InputError("items", text, f"names {row.public_id} a second time")
+        seen.add(row.public_id)
         rows.append(row)
     return rows
 
@@ -162,9 +166,10 @@ def queued_facts(db: Database) -> list[LabelFacts]:
     """What the queued labels would say, in queue order (for a preview; nothing changes)."""
     with db.read_session() as session:
         query = select(Label).where(Label.status == LabelStatus.QUEUED).order_by(Label.id)
+        queue = list(session.scalars(query))
+        preload(session, (label.item_ref for label in queue))
         return [
-            facts_of(session, labelled_item(session, "queue", label.item_ref))
-            for label in session.scalars(query)
+            facts_of(session, labelled_item(session, "queue", label.item_ref)) for label in queue
         ]
 
 
@@ -235,6 +240,7 @@ def read_scan(db: Database, scanned: str) -> ScanView:
     with db.read_session() as session:
         if not scanned.strip():
             raise InputError("scanned", scanned, "is empty; scan a label or type an ID")
+        load_for_scan(session, scanned, uri_prefix(session))
         row = get_any(session, "scanned", scanned)
         node = node_of(row, with_children=False)
         # a loan or an operator has an ID but wears no label

@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import math
 from collections import defaultdict
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from datetime import date
 from typing import Any
 
@@ -22,6 +22,7 @@ from sqlalchemy.orm import Session, selectinload
 
 from tracker.db.database import Database
 from tracker.domain.budget import COVERAGE_FACTOR, SQRT6
+from tracker.domain.ids import Kind, format_id
 from tracker.domain.models import (
     Aliquot,
     ContainerStatus,
@@ -82,35 +83,37 @@ class LoanLine(View):
     specimen_lines: list[SpecimenLine] = Field(default_factory=list)
 
 
-@dataclass
-class _Sums:
-    """Per-specimen totals read from the database."""
+@dataclass(frozen=True, slots=True)
+class _Books:
+    """One specimen's books, as one row of the aggregate reads them."""
 
-    powders: int = 0
-    drilled: float = 0.0
-    variance: float = 0.0
-    dissolved: float = 0.0
-    on_hand: float = 0.0
-    returned: float = 0.0
-    overrides: int = 0
-    unaccounted: int = 0
-    unweighed: int = 0
-    flags: set[str] = field(default_factory=set)
+    id: int
+    loan_id: int
+    catalog_number: str
+    status: SpecimenStatus
+    powders: int
+    drilled: float
+    variance: float
+    dissolved: float
+    on_hand: float
+    returned: float
+    flags: frozenset[str]  # closure and override flags; the loan's limit is judged later
 
 
 def reconcile(db: Database, loan: str | None = None, *, specimens: bool = True) -> list[LoanLine]:
-    """One line per loan (most urgent first), each with its specimens unless asked not to."""
+    """One line per loan (most urgent first), each with its specimens unless asked not to.
+
+    Every specimen's books come from one aggregate statement over the powders, solutions
+    and aliquots, so reconciling the whole lab is one pass over its tables.
+    """
     today = db.clock().date()
     with db.read_session() as session:
         query = select(Loan).options(selectinload(Loan.terms), selectinload(Loan.lender))
         if loan is not None:
             query = query.where(Loan.id == get_loan(session, "loan", loan).id)
         loans = session.scalars(query).all()
-        loan_ids = [row.id for row in loans]
-        sums = _powder_sums(session, loan_ids)
-        _solution_flags(session, loan_ids, sums)
-        people = _specimen_rows(session, loan_ids)
-        lines = [_loan_line(row, today, people.get(row.id, []), sums, specimens) for row in loans]
+        books = _books(session, loans[0].id if loan is not None and loans else None)
+        lines = [_loan_line(row, today, books.get(row.id, []), specimens) for row in loans]
     return sorted(lines, key=_urgency)
 
 
@@ -119,82 +122,12 @@ def _beyond(square: Any, limit: Any) -> Any:
     return square > limit * (1 + 1e-9) + 1e-18
 
 
-def _per_powder(loan_ids: list[int]) -> Select[Any]:
-    """One row per powder: drilled, dissolved, residual and the closure test's ingredients."""
-    taken = (
-        select(
-            Solution.powder_id.label("powder_id"),
-            func.sum(Solution.powder_mass_mg).label("mass"),
-            func.sum(Solution.powder_mass_u_mg * Solution.powder_mass_u_mg).label("var"),
-            func.sum(Solution.powder_mass_u_mg).label("u_sum"),
-        )
-        .group_by(Solution.powder_id)
-        .subquery()
-    )
-    dissolved = func.coalesce(taken.c.mass, 0.0)
-    residual = func.coalesce(Powder.residual_mg, 0.0)
-    gap = Powder.mass_mg - dissolved - residual
-    variance = (
-        Powder.mass_u_mg * Powder.mass_u_mg
-        + func.coalesce(taken.c.var, 0.0)
-        + func.coalesce(Powder.residual_u_mg * Powder.residual_u_mg, 0.0)
-    )
-    bound = (
-        Powder.readability_mg
-        + SQRT6 * func.coalesce(taken.c.u_sum, 0.0)
-        + SQRT6 * func.coalesce(Powder.residual_u_mg, 0.0)
-    )
-    closed = Powder.status.in_(_CLOSED)
-    # |gap| beyond max(k·u, bound), compared in squares (SQLite has no sqrt by default)
-    outside = and_(
-        _beyond(gap * gap, COVERAGE_FACTOR**2 * variance), _beyond(gap * gap, bound * bound)
-    )
-    unweighed = and_(
-        Powder.status.in_(["returned", "destroyed", "retained"]),
-        Powder.residual_mg.is_(None),
-        _beyond(gap * gap, bound * bound),
-    )
-    return (
-        select(
-            Powder.specimen_id, Powder.mass_mg, Powder.mass_u_mg, dissolved.label("dissolved"),
-            case((Powder.status == _OPEN, Powder.mass_mg - dissolved), else_=0.0).label("on_hand"),
-            case((Powder.status == "returned", func.coalesce(Powder.residual_mg, gap + residual)),
-                 else_=0.0).label("returned"),
-            case((Powder.override_reason.is_not(None), 1), else_=0).label("override"),
-            case((and_(closed, outside, ~unweighed), 1), else_=0).label("unaccounted"),
-            case((unweighed, 1), else_=0).label("unweighed"),
-        )
-        .join(Powder.specimen)
-        .outerjoin(taken, taken.c.powder_id == Powder.id)
-        .where(Specimen.loan_id.in_(loan_ids))
-    )  # fmt: skip
+def _solution_books() -> Any:
+    """Per powder: what its solutions took, and how many of them fail to close.
 
-
-def _powder_sums(session: Session, loan_ids: list[int]) -> dict[int, _Sums]:
-    rows = _per_powder(loan_ids).subquery()
-    query = select(
-        rows.c.specimen_id,
-        func.count(),
-        func.sum(rows.c.mass_mg),
-        func.sum(rows.c.mass_u_mg * rows.c.mass_u_mg),
-        func.sum(rows.c.dissolved),
-        func.sum(rows.c.on_hand),
-        func.sum(rows.c.returned),
-        func.sum(rows.c.override),
-        func.sum(rows.c.unaccounted),
-        func.sum(rows.c.unweighed),
-    ).group_by(rows.c.specimen_id)
-    return {row[0]: _sums_of(row) for row in session.execute(query)}
-
-
-def _sums_of(row: Any) -> _Sums:
-    numbers = [float(v or 0) for v in row[2:7]]
-    counts = [int(v or 0) for v in row[7:]]
-    return _Sums(int(row[1]), *numbers, *counts)  # type: ignore[arg-type]
-
-
-def _solution_flags(session: Session, loan_ids: list[int], sums: dict[int, _Sums]) -> None:
-    """Solutions close too: solution = aliquots + residual, once the vial has left."""
+    A solution closes when solution = aliquots + residual (once the vial has left) within
+    max(k·u, the balances' rounding bound), compared in squares (SQLite has no sqrt).
+    """
     taken = (
         select(Aliquot.solution_id.label("sid"), func.sum(Aliquot.mass_g).label("mass"),
                func.sum(Aliquot.mass_u_g * Aliquot.mass_u_g).label("var"),
@@ -216,87 +149,188 @@ def _solution_flags(session: Session, loan_ids: list[int], sums: dict[int, _Sums
         + func.coalesce(taken.c.u_sum, 0.0)
         + func.coalesce(Solution.residual_u_g, 0.0)
     )
-    query = (
-        select(Powder.specimen_id, Solution.residual_g.is_(None))
-        .join(Solution.powder).join(Powder.specimen)
+    off = and_(Solution.status.in_(_CLOSED), _beyond(gap * gap, COVERAGE_FACTOR**2 * variance),
+               _beyond(gap * gap, bound * bound))  # fmt: skip
+    return (
+        select(
+            Solution.powder_id.label("powder_id"),
+            func.sum(Solution.powder_mass_mg).label("mass"),
+            func.sum(Solution.powder_mass_u_mg * Solution.powder_mass_u_mg).label("var"),
+            func.sum(Solution.powder_mass_u_mg).label("u_sum"),
+            func.sum(case((and_(off, Solution.residual_g.is_(None)), 1), else_=0)).label("lost"),
+            func.sum(case((and_(off, Solution.residual_g.is_not(None)), 1), else_=0)).label("gap"),
+        )
         .outerjoin(taken, taken.c.sid == Solution.id)
-        .where(Specimen.loan_id.in_(loan_ids), Solution.status.in_(_CLOSED),
-               _beyond(gap * gap, COVERAGE_FACTOR**2 * variance),
-               _beyond(gap * gap, bound * bound))
-    )  # fmt: skip
-    for specimen_id, unweighed in session.execute(query):
-        line = sums.setdefault(specimen_id, _Sums())
-        line.flags.add("missing weighing" if unweighed else "unaccounted material")
-
-
-def _specimen_rows(session: Session, loan_ids: list[int]) -> dict[int, list[Any]]:
-    query = (
-        select(Specimen.id, Specimen.loan_id, Specimen.catalog_number, Specimen.status)
-        .where(Specimen.loan_id.in_(loan_ids))
-        .order_by(Specimen.id)
+        .group_by(Solution.powder_id)
+        .subquery()
     )
-    grouped: dict[int, list[Any]] = defaultdict(list)
-    for row in session.execute(query):
-        grouped[row.loan_id].append(row)
+
+
+def _per_powder() -> Select[Any]:
+    """One row per powder: drilled, dissolved, residual and the closure test's ingredients.
+
+    Per powder the books must close: drilled = dissolved + residual (what left the lab,
+    weighed); a gap beyond max(k·u, the rounding bound) is unaccounted material, a vial
+    that left unweighed with such a gap is a missing weighing.
+    """
+    taken = _solution_books()
+    dissolved = func.coalesce(taken.c.mass, 0.0)
+    residual = func.coalesce(Powder.residual_mg, 0.0)
+    gap = Powder.mass_mg - dissolved - residual
+    variance = (
+        Powder.mass_u_mg * Powder.mass_u_mg
+        + func.coalesce(taken.c.var, 0.0)
+        + func.coalesce(Powder.residual_u_mg * Powder.residual_u_mg, 0.0)
+    )
+    bound = (
+        Powder.readability_mg
+        + SQRT6 * func.coalesce(taken.c.u_sum, 0.0)
+        + SQRT6 * func.coalesce(Powder.residual_u_mg, 0.0)
+    )
+    closed = Powder.status.in_(_CLOSED)
+    outside = and_(
+        _beyond(gap * gap, COVERAGE_FACTOR**2 * variance), _beyond(gap * gap, bound * bound)
+    )
+    unweighed = and_(
+        Powder.status.in_(["returned", "destroyed", "retained"]),
+        Powder.residual_mg.is_(None),
+        _beyond(gap * gap, bound * bound),
+    )
+    return (
+        select(
+            Powder.specimen_id, Powder.mass_mg, Powder.mass_u_mg, dissolved.label("dissolved"),
+            case((Powder.status == _OPEN, Powder.mass_mg - dissolved), else_=0.0).label("on_hand"),
+            case((Powder.status == "returned", func.coalesce(Powder.residual_mg, gap + residual)),
+                 else_=0.0).label("returned"),
+            case((Powder.override_reason.is_not(None), 1), else_=0).label("override"),
+            case((and_(closed, outside, ~unweighed), 1), else_=0).label("unaccounted"),
+            case((unweighed, 1), else_=0).label("unweighed"),
+            func.coalesce(taken.c.lost, 0).label("solution_lost"),
+            func.coalesce(taken.c.gap, 0).label("solution_gap"),
+        )
+        .outerjoin(taken, taken.c.powder_id == Powder.id)
+    )  # fmt: skip
+
+
+def _books(session: Session, loan_id: int | None) -> dict[int, list[_Books]]:
+    """Every specimen's books (of one loan, or of all), grouped by loan, in specimen order."""
+    rows = _per_powder()
+    if loan_id is not None:
+        mine = select(Specimen.id).where(Specimen.loan_id == loan_id)
+        rows = rows.where(Powder.specimen_id.in_(mine))
+    per = rows.subquery()
+    sums = select(
+        per.c.specimen_id, func.count().label("powders"), func.sum(per.c.mass_mg).label("mass"),
+        func.sum(per.c.mass_u_mg * per.c.mass_u_mg).label("var"),
+        func.sum(per.c.dissolved).label("dissolved"), func.sum(per.c.on_hand).label("on_hand"),
+        func.sum(per.c.returned).label("returned"), func.sum(per.c.override).label("override"),
+        func.sum(per.c.unaccounted).label("unaccounted"),
+        func.sum(per.c.unweighed).label("unweighed"),
+        func.sum(per.c.solution_lost).label("lost"), func.sum(per.c.solution_gap).label("gap"),
+    ).group_by(per.c.specimen_id).subquery()  # fmt: skip
+    query = (
+        select(Specimen.id, Specimen.loan_id, Specimen.catalog_number, Specimen.status,
+               *(sums.c[name] for name in _SUM_COLUMNS))
+        .outerjoin(sums, sums.c.specimen_id == Specimen.id)
+        .order_by(Specimen.id)
+    )  # fmt: skip
+    if loan_id is not None:
+        query = query.where(Specimen.loan_id == loan_id)
+    grouped: dict[int, list[_Books]] = defaultdict(list)
+    for row in session.connection().execute(query).all():  # fetchall: one call, not one per row
+        grouped[row[1]].append(_books_of(row))
     return grouped
 
 
-def _loan_line(
-    loan: Loan, today: date, rows: list[Any], sums: dict[int, _Sums], with_specimens: bool
-) -> LoanLine:
+_SUM_COLUMNS = ("powders", "mass", "var", "dissolved", "on_hand", "returned", "override",
+                "unaccounted", "unweighed", "lost", "gap")  # fmt: skip
+_NO_FLAGS: frozenset[str] = frozenset()
+
+
+def _books_of(row: Any) -> _Books:
+    specimen, loan_id, catalog, status, powders, mass, var, dissolved, on_hand, returned = row[:10]
+    if not powders:  # listed, never drilled
+        return _Books(specimen, loan_id, catalog, status, 0, 0.0, 0.0, 0.0, 0.0, 0.0, _NO_FLAGS)
+    override, unaccounted, unweighed, lost, gap = row[10:]
+    flags = _NO_FLAGS
+    if override or unaccounted or unweighed or lost or gap or on_hand > 0:
+        found = set()
+        if override:
+            found.add("override used")
+        if unaccounted or gap:
+            found.add("unaccounted material")
+        if unweighed or lost:
+            found.add("missing weighing")
+        if on_hand > 0 and status is not SpecimenStatus.EXPECTED:
+            found.add("powder on hand")
+        flags = frozenset(found)
+    return _Books(specimen, loan_id, catalog, status, powders, mass, var, dissolved, on_hand,
+                  returned, flags)  # fmt: skip
+
+
+def _loan_line(loan: Loan, today: date, books: list[_Books], with_specimens: bool) -> LoanLine:
     terms = terms_in_force(loan.terms, today)
-    lines = [
-        _specimen_line(row, sums.get(row.id, _Sums()), terms.max_mass_per_specimen_mg)
-        for row in rows
-    ]
-    drilled = sum(line.drilled_mg for line in lines)
+    permitted = terms.max_mass_per_specimen_mg
+    flags_of = [_specimen_flags(b, permitted) for b in books]
+    drilled = variance = dissolved = on_hand = returned = 0.0
+    holding = sampled = 0
+    for b in books:
+        drilled += b.drilled
+        variance += b.variance
+        dissolved += b.dissolved
+        on_hand += b.on_hand
+        returned += b.returned
+        holding += b.status is SpecimenStatus.ON_HAND
+        sampled += b.powders > 0
     used = drilled / terms.max_total_mass_mg if terms.max_total_mass_mg else None
-    flags = _loan_flags(loan, terms, today, lines, used)
+    flags = _loan_flags(loan, terms, today, books, flags_of, used)
+    lines = (
+        [_specimen_line(b, f, permitted) for b, f in zip(books, flags_of, strict=True)]
+        if with_specimens
+        else []
+    )
     return LoanLine(
         id=loan.public_id, reference=loan.reference, lender=loan.lender.name,
         lender_code=loan.lender.institution_code or loan.lender.name, status=loan.status.value,
         terms_version=terms.version, permitted_tissues=list(terms.permitted_tissues),
         max_mass_per_specimen_mg=terms.max_mass_per_specimen_mg,
         max_total_mass_mg=terms.max_total_mass_mg,
-        max_specimens_sampled=terms.max_specimens_sampled, specimens=len(lines),
-        on_hand=sum(1 for r in rows if r.status is SpecimenStatus.ON_HAND),
-        sampled=sum(1 for line in lines if line.powders), drilled_mg=drilled,
-        drilled_u_mg=math.sqrt(sum(line.drilled_u_mg**2 for line in lines)), used_fraction=used,
-        dissolved_mg=sum(line.dissolved_mg for line in lines),
-        powder_on_hand_mg=sum(line.powder_on_hand_mg for line in lines),
-        powder_returned_mg=sum(line.powder_returned_mg for line in lines),
-        due_on=terms.due_on, days_left=(terms.due_on - today).days, flags=flags,
-        specimen_lines=lines if with_specimens else [],
+        max_specimens_sampled=terms.max_specimens_sampled, specimens=len(books),
+        on_hand=holding, sampled=sampled, drilled_mg=drilled, drilled_u_mg=math.sqrt(variance),
+        used_fraction=used, dissolved_mg=dissolved, powder_on_hand_mg=on_hand,
+        powder_returned_mg=returned, due_on=terms.due_on, days_left=(terms.due_on - today).days,
+        flags=flags, specimen_lines=lines,
     )  # fmt: skip
 
 
-def _specimen_line(row: Any, sums: _Sums, permitted: float | None) -> SpecimenLine:
-    flags = set(sums.flags)
-    if permitted is not None and sums.drilled > permitted:
-        flags.add("over limit")
-    if sums.overrides:
-        flags.add("override used")
-    if sums.unaccounted:
-        flags.add("unaccounted material")
-    if sums.unweighed:
-        flags.add("missing weighing")
-    if sums.on_hand > 0 and row.status is not SpecimenStatus.EXPECTED:
-        flags.add("powder on hand")
+def _specimen_flags(books: _Books, permitted: float | None) -> frozenset[str]:
+    if permitted is not None and books.drilled > permitted:
+        return books.flags | {"over limit"}
+    return books.flags
+
+
+def _specimen_line(books: _Books, flags: frozenset[str], permitted: float | None) -> SpecimenLine:
     return SpecimenLine(
-        id=Specimen(id=row.id).public_id, catalog_number=row.catalog_number,
-        status=row.status.value, powders=sums.powders, drilled_mg=sums.drilled,
-        drilled_u_mg=math.sqrt(sums.variance), permitted_mg=permitted,
-        dissolved_mg=sums.dissolved, powder_on_hand_mg=sums.on_hand,
-        powder_returned_mg=sums.returned, flags=sorted(flags),
+        id=format_id(Kind.SPECIMEN, books.id), catalog_number=books.catalog_number,
+        status=books.status.value, powders=books.powders, drilled_mg=books.drilled,
+        drilled_u_mg=math.sqrt(books.variance), permitted_mg=permitted,
+        dissolved_mg=books.dissolved, powder_on_hand_mg=books.on_hand,
+        powder_returned_mg=books.returned, flags=sorted(flags),
     )  # fmt: skip
 
 
 def _loan_flags(
-    loan: Loan, terms: Any, today: date, lines: list[SpecimenLine], used: float | None
+    loan: Loan,
+    terms: Any,
+    today: date,
+    books: list[_Books],
+    specimen_flags: list[frozenset[str]],
+    used: float | None,
 ) -> list[str]:
     flags: set[str] = set()
-    for line in lines:
-        flags.update(f for f in line.flags if f != "powder on hand")
+    for found in specimen_flags:
+        flags.update(found)
+    flags.discard("powder on hand")
     if used is not None and used > 1:
         flags.add("over limit")
     if loan.status is LoanStatus.OPEN:
@@ -307,9 +341,7 @@ def _loan_flags(
             flags.add("due within 30 days")
         if used is not None and 0.9 <= used <= 1:
             flags.add("near limit")
-        if terms.powder_disposition is Disposition.RETURN and any(
-            line.powder_on_hand_mg > 0 for line in lines
-        ):
+        if terms.powder_disposition is Disposition.RETURN and any(b.on_hand > 0 for b in books):
             flags.add("powder to return")
     return sorted(flags)
 

@@ -17,17 +17,22 @@ class OperatorBar(Horizontal):
         self.title = title
 
     def compose(self) -> ComposeResult:
+        app = tracker_app(self)  # the bars start with the app's current values ...
         yield Static(self.title, classes="bar-title")
-        yield Static("", id="bar-status", classes="bar-status")
-        yield Static("", id="bar-operator", classes="bar-operator")
+        yield Static(app.status_line, id="bar-status", classes="bar-status")
+        yield Static(app.operator_label, id="bar-operator", classes="bar-operator")
 
     def on_mount(self) -> None:
+        # ... and follow its changes. Not asked for the current value here: on a busy machine
+        # Mount can arrive before the composed lines are in the DOM, and they already show it.
         app = tracker_app(self)
-        self.watch(app, "operator_label", self._show_operator)
-        self.watch(app, "status_line", self._show_status)
+        self.watch(app, "operator_label", self._show_operator, init=False)
+        self.watch(app, "status_line", self._show_status, init=False)
 
     def _show_operator(self, label: str) -> None:
-        self.query_one("#bar-operator", Static).update(label)
+        for line in self.query("#bar-operator").results(Static):
+            line.update(label)
 
     def _show_status(self, line: str) -> None:
-        self.query_one("#bar-status", Static).update(line)
+        for shown in self.query("#bar-status").results(Static):
+            shown.update(line)

@@ -1,0 +1,79 @@
+"""One bulk step's context: who, when, and the ledger append exactly as the services make it.
+
+:meth:`Ctx.record` is :func:`tracker.services.uow.append_event` without a database round
+trip: the next sequence number and the previous hash come from memory, the payload goes
+through the domain's own :func:`canonical_json` and the hash through its own
+:func:`event_hash`, so the chain is the one the services would have written. A bench
+action's queued label is the same row ``queue_label`` writes, naming the same event.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from datetime import datetime
+from typing import Any
+
+from tracker.bench.bulk_state import State
+from tracker.bench.bulk_writer import BulkWriter
+from tracker.domain.base import HasPublicId
+from tracker.domain.errors import InputError
+from tracker.domain.ledger import canonical_json, event_hash
+from tracker.domain.models import CustodyEvent, Label, LabelStatus, Location, Operator
+from tracker.domain.timeutil import as_utc, iso_utc
+from tracker.services.common import CLOCK_SKEW
+
+
+@dataclass
+class Ctx:
+    now: datetime
+    operator: Operator
+    state: State
+    writer: BulkWriter
+
+    def when(self, given: datetime | None, field: str) -> datetime:
+        """Like ``common.action_time``: the given time (never in the future) or now."""
+        if given is None:
+            return self.now
+        moment = as_utc(given)
+        if moment > self.now + CLOCK_SKEW:
+            raise InputError(
+                field, iso_utc(moment), f"is in the future (now is {iso_utc(self.now)})"
+            )
+        return moment
+
+    def place(self, text: str | None, field: str = "location") -> Location | None:
+        return self.state.get(Location, field, text) if text else None
+
+    def new(self, obj: Any) -> Any:
+        """Give a new object the next primary key of its table, remember it, write it later."""
+        obj.id = self.state.take_id(type(obj))
+        self.state.keep(obj)
+        self.writer.add(obj)
+        return obj
+
+    def record(
+        self,
+        action: str,
+        obj: HasPublicId,
+        payload: dict[str, Any],
+        parent: HasPublicId | None = None,
+        label: HasPublicId | None = None,
+    ) -> None:
+        """Append this step's one custody event (and the label it queued)."""
+        state, code = self.state, self.operator.code
+        seq, previous = state.head_seq + 1, state.head_hash
+        object_ref, parent_ref = obj.public_id, parent.public_id if parent else ""
+        text = canonical_json(payload)
+        digest = event_hash(seq, self.now, code, action, object_ref, parent_ref, previous, text)
+        self.writer.add_row(CustodyEvent, {
+            "seq": seq, "at": self.now, "operator": code, "action": action,
+            "object_ref": object_ref, "parent_ref": parent_ref, "payload": text,
+            "prev_hash": previous, "hash": digest,
+        })  # fmt: skip
+        state.head_seq, state.head_hash = seq, digest
+        if label is not None:
+            self.writer.add_row(Label, {
+                "id": state.take_id(Label), "item_ref": label.public_id,
+                "status": LabelStatus.QUEUED, "queued_event_seq": seq, "queued_by": code,
+                "queued_at": self.now, "job_id": None,
+            })  # fmt: skip

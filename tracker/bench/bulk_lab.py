@@ -1,0 +1,258 @@
+"""Bulk twins of the solution and column services: dissolve, concentration, aliquot, batch,
+position, cut — same request models, same rules and domain arithmetic, same rows and payloads
+(see ``bulk_material`` for the contract)."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from tracker.bench.bulk_ctx import Ctx
+from tracker.bench.bulk_material import Handler, _put
+from tracker.domain.budget import (
+    Amount,
+    by_difference,
+    element_mass_ug,
+    is_significant,
+    overdraws,
+    remaining,
+)
+from tracker.domain.errors import InputError, NotFound, RuleViolation
+from tracker.domain.ids import Kind, looks_like_id, parse_id
+from tracker.domain.models import (
+    Aliquot,
+    BatchPosition,
+    ColumnBatch,
+    Concentration,
+    ContainerStatus,
+    Cut,
+    Powder,
+    ReferenceMaterial,
+    Solution,
+)
+from tracker.domain.units import decimals_below, format_mass_mg, format_value_u
+from tracker.services.chemistry import AddPosition, NewBatch
+from tracker.services.columns import RecordCut
+from tracker.services.common import weigh
+from tracker.services.inputs import parse
+from tracker.services.lab import (
+    Dissolve,
+    RecordConcentration,
+    TakeAliquot,
+    aliquot_element,
+    powder_remaining,
+    solution_remaining_g,
+)
+
+
+def dissolve(ctx: Ctx, args: dict[str, Any]) -> Solution:
+    request = parse(Dissolve, args)
+    solution_mass = weigh(
+        request.vial_tare, request.vial_gross, request.readability, ("vial-tare", "vial-gross")
+    )
+    powder = ctx.state.get(Powder, "powder", request.powder)
+    _require_available(powder)
+    left = powder_remaining(powder)
+    taken = _portion(request, left)
+    if overdraws(left, taken):
+        raise RuleViolation(
+            "powder-taken",
+            format_mass_mg(taken.value),
+            f"is more than remains of {powder.public_id} ({format_mass_mg(left.value, left.u)})",
+        )
+    if not is_significant(remaining(left, [taken])):
+        powder.status = ContainerStatus.CONSUMED
+        ctx.writer.changed(powder)
+    grams = solution_mass.amount(scale=1e-3)
+    solution = ctx.new(Solution(
+        powder_id=powder.id, powder_mass_mg=taken.value, powder_mass_u_mg=taken.u,
+        acid=request.acid, solution_mass_g=grams.value, solution_mass_u_g=grams.u,
+        dissolved_at=ctx.when(request.dissolved_at, "dissolved-at"),
+        dissolved_by=ctx.operator.code, status=ContainerStatus.AVAILABLE, created_at=ctx.now,
+    ))  # fmt: skip
+    solution.powder = powder
+    _put(solution, ctx.place(request.location))
+    payload = {
+        "powder": powder.public_id, "powder_mass_mg": taken.value,
+        "powder_mass_u_mg": taken.u, "acid": request.acid,
+        "vial_tare_mg": float(request.vial_tare), "vial_gross_mg": float(request.vial_gross),
+        "readability_mg": float(request.readability), "solution_mass_g": solution.solution_mass_g,
+        "solution_mass_u_g": solution.solution_mass_u_g, "powder_status": powder.status.value,
+        "label": "queued",
+    }  # fmt: skip
+    ctx.record("solution.dissolved", solution, payload, parent=powder, label=solution)
+    return solution
+
+
+def _portion(request: Dissolve, left: Amount) -> Amount:
+    """Like ``lab._portion``: all that remains, or the weighed part."""
+    if request.powder_taken is None:
+        if left.value <= 0:
+            raise RuleViolation("powder", request.powder, "no powder remains to dissolve")
+        return left
+    if decimals_below(request.powder_taken, request.powder_readability):
+        raise InputError(
+            "powder-taken",
+            f"{request.powder_taken} mg",
+            f"has more decimals than the balance reads ({request.powder_readability} mg)",
+        )
+    return by_difference(float(request.powder_taken), float(request.powder_readability))
+
+
+def _require_available(container: Powder | Solution) -> None:
+    if container.status is not ContainerStatus.AVAILABLE:
+        raise RuleViolation(
+            type(container).__name__.lower(),
+            container.public_id,
+            f"is {container.status.value}, not available",
+        )
+
+
+def record_concentration(ctx: Ctx, args: dict[str, Any]) -> None:
+    request = parse(RecordConcentration, args)
+    solution = ctx.state.get(Solution, "solution", request.solution)
+    row = Concentration(
+        element=request.element, value_ug_per_g=float(request.value),
+        u_ug_per_g=request.standard_uncertainty(), method=request.method,
+        measured_at=ctx.when(request.measured_at, "measured-at"),
+        recorded_by=ctx.operator.code, supersedes_id=None, created_at=ctx.now,
+    )  # fmt: skip
+    row.id = ctx.state.take_id(Concentration)
+    row.solution_id = solution.id
+    row.solution = solution
+    ctx.writer.add(row)
+    element = element_mass_ug(
+        Amount(solution.solution_mass_g, solution.solution_mass_u_g),
+        Amount(row.value_ug_per_g, row.u_ug_per_g),
+    )
+    payload = {
+        "element": row.element, "value_ug_per_g": row.value_ug_per_g,
+        "u_ug_per_g": row.u_ug_per_g, "method": row.method, "element_ug": element.value,
+        "element_u_ug": element.u,
+    }  # fmt: skip
+    ctx.record("concentration.recorded", solution, payload)
+
+
+def take_aliquot(ctx: Ctx, args: dict[str, Any]) -> Aliquot:
+    request = parse(TakeAliquot, args)
+    wanted = weigh(request.tare, request.gross, request.readability).amount(scale=1e-3)
+    solution = ctx.state.get(Solution, "solution", request.solution)
+    _require_available(solution)
+    left = solution_remaining_g(solution)
+    if overdraws(left, wanted):
+        raise RuleViolation(
+            "gross",
+            f"{(request.gross / 1000).normalize()} g",
+            f"gives an aliquot of {wanted.value:.5f} g, more than remains of "
+            f"{solution.public_id} ({format_value_u(left.value, left.u, 'g')})",
+        )
+    aliquot = ctx.new(Aliquot(
+        solution_id=solution.id, mass_g=wanted.value, mass_u_g=wanted.u,
+        purpose=request.purpose, taken_at=ctx.when(request.taken_at, "taken-at"),
+        taken_by=ctx.operator.code, status=ContainerStatus.AVAILABLE, created_at=ctx.now,
+    ))  # fmt: skip
+    aliquot.solution = solution
+    _put(aliquot, ctx.place(request.location))
+    element = aliquot_element(aliquot)
+    payload = {
+        "solution": solution.public_id, "mass_g": aliquot.mass_g, "mass_u_g": aliquot.mass_u_g,
+        "tare_mg": float(request.tare), "gross_mg": float(request.gross),
+        "readability_mg": float(request.readability), "purpose": aliquot.purpose.value,
+        "element": element[0] if element else None,
+        "element_ug": element[1] if element else None, "label": "queued",
+    }  # fmt: skip
+    ctx.record("aliquot.taken", aliquot, payload, parent=solution, label=aliquot)
+    return aliquot
+
+
+def create_batch(ctx: Ctx, args: dict[str, Any]) -> ColumnBatch:
+    request = parse(NewBatch, args)
+    if request.performed_on > ctx.now.date():
+        raise InputError("performed-on", request.performed_on.isoformat(), "is in the future")
+    batch = ctx.new(
+        ColumnBatch(**request.model_dump(), operator=ctx.operator.code, created_at=ctx.now)
+    )
+    ctx.record("batch.created", batch, request.model_dump(mode="json"))
+    return batch
+
+
+def add_position(ctx: Ctx, args: dict[str, Any]) -> BatchPosition:
+    request = parse(AddPosition, args)
+    batch = ctx.state.get(ColumnBatch, "batch", request.batch)
+    slot = 1 + max((p.slot for p in batch.positions), default=0)
+    position = BatchPosition(
+        batch_id=batch.id, slot=slot, kind=request.kind, created_at=ctx.now
+    )
+    holds = None
+    if request.aliquot:
+        aliquot = ctx.state.get(Aliquot, "aliquot", request.aliquot)
+        if aliquot.status is not ContainerStatus.AVAILABLE or aliquot.positions:
+            raise RuleViolation("aliquot", aliquot.public_id, "is already used or not available")
+        element = aliquot_element(aliquot, batch.element)
+        if element is None:
+            raise RuleViolation("aliquot", aliquot.public_id, f"no {batch.element} concentration")
+        position.aliquot, position.aliquot_id = aliquot, aliquot.id
+        position.loaded_ug, position.loaded_u_ug = element[1], element[2]
+        aliquot.status = ContainerStatus.CONSUMED
+        ctx.writer.changed(aliquot)
+        holds = aliquot.public_id
+    if request.reference_material:
+        material = _reference(ctx, request.reference_material)
+        position.reference_material_id = material.id
+        position.loaded_ug, position.loaded_u_ug = request.loaded_ug, request.loaded_u_ug
+        holds = material.name
+    ctx.new(position)
+    position.batch = batch
+    payload = {
+        "batch": batch.public_id, "slot": slot, "kind": request.kind.value, "holds": holds,
+        "loaded_ug": position.loaded_ug, "loaded_u_ug": position.loaded_u_ug, "label": "queued",
+    }  # fmt: skip
+    ctx.record("batch.position_added", position, payload, parent=batch, label=position)
+    return position
+
+
+def _reference(ctx: Ctx, text: str) -> ReferenceMaterial:
+    """Like ``lookup.get_reference_material``: by RM- ID or by name, case-insensitive."""
+    if looks_like_id(text) and parse_id(text).kind is Kind.REFERENCE_MATERIAL:
+        number = parse_id(text).number
+        found = [m for m in ctx.state.references.values() if m.id == number]
+    else:
+        found = [m for key, m in ctx.state.references.items() if key == text.lower()]
+    if not found:
+        raise NotFound("reference-material", text, "no reference material has this ID or name")
+    return found[0]
+
+
+def record_cut(ctx: Ctx, args: dict[str, Any]) -> Cut:
+    request = parse(RecordCut, args)
+    position = ctx.state.get(BatchPosition, "position", request.position)
+    batch = position.batch
+    if request.cut not in batch.cut_names:
+        raise RuleViolation("cut", request.cut, "is not one of the batch's cuts")
+    if any(c.name == request.cut for c in position.cuts):
+        raise RuleViolation("cut", request.cut, f"is already recorded for {position.public_id}")
+    amount = request.recovered_ug()
+    location = ctx.place(request.location)
+    cut = ctx.new(Cut(
+        position_id=position.id, name=request.cut,
+        recovered_ug=amount.value if amount else None,
+        recovered_u_ug=amount.u if amount else None,
+        status=ContainerStatus.AVAILABLE, created_at=ctx.now,
+    ))  # fmt: skip
+    cut.position = position
+    _put(cut, location)
+    payload = {
+        "position": position.public_id, "batch": batch.public_id, "cut": cut.name,
+        "recovered_ug": cut.recovered_ug, "recovered_u_ug": cut.recovered_u_ug, "label": "queued",
+    }  # fmt: skip
+    ctx.record("cut.recorded", cut, payload, parent=position, label=cut)
+    return cut
+
+
+HANDLERS: dict[str, Handler] = {
+    "dissolve": dissolve,
+    "concentration": record_concentration,
+    "aliquot": take_aliquot,
+    "batch": create_batch,
+    "position": add_position,
+    "cut": record_cut,
+}

@@ -1,0 +1,276 @@
+"""Bulk twins of the specimen and custody services: add, check in, drill, move, dispose, return.
+
+Each function takes the same request model as its service, checks the same rules with the
+same domain functions, and builds the same rows and the same payload; only the database
+round trips are gone. ``tests/bench/test_equivalence.py`` proves the twins write what the
+services write, table by table and hash by hash.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable
+from typing import Any
+
+from tracker.bench.bulk_ctx import Ctx
+from tracker.domain.allowance import Usage, check_drill
+from tracker.domain.budget import Amount
+from tracker.domain.errors import InputError, NotFound, RuleViolation
+from tracker.domain.materials import PRESETS, TISSUE_DEFAULTS
+from tracker.domain.models import (
+    Aliquot,
+    ContainerStatus,
+    Cut,
+    Loan,
+    LoanStatus,
+    Location,
+    Powder,
+    Solution,
+    Specimen,
+    SpecimenStatus,
+)
+from tracker.domain.terms import terms_in_force
+from tracker.services.common import (
+    ANALYTICAL_BALANCE_MG,
+    MICROBALANCE_MG,
+    require_on_hand,
+    weigh,
+)
+from tracker.services.custody import Dispose, Move
+from tracker.services.drilling import Drill, limits_of
+from tracker.services.inputs import parse
+from tracker.services.specimens import CheckIn, NewSpecimen, ReturnSpecimen
+
+Handler = Callable[[Ctx, dict[str, Any]], Any]
+MOVABLE = (Specimen, Powder, Solution, Aliquot, Cut)
+
+
+def add_specimen(ctx: Ctx, args: dict[str, Any]) -> Specimen:
+    request = parse(NewSpecimen, args)
+    loan = ctx.state.get(Loan, "loan", request.loan)
+    if loan.status is not LoanStatus.OPEN:
+        raise RuleViolation(
+            "loan", loan.reference, f"is {loan.status.value}; it takes no new specimens"
+        )
+    if any(s.catalog_number == request.catalog_number for s in loan.specimens):
+        raise RuleViolation("catalog-number", request.catalog_number, "is already on this loan")
+    fields = request.model_dump(exclude={"loan"})
+    specimen = ctx.new(
+        Specimen(loan_id=loan.id, **fields, status=SpecimenStatus.EXPECTED, created_at=ctx.now)
+    )
+    specimen.loan = loan
+    ctx.record("specimen.added", specimen, {"loan": loan.public_id, **fields}, parent=loan)
+    return specimen
+
+
+def check_in(ctx: Ctx, args: dict[str, Any]) -> None:
+    request = parse(CheckIn, args)
+    specimen = ctx.state.get(Specimen, "specimen", request.specimen)
+    if specimen.status is not SpecimenStatus.EXPECTED:
+        raise RuleViolation("specimen", specimen.public_id, "it cannot be checked in twice")
+    if specimen.loan.status is not LoanStatus.OPEN:
+        raise RuleViolation(
+            "specimen", specimen.public_id, f"its loan is {specimen.loan.status.value}"
+        )
+    location = ctx.place(request.location)
+    specimen.received_at = ctx.when(request.received_at, "received-at")
+    specimen.status = SpecimenStatus.ON_HAND
+    specimen.condition_in = request.condition
+    _put(specimen, location)
+    ctx.writer.changed(specimen)
+    payload = {
+        "condition": request.condition,
+        "location": location.public_id if location else None,
+        "location_path": location.path if location else None,
+        "received_at": specimen.received_at.isoformat(),
+        "label": "queued",
+    }
+    ctx.record("specimen.checked_in", specimen, payload, parent=specimen.loan, label=specimen)
+
+
+def return_specimen(ctx: Ctx, args: dict[str, Any]) -> None:
+    request = parse(ReturnSpecimen, args)
+    specimen = ctx.state.get(Specimen, "specimen", request.specimen)
+    require_on_hand(specimen)
+    _no_shipment(request.shipment)
+    specimen.return_shipment_id = None
+    specimen.returned_at = ctx.when(request.returned_at, "returned-at")
+    specimen.status = SpecimenStatus.RETURNED
+    specimen.condition_out = request.condition
+    previous = specimen.location.path if specimen.location else None
+    _put(specimen, None)
+    ctx.writer.changed(specimen)
+    payload = {
+        "condition": request.condition,
+        "note": request.note,
+        "from": previous,
+        "returned_at": specimen.returned_at.isoformat(),
+        "shipment": None,
+    }
+    ctx.record("specimen.returned", specimen, payload, parent=specimen.loan)
+
+
+def move(ctx: Ctx, args: dict[str, Any]) -> None:
+    request = parse(Move, args)
+    item = ctx.state.get_any("item", request.item, MOVABLE)
+    _require_here(item)
+    target = ctx.state.get(Location, "to", request.to)
+    if item.location_id == target.id:
+        raise RuleViolation("to", target.public_id, f"{item.public_id} is already there")
+    before = item.location.path if item.location else None
+    _put(item, target)
+    ctx.writer.changed(item)
+    payload = {"from": before, "to": target.path, "to_id": target.public_id, "note": request.note}
+    ctx.record("item.moved", item, payload, parent=target)
+
+
+def dispose(ctx: Ctx, args: dict[str, Any]) -> None:
+    request = parse(Dispose, args)
+    item = ctx.state.get_any("item", request.item, (Powder, Solution, Aliquot, Cut))
+    _require_here(item)
+    outcome = ContainerStatus(request.outcome)
+    if outcome is ContainerStatus.RETAINED and not request.permission:
+        raise RuleViolation(
+            "permission", None, "retaining lent material needs the lender's written permission"
+        )
+    residual = _residual(request, item, outcome)
+    _no_shipment(request.shipment)
+    before = item.location.path if item.location else None
+    item.status = outcome
+    _put(item, None)
+    ctx.writer.changed(item)
+    payload = {
+        "outcome": outcome.value,
+        "reason": request.reason,
+        "permission": request.permission,
+        "from": before,
+        "residual": residual,
+        "shipment": None,
+    }
+    ctx.record(f"{type(item).__name__.lower()}.{outcome.value}", item, payload)
+
+
+def drill(ctx: Ctx, args: dict[str, Any]) -> Powder:
+    request = parse(Drill, args)
+    mass = weigh(request.tare, request.gross, request.readability).amount()
+    specimen = ctx.state.get(Specimen, "specimen", request.specimen)
+    require_on_hand(specimen)
+    when = ctx.when(request.drilled_at, "drilled-at")
+    terms = terms_in_force(specimen.loan.terms, when.date())
+    violations = check_drill(
+        limits_of(terms), _usage(specimen), request.tissue, mass, when.date()
+    )
+    if violations and not (request.override_reason and ctx.operator.role.value == "manager"):
+        raise RuleViolation("drilled-mass", f"{mass.value} mg", violations[0].message)
+    if request.override_reason and not violations:
+        raise InputError("override-reason", request.override_reason, "nothing to override")
+    material = _preset(request.material or TISSUE_DEFAULTS.get(request.tissue))
+    location = ctx.place(request.location)
+    powder = ctx.new(Powder(
+        specimen_id=specimen.id, tissue=request.tissue, site=request.site,
+        tare_mg=float(request.tare), gross_mg=float(request.gross),
+        readability_mg=float(request.readability), mass_mg=mass.value, mass_u_mg=mass.u,
+        material=material, drilled_at=when, drilled_by=ctx.operator.code,
+        override_reason=request.override_reason if violations else None,
+        status=ContainerStatus.AVAILABLE, created_at=ctx.now,
+    ))  # fmt: skip
+    powder.specimen = specimen
+    _put(powder, location)
+    payload = {
+        "specimen": specimen.public_id, "tissue": powder.tissue, "site": powder.site,
+        "tare_mg": powder.tare_mg, "gross_mg": powder.gross_mg,
+        "readability_mg": powder.readability_mg, "mass_mg": powder.mass_mg,
+        "mass_u_mg": powder.mass_u_mg, "material": material,
+        "drilled_at": powder.drilled_at.isoformat(), "terms_version": terms.version,
+        "override": {"reason": request.override_reason,
+                     "limits": [v.message for v in violations]} if violations else None,
+        "label": "queued",
+    }  # fmt: skip
+    ctx.record("powder.drilled", powder, payload, parent=specimen, label=powder)
+    return powder
+
+
+def _usage(specimen: Specimen) -> Usage:
+    """What the loan and the specimen have given, as ``drilling.usage_of`` sums it in SQL."""
+    total = variance = own = own_variance = 0.0
+    sampled = 0
+    for other in specimen.loan.specimens:
+        if other.powders:
+            sampled += 1
+        for powder in other.powders:
+            total += powder.mass_mg
+            variance += powder.mass_u_mg * powder.mass_u_mg
+    for powder in specimen.powders:
+        own += powder.mass_mg
+        own_variance += powder.mass_u_mg * powder.mass_u_mg
+    return Usage(
+        loan_drilled=Amount(total, math.sqrt(variance)),
+        specimen_drilled=Amount(own, math.sqrt(own_variance)),
+        sampled_specimens=sampled,
+        specimen_already_sampled=bool(specimen.powders),
+    )
+
+
+def _preset(name: str | None) -> str | None:
+    if name is None:
+        return None
+    for preset in PRESETS.values():
+        if preset.name.lower() == name.lower():
+            return preset.name
+    raise NotFound("material", name, "the bulk executor knows the preset materials only")
+
+
+def _put(item: Any, location: Location | None) -> None:
+    item.location = location
+    item.location_id = location.id if location else None
+
+
+def _no_shipment(shipment: str | None) -> None:
+    if shipment is not None:
+        raise InputError("shipment", shipment, "the bulk executor carries no shipments")
+
+
+def _require_here(item: Any) -> None:
+    """Like ``custody._require_here``."""
+    if isinstance(item, Specimen):
+        if item.status is not SpecimenStatus.ON_HAND:
+            state = item.status.value.replace("_", " ")
+            raise RuleViolation("item", item.public_id, f"is {state}, not in the lab")
+    elif item.status not in (ContainerStatus.AVAILABLE, ContainerStatus.RETAINED):
+        raise RuleViolation("item", item.public_id, f"is {item.status.value}, not in the lab")
+
+
+def _residual(request: Dispose, item: Any, outcome: ContainerStatus) -> dict[str, float] | None:
+    """Like ``custody._residual``: what leaves the lab, weighed, stored on the vial."""
+    given = (request.residual_tare, request.residual_gross)
+    if all(v is None for v in given):
+        return None
+    if any(v is None for v in given):
+        raise InputError("residual-gross", None, "give both the residual tare and gross readings")
+    if outcome is ContainerStatus.CONSUMED:
+        raise InputError("residual-gross", None, "a consumed vial is empty; nothing to weigh")
+    if not isinstance(item, Powder | Solution):
+        raise InputError("item", item.public_id, "residual weighings apply to powders and solutions")
+    default = MICROBALANCE_MG if isinstance(item, Powder) else ANALYTICAL_BALANCE_MG
+    assert request.residual_tare is not None and request.residual_gross is not None
+    mass = weigh(
+        request.residual_tare,
+        request.residual_gross,
+        request.readability or default,
+        ("residual-tare", "residual-gross"),
+    ).amount()
+    if isinstance(item, Powder):
+        item.residual_mg, item.residual_u_mg = mass.value, mass.u
+        return {"residual_mg": mass.value, "residual_u_mg": mass.u}
+    item.residual_g, item.residual_u_g = mass.value / 1000, mass.u / 1000
+    return {"residual_g": item.residual_g, "residual_u_g": item.residual_u_g}
+
+
+HANDLERS: dict[str, Handler] = {
+    "specimen": add_specimen,
+    "checkin": check_in,
+    "return": return_specimen,
+    "move": move,
+    "dispose": dispose,
+    "drill": drill,
+}

@@ -1,0 +1,62 @@
+"""Child processes for figures that need a fresh interpreter: ledger verification and its floor.
+
+``python -m tracker.bench.probe verify TARGET`` times ``ledger.verify``;
+``python -m tracker.bench.probe verify-floor FILE`` times the bare loop (raw ``sqlite3`` and
+``hashlib``, nothing of tracker imported). Each prints one JSON line; the parent reads the
+child's peak resident memory from the operating system when it ends.
+"""
+
+from __future__ import annotations
+
+import json
+import sys
+import time
+
+
+def bare_verify(path: str) -> dict[str, object]:
+    """Read every event with the sqlite3 module and hash the canonical bytes it stores."""
+    import hashlib
+    import sqlite3
+
+    connection = sqlite3.connect(f"file:{path}?mode=ro", uri=True)
+    cursor = connection.execute(
+        "SELECT seq, at, operator, action, object_ref, parent_ref, prev_hash, payload, hash "
+        "FROM custody_event ORDER BY seq"
+    )
+    previous, count, ok = "0" * 64, 0, True
+    for seq, at, operator, action, obj, parent, prev_hash, payload, digest in cursor:
+        stamp = f"{at[:10]}T{at[11:]}Z"  # stored "2016-01-05 08:00:00.000000" → ISO 8601 UTC
+        data = "\n".join(
+            ("tracker-ledger/1", str(seq), stamp, operator, action, obj, parent, prev_hash, payload)
+        ).encode("utf-8")
+        if prev_hash != previous or hashlib.sha256(data).hexdigest() != digest:
+            ok = False
+            break
+        previous, count = digest, count + 1
+    connection.close()
+    return {"events": count, "ok": ok, "head": previous}
+
+
+def tracker_verify(target: str) -> dict[str, object]:
+    from tracker.db.database import open_database
+    from tracker.services import ledger
+
+    db = open_database(target, upgrade=False)
+    try:
+        report = ledger.verify(db)
+    finally:
+        db.close()
+    return {"events": report.events, "ok": report.ok, "head": report.head_hash}
+
+
+def main(argv: list[str]) -> int:
+    what, target = argv[1], argv[2]
+    started = time.perf_counter()
+    answer = bare_verify(target) if what == "verify-floor" else tracker_verify(target)
+    answer["seconds"] = time.perf_counter() - started
+    print(json.dumps(answer), flush=True)
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main(sys.argv))
