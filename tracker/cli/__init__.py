@@ -11,6 +11,7 @@ from tracker.cli import (
     cmd_instrument,
     cmd_lab,
     cmd_labels,
+    cmd_ledger,
     cmd_loans,
     cmd_setup,
 )
@@ -106,7 +107,7 @@ def _register() -> None:
     app.add_typer(cmd_instrument.curve_app, name="curve")
     app.add_typer(cmd_lab.batch_app, name="batch")
     app.add_typer(cmd_labels.labels_app, name="labels")
-    app.add_typer(cmd_inspect.ledger_app, name="ledger")
+    app.add_typer(cmd_ledger.ledger_app, name="ledger")
     app.add_typer(cmd_setup.db_app, name="db")
 
 
