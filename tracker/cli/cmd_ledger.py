@@ -35,7 +35,7 @@ def _verify_text(report: VerifyReport, check: AnchorCheck | None) -> str:
 
 @ledger_app.command(
     "verify",
-    epilog="Examples: tracker ledger verify; tracker ledger verify --anchor head.json",
+    epilog="Example: tracker ledger verify --anchor head.json",
 )
 def ledger_verify(
     ctx: typer.Context,
