@@ -6,6 +6,7 @@ import typer
 
 from tracker import __version__
 from tracker.cli import (
+    cmd_backup,
     cmd_budget,
     cmd_inspect,
     cmd_instrument,
@@ -65,6 +66,8 @@ def _register() -> None:
     command = app.command
     command("init", epilog=cmd_setup.INIT_EPILOG)(cmd_setup.init)
     command("demo", epilog=DEMO_EPILOG)(demo)
+    command("backup", epilog=cmd_backup.BACKUP_EPILOG)(cmd_backup.backup)
+    command("restore", epilog=cmd_backup.RESTORE_EPILOG)(cmd_backup.restore)
     command("overview", epilog=cmd_inspect.OVERVIEW_EPILOG)(cmd_inspect.show_overview)
     command("show", epilog=cmd_inspect.SHOW_EPILOG)(cmd_inspect.show)
     command("checkin", epilog=cmd_loans.CHECKIN_EPILOG)(cmd_loans.checkin)

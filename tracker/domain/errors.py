@@ -54,6 +54,6 @@ def _show(value: object) -> str:
     if value is None:
         return ""
     text = str(value)
-    if len(text) > 60:
-        text = text[:57] + "..."
+    if len(text) > 60:  # keep both ends: a long path still ends in its file name
+        text = text[:24] + "..." + text[-33:]
     return repr(text) if isinstance(value, str) else text
