@@ -8,6 +8,7 @@ from tracker import __version__
 from tracker.cli import (
     cmd_backup,
     cmd_budget,
+    cmd_correct,
     cmd_inspect,
     cmd_instrument,
     cmd_lab,
@@ -111,6 +112,7 @@ def _register() -> None:
     app.add_typer(cmd_lab.batch_app, name="batch")
     app.add_typer(cmd_labels.labels_app, name="labels")
     app.add_typer(cmd_ledger.ledger_app, name="ledger")
+    app.add_typer(cmd_correct.correct_app, name="correct")
     app.add_typer(cmd_setup.db_app, name="db")
 
 

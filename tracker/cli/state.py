@@ -83,6 +83,7 @@ FIELD_OPTIONS = {
     "standard-values": "--standard-value",
     "age-min-ma": "--age-min",
     "age-max-ma": "--age-max",
+    "powder-taken": "--mass",
 }
 
 

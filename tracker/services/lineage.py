@@ -17,6 +17,7 @@ from tracker.domain.models import (
     ColumnBatch,
     CustodyEvent,
     Cut,
+    EventItem,
     Lender,
     Loan,
     LoanDocument,
@@ -75,9 +76,17 @@ def _documents(session: Session, loan_id: int) -> list[DocumentView]:
 
 
 def history_of(session: Session, public_id: str) -> list[EventView]:
+    """Every event naming the item: as its object, its parent, or in its list of items."""
+    linked = select(EventItem.seq).where(EventItem.item_ref == public_id)
     query = (
         select(CustodyEvent)
-        .where(or_(CustodyEvent.object_ref == public_id, CustodyEvent.parent_ref == public_id))
+        .where(
+            or_(
+                CustodyEvent.object_ref == public_id,
+                CustodyEvent.parent_ref == public_id,
+                CustodyEvent.seq.in_(linked),
+            )
+        )
         .order_by(CustodyEvent.seq)
     )
     return [EventView.of(e) for e in session.scalars(query)]

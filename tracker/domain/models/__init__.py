@@ -1,6 +1,7 @@
 """All mapped classes; importing this module registers every table on ``Base.metadata``."""
 
 from tracker.domain.models.chemistry import BatchPosition, ColumnBatch, Cut, ReferenceMaterial
+from tracker.domain.models.corrections import Correction
 from tracker.domain.models.enums import (
     AliquotPurpose,
     ContainerStatus,
@@ -25,7 +26,7 @@ from tracker.domain.models.instrument import (
     SrCurve,
 )
 from tracker.domain.models.labels import Label, LabelJob, LabelSetting
-from tracker.domain.models.ledger import CustodyEvent
+from tracker.domain.models.ledger import CustodyEvent, EventItem
 from tracker.domain.models.loans import (
     Document,
     Loan,
@@ -44,10 +45,12 @@ __all__ = [
     "ColumnBatch",
     "Concentration",
     "ContainerStatus",
+    "Correction",
     "CustodyEvent",
     "Cut",
     "Disposition",
     "Document",
+    "EventItem",
     "InstrumentSession",
     "Label",
     "LabelJob",

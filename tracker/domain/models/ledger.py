@@ -28,3 +28,17 @@ class CustodyEvent(Base):
     payload: Mapped[str] = mapped_column(Text)  # canonical JSON, exactly as hashed
     prev_hash: Mapped[str] = mapped_column(String(64))
     hash: Mapped[str] = mapped_column(String(64), unique=True)
+
+
+class EventItem(Base):
+    """An item an event acted on besides its ``object_ref`` (one batch sheet makes many).
+
+    Lets an item's history find events that name it only in their payload. The
+    pairs are derivable from the payloads, which the hash chain protects; the table
+    is append-only like the ledger.
+    """
+
+    __tablename__ = "event_item"
+
+    seq: Mapped[int] = mapped_column(primary_key=True, autoincrement=False)
+    item_ref: Mapped[str] = mapped_column(String(40), primary_key=True, index=True)
