@@ -92,6 +92,7 @@ def _register() -> None:
     batch = cmd_lab.batch_app.command
     batch("cut", epilog=instrument.BATCH_CUT_EPILOG)(instrument.batch_cut)
     batch("show", epilog="Example: tracker batch show CB-00001-G")(instrument.batch_show)
+    batch("sheet", epilog=instrument.BATCH_SHEET_EPILOG)(instrument.batch_sheet)
     batch(
         "blank-delta",
         epilog="Example: tracker batch blank-delta CB-00001-G --ratio 44/40 --delta -0.8",

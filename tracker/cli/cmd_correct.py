@@ -29,7 +29,7 @@ def _answer(ctx: typer.Context, answer: Any) -> None:
 
 @correct_app.command(
     "weighing",
-    epilog="Example: tracker correct weighing AQ-00003-2 --tare '2.0000 g' "
+    epilog="Example: tracker correct weighing AQ-00003-B --tare '2.0000 g' "
     "--gross '2.1012 g' --reason 'tare of the wrong vial'",
 )
 def weighing(
@@ -105,7 +105,7 @@ def concentration(
 
 @correct_app.command(
     "recovery",
-    epilog="Example: tracker correct recovery CT-00004-K --recovered '9.91 ug' --rel-u 1.5 "
+    epilog="Example: tracker correct recovery CU-00004-F --recovered '9.91 ug' --rel-u 1.5 "
     "--reason 'ICP-OES sequence row swapped with the blank'",
 )
 def recovery(

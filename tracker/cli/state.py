@@ -133,14 +133,25 @@ def perform(ctx: typer.Context, service: Callable[..., Any], request: dict[str, 
         return service(db, state(ctx).actor, request)
 
 
-def read_upload(path: Path | None, option: str) -> dict[str, Any] | None:
+# Bigger than any file a service accepts, so the service's own limit names the problem;
+# only a file far beyond it is refused here, before it is read into memory at all.
+MAX_UPLOAD_BYTES = 256 * 1024 * 1024
+
+
+def read_upload(
+    path: Path | None, option: str, limit: int = MAX_UPLOAD_BYTES
+) -> dict[str, Any] | None:
     """Read a file for a service; the service keeps it by SHA-256."""
     if path is None:
         return None
     try:
-        return {"filename": path.name, "content": path.read_bytes()}
+        with path.open("rb") as handle:
+            content = handle.read(limit + 1)
     except OSError as error:
         raise InputError(option, str(path), f"cannot be read ({error.strerror})") from None
+    if len(content) > limit:
+        raise InputError(option, str(path), f"is larger than {limit:,} bytes: refused")
+    return {"filename": path.name, "content": content}
 
 
 def jsonable(data: Any) -> Any:
