@@ -10,14 +10,14 @@ or diagenetically altered — a prompt to look closer, not a verdict.
 
 from __future__ import annotations
 
-import csv
-import io
 import math
 from bisect import bisect_right
 from collections.abc import Callable
 from dataclasses import dataclass
 from functools import cached_property
 from itertools import pairwise
+
+from tracker.domain.tables import TableError, csv_records
 
 COVERAGE = 2.0
 MAX_POINTS = 100_000  # screening walks 64 steps per segment: this bounds the work
@@ -124,11 +124,10 @@ def parse_curve_csv(text: str) -> Curve:
     Rows are numbered as lines of the file (comment lines starting with # included), so an
     error points at the line a person sees in an editor.
     """
-    reader = csv.reader(io.StringIO(text))
     try:
-        lines = list(enumerate(reader, start=1))
-    except csv.Error as exc:
-        raise CurveError(reader.line_num, "1", f"cannot be read as CSV: {exc}") from None
+        lines = list(csv_records(text))
+    except TableError as exc:
+        raise CurveError(exc.row, exc.column, exc.reason) from None
     if len(lines) > MAX_POINTS:
         raise CurveError(MAX_POINTS + 1, "age_ma", f"a curve of more than {MAX_POINTS} rows")
     kept = [

@@ -16,7 +16,7 @@ from __future__ import annotations
 import csv
 import io
 import zipfile
-from collections.abc import Iterable
+from collections.abc import Iterable, Iterator
 from dataclasses import dataclass
 
 from tracker.domain.textfiles import MAX_TABLE_BYTES, FileProblem, check_size, decode_text
@@ -91,11 +91,26 @@ def _text_lines(content: bytes, fmt: str) -> list[tuple[int, list[str]]]:
         text = decode_text(content, delimiter)
     except FileProblem as problem:
         raise TableError(problem.row, problem.column, problem.reason) from None
-    reader = csv.reader(io.StringIO(text), delimiter=delimiter)
+    return _counted(csv_records(text, delimiter))
+
+
+def csv_records(text: str, delimiter: str = ",") -> Iterator[tuple[int, list[str]]]:
+    """Each CSV record with the line it starts on (a quoted cell may span lines).
+
+    Strict: a quote left open would otherwise swallow every line after it into one
+    cell, silently; here it is refused at the line and cell where it opens.
+    """
+    reader = csv.reader(io.StringIO(text), delimiter=delimiter, strict=True)
+    start = 1
     try:
-        return _counted(enumerate(reader, start=1))
+        for cells in reader:
+            yield start, cells
+            start = reader.line_num + 1
     except csv.Error as exc:
-        raise TableError(reader.line_num, "1", f"cannot be read as {fmt.upper()}: {exc}") from None
+        line = text.splitlines()[start - 1] if start <= text.count("\n") + 1 else ""
+        quote = line.find('"')
+        cell = line[: max(quote, 0)].count(delimiter) + 1
+        raise TableError(start, str(cell), f"cannot be read as CSV: {exc}") from None
 
 
 def _counted(lines: Iterable[tuple[int, list[str]]]) -> list[tuple[int, list[str]]]:
