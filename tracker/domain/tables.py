@@ -67,20 +67,32 @@ def read_table(
     header_number, header = kept[header_row - 1]
     if len(set(header)) != len(header):
         raise TableError(header_number, "header", "two columns have the same name")
+    for number, cells in kept[header_row:]:
+        if len(cells) > len(header):  # never drop a cell silently (trailing blanks are gone)
+            raise TableError(
+                number, str(len(header) + 1),
+                f"the row has {len(cells)} cells but the header names {len(header)} columns "
+                "(an unquoted comma?)",
+            )  # fmt: skip
     rows = [
-        Row(n, dict(zip(header, cells + [""] * (len(header) - len(cells)), strict=False)))
+        Row(n, dict(zip(header, cells + [""] * (len(header) - len(cells)), strict=True)))
         for n, cells in kept[header_row:]
     ]
     for row in rows:
-        _refuse_formulas(row)
+        _refuse_formulas(row, header)
     return header, rows
 
 
-def _refuse_formulas(row: Row) -> None:
+def column_name(header: list[str], column: str) -> str:
+    """A column as a refusal names it: its heading, or its place when it has none."""
+    return column or f"{header.index(column) + 1} (no heading)"
+
+
+def _refuse_formulas(row: Row, header: list[str]) -> None:
     for column, text in row.cells.items():
         if text.startswith(FORMULA_STARTS):
             raise TableError(
-                row.number, column,
+                row.number, column_name(header, column),
                 f"holds a spreadsheet formula ({text[:20]!r}); export values, not formulas",
             )  # fmt: skip
 
