@@ -128,7 +128,7 @@ def crash_rounds(
         report.rounds += 1
         if not _wait_for_call(zygote, markers, pid):
             break  # the job finished before a kill could land: nothing left to interrupt
-        time.sleep(rng.uniform(0, window))
+        _pause(rng, report.rounds, window, markers)
         zygote.kill(pid)
         _wait_gone(zygote, pid)
         report.kills += 1
@@ -140,6 +140,20 @@ def crash_rounds(
     assert _lines(final)[-1:] == ["finished"], _lines(final)[-5:]
     check()
     return report
+
+
+def _pause(rng: random.Random, round_number: int, window: float, markers: Path) -> None:
+    """When to kill: mostly at a random moment; every fourth round the instant a commit
+    starts (to hit the commit itself), and every fourth the instant the call begins."""
+    style = round_number % 4
+    if style == 3:
+        return
+    if style == 2:
+        deadline = time.monotonic() + window
+        while time.monotonic() < deadline and "commit" not in _lines(markers)[-3:]:
+            time.sleep(0.0005)
+        return
+    time.sleep(rng.uniform(0, window))
 
 
 def _wait_for_call(zygote: Zygote, markers: Path, pid: int, timeout: float = 60) -> bool:
