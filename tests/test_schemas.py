@@ -1,6 +1,6 @@
 """The checked-in JSON Schemas match the pydantic models and are valid Draft 2020-12 schemas.
 
-A model change without ``python -m tracker.io.schemas`` leaves ``schemas/`` stale;
+A model change without ``python -m tracker.schemas`` leaves ``schemas/`` stale;
 these tests then fail, so the files scripts rely on never drift from the code.
 """
 
@@ -13,7 +13,7 @@ import pytest
 from jsonschema import Draft202012Validator
 from jsonschema.exceptions import SchemaError
 
-from tracker.io.schemas import DOCUMENTS, SCHEMA_DIALECT, render
+from tracker.schemas import DOCUMENTS, SCHEMA_DIALECT, render
 
 SCHEMAS = Path(__file__).resolve().parents[1] / "schemas"
 NAMES = sorted(DOCUMENTS)
@@ -27,10 +27,10 @@ def test_every_document_has_a_schema_file_and_no_file_is_orphaned() -> None:
 @pytest.mark.parametrize("name", NAMES)
 def test_checked_in_schema_equals_the_generated_one_byte_for_byte(name: str) -> None:
     path = SCHEMAS / name
-    assert path.is_file(), f"{path} is missing: run `python -m tracker.io.schemas`"
+    assert path.is_file(), f"{path} is missing: run `python -m tracker.schemas`"
     committed = path.read_bytes()
     assert committed == render(name).encode("utf-8"), (
-        f"{name} is stale: run `python -m tracker.io.schemas` and commit the result"
+        f"{name} is stale: run `python -m tracker.schemas` and commit the result"
     )
 
 

@@ -29,7 +29,7 @@ from tracker.domain.models import (
     ColumnBatch,
     CustodyEvent,
     Cut,
-    EventItem,
+    EventRef,
     InstrumentSession,
     Label,
     Measurement,
@@ -176,7 +176,9 @@ def _batches_whole(url: str) -> int:
             events = session.scalars(
                 select(CustodyEvent.seq).where(CustodyEvent.action == "batch.sheet_entered")
             ).all()
-            linked = session.scalar(select(func.count()).select_from(EventItem))
+            linked = session.scalar(
+                select(func.count()).select_from(EventRef).where(EventRef.seq.in_(events))
+            )
             labels = session.scalar(select(func.count()).where(Label.queued_event_seq.in_(events)))
         full = [b for b, n in positions.items() if n == SHEET_COLUMNS]
         assert all(n in (0, SHEET_COLUMNS) for n in positions.values()), positions

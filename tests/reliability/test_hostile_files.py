@@ -136,7 +136,7 @@ for name in ("instrument export (XLSX)", "batch sheet (XLSX)"):
     ]
 CASES += [
     ("instrument export (XLSX)", "a formula never calculated", h.formula_without_value,
-     ("row 2", "column r4440", "empty")),
+     ("row 2", "column r4440", "formula")),
 ]  # fmt: skip
 
 

@@ -60,7 +60,7 @@ def test_a_sheet_enters_every_column_and_cut_in_one_event(
     queued = {label.item for label in labels.list_labels(db)}
     assert set(answer.positions_added + answer.cuts_added) <= queued
     history = lineage.show_item(db, answer.cuts_added[0]).history
-    assert [e.action for e in history] == ["batch.sheet_entered"]  # found through event_item
+    assert [e.action for e in history] == ["batch.sheet_entered"]  # found through event_ref
 
 
 def test_the_same_sheet_again_is_refused_and_a_partial_one_is_completed(

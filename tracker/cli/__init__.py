@@ -15,6 +15,7 @@ from tracker.cli import (
     cmd_labels,
     cmd_ledger,
     cmd_loans,
+    cmd_reports,
     cmd_setup,
 )
 from tracker.cli.cmd_demo import DEMO_EPILOG, demo
@@ -110,6 +111,13 @@ def _register() -> None:
     app.add_typer(cmd_instrument.profile_app, name="profile")
     app.add_typer(cmd_instrument.session_app, name="session")
     app.add_typer(cmd_instrument.curve_app, name="curve")
+    app.add_typer(cmd_reports.report_app, name="report")
+    app.add_typer(cmd_reports.manifest_app, name="manifest")
+    app.add_typer(cmd_reports.export_app, name="export")
+    app.add_typer(cmd_reports.shipment_app, name="shipment")
+    cmd_loans.specimen_app.command("photo", epilog=cmd_reports.PHOTO_EPILOG)(
+        cmd_reports.specimen_photo
+    )
     app.add_typer(cmd_lab.batch_app, name="batch")
     app.add_typer(cmd_labels.labels_app, name="labels")
     app.add_typer(cmd_ledger.ledger_app, name="ledger")

@@ -116,8 +116,8 @@ def batch_blank_delta(
     emit(ctx, answer, lambda: done(answer, f"blank δ{ratio} = {delta:+.3f} ‰ for {batch}"))
 
 
-def _definition(path: Path) -> dict[str, Any]:
-    """A profile file (TOML or JSON) read safely; problems name the file, row and column."""
+def definition_file(path: Path) -> dict[str, Any]:
+    """A settings file (TOML or JSON) read safely; problems name the file, row and column."""
     upload = read_upload(path, "FILE", limit=MAX_SETTINGS_BYTES) or {}
     try:
         return load_settings(upload["content"], path.suffix.lower())
@@ -127,8 +127,8 @@ def _definition(path: Path) -> dict[str, Any]:
 
 
 @contextmanager
-def _named_file(path: Path) -> Iterator[None]:
-    """A profile the service refuses names the file and the key (its "column")."""
+def named_file(path: Path) -> Iterator[None]:
+    """A definition the service refuses names the file and the key (its "column")."""
     try:
         yield
     except TrackerError as error:
@@ -146,9 +146,9 @@ def profile_save(
     file: Annotated[Path, typer.Argument(help="TOML or JSON file (see schemas/profile).")],
 ) -> None:
     """Save a column mapping profile (replaces one of the same name)."""
-    with _named_file(file):
+    with named_file(file):
         answer = perform(
-            ctx, instrument.save_profile, {"name": name, "definition": _definition(file)}
+            ctx, instrument.save_profile, {"name": name, "definition": definition_file(file)}
         )
     emit(ctx, answer, lambda: done(answer, f"profile {name}"))
 

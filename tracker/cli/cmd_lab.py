@@ -222,9 +222,13 @@ def dispose(
     readability: Annotated[
         str | None, Opt("--readability", help="Balance readability for those readings.")
     ] = None,
+    shipment: Annotated[
+        str | None, Opt("--shipment", help="Returned powder: the outgoing shipment ID.")
+    ] = None,
 ) -> None:
     """End a vial's life in the lab, weighing what is left in it as it goes."""
     request = {
+        "shipment": shipment,
         "item": item,
         "outcome": outcome,
         "reason": reason,

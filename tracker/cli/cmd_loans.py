@@ -242,10 +242,13 @@ def return_specimen(
     ctx: typer.Context,
     specimen: Annotated[str, typer.Argument(help="Specimen ID.")],
     condition: Annotated[str, Opt("--condition", help="Condition at return.")],
-    note: Annotated[str | None, Opt("--note", help="Shipment or other note.")] = None,
+    note: Annotated[str | None, Opt("--note", help="Any note.")] = None,
+    shipment: Annotated[
+        str | None, Opt("--shipment", help="Outgoing shipment ID (SH-...).")
+    ] = None,
 ) -> None:
     """Send a specimen back to its lender, recording its condition."""
-    request = {"specimen": specimen, "condition": condition, "note": note}
+    request = {"specimen": specimen, "condition": condition, "note": note, "shipment": shipment}
     answer = perform(ctx, specimens.return_specimen, request)
     emit(ctx, answer, lambda: done(answer, f"{answer.item.id} returned"))
 

@@ -81,6 +81,8 @@ FIELD_OPTIONS = {
     "effective-from": "--effective",
     "override-reason": "--override",
     "standard-values": "--standard-value",
+    "shipped-on": "--date",
+    "photo": "FILE",
     "age-min-ma": "--age-min",
     "age-max-ma": "--age-max",
     "powder-taken": "--mass",
@@ -97,8 +99,11 @@ def cli_field(ctx: typer.Context, field: str) -> str:
         return f"--{field}"
     if field.endswith("-at") and "--at" in options:
         return "--at"
-    if FIELD_OPTIONS.get(field) in options or field == "terms":
+    wanted = FIELD_OPTIONS.get(field)
+    if wanted in options or field == "terms":
         return FIELD_OPTIONS[field]
+    if wanted is not None and wanted.lower() in arguments:
+        return wanted
     if field.replace("-", "_") in arguments or field == "id":
         return (field if field != "id" else "ITEM").upper().replace("-", "_")
     return field

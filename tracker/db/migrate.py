@@ -17,7 +17,8 @@ REVISIONS: tuple[str, ...] = (
     "0003_materials_residuals",
     "0004_instrument",
     "0005_labels",
-    "0006_reliability",
+    "0006_reports",
+    "0007_reliability",
 )
 HEAD = REVISIONS[-1]
 MIGRATIONS_DIR = Path(__file__).with_name("migrations")

@@ -8,7 +8,8 @@ names the ledger) kept somewhere else: in a return report, sent to the lender, o
 a colleague's disk. Later the chain must still contain that exact event.
 
 Format "tracker-anchor/1": one JSON object with the fields ``format``, ``seq``,
-``hash``, ``first_hash`` and ``taken_at`` (ISO 8601 UTC).
+``hash``, ``first_hash`` and ``taken_at`` (ISO 8601 UTC), and optionally ``label``,
+free text saying what the anchor was taken for (e.g. a return report).
 """
 
 from __future__ import annotations
@@ -36,20 +37,25 @@ class Anchor:
     hash: str
     first_hash: str
     taken_at: str  # ISO 8601 UTC, as written
+    label: str | None = None
 
     def to_text(self) -> str:
-        record = {
+        record: dict[str, object] = {
             "format": ANCHOR_FORMAT,
             "seq": self.seq,
             "hash": self.hash,
             "first_hash": self.first_hash,
             "taken_at": self.taken_at,
         }
-        return json.dumps(record, indent=2) + "\n"
+        if self.label is not None:
+            record["label"] = self.label
+        return json.dumps(record, indent=2, ensure_ascii=False) + "\n"
 
 
-def make_anchor(seq: int, head_hash: str, first_hash: str, taken_at: datetime) -> Anchor:
-    return Anchor(seq, head_hash, first_hash, iso_utc(taken_at))
+def make_anchor(
+    seq: int, head_hash: str, first_hash: str, taken_at: datetime, label: str | None = None
+) -> Anchor:
+    return Anchor(seq, head_hash, first_hash, iso_utc(taken_at), label)
 
 
 def parse_anchor(text: str) -> Anchor:
@@ -70,7 +76,10 @@ def parse_anchor(text: str) -> Anchor:
     taken = record.get("taken_at")
     if not isinstance(taken, str):
         raise AnchorError("taken_at is missing")
-    return Anchor(seq, record["hash"], record["first_hash"], taken)
+    label = record.get("label")
+    return Anchor(
+        seq, record["hash"], record["first_hash"], taken, label if isinstance(label, str) else None
+    )
 
 
 @dataclass(frozen=True)

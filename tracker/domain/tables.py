@@ -18,7 +18,9 @@ import io
 import zipfile
 from collections.abc import Iterable, Iterator
 from dataclasses import dataclass
+from datetime import date, datetime, time
 
+from tracker.domain.spreadsheet import looks_like_formula
 from tracker.domain.textfiles import MAX_TABLE_BYTES, FileProblem, check_size, decode_text
 
 MAX_ROWS = 500_000
@@ -26,7 +28,6 @@ MAX_COLUMNS = 1_000
 MAX_WORKBOOK_MEMBERS = 1_000
 # What a workbook may unpack to (its ZIP directory's declared sizes, which zipfile enforces).
 MAX_UNPACKED_BYTES = 256 * 1024 * 1024
-FORMULA_STARTS = ("=", "@")  # what spreadsheets read as a formula (OWASP "CSV injection")
 
 
 class TableError(ValueError):
@@ -48,8 +49,13 @@ def read_table(
     header_row: int = 1,
     sheet: str | None = None,
     comment_prefix: str | None = "#",
+    keep_formulas: bool = False,
 ) -> tuple[list[str], list[Row]]:
-    """(header, rows) from the file; the header is the ``header_row``-th kept line."""
+    """(header, rows) from the file; the header is the ``header_row``-th kept line.
+
+    A cell a spreadsheet would run as a formula is refused, unless ``keep_formulas``
+    (for a caller that reports such cells row by row itself).
+    """
     zipped = content[:4] == b"PK\x03\x04"  # XLSX files are ZIP archives
     if fmt == "xlsx" and not zipped:
         raise TableError(1, "file", "is not an XLSX workbook; use a csv or tsv profile")
@@ -78,7 +84,7 @@ def read_table(
         Row(n, dict(zip(header, cells + [""] * (len(header) - len(cells)), strict=True)))
         for n, cells in kept[header_row:]
     ]
-    for row in rows:
+    for row in [] if keep_formulas else rows:
         _refuse_formulas(row, header)
     return header, rows
 
@@ -90,7 +96,7 @@ def column_name(header: list[str], column: str) -> str:
 
 def _refuse_formulas(row: Row, header: list[str]) -> None:
     for column, text in row.cells.items():
-        if text.startswith(FORMULA_STARTS):
+        if looks_like_formula(text):
             raise TableError(
                 row.number, column_name(header, column),
                 f"holds a spreadsheet formula ({text[:20]!r}); export values, not formulas",
@@ -165,7 +171,9 @@ def _xlsx_lines(content: bytes, sheet: str | None) -> list[tuple[int, list[str]]
 
     _check_workbook(content)
     try:
-        book = load_workbook(io.BytesIO(content), read_only=True, data_only=True)
+        # data_only=False: a formula cell reads as its formula, so it is seen (and refused
+        # or flagged) instead of silently taking whatever value the file cached for it
+        book = load_workbook(io.BytesIO(content), read_only=True, data_only=False)
     except Exception as exc:  # openpyxl fails on a broken workbook in many ways; name it once
         raise TableError(1, "file", f"is not a readable XLSX workbook ({_short(exc)})") from None
     try:
@@ -176,7 +184,7 @@ def _xlsx_lines(content: bytes, sheet: str | None) -> list[tuple[int, list[str]]
         page = book[sheet] if sheet else book.worksheets[0]
         page.reset_dimensions()  # the file's own claim of its size is not trusted
         return _counted(
-            (n, ["" if v is None else repr(v) if isinstance(v, float) else str(v) for v in values])
+            (n, [_cell_text(v) for v in values])
             for n, values in enumerate(page.iter_rows(values_only=True), start=1)
         )
     except TableError:
@@ -185,6 +193,20 @@ def _xlsx_lines(content: bytes, sheet: str | None) -> list[tuple[int, list[str]]
         raise TableError(1, "file", f"is not a readable XLSX workbook ({_short(exc)})") from None
     finally:
         book.close()
+
+
+def _cell_text(value: object) -> str:
+    """A workbook cell as the text a CSV export of it would hold (dates in ISO 8601)."""
+    if value is None:
+        return ""
+    if isinstance(value, float):
+        return repr(value)
+    if isinstance(value, datetime):
+        has_time = value.time() != time(0, 0) or value.tzinfo is not None
+        return value.isoformat() if has_time else value.date().isoformat()
+    if isinstance(value, date | time):
+        return value.isoformat()
+    return str(value)
 
 
 def _short(exc: Exception) -> str:

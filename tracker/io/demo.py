@@ -33,6 +33,7 @@ from tracker.services import (
     results,
     screening,
     setup,
+    shipments,
     specimens,
 )
 
@@ -67,6 +68,8 @@ SERVICES: dict[str, Service] = {
     "reference_value": results.set_reference_value,
     "curve": screening.add_curve,
     "loan_curve": screening.use_curve,
+    "shipment": shipments.add_shipment,
+    "photo": shipments.add_photo,
     "label_queue": labels.queue_labels,
     "label_cancel": labels.cancel_labels,
 }
@@ -101,7 +104,7 @@ class Replay:
         """Aliases become IDs; ``document``, ``file`` and ``definition_file`` name files
         beside the scenario (a document is uploaded, a file's bytes and name are handed
         over, a definition file is read as TOML)."""
-        if key == "document" and isinstance(value, str):
+        if key in ("document", "photo") and isinstance(value, str):
             path = self.folder / value
             return {"filename": path.name, "content": path.read_bytes()}
         if isinstance(value, dict) and "file" in value:

@@ -28,9 +28,7 @@ from tracker.domain.errors import InputError, RuleViolation, TrackerError, at_ce
 from tracker.domain.models import (
     BatchPosition,
     ColumnBatch,
-    CustodyEvent,
     Cut,
-    EventItem,
     PositionKind,
 )
 from tracker.domain.tables import Row, TableError, read_table
@@ -84,7 +82,7 @@ def enter_sheet(db: Database, actor: str | None, data: EnterSheet | Raw) -> Done
             "rows": len(rows[1]), "added": sheet.added_with_ids(),
             "already_entered": sheet.skipped,
         }  # fmt: skip
-        uow.after_record.append(sheet.link_items)
+        uow.mention(*(item.public_id for item in sheet.new_items))  # their histories show it
         view = SheetView(
             batch=batch.public_id, rows=len(rows[1]), already_entered=sheet.skipped,
             positions_added=sheet.ids(BatchPosition), cuts_added=sheet.ids(Cut),
@@ -206,11 +204,6 @@ class _Sheet:
             {"id": item.public_id, **entry}
             for entry, item in zip(self.added, self.new_items, strict=True)
         ]
-
-    def link_items(self, event: CustodyEvent) -> None:
-        """Name every new position and cut against the event, so their histories show it."""
-        for item in self.new_items:
-            self.uow.session.add(EventItem(seq=event.seq, item_ref=item.public_id))
 
 
 def _slot(text: str) -> int:

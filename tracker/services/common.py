@@ -10,7 +10,13 @@ from typing import Any, TypeVar
 from pydantic import BaseModel
 
 from tracker.domain.errors import InputError, RuleViolation
-from tracker.domain.models import Location, Specimen, SpecimenStatus
+from tracker.domain.models import (
+    Location,
+    Shipment,
+    ShipmentDirection,
+    Specimen,
+    SpecimenStatus,
+)
 from tracker.domain.timeutil import as_utc, iso_utc
 from tracker.domain.units import decimals_below
 from tracker.domain.weighing import MassByDifference
@@ -57,6 +63,19 @@ def weigh(
 def optional_location(uow: UnitOfWork, field: str, text: str | None) -> Location | None:
     """The location an ID names, or None when the form left it empty."""
     return get_by_id(uow.session, Location, field, text) if text else None
+
+
+def return_shipment(uow: UnitOfWork, text: str | None, loan_id: int) -> Shipment | None:
+    """The outgoing shipment of this loan that a returned item travels in (if one is named)."""
+    if text is None:
+        return None
+    shipment = get_by_id(uow.session, Shipment, "shipment", text)
+    if shipment.loan_id != loan_id:
+        raise RuleViolation("shipment", shipment.public_id, "belongs to another loan")
+    if shipment.direction is not ShipmentDirection.OUTGOING:
+        raise RuleViolation("shipment", shipment.public_id, "is an incoming shipment")
+    uow.mention(shipment.public_id)
+    return shipment
 
 
 def require_on_hand(specimen: Specimen, field: str = "specimen") -> None:

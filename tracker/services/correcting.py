@@ -18,7 +18,7 @@ from sqlalchemy.orm import Session
 from tracker.db.database import Database
 from tracker.domain.base import HasPublicId
 from tracker.domain.errors import InputError
-from tracker.domain.models import Concentration, Correction, CustodyEvent, EventItem
+from tracker.domain.models import Concentration, Correction, CustodyEvent, EventRef
 from tracker.services.common import finish
 from tracker.services.lookup import get_any
 from tracker.services.uow import UnitOfWork
@@ -67,7 +67,7 @@ def latest_correction(session: Session, item_ref: str, quantity: str) -> Correct
 
 def first_event(session: Session, item_ref: str) -> CustodyEvent | None:
     """The event that made an item: the first to name it, directly or in its item list."""
-    linked = select(EventItem.seq).where(EventItem.item_ref == item_ref)
+    linked = select(EventRef.seq).where(EventRef.ref == item_ref)
     return session.scalars(
         select(CustodyEvent)
         .where(or_(CustodyEvent.object_ref == item_ref, CustodyEvent.seq.in_(linked)))

@@ -22,10 +22,16 @@ from tracker.domain.models import (
     Specimen,
     SpecimenStatus,
 )
-from tracker.services.common import ANALYTICAL_BALANCE_MG, MICROBALANCE_MG, finish, weigh
+from tracker.services.common import (
+    ANALYTICAL_BALANCE_MG,
+    MICROBALANCE_MG,
+    finish,
+    return_shipment,
+    weigh,
+)
 from tracker.services.inputs import PositiveMassMg, Raw, Request, Text, parse
 from tracker.services.lookup import get_any, get_by_id, get_loan
-from tracker.services.uow import unit_of_work
+from tracker.services.uow import UnitOfWork, unit_of_work
 from tracker.services.views import Done, ItemView, LoanView
 
 Container = Powder | Solution | Aliquot | Cut
@@ -86,6 +92,7 @@ class Dispose(Request):
     reason: Annotated[str, Field(min_length=1, max_length=4000)]
     permission: Annotated[str, Field(max_length=300)] | None = None  # lender's written consent
     # What is left in the vial, weighed by difference as it leaves (powders and solutions).
+    shipment: str | None = None  # returned vials: the outgoing shipment that carries them
     residual_tare: PositiveMassMg | None = None
     residual_gross: PositiveMassMg | None = None
     readability: PositiveMassMg | None = None
@@ -105,6 +112,7 @@ def dispose(db: Database, actor: str | None, data: Dispose | Raw) -> Done[ItemVi
                 "permission", None, "retaining lent material needs the lender's written permission"
             )
         residual = _residual(request, item, outcome)
+        shipment = _shipment(uow, request, item, outcome)
         before = item.location.path if item.location else None
         item.status = outcome
         item.location = None
@@ -114,9 +122,25 @@ def dispose(db: Database, actor: str | None, data: Dispose | Raw) -> Done[ItemVi
             "permission": request.permission,
             "from": before,
             "residual": residual,
+            "shipment": shipment,
         }
         action = f"{type(item).__name__.lower()}.{outcome.value}"
         return finish(uow, action, item, payload, lambda: ItemView.of(item))
+
+
+def _shipment(
+    uow: UnitOfWork, request: Dispose, item: Container, outcome: ContainerStatus
+) -> str | None:
+    if request.shipment is None:
+        return None
+    if outcome is not ContainerStatus.RETURNED or not isinstance(item, Powder):
+        raise InputError(
+            "shipment", request.shipment, "only returned powder vials travel in a shipment here"
+        )
+    shipment = return_shipment(uow, request.shipment, item.specimen.loan_id)
+    assert shipment is not None
+    item.return_shipment_id = shipment.id
+    return shipment.public_id
 
 
 def _residual(

@@ -132,4 +132,5 @@ def _finish_job(
         "pages": job.pages, "sha256": job.sha256, "printer": job.printer, "reason": job.reason,
     }  # fmt: skip
     action = "labels.printed" if job.kind is LabelJobKind.PRINT else "labels.reprinted"
+    uow.mention(*ids)
     return finish(uow, action, job, payload, lambda: JobView.of(job, ids))

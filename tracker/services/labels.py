@@ -94,6 +94,7 @@ def queue_labels(db: Database, actor: str | None, data: QueueLabels | Raw) -> Do
         ids = [row.public_id for row in rows]
         payload = {"items": ids, "copies": request.copies}
         answer = QueueAnswer(items=[i for i in ids for _ in range(request.copies)], status="queued")
+        uow.mention(*ids)
         return finish(uow, "labels.queued", _one_or_none(ids), payload, lambda: answer)
 
 
@@ -123,6 +124,7 @@ def cancel_labels(db: Database, actor: str | None, data: CancelLabels | Raw) -> 
         payload = {"items": cancelled, "reason": request.reason}
         ids = [row.public_id for row in rows]
         answer = QueueAnswer(items=cancelled, status="cancelled")
+        uow.mention(*ids)
         return finish(uow, "labels.cancelled", _one_or_none(ids), payload, lambda: answer)
 
 

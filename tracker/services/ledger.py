@@ -13,8 +13,9 @@ import tempfile
 from collections.abc import Iterator
 from dataclasses import dataclass
 from pathlib import Path
-from typing import TextIO
+from typing import Annotated, TextIO
 
+from pydantic import BaseModel, Field
 from sqlalchemy import func, select
 
 from tracker.db.database import Database
@@ -70,6 +71,20 @@ def recent_events(db: Database, limit: int = 50, action: str | None = None) -> l
         return [EventView.of(e) for e in session.scalars(query)]
 
 
+class LedgerLine(BaseModel):
+    """One line of an exported ledger (format tracker-ledger/1): every field as hashed."""
+
+    seq: Annotated[int, Field(ge=1)]
+    at: Annotated[str, Field(pattern=r"^\d{4}-\d{2}-\d{2}T\d{2}:\d{2}:\d{2}\.\d{6}Z$")]
+    operator: str
+    action: str
+    object: str
+    parent: str
+    prev_hash: Annotated[str, Field(pattern="^[0-9a-f]{64}$")]
+    payload: str  # canonical JSON, exactly the bytes that were hashed
+    hash: Annotated[str, Field(pattern="^[0-9a-f]{64}$")]
+
+
 def export_jsonl(db: Database, out: TextIO) -> int:
     """Write one JSON object per event, fields exactly as hashed; returns the count."""
     count = 0
@@ -95,7 +110,7 @@ def _hash_of(db: Database, seq: int) -> str | None:
         return session.scalar(select(CustodyEvent.hash).where(CustodyEvent.seq == seq))
 
 
-def current_anchor(db: Database) -> Anchor:
+def current_anchor(db: Database, label: str | None = None) -> Anchor:
     """The ledger's head now, as an anchor; refused for an empty ledger."""
     with db.read_session() as session:
         head = session.execute(
@@ -104,12 +119,21 @@ def current_anchor(db: Database) -> Anchor:
         first = session.scalar(select(CustodyEvent.hash).where(CustodyEvent.seq == 1))
     if head is None or first is None:
         raise RuleViolation("--db", db.url, "the ledger has no events to anchor")
-    return make_anchor(head.seq, head.hash, first, db.clock())
+    return make_anchor(head.seq, head.hash, first, db.clock(), label)
 
 
-def write_anchor(db: Database, path: Path) -> Anchor:
+def anchor_for(db: Database, seq: int, head_hash: str, label: str | None = None) -> Anchor:
+    """An anchor of an event a document shows (a report's head), checked against the ledger."""
+    if _hash_of(db, seq) != head_hash:
+        raise RuleViolation("--db", db.url, f"the ledger holds no event #{seq} with that hash")
+    first = _hash_of(db, 1)
+    assert first is not None  # event #seq exists, so event 1 does
+    return make_anchor(seq, head_hash, first, db.clock(), label)
+
+
+def write_anchor(db: Database, path: Path, label: str | None = None) -> Anchor:
     """Write the current head to ``path`` (atomically: a reader never sees half a file)."""
-    anchor = current_anchor(db)
+    anchor = current_anchor(db, label)
     directory = path.parent if str(path.parent) else Path()
     try:
         handle, staged = tempfile.mkstemp(prefix=f".{path.name}.", dir=directory)

@@ -17,7 +17,7 @@ from tracker.domain.models import (
     ColumnBatch,
     CustodyEvent,
     Cut,
-    EventItem,
+    EventRef,
     Lender,
     Loan,
     LoanDocument,
@@ -76,15 +76,14 @@ def _documents(session: Session, loan_id: int) -> list[DocumentView]:
 
 
 def history_of(session: Session, public_id: str) -> list[EventView]:
-    """Every event naming the item: as its object, its parent, or in its list of items."""
-    linked = select(EventItem.seq).where(EventItem.item_ref == public_id)
+    mentioned = select(EventRef.seq).where(EventRef.ref == public_id)
     query = (
         select(CustodyEvent)
         .where(
             or_(
                 CustodyEvent.object_ref == public_id,
                 CustodyEvent.parent_ref == public_id,
-                CustodyEvent.seq.in_(linked),
+                CustodyEvent.seq.in_(mentioned),
             )
         )
         .order_by(CustodyEvent.seq)

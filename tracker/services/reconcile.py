@@ -104,7 +104,7 @@ def reconcile(db: Database, loan: str | None = None, *, specimens: bool = True) 
     with db.read_session() as session:
         query = select(Loan).options(selectinload(Loan.terms), selectinload(Loan.lender))
         if loan is not None:
-            query = query.where(Loan.id == get_loan(session, "--loan", loan).id)
+            query = query.where(Loan.id == get_loan(session, "loan", loan).id)
         loans = session.scalars(query).all()
         loan_ids = [row.id for row in loans]
         sums = _powder_sums(session, loan_ids)

@@ -8,6 +8,7 @@ another scale through the accepted δ of that scale's reference on the session's
 
 from __future__ import annotations
 
+from datetime import date
 from typing import Annotated, Literal
 
 from pydantic import Field
@@ -51,6 +52,8 @@ class SpecimenResult(View):
     scale: str
     age_min_ma: float | None
     age_max_ma: float | None
+    determined_on: date  # the instrument session's day
+    determined_by: str  # the operator who ran it
     flags: list[str]
 
 
@@ -72,7 +75,7 @@ def results(
             .order_by(Loan.id, Specimen.id, Result.ratio, Result.id)
         )
         if loan is not None:
-            query = query.where(Loan.id == get_loan(session, "--loan", loan).id)
+            query = query.where(Loan.id == get_loan(session, "loan", loan).id)
         if scale is not None:
             _require_reference(session, scale)
         lines = []
@@ -87,6 +90,7 @@ def results(
                 two_se=None if result.two_se_permil is None else result.two_se_permil * factor,
                 n=result.n,
                 scale=on, age_min_ma=specimen.age_min_ma, age_max_ma=specimen.age_max_ma,
+                determined_on=run.started_at.date(), determined_by=run.operator,
                 flags=list(result.flags),
             ))  # fmt: skip
         return lines

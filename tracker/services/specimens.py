@@ -11,7 +11,13 @@ from sqlalchemy.orm import selectinload
 from tracker.db.database import Database
 from tracker.domain.errors import RuleViolation
 from tracker.domain.models import LoanStatus, Specimen, SpecimenStatus
-from tracker.services.common import action_time, finish, optional_location, require_on_hand
+from tracker.services.common import (
+    action_time,
+    finish,
+    optional_location,
+    require_on_hand,
+    return_shipment,
+)
 from tracker.services.inputs import AwareDatetime, FieldProblem, Name, Raw, Request, Text, parse
 from tracker.services.label_queue import queue_label
 from tracker.services.lookup import get_by_id, get_loan
@@ -121,6 +127,7 @@ class ReturnSpecimen(Request):
     condition: Annotated[str, Field(min_length=1, max_length=4000)]
     returned_at: AwareDatetime | None = None
     note: Text | None = None
+    shipment: str | None = None  # the outgoing shipment (SH-...) that carries it back
 
 
 def return_specimen(
@@ -131,6 +138,8 @@ def return_specimen(
     with unit_of_work(db, actor) as uow:
         specimen = get_by_id(uow.session, Specimen, "specimen", request.specimen)
         require_on_hand(specimen)
+        shipment = return_shipment(uow, request.shipment, specimen.loan_id)
+        specimen.return_shipment_id = shipment.id if shipment else None
         specimen.returned_at = action_time(uow, request.returned_at, "returned-at")
         specimen.status = SpecimenStatus.RETURNED
         specimen.condition_out = request.condition
@@ -141,6 +150,7 @@ def return_specimen(
             "note": request.note,
             "from": previous,
             "returned_at": specimen.returned_at.isoformat(),
+            "shipment": shipment.public_id if shipment else None,
         }
         return finish(
             uow,

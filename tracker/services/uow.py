@@ -22,7 +22,7 @@ from tracker.db.database import Database
 from tracker.domain.base import HasPublicId
 from tracker.domain.errors import InputError, RuleViolation
 from tracker.domain.ledger import GENESIS_HASH, canonical_json, event_hash
-from tracker.domain.models import CustodyEvent, Operator, Role
+from tracker.domain.models import CustodyEvent, EventRef, Operator, Role
 from tracker.domain.timeutil import as_utc
 
 Ref = HasPublicId | str | None
@@ -38,6 +38,12 @@ class UnitOfWork:
     # Rows that must name this unit's event (a queued label names the event that queued
     # it) are written by these hooks once the event exists, inside the same transaction.
     after_record: list[Callable[[CustodyEvent], None]] = field(default_factory=list)
+    # Further items this unit's event concerns (a manifest's specimens, a print job's labels).
+    mentions: set[str] = field(default_factory=set)
+
+    def mention(self, *refs: str) -> None:
+        """Make the event findable from each of these items' history."""
+        self.mentions.update(ref for ref in refs if ref)
 
     def require_manager(self, action: str) -> None:
         """Refuse an action reserved for managers: who tried, what it needs, who can do it."""
@@ -73,6 +79,8 @@ class UnitOfWork:
             payload=payload,
         )
         self.events.append(event)
+        for ref in sorted(self.mentions - {event.object_ref, event.parent_ref}):
+            self.session.add(EventRef(seq=event.seq, ref=ref))
         for hook in self.after_record:
             hook(event)
         return event

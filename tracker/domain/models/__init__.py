@@ -26,7 +26,7 @@ from tracker.domain.models.instrument import (
     SrCurve,
 )
 from tracker.domain.models.labels import Label, LabelJob, LabelSetting
-from tracker.domain.models.ledger import CustodyEvent, EventItem
+from tracker.domain.models.ledger import CustodyEvent, EventRef
 from tracker.domain.models.loans import (
     Document,
     Loan,
@@ -35,7 +35,14 @@ from tracker.domain.models.loans import (
     Shipment,
     UserMaterial,
 )
-from tracker.domain.models.material import Aliquot, Concentration, Powder, Solution, Specimen
+from tracker.domain.models.material import (
+    Aliquot,
+    Concentration,
+    Powder,
+    Solution,
+    Specimen,
+    SpecimenPhoto,
+)
 from tracker.domain.models.people import Lender, Location, Operator
 
 __all__ = [
@@ -50,7 +57,7 @@ __all__ = [
     "Cut",
     "Disposition",
     "Document",
-    "EventItem",
+    "EventRef",
     "InstrumentSession",
     "Label",
     "LabelJob",
@@ -78,6 +85,7 @@ __all__ = [
     "ShipmentDirection",
     "Solution",
     "Specimen",
+    "SpecimenPhoto",
     "SpecimenStatus",
     "SrCurve",
     "TermsKind",

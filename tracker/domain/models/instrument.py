@@ -92,6 +92,7 @@ class MappingProfile(Base):
 
     id: Mapped[int] = mapped_column(primary_key=True)
     name: Mapped[str] = mapped_column(String(120), unique=True)
+    kind: Mapped[str] = mapped_column(String(20), default="instrument")  # or "manifest"
     definition: Mapped[dict[str, Any]]
     created_at: Mapped[datetime]
 

@@ -30,15 +30,15 @@ class CustodyEvent(Base):
     hash: Mapped[str] = mapped_column(String(64), unique=True)
 
 
-class EventItem(Base):
-    """An item an event acted on besides its ``object_ref`` (one batch sheet makes many).
+class EventRef(Base):
+    """Every further item an event concerns, beyond its object and parent (derived index).
 
-    Lets an item's history find events that name it only in their payload. The
-    pairs are derivable from the payloads, which the hash chain protects; the table
-    is append-only like the ledger.
+    A manifest import or a print job concerns many items; this table lets an item's
+    history find such events without scanning payloads. It is not hashed: it can be
+    rebuilt from the payloads at any time.
     """
 
-    __tablename__ = "event_item"
+    __tablename__ = "event_ref"
 
-    seq: Mapped[int] = mapped_column(primary_key=True, autoincrement=False)
-    item_ref: Mapped[str] = mapped_column(String(40), primary_key=True, index=True)
+    seq: Mapped[int] = mapped_column(ForeignKey("custody_event.seq"), primary_key=True)
+    ref: Mapped[str] = mapped_column(String(40), primary_key=True, index=True)

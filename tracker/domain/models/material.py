@@ -24,7 +24,7 @@ from tracker.domain.models.enums import (
 
 if TYPE_CHECKING:
     from tracker.domain.models.chemistry import BatchPosition
-    from tracker.domain.models.loans import Loan
+    from tracker.domain.models.loans import Document, Loan
     from tracker.domain.models.people import Location
 
 
@@ -58,6 +58,7 @@ class Specimen(HasPublicId, Base):
     condition_out: Mapped[str | None] = mapped_column(Text)
     received_at: Mapped[datetime | None]
     returned_at: Mapped[datetime | None]
+    return_shipment_id: Mapped[int | None] = mapped_column(ForeignKey("shipment.id"))
     location_id: Mapped[int | None] = mapped_column(ForeignKey("location.id"), index=True)
     created_at: Mapped[datetime]
 
@@ -91,6 +92,7 @@ class Powder(HasPublicId, Base):
     # What was left in the vial when it left the lab (returned/destroyed/retained), weighed.
     residual_mg: Mapped[float | None]
     residual_u_mg: Mapped[float | None]
+    return_shipment_id: Mapped[int | None] = mapped_column(ForeignKey("shipment.id"))
     location_id: Mapped[int | None] = mapped_column(ForeignKey("location.id"), index=True)
     created_at: Mapped[datetime]
 
@@ -173,3 +175,20 @@ class Aliquot(HasPublicId, Base):
     solution: Mapped[Solution] = relationship(back_populates="aliquots")
     location: Mapped[Location | None] = relationship()
     positions: Mapped[list[BatchPosition]] = relationship(back_populates="aliquot")
+
+
+class SpecimenPhoto(Base):
+    """A photograph of a specimen at receipt or at return, kept as a document by SHA-256."""
+
+    __tablename__ = "specimen_photo"
+    __table_args__ = (UniqueConstraint("specimen_id", "document_id"),)
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    specimen_id: Mapped[int] = mapped_column(ForeignKey("specimen.id"), index=True)
+    document_id: Mapped[int] = mapped_column(ForeignKey("document.id"))
+    stage: Mapped[str] = mapped_column(String(20))  # receipt, return or other
+    caption: Mapped[str | None] = mapped_column(String(300))
+    taken_at: Mapped[datetime]
+    created_at: Mapped[datetime]
+
+    document: Mapped[Document] = relationship()

@@ -1,11 +1,11 @@
-"""Reliability: corrections (append-only) and the items an event acted on (append-only).
+"""Reliability: corrections, an append-only table.
 
-Self-contained: two new tables and their triggers; nothing else changes. Like
-``custody_event`` (revision 0002), both tables refuse UPDATE and DELETE in the
+Self-contained: one new table and its triggers; nothing else changes. Like
+``custody_event`` (revision 0002), the table refuses UPDATE and DELETE in the
 database itself, on SQLite and PostgreSQL.
 
-Revision ID: 0006_reliability
-Revises: 0005_labels
+Revision ID: 0007_reliability
+Revises: 0006_reports
 Create Date: 2026-12-02 02:19:50.541020
 """
 
@@ -15,22 +15,15 @@ import sqlalchemy as sa
 from alembic import op
 
 
-revision: str = "0006_reliability"
-down_revision: str | None = "0005_labels"
+revision: str = "0007_reliability"
+down_revision: str | None = "0006_reports"
 branch_labels: str | Sequence[str] | None = None
 depends_on: str | Sequence[str] | None = None
 
-APPEND_ONLY = ("correction", "event_item")
+APPEND_ONLY = ("correction",)
 
 
 def upgrade() -> None:
-    op.create_table(
-        "event_item",
-        sa.Column("seq", sa.Integer(), autoincrement=False, nullable=False),
-        sa.Column("item_ref", sa.String(length=40), nullable=False),
-        sa.PrimaryKeyConstraint("seq", "item_ref", name=op.f("pk_event_item")),
-    )
-    op.create_index(op.f("ix_event_item_item_ref"), "event_item", ["item_ref"], unique=False)
     op.create_table(
         "correction",
         sa.Column("id", sa.Integer(), nullable=False),
@@ -94,5 +87,3 @@ def downgrade() -> None:
             op.execute(f"DROP FUNCTION {table}_refuse()")
     op.drop_index(op.f("ix_correction_item_ref"), table_name="correction")
     op.drop_table("correction")
-    op.drop_index(op.f("ix_event_item_item_ref"), table_name="event_item")
-    op.drop_table("event_item")

@@ -1,0 +1,334 @@
+"""Return reports, manifests in, exports out, shipments and condition photos."""
+
+import hashlib
+import json
+import mimetypes
+from datetime import datetime
+from pathlib import Path
+from typing import Annotated, Any
+
+import typer
+
+from tracker.cli.render import done, plain_table
+from tracker.cli.state import database, emit, errors, perform, read_upload
+from tracker.domain.errors import InputError
+from tracker.domain.models import ShipmentDirection
+from tracker.services import exports, ledger, manifests, reports, shipments
+
+Opt = typer.Option
+FORMATS = ("pdf", "csv", "xlsx", "json")
+
+report_app = typer.Typer(
+    help="Reports for lenders.",
+    no_args_is_help=True,
+    epilog="Example: tracker report return NMFI-25-033",
+)
+manifest_app = typer.Typer(
+    help="Lenders' specimen lists (Darwin Core headings).",
+    no_args_is_help=True,
+    epilog="Example: tracker manifest preview KF-2026-014 list.csv",
+)
+export_app = typer.Typer(
+    help="Darwin Core and JSON exports for the lender's database.",
+    no_args_is_help=True,
+    epilog="Example: tracker export specimens --loan KF-2026-014 --out s.csv",
+)
+shipment_app = typer.Typer(
+    help="Parcels to and from lenders.",
+    no_args_is_help=True,
+    epilog="Example: tracker shipment add NMFI-25-033 --direction outgoing --date 2026-06-12",
+)
+
+
+def _write(path: Path, data: bytes) -> str:
+    """Write a file atomically (beside it, then renamed) and return its SHA-256."""
+    staged = _stage(path, data)
+    staged.replace(path)
+    return hashlib.sha256(data).hexdigest()
+
+
+def _stage(path: Path, data: bytes) -> Path:
+    """Write ``data`` to a hidden file beside ``path``; the caller renames or removes it."""
+    if not path.parent.exists():
+        raise InputError("--out", str(path), "its folder does not exist")
+    staged = path.with_name(f".{path.name}.partial")
+    staged.write_bytes(data)
+    return staged
+
+
+def _render(report: reports.ReturnReport, photos: dict[str, bytes], fmt: str) -> bytes:
+    from tracker.output import report_tables, tabular
+
+    if fmt == "json":
+        return (report.model_dump_json(indent=2) + "\n").encode()
+    if fmt == "pdf":
+        from tracker.output.report_pdf import render_pdf
+
+        return render_pdf(report, photos)
+    rows = report_tables.rows(report)
+    if fmt == "csv":
+        return tabular.csv_bytes(report_tables.COLUMNS, rows)
+    return tabular.xlsx_bytes(report_tables.COLUMNS, rows, "return report")
+
+
+@report_app.command(
+    "return",
+    epilog="Example: tracker --as ines report return NMFI-25-033 "
+    "--format pdf --out nmfi-return.pdf",
+)
+def report_return(
+    ctx: typer.Context,
+    loan: Annotated[str, typer.Argument(help="Loan ID or reference.")],
+    fmt: Annotated[str, Opt("--format", help="pdf, csv, xlsx or json.")] = "pdf",
+    out: Annotated[Path | None, Opt("--out", help="File to write.")] = None,
+) -> None:
+    """The lender's return report: terms, every specimen's account, results, ledger head."""
+    if fmt not in FORMATS:
+        raise InputError("--format", fmt, f"use one of {', '.join(FORMATS)}")
+    with database(ctx) as db:
+        report, photos = reports.attach_photos(db, reports.build_return_report(db, loan))
+        head = ledger.anchor_for(
+            db, report.ledger.seq, report.ledger.hash, f"return report {report.loan['reference']}"
+        )
+    slug = "".join(c if c.isalnum() or c in "-_" else "-" for c in report.loan["reference"])
+    target = out or Path(f"{slug}-return-report.{fmt}")
+    data = _render(report, photos, fmt)
+    files = {target: data, target.with_name(f"{target.name}.anchor.json"): head.to_text().encode()}
+    folder = target.with_name(f"{target.stem}-attachments")
+    files |= {folder / digest: photo for digest, photo in photos.items()}
+    made = bool(photos) and not folder.exists()
+    if photos:
+        folder.mkdir(exist_ok=True)
+    staged = {path: _stage(path, content) for path, content in files.items()}
+    try:  # the event is recorded first: a refused record leaves no file behind
+        record = perform(ctx, reports.record_report, {
+            "loan": loan, "files": {fmt: hashlib.sha256(data).hexdigest()},
+            "head_seq": report.ledger.seq, "head_hash": report.ledger.hash})  # fmt: skip
+    except BaseException:
+        for path in staged.values():
+            path.unlink(missing_ok=True)
+        if made:
+            folder.rmdir()
+        raise
+    for path, partial in staged.items():
+        partial.replace(path)
+    emit(ctx, record, lambda: done(record, f"{target} (sha256 {record.item.files[fmt][:16]}…)"))
+    errors.print(
+        f"wrote {len(files) - 1} companion file(s): the ledger anchor"
+        + (f" and {len(photos)} photo(s) in {folder}" if photos else ""),
+        markup=False,
+        soft_wrap=True,
+    )
+
+
+def _manifest_request(loan: str, file: Path, mapping: str | None) -> dict[str, Any]:
+    upload = read_upload(file, "FILE") or {}
+    return {
+        "loan": loan,
+        "filename": upload.get("filename"),
+        "content": upload.get("content"),
+        "mapping": mapping,
+    }
+
+
+def _preview_table(preview: manifests.ManifestPreview) -> Any:
+    from rich.console import Group
+    from rich.text import Text
+
+    head = Text(
+        f"{preview.file}: {preview.create} to create, {preview.update} to update, "
+        f"{preview.unchanged} unchanged, {preview.problems} problem(s)"
+        + (
+            f"; kept as extra terms: {', '.join(preview.kept_as_extra)}"
+            if preview.kept_as_extra
+            else ""
+        )
+    )
+    table = plain_table("row", "catalogue no.", "action", "problems / changes")
+    for r in preview.rows:
+        if r.action == "unchanged":
+            continue
+        detail = "; ".join(r.problems) or "; ".join(
+            f"{k}: {v[0]!r} → {v[1]!r}" for k, v in r.changes.items()
+        )
+        table.add_row(
+            str(r.row),
+            r.catalog_number or "—",
+            "ERROR" if r.action == "error" else r.action,
+            detail,
+        )
+    return Group(head, table)
+
+
+@manifest_app.command("preview", epilog="Example: tracker manifest preview KF-2026-014 list.csv")
+def manifest_preview(
+    ctx: typer.Context,
+    loan: Annotated[str, typer.Argument(help="Loan ID or reference.")],
+    file: Annotated[Path, typer.Argument(help="CSV, TSV or XLSX.")],
+    mapping: Annotated[
+        str | None, Opt("--mapping", help="Saved mapping for non-Darwin-Core headings.")
+    ] = None,
+) -> None:
+    """Show, row by row, what importing the list would create, update and refuse."""
+    with database(ctx) as db:
+        preview = manifests.preview_manifest(db, _manifest_request(loan, file, mapping))
+    emit(ctx, preview, lambda: _preview_table(preview))
+    if preview.problems:
+        raise typer.Exit(2)
+
+
+@manifest_app.command(
+    "import", epilog="Example: tracker --as ines manifest import KF-2026-014 list.csv"
+)
+def manifest_import(
+    ctx: typer.Context,
+    loan: Annotated[str, typer.Argument(help="Loan ID or reference.")],
+    file: Annotated[Path, typer.Argument(help="CSV, TSV or XLSX.")],
+    mapping: Annotated[str | None, Opt("--mapping", help="Saved mapping.")] = None,
+) -> None:
+    """Create and update the loan's specimens from a clean list (one transaction)."""
+    outcome = perform(ctx, manifests.import_manifest, _manifest_request(loan, file, mapping))
+    emit(
+        ctx,
+        outcome,
+        lambda: (
+            f"created {len(outcome.created)}, updated {len(outcome.updated)}, unchanged "
+            f"{outcome.preview.unchanged}"
+            + (
+                f" (ledger event #{outcome.event_seq})"
+                if outcome.event_seq
+                else " — nothing to write"
+            )
+        ),
+    )
+
+
+@manifest_app.command("mapping", epilog="Example: tracker manifest mapping museum-x map.toml")
+def manifest_mapping(
+    ctx: typer.Context,
+    name: Annotated[str, typer.Argument(help="Name to save it under.")],
+    file: Annotated[
+        Path,
+        typer.Argument(help="TOML or JSON: format, sheet, header_row, columns {term = heading}."),
+    ],
+) -> None:
+    """Save a column mapping for lists whose headings are not Darwin Core terms."""
+    from tracker.cli.cmd_instrument import definition_file, named_file
+
+    with named_file(file):
+        answer = perform(
+            ctx, manifests.save_mapping, {"name": name, "definition": definition_file(file)}
+        )
+    emit(ctx, answer, lambda: done(answer, f"manifest mapping {name}"))
+
+
+def _export(columns: list[str], rows: list[dict[str, Any]], out: Path, sheet: str) -> str:
+    from tracker.output import tabular
+
+    data = (
+        tabular.xlsx_bytes(columns, rows, sheet)
+        if out.suffix.lower() == ".xlsx"
+        else tabular.csv_bytes(columns, rows)
+    )
+    return _write(out, data)
+
+
+def _export_rows(ctx: typer.Context, reader: Any, loan: str, out: Path, noun: str) -> None:
+    """Read rows through one export service and write them as CSV or XLSX."""
+    with database(ctx) as db:
+        columns, rows = reader(db, loan)
+    digest = _export(columns, rows, out, noun)
+    emit(
+        ctx,
+        {"out": str(out), "rows": len(rows), "sha256": digest},
+        lambda: f"wrote {len(rows)} {noun} to {out}",
+    )
+
+
+@export_app.command(
+    "specimens", epilog="Example: tracker export specimens --loan KF-2026-014 --out specimens.csv"
+)
+def export_specimens(
+    ctx: typer.Context,
+    loan: Annotated[str, Opt("--loan", help="Loan ID or reference.")],
+    out: Annotated[Path, Opt("--out", help="CSV or XLSX file.")],
+) -> None:
+    """Specimens with Darwin Core headings."""
+    _export_rows(ctx, exports.specimen_rows, loan, out, "specimens")
+
+
+@export_app.command(
+    "measurements",
+    epilog="Example: tracker export measurements --loan KF-2026-014 --out measurements.csv",
+)
+def export_measurements(
+    ctx: typer.Context,
+    loan: Annotated[str, Opt("--loan", help="Loan ID or reference.")],
+    out: Annotated[Path, Opt("--out", help="CSV or XLSX file.")],
+) -> None:
+    """Drilled masses and results as Darwin Core measurement rows."""
+    _export_rows(ctx, exports.measurement_rows, loan, out, "measurements")
+
+
+@export_app.command("loan", epilog="Example: tracker export loan KF-2026-014 --out loan.json")
+def export_loan(
+    ctx: typer.Context,
+    loan: Annotated[str, typer.Argument(help="Loan ID or reference.")],
+    out: Annotated[Path, Opt("--out", help="JSON file.")],
+) -> None:
+    """The whole loan as JSON: the return report's content and every specimen's lineage."""
+    with database(ctx) as db:
+        document = exports.loan_document(db, loan)
+    digest = _write(out, (json.dumps(document, indent=2, ensure_ascii=False) + "\n").encode())
+    emit(ctx, {"out": str(out), "sha256": digest}, lambda: f"wrote {out}")
+
+
+@shipment_app.command(
+    "add",
+    epilog="Example: tracker shipment add NMFI-25-033 --direction "
+    "outgoing --date 2026-06-12 --carrier 'courier' --tracking X123",
+)
+def shipment_add(
+    ctx: typer.Context,
+    loan: Annotated[str, typer.Argument(help="Loan ID or reference.")],
+    direction: Annotated[ShipmentDirection, Opt("--direction", help="incoming or outgoing.")],
+    date: Annotated[datetime, Opt("--date", formats=["%Y-%m-%d"], help="Day it was sent.")],
+    carrier: Annotated[str | None, Opt("--carrier", help="Carrier.")] = None,
+    tracking: Annotated[str | None, Opt("--tracking", help="Tracking number.")] = None,
+) -> None:
+    """Record a parcel; returned specimens and powders then name it (`--shipment`)."""
+    request = {
+        "loan": loan,
+        "direction": direction,
+        "shipped_on": date.date(),
+        "carrier": carrier,
+        "tracking": tracking,
+    }
+    answer = perform(ctx, shipments.add_shipment, request)
+    emit(ctx, answer, lambda: done(answer, f"{answer.item.id} {direction.value}"))
+
+
+def specimen_photo(
+    ctx: typer.Context,
+    specimen: Annotated[str, typer.Argument(help="Specimen ID.")],
+    file: Annotated[Path, typer.Argument(help="JPEG, PNG, TIFF or WebP.")],
+    stage: Annotated[str, Opt("--stage", help="receipt, return or other.")] = "receipt",
+    caption: Annotated[str | None, Opt("--caption", help="What it shows.")] = None,
+) -> None:
+    """Keep a photograph of a specimen's condition (by SHA-256)."""
+    upload = read_upload(file, "FILE") or {}
+    if mimetypes.guess_type(file.name)[0] is None:
+        raise InputError("FILE", str(file), "has no image file extension")
+    answer = perform(
+        ctx,
+        shipments.add_photo,
+        {"specimen": specimen, "stage": stage, "photo": upload, "caption": caption},
+    )
+    emit(
+        ctx,
+        answer,
+        lambda: done(answer, f"{stage} photo of {specimen} ({answer.item.document.sha256[:16]}…)"),
+    )
+
+
+PHOTO_EPILOG = "Example: tracker specimen photo SP-00001-W front.jpg --stage receipt"

@@ -1,0 +1,93 @@
+"""Darwin Core term names (TDWG standard), used to decide what may head an export column.
+
+The list holds the terms tracker reads or writes plus common occurrence, location,
+geological-context, taxon and measurement terms (the check-values list, extended from
+memory of the TDWG quick reference). A heading that is not here never becomes an export
+column; its value travels inside `dynamicProperties` instead.
+"""
+
+from __future__ import annotations
+
+TERMS: frozenset[str] = frozenset(
+    (
+        "institutionCode",
+        "collectionCode",
+        "catalogNumber",
+        "otherCatalogNumbers",
+        "occurrenceID",
+        "basisOfRecord",
+        "preparations",
+        "disposition",
+        "materialSampleID",
+        "recordedBy",
+        "recordNumber",
+        "individualCount",
+        "sex",
+        "lifeStage",
+        "occurrenceRemarks",
+        "dynamicProperties",
+        "scientificName",
+        "identifiedBy",
+        "dateIdentified",
+        "typeStatus",
+        "kingdom",
+        "phylum",
+        "class",
+        "order",
+        "family",
+        "genus",
+        "specificEpithet",
+        "taxonRank",
+        "vernacularName",
+        "eventDate",
+        "year",
+        "month",
+        "day",
+        "country",
+        "countryCode",
+        "stateProvince",
+        "county",
+        "municipality",
+        "locality",
+        "verbatimLocality",
+        "decimalLatitude",
+        "decimalLongitude",
+        "georeferencedDate",
+        "minimumElevationInMeters",
+        "maximumElevationInMeters",
+        "geologicalContextID",
+        "earliestEonOrLowestEonothem",
+        "latestEonOrHighestEonothem",
+        "earliestEraOrLowestErathem",
+        "latestEraOrHighestErathem",
+        "earliestPeriodOrLowestSystem",
+        "latestPeriodOrHighestSystem",
+        "earliestEpochOrLowestSeries",
+        "latestEpochOrHighestSeries",
+        "earliestAgeOrLowestStage",
+        "latestAgeOrHighestStage",
+        "lowestBiostratigraphicZone",
+        "highestBiostratigraphicZone",
+        "lithostratigraphicTerms",
+        "group",
+        "formation",
+        "member",
+        "bed",
+        "measurementID",
+        "measurementType",
+        "measurementValue",
+        "measurementAccuracy",
+        "measurementUnit",
+        "measurementMethod",
+        "measurementDeterminedBy",
+        "measurementDeterminedDate",
+        "measurementRemarks",
+        "resourceRelationshipID",
+        "relatedResourceID",
+        "relationshipOfResource",
+    )
+)
+
+
+def is_term(name: str) -> bool:
+    return name in TERMS

@@ -1,0 +1,26 @@
+"""Cells a spreadsheet would execute: detected on the way in, neutralised on the way out.
+
+A text cell that begins with =, +, -, @, a tab or a carriage return may be run as a
+formula when the file is opened in a spreadsheet (the "CSV injection" problem). On
+import such a cell is reported as a problem; on export it is prefixed with an
+apostrophe, which spreadsheets show as text. Numbers (-12.5, +3) are left alone.
+"""
+
+from __future__ import annotations
+
+import re
+
+_TRIGGERS = ("=", "+", "-", "@", "\t", "\r")
+_NUMBER = re.compile(r"^[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$")
+
+
+def looks_like_formula(value: str) -> bool:
+    """True for text a spreadsheet could evaluate (not for plain signed numbers)."""
+    return bool(value) and value.startswith(_TRIGGERS) and not _NUMBER.match(value.strip())
+
+
+def neutralise(value: object) -> object:
+    """Make a cell safe to open in a spreadsheet; numbers and safe text pass unchanged."""
+    if isinstance(value, str) and looks_like_formula(value):
+        return "'" + value
+    return value

@@ -1,0 +1,421 @@
+"""The return report as a PDF laid out for people: paginated, headed, nothing overflowing.
+
+reportlab's platypus flows the content over A4 pages: tables repeat their header row
+and wrap their cells, photos are scaled to thumbnails, and every page carries the loan,
+the page number and the ledger head the report was made from. The text face is DejaVu
+Sans (shipped inside matplotlib), which has δ, ‰, ± and µ.
+"""
+
+from __future__ import annotations
+
+import io
+from functools import cache
+from pathlib import Path
+from typing import Any
+
+from reportlab.lib import colors
+from reportlab.lib.pagesizes import A4
+from reportlab.lib.styles import ParagraphStyle
+from reportlab.lib.units import mm
+from reportlab.lib.utils import ImageReader
+from reportlab.pdfbase import pdfmetrics
+from reportlab.pdfbase.pdfmetrics import registerFontFamily
+from reportlab.pdfbase.ttfonts import TTFont
+from reportlab.pdfgen import canvas as pdfcanvas
+from reportlab.platypus import (
+    Flowable,
+    Image,
+    KeepTogether,
+    Paragraph,
+    SimpleDocTemplate,
+    Spacer,
+    Table,
+    TableStyle,
+)
+
+from tracker.services.reports import PowderLine, ReturnReport, SpecimenEntry
+
+FACE, BOLD = "TrackerReport", "TrackerReport-Bold"
+MARGIN = 18 * mm
+WIDTH = A4[0] - 2 * MARGIN
+THUMB = 38 * mm
+
+
+@cache
+def _fonts() -> None:
+    import matplotlib
+
+    folder = Path(matplotlib.get_data_path()) / "fonts" / "ttf"
+    pdfmetrics.registerFont(TTFont(FACE, str(folder / "DejaVuSans.ttf")))
+    pdfmetrics.registerFont(TTFont(BOLD, str(folder / "DejaVuSans-Bold.ttf")))
+    registerFontFamily(FACE, normal=FACE, bold=BOLD, italic=FACE, boldItalic=BOLD)
+
+
+def _styles() -> dict[str, ParagraphStyle]:
+    _fonts()
+    body = ParagraphStyle("body", fontName=FACE, fontSize=8.5, leading=11)
+    return {
+        "body": body,
+        "small": ParagraphStyle("small", parent=body, fontSize=7.5, leading=9.5),
+        "title": ParagraphStyle("title", parent=body, fontName=BOLD, fontSize=16, leading=20),
+        "h2": ParagraphStyle(
+            "h2", parent=body, fontName=BOLD, fontSize=11, leading=14, spaceBefore=8, spaceAfter=4
+        ),
+        "h3": ParagraphStyle(
+            "h3", parent=body, fontName=BOLD, fontSize=9, leading=12, spaceBefore=6, spaceAfter=2
+        ),
+    }
+
+
+def _esc(value: object) -> str:
+    text = "—" if value is None or value == "" else str(value)
+    return text.replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;")
+
+
+def _table(
+    rows: list[list[Any]],
+    widths: list[float],
+    styles: dict[str, ParagraphStyle],
+    header: bool = True,
+) -> Table:
+    """A table whose every cell wraps (no overflow) and whose header repeats on new pages."""
+    cells = [
+        [c if isinstance(c, Flowable) else Paragraph(_esc(c), styles["small"]) for c in row]
+        for row in rows
+    ]
+    table = Table(cells, colWidths=[w * WIDTH for w in widths], repeatRows=1 if header else 0)
+    commands: list[Any] = [
+        ("VALIGN", (0, 0), (-1, -1), "TOP"),
+        ("GRID", (0, 0), (-1, -1), 0.25, colors.grey),
+    ]
+    if header:
+        commands.append(("BACKGROUND", (0, 0), (-1, 0), colors.Color(0.9, 0.9, 0.9)))
+    table.setStyle(TableStyle(commands))
+    return table
+
+
+def render_pdf(report: ReturnReport, photos: dict[str, bytes]) -> bytes:
+    """The report as PDF bytes."""
+    styles = _styles()
+    buffer = io.BytesIO()
+    loan = report.loan
+    doc = SimpleDocTemplate(
+        buffer,
+        pagesize=A4,
+        leftMargin=MARGIN,
+        rightMargin=MARGIN,
+        topMargin=MARGIN + 6 * mm,
+        bottomMargin=MARGIN,
+        title=f"Return report {loan['reference']}",
+        author="tracker",
+        subject=report.format,
+    )
+    header = f"Return report · {loan['reference']} · {report.lender['name']}"
+    footer = f"ledger head #{report.ledger.seq} {report.ledger.hash[:16]}…"
+    story = [*_front(report, styles), *_terms(report, styles), *_totals(report, styles)]
+    story += [Paragraph("Specimens", styles["h2"])]
+    for entry in report.specimens:
+        story += _specimen(entry, photos, styles)
+    story += [*_timeline(report, styles), *_ledger(report, styles), *_signatures(styles)]
+    doc.build(story, canvasmaker=_numbered(header, footer))
+    return buffer.getvalue()
+
+
+def _numbered(header: str, footer: str) -> type[pdfcanvas.Canvas]:
+    """A canvas that writes "page N of M" once it knows M (two passes over saved pages)."""
+
+    class Numbered(pdfcanvas.Canvas):  # type: ignore[misc]
+        def __init__(self, *args: Any, **kwargs: Any) -> None:
+            super().__init__(*args, **kwargs)
+            self._pages: list[dict[str, Any]] = []
+
+        def showPage(self) -> None:  # noqa: N802 - reportlab's name
+            self._pages.append(dict(self.__dict__))
+            self._startPage()
+
+        def save(self) -> None:
+            for state in self._pages:
+                self.__dict__.update(state)
+                self._decorate(len(self._pages))
+                super().showPage()
+            super().save()
+
+        def _decorate(self, total: int) -> None:
+            self.setFont(FACE, 7.5)
+            self.setFillColor(colors.grey)
+            self.drawString(MARGIN, A4[1] - MARGIN, header)
+            self.drawString(MARGIN, MARGIN - 8 * mm, footer)
+            self.drawRightString(
+                A4[0] - MARGIN, MARGIN - 8 * mm, f"page {self._pageNumber} of {total}"
+            )
+
+    return Numbered
+
+
+def _front(report: ReturnReport, styles: dict[str, ParagraphStyle]) -> list[Flowable]:
+    loan, lender = report.loan, report.lender
+    rows = [
+        ["Lender", f"{lender['name']} ({lender['institution_code'] or '—'})"],
+        ["Lender contact", f"{lender['contact'] or '—'} {lender['email'] or ''}"],
+        ["Loan", f"{loan['reference']} — {loan['title']} (tracker ID {loan['id']})"],
+        ["Borrower", loan["borrower"]],
+        ["Received / due / returned",
+         f"{_esc(loan['received_on'])} / {_esc(loan['due_on'])} / {_esc(loan['returned_on'])}"],
+        ["Status", loan["status"]],
+        ["Report generated", report.generated_at.strftime("%Y-%m-%d %H:%M UTC")],
+    ]  # fmt: skip
+    return [
+        Paragraph(f"Return report — {_esc(loan['reference'])}", styles["title"]),
+        Spacer(1, 4 * mm),
+        _table(rows, [0.28, 0.72], styles, header=False),
+    ]
+
+
+def _terms(report: ReturnReport, styles: dict[str, ParagraphStyle]) -> list[Flowable]:
+    t = report.terms_in_force
+    rows = [
+        ["Permitted tissues", ", ".join(t.permitted_tissues)],
+        ["Mass per specimen", _mg_limit(t.max_mass_per_specimen_mg)],
+        ["Total mass", _mg_limit(t.max_total_mass_mg)],
+        ["Specimens that may be sampled", _esc(t.max_specimens_sampled)],
+        ["Unused powder / residual solutions", f"{t.powder_disposition} / "
+                                               f"{t.solution_disposition}"],
+        ["Report data / acknowledgement", f"{'yes' if t.report_data else 'no'} / "
+                                          f"{'yes' if t.acknowledgement else 'no'}"],
+    ]  # fmt: skip
+    flow: list[Flowable] = [
+        Paragraph(f"Terms in force (version {t.version})", styles["h2"]),
+        _table(rows, [0.38, 0.62], styles, header=False),
+    ]
+    if report.amendments:
+        docs = {d.sha256: d for d in report.documents}
+        amend = [["Version", "Kind", "Effective", "Reason", "Due"]] + [
+            [a.version, a.kind, a.effective_from, a.notes, a.due_on] for a in report.amendments
+        ]
+        flow += [
+            Paragraph("Amendments", styles["h3"]),
+            _table(amend, [0.1, 0.14, 0.16, 0.44, 0.16], styles),
+        ]
+        if docs:
+            flow += [
+                Paragraph(
+                    "Documents kept (SHA-256): "
+                    + "; ".join(f"{_esc(d.filename)} {d.sha256}" for d in docs.values()),
+                    styles["small"],
+                )
+            ]
+    return flow
+
+
+def _mg_limit(value: float | None) -> str:
+    return "no limit" if value is None else f"{value:g} mg"
+
+
+def _totals(report: ReturnReport, styles: dict[str, ParagraphStyle]) -> list[Flowable]:
+    t = report.totals
+    drilled = _mass(t.drilled_mg, t.drilled_u_mg)
+    rows = [
+        ["Specimens listed / sampled", f"{t.specimens} / {t.sampled}"],
+        ["Mass removed (all specimens)", f"{drilled} of {_mg_limit(t.max_total_mass_mg)}"],
+        ["Powder dissolved", f"{t.dissolved_mg:.3f} mg"],
+        ["Powder returned", f"{t.powder_returned_mg:.3f} mg"],
+        *[[f"Powder {label}", f"{_left(report, status):.3f} mg"] for status, label in _FATES],
+        ["Powder still held by the borrower", f"{t.powder_on_hand_mg:.3f} mg"],
+        ["Flags", ", ".join(report.flags) or "none"],
+    ]  # fmt: skip
+    return [Paragraph("Totals", styles["h2"]), _table(rows, [0.38, 0.62], styles, header=False)]
+
+
+_FATES = (
+    ("destroyed", "destroyed"),
+    ("retained", "retained (with permission)"),
+    ("consumed", "used up (vial empty)"),
+)
+
+
+def _left(report: ReturnReport, status: str) -> float:
+    return sum(p.left_mg for s in report.specimens for p in s.powders if p.status == status)
+
+
+def _specimen(
+    entry: SpecimenEntry, photos: dict[str, bytes], styles: dict[str, ParagraphStyle]
+) -> list[Flowable]:
+    title = Paragraph(
+        f"{_esc(entry.catalog_number)} — {_esc(entry.scientific_name)} "
+        f"({_esc(entry.skeletal_element)}) · {entry.id}",
+        styles["h3"],
+    )
+    removed = f"{_mass(entry.drilled_mg, entry.drilled_u_mg)} / {_mg_limit(entry.permitted_mg)}"
+    if "over limit" in entry.flags:
+        removed += " — OVER the permitted mass (see overrides below)"
+    rows: list[list[Any]] = [
+        ["Sampled", "yes" if entry.sampled else "no"],
+        ["Mass removed / permitted", removed],
+        ["Condition at receipt", entry.condition_in],
+        ["Condition at return", entry.condition_out],
+        ["Returned", _returned(entry)],
+        ["Flags", ", ".join(entry.flags) or "none"],
+    ]  # fmt: skip
+    flow: list[Flowable] = [title, _table(rows, [0.3, 0.7], styles, header=False)]
+    if entry.powders:
+        header = ["Powder", "Site", "Drilled", "Mass", "Dissolved", "Left", "Fate"]
+        powder_rows: list[list[Any]] = [header, *(_powder_row(p) for p in entry.powders)]
+        widths = [0.13, 0.17, 0.13, 0.16, 0.11, 0.1, 0.2]
+        flow += [Spacer(1, 2 * mm), _table(powder_rows, widths, styles)]
+    flow += [
+        Paragraph(f"<b>Override</b> on {p.id}: {_esc(p.override_reason)}", styles["small"])
+        for p in entry.powders
+        if p.override_reason
+    ]
+    if entry.solutions:
+        flow += [
+            Spacer(1, 1.5 * mm),
+            Paragraph(
+                "Residual solutions: "
+                + "; ".join(
+                    f"{x.id} {x.status}" + (f" ({x.residual_g:.4f} g)" if x.residual_g else "")
+                    for x in entry.solutions
+                ),
+                styles["small"],
+            ),
+        ]
+    if entry.results:
+        result_rows: list[list[Any]] = [["Ratio", "Value", "2SD", "n", "Scale", "Session", "Flags"]]
+        result_rows += [
+            [
+                r.ratio,
+                _value(r.kind, r.value),
+                _spread(r.kind, r.two_sd),
+                r.n,
+                r.scale,
+                r.session,
+                ", ".join(r.flags),
+            ]
+            for r in entry.results
+        ]
+        flow += [
+            Spacer(1, 2 * mm),
+            _table(result_rows, [0.1, 0.14, 0.12, 0.05, 0.16, 0.15, 0.28], styles),
+        ]
+    flow += _thumbnails(entry, photos, styles)
+    return [KeepTogether(flow[:2]), *flow[2:], Spacer(1, 3 * mm)]
+
+
+def _returned(entry: SpecimenEntry) -> str:
+    if entry.returned_at is None:
+        return "not yet returned"
+    parcel = f" in shipment {entry.return_shipment}" if entry.return_shipment else ""
+    return f"{entry.returned_at:%Y-%m-%d}{parcel}"
+
+
+def _mass(value: float, u: float) -> str:
+    """A weighed mass as a person reads it: the balance's digits, then its uncertainty."""
+    return f"{value:.3f} mg (u = {u:.1g} mg)"
+
+
+def _powder_row(p: PowderLine) -> list[Any]:
+    return [
+        p.id,
+        p.site,
+        p.drilled_at.date(),
+        _mass(p.mass_mg, p.mass_u_mg),
+        f"{p.dissolved_mg:.3f} mg",
+        f"{p.left_mg:.3f} mg",
+        _fate(p.status, p.shipment, p.permission, p.override_reason),
+    ]
+
+
+def _fate(status: str, shipment: str | None, permission: str | None, override: str | None) -> str:
+    text = status + (f" in {shipment}" if shipment else "")
+    text += f"; permission: {permission}" if permission else ""
+    return text + ("; drilled under an override" if override else "")
+
+
+def _value(kind: str, value: float | None) -> str:
+    if value is None:
+        return "—"
+    return f"δ {value:+.3f} ‰" if kind == "delta" else f"{value:.6f}"
+
+
+def _spread(kind: str, value: float | None) -> str:
+    if value is None:
+        return "—"
+    return f"{value:.3f} ‰" if kind == "delta" else f"{value:.6f}"
+
+
+def _thumbnails(
+    entry: SpecimenEntry, photos: dict[str, bytes], styles: dict[str, ParagraphStyle]
+) -> list[Flowable]:
+    cells = []
+    for photo in entry.photos:
+        data = photos.get(photo.sha256)
+        if data is None:
+            continue
+        try:
+            reader = ImageReader(io.BytesIO(data))
+            width, height = reader.getSize()
+        except Exception:  # a stored file that no longer reads as an image: say so, go on
+            cells.append(
+                [
+                    Paragraph("(image could not be read)", styles["small"]),
+                    Paragraph(photo.sha256[:16], styles["small"]),
+                ]
+            )
+            continue
+        scale = THUMB / max(width, height)
+        image = Image(io.BytesIO(data), width=width * scale, height=height * scale)
+        caption = Paragraph(
+            f"{photo.stage}: {_esc(photo.caption)}<br/>{photo.sha256[:16]}…", styles["small"]
+        )
+        cells.append([image, caption])
+    if not cells:
+        return []
+    per_row = 2  # a thumbnail and a readable caption in each half of the page
+    rows = [
+        [c for pair in cells[i : i + per_row] for c in pair] for i in range(0, len(cells), per_row)
+    ]
+    widths = [THUMB + 2 * mm, WIDTH / per_row - THUMB - 2 * mm] * min(per_row, len(cells))
+    heading = Paragraph(f"Photographs of {_esc(entry.catalog_number)}", styles["small"])
+    return [
+        KeepTogether([Spacer(1, 1.5 * mm), heading, Table(rows, colWidths=widths, hAlign="LEFT")])
+    ]
+
+
+def _timeline(report: ReturnReport, styles: dict[str, ParagraphStyle]) -> list[Flowable]:
+    rows = [["Custody action", "Events", "First", "Last"]] + [
+        [t.action, t.count, t.first.strftime("%Y-%m-%d"), t.last.strftime("%Y-%m-%d")]
+        for t in report.timeline]  # fmt: skip
+    return [
+        Paragraph("Custody timeline (summary)", styles["h2"]),
+        _table(rows, [0.46, 0.14, 0.2, 0.2], styles),
+    ]
+
+
+def _ledger(report: ReturnReport, styles: dict[str, ParagraphStyle]) -> list[Flowable]:
+    state = "intact" if report.ledger.intact else "BROKEN — do not rely on this report"
+    text = (
+        f"This report was made from ledger event #{report.ledger.seq}, head hash "
+        f"{report.ledger.hash} (chain {state}). To re-verify: "
+        f"<b>{_esc(report.ledger.verify_command)}</b> on the borrower's database, or run "
+        "the verification recipe in tracker's README over an exported ledger."
+    )
+    return [Paragraph("Ledger", styles["h2"]), Paragraph(text, styles["body"])]
+
+
+def _signatures(styles: dict[str, ParagraphStyle]) -> list[Flowable]:
+    line = (
+        "Name: ______________________________<br/><br/>Signature: __________________________"
+        "<br/><br/>Date: ______________"
+    )
+    rows = [
+        [
+            Paragraph("<b>For the lender</b><br/><br/>" + line, styles["body"]),
+            Paragraph("<b>For the borrower</b><br/><br/>" + line, styles["body"]),
+        ]
+    ]
+    return [
+        Spacer(1, 8 * mm),
+        KeepTogether(
+            [Paragraph("Signatures", styles["h2"]), Table(rows, colWidths=[WIDTH / 2] * 2)]
+        ),
+    ]

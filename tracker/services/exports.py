@@ -1,0 +1,132 @@
+"""What goes back into the lender's database: specimens and measurements as Darwin Core rows.
+
+Column names are Darwin Core terms (TDWG): the specimen rows carry the occurrence terms
+the lender sent plus `disposition`; every drilled mass and every isotope result becomes a
+MeasurementOrFact-style row keyed by the lender's catalogue number, so it can be
+attached to their record without knowing anything about tracker.
+"""
+
+from __future__ import annotations
+
+import json
+from typing import Any
+
+from sqlalchemy import select
+from sqlalchemy.orm import selectinload
+
+from tracker.db.database import Database
+from tracker.domain.darwincore import is_term
+from tracker.domain.models import Loan, Powder, Specimen, SpecimenStatus
+from tracker.services.lookup import get_loan
+from tracker.services.results import results
+
+SPECIMEN_TERMS = [
+    "institutionCode", "collectionCode", "catalogNumber", "scientificName", "preparations",
+    "locality", "formation", "earliestEpochOrLowestSeries", "latestEpochOrHighestSeries",
+    "disposition", "dynamicProperties",
+]  # fmt: skip
+MEASUREMENT_TERMS = [
+    "institutionCode", "catalogNumber", "measurementID", "measurementType", "measurementValue",
+    "measurementAccuracy", "measurementUnit", "measurementDeterminedDate",
+    "measurementDeterminedBy", "measurementMethod", "measurementRemarks",
+]  # fmt: skip
+_DISPOSITION = {
+    SpecimenStatus.EXPECTED: "on loan, not yet received",
+    SpecimenStatus.ON_HAND: "on loan",
+    SpecimenStatus.RETURNED: "returned to lender",
+}
+
+
+def _specimens(db: Database, loan: str) -> list[Specimen]:
+    with db.read_session() as session:
+        row = get_loan(session, "loan", loan)
+        query = (
+            select(Specimen)
+            .where(Specimen.loan_id == row.id)
+            .order_by(Specimen.id)
+            .options(selectinload(Specimen.powders).selectinload(Powder.solutions))
+        )
+        found = list(session.scalars(query))
+        session.expunge_all()
+        return found
+
+
+def specimen_rows(db: Database, loan: str) -> tuple[list[str], list[dict[str, Any]]]:
+    """(columns, rows): the lender's terms for each specimen, plus what tracker adds."""
+    specimens = _specimens(db, loan)
+    extra_terms = sorted(
+        {k for s in specimens for k in s.extra if is_term(k)} - set(SPECIMEN_TERMS)
+    )
+    rows = []
+    for s in specimens:
+        row: dict[str, Any] = {
+            "institutionCode": s.institution_code, "collectionCode": s.collection_code,
+            "catalogNumber": s.catalog_number, "scientificName": s.scientific_name,
+            "preparations": s.skeletal_element, "locality": s.locality, "formation": s.formation,
+            "earliestEpochOrLowestSeries": s.earliest_epoch,
+            "latestEpochOrHighestSeries": s.latest_epoch, "disposition": _DISPOSITION[s.status],
+            "dynamicProperties": json.dumps({
+                "trackerId": s.public_id, "sampled": bool(s.powders),
+                "drilledMg": round(sum(p.mass_mg for p in s.powders), 6),
+                "ageMinMa": s.age_min_ma, "ageMaxMa": s.age_max_ma,
+                **{k: v for k, v in s.extra.items() if not is_term(k)},
+            }, sort_keys=True),
+        }  # fmt: skip
+        row.update({term: s.extra.get(term) for term in extra_terms})
+        rows.append(row)
+    return SPECIMEN_TERMS + extra_terms, rows
+
+
+def measurement_rows(db: Database, loan: str) -> tuple[list[str], list[dict[str, Any]]]:
+    """Drilled masses and isotope results, one Darwin Core measurement row each."""
+    specimens = _specimens(db, loan)
+    codes = {s.public_id: (s.institution_code, s.catalog_number) for s in specimens}
+    rows = []
+    for s in specimens:
+        for p in s.powders:
+            rows.append({
+                "institutionCode": s.institution_code, "catalogNumber": s.catalog_number,
+                "measurementID": p.public_id,
+                "measurementType": f"mass of {p.tissue} removed by drilling",
+                "measurementValue": round(p.mass_mg, 6),
+                "measurementAccuracy": f"{p.mass_u_mg:.2g} (standard uncertainty)",
+                "measurementUnit": "mg",
+                "measurementDeterminedDate": p.drilled_at.date().isoformat(),
+                "measurementDeterminedBy": p.drilled_by,
+                "measurementMethod": "mass by difference of two weighings",
+                "measurementRemarks": f"site: {p.site}" if p.site else None,
+            })  # fmt: skip
+    for r in results(db, loan):
+        institution, catalog = codes[r.specimen]
+        delta = r.kind == "delta"
+        rows.append({
+            "institutionCode": institution, "catalogNumber": catalog,
+            "measurementID": f"{r.cut}/{r.session}/{r.ratio}",
+            "measurementType": (f"delta {r.ratio} ({r.scale} scale)" if delta
+                                else f"isotope ratio {r.ratio} (normalised to {r.scale})"),
+            "measurementValue": round(r.value, 6 if delta else 8),
+            "measurementAccuracy": None if r.two_sd is None else f"{r.two_sd:.3g} (2SD, n={r.n})",
+            "measurementUnit": "permil" if delta else "ratio",
+            "measurementDeterminedDate": r.determined_on.isoformat(),
+            "measurementDeterminedBy": r.determined_by,
+            "measurementMethod": f"MC-ICP-MS session {r.session}, standard-sample bracketing",
+            "measurementRemarks": "; ".join(r.flags) or None,
+        })  # fmt: skip
+    return MEASUREMENT_TERMS, rows
+
+
+def loan_document(db: Database, loan: str) -> dict[str, Any]:
+    """The whole loan as one JSON document: the return report's content plus every lineage."""
+    from tracker.services.lineage import show_item
+    from tracker.services.reports import build_return_report
+
+    report = build_return_report(db, loan)
+    with db.read_session() as session:
+        ids = [
+            s.public_id
+            for s in session.scalars(
+                select(Specimen).join(Loan).where(Loan.id == get_loan(session, "loan", loan).id)
+            )
+        ]
+    lineage = [show_item(db, i).item.model_dump(mode="json") for i in ids]
+    return {"report": report.model_dump(mode="json"), "lineage": lineage}
