@@ -33,6 +33,7 @@ from tracker.domain.models import (
     InstrumentSession,
     Label,
     Measurement,
+    Specimen,
 )
 from tracker.services import chemistry, instrument, ledger
 
@@ -41,6 +42,7 @@ BACKENDS = ["sqlite", pytest.param("postgresql", marks=pytest.mark.postgresql)]
 KILLS = 22
 EXPORT_ROWS, FILES = 6001, 10
 SHEET_COLUMNS, SHEETS = 400, 10
+MANIFEST_ROWS, MANIFESTS = 4000, 8
 RATIOS = {"44/40": "r4440", "44/42": "r4442"}
 PROFILE = {
     "format": "csv",
@@ -185,5 +187,60 @@ def _batches_whole(url: str) -> int:
         assert len(events) == len(full) and cuts == len(full) * SHEET_COLUMNS
         assert linked == labels == 2 * len(full) * SHEET_COLUMNS  # a column and its cut each
         return len(full)
+    finally:
+        db.close()
+
+
+def _manifest(loan: int) -> bytes:
+    """A lender's list of invented specimens in Darwin Core terms (TDWG)."""
+    lines = ["catalogNumber,scientificName,preparations,locality,eventDate,decimalLatitude"]
+    lines += [
+        f"INV {loan}-{n},Lamniformes indet.,tooth,Pit {n % 40} (invented),1991-05-03,"
+        f"{-38.5 - n / 100_000:.5f}"
+        for n in range(MANIFEST_ROWS)
+    ]
+    return ("\n".join(lines) + "\n").encode()
+
+
+@pytest.mark.parametrize("db_url", BACKENDS, indirect=True)
+def test_killed_manifest_imports_leave_whole_lists_or_none(
+    db_url: str, zygote: Zygote, tmp_path: Path
+) -> None:
+    db = open_database(db_url)
+    loans = [make.loan(db) for _ in range(MANIFESTS)]
+    db.close()
+    pairs = []
+    for n, loan in enumerate(loans):
+        path = tmp_path / f"list-{n}.csv"
+        path.write_bytes(_manifest(n))
+        pairs.append([loan, str(path)])
+    started = time.monotonic()
+    args = {"db": db_url, "manifests": pairs, "actor": "boss"}
+    window = _one_call(zygote, tmp_path, "import_manifests", {**args, "manifests": pairs[:1]})
+    report = crash_rounds(
+        zygote, "import_manifests", args, tmp_path, lambda: _lists_whole(db_url),
+        kills=KILLS, window=window, seed=10,
+    )  # fmt: skip
+    assert _lists_whole(db_url) == MANIFESTS
+    backend = "sqlite" if "://" not in db_url else "postgresql"
+    size = f"{MANIFESTS} lender lists × {MANIFEST_ROWS:,} specimens"
+    _record("manifest import", backend, size, report, time.monotonic() - started)
+
+
+def _lists_whole(url: str) -> int:
+    """Each loan has every specimen of its list or none, and one import event per full list."""
+    db = open_database(url)
+    try:
+        assert ledger.verify(db).ok
+        with db.read_session() as session:
+            sizes = session.execute(
+                select(Specimen.loan_id, func.count(Specimen.id)).group_by(Specimen.loan_id)
+            ).all()
+            events = session.scalar(
+                select(func.count()).where(CustodyEvent.action == "manifest.imported")
+            )
+        assert all(n == MANIFEST_ROWS for _, n in sizes), sizes
+        assert events == len(sizes)
+        return len(sizes)
     finally:
         db.close()

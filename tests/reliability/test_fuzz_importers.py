@@ -8,6 +8,8 @@ refusal every table is as it was; after an import the rows match the file.
 
 from __future__ import annotations
 
+import csv
+import io
 import math
 import shutil
 from collections.abc import Iterator
@@ -31,7 +33,7 @@ from tracker.domain.srcurve import Curve, CurvePoint
 from tracker.domain.tables import TableError, read_table
 from tracker.domain.textfiles import FileProblem, load_settings
 from tracker.output.stocks import StockEntry, validate
-from tracker.services import batch_sheet, chemistry, instrument, screening
+from tracker.services import batch_sheet, chemistry, instrument, manifests, screening
 
 pytestmark = pytest.mark.slow
 FAST = settings(max_examples=600, deadline=None)
@@ -300,6 +302,47 @@ def test_sr_curves_refuse_or_screen_without_fail(
     for start, end in curve.intervals(ratio, u):
         assert young - 1e-9 <= start <= end <= old + 1e-9
         assert math.isfinite(start) and math.isfinite(end)
+
+
+TERMS = ["catalogNumber", "scientificName", "locality", "eventDate", "decimalLatitude",
+         "ageMaxMa", "preparations", "habitat"]  # fmt: skip
+
+
+@st.composite
+def manifests_(draw: Any) -> tuple[list[str], list[list[str]]]:
+    """A lender's list in Darwin Core terms with plausible values, then maybe spoiled."""
+    header = ["catalogNumber", *draw(st.lists(st.sampled_from(TERMS[1:]), unique=True))]
+    values = {"scientificName": st.sampled_from(["Lamniformes indet.", "Otodus sp."]),
+              "locality": st.sampled_from(["Pit 1 (invented)", "Quarry (invented)"]),
+              "eventDate": st.dates().map(str), "decimalLatitude": st.floats(-90, 90).map(repr),
+              "ageMaxMa": st.floats(0, 4600).map(repr), "preparations": st.just("tooth"),
+              "habitat": st.text(max_size=10)}  # fmt: skip
+    rows = []
+    for n in draw(st.lists(st.integers(1, 60), min_size=1, max_size=8, unique=True)):
+        rows.append([f"INV {n}", *(draw(values[term]) for term in header[1:])])
+    return header, draw(maybe_spoiled(rows))
+
+
+@SERVICE
+@given(document=manifests_())
+def test_lender_manifests_refuse_or_account_for_every_row(
+    bench: tuple[Database, str, str], document: tuple[list[str], list[list[str]]]
+) -> None:
+    db, _, _ = bench
+    _count("lender manifest (service)")
+    header, rows = document
+    loan = make.loan(db)  # a fresh loan: every clean list creates all its rows
+    content = csv_text([header, *rows])
+    request = {"loan": loan, "filename": "fuzz.csv", "content": content}
+    call = lambda: manifests.import_manifest(db, "boss", request)  # noqa: E731
+    answer = _refused_or_done(db, call, "manifest")
+    if answer is not None:
+        # the rows as the standard library's csv module reads the same bytes (a cell with a
+        # line feed in it, written unquoted, makes two lines); blank lines are not rows
+        parsed = list(csv.reader(io.StringIO(content.decode("utf-8-sig"))))[1:]
+        listed = [r for r in parsed if any(c.strip() for c in r)]
+        assert len(answer.created) == len(listed)
+        assert (answer.event_seq is None) == (not listed)
 
 
 JSONISH = st.recursive(

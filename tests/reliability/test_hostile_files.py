@@ -26,6 +26,7 @@ PROFILE = (
 )
 CURVE = "age_ma,87sr/86sr,u\n370,0.70820,0.00003\n380,0.70790,0.00003\n"
 SHEET = "slot,kind,item,loaded,Ca\n1,blank,,,0.05 ug\n"
+MANIFEST = "catalogNumber,locality\nINV 1,Pit (invented)\nINV 2,Pit (invented)\n"
 STOCK = "[stock.lid]\npage_width_mm = 50.0\npage_height_mm = 30.0\nlabel_width_mm = 48.0\n"
 
 
@@ -68,6 +69,8 @@ IMPORTERS: dict[str, tuple[str, Run]] = {
         "session", "import", str(p), "--profile", "fz-xlsx", "--name", "hostile",
         "--instrument", "MC", "--element", "Ca", "--standard", "STD-X"]),
     "batch sheet": (".csv", lambda b, p: ["batch", "sheet", b.batch, str(p)]),
+    "lender manifest": (".csv", lambda b, p: ["manifest", "import", b.lab.loan, str(p)]),
+    "lender manifest (XLSX)": (".xlsx", lambda b, p: ["manifest", "import", b.lab.loan, str(p)]),
     "batch sheet (XLSX)": (".xlsx", lambda b, p: ["batch", "sheet", b.batch, str(p)]),
     "Sr reference curve": (".csv", lambda b, p: ["curve", "add", "hostile", str(p)]),
     "mapping profile (TOML)": (".toml", lambda b, p: ["profile", "save", "hostile", str(p)]),
@@ -79,6 +82,7 @@ IMPORTERS: dict[str, tuple[str, Run]] = {
 TEXT = {  # a well-formed file of each text importer, to spoil
     "instrument export (CSV)": h.GOOD_EXPORT,
     "batch sheet": SHEET,
+    "lender manifest": MANIFEST,
     "Sr reference curve": CURVE,
     "mapping profile (TOML)": PROFILE.format(fmt="csv"),
     "mapping profile (JSON)": '{\n  "format": "csv"\n}',
@@ -95,7 +99,7 @@ for name, text in TEXT.items():
          ("row 2", "column", "NUL")),
         (name, "random binary", lambda: h.random_bytes(), ()),
     ]  # fmt: skip
-for name in ("instrument export (CSV)", "batch sheet", "Sr reference curve"):
+for name in ("instrument export (CSV)", "batch sheet", "lender manifest", "Sr reference curve"):
     header = TEXT[name].splitlines()[0]
     long_line = ("row 2", "column", "long") if name != "Sr reference curve" else ("files over",)
     CASES += [
@@ -115,6 +119,8 @@ CASES += [
      ("row 5", "column Name", "formula")),
     ("batch sheet", "a formula", lambda: (SHEET + "2,blank,,,=A1\n").encode(),
      ("row 3", "column Ca", "formula")),
+    ("lender manifest", "a formula", lambda: (MANIFEST + 'INV 3,"=HYPERLINK(""x"")"\n').encode(),
+     ("row 4", "column locality", "formula")),
     ("mapping profile (JSON)", "JSON nested 100 000 deep", h.deep_json, ("too deeply",)),
     ("mapping profile (TOML)", "TOML nested 100 000 deep", h.deep_toml, ("too deeply",)),
     ("label stock file", "TOML nested 100 000 deep", h.deep_toml, ("too deeply",)),
@@ -123,7 +129,7 @@ CASES += [
      lambda: (STOCK + "label_height_mm = 40.0\n").encode(), ("larger than",)),
     ("label stock file", "NaN sizes", lambda: STOCK.replace("50.0", "nan").encode(), ("lid",)),
 ]  # fmt: skip
-for name in ("instrument export (XLSX)", "batch sheet (XLSX)"):
+for name in ("instrument export (XLSX)", "batch sheet (XLSX)", "lender manifest (XLSX)"):
     CASES += [
         (name, "a zip bomb (300 MB inflated)", h.zip_bomb, ("unpack",)),
         (name, "a zip lying about its sizes", h.lying_zip, ("XLSX",)),

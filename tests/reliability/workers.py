@@ -31,7 +31,7 @@ from sqlalchemy.orm import Session
 
 from tracker.db.database import open_database
 from tracker.domain.errors import RuleViolation, TrackerError
-from tracker.services import batch_sheet, drilling, instrument, setup
+from tracker.services import batch_sheet, drilling, instrument, manifests, setup
 
 Job = Callable[[dict[str, Any]], dict[str, Any]]
 
@@ -138,10 +138,22 @@ def enter_sheets(args: dict[str, Any]) -> dict[str, Any]:
     return {}
 
 
+def import_manifests(args: dict[str, Any]) -> dict[str, Any]:
+    """A lender's list per loan; importing a list again changes nothing (no event)."""
+
+    def load(loan: str, path: str) -> Callable[[Any], Any]:
+        request = {"loan": loan, "filename": Path(path).name, "content": Path(path).read_bytes()}
+        return lambda db: manifests.import_manifest(db, args["actor"], request)
+
+    _repeat_until_done(args, [load(loan, p) for loan, p in args["manifests"]])
+    return {}
+
+
 JOBS: dict[str, Job] = {
     "drill_race": drill_race,
     "import_files": import_files,
     "enter_sheets": enter_sheets,
+    "import_manifests": import_manifests,
 }
 
 

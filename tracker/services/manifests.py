@@ -179,12 +179,8 @@ def import_manifest(
     with unit_of_work(db, actor) as uow:
         preview = _preview(uow.session, request)
         if not preview.clean:
-            raise InputError(
-                "manifest",
-                request.filename,
-                f"has {preview.problems} problem(s); see the preview, fix the file "
-                "and import again (nothing was written)",
-            )
+            header = _rows(uow.session, request)[0]
+            raise _first_problem(request.filename, preview, _header_problems(header))
         loan = get_loan(uow.session, "loan", request.loan)
         if loan.status is not LoanStatus.OPEN:
             raise RuleViolation("loan", loan.reference, f"is {loan.status.value}")
@@ -204,6 +200,23 @@ def import_manifest(
     return ManifestOutcome(
         preview=preview, created=created, updated=updated, event_seq=done.event_seq
     )
+
+
+def _first_problem(filename: str, preview: ManifestPreview, of_headings: list[str]) -> InputError:
+    """The refusal of a file with problems: where the first is, what it is, how many in all.
+
+    A problem of the headings is said at the header; a row's at that row.
+    """
+    first = next((r for r in preview.rows if r.problems), None)
+    if of_headings or first is None:
+        where, said = f"{filename}, header", of_headings[:1]
+    else:
+        where, said = f"{filename}, row {first.row}", first.problems[:1]
+    return InputError(
+        where, None,
+        "; ".join([*said, f"the file has {preview.problems} problem(s); see the preview, "
+                   "fix the file and import again (nothing was written)"]),
+    )  # fmt: skip
 
 
 def _mapping(session: Session, name: str | None) -> ManifestMapping:
