@@ -10,6 +10,7 @@ from pathlib import Path
 
 import pytest
 
+from tests.cli.budget_book import validate
 from tests.cli.conftest import Lab, counts, invoke, ok_json
 from tracker.db.database import Database
 from tracker.db.sqlite_files import read_only
@@ -39,6 +40,7 @@ def _add_building(lab: Lab, name: str) -> None:
 def test_backup_is_private_verified_and_never_overwrites(lab: Lab, tmp_path: Path) -> None:
     copy = tmp_path / "copy.sqlite"
     made = ok_json(invoke("backup", str(copy), db=lab.path, as_json=True))
+    validate(made, "backup.schema.json")
     assert _mode(copy) == 0o600  # readable and writable by the owner only
     assert (made["head_seq"], made["head_hash"]) == _head(lab.path) == _head(copy)
     assert made["ledger_ok"] and made["revision"]

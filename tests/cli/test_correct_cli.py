@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import pytest
 
+from tests.cli.budget_book import validate
 from tests.cli.conftest import Lab, counts, invoke, ok_json
 
 WHY = "gross copied from the neighbouring vial's line"
@@ -16,6 +17,7 @@ def test_a_technician_corrects_their_own_weighing_and_show_has_both(lab: Lab) ->
             "--reason", WHY, db=lab.path, actor=lab.technician, as_json=True,
         )
     )  # fmt: skip
+    validate(answer, "correction.schema.json")
     # by hand: 1206.181 − 1203.557 = 2.624 mg (it was 1206.118 − 1203.557 = 2.561 mg)
     assert answer["item"]["value"]["mass_mg"] == pytest.approx(2.624)
     assert answer["item"]["replaced"]["mass_mg"] == pytest.approx(2.561)

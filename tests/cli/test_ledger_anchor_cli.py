@@ -6,6 +6,7 @@ import json
 import sqlite3
 from pathlib import Path
 
+from tests.cli.budget_book import validate
 from tests.cli.conftest import Lab, invoke, ok_json
 
 
@@ -17,6 +18,7 @@ def test_anchor_then_verify_passes_and_a_rolled_back_copy_fails(lab: Lab, tmp_pa
     anchor = tmp_path / "head.json"
     written = ok_json(invoke("ledger", "anchor", "--out", str(anchor), db=lab.path, as_json=True))
     assert json.loads(anchor.read_text())["seq"] == written["seq"]
+    validate(json.loads(anchor.read_text()), "anchor.schema.json")
 
     good = ok_json(invoke("ledger", "verify", "--anchor", str(anchor), db=lab.path, as_json=True))
     assert good["ok"] and good["anchor"]["ok"]

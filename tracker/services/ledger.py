@@ -13,7 +13,7 @@ import tempfile
 from collections.abc import Iterator
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Annotated, TextIO
+from typing import Annotated, Literal, TextIO
 
 from pydantic import BaseModel, Field
 from sqlalchemy import func, select
@@ -103,6 +103,17 @@ def export_jsonl(db: Database, out: TextIO) -> int:
         out.write(json.dumps(record, ensure_ascii=False) + "\n")
         count += 1
     return count
+
+
+class AnchorFile(BaseModel):
+    """An anchor file (format tracker-anchor/1): the ledger's head kept outside it."""
+
+    format: Literal["tracker-anchor/1"]
+    seq: Annotated[int, Field(ge=1)]
+    hash: Annotated[str, Field(pattern="^[0-9a-f]{64}$")]
+    first_hash: Annotated[str, Field(pattern="^[0-9a-f]{64}$")]  # names the ledger
+    taken_at: str  # ISO 8601 UTC
+    label: str | None = None  # what it was taken for, e.g. a return report
 
 
 def _hash_of(db: Database, seq: int) -> str | None:
