@@ -50,3 +50,17 @@ def test_a_file_that_is_not_an_anchor_is_one_line_exit_2(lab: Lab, tmp_path: Pat
     assert result.exit_code == 2
     (line,) = result.stderr.strip().splitlines()
     assert line.startswith("error: --anchor: '") and "notes.txt': is not JSON" in line
+
+
+def test_files_into_a_missing_folder_are_one_line_exit_2(lab: Lab, tmp_path: Path) -> None:
+    missing = tmp_path / "no-such-folder"
+    for argv in (
+        ("ledger", "anchor", "--out", str(missing / "head.json")),
+        ("ledger", "export", "--out", str(missing / "ledger.jsonl")),
+        ("backup", str(missing / "copy.sqlite")),
+    ):
+        result = invoke(*argv, db=lab.path)
+        assert result.exit_code == 2, (argv, result.stderr)
+        (line,) = result.stderr.strip().splitlines()
+        assert line.startswith("error: ") and "no-such-folder" in line
+    assert not missing.exists()

@@ -40,7 +40,7 @@ from tracker.services import chemistry, instrument, ledger
 pytestmark = pytest.mark.slow
 BACKENDS = ["sqlite", pytest.param("postgresql", marks=pytest.mark.postgresql)]
 KILLS = 22
-EXPORT_ROWS, FILES = 6001, 10
+EXPORT_ROWS, FILES = 4001, 10
 SHEET_COLUMNS, SHEETS = 400, 10
 MANIFEST_ROWS, MANIFESTS = 4000, 8
 RATIOS = {"44/40": "r4440", "44/42": "r4442"}

@@ -10,7 +10,7 @@ import typer
 
 from tracker.cli.render import done
 from tracker.cli.render_lab import batch_table, reduction_table, results_table, screen_table
-from tracker.cli.state import database, emit, perform, read_upload
+from tracker.cli.state import database, emit, perform, read_upload, write_output
 from tracker.domain.errors import InputError, TrackerError, at_cell
 from tracker.domain.textfiles import MAX_SETTINGS_BYTES, FileProblem, load_settings
 from tracker.services import batch_sheet as batch_sheet_service
@@ -254,7 +254,7 @@ def session_plot(
 
     with database(ctx) as db:
         series = instrument.standard_drift(db, session)
-    out.write_bytes(drift_png(series))
+    write_output(out, drift_png(series), "--out")
     emit(ctx, {"out": str(out), "standards": len(series.runs)}, lambda: f"wrote {out}")
 
 
@@ -272,9 +272,10 @@ def results_command(
         from tracker.output.plots import delta_vs_age_png
 
         try:
-            plot.write_bytes(delta_vs_age_png(rows, ratio))
+            picture = delta_vs_age_png(rows, ratio)
         except ValueError as error:
             raise InputError("--ratio", ratio, str(error)) from None
+        write_output(plot, picture, "--plot")
     emit(ctx, rows, lambda: results_table(rows))
 
 

@@ -9,6 +9,7 @@ import typer
 from tracker.cli.render import history_table
 from tracker.cli.state import database, emit, errors
 from tracker.domain.anchors import AnchorCheck
+from tracker.domain.errors import InputError
 from tracker.domain.ledger import VerifyReport
 from tracker.services import ledger
 
@@ -117,6 +118,10 @@ def ledger_export(
             count = ledger.export_jsonl(db, sys.stdout)
             errors.print(f"exported {count} events")
             return
-        with out.open("w", encoding="utf-8") as handle:
+        try:
+            handle = out.open("w", encoding="utf-8")
+        except OSError as error:
+            raise InputError("--out", str(out), f"cannot be written ({error.strerror})") from None
+        with handle:
             count = ledger.export_jsonl(db, handle)
     emit(ctx, {"events": count, "out": str(out)}, lambda: f"exported {count} events to {out}")
