@@ -131,9 +131,12 @@ def crash_rounds(
         _pause(rng, report.rounds, window, markers)
         zygote.kill(pid)
         _wait_gone(zygote, pid)
-        report.kills += 1
-        report.phases[phase_of(_lines(markers))] += 1
+        phase = phase_of(_lines(markers))
         check()
+        if phase == "after the job finished":
+            break  # everything was done before the kill: nothing left to interrupt
+        report.kills += 1
+        report.phases[phase] += 1
     final = folder / "markers-final.txt"
     pid = zygote.fork(job, {**args, "markers": str(final)})
     _wait_gone(zygote, pid, timeout=300)
