@@ -88,6 +88,12 @@ def test_the_same_sheet_again_is_refused_and_a_partial_one_is_completed(
         (["1,reference,RM-A,10,,,"], "cols.csv, row 2, column loaded", "unit"),
         (["1,blank,,,,about 9,"], "cols.csv, row 2, column Ca", "unit"),
         (["1,blank,,,,,", "x,blank,,,,,"], "cols.csv, row 3, column slot", "column number"),
+        # found by hypothesis: one column listed twice used to fail on the unsaved cut
+        (
+            ["1,blank,,,,0.01 ug,", "1,blank,,,,0.02 ug,"],
+            "cols.csv, row 3, column slot",
+            "listed on row 2 too",
+        ),
     ],
 )
 def test_a_bad_row_enters_nothing_and_names_file_row_and_column(

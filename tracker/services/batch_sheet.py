@@ -114,6 +114,7 @@ class _Sheet:
         self.new_items: list[BatchPosition | Cut] = []
         self.added: list[dict[str, Any]] = []
         self.skipped = 0
+        self.rows_of: dict[int, int] = {}  # slot -> the row of this sheet that lists it
 
     def check_columns(self, header: list[str]) -> None:
         known = {*FIXED, *self.cuts, *(f"{c} u" for c in self.cuts)}
@@ -148,6 +149,11 @@ class _Sheet:
         slot_text, kind_text = row.cells.get("slot", ""), row.cells.get("kind", "").lower()
         with self.cell(row, "slot"):
             slot = _slot(slot_text)
+            if slot in self.rows_of:
+                raise InputError(
+                    "slot", slot_text, f"column {slot} is listed on row {self.rows_of[slot]} too"
+                )
+        self.rows_of[slot] = row.number
         with self.cell(row, "kind"):
             if kind_text not in {k.value for k in PositionKind}:
                 raise InputError("kind", kind_text, "is not sample, blank or reference")
