@@ -15,9 +15,12 @@ from typing import Any
 from pydantic import TypeAdapter
 
 from tracker.output.stocks import Stock
+from tracker.services.backups import BackupView
+from tracker.services.batch_sheet import SheetView
 from tracker.services.columns import BatchSummary
+from tracker.services.correcting import CorrectionView
 from tracker.services.instrument import ProfileDefinition, SessionView
-from tracker.services.ledger import LedgerLine
+from tracker.services.ledger import AnchorFile, LedgerLine
 from tracker.services.lineage import ItemDetail
 from tracker.services.manifests import ManifestMapping, ManifestPreview, ManifestRecord
 from tracker.services.planning import Plan
@@ -90,6 +93,15 @@ DOCUMENTS: dict[str, tuple[str, str, Callable[[], dict[str, Any]]]] = {
     "ledger-line.schema.json": ("ledger line", "A line of an exported ledger.", _ledger_lines),
     "label-stocks.schema.json": ("label stocks", "A label-stock TOML file "
                                  "(`--stocks FILE` or TRACKER_LABEL_STOCKS).", _stock_file),
+    "anchor.schema.json": ("ledger anchor", "An anchor file, written by `tracker ledger anchor` "
+                           "and beside every return report, read by `tracker ledger verify "
+                           "--anchor`.", _of(AnchorFile)),
+    "correction.schema.json": ("tracker correct", "Output of `tracker --json correct ...`.",
+                               _of(Done[CorrectionView])),
+    "batch-sheet.schema.json": ("tracker batch sheet", "Output of `tracker --json batch sheet`.",
+                                _of(Done[SheetView])),
+    "backup.schema.json": ("tracker backup", "Output of `tracker --json backup`.",
+                           _of(BackupView)),
 }  # fmt: skip
 
 

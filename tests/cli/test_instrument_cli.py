@@ -14,6 +14,7 @@ from __future__ import annotations
 import csv
 import io
 import math
+import re
 import statistics
 from collections import defaultdict
 from dataclasses import dataclass, field
@@ -220,12 +221,18 @@ def reduced(result: Result) -> dict[str, Any]:
 
 
 def refused(result: Result, exit_code: int, field_name: str) -> str:
-    """Exit code, empty stdout and one stderr line "error: <field>: …" (the CLI's refusal)."""
+    """Exit code, empty stdout and one stderr line "error: <field>: …" (the CLI's refusal).
+
+    A place in a file ("row 3, column u", "key columns.ratios") comes after the file's
+    name, which must be there: "error: curve.csv, row 3, column u: …".
+    """
     assert result.exit_code == exit_code, (result.exit_code, result.stdout, result.stderr)
     assert result.stdout == ""
     lines = result.stderr.splitlines()
     assert len(lines) == 1, result.stderr
-    assert lines[0].startswith(f"error: {field_name}: "), lines[0]
+    in_file = field_name.startswith(("row ", "key "))
+    prefix = r"error: [^:,]+\.[a-z]+, " if in_file else "error: "
+    assert re.match(prefix + re.escape(f"{field_name}: "), lines[0]), lines[0]
     return lines[0]
 
 

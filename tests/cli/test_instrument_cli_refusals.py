@@ -121,13 +121,13 @@ def test_an_unknown_profile_is_refused_and_json_mode_explains(demo: Path, tmp_pa
 
 
 BAD_PROFILES = [
-    ("no ratios table", PROFILE_TOML.split("[columns.ratios]")[0], "definition.columns.ratios",
+    ("no ratios table", PROFILE_TOML.split("[columns.ratios]")[0], "key columns.ratios",
      "required"),
     ("dash in a ratio name", PROFILE_TOML.replace('"44/40" = "R', '"44-40" = "R'),
-     "definition.columns.ratios", "'44-40'"),
+     "key columns.ratios", "'44-40'"),
     ("empty ratios table", PROFILE_TOML.split("[columns.ratios]")[0] + "[columns.ratios]\n",
-     "definition.columns.ratios", "at least 1"),
-    ("not TOML", "format = 'csv'\n[columns\n", "FILE", "not valid TOML"),
+     "key columns.ratios", "at least 1"),
+    ("not TOML", "format = 'csv'\n[columns\n", "row 2, column 9", "not valid TOML"),
 ]  # fmt: skip
 
 
@@ -153,9 +153,7 @@ def test_a_malformed_ratio_name_among_the_error_columns_is_refused(
     before = counts(demo)
     text = PROFILE_TOML.replace('"44/42" = "2s.e.', '"44-42" = "2s.e.')
     assert '"44-42"' in text
-    refused(
-        save_profile(demo, tmp_path, "broken", text, as_json=False), 2, "definition.columns.errors"
-    )
+    refused(save_profile(demo, tmp_path, "broken", text, as_json=False), 2, "key columns.errors")
     assert counts(demo) == before
 
 

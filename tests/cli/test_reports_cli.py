@@ -168,8 +168,11 @@ def test_each_report_is_one_event_naming_its_file_and_head(
     shows = (head["seq"], head["hash"])
     assert (event["payload"]["head_seq"], event["payload"]["head_hash"]) == shows
     assert head["seq"] == m.before["ledger_head"]
-    anchor = json.loads(m.path.with_name(f"{m.path.name}.anchor.json").read_text())
-    assert (anchor["seq"], anchor["hash"], anchor["loan"]) == (head["seq"], head["hash"], loan)
+    anchor_file = m.path.with_name(f"{m.path.name}.anchor.json")
+    anchor = json.loads(anchor_file.read_text())
+    assert (anchor["seq"], anchor["hash"]) == (head["seq"], head["hash"])
+    assert anchor["format"] == "tracker-anchor/1" and loan in anchor["label"]
+    assert invoke("ledger", "verify", "--anchor", str(anchor_file), db=made["db"]).exit_code == 0
     # and the file itself shows that head
     if fmt == "json":
         shown = json.loads(m.path.read_text())["ledger"]

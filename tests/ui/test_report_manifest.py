@@ -62,7 +62,7 @@ async def test_the_report_shows_every_specimen_then_writes_a_recorded_pdf(lab: L
     digest = hashlib.sha256(pdf.read_bytes()).hexdigest()
     assert json.loads(event.payload)["files"] == {"pdf": digest}
     anchor = json.loads((lab.out / f"{pdf.name}.anchor.json").read_text())
-    assert (anchor["seq"], anchor["loan"]) == (start, LOAN)  # the head the report shows
+    assert (anchor["seq"], anchor["label"]) == (start, f"return report {LOAN}")  # its head
     assert not list(lab.out.glob(".*.partial"))
 
 

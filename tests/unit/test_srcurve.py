@@ -83,3 +83,12 @@ def test_bad_curves_name_row_and_column(text: str, row: int, column: str, fragme
         parse_curve_csv(text)
     assert (caught.value.row, caught.value.column) == (row, column)
     assert fragment in caught.value.reason
+
+
+def test_a_flat_curve_whose_ends_do_not_divide_evenly_spans_to_its_last_age() -> None:
+    """Found by hypothesis: 1.4445674446407963 + 64 steps rounded past 257.8365392930713."""
+    curve = parse_curve_csv(
+        "age_ma,87sr/86sr,u\n1.4445674446407963,0.703125,0.0\n257.8365392930713,0.703125,0.0\n"
+    )
+    assert curve.intervals(0.703125, 0.0) == [(1.4445674446407963, 257.8365392930713)]
+    assert curve.intervals(0.71875, 0.0) == []

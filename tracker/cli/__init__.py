@@ -6,12 +6,15 @@ import typer
 
 from tracker import __version__
 from tracker.cli import (
+    cmd_backup,
     cmd_bench,
     cmd_budget,
+    cmd_correct,
     cmd_inspect,
     cmd_instrument,
     cmd_lab,
     cmd_labels,
+    cmd_ledger,
     cmd_loans,
     cmd_reports,
     cmd_setup,
@@ -67,6 +70,8 @@ def _register() -> None:
     command = app.command
     command("init", epilog=cmd_setup.INIT_EPILOG)(cmd_setup.init)
     command("demo", epilog=DEMO_EPILOG)(demo)
+    command("backup", epilog=cmd_backup.BACKUP_EPILOG)(cmd_backup.backup)
+    command("restore", epilog=cmd_backup.RESTORE_EPILOG)(cmd_backup.restore)
     command("overview", epilog=cmd_inspect.OVERVIEW_EPILOG)(cmd_inspect.show_overview)
     command("show", epilog=cmd_inspect.SHOW_EPILOG)(cmd_inspect.show)
     command("checkin", epilog=cmd_loans.CHECKIN_EPILOG)(cmd_loans.checkin)
@@ -90,6 +95,7 @@ def _register() -> None:
     batch = cmd_lab.batch_app.command
     batch("cut", epilog=instrument.BATCH_CUT_EPILOG)(instrument.batch_cut)
     batch("show", epilog="Example: tracker batch show CB-00001-G")(instrument.batch_show)
+    batch("sheet", epilog=instrument.BATCH_SHEET_EPILOG)(instrument.batch_sheet)
     batch(
         "blank-delta",
         epilog="Example: tracker batch blank-delta CB-00001-G --ratio 44/40 --delta -0.8",
@@ -116,7 +122,8 @@ def _register() -> None:
     )
     app.add_typer(cmd_lab.batch_app, name="batch")
     app.add_typer(cmd_labels.labels_app, name="labels")
-    app.add_typer(cmd_inspect.ledger_app, name="ledger")
+    app.add_typer(cmd_ledger.ledger_app, name="ledger")
+    app.add_typer(cmd_correct.correct_app, name="correct")
     app.add_typer(cmd_setup.db_app, name="db")
     bench = cmd_bench.bench_app.command
     bench("generate", epilog=cmd_bench.GENERATE_EPILOG)(cmd_bench.generate)

@@ -1,20 +1,13 @@
-"""Read-only commands: overview, show, and the custody ledger."""
+"""Read-only commands: the overview (or the terminal interface) and one item's detail."""
 
 import sys
-from pathlib import Path
 from typing import Annotated
 
 import typer
 
-from tracker.cli.render import history_table, item_detail, overview_table
-from tracker.cli.state import database, emit, errors, state
-from tracker.services import ledger, lineage, reconcile
-
-ledger_app = typer.Typer(
-    epilog="Example: tracker ledger verify",
-    help="The hash-chained custody ledger.",
-    no_args_is_help=True,
-)
+from tracker.cli.render import item_detail, overview_table
+from tracker.cli.state import database, emit, state
+from tracker.services import lineage, reconcile
 
 
 def show_overview(ctx: typer.Context) -> None:
@@ -55,54 +48,3 @@ def show(
 
 
 SHOW_EPILOG = "Example: tracker --json show SP-00001-W"
-
-
-@ledger_app.command("verify", epilog="Example: tracker ledger verify")
-def ledger_verify(ctx: typer.Context) -> None:
-    """Re-hash every event; print the head hash (exit 0) or the first broken event (exit 1)."""
-    with database(ctx) as db:
-        report = ledger.verify(db)
-    emit(
-        ctx,
-        report.__dict__,
-        lambda: (
-            f"ledger intact: {report.events} events, head #{report.head_seq} {report.head_hash}"
-            if report.ok
-            else f"ledger BROKEN at event #{report.broken_seq}: {report.reason} "
-            f"({report.events} events verified before it)"
-        ),
-    )
-    if not report.ok:
-        raise typer.Exit(1)
-
-
-@ledger_app.command("list", epilog="Example: tracker ledger list --limit 20 --action powder")
-def ledger_list(
-    ctx: typer.Context,
-    limit: Annotated[int, typer.Option("--limit", min=1, help="How many, newest first.")] = 30,
-    action: Annotated[
-        str | None, typer.Option("--action", help="Actions starting with this.")
-    ] = None,
-) -> None:
-    """List recent custody events."""
-    with database(ctx) as db:
-        events = ledger.recent_events(db, limit, action)
-    emit(ctx, events, lambda: history_table(events))
-
-
-@ledger_app.command("export", epilog="Example: tracker ledger export --out ledger.jsonl")
-def ledger_export(
-    ctx: typer.Context,
-    out: Annotated[
-        Path | None, typer.Option("--out", help="File to write; default stdout.")
-    ] = None,
-) -> None:
-    """Write the ledger as JSON Lines, each field exactly as hashed (see README)."""
-    with database(ctx) as db:
-        if out is None:  # the JSON Lines themselves are the output
-            count = ledger.export_jsonl(db, sys.stdout)
-            errors.print(f"exported {count} events")
-            return
-        with out.open("w", encoding="utf-8") as handle:
-            count = ledger.export_jsonl(db, handle)
-    emit(ctx, {"events": count, "out": str(out)}, lambda: f"exported {count} events to {out}")

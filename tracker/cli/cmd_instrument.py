@@ -1,7 +1,8 @@
 """Column results, instrument sessions, delta reduction, results and strontium screening."""
 
 import json
-import tomllib
+from collections.abc import Iterator
+from contextlib import contextmanager
 from pathlib import Path
 from typing import Annotated, Any
 
@@ -9,8 +10,10 @@ import typer
 
 from tracker.cli.render import done
 from tracker.cli.render_lab import batch_table, reduction_table, results_table, screen_table
-from tracker.cli.state import database, emit, perform, read_upload
-from tracker.domain.errors import InputError
+from tracker.cli.state import database, emit, perform, read_upload, write_output
+from tracker.domain.errors import InputError, TrackerError, at_cell
+from tracker.domain.textfiles import MAX_SETTINGS_BYTES, FileProblem, load_settings
+from tracker.services import batch_sheet as batch_sheet_service
 from tracker.services import columns, instrument, reduction, results, screening
 
 Opt = typer.Option
@@ -61,6 +64,35 @@ def batch_cut(
 BATCH_CUT_EPILOG = "Example: tracker batch cut CP-00002-6 --cut Ca --recovered '10.2 ug' --rel-u 1"
 
 
+def batch_sheet(
+    ctx: typer.Context,
+    batch: Annotated[str, typer.Argument(help="Batch ID (CB-...).")],
+    file: Annotated[Path, typer.Argument(help="Sheet: CSV, TSV or XLSX, one row per column.")],
+) -> None:
+    """Enter a batch's columns and cuts from a sheet, all at once; safe to repeat.
+
+    Columns: slot, kind (sample, blank, reference), item (aliquot ID or reference
+    material), loaded (reference materials, with unit), and per cut of the batch a
+    column named like the cut with the element recovered (with unit) and optionally
+    '<cut> u' with its standard uncertainty. Rows already entered are passed over.
+    """
+    upload = read_upload(file, "FILE") or {}
+    answer = perform(ctx, batch_sheet_service.enter_sheet, {"batch": batch, **upload})
+    item = answer.item
+    emit(
+        ctx,
+        answer,
+        lambda: done(
+            answer,
+            f"{len(item.positions_added)} column(s) and {len(item.cuts_added)} cut(s) added "
+            f"to {item.batch}; {item.already_entered} already entered",
+        ),
+    )
+
+
+BATCH_SHEET_EPILOG = "Example: tracker batch sheet CB-00001-G columns-2026-11-20.csv"
+
+
 def batch_show(
     ctx: typer.Context,
     batch: Annotated[str, typer.Argument(help="Batch ID (CB-...).")],
@@ -85,12 +117,24 @@ def batch_blank_delta(
 
 
 def definition_file(path: Path) -> dict[str, Any]:
-    text = path.read_text(encoding="utf-8")
+    """A settings file (TOML or JSON) read safely; problems name the file, row and column."""
+    upload = read_upload(path, "FILE", limit=MAX_SETTINGS_BYTES) or {}
     try:
-        loaded: dict[str, Any] = tomllib.loads(text) if path.suffix == ".toml" else json.loads(text)
-    except (tomllib.TOMLDecodeError, json.JSONDecodeError) as error:
-        raise InputError("FILE", str(path), f"is not valid TOML or JSON: {error}") from None
-    return loaded
+        return load_settings(upload["content"], path.suffix.lower())
+    except FileProblem as problem:
+        where = at_cell(path.name, problem.row, problem.column)
+        raise InputError(where, None, problem.reason) from None
+
+
+@contextmanager
+def named_file(path: Path) -> Iterator[None]:
+    """A definition the service refuses names the file and the key (its "column")."""
+    try:
+        yield
+    except TrackerError as error:
+        if error.field.startswith("definition"):
+            error.field = f"{path.name}, key {error.field.removeprefix('definition.')}"
+        raise
 
 
 @profile_app.command(
@@ -102,9 +146,10 @@ def profile_save(
     file: Annotated[Path, typer.Argument(help="TOML or JSON file (see schemas/profile).")],
 ) -> None:
     """Save a column mapping profile (replaces one of the same name)."""
-    answer = perform(
-        ctx, instrument.save_profile, {"name": name, "definition": definition_file(file)}
-    )
+    with named_file(file):
+        answer = perform(
+            ctx, instrument.save_profile, {"name": name, "definition": definition_file(file)}
+        )
     emit(ctx, answer, lambda: done(answer, f"profile {name}"))
 
 
@@ -209,7 +254,7 @@ def session_plot(
 
     with database(ctx) as db:
         series = instrument.standard_drift(db, session)
-    out.write_bytes(drift_png(series))
+    write_output(out, drift_png(series), "--out")
     emit(ctx, {"out": str(out), "standards": len(series.runs)}, lambda: f"wrote {out}")
 
 
@@ -227,9 +272,10 @@ def results_command(
         from tracker.output.plots import delta_vs_age_png
 
         try:
-            plot.write_bytes(delta_vs_age_png(rows, ratio))
+            picture = delta_vs_age_png(rows, ratio)
         except ValueError as error:
             raise InputError("--ratio", ratio, str(error)) from None
+        write_output(plot, picture, "--plot")
     emit(ctx, rows, lambda: results_table(rows))
 
 

@@ -151,6 +151,21 @@ def loan_mark_returned(
     emit(ctx, answer, lambda: done(answer, f"{answer.item.reference} returned"))
 
 
+@loan_app.command(
+    "close",
+    epilog="Example: tracker --as amira loan close NMFI-25-033 "
+    "--reason 'results reported to the lender on 2027-04-02'",
+)
+def loan_close(
+    ctx: typer.Context,
+    loan: Annotated[str, typer.Argument(help="Loan ID or reference.")],
+    reason: Annotated[str, Opt("--reason", help="Why it is closed: obligations met.")],
+) -> None:
+    """Close a returned loan when nothing of it is left in the lab (managers only)."""
+    answer = perform(ctx, custody.close_loan, {"loan": loan, "reason": reason})
+    emit(ctx, answer, lambda: done(answer, f"{answer.item.reference} closed"))
+
+
 @specimen_app.command(
     "add",
     epilog="Example: tracker specimen add --loan KF-2026-014 --catalog 'KFM P 1001' "

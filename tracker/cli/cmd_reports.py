@@ -155,11 +155,12 @@ def manifest_mapping(
     ],
 ) -> None:
     """Save a column mapping for lists whose headings are not Darwin Core terms."""
-    from tracker.cli.cmd_instrument import definition_file
+    from tracker.cli.cmd_instrument import definition_file, named_file
 
-    answer = perform(
-        ctx, manifests.save_mapping, {"name": name, "definition": definition_file(file)}
-    )
+    with named_file(file):
+        answer = perform(
+            ctx, manifests.save_mapping, {"name": name, "definition": definition_file(file)}
+        )
     emit(ctx, answer, lambda: done(answer, f"manifest mapping {name}"))
 
 

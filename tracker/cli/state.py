@@ -85,6 +85,7 @@ FIELD_OPTIONS = {
     "photo": "FILE",
     "age-min-ma": "--age-min",
     "age-max-ma": "--age-max",
+    "powder-taken": "--mass",
 }
 
 
@@ -137,14 +138,33 @@ def perform(ctx: typer.Context, service: Callable[..., Any], request: dict[str, 
         return service(db, state(ctx).actor, request)
 
 
-def read_upload(path: Path | None, option: str) -> dict[str, Any] | None:
+# Bigger than any file a service accepts, so the service's own limit names the problem;
+# only a file far beyond it is refused here, before it is read into memory at all.
+MAX_UPLOAD_BYTES = 256 * 1024 * 1024
+
+
+def read_upload(
+    path: Path | None, option: str, limit: int = MAX_UPLOAD_BYTES
+) -> dict[str, Any] | None:
     """Read a file for a service; the service keeps it by SHA-256."""
     if path is None:
         return None
     try:
-        return {"filename": path.name, "content": path.read_bytes()}
+        with path.open("rb") as handle:
+            content = handle.read(limit + 1)
     except OSError as error:
         raise InputError(option, str(path), f"cannot be read ({error.strerror})") from None
+    if len(content) > limit:
+        raise InputError(option, str(path), f"is larger than {limit:,} bytes: refused")
+    return {"filename": path.name, "content": content}
+
+
+def write_output(path: Path, data: bytes, option: str) -> None:
+    """Write a file a command produces; a folder that is missing or locked is one line."""
+    try:
+        path.write_bytes(data)
+    except OSError as error:
+        raise InputError(option, str(path), f"cannot be written ({error.strerror})") from None
 
 
 def jsonable(data: Any) -> Any:

@@ -3,10 +3,15 @@
 from __future__ import annotations
 
 import sqlite3
+from collections.abc import Iterator
+from contextlib import contextmanager
 from dataclasses import dataclass, field
 from pathlib import Path
 
 from sqlalchemy import Engine
+from sqlalchemy import exc as sa_exc
+from sqlalchemy.engine import make_url
+from sqlalchemy.exc import DBAPIError, OperationalError
 from sqlalchemy.orm import Session, sessionmaker
 
 from tracker.db import migrate
@@ -68,11 +73,25 @@ def open_database(
         create_private_file(path)
     db = Database(url, build_engine(url), clock)
     try:
-        _bring_to_head(db, create=create, upgrade=upgrade)
+        with unreachable_as_refusal(url):
+            _bring_to_head(db, create=create, upgrade=upgrade)
     except Exception:
         db.close()
         raise
     return db
+
+
+@contextmanager
+def unreachable_as_refusal(url: str) -> Iterator[None]:
+    """A server that does not answer or a file that is no database: one line, not a traceback."""
+    try:
+        yield
+    except DBAPIError as error:
+        if not isinstance(error, OperationalError | sa_exc.DatabaseError):
+            raise
+        shown = make_url(url).render_as_string(hide_password=True)
+        cause = str(error.orig).strip().splitlines()[0] if error.orig else str(error)
+        raise InputError("--db", shown, f"cannot be opened: {cause}") from None
 
 
 def _bring_to_head(db: Database, *, create: bool, upgrade: bool) -> None:
@@ -128,7 +147,7 @@ def upgrade_database(target: str | Path) -> tuple[str | None, str]:
         raise InputError("--db", str(path), "no database here; run `tracker init` first")
     engine = build_engine(url)
     try:
-        with engine.connect() as connection:
+        with unreachable_as_refusal(url), engine.connect() as connection:
             old = migrate.current_revision(connection)
         if old is not None and not migrate.is_known(old):
             raise RuleViolation("--db", old, "database schema is newer than this tracker")

@@ -18,6 +18,7 @@ REVISIONS: tuple[str, ...] = (
     "0004_instrument",
     "0005_labels",
     "0006_reports",
+    "0007_reliability",
 )
 HEAD = REVISIONS[-1]
 MIGRATIONS_DIR = Path(__file__).with_name("migrations")

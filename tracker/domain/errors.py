@@ -8,6 +8,9 @@ in twice. Both carry one line naming the field and the offending value.
 
 from __future__ import annotations
 
+from collections.abc import Iterator
+from contextlib import contextmanager
+
 
 class TrackerError(Exception):
     """Base class: a refusal with a one-line, user-facing message."""
@@ -19,6 +22,9 @@ class TrackerError(Exception):
         self.value = value
         self.reason = reason
         super().__init__(self.one_line())
+
+    def __str__(self) -> str:
+        return self.one_line()  # follows a field renamed on the way out (see cli_fields)
 
     def one_line(self) -> str:
         shown = _show(self.value)
@@ -50,10 +56,26 @@ class RuleViolation(TrackerError):
     exit_code = 1
 
 
+def at_cell(file: str, row: int, column: str) -> str:
+    """How a refusal names a place in an imported file: the file, its row and its column."""
+    return f"{file}, row {row}, column {column}"
+
+
+@contextmanager
+def in_file(file: str) -> Iterator[None]:
+    """Refusals about "row N, column C" raised inside also name the file they are about."""
+    try:
+        yield
+    except TrackerError as error:
+        if error.field.startswith("row "):
+            error.field = f"{file}, {error.field}"
+        raise
+
+
 def _show(value: object) -> str:
     if value is None:
         return ""
     text = str(value)
-    if len(text) > 60:
-        text = text[:57] + "..."
+    if len(text) > 60:  # keep both ends: a long path still ends in its file name
+        text = text[:24] + "..." + text[-33:]
     return repr(text) if isinstance(value, str) else text

@@ -10,14 +10,17 @@ or diagenetically altered — a prompt to look closer, not a verdict.
 
 from __future__ import annotations
 
-import csv
-import io
 import math
+from bisect import bisect_right
 from collections.abc import Callable
 from dataclasses import dataclass
+from functools import cached_property
 from itertools import pairwise
 
+from tracker.domain.tables import TableError, csv_records
+
 COVERAGE = 2.0
+MAX_POINTS = 100_000  # screening walks 64 steps per segment: this bounds the work
 _STEPS_PER_SEGMENT = 64
 _AGE = ("age_ma", "age")
 _RATIO = ("sr87_sr86", "87sr/86sr", "ratio")
@@ -48,16 +51,23 @@ class Curve:
         return self.points[0].age_ma, self.points[-1].age_ma
 
     def at(self, age: float) -> tuple[float, float]:
-        """Interpolated (ratio, u) at an age inside the curve."""
+        """Interpolated (ratio, u) at an age inside the curve (found by bisection)."""
         points = self.points
-        for left, right in pairwise(points):
-            if left.age_ma <= age <= right.age_ma:
-                share = (age - left.age_ma) / (right.age_ma - left.age_ma)
-                return (
-                    left.ratio + share * (right.ratio - left.ratio),
-                    left.u + share * (right.u - left.u),
-                )
-        raise ValueError(f"age {age} Ma is outside the curve ({self.span[0]}–{self.span[1]} Ma)")
+        if not points[0].age_ma <= age <= points[-1].age_ma:
+            raise ValueError(
+                f"age {age} Ma is outside the curve ({self.span[0]}–{self.span[1]} Ma)"
+            )
+        index = min(max(bisect_right(self.ages, age), 1), len(points) - 1)
+        left, right = points[index - 1], points[index]
+        share = (age - left.age_ma) / (right.age_ma - left.age_ma)
+        return (
+            left.ratio + share * (right.ratio - left.ratio),
+            left.u + share * (right.u - left.u),
+        )
+
+    @cached_property
+    def ages(self) -> list[float]:
+        return [p.age_ma for p in self.points]
 
     def intervals(self, ratio: float, u: float, k: float = COVERAGE) -> list[tuple[float, float]]:
         """Age intervals (Ma, young to old) where the curve agrees with ratio ± k·u_combined."""
@@ -88,7 +98,8 @@ class Curve:
         ages = [self.points[0].age_ma]
         for left, right in pairwise(self.points):
             step = (right.age_ma - left.age_ma) / _STEPS_PER_SEGMENT
-            ages += [left.age_ma + step * i for i in range(1, _STEPS_PER_SEGMENT + 1)]
+            ages += [left.age_ma + step * i for i in range(1, _STEPS_PER_SEGMENT)]
+            ages.append(right.age_ma)  # exactly: left + 64·step can round past the curve's end
         return ages
 
 
@@ -114,7 +125,12 @@ def parse_curve_csv(text: str) -> Curve:
     Rows are numbered as lines of the file (comment lines starting with # included), so an
     error points at the line a person sees in an editor.
     """
-    lines = list(enumerate(csv.reader(io.StringIO(text)), start=1))
+    try:
+        lines = list(csv_records(text))
+    except TableError as exc:
+        raise CurveError(exc.row, exc.column, exc.reason) from None
+    if len(lines) > MAX_POINTS:
+        raise CurveError(MAX_POINTS + 1, "age_ma", f"a curve of more than {MAX_POINTS} rows")
     kept = [
         (n, r)
         for n, r in lines

@@ -10,13 +10,12 @@ for a recorded report.
 from __future__ import annotations
 
 import hashlib
-import json
 from dataclasses import dataclass
 from pathlib import Path
 
 from tracker.db.database import Database
 from tracker.domain.errors import InputError
-from tracker.services import reports
+from tracker.services import ledger, reports
 from tracker.services.views import Done
 
 FORMATS = ("pdf", "csv", "xlsx", "json")
@@ -57,15 +56,11 @@ def render(report: reports.ReturnReport, photos: dict[str, bytes], fmt: str) -> 
     return tabular.xlsx_bytes(report_tables.COLUMNS, rows, "return report")
 
 
-def anchor_bytes(report: reports.ReturnReport) -> bytes:
-    """The ledger head the report shows, for `tracker ledger verify --anchor` later."""
-    anchor = {
-        "seq": report.ledger.seq,
-        "hash": report.ledger.hash,
-        "loan": report.loan["reference"],
-        "generated_at": report.generated_at.isoformat(),
-    }
-    return (json.dumps(anchor, indent=2) + "\n").encode()
+def anchor_bytes(db: Database, report: reports.ReturnReport) -> bytes:
+    """The ledger head the report shows, checked against the ledger, as an anchor file for
+    `tracker ledger verify --anchor` later."""
+    label = f"return report {report.loan['reference']}"
+    return ledger.anchor_for(db, report.ledger.seq, report.ledger.hash, label).to_text().encode()
 
 
 def stage(path: Path, data: bytes, field: str = "out") -> Path:
@@ -93,7 +88,7 @@ def write_return_report(
     target = target or folder / default_name(report.loan["reference"], fmt)
     data = render(report, photos, fmt)
     anchor = target.with_name(f"{target.name}.anchor.json")
-    files = {target: data, anchor: anchor_bytes(report)}
+    files = {target: data, anchor: anchor_bytes(db, report)}
     photo_folder = target.with_name(f"{target.stem}-attachments") if photos else None
     made = photo_folder is not None and not photo_folder.exists()
     if photo_folder is not None:

@@ -10,7 +10,6 @@ is refused with one line naming the stock, the field and the file.
 from __future__ import annotations
 
 import os
-import tomllib
 from dataclasses import dataclass
 from importlib import resources
 from pathlib import Path
@@ -19,6 +18,7 @@ from typing import Annotated, Any, Literal
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, model_validator
 
 from tracker.domain.errors import InputError
+from tracker.domain.textfiles import MAX_SETTINGS_BYTES, FileProblem, load_settings
 from tracker.output.geometry import Box
 
 STOCKS_ENV = "TRACKER_LABEL_STOCKS"
@@ -131,13 +131,19 @@ class StockEntry:
 
 
 def _read_file(path: Path, label: str) -> dict[str, StockEntry]:
+    """The stock tables of one TOML file; any problem is one line naming the file and place."""
     try:
         with path.open("rb") as handle:
-            data = tomllib.load(handle)
+            content = handle.read(MAX_SETTINGS_BYTES + 1)
     except FileNotFoundError:
         raise InputError("stocks", str(path), "no such file") from None
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError("stocks", str(path), f"is not valid TOML: {exc}") from None
+    except OSError as error:
+        raise InputError("stocks", str(path), f"cannot be read ({error.strerror})") from None
+    try:
+        data = load_settings(content, ".toml")
+    except FileProblem as problem:
+        where = f"row {problem.row}, column {problem.column}"
+        raise InputError("stocks", str(path), f"{where}: {problem.reason}") from None
     tables = data.get("stock", {})
     if not isinstance(tables, dict) or not all(isinstance(t, dict) for t in tables.values()):
         raise InputError("stocks", str(path), "write each stock as a table: [stock.NAME]")

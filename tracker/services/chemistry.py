@@ -23,7 +23,7 @@ from tracker.services.inputs import Element, FieldProblem, Name, Raw, Request, T
 from tracker.services.lab import aliquot_element
 from tracker.services.label_queue import queue_label
 from tracker.services.lookup import get_by_id, get_reference_material
-from tracker.services.uow import unit_of_work
+from tracker.services.uow import UnitOfWork, unit_of_work
 from tracker.services.views import Done, View
 
 
@@ -162,33 +162,7 @@ def add_position(db: Database, actor: str | None, data: AddPosition | Raw) -> Do
     with unit_of_work(db, actor) as uow:
         batch = get_by_id(uow.session, ColumnBatch, "batch", request.batch)
         slot = 1 + max((p.slot for p in batch.positions), default=0)
-        position = BatchPosition(batch=batch, slot=slot, kind=request.kind, created_at=uow.now)
-        uow.session.add(position)
-        holds = None
-        if request.aliquot:
-            aliquot = get_by_id(uow.session, Aliquot, "aliquot", request.aliquot)
-            if aliquot.status is not ContainerStatus.AVAILABLE or aliquot.positions:
-                raise RuleViolation(
-                    "aliquot", aliquot.public_id, "is already used or not available"
-                )
-            element = aliquot_element(aliquot, batch.element)
-            if element is None:
-                raise RuleViolation(
-                    "aliquot",
-                    aliquot.public_id,
-                    f"its solution has no {batch.element} concentration yet; record one first",
-                )
-            position.aliquot = aliquot
-            position.loaded_ug, position.loaded_u_ug = element[1], element[2]
-            aliquot.status = ContainerStatus.CONSUMED
-            holds = aliquot.public_id
-        if request.reference_material:
-            material = get_reference_material(
-                uow.session, "reference-material", request.reference_material
-            )
-            position.reference_material = material
-            position.loaded_ug, position.loaded_u_ug = request.loaded_ug, request.loaded_u_ug
-            holds = material.name
+        position, holds = place(uow, batch, slot, request)
         payload = {
             "batch": batch.public_id,
             "slot": slot,
@@ -214,3 +188,35 @@ def add_position(db: Database, actor: str | None, data: AddPosition | Raw) -> Do
             ),
             parent=batch,
         )
+
+
+def place(
+    uow: UnitOfWork, batch: ColumnBatch, slot: int, request: AddPosition
+) -> tuple[BatchPosition, str | None]:
+    """Add one column to a batch (part of a unit of work); returns it and what it holds."""
+    position = BatchPosition(batch=batch, slot=slot, kind=request.kind, created_at=uow.now)
+    uow.session.add(position)
+    holds = None
+    if request.aliquot:
+        aliquot = get_by_id(uow.session, Aliquot, "aliquot", request.aliquot)
+        if aliquot.status is not ContainerStatus.AVAILABLE or aliquot.positions:
+            raise RuleViolation("aliquot", aliquot.public_id, "is already used or not available")
+        element = aliquot_element(aliquot, batch.element)
+        if element is None:
+            raise RuleViolation(
+                "aliquot",
+                aliquot.public_id,
+                f"its solution has no {batch.element} concentration yet; record one first",
+            )
+        position.aliquot = aliquot
+        position.loaded_ug, position.loaded_u_ug = element[1], element[2]
+        aliquot.status = ContainerStatus.CONSUMED
+        holds = aliquot.public_id
+    if request.reference_material:
+        material = get_reference_material(
+            uow.session, "reference-material", request.reference_material
+        )
+        position.reference_material = material
+        position.loaded_ug, position.loaded_u_ug = request.loaded_ug, request.loaded_u_ug
+        holds = material.name
+    return position, holds

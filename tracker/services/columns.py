@@ -25,7 +25,7 @@ from tracker.services.common import finish, optional_location
 from tracker.services.inputs import FieldProblem, MassMg, Raw, Request, parse
 from tracker.services.label_queue import queue_label
 from tracker.services.lookup import get_by_id
-from tracker.services.uow import unit_of_work
+from tracker.services.uow import UnitOfWork, unit_of_work
 from tracker.services.views import Done, View
 
 
@@ -82,33 +82,39 @@ def record_cut(db: Database, actor: str | None, data: RecordCut | Raw) -> Done[C
     request = parse(RecordCut, data)
     with unit_of_work(db, actor) as uow:
         position = get_by_id(uow.session, BatchPosition, "position", request.position)
-        batch = position.batch
-        if request.cut not in batch.cut_names:
-            raise RuleViolation(
-                "cut", request.cut, f"is not one of the batch's cuts ({', '.join(batch.cut_names)})"
-            )
-        if any(c.name == request.cut for c in position.cuts):
-            raise RuleViolation("cut", request.cut, f"is already recorded for {position.public_id}")
-        amount = request.recovered_ug()
-        cut = Cut(
-            position=position,
-            name=request.cut,
-            recovered_ug=amount.value if amount else None,
-            recovered_u_ug=amount.u if amount else None,
-            location=optional_location(uow, "location", request.location),
-            created_at=uow.now,
-        )
-        uow.session.add(cut)
+        cut = collect(uow, position, request)
         view = lambda: _cut_view(cut)  # noqa: E731
         payload = {
             "position": position.public_id,
-            "batch": batch.public_id,
+            "batch": position.batch.public_id,
             "cut": cut.name,
             "recovered_ug": cut.recovered_ug,
             "recovered_u_ug": cut.recovered_u_ug,
             "label": queue_label(uow, cut),
         }
         return finish(uow, "cut.recorded", cut, payload, view, parent=position)
+
+
+def collect(uow: UnitOfWork, position: BatchPosition, request: RecordCut) -> Cut:
+    """Add one cut to a column (part of a unit of work), refusing unknown or repeated cuts."""
+    batch = position.batch
+    if request.cut not in batch.cut_names:
+        raise RuleViolation(
+            "cut", request.cut, f"is not one of the batch's cuts ({', '.join(batch.cut_names)})"
+        )
+    if any(c.name == request.cut for c in position.cuts):
+        raise RuleViolation("cut", request.cut, f"is already recorded for {position.public_id}")
+    amount = request.recovered_ug()
+    cut = Cut(
+        position=position,
+        name=request.cut,
+        recovered_ug=amount.value if amount else None,
+        recovered_u_ug=amount.u if amount else None,
+        location=optional_location(uow, "location", request.location),
+        created_at=uow.now,
+    )
+    uow.session.add(cut)
+    return cut
 
 
 def _cut_view(cut: Cut) -> CutView:

@@ -7,6 +7,7 @@ from typing import Annotated
 
 from pydantic import Field
 from sqlalchemy import select
+from sqlalchemy.orm import Session
 
 from tracker.db.database import Database
 from tracker.domain.errors import InputError, RuleViolation
@@ -217,3 +218,58 @@ def mark_loan_returned(db: Database, actor: str | None, data: MarkReturned | Raw
             lambda: LoanView.of(loan, returned_on),
             parent=loan.lender,
         )
+
+
+class CloseLoan(Request):
+    loan: str
+    reason: Annotated[str, Field(min_length=3, max_length=4000)]
+
+
+def close_loan(db: Database, actor: str | None, data: CloseLoan | Raw) -> Done[LoanView]:
+    """Close a returned loan once nothing of it is left in the lab (managers only).
+
+    Closing says the lab's obligations are met: the material is back and residual
+    solutions and aliquots have been dealt with as the terms require. After it the
+    loan's terms can no longer be amended.
+    """
+    request = parse(CloseLoan, data)
+    with unit_of_work(db, actor) as uow:
+        uow.require_manager("closing a loan")
+        loan = get_loan(uow.session, "loan", request.loan)
+        if loan.status is LoanStatus.CLOSED:
+            raise RuleViolation("loan", loan.reference, "is already closed")
+        if loan.status is not LoanStatus.RETURNED:
+            raise RuleViolation(
+                "loan", loan.reference,
+                "has not been returned yet; `tracker loan mark-returned` it first",
+            )  # fmt: skip
+        left = _material_left(uow.session, loan.id)
+        if left:
+            raise RuleViolation(
+                "loan", loan.reference,
+                f"{len(left)} vial(s) of its material are still in the lab: "
+                f"{', '.join(left[:5])}; dispose of them as the terms require first",
+            )  # fmt: skip
+        loan.status = LoanStatus.CLOSED
+        payload = {"reason": request.reason, "returned_on": _iso(loan.returned_on)}
+        return finish(
+            uow, "loan.closed", loan, payload, lambda: LoanView.of(loan, uow.now.date()),
+            parent=loan.lender,
+        )  # fmt: skip
+
+
+def _material_left(session: Session, loan_id: int) -> list[str]:
+    """Solutions and aliquots made from the loan's specimens that are still available."""
+    solutions = session.scalars(
+        select(Solution).join(Solution.powder).join(Powder.specimen)
+        .where(Specimen.loan_id == loan_id, Solution.status == ContainerStatus.AVAILABLE)
+    ).all()  # fmt: skip
+    aliquots = session.scalars(
+        select(Aliquot).join(Aliquot.solution).join(Solution.powder).join(Powder.specimen)
+        .where(Specimen.loan_id == loan_id, Aliquot.status == ContainerStatus.AVAILABLE)
+    ).all()  # fmt: skip
+    return [s.public_id for s in solutions] + [a.public_id for a in aliquots]
+
+
+def _iso(day: date | None) -> str | None:
+    return day.isoformat() if day else None

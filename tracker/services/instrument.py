@@ -18,23 +18,19 @@ from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
 from tracker.db.database import Database
-from tracker.domain.errors import InputError, NotFound
-from tracker.domain.ids import BadId, Kind, looks_like_id, parse_id
+from tracker.domain.errors import InputError, NotFound, RuleViolation, in_file
 from tracker.domain.isotopes import parse_ratio
 from tracker.domain.models import (
-    BatchPosition,
-    Cut,
     InstrumentSession,
     MappingProfile,
     Measurement,
     MeasurementRole,
-    PositionKind,
-    ReferenceMaterial,
 )
 from tracker.domain.tables import Row, TableError, read_table
 from tracker.services.common import action_time, finish
 from tracker.services.inputs import AwareDatetime, Element, Name, Raw, Request, parse
-from tracker.services.uow import unit_of_work
+from tracker.services.matching import Matcher, require_brackets
+from tracker.services.uow import UnitOfWork, unit_of_work
 from tracker.services.views import Done, View
 
 Header = Annotated[str, Field(min_length=1, max_length=120)]
@@ -157,45 +153,67 @@ def import_session(db: Database, actor: str | None, data: ImportSession | Raw) -
     with unit_of_work(db, actor) as uow:
         profile = _profile(uow.session, request.profile)
         _require_standard_values(request, profile)
-        rows = _read(request, profile)
-        session = InstrumentSession(
-            name=request.name, instrument=request.instrument, element=request.element,
-            started_at=action_time(uow, request.started_at, "started-at"),
-            operator=uow.operator.code, bracketing_standard=request.bracketing_standard,
-            mode=request.mode, ratio_names=list(profile.columns.ratios),
-            standard_values=request.standard_values, source_filename=request.filename,
-            source_sha256=hashlib.sha256(request.content).hexdigest(),
-            profile_name=request.profile, flags=[], created_at=uow.now,
-        )  # fmt: skip
-        uow.session.add(session)
-        matcher = _Matcher(uow.session, request.bracketing_standard, request.element)
-        unmatched: list[UnmatchedRow] = []
-        for row, run, name, label in rows:
-            measurement = Measurement(
-                session=session,
-                run_order=run,
-                sample_name=name,
-                created_at=uow.now,
-                **_values(row, profile),
-            )
-            uow.session.add(measurement)
-            reason = matcher.assign(measurement, label or name)
-            if reason:
-                unmatched.append(
-                    UnmatchedRow(row=row.number, run_order=run, sample_name=name, reason=reason)
-                )
-        _require_brackets(
-            session.measurements, {r[1]: r[0].number for r in rows}, profile.columns.sample_name
+        with in_file(request.filename):
+            return _import(uow, request, profile)
+
+
+def _import(
+    uow: UnitOfWork, request: ImportSession, profile: ProfileDefinition
+) -> Done[SessionView]:
+    """The import proper, inside the caller's unit of work."""
+    _refuse_repeat(uow, request)
+    rows = _read(request, profile)
+    session = InstrumentSession(
+        name=request.name, instrument=request.instrument, element=request.element,
+        started_at=action_time(uow, request.started_at, "started-at"),
+        operator=uow.operator.code, bracketing_standard=request.bracketing_standard,
+        mode=request.mode, ratio_names=list(profile.columns.ratios),
+        standard_values=request.standard_values, source_filename=request.filename,
+        source_sha256=hashlib.sha256(request.content).hexdigest(),
+        profile_name=request.profile, flags=[], created_at=uow.now,
+    )  # fmt: skip
+    uow.session.add(session)
+    matcher = Matcher(uow.session, request.bracketing_standard, request.element)
+    unmatched: list[UnmatchedRow] = []
+    for row, run, name, label in rows:
+        measurement = Measurement(
+            session=session,
+            run_order=run,
+            sample_name=name,
+            created_at=uow.now,
+            **_values(row, profile),
         )
-        view = lambda: _view(session, unmatched)  # noqa: E731
-        payload = {
-            "file": request.filename,
-            "sha256": session.source_sha256,
-            "profile": request.profile,
-            "rows": len(rows),
-            "unmatched": [u.model_dump() for u in unmatched],
-        }
-        return finish(uow, "session.imported", session, payload, view)
+        uow.session.add(measurement)
+        reason = matcher.assign(measurement, label or name)
+        if reason:
+            unmatched.append(
+                UnmatchedRow(row=row.number, run_order=run, sample_name=name, reason=reason)
+            )
+    require_brackets(
+        session.measurements, {r[1]: r[0].number for r in rows}, profile.columns.sample_name
+    )
+    view = lambda: _view(session, unmatched)  # noqa: E731
+    payload = {
+        "file": request.filename,
+        "sha256": session.source_sha256,
+        "profile": request.profile,
+        "rows": len(rows),
+        "unmatched": [u.model_dump() for u in unmatched],
+    }
+    return finish(uow, "session.imported", session, payload, view)
+
+
+def _refuse_repeat(uow: UnitOfWork, request: ImportSession) -> None:
+    """The same export imported twice would count every run twice: refuse it, by content."""
+    digest = hashlib.sha256(request.content).hexdigest()
+    earlier = uow.session.scalars(
+        select(InstrumentSession).where(InstrumentSession.source_sha256 == digest).limit(1)
+    ).first()
+    if earlier is not None:
+        raise RuleViolation(
+            "FILE", request.filename,
+            f"was imported already as {earlier.public_id} ({earlier.name!r}); nothing to do",
+        )  # fmt: skip
 
 
 def _require_standard_values(request: ImportSession, profile: ProfileDefinition) -> None:
@@ -229,10 +247,6 @@ def _read(
             value = request.filename if exc.column == "file" else profile.sheet
             raise InputError(exc.column, value, exc.reason) from None
         raise InputError(f"row {exc.row}, column {exc.column}", None, exc.reason) from None
-    except (UnicodeDecodeError, OSError, KeyError, ValueError) as exc:
-        raise InputError(
-            "file", request.filename, f"cannot be read as {profile.format}: {exc}"
-        ) from None
     columns = profile.columns
     wanted = [
         columns.run_order,
@@ -296,79 +310,6 @@ def _positive(row: Row, column: str, *, allow_zero: bool = False) -> float:
     if not math.isfinite(value) or value < 0 or (value == 0 and not allow_zero):
         raise InputError(where, text, "a ratio must be a positive finite number")
     return value
-
-
-class _Matcher:
-    """Decides what each row measured, from its label ID or its name."""
-
-    def __init__(self, session: Session, standard: str, element: str) -> None:
-        self.session, self.standard, self.element = session, standard.lower(), element
-        self.materials = {m.name.lower(): m for m in session.scalars(select(ReferenceMaterial))}
-
-    def assign(self, measurement: Measurement, label: str) -> str:
-        """Set the measurement's role and target; return why it is unmatched, or ''."""
-        key = label.strip().lower()
-        if key == self.standard:
-            measurement.role = MeasurementRole.STANDARD
-            return ""
-        if key in self.materials:
-            measurement.role = MeasurementRole.REFERENCE
-            measurement.reference_material_id = self.materials[key].id
-            return ""
-        measurement.role = MeasurementRole.UNMATCHED
-        if not looks_like_id(label):
-            return "names no standard, reference material or labelled vial"
-        try:
-            public = parse_id(label)
-        except BadId as exc:
-            return f"label {label!r}: {exc}"
-        return self._by_id(measurement, public.kind, public.number, label)
-
-    def _by_id(self, measurement: Measurement, kind: Kind, number: int, label: str) -> str:
-        if kind is Kind.CUT:
-            cut = self.session.get(Cut, number)
-            position = cut.position if cut else None
-        elif kind is Kind.POSITION:
-            position = self.session.get(BatchPosition, number)
-            cut = None
-        else:
-            return f"{label} is not a cut or a column position"
-        if position is None:
-            return f"{label} names nothing in this database"
-        if position.batch.element != self.element:
-            return f"{label} is from a {position.batch.element} batch"
-        if position.kind is PositionKind.BLANK:
-            measurement.role, measurement.position_id = MeasurementRole.BLANK, position.id
-            return ""
-        if position.kind is PositionKind.REFERENCE:
-            measurement.role = MeasurementRole.REFERENCE
-            measurement.reference_material_id = position.reference_material_id
-            return ""
-        chosen = cut or next((c for c in position.cuts if c.name == self.element), None)
-        if chosen is None:
-            return f"{label}: no {self.element} cut recorded for this column yet"
-        measurement.role, measurement.cut_id = MeasurementRole.SAMPLE, chosen.id
-        return ""
-
-
-def _require_brackets(
-    measurements: list[Measurement], rows: dict[int, int], sample_column: str
-) -> None:
-    """Every sample, reference and blank needs a standard measured before AND after it."""
-    ordered = sorted(measurements, key=lambda m: m.run_order)
-    standards = [m.run_order for m in ordered if m.role is MeasurementRole.STANDARD]
-    for m in ordered:
-        if m.role in (MeasurementRole.STANDARD, MeasurementRole.UNMATCHED):
-            continue
-        before = any(s < m.run_order for s in standards)
-        after = any(s > m.run_order for s in standards)
-        if not (before and after):
-            side = "before" if not before else "after"
-            raise InputError(
-                f"row {rows[m.run_order]}, column {sample_column}",
-                m.sample_name,
-                f"has no bracketing standard measured {side} it",
-            )
 
 
 def _view(session: InstrumentSession, unmatched: list[UnmatchedRow]) -> SessionView:

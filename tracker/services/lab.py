@@ -148,17 +148,18 @@ def _require_available(container: Powder | Solution) -> None:
         )
 
 
-class RecordConcentration(Request):
+class ConcentrationValue(Request):
+    """A measured mass fraction with exactly one kind of uncertainty."""
+
     solution: str
     element: Element
     value: FractionUgPerG
     uncertainty: FractionUgPerG | None = None
     relative_uncertainty_percent: Annotated[float, Field(gt=0, lt=100)] | None = None
     method: Annotated[str, Field(max_length=120)] | None = None
-    measured_at: AwareDatetime | None = None
 
     @model_validator(mode="after")
-    def _one_uncertainty(self) -> RecordConcentration:
+    def _one_uncertainty(self) -> ConcentrationValue:
         if (self.uncertainty is None) == (self.relative_uncertainty_percent is None):
             raise FieldProblem(
                 "uncertainty",
@@ -176,9 +177,22 @@ class RecordConcentration(Request):
         return float(self.value) * self.relative_uncertainty_percent / 100
 
 
+class RecordConcentration(ConcentrationValue):
+    measured_at: AwareDatetime | None = None
+
+
 def latest_concentration(solution: Solution, element: str | None = None) -> Concentration | None:
-    """The newest measurement (for ``element`` if given); corrections supersede older rows."""
-    rows = [c for c in solution.concentrations if element is None or c.element == element]
+    """The newest measurement in force (for ``element`` if given).
+
+    A corrected row is out of force: its correction (a row whose ``supersedes_id``
+    names it, with the same measurement time) takes its place.
+    """
+    superseded = {c.supersedes_id for c in solution.concentrations if c.supersedes_id}
+    rows = [
+        c
+        for c in solution.concentrations
+        if (element is None or c.element == element) and c.id not in superseded
+    ]
     return max(rows, key=lambda c: (c.measured_at, c.id)) if rows else None
 
 

@@ -1,15 +1,34 @@
-"""Reading the custody ledger: verify the chain, list events, export them as JSON Lines."""
+"""Reading the custody ledger: verify the chain (and anchors), list events, export them.
+
+Anchors (see :mod:`tracker.domain.anchors`) are the head written to a file outside
+the database; :func:`write_anchor` is what return reports and `tracker ledger
+anchor` call, :func:`verify_against` what `tracker ledger verify --anchor` calls.
+"""
 
 from __future__ import annotations
 
 import json
+import os
+import tempfile
 from collections.abc import Callable, Iterator
-from typing import Annotated, TextIO
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Annotated, Literal, TextIO
 
 from pydantic import BaseModel, Field
 from sqlalchemy import func, or_, select
 
 from tracker.db.database import Database
+from tracker.domain.anchors import (
+    MAX_ANCHOR_BYTES,
+    Anchor,
+    AnchorCheck,
+    AnchorError,
+    check_anchor,
+    make_anchor,
+    parse_anchor,
+)
+from tracker.domain.errors import InputError, RuleViolation
 from tracker.domain.ledger import LedgerRow, VerifyReport, verify_chain
 from tracker.domain.models import CustodyEvent
 from tracker.domain.timeutil import iso_utc
@@ -123,3 +142,93 @@ def export_jsonl(db: Database, out: TextIO) -> int:
         out.write(json.dumps(record, ensure_ascii=False) + "\n")
         count += 1
     return count
+
+
+class AnchorFile(BaseModel):
+    """An anchor file (format tracker-anchor/1): the ledger's head kept outside it."""
+
+    format: Literal["tracker-anchor/1"]
+    seq: Annotated[int, Field(ge=1)]
+    hash: Annotated[str, Field(pattern="^[0-9a-f]{64}$")]
+    first_hash: Annotated[str, Field(pattern="^[0-9a-f]{64}$")]  # names the ledger
+    taken_at: str  # ISO 8601 UTC
+    label: str | None = None  # what it was taken for, e.g. a return report
+
+
+def _hash_of(db: Database, seq: int) -> str | None:
+    with db.read_session() as session:
+        return session.scalar(select(CustodyEvent.hash).where(CustodyEvent.seq == seq))
+
+
+def current_anchor(db: Database, label: str | None = None) -> Anchor:
+    """The ledger's head now, as an anchor; refused for an empty ledger."""
+    with db.read_session() as session:
+        head = session.execute(
+            select(CustodyEvent.seq, CustodyEvent.hash).order_by(CustodyEvent.seq.desc()).limit(1)
+        ).first()
+        first = session.scalar(select(CustodyEvent.hash).where(CustodyEvent.seq == 1))
+    if head is None or first is None:
+        raise RuleViolation("--db", db.url, "the ledger has no events to anchor")
+    return make_anchor(head.seq, head.hash, first, db.clock(), label)
+
+
+def anchor_for(db: Database, seq: int, head_hash: str, label: str | None = None) -> Anchor:
+    """An anchor of an event a document shows (a report's head), checked against the ledger."""
+    if _hash_of(db, seq) != head_hash:
+        raise RuleViolation("--db", db.url, f"the ledger holds no event #{seq} with that hash")
+    first = _hash_of(db, 1)
+    assert first is not None  # event #seq exists, so event 1 does
+    return make_anchor(seq, head_hash, first, db.clock(), label)
+
+
+def write_anchor(db: Database, path: Path, label: str | None = None) -> Anchor:
+    """Write the current head to ``path`` (atomically: a reader never sees half a file)."""
+    anchor = current_anchor(db, label)
+    directory = path.parent if str(path.parent) else Path()
+    try:
+        handle, staged = tempfile.mkstemp(prefix=f".{path.name}.", dir=directory)
+        with os.fdopen(handle, "w", encoding="utf-8") as out:
+            out.write(anchor.to_text())
+            out.flush()
+            os.fsync(out.fileno())
+        Path(staged).chmod(0o644)  # an anchor is meant to be handed to others
+        Path(staged).replace(path)
+    except OSError as error:
+        raise InputError("--out", str(path), f"cannot be written ({error.strerror})") from None
+    return anchor
+
+
+def read_anchor(path: Path) -> Anchor:
+    """An anchor file, or a one-line refusal naming the file and what is wrong with it."""
+    try:
+        with path.open("rb") as handle:
+            content = handle.read(MAX_ANCHOR_BYTES + 1)
+    except OSError as error:
+        raise InputError("--anchor", str(path), f"cannot be read ({error.strerror})") from None
+    if len(content) > MAX_ANCHOR_BYTES:
+        raise InputError("--anchor", str(path), "is too large to be an anchor file")
+    try:
+        return parse_anchor(content.decode("utf-8"))
+    except UnicodeDecodeError:
+        raise InputError("--anchor", str(path), "is not UTF-8 text") from None
+    except AnchorError as error:
+        raise InputError("--anchor", str(path), str(error)) from None
+
+
+@dataclass(frozen=True)
+class AnchoredReport:
+    chain: VerifyReport
+    anchor: AnchorCheck
+
+    @property
+    def ok(self) -> bool:
+        return self.chain.ok and self.anchor.ok
+
+
+def verify_against(db: Database, anchor: Anchor) -> AnchoredReport:
+    """The whole chain verified, and the anchored event still in it with the same hash."""
+    chain = verify(db)
+    with db.read_session() as session:
+        stored_head = session.scalar(select(func.max(CustodyEvent.seq))) or 0
+    check = check_anchor(anchor, _hash_of(db, 1), stored_head, _hash_of(db, anchor.seq))
+    return AnchoredReport(chain, check)

@@ -19,7 +19,7 @@ from sqlalchemy import insert, select
 from sqlalchemy.orm import Session
 
 from tracker.db.database import Database
-from tracker.domain.errors import InputError, NotFound, RuleViolation
+from tracker.domain.errors import InputError, NotFound, RuleViolation, at_cell
 from tracker.domain.ids import Kind, format_id
 from tracker.domain.models import LoanStatus, MappingProfile, Specimen, SpecimenStatus
 from tracker.domain.spreadsheet import looks_like_formula
@@ -179,12 +179,8 @@ def import_manifest(
     with unit_of_work(db, actor) as uow:
         preview = _preview(uow.session, request)
         if not preview.clean:
-            raise InputError(
-                "manifest",
-                request.filename,
-                f"has {preview.problems} problem(s); see the preview, fix the file "
-                "and import again (nothing was written)",
-            )
+            header = _rows(uow.session, request)[0]
+            raise _first_problem(request.filename, preview, _header_problems(header))
         loan = get_loan(uow.session, "loan", request.loan)
         if loan.status is not LoanStatus.OPEN:
             raise RuleViolation("loan", loan.reference, f"is {loan.status.value}")
@@ -204,6 +200,23 @@ def import_manifest(
     return ManifestOutcome(
         preview=preview, created=created, updated=updated, event_seq=done.event_seq
     )
+
+
+def _first_problem(filename: str, preview: ManifestPreview, of_headings: list[str]) -> InputError:
+    """The refusal of a file with problems: where the first is, what it is, how many in all.
+
+    A problem of the headings is said at the header; a row's at that row.
+    """
+    first = next((r for r in preview.rows if r.problems), None)
+    if of_headings or first is None:
+        where, said = f"{filename}, header", of_headings[:1]
+    else:
+        where, said = f"{filename}, row {first.row}", first.problems[:1]
+    return InputError(
+        where, None,
+        "; ".join([*said, f"the file has {preview.problems} problem(s); see the preview, "
+                   "fix the file and import again (nothing was written)"]),
+    )  # fmt: skip
 
 
 def _mapping(session: Session, name: str | None) -> ManifestMapping:
@@ -228,10 +241,13 @@ def _rows(session: Session, request: ManifestRequest) -> tuple[list[str], list[R
             header_row=mapping.header_row,
             sheet=mapping.sheet,
             comment_prefix=None,
+            keep_formulas=True,  # flagged row by row in the preview instead
         )
     except TableError as exc:
-        field = "file" if exc.column == "file" else f"row {exc.row}, column {exc.column}"
-        raise InputError(field, request.filename, exc.reason) from None
+        if exc.column == "file":
+            raise InputError("file", request.filename, exc.reason) from None
+        where = at_cell(request.filename, exc.row, exc.column)
+        raise InputError(where, None, exc.reason) from None
     if len(rows) > MAX_ROWS:
         raise InputError(
             "file",

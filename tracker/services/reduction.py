@@ -84,39 +84,48 @@ def reduce_session(db: Database, actor: str | None, data: Reduce | Raw) -> Done[
     request = parse(Reduce, data)
     with unit_of_work(db, actor) as uow:
         session = get_by_id(uow.session, InstrumentSession, "session", request.session)
-        runs = [m for m in session.measurements if m.excluded_reason is None]
-        lines: list[ResultLine] = []
-        rows: list[Result] = []
-        for ratio in session.ratio_names:
-            for target, stats in _replicates(session, runs, ratio).items():
-                line, row = _result(uow.session, session, ratio, target, stats, uow.now)
-                lines.append(line)
-                rows.append(row)
-        _mass_dependence(session, lines)
-        flags = sorted(
-            {f"reference material failed: {x.label} {x.ratio}" for x in lines if x.passed is False}
-        )
-        uow.session.execute(delete(Result).where(Result.session_id == session.id))
-        for line, row in zip(lines, rows, strict=True):
-            row.flags = list(line.flags)
-            uow.session.add(row)
-        session.flags = flags
-        unmatched = sum(1 for m in session.measurements if m.role is MeasurementRole.UNMATCHED)
-        answer = Reduction(
-            session=session.public_id,
-            name=session.name,
-            mode=session.mode,
-            scale=session.bracketing_standard,
-            results=lines,
-            flags=flags,
-            unmatched=unmatched,
-        )
+        answer = recompute(uow.session, session, uow.now)
         payload = {
-            "results": len(lines),
-            "flags": flags,
-            "failed": [f"{x.label} {x.ratio}" for x in lines if x.passed is False],
+            "results": len(answer.results),
+            "flags": answer.flags,
+            "failed": [f"{x.label} {x.ratio}" for x in answer.results if x.passed is False],
         }
         return finish(uow, "session.reduced", session, payload, lambda: answer)
+
+
+def recompute(sql: Session, session: InstrumentSession, now: datetime) -> Reduction:
+    """Replace a session's results with ones computed from the values now in force.
+
+    Part of a unit of work (a reduction, or a correction of a value results depend on);
+    the caller records the one custody event.
+    """
+    runs = [m for m in session.measurements if m.excluded_reason is None]
+    lines: list[ResultLine] = []
+    rows: list[Result] = []
+    for ratio in session.ratio_names:
+        for target, stats in _replicates(session, runs, ratio).items():
+            line, row = _result(sql, session, ratio, target, stats, now)
+            lines.append(line)
+            rows.append(row)
+    _mass_dependence(session, lines)
+    flags = sorted(
+        {f"reference material failed: {x.label} {x.ratio}" for x in lines if x.passed is False}
+    )
+    sql.execute(delete(Result).where(Result.session_id == session.id))
+    for line, row in zip(lines, rows, strict=True):
+        row.flags = list(line.flags)
+        sql.add(row)
+    session.flags = flags
+    unmatched = sum(1 for m in session.measurements if m.role is MeasurementRole.UNMATCHED)
+    return Reduction(
+        session=session.public_id,
+        name=session.name,
+        mode=session.mode,
+        scale=session.bracketing_standard,
+        results=lines,
+        flags=flags,
+        unmatched=unmatched,
+    )
 
 
 def _replicates(

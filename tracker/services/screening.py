@@ -16,9 +16,10 @@ from pydantic import Field
 from sqlalchemy import select
 
 from tracker.db.database import Database
-from tracker.domain.errors import InputError, NotFound, RuleViolation
+from tracker.domain.errors import InputError, NotFound, RuleViolation, at_cell
 from tracker.domain.models import SrCurve
 from tracker.domain.srcurve import Curve, CurveError, CurvePoint, overlaps, parse_curve_csv
+from tracker.domain.textfiles import FileProblem, decode_text
 from tracker.services.common import finish
 from tracker.services.inputs import Name, Raw, Request, Text, parse
 from tracker.services.lookup import get_loan
@@ -27,6 +28,9 @@ from tracker.services.uow import unit_of_work
 from tracker.services.views import Done, LoanView, View
 
 SR_RATIO = "87/86"
+# A curve of a few thousand points is a few hundred kB (common practice: published
+# curves tabulate every 0.1 Myr or coarser); 16 MB leaves room and bounds the work.
+MAX_CURVE_BYTES = 16 * 1024 * 1024
 
 
 class CurveView(View):
@@ -47,12 +51,11 @@ class NewCurve(Request):
 def add_curve(db: Database, actor: str | None, data: NewCurve | Raw) -> Done[CurveView]:
     """Keep a reference curve (CSV: age_ma, 87sr/86sr, u — sorted by age, no gaps)."""
     request = parse(NewCurve, data)
+    file = request.filename or request.name
     try:
-        curve = parse_curve_csv(request.content.decode("utf-8-sig"))
-    except CurveError as exc:
-        raise InputError(f"row {exc.row}, column {exc.column}", None, exc.reason) from None
-    except UnicodeDecodeError:
-        raise InputError("file", request.name, "is not UTF-8 text") from None
+        curve = parse_curve_csv(decode_text(request.content, limit=MAX_CURVE_BYTES))
+    except (CurveError, FileProblem) as exc:
+        raise InputError(at_cell(file, exc.row, exc.column), None, exc.reason) from None
     with unit_of_work(db, actor) as uow:
         if uow.session.scalars(select(SrCurve).where(SrCurve.name == request.name)).first():
             raise RuleViolation("name", request.name, "a curve with this name exists")

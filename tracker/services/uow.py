@@ -46,14 +46,21 @@ class UnitOfWork:
         self.mentions.update(ref for ref in refs if ref)
 
     def require_manager(self, action: str) -> None:
-        """Refuse an action reserved for managers, saying who tried and what it needs."""
-        if self.operator.role is not Role.MANAGER:
-            raise RuleViolation(
-                "--as",
-                self.operator.code,
-                f"{action} needs an operator with the manager role "
-                f"({self.operator.code} is a {self.operator.role.value})",
-            )
+        """Refuse an action reserved for managers: who tried, what it needs, who can do it."""
+        if self.operator.role is Role.MANAGER:
+            return
+        managers = self.session.scalars(
+            select(Operator.code)
+            .where(Operator.role == Role.MANAGER, Operator.active.is_(True))
+            .order_by(Operator.code)
+        ).all()
+        who = f"; ask a manager ({', '.join(managers)}) to do it" if managers else ""
+        raise RuleViolation(
+            "--as",
+            self.operator.code,
+            f"{action} needs an operator with the manager role "
+            f"({self.operator.code} is a {self.operator.role.value}){who}",
+        )
 
     def record(
         self, action: str, obj: Ref, payload: dict[str, Any], parent: Ref = None

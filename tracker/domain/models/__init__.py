@@ -1,6 +1,7 @@
 """All mapped classes; importing this module registers every table on ``Base.metadata``."""
 
 from tracker.domain.models.chemistry import BatchPosition, ColumnBatch, Cut, ReferenceMaterial
+from tracker.domain.models.corrections import Correction
 from tracker.domain.models.enums import (
     AliquotPurpose,
     ContainerStatus,
@@ -51,6 +52,7 @@ __all__ = [
     "ColumnBatch",
     "Concentration",
     "ContainerStatus",
+    "Correction",
     "CustodyEvent",
     "Cut",
     "Disposition",

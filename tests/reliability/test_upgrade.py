@@ -1,0 +1,109 @@
+"""A database written by the first release upgrades with every row and ledger event intact.
+
+The fixture is the demo database as commit d02aa5d made it (tests/fixtures/README.md).
+The test reads every row of every table straight from the file with the standard
+library's sqlite3, lets tracker open (back up and upgrade) a copy, and compares again.
+"""
+
+from __future__ import annotations
+
+import shutil
+import sqlite3
+from pathlib import Path
+from typing import Any
+
+from tests.cli.conftest import invoke, ok_json
+from tests.reliability.report import record
+from tracker.db import migrate
+from tracker.db.database import Database, open_database
+from tracker.db.engine import build_engine
+from tracker.services import ledger
+
+FIXTURE = Path(__file__).resolve().parents[1] / "fixtures" / "demo-d02aa5d.sqlite"
+FIRST_REVISION = "0002_append_only_ledger"
+
+
+def _tables(path: Path) -> dict[str, dict[tuple[Any, ...], dict[str, Any]]]:
+    """Every table's rows keyed by primary key, read without tracker's code."""
+    connection = sqlite3.connect(path)
+    try:
+        names = [
+            n
+            for (n,) in connection.execute(
+                "SELECT name FROM sqlite_master WHERE type = 'table' AND name NOT LIKE 'sqlite_%'"
+            )
+        ]
+        found = {}
+        for name in names:
+            info = connection.execute(f"PRAGMA table_info({name})").fetchall()
+            columns = [row[1] for row in info]
+            keys = [row[1] for row in sorted(info, key=lambda r: r[5]) if row[5]] or columns
+            cursor = connection.execute(f"SELECT * FROM {name}")
+            rows = [dict(zip(columns, values, strict=True)) for values in cursor]
+            found[name] = {tuple(r[k] for k in keys): r for r in rows}
+        return found
+    finally:
+        connection.close()
+
+
+def _old_ledger_head(path: Path) -> ledger.VerifyReport:
+    """Verify the old file's chain with today's verifier, without upgrading it."""
+    url = f"sqlite:///{path}"
+    db = Database(url, build_engine(url))
+    try:
+        return ledger.verify(db)
+    finally:
+        db.close()
+
+
+def test_first_release_database_upgrades_with_every_row_and_event_intact(tmp_path: Path) -> None:
+    path = tmp_path / "lab.sqlite"
+    shutil.copyfile(FIXTURE, path)
+    path.chmod(0o600)
+    before = _tables(path)
+    assert before["alembic_version"] == {(FIRST_REVISION,): {"version_num": FIRST_REVISION}}
+    head_before = _old_ledger_head(path)
+    assert head_before.ok and head_before.events == len(before["custody_event"]) == 114
+
+    db = open_database(path)  # backs the file up, then upgrades it
+    try:
+        head_after = ledger.verify(db)
+    finally:
+        db.close()
+    after = _tables(path)
+
+    assert head_after == head_before  # same events, same head hash, chain intact
+    changed = []
+    for table, rows in before.items():
+        if table == "alembic_version":
+            continue
+        assert after[table].keys() == rows.keys(), f"{table}: rows added or lost"
+        for key, row in rows.items():
+            kept = {column: after[table][key][column] for column in row}
+            if kept != row:
+                changed.append((table, key))
+    assert changed == []
+    assert after["alembic_version"] == {(migrate.HEAD,): {"version_num": migrate.HEAD}}
+    backup = tmp_path / f"lab.sqlite.bak-{FIRST_REVISION}"
+    assert _tables(backup) == before and backup.stat().st_mode & 0o077 == 0
+    rows = sum(len(r) for r in before.values())
+    record(
+        "upgrade from the first release (d02aa5d demo)",
+        f"{len(before)} tables, {rows} rows, {head_before.events} events",
+        f"{len(changed)} rows changed, ledger head kept (#{head_after.head_seq})",
+    )
+
+
+def test_upgraded_first_release_database_takes_new_work(tmp_path: Path) -> None:
+    """The upgraded file is a working database: today's commands write and verify on it."""
+    path = tmp_path / "lab.sqlite"
+    shutil.copyfile(FIXTURE, path)
+    path.chmod(0o600)
+    operators = _tables(path)["operator"].values()
+    manager = next(o["code"] for o in operators if o["role"] == "manager")
+    building = ok_json(
+        invoke("location", "add", "building", "Annex Z", db=path, actor=manager, as_json=True)
+    )
+    assert building["event_seq"] == 115
+    verified = ok_json(invoke("ledger", "verify", db=path, as_json=True))
+    assert verified["ok"] and verified["events"] == 115

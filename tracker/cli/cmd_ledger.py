@@ -1,0 +1,127 @@
+"""The custody ledger: verify (against an anchor too), anchor, list, export."""
+
+import sys
+from pathlib import Path
+from typing import Annotated, Any
+
+import typer
+
+from tracker.cli.render import history_table
+from tracker.cli.state import database, emit, errors
+from tracker.domain.anchors import AnchorCheck
+from tracker.domain.errors import InputError
+from tracker.domain.ledger import VerifyReport
+from tracker.services import ledger
+
+ledger_app = typer.Typer(
+    epilog="Example: tracker ledger verify --anchor head-2026-11-30.json",
+    help="The hash-chained custody ledger.",
+    no_args_is_help=True,
+)
+
+
+def _verify_text(report: VerifyReport, check: AnchorCheck | None) -> str:
+    if not report.ok:
+        return (
+            f"ledger BROKEN at event #{report.broken_seq}: {report.reason} "
+            f"({report.events} events verified before it)"
+        )
+    text = f"ledger intact: {report.events} events, head #{report.head_seq} {report.head_hash}"
+    if check is None:
+        return text
+    if check.ok:
+        return f"{text}\nanchor holds: event #{check.anchor_seq} is still {check.anchor_hash}"
+    return f"{text}\nanchor FAILED: {check.problem}"
+
+
+@ledger_app.command(
+    "verify",
+    epilog="Example: tracker ledger verify --anchor head.json",
+)
+def ledger_verify(
+    ctx: typer.Context,
+    anchor: Annotated[
+        Path | None,
+        typer.Option("--anchor", help="Also require the head kept in this anchor file."),
+    ] = None,
+) -> None:
+    """Re-hash every event; print the head hash (exit 0) or the first broken event (exit 1).
+
+    With --anchor, the ledger must also still hold the event the anchor file names:
+    a ledger whose newest events were deleted, or an old copy put back, fails.
+    """
+    kept = ledger.read_anchor(anchor) if anchor is not None else None
+    with database(ctx) as db:
+        if kept is None:
+            report, check = ledger.verify(db), None
+        else:
+            both = ledger.verify_against(db, kept)
+            report, check = both.chain, both.anchor
+    answer: dict[str, Any] = dict(report.__dict__)
+    answer["anchor"] = None if check is None else dict(check.__dict__)
+    emit(ctx, answer, lambda: _verify_text(report, check))
+    if not report.ok or (check is not None and not check.ok):
+        raise typer.Exit(1)
+
+
+@ledger_app.command(
+    "anchor", epilog="Example: tracker ledger anchor --out anchors/head-2026-11-30.json"
+)
+def ledger_anchor(
+    ctx: typer.Context,
+    out: Annotated[
+        Path | None, typer.Option("--out", help="File to write; default stdout.")
+    ] = None,
+) -> None:
+    """Write the ledger's head (event number and hash) to keep outside the database.
+
+    Keep anchors where the database's users cannot change them (send one with each
+    return report); `tracker ledger verify --anchor FILE` later proves that no newer
+    events than the anchor's were cut off the ledger.
+    """
+    with database(ctx) as db:
+        if out is None:
+            typer.echo(ledger.current_anchor(db).to_text(), nl=False)
+            return
+        kept = ledger.write_anchor(db, out)
+    emit(
+        ctx,
+        {"out": str(out), "seq": kept.seq, "hash": kept.hash, "taken_at": kept.taken_at},
+        lambda: f"anchored event #{kept.seq} {kept.hash} in {out}",
+    )
+
+
+@ledger_app.command("list", epilog="Example: tracker ledger list --limit 20 --action powder")
+def ledger_list(
+    ctx: typer.Context,
+    limit: Annotated[int, typer.Option("--limit", min=1, help="How many, newest first.")] = 30,
+    action: Annotated[
+        str | None, typer.Option("--action", help="Actions starting with this.")
+    ] = None,
+) -> None:
+    """List recent custody events."""
+    with database(ctx) as db:
+        events = ledger.recent_events(db, limit, action)
+    emit(ctx, events, lambda: history_table(events))
+
+
+@ledger_app.command("export", epilog="Example: tracker ledger export --out ledger.jsonl")
+def ledger_export(
+    ctx: typer.Context,
+    out: Annotated[
+        Path | None, typer.Option("--out", help="File to write; default stdout.")
+    ] = None,
+) -> None:
+    """Write the ledger as JSON Lines, each field exactly as hashed (see README)."""
+    with database(ctx) as db:
+        if out is None:  # the JSON Lines themselves are the output
+            count = ledger.export_jsonl(db, sys.stdout)
+            errors.print(f"exported {count} events")
+            return
+        try:
+            handle = out.open("w", encoding="utf-8")
+        except OSError as error:
+            raise InputError("--out", str(out), f"cannot be written ({error.strerror})") from None
+        with handle:
+            count = ledger.export_jsonl(db, handle)
+    emit(ctx, {"events": count, "out": str(out)}, lambda: f"exported {count} events to {out}")
