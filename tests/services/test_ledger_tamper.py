@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from collections.abc import Iterator
+from datetime import datetime, timedelta
 
 import pytest
 from sqlalchemy import text
@@ -100,3 +101,36 @@ def test_swapped_events_are_found(busy: Database) -> None:
         conn.execute(text("UPDATE custody_event SET seq = 5 WHERE seq = -1"))
     report = verify(busy)
     assert not report.ok and report.broken_seq == 4
+
+
+def test_a_back_dated_event_is_found(busy: Database) -> None:
+    """Moving an event one second earlier breaks it, whichever way the backend stores time."""
+    with busy.engine.connect() as conn:
+        at = conn.execute(text("SELECT at FROM custody_event WHERE seq = 5")).scalar_one()
+    earlier = at - timedelta(seconds=1) if isinstance(at, datetime) else _sqlite_minus_one(at)
+    with busy.engine.begin() as conn:
+        conn.execute(text("UPDATE custody_event SET at = :at WHERE seq = 5"), {"at": earlier})
+    report = verify(busy)
+    assert not report.ok and report.broken_seq == 5 and "altered" in (report.reason or "")
+
+
+def _sqlite_minus_one(stored: str) -> str:
+    moment = datetime.strptime(stored, "%Y-%m-%d %H:%M:%S.%f") - timedelta(seconds=1)
+    return moment.strftime("%Y-%m-%d %H:%M:%S.%f")
+
+
+@pytest.mark.parametrize("reshape", ["drop microseconds", "add an offset"])
+def test_a_time_stored_in_another_shape_counts_as_altered(db: Database, reshape: str) -> None:
+    """SQLite keeps time as text; tracker always writes it with microseconds, so text in
+    another shape was not written by tracker (verify reads the text, it does not reparse)."""
+    if db.backend != "sqlite":
+        pytest.skip("PostgreSQL stores timestamps, not text")
+    make.loan(db)
+    with db.engine.begin() as conn:
+        conn.execute(text("DROP TRIGGER custody_event_no_update"))
+        stored = conn.execute(text("SELECT at FROM custody_event WHERE seq = 2")).scalar_one()
+        assert len(stored) == 26 and stored[10] == " "  # how SQLAlchemy stores it
+        other = stored[:19] if reshape == "drop microseconds" else f"{stored}+00:00"
+        conn.execute(text("UPDATE custody_event SET at = :at WHERE seq = 2"), {"at": other})
+    report = verify(db)
+    assert not report.ok and report.broken_seq == 2

@@ -271,3 +271,17 @@ def test_canonical_json_properties(payload: dict[str, object]) -> None:
     assert json.loads(text, object_pairs_hook=_keys_sorted) == payload
     assert "\n" not in text
     assert canonical_json(json.loads(text)) == text  # idempotent
+
+
+def test_a_line_feed_inside_a_field_counts_as_altered_even_when_its_hash_fits() -> None:
+    """Fields are joined by line feeds, so a field holding one could pose as two; the
+    canonical form forbids them (module docstring), so verification refuses the event."""
+    rows = build_chain(3)
+    forged = replace(rows[2], operator="tech\nboss")
+    text = "\n".join(
+        ("tracker-ledger/1", "3", forged.at, "tech\nboss", forged.action, forged.object_ref,
+         forged.parent_ref, forged.prev_hash, forged.payload)
+    )  # fmt: skip
+    rows[2] = replace(forged, hash=hashlib.sha256(text.encode()).hexdigest())
+    report = verify_chain(rows)
+    assert not report.ok and report.broken_seq == 3 and report.events == 2
