@@ -57,7 +57,7 @@ def _stamp_column(backend: str) -> ColumnElement[Any]:
     hash: tracker never writes it. PostgreSQL gives timestamps, formatted in Python.
     """
     if backend != "sqlite":
-        return CustodyEvent.at
+        return CustodyEvent.at.expression
     raw = type_coerce(CustodyEvent.at, String)
     canonical = and_(func.length(raw) == 26, func.substr(raw, 11, 1) == " ")
     iso = func.substr(raw, 1, 10) + "T" + func.substr(raw, 12) + "Z"
@@ -156,17 +156,17 @@ class LedgerLine(BaseModel):
 def export_jsonl(db: Database, out: TextIO) -> int:
     """Write one JSON object per event, fields exactly as hashed; returns the count."""
     count = 0
-    for row in _rows(db):
+    for seq, at, operator, action, object_ref, parent_ref, payload, prev_hash, digest in _rows(db):
         record = {
-            "seq": row.seq,
-            "at": row.at if isinstance(row.at, str) else iso_utc(row.at),
-            "operator": row.operator,
-            "action": row.action,
-            "object": row.object_ref,
-            "parent": row.parent_ref,
-            "prev_hash": row.prev_hash,
-            "payload": row.payload,
-            "hash": row.hash,
+            "seq": seq,
+            "at": at if isinstance(at, str) else iso_utc(at),
+            "operator": operator,
+            "action": action,
+            "object": object_ref,
+            "parent": parent_ref,
+            "prev_hash": prev_hash,
+            "payload": payload,
+            "hash": digest,
         }
         out.write(json.dumps(record, ensure_ascii=False) + "\n")
         count += 1
