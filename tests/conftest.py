@@ -17,6 +17,7 @@ from pathlib import Path
 from typing import Any
 
 import pytest
+from hypothesis import settings
 from sqlalchemy import create_engine, func, select, text
 from sqlalchemy.engine import make_url
 
@@ -27,6 +28,13 @@ from tracker.domain.models import CustodyEvent
 from tracker.services import setup
 
 START = datetime(2026, 1, 5, 9, 0, tzinfo=UTC)
+
+# CI runs the same generated cases every time (derandomized: a red run is a change in the
+# code, not a new draw); a developer's run explores new cases. TRACKER_HYPOTHESIS=ci picks
+# the CI profile (.ci/run sets it); a case found locally belongs in a plain regression test.
+settings.register_profile("ci", derandomize=True, database=None, print_blob=True)
+if os.environ.get("TRACKER_HYPOTHESIS"):
+    settings.load_profile(os.environ["TRACKER_HYPOTHESIS"])
 
 
 @dataclass

@@ -72,6 +72,8 @@ BAD_FILES = [  # (id, change, field the refusal names, words of its reason)
     ("empty", lambda e: _set(e, L + 6, R4440, ""), f"row {L + 6}, column {R4440}", "empty"),
     ("duplicate run", lambda e: _set(e, L + 5, "Seq#", "104"), f"row {L + 5}, column Seq#",
      f"repeats row {L + 4}"),
+    ("huge run", lambda e: _set(e, L + 5, "Seq#", "9.223372036854776e+18"),  # hypothesis found
+     f"row {L + 5}, column Seq#", "beyond 999,999,999 runs"),
     ("missing column", lambda e: _drop_column(e, E4442), "--profile", "the file has: "),
     ("no standard after", lambda e: _drop_line(e, L + 7), f"row {L + 6}, column Vial label",
      "no bracketing standard measured after"),

@@ -278,6 +278,9 @@ def _read(
     return sorted(result, key=lambda item: item[1])
 
 
+MAX_RUN = 999_999_999  # far beyond any session; keeps run numbers inside a 64-bit column
+
+
 def _run_order(row: Row, column: str) -> int:
     text = row.cells[column]
     try:
@@ -288,6 +291,8 @@ def _run_order(row: Row, column: str) -> int:
         ) from None
     if not value.is_integer():
         raise InputError(f"row {row.number}, column {column}", text, "is not a whole number")
+    if abs(value) > MAX_RUN:
+        raise InputError(f"row {row.number}, column {column}", text, f"is beyond {MAX_RUN:,} runs")
     return int(value)
 
 
