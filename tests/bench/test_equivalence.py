@@ -131,7 +131,9 @@ def test_the_bulk_executor_writes_the_same_chain_on_postgresql(
     pg_server: str, both: tuple[Built, Built]
 ) -> None:
     name = f"tracker_bench_{os.getpid()}"
-    admin = create_engine(make_url(pg_server).set(database="postgres"), isolation_level="AUTOCOMMIT")
+    admin = create_engine(
+        make_url(pg_server).set(database="postgres"), isolation_level="AUTOCOMMIT"
+    )
     with admin.connect() as connection:
         connection.execute(text(f"DROP DATABASE IF EXISTS {name}"))
         connection.execute(text(f"CREATE DATABASE {name}"))

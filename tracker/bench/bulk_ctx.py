@@ -11,16 +11,18 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from datetime import datetime
-from typing import Any
+from typing import Any, TypeVar
 
 from tracker.bench.bulk_state import State
 from tracker.bench.bulk_writer import BulkWriter
-from tracker.domain.base import HasPublicId
+from tracker.domain.base import Base, HasPublicId
 from tracker.domain.errors import InputError
 from tracker.domain.ledger import canonical_json, event_hash
 from tracker.domain.models import CustodyEvent, Label, LabelStatus, Location, Operator
 from tracker.domain.timeutil import as_utc, iso_utc
 from tracker.services.common import CLOCK_SKEW
+
+T = TypeVar("T", bound=Base)
 
 
 @dataclass
@@ -44,9 +46,9 @@ class Ctx:
     def place(self, text: str | None, field: str = "location") -> Location | None:
         return self.state.get(Location, field, text) if text else None
 
-    def new(self, obj: Any) -> Any:
+    def new(self, obj: T) -> T:
         """Give a new object the next primary key of its table, remember it, write it later."""
-        obj.id = self.state.take_id(type(obj))
+        obj.id = self.state.take_id(type(obj))  # type: ignore[attr-defined]  # every table has one
         self.state.keep(obj)
         self.writer.add(obj)
         return obj

@@ -179,9 +179,7 @@ def add_position(ctx: Ctx, args: dict[str, Any]) -> BatchPosition:
     request = parse(AddPosition, args)
     batch = ctx.state.get(ColumnBatch, "batch", request.batch)
     slot = 1 + max((p.slot for p in batch.positions), default=0)
-    position = BatchPosition(
-        batch_id=batch.id, slot=slot, kind=request.kind, created_at=ctx.now
-    )
+    position = BatchPosition(batch_id=batch.id, slot=slot, kind=request.kind, created_at=ctx.now)
     holds = None
     if request.aliquot:
         aliquot = ctx.state.get(Aliquot, "aliquot", request.aliquot)

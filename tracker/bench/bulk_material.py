@@ -157,9 +157,7 @@ def drill(ctx: Ctx, args: dict[str, Any]) -> Powder:
     require_on_hand(specimen)
     when = ctx.when(request.drilled_at, "drilled-at")
     terms = terms_in_force(specimen.loan.terms, when.date())
-    violations = check_drill(
-        limits_of(terms), _usage(specimen), request.tissue, mass, when.date()
-    )
+    violations = check_drill(limits_of(terms), _usage(specimen), request.tissue, mass, when.date())
     if violations and not (request.override_reason and ctx.operator.role.value == "manager"):
         raise RuleViolation("drilled-mass", f"{mass.value} mg", violations[0].message)
     if request.override_reason and not violations:
@@ -250,7 +248,9 @@ def _residual(request: Dispose, item: Any, outcome: ContainerStatus) -> dict[str
     if outcome is ContainerStatus.CONSUMED:
         raise InputError("residual-gross", None, "a consumed vial is empty; nothing to weigh")
     if not isinstance(item, Powder | Solution):
-        raise InputError("item", item.public_id, "residual weighings apply to powders and solutions")
+        raise InputError(
+            "item", item.public_id, "residual weighings apply to powders and solutions"
+        )
     default = MICROBALANCE_MG if isinstance(item, Powder) else ANALYTICAL_BALANCE_MG
     assert request.residual_tare is not None and request.residual_gross is not None
     mass = weigh(

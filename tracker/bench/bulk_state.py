@@ -108,7 +108,7 @@ class State:
             ).first()
             self.head_seq, self.head_hash = (head[0], head[1]) if head else (0, "")
             for model in _COUNTED:
-                top = session.scalar(select(func.max(model.id)))  # type: ignore[attr-defined]
+                top = session.scalar(select(func.max(model.id)))
                 self.next_id[model] = max(self.next_id.get(model, 1), (top or 0) + 1)
             if not self.operators:
                 for row in session.scalars(select(Operator)):

@@ -18,7 +18,7 @@ from collections.abc import Callable
 from dataclasses import dataclass
 from typing import Any
 
-from sqlalchemy import Table, bindparam, inspect, insert, update
+from sqlalchemy import Table, bindparam, insert, inspect, update
 from sqlalchemy.engine import Connection
 
 from tracker.db.database import Database
@@ -45,10 +45,10 @@ def _columns(model: type[Base]) -> tuple[Table, list[_Column]]:
         default = column.default
         make: Callable[[], Any] | None = None
         if default is not None and default.is_callable:
-            arg = default.arg  # type: ignore[attr-defined]
+            arg = default.arg
             make = lambda arg=arg: arg(None)  # noqa: E731
         elif default is not None and default.is_scalar:
-            value = default.arg  # type: ignore[attr-defined]
+            value = default.arg
             make = lambda value=value: value  # noqa: E731
         found.append(_Column(prop.key, column.key, make))
     return table, found

@@ -14,6 +14,7 @@ import json
 import random
 import shutil
 import sqlite3
+from functools import partial
 from pathlib import Path
 from typing import Any
 
@@ -69,7 +70,7 @@ def _floor(path: Path, loan_id: int, content: bytes, created: str) -> None:
     marks = ", ".join("?" * (len(COLUMNS) + 4))
     connection = sqlite3.connect(path)
     with connection:
-        connection.executemany(f"INSERT INTO specimen ({names}) VALUES ({marks})", rows)  # noqa: S608
+        connection.executemany(f"INSERT INTO specimen ({names}) VALUES ({marks})", rows)
     connection.close()
 
 
@@ -87,12 +88,12 @@ def manifest_figure(cached: Path, workdir: Path, repeat: int) -> Figure:
             request = {"loan": format_id(Kind.LOAN, ours), "filename": "synthetic-list.csv",
                        "content": content}  # fmt: skip
             outcome: list[manifests.ManifestOutcome] = []
-            best = min(best, timed(lambda r=request: outcome.append(
-                manifests.import_manifest(db, FOUNDER["code"], r))))  # fmt: skip
+            importing = partial(manifests.import_manifest, db, FOUNDER["code"], request)
+            best = min(best, timed(lambda: outcome.append(importing())))  # noqa: B023
             if len(outcome[0].created) != ROWS or outcome[0].event_seq is None:
                 raise RuntimeError("the manifest import did not create every row")
             stamp = clock.now.strftime("%Y-%m-%d %H:%M:%S.%f")
-            bare = min(bare, timed(lambda t=theirs, s=stamp: _floor(work, t, content, s)))
+            bare = min(bare, timed(partial(_floor, work, theirs, content, stamp)))
             made.append((ours, theirs))
     finally:
         db.close()
@@ -117,7 +118,7 @@ def _same_rows(figure: Figure, path: Path, ours: int, theirs: int) -> None:
     columns = ", ".join([*COLUMNS.values(), "extra", "status"])
     connection = sqlite3.connect(path)
     try:
-        query = f"SELECT {columns} FROM specimen WHERE loan_id = ? ORDER BY id"  # noqa: S608
+        query = f"SELECT {columns} FROM specimen WHERE loan_id = ? ORDER BY id"
         a = connection.execute(query, (ours,)).fetchall()
         b = connection.execute(query, (theirs,)).fetchall()
     finally:

@@ -41,8 +41,11 @@ def server(url: str | None) -> Iterator[str]:
         return
     binaries = server_binaries()
     if binaries is None:
-        raise InputError("--backend", "postgresql",
-                         "no PostgreSQL server binaries here; install postgresql or give --pg-url")  # fmt: skip
+        raise InputError(
+            "--backend",
+            "postgresql",
+            "no PostgreSQL server binaries here; install it or give --pg-url",
+        )
     with private_cluster(binaries, *SERVER_SETTINGS) as started:
         yield started
 
@@ -117,7 +120,7 @@ def _rate(target: Any, jobs: list[tuple[Any, ...]]) -> float:
     for worker in workers:
         worker.join()
     began, ended = min(r[0] for r in results), max(r[1] for r in results)
-    return sum(r[2] for r in results) / (ended - began)
+    return float(sum(r[2] for r in results) / (ended - began))
 
 
 def drills_figure(db: Database, url: str) -> Figure:

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import math
 import random
+from functools import partial
 from typing import Any
 
 from tracker.bench.measure import Figure, Target, best_of, median, percentile, timed
@@ -50,7 +51,7 @@ def raw_rows(db: Database, sql: str, params: tuple[Any, ...] = ()) -> list[Any]:
     try:
         cursor = connection.cursor()
         cursor.execute(sql.replace("?", "%s") if db.backend == "postgresql" else sql, params)
-        rows = cursor.fetchall()
+        rows = list(cursor.fetchall())
         cursor.close()
         return rows
     finally:
@@ -96,7 +97,7 @@ _SCANNED_KINDS = {
 def sample_ids(db: Database, count: int, seed: int = 7) -> list[tuple[Kind, int]]:
     """Random labelled items across the kinds a scanner meets at the bench."""
     rng = random.Random(seed)
-    tops = {kind: int(raw_rows(db, f"SELECT MAX(id) FROM {table}")[0][0] or 0)  # noqa: S608
+    tops = {kind: int(raw_rows(db, f"SELECT MAX(id) FROM {table}")[0][0] or 0)
             for kind, table in _SCANNED_KINDS.items()}  # fmt: skip
     kinds = [kind for kind, top in tops.items() if top]
     return [(kind, rng.randint(1, tops[kind])) for kind in (rng.choice(kinds)
@@ -117,9 +118,9 @@ def lookup_figure(db: Database, count: int = 1000, warm: int = 20) -> Figure:
     bare: list[float] = []
     for n, (kind, number) in enumerate(picks[warm:]):
         text = scanned(kind, number, n)
-        took.append(timed(lambda text=text: labels.read_scan(db, text)))
-        sql = f"SELECT * FROM {_SCANNED_KINDS[kind]} WHERE id = ?"  # noqa: S608
-        bare.append(timed(lambda sql=sql, number=number: raw_rows(db, sql, (number,))))
+        took.append(timed(partial(labels.read_scan, db, text)))
+        sql = f"SELECT * FROM {_SCANNED_KINDS[kind]} WHERE id = ?"
+        bare.append(timed(partial(raw_rows, db, sql, (number,))))
     figure = Figure("lookup", f"scanned-ID lookup, p99 of {count}", "ms",
                     percentile(took, 0.99) * 1000, percentile(bare, 0.99) * 1000,
                     "the row by primary key, raw driver", Target(most=5.0))  # fmt: skip

@@ -59,9 +59,10 @@ def private_cluster(binaries: Path, *settings: str) -> Iterator[str]:
     if os.geteuid() == 0:
         shutil.chown(root, "postgres", "postgres")
     data, port = root / "data", _free_port()
-    run = lambda *args: subprocess.run(  # noqa: E731
-        _as_postgres([str(a) for a in args]), check=True, capture_output=True
-    )
+
+    def run(*args: object) -> None:
+        subprocess.run(_as_postgres([str(a) for a in args]), check=True, capture_output=True)
+
     options = " ".join(
         [f"-c listen_addresses=127.0.0.1 -p {port} -k {root} -c fsync=off"]
         + [f"-c {setting}" for setting in settings]

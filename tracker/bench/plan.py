@@ -104,11 +104,13 @@ def setup_steps(shape: Shape, ids: Ids, world: World) -> Iterator[Step]:
     yield from _places(clock, ids, world)
     for name in (STANDARD, *REFERENCES):
         matrix = "synthetic solution" if name == STANDARD else "synthetic powder"
-        args = {"name": name, "element": "Ca", "matrix": matrix}
-        yield Step(clock.tick(), founder, "reference", args, ids.take(Kind.REFERENCE_MATERIAL))
+        made: dict[str, Any] = {"name": name, "element": "Ca", "matrix": matrix}
+        yield Step(clock.tick(), founder, "reference", made, ids.take(Kind.REFERENCE_MATERIAL))
     for name, value in REFERENCES.items():
-        args = {"reference": name, "ratio": RATIO, "scale": STANDARD, "value": value,
-                "two_sd": 0.15, "source": "synthetic long-term record (invented)"}  # fmt: skip
+        args: dict[str, Any] = {
+            "reference": name, "ratio": RATIO, "scale": STANDARD, "value": value,
+            "two_sd": 0.15, "source": "synthetic long-term record (invented)",
+        }  # fmt: skip
         yield Step(clock.tick(), founder, "reference_value", args)
     yield Step(clock.tick(), founder, "profile", {"name": PROFILE, "definition": PROFILE_DEF})
     for number in range(1, shape.lenders + 1):

@@ -13,8 +13,16 @@ from dataclasses import dataclass, field
 from datetime import datetime, timedelta
 from typing import Any
 
-from tracker.bench.plan import MANAGERS, PROFILE, REFERENCES, STANDARD, TECHNICIANS, Ids, Step
-from tracker.bench.plan import World
+from tracker.bench.plan import (
+    MANAGERS,
+    PROFILE,
+    REFERENCES,
+    STANDARD,
+    TECHNICIANS,
+    Ids,
+    Step,
+    World,
+)
 from tracker.bench.plan_session import Target, session_csv
 from tracker.bench.shape import (
     BATCHES_PER_SESSION,
@@ -172,8 +180,13 @@ class LoanPlanner:
             self.emit(self.tech(), "move", {"item": vial.id, "to": bench})
             for n, mass in enumerate(masses):
                 tare = self.rng.randint(800_000, 1_600_000)
-                args = {"specimen": vial.id, "tissue": self.rng.choice(self.tissues),
-                        "site": f"site {n + 1}", "tare": mg(tare), "gross": mg(tare + mass)}
+                args = {
+                    "specimen": vial.id,
+                    "tissue": self.rng.choice(self.tissues),
+                    "site": f"site {n + 1}",
+                    "tare": mg(tare),
+                    "gross": mg(tare + mass),
+                }
                 made = self.emit(self.tech(), "drill", args, Kind.POWDER)
                 self.powders.append(Vial(made, "powder", mass=mass))
             vial.place = home
@@ -185,8 +198,12 @@ class LoanPlanner:
         flags = [p for row in self.partial for p in row[: len(row)]]
         for powder, partial in zip(self.powders, flags, strict=True):
             tare, units = self.rng.randint(50_000, 60_000), self.rng.randint(8_000, 15_000)
-            args: dict[str, Any] = {"powder": powder.id, "acid": "2 M HNO3",
-                                    "vial_tare": grams(tare), "vial_gross": grams(tare + units)}
+            args: dict[str, Any] = {
+                "powder": powder.id,
+                "acid": "2 M HNO3",
+                "vial_tare": grams(tare),
+                "vial_gross": grams(tare + units),
+            }
             taken = powder.mass
             if partial:
                 taken = int(powder.mass * self.rng.uniform(0.6, 0.9))
@@ -300,19 +317,43 @@ class LoanPlanner:
             return []
         drafts: list[tuple[str, str, dict[str, Any]]] = []
         for vial in self.specimens:
-            drafts.append((self.tech(), "return", {
-                "specimen": vial.id, "condition": "as received; drilled where recorded"}))
+            drafts.append(
+                (
+                    self.tech(),
+                    "return",
+                    {"specimen": vial.id, "condition": "as received; drilled where recorded"},
+                )
+            )
         for powder in (p for p in self.powders if p.mass > 0):
             tare = self.rng.randint(800_000, 1_600_000)
-            drafts.append((self.tech(), "dispose", {
-                "item": powder.id, "outcome": "returned", "reason": "unused powder goes home",
-                "residual_tare": mg(tare), "residual_gross": mg(tare + powder.mass)}))
+            drafts.append(
+                (
+                    self.tech(),
+                    "dispose",
+                    {
+                        "item": powder.id,
+                        "outcome": "returned",
+                        "reason": "unused powder goes home",
+                        "residual_tare": mg(tare),
+                        "residual_gross": mg(tare + powder.mass),
+                    },
+                )
+            )
         for solution in self.solutions:
             tare = self.rng.randint(50_000, 60_000)
-            drafts.append((self.tech(), "dispose", {
-                "item": solution.id, "outcome": "destroyed",
-                "reason": "residual solution destroyed as the terms require",
-                "residual_tare": grams(tare), "residual_gross": grams(tare + solution.mass)}))
+            drafts.append(
+                (
+                    self.tech(),
+                    "dispose",
+                    {
+                        "item": solution.id,
+                        "outcome": "destroyed",
+                        "reason": "residual solution destroyed as the terms require",
+                        "residual_tare": grams(tare),
+                        "residual_gross": grams(tare + solution.mass),
+                    },
+                )
+            )
         loan = self.steps[0].makes
         drafts.append((self.rng.choice(MANAGERS), "loan_returned", {"loan": loan}))
         step = timedelta(seconds=30)

@@ -37,12 +37,12 @@ def session_csv(targets: list[Target], duplicates: int, extra: int, rng: random.
         order += [cut, None]
     order += [None] * extra
     lines = ["Run,Sample,44Ca/40Ca,2SE"]
-    for run, cut in enumerate(order, start=1):
+    for run, vial in enumerate(order, start=1):
         base = STANDARD_RATIO * (1 + DRIFT_PER_RUN * run)
-        if cut is None:
+        if vial is None:
             name, ratio = STANDARD, base * (1 + rng.gauss(0, 2e-6))
         else:
-            name, ratio = cut, base * (1 + (truth[cut] + rng.gauss(0, 0.03)) / 1000)
+            name, ratio = vial, base * (1 + (truth[vial] + rng.gauss(0, 0.03)) / 1000)
         lines.append(f"{run},{name},{ratio:.8f},{rng.uniform(1.5e-5, 3e-5):.7f}")
     return ("\n".join(lines) + "\n").encode("utf-8")
 

@@ -2,8 +2,9 @@
 
 ``python -m tracker.bench.probe verify TARGET`` times ``ledger.verify``;
 ``python -m tracker.bench.probe verify-floor FILE`` times the bare loop (raw ``sqlite3`` and
-``hashlib``, nothing of tracker imported). Each prints one JSON line; the parent reads the
-child's peak resident memory from the operating system when it ends.
+``hashlib``, nothing of tracker imported). Each prints one JSON line with its own peak
+resident memory (``VmHWM``). The child must say it: the kernel's ``ru_maxrss`` for a child
+also counts the parent's pages it carried between fork and exec.
 """
 
 from __future__ import annotations
@@ -49,11 +50,27 @@ def tracker_verify(target: str) -> dict[str, object]:
     return {"events": report.events, "ok": report.ok, "head": report.head_hash}
 
 
+def peak_mb() -> float:
+    """This process's peak resident memory in MB: VmHWM on Linux, ru_maxrss elsewhere."""
+    from pathlib import Path
+
+    try:
+        for line in Path("/proc/self/status").read_text(encoding="ascii").splitlines():
+            if line.startswith("VmHWM:"):
+                return int(line.split()[1]) / 1024  # kB
+    except OSError:
+        pass
+    import resource
+
+    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+
+
 def main(argv: list[str]) -> int:
     what, target = argv[1], argv[2]
     started = time.perf_counter()
     answer = bare_verify(target) if what == "verify-floor" else tracker_verify(target)
     answer["seconds"] = time.perf_counter() - started
+    answer["peak_mb"] = peak_mb()
     print(json.dumps(answer), flush=True)
     return 0
 

@@ -116,7 +116,7 @@ def shape_for(scale: float, seed: int = SEED, loans: int | None = None) -> Shape
     duplicates, extra = _measurement_fill(batches, sessions, scaled(MEASUREMENTS, scale))
     events = math.ceil(EVENTS * scale * EVENT_MARGIN)
     step = (END - FIRST_LOAN) / n_loans
-    loans = tuple(
+    loan_shapes = tuple(
         LoanShape(
             index=i, start=FIRST_LOAN + step * i, length=step, powders=tuple(powders[i]),
             aliquots=tuple(tuple(a) for a in aliquots[i]), batches=batches[i],
@@ -127,7 +127,7 @@ def shape_for(scale: float, seed: int = SEED, loans: int | None = None) -> Shape
     )  # fmt: skip
     return Shape(
         scale=scale,
-        loans=loans,
+        loans=loan_shapes,
         lenders=min(scaled(LENDERS, scale), n_loans),
         measurements=scaled(MEASUREMENTS, scale),
         events=events,

@@ -81,9 +81,10 @@ def generate(
         raise InputError("--executor", executor, "the cache is built in bulk; give --out FILE")
     else:
         built = gen.cached(_cache(cache), value, rebuild=rebuild, progress=progress)
+    said = "reused" if built.reused else "built"
     emit(ctx, built.__dict__, lambda: (
-        f"{'reused' if built.reused else 'built'} {built.target}: scale {built.scale:g}, "
-        f"{built.events:,} events, head {built.head_hash[:16]}… ({built.seconds:.0f} s)"))  # fmt: skip
+        f"{said} {built.target}: scale {built.scale:g}, {built.events:,} events, "
+        f"head {built.head_hash[:16]}… ({built.seconds:.0f} s)"))  # fmt: skip
 
 
 def run(
