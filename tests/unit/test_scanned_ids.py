@@ -5,7 +5,15 @@ from __future__ import annotations
 import pytest
 from stdnum.iso7064 import mod_37_2  # independent ISO/IEC 7064 implementation
 
-from tracker.domain.ids import BadId, Kind, PublicId, looks_like_id, parse_id, strip_uri_prefix
+from tracker.domain.ids import (
+    BadId,
+    Kind,
+    PublicId,
+    is_link,
+    looks_like_id,
+    parse_id,
+    strip_uri_prefix,
+)
 from tracker.domain.labels import qr_payload, uri_prefix_problem
 
 PREFIX = "HTTPS://LAB.EXAMPLE/T/"  # invented
@@ -70,3 +78,19 @@ def test_payload_is_the_upper_case_id_behind_the_prefix() -> None:
 )
 def test_uri_prefix_rules(prefix: str, ok: bool) -> None:
     assert (uri_prefix_problem(prefix) is None) is ok
+
+
+@pytest.mark.parametrize(
+    ("text", "link"),
+    [("SP-00042-E", False), ("sp00042e", False), (" SP 00042 E ", False),
+     (PREFIX + "SP-00042-E", True), ("urn:tracker:SP-00042-E", True), ("  ftp://x/SP", True)],
+)  # fmt: skip
+def test_only_a_link_needs_the_prefix_and_every_prefix_is_a_link(text: str, link: bool) -> None:
+    """Scans skip reading the prefix setting for bare IDs: safe only because every valid
+    prefix starts with a scheme, so a text that is no link can never start with one."""
+    assert is_link(text) is link
+    assert uri_prefix_problem(PREFIX) is None and is_link(PREFIX)
+    if not link:
+        assert parse_id(text, PREFIX) == parse_id(text, None) == PublicId(Kind.SPECIMEN, 42)
+    for not_a_link in ("LAB.EXAMPLE/T/", "SP-", "/t/"):
+        assert uri_prefix_problem(not_a_link) is not None

@@ -137,6 +137,12 @@ def strip_uri_prefix(text: str, uri_prefix: str | None = None) -> str:
     return text
 
 
+def is_link(text: str) -> bool:
+    """Does ``text`` start with a URI scheme? Only then can the lab's URI prefix matter
+    (prefixes must start with one), so a bare ID is read without looking the prefix up."""
+    return _URI.match(text.strip()) is not None
+
+
 def parse_id(text: str, uri_prefix: str | None = None) -> PublicId:
     """Read an ID typed or scanned in any case, with or without separators; verify its check."""
     cleaned = _CLEAN.sub("", strip_uri_prefix(text, uri_prefix)).upper()

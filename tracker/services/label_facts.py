@@ -115,6 +115,11 @@ def facts_of(session: Session, row: Labelled) -> LabelFacts:
     )
 
 
+def label_lines(session: Session, row: Labelled) -> list[str]:
+    """The human-readable lines of an item's label (without its QR payload)."""
+    return [line for line in _lines(session, row) if line]
+
+
 def _lines(session: Session, row: Labelled) -> list[str]:
     match row:
         case Specimen():

@@ -20,7 +20,14 @@ from tracker.domain.labels import LabelFacts, uri_prefix_problem
 from tracker.domain.models import Label, LabelSetting, LabelStatus
 from tracker.services.common import finish
 from tracker.services.inputs import Raw, Request, parse
-from tracker.services.label_facts import LABELLED, Labelled, facts_of, labelled_item, preload
+from tracker.services.label_facts import (
+    LABELLED,
+    Labelled,
+    facts_of,
+    label_lines,
+    labelled_item,
+    preload,
+)
 from tracker.services.label_queue import queue_label, queued_labels
 from tracker.services.lineage import ancestors_of, node_of
 from tracker.services.lineage_load import load_for_scan
@@ -28,6 +35,7 @@ from tracker.services.lookup import (
     URI_PREFIX_KEY,
     forget_uri_prefix,
     get_any,
+    prefix_for,
     uri_prefix,
 )
 from tracker.services.uow import unit_of_work
@@ -240,11 +248,11 @@ def read_scan(db: Database, scanned: str) -> ScanView:
     with db.read_session() as session:
         if not scanned.strip():
             raise InputError("scanned", scanned, "is empty; scan a label or type an ID")
-        load_for_scan(session, scanned, uri_prefix(session))
+        load_for_scan(session, scanned, prefix_for(session, scanned))
         row = get_any(session, "scanned", scanned)
         node = node_of(row, with_children=False)
         # a loan or an operator has an ID but wears no label
-        lines = list(facts_of(session, row).lines) if isinstance(row, LABELLED) else []
+        lines = label_lines(session, row) if isinstance(row, LABELLED) else []
         location = getattr(row, "location", None)
         return ScanView(
             scanned=scanned,

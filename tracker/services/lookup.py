@@ -9,7 +9,7 @@ from sqlalchemy.orm import Session
 
 from tracker.domain.base import Base, HasPublicId
 from tracker.domain.errors import InputError, NotFound
-from tracker.domain.ids import BadId, Kind, PublicId, parse_id
+from tracker.domain.ids import BadId, Kind, PublicId, is_link, parse_id
 from tracker.domain.models import (
     Aliquot,
     BatchPosition,
@@ -72,6 +72,12 @@ def uri_prefix(session: Session) -> str | None:
     return value if isinstance(value, str) else None
 
 
+def prefix_for(session: Session, text: str) -> str | None:
+    """The URI prefix that reading ``text`` needs: none for a bare ID (the common scan),
+    so the setting is only read for a link."""
+    return uri_prefix(session) if is_link(text) else None
+
+
 def forget_uri_prefix(session: Session) -> None:
     """Drop the cached prefix after the setting changed in this session."""
     session.info.pop(_CACHE_KEY, None)
@@ -86,7 +92,7 @@ def read_id(field: str, text: str, prefix: str | None = None) -> PublicId:
 
 def get_any(session: Session, field: str, text: str) -> HasPublicId:
     """The row a public ID names, whatever its kind."""
-    public = read_id(field, text, uri_prefix(session))
+    public = read_id(field, text, prefix_for(session, text))
     row = session.get(MODEL_BY_KIND[public.kind], public.number)
     if row is None:
         raise NotFound(field, text, f"no {public.kind.name.lower().replace('_', ' ')} has this ID")
@@ -96,7 +102,7 @@ def get_any(session: Session, field: str, text: str) -> HasPublicId:
 
 def get_by_id(session: Session, model: type[T], field: str, text: str) -> T:
     """The row of a given kind; an ID of another kind is refused by name."""
-    public = read_id(field, text, uri_prefix(session))
+    public = read_id(field, text, prefix_for(session, text))
     expected = model.id_kind  # type: ignore[attr-defined]
     if public.kind is not expected:
         raise InputError(
@@ -113,7 +119,7 @@ def get_by_id(session: Session, model: type[T], field: str, text: str) -> T:
 
 def _kind_of(session: Session, text: str) -> Kind | None:
     try:
-        return parse_id(text, uri_prefix(session)).kind
+        return parse_id(text, prefix_for(session, text)).kind
     except BadId:
         return None
 
