@@ -221,16 +221,21 @@ def _solution_facts(row: Solution) -> tuple[str, dict[str, Any]]:
 
 
 def load_specimen_tree(session: Session, specimen_id: int) -> Specimen | None:
-    """A specimen with its whole lineage loaded in a fixed number of queries."""
+    """A specimen with its whole lineage loaded in a fixed number of queries (each column's
+    batch and reference material and each cut's results included: the tree describes them)."""
+    positions = (
+        selectinload(Specimen.powders)
+        .selectinload(Powder.solutions)
+        .selectinload(Solution.aliquots)
+        .selectinload(Aliquot.positions)
+    )
     query = (
         select(Specimen)
         .where(Specimen.id == specimen_id)
         .options(
-            selectinload(Specimen.powders)
-            .selectinload(Powder.solutions)
-            .selectinload(Solution.aliquots)
-            .selectinload(Aliquot.positions)
-            .selectinload(BatchPosition.cuts),
+            positions.selectinload(BatchPosition.cuts).selectinload(Cut.results),
+            positions.joinedload(BatchPosition.batch),
+            positions.joinedload(BatchPosition.reference_material),
             selectinload(Specimen.powders)
             .selectinload(Powder.solutions)
             .selectinload(Solution.concentrations),
