@@ -119,19 +119,23 @@ def _rate(target: Any, jobs: list[tuple[Any, ...]]) -> float:
     results = [out.get(timeout=600) for _ in workers]
     for worker in workers:
         worker.join()
+    failed = [r[1] for r in results if r[0] == "failed"]
+    if failed:
+        raise RuntimeError(f"a benchmark client failed: {failed[0]}")
     began, ended = min(r[0] for r in results), max(r[1] for r in results)
     return float(sum(r[2] for r in results) / (ended - began))
 
 
 def drills_figure(db: Database, url: str) -> Figure:
     work = _work(db)
-    need = CLIENTS * DRILLS_PER_CLIENT
-    if len(work) < need:
+    each = min(DRILLS_PER_CLIENT, len(work) // CLIENTS)  # small scales have fewer specimens
+    if each < 1:
         raise RuntimeError(f"only {len(work)} specimens can take a benchmark drill")
+    need = CLIENTS * each
     before = ledger_head(db)[0]
-    shares = [work[n::CLIENTS][:DRILLS_PER_CLIENT] for n in range(CLIENTS)]
+    shares = [work[n::CLIENTS][:each] for n in range(CLIENTS)]
     measured = _rate(drills, [(url, share, n) for n, share in enumerate(shares)])
-    bare = _rate(floor, [(url, DRILLS_PER_CLIENT) for _ in range(CLIENTS)])
+    bare = _rate(floor, [(url, each) for _ in range(CLIENTS)])
     figure = Figure("pg_drills", f"PostgreSQL: drills per second, {CLIENTS} clients",
                     "drills/s", measured, bare, "writer lock + ledger head per transaction",
                     Target(), higher_is_better=True)  # fmt: skip

@@ -18,7 +18,7 @@ TARE_MG = "1000.000 mg"
 GROSS_MG = "1000.100 mg"  # 0.1 mg of powder per drill: far inside every loan's allowance
 
 
-def drills(url: str, work: list[tuple[str, str]], start: Any, out: Any, who: int) -> None:
+def drills(url: str, work: list[tuple[str, str]], who: int, start: Any, out: Any) -> None:
     """Drill each (specimen, tissue) once; put (started, finished, count) on ``out``."""
     from tracker.db.database import open_database
     from tracker.io.demo import StepClock
@@ -33,6 +33,9 @@ def drills(url: str, work: list[tuple[str, str]], start: Any, out: Any, who: int
             drilling.drill(db, actor, {"specimen": specimen, "tissue": tissue, "tare": TARE_MG,
                                        "gross": GROSS_MG})  # fmt: skip
         out.put((began, time.time(), len(work)))
+    except Exception as exc:  # the parent waits for every client: tell it, never go silent
+        out.put(("failed", f"client {who}: {type(exc).__name__}: {exc}", 0))
+        raise
     finally:
         db.close()
 
@@ -54,6 +57,9 @@ def floor(url: str, count: int, start: Any, out: Any) -> None:
             cursor.fetchall()
             connection.commit()
         out.put((began, time.time(), count))
+    except Exception as exc:  # as in drills: the parent must hear of it
+        out.put(("failed", f"floor client: {type(exc).__name__}: {exc}", 0))
+        raise
     finally:
         connection.close()
         db.close()
