@@ -16,8 +16,6 @@ import math
 from collections.abc import Iterable
 from dataclasses import dataclass
 
-from uncertainties import ufloat
-
 COVERAGE_FACTOR = 2.0  # k = 2, about 95 % for a normal distribution (GUM 6.2)
 
 
@@ -88,7 +86,13 @@ def is_significant(amount: Amount, k: float = COVERAGE_FACTOR) -> bool:
 
 
 def element_mass_ug(solution_mass_g: Amount, fraction_ug_per_g: Amount) -> Amount:
-    """Element mass (µg) = solution mass (g) × element mass fraction (µg/g)."""
+    """Element mass (µg) = solution mass (g) × element mass fraction (µg/g).
+
+    ``uncertainties`` (and the numpy it loads) is imported here, not at the top: budgets are
+    read on every start of the interface and most of them never multiply two amounts.
+    """
+    from uncertainties import ufloat
+
     product = ufloat(solution_mass_g.value, solution_mass_g.u) * ufloat(
         fraction_ug_per_g.value, fraction_ug_per_g.u
     )

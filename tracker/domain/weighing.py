@@ -12,11 +12,12 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 from decimal import Decimal
-
-from uncertainties import ufloat
-from uncertainties.core import Variable
+from typing import TYPE_CHECKING
 
 from tracker.domain.budget import Amount, by_difference
+
+if TYPE_CHECKING:
+    from uncertainties.core import Variable
 
 
 def reading_uncertainty(readability: float) -> float:
@@ -41,6 +42,9 @@ class MassByDifference:
         return by_difference(float(self.net) * scale, float(self.readability) * scale)
 
     def as_ufloat(self) -> Variable:
+        """The net mass with its GUM uncertainty; ``uncertainties`` (and numpy) load only here."""
+        from uncertainties import ufloat
+
         tare = ufloat(float(self.tare), reading_uncertainty(float(self.readability)))
         gross = ufloat(float(self.gross), reading_uncertainty(float(self.readability)))
         result: Variable = gross - tare

@@ -124,27 +124,26 @@ def batch_of_position(db: Database, position: str) -> str:
         return get_by_id(session, BatchPosition, "position", position).batch.public_id
 
 
-def results_missing(db: Database) -> dict[str, list[str]]:
-    """Per loan (its public ID): the sampled specimens that have no result yet."""
+def results_missing_counts(db: Database) -> dict[str, int]:
+    """Per loan (its public ID): how many sampled specimens have no result yet.
+
+    One grouped statement: the overview shows only the count, and listing every specimen's
+    ID (thousands of rows at a busy lab) would be read and formatted on each start.
+    """
+    drilled = select(Powder.id).where(Powder.specimen_id == Specimen.id)
+    measured = (
+        select(Result.id)
+        .join(Cut, Cut.id == Result.cut_id)
+        .join(BatchPosition, BatchPosition.id == Cut.position_id)
+        .join(Aliquot, Aliquot.id == BatchPosition.aliquot_id)
+        .join(Solution, Solution.id == Aliquot.solution_id)
+        .join(Powder, Powder.id == Solution.powder_id)
+        .where(Powder.specimen_id == Specimen.id)
+    )
+    query = (
+        select(Specimen.loan_id, func.count())
+        .where(drilled.exists(), ~measured.exists())
+        .group_by(Specimen.loan_id)
+    )
     with db.read_session() as session:
-        sampled = session.execute(
-            select(Specimen.loan_id, Specimen.id).join(Powder, Powder.specimen_id == Specimen.id)
-            .distinct()
-        ).all()  # fmt: skip
-        measured = set(
-            session.scalars(
-                select(Powder.specimen_id)
-                .join(Solution, Solution.powder_id == Powder.id)
-                .join(Aliquot, Aliquot.solution_id == Solution.id)
-                .join(BatchPosition, BatchPosition.aliquot_id == Aliquot.id)
-                .join(Cut, Cut.position_id == BatchPosition.id)
-                .join(Result, Result.cut_id == Cut.id)
-                .distinct()
-            )
-        )
-        missing: dict[str, list[str]] = {}
-        for loan_id, specimen_id in sampled:
-            if specimen_id not in measured:
-                loan = format_id(Kind.LOAN, loan_id)
-                missing.setdefault(loan, []).append(format_id(Kind.SPECIMEN, specimen_id))
-        return missing
+        return {format_id(Kind.LOAN, loan): int(n) for loan, n in session.execute(query)}

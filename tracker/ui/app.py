@@ -25,7 +25,7 @@ from tracker.db.database import Database
 from tracker.domain.errors import InputError, TrackerError
 from tracker.domain.ids import BadId, Kind, parse_id
 from tracker.domain.timeutil import Clock, utcnow
-from tracker.services import browse, labels, setup
+from tracker.services import browse, setup
 from tracker.services.views import OperatorView
 from tracker.ui import settings
 from tracker.ui.messages import ScanFailed, ScanResolved
@@ -331,6 +331,8 @@ class TrackerApp(App[None]):
 
     @work(thread=True, exclusive=True, group="scan")
     def scan_lookup(self, text: str) -> None:
+        from tracker.services import labels  # heavy (lineage, label facts): not on start-up
+
         if self.db is None:
             return
         try:

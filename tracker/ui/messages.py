@@ -3,10 +3,14 @@ messages that carry its own data (``OverviewScreen.Loaded`` ...)."""
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING
+
 from textual.message import Message
 
 from tracker.domain.errors import TrackerError
-from tracker.services.labels import ScanView
+
+if TYPE_CHECKING:  # the label services are heavy; only the scan worker needs them loaded
+    from tracker.services.labels import ScanView
 
 
 class Refused(Message):

@@ -30,7 +30,7 @@ class OverviewScreen(Screen[None]):
     ]
 
     class Loaded(Message):
-        def __init__(self, lines: list[LoanLine], missing: dict[str, list[str]]) -> None:
+        def __init__(self, lines: list[LoanLine], missing: dict[str, int]) -> None:
             super().__init__()
             self.lines, self.missing = lines, missing
 
@@ -61,7 +61,7 @@ class OverviewScreen(Screen[None]):
         try:
             db = database(self)
             lines = reconcile.reconcile(db, specimens=False)
-            missing = browse.results_missing(db)
+            missing = browse.results_missing_counts(db)
         except TrackerError as error:
             self.post_message(Refused(error, "load"))
             return
@@ -74,7 +74,7 @@ class OverviewScreen(Screen[None]):
         for line in event.lines:
             flags = list(line.flags)
             if line.status == "open" and event.missing.get(line.id):
-                flags.append(f"results missing: {len(event.missing[line.id])}")
+                flags.append(f"results missing: {event.missing[line.id]}")
             due = (
                 f"{line.due_on}\n{line.days_left} d left"
                 if line.status == "open"

@@ -7,6 +7,8 @@ a wrong check character shows as a visible ✗ line.
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING
+
 from textual import work
 from textual.app import ComposeResult
 from textual.containers import Vertical
@@ -15,9 +17,10 @@ from textual.timer import Timer
 from textual.widgets import Input, Static
 
 from tracker.domain.errors import TrackerError
-from tracker.services import labels
-from tracker.services.labels import ScanView
 from tracker.ui.context import database
+
+if TYPE_CHECKING:  # the label services load lineage and label facts: only a lookup needs them
+    from tracker.services.labels import ScanView
 
 LOOKUP_DELAY = 0.25  # seconds of quiet typing before the hint looks the ID up
 
@@ -122,6 +125,8 @@ class IdField(Vertical):
 
     @work(thread=True, exclusive=True, group="id-lookup")
     def _lookup(self, text: str, seq: int) -> None:
+        from tracker.services import labels
+
         try:
             view = labels.read_scan(database(self), text)
         except TrackerError as error:
