@@ -29,7 +29,16 @@ def drill(db: Database, specimen: str, mg: str) -> str:
 
 
 def line_for(db: Database, loan: str) -> LoanLine:
+    """The loan's line with its specimens; its totals and flags must equal the overview's
+    (``specimens=False`` sums the specimens in SQL instead of in Python)."""
     (line,) = reconcile(db, loan)
+    (summary,) = reconcile(db, loan, specimens=False)
+    detailed = line.model_dump(exclude={"specimen_lines"})
+    summed = summary.model_dump(exclude={"specimen_lines"})
+    assert summary.specimen_lines == []
+    assert summed == {
+        k: pytest.approx(v) if isinstance(v, float) else v for k, v in detailed.items()
+    }
     return line
 
 
