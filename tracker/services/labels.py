@@ -29,7 +29,7 @@ from tracker.services.label_facts import (
     preload,
 )
 from tracker.services.label_queue import queue_label, queued_labels
-from tracker.services.lineage import ancestors_of, node_of
+from tracker.services.lineage import ancestors_of, label_of
 from tracker.services.lineage_load import load_for_scan
 from tracker.services.lookup import (
     URI_PREFIX_KEY,
@@ -250,18 +250,17 @@ def read_scan(db: Database, scanned: str) -> ScanView:
             raise InputError("scanned", scanned, "is empty; scan a label or type an ID")
         load_for_scan(session, scanned, prefix_for(session, scanned))
         row = get_any(session, "scanned", scanned)
-        node = node_of(row, with_children=False)
+        status = getattr(row, "status", None)
         # a loan or an operator has an ID but wears no label
         lines = label_lines(session, row) if isinstance(row, LABELLED) else []
         location = getattr(row, "location", None)
         return ScanView(
             scanned=scanned,
             id=row.public_id,
-            kind=node.kind,
-            what=node.label,
-            status=node.status,
+            kind=type(row).__name__.lower(),
+            what=label_of(row),
+            status=status.value if status is not None else None,
             location=location.path if location is not None else None,
             label=lines,
-            ancestors=[f"{a.public_id} {node_of(a, with_children=False).label}"
-                       for a in ancestors_of(row)],
+            ancestors=[f"{a.public_id} {label_of(a)}" for a in ancestors_of(row)],
         )  # fmt: skip

@@ -156,18 +156,43 @@ def _children(row: HasPublicId) -> list[HasPublicId]:
     return []
 
 
-def _describe(row: HasPublicId) -> tuple[str, dict[str, Any]]:
+def label_of(row: HasPublicId) -> str:
+    """The words that name an item in a tree or a scan; unlike its facts, they read none of
+    its children (a scan shows labels only, and loads no collections for them)."""
     match row:
         case Lender():
-            return row.name, {}
+            return row.name
         case Loan():
-            return f"{row.reference}: {row.title}", {"lender": row.lender.name}
+            return f"{row.reference}: {row.title}"
         case Specimen():
             taxon = row.scientific_name or "unnamed taxon"
-            return f"{row.catalog_number} {taxon} ({row.skeletal_element or 'element ?'})", {}
+            return f"{row.catalog_number} {taxon} ({row.skeletal_element or 'element ?'})"
+        case Powder():
+            return f"{row.tissue} powder{f' from {row.site}' if row.site else ''}"
+        case Solution():
+            return f"solution in {row.acid}"
+        case Aliquot():
+            return f"{row.purpose.value} aliquot"
+        case BatchPosition():
+            what = row.reference_material.name if row.reference_material else row.kind.value
+            return f"column {row.slot} of {row.batch.name}: {what}"
+        case Cut():
+            return f"{row.name} cut"
+    name = getattr(row, "name", None) or getattr(row, "code", None) or row.public_id
+    return str(name)
+
+
+def _describe(row: HasPublicId) -> tuple[str, dict[str, Any]]:
+    return label_of(row), _facts(row)
+
+
+def _facts(row: HasPublicId) -> dict[str, Any]:
+    match row:
+        case Loan():
+            return {"lender": row.lender.name}
         case Powder():
             left = powder_remaining(row)
-            return f"{row.tissue} powder{f' from {row.site}' if row.site else ''}", {
+            return {
                 "mass_mg": row.mass_mg,
                 "mass_u_mg": row.mass_u_mg,
                 "remaining_mg": left.value,
@@ -176,20 +201,15 @@ def _describe(row: HasPublicId) -> tuple[str, dict[str, Any]]:
         case Solution():
             return _solution_facts(row)
         case Aliquot():
-            return f"{row.purpose.value} aliquot", {"mass_g": row.mass_g, "mass_u_g": row.mass_u_g}
+            return {"mass_g": row.mass_g, "mass_u_g": row.mass_u_g}
         case BatchPosition():
-            what = row.reference_material.name if row.reference_material else row.kind.value
-            return f"column {row.slot} of {row.batch.name}: {what}", {
-                "loaded_ug": row.loaded_ug,
-                "loaded_u_ug": row.loaded_u_ug,
-            }
+            return {"loaded_ug": row.loaded_ug, "loaded_u_ug": row.loaded_u_ug}
         case Cut():
             return _cut_facts(row)
-    name = getattr(row, "name", None) or getattr(row, "code", None) or row.public_id
-    return str(name), {}
+    return {}
 
 
-def _cut_facts(row: Cut) -> tuple[str, dict[str, Any]]:
+def _cut_facts(row: Cut) -> dict[str, Any]:
     facts: dict[str, Any] = {"recovered_ug": row.recovered_ug, "recovered_u_ug": row.recovered_u_ug}
     ratio = cut_yield(row)
     if ratio is not None:
@@ -200,10 +220,10 @@ def _cut_facts(row: Cut) -> tuple[str, dict[str, Any]]:
          "two_sd": None if r.sd_permil is None else 2 * r.sd_permil, "flags": list(r.flags)}
         for r in row.results
     ]  # fmt: skip
-    return f"{row.name} cut", facts
+    return facts
 
 
-def _solution_facts(row: Solution) -> tuple[str, dict[str, Any]]:
+def _solution_facts(row: Solution) -> dict[str, Any]:
     left = solution_remaining_g(row)
     facts: dict[str, Any] = {
         "powder_mass_mg": row.powder_mass_mg,
@@ -217,7 +237,7 @@ def _solution_facts(row: Solution) -> tuple[str, dict[str, Any]]:
         amount = solution_element(row, symbol)
         if amount is not None:
             facts["elements"][symbol] = {"ug": amount[1].value, "u_ug": amount[1].u}
-    return f"solution in {row.acid}", facts
+    return facts
 
 
 def load_specimen_tree(session: Session, specimen_id: int) -> Specimen | None:

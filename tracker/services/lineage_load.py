@@ -1,10 +1,10 @@
 """Loading one item with what its lineage line needs, in a few queries rather than one per hop.
 
 A scanned label is answered with the item, its label text, where it is and every ancestor up
-to the lender, each described with its masses (a powder's remainder needs its solutions, a
-solution's needs its aliquots and concentrations). Lazily that is a dozen round trips for an
-aliquot; with these loader options it is one joined query and a few batched ones, so a
-scanner's lookup stays within a few milliseconds however large the ledger grows.
+to the lender, each named by its label (no collections: masses and remainders belong to the
+lineage view). Lazily that is a dozen round trips for a cut; with these loader options it is
+one query joining the chain of parents, so a scanner's lookup stays within a few
+milliseconds however large the ledger grows.
 """
 
 from __future__ import annotations
@@ -33,15 +33,11 @@ def _specimen(at: Any) -> list[Any]:
 
 
 def _powder(at: Any) -> list[Any]:
-    return [*_specimen(at.joinedload(Powder.specimen)), at.joinedload(Powder.solutions)]
+    return _specimen(at.joinedload(Powder.specimen))
 
 
 def _solution(at: Any) -> list[Any]:
-    return [
-        *_powder(at.joinedload(Solution.powder)),
-        at.joinedload(Solution.aliquots),
-        at.joinedload(Solution.concentrations),
-    ]
+    return _powder(at.joinedload(Solution.powder))
 
 
 def _aliquot(at: Any) -> list[Any]:
@@ -57,7 +53,7 @@ def _position(at: Any) -> list[Any]:
 
 
 def _cut(at: Any) -> list[Any]:
-    return [*_position(at.joinedload(Cut.position)), at.joinedload(Cut.results)]
+    return _position(at.joinedload(Cut.position))
 
 
 _BELOW = {
