@@ -10,7 +10,6 @@ from tracker.bench.bulk_ctx import Ctx
 from tracker.bench.bulk_material import Handler, _put
 from tracker.domain.budget import (
     Amount,
-    by_difference,
     element_mass_ug,
     is_significant,
     overdraws,
@@ -29,7 +28,7 @@ from tracker.domain.models import (
     ReferenceMaterial,
     Solution,
 )
-from tracker.domain.units import decimals_below, format_mass_mg, format_value_u
+from tracker.domain.units import format_mass_mg, format_value_u
 from tracker.services.chemistry import AddPosition, NewBatch
 from tracker.services.columns import RecordCut
 from tracker.services.common import weigh
@@ -39,7 +38,9 @@ from tracker.services.lab import (
     RecordConcentration,
     TakeAliquot,
     aliquot_element,
+    powder_portion,
     powder_remaining,
+    require_available,
     solution_remaining_g,
 )
 
@@ -50,9 +51,9 @@ def dissolve(ctx: Ctx, args: dict[str, Any]) -> Solution:
         request.vial_tare, request.vial_gross, request.readability, ("vial-tare", "vial-gross")
     )
     powder = ctx.state.get(Powder, "powder", request.powder)
-    _require_available(powder)
+    require_available(powder)
     left = powder_remaining(powder)
-    taken = _portion(request, left)
+    taken = powder_portion(request, left)
     if overdraws(left, taken):
         raise RuleViolation(
             "powder-taken",
@@ -81,30 +82,6 @@ def dissolve(ctx: Ctx, args: dict[str, Any]) -> Solution:
     }  # fmt: skip
     ctx.record("solution.dissolved", solution, payload, parent=powder, label=solution)
     return solution
-
-
-def _portion(request: Dissolve, left: Amount) -> Amount:
-    """Like ``lab._portion``: all that remains, or the weighed part."""
-    if request.powder_taken is None:
-        if left.value <= 0:
-            raise RuleViolation("powder", request.powder, "no powder remains to dissolve")
-        return left
-    if decimals_below(request.powder_taken, request.powder_readability):
-        raise InputError(
-            "powder-taken",
-            f"{request.powder_taken} mg",
-            f"has more decimals than the balance reads ({request.powder_readability} mg)",
-        )
-    return by_difference(float(request.powder_taken), float(request.powder_readability))
-
-
-def _require_available(container: Powder | Solution) -> None:
-    if container.status is not ContainerStatus.AVAILABLE:
-        raise RuleViolation(
-            type(container).__name__.lower(),
-            container.public_id,
-            f"is {container.status.value}, not available",
-        )
 
 
 def record_concentration(ctx: Ctx, args: dict[str, Any]) -> None:
@@ -136,7 +113,7 @@ def take_aliquot(ctx: Ctx, args: dict[str, Any]) -> Aliquot:
     request = parse(TakeAliquot, args)
     wanted = weigh(request.tare, request.gross, request.readability).amount(scale=1e-3)
     solution = ctx.state.get(Solution, "solution", request.solution)
-    _require_available(solution)
+    require_available(solution)
     left = solution_remaining_g(solution)
     if overdraws(left, wanted):
         raise RuleViolation(

@@ -31,13 +31,11 @@ from tracker.domain.models import (
 )
 from tracker.domain.terms import terms_in_force
 from tracker.services.common import (
-    ANALYTICAL_BALANCE_MG,
-    MICROBALANCE_MG,
     require_on_hand,
     weigh,
 )
-from tracker.services.custody import Dispose, Move
-from tracker.services.drilling import Drill, limits_of
+from tracker.services.custody import Dispose, Move, residual_weighing
+from tracker.services.drilling import Drill, drilled_payload, limits_of
 from tracker.services.inputs import parse
 from tracker.services.specimens import CheckIn, NewSpecimen, ReturnSpecimen
 
@@ -133,7 +131,7 @@ def dispose(ctx: Ctx, args: dict[str, Any]) -> None:
         raise RuleViolation(
             "permission", None, "retaining lent material needs the lender's written permission"
         )
-    residual = _residual(request, item, outcome)
+    residual = residual_weighing(request, item, outcome)  # the service's own rule
     _no_shipment(request.shipment)
     before = item.location.path if item.location else None
     item.status = outcome
@@ -174,16 +172,8 @@ def drill(ctx: Ctx, args: dict[str, Any]) -> Powder:
     ))  # fmt: skip
     powder.specimen = specimen
     _put(powder, location)
-    payload = {
-        "specimen": specimen.public_id, "tissue": powder.tissue, "site": powder.site,
-        "tare_mg": powder.tare_mg, "gross_mg": powder.gross_mg,
-        "readability_mg": powder.readability_mg, "mass_mg": powder.mass_mg,
-        "mass_u_mg": powder.mass_u_mg, "material": material,
-        "drilled_at": powder.drilled_at.isoformat(), "terms_version": terms.version,
-        "override": {"reason": request.override_reason,
-                     "limits": [v.message for v in violations]} if violations else None,
-        "label": "queued",
-    }  # fmt: skip
+    payload = drilled_payload(powder, specimen, material, terms.version, request, violations)
+    payload["label"] = "queued"
     ctx.record("powder.drilled", powder, payload, parent=specimen, label=powder)
     return powder
 
@@ -236,34 +226,6 @@ def _require_here(item: Any) -> None:
             raise RuleViolation("item", item.public_id, f"is {state}, not in the lab")
     elif item.status not in (ContainerStatus.AVAILABLE, ContainerStatus.RETAINED):
         raise RuleViolation("item", item.public_id, f"is {item.status.value}, not in the lab")
-
-
-def _residual(request: Dispose, item: Any, outcome: ContainerStatus) -> dict[str, float] | None:
-    """Like ``custody._residual``: what leaves the lab, weighed, stored on the vial."""
-    given = (request.residual_tare, request.residual_gross)
-    if all(v is None for v in given):
-        return None
-    if any(v is None for v in given):
-        raise InputError("residual-gross", None, "give both the residual tare and gross readings")
-    if outcome is ContainerStatus.CONSUMED:
-        raise InputError("residual-gross", None, "a consumed vial is empty; nothing to weigh")
-    if not isinstance(item, Powder | Solution):
-        raise InputError(
-            "item", item.public_id, "residual weighings apply to powders and solutions"
-        )
-    default = MICROBALANCE_MG if isinstance(item, Powder) else ANALYTICAL_BALANCE_MG
-    assert request.residual_tare is not None and request.residual_gross is not None
-    mass = weigh(
-        request.residual_tare,
-        request.residual_gross,
-        request.readability or default,
-        ("residual-tare", "residual-gross"),
-    ).amount()
-    if isinstance(item, Powder):
-        item.residual_mg, item.residual_u_mg = mass.value, mass.u
-        return {"residual_mg": mass.value, "residual_u_mg": mass.u}
-    item.residual_g, item.residual_u_g = mass.value / 1000, mass.u / 1000
-    return {"residual_g": item.residual_g, "residual_u_g": item.residual_u_g}
 
 
 HANDLERS: dict[str, Handler] = {

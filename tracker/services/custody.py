@@ -111,7 +111,7 @@ def dispose(db: Database, actor: str | None, data: Dispose | Raw) -> Done[ItemVi
             raise RuleViolation(
                 "permission", None, "retaining lent material needs the lender's written permission"
             )
-        residual = _residual(request, item, outcome)
+        residual = residual_weighing(request, item, outcome)
         shipment = _shipment(uow, request, item, outcome)
         before = item.location.path if item.location else None
         item.status = outcome
@@ -143,7 +143,7 @@ def _shipment(
     return shipment.public_id
 
 
-def _residual(
+def residual_weighing(
     request: Dispose, item: Container, outcome: ContainerStatus
 ) -> dict[str, float] | None:
     """Weigh what leaves the lab; store it on powders (mg) and solutions (g)."""

@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import math
 from datetime import date
-from typing import Annotated
+from typing import Annotated, Any
 
 from pydantic import Field, field_validator
 from sqlalchemy import func, select
@@ -60,6 +60,26 @@ class Drill(Request):
         return value.lower()
 
 
+def drilled_payload(
+    powder: Powder,
+    specimen: Specimen,
+    material: str | None,
+    terms_version: int,
+    request: Drill,
+    violations: list[Any],
+) -> dict[str, Any]:
+    """What the ``powder.drilled`` event records (the bench's bulk writer uses it too)."""
+    return {
+        "specimen": specimen.public_id, "tissue": powder.tissue, "site": powder.site,
+        "tare_mg": powder.tare_mg, "gross_mg": powder.gross_mg,
+        "readability_mg": powder.readability_mg, "mass_mg": powder.mass_mg,
+        "mass_u_mg": powder.mass_u_mg, "material": material,
+        "drilled_at": powder.drilled_at.isoformat(), "terms_version": terms_version,
+        "override": {"reason": request.override_reason,
+                     "limits": [v.message for v in violations]} if violations else None,
+    }  # fmt: skip
+
+
 def drill(db: Database, actor: str | None, data: Drill | Raw) -> Done[PowderView]:
     """Drill powder from a specimen within the loan's terms (or a manager's override)."""
     request = parse(Drill, data)
@@ -85,16 +105,8 @@ def drill(db: Database, actor: str | None, data: Drill | Raw) -> Done[PowderView
             location=optional_location(uow, "location", request.location), created_at=uow.now,
         )  # fmt: skip
         uow.session.add(powder)
-        payload = {
-            "specimen": specimen.public_id, "tissue": powder.tissue, "site": powder.site,
-            "tare_mg": powder.tare_mg, "gross_mg": powder.gross_mg,
-            "readability_mg": powder.readability_mg, "mass_mg": powder.mass_mg,
-            "mass_u_mg": powder.mass_u_mg, "material": material,
-            "drilled_at": powder.drilled_at.isoformat(), "terms_version": terms.version,
-            "override": {"reason": request.override_reason,
-                         "limits": [v.message for v in violations]} if violations else None,
-            "label": queue_label(uow, powder),
-        }  # fmt: skip
+        payload = drilled_payload(powder, specimen, material, terms.version, request, violations)
+        payload["label"] = queue_label(uow, powder)
         return finish(
             uow, "powder.drilled", powder, payload, lambda: PowderView.of(powder), parent=specimen
         )

@@ -76,9 +76,9 @@ def dissolve(db: Database, actor: str | None, data: Dissolve | Raw) -> Done[Solu
     )
     with unit_of_work(db, actor) as uow:
         powder = get_by_id(uow.session, Powder, "powder", request.powder)
-        _require_available(powder)
+        require_available(powder)
         left = powder_remaining(powder)
-        taken = _portion(request, left)
+        taken = powder_portion(request, left)
         if overdraws(left, taken):
             raise RuleViolation(
                 "powder-taken",
@@ -125,7 +125,7 @@ def dissolve(db: Database, actor: str | None, data: Dissolve | Raw) -> Done[Solu
         )
 
 
-def _portion(request: Dissolve, left: Amount) -> Amount:
+def powder_portion(request: Dissolve, left: Amount) -> Amount:
     if request.powder_taken is None:
         if left.value <= 0:
             raise RuleViolation("powder", request.powder, "no powder remains to dissolve")
@@ -139,7 +139,7 @@ def _portion(request: Dissolve, left: Amount) -> Amount:
     return by_difference(float(request.powder_taken), float(request.powder_readability))
 
 
-def _require_available(container: Powder | Solution) -> None:
+def require_available(container: Powder | Solution) -> None:
     if container.status is not ContainerStatus.AVAILABLE:
         raise RuleViolation(
             type(container).__name__.lower(),
@@ -268,7 +268,7 @@ def take_aliquot(db: Database, actor: str | None, data: TakeAliquot | Raw) -> Do
     wanted = weigh(request.tare, request.gross, request.readability).amount(scale=1e-3)
     with unit_of_work(db, actor) as uow:
         solution = get_by_id(uow.session, Solution, "solution", request.solution)
-        _require_available(solution)
+        require_available(solution)
         left = solution_remaining_g(solution)
         if overdraws(left, wanted):
             raise RuleViolation(
