@@ -28,7 +28,7 @@ from tracker.domain.models import (
     ReferenceMaterial,
     Solution,
 )
-from tracker.domain.units import format_mass_mg, format_value_u
+from tracker.domain.units import format_mass_mg
 from tracker.services.chemistry import AddPosition, NewBatch
 from tracker.services.columns import RecordCut
 from tracker.services.common import weigh
@@ -40,8 +40,8 @@ from tracker.services.lab import (
     aliquot_element,
     powder_portion,
     powder_remaining,
+    require_aliquot_fits,
     require_available,
-    solution_remaining_g,
 )
 
 
@@ -113,15 +113,7 @@ def take_aliquot(ctx: Ctx, args: dict[str, Any]) -> Aliquot:
     request = parse(TakeAliquot, args)
     wanted = weigh(request.tare, request.gross, request.readability).amount(scale=1e-3)
     solution = ctx.state.get(Solution, "solution", request.solution)
-    require_available(solution)
-    left = solution_remaining_g(solution)
-    if overdraws(left, wanted):
-        raise RuleViolation(
-            "gross",
-            f"{(request.gross / 1000).normalize()} g",
-            f"gives an aliquot of {wanted.value:.5f} g, more than remains of "
-            f"{solution.public_id} ({format_value_u(left.value, left.u, 'g')})",
-        )
+    require_aliquot_fits(solution, wanted, request)
     aliquot = ctx.new(Aliquot(
         solution_id=solution.id, mass_g=wanted.value, mass_u_g=wanted.u,
         purpose=request.purpose, taken_at=ctx.when(request.taken_at, "taken-at"),

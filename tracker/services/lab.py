@@ -262,21 +262,26 @@ def solution_remaining_g(solution: Solution) -> Amount:
     return remaining(weighed(solution.solution_mass_g, solution.solution_mass_u_g), taken)
 
 
+def require_aliquot_fits(solution: Solution, wanted: Amount, request: TakeAliquot) -> None:
+    """An aliquot comes from an available solution and never takes more than remains."""
+    require_available(solution)
+    left = solution_remaining_g(solution)
+    if overdraws(left, wanted):
+        raise RuleViolation(
+            "gross",
+            f"{(request.gross / 1000).normalize()} g",
+            f"gives an aliquot of {wanted.value:.5f} g, more than remains of "
+            f"{solution.public_id} ({format_value_u(left.value, left.u, 'g')})",
+        )
+
+
 def take_aliquot(db: Database, actor: str | None, data: TakeAliquot | Raw) -> Done[AliquotView]:
     """Weigh out part of a solution; its element content follows from the concentration."""
     request = parse(TakeAliquot, data)
     wanted = weigh(request.tare, request.gross, request.readability).amount(scale=1e-3)
     with unit_of_work(db, actor) as uow:
         solution = get_by_id(uow.session, Solution, "solution", request.solution)
-        require_available(solution)
-        left = solution_remaining_g(solution)
-        if overdraws(left, wanted):
-            raise RuleViolation(
-                "gross",
-                f"{(request.gross / 1000).normalize()} g",
-                f"gives an aliquot of {wanted.value:.5f} g, more than remains of "
-                f"{solution.public_id} ({format_value_u(left.value, left.u, 'g')})",
-            )
+        require_aliquot_fits(solution, wanted, request)
         aliquot = Aliquot(
             solution=solution,
             mass_g=wanted.value,
