@@ -55,3 +55,28 @@ def test_a_small_run_prints_each_figure_with_its_floor_and_no_disagreement(tmp_p
         assert figure["measured"] > 0 and figure["floor"] > 0, figure
         assert figure["problems"] == [], figure  # each floor computed the same answer
     assert any(tmp_path.glob("bench-scale0.002-*.sqlite"))  # cached for the next run
+
+
+def test_markdown_holds_the_same_figures_as_the_json(tmp_path: Path) -> None:
+    out = tmp_path / "perf.md"
+    result = invoke("bench", "run", "--scales", "0.002,0.004", "--backend", "sqlite",
+                    "--repeat", "1", "--only", "reconcile,lineage", "--cache", str(tmp_path),
+                    "--markdown", str(out), as_json=True)  # fmt: skip
+    assert result.exit_code in (0, 1), result.stderr
+    report = json.loads(result.stdout)
+    text = out.read_text(encoding="utf-8")
+    for figure in report["figures"]:
+        assert (
+            f"| {figure['title']} (floor: {figure['floor_title']}) | {figure['scale']:g} |" in text
+        )
+        assert f"| {figure['ratio']:.2f} |" in text
+    assert {g["key"] for g in report["growth"]} == {"reconcile", "lineage"}
+    assert "| growth of | scale 0.002 | scale 0.004 | exponent | verdict |" in text
+    assert "--scales 0.002,0.004 --backend sqlite --repeat 1 --only reconcile,lineage`" in text
+
+
+def test_markdown_into_a_missing_folder_is_refused_before_running(tmp_path: Path) -> None:
+    result = invoke("bench", "run", "--scale", "0.002", "--cache", str(tmp_path),
+                    "--markdown", str(tmp_path / "nowhere" / "perf.md"))  # fmt: skip
+    assert result.exit_code == 2 and "--markdown" in result.stderr
+    assert not list(tmp_path.iterdir())

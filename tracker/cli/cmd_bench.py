@@ -102,6 +102,9 @@ def run(
     only: Annotated[
         str | None, Opt("--only", help="Some figures: reconcile,verify,manifest,lookup,...")
     ] = None,
+    markdown: Annotated[
+        Path | None, Opt("--markdown", help="Also write the tables as Markdown to this file.")
+    ] = None,
 ) -> None:
     """Measure every figure next to its floor; exit 1 if a target is missed."""
     from tracker.bench import run as bench
@@ -118,7 +121,16 @@ def run(
         scales=chosen or [_scale(scale, "--scale")], backend=backend,  # type: ignore[arg-type]
         pg_url=pg_url, repeat=repeat, cache=_cache(cache), only=keys, say=_say,
     )  # fmt: skip
+    if markdown is not None and not markdown.parent.is_dir():
+        raise InputError("--markdown", str(markdown), "is in a folder that does not exist")
     report = bench.run(options)
+    if markdown is not None:
+        from tracker.bench.markdown import markdown as as_markdown
+
+        scales_text = ",".join(f"{s:g}" for s in options.scales)
+        command = f"tracker bench run --scales {scales_text} --backend {backend} --repeat {repeat}"
+        command += f" --only {only}" if only else ""
+        markdown.write_text(as_markdown(report.as_dict(), command), encoding="utf-8")
     emit(ctx, report.as_dict(), lambda: _tables(report))
     if not report.all_met:
         raise typer.Exit(1)
