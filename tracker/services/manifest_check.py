@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import re
 from collections.abc import Mapping
+from dataclasses import dataclass
 from datetime import date
 from typing import Any, Literal
 
@@ -72,12 +73,14 @@ def check_rows(
     The second value maps a row number to what `write` needs for a row that creates or
     updates a specimen; rows with problems or nothing to change are not in it.
     """
-    terms = list(rows[0].cells) if rows else []  # every row has the same columns, in order
-    typed = [term for term in terms if term in _TYPED_TERMS]
+    columns = _Columns.of(list(rows[0].cells) if rows else [])
     seen: dict[str, int] = {}
-    found = [_first_checks(row, seen, file_problem, typed) for row in rows]
+    if file_problem or not _cells_all_read(rows, columns.typed):
+        found = [_first_checks(row, seen, file_problem, columns.typed) for row in rows]
+    else:  # the common case: only a catalogue number can still be wrong
+        found = [_catalog_problems(row, seen, []) for row in rows]
     clean = [n for n, problems in enumerate(found) if not problems]
-    validated = _validate(terms, [rows[n] for n in clean])
+    validated = _validate(columns, [rows[n] for n in clean])
     fields: dict[int, Fields] = {}
     for n, (checked, problem) in zip(clean, validated, strict=True):
         if problem is None:
@@ -94,33 +97,103 @@ def check_rows(
     return results, fields
 
 
-_TYPED_TERMS = frozenset(DATE_TERMS + NUMBER_TERMS)
-# A cell that starts like a formula, anywhere in a row's cells joined by NUL (which no
-# cell holds: text files with NUL bytes are refused before parsing).
+@dataclass(frozen=True)
+class _Columns:
+    """How a file's columns are read, worked out once: every row has the same ones.
+
+    Cells arrive stripped (`read_table` strips every cell), so none is stripped again.
+    """
+
+    typed: list[tuple[str, bool]]  # (term, is a date) for dates and numbers, in file order
+    texts: list[tuple[str, str]]  # Darwin Core term -> specimen column
+    ages: list[tuple[str, str]]  # tracker's numeric age heading -> specimen column
+    extras: list[str]  # any other heading: kept with the specimen when not blank
+    keys: list[str]  # the specimen columns the file has: "extra", then in file order
+
+    @classmethod
+    def of(cls, terms: list[str]) -> _Columns:
+        return cls(
+            typed=[(t, t in DATE_TERMS) for t in terms if t in DATE_TERMS or t in NUMBER_TERMS],
+            texts=[(t, TERM_FIELDS[t]) for t in terms if t in TERM_FIELDS],
+            ages=[(t, OWN_FIELDS[t]) for t in terms if t in OWN_FIELDS],
+            extras=[t for t in terms if t not in TERM_FIELDS and t not in OWN_FIELDS],
+            keys=["extra", *(TERM_FIELDS.get(t) or OWN_FIELDS[t] for t in terms
+                             if t in TERM_FIELDS or t in OWN_FIELDS)],
+        )  # fmt: skip
+
+
+# A cell that starts like a formula, anywhere in cells joined by NUL. (Text files with NUL
+# bytes are refused before parsing; a NUL inside a cell could only raise a false alarm,
+# which the exact cell-by-cell check then settles.)
 _SUSPECT = re.compile("(?:^|\x00)[" + re.escape("".join(FORMULA_TRIGGERS)) + "]")
 
 
 def _first_checks(
-    row: Row, seen: dict[str, int], file_problem: list[str], typed: list[str]
+    row: Row, seen: dict[str, int], file_problem: list[str], typed: list[tuple[str, bool]]
 ) -> list[str]:
     """The problems a row's cells show before its columns are validated as a specimen.
 
     Only a row in which some cell starts like a formula needs every cell looked at;
-    in any other row only the dates and numbers can be wrong.
+    in any other row only the dates and numbers can be wrong, and only a date or
+    number that does not read is looked at again to say why.
     """
     problems = list(file_problem)
     cells = row.cells
-    catalog = cells.get(REQUIRED, "").strip()
-    suspect = _SUSPECT.search("\x00".join(cells.values())) is not None
-    for term in cells if suspect else typed:
-        problems += _cell_problems(term, cells[term])
-    if REQUIRED in cells and not catalog:
+    if _SUSPECT.search("\x00".join(cells.values())) is not None:
+        for term, value in cells.items():
+            problems += _cell_problems(term, value)
+    else:
+        for term, is_date in typed:
+            value = cells[term]
+            if value and not _reads(value, is_date):
+                problems += _cell_problems(term, value)
+    return _catalog_problems(row, seen, problems)
+
+
+def _catalog_problems(row: Row, seen: dict[str, int], problems: list[str]) -> list[str]:
+    """``problems`` with the row's catalogue number's own added: empty, or seen before."""
+    catalog = row.cells.get(REQUIRED, "").strip()
+    if REQUIRED in row.cells and not catalog:
         problems.append(f"{REQUIRED} is empty")
     elif catalog and catalog in seen:
         problems.append(f"{REQUIRED} {catalog!r} repeats row {seen[catalog]}")
     elif catalog:
         seen[catalog] = row.number
     return problems
+
+
+def _cells_all_read(rows: list[Row], typed: list[tuple[str, bool]]) -> bool:
+    """True when no cell in the file starts like a formula and every date and number reads.
+
+    Checked column by column over the whole file, so that a clean file (the usual one)
+    needs no cell-by-cell look; a file where this is False is checked row by row.
+    """
+    every_cell = "\x00".join(["\x00".join(row.cells.values()) for row in rows])
+    if _SUSPECT.search(every_cell) is not None:
+        return False
+    return all(_column_reads([row.cells[term] for row in rows], is_date) for term, is_date in typed)
+
+
+def _column_reads(values: list[str], is_date: bool) -> bool:
+    """Whether every filled cell of a date or number column reads as one."""
+    filled = [value for value in values if value]
+    try:
+        if is_date:
+            [date.fromisoformat(value[:10]) for value in filled]
+        else:
+            list(map(float, filled))
+    except ValueError:
+        return False
+    return True
+
+
+def _reads(value: str, is_date: bool) -> bool:
+    """Whether a (stripped) cell reads as the date or number its column holds."""
+    try:
+        date.fromisoformat(value[:10]) if is_date else float(value)
+    except ValueError:
+        return False
+    return True
 
 
 def _cell_problems(term: str, value: str) -> list[str]:
@@ -140,15 +213,14 @@ def _cell_problems(term: str, value: str) -> list[str]:
     return []
 
 
-def _validate(terms: list[str], rows: list[Row]) -> list[tuple[Fields, str | None]]:
+def _validate(columns: _Columns, rows: list[Row]) -> list[tuple[Fields, str | None]]:
     """Each row's specimen columns validated like `specimen add`, or the row's first problem.
 
     Columns the file does not have are left out (an update never blanks them); other
     headings become extra terms, kept with the specimen. All rows go to pydantic in
     one call; only when some row fails are the others validated again, without it.
     """
-    keys = ["extra", *(TERM_FIELDS.get(t) or OWN_FIELDS[t] for t in terms if _is_column(t))]
-    present = [_present(terms, row.cells) for row in rows]
+    present = [_present(columns, row.cells) for row in rows]
     try:
         specimens = _SPECIMENS.validate_python(present)
     except ValidationError as exc:
@@ -159,28 +231,20 @@ def _validate(terms: list[str], rows: list[Row]) -> list[tuple[Fields, str | Non
             _SPECIMENS.validate_python([p for n, p in enumerate(present) if n not in first])
         )
         return [
-            ({}, _said(first[n])) if n in first else (_fields(keys, next(good)), None)
+            ({}, _said(first[n])) if n in first else (_fields(columns.keys, next(good)), None)
             for n in range(len(present))
         ]
-    return [(_fields(keys, specimen), None) for specimen in specimens]
+    return [(_fields(columns.keys, specimen), None) for specimen in specimens]
 
 
-def _is_column(term: str) -> bool:
-    return term in TERM_FIELDS or term in OWN_FIELDS
-
-
-def _present(terms: list[str], cells: dict[str, str]) -> dict[str, Any]:
+def _present(columns: _Columns, cells: dict[str, str]) -> dict[str, Any]:
     """A row as `specimen add` takes it (the loan is not checked here: it is known)."""
-    extra: dict[str, str] = {}
-    present: dict[str, Any] = {"loan": "-", "extra": extra}
-    for term in terms:
-        value = cells[term].strip()
-        if term in TERM_FIELDS:
-            present[TERM_FIELDS[term]] = value or None
-        elif term in OWN_FIELDS:
-            present[OWN_FIELDS[term]] = float(value) if value else None
-        elif value:
-            extra[term] = value
+    present: dict[str, Any] = {term: cells[heading] or None for heading, term in columns.texts}
+    for heading, term in columns.ages:
+        value = cells[heading]
+        present[term] = float(value) if value else None
+    present["extra"] = {term: cells[term] for term in columns.extras if cells[term]}
+    present["loan"] = "-"
     return present
 
 
