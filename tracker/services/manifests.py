@@ -15,7 +15,7 @@ from dataclasses import dataclass
 from typing import Annotated, Any, Literal
 
 from pydantic import BaseModel, ConfigDict, Field
-from sqlalchemy import insert, select
+from sqlalchemy import ColumnElement, Dialect, insert, literal, literal_column, select
 from sqlalchemy.orm import Session
 
 from tracker.db.database import Database
@@ -293,12 +293,11 @@ def _write(
     session: Session, loan_id: int, examined: _Examined, now: Any
 ) -> tuple[list[str], list[str]]:
     """New specimens in one set-based insert; changed ones through their ORM rows."""
-    new: list[dict[str, Any]] = []
+    new: list[Fields] = []
     updated: list[str] = []
-    constant = {"loan_id": loan_id, "status": SpecimenStatus.EXPECTED, "created_at": now}
     for result in examined.preview.rows:
         if result.action == "create":
-            new.append(examined.fields[result.row] | constant)
+            new.append(examined.fields[result.row])
         elif result.action == "update":
             specimen = examined.existing[result.catalog_number or ""]
             extra = dict(specimen.extra)
@@ -309,9 +308,34 @@ def _write(
                     setattr(specimen, name, value)
             specimen.extra = extra
             updated.append(specimen.public_id)
+    return _insert(session, loan_id, new, now), updated
+
+
+def _insert(session: Session, loan_id: int, new: list[Fields], now: Any) -> list[str]:
+    """Insert the new specimens (Core executemany) and return their IDs in file order.
+
+    What every new row shares (loan, status, creation time) is written into the statement
+    once as SQL literals, not bound and converted for each row: bound, the timestamp
+    alone was formatted 20,000 times. The IDs are then read back by catalogue number,
+    unique within a loan.
+    """
     if not new:
-        return [], updated
-    session.execute(insert(_SPECIMEN), new)
+        return []
+    shared = {"loan_id": loan_id, "status": SpecimenStatus.EXPECTED, "created_at": now}
+    dialect = session.get_bind().dialect
+    session.execute(insert(_SPECIMEN).values(_literals(shared, dialect)), new)
     numbers = select(Specimen.catalog_number, Specimen.id).where(Specimen.loan_id == loan_id)
     ids = dict(session.execute(numbers).all())
-    return [format_id(Kind.SPECIMEN, ids[row["catalog_number"]]) for row in new], updated
+    return [format_id(Kind.SPECIMEN, ids[row["catalog_number"]]) for row in new]
+
+
+def _literals(values: dict[str, Any], dialect: Dialect) -> dict[str, ColumnElement[Any]]:
+    """Each column's value rendered as SQL by its own type, as a bound value would be."""
+    rendered: dict[str, ColumnElement[Any]] = {}
+    for name, value in values.items():
+        column_type = _SPECIMEN.c[name].type
+        sql = literal(value, column_type).compile(
+            dialect=dialect, compile_kwargs={"literal_binds": True}
+        )
+        rendered[name] = literal_column(str(sql), column_type)
+    return rendered
