@@ -122,10 +122,18 @@ class _Columns:
         )  # fmt: skip
 
 
-# A cell that starts like a formula, anywhere in cells joined by NUL. (Text files with NUL
-# bytes are refused before parsing; a NUL inside a cell could only raise a false alarm,
-# which the exact cell-by-cell check then settles.)
-_SUSPECT = re.compile("(?:^|\x00)[" + re.escape("".join(FORMULA_TRIGGERS)) + "]")
+# A cell after the first that starts like a formula, in cells joined by NUL (a literal
+# first character lets the regular expression engine skip ahead at C speed).
+_AFTER_NUL = re.compile("\x00[" + re.escape("".join(FORMULA_TRIGGERS)) + "]")
+
+
+def _formula_start(joined: str) -> bool:
+    """Whether any of some cells joined by NUL starts like a spreadsheet formula.
+
+    (Text files with NUL bytes are refused before parsing; a NUL inside a cell could
+    only raise a false alarm, which the exact cell-by-cell check then settles.)
+    """
+    return joined.startswith(FORMULA_TRIGGERS) or _AFTER_NUL.search(joined) is not None
 
 
 def _first_checks(
@@ -139,7 +147,7 @@ def _first_checks(
     """
     problems = list(file_problem)
     cells = row.cells
-    if _SUSPECT.search("\x00".join(cells.values())) is not None:
+    if _formula_start("\x00".join(cells.values())):
         for term, value in cells.items():
             problems += _cell_problems(term, value)
     else:
@@ -169,7 +177,7 @@ def _cells_all_read(rows: list[Row], typed: list[tuple[str, bool]]) -> bool:
     needs no cell-by-cell look; a file where this is False is checked row by row.
     """
     every_cell = "\x00".join(["\x00".join(row.cells.values()) for row in rows])
-    if _SUSPECT.search(every_cell) is not None:
+    if _formula_start(every_cell):
         return False
     return all(_column_reads([row.cells[term] for row in rows], is_date) for term, is_date in typed)
 

@@ -165,7 +165,12 @@ def import_manifest(
     validated rows are written.
     """
     request = parse(ManifestRequest, data)
-    with collector_paused(), unit_of_work(db, actor) as uow:
+    with collector_paused():  # resumed once the rows checked and written are freed
+        return _import(db, actor, request)
+
+
+def _import(db: Database, actor: str | None, request: ManifestRequest) -> ManifestOutcome:
+    with unit_of_work(db, actor) as uow:
         examined = _examine(uow.session, request)
         preview = examined.preview
         if not preview.clean:
