@@ -39,8 +39,7 @@ from tracker.services.uow import unit_of_work
 from tracker.services.views import Done, View
 
 MAX_ROWS = 100_000
-# New specimens are inserted with Core executemany (one statement, no ORM object per row);
-# their IDs are then read back by catalogue number, unique within a loan.
+# New specimens are inserted with Core (no ORM object per row).
 _SPECIMEN = Specimen.metadata.tables[Specimen.__tablename__]
 
 
@@ -317,20 +316,22 @@ def _write(
 
 
 def _insert(session: Session, loan_id: int, new: list[Fields], now: Any) -> list[str]:
-    """Insert the new specimens (Core executemany) and return their IDs in file order.
+    """Insert the new specimens (Core, many rows per statement) and return their IDs.
 
     What every new row shares (loan, status, creation time) is written into the statement
     once as SQL literals, not bound and converted for each row: bound, the timestamp
-    alone was formatted 20,000 times. The IDs are then read back by catalogue number,
-    unique within a loan.
+    alone was formatted 20,000 times. Each ID comes back with its catalogue number,
+    unique within a loan, and the IDs are returned in file order.
     """
     if not new:
         return []
     shared = {"loan_id": loan_id, "status": SpecimenStatus.EXPECTED, "created_at": now}
-    dialect = session.get_bind().dialect
-    session.execute(insert(_SPECIMEN).values(_literals(shared, dialect)), new)
-    numbers = select(Specimen.catalog_number, Specimen.id).where(Specimen.loan_id == loan_id)
-    ids = dict(session.execute(numbers).all())
+    statement = (
+        insert(_SPECIMEN)
+        .values(_literals(shared, session.get_bind().dialect))
+        .returning(_SPECIMEN.c.catalog_number, _SPECIMEN.c.id)
+    )
+    ids: dict[str, int] = dict(session.execute(statement, new).all())
     return [format_id(Kind.SPECIMEN, ids[row["catalog_number"]]) for row in new]
 
 
