@@ -59,7 +59,7 @@ class ManifestRecord(BaseModel):
     """One row of a lender's list, as Darwin Core terms (TDWG) plus tracker's numeric ages.
 
     Any other Darwin Core term may appear too; it is kept with the specimen. This model
-    documents the row for the schema in schemas/; rows are checked by `_check`.
+    documents the row for the schema in schemas/; rows are checked by `manifest_check`.
     """
 
     model_config = ConfigDict(extra="allow")
