@@ -10,13 +10,14 @@ from __future__ import annotations
 
 import re
 
-_TRIGGERS = ("=", "+", "-", "@", "\t", "\r")
+# What such a cell starts with: a bulk reader can skip the full test for any other cell.
+FORMULA_TRIGGERS = ("=", "+", "-", "@", "\t", "\r")
 _NUMBER = re.compile(r"^[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$")
 
 
 def looks_like_formula(value: str) -> bool:
     """True for text a spreadsheet could evaluate (not for plain signed numbers)."""
-    return bool(value) and value.startswith(_TRIGGERS) and not _NUMBER.match(value.strip())
+    return bool(value) and value.startswith(FORMULA_TRIGGERS) and not _NUMBER.match(value.strip())
 
 
 def neutralise(value: object) -> object:

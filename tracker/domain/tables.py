@@ -62,31 +62,35 @@ def read_table(
     if fmt != "xlsx" and zipped:
         raise TableError(1, "file", "looks like an XLSX workbook; use a profile with format xlsx")
     lines = _xlsx_lines(content, sheet) if fmt == "xlsx" else _text_lines(content, fmt)
+    # _counted strips every cell and drops trailing blank ones: a line left empty was blank
     kept = [
-        (n, [c.strip() for c in cells])
+        (n, cells)
         for n, cells in lines
-        if any(c.strip() for c in cells)
-        and not (comment_prefix and cells and cells[0].strip().startswith(comment_prefix))
+        if cells and not (comment_prefix and cells[0].startswith(comment_prefix))
     ]
     if len(kept) < header_row:
         raise TableError(header_row, "header", "the file has no header row there")
     header_number, header = kept[header_row - 1]
     if len(set(header)) != len(header):
         raise TableError(header_number, "header", "two columns have the same name")
-    for number, cells in kept[header_row:]:
-        if len(cells) > len(header):  # never drop a cell silently (trailing blanks are gone)
-            raise TableError(
-                number, str(len(header) + 1),
-                f"the row has {len(cells)} cells but the header names {len(header)} columns "
-                "(an unquoted comma?)",
-            )  # fmt: skip
-    rows = [
-        Row(n, dict(zip(header, cells + [""] * (len(header) - len(cells)), strict=True)))
-        for n, cells in kept[header_row:]
-    ]
+    rows = [_row(number, cells, header) for number, cells in kept[header_row:]]
     for row in [] if keep_formulas else rows:
         _refuse_formulas(row, header)
     return header, rows
+
+
+def _row(number: int, cells: list[str], header: list[str]) -> Row:
+    """One line's cells under their headings; a line shorter than the header ends in blanks."""
+    width = len(header)
+    if len(cells) > width:  # never drop a cell silently (trailing blanks are gone)
+        raise TableError(
+            number, str(width + 1),
+            f"the row has {len(cells)} cells but the header names {width} columns "
+            "(an unquoted comma?)",
+        )  # fmt: skip
+    if len(cells) < width:
+        cells = cells + [""] * (width - len(cells))
+    return Row(number, dict(zip(header, cells, strict=True)))
 
 
 def column_name(header: list[str], column: str) -> str:
@@ -132,13 +136,18 @@ def csv_records(text: str, delimiter: str = ",") -> Iterator[tuple[int, list[str
 
 
 def _counted(lines: Iterable[tuple[int, list[str]]]) -> list[tuple[int, list[str]]]:
-    """The lines, refused beyond MAX_ROWS rows or MAX_COLUMNS cells (trailing blanks dropped)."""
+    """The lines, refused beyond MAX_ROWS rows or MAX_COLUMNS cells.
+
+    Every cell comes back stripped of surrounding blanks, and blank cells at the end of
+    a line are dropped (so a blank line comes back empty).
+    """
     kept = []
     for number, cells in lines:
         if number > MAX_ROWS:
             raise TableError(number, "1", f"the table is longer than {MAX_ROWS:,} rows")
-        while cells and not cells[-1].strip():
-            cells = cells[:-1]
+        cells = list(map(str.strip, cells))
+        while cells and not cells[-1]:
+            cells.pop()
         if len(cells) > MAX_COLUMNS:
             raise TableError(number, str(MAX_COLUMNS + 1), f"more than {MAX_COLUMNS} columns")
         kept.append((number, cells))

@@ -15,7 +15,7 @@ from dataclasses import dataclass, field
 from datetime import datetime
 from typing import Any
 
-from sqlalchemy import select
+from sqlalchemy import insert, select
 from sqlalchemy.orm import Session
 
 from tracker.db.database import Database
@@ -26,6 +26,8 @@ from tracker.domain.models import CustodyEvent, EventRef, Operator, Role
 from tracker.domain.timeutil import as_utc
 
 Ref = HasPublicId | str | None
+# event_ref rows are written with Core: they are an index, never loaded as ORM objects here
+_EVENT_REF = EventRef.metadata.tables[EventRef.__tablename__]
 
 
 @dataclass
@@ -79,8 +81,10 @@ class UnitOfWork:
             payload=payload,
         )
         self.events.append(event)
-        for ref in sorted(self.mentions - {event.object_ref, event.parent_ref}):
-            self.session.add(EventRef(seq=event.seq, ref=ref))
+        refs = sorted(self.mentions - {event.object_ref, event.parent_ref})
+        if refs:  # set-based: a manifest's one event can mention 100,000 specimens
+            rows = [{"seq": event.seq, "ref": ref} for ref in refs]
+            self.session.execute(insert(_EVENT_REF), rows)
         for hook in self.after_record:
             hook(event)
         return event
