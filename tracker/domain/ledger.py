@@ -121,6 +121,11 @@ def verify_tuples(rows: Iterable[LedgerTuple]) -> VerifyReport:
     recomputed hash. Streaming: memory does not grow with the ledger. The hashing is
     inlined (this loop runs once per event of a decade's ledger); it computes exactly
     :func:`event_hash`, and a field holding a line feed counts as altered.
+
+    ``at`` is a datetime, the ledger's ISO text, or the text SQLite stores
+    (``2026-03-04 09:15:00.000000``: SQLAlchemy's format, always with microseconds, UTC),
+    which differs from the ISO form only by its "T" and "Z". Text of any other shape is
+    hashed as it stands, so it fails: tracker never writes it.
     """
     expected_seq, prev = 1, GENESIS_HASH
     count = 0
@@ -129,7 +134,12 @@ def verify_tuples(rows: Iterable[LedgerTuple]) -> VerifyReport:
         if seq != expected_seq or prev_hash != prev:
             problem = _link_problem(seq, expected_seq, prev_hash, prev)
             return VerifyReport(False, count, expected_seq - 1, prev, *problem)
-        stamp = at if isinstance(at, str) else iso_utc(at)
+        if not isinstance(at, str):
+            stamp = iso_utc(at)
+        elif len(at) == 26 and at[10] == " ":  # SQLite's stored text (see below)
+            stamp = f"{at[:10]}T{at[11:]}Z"
+        else:
+            stamp = at
         text = "\n".join(
             (head, str(seq), stamp, operator, action, object_ref, parent_ref, prev_hash, payload)
         )

@@ -16,7 +16,7 @@ from pathlib import Path
 from typing import Annotated, Any, Literal, TextIO
 
 from pydantic import BaseModel, Field
-from sqlalchemy import ColumnElement, String, and_, case, func, or_, select, type_coerce
+from sqlalchemy import ColumnElement, String, func, or_, select, type_coerce
 
 from tracker.db.database import Database
 from tracker.domain.anchors import (
@@ -49,19 +49,11 @@ BATCH = 5000
 
 
 def _stamp_column(backend: str) -> ColumnElement[Any]:
-    """The event time as the ledger's ISO text, made by the database where it can.
-
-    SQLite stores UTC as ``2026-03-04 09:15:00.000000`` (SQLAlchemy's format, always with
-    microseconds); rewriting it to ``2026-03-04T09:15:00.000000Z`` in SQL spares a million
-    datetime round trips. Text in any other shape is passed on unchanged, so it fails the
-    hash: tracker never writes it. PostgreSQL gives timestamps, formatted in Python.
-    """
+    """The event time as stored: SQLite's text as it is (the walk makes it ISO text, cheaper
+    than a million datetimes), PostgreSQL's timestamps as datetimes."""
     if backend != "sqlite":
         return CustodyEvent.at.expression
-    raw = type_coerce(CustodyEvent.at, String)
-    canonical = and_(func.length(raw) == 26, func.substr(raw, 11, 1) == " ")
-    iso = func.substr(raw, 1, 10) + "T" + func.substr(raw, 12) + "Z"
-    return case((canonical, iso), else_=raw)
+    return type_coerce(CustodyEvent.at, String)
 
 
 def _rows(db: Database) -> Iterator[LedgerTuple]:
