@@ -91,10 +91,10 @@ def check_rows(
     for row, problems in zip(rows, found, strict=True):
         catalog = row.cells.get(REQUIRED, "").strip()
         result = _result(row.number, catalog, problems, fields.get(row.number), existing)
-        if result.action in ("unchanged", "error"):
+        if result["action"] in ("unchanged", "error"):
             fields.pop(row.number, None)
         results.append(result)
-    return results, fields
+    return _ROW_RESULTS.validate_python(results), fields
 
 
 @dataclass(frozen=True)
@@ -274,25 +274,28 @@ def _said(error: Any) -> str:
     return f"{where}: {reason}"
 
 
+# The preview's rows are validated in one call (a list adapter), not one call per row.
+_ROW_RESULTS = TypeAdapter(list[RowResult])
+
+
 def _result(
     number: int,
     catalog: str,
     problems: list[str],
     fields: Fields | None,
     existing: Mapping[str, Specimen],
-) -> RowResult:
+) -> dict[str, Any]:
+    """A row's result, as the fields of its RowResult."""
     if problems or fields is None:
-        return RowResult(
-            row=number, catalog_number=catalog or None, action="error", problems=problems
-        )
+        return {"row": number, "catalog_number": catalog or None, "action": "error",
+                "problems": problems}  # fmt: skip
     current = existing.get(catalog)
     if current is None:
-        return RowResult(row=number, catalog_number=catalog, action="create", problems=[])
+        return {"row": number, "catalog_number": catalog, "action": "create", "problems": []}
     changes = _changes(current, fields)
     action = "update" if changes else "unchanged"
-    return RowResult(
-        row=number, catalog_number=catalog, action=action, problems=[], changes=changes
-    )
+    return {"row": number, "catalog_number": catalog, "action": action, "problems": [],
+            "changes": changes}  # fmt: skip
 
 
 def _changes(current: Specimen, fields: Fields) -> dict[str, list[Any]]:
