@@ -114,41 +114,47 @@ LedgerTuple = tuple[int, "datetime | str", str, str, str, str, str, str, str]
 
 
 def verify_tuples(rows: Iterable[LedgerTuple]) -> VerifyReport:
-    """Walk events in ``seq`` order; stop at the first broken link and say why.
+    """Walk events in ``seq`` order; stop at the first broken link and say why."""
+    return verify_batches((rows,))
+
+
+def verify_batches(batches: Iterable[Iterable[LedgerTuple]]) -> VerifyReport:
+    """Walk events in ``seq`` order, batch after batch; stop at the first broken link.
 
     Checks, in order, for each event: the sequence continues without a gap, its
     ``prev_hash`` is the previous event's hash, and its stored hash matches its
     recomputed hash. Streaming: memory does not grow with the ledger. The hashing is
-    inlined (this loop runs once per event of a decade's ledger); it computes exactly
-    :func:`event_hash`, and a field holding a line feed counts as altered.
+    inlined and the batches walked in this frame (this loop runs once per event of a
+    decade's ledger); it computes exactly :func:`event_hash`, and a field holding a line
+    feed counts as altered. Events accepted so far are always 1..expected - 1.
 
     ``at`` is a datetime, the ledger's ISO text, or the text SQLite stores
     (``2026-03-04 09:15:00.000000``: SQLAlchemy's format, always with microseconds, UTC),
     which differs from the ISO form only by its "T" and "Z". Text of any other shape is
     hashed as it stands, so it fails: tracker never writes it.
     """
-    expected_seq, prev = 1, GENESIS_HASH
-    count = 0
+    expected, prev = 1, GENESIS_HASH
     sha256, head = hashlib.sha256, FORMAT
-    for seq, at, operator, action, object_ref, parent_ref, payload, prev_hash, digest in rows:
-        if seq != expected_seq or prev_hash != prev:
-            problem = _link_problem(seq, expected_seq, prev_hash, prev)
-            return VerifyReport(False, count, expected_seq - 1, prev, *problem)
-        if not isinstance(at, str):
-            stamp = iso_utc(at)
-        elif len(at) == 26 and at[10] == " ":  # SQLite's stored text (see below)
-            stamp = f"{at[:10]}T{at[11:]}Z"
-        else:
-            stamp = at
-        text = "\n".join(
-            (head, str(seq), stamp, operator, action, object_ref, parent_ref, prev_hash, payload)
-        )
-        if sha256(text.encode("utf-8")).hexdigest() != digest or text.count("\n") != 8:
-            reason = "stored hash does not match the event's contents (altered after writing)"
-            return VerifyReport(False, count, expected_seq - 1, prev, seq, reason)
-        count += 1
-        expected_seq, prev = seq + 1, digest
-    return VerifyReport(True, count, expected_seq - 1, prev)
+    for batch in batches:
+        for seq, at, operator, action, object_ref, parent_ref, payload, prev_hash, digest in batch:
+            if seq != expected or prev_hash != prev:
+                problem = _link_problem(seq, expected, prev_hash, prev)
+                return VerifyReport(False, expected - 1, expected - 1, prev, *problem)
+            if not isinstance(at, str):
+                stamp = iso_utc(at)
+            elif len(at) == 26 and at[10] == " ":  # SQLite's stored text (see above)
+                stamp = f"{at[:10]}T{at[11:]}Z"
+            else:
+                stamp = at
+            text = "\n".join(
+                (head, str(seq), stamp, operator, action, object_ref, parent_ref, prev_hash,
+                 payload)
+            )  # fmt: skip
+            if sha256(text.encode("utf-8")).hexdigest() != digest or text.count("\n") != 8:
+                reason = "stored hash does not match the event's contents (altered after writing)"
+                return VerifyReport(False, expected - 1, expected - 1, prev, seq, reason)
+            expected, prev = seq + 1, digest
+    return VerifyReport(True, expected - 1, expected - 1, prev)
 
 
 def _link_problem(seq: int, expected_seq: int, prev_hash: str, prev: str) -> tuple[int, str]:

@@ -29,7 +29,7 @@ from tracker.domain.anchors import (
     parse_anchor,
 )
 from tracker.domain.errors import InputError, RuleViolation
-from tracker.domain.ledger import LedgerTuple, VerifyReport, verify_tuples
+from tracker.domain.ledger import LedgerTuple, VerifyReport, verify_batches, verify_tuples
 from tracker.domain.models import CustodyEvent
 from tracker.domain.timeutil import iso_utc
 from tracker.services.views import EventView
@@ -57,7 +57,13 @@ def _stamp_column(backend: str) -> ColumnElement[Any]:
 
 
 def _rows(db: Database) -> Iterator[LedgerTuple]:
-    """Stream ledger rows in sequence order without holding them all in memory.
+    """Stream ledger rows in sequence order without holding them all in memory."""
+    for batch in _batches(db):
+        yield from batch
+
+
+def _batches(db: Database) -> Iterator[list[LedgerTuple]]:
+    """Ledger rows in sequence order, a batch at a time.
 
     The statement is built and compiled by SQLAlchemy, then read through the driver's own
     cursor in batches (a server-side cursor on PostgreSQL): verifying a decade's ledger
@@ -74,7 +80,7 @@ def _rows(db: Database) -> Iterator[LedgerTuple]:
         try:
             cursor.execute(sql)
             while batch := cursor.fetchmany(BATCH):
-                yield from batch
+                yield batch
         finally:
             cursor.close()
 
@@ -89,7 +95,7 @@ def verify(db: Database, progress: Progress | None = None, every: int = 500) -> 
     at the end, so a screen can draw a progress bar; it never changes the verdict.
     """
     if progress is None:
-        return verify_tuples(_rows(db))
+        return verify_batches(_batches(db))
     with db.read_session() as session:
         total = session.scalar(select(func.count()).select_from(CustodyEvent)) or 0
     return verify_tuples(_counted(_rows(db), total, progress, max(every, 1)))
