@@ -113,6 +113,16 @@ def verify_chain(rows: Iterable[LedgerRow]) -> VerifyReport:
 LedgerTuple = tuple[int, "datetime | str", str, str, str, str, str, str, str]
 
 
+def ledger_stamp(at: datetime | str) -> str:
+    """An event's time in the ledger's ISO form, from a datetime, ISO text or SQLite's stored
+    text (see :func:`verify_batches`, which inlines the same steps)."""
+    if not isinstance(at, str):
+        return iso_utc(at)
+    if len(at) == 26 and at[10] == " ":
+        return f"{at[:10]}T{at[11:]}Z"
+    return at
+
+
 def verify_tuples(rows: Iterable[LedgerTuple]) -> VerifyReport:
     """Walk events in ``seq`` order; stop at the first broken link and say why."""
     return verify_batches((rows,))

@@ -29,9 +29,14 @@ from tracker.domain.anchors import (
     parse_anchor,
 )
 from tracker.domain.errors import InputError, RuleViolation
-from tracker.domain.ledger import LedgerTuple, VerifyReport, verify_batches, verify_tuples
+from tracker.domain.ledger import (
+    LedgerTuple,
+    VerifyReport,
+    ledger_stamp,
+    verify_batches,
+    verify_tuples,
+)
 from tracker.domain.models import CustodyEvent
-from tracker.domain.timeutil import iso_utc
 from tracker.services.views import EventView
 
 _COLUMNS = (
@@ -157,7 +162,7 @@ def export_jsonl(db: Database, out: TextIO) -> int:
     for seq, at, operator, action, object_ref, parent_ref, payload, prev_hash, digest in _rows(db):
         record = {
             "seq": seq,
-            "at": at if isinstance(at, str) else iso_utc(at),
+            "at": ledger_stamp(at),
             "operator": operator,
             "action": action,
             "object": object_ref,
