@@ -12,7 +12,6 @@ from tracker.domain.budget import (
     Amount,
     element_mass_ug,
     is_significant,
-    overdraws,
     remaining,
 )
 from tracker.domain.errors import InputError, NotFound, RuleViolation
@@ -28,7 +27,6 @@ from tracker.domain.models import (
     ReferenceMaterial,
     Solution,
 )
-from tracker.domain.units import format_mass_mg
 from tracker.services.chemistry import AddPosition, NewBatch
 from tracker.services.columns import RecordCut
 from tracker.services.common import weigh
@@ -38,10 +36,8 @@ from tracker.services.lab import (
     RecordConcentration,
     TakeAliquot,
     aliquot_element,
-    powder_portion,
-    powder_remaining,
+    portion_to_dissolve,
     require_aliquot_fits,
-    require_available,
 )
 
 
@@ -51,15 +47,7 @@ def dissolve(ctx: Ctx, args: dict[str, Any]) -> Solution:
         request.vial_tare, request.vial_gross, request.readability, ("vial-tare", "vial-gross")
     )
     powder = ctx.state.get(Powder, "powder", request.powder)
-    require_available(powder)
-    left = powder_remaining(powder)
-    taken = powder_portion(request, left)
-    if overdraws(left, taken):
-        raise RuleViolation(
-            "powder-taken",
-            format_mass_mg(taken.value),
-            f"is more than remains of {powder.public_id} ({format_mass_mg(left.value, left.u)})",
-        )
+    left, taken = portion_to_dissolve(powder, request)
     if not is_significant(remaining(left, [taken])):
         powder.status = ContainerStatus.CONSUMED
         ctx.writer.changed(powder)

@@ -76,16 +76,7 @@ def dissolve(db: Database, actor: str | None, data: Dissolve | Raw) -> Done[Solu
     )
     with unit_of_work(db, actor) as uow:
         powder = get_by_id(uow.session, Powder, "powder", request.powder)
-        require_available(powder)
-        left = powder_remaining(powder)
-        taken = powder_portion(request, left)
-        if overdraws(left, taken):
-            raise RuleViolation(
-                "powder-taken",
-                format_mass_mg(taken.value),
-                f"is more than remains of {powder.public_id} "
-                f"({format_mass_mg(left.value, left.u)})",
-            )
+        left, taken = portion_to_dissolve(powder, request)
         if not is_significant(remaining(left, [taken])):  # nothing measurable is left
             powder.status = ContainerStatus.CONSUMED
         grams = solution_mass.amount(scale=1e-3)
@@ -123,6 +114,21 @@ def dissolve(db: Database, actor: str | None, data: Dissolve | Raw) -> Done[Solu
             lambda: SolutionView.of(solution),
             parent=powder,
         )
+
+
+def portion_to_dissolve(powder: Powder, request: Dissolve) -> tuple[Amount, Amount]:
+    """What remains of the powder and what the dissolution takes: from an available vial,
+    never more than remains."""
+    require_available(powder)
+    left = powder_remaining(powder)
+    taken = powder_portion(request, left)
+    if overdraws(left, taken):
+        raise RuleViolation(
+            "powder-taken",
+            format_mass_mg(taken.value),
+            f"is more than remains of {powder.public_id} ({format_mass_mg(left.value, left.u)})",
+        )
+    return left, taken
 
 
 def powder_portion(request: Dissolve, left: Amount) -> Amount:
