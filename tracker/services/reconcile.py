@@ -123,6 +123,7 @@ _EMPTY = _Totals(0, 0, 0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, frozenset(), False)
 
 
 def _totals_of(books: list[_Books]) -> _Totals:
+    """A loan's totals summed in Python from its specimens' books (the detailed path)."""
     drilled = variance = dissolved = on_hand = returned = most = 0.0
     holding = sampled = 0
     flags: set[str] = set()

@@ -26,6 +26,7 @@ from tracker.ui.context import database, operator, tracker_app
 from tracker.ui.messages import Refused, refusal_text
 from tracker.ui.widgets.id_field import IdField, IdInput
 from tracker.ui.widgets.operator_bar import OperatorBar
+from tracker.ui.widgets.outcome import show_outcome
 
 Service = Callable[[Database, str | None, dict[str, Any]], Done[Any]]
 
@@ -151,10 +152,7 @@ class FormScreen(Screen[None]):
             tracker_app(self).open_id(item, replace=True)
 
     def show_outcome(self, text: str, *, error: bool) -> None:
-        outcome = self.query_one("#outcome", Static)
-        outcome.update(text)
-        outcome.set_class(error, "-error")
-        outcome.set_class(not error and text.startswith("✓"), "-ok")
+        show_outcome(self.query_one("#outcome", Static), text, error=error)
 
     def on_id_field_scanned(self, event: IdField.Scanned) -> None:
         """A scan into this form's ID field moves on to the next field to fill."""

@@ -25,6 +25,7 @@ from tracker.services.manifests import ManifestOutcome, ManifestPreview, RowResu
 from tracker.ui.context import database, operator
 from tracker.ui.messages import Refused, refusal_text
 from tracker.ui.widgets.operator_bar import OperatorBar
+from tracker.ui.widgets.outcome import show_outcome
 
 ACTIONS = {
     "create": ("✚ create", "green"),
@@ -145,10 +146,7 @@ class ManifestScreen(Screen[None]):
         self.show_outcome(refusal_text(event.error), error=True)
 
     def show_outcome(self, text: str, *, error: bool) -> None:
-        outcome = self.query_one("#outcome", Static)
-        outcome.update(text)
-        outcome.set_class(error, "-error")
-        outcome.set_class(not error and text.startswith("✓"), "-ok")
+        show_outcome(self.query_one("#outcome", Static), text, error=error)
 
 
 def _with_file(request: dict[str, Any]) -> dict[str, Any]:

@@ -28,6 +28,7 @@ from tracker.ui.context import database, operator, tracker_app
 from tracker.ui.messages import Refused, refusal_text
 from tracker.ui.widgets.bars import flag_cell, flag_text
 from tracker.ui.widgets.operator_bar import OperatorBar
+from tracker.ui.widgets.outcome import show_outcome
 
 FATES = (("destroyed", "destroyed"), ("retained", "retained"), ("consumed", "used up"))
 
@@ -131,10 +132,7 @@ class ReportScreen(Screen[None]):
         self.show_outcome(refusal_text(event.error), error=True)
 
     def show_outcome(self, text: str, *, error: bool) -> None:
-        outcome = self.query_one("#outcome", Static)
-        outcome.update(text)
-        outcome.set_class(error, "-error")
-        outcome.set_class(not error and text.startswith("✓"), "-ok")
+        show_outcome(self.query_one("#outcome", Static), text, error=error)
 
 
 def _head(report: ReturnReport) -> Text:
