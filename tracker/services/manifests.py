@@ -15,10 +15,11 @@ from dataclasses import dataclass
 from typing import Annotated, Any, Literal
 
 from pydantic import BaseModel, ConfigDict, Field
-from sqlalchemy import ColumnElement, Dialect, insert, literal, literal_column, select
+from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from tracker.db.database import Database
+from tracker.db.rows import insert_rows
 from tracker.domain.errors import InputError, NotFound, RuleViolation, at_cell
 from tracker.domain.ids import Kind, format_id
 from tracker.domain.models import Loan, LoanStatus, MappingProfile, Specimen, SpecimenStatus
@@ -39,7 +40,7 @@ from tracker.services.uow import unit_of_work
 from tracker.services.views import Done, View
 
 MAX_ROWS = 100_000
-# New specimens are inserted with Core (no ORM object per row).
+# New specimens are inserted by the driver's executemany (no ORM object per row).
 _SPECIMEN = Specimen.metadata.tables[Specimen.__tablename__]
 
 
@@ -316,32 +317,18 @@ def _write(
 
 
 def _insert(session: Session, loan_id: int, new: list[Fields], now: Any) -> list[str]:
-    """Insert the new specimens (Core, many rows per statement) and return their IDs.
+    """Insert the new specimens in one driver executemany and return their IDs, in file order.
 
     What every new row shares (loan, status, creation time) is written into the statement
-    once as SQL literals, not bound and converted for each row: bound, the timestamp
-    alone was formatted 20,000 times. Each ID comes back with its catalogue number,
-    unique within a loan, and the IDs are returned in file order.
+    once. The IDs are then read back by catalogue number, which is unique within a loan.
     """
     if not new:
         return []
     shared = {"loan_id": loan_id, "status": SpecimenStatus.EXPECTED, "created_at": now}
-    statement = (
-        insert(_SPECIMEN)
-        .values(_literals(shared, session.get_bind().dialect))
-        .returning(_SPECIMEN.c.catalog_number, _SPECIMEN.c.id)
+    insert_rows(session.connection(), _SPECIMEN, new, shared)
+    ids = dict(
+        session.execute(
+            select(Specimen.catalog_number, Specimen.id).where(Specimen.loan_id == loan_id)
+        ).all()
     )
-    ids: dict[str, int] = dict(session.execute(statement, new).all())
     return [format_id(Kind.SPECIMEN, ids[row["catalog_number"]]) for row in new]
-
-
-def _literals(values: dict[str, Any], dialect: Dialect) -> dict[str, ColumnElement[Any]]:
-    """Each column's value rendered as SQL by its own type, as a bound value would be."""
-    rendered: dict[str, ColumnElement[Any]] = {}
-    for name, value in values.items():
-        column_type = _SPECIMEN.c[name].type
-        sql = literal(value, column_type).compile(
-            dialect=dialect, compile_kwargs={"literal_binds": True}
-        )
-        rendered[name] = literal_column(str(sql), column_type)
-    return rendered

@@ -15,10 +15,11 @@ from dataclasses import dataclass, field
 from datetime import datetime
 from typing import Any
 
-from sqlalchemy import insert, select
+from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from tracker.db.database import Database
+from tracker.db.rows import insert_rows
 from tracker.domain.base import HasPublicId
 from tracker.domain.errors import InputError, RuleViolation
 from tracker.domain.ledger import GENESIS_HASH, canonical_json, event_hash
@@ -26,7 +27,7 @@ from tracker.domain.models import CustodyEvent, EventRef, Operator, Role
 from tracker.domain.timeutil import as_utc
 
 Ref = HasPublicId | str | None
-# event_ref rows are written with Core: they are an index, never loaded as ORM objects here
+# event_ref rows are written by the driver's executemany: an index, never ORM objects here
 _EVENT_REF = EventRef.metadata.tables[EventRef.__tablename__]
 
 
@@ -84,7 +85,7 @@ class UnitOfWork:
         refs = sorted(self.mentions - {event.object_ref, event.parent_ref})
         if refs:  # set-based: a manifest's one event can mention 100,000 specimens
             rows = [{"seq": event.seq, "ref": ref} for ref in refs]
-            self.session.execute(insert(_EVENT_REF), rows)
+            insert_rows(self.session.connection(), _EVENT_REF, rows)
         for hook in self.after_record:
             hook(event)
         return event
