@@ -7,6 +7,7 @@ leaves a defaulted column out.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from datetime import UTC, datetime
 from typing import Any
 
@@ -46,12 +47,23 @@ def _stored(db: Database, loan_id: int) -> list[tuple[Any, ...]]:
     return [(row[0].split()[1], *row[1:]) for row in rows]  # catalogue number without prefix
 
 
-def test_same_rows_as_sqlalchemy_insert(db: Database) -> None:
+def _one_column(prefix: str) -> list[dict[str, Any]]:
+    return [{"catalog_number": f"{prefix} {n}"} for n in (1, 2)]
+
+
+@pytest.mark.parametrize(
+    ("rows", "shared"),
+    [(_rows, {}), (_one_column, {"extra": {"fieldNumber": "F-9"}})],
+    ids=["typed-columns", "one-column"],
+)
+def test_same_rows_as_sqlalchemy_insert(
+    db: Database, rows: Callable[[str], list[dict[str, Any]]], shared: dict[str, Any]
+) -> None:
     ours, theirs = _new_loan(db), _new_loan(db)
-    shared = {"status": SpecimenStatus.EXPECTED, "created_at": WHEN}
+    shared = {"status": SpecimenStatus.EXPECTED, "created_at": WHEN, **shared}
     with db.write_session() as session:
-        insert_rows(session.connection(), TABLE, _rows("A"), {"loan_id": ours, **shared})
-        session.execute(insert(TABLE), [{**r, "loan_id": theirs, **shared} for r in _rows("B")])
+        insert_rows(session.connection(), TABLE, rows("A"), {"loan_id": ours, **shared})
+        session.execute(insert(TABLE), [{**r, "loan_id": theirs, **shared} for r in rows("B")])
         session.commit()
     written = _stored(db, ours)
     assert written == _stored(db, theirs)
