@@ -1,5 +1,5 @@
 """Allow ``python -m tracker``."""
 
-from tracker.cli import main
+from tracker.launch import main
 
 main()

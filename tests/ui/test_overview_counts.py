@@ -8,7 +8,17 @@ from sqlalchemy import select
 
 from tests.ui.conftest import Lab
 from tracker.domain.ids import Kind, format_id
-from tracker.domain.models import Aliquot, BatchPosition, Cut, Powder, Result, Solution, Specimen
+from tracker.domain.models import (
+    Aliquot,
+    BatchPosition,
+    Cut,
+    Loan,
+    LoanStatus,
+    Powder,
+    Result,
+    Solution,
+    Specimen,
+)
 from tracker.services import browse
 
 
@@ -44,5 +54,13 @@ def test_results_missing_counts_match_a_specimen_by_specimen_reading(lab: Lab) -
     db = lab.open()
     try:
         assert browse.results_missing_counts(db) == expected
+        with db.read_session() as session:
+            open_loans = {
+                format_id(Kind.LOAN, n)
+                for n in session.scalars(select(Loan.id).where(Loan.status == LoanStatus.OPEN))
+            }
+        assert browse.results_missing_counts(db, open_only=True) == {
+            loan: n for loan, n in expected.items() if loan in open_loans
+        }
     finally:
         db.close()

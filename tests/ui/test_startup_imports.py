@@ -3,7 +3,8 @@
 Every start pays for what it imports before the overview fills: numpy (through
 ``uncertainties``), the label services, the drawing libraries and the other screens are
 loaded when a person first uses them. A fresh interpreter opens the app on the demo
-database until the overview holds its rows, then names what it had loaded.
+database until the overview holds its rows, then names what it had loaded. The first
+screen itself (the app, the overview and its glance) loads neither SQLAlchemy nor pydantic.
 """
 
 from __future__ import annotations
@@ -17,10 +18,10 @@ from tests.ui.conftest import Lab
 _OPEN_TO_OVERVIEW = """
 import asyncio, sys
 from textual.widgets import DataTable
-from tracker.ui.app import TrackerApp
+from tracker.ui import make_app
 
 async def main(target: str) -> None:
-    app = TrackerApp(target, "ines")
+    app = make_app(target, "ines")
     async with app.run_test(headless=True, size=(120, 40)) as pilot:
         rows = 0
         for _ in range(2000):
@@ -67,8 +68,31 @@ def _opened(lab: Lab) -> tuple[int, set[str]]:
 def test_the_overview_opens_without_numpy_labels_or_other_screens(lab: Lab) -> None:
     rows, modules = _opened(lab)
     assert rows > 0  # the overview really filled: the demo's loans are listed
-    assert "tracker.ui.screens.overview" in modules and "sqlalchemy" in modules
+    assert "tracker.ui.screens.overview" in modules
     tops = {name.split(".")[0] for name in modules}
     assert tops.isdisjoint(HEAVY), sorted(tops & set(HEAVY))
     early = sorted(m for m in modules if m.startswith(LATER))
     assert early == []
+
+
+_FIRST_SCREEN = """
+import sys
+from datetime import date
+from pathlib import Path
+import tracker.ui, tracker.ui.app, tracker.ui.screens.overview
+from tracker.services.glance import read_glance
+glance = read_glance(Path(sys.argv[1]), date(2026, 12, 1))
+print(len(glance.lines) if glance else 0)
+print(" ".join(sorted(sys.modules)))
+"""
+
+
+def test_the_first_screen_and_its_glance_load_no_sqlalchemy_or_pydantic(lab: Lab) -> None:
+    result = subprocess.run(
+        [sys.executable, "-c", _FIRST_SCREEN, str(lab.db_path)],
+        capture_output=True, text=True, check=True, timeout=120,
+    )  # fmt: skip
+    lines, modules = result.stdout.strip().splitlines()[-2:]
+    assert int(lines) == 2  # the demo's two open loans, read by the glance
+    tops = {name.split(".")[0] for name in modules.split()}
+    assert "textual" in tops and tops.isdisjoint({"sqlalchemy", "pydantic", "typer"})

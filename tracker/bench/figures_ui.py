@@ -1,9 +1,10 @@
 """Cold start of the terminal interface on the scale's database, against a bare Textual app.
 
 Each run launches a fresh interpreter and times it from launch until the child says the
-first screen is ready: for tracker, the loans overview with every loan in its table; for the
-floor, one static line. Both include Python's start-up and Textual's import; tracker's also
-opens the database, reconciles every loan and finds the results still missing.
+first screen is ready: for tracker, the loans overview with every open loan in its table, as
+``tracker --db FILE --as OPERATOR`` opens it (``tracker.ui.make_app``); for the floor, one
+static line. Both include Python's start-up and Textual's import; tracker's also reads and
+judges the open loans' books (the glance: their totals, terms and results missing).
 """
 
 from __future__ import annotations

@@ -1,7 +1,8 @@
 """Child process for the cold-start figure: a fresh interpreter, until the first screen is ready.
 
 ``python -m tracker.bench.tui_probe app TARGET OPERATOR`` opens tracker's interface headless
-on the database and prints ``ready`` once the loans overview table holds its rows;
+on the database, as the ``tracker`` command does, and prints ``ready`` once the loans
+overview table holds its rows;
 ``python -m tracker.bench.tui_probe bare`` opens a Textual app with one static line and prints
 ``ready`` once it is mounted. The parent times each from launch to that line.
 """
@@ -15,15 +16,15 @@ SIZE = (120, 40)
 
 
 async def _tracker(target: str, operator: str) -> None:
+    from tracker.ui import make_app  # what ``tracker --db TARGET --as OPERATOR`` runs
+
+    app = make_app(target, operator)
     from textual.widgets import DataTable
 
-    from tracker.ui.app import TrackerApp
-
-    app = TrackerApp(target, operator)
-    async with app.run_test(headless=True, size=SIZE) as pilot:
+    async with app.run_test(headless=True, size=SIZE):
         rows = 0
         while not rows:
-            await pilot.pause(0.002)
+            await asyncio.sleep(0.002)  # not pilot.pause: it would wait for workers' messages
             if type(app.screen).__name__ == "OverviewScreen":  # pushed; maybe not composed yet
                 tables = list(app.screen.query("#loans").results(DataTable))
                 rows = tables[0].row_count if tables else 0

@@ -20,17 +20,11 @@ from pydantic import BaseModel
 from rich.console import Console, RenderableType
 from typer.core import TyperGroup
 
+from tracker.db.location import default_database
 from tracker.domain.errors import InputError, TrackerError
 
 console = Console(highlight=False)
 errors = Console(stderr=True, highlight=False)
-
-
-def default_database() -> Path:
-    """The per-user default database file (TRACKER_DB and --db override it)."""
-    from platformdirs import user_data_dir
-
-    return Path(user_data_dir("tracker", appauthor=False)) / "tracker.sqlite"
 
 
 @dataclass

@@ -1,5 +1,5 @@
-"""Storage: engine factory, sessions, schema revisions (Alembic) and upgrades with backups."""
+"""Storage: engine factory, sessions, schema revisions (Alembic) and upgrades with backups.
 
-from tracker.db.database import Database, open_database
-
-__all__ = ["Database", "open_database"]
+Import the modules themselves (``tracker.db.database`` ...): this package loads nothing,
+so the console script can ask :mod:`tracker.db.location` without loading SQLAlchemy.
+"""

@@ -6,7 +6,7 @@ from __future__ import annotations
 from datetime import date, datetime
 from typing import Any
 
-from sqlalchemy import func, select
+from sqlalchemy import Select, func, select
 from sqlalchemy.orm import selectinload
 
 from tracker.db.database import Database
@@ -17,6 +17,8 @@ from tracker.domain.models import (
     ColumnBatch,
     Cut,
     InstrumentSession,
+    Loan,
+    LoanStatus,
     Measurement,
     MeasurementRole,
     Powder,
@@ -124,12 +126,20 @@ def batch_of_position(db: Database, position: str) -> str:
         return get_by_id(session, BatchPosition, "position", position).batch.public_id
 
 
-def results_missing_counts(db: Database) -> dict[str, int]:
+def results_missing_counts(db: Database, *, open_only: bool = False) -> dict[str, int]:
     """Per loan (its public ID): how many sampled specimens have no result yet.
 
     One grouped statement: the overview shows only the count, and listing every specimen's
     ID (thousands of rows at a busy lab) would be read and formatted on each start.
+    With ``open_only``, only the open loans' specimens are looked at.
     """
+    query = results_missing_statement(open_only=open_only)
+    with db.read_session() as session:
+        return {format_id(Kind.LOAN, loan): int(n) for loan, n in session.execute(query)}
+
+
+def results_missing_statement(*, open_only: bool) -> Select[int, int]:
+    """(loan id, sampled specimens with no result yet) per loan; the glance runs it too."""
     drilled = select(Powder.id).where(Powder.specimen_id == Specimen.id)
     measured = (
         select(Result.id)
@@ -145,5 +155,8 @@ def results_missing_counts(db: Database) -> dict[str, int]:
         .where(drilled.exists(), ~measured.exists())
         .group_by(Specimen.loan_id)
     )
-    with db.read_session() as session:
-        return {format_id(Kind.LOAN, loan): int(n) for loan, n in session.execute(query)}
+    if open_only:
+        query = query.where(
+            Specimen.loan_id.in_(select(Loan.id).where(Loan.status == LoanStatus.OPEN))
+        )
+    return query

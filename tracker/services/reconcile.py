@@ -16,7 +16,7 @@ from dataclasses import dataclass
 from datetime import date
 from typing import Any
 
-from pydantic import Field, TypeAdapter
+from pydantic import TypeAdapter
 from sqlalchemy import Select, and_, case, func, select
 from sqlalchemy.orm import Session, selectinload
 
@@ -26,7 +26,6 @@ from tracker.domain.ids import Kind, format_id
 from tracker.domain.models import (
     Aliquot,
     ContainerStatus,
-    Disposition,
     Loan,
     LoanStatus,
     Powder,
@@ -36,52 +35,21 @@ from tracker.domain.models import (
 )
 from tracker.domain.terms import terms_in_force
 from tracker.services.bulk import collector_paused
+from tracker.services.loan_lines import LoanLine, SpecimenLine, loan_line
+from tracker.services.loan_rules import (
+    NO_TOTALS,
+    LoanFacts,
+    Terms,
+    Totals,
+    totals_from_row,
+    urgency,
+)
 from tracker.services.lookup import get_loan
-from tracker.services.views import View
 
-DUE_SOON_DAYS = 30
+__all__ = ["LoanLine", "SpecimenLine", "reconcile"]
+
 _OPEN = ContainerStatus.AVAILABLE.value
 _CLOSED = [s.value for s in ContainerStatus if s is not ContainerStatus.AVAILABLE]
-
-
-class SpecimenLine(View):
-    id: str
-    catalog_number: str
-    status: str
-    powders: int
-    drilled_mg: float
-    drilled_u_mg: float
-    permitted_mg: float | None
-    dissolved_mg: float
-    powder_on_hand_mg: float
-    powder_returned_mg: float
-    flags: list[str]
-
-
-class LoanLine(View):
-    id: str
-    reference: str
-    lender: str
-    lender_code: str
-    status: str
-    terms_version: int
-    permitted_tissues: list[str]
-    max_mass_per_specimen_mg: float | None
-    max_total_mass_mg: float | None
-    max_specimens_sampled: int | None
-    specimens: int
-    on_hand: int
-    sampled: int
-    drilled_mg: float
-    drilled_u_mg: float
-    used_fraction: float | None
-    dissolved_mg: float
-    powder_on_hand_mg: float
-    powder_returned_mg: float
-    due_on: date
-    days_left: int
-    flags: list[str]
-    specimen_lines: list[SpecimenLine] = Field(default_factory=list)
 
 
 @dataclass(frozen=True, slots=True)
@@ -101,28 +69,28 @@ class _Books:
     flags: frozenset[str]  # closure and override flags; the loan's limit is judged later
 
 
-@dataclass(frozen=True, slots=True)
-class _Totals:
-    """A loan's specimens summed: what its line shows, whether from the specimens' books in
-    Python or from one grouped statement (the overview's path)."""
+@dataclass(frozen=True)
+class _Scope:
+    """Which loans' books the aggregate reads: one loan, the open ones, or every loan."""
 
-    specimens: int
-    on_hand: int  # specimens held
-    sampled: int
-    drilled: float
-    variance: float
-    dissolved: float
-    powder_on_hand: float
-    returned: float
-    most_drilled: float  # the largest drilled total of one specimen, for the per-specimen limit
-    flags: frozenset[str]  # closure and override flags of any specimen
-    powder_left: bool  # any powder still on hand, whatever its specimen's status
+    loan_id: int | None = None
+    open_only: bool = False
+
+    def specimens(self) -> Select[Any] | None:
+        """The IDs of the specimens in scope (None: all), to restrict every level by."""
+        if self.loan_id is not None:
+            return select(Specimen.id).where(Specimen.loan_id == self.loan_id)
+        if self.open_only:
+            open_loans = select(Loan.id).where(Loan.status == LoanStatus.OPEN)
+            return select(Specimen.id).where(Specimen.loan_id.in_(open_loans))
+        return None
+
+    def powders(self) -> Select[Any] | None:
+        mine = self.specimens()
+        return None if mine is None else select(Powder.id).where(Powder.specimen_id.in_(mine))
 
 
-_EMPTY = _Totals(0, 0, 0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, frozenset(), False)
-
-
-def _totals_of(books: list[_Books]) -> _Totals:
+def _totals_of(books: list[_Books]) -> Totals:
     """A loan's totals summed in Python from its specimens' books (the detailed path)."""
     drilled = variance = dissolved = on_hand = returned = most = 0.0
     holding = sampled = 0
@@ -138,31 +106,37 @@ def _totals_of(books: list[_Books]) -> _Totals:
         sampled += b.powders > 0
         flags |= b.flags
     flags.discard("powder on hand")
-    return _Totals(len(books), holding, sampled, drilled, variance, dissolved, on_hand, returned,
+    return Totals(len(books), holding, sampled, drilled, variance, dissolved, on_hand, returned,
                    most, frozenset(flags), any(b.on_hand > 0 for b in books))  # fmt: skip
 
 
-def reconcile(db: Database, loan: str | None = None, *, specimens: bool = True) -> list[LoanLine]:
+def reconcile(
+    db: Database, loan: str | None = None, *, specimens: bool = True, open_only: bool = False
+) -> list[LoanLine]:
     """One line per loan (most urgent first), each with its specimens unless asked not to.
 
     Every specimen's books come from one aggregate statement over the powders, solutions
-    and aliquots, so reconciling the whole lab is one pass over its tables.
+    and aliquots, so reconciling the whole lab is one pass over its tables. With
+    ``open_only``, only open loans: the statement then reads only their rows (the overview
+    of a decade-old lab reads a tenth of the tables).
     """
     today = db.clock().date()
     with db.read_session() as session, collector_paused():  # 20,000 lines: no cycles to find
         query = select(Loan).options(selectinload(Loan.terms), selectinload(Loan.lender))
         if loan is not None:
             query = query.where(Loan.id == get_loan(session, "loan", loan).id)
+        if open_only:
+            query = query.where(Loan.status == LoanStatus.OPEN)
         loans = session.scalars(query).all()
-        only = loans[0].id if loan is not None and loans else None
+        scope = _Scope(loans[0].id if loan is not None and loans else None, open_only)
         if specimens:
-            books = _books(session, only)
+            books = _books(session, scope)
             lines = [_loan_line(row, today, _totals_of(books.get(row.id, [])),
                                 books.get(row.id, [])) for row in loans]  # fmt: skip
         else:
-            totals = _loan_totals(session, only)
-            lines = [_loan_line(row, today, totals.get(row.id, _EMPTY)) for row in loans]
-    return sorted(lines, key=_urgency)
+            totals = _loan_totals(session, scope)
+            lines = [_loan_line(row, today, totals.get(row.id, NO_TOTALS)) for row in loans]
+    return sorted(lines, key=urgency)
 
 
 def _beyond(square: Any, limit: Any) -> Any:
@@ -170,18 +144,20 @@ def _beyond(square: Any, limit: Any) -> Any:
     return square > limit * (1 + 1e-9) + 1e-18
 
 
-def _solution_books() -> Any:
-    """Per powder: what its solutions took, and how many of them fail to close.
+def _solution_books(scope: _Scope) -> Any:
+    """Per powder (in scope): what its solutions took, and how many of them fail to close.
 
     A solution closes when solution = aliquots + residual (once the vial has left) within
     max(k·u, the balances' rounding bound), compared in squares (SQLite has no sqrt).
     """
-    taken = (
-        select(Aliquot.solution_id.label("sid"), func.sum(Aliquot.mass_g).label("mass"),
-               func.sum(Aliquot.mass_u_g * Aliquot.mass_u_g).label("var"),
-               func.sum(Aliquot.mass_u_g).label("u_sum"))
-        .group_by(Aliquot.solution_id).subquery()
-    )  # fmt: skip
+    powders = scope.powders()
+    aliquots = select(Aliquot.solution_id.label("sid"), func.sum(Aliquot.mass_g).label("mass"),
+                      func.sum(Aliquot.mass_u_g * Aliquot.mass_u_g).label("var"),
+                      func.sum(Aliquot.mass_u_g).label("u_sum"))  # fmt: skip
+    if powders is not None:
+        solutions = select(Solution.id).where(Solution.powder_id.in_(powders))
+        aliquots = aliquots.where(Aliquot.solution_id.in_(solutions))
+    taken = aliquots.group_by(Aliquot.solution_id).subquery()
     gap = (
         Solution.solution_mass_g
         - func.coalesce(taken.c.mass, 0.0)
@@ -199,7 +175,7 @@ def _solution_books() -> Any:
     )
     off = and_(Solution.status.in_(_CLOSED), _beyond(gap * gap, COVERAGE_FACTOR**2 * variance),
                _beyond(gap * gap, bound * bound))  # fmt: skip
-    return (
+    books = (
         select(
             Solution.powder_id.label("powder_id"),
             func.sum(Solution.powder_mass_mg).label("mass"),
@@ -210,18 +186,20 @@ def _solution_books() -> Any:
         )
         .outerjoin(taken, taken.c.sid == Solution.id)
         .group_by(Solution.powder_id)
-        .subquery()
     )
+    if powders is not None:
+        books = books.where(Solution.powder_id.in_(powders))
+    return books.subquery()
 
 
-def _per_powder() -> Select[Any]:
+def _per_powder(scope: _Scope) -> Select[Any]:
     """One row per powder: drilled, dissolved, residual and the closure test's ingredients.
 
     Per powder the books must close: drilled = dissolved + residual (what left the lab,
     weighed); a gap beyond max(k·u, the rounding bound) is unaccounted material, a vial
     that left unweighed with such a gap is a missing weighing.
     """
-    taken = _solution_books()
+    taken = _solution_books(scope)
     dissolved = func.coalesce(taken.c.mass, 0.0)
     residual = func.coalesce(Powder.residual_mg, 0.0)
     gap = Powder.mass_mg - dissolved - residual
@@ -244,7 +222,7 @@ def _per_powder() -> Select[Any]:
         Powder.residual_mg.is_(None),
         _beyond(gap * gap, bound * bound),
     )
-    return (
+    rows = (
         select(
             Powder.specimen_id, Powder.mass_mg, Powder.mass_u_mg, dissolved.label("dissolved"),
             case((Powder.status == _OPEN, Powder.mass_mg - dissolved), else_=0.0).label("on_hand"),
@@ -258,21 +236,35 @@ def _per_powder() -> Select[Any]:
         )
         .outerjoin(taken, taken.c.powder_id == Powder.id)
     )  # fmt: skip
+    mine = scope.specimens()
+    return rows if mine is None else rows.where(Powder.specimen_id.in_(mine))
 
 
-def _books(session: Session, loan_id: int | None) -> dict[int, list[_Books]]:
-    """Every specimen's books (of one loan, or of all), grouped by loan, in specimen order."""
+def _books(session: Session, scope: _Scope) -> dict[int, list[_Books]]:
+    """Every specimen's books (of the loans in scope), grouped by loan, in specimen order."""
     grouped: dict[int, list[_Books]] = defaultdict(list)
-    query = _per_specimen(loan_id).order_by(Specimen.id)
+    query = _per_specimen(scope).order_by(Specimen.id)
     for row in session.connection().execute(query).all():  # fetchall: one call, not one per row
         grouped[row[1]].append(_books_of(row))
     return grouped
 
 
-def _loan_totals(session: Session, loan_id: int | None) -> dict[int, _Totals]:
+def _loan_totals(session: Session, scope: _Scope) -> dict[int, Totals]:
     """Every loan's totals in one grouped statement over the specimens' books: what the
     overview needs, without turning 20,000 specimens into Python objects first."""
-    ps = _per_specimen(loan_id).subquery()
+    query = _totals_statement(scope)
+    return dict(totals_from_row(row) for row in session.connection().execute(query).all())
+
+
+def open_loan_totals_statement() -> Select[Any]:
+    """The open loans' totals statement, for the glance to run before SQLAlchemy loads
+    (compiled once into :mod:`tracker.services.glance_sql`; a test keeps the two equal)."""
+    return _totals_statement(_Scope(open_only=True))
+
+
+def _totals_statement(scope: _Scope) -> Select[Any]:
+    """One row per loan in scope: the columns :func:`totals_from_row` reads, in its order."""
+    ps = _per_specimen(scope).subquery()
     query = select(
         ps.c.loan_id, func.count(), _count(ps.c.status == SpecimenStatus.ON_HAND),
         _count(ps.c.powders > 0),
@@ -282,17 +274,7 @@ def _loan_totals(session: Session, loan_id: int | None) -> dict[int, _Totals]:
         _count((ps.c.unaccounted > 0) | (ps.c.gap > 0)),
         _count((ps.c.unweighed > 0) | (ps.c.lost > 0)), _count(ps.c.on_hand > 0),
     ).group_by(ps.c.loan_id)  # fmt: skip
-    found: dict[int, _Totals] = {}
-    for row in session.connection().execute(query).all():
-        (loan, count, holding, sampled, drilled, variance, dissolved, on_hand, returned, most,
-         override, unaccounted, missing, powder_left) = row  # fmt: skip
-        flags = {"override used": override, "unaccounted material": unaccounted,
-                 "missing weighing": missing}  # fmt: skip
-        found[loan] = _Totals(
-            count, holding, sampled, drilled, variance, dissolved, on_hand, returned, most,
-            frozenset(name for name, seen in flags.items() if seen), bool(powder_left),
-        )  # fmt: skip
-    return found
+    return query
 
 
 def _count(condition: Any) -> Any:
@@ -300,13 +282,9 @@ def _count(condition: Any) -> Any:
     return func.sum(case((condition, 1), else_=0))
 
 
-def _per_specimen(loan_id: int | None) -> Select[Any]:
-    """One row per specimen (of one loan, or of all): its powders' sums and flag counts."""
-    rows = _per_powder()
-    if loan_id is not None:
-        mine = select(Specimen.id).where(Specimen.loan_id == loan_id)
-        rows = rows.where(Powder.specimen_id.in_(mine))
-    per = rows.subquery()
+def _per_specimen(scope: _Scope) -> Select[Any]:
+    """One row per specimen (of the loans in scope): its powders' sums and flag counts."""
+    per = _per_powder(scope).subquery()
     sums = select(
         per.c.specimen_id, func.count().label("powders"), func.sum(per.c.mass_mg).label("mass"),
         func.sum(per.c.mass_u_mg * per.c.mass_u_mg).label("var"),
@@ -320,9 +298,8 @@ def _per_specimen(loan_id: int | None) -> Select[Any]:
         Specimen.id, Specimen.loan_id, Specimen.catalog_number, Specimen.status,
         *(sums.c[name] for name in _SUM_COLUMNS),
     ).outerjoin(sums, sums.c.specimen_id == Specimen.id)  # fmt: skip
-    if loan_id is not None:
-        query = query.where(Specimen.loan_id == loan_id)
-    return query
+    mine = scope.specimens()
+    return query if mine is None else query.where(Specimen.id.in_(mine))
 
 
 _SUM_COLUMNS = ("powders", "mass", "var", "dissolved", "on_hand", "returned", "override",
@@ -352,29 +329,22 @@ def _books_of(row: Any) -> _Books:
 
 
 def _loan_line(
-    loan: Loan, today: date, totals: _Totals, books: list[_Books] | None = None
+    loan: Loan, today: date, totals: Totals, books: list[_Books] | None = None
 ) -> LoanLine:
     """A loan's line from its totals; with its specimens' lines when their books are given."""
     terms = terms_in_force(loan.terms, today)
+    facts = LoanFacts(
+        id=loan.public_id, reference=loan.reference, status=loan.status,
+        lender=loan.lender.name, lender_code=loan.lender.institution_code or loan.lender.name,
+        terms=Terms(terms.version, list(terms.permitted_tissues), terms.max_mass_per_specimen_mg,
+                    terms.max_total_mass_mg, terms.max_specimens_sampled, terms.due_on,
+                    terms.powder_disposition),
+    )  # fmt: skip
     permitted = terms.max_mass_per_specimen_mg
-    used = totals.drilled / terms.max_total_mass_mg if terms.max_total_mass_mg else None
-    flags = _loan_flags(loan, terms, today, totals, permitted, used)
     lines = _SPECIMEN_LINES.validate_python(
         [_specimen_line(b, _specimen_flags(b, permitted), permitted) for b in books or []]
     )
-    return LoanLine(
-        id=loan.public_id, reference=loan.reference, lender=loan.lender.name,
-        lender_code=loan.lender.institution_code or loan.lender.name, status=loan.status.value,
-        terms_version=terms.version, permitted_tissues=list(terms.permitted_tissues),
-        max_mass_per_specimen_mg=terms.max_mass_per_specimen_mg,
-        max_total_mass_mg=terms.max_total_mass_mg,
-        max_specimens_sampled=terms.max_specimens_sampled, specimens=totals.specimens,
-        on_hand=totals.on_hand, sampled=totals.sampled, drilled_mg=totals.drilled,
-        drilled_u_mg=math.sqrt(totals.variance), used_fraction=used,
-        dissolved_mg=totals.dissolved, powder_on_hand_mg=totals.powder_on_hand,
-        powder_returned_mg=totals.returned, due_on=terms.due_on,
-        days_left=(terms.due_on - today).days, flags=flags, specimen_lines=lines,
-    )  # fmt: skip
+    return loan_line(facts, today, totals, lines)
 
 
 def _specimen_flags(books: _Books, permitted: float | None) -> frozenset[str]:
@@ -396,35 +366,3 @@ def _specimen_line(books: _Books, flags: frozenset[str], permitted: float | None
         "dissolved_mg": books.dissolved, "powder_on_hand_mg": books.on_hand,
         "powder_returned_mg": books.returned, "flags": sorted(flags),
     }  # fmt: skip
-
-
-def _loan_flags(
-    loan: Loan,
-    terms: Any,
-    today: date,
-    totals: _Totals,
-    permitted: float | None,
-    used: float | None,
-) -> list[str]:
-    flags = set(totals.flags)
-    if permitted is not None and totals.most_drilled > permitted:
-        flags.add("over limit")  # a specimen over its own limit
-    if used is not None and used > 1:
-        flags.add("over limit")
-    if loan.status is LoanStatus.OPEN:
-        days = (terms.due_on - today).days
-        if days < 0:
-            flags.add("overdue")
-        elif days <= DUE_SOON_DAYS:
-            flags.add("due within 30 days")
-        if used is not None and 0.9 <= used <= 1:
-            flags.add("near limit")
-        if terms.powder_disposition is Disposition.RETURN and totals.powder_left:
-            flags.add("powder to return")
-    return sorted(flags)
-
-
-def _urgency(line: LoanLine) -> tuple[int, int, int, float]:
-    closed = 0 if line.status == LoanStatus.OPEN.value else 1
-    serious = -sum(f in ("over limit", "unaccounted material", "overdue") for f in line.flags)
-    return (closed, serious, line.days_left, -(line.used_fraction or 0.0))

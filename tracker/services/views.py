@@ -10,7 +10,7 @@ import json
 from datetime import date, datetime
 from typing import Any, Generic, TypeVar
 
-from pydantic import BaseModel, ConfigDict
+from pydantic import BaseModel
 
 from tracker.domain.models import (
     Aliquot,
@@ -27,11 +27,7 @@ from tracker.domain.models import (
     Specimen,
 )
 from tracker.domain.terms import terms_in_force
-
-
-class View(BaseModel):
-    model_config = ConfigDict(frozen=True)
-
+from tracker.services.view_base import View as View
 
 V = TypeVar("V", bound=BaseModel)
 

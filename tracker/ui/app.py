@@ -3,13 +3,18 @@
 Database work happens only in thread workers, which post typed messages back; the UI thread
 only draws. A barcode scanner (a burst of keys ended by Enter) is recognised here, before
 any widget sees the keys: it fills the focused ID field or jumps to the scanned item.
+
+Start-up draws before it loads: this module imports neither SQLAlchemy nor the services.
+With an operator named (``--as``) on a SQLite file, the open loans' glance
+(:mod:`tracker.services.glance`) fills the overview while a worker opens the database
+through the services, which then read the overview again.
 """
 
 from __future__ import annotations
 
 from collections.abc import Iterable
 from pathlib import Path
-from typing import ClassVar
+from typing import TYPE_CHECKING, ClassVar
 
 from textual import events, work
 from textual.app import App, SystemCommand
@@ -21,22 +26,32 @@ from textual.screen import Screen
 from textual.timer import Timer
 from textual.widgets import Input
 
-from tracker.db.database import Database
 from tracker.domain.errors import InputError, TrackerError
 from tracker.domain.ids import BadId, Kind, parse_id
 from tracker.domain.timeutil import Clock, utcnow
-from tracker.services import browse, setup
-from tracker.services.views import OperatorView
+from tracker.services.glance import Glance, Glancer, start_glance
 from tracker.ui import settings
 from tracker.ui.messages import ScanFailed, ScanResolved
 from tracker.ui.scan import BurstDetector
 from tracker.ui.widgets.id_field import IdInput
+
+if TYPE_CHECKING:  # loaded by the workers that open the database, after the first screen
+    from tracker.db.database import Database
+    from tracker.services.views import OperatorView
 
 
 class DatabaseOpened(Message):
     def __init__(self, db: Database, operators: list[OperatorView]) -> None:
         super().__init__()
         self.db, self.operators = db, operators
+
+
+class GlanceRead(Message):
+    """The open loans' glance is read (None: there is none to draw); the database is next."""
+
+    def __init__(self, glance: Glance | None) -> None:
+        super().__init__()
+        self.glance = glance
 
 
 class DatabaseFailed(Message):
@@ -79,6 +94,7 @@ class TrackerApp(App[None]):
         *,
         clock: Clock = utcnow,
         out_dir: Path | None = None,
+        glancer: Glancer | None = None,
     ) -> None:
         super().__init__()
         self.target, self.preselected, self.clock = target, operator, clock
@@ -90,15 +106,32 @@ class TrackerApp(App[None]):
         self._held: list[events.Key] = []
         self._held_timer: Timer | None = None
         self._typed_before: tuple[Input, str] | None = None
+        # only with an operator named: otherwise the first screen is the operator's choice
+        self._glancer = glancer or (start_glance(target, clock().date()) if operator else None)
 
     # ------------------------------------------------------------------ start-up
     def on_mount(self) -> None:
         self.status_line = "opening the database …"
-        self.open_database()
+        if self._glancer is None:
+            self.open_database()
+        else:  # the glance first: loading SQLAlchemy alongside would only slow both down
+            self.wait_for_glance(self._glancer)
+
+    @work(thread=True, exclusive=True, group="glance")
+    def wait_for_glance(self, glancer: Glancer) -> None:
+        self.post_message(GlanceRead(glancer.result()))
+
+    def on_glance_read(self, event: GlanceRead) -> None:
+        if event.glance is not None and self.operator is None and len(self.screen_stack) == 1:
+            from tracker.ui.screens.overview import OverviewScreen
+
+            self.push_screen(OverviewScreen(event.glance))
+        self.call_after_refresh(self.open_database)  # once the overview has been drawn
 
     @work(thread=True, exclusive=True, group="open")
     def open_database(self) -> None:
         from tracker.db.database import open_database
+        from tracker.services import setup
 
         try:
             db = open_database(self.target, clock=self.clock)
@@ -143,9 +176,14 @@ class TrackerApp(App[None]):
         role = self.role or "?"
         mark = "★ manager" if role == "manager" else f"{role} (no overrides)"
         self.operator_label = f"operator: {code} · {mark}"
-        if first:
-            from tracker.ui.screens.overview import OverviewScreen
+        if not first:
+            return
+        from tracker.ui.screens.overview import OverviewScreen
 
+        shown = [s for s in self.screen_stack if isinstance(s, OverviewScreen)]
+        if shown:  # drawn from the glance: read it again, now through the services
+            shown[0].action_refresh()
+        else:
             self.push_screen(OverviewScreen())
 
     def action_choose_operator(self) -> None:
@@ -331,7 +369,7 @@ class TrackerApp(App[None]):
 
     @work(thread=True, exclusive=True, group="scan")
     def scan_lookup(self, text: str) -> None:
-        from tracker.services import labels  # heavy (lineage, label facts): not on start-up
+        from tracker.services import browse, labels  # heavy: not on start-up
 
         if self.db is None:
             return

@@ -1,8 +1,14 @@
-"""Overview: open loans, most urgent first — allowance used, due date, flags. Enter opens one."""
+"""Overview: open loans, most urgent first — allowance used, due date, flags. Enter opens one.
+
+``a`` shows all loans, returned and closed ones after the open; ``a`` again, the open ones.
+At start-up it may be drawn from the glance (read before the database is open); the
+services read it again as soon as the database is.
+"""
 
 from __future__ import annotations
 
-from typing import ClassVar
+from collections.abc import Sequence
+from typing import TYPE_CHECKING, ClassVar, TypeAlias
 
 from rich.text import Text
 from textual import on, work
@@ -13,13 +19,17 @@ from textual.screen import Screen
 from textual.widgets import DataTable, Footer, Static
 
 from tracker.domain.errors import TrackerError
-from tracker.services import browse, reconcile
-from tracker.services.reconcile import LoanLine
+from tracker.services.glance import Glance, GlanceLine
 from tracker.ui.context import database, tracker_app
 from tracker.ui.messages import Refused, refusal_text
 from tracker.ui.widgets.bars import flag_cell, usage_bar
 from tracker.ui.widgets.operator_bar import OperatorBar
 
+if TYPE_CHECKING:
+    from tracker.services.loan_lines import LoanLine
+
+# A line as the overview draws it: the services' LoanLine, or the glance's line before them.
+Shown: TypeAlias = "LoanLine | GlanceLine"
 FLAGS_WIDTH = 17  # the whole table fits 80 columns; wider terminals show more of each flag
 
 
@@ -27,7 +37,13 @@ class OverviewScreen(Screen[None]):
     BINDINGS: ClassVar[list[BindingType]] = [
         Binding("enter", "open_loan", "Open loan", id="overview.open"),
         Binding("r", "refresh", "Refresh", id="overview.refresh"),
+        Binding("a", "toggle_all", "All loans", id="overview.all"),
     ]
+
+    def __init__(self, glance: Glance | None = None) -> None:
+        super().__init__()
+        self.every_loan = False  # the open loans only, until asked for every loan
+        self.glance = glance
 
     class Loaded(Message):
         def __init__(self, lines: list[LoanLine], missing: dict[str, int]) -> None:
@@ -35,7 +51,7 @@ class OverviewScreen(Screen[None]):
             self.lines, self.missing = lines, missing
 
     def compose(self) -> ComposeResult:
-        yield OperatorBar("Loans · most urgent first")
+        yield OperatorBar("Open loans · most urgent first")
         table: DataTable[Text | str] = DataTable(id="loans", cursor_type="row", zebra_stripes=True)
         yield table
         yield Static("", id="loan-hint", classes="hint")
@@ -47,6 +63,8 @@ class OverviewScreen(Screen[None]):
                                   ("Due", "due", 10), ("Specimens", "specimens", 11),
                                   ("Flags", "flags", FLAGS_WIDTH)):  # fmt: skip
             table.add_column(label, key=key, width=width)
+        if self.glance is not None:
+            self._show(self.glance.lines, self.glance.missing)
         self.action_refresh()
 
     def on_screen_resume(self) -> None:
@@ -54,27 +72,39 @@ class OverviewScreen(Screen[None]):
             self.action_refresh()
 
     def action_refresh(self) -> None:
-        self.load()
+        if tracker_app(self).db is not None:  # else the app refreshes it once it is open
+            self.load(self.every_loan)
+
+    def action_toggle_all(self) -> None:
+        self.every_loan = not self.every_loan
+        title = "All loans · open first" if self.every_loan else "Open loans · most urgent first"
+        self.query_one(OperatorBar).show_title(title)
+        self.action_refresh()
 
     @work(thread=True, exclusive=True, group="load")
-    def load(self) -> None:
+    def load(self, every_loan: bool) -> None:
+        from tracker.services import browse, reconcile
+
         try:
             db = database(self)
-            lines = reconcile.reconcile(db, specimens=False)
-            missing = browse.results_missing_counts(db)
+            lines = reconcile.reconcile(db, specimens=False, open_only=not every_loan)
+            missing = browse.results_missing_counts(db, open_only=not every_loan)
         except TrackerError as error:
             self.post_message(Refused(error, "load"))
             return
         self.post_message(self.Loaded(lines, missing))
 
     def on_overview_screen_loaded(self, event: Loaded) -> None:
+        self._show(event.lines, event.missing)
+
+    def _show(self, lines: Sequence[Shown], missing: dict[str, int]) -> None:
         table = self.query_one("#loans", DataTable)
         keep = table.cursor_row
         table.clear()
-        for line in event.lines:
+        for line in lines:
             flags = list(line.flags)
-            if line.status == "open" and event.missing.get(line.id):
-                flags.append(f"results missing: {event.missing[line.id]}")
+            if line.status == "open" and missing.get(line.id):
+                flags.append(f"results missing: {missing[line.id]}")
             due = (
                 f"{line.due_on}\n{line.days_left} d left"
                 if line.status == "open"
@@ -94,8 +124,9 @@ class OverviewScreen(Screen[None]):
             )
         if table.row_count:
             table.move_cursor(row=min(keep, table.row_count - 1))
+        shown = "loans · a: open loans only" if self.every_loan else "open loans · a: all loans"
         self.query_one("#loan-hint", Static).update(
-            f"{len(event.lines)} loans · Enter opens a loan · scan any label to jump to it"
+            f"{len(lines)} {shown} · Enter opens a loan · scan any label to jump to it"
         )
 
     def on_refused(self, event: Refused) -> None:

@@ -29,6 +29,12 @@ class OperatorBar(Horizontal):
         self.watch(app, "operator_label", self._show_operator, init=False)
         self.watch(app, "status_line", self._show_status, init=False)
 
+    def show_title(self, title: str) -> None:
+        """Say what the screen now shows (a screen that switches views calls this)."""
+        self.title = title
+        for shown in self.query(".bar-title").results(Static):
+            shown.update(title)
+
     def _show_operator(self, label: str) -> None:
         for line in self.query("#bar-operator").results(Static):
             line.update(label)

@@ -1,0 +1,164 @@
+"""The first screen's glance: the open loans' overview read before SQLAlchemy has loaded.
+
+Loading SQLAlchemy, the models and the services takes longer than Textual takes to draw a
+whole screen, so the interface would otherwise sit on an empty overview. The glance reads
+the same lines in a thread started with the app, with the standard library's ``sqlite3``
+(read-only) and SQL compiled from the services' own statements
+(:mod:`tracker.services.glance_sql`), and judges them with the reconciliation's own rules
+(:mod:`tracker.services.loan_rules`), loading neither SQLAlchemy nor pydantic. When the
+database opens properly, the overview reads them again through the services and replaces
+them.
+
+It only ever reads, only SQLite files, and only a database at the schema revision its SQL
+was compiled for; anything else (PostgreSQL, an older file awaiting its upgrade, a locked
+or unreadable file) gives no glance, and the overview simply waits for the services.
+"""
+
+from __future__ import annotations
+
+import json
+import sqlite3
+import threading
+from collections import defaultdict
+from dataclasses import dataclass
+from datetime import date
+from pathlib import Path
+from typing import Any
+
+from tracker.domain.ids import Kind, format_id
+from tracker.domain.terms import terms_in_force
+from tracker.domain.vocab import Disposition, LoanStatus
+from tracker.services import glance_sql
+from tracker.services.loan_rules import (
+    NO_TOTALS,
+    LoanFacts,
+    Terms,
+    Totals,
+    loan_flags,
+    totals_from_row,
+    urgency,
+    used_fraction,
+)
+
+
+@dataclass(frozen=True, slots=True)
+class GlanceLine:
+    """What the overview shows of an open loan: the fields of its LoanLine it draws."""
+
+    id: str
+    reference: str
+    lender_code: str
+    status: str
+    drilled_mg: float
+    max_total_mass_mg: float | None
+    used_fraction: float | None
+    due_on: date
+    days_left: int
+    sampled: int
+    specimens: int
+    on_hand: int
+    flags: list[str]
+
+
+@dataclass(frozen=True)
+class Glance:
+    """The open loans' lines, most urgent first, and their counts of results missing."""
+
+    lines: list[GlanceLine]
+    missing: dict[str, int]  # loan ID -> sampled specimens with no result yet
+
+
+@dataclass(frozen=True, slots=True)
+class _Version:
+    """One version of a loan's terms, as the glance reads it."""
+
+    version: int
+    effective_from: date
+    terms: Terms
+
+
+def sqlite_file(target: str) -> Path | None:
+    """The file a ``--db`` value names, when it is an existing SQLite file (else None)."""
+    if "://" in target:
+        prefix = "sqlite:///"
+        if not target.startswith(prefix):
+            return None
+        target = target.removeprefix(prefix)
+    path = Path(target).expanduser()
+    return path if path.is_file() else None
+
+
+def read_glance(path: Path, today: date) -> Glance | None:
+    """The open loans' lines as of ``today``, or None when this file cannot be glanced."""
+    try:
+        connection = sqlite3.connect(f"{path.resolve().as_uri()}?mode=ro", uri=True, timeout=1)
+    except sqlite3.Error:
+        return None
+    try:
+        revision = connection.execute("SELECT version_num FROM alembic_version").fetchall()
+        if revision != [(glance_sql.HEAD,)]:
+            return None  # an older (or newer) schema: the services will deal with it
+        rows = {name: connection.execute(getattr(glance_sql, name)).fetchall()
+                for name in ("LOANS", "TERMS", "TOTALS", "MISSING")}  # fmt: skip
+    except sqlite3.Error:
+        return None
+    finally:
+        connection.close()
+    return _glance(rows, today)
+
+
+def _glance(rows: dict[str, list[Any]], today: date) -> Glance:
+    versions: dict[int, list[_Version]] = defaultdict(list)
+    for loan_id, version, effective, tissues, per, total, count, due, powder in rows["TERMS"]:
+        terms = Terms(version, json.loads(tissues), per, total, count, date.fromisoformat(due),
+                      Disposition(powder))  # fmt: skip
+        versions[loan_id].append(_Version(version, date.fromisoformat(effective), terms))
+    totals = dict(totals_from_row(row) for row in rows["TOTALS"])
+    lines = []
+    for loan_id, reference, status, lender, code in rows["LOANS"]:
+        facts = LoanFacts(
+            id=format_id(Kind.LOAN, loan_id), reference=reference, status=LoanStatus(status),
+            lender=lender, lender_code=code or lender,
+            terms=terms_in_force(versions[loan_id], today).terms,
+        )  # fmt: skip
+        lines.append(_line(facts, today, totals.get(loan_id, NO_TOTALS)))
+    missing = {format_id(Kind.LOAN, loan): int(n) for loan, n in rows["MISSING"]}
+    return Glance(sorted(lines, key=urgency), missing)
+
+
+def _line(loan: LoanFacts, today: date, totals: Totals) -> GlanceLine:
+    """The loan's line as reconcile's ``loan_line`` makes it, by the same rules."""
+    terms, used = loan.terms, used_fraction(loan.terms, totals)
+    return GlanceLine(
+        id=loan.id, reference=loan.reference, lender_code=loan.lender_code,
+        status=loan.status.value, drilled_mg=totals.drilled,
+        max_total_mass_mg=terms.max_total_mass_mg, used_fraction=used, due_on=terms.due_on,
+        days_left=(terms.due_on - today).days, sampled=totals.sampled,
+        specimens=totals.specimens, on_hand=totals.on_hand,
+        flags=loan_flags(loan, today, totals, used),
+    )  # fmt: skip
+
+
+class Glancer:
+    """Reads the glance in a thread of its own, started at once; ``result`` waits for it."""
+
+    def __init__(self, path: Path, today: date) -> None:
+        self._glance: Glance | None = None
+        self._thread = threading.Thread(
+            target=self._read, args=(path, today), name="glance", daemon=True
+        )
+        self._thread.start()
+
+    def _read(self, path: Path, today: date) -> None:
+        self._glance = read_glance(path, today)
+
+    def result(self, timeout: float = 5.0) -> Glance | None:
+        """The glance, once read (None if it could not be, or took longer than ``timeout``)."""
+        self._thread.join(timeout)
+        return self._glance
+
+
+def start_glance(target: str, today: date) -> Glancer | None:
+    """Start reading the glance of ``target`` now, if it is a SQLite file."""
+    path = sqlite_file(target)
+    return Glancer(path, today) if path is not None else None
