@@ -80,6 +80,12 @@ def test_no_glance_of_what_it_must_not_read(demo: Path, tmp_path: Path) -> None:
         connection.execute("UPDATE alembic_version SET version_num = ?", (migrate.REVISIONS[-2],))
     connection.close()
     assert read_glance(older, date(2026, 12, 1)) is None  # awaiting its upgrade
+    odd = tmp_path / "odd.sqlite"
+    shutil.copyfile(demo, odd)
+    with sqlite3.connect(odd) as connection:  # a disposition no version of tracker writes
+        connection.execute("UPDATE loan_terms SET powder_disposition = 'sell'")
+    connection.close()
+    assert read_glance(odd, date(2026, 12, 1)) is None  # no glance, and no traceback
 
 
 def test_the_glance_writes_nothing(demo: Path, tmp_path: Path) -> None:

@@ -104,7 +104,10 @@ def read_glance(path: Path, today: date) -> Glance | None:
         return None
     finally:
         connection.close()
-    return _glance(rows, today)
+    try:
+        return _glance(rows, today)
+    except (ValueError, TypeError, KeyError):  # a row the services would refuse to read too:
+        return None  # no glance; the overview waits for the services, which say what it is
 
 
 def _glance(rows: dict[str, list[Any]], today: date) -> Glance:
