@@ -18,7 +18,7 @@ from functools import partial
 from pathlib import Path
 from typing import Any
 
-from tracker.bench.measure import Figure, Target, timed
+from tracker.bench.measure import Figure, Target, settle_writes, timed
 from tracker.bench.plan import FOUNDER
 from tracker.bench.shape import END
 from tracker.db.database import open_database
@@ -77,6 +77,7 @@ def _floor(path: Path, loan_id: int, content: bytes, created: str) -> None:
 def manifest_figure(cached: Path, workdir: Path, repeat: int) -> Figure:
     work = workdir / "manifest-work.sqlite"
     shutil.copyfile(cached, work)
+    settle_writes()  # the copy's pages on disk first, so no timed commit waits behind them
     clock = StepClock(END)
     db = open_database(work, clock=clock, upgrade=False)
     content = manifest_csv()

@@ -89,6 +89,15 @@ def timed(action: Callable[[], Any]) -> float:
     return time.perf_counter() - started
 
 
+def settle_writes() -> None:
+    """Flush the machine's pending writes (a database just built or copied) before timing.
+
+    Otherwise the kernel writes hundreds of megabytes back while the first figures run, and
+    whichever of a figure and its floor commits more waits longer behind them.
+    """
+    os.sync()
+
+
 def percentile(values: list[float], share: float) -> float:
     """The nearest-rank percentile (common practice for latency figures)."""
     ordered = sorted(values)

@@ -17,7 +17,7 @@ from typing import Any, Literal
 
 from tracker.bench import figures_ledger, figures_manifest, figures_read, figures_ui
 from tracker.bench.generate import Built, cached
-from tracker.bench.measure import Figure, machine
+from tracker.bench.measure import Figure, machine, settle_writes
 from tracker.bench.shape import END
 from tracker.db.database import open_database
 from tracker.domain.errors import TrackerError
@@ -135,6 +135,7 @@ def _wanted(options: Options, key: str) -> bool:
 def _sqlite(options: Options, scale: float, report: Report) -> None:
     options.say(f"scale {scale:g}: database")
     built = cached(options.cache, scale, progress=lambda n: options.say(f"  {n:,} steps written"))
+    settle_writes()  # a database just built leaves its pages to be written: not during a figure
     report.builds.append(built)
     db = open_database(built.target, clock=StepClock(END), upgrade=False)
     steps: dict[str, Callable[[], list[Figure]]] = {
