@@ -16,7 +16,7 @@ from pathlib import Path
 from typing import Any, Literal
 
 from tracker.bench import figures_ledger, figures_manifest, figures_read, figures_ui
-from tracker.bench.generate import Built, cached
+from tracker.bench.generate import Built, cached_apart
 from tracker.bench.measure import Figure, machine, settle_writes
 from tracker.bench.shape import END
 from tracker.db.database import open_database
@@ -134,7 +134,9 @@ def _wanted(options: Options, key: str) -> bool:
 
 def _sqlite(options: Options, scale: float, report: Report) -> None:
     options.say(f"scale {scale:g}: database")
-    built = cached(options.cache, scale, progress=lambda n: options.say(f"  {n:,} steps written"))
+    built = cached_apart(
+        options.cache, scale, progress=lambda n: options.say(f"  {n:,} steps written")
+    )
     settle_writes()  # a database just built leaves its pages to be written: not during a figure
     report.builds.append(built)
     db = open_database(built.target, clock=StepClock(END), upgrade=False)
