@@ -17,8 +17,6 @@ from tracker.domain.models import (
     ColumnBatch,
     Cut,
     InstrumentSession,
-    Loan,
-    LoanStatus,
     Measurement,
     MeasurementRole,
     Powder,
@@ -27,7 +25,7 @@ from tracker.domain.models import (
     Solution,
     Specimen,
 )
-from tracker.services.lookup import get_by_id
+from tracker.services.lookup import get_by_id, open_loan_ids
 from tracker.services.views import View
 
 
@@ -156,7 +154,5 @@ def results_missing_statement(*, open_only: bool) -> Select[int, int]:
         .group_by(Specimen.loan_id)
     )
     if open_only:
-        query = query.where(
-            Specimen.loan_id.in_(select(Loan.id).where(Loan.status == LoanStatus.OPEN))
-        )
+        query = query.where(Specimen.loan_id.in_(open_loan_ids()))
     return query

@@ -22,13 +22,13 @@ from sqlalchemy.dialects import sqlite
 from tracker.db.migrate import HEAD
 from tracker.domain.models import Lender, Loan, LoanStatus, LoanTerms
 from tracker.services import browse, reconcile
+from tracker.services.lookup import open_loan_ids
 
 TARGET = Path(__file__).with_name("glance_sql.py")
 
 
 def statements() -> dict[str, Select[Any]]:
     """The glance's statements by name; each reads only open loans and their rows."""
-    open_loans = select(Loan.id).where(Loan.status == LoanStatus.OPEN)
     return {
         "LOANS": select(Loan.id, Loan.reference, Loan.status, Lender.name, Lender.institution_code)
         .join(Lender, Lender.id == Loan.lender_id)
@@ -44,7 +44,7 @@ def statements() -> dict[str, Select[Any]]:
             LoanTerms.max_specimens_sampled,
             LoanTerms.due_on,
             LoanTerms.powder_disposition,
-        ).where(LoanTerms.loan_id.in_(open_loans)),
+        ).where(LoanTerms.loan_id.in_(open_loan_ids())),
         "TOTALS": reconcile.open_loan_totals_statement(),
         "MISSING": browse.results_missing_statement(open_only=True),
     }

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from typing import Any, TypeVar
 
-from sqlalchemy import func, select
+from sqlalchemy import Select, func, select
 from sqlalchemy.orm import Session
 
 from tracker.domain.base import Base, HasPublicId
@@ -21,6 +21,7 @@ from tracker.domain.models import (
     LabelSetting,
     Lender,
     Loan,
+    LoanStatus,
     Location,
     Operator,
     Powder,
@@ -153,3 +154,8 @@ def get_reference_material(session: Session, field: str, text: str) -> Reference
     return _by_id_or_label(
         session, ReferenceMaterial, field, text, ReferenceMaterial.name, "reference material"
     )
+
+
+def open_loan_ids() -> Select[int]:
+    """The IDs of the open loans, as a subquery to restrict other statements by."""
+    return select(Loan.id).where(Loan.status == LoanStatus.OPEN)

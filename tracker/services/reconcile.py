@@ -44,7 +44,7 @@ from tracker.services.loan_rules import (
     totals_from_row,
     urgency,
 )
-from tracker.services.lookup import get_loan
+from tracker.services.lookup import get_loan, open_loan_ids
 
 __all__ = ["LoanLine", "SpecimenLine", "reconcile"]
 
@@ -81,8 +81,7 @@ class _Scope:
         if self.loan_id is not None:
             return select(Specimen.id).where(Specimen.loan_id == self.loan_id)
         if self.open_only:
-            open_loans = select(Loan.id).where(Loan.status == LoanStatus.OPEN)
-            return select(Specimen.id).where(Specimen.loan_id.in_(open_loans))
+            return select(Specimen.id).where(Specimen.loan_id.in_(open_loan_ids()))
         return None
 
     def powders(self) -> Select[Any] | None:
