@@ -22,7 +22,8 @@ from tracker.bench.shape import Shape, shape_for
 from tracker.db.database import open_database
 from tracker.domain.base import Base
 from tracker.services import ledger, reconcile
-from tracker.services.glance import GlanceLine, read_glance
+from tracker.services.glance import read_glance
+from tracker.services.loan_rules import OverviewLine
 
 SHAPE = shape_for(0.002, loans=3)
 
@@ -117,7 +118,7 @@ def test_open_loans_only_are_the_open_lines_of_the_whole_lab(both: tuple[Built, 
     assert 0 < len(whole) < len(every)  # the plan has returned loans to leave out
     glance = read_glance(Path(both[1].target), today)
     assert glance is not None  # the first screen's glance draws the same lines
-    shown = list(GlanceLine.__slots__)
+    shown = list(OverviewLine.__slots__)
     assert [[getattr(g, n) for n in shown] for g in glance.lines] == [
         [getattr(line, n) for n in shown] for line in only
     ]

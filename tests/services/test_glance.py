@@ -20,9 +20,10 @@ from tracker.db import migrate
 from tracker.db.database import open_database
 from tracker.io.demo import build_demo
 from tracker.services import browse, glance_sql, glance_statements, reconcile
-from tracker.services.glance import GlanceLine, read_glance, sqlite_file, start_glance
+from tracker.services.glance import read_glance, sqlite_file, start_glance
+from tracker.services.loan_rules import OverviewLine
 
-SHOWN = list(GlanceLine.__slots__)  # every field the overview draws
+SHOWN = list(OverviewLine.__slots__)  # every field the overview draws
 
 
 @pytest.fixture(scope="module")

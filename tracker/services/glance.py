@@ -32,39 +32,19 @@ from tracker.services import glance_sql
 from tracker.services.loan_rules import (
     NO_TOTALS,
     LoanFacts,
+    OverviewLine,
     Terms,
-    Totals,
-    loan_flags,
+    overview_line,
     totals_from_row,
     urgency,
-    used_fraction,
 )
-
-
-@dataclass(frozen=True, slots=True)
-class GlanceLine:
-    """What the overview shows of an open loan: the fields of its LoanLine it draws."""
-
-    id: str
-    reference: str
-    lender_code: str
-    status: str
-    drilled_mg: float
-    max_total_mass_mg: float | None
-    used_fraction: float | None
-    due_on: date
-    days_left: int
-    sampled: int
-    specimens: int
-    on_hand: int
-    flags: list[str]
 
 
 @dataclass(frozen=True)
 class Glance:
     """The open loans' lines, most urgent first, and their counts of results missing."""
 
-    lines: list[GlanceLine]
+    lines: list[OverviewLine]
     missing: dict[str, int]  # loan ID -> sampled specimens with no result yet
 
 
@@ -124,22 +104,9 @@ def _glance(rows: dict[str, list[Any]], today: date) -> Glance:
             lender=lender, lender_code=code or lender,
             terms=terms_in_force(versions[loan_id], today).terms,
         )  # fmt: skip
-        lines.append(_line(facts, today, totals.get(loan_id, NO_TOTALS)))
+        lines.append(overview_line(facts, today, totals.get(loan_id, NO_TOTALS)))
     missing = {format_id(Kind.LOAN, loan): int(n) for loan, n in rows["MISSING"]}
     return Glance(sorted(lines, key=urgency), missing)
-
-
-def _line(loan: LoanFacts, today: date, totals: Totals) -> GlanceLine:
-    """The loan's line as reconcile's ``loan_line`` makes it, by the same rules."""
-    terms, used = loan.terms, used_fraction(loan.terms, totals)
-    return GlanceLine(
-        id=loan.id, reference=loan.reference, lender_code=loan.lender_code,
-        status=loan.status.value, drilled_mg=totals.drilled,
-        max_total_mass_mg=terms.max_total_mass_mg, used_fraction=used, due_on=terms.due_on,
-        days_left=(terms.due_on - today).days, sampled=totals.sampled,
-        specimens=totals.specimens, on_hand=totals.on_hand,
-        flags=loan_flags(loan, today, totals, used),
-    )  # fmt: skip
 
 
 class Glancer:

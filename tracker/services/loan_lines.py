@@ -6,11 +6,12 @@ Its flags and its place in the order come from :mod:`tracker.services.loan_rules
 from __future__ import annotations
 
 import math
+from dataclasses import asdict
 from datetime import date
 
 from pydantic import Field
 
-from tracker.services.loan_rules import LoanFacts, Totals, loan_flags, used_fraction
+from tracker.services.loan_rules import LoanFacts, Totals, overview_line
 from tracker.services.view_base import View
 
 
@@ -60,20 +61,16 @@ def loan_line(
     totals: Totals,
     specimen_lines: list[SpecimenLine] | None = None,
 ) -> LoanLine:
-    """A loan's line from its totals (and its specimens' lines, when they were read)."""
+    """A loan's line from its totals (and its specimens' lines, when they were read): what the
+    overview shows of it (:func:`overview_line`), its terms and its masses in full."""
+    shown = asdict(overview_line(loan, today, totals))
     terms = loan.terms
-    used = used_fraction(terms, totals)
     return LoanLine(
-        id=loan.id, reference=loan.reference, lender=loan.lender, lender_code=loan.lender_code,
-        status=loan.status.value, terms_version=terms.version,
+        **shown, lender=loan.lender, terms_version=terms.version,
         permitted_tissues=list(terms.permitted_tissues),
         max_mass_per_specimen_mg=terms.max_mass_per_specimen_mg,
-        max_total_mass_mg=terms.max_total_mass_mg,
-        max_specimens_sampled=terms.max_specimens_sampled, specimens=totals.specimens,
-        on_hand=totals.on_hand, sampled=totals.sampled, drilled_mg=totals.drilled,
-        drilled_u_mg=math.sqrt(totals.variance), used_fraction=used,
-        dissolved_mg=totals.dissolved, powder_on_hand_mg=totals.powder_on_hand,
-        powder_returned_mg=totals.returned, due_on=terms.due_on,
-        days_left=(terms.due_on - today).days, flags=loan_flags(loan, today, totals, used),
+        max_specimens_sampled=terms.max_specimens_sampled,
+        drilled_u_mg=math.sqrt(totals.variance), dissolved_mg=totals.dissolved,
+        powder_on_hand_mg=totals.powder_on_hand, powder_returned_mg=totals.returned,
         specimen_lines=specimen_lines or [],
     )  # fmt: skip

@@ -66,7 +66,7 @@ class LoanFacts:
 
 
 class Ranked(Protocol):
-    """What the order of the lines looks at (a LoanLine, or a line of the glance)."""
+    """What the order of the lines looks at (a LoanLine, or an OverviewLine)."""
 
     @property
     def status(self) -> str: ...
@@ -84,6 +84,38 @@ class Ranked(Protocol):
 def used_fraction(terms: Terms, totals: Totals) -> float | None:
     """How much of the loan's total allowance is drilled (None: no total limit)."""
     return totals.drilled / terms.max_total_mass_mg if terms.max_total_mass_mg else None
+
+
+@dataclass(frozen=True, slots=True)
+class OverviewLine:
+    """What the overview shows of a loan: the part of its LoanLine the glance can give too."""
+
+    id: str
+    reference: str
+    lender_code: str
+    status: str
+    drilled_mg: float
+    max_total_mass_mg: float | None
+    used_fraction: float | None
+    due_on: date
+    days_left: int
+    sampled: int
+    specimens: int
+    on_hand: int
+    flags: list[str]
+
+
+def overview_line(loan: LoanFacts, today: date, totals: Totals) -> OverviewLine:
+    """A loan judged on ``today``: its allowance used, days left and flags."""
+    terms, used = loan.terms, used_fraction(loan.terms, totals)
+    return OverviewLine(
+        id=loan.id, reference=loan.reference, lender_code=loan.lender_code,
+        status=loan.status.value, drilled_mg=totals.drilled,
+        max_total_mass_mg=terms.max_total_mass_mg, used_fraction=used, due_on=terms.due_on,
+        days_left=(terms.due_on - today).days, sampled=totals.sampled,
+        specimens=totals.specimens, on_hand=totals.on_hand,
+        flags=loan_flags(loan, today, totals, used),
+    )  # fmt: skip
 
 
 def loan_flags(loan: LoanFacts, today: date, totals: Totals, used: float | None) -> list[str]:
@@ -118,7 +150,7 @@ def urgency(line: Ranked) -> tuple[int, int, int, float]:
 
 def totals_from_row(row: Sequence[Any]) -> tuple[int, Totals]:
     """A loan's ID and totals from one row of the grouped statement over its specimens'
-    books (reconcile's ``loan_totals_statement``), however that row was read."""
+    books (reconcile's ``_totals_statement``), however that row was read."""
     (loan, count, holding, sampled, drilled, variance, dissolved, on_hand, returned, most,
      override, unaccounted, missing, powder_left) = row  # fmt: skip
     flags = {"override used": override, "unaccounted material": unaccounted,

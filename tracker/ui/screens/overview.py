@@ -19,7 +19,8 @@ from textual.screen import Screen
 from textual.widgets import DataTable, Footer, Static
 
 from tracker.domain.errors import TrackerError
-from tracker.services.glance import Glance, GlanceLine
+from tracker.services.glance import Glance
+from tracker.services.loan_rules import OverviewLine
 from tracker.ui.context import database, tracker_app
 from tracker.ui.messages import Refused, refusal_text
 from tracker.ui.widgets.bars import flag_cell, usage_bar
@@ -28,8 +29,8 @@ from tracker.ui.widgets.operator_bar import OperatorBar
 if TYPE_CHECKING:
     from tracker.services.loan_lines import LoanLine
 
-# A line as the overview draws it: the services' LoanLine, or the glance's line before them.
-Shown: TypeAlias = "LoanLine | GlanceLine"
+# A line as the overview draws it: the services' LoanLine, or the glance's OverviewLine before.
+Shown: TypeAlias = "LoanLine | OverviewLine"
 FLAGS_WIDTH = 17  # the whole table fits 80 columns; wider terminals show more of each flag
 
 
