@@ -95,16 +95,16 @@ async def scan(pilot: Pilot[None], text: str, gap: float = 0.004) -> None:
     The events carry scanner timing whatever the test machine's speed, so the burst
     detector is tested on timing, not on how fast CI happens to be.
     """
-    start = get_time()
-    keys = [_key(c) for c in text] + [events.Key("enter", "\r")]
-    for index, key in enumerate(keys):
-        key.time = start + index * gap
-        pilot.app.post_message(key)
-    await settle(pilot)
+    await _keys_then_enter(pilot, text, gap)
 
 
 async def type_slowly(pilot: Pilot[None], text: str, gap: float = 0.25) -> None:
     """A person typing (keys far apart), then Enter."""
+    await _keys_then_enter(pilot, text, gap)
+
+
+async def _keys_then_enter(pilot: Pilot[None], text: str, gap: float) -> None:
+    """The characters of ``text`` then Enter, stamped ``gap`` seconds apart."""
     start = get_time()
     keys = [_key(c) for c in text] + [events.Key("enter", "\r")]
     for index, key in enumerate(keys):
