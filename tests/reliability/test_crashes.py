@@ -15,15 +15,17 @@ import random
 import time
 from collections import Counter
 from collections.abc import Iterator
+from contextlib import contextmanager
 from pathlib import Path
 
 import pytest
 from sqlalchemy import func, select
+from sqlalchemy.orm import Session
 
 from tests import factories as make
 from tests.reliability.harness import CrashReport, Zygote, crash_rounds
 from tests.reliability.report import record
-from tracker.db.database import open_database
+from tracker.db.database import Database, open_database
 from tracker.domain.models import (
     BatchPosition,
     ColumnBatch,
@@ -121,12 +123,27 @@ def _one_call(zygote: Zygote, folder: Path, job: str, args: dict[str, object]) -
     return 1.3 * (time.monotonic() - started)
 
 
+@contextmanager
+def _one_snapshot(db: Database) -> Iterator[Session]:
+    """A read session whose statements all see one snapshot.
+
+    On PostgreSQL the server finishes a COMMIT the killed client had already sent; under
+    READ COMMITTED it could land between two of a checker's statements (8 sessions counted,
+    then 9 import events). REPEATABLE READ makes the checker see the database before that
+    commit or after it, never half of each.
+    """
+    with db.read_session() as session:
+        if session.get_bind().dialect.name == "postgresql":
+            session.connection(execution_options={"isolation_level": "REPEATABLE READ"})
+        yield session
+
+
 def _sessions_whole(url: str, most: int) -> int:
     """Every session has all its rows and exactly one import event; returns how many."""
     db = open_database(url)
     try:
         assert ledger.verify(db).ok
-        with db.read_session() as session:
+        with _one_snapshot(db) as session:
             sizes = session.execute(
                 select(InstrumentSession.source_sha256, func.count(Measurement.id))
                 .outerjoin(Measurement).group_by(InstrumentSession.id)
@@ -171,7 +188,7 @@ def _batches_whole(url: str) -> int:
     db = open_database(url)
     try:
         assert ledger.verify(db).ok
-        with db.read_session() as session:
+        with _one_snapshot(db) as session:
             positions = Counter(dict(session.execute(
                 select(ColumnBatch.id, func.count(BatchPosition.id))
                 .outerjoin(BatchPosition).group_by(ColumnBatch.id)).all()))  # fmt: skip
@@ -233,7 +250,7 @@ def _lists_whole(url: str) -> int:
     db = open_database(url)
     try:
         assert ledger.verify(db).ok
-        with db.read_session() as session:
+        with _one_snapshot(db) as session:
             sizes = session.execute(
                 select(Specimen.loan_id, func.count(Specimen.id)).group_by(Specimen.loan_id)
             ).all()
