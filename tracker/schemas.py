@@ -63,46 +63,88 @@ def _ledger_lines() -> dict[str, Any]:
 # file name -> (title, description, generator)
 DOCUMENTS: dict[str, tuple[str, str, Callable[[], dict[str, Any]]]] = {
     "plan.schema.json": ("tracker plan", "Output of `tracker --json plan`.", _of(Plan)),
-    "reconcile.schema.json": ("tracker reconcile", "Output of `tracker --json reconcile`.",
-                              _of(list[LoanLine])),
+    "reconcile.schema.json": (
+        "tracker reconcile",
+        "Output of `tracker --json reconcile`.",
+        _of(list[LoanLine]),
+    ),
     "show.schema.json": ("tracker show", "Output of `tracker --json show`.", _of(ItemDetail)),
-    "batch-summary.schema.json": ("tracker batch show", "Output of `tracker --json batch show`.",
-                                  _of(BatchSummary)),
-    "session-import.schema.json": ("tracker session import",
-                                   "Output of `tracker --json session import`.",
-                                   _of(Done[SessionView])),
-    "reduction.schema.json": ("tracker session reduce",
-                              "Output of `tracker --json session reduce`.", _of(Done[Reduction])),
-    "results.schema.json": ("tracker results", "Output of `tracker --json results`.",
-                            _of(list[SpecimenResult])),
-    "screening.schema.json": ("tracker screen", "Output of `tracker --json screen`.",
-                              _of(list[Screening])),
-    "mapping-profile.schema.json": ("mapping profile", "A column mapping profile file, read by "
-                                    "`tracker profile save NAME FILE`.", _of(ProfileDefinition)),
-    "manifest-row.schema.json": ("manifest row", "One row of a lender's specimen list "
-                                 "(Darwin Core terms), read by `tracker manifest import`.",
-                                 _of(ManifestRecord)),
-    "manifest-mapping.schema.json": ("manifest mapping", "A manifest column mapping file, read "
-                                     "by `tracker manifest mapping NAME FILE`.",
-                                     _of(ManifestMapping)),
-    "manifest-preview.schema.json": ("manifest preview", "Output of `tracker --json manifest "
-                                     "preview`.", _of(ManifestPreview)),
-    "return-report.schema.json": ("return report", "The return report as JSON "
-                                  "(`tracker report return LOAN --format json`).",
-                                  _of(ReturnReport)),
+    "batch-summary.schema.json": (
+        "tracker batch show",
+        "Output of `tracker --json batch show`.",
+        _of(BatchSummary),
+    ),
+    "session-import.schema.json": (
+        "tracker session import",
+        "Output of `tracker --json session import`.",
+        _of(Done[SessionView]),
+    ),
+    "reduction.schema.json": (
+        "tracker session reduce",
+        "Output of `tracker --json session reduce`.",
+        _of(Done[Reduction]),
+    ),
+    "results.schema.json": (
+        "tracker results",
+        "Output of `tracker --json results`.",
+        _of(list[SpecimenResult]),
+    ),
+    "screening.schema.json": (
+        "tracker screen",
+        "Output of `tracker --json screen`.",
+        _of(list[Screening]),
+    ),
+    "mapping-profile.schema.json": (
+        "mapping profile",
+        "A column mapping profile file, read by `tracker profile save NAME FILE`.",
+        _of(ProfileDefinition),
+    ),
+    "manifest-row.schema.json": (
+        "manifest row",
+        "One row of a lender's specimen list "
+        "(Darwin Core terms), read by `tracker manifest import`.",
+        _of(ManifestRecord),
+    ),
+    "manifest-mapping.schema.json": (
+        "manifest mapping",
+        "A manifest column mapping file, read by `tracker manifest mapping NAME FILE`.",
+        _of(ManifestMapping),
+    ),
+    "manifest-preview.schema.json": (
+        "manifest preview",
+        "Output of `tracker --json manifest preview`.",
+        _of(ManifestPreview),
+    ),
+    "return-report.schema.json": (
+        "return report",
+        "The return report as JSON (`tracker report return LOAN --format json`).",
+        _of(ReturnReport),
+    ),
     "ledger-line.schema.json": ("ledger line", "A line of an exported ledger.", _ledger_lines),
-    "label-stocks.schema.json": ("label stocks", "A label-stock TOML file "
-                                 "(`--stocks FILE` or TRACKER_LABEL_STOCKS).", _stock_file),
-    "anchor.schema.json": ("ledger anchor", "An anchor file, written by `tracker ledger anchor` "
-                           "and beside every return report, read by `tracker ledger verify "
-                           "--anchor`.", _of(AnchorFile)),
-    "correction.schema.json": ("tracker correct", "Output of `tracker --json correct ...`.",
-                               _of(Done[CorrectionView])),
-    "batch-sheet.schema.json": ("tracker batch sheet", "Output of `tracker --json batch sheet`.",
-                                _of(Done[SheetView])),
-    "backup.schema.json": ("tracker backup", "Output of `tracker --json backup`.",
-                           _of(BackupView)),
-}  # fmt: skip
+    "label-stocks.schema.json": (
+        "label stocks",
+        "A label-stock TOML file (`--stocks FILE` or TRACKER_LABEL_STOCKS).",
+        _stock_file,
+    ),
+    "anchor.schema.json": (
+        "ledger anchor",
+        "An anchor file, written by `tracker ledger anchor` "
+        "and beside every return report, read by `tracker ledger verify "
+        "--anchor`.",
+        _of(AnchorFile),
+    ),
+    "correction.schema.json": (
+        "tracker correct",
+        "Output of `tracker --json correct ...`.",
+        _of(Done[CorrectionView]),
+    ),
+    "batch-sheet.schema.json": (
+        "tracker batch sheet",
+        "Output of `tracker --json batch sheet`.",
+        _of(Done[SheetView]),
+    ),
+    "backup.schema.json": ("tracker backup", "Output of `tracker --json backup`.", _of(BackupView)),
+}
 
 
 def generate(name: str) -> dict[str, Any]:

@@ -44,9 +44,21 @@ def test_generate_refuses_an_existing_file(tmp_path: Path) -> None:
 
 
 def test_a_small_run_prints_each_figure_with_its_floor_and_no_disagreement(tmp_path: Path) -> None:
-    result = invoke("bench", "run", "--scale", "0.002", "--backend", "sqlite", "--repeat", "1",
-                    "--only", "reconcile,verify,lookup,lineage", "--cache", str(tmp_path),
-                    as_json=True)  # fmt: skip
+    result = invoke(
+        "bench",
+        "run",
+        "--scale",
+        "0.002",
+        "--backend",
+        "sqlite",
+        "--repeat",
+        "1",
+        "--only",
+        "reconcile,verify,lookup,lineage",
+        "--cache",
+        str(tmp_path),
+        as_json=True,
+    )
     assert result.exit_code in (0, 1), result.stderr  # 1: a target missed (tiny scales say nothing)
     report = json.loads(result.stdout)
     figures = {f["key"]: f for f in report["figures"]}
@@ -59,9 +71,23 @@ def test_a_small_run_prints_each_figure_with_its_floor_and_no_disagreement(tmp_p
 
 def test_markdown_holds_the_same_figures_as_the_json(tmp_path: Path) -> None:
     out = tmp_path / "perf.md"
-    result = invoke("bench", "run", "--scales", "0.002,0.004", "--backend", "sqlite",
-                    "--repeat", "1", "--only", "reconcile,lineage", "--cache", str(tmp_path),
-                    "--markdown", str(out), as_json=True)  # fmt: skip
+    result = invoke(
+        "bench",
+        "run",
+        "--scales",
+        "0.002,0.004",
+        "--backend",
+        "sqlite",
+        "--repeat",
+        "1",
+        "--only",
+        "reconcile,lineage",
+        "--cache",
+        str(tmp_path),
+        "--markdown",
+        str(out),
+        as_json=True,
+    )
     assert result.exit_code in (0, 1), result.stderr
     report = json.loads(result.stdout)
     text = out.read_text(encoding="utf-8")
@@ -76,7 +102,15 @@ def test_markdown_holds_the_same_figures_as_the_json(tmp_path: Path) -> None:
 
 
 def test_markdown_into_a_missing_folder_is_refused_before_running(tmp_path: Path) -> None:
-    result = invoke("bench", "run", "--scale", "0.002", "--cache", str(tmp_path),
-                    "--markdown", str(tmp_path / "nowhere" / "perf.md"))  # fmt: skip
+    result = invoke(
+        "bench",
+        "run",
+        "--scale",
+        "0.002",
+        "--cache",
+        str(tmp_path),
+        "--markdown",
+        str(tmp_path / "nowhere" / "perf.md"),
+    )
     assert result.exit_code == 2 and "--markdown" in result.stderr
     assert not list(tmp_path.iterdir())

@@ -56,8 +56,18 @@ def test_the_plan_covers_every_action_and_both_kinds_of_loan(both: tuple[Built, 
     statuses = {row.status for row in rows["loan"]}
     assert statuses == {"open", "returned"}
     actions = {row.action.split(".")[0] for row in rows["custody_event"]}
-    for family in ("specimen", "powder", "solution", "aliquot", "batch", "cut", "item",
-                   "session", "loan", "concentration"):  # fmt: skip
+    for family in (
+        "specimen",
+        "powder",
+        "solution",
+        "aliquot",
+        "batch",
+        "cut",
+        "item",
+        "session",
+        "loan",
+        "concentration",
+    ):
         assert family in actions, family
     assert {row.role for row in rows["measurement"]} == {"standard", "sample", "reference", "blank"}
     assert rows["result"], "sessions were reduced"

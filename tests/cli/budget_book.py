@@ -133,8 +133,13 @@ def book(reference: str) -> LoanBook:
     (loan_step,) = [s for s in steps if s["do"] == "loan" and s["args"]["reference"] == reference]
     loan = "@" + loan_step["as"]
     original = loan_step["args"]["terms"]
-    keys = ("permitted_tissues", "max_mass_per_specimen", "max_total_mass",
-            "max_specimens_sampled", "due_on")  # fmt: skip
+    keys = (
+        "permitted_tissues",
+        "max_mass_per_specimen",
+        "max_total_mass",
+        "max_specimens_sampled",
+        "due_on",
+    )
     terms = {key: term(key, original[key]) for key in keys}
     catalog = {
         s["as"]: s["args"]["catalog_number"]

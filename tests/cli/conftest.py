@@ -114,23 +114,58 @@ def build_lab(path: Path) -> Lab:
     box = run("location", "add", "box", "Box 3", "--in", room)["item"]["id"]
     run("lender", "add", "Fernhollow Natural History Collection", "--code", "FNHC")
     loan = run(
-        "loan", "add", "--lender", "Fernhollow Natural History Collection",
-        "--reference", "FH-77", "--title", "Invented teeth for CLI tests",
-        "--borrower", "Ysolde Marrin", "--tissues", "enamel",
-        "--max-per-specimen", "6 mg", "--max-total", "20 mg", "--max-specimens", "3",
-        "--received", past_day(), "--due", future_due_day(),
-    )["item"]["id"]  # fmt: skip
+        "loan",
+        "add",
+        "--lender",
+        "Fernhollow Natural History Collection",
+        "--reference",
+        "FH-77",
+        "--title",
+        "Invented teeth for CLI tests",
+        "--borrower",
+        "Ysolde Marrin",
+        "--tissues",
+        "enamel",
+        "--max-per-specimen",
+        "6 mg",
+        "--max-total",
+        "20 mg",
+        "--max-specimens",
+        "3",
+        "--received",
+        past_day(),
+        "--due",
+        future_due_day(),
+    )["item"]["id"]
     on_hand = run("specimen", "add", "--loan", "FH-77", "--catalog", "FNHC Z-1")["item"]["id"]
     expected = run("specimen", "add", "--loan", "FH-77", "--catalog", "FNHC Z-2")["item"]["id"]
     run("checkin", on_hand, "--condition", "complete", "--to", box, actor=tech)
     powder = run(
-        "drill", on_hand, "--tissue", "enamel",
-        "--tare", "1203.557 mg", "--gross", "1206.118 mg", "--to", box, actor=tech,
-    )["item"]["id"]  # fmt: skip
+        "drill",
+        on_hand,
+        "--tissue",
+        "enamel",
+        "--tare",
+        "1203.557 mg",
+        "--gross",
+        "1206.118 mg",
+        "--to",
+        box,
+        actor=tech,
+    )["item"]["id"]
     solution = run(
-        "dissolve", powder, "--acid", "2 M HNO3", "--powder-taken", "1.500 mg",
-        "--vial-tare", "6.3812 g", "--vial-gross", "7.3812 g", actor=tech,
-    )["item"]["id"]  # fmt: skip
+        "dissolve",
+        powder,
+        "--acid",
+        "2 M HNO3",
+        "--powder-taken",
+        "1.500 mg",
+        "--vial-tare",
+        "6.3812 g",
+        "--vial-gross",
+        "7.3812 g",
+        actor=tech,
+    )["item"]["id"]
     conc = ("concentration", solution, "--element", "Ca", "--value", "450 ug/g", "--rel-u", "1.5")
     run(*conc, actor=tech)
     return Lab(path, manager, tech, box, loan, on_hand, expected, powder, solution)

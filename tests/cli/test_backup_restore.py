@@ -33,8 +33,9 @@ def _head(path: Path) -> tuple[int, str]:
 
 
 def _add_building(lab: Lab, name: str) -> None:
-    ok_json(invoke("location", "add", "building", name, db=lab.path, actor=lab.manager,
-                   as_json=True))  # fmt: skip
+    ok_json(
+        invoke("location", "add", "building", name, db=lab.path, actor=lab.manager, as_json=True)
+    )
 
 
 def test_backup_is_private_verified_and_never_overwrites(lab: Lab, tmp_path: Path) -> None:
@@ -110,9 +111,14 @@ def test_restore_refuses_a_backup_older_than_the_anchor(lab: Lab, tmp_path: Path
     ok_json(invoke("ledger", "anchor", "--out", str(anchor), db=lab.path, as_json=True))
     before = lab.path.read_bytes()
     result = invoke(
-        "restore", str(copy), "--anchor", str(anchor), "--accept-loss", db=lab.path,
+        "restore",
+        str(copy),
+        "--anchor",
+        str(anchor),
+        "--accept-loss",
+        db=lab.path,
         actor=lab.manager,
-    )  # fmt: skip
+    )
     assert result.exit_code == 1 and "newest event(s) are gone" in result.stderr
     assert lab.path.read_bytes() == before
 

@@ -13,10 +13,20 @@ WHY = "gross copied from the neighbouring vial's line"
 def test_a_technician_corrects_their_own_weighing_and_show_has_both(lab: Lab) -> None:
     answer = ok_json(
         invoke(
-            "correct", "weighing", lab.powder, "--tare", "1203.557 mg", "--gross", "1206.181 mg",
-            "--reason", WHY, db=lab.path, actor=lab.technician, as_json=True,
+            "correct",
+            "weighing",
+            lab.powder,
+            "--tare",
+            "1203.557 mg",
+            "--gross",
+            "1206.181 mg",
+            "--reason",
+            WHY,
+            db=lab.path,
+            actor=lab.technician,
+            as_json=True,
         )
-    )  # fmt: skip
+    )
     validate(answer, "correction.schema.json")
     # by hand: 1206.181 − 1203.557 = 2.624 mg (it was 1206.118 − 1203.557 = 2.561 mg)
     assert answer["item"]["value"]["mass_mg"] == pytest.approx(2.624)
@@ -40,10 +50,31 @@ def test_a_technician_corrects_their_own_weighing_and_show_has_both(lab: Lab) ->
 def test_correcting_someone_elses_entry_is_refused_in_one_line_until_a_manager_does_it(
     lab: Lab,
 ) -> None:
-    ok_json(invoke("operator", "add", "wren", "--name", "Wren Tallis", db=lab.path,
-                   actor=lab.manager, as_json=True))  # fmt: skip
-    argv = ("correct", "concentration", lab.solution, "--element", "Ca", "--value", "405 ug/g",
-            "--rel-u", "1.5", "--reason", "dilution factor applied twice")  # fmt: skip
+    ok_json(
+        invoke(
+            "operator",
+            "add",
+            "wren",
+            "--name",
+            "Wren Tallis",
+            db=lab.path,
+            actor=lab.manager,
+            as_json=True,
+        )
+    )
+    argv = (
+        "correct",
+        "concentration",
+        lab.solution,
+        "--element",
+        "Ca",
+        "--value",
+        "405 ug/g",
+        "--rel-u",
+        "1.5",
+        "--reason",
+        "dilution factor applied twice",
+    )
     before = counts(lab.path)
     refused = invoke(*argv, db=lab.path, actor="wren")
     assert refused.exit_code == 1

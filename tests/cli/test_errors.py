@@ -68,47 +68,142 @@ def drill(*extra: str, specimen: str = "{on_hand}") -> tuple[str, ...]:
 T = "{technician}"
 FUTURE = "2099-01-01"
 BAD_INPUT = [
-    Case("negative mass", drill("--tare", "-1.000 mg", "--gross", "2.000 mg"), T, 2, "--tare",
-         re.escape("-1.000 mg")),
+    Case(
+        "negative mass",
+        drill("--tare", "-1.000 mg", "--gross", "2.000 mg"),
+        T,
+        2,
+        "--tare",
+        re.escape("-1.000 mg"),
+    ),
     Case("zero reading", drill("--tare", "1.000 mg", "--gross", "0 mg"), T, 2, "--gross", "0 mg"),
-    Case("zero net mass", drill("--tare", "1.000 mg", "--gross", "1.000 mg"), T, 2, "--gross",
-         re.escape("1.000 mg")),
-    Case("gross lighter than tare", drill("--tare", "3.000 mg", "--gross", "2.000 mg"), T, 2,
-         "--gross", re.escape("2.000 mg")),
+    Case(
+        "zero net mass",
+        drill("--tare", "1.000 mg", "--gross", "1.000 mg"),
+        T,
+        2,
+        "--gross",
+        re.escape("1.000 mg"),
+    ),
+    Case(
+        "gross lighter than tare",
+        drill("--tare", "3.000 mg", "--gross", "2.000 mg"),
+        T,
+        2,
+        "--gross",
+        re.escape("2.000 mg"),
+    ),
     Case("unknown unit", drill("--tare", "2 kgz", "--gross", "2.000 mg"), T, 2, "--tare", "2 kgz"),
-    Case("text for a number", drill("--tare", "heavy", "--gross", "2.000 mg"), T, 2, "--tare",
-         "heavy"),
-    Case("unknown specimen ID", ("drill", "{unknown_specimen}", *GOOD_DRILL), T, 2,
-         "SPECIMEN", "{unknown_specimen}"),
-    Case("unknown location ID", ("move", "{powder}", "--to", "{unknown_location}"), T, 2, "--to",
-         "{unknown_location}"),
-    Case("malformed ID", ("drill", "SP-12-??", *GOOD_DRILL), T, 2, "SPECIMEN",
-         re.escape("SP-12-??")),
-    Case("wrong check character", ("drill", "{bad_check}", *GOOD_DRILL), T, 2, "SPECIMEN",
-         "{bad_check}"),
-    Case("future drill time", drill(*GOOD_DRILL[2:], "--at", f"{FUTURE}T00:00:00Z"), T, 2,
-         "--at", f"{FUTURE}T00:00:00(\\.0+)?Z"),
-    Case("future receipt time", ("checkin", "{expected}", "--condition", "ok", "--at",
-         f"{FUTURE}T08:00:00+02:00"), T, 2, "--at", f"{FUTURE}T06:00:00(\\.0+)?Z"),
+    Case(
+        "text for a number",
+        drill("--tare", "heavy", "--gross", "2.000 mg"),
+        T,
+        2,
+        "--tare",
+        "heavy",
+    ),
+    Case(
+        "unknown specimen ID",
+        ("drill", "{unknown_specimen}", *GOOD_DRILL),
+        T,
+        2,
+        "SPECIMEN",
+        "{unknown_specimen}",
+    ),
+    Case(
+        "unknown location ID",
+        ("move", "{powder}", "--to", "{unknown_location}"),
+        T,
+        2,
+        "--to",
+        "{unknown_location}",
+    ),
+    Case(
+        "malformed ID", ("drill", "SP-12-??", *GOOD_DRILL), T, 2, "SPECIMEN", re.escape("SP-12-??")
+    ),
+    Case(
+        "wrong check character",
+        ("drill", "{bad_check}", *GOOD_DRILL),
+        T,
+        2,
+        "SPECIMEN",
+        "{bad_check}",
+    ),
+    Case(
+        "future drill time",
+        drill(*GOOD_DRILL[2:], "--at", f"{FUTURE}T00:00:00Z"),
+        T,
+        2,
+        "--at",
+        f"{FUTURE}T00:00:00(\\.0+)?Z",
+    ),
+    Case(
+        "future receipt time",
+        ("checkin", "{expected}", "--condition", "ok", "--at", f"{FUTURE}T08:00:00+02:00"),
+        T,
+        2,
+        "--at",
+        f"{FUTURE}T06:00:00(\\.0+)?Z",
+    ),
     Case("missing --as", ("drill", "{on_hand}", *GOOD_DRILL), None, 2, "--as", None),
     Case("unknown operator", ("drill", "{on_hand}", *GOOD_DRILL), "ghost", 2, "--as", "ghost"),
-]  # fmt: skip
+]
 RULES = [
-    Case("checking in twice", ("checkin", "{on_hand}", "--condition", "again"), T, 1,
-         "SPECIMEN", "{on_hand}"),
-    Case("drilling before check-in", ("drill", "{expected}", *GOOD_DRILL), T, 1, "SPECIMEN",
-         "{expected}"),
-    Case("technician adds an operator", ("operator", "add", "kit", "--name", "Kit Ambery"), T, 1,
-         "--as", "{technician}"),
+    Case(
+        "checking in twice",
+        ("checkin", "{on_hand}", "--condition", "again"),
+        T,
+        1,
+        "SPECIMEN",
+        "{on_hand}",
+    ),
+    Case(
+        "drilling before check-in",
+        ("drill", "{expected}", *GOOD_DRILL),
+        T,
+        1,
+        "SPECIMEN",
+        "{expected}",
+    ),
+    Case(
+        "technician adds an operator",
+        ("operator", "add", "kit", "--name", "Kit Ambery"),
+        T,
+        1,
+        "--as",
+        "{technician}",
+    ),
     # The powder has 2.561 mg, 1.500 mg of it already dissolved: 1.061 mg remain.
-    Case("dissolving more than remains", ("dissolve", "{powder}", "--acid", "2 M HNO3",
-         "--powder-taken", "2.000 mg", "--vial-tare", "5.0000 g", "--vial-gross", "6.0000 g"),
-         T, 1, "--powder-taken", re.escape("2.000 mg")),
+    Case(
+        "dissolving more than remains",
+        (
+            "dissolve",
+            "{powder}",
+            "--acid",
+            "2 M HNO3",
+            "--powder-taken",
+            "2.000 mg",
+            "--vial-tare",
+            "5.0000 g",
+            "--vial-gross",
+            "6.0000 g",
+        ),
+        T,
+        1,
+        "--powder-taken",
+        re.escape("2.000 mg"),
+    ),
     # The solution holds 1.0000 g; the gross reading as typed is named, the reason gives
     # the aliquot's mass (gross - tare).
-    Case("aliquot larger than the solution", ("aliquot", "{solution}", "--tare", "3.1000 g",
-         "--gross", "4.6000 g"), T, 1, "--gross", r"4\.60*\s*g"),
-]  # fmt: skip
+    Case(
+        "aliquot larger than the solution",
+        ("aliquot", "{solution}", "--tare", "3.1000 g", "--gross", "4.6000 g"),
+        T,
+        1,
+        "--gross",
+        r"4\.60*\s*g",
+    ),
+]
 
 
 def one_error_line(stderr: str) -> str:
@@ -168,17 +263,52 @@ def test_the_good_version_of_the_refused_commands_is_accepted(lab: Lab) -> None:
 
 PARSER_CASES = [
     pytest.param(
-        Case("text for a number option", ("concentration", "{solution}", "--element", "Ca",
-             "--value", "450 ug/g", "--rel-u", "abc"), T, 2, "--rel-u", "abc"),
+        Case(
+            "text for a number option",
+            (
+                "concentration",
+                "{solution}",
+                "--element",
+                "Ca",
+                "--value",
+                "450 ug/g",
+                "--rel-u",
+                "abc",
+            ),
+            T,
+            2,
+            "--rel-u",
+            "abc",
+        ),
         id="text for --rel-u",
     ),
     pytest.param(
-        Case("impossible date", ("batch", "create", "--name", "B1", "--date", "2026-13-45",
-             "--element", "Ca", "--resin", "DGA", "--scheme", "x", "--cuts", "Ca"), T, 2,
-             "--date", "2026-13-45"),
+        Case(
+            "impossible date",
+            (
+                "batch",
+                "create",
+                "--name",
+                "B1",
+                "--date",
+                "2026-13-45",
+                "--element",
+                "Ca",
+                "--resin",
+                "DGA",
+                "--scheme",
+                "x",
+                "--cuts",
+                "Ca",
+            ),
+            T,
+            2,
+            "--date",
+            "2026-13-45",
+        ),
         id="impossible --date",
     ),
-]  # fmt: skip
+]
 
 
 @pytest.mark.parametrize("case", PARSER_CASES)
@@ -188,8 +318,14 @@ def test_option_type_errors_follow_the_same_contract(case: Case, lab: Lab) -> No
 
 def test_drilling_a_tissue_the_loan_does_not_permit_is_refused(lab: Lab) -> None:
     # The lab's loan permits enamel only.
-    case = Case("tissue not permitted", ("drill", "{on_hand}", "--tissue", "bone",
-                *GOOD_DRILL[2:]), T, 1, "--tissue", "bone")  # fmt: skip
+    case = Case(
+        "tissue not permitted",
+        ("drill", "{on_hand}", "--tissue", "bone", *GOOD_DRILL[2:]),
+        T,
+        1,
+        "--tissue",
+        "bone",
+    )
     check_refusal(case, lab)
 
 

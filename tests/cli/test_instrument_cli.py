@@ -202,11 +202,26 @@ def import_file(
     as_json: bool = True,
 ) -> Result:
     return invoke(
-        "session", "import", str(path), "--profile", profile, "--name", f"test {path.stem}",
-        "--instrument", "MC-ICP-MS (invented)", "--element", element, "--standard", standard,
-        "--started", "2026-12-01T09:00:00+00:00", *extra,
-        db=db, actor=TECH, as_json=as_json,
-    )  # fmt: skip
+        "session",
+        "import",
+        str(path),
+        "--profile",
+        profile,
+        "--name",
+        f"test {path.stem}",
+        "--instrument",
+        "MC-ICP-MS (invented)",
+        "--element",
+        element,
+        "--standard",
+        standard,
+        "--started",
+        "2026-12-01T09:00:00+00:00",
+        *extra,
+        db=db,
+        actor=TECH,
+        as_json=as_json,
+    )
 
 
 def reduce(db: Path, session: str, *, as_json: bool = True) -> Result:
@@ -259,11 +274,20 @@ def test_a_saved_profile_imports_and_reduces_a_session_on_the_demo(
     assert "halvard-ca" in [p["name"] for p in listed]
 
     targets = [
-        ("SRM 915b", 0.75, 0.36), (a, -0.30, -0.15), (b, -0.52, -0.25), (c, 0.20, 0.10),
-        ("Seawater in-house", 1.64, 0.88), ("acid rinse 2% HNO3", 0.01, 0.0),
-        (a, -0.36, -0.19), (b, -0.47, -0.22), (c, 0.26, 0.12), ("SRM 915b", 0.79, 0.38),
-        ("Seawater in-house", 1.68, 0.90), (sr_cut, 0.0, 0.0), (mistyped, 0.1, 0.05),
-    ]  # fmt: skip
+        ("SRM 915b", 0.75, 0.36),
+        (a, -0.30, -0.15),
+        (b, -0.52, -0.25),
+        (c, 0.20, 0.10),
+        ("Seawater in-house", 1.64, 0.88),
+        ("acid rinse 2% HNO3", 0.01, 0.0),
+        (a, -0.36, -0.19),
+        (b, -0.47, -0.22),
+        (c, 0.26, 0.12),
+        ("SRM 915b", 0.79, 0.38),
+        ("Seawater in-house", 1.68, 0.90),
+        (sr_cut, 0.0, 0.0),
+        (mistyped, 0.1, 0.05),
+    ]
     export = bench_export(targets)
     path = tmp_path / "halvard-run.csv"
     path.write_bytes(export.csv_bytes())
@@ -277,8 +301,11 @@ def test_a_saved_profile_imports_and_reduces_a_session_on_the_demo(
     item = imported["item"]
     n_standards = len(targets) + 1
     assert (item["standards"], item["samples"], item["references"], item["blanks"]) == (
-        n_standards, 6, 4, 0,
-    )  # fmt: skip
+        n_standards,
+        6,
+        4,
+        0,
+    )
     assert item["measurements"] == len(export.data()) == 2 * len(targets) + 1
     # unmatched rows are listed with their line in the file and their run number …
     unmatched = {u["sample_name"]: u for u in item["unmatched"]}
@@ -341,9 +368,22 @@ def test_the_import_lists_unmatched_rows_for_people_too(demo: Path, tmp_path: Pa
     path = tmp_path / "people.csv"
     path.write_bytes(export.csv_bytes())
     result = invoke(
-        "session", "import", str(path), "--profile", "halvard-ca", "--name", "people",
-        "--instrument", "rig", "--element", "Ca", "--standard", STD, db=demo, actor=TECH,
-    )  # fmt: skip
+        "session",
+        "import",
+        str(path),
+        "--profile",
+        "halvard-ca",
+        "--name",
+        "people",
+        "--instrument",
+        "rig",
+        "--element",
+        "Ca",
+        "--standard",
+        STD,
+        db=demo,
+        actor=TECH,
+    )
     assert result.exit_code == 0, result.stderr
     # bench_export: 2 preamble lines, header on line 3, then std, cut, std, rinse blank
     assert "1 unmatched" in result.stdout

@@ -64,22 +64,46 @@ PREAMBLE_LINES = len(PREAMBLE)
 L = PREAMBLE_LINES + 1  # the header's line; data start on L + 1
 BAD_FILES = [  # (id, change, field the refusal names, words of its reason)
     ("zero", lambda e: _set(e, L + 2, R4440, "0"), f"row {L + 2}, column {R4440}", "positive"),
-    ("negative", lambda e: _set(e, L + 2, R4442, "-3.2154"), f"row {L + 2}, column {R4442}",
-     "positive"),
+    (
+        "negative",
+        lambda e: _set(e, L + 2, R4442, "-3.2154"),
+        f"row {L + 2}, column {R4442}",
+        "positive",
+    ),
     ("nan", lambda e: _set(e, L + 4, R4440, "NaN"), f"row {L + 4}, column {R4440}", "finite"),
-    ("text", lambda e: _set(e, L + 4, R4442, "over range"), f"row {L + 4}, column {R4442}",
-     "not a number"),
+    (
+        "text",
+        lambda e: _set(e, L + 4, R4442, "over range"),
+        f"row {L + 4}, column {R4442}",
+        "not a number",
+    ),
     ("empty", lambda e: _set(e, L + 6, R4440, ""), f"row {L + 6}, column {R4440}", "empty"),
-    ("duplicate run", lambda e: _set(e, L + 5, "Seq#", "104"), f"row {L + 5}, column Seq#",
-     f"repeats row {L + 4}"),
-    ("huge run", lambda e: _set(e, L + 5, "Seq#", "9.223372036854776e+18"),  # hypothesis found
-     f"row {L + 5}, column Seq#", "beyond 999,999,999 runs"),
+    (
+        "duplicate run",
+        lambda e: _set(e, L + 5, "Seq#", "104"),
+        f"row {L + 5}, column Seq#",
+        f"repeats row {L + 4}",
+    ),
+    (
+        "huge run",
+        lambda e: _set(e, L + 5, "Seq#", "9.223372036854776e+18"),  # hypothesis found
+        f"row {L + 5}, column Seq#",
+        "beyond 999,999,999 runs",
+    ),
     ("missing column", lambda e: _drop_column(e, E4442), "--profile", "the file has: "),
-    ("no standard after", lambda e: _drop_line(e, L + 7), f"row {L + 6}, column Vial label",
-     "no bracketing standard measured after"),
-    ("no standard before", lambda e: _drop_line(e, L + 1), f"row {L + 1}, column Vial label",
-     "no bracketing standard measured before"),
-]  # fmt: skip
+    (
+        "no standard after",
+        lambda e: _drop_line(e, L + 7),
+        f"row {L + 6}, column Vial label",
+        "no bracketing standard measured after",
+    ),
+    (
+        "no standard before",
+        lambda e: _drop_line(e, L + 1),
+        f"row {L + 1}, column Vial label",
+        "no bracketing standard measured before",
+    ),
+]
 
 
 @pytest.mark.parametrize(
@@ -123,14 +147,26 @@ def test_an_unknown_profile_is_refused_and_json_mode_explains(demo: Path, tmp_pa
 
 
 BAD_PROFILES = [
-    ("no ratios table", PROFILE_TOML.split("[columns.ratios]")[0], "key columns.ratios",
-     "required"),
-    ("dash in a ratio name", PROFILE_TOML.replace('"44/40" = "R', '"44-40" = "R'),
-     "key columns.ratios", "'44-40'"),
-    ("empty ratios table", PROFILE_TOML.split("[columns.ratios]")[0] + "[columns.ratios]\n",
-     "key columns.ratios", "at least 1"),
+    (
+        "no ratios table",
+        PROFILE_TOML.split("[columns.ratios]")[0],
+        "key columns.ratios",
+        "required",
+    ),
+    (
+        "dash in a ratio name",
+        PROFILE_TOML.replace('"44/40" = "R', '"44-40" = "R'),
+        "key columns.ratios",
+        "'44-40'",
+    ),
+    (
+        "empty ratios table",
+        PROFILE_TOML.split("[columns.ratios]")[0] + "[columns.ratios]\n",
+        "key columns.ratios",
+        "at least 1",
+    ),
     ("not TOML", "format = 'csv'\n[columns\n", "row 2, column 9", "not valid TOML"),
-]  # fmt: skip
+]
 
 
 @pytest.mark.parametrize(
@@ -171,9 +207,17 @@ def test_an_xlsx_export_imports_the_same_as_its_csv_twin(demo: Path, tmp_path: P
     ok_json(save_profile(demo, tmp_path, "halvard-xlsx", profile_text("xlsx", "Bench run")))
     a, b, *_ = demo_cuts(demo, CA_BATCH)
     export = bench_export(
-        [(a, -0.3, -0.15), ("SRM 915b", 0.75, 0.36), (b, 0.5, 0.24), ("wash", 0.0, 0.0),
-         (a, -0.35, -0.17), (b, 0.45, 0.21), ("SRM 915b", 0.70, 0.33)], blank_after=2,
-    )  # fmt: skip
+        [
+            (a, -0.3, -0.15),
+            ("SRM 915b", 0.75, 0.36),
+            (b, 0.5, 0.24),
+            ("wash", 0.0, 0.0),
+            (a, -0.35, -0.17),
+            (b, 0.45, 0.21),
+            ("SRM 915b", 0.70, 0.33),
+        ],
+        blank_after=2,
+    )
     (tmp_path / "twin.csv").write_bytes(export.csv_bytes())
     (tmp_path / "twin.xlsx").write_bytes(export.xlsx_bytes("Bench run"))
     from_csv = ok_json(import_file(demo, tmp_path / "twin.csv", "halvard-ca"))["item"]

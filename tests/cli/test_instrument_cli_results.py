@@ -139,13 +139,25 @@ def test_human_screening_table_shows_the_verdicts(demo_db: Path) -> None:
 
 CURVE_HEAD = "age_ma,87sr/86sr,u\n"
 BAD_CURVES = [  # (id, file, field the refusal names, words of its reason)
-    ("unsorted", "370,0.70820,0.00003\n380,0.70790,0.00003\n375,0.70805,0.00003\n",
-     "row 4, column age_ma", "sort the curve"),
-    ("empty cell", "370,0.70820,0.00003\n380,0.70790,\n390,0.70795,0.00003\n",
-     "row 3, column u", "empty"),
-    ("text", "370,0.70820,0.00003\n380,about 0.7079,0.00003\n390,0.70795,0.00003\n",
-     "row 3, column 87sr/86sr", "'about 0.7079' is not a number"),
-]  # fmt: skip
+    (
+        "unsorted",
+        "370,0.70820,0.00003\n380,0.70790,0.00003\n375,0.70805,0.00003\n",
+        "row 4, column age_ma",
+        "sort the curve",
+    ),
+    (
+        "empty cell",
+        "370,0.70820,0.00003\n380,0.70790,\n390,0.70795,0.00003\n",
+        "row 3, column u",
+        "empty",
+    ),
+    (
+        "text",
+        "370,0.70820,0.00003\n380,about 0.7079,0.00003\n390,0.70795,0.00003\n",
+        "row 3, column 87sr/86sr",
+        "'about 0.7079' is not a number",
+    ),
+]
 
 
 @pytest.mark.parametrize(
@@ -215,11 +227,26 @@ def test_results_convert_exactly_to_a_new_reference_scale(demo: Path) -> None:
     add = ("reference", "add", "SW-test", "--element", "Ca")
     ok_json(invoke(*add, db=demo, actor=MANAGER, as_json=True))
     for ratio, value in anchors.items():
-        ok_json(invoke(
-            "reference", "value", "SW-test", "--ratio", ratio, "--scale", "SRM 915a",
-            "--value", str(value), "--two-sd", "0.1", "--source", "invented for a test",
-            db=demo, actor=MANAGER, as_json=True,
-        ))  # fmt: skip
+        ok_json(
+            invoke(
+                "reference",
+                "value",
+                "SW-test",
+                "--ratio",
+                ratio,
+                "--scale",
+                "SRM 915a",
+                "--value",
+                str(value),
+                "--two-sd",
+                "0.1",
+                "--source",
+                "invented for a test",
+                db=demo,
+                actor=MANAGER,
+                as_json=True,
+            )
+        )
     plain = ok_json(invoke("results", db=demo, as_json=True))
     moved = ok_json(invoke("results", "--scale", "SW-test", db=demo, as_json=True))
     validate(moved, "results.schema.json")

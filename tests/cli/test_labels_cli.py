@@ -33,8 +33,19 @@ def test_done_when_the_demo_queue_prints_on_an_a4_sheet_and_every_qr_reads_back(
     assert len(queued) > 40  # the demo's check-ins, drills, dissolutions, aliquots, columns
     events = _events(demo)
     out = tmp_path / "demo-labels.pdf"
-    job = ok_json(invoke("labels", "print", "--stock", "a4-65", "--out", str(out), db=demo,
-                         actor="ines", as_json=True))  # fmt: skip
+    job = ok_json(
+        invoke(
+            "labels",
+            "print",
+            "--stock",
+            "a4-65",
+            "--out",
+            str(out),
+            db=demo,
+            actor="ines",
+            as_json=True,
+        )
+    )
     pdf = out.read_bytes()
     assert job["job"]["sha256"] == hashlib.sha256(pdf).hexdigest()
     assert job["job"]["items"] == queued and job["out"] == str(out)
@@ -53,8 +64,21 @@ def test_done_when_also_holds_through_poppler(demo: Path, tmp_path: Path) -> Non
         pytest.skip("pdftoppm is not installed (apt-get install poppler-utils)")
     queued = _queued(demo)
     out = tmp_path / "sheet.pdf"
-    ok_json(invoke("labels", "print", "--stock", "letter-30", "--start", "7", "--out", str(out),
-                   db=demo, actor="ines", as_json=True))  # fmt: skip
+    ok_json(
+        invoke(
+            "labels",
+            "print",
+            "--stock",
+            "letter-30",
+            "--start",
+            "7",
+            "--out",
+            str(out),
+            db=demo,
+            actor="ines",
+            as_json=True,
+        )
+    )
     pages = pdftoppm_pages(out.read_bytes(), DPI)  # poppler's pdftoppm rasterises
     assert len(pages) == -(-(6 + len(queued)) // 30)
     assert Counter(d.text for page in pages for d in decode(page, DPI)) == Counter(queued)
@@ -85,9 +109,14 @@ def _stocks_file(tmp_path: Path) -> Path:
 )
 @pytest.mark.parametrize("as_json", [False, True], ids=["human", "json"])
 def test_bad_print_options_give_one_line_and_write_nothing(
-    demo: Path, tmp_path: Path, args: tuple[str, ...], option: str, value: str, fragment: str,
+    demo: Path,
+    tmp_path: Path,
+    args: tuple[str, ...],
+    option: str,
+    value: str,
+    fragment: str,
     as_json: bool,
-) -> None:  # fmt: skip
+) -> None:
     # a long link prefix makes every symbol version 4: too big for a 15 mm dot
     prefix = "HTTPS://" + "L" * 40 + ".EXAMPLE/T/"
     assert invoke("labels", "uri-prefix", prefix, db=demo, actor="ines").exit_code == 0
@@ -113,17 +142,40 @@ def test_reprint_queue_and_cancel_from_the_command_line(demo: Path, tmp_path: Pa
     queued = _queued(demo)
     first, second = queued[0], queued[1]
     events = _events(demo)
-    cancelled = ok_json(invoke("labels", "cancel", first, "--reason", "returned unopened",
-                               db=demo, actor="ines", as_json=True))  # fmt: skip
+    cancelled = ok_json(
+        invoke(
+            "labels",
+            "cancel",
+            first,
+            "--reason",
+            "returned unopened",
+            db=demo,
+            actor="ines",
+            as_json=True,
+        )
+    )
     assert cancelled["item"]["items"] == [first]
     assert _queued(demo) == queued[1:]
     assert invoke("labels", "queue", first, db=demo, actor="ines").exit_code == 0
     twice = invoke("labels", "queue", second, db=demo, actor="ines")
     assert twice.exit_code == 1 and "already has a label in the queue" in twice.stderr
     out = tmp_path / "again.pdf"
-    job = ok_json(invoke("labels", "reprint", first.lower(), "--reason", "label torn",
-                         "--stock", "specimen-bag", "--out", str(out), db=demo, actor="ines",
-                         as_json=True))  # fmt: skip
+    job = ok_json(
+        invoke(
+            "labels",
+            "reprint",
+            first.lower(),
+            "--reason",
+            "label torn",
+            "--stock",
+            "specimen-bag",
+            "--out",
+            str(out),
+            db=demo,
+            actor="ines",
+            as_json=True,
+        )
+    )
     assert job["job"]["kind"] == "reprint" and job["job"]["items"] == [first]
     assert [d.text for d in decode(pdfium_pages(out.read_bytes(), DPI)[0], DPI)] == [first]
     assert _events(demo) == events + 3  # cancel, queue, reprint: one event each
@@ -135,20 +187,44 @@ def test_preview_draws_the_queue_and_records_nothing(demo: Path, tmp_path: Path)
     queued = _queued(demo)
     before = counts(demo)
     out = tmp_path / "sheet.png"
-    answer = ok_json(invoke("labels", "preview", "--stock", "a4-24", "--out", str(out),
-                            "--dpi", str(DPI), db=demo, as_json=True))  # fmt: skip
+    answer = ok_json(
+        invoke(
+            "labels",
+            "preview",
+            "--stock",
+            "a4-24",
+            "--out",
+            str(out),
+            "--dpi",
+            str(DPI),
+            db=demo,
+            as_json=True,
+        )
+    )
     assert answer["items"] == queued[:24] and answer["pages"] == -(-len(queued) // 24)
     found = [d.text for d in decode(Image.open(out), DPI)]  # zxing-cpp
     assert Counter(found) == Counter(queued[:24])
     assert counts(demo) == before
-    named = ok_json(invoke("labels", "preview", queued[3], "--stock", "cap-dot", "--out",
-                           str(out), db=demo, as_json=True))  # fmt: skip
+    named = ok_json(
+        invoke(
+            "labels",
+            "preview",
+            queued[3],
+            "--stock",
+            "cap-dot",
+            "--out",
+            str(out),
+            db=demo,
+            as_json=True,
+        )
+    )
     assert named["items"] == [queued[3]]
 
 
 def test_stocks_lists_presets_and_flags_a_broken_lab_stock(tmp_path: Path) -> None:
-    rows = ok_json(invoke("labels", "stocks", "--stocks", str(_stocks_file(tmp_path)),
-                          as_json=True))  # fmt: skip
+    rows = ok_json(
+        invoke("labels", "stocks", "--stocks", str(_stocks_file(tmp_path)), as_json=True)
+    )
     by_name = {row["name"]: row for row in rows}
     assert by_name["a4-65"]["ok"] and by_name["a4-65"]["grid"] == [5, 13]
     assert not by_name["poster"]["ok"] and "larger than its" in by_name["poster"]["problem"]
@@ -164,8 +240,10 @@ def test_the_uri_prefix_is_shown_set_and_cleared(demo: Path) -> None:
     assert refused.exit_code == 1 and "manager" in refused.stderr
     bad = invoke("labels", "uri-prefix", "not a link", db=demo, actor="ines")
     assert bad.exit_code == 2 and bad.stderr.startswith("error: URI_PREFIX: 'not a link'")
-    assert invoke("labels", "uri-prefix", "HTTPS://LAB.EXAMPLE/T/", db=demo,
-                  actor="ines").exit_code == 0  # fmt: skip
+    assert (
+        invoke("labels", "uri-prefix", "HTTPS://LAB.EXAMPLE/T/", db=demo, actor="ines").exit_code
+        == 0
+    )
     queued = _queued(demo)[0]
     found = ok_json(invoke("lookup", "https://lab.example/t/" + queued, db=demo, as_json=True))
     assert found["id"] == queued

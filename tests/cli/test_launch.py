@@ -23,10 +23,13 @@ ENV = {"TRACKER_DB": "env.sqlite", "TRACKER_OPERATOR": "priya"}
         ([], ENV, Interface("env.sqlite", "priya")),
         (["--db", "lab.sqlite"], ENV, Interface("lab.sqlite", "priya")),
         (["--db=lab.sqlite", "--as", "ines"], {}, Interface("lab.sqlite", "ines")),
-        (["--as=ines", "--db", "postgresql://lab@db/tracker"], {},
-         Interface("postgresql://lab@db/tracker", "ines")),
+        (
+            ["--as=ines", "--db", "postgresql://lab@db/tracker"],
+            {},
+            Interface("postgresql://lab@db/tracker", "ines"),
+        ),
     ],
-)  # fmt: skip
+)
 def test_only_db_and_as_open_the_interface_directly(
     args: list[str], env: dict[str, str], expected: Interface
 ) -> None:
@@ -36,11 +39,18 @@ def test_only_db_and_as_open_the_interface_directly(
 @pytest.mark.parametrize(
     "args",
     [
-        ["overview"], ["--json"], ["--help"], ["--version"], ["--db"], ["--db", "--as", "x"],
-        ["--db", "a.sqlite", "--db", "b.sqlite"], ["--as", "ines", "show", "SP-00001-W"],
-        ["--db="], ["--operator", "ines"],
+        ["overview"],
+        ["--json"],
+        ["--help"],
+        ["--version"],
+        ["--db"],
+        ["--db", "--as", "x"],
+        ["--db", "a.sqlite", "--db", "b.sqlite"],
+        ["--as", "ines", "show", "SP-00001-W"],
+        ["--db="],
+        ["--operator", "ines"],
     ],
-)  # fmt: skip
+)
 def test_anything_else_is_the_command_lines(args: list[str]) -> None:
     assert interface_only(args, ENV) is None
 
@@ -50,12 +60,18 @@ def test_piped_tracker_still_prints_the_overview_through_the_command_line(
 ) -> None:
     result = subprocess.run(
         [sys.executable, "-m", "tracker", "--db", str(demo_db), "--json"],
-        capture_output=True, text=True, timeout=120, stdin=subprocess.DEVNULL,
-    )  # fmt: skip
+        capture_output=True,
+        text=True,
+        timeout=120,
+        stdin=subprocess.DEVNULL,
+    )
     assert result.returncode == 0, result.stderr
     assert '"reference"' in result.stdout and "KF-2026-014" in result.stdout
     plain = subprocess.run(
         [sys.executable, "-m", "tracker", "--db", str(demo_db)],
-        capture_output=True, text=True, timeout=120, stdin=subprocess.DEVNULL,
-    )  # fmt: skip
+        capture_output=True,
+        text=True,
+        timeout=120,
+        stdin=subprocess.DEVNULL,
+    )
     assert plain.returncode == 0 and "KF-2026-014" in plain.stdout  # not a TTY: printed

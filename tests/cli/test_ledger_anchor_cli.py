@@ -13,8 +13,11 @@ from tests.cli.conftest import Lab, invoke, ok_json
 def test_anchor_then_verify_passes_and_a_rolled_back_copy_fails(lab: Lab, tmp_path: Path) -> None:
     old_copy = tmp_path / "old.sqlite"
     ok_json(invoke("backup", str(old_copy), db=lab.path, as_json=True))
-    ok_json(invoke("location", "add", "building", "Annex Q", db=lab.path, actor=lab.manager,
-                   as_json=True))  # fmt: skip
+    ok_json(
+        invoke(
+            "location", "add", "building", "Annex Q", db=lab.path, actor=lab.manager, as_json=True
+        )
+    )
     anchor = tmp_path / "head.json"
     written = ok_json(invoke("ledger", "anchor", "--out", str(anchor), db=lab.path, as_json=True))
     assert json.loads(anchor.read_text())["seq"] == written["seq"]

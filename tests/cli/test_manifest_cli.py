@@ -134,8 +134,7 @@ def test_unreadable_and_oversized_files_are_refused_whole(lab: Lab, tmp_path: Pa
     before = counts(lab.path)
     legacy_path, big_path = put(tmp_path, "cp1252.csv", legacy), put(tmp_path, "big.csv", big)
     for command in ("preview", "import"):
-        result = invoke("manifest", command, "FH-77", str(legacy_path), db=lab.path,
-                        actor="ysolde")  # fmt: skip
+        result = invoke("manifest", command, "FH-77", str(legacy_path), db=lab.path, actor="ysolde")
         # the é is on line 2, in the second cell: the refusal names file, row and column
         assert result.exit_code == 2 and result.stderr.strip().splitlines() == [
             "error: cp1252.csv, row 2, column 2: byte 0xE9 is not UTF-8; save the file as UTF-8"

@@ -21,18 +21,28 @@ def _all_ids(db_path: Path) -> list[str]:
     db = open_database(db_path)
     try:
         with db.read_session() as session:
-            return [row.public_id for model in MODEL_BY_KIND.values()
-                    for row in session.scalars(select(model))]  # fmt: skip
+            return [
+                row.public_id
+                for model in MODEL_BY_KIND.values()
+                for row in session.scalars(select(model))
+            ]
     finally:
         db.close()
 
 
 def _variants(compact: str) -> list[tuple[str, bool]]:
     """(variant, only the check character changed) for every single error and adjacent swap."""
-    out = [(compact[:i] + c + compact[i + 1 :], i == len(compact) - 1)
-           for i in range(len(compact)) for c in ALPHABET if c != compact[i]]  # fmt: skip
-    out += [(compact[:i] + compact[i + 1] + compact[i] + compact[i + 2 :], False)
-            for i in range(len(compact) - 1) if compact[i] != compact[i + 1]]  # fmt: skip
+    out = [
+        (compact[:i] + c + compact[i + 1 :], i == len(compact) - 1)
+        for i in range(len(compact))
+        for c in ALPHABET
+        if c != compact[i]
+    ]
+    out += [
+        (compact[:i] + compact[i + 1] + compact[i] + compact[i + 2 :], False)
+        for i in range(len(compact) - 1)
+        if compact[i] != compact[i + 1]
+    ]
     return out
 
 

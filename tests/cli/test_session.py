@@ -80,11 +80,29 @@ def test_full_session_through_the_cli(tmp_path: Path) -> None:
 
     due = future_due_day()
     loan = s.write(
-        "loan", "add", "--lender", lender["id"], "--reference", "BSM-L-9",
-        "--title", "Invented shark teeth", "--borrower", "Odile Farrant",
-        "--tissues", "Enameloid", "--max-per-specimen", "4 mg", "--max-total", "12 mg",
-        "--max-specimens", "3", "--received", past_day(), "--due", due,
-    )  # fmt: skip
+        "loan",
+        "add",
+        "--lender",
+        lender["id"],
+        "--reference",
+        "BSM-L-9",
+        "--title",
+        "Invented shark teeth",
+        "--borrower",
+        "Odile Farrant",
+        "--tissues",
+        "Enameloid",
+        "--max-per-specimen",
+        "4 mg",
+        "--max-total",
+        "12 mg",
+        "--max-specimens",
+        "3",
+        "--received",
+        past_day(),
+        "--due",
+        due,
+    )
     terms = loan["terms"]
     assert loan["reference"] == "BSM-L-9" and loan["status"] == "open"
     assert terms["permitted_tissues"] == ["enameloid"]
@@ -92,9 +110,17 @@ def test_full_session_through_the_cli(tmp_path: Path) -> None:
     assert terms["due_on"] == due
 
     spec = s.write(
-        "specimen", "add", "--loan", "BSM-L-9", "--catalog", "BSM F-31",
-        "--taxon", "Lamniformes indet.", "--element", "tooth",
-    )  # fmt: skip
+        "specimen",
+        "add",
+        "--loan",
+        "BSM-L-9",
+        "--catalog",
+        "BSM F-31",
+        "--taxon",
+        "Lamniformes indet.",
+        "--element",
+        "tooth",
+    )
     assert spec["status"] == "expected" and spec["loan"] == "BSM-L-9"
 
     checked = s.write(
@@ -104,10 +130,22 @@ def test_full_session_through_the_cli(tmp_path: Path) -> None:
     assert checked["condition_in"] == "complete"
 
     powder = s.write(
-        "drill", spec["id"], "--tissue", "Enameloid", "--site", "labial face",
-        "--tare", DRILL_TARE, "--gross", DRILL_GROSS, "--readability", MICRO,
-        "--to", box["id"], actor=TECH,
-    )  # fmt: skip
+        "drill",
+        spec["id"],
+        "--tissue",
+        "Enameloid",
+        "--site",
+        "labial face",
+        "--tare",
+        DRILL_TARE,
+        "--gross",
+        DRILL_GROSS,
+        "--readability",
+        MICRO,
+        "--to",
+        box["id"],
+        actor=TECH,
+    )
     drilled = mg(DRILL_GROSS) - mg(DRILL_TARE)
     assert powder["mass_mg"] == close(float(drilled), abs=1e-9)
     assert powder["mass_u_mg"] == close(u_by_difference(mg(MICRO)), rel=1e-9)
@@ -119,10 +157,20 @@ def test_full_session_through_the_cli(tmp_path: Path) -> None:
     assert powder["status"] == "available" and powder["location"] == box["path"]
 
     sol = s.write(
-        "dissolve", powder["id"], "--acid", "2 M HNO3", "--powder-taken", TAKEN,
-        "--vial-tare", VIAL_TARE, "--vial-gross", VIAL_GROSS, "--readability", ANALYTICAL,
+        "dissolve",
+        powder["id"],
+        "--acid",
+        "2 M HNO3",
+        "--powder-taken",
+        TAKEN,
+        "--vial-tare",
+        VIAL_TARE,
+        "--vial-gross",
+        VIAL_GROSS,
+        "--readability",
+        ANALYTICAL,
         actor=TECH,
-    )  # fmt: skip
+    )
     solution_g = float((mg(VIAL_GROSS) - mg(VIAL_TARE)) / 1000)
     solution_u_g = u_by_difference(mg(ANALYTICAL)) / 1000
     assert sol["powder"] == powder["id"] and sol["powder_mass_mg"] == float(mg(TAKEN))
@@ -131,9 +179,18 @@ def test_full_session_through_the_cli(tmp_path: Path) -> None:
     assert sol["solution_mass_u_g"] == close(solution_u_g, rel=1e-9)
 
     conc = s.write(
-        "concentration", sol["id"], "--element", "Ca", "--value", f"{CONC} ug/g",
-        "--rel-u", str(REL_U_PERCENT), "--method", "ICP-OES", actor=TECH,
-    )  # fmt: skip
+        "concentration",
+        sol["id"],
+        "--element",
+        "Ca",
+        "--value",
+        f"{CONC} ug/g",
+        "--rel-u",
+        str(REL_U_PERCENT),
+        "--method",
+        "ICP-OES",
+        actor=TECH,
+    )
     conc_u = float(CONC * REL_U_PERCENT / 100)
     assert (conc["element"], conc["value_ug_per_g"]) == ("Ca", float(CONC))
     assert conc["u_ug_per_g"] == close(conc_u)
@@ -141,9 +198,18 @@ def test_full_session_through_the_cli(tmp_path: Path) -> None:
     assert conc["element_u_ug"] == close(product_u(solution_g, solution_u_g, float(CONC), conc_u))
 
     aliquot = s.write(
-        "aliquot", sol["id"], "--tare", ALIQ_TARE, "--gross", ALIQ_GROSS,
-        "--readability", FINE, "--to", box2["id"], actor=TECH,
-    )  # fmt: skip
+        "aliquot",
+        sol["id"],
+        "--tare",
+        ALIQ_TARE,
+        "--gross",
+        ALIQ_GROSS,
+        "--readability",
+        FINE,
+        "--to",
+        box2["id"],
+        actor=TECH,
+    )
     aliquot_g = float((mg(ALIQ_GROSS) - mg(ALIQ_TARE)) / 1000)
     aliquot_u_g = u_by_difference(mg(FINE)) / 1000
     assert aliquot["solution"] == sol["id"] and aliquot["purpose"] == "isotopes"
@@ -157,18 +223,36 @@ def test_full_session_through_the_cli(tmp_path: Path) -> None:
     assert ref["id"].startswith("RM-") and ref["element"] == "Ca"
 
     batch = s.write(
-        "batch", "create", "--name", "Ca QX-1", "--date", date.today().isoformat(),
-        "--element", "Ca", "--resin", "DGA, 50-100 um", "--scheme", "load; rinse; elute",
-        "--cuts", "matrix, Ca", actor=TECH,
-    )  # fmt: skip
+        "batch",
+        "create",
+        "--name",
+        "Ca QX-1",
+        "--date",
+        date.today().isoformat(),
+        "--element",
+        "Ca",
+        "--resin",
+        "DGA, 50-100 um",
+        "--scheme",
+        "load; rinse; elute",
+        "--cuts",
+        "matrix, Ca",
+        actor=TECH,
+    )
     assert batch["cut_names"] == ["matrix", "Ca"] and batch["positions"] == 0
 
     sample = s.write("batch", "add", batch["id"], "--sample", aliquot["id"], actor=TECH)
     blank = s.write("batch", "add", batch["id"], "--blank", actor=TECH)
     refpos = s.write(
-        "batch", "add", batch["id"], "--reference", "lab carbonate qx", "--loaded-ug", "10",
+        "batch",
+        "add",
+        batch["id"],
+        "--reference",
+        "lab carbonate qx",
+        "--loaded-ug",
+        "10",
         actor=TECH,
-    )  # fmt: skip
+    )
     assert [p["slot"] for p in (sample, blank, refpos)] == [1, 2, 3]
     assert [p["kind"] for p in (sample, blank, refpos)] == ["sample", "blank", "reference"]
     assert sample["holds"] == aliquot["id"]

@@ -54,8 +54,11 @@ def test_drill_past_the_specimen_limit_is_refused_then_overridden(demo: Path) ->
     # the field is "mass" today (not an option a person typed; see the report)
     line = refused(invoke("drill", specimen, *OVER_DRILL, db=demo, actor="tomas"), 1, None)
     assert f"per-specimen limit {limit:g} mg" in line
-    for label, value in (("already drilled", used), ("requested", asked),
-                         ("remaining", limit - used)):  # fmt: skip
+    for label, value in (
+        ("already drilled", used),
+        ("requested", asked),
+        ("remaining", limit - used),
+    ):
         match = re.search(f"{label} {with_u(value)}", line)
         assert match, (label, line)
         # one mass by difference on a 0.001 mg balance: u = d/√6 (GUM F.2.2.1), printed to 2 s.f.
@@ -67,8 +70,18 @@ def test_drill_past_the_specimen_limit_is_refused_then_overridden(demo: Path) ->
     assert "tomas" in refused(attempt, 1, "--as")
     assert counts(demo) == before
 
-    ok_json(invoke("drill", specimen, *OVER_DRILL, "--override", REASON, db=demo, actor="ines",
-                   as_json=True))  # fmt: skip
+    ok_json(
+        invoke(
+            "drill",
+            specimen,
+            *OVER_DRILL,
+            "--override",
+            REASON,
+            db=demo,
+            actor="ines",
+            as_json=True,
+        )
+    )
     loan = reconcile(demo, KF)
     assert {"override used", "over limit"} <= set(specimen_line(loan, "KFMNH P 20311")["flags"])
     assert "override used" in loan["flags"]
@@ -93,18 +106,47 @@ def test_an_extension_applies_from_its_effective_day_only(lab: Lab, tmp_path: Pa
     def run(*args: str, actor: str = lab.manager) -> Any:
         return ok_json(invoke(*args, db=lab.path, actor=actor, as_json=True))
 
-    terms = ("--tissues", "enamel", "--max-per-specimen", "6 mg",
-             "--received", received.isoformat(), "--due", due.isoformat())  # fmt: skip
-    loan = run("loan", "add", "--lender", "Fernhollow Natural History Collection",
-               "--reference", "FH-78", "--title", "Invented jaw fragments",
-               "--borrower", "Ysolde Marrin", *terms)["item"]["id"]  # fmt: skip
+    terms = (
+        "--tissues",
+        "enamel",
+        "--max-per-specimen",
+        "6 mg",
+        "--received",
+        received.isoformat(),
+        "--due",
+        due.isoformat(),
+    )
+    loan = run(
+        "loan",
+        "add",
+        "--lender",
+        "Fernhollow Natural History Collection",
+        "--reference",
+        "FH-78",
+        "--title",
+        "Invented jaw fragments",
+        "--borrower",
+        "Ysolde Marrin",
+        *terms,
+    )["item"]["id"]
     specimen = run("specimen", "add", "--loan", "FH-78", "--catalog", "FNHC Z-9")["item"]["id"]
     run("checkin", specimen, "--condition", "complete", "--at", f"{received}T09:00:00Z")
 
     def drill(on: date) -> Result:
-        return invoke("drill", specimen, "--tissue", "enamel", "--tare", "1.000 mg",
-                      "--gross", "1.400 mg", "--at", f"{on}T10:00:00Z", db=lab.path,
-                      actor=lab.technician)  # fmt: skip
+        return invoke(
+            "drill",
+            specimen,
+            "--tissue",
+            "enamel",
+            "--tare",
+            "1.000 mg",
+            "--gross",
+            "1.400 mg",
+            "--at",
+            f"{on}T10:00:00Z",
+            db=lab.path,
+            actor=lab.technician,
+        )
 
     before = counts(lab.path)
     assert due.isoformat() in refused(drill(late), 1, "--at")
@@ -113,9 +155,21 @@ def test_an_extension_applies_from_its_effective_day_only(lab: Lab, tmp_path: Pa
     letter = tmp_path / "fh-78-extension.txt"
     letter.write_bytes(b"Invented letter: the loan FH-78 is extended. Test data only.\n")
     digest = hashlib.sha256(letter.read_bytes()).hexdigest()
-    amend = ("loan", "amend", "FH-78", "--kind", "extension", "--effective",
-             effective.isoformat(), "--due", new_due.isoformat(),
-             "--reason", "extension granted by letter", "--document", str(letter))  # fmt: skip
+    amend = (
+        "loan",
+        "amend",
+        "FH-78",
+        "--kind",
+        "extension",
+        "--effective",
+        effective.isoformat(),
+        "--due",
+        new_due.isoformat(),
+        "--reason",
+        "extension granted by letter",
+        "--document",
+        str(letter),
+    )
     assert lab.technician in refused(invoke(*amend, db=lab.path, actor=lab.technician), 1, "--as")
     assert counts(lab.path) == before
     early = list(amend)
@@ -143,10 +197,32 @@ def test_an_extension_applies_from_its_effective_day_only(lab: Lab, tmp_path: Pa
 
 def test_materials_by_formula_and_by_measured_range(lab: Lab) -> None:
     add = ("material", "add")
-    ok_json(invoke(*add, "dolomite", "--formula", "CaMg(CO3)2", db=lab.path, actor=lab.manager,
-                   as_json=True))  # fmt: skip
-    ok_json(invoke(*add, "lab shark enameloid", "--element", "Ca", "--low", "0.352", "--high",
-                   "0.371", db=lab.path, actor=lab.manager, as_json=True))  # fmt: skip
+    ok_json(
+        invoke(
+            *add,
+            "dolomite",
+            "--formula",
+            "CaMg(CO3)2",
+            db=lab.path,
+            actor=lab.manager,
+            as_json=True,
+        )
+    )
+    ok_json(
+        invoke(
+            *add,
+            "lab shark enameloid",
+            "--element",
+            "Ca",
+            "--low",
+            "0.352",
+            "--high",
+            "0.371",
+            db=lab.path,
+            actor=lab.manager,
+            as_json=True,
+        )
+    )
     rows = {r["name"]: r for r in ok_json(invoke("material", "list", db=lab.path, as_json=True))}
     # periodictable 2.1 (standard atomic weights): w(Ca) = Ar(Ca) / M(CaMg(CO3)2)
     ca = periodictable.formula("CaMg(CO3)2").mass_fraction[periodictable.Ca]
@@ -165,8 +241,7 @@ BAD_FORMULAS = ["CaXx3", "Ca(CO3", "ca", "Ca0"]
 @pytest.mark.parametrize("formula", BAD_FORMULAS)
 def test_bad_formula_exits_2_and_writes_nothing(lab: Lab, formula: str) -> None:
     before = counts(lab.path)
-    result = invoke("material", "add", "bad", "--formula", formula, db=lab.path,
-                    actor=lab.manager)  # fmt: skip
+    result = invoke("material", "add", "bad", "--formula", formula, db=lab.path, actor=lab.manager)
     assert result.exit_code == 2
     assert len(result.stderr.splitlines()) == 1 and formula in result.stderr
     assert counts(lab.path) == before
@@ -188,10 +263,18 @@ def remainder(catalog: str) -> Decimal:
 def return_powder(db: Path, catalog: str, residual: Decimal | None) -> dict[str, Any]:
     """Return the specimen's open powder (weighing ``residual`` mg out, if given); its line."""
     powder = open_powder(db, specimen_id(db, KF, catalog))
-    weighing = () if residual is None else (
-        "--residual-tare", f"{RESIDUAL_TARE} mg", "--residual-gross",
-        f"{RESIDUAL_TARE + residual} mg", "--readability", "0.001 mg",
-    )  # fmt: skip
+    weighing = (
+        ()
+        if residual is None
+        else (
+            "--residual-tare",
+            f"{RESIDUAL_TARE} mg",
+            "--residual-gross",
+            f"{RESIDUAL_TARE + residual} mg",
+            "--readability",
+            "0.001 mg",
+        )
+    )
     why = ("--outcome", "returned", "--reason", "unused powder returned with the specimen")
     result = invoke("dispose", powder, *why, *weighing, db=db, actor="ines")
     assert result.exit_code == 0, result.stderr
@@ -247,14 +330,42 @@ def test_powder_returned_without_a_weighing_is_a_missing_weighing(demo: Path) ->
     ("argv", "option"),
     [
         pytest.param(("material", "add", "bad", "--formula", "CaXx3"), "--formula"),
-        pytest.param(("material", "add", "r", "--element", "Ca", "--low", "0.5", "--high", "1.5"),
-                     "--high"),
-        pytest.param(("loan", "amend", "FH-77", "--kind", "extension", "--effective",
-                      "2000-01-01", "--due", "2999-01-01", "--reason", "too early"), "--effective"),
-        pytest.param(("drill", "{on_hand}", "--tissue", "enamel", "--tare", "1.000 mg", "--gross",
-                      "1.500 mg", "--override", REASON), "--override"),
+        pytest.param(
+            ("material", "add", "r", "--element", "Ca", "--low", "0.5", "--high", "1.5"), "--high"
+        ),
+        pytest.param(
+            (
+                "loan",
+                "amend",
+                "FH-77",
+                "--kind",
+                "extension",
+                "--effective",
+                "2000-01-01",
+                "--due",
+                "2999-01-01",
+                "--reason",
+                "too early",
+            ),
+            "--effective",
+        ),
+        pytest.param(
+            (
+                "drill",
+                "{on_hand}",
+                "--tissue",
+                "enamel",
+                "--tare",
+                "1.000 mg",
+                "--gross",
+                "1.500 mg",
+                "--override",
+                REASON,
+            ),
+            "--override",
+        ),
     ],
-)  # fmt: skip
+)
 def test_refusal_names_the_option_typed(lab: Lab, argv: tuple[str, ...], option: str) -> None:
     before = counts(lab.path)
     args = [a.format(on_hand=lab.on_hand) for a in argv]
@@ -266,16 +377,55 @@ def test_refusal_names_the_option_typed(lab: Lab, argv: tuple[str, ...], option:
 def test_late_drill_refusal_shows_the_date_typed(lab: Lab) -> None:
     t = today()
     received, due, late = (t - timedelta(days=n) for n in (60, 30, 10))
-    invoke("loan", "add", "--lender", "Fernhollow Natural History Collection",
-           "--reference", "FH-79", "--title", "Invented", "--borrower", "Ysolde Marrin",
-           "--tissues", "enamel", "--received", received.isoformat(), "--due", due.isoformat(),
-           db=lab.path, actor=lab.manager)  # fmt: skip
+    invoke(
+        "loan",
+        "add",
+        "--lender",
+        "Fernhollow Natural History Collection",
+        "--reference",
+        "FH-79",
+        "--title",
+        "Invented",
+        "--borrower",
+        "Ysolde Marrin",
+        "--tissues",
+        "enamel",
+        "--received",
+        received.isoformat(),
+        "--due",
+        due.isoformat(),
+        db=lab.path,
+        actor=lab.manager,
+    )
     add = ("specimen", "add", "--loan", "FH-79", "--catalog", "FNHC Z-10")
     specimen = ok_json(invoke(*add, db=lab.path, actor=lab.manager, as_json=True))["item"]["id"]
-    invoke("checkin", specimen, "--condition", "ok", "--at", f"{received}T09:00:00Z",
-           db=lab.path, actor=lab.manager)  # fmt: skip
-    line = refused(invoke("drill", specimen, "--tissue", "enamel", "--tare", "1.000 mg",
-                          "--gross", "1.400 mg", "--at", f"{late}T10:00:00Z", db=lab.path,
-                          actor=lab.technician), 1, "--at")  # fmt: skip
+    invoke(
+        "checkin",
+        specimen,
+        "--condition",
+        "ok",
+        "--at",
+        f"{received}T09:00:00Z",
+        db=lab.path,
+        actor=lab.manager,
+    )
+    line = refused(
+        invoke(
+            "drill",
+            specimen,
+            "--tissue",
+            "enamel",
+            "--tare",
+            "1.000 mg",
+            "--gross",
+            "1.400 mg",
+            "--at",
+            f"{late}T10:00:00Z",
+            db=lab.path,
+            actor=lab.technician,
+        ),
+        1,
+        "--at",
+    )
     value = line.removeprefix("error: --at: ").split(": ", 1)[0]
     assert late.isoformat() in value, line

@@ -28,8 +28,15 @@ from tracker.output.stocks import Stock, load_stock
 DPI = 300
 # Each sheet stock gets more labels than one sheet holds, starting mid-sheet; roll stocks
 # (one label per page) get a few pages.
-JOBS = [("a4-65", 70, 9), ("letter-30", 35, 2), ("a4-24", 30, 1), ("letter-80", 20, 1),
-        ("cryovial-wrap", 4, 1), ("cap-dot", 4, 1), ("specimen-bag", 3, 1)]  # fmt: skip
+JOBS = [
+    ("a4-65", 70, 9),
+    ("letter-30", 35, 2),
+    ("a4-24", 30, 1),
+    ("letter-80", 20, 1),
+    ("cryovial-wrap", 4, 1),
+    ("cap-dot", 4, 1),
+    ("specimen-bag", 3, 1),
+]
 
 
 def _job(name: str, count: int, start: int, prefix: str | None = None) -> tuple[Stock, list[Page]]:
@@ -85,8 +92,10 @@ def test_every_label_in_the_png_preview_decodes_to_its_payload(name: str) -> Non
     png = render_png(stock, pages[0], DPI)
     image = Image.open(io.BytesIO(png))
     assert image.info["dpi"] == pytest.approx((DPI, DPI), abs=0.01)  # PNG stores pixels per metre
-    assert image.size == (round(stock.page_width_mm / 25.4 * DPI),
-                          round(stock.page_height_mm / 25.4 * DPI))  # fmt: skip
+    assert image.size == (
+        round(stock.page_width_mm / 25.4 * DPI),
+        round(stock.page_height_mm / 25.4 * DPI),
+    )
     _assert_page_reads_back(decode(image, DPI), pages[0])
 
 

@@ -73,8 +73,15 @@ margin_top_mm = 2
 """
 
 
-def _stock(tmp_path: Path, *, name: str = "bench", w: float = 30, columns: int = 3,
-           pitch: float = 32, extra: str = "") -> Path:  # fmt: skip
+def _stock(
+    tmp_path: Path,
+    *,
+    name: str = "bench",
+    w: float = 30,
+    columns: int = 3,
+    pitch: float = 32,
+    extra: str = "",
+) -> Path:
     text = GOOD.format(name=name, w=w, columns=columns, pitch=pitch, extra=extra)
     return _user_file(tmp_path, text)
 

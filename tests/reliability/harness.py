@@ -29,9 +29,12 @@ ROOT = Path(__file__).resolve().parents[2]
 class Zygote:
     def __init__(self) -> None:
         self.process = subprocess.Popen(
-            [sys.executable, "-m", "tests.reliability.workers"], cwd=ROOT,
-            stdin=subprocess.PIPE, stdout=subprocess.PIPE, text=True,
-        )  # fmt: skip
+            [sys.executable, "-m", "tests.reliability.workers"],
+            cwd=ROOT,
+            stdin=subprocess.PIPE,
+            stdout=subprocess.PIPE,
+            text=True,
+        )
         assert self.process.stdout is not None and self.process.stdin is not None
         assert self.process.stdout.readline().strip() == "ready"
         self.children: list[int] = []

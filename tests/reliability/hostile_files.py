@@ -117,8 +117,10 @@ def lying_zip() -> bytes:
     directory entry "PK\\1\\2" has them at 24, 28 and 46.
     """
     data = bytearray(_rebuild(good_workbook(), {SHEET: b"<worksheet>" + b" " * 10_000_000}))
-    for marker, size_at, length_at, name_at in ((b"PK\x03\x04", 22, 26, 30),
-                                                (b"PK\x01\x02", 24, 28, 46)):  # fmt: skip
+    for marker, size_at, length_at, name_at in (
+        (b"PK\x03\x04", 22, 26, 30),
+        (b"PK\x01\x02", 24, 28, 46),
+    ):
         found = data.find(marker)
         while found >= 0:
             (length,) = struct.unpack_from("<H", data, found + length_at)
@@ -139,11 +141,12 @@ def _entities(levels: int = 9) -> bytes:
 def billion_laughs() -> bytes:
     """A sheet whose first cell expands to 10⁹ × "lol" (3 GB) if entities are expanded."""
     xml = (
-        b'<?xml version="1.0"?>' + _entities()
+        b'<?xml version="1.0"?>'
+        + _entities()
         + b'<worksheet xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main">'
         b'<sheetData><row r="1"><c r="A1" t="inlineStr"><is><t>&lol9;</t></is></c></row>'
         b"</sheetData></worksheet>"
-    )  # fmt: skip
+    )
     return _rebuild(good_workbook(), {SHEET: xml})
 
 

@@ -44,9 +44,11 @@ def zygote() -> Iterator[Zygote]:
 
 def _lab(db: Database) -> list[str]:
     loan = make.loan(
-        db, max_mass_per_specimen=f"{PER_SPECIMEN_MG} mg", max_total_mass=f"{TOTAL_MG} mg",
+        db,
+        max_mass_per_specimen=f"{PER_SPECIMEN_MG} mg",
+        max_total_mass=f"{TOTAL_MG} mg",
         max_specimens_sampled=SPECIMENS_ALLOWED,
-    )  # fmt: skip
+    )
     return [make.specimen(db, loan) for _ in range(4)]
 
 
@@ -54,10 +56,20 @@ def _race(zygote: Zygote, url: str, specimens: list[str], folder: Path) -> list[
     gate = folder / "go"
     outs = [folder / f"worker-{n}.json" for n in range(WORKERS)]
     for n, out in enumerate(outs):
-        zygote.fork("drill_race", {
-            "db": url, "worker": n, "attempts": ATTEMPTS, "specimens": specimens, "seed": n,
-            "mass_mg": DRILL_MG, "gate": str(gate), "out": str(out), "actor": "tech",
-        })  # fmt: skip
+        zygote.fork(
+            "drill_race",
+            {
+                "db": url,
+                "worker": n,
+                "attempts": ATTEMPTS,
+                "specimens": specimens,
+                "seed": n,
+                "mass_mg": DRILL_MG,
+                "gate": str(gate),
+                "out": str(out),
+                "actor": "tech",
+            },
+        )
     time.sleep(0.3)  # let every child open its database before the gate opens
     gate.touch()
     wait_for_files(outs, timeout=240)
@@ -107,9 +119,8 @@ def _check(db: Database, results: list[dict[str, Any]], head_before: int) -> Non
         ).all()
         events = dict(session.execute(select(CustodyEvent.seq, CustodyEvent.hash)).all())
         forks = session.execute(
-            select(CustodyEvent.prev_hash).group_by(CustodyEvent.prev_hash)
-            .having(func.count() > 1)
-        ).all()  # fmt: skip
+            select(CustodyEvent.prev_hash).group_by(CustodyEvent.prev_hash).having(func.count() > 1)
+        ).all()
     masses = [float(mass) for _, count, mass in rows if count]
     # the limits, reached and never exceeded (0.25 mg steps are exact in binary)
     assert all(m <= PER_SPECIMEN_MG for m in masses) and sum(masses) <= TOTAL_MG

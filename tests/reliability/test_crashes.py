@@ -73,9 +73,11 @@ def _sheet() -> bytes:
     lines = ["slot,kind,item,loaded,Ca"]
     for slot in range(1, SHEET_COLUMNS + 1):
         reference = slot % 2 == 1
-        lines.append(f"{slot},{'reference' if reference else 'blank'},"
-                     f"{'RM-A' if reference else ''},{'10 ug' if reference else ''},"
-                     f"{slot / 1000:.3f} ug")  # fmt: skip
+        lines.append(
+            f"{slot},{'reference' if reference else 'blank'},"
+            f"{'RM-A' if reference else ''},{'10 ug' if reference else ''},"
+            f"{slot / 1000:.3f} ug"
+        )
     return ("\n".join(lines) + "\n").encode()
 
 
@@ -106,9 +108,15 @@ def test_killed_session_imports_leave_whole_sessions_or_none(
     args = {"db": db_url, "files": files, "profile": "mc", "actor": "tech"}
     window = _one_call(zygote, tmp_path, "import_files", {**args, "files": files[:1]})
     report = crash_rounds(
-        zygote, "import_files", args, tmp_path, lambda: _sessions_whole(db_url, FILES),
-        kills=KILLS, window=window, seed=8,
-    )  # fmt: skip
+        zygote,
+        "import_files",
+        args,
+        tmp_path,
+        lambda: _sessions_whole(db_url, FILES),
+        kills=KILLS,
+        window=window,
+        seed=8,
+    )
     assert _sessions_whole(db_url, FILES) == FILES  # every file in, exactly once
     backend = db_url.split(":")[0].split("+")[0] if "://" in db_url else "sqlite"
     size = f"{FILES} exports × {EXPORT_ROWS:,} rows"
@@ -146,8 +154,9 @@ def _sessions_whole(url: str, most: int) -> int:
         with _one_snapshot(db) as session:
             sizes = session.execute(
                 select(InstrumentSession.source_sha256, func.count(Measurement.id))
-                .outerjoin(Measurement).group_by(InstrumentSession.id)
-            ).all()  # fmt: skip
+                .outerjoin(Measurement)
+                .group_by(InstrumentSession.id)
+            ).all()
             events = session.scalar(
                 select(func.count()).where(CustodyEvent.action == "session.imported")
             )
@@ -174,9 +183,15 @@ def test_killed_batch_sheets_leave_whole_batches_or_empty_ones(
     args = {"db": db_url, "sheets": sheets, "actor": "tech"}
     window = _one_call(zygote, tmp_path, "enter_sheets", {**args, "sheets": sheets[:1]})
     report = crash_rounds(
-        zygote, "enter_sheets", args, tmp_path, lambda: _batches_whole(db_url),
-        kills=KILLS, window=window, seed=9,
-    )  # fmt: skip
+        zygote,
+        "enter_sheets",
+        args,
+        tmp_path,
+        lambda: _batches_whole(db_url),
+        kills=KILLS,
+        window=window,
+        seed=9,
+    )
     assert _batches_whole(db_url) == SHEETS
     backend = "sqlite" if "://" not in db_url else "postgresql"
     size = f"{SHEETS} sheets × {SHEET_COLUMNS} columns and cuts"
@@ -189,9 +204,15 @@ def _batches_whole(url: str) -> int:
     try:
         assert ledger.verify(db).ok
         with _one_snapshot(db) as session:
-            positions = Counter(dict(session.execute(
-                select(ColumnBatch.id, func.count(BatchPosition.id))
-                .outerjoin(BatchPosition).group_by(ColumnBatch.id)).all()))  # fmt: skip
+            positions = Counter(
+                dict(
+                    session.execute(
+                        select(ColumnBatch.id, func.count(BatchPosition.id))
+                        .outerjoin(BatchPosition)
+                        .group_by(ColumnBatch.id)
+                    ).all()
+                )
+            )
             cuts = session.scalar(select(func.count(Cut.id)))
             events = session.scalars(
                 select(CustodyEvent.seq).where(CustodyEvent.action == "batch.sheet_entered")
@@ -236,9 +257,15 @@ def test_killed_manifest_imports_leave_whole_lists_or_none(
     args = {"db": db_url, "manifests": pairs, "actor": "boss"}
     window = _one_call(zygote, tmp_path, "import_manifests", {**args, "manifests": pairs[:1]})
     report = crash_rounds(
-        zygote, "import_manifests", args, tmp_path, lambda: _lists_whole(db_url),
-        kills=KILLS, window=window, seed=10,
-    )  # fmt: skip
+        zygote,
+        "import_manifests",
+        args,
+        tmp_path,
+        lambda: _lists_whole(db_url),
+        kills=KILLS,
+        window=window,
+        seed=10,
+    )
     assert _lists_whole(db_url) == MANIFESTS
     backend = "sqlite" if "://" not in db_url else "postgresql"
     size = f"{MANIFESTS} lender lists × {MANIFEST_ROWS:,} specimens"

@@ -38,9 +38,10 @@ from tracker.services import batch_sheet, chemistry, instrument, manifests, scre
 pytestmark = pytest.mark.slow
 FAST = settings(max_examples=600, deadline=None)
 SERVICE = settings(
-    max_examples=150, deadline=None,
+    max_examples=150,
+    deadline=None,
     suppress_health_check=[HealthCheck.function_scoped_fixture, HealthCheck.too_slow],
-)  # fmt: skip
+)
 CASES: dict[str, int] = {}
 ACCEPTED: dict[str, int] = {}
 
@@ -63,9 +64,30 @@ def _count(importer: str, accepted: bool | None = None) -> None:
 # ---------------------------------------------------------------- cells and files
 
 NASTY = st.sampled_from(
-    ['"', '""', ",", "\t", "\r", "\n", "\x00", "=1+1", "@SUM(A1)", "é", "δ44/40", "\ufeff",
-     "1e999", "nan", "-0", "  ", "STD-X", "RM-A", "CU-00001-L", "cu00001l", "CU-00001-X"]
-)  # fmt: skip
+    [
+        '"',
+        '""',
+        ",",
+        "\t",
+        "\r",
+        "\n",
+        "\x00",
+        "=1+1",
+        "@SUM(A1)",
+        "é",
+        "δ44/40",
+        "\ufeff",
+        "1e999",
+        "nan",
+        "-0",
+        "  ",
+        "STD-X",
+        "RM-A",
+        "CU-00001-L",
+        "cu00001l",
+        "CU-00001-X",
+    ]
+)
 CELL = st.one_of(
     st.text(max_size=12),
     NASTY,
@@ -95,8 +117,9 @@ def csv_text(rows: list[list[str]], delimiter: str = ",") -> bytes:
 
 @st.composite
 def spoiled_tables(draw: Any) -> bytes:
-    header = draw(st.lists(st.sampled_from(["Run", "Name", "r4440", "x", ""]), min_size=1,
-                           max_size=5))  # fmt: skip
+    header = draw(
+        st.lists(st.sampled_from(["Run", "Name", "r4440", "x", ""]), min_size=1, max_size=5)
+    )
     rows = draw(st.lists(st.lists(CELL, max_size=6), max_size=8))
     return csv_text([header, *rows], draw(st.sampled_from([",", "\t"])))
 
@@ -105,8 +128,10 @@ def spoiled_tables(draw: Any) -> bytes:
 
 
 @FAST
-@given(content=st.one_of(st.binary(max_size=3000), spoiled_tables()),
-       fmt=st.sampled_from(["csv", "tsv", "xlsx"]))  # fmt: skip
+@given(
+    content=st.one_of(st.binary(max_size=3000), spoiled_tables()),
+    fmt=st.sampled_from(["csv", "tsv", "xlsx"]),
+)
 def test_read_table_refuses_or_reads_every_cell(content: bytes, fmt: str) -> None:
     _count("tables (CSV/TSV/XLSX)")
     try:
@@ -122,10 +147,15 @@ def test_read_table_refuses_or_reads_every_cell(content: bytes, fmt: str) -> Non
 
 
 @FAST
-@given(content=st.one_of(st.binary(max_size=2000),
-                         st.recursive(st.text(max_size=5), lambda inner: st.lists(inner, max_size=3)
-                                      ).map(lambda v: repr(v).encode())),
-       suffix=st.sampled_from([".toml", ".json"]))  # fmt: skip
+@given(
+    content=st.one_of(
+        st.binary(max_size=2000),
+        st.recursive(st.text(max_size=5), lambda inner: st.lists(inner, max_size=3)).map(
+            lambda v: repr(v).encode()
+        ),
+    ),
+    suffix=st.sampled_from([".toml", ".json"]),
+)
 def test_settings_files_refuse_or_give_a_table(content: bytes, suffix: str) -> None:
     _count("settings files (TOML/JSON)")
     try:
@@ -137,11 +167,19 @@ def test_settings_files_refuse_or_give_a_table(content: bytes, suffix: str) -> N
 
 
 @FAST
-@given(text=st.one_of(st.text(max_size=300), st.builds(
-    lambda seq, h: f'{{"format": "tracker-anchor/1", "seq": {seq}, "hash": "{h}", '
-                   f'"first_hash": "{h}", "taken_at": "t"}}',
-    st.one_of(st.integers(), st.floats().map(repr), st.just("true")),
-    st.text(alphabet="0123456789abcdefABCDEF", min_size=60, max_size=66))))  # fmt: skip
+@given(
+    text=st.one_of(
+        st.text(max_size=300),
+        st.builds(
+            lambda seq, h: (
+                f'{{"format": "tracker-anchor/1", "seq": {seq}, "hash": "{h}", '
+                f'"first_hash": "{h}", "taken_at": "t"}}'
+            ),
+            st.one_of(st.integers(), st.floats().map(repr), st.just("true")),
+            st.text(alphabet="0123456789abcdefABCDEF", min_size=60, max_size=66),
+        ),
+    )
+)
 def test_anchor_files_refuse_or_parse(text: str) -> None:
     _count("anchor files")
     try:
@@ -159,15 +197,30 @@ STOCK_VALUES = st.one_of(
     st.lists(st.integers(), max_size=2),
 )
 STOCK_KEYS = [
-    "page_width_mm", "page_height_mm", "label_width_mm", "label_height_mm", "columns", "rows",
-    "pitch_x_mm", "pitch_y_mm", "margin_left_mm", "margin_top_mm", "shape", "layout",
-    "padding_mm", "max_module_mm", "error_correction", "bogus",
-]  # fmt: skip
+    "page_width_mm",
+    "page_height_mm",
+    "label_width_mm",
+    "label_height_mm",
+    "columns",
+    "rows",
+    "pitch_x_mm",
+    "pitch_y_mm",
+    "margin_left_mm",
+    "margin_top_mm",
+    "shape",
+    "layout",
+    "padding_mm",
+    "max_module_mm",
+    "error_correction",
+    "bogus",
+]
 
 
 @FAST
-@given(table=st.dictionaries(st.sampled_from(STOCK_KEYS), STOCK_VALUES, max_size=12),
-       name=st.text(max_size=8))  # fmt: skip
+@given(
+    table=st.dictionaries(st.sampled_from(STOCK_KEYS), STOCK_VALUES, max_size=12),
+    name=st.text(max_size=8),
+)
 def test_label_stocks_refuse_or_fit_their_page(table: dict[str, Any], name: str) -> None:
     _count("label stocks")
     try:
@@ -198,7 +251,7 @@ def bench(sqlite_template: Path, tmp_path: Path) -> Iterator[tuple[Database, str
         "format": "csv",
         "columns": {"run_order": "Run", "sample_name": "Name", "ratios": {"44/40": "r4440"}},
     }
-    instrument.save_profile(db, "tech", {"name": "p", "definition": profile})  # fmt: skip
+    instrument.save_profile(db, "tech", {"name": "p", "definition": profile})
     yield db, batch, aliquot
     db.close()
 
@@ -219,8 +272,11 @@ def _refused_or_done(db: Database, call: Any, importer: str) -> Any:
 @st.composite
 def sessions(draw: Any) -> list[list[str]]:
     """A bracketed run list (standard, target, standard, ...), then maybe one spoiled cell."""
-    targets = draw(st.lists(st.sampled_from(["RM-A", "CU-00001-L", "wash", "CU-00009-X"]),
-                            min_size=1, max_size=6))  # fmt: skip
+    targets = draw(
+        st.lists(
+            st.sampled_from(["RM-A", "CU-00001-L", "wash", "CU-00009-X"]), min_size=1, max_size=6
+        )
+    )
     ratio = st.floats(0.5, 5).map(repr)
     rows = [["1", "STD-X", draw(ratio)]]
     for target in targets:
@@ -237,8 +293,15 @@ def test_instrument_import_refuses_or_keeps_every_row(
     db, _, _ = bench
     _count("instrument import (service)")
     content = csv_text([["Run", "Name", "r4440"], *rows])
-    request = {"profile": "p", "filename": "fuzz.csv", "content": content, "name": "fuzz",
-               "instrument": "MC", "element": "Ca", "bracketing_standard": "STD-X"}  # fmt: skip
+    request = {
+        "profile": "p",
+        "filename": "fuzz.csv",
+        "content": content,
+        "name": "fuzz",
+        "instrument": "MC",
+        "element": "Ca",
+        "bracketing_standard": "STD-X",
+    }
     call = lambda: instrument.import_session(db, "tech", request)  # noqa: E731
     answer = _refused_or_done(db, call, "instrument")
     if answer is not None:
@@ -276,8 +339,9 @@ def test_batch_sheets_refuse_or_enter_exactly_their_rows(
 @st.composite
 def curves(draw: Any) -> list[list[str]]:
     ages = sorted(set(draw(st.lists(st.floats(0, 600), min_size=2, max_size=10))))
-    rows = [[repr(a), repr(draw(st.floats(0.70, 0.71))), repr(draw(st.floats(0, 0.001)))]
-            for a in ages]  # fmt: skip
+    rows = [
+        [repr(a), repr(draw(st.floats(0.70, 0.71))), repr(draw(st.floats(0, 0.001)))] for a in ages
+    ]
     return draw(maybe_spoiled(rows))
 
 
@@ -304,19 +368,31 @@ def test_sr_curves_refuse_or_screen_without_fail(
         assert math.isfinite(start) and math.isfinite(end)
 
 
-TERMS = ["catalogNumber", "scientificName", "locality", "eventDate", "decimalLatitude",
-         "ageMaxMa", "preparations", "habitat"]  # fmt: skip
+TERMS = [
+    "catalogNumber",
+    "scientificName",
+    "locality",
+    "eventDate",
+    "decimalLatitude",
+    "ageMaxMa",
+    "preparations",
+    "habitat",
+]
 
 
 @st.composite
 def manifests_(draw: Any) -> tuple[list[str], list[list[str]]]:
     """A lender's list in Darwin Core terms with plausible values, then maybe spoiled."""
     header = ["catalogNumber", *draw(st.lists(st.sampled_from(TERMS[1:]), unique=True))]
-    values = {"scientificName": st.sampled_from(["Lamniformes indet.", "Otodus sp."]),
-              "locality": st.sampled_from(["Pit 1 (invented)", "Quarry (invented)"]),
-              "eventDate": st.dates().map(str), "decimalLatitude": st.floats(-90, 90).map(repr),
-              "ageMaxMa": st.floats(0, 4600).map(repr), "preparations": st.just("tooth"),
-              "habitat": st.text(max_size=10)}  # fmt: skip
+    values = {
+        "scientificName": st.sampled_from(["Lamniformes indet.", "Otodus sp."]),
+        "locality": st.sampled_from(["Pit 1 (invented)", "Quarry (invented)"]),
+        "eventDate": st.dates().map(str),
+        "decimalLatitude": st.floats(-90, 90).map(repr),
+        "ageMaxMa": st.floats(0, 4600).map(repr),
+        "preparations": st.just("tooth"),
+        "habitat": st.text(max_size=10),
+    }
     rows = []
     for n in draw(st.lists(st.integers(1, 60), min_size=1, max_size=8, unique=True)):
         rows.append([f"INV {n}", *(draw(values[term]) for term in header[1:])])
@@ -347,18 +423,22 @@ def test_lender_manifests_refuse_or_account_for_every_row(
 
 JSONISH = st.recursive(
     st.one_of(st.none(), st.booleans(), st.floats(), st.integers(), st.text(max_size=8)),
-    lambda inner: st.one_of(st.lists(inner, max_size=3),
-                            st.dictionaries(st.text(max_size=8), inner, max_size=3)),
+    lambda inner: st.one_of(
+        st.lists(inner, max_size=3), st.dictionaries(st.text(max_size=8), inner, max_size=3)
+    ),
     max_leaves=12,
-)  # fmt: skip
+)
 HEADING = st.text(min_size=1, max_size=20).filter(lambda t: t.strip() == t and t)
 
 
 @st.composite
 def profiles(draw: Any) -> dict[str, Any]:
     """A valid profile (own headings, ratios, format), then maybe values replaced by any JSON."""
-    ratios = draw(st.dictionaries(st.sampled_from(["44/40", "44/42", "87/86", "43/44"]), HEADING,
-                                  min_size=1, max_size=3))  # fmt: skip
+    ratios = draw(
+        st.dictionaries(
+            st.sampled_from(["44/40", "44/42", "87/86", "43/44"]), HEADING, min_size=1, max_size=3
+        )
+    )
     profile = {
         "format": draw(st.sampled_from(["csv", "tsv", "xlsx"])),
         "header_row": draw(st.integers(1, 100)),

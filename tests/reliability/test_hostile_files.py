@@ -44,30 +44,88 @@ def bench_template(lab_template: Lab, tmp_path_factory: pytest.TempPathFactory) 
     for fmt in ("csv", "xlsx"):
         profile = folder / f"fz-{fmt}.toml"
         profile.write_text(PROFILE.format(fmt=fmt), encoding="utf-8")
-        ok_json(invoke("profile", "save", f"fz-{fmt}", str(profile), db=path,
-                       actor=lab_template.technician, as_json=True))  # fmt: skip
-    batch = ok_json(invoke(
-        "batch", "create", "--name", "hostile", "--date", "2026-01-05", "--element", "Ca",
-        "--resin", "DGA", "--scheme", "load; rinse; elute", "--cuts", "matrix,Ca",
-        db=path, actor=lab_template.technician, as_json=True,
-    ))["item"]["id"]  # fmt: skip
+        ok_json(
+            invoke(
+                "profile",
+                "save",
+                f"fz-{fmt}",
+                str(profile),
+                db=path,
+                actor=lab_template.technician,
+                as_json=True,
+            )
+        )
+    batch = ok_json(
+        invoke(
+            "batch",
+            "create",
+            "--name",
+            "hostile",
+            "--date",
+            "2026-01-05",
+            "--element",
+            "Ca",
+            "--resin",
+            "DGA",
+            "--scheme",
+            "load; rinse; elute",
+            "--cuts",
+            "matrix,Ca",
+            db=path,
+            actor=lab_template.technician,
+            as_json=True,
+        )
+    )["item"]["id"]
     return Bench(path, lab_template, batch)
 
 
 @pytest.fixture
 def bench(bench_template: Bench, tmp_path: Path) -> Bench:
-    return Bench(copy_sqlite(bench_template.path, tmp_path / "lab.sqlite"), bench_template.lab,
-                 bench_template.batch)  # fmt: skip
+    return Bench(
+        copy_sqlite(bench_template.path, tmp_path / "lab.sqlite"),
+        bench_template.lab,
+        bench_template.batch,
+    )
 
 
 Run = Callable[[Bench, Path], list[str]]
 IMPORTERS: dict[str, tuple[str, Run]] = {
-    "instrument export (CSV)": (".csv", lambda b, p: [
-        "session", "import", str(p), "--profile", "fz-csv", "--name", "hostile",
-        "--instrument", "MC", "--element", "Ca", "--standard", "STD-X"]),
-    "instrument export (XLSX)": (".xlsx", lambda b, p: [
-        "session", "import", str(p), "--profile", "fz-xlsx", "--name", "hostile",
-        "--instrument", "MC", "--element", "Ca", "--standard", "STD-X"]),
+    "instrument export (CSV)": (
+        ".csv",
+        lambda b, p: [
+            "session",
+            "import",
+            str(p),
+            "--profile",
+            "fz-csv",
+            "--name",
+            "hostile",
+            "--instrument",
+            "MC",
+            "--element",
+            "Ca",
+            "--standard",
+            "STD-X",
+        ],
+    ),
+    "instrument export (XLSX)": (
+        ".xlsx",
+        lambda b, p: [
+            "session",
+            "import",
+            str(p),
+            "--profile",
+            "fz-xlsx",
+            "--name",
+            "hostile",
+            "--instrument",
+            "MC",
+            "--element",
+            "Ca",
+            "--standard",
+            "STD-X",
+        ],
+    ),
     "batch sheet": (".csv", lambda b, p: ["batch", "sheet", b.batch, str(p)]),
     "lender manifest": (".csv", lambda b, p: ["manifest", "import", b.lab.loan, str(p)]),
     "lender manifest (XLSX)": (".xlsx", lambda b, p: ["manifest", "import", b.lab.loan, str(p)]),
@@ -75,9 +133,20 @@ IMPORTERS: dict[str, tuple[str, Run]] = {
     "Sr reference curve": (".csv", lambda b, p: ["curve", "add", "hostile", str(p)]),
     "mapping profile (TOML)": (".toml", lambda b, p: ["profile", "save", "hostile", str(p)]),
     "mapping profile (JSON)": (".json", lambda b, p: ["profile", "save", "hostile", str(p)]),
-    "label stock file": (".toml", lambda b, p: [
-        "labels", "preview", "--stock", "lid", "--stocks", str(p), "--out", str(p) + ".png"]),
-}  # fmt: skip
+    "label stock file": (
+        ".toml",
+        lambda b, p: [
+            "labels",
+            "preview",
+            "--stock",
+            "lid",
+            "--stocks",
+            str(p),
+            "--out",
+            str(p) + ".png",
+        ],
+    ),
+}
 
 TEXT = {  # a well-formed file of each text importer, to spoil
     "instrument export (CSV)": h.GOOD_EXPORT,
@@ -93,12 +162,20 @@ CASES: list[tuple[str, str, Callable[[], bytes], tuple[str, ...]]] = []
 for name, text in TEXT.items():
     CASES += [
         (name, "UTF-16 text", lambda t=text: h.utf16(t), ("UTF-16",)),
-        (name, "Latin-1 bytes on row 2", lambda t=text: h.latin1_on_row(t + "\n", 2),
-         ("row 2", "column", "not UTF-8")),
-        (name, "a NUL byte on row 2", lambda t=text: h.nul_on_row(t + "\n", 2),
-         ("row 2", "column", "NUL")),
+        (
+            name,
+            "Latin-1 bytes on row 2",
+            lambda t=text: h.latin1_on_row(t + "\n", 2),
+            ("row 2", "column", "not UTF-8"),
+        ),
+        (
+            name,
+            "a NUL byte on row 2",
+            lambda t=text: h.nul_on_row(t + "\n", 2),
+            ("row 2", "column", "NUL"),
+        ),
         (name, "random binary", lambda: h.random_bytes(), ()),
-    ]  # fmt: skip
+    ]
 for name in ("instrument export (CSV)", "batch sheet", "lender manifest", "Sr reference curve"):
     header = TEXT[name].splitlines()[0]
     long_line = ("row 2", "column", "long") if name != "Sr reference curve" else ("files over",)
@@ -112,23 +189,42 @@ for name in ("instrument export (CSV)", "batch sheet", "lender manifest", "Sr re
         ),
     ]
 CASES += [
-    ("instrument export (CSV)", "a formula in a value",
-     lambda: (h.GOOD_EXPORT + "4,STD-X,=2.1*1\n").encode(), ("row 5", "column r4440", "formula")),
-    ("instrument export (CSV)", "a formula in a name",
-     lambda: (h.GOOD_EXPORT + '4,"=HYPERLINK(""x"")",2.1\n').encode(),
-     ("row 5", "column Name", "formula")),
-    ("batch sheet", "a formula", lambda: (SHEET + "2,blank,,,=A1\n").encode(),
-     ("row 3", "column Ca", "formula")),
-    ("lender manifest", "a formula", lambda: (MANIFEST + 'INV 3,"=HYPERLINK(""x"")"\n').encode(),
-     ("row 4", "column locality", "formula")),
+    (
+        "instrument export (CSV)",
+        "a formula in a value",
+        lambda: (h.GOOD_EXPORT + "4,STD-X,=2.1*1\n").encode(),
+        ("row 5", "column r4440", "formula"),
+    ),
+    (
+        "instrument export (CSV)",
+        "a formula in a name",
+        lambda: (h.GOOD_EXPORT + '4,"=HYPERLINK(""x"")",2.1\n').encode(),
+        ("row 5", "column Name", "formula"),
+    ),
+    (
+        "batch sheet",
+        "a formula",
+        lambda: (SHEET + "2,blank,,,=A1\n").encode(),
+        ("row 3", "column Ca", "formula"),
+    ),
+    (
+        "lender manifest",
+        "a formula",
+        lambda: (MANIFEST + 'INV 3,"=HYPERLINK(""x"")"\n').encode(),
+        ("row 4", "column locality", "formula"),
+    ),
     ("mapping profile (JSON)", "JSON nested 100 000 deep", h.deep_json, ("too deeply",)),
     ("mapping profile (TOML)", "TOML nested 100 000 deep", h.deep_toml, ("too deeply",)),
     ("label stock file", "TOML nested 100 000 deep", h.deep_toml, ("too deeply",)),
     ("mapping profile (JSON)", "a list at the top", lambda: b"[1, 2]", ("table",)),
-    ("label stock file", "a stock off its page",
-     lambda: (STOCK + "label_height_mm = 40.0\n").encode(), ("larger than",)),
+    (
+        "label stock file",
+        "a stock off its page",
+        lambda: (STOCK + "label_height_mm = 40.0\n").encode(),
+        ("larger than",),
+    ),
     ("label stock file", "NaN sizes", lambda: STOCK.replace("50.0", "nan").encode(), ("lid",)),
-]  # fmt: skip
+]
 for name in ("instrument export (XLSX)", "batch sheet (XLSX)", "lender manifest (XLSX)"):
     CASES += [
         (name, "a zip bomb (300 MB inflated)", h.zip_bomb, ("unpack",)),
@@ -141,9 +237,13 @@ for name in ("instrument export (XLSX)", "batch sheet (XLSX)", "lender manifest 
         (name, "plain text", lambda: b"Run,Name\n1,x\n", ("not an XLSX",)),
     ]
 CASES += [
-    ("instrument export (XLSX)", "a formula never calculated", h.formula_without_value,
-     ("row 2", "column r4440", "formula")),
-]  # fmt: skip
+    (
+        "instrument export (XLSX)",
+        "a formula never calculated",
+        h.formula_without_value,
+        ("row 2", "column r4440", "formula"),
+    ),
+]
 
 
 @pytest.mark.slow
@@ -153,9 +253,12 @@ CASES += [
     ids=[f"{c[0]}: {c[1]}" for c in CASES],
 )
 def test_a_hostile_file_is_one_clear_line_and_writes_nothing(
-    bench: Bench, tmp_path: Path, importer: str, build: Callable[[], bytes],
+    bench: Bench,
+    tmp_path: Path,
+    importer: str,
+    build: Callable[[], bytes],
     words: tuple[str, ...],
-) -> None:  # fmt: skip
+) -> None:
     suffix, argv = IMPORTERS[importer]
     path = h.write(tmp_path / f"hostile{suffix}", build())
     before = counts(bench.path)

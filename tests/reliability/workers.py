@@ -59,12 +59,23 @@ def drill_race(args: dict[str, Any]) -> dict[str, Any]:
     _wait_for(args["gate"])
     for attempt in range(args["attempts"]):
         specimen = rng.choice(args["specimens"])
-        request = {"specimen": specimen, "tissue": "enamel", "tare": "1000.000 mg",
-                   "gross": f"{1000 + args['mass_mg']:.3f} mg"}  # fmt: skip
+        request = {
+            "specimen": specimen,
+            "tissue": "enamel",
+            "tare": "1000.000 mg",
+            "gross": f"{1000 + args['mass_mg']:.3f} mg",
+        }
         try:
             answer = drilling.drill(db, args["actor"], request)
-            done.append({"kind": "drill", "seq": answer.event_seq, "hash": answer.event_hash,
-                         "specimen": specimen, "powder": answer.item.id})  # fmt: skip
+            done.append(
+                {
+                    "kind": "drill",
+                    "seq": answer.event_seq,
+                    "hash": answer.event_hash,
+                    "specimen": specimen,
+                    "powder": answer.item.id,
+                }
+            )
         except RuleViolation:
             refused += 1
         except (TrackerError, DBAPIError) as problem:
@@ -119,9 +130,15 @@ def _repeat_until_done(args: dict[str, Any], calls: list[Callable[[Any], Any]]) 
 def import_files(args: dict[str, Any]) -> dict[str, Any]:
     def importer(path: str) -> Callable[[Any], Any]:
         content = Path(path).read_bytes()
-        request = {"profile": args["profile"], "filename": Path(path).name, "content": content,
-                   "name": Path(path).stem, "instrument": "MC-ICP-MS (invented)",
-                   "element": "Ca", "bracketing_standard": "STD-X"}  # fmt: skip
+        request = {
+            "profile": args["profile"],
+            "filename": Path(path).name,
+            "content": content,
+            "name": Path(path).stem,
+            "instrument": "MC-ICP-MS (invented)",
+            "element": "Ca",
+            "bracketing_standard": "STD-X",
+        }
         return lambda db: instrument.import_session(db, args["actor"], request)
 
     _repeat_until_done(args, [importer(p) for p in args["files"]])
@@ -130,8 +147,7 @@ def import_files(args: dict[str, Any]) -> dict[str, Any]:
 
 def enter_sheets(args: dict[str, Any]) -> dict[str, Any]:
     def enter(batch: str, path: str) -> Callable[[Any], Any]:
-        request = {"batch": batch, "filename": Path(path).name,
-                   "content": Path(path).read_bytes()}  # fmt: skip
+        request = {"batch": batch, "filename": Path(path).name, "content": Path(path).read_bytes()}
         return lambda db: batch_sheet.enter_sheet(db, args["actor"], request)
 
     _repeat_until_done(args, [enter(b, p) for b, p in args["sheets"]])

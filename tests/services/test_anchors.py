@@ -65,9 +65,14 @@ def test_events_cut_and_re_appended_with_valid_hashes_fail_the_anchor(
     with db.write_session() as session, session.begin():
         for n in range(3):
             append_event(
-                session, at=db.clock(), operator="boss", action="location.added",
-                object_ref="", parent_ref="", payload={"n": n},
-            )  # fmt: skip
+                session,
+                at=db.clock(),
+                operator="boss",
+                action="location.added",
+                object_ref="",
+                parent_ref="",
+                payload={"n": n},
+            )
     assert ledger.verify(db).ok
     report = ledger.verify_against(db, anchor)
     assert not report.ok and "rewritten" in (report.anchor.problem or "")

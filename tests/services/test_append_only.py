@@ -25,9 +25,10 @@ EDIT = re.compile(
 def _one_row_in_each(db: Database) -> None:
     powder = make.powder(db, make.specimen(db, make.loan(db)), "2.000")
     corrections.correct_weighing(
-        db, "tech",
+        db,
+        "tech",
         {"item": powder, "tare": "1000.000 mg", "gross": "1002.010 mg", "reason": "misread"},
-    )  # fmt: skip
+    )
 
 
 @pytest.mark.parametrize("table", APPEND_ONLY)
@@ -78,6 +79,7 @@ def _one_row_in_each_demo(db: Database) -> None:
     """The demo's first powder (2.015 mg, all dissolved) re-weighed a little heavier."""
     powder = "PW-00001-" + check_character("PW00001")
     corrections.correct_weighing(
-        db, "ines",
+        db,
+        "ines",
         {"item": powder, "tare": "812.341 mg", "gross": "815.863 mg", "reason": "misread"},
-    )  # fmt: skip
+    )

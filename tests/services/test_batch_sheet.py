@@ -97,9 +97,13 @@ def test_the_same_sheet_again_is_refused_and_a_partial_one_is_completed(
     ],
 )
 def test_a_bad_row_enters_nothing_and_names_file_row_and_column(
-    db: Database, counts: Counts, bench: tuple[str, str], rows: list[str], where: str,
+    db: Database,
+    counts: Counts,
+    bench: tuple[str, str],
+    rows: list[str],
+    where: str,
     fragment: str,
-) -> None:  # fmt: skip
+) -> None:
     batch, _ = bench
     before = counts()
     with pytest.raises((InputError, RuleViolation)) as caught:

@@ -61,9 +61,10 @@ def test_powder_correction_keeps_the_original_and_totals_use_the_latest(db: Data
     assert corrected.payload["reason"] == WHY and corrected.payload["value"]["gross_mg"] == 1002.5
     assert corrected.payload["effects"]["label"] == "queued"  # the vial's label shows its mass
     dissolved = lab.dissolve(
-        db, "tech",
+        db,
+        "tech",
         {"powder": powder, "acid": "2 M HNO3", "vial_tare": "5.0000 g", "vial_gross": "6.0000 g"},
-    ).item  # fmt: skip
+    ).item
     assert dissolved.powder_mass_mg == pytest.approx(2.5)  # "all that remains" is the latest
     assert ledger.verify(db).ok
 
@@ -157,9 +158,16 @@ def test_a_concentration_correction_reaches_loads_yields_and_results(db: Databas
     solution = lineage.show_item(db, sample.holds or "").ancestors[-1].id
 
     answer = corrections_values.correct_concentration(
-        db, "tech", {"solution": solution, "element": "Ca", "value": "450 ug/g",
-                     "relative_uncertainty_percent": 2, "reason": "dilution applied twice"},
-    ).item  # fmt: skip
+        db,
+        "tech",
+        {
+            "solution": solution,
+            "element": "Ca",
+            "value": "450 ug/g",
+            "relative_uncertainty_percent": 2,
+            "reason": "dilution applied twice",
+        },
+    ).item
     # by hand: 0.0200 g × 450 µg/g = 9.000 µg loaded; 9.000 / 9.000 = 100 % yield
     assert answer.effects["loaded"][0]["loaded_ug"] == [pytest.approx(10.0), pytest.approx(9.0)]
     assert answer.effects["sessions_reduced"] == [session]

@@ -44,8 +44,9 @@ def test_the_stored_sql_is_what_the_services_statements_compile_to() -> None:
 # 2026-03-10: before the demo's allowance amendment (effective 2026-06-01) takes effect;
 # 2026-05-15: still before it; 2026-12-01: after it, one loan due within 30 days;
 # 2027-06-01: every open loan overdue.
-@pytest.mark.parametrize("today", [date(2026, 3, 10), date(2026, 5, 15), date(2026, 12, 1),
-                                   date(2027, 6, 1)])  # fmt: skip
+@pytest.mark.parametrize(
+    "today", [date(2026, 3, 10), date(2026, 5, 15), date(2026, 12, 1), date(2027, 6, 1)]
+)
 def test_the_glance_says_what_reconcile_says(demo: Path, today: date) -> None:
     glance = read_glance(demo, today)
     db = open_database(demo, clock=lambda: datetime.combine(today, datetime.min.time(), UTC))

@@ -25,11 +25,21 @@ WHEN = datetime(2026, 3, 4, 5, 6, 7, 891011, tzinfo=UTC)
 
 def _rows(prefix: str) -> list[dict[str, Any]]:
     return [
-        {"catalog_number": f"{prefix} 1", "extra": {"fieldNumber": "F-1", "n": 2},
-         "locality": "Quarry (invented)", "age_min_ma": 1.25, "age_max_ma": None},
-        {"catalog_number": f"{prefix} 2", "extra": {}, "locality": None,
-         "age_min_ma": None, "age_max_ma": 4600.0},
-    ]  # fmt: skip
+        {
+            "catalog_number": f"{prefix} 1",
+            "extra": {"fieldNumber": "F-1", "n": 2},
+            "locality": "Quarry (invented)",
+            "age_min_ma": 1.25,
+            "age_max_ma": None,
+        },
+        {
+            "catalog_number": f"{prefix} 2",
+            "extra": {},
+            "locality": None,
+            "age_min_ma": None,
+            "age_max_ma": 4600.0,
+        },
+    ]
 
 
 def _new_loan(db: Database) -> int:

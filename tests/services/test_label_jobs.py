@@ -61,8 +61,10 @@ def test_printing_the_queue_is_one_event_with_the_pdfs_hash(
     event = _last_event(db)
     payload = json.loads(event.payload)
     assert (event.action, event.object_ref, event.seq) == (
-        "labels.printed", outcome.job.id, outcome.event_seq,
-    )  # fmt: skip
+        "labels.printed",
+        outcome.job.id,
+        outcome.event_seq,
+    )
     assert payload["items"] == items and payload["stock"] == "a4-65"
     assert payload["sha256"] == outcome.job.sha256 == digest
     assert (payload["start"], payload["pages"], outcome.job.labels) == (3, 1, 4)
@@ -112,9 +114,13 @@ def _bad_stocks(tmp_path: Path) -> Path:
     ],
 )
 def test_bad_print_requests_are_refused_and_write_nothing(
-    db: Database, counts: Counts, tmp_path: Path, options: dict[str, object], field: str,
+    db: Database,
+    counts: Counts,
+    tmp_path: Path,
+    options: dict[str, object],
+    field: str,
     fragment: str,
-) -> None:  # fmt: skip
+) -> None:
     _lab(db)
     if options.get("prefix"):  # a long link: version 4 symbols do not fit a 15 mm dot
         labels.set_uri_prefix(db, "boss", {"uri_prefix": "HTTPS://" + "A" * 40 + ".EXAMPLE/T/"})
@@ -123,10 +129,13 @@ def test_bad_print_requests_are_refused_and_write_nothing(
     folder.mkdir()
     with pytest.raises(InputError) as caught:
         jobs.print_queue(
-            db, "tech", stock=str(options["stock"]), start=int(str(options.get("start", 1))),
+            db,
+            "tech",
+            stock=str(options["stock"]),
+            start=int(str(options.get("start", 1))),
             out=folder / str(options.get("out", "labels.pdf")),
             stocks_file=_bad_stocks(tmp_path) if options.get("stocks") else None,
-        )  # fmt: skip
+        )
     assert caught.value.field == field and fragment in caught.value.reason
     assert "\n" not in caught.value.one_line()
     assert counts() == before
@@ -142,8 +151,9 @@ def test_reprint_is_one_event_and_leaves_the_queue_alone(
     labels.queue_labels(db, "tech", {"items": [spec]})
     before = counts()
     out = tmp_path / "again.pdf"
-    outcome = jobs.reprint(db, "tech", items=[powder, spec], reason="smudged by acid",
-                           stock="cryovial-wrap", out=out)  # fmt: skip
+    outcome = jobs.reprint(
+        db, "tech", items=[powder, spec], reason="smudged by acid", stock="cryovial-wrap", out=out
+    )
     after = counts()
     assert after["ledger_head"] == before["ledger_head"] + 1
     assert after["label"] == before["label"] + 2  # two printed labels on record
@@ -151,8 +161,10 @@ def test_reprint_is_one_event_and_leaves_the_queue_alone(
     payload = json.loads(event.payload)
     assert event.action == "labels.reprinted"
     assert (payload["items"], payload["reason"], payload["kind"]) == (
-        [powder, spec], "smudged by acid", "reprint",
-    )  # fmt: skip
+        [powder, spec],
+        "smudged by acid",
+        "reprint",
+    )
     assert payload["sha256"] == hashlib.sha256(out.read_bytes()).hexdigest()
     assert payload["pages"] == 2  # a roll stock: one label per page
     assert _decoded(out) == sorted([powder, spec])

@@ -32,8 +32,9 @@ def _labels(db: Database) -> list[Label]:
         return list(session.scalars(select(Label).order_by(Label.id)))
 
 
-def _queued_by_one_event(db: Database, action: Callable[[], Any], item: Callable[[Any], str],
-                         counts: Counts) -> None:  # fmt: skip
+def _queued_by_one_event(
+    db: Database, action: Callable[[], Any], item: Callable[[Any], str], counts: Counts
+) -> None:
     before = counts()
     answer = action()
     after = counts()
@@ -42,8 +43,10 @@ def _queued_by_one_event(db: Database, action: Callable[[], Any], item: Callable
     event = _events(db)[-1]
     label = _labels(db)[-1]
     assert (label.item_ref, label.status, label.queued_event_seq) == (
-        item(answer), LabelStatus.QUEUED, event.seq,
-    )  # fmt: skip
+        item(answer),
+        LabelStatus.QUEUED,
+        event.seq,
+    )
     assert label.queued_by == event.operator and event.object_ref == item(answer)
     assert json.loads(event.payload)["label"] == "queued"  # the ledger says so too
 
@@ -53,14 +56,20 @@ def test_each_bench_action_queues_its_label_inside_its_own_event(
 ) -> None:
     spec = make.specimen(db, make.loan(db), checked_in=False)
     _queued_by_one_event(
-        db, lambda: specimens.check_in(db, "tech", {"specimen": spec, "condition": "ok"}),
-        lambda a: a.item.id, counts,
-    )  # fmt: skip
+        db,
+        lambda: specimens.check_in(db, "tech", {"specimen": spec, "condition": "ok"}),
+        lambda a: a.item.id,
+        counts,
+    )
     drill = {"specimen": spec, "tissue": "enamel", "tare": "1.000 mg", "gross": "3.000 mg"}
     _queued_by_one_event(db, lambda: drilling.drill(db, "tech", drill), lambda a: a.item.id, counts)
     powder = _labels(db)[-1].item_ref
-    dissolve = {"powder": powder, "acid": "2 M HNO3", "vial_tare": "5.0000 g",
-                "vial_gross": "6.0000 g"}  # fmt: skip
+    dissolve = {
+        "powder": powder,
+        "acid": "2 M HNO3",
+        "vial_tare": "5.0000 g",
+        "vial_gross": "6.0000 g",
+    }
     _queued_by_one_event(
         db, lambda: lab.dissolve(db, "tech", dissolve), lambda a: a.item.id, counts
     )
@@ -83,8 +92,11 @@ def test_a_refused_bench_action_queues_nothing(db: Database, counts: Counts) -> 
     spec = make.specimen(db, make.loan(db))
     before = counts()
     with pytest.raises(InputError):
-        drilling.drill(db, "tech", {"specimen": spec, "tissue": "enamel", "tare": "3.000 mg",
-                                    "gross": "1.000 mg"})  # fmt: skip
+        drilling.drill(
+            db,
+            "tech",
+            {"specimen": spec, "tissue": "enamel", "tare": "3.000 mg", "gross": "1.000 mg"},
+        )
     assert counts() == before
 
 
@@ -96,8 +108,9 @@ def test_queue_by_hand_is_one_event_for_all_items(db: Database, counts: Counts) 
     material = {"name": "Invented carbonate", "element": "Ca"}
     reference = chemistry.add_reference_material(db, "boss", material).item.id
     before = counts()
-    answer = labels.queue_labels(db, "tech", {"items": [spec, powder.lower(), reference],
-                                               "copies": 2})  # fmt: skip
+    answer = labels.queue_labels(
+        db, "tech", {"items": [spec, powder.lower(), reference], "copies": 2}
+    )
     assert counts()["ledger_head"] == before["ledger_head"] + 1
     assert counts()["label"] == before["label"] + 6
     assert answer.item.items == [spec, spec, powder, powder, reference, reference]
@@ -120,17 +133,23 @@ def test_queue_by_hand_is_one_event_for_all_items(db: Database, counts: Counts) 
     ],
 )
 def test_queue_refusals_write_nothing(
-    db: Database, counts: Counts, items: list[str], error: type[Exception], field: str,
+    db: Database,
+    counts: Counts,
+    items: list[str],
+    error: type[Exception],
+    field: str,
     fragment: str,
-) -> None:  # fmt: skip
+) -> None:
     loan = make.loan(db)
     spec = make.specimen(db, loan)  # checked in: its label is queued
     with db.read_session() as session:
         from tracker.services.lookup import get_loan
 
         loan_id = get_loan(session, "loan", loan).public_id
-    filled = [i.format(loan_id=loan_id, spec=spec, spec_lower=spec.lower().replace("-", ""))
-              for i in items]  # fmt: skip
+    filled = [
+        i.format(loan_id=loan_id, spec=spec, spec_lower=spec.lower().replace("-", ""))
+        for i in items
+    ]
     before = counts()
     with pytest.raises(error) as caught:
         labels.queue_labels(db, "tech", {"items": filled})
@@ -166,8 +185,9 @@ def test_the_link_prefix_is_a_manager_setting_recorded_in_the_ledger(
     assert labels.label_settings(db).uri_prefix == PREFIX
     event = _events(db)[-1]
     assert (event.action, json.loads(event.payload)) == (
-        "labels.uri_prefix_set", {"uri_prefix": PREFIX, "previous": None},
-    )  # fmt: skip
+        "labels.uri_prefix_set",
+        {"uri_prefix": PREFIX, "previous": None},
+    )
     labels.set_uri_prefix(db, "boss", {"uri_prefix": None})
     assert labels.label_settings(db).uri_prefix is None
     assert verify(db).ok
@@ -177,10 +197,15 @@ def test_a_scanned_link_is_accepted_wherever_an_id_is(db: Database) -> None:
     labels.set_uri_prefix(db, "boss", {"uri_prefix": PREFIX})
     spec = make.specimen(db, make.loan(db))
     powder = drilling.drill(
-        db, "tech",
-        {"specimen": PREFIX.lower() + spec, "tissue": "enamel", "tare": "1.000 mg",
-         "gross": "2.000 mg"},
-    ).item.id  # fmt: skip
+        db,
+        "tech",
+        {
+            "specimen": PREFIX.lower() + spec,
+            "tissue": "enamel",
+            "tare": "1.000 mg",
+            "gross": "2.000 mg",
+        },
+    ).item.id
     assert labels.read_scan(db, PREFIX + powder).id == powder
     assert labels.facts_for(db, [spec])[0].payload == PREFIX + spec
     with pytest.raises(InputError, match="not to this lab's labels") as caught:

@@ -21,8 +21,9 @@ pytestmark = pytest.mark.postgresql
 
 
 def _grant_lines() -> str:
-    storage = re.search(r"^## Storage\n(.*?)(?=^## )", README.read_text(encoding="utf-8"),
-                        flags=re.S | re.M)  # fmt: skip
+    storage = re.search(
+        r"^## Storage\n(.*?)(?=^## )", README.read_text(encoding="utf-8"), flags=re.S | re.M
+    )
     assert storage is not None
     (block,) = re.findall(r"```sql\n(.*?)```", storage.group(1), flags=re.S)
     return block
@@ -32,8 +33,11 @@ def _grant_lines() -> str:
 def cluster(pg_server: str) -> Iterator[dict[str, str]]:
     """A database owned by a fresh owner role, and a fresh application role (both LOGIN)."""
     tag = uuid.uuid4().hex[:8]
-    names = {"db": f"tracker_lab_{tag}", "owner": f"tracker_owner_{tag}",
-             "app": f"tracker_app_{tag}"}  # fmt: skip
+    names = {
+        "db": f"tracker_lab_{tag}",
+        "owner": f"tracker_owner_{tag}",
+        "app": f"tracker_app_{tag}",
+    }
     admin = create_engine(
         make_url(pg_server).set(database="postgres"), isolation_level="AUTOCOMMIT"
     )
@@ -81,9 +85,16 @@ def test_the_readme_grants_let_the_app_work_but_never_edit_the_ledger(
     app = open_database(cluster["app_url"])  # the workstations' login
     try:
         powder = make.powder(app, make.specimen(app, make.loan(app)), "2.000")
-        corrections.correct_weighing(app, "tech", {
-            "item": powder, "tare": "1000.000 mg", "gross": "1002.020 mg", "reason": "misread",
-        })  # fmt: skip
+        corrections.correct_weighing(
+            app,
+            "tech",
+            {
+                "item": powder,
+                "tare": "1000.000 mg",
+                "gross": "1002.020 mg",
+                "reason": "misread",
+            },
+        )
         assert ledger.verify(app).ok
         refusals = []
         for statement in REFUSED:

@@ -42,10 +42,15 @@ def _returned_loan(db: Database) -> str:
 def _others_powder(db: Database) -> str:
     setup.add_operator(db, "boss", {"code": "tova", "name": "Tova Lind", "role": "technician"})
     return drilling.drill(
-        db, "tova",
-        {"specimen": make.specimen(db, make.loan(db)), "tissue": "enamel",
-         "tare": "1000.000 mg", "gross": "1002.000 mg"},
-    ).item.id  # fmt: skip
+        db,
+        "tova",
+        {
+            "specimen": make.specimen(db, make.loan(db)),
+            "tissue": "enamel",
+            "tare": "1000.000 mg",
+            "gross": "1002.000 mg",
+        },
+    ).item.id
 
 
 Setup = Callable[[Database], Any]
@@ -164,10 +169,16 @@ def test_a_loan_closes_only_after_its_return_and_its_leftovers(
         custody.close_loan(db, "boss", close)
     with pytest.raises(RuleViolation, match="is closed"):
         amendments.amend_loan(
-            db, "boss",
-            {"loan": loan, "kind": "other", "effective_from": "2026-01-05", "reason": REASON,
-             "due_on": "2028-01-01"},
-        )  # fmt: skip
+            db,
+            "boss",
+            {
+                "loan": loan,
+                "kind": "other",
+                "effective_from": "2026-01-05",
+                "reason": REASON,
+                "due_on": "2028-01-01",
+            },
+        )
 
 
 def test_a_manager_refusal_without_any_active_manager_still_explains(db: Database) -> None:

@@ -77,8 +77,10 @@ async def test_check_in_by_scan(lab: Lab) -> None:
     assert specimen.condition_in.startswith("complete; root tip")
     (event,) = events_after(lab, start)
     assert (event.action, event.object_ref, event.operator) == (
-        "specimen.checked_in", "SP-00011-S", "tomas",
-    )  # fmt: skip
+        "specimen.checked_in",
+        "SP-00011-S",
+        "tomas",
+    )
     labels = query(lab, select(Label).where(Label.item_ref == "SP-00011-S"))
     assert [label.status for label in labels] == [LabelStatus.QUEUED]
 
@@ -140,8 +142,10 @@ async def test_drill_refused_over_the_allowance_then_accepted_within(lab: Lab) -
     assert powders[-1].drilled_by == "tomas" and powders[-1].override_reason is None
     (event,) = events_after(lab, start)
     assert (event.action, event.parent_ref, event.operator) == (
-        "powder.drilled", "SP-00010-U", "tomas",
-    )  # fmt: skip
+        "powder.drilled",
+        "SP-00010-U",
+        "tomas",
+    )
     assert query(lab, select(Label).where(Label.item_ref == powders[-1].public_id))
 
 
@@ -191,9 +195,11 @@ async def test_a_batch_built_by_scanning(lab: Lab) -> None:
         assert "low yield" in str(screen.query_one("#positions").get_row_at(0)[-1])
     (batch,) = query(lab, select(ColumnBatch).where(ColumnBatch.name == "Ca 2026-12 test"))
     positions = query(
-        lab, select(BatchPosition).where(BatchPosition.batch_id == batch.id).order_by(
-            BatchPosition.slot)
-    )  # fmt: skip
+        lab,
+        select(BatchPosition)
+        .where(BatchPosition.batch_id == batch.id)
+        .order_by(BatchPosition.slot),
+    )
     assert [p.kind.value for p in positions] == ["sample", "blank", "reference"]
     assert positions[0].aliquot_id == 2
     (cut,) = query(lab, select(Cut).where(Cut.position_id == positions[0].id))
@@ -261,8 +267,9 @@ async def test_a_session_imported_and_reduced(lab: Lab, tmp_path: Path) -> None:
     assert sorted(r.ratio for r in results) == ["44/40", "44/40", "44/42", "44/42"]
     assert all(r.n == 2 for r in results if r.cut_id is not None)
     assert [(e.action, e.object_ref) for e in events_after(lab, start)] == [
-        ("session.imported", session.public_id), ("session.reduced", session.public_id),
-    ]  # fmt: skip
+        ("session.imported", session.public_id),
+        ("session.reduced", session.public_id),
+    ]
 
 
 async def test_labels_previewed_and_printed(lab: Lab) -> None:

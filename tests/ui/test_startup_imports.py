@@ -59,8 +59,12 @@ def _opened(lab: Lab) -> tuple[int, set[str]]:
     root = Path(__file__).resolve().parents[2]
     result = subprocess.run(
         [sys.executable, "-c", _OPEN_TO_OVERVIEW, str(lab.db_path)],
-        capture_output=True, text=True, check=True, cwd=root, timeout=120,
-    )  # fmt: skip
+        capture_output=True,
+        text=True,
+        check=True,
+        cwd=root,
+        timeout=120,
+    )
     rows, modules = result.stdout.strip().splitlines()[-2:]
     return int(rows), set(modules.split())
 
@@ -90,8 +94,11 @@ print(" ".join(sorted(sys.modules)))
 def test_the_first_screen_and_its_glance_load_no_sqlalchemy_or_pydantic(lab: Lab) -> None:
     result = subprocess.run(
         [sys.executable, "-c", _FIRST_SCREEN, str(lab.db_path)],
-        capture_output=True, text=True, check=True, timeout=120,
-    )  # fmt: skip
+        capture_output=True,
+        text=True,
+        check=True,
+        timeout=120,
+    )
     lines, modules = result.stdout.strip().splitlines()[-2:]
     assert int(lines) == 2  # the demo's two open loans, read by the glance
     tops = {name.split(".")[0] for name in modules.split()}

@@ -279,9 +279,18 @@ def test_a_line_feed_inside_a_field_counts_as_altered_even_when_its_hash_fits() 
     rows = build_chain(3)
     forged = replace(rows[2], operator="tech\nboss")
     text = "\n".join(
-        ("tracker-ledger/1", "3", forged.at, "tech\nboss", forged.action, forged.object_ref,
-         forged.parent_ref, forged.prev_hash, forged.payload)
-    )  # fmt: skip
+        (
+            "tracker-ledger/1",
+            "3",
+            forged.at,
+            "tech\nboss",
+            forged.action,
+            forged.object_ref,
+            forged.parent_ref,
+            forged.prev_hash,
+            forged.payload,
+        )
+    )
     rows[2] = replace(forged, hash=hashlib.sha256(text.encode()).hexdigest())
     report = verify_chain(rows)
     assert not report.ok and report.broken_seq == 3 and report.events == 2

@@ -82,9 +82,15 @@ def test_uri_prefix_rules(prefix: str, ok: bool) -> None:
 
 @pytest.mark.parametrize(
     ("text", "link"),
-    [("SP-00042-E", False), ("sp00042e", False), (" SP 00042 E ", False),
-     (PREFIX + "SP-00042-E", True), ("urn:tracker:SP-00042-E", True), ("  ftp://x/SP", True)],
-)  # fmt: skip
+    [
+        ("SP-00042-E", False),
+        ("sp00042e", False),
+        (" SP 00042 E ", False),
+        (PREFIX + "SP-00042-E", True),
+        ("urn:tracker:SP-00042-E", True),
+        ("  ftp://x/SP", True),
+    ],
+)
 def test_only_a_link_needs_the_prefix_and_every_prefix_is_a_link(text: str, link: bool) -> None:
     """Scans skip reading the prefix setting for bare IDs: safe only because every valid
     prefix starts with a scheme, so a text that is no link can never start with one."""

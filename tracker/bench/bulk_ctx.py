@@ -67,15 +67,31 @@ class Ctx:
         object_ref, parent_ref = obj.public_id, parent.public_id if parent else ""
         text = canonical_json(payload)
         digest = event_hash(seq, self.now, code, action, object_ref, parent_ref, previous, text)
-        self.writer.add_row(CustodyEvent, {
-            "seq": seq, "at": self.now, "operator": code, "action": action,
-            "object_ref": object_ref, "parent_ref": parent_ref, "payload": text,
-            "prev_hash": previous, "hash": digest,
-        })  # fmt: skip
+        self.writer.add_row(
+            CustodyEvent,
+            {
+                "seq": seq,
+                "at": self.now,
+                "operator": code,
+                "action": action,
+                "object_ref": object_ref,
+                "parent_ref": parent_ref,
+                "payload": text,
+                "prev_hash": previous,
+                "hash": digest,
+            },
+        )
         state.head_seq, state.head_hash = seq, digest
         if label is not None:
-            self.writer.add_row(Label, {
-                "id": state.take_id(Label), "item_ref": label.public_id,
-                "status": LabelStatus.QUEUED, "queued_event_seq": seq, "queued_by": code,
-                "queued_at": self.now, "job_id": None,
-            })  # fmt: skip
+            self.writer.add_row(
+                Label,
+                {
+                    "id": state.take_id(Label),
+                    "item_ref": label.public_id,
+                    "status": LabelStatus.QUEUED,
+                    "queued_event_seq": seq,
+                    "queued_by": code,
+                    "queued_at": self.now,
+                    "job_id": None,
+                },
+            )

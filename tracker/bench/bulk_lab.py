@@ -52,22 +52,35 @@ def dissolve(ctx: Ctx, args: dict[str, Any]) -> Solution:
         powder.status = ContainerStatus.CONSUMED
         ctx.writer.changed(powder)
     grams = solution_mass.amount(scale=1e-3)
-    solution = ctx.new(Solution(
-        powder_id=powder.id, powder_mass_mg=taken.value, powder_mass_u_mg=taken.u,
-        acid=request.acid, solution_mass_g=grams.value, solution_mass_u_g=grams.u,
-        dissolved_at=ctx.when(request.dissolved_at, "dissolved-at"),
-        dissolved_by=ctx.operator.code, status=ContainerStatus.AVAILABLE, created_at=ctx.now,
-    ))  # fmt: skip
+    solution = ctx.new(
+        Solution(
+            powder_id=powder.id,
+            powder_mass_mg=taken.value,
+            powder_mass_u_mg=taken.u,
+            acid=request.acid,
+            solution_mass_g=grams.value,
+            solution_mass_u_g=grams.u,
+            dissolved_at=ctx.when(request.dissolved_at, "dissolved-at"),
+            dissolved_by=ctx.operator.code,
+            status=ContainerStatus.AVAILABLE,
+            created_at=ctx.now,
+        )
+    )
     solution.powder = powder
     _put(solution, ctx.place(request.location))
     payload = {
-        "powder": powder.public_id, "powder_mass_mg": taken.value,
-        "powder_mass_u_mg": taken.u, "acid": request.acid,
-        "vial_tare_mg": float(request.vial_tare), "vial_gross_mg": float(request.vial_gross),
-        "readability_mg": float(request.readability), "solution_mass_g": solution.solution_mass_g,
-        "solution_mass_u_g": solution.solution_mass_u_g, "powder_status": powder.status.value,
+        "powder": powder.public_id,
+        "powder_mass_mg": taken.value,
+        "powder_mass_u_mg": taken.u,
+        "acid": request.acid,
+        "vial_tare_mg": float(request.vial_tare),
+        "vial_gross_mg": float(request.vial_gross),
+        "readability_mg": float(request.readability),
+        "solution_mass_g": solution.solution_mass_g,
+        "solution_mass_u_g": solution.solution_mass_u_g,
+        "powder_status": powder.status.value,
         "label": "queued",
-    }  # fmt: skip
+    }
     ctx.record("solution.dissolved", solution, payload, parent=powder, label=solution)
     return solution
 
@@ -76,11 +89,15 @@ def record_concentration(ctx: Ctx, args: dict[str, Any]) -> None:
     request = parse(RecordConcentration, args)
     solution = ctx.state.get(Solution, "solution", request.solution)
     row = Concentration(
-        element=request.element, value_ug_per_g=float(request.value),
-        u_ug_per_g=request.standard_uncertainty(), method=request.method,
+        element=request.element,
+        value_ug_per_g=float(request.value),
+        u_ug_per_g=request.standard_uncertainty(),
+        method=request.method,
         measured_at=ctx.when(request.measured_at, "measured-at"),
-        recorded_by=ctx.operator.code, supersedes_id=None, created_at=ctx.now,
-    )  # fmt: skip
+        recorded_by=ctx.operator.code,
+        supersedes_id=None,
+        created_at=ctx.now,
+    )
     row.id = ctx.state.take_id(Concentration)
     row.solution_id = solution.id
     row.solution = solution
@@ -90,10 +107,13 @@ def record_concentration(ctx: Ctx, args: dict[str, Any]) -> None:
         Amount(row.value_ug_per_g, row.u_ug_per_g),
     )
     payload = {
-        "element": row.element, "value_ug_per_g": row.value_ug_per_g,
-        "u_ug_per_g": row.u_ug_per_g, "method": row.method, "element_ug": element.value,
+        "element": row.element,
+        "value_ug_per_g": row.value_ug_per_g,
+        "u_ug_per_g": row.u_ug_per_g,
+        "method": row.method,
+        "element_ug": element.value,
         "element_u_ug": element.u,
-    }  # fmt: skip
+    }
     ctx.record("concentration.recorded", solution, payload)
 
 
@@ -102,21 +122,33 @@ def take_aliquot(ctx: Ctx, args: dict[str, Any]) -> Aliquot:
     wanted = weigh(request.tare, request.gross, request.readability).amount(scale=1e-3)
     solution = ctx.state.get(Solution, "solution", request.solution)
     require_aliquot_fits(solution, wanted, request)
-    aliquot = ctx.new(Aliquot(
-        solution_id=solution.id, mass_g=wanted.value, mass_u_g=wanted.u,
-        purpose=request.purpose, taken_at=ctx.when(request.taken_at, "taken-at"),
-        taken_by=ctx.operator.code, status=ContainerStatus.AVAILABLE, created_at=ctx.now,
-    ))  # fmt: skip
+    aliquot = ctx.new(
+        Aliquot(
+            solution_id=solution.id,
+            mass_g=wanted.value,
+            mass_u_g=wanted.u,
+            purpose=request.purpose,
+            taken_at=ctx.when(request.taken_at, "taken-at"),
+            taken_by=ctx.operator.code,
+            status=ContainerStatus.AVAILABLE,
+            created_at=ctx.now,
+        )
+    )
     aliquot.solution = solution
     _put(aliquot, ctx.place(request.location))
     element = aliquot_element(aliquot)
     payload = {
-        "solution": solution.public_id, "mass_g": aliquot.mass_g, "mass_u_g": aliquot.mass_u_g,
-        "tare_mg": float(request.tare), "gross_mg": float(request.gross),
-        "readability_mg": float(request.readability), "purpose": aliquot.purpose.value,
+        "solution": solution.public_id,
+        "mass_g": aliquot.mass_g,
+        "mass_u_g": aliquot.mass_u_g,
+        "tare_mg": float(request.tare),
+        "gross_mg": float(request.gross),
+        "readability_mg": float(request.readability),
+        "purpose": aliquot.purpose.value,
         "element": element[0] if element else None,
-        "element_ug": element[1] if element else None, "label": "queued",
-    }  # fmt: skip
+        "element_ug": element[1] if element else None,
+        "label": "queued",
+    }
     ctx.record("aliquot.taken", aliquot, payload, parent=solution, label=aliquot)
     return aliquot
 
@@ -158,9 +190,14 @@ def add_position(ctx: Ctx, args: dict[str, Any]) -> BatchPosition:
     ctx.new(position)
     position.batch = batch
     payload = {
-        "batch": batch.public_id, "slot": slot, "kind": request.kind.value, "holds": holds,
-        "loaded_ug": position.loaded_ug, "loaded_u_ug": position.loaded_u_ug, "label": "queued",
-    }  # fmt: skip
+        "batch": batch.public_id,
+        "slot": slot,
+        "kind": request.kind.value,
+        "holds": holds,
+        "loaded_ug": position.loaded_ug,
+        "loaded_u_ug": position.loaded_u_ug,
+        "label": "queued",
+    }
     ctx.record("batch.position_added", position, payload, parent=batch, label=position)
     return position
 
@@ -187,18 +224,26 @@ def record_cut(ctx: Ctx, args: dict[str, Any]) -> Cut:
         raise RuleViolation("cut", request.cut, f"is already recorded for {position.public_id}")
     amount = request.recovered_ug()
     location = ctx.place(request.location)
-    cut = ctx.new(Cut(
-        position_id=position.id, name=request.cut,
-        recovered_ug=amount.value if amount else None,
-        recovered_u_ug=amount.u if amount else None,
-        status=ContainerStatus.AVAILABLE, created_at=ctx.now,
-    ))  # fmt: skip
+    cut = ctx.new(
+        Cut(
+            position_id=position.id,
+            name=request.cut,
+            recovered_ug=amount.value if amount else None,
+            recovered_u_ug=amount.u if amount else None,
+            status=ContainerStatus.AVAILABLE,
+            created_at=ctx.now,
+        )
+    )
     cut.position = position
     _put(cut, location)
     payload = {
-        "position": position.public_id, "batch": batch.public_id, "cut": cut.name,
-        "recovered_ug": cut.recovered_ug, "recovered_u_ug": cut.recovered_u_ug, "label": "queued",
-    }  # fmt: skip
+        "position": position.public_id,
+        "batch": batch.public_id,
+        "cut": cut.name,
+        "recovered_ug": cut.recovered_ug,
+        "recovered_u_ug": cut.recovered_u_ug,
+        "label": "queued",
+    }
     ctx.record("cut.recorded", cut, payload, parent=position, label=cut)
     return cut
 

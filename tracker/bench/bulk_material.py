@@ -162,14 +162,24 @@ def drill(ctx: Ctx, args: dict[str, Any]) -> Powder:
         raise InputError("override-reason", request.override_reason, "nothing to override")
     material = _preset(request.material or TISSUE_DEFAULTS.get(request.tissue))
     location = ctx.place(request.location)
-    powder = ctx.new(Powder(
-        specimen_id=specimen.id, tissue=request.tissue, site=request.site,
-        tare_mg=float(request.tare), gross_mg=float(request.gross),
-        readability_mg=float(request.readability), mass_mg=mass.value, mass_u_mg=mass.u,
-        material=material, drilled_at=when, drilled_by=ctx.operator.code,
-        override_reason=request.override_reason if violations else None,
-        status=ContainerStatus.AVAILABLE, created_at=ctx.now,
-    ))  # fmt: skip
+    powder = ctx.new(
+        Powder(
+            specimen_id=specimen.id,
+            tissue=request.tissue,
+            site=request.site,
+            tare_mg=float(request.tare),
+            gross_mg=float(request.gross),
+            readability_mg=float(request.readability),
+            mass_mg=mass.value,
+            mass_u_mg=mass.u,
+            material=material,
+            drilled_at=when,
+            drilled_by=ctx.operator.code,
+            override_reason=request.override_reason if violations else None,
+            status=ContainerStatus.AVAILABLE,
+            created_at=ctx.now,
+        )
+    )
     powder.specimen = specimen
     _put(powder, location)
     payload = drilled_payload(powder, specimen, material, terms.version, request, violations)

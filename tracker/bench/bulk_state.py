@@ -45,12 +45,27 @@ from tracker.services.setup import NewLocation, NewOperator
 
 T = TypeVar("T", bound=Base)
 ID_KIND: dict[type[Base], Kind] = {
-    Specimen: Kind.SPECIMEN, Powder: Kind.POWDER, Solution: Kind.SOLUTION,
-    Aliquot: Kind.ALIQUOT, ColumnBatch: Kind.COLUMN_BATCH, BatchPosition: Kind.POSITION,
-    Cut: Kind.CUT, Location: Kind.LOCATION, Loan: Kind.LOAN,
-}  # fmt: skip
-_COUNTED = (Specimen, Powder, Solution, Aliquot, ColumnBatch, BatchPosition, Cut, Concentration,
-            Label)  # fmt: skip
+    Specimen: Kind.SPECIMEN,
+    Powder: Kind.POWDER,
+    Solution: Kind.SOLUTION,
+    Aliquot: Kind.ALIQUOT,
+    ColumnBatch: Kind.COLUMN_BATCH,
+    BatchPosition: Kind.POSITION,
+    Cut: Kind.CUT,
+    Location: Kind.LOCATION,
+    Loan: Kind.LOAN,
+}
+_COUNTED = (
+    Specimen,
+    Powder,
+    Solution,
+    Aliquot,
+    ColumnBatch,
+    BatchPosition,
+    Cut,
+    Concentration,
+    Label,
+)
 
 
 @dataclass

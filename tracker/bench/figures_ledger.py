@@ -57,12 +57,24 @@ def verify_figures(target: str, repeat: int) -> list[Figure]:
         floors.append(run_child("verify-floor", str(path)))
     best, bare = min(runs, key=lambda r: r.seconds), min(floors, key=lambda r: r.seconds)
     events = best.events
-    timing = Figure("verify", f"ledger verify of {events:,} events", "s", best.seconds,
-                    bare.seconds, "bare loop: sqlite3 rows hashed with hashlib",
-                    Target(ratio_most=1.5))  # fmt: skip
-    memory = Figure("verify_memory", "ledger verify, peak memory (whole process, VmHWM)", "MB",
-                    max(r.peak_mb for r in runs), max(f.peak_mb for f in floors),
-                    "the bare loop's process", Target(most=200.0))  # fmt: skip
+    timing = Figure(
+        "verify",
+        f"ledger verify of {events:,} events",
+        "s",
+        best.seconds,
+        bare.seconds,
+        "bare loop: sqlite3 rows hashed with hashlib",
+        Target(ratio_most=1.5),
+    )
+    memory = Figure(
+        "verify_memory",
+        "ledger verify, peak memory (whole process, VmHWM)",
+        "MB",
+        max(r.peak_mb for r in runs),
+        max(f.peak_mb for f in floors),
+        "the bare loop's process",
+        Target(most=200.0),
+    )
     for run in (*runs, *floors):
         if not run.ok or run.head != best.head or run.events != events:
             timing.problems.append(f"verdicts differ: {run}")

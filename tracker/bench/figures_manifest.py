@@ -28,12 +28,18 @@ from tracker.services import loans, manifests
 
 ROWS = 20_000
 COLUMNS = {  # Darwin Core term -> specimen column (TDWG terms, as tracker reads them)
-    "catalogNumber": "catalog_number", "institutionCode": "institution_code",
-    "collectionCode": "collection_code", "scientificName": "scientific_name",
-    "preparations": "skeletal_element", "locality": "locality", "formation": "formation",
-    "earliestEpochOrLowestSeries": "earliest_epoch", "latestEpochOrHighestSeries": "latest_epoch",
-    "ageMinMa": "age_min_ma", "ageMaxMa": "age_max_ma",
-}  # fmt: skip
+    "catalogNumber": "catalog_number",
+    "institutionCode": "institution_code",
+    "collectionCode": "collection_code",
+    "scientificName": "scientific_name",
+    "preparations": "skeletal_element",
+    "locality": "locality",
+    "formation": "formation",
+    "earliestEpochOrLowestSeries": "earliest_epoch",
+    "latestEpochOrHighestSeries": "latest_epoch",
+    "ageMinMa": "age_min_ma",
+    "ageMaxMa": "age_max_ma",
+}
 EXTRA = "fieldNumber"  # another Darwin Core term: kept with the specimen as an extra
 
 
@@ -45,13 +51,22 @@ def manifest_csv(rows: int = ROWS, seed: int = 11) -> bytes:
     writer.writerow([*COLUMNS, EXTRA])
     for n in range(1, rows + 1):
         young = round(rng.uniform(0.01, 60.0), 2)
-        writer.writerow([
-            f"SYN M {n:06d}", "SM9999", "SYN-P", f"Synthetic taxon {rng.randint(1, 400):03d}",
-            "tooth", f"Synthetic locality {rng.randint(1, 900):04d}",
-            f"Synthetic Formation {rng.randint(1, 60):02d}", "Synthetic Lower Series",
-            "Synthetic Upper Series", young, round(young + rng.uniform(0, 5), 2),
-            f"SYN-F-{n:06d}",
-        ])  # fmt: skip
+        writer.writerow(
+            [
+                f"SYN M {n:06d}",
+                "SM9999",
+                "SYN-P",
+                f"Synthetic taxon {rng.randint(1, 400):03d}",
+                "tooth",
+                f"Synthetic locality {rng.randint(1, 900):04d}",
+                f"Synthetic Formation {rng.randint(1, 60):02d}",
+                "Synthetic Lower Series",
+                "Synthetic Upper Series",
+                young,
+                round(young + rng.uniform(0, 5), 2),
+                f"SYN-F-{n:06d}",
+            ]
+        )
     return out.getvalue().encode("utf-8")
 
 
@@ -86,8 +101,11 @@ def manifest_figure(cached: Path, workdir: Path, repeat: int) -> Figure:
     try:
         for n in range(max(repeat, 1)):
             ours, theirs = (_new_loan(db, f"SYN-MANIFEST-{n:02d}{side}") for side in "AB")
-            request = {"loan": format_id(Kind.LOAN, ours), "filename": "synthetic-list.csv",
-                       "content": content}  # fmt: skip
+            request = {
+                "loan": format_id(Kind.LOAN, ours),
+                "filename": "synthetic-list.csv",
+                "content": content,
+            }
             outcome: list[manifests.ManifestOutcome] = []
             importing = partial(manifests.import_manifest, db, FOUNDER["code"], request)
             best = min(best, timed(lambda: outcome.append(importing())))  # noqa: B023
@@ -98,8 +116,15 @@ def manifest_figure(cached: Path, workdir: Path, repeat: int) -> Figure:
             made.append((ours, theirs))
     finally:
         db.close()
-    figure = Figure("manifest", f"manifest import of {ROWS:,} rows", "s", best, bare,
-                    "csv module + raw sqlite3 executemany", Target(ratio_most=3.0))  # fmt: skip
+    figure = Figure(
+        "manifest",
+        f"manifest import of {ROWS:,} rows",
+        "s",
+        best,
+        bare,
+        "csv module + raw sqlite3 executemany",
+        Target(ratio_most=3.0),
+    )
     _same_rows(figure, work, *made[0])
     for suffix in ("", "-wal", "-shm"):
         Path(str(work) + suffix).unlink(missing_ok=True)
@@ -108,10 +133,17 @@ def manifest_figure(cached: Path, workdir: Path, repeat: int) -> Figure:
 
 def _new_loan(db: Any, reference: str) -> int:
     terms = {"permitted_tissues": "enamel", "due_on": "2030-01-01"}
-    done = loans.add_loan(db, FOUNDER["code"], {
-        "lender": format_id(Kind.LENDER, 1), "reference": reference,
-        "title": "Synthetic manifest benchmark loan", "borrower": "Synthetic Borrower 01",
-        "terms": terms})  # fmt: skip
+    done = loans.add_loan(
+        db,
+        FOUNDER["code"],
+        {
+            "lender": format_id(Kind.LENDER, 1),
+            "reference": reference,
+            "title": "Synthetic manifest benchmark loan",
+            "borrower": "Synthetic Borrower 01",
+            "terms": terms,
+        },
+    )
     return int(done.item.id.split("-")[1])
 
 

@@ -52,8 +52,9 @@ def server(url: str | None) -> Iterator[str]:
 
 def fresh_database(server_url: str, name: str) -> str:
     """An empty database ``name`` on the server (dropped first if it exists)."""
-    admin = create_engine(make_url(server_url).set(database="postgres"),
-                          isolation_level="AUTOCOMMIT")  # fmt: skip
+    admin = create_engine(
+        make_url(server_url).set(database="postgres"), isolation_level="AUTOCOMMIT"
+    )
     try:
         with admin.connect() as connection:
             connection.execute(text(f'DROP DATABASE IF EXISTS "{name}" WITH (FORCE)'))
@@ -63,8 +64,9 @@ def fresh_database(server_url: str, name: str) -> str:
     return make_url(server_url).set(database=name).render_as_string(hide_password=False)
 
 
-def built_database(server_url: str, scale: float, given: bool,
-                   progress: Progress | None) -> tuple[str, Built | None]:  # fmt: skip
+def built_database(
+    server_url: str, scale: float, given: bool, progress: Progress | None
+) -> tuple[str, Built | None]:
     """The scale's database on the server: reused when a URL names one already built."""
     if given:
         engine = create_engine(server_url)
@@ -94,13 +96,16 @@ def postgresql_figures(url: str, scale: float, repeat: int) -> list[Figure]:
 def _work(db: Database) -> list[tuple[str, str]]:
     """Specimens on hand in open loans, already sampled, far from their limits — one drill
     each, taken from the loans in turn so that consecutive drills charge different loans."""
-    rows = raw_rows(db, """
+    rows = raw_rows(
+        db,
+        """
         SELECT s.loan_id, s.id, t.permitted_tissues FROM specimen s
         JOIN loan l ON l.id = s.loan_id AND l.status = 'open'
         JOIN loan_terms t ON t.loan_id = l.id AND t.version = 1
         WHERE s.status = 'on_hand'
           AND (SELECT SUM(p.mass_mg) FROM powder p WHERE p.specimen_id = s.id) < 25
-        ORDER BY s.loan_id, s.id""")  # fmt: skip
+        ORDER BY s.loan_id, s.id""",
+    )
     by_loan: dict[int, list[tuple[str, str]]] = defaultdict(list)
     for loan_id, specimen, tissues in rows:
         permitted = tissues if isinstance(tissues, list) else json.loads(tissues)
@@ -136,9 +141,16 @@ def drills_figure(db: Database, url: str) -> Figure:
     shares = [work[n::CLIENTS][:each] for n in range(CLIENTS)]
     measured = _rate(drills, [(url, share, n) for n, share in enumerate(shares)])
     bare = _rate(floor, [(url, each) for _ in range(CLIENTS)])
-    figure = Figure("pg_drills", f"PostgreSQL: drills per second, {CLIENTS} clients",
-                    "drills/s", measured, bare, "writer lock + ledger head per transaction",
-                    Target(), higher_is_better=True)  # fmt: skip
+    figure = Figure(
+        "pg_drills",
+        f"PostgreSQL: drills per second, {CLIENTS} clients",
+        "drills/s",
+        measured,
+        bare,
+        "writer lock + ledger head per transaction",
+        Target(),
+        higher_is_better=True,
+    )
     written = ledger_head(db)[0] - before
     if written != need:
         figure.problems.append(f"{written} events written for {need} drills")

@@ -134,19 +134,25 @@ def _cross_check(figure: Figure, lines: list[reconcile.LoanLine], rows: list[Any
 
 
 _SCANNED_KINDS = {
-    Kind.SPECIMEN: "specimen", Kind.POWDER: "powder", Kind.SOLUTION: "solution",
-    Kind.ALIQUOT: "aliquot", Kind.CUT: "cut",
-}  # fmt: skip
+    Kind.SPECIMEN: "specimen",
+    Kind.POWDER: "powder",
+    Kind.SOLUTION: "solution",
+    Kind.ALIQUOT: "aliquot",
+    Kind.CUT: "cut",
+}
 
 
 def sample_ids(db: Database, count: int, seed: int = 7) -> list[tuple[Kind, int]]:
     """Random labelled items across the kinds a scanner meets at the bench."""
     rng = random.Random(seed)
-    tops = {kind: int(raw_rows(db, f"SELECT MAX(id) FROM {table}")[0][0] or 0)
-            for kind, table in _SCANNED_KINDS.items()}  # fmt: skip
+    tops = {
+        kind: int(raw_rows(db, f"SELECT MAX(id) FROM {table}")[0][0] or 0)
+        for kind, table in _SCANNED_KINDS.items()
+    }
     kinds = [kind for kind, top in tops.items() if top]
-    return [(kind, rng.randint(1, tops[kind])) for kind in (rng.choice(kinds)
-            for _ in range(count))]  # fmt: skip
+    return [
+        (kind, rng.randint(1, tops[kind])) for kind in (rng.choice(kinds) for _ in range(count))
+    ]
 
 
 def scanned(kind: Kind, number: int, variant: int) -> str:
@@ -166,16 +172,24 @@ def lookup_figure(db: Database, count: int = 1000, warm: int = 20) -> Figure:
         took.append(timed(partial(labels.read_scan, db, text)))
         sql = f"SELECT * FROM {_SCANNED_KINDS[kind]} WHERE id = ?"
         bare.append(timed(partial(raw_rows, db, sql, (number,))))
-    figure = Figure("lookup", f"scanned-ID lookup, p99 of {count}", "ms",
-                    percentile(took, 0.99) * 1000, percentile(bare, 0.99) * 1000,
-                    "the row by primary key, raw driver", Target(most=5.0))  # fmt: skip
+    figure = Figure(
+        "lookup",
+        f"scanned-ID lookup, p99 of {count}",
+        "ms",
+        percentile(took, 0.99) * 1000,
+        percentile(bare, 0.99) * 1000,
+        "the row by primary key, raw driver",
+        Target(most=5.0),
+    )
     figure.notes.append(f"p50 {median(took) * 1000:.2f} ms (floor {median(bare) * 1000:.2f} ms)")
     return figure
 
 
 def showcase_specimen(db: Database) -> tuple[str, int]:
     """The first specimen with 50 descendants (powders, solutions, aliquots, columns, cuts)."""
-    rows = raw_rows(db, """
+    rows = raw_rows(
+        db,
+        """
         SELECT p.specimen_id, COUNT(DISTINCT p.id) + COUNT(DISTINCT so.id)
                + COUNT(DISTINCT a.id) + COUNT(DISTINCT bp.id) + COUNT(DISTINCT c.id)
         FROM powder p LEFT JOIN solution so ON so.powder_id = p.id
@@ -184,7 +198,8 @@ def showcase_specimen(db: Database) -> tuple[str, int]:
         LEFT JOIN cut c ON c.position_id = bp.id
         WHERE p.specimen_id IN (SELECT specimen_id FROM powder GROUP BY specimen_id
                                 HAVING COUNT(*) >= 4)
-        GROUP BY p.specimen_id ORDER BY p.specimen_id""")  # fmt: skip
+        GROUP BY p.specimen_id ORDER BY p.specimen_id""",
+    )
     for specimen, count in rows:
         if count == 50:
             return format_id(Kind.SPECIMEN, specimen), count
@@ -218,15 +233,23 @@ def lineage_figure(db: Database, runs: int = 20) -> Figure:
     def floor() -> None:
         for sql in _LINEAGE_FLOOR:
             raw_rows(db, sql, (number,))
-        raw_rows(db, "SELECT * FROM custody_event WHERE object_ref = ? OR parent_ref = ? "
-                     "ORDER BY seq", (ref, ref))  # fmt: skip
+        raw_rows(
+            db,
+            "SELECT * FROM custody_event WHERE object_ref = ? OR parent_ref = ? ORDER BY seq",
+            (ref, ref),
+        )
 
     took = [timed(lambda: lineage.show_item(db, ref)) for _ in range(runs)]
     bare = [timed(floor) for _ in range(runs)]
-    figure = Figure("lineage", f"lineage of a specimen with {count} descendants (median)", "ms",
-                    median(took) * 1000, median(bare) * 1000,
-                    "its rows level by level and its history, raw driver",
-                    Target(most=50.0))  # fmt: skip
+    figure = Figure(
+        "lineage",
+        f"lineage of a specimen with {count} descendants (median)",
+        "ms",
+        median(took) * 1000,
+        median(bare) * 1000,
+        "its rows level by level and its history, raw driver",
+        Target(most=50.0),
+    )
     found = _descendants(shown.item)
     if found != count:
         figure.problems.append(f"the tree shows {found} descendants, the SQL counts {count}")

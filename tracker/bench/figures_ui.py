@@ -51,7 +51,14 @@ def cold_start_figure(target: str, repeat: int) -> Figure:
         seconds, line = launch("app", target, FOUNDER["code"])
         took = min(took, seconds)
         bare = min(bare, launch("bare")[0])
-    figure = Figure("tui", "TUI cold start to the overview populated", "s", took, bare,
-                    "bare Textual app showing one static line", Target(ratio_most=2.0))  # fmt: skip
+    figure = Figure(
+        "tui",
+        "TUI cold start to the overview populated",
+        "s",
+        took,
+        bare,
+        "bare Textual app showing one static line",
+        Target(ratio_most=2.0),
+    )
     figure.notes.append(f"overview rows: {line.split()[-1]}")
     return figure

@@ -75,8 +75,7 @@ def build(
         events, head = ledger_head(db)
     finally:
         db.close()
-    return Built(str(target), chosen.scale, executor, count, events, head,
-                 perf_counter() - started)  # fmt: skip
+    return Built(str(target), chosen.scale, executor, count, events, head, perf_counter() - started)
 
 
 def ledger_head(db: Database) -> tuple[int, str]:
@@ -129,8 +128,10 @@ def cached_apart(folder: Path, scale: float, progress: Progress | None = None) -
             if progress is not None and line.strip().isdigit():
                 progress(int(line))
         if child.wait():
-            raise RuntimeError(f"building the scale {scale:g} database failed "
-                               f"(exit {child.returncode}; its error is above)")  # fmt: skip
+            raise RuntimeError(
+                f"building the scale {scale:g} database failed "
+                f"(exit {child.returncode}; its error is above)"
+            )
     return replace(cached(folder, scale), reused=not missing)
 
 

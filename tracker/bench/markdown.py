@@ -23,8 +23,10 @@ def _value(value: float, unit: str) -> str:
 
 
 def _figures(report: dict[str, Any]) -> str:
-    rows = ["| figure | scale | measured | floor | ratio | target | met |",
-            "|---|---|---|---|---|---|---|"]  # fmt: skip
+    rows = [
+        "| figure | scale | measured | floor | ratio | target | met |",
+        "|---|---|---|---|---|---|---|",
+    ]
     for f in report["figures"]:
         problems = "".join(f"; ✗ {p}" for p in f["problems"])
         rows.append(
@@ -42,8 +44,7 @@ def _growth(report: dict[str, Any]) -> str:
         return ""
     scales = sorted({float(k) for g in report["growth"] for k in g["values"]})
     head = " | ".join(f"scale {s:g}" for s in scales)
-    rows = [f"| growth of | {head} | exponent | verdict |",
-            "|---" * (len(scales) + 3) + "|"]  # fmt: skip
+    rows = [f"| growth of | {head} | exponent | verdict |", "|---" * (len(scales) + 3) + "|"]
     for g in report["growth"]:
         cells = " | ".join(
             _value(g["values"][f"{s:g}"], g["unit"]) if f"{s:g}" in g["values"] else ""

@@ -30,8 +30,11 @@ def drills(url: str, work: list[tuple[str, str]], who: int, start: Any, out: Any
         start.wait()
         began = time.time()
         for specimen, tissue in work:
-            drilling.drill(db, actor, {"specimen": specimen, "tissue": tissue, "tare": TARE_MG,
-                                       "gross": GROSS_MG})  # fmt: skip
+            drilling.drill(
+                db,
+                actor,
+                {"specimen": specimen, "tissue": tissue, "tare": TARE_MG, "gross": GROSS_MG},
+            )
         out.put((began, time.time(), len(work)))
     except Exception as exc:  # the parent waits for every client: tell it, never go silent
         out.put(("failed", f"client {who}: {type(exc).__name__}: {exc}", 0))

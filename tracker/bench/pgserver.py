@@ -81,9 +81,18 @@ def private_cluster(binaries: Path, *settings: str) -> Iterator[str]:
             "--no-sync",
         )
         run(
-            binaries / "pg_ctl", "-D", data, "-l", root / "server.log", "-w", "-t", "60",
-            "-o", options, "start",
-        )  # fmt: skip
+            binaries / "pg_ctl",
+            "-D",
+            data,
+            "-l",
+            root / "server.log",
+            "-w",
+            "-t",
+            "60",
+            "-o",
+            options,
+            "start",
+        )
         yield f"postgresql+psycopg://postgres@127.0.0.1:{port}/postgres"
     finally:
         if data.exists():

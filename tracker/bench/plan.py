@@ -108,15 +108,22 @@ def setup_steps(shape: Shape, ids: Ids, world: World) -> Iterator[Step]:
         yield Step(clock.tick(), founder, "reference", made, ids.take(Kind.REFERENCE_MATERIAL))
     for name, value in REFERENCES.items():
         args: dict[str, Any] = {
-            "reference": name, "ratio": RATIO, "scale": STANDARD, "value": value,
-            "two_sd": 0.15, "source": "synthetic long-term record (invented)",
-        }  # fmt: skip
+            "reference": name,
+            "ratio": RATIO,
+            "scale": STANDARD,
+            "value": value,
+            "two_sd": 0.15,
+            "source": "synthetic long-term record (invented)",
+        }
         yield Step(clock.tick(), founder, "reference_value", args)
     yield Step(clock.tick(), founder, "profile", {"name": PROFILE, "definition": PROFILE_DEF})
     for number in range(1, shape.lenders + 1):
-        args = {"name": f"Synthetic Museum {number:04d}", "institution_code": f"SM{number:04d}",
-                "contact_name": f"Synthetic Curator {number:04d}",
-                "contact_email": f"loans{number:04d}@museum.invalid"}  # fmt: skip
+        args = {
+            "name": f"Synthetic Museum {number:04d}",
+            "institution_code": f"SM{number:04d}",
+            "contact_name": f"Synthetic Curator {number:04d}",
+            "contact_email": f"loans{number:04d}@museum.invalid",
+        }
         lender = ids.take(Kind.LENDER)
         world.lenders.append(lender)
         yield Step(clock.tick(), founder, "lender", args, lender)
@@ -144,9 +151,13 @@ def _places(clock: Clock, ids: Ids, world: World) -> Iterator[Step]:
         yield Step(clock.tick(), founder, "location", args, alias[key])
     for purpose, parent, pattern, count in _BOXES:
         shelf = ids.take(Kind.LOCATION)
-        yield Step(clock.tick(), founder, "location",
-                   {"kind": "shelf", "name": f"Shelf for {purpose}s", "parent": alias[parent]},
-                   shelf)  # fmt: skip
+        yield Step(
+            clock.tick(),
+            founder,
+            "location",
+            {"kind": "shelf", "name": f"Shelf for {purpose}s", "parent": alias[parent]},
+            shelf,
+        )
         for n in range(1, count + 1):
             box = ids.take(Kind.LOCATION)
             world.places.setdefault(purpose, []).append(box)

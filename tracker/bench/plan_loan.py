@@ -34,8 +34,13 @@ from tracker.bench.shape import (
 from tracker.domain.ids import Kind
 
 _TISSUES = [("enamel",), ("enamel", "dentine"), ("enameloid",), ("otolith",), ("shell",)]
-_ELEMENT = {"enamel": "tooth", "dentine": "tooth", "enameloid": "tooth", "otolith": "otolith",
-            "shell": "shell"}  # fmt: skip
+_ELEMENT = {
+    "enamel": "tooth",
+    "dentine": "tooth",
+    "enameloid": "tooth",
+    "otolith": "otolith",
+    "shell": "shell",
+}
 PER_SPECIMEN_MG = 30
 
 
@@ -134,17 +139,24 @@ class LoanPlanner:
         self.drill_ug = drills
         total_ug = sum(map(sum, drills)) * rng.uniform(1.05, 1.6)
         sampled = sum(1 for n in self.loan.powders if n)
-        terms = {"permitted_tissues": list(self.tissues),
-                 "max_mass_per_specimen": f"{PER_SPECIMEN_MG} mg",
-                 "max_total_mass": f"{int(total_ug // 1000) + 1} mg",
-                 "max_specimens_sampled": sampled + rng.randint(0, 3),
-                 "due_on": self.due.date().isoformat(),
-                 "powder_disposition": "return", "solution_disposition": "destroy"}  # fmt: skip
+        terms = {
+            "permitted_tissues": list(self.tissues),
+            "max_mass_per_specimen": f"{PER_SPECIMEN_MG} mg",
+            "max_total_mass": f"{int(total_ug // 1000) + 1} mg",
+            "max_specimens_sampled": sampled + rng.randint(0, 3),
+            "due_on": self.due.date().isoformat(),
+            "powder_disposition": "return",
+            "solution_disposition": "destroy",
+        }
         lender = self.world.lenders[index % len(self.world.lenders)]
-        args = {"lender": lender, "reference": f"SYN-{self.loan.start.year}-{index + 1:04d}",
-                "title": f"Synthetic loan {index + 1:04d}: {' and '.join(self.tissues)}, Ca",
-                "borrower": f"Synthetic Borrower {rng.randint(1, 12):02d}",
-                "received_on": self.loan.start.date().isoformat(), "terms": terms}  # fmt: skip
+        args = {
+            "lender": lender,
+            "reference": f"SYN-{self.loan.start.year}-{index + 1:04d}",
+            "title": f"Synthetic loan {index + 1:04d}: {' and '.join(self.tissues)}, Ca",
+            "borrower": f"Synthetic Borrower {rng.randint(1, 12):02d}",
+            "received_on": self.loan.start.date().isoformat(),
+            "terms": terms,
+        }
         return self.emit(self.rng.choice(MANAGERS), "loan", args, Kind.LOAN)
 
     def _specimens(self, loan_id: str) -> None:
@@ -152,14 +164,16 @@ class LoanPlanner:
         for k in range(self.loan.specimens):
             young = round(rng.uniform(0.01, 60.0), 2)
             args: dict[str, Any] = {
-                "loan": loan_id, "catalog_number": f"SYN P {number:04d}.{k + 1:03d}",
+                "loan": loan_id,
+                "catalog_number": f"SYN P {number:04d}.{k + 1:03d}",
                 "institution_code": f"SM{number % 9973:04d}",
                 "scientific_name": f"Synthetic taxon {rng.randint(1, 400):03d}",
                 "skeletal_element": _ELEMENT[self.tissues[0]],
                 "locality": f"Synthetic locality {rng.randint(1, 900):04d}",
                 "formation": f"Synthetic Formation {rng.randint(1, 60):02d}",
-                "age_min_ma": young, "age_max_ma": round(young + rng.uniform(0.0, 5.0), 2),
-            }  # fmt: skip
+                "age_min_ma": young,
+                "age_max_ma": round(young + rng.uniform(0.0, 5.0), 2),
+            }
             if rng.random() < 0.5:
                 args["extra"] = {"fieldNumber": f"SYN-F-{rng.randint(1, 99999):05d}"}
             made = self.emit(self.tech(), "specimen", args, Kind.SPECIMEN)
@@ -167,8 +181,11 @@ class LoanPlanner:
         home = self.world.places["loan"][self.loan.index % len(self.world.places["loan"])]
         for vial in self.specimens:
             vial.place = home
-            args = {"specimen": vial.id, "condition": "complete; synthetic record",
-                    "location": home}  # fmt: skip
+            args = {
+                "specimen": vial.id,
+                "condition": "complete; synthetic record",
+                "location": home,
+            }
             self.emit(self.tech(), "checkin", args)
 
     def _drills(self) -> None:
@@ -215,9 +232,13 @@ class LoanPlanner:
         for solution in self.solutions:
             self.move(solution)
         for solution in self.solutions:
-            args = {"solution": solution.id, "element": "Ca",
-                    "value": f"{solution.extra['conc']:.1f} ug/g",
-                    "relative_uncertainty_percent": 2.0, "method": "ICP-OES"}  # fmt: skip
+            args = {
+                "solution": solution.id,
+                "element": "Ca",
+                "value": f"{solution.extra['conc']:.1f} ug/g",
+                "relative_uncertainty_percent": 2.0,
+                "method": "ICP-OES",
+            }
             solution.extra["conc"] = round(solution.extra["conc"], 1)
             self.emit(self.tech(), "concentration", args)
 
@@ -228,8 +249,12 @@ class LoanPlanner:
             for _ in range(count):
                 tare, units = self.rng.randint(19_000, 21_000), self.rng.randint(200, 600)
                 purpose = self.rng.choice(["isotopes", "isotopes", "archive", "concentration"])
-                args = {"solution": solution.id, "tare": grams(tare),
-                        "gross": grams(tare + units), "purpose": purpose}  # fmt: skip
+                args = {
+                    "solution": solution.id,
+                    "tare": grams(tare),
+                    "gross": grams(tare + units),
+                    "purpose": purpose,
+                }
                 loaded = units / 10000 * solution.extra["conc"]
                 vial = Vial(self.emit(self.tech(), "aliquot", args, Kind.ALIQUOT), "aliquot")
                 vial.extra = {"loaded": loaded, "solution": solution}
@@ -266,8 +291,7 @@ class LoanPlanner:
                 if vial is not None:
                     args["aliquot"] = vial.id
                 if kind == "reference":
-                    args |= {"reference_material": reference, "loaded_ug": 20.0,
-                             "loaded_u_ug": 0.2}  # fmt: skip
+                    args |= {"reference_material": reference, "loaded_ug": 20.0, "loaded_u_ug": 0.2}
                 made = self.emit(self.tech(), "position", args, Kind.POSITION)
                 loaded = vial.extra["loaded"] if vial is not None else 20.0
                 positions.append((made, kind, loaded))
@@ -278,11 +302,14 @@ class LoanPlanner:
         return batches
 
     def _batch_args(self) -> dict[str, Any]:
-        return {"name": f"Synthetic batch {self.loan.index + 1:04d}-{self.rng.randint(1, 999):03d}",
-                "performed_on": self.now.date().isoformat(), "element": "Ca",
-                "resin": "synthetic cation-exchange resin",
-                "elution_scheme": "load in 2 M HNO3; matrix off; Ca collected (synthetic)",
-                "cut_names": ["matrix", "Ca"]}  # fmt: skip
+        return {
+            "name": f"Synthetic batch {self.loan.index + 1:04d}-{self.rng.randint(1, 999):03d}",
+            "performed_on": self.now.date().isoformat(),
+            "element": "Ca",
+            "resin": "synthetic cation-exchange resin",
+            "elution_scheme": "load in 2 M HNO3; matrix off; Ca collected (synthetic)",
+            "cut_names": ["matrix", "Ca"],
+        }
 
     def _cut(self, position: str, kind: str, loaded: float, reference: str) -> Target:
         if kind == "blank":
@@ -290,8 +317,12 @@ class LoanPlanner:
         else:
             share = min(1.0, self.rng.gauss(0.98, 0.015))
             recovered = f"{loaded * share:.3f} ug"
-        args = {"position": position, "cut": "Ca", "recovered": recovered,
-                "relative_uncertainty_percent": 1.5}  # fmt: skip
+        args = {
+            "position": position,
+            "cut": "Ca",
+            "recovered": recovered,
+            "relative_uncertainty_percent": 1.5,
+        }
         made = self.emit(self.tech(), "cut", args, Kind.CUT)
         return Target(made, kind, reference if kind == "reference" else None)
 
@@ -303,10 +334,15 @@ class LoanPlanner:
             content = session_csv(
                 targets, self.loan.duplicates[k], self.loan.extra_standards[k], self.rng
             )
-            args = {"profile": PROFILE, "filename": f"synthetic-run-{number:04d}-{k + 1}.csv",
-                    "content": content, "name": f"Synthetic session {number:04d}.{k + 1}",
-                    "instrument": "Synthetic MC-ICP-MS 1", "element": "Ca",
-                    "bracketing_standard": STANDARD}  # fmt: skip
+            args = {
+                "profile": PROFILE,
+                "filename": f"synthetic-run-{number:04d}-{k + 1}.csv",
+                "content": content,
+                "name": f"Synthetic session {number:04d}.{k + 1}",
+                "instrument": "Synthetic MC-ICP-MS 1",
+                "element": "Ca",
+                "bracketing_standard": STANDARD,
+            }
             made = self.emit(self.tech(), "session_import", args, Kind.INSTRUMENT_SESSION)
             self.emit(self.tech(), "reduce", {"session": made})
 
@@ -357,5 +393,4 @@ class LoanPlanner:
         loan = self.steps[0].makes
         drafts.append((self.rng.choice(MANAGERS), "loan_returned", {"loan": loan}))
         step = timedelta(seconds=30)
-        return [Step(self.back + step * n, by, do, args) for n, (by, do, args) in
-                enumerate(drafts)]  # fmt: skip
+        return [Step(self.back + step * n, by, do, args) for n, (by, do, args) in enumerate(drafts)]

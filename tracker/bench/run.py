@@ -81,12 +81,14 @@ class Report:
             "scales": self.scales,
             "figures": [f.as_dict() for f in self.figures],
             "skipped": [asdict(s) for s in self.skipped],
-            "growth": [asdict(g) | {"verdict": g.verdict,
-                                    "values": {f"{k:g}": v for k, v in g.values.items()}}
-                       for g in self.growth()],
+            "growth": [
+                asdict(g)
+                | {"verdict": g.verdict, "values": {f"{k:g}": v for k, v in g.values.items()}}
+                for g in self.growth()
+            ],
             "builds": [asdict(b) for b in self.builds],
             "all_met": self.all_met,
-        }  # fmt: skip
+        }
 
 
 def growth_of(figures: list[Figure]) -> list[Growth]:
@@ -178,9 +180,11 @@ def _postgresql(options: Options, scale: float, report: Report) -> None:
     try:
         with figures_pg.server(options.pg_url) as server:
             url, built = figures_pg.built_database(
-                server, scale, bool(options.pg_url),
+                server,
+                scale,
+                bool(options.pg_url),
                 lambda n: options.say(f"  {n:,} steps written to PostgreSQL"),
-            )  # fmt: skip
+            )
             if built is not None:
                 report.builds.append(built)
             for figure in figures_pg.postgresql_figures(url, scale, options.repeat):

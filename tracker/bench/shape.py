@@ -118,13 +118,19 @@ def shape_for(scale: float, seed: int = SEED, loans: int | None = None) -> Shape
     step = (END - FIRST_LOAN) / n_loans
     loan_shapes = tuple(
         LoanShape(
-            index=i, start=FIRST_LOAN + step * i, length=step, powders=tuple(powders[i]),
-            aliquots=tuple(tuple(a) for a in aliquots[i]), batches=batches[i],
-            duplicates=tuple(duplicates[i]), extra_standards=tuple(extra[i]),
-            events=math.ceil(events * per_loan[i] / sum(per_loan)), showcase=showcase[i],
+            index=i,
+            start=FIRST_LOAN + step * i,
+            length=step,
+            powders=tuple(powders[i]),
+            aliquots=tuple(tuple(a) for a in aliquots[i]),
+            batches=batches[i],
+            duplicates=tuple(duplicates[i]),
+            extra_standards=tuple(extra[i]),
+            events=math.ceil(events * per_loan[i] / sum(per_loan)),
+            showcase=showcase[i],
         )
         for i in range(n_loans)
-    )  # fmt: skip
+    )
     return Shape(
         scale=scale,
         loans=loan_shapes,
@@ -158,8 +164,13 @@ def _aliquots(
     powders: list[list[int]], showcase: list[bool], total: int, rng: random.Random
 ) -> list[list[list[int]]]:
     """Aliquots per solution: the showcase specimen's 6 each, the rest 1-3."""
-    free = [(loan, k) for loan, row in enumerate(powders) for k, n in enumerate(row)
-            if not (showcase[loan] and k == 0) for _ in range(n)]  # fmt: skip
+    free = [
+        (loan, k)
+        for loan, row in enumerate(powders)
+        for k, n in enumerate(row)
+        if not (showcase[loan] and k == 0)
+        for _ in range(n)
+    ]
     fixed = sum(SHOWCASE_POWDERS * SHOWCASE_ALIQUOTS for s in showcase if s)
     counts = iter(spread(max(total - fixed, len(free)), len(free), 1, 3, rng))
     result: list[list[list[int]]] = []

@@ -75,16 +75,22 @@ def generate(
     progress = lambda n: _say(f"{n:,} steps written")  # noqa: E731
     if pg_url is not None or out is not None:
         target = pg_url or str(out)
-        built = gen.build(target, value, "services" if executor == "services" else "bulk",
-                          progress=progress)  # fmt: skip
+        built = gen.build(
+            target, value, "services" if executor == "services" else "bulk", progress=progress
+        )
     elif executor != "bulk":
         raise InputError("--executor", executor, "the cache is built in bulk; give --out FILE")
     else:
         built = gen.cached(_cache(cache), value, rebuild=rebuild, progress=progress)
     said = "reused" if built.reused else "built"
-    emit(ctx, built.__dict__, lambda: (
-        f"{said} {built.target}: scale {built.scale:g}, {built.events:,} events, "
-        f"head {built.head_hash[:16]}… ({built.seconds:.0f} s)"))  # fmt: skip
+    emit(
+        ctx,
+        built.__dict__,
+        lambda: (
+            f"{said} {built.target}: scale {built.scale:g}, {built.events:,} events, "
+            f"head {built.head_hash[:16]}… ({built.seconds:.0f} s)"
+        ),
+    )
 
 
 def run(
@@ -118,9 +124,14 @@ def run(
         known = ", ".join((*bench.SQLITE_FIGURES, *bench.PG_FIGURES))
         raise InputError("--only", unknown[0], f"is not a figure; the figures are {known}")
     options = bench.Options(
-        scales=chosen or [_scale(scale, "--scale")], backend=backend,  # type: ignore[arg-type]
-        pg_url=pg_url, repeat=repeat, cache=_cache(cache), only=keys, say=_say,
-    )  # fmt: skip
+        scales=chosen or [_scale(scale, "--scale")],
+        backend=backend,  # type: ignore[arg-type]
+        pg_url=pg_url,
+        repeat=repeat,
+        cache=_cache(cache),
+        only=keys,
+        say=_say,
+    )
     if markdown is not None and not markdown.parent.is_dir():
         raise InputError("--markdown", str(markdown), "is in a folder that does not exist")
     report = bench.run(options)
@@ -143,11 +154,16 @@ def _tables(report: Any) -> Table:
     for f in report.figures:
         met = {True: "✓ met", False: "✗ missed", None: "– report only"}[f.met]
         table.add_row(
-            f"{f.title}\n  floor: {f.floor_title}" + "".join(f"\n  {n}" for n in f.notes)
+            f"{f.title}\n  floor: {f.floor_title}"
+            + "".join(f"\n  {n}" for n in f.notes)
             + "".join(f"\n  ✗ {p}" for p in f.problems),
-            f"{f.scale:g}", _value(f.measured, f.unit), _value(f.floor, f.unit),
-            f"{f.ratio:.2f}", f.target.text(f.unit), met,
-        )  # fmt: skip
+            f"{f.scale:g}",
+            _value(f.measured, f.unit),
+            _value(f.floor, f.unit),
+            f"{f.ratio:.2f}",
+            f.target.text(f.unit),
+            met,
+        )
     for s in report.skipped:
         table.add_row(f"{s.key}: skipped — {s.reason}", f"{s.scale:g}", "", "", "", "", "? skipped")
     growth = report.growth()
@@ -155,8 +171,15 @@ def _tables(report: Any) -> Table:
         table.add_section()
         for g in growth:
             values = ", ".join(f"{v:.3g} {g.unit} at {k:g}" for k, v in sorted(g.values.items()))
-            table.add_row(f"growth: {g.title}", "", values, "", f"^{g.exponent:.2f}", "≤ ^1.15",
-                          "✓ " + g.verdict if g.exponent <= 1.15 else "✗ " + g.verdict)  # fmt: skip
+            table.add_row(
+                f"growth: {g.title}",
+                "",
+                values,
+                "",
+                f"^{g.exponent:.2f}",
+                "≤ ^1.15",
+                "✓ " + g.verdict if g.exponent <= 1.15 else "✗ " + g.verdict,
+            )
     m = report.machine
     table.caption = (
         f"{m['cores']} cores, {m['cpu']}, {m['ram_gb']} GB RAM, Python {m['python']}, "

@@ -45,12 +45,19 @@ def amend(
 ) -> None:
     """Record an amendment to a loan's terms (managers only); it applies from --effective on."""
     request = {
-        "loan": loan, "kind": kind, "effective_from": effective.date(), "reason": reason,
-        "document": read_upload(document, "--document"), "due_on": due.date() if due else None,
-        "permitted_tissues": tissues, "max_mass_per_specimen": max_per_specimen,
-        "max_total_mass": max_total, "max_specimens_sampled": max_specimens,
-        "powder_disposition": powder, "solution_disposition": solutions,
-    }  # fmt: skip
+        "loan": loan,
+        "kind": kind,
+        "effective_from": effective.date(),
+        "reason": reason,
+        "document": read_upload(document, "--document"),
+        "due_on": due.date() if due else None,
+        "permitted_tissues": tissues,
+        "max_mass_per_specimen": max_per_specimen,
+        "max_total_mass": max_total,
+        "max_specimens_sampled": max_specimens,
+        "powder_disposition": powder,
+        "solution_disposition": solutions,
+    }
     answer = perform(ctx, amendments.amend_loan, request)
     emit(
         ctx,
@@ -152,11 +159,21 @@ def plan(
 ) -> None:
     """How much powder to drill for the planned analyses, checked against the loan's terms."""
     request = {
-        "target": target, "material": material, "tissue": tissue, "margin_percent": margin,
-        "aliquot_share": aliquot_share, "min_powder_mg": min_powder,
-        "analyses": [{"element": element, "ug_per_analysis": ug, "replicates": replicates,
-                      "expected_yield": column_yield}],
-    }  # fmt: skip
+        "target": target,
+        "material": material,
+        "tissue": tissue,
+        "margin_percent": margin,
+        "aliquot_share": aliquot_share,
+        "min_powder_mg": min_powder,
+        "analyses": [
+            {
+                "element": element,
+                "ug_per_analysis": ug,
+                "replicates": replicates,
+                "expected_yield": column_yield,
+            }
+        ],
+    }
     with database(ctx) as db:
         answer = planning.plan(db, request)
     emit(ctx, answer, lambda: plan_table(answer))

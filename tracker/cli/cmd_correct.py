@@ -140,9 +140,14 @@ def correct_list(
         t = plain_table("event", "item", "quantity", "was → now", "by", "entry by", "why")
         for r in rows:
             t.add_row(
-                f"#{r.event_seq}", r.item, r.quantity, _change(r.replaced, r.value),
-                r.recorded_by, r.entry_by, r.reason,
-            )  # fmt: skip
+                f"#{r.event_seq}",
+                r.item,
+                r.quantity,
+                _change(r.replaced, r.value),
+                r.recorded_by,
+                r.entry_by,
+                r.reason,
+            )
         return t
 
     emit(ctx, rows, table)

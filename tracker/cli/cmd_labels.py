@@ -104,9 +104,14 @@ def print_command(
 
     with database(ctx) as db:
         outcome = jobs.print_queue(
-            db, state(ctx).actor, stock=stock, start=start, out=out, printer=printer,
+            db,
+            state(ctx).actor,
+            stock=stock,
+            start=start,
+            out=out,
+            printer=printer,
             stocks_file=stocks,
-        )  # fmt: skip
+        )
     emit(ctx, outcome, lambda: _job_text(outcome))
 
 
@@ -130,9 +135,16 @@ def reprint_command(
 
     with database(ctx) as db:
         outcome = jobs.reprint(
-            db, state(ctx).actor, items=items, reason=reason, stock=stock, start=start, out=out,
-            printer=printer, stocks_file=stocks,
-        )  # fmt: skip
+            db,
+            state(ctx).actor,
+            items=items,
+            reason=reason,
+            stock=stock,
+            start=start,
+            out=out,
+            printer=printer,
+            stocks_file=stocks,
+        )
     emit(ctx, outcome, lambda: _job_text(outcome))
 
 
@@ -171,9 +183,15 @@ def preview(
 
     with database(ctx) as db:
         outcome = jobs.preview(
-            db, stock=stock, out=out, items=items or None, start=start, page=page, dpi=dpi,
+            db,
+            stock=stock,
+            out=out,
+            items=items or None,
+            start=start,
+            page=page,
+            dpi=dpi,
             stocks_file=stocks,
-        )  # fmt: skip
+        )
     emit(
         ctx,
         outcome,
@@ -196,16 +214,22 @@ def stocks_command(ctx: typer.Context, stocks: StocksFile = None) -> None:
             try:
                 stock = validate(entry)
             except InputError as problem:
-                rows.append({"name": name, "source": entry.source, "ok": False,
-                             "problem": problem.reason})  # fmt: skip
+                rows.append(
+                    {"name": name, "source": entry.source, "ok": False, "problem": problem.reason}
+                )
                 continue
-            rows.append({
-                "name": name, "source": entry.source, "ok": True, "problem": None,
-                "label_mm": [stock.label_width_mm, stock.label_height_mm],
-                "grid": [stock.columns, stock.rows],
-                "page_mm": [stock.page_width_mm, stock.page_height_mm],
-                "description": stock.description,
-            })  # fmt: skip
+            rows.append(
+                {
+                    "name": name,
+                    "source": entry.source,
+                    "ok": True,
+                    "problem": None,
+                    "label_mm": [stock.label_width_mm, stock.label_height_mm],
+                    "grid": [stock.columns, stock.rows],
+                    "page_mm": [stock.page_width_mm, stock.page_height_mm],
+                    "description": stock.description,
+                }
+            )
 
     def table() -> Table:
         t = plain_table("stock", "label", "per page", "page", "for")
@@ -215,9 +239,12 @@ def stocks_command(ctx: typer.Context, stocks: StocksFile = None) -> None:
                 t.add_row(r["name"], "", "", "", f"NOT USABLE: {r['problem']}")
                 continue
             t.add_row(
-                r["name"], "{:g} × {:g} mm".format(*r["label_mm"]), "{} × {}".format(*r["grid"]),
-                "{:g} × {:g} mm".format(*r["page_mm"]), r["description"] + origin,
-            )  # fmt: skip
+                r["name"],
+                "{:g} × {:g} mm".format(*r["label_mm"]),
+                "{} × {}".format(*r["grid"]),
+                "{:g} × {:g} mm".format(*r["page_mm"]),
+                r["description"] + origin,
+            )
         return t
 
     emit(ctx, rows, table)

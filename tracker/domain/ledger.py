@@ -102,10 +102,19 @@ class VerifyReport:
 def verify_chain(rows: Iterable[LedgerRow]) -> VerifyReport:
     """Walk events in ``seq`` order; stop at the first broken link and say why."""
     return verify_tuples(
-        (r.seq, r.at, r.operator, r.action, r.object_ref, r.parent_ref, r.payload, r.prev_hash,
-         r.hash)
+        (
+            r.seq,
+            r.at,
+            r.operator,
+            r.action,
+            r.object_ref,
+            r.parent_ref,
+            r.payload,
+            r.prev_hash,
+            r.hash,
+        )
         for r in rows
-    )  # fmt: skip
+    )
 
 
 # The stored columns of one event as a plain tuple, in LedgerRow's order: the service streams
@@ -157,9 +166,18 @@ def verify_batches(batches: Iterable[Iterable[LedgerTuple]]) -> VerifyReport:
             else:
                 stamp = at
             text = "\n".join(
-                (head, str(seq), stamp, operator, action, object_ref, parent_ref, prev_hash,
-                 payload)
-            )  # fmt: skip
+                (
+                    head,
+                    str(seq),
+                    stamp,
+                    operator,
+                    action,
+                    object_ref,
+                    parent_ref,
+                    prev_hash,
+                    payload,
+                )
+            )
             if sha256(text.encode("utf-8")).hexdigest() != digest or text.count("\n") != 8:
                 reason = "stored hash does not match the event's contents (altered after writing)"
                 return VerifyReport(False, expected - 1, expected - 1, prev, seq, reason)

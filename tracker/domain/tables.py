@@ -84,10 +84,11 @@ def _row(number: int, cells: list[str], header: list[str]) -> Row:
     width = len(header)
     if len(cells) > width:  # never drop a cell silently (trailing blanks are gone)
         raise TableError(
-            number, str(width + 1),
+            number,
+            str(width + 1),
             f"the row has {len(cells)} cells but the header names {width} columns "
             "(an unquoted comma?)",
-        )  # fmt: skip
+        )
     if len(cells) < width:
         cells = cells + [""] * (width - len(cells))
     return Row(number, dict(zip(header, cells, strict=True)))
@@ -102,9 +103,10 @@ def _refuse_formulas(row: Row, header: list[str]) -> None:
     for column, text in row.cells.items():
         if looks_like_formula(text):
             raise TableError(
-                row.number, column_name(header, column),
+                row.number,
+                column_name(header, column),
                 f"holds a spreadsheet formula ({text[:20]!r}); export values, not formulas",
-            )  # fmt: skip
+            )
 
 
 def _text_lines(content: bytes, fmt: str) -> list[tuple[int, list[str]]]:
@@ -170,9 +172,10 @@ def _check_workbook(content: bytes) -> None:
     unpacked = sum(m.file_size for m in members)
     if unpacked > MAX_UNPACKED_BYTES:
         raise TableError(
-            1, "file",
+            1,
+            "file",
             f"would unpack to {unpacked:,} bytes (more than {MAX_UNPACKED_BYTES:,}): refused",
-        )  # fmt: skip
+        )
 
 
 def _xlsx_lines(content: bytes, sheet: str | None) -> list[tuple[int, list[str]]]:

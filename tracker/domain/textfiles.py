@@ -95,10 +95,11 @@ def _check_lines(content: bytes, sep: bytes) -> None:
             row = content.count(b"\n", 0, start) + 1
             cell = content.count(sep, start, start + MAX_LINE_CHARS) + 1
             raise FileProblem(
-                row, str(cell),
+                row,
+                str(cell),
                 f"the line is {end - start:,} bytes long; lines over {MAX_LINE_CHARS:,} "
                 "are refused",
-            )  # fmt: skip
+            )
         position = end + 1
 
 

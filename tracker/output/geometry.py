@@ -42,6 +42,10 @@ class Box:
     def within_circle(self, centre: tuple[float, float], radius: float) -> bool:
         """True when all four corners lie inside the circle."""
         cx, cy = centre
-        corners = ((self.x, self.y), (self.right, self.y), (self.x, self.bottom),
-                   (self.right, self.bottom))  # fmt: skip
+        corners = (
+            (self.x, self.y),
+            (self.right, self.y),
+            (self.x, self.bottom),
+            (self.right, self.bottom),
+        )
         return all(math.hypot(x - cx, y - cy) <= radius + EPSILON_MM for x, y in corners)

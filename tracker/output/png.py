@@ -41,8 +41,12 @@ def _px(value: float, scale: float) -> int:
 
 
 def _outline(draw: ImageDraw.ImageDraw, cell: Box, scale: float, round_: bool) -> None:
-    corners = [_px(cell.x, scale), _px(cell.y, scale),
-               _px(cell.right, scale) - 1, _px(cell.bottom, scale) - 1]  # fmt: skip
+    corners = [
+        _px(cell.x, scale),
+        _px(cell.y, scale),
+        _px(cell.right, scale) - 1,
+        _px(cell.bottom, scale) - 1,
+    ]
     if round_:
         draw.ellipse(corners, outline=OUTLINE)
     else:
@@ -56,10 +60,14 @@ def _draw(draw: ImageDraw.ImageDraw, label: PlacedLabel, scale: float) -> None:
         left = origin.x + column * qr.module_mm
         top = origin.y + row * qr.module_mm
         draw.rectangle(
-            [_px(left, scale), _px(top, scale),
-             _px(left + length * qr.module_mm, scale) - 1, _px(top + qr.module_mm, scale) - 1],
+            [
+                _px(left, scale),
+                _px(top, scale),
+                _px(left + length * qr.module_mm, scale) - 1,
+                _px(top + qr.module_mm, scale) - 1,
+            ],
             fill=0,
-        )  # fmt: skip
+        )
     for line in label.lines:
         font = _font(line.font, round(line.size_pt / 72 * MM_PER_INCH * scale, 2))
         anchor = (_px(line.box.x, scale), _px(line.baseline_mm, scale))

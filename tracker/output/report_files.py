@@ -100,9 +100,16 @@ def write_return_report(
     try:  # the event is recorded first: a refused record leaves no file behind
         for path, content in files.items():
             staged[path] = stage(path, content)
-        record = reports.record_report(db, actor, {
-            "loan": loan, "files": {fmt: hashlib.sha256(data).hexdigest()},
-            "head_seq": report.ledger.seq, "head_hash": report.ledger.hash})  # fmt: skip
+        record = reports.record_report(
+            db,
+            actor,
+            {
+                "loan": loan,
+                "files": {fmt: hashlib.sha256(data).hexdigest()},
+                "head_seq": report.ledger.seq,
+                "head_hash": report.ledger.hash,
+            },
+        )
     except BaseException:
         for partial in staged.values():
             partial.unlink(missing_ok=True)

@@ -159,11 +159,13 @@ def _front(report: ReturnReport, styles: dict[str, ParagraphStyle]) -> list[Flow
         ["Lender contact", f"{lender['contact'] or '—'} {lender['email'] or ''}"],
         ["Loan", f"{loan['reference']} — {loan['title']} (tracker ID {loan['id']})"],
         ["Borrower", loan["borrower"]],
-        ["Received / due / returned",
-         f"{_esc(loan['received_on'])} / {_esc(loan['due_on'])} / {_esc(loan['returned_on'])}"],
+        [
+            "Received / due / returned",
+            f"{_esc(loan['received_on'])} / {_esc(loan['due_on'])} / {_esc(loan['returned_on'])}",
+        ],
         ["Status", loan["status"]],
         ["Report generated", report.generated_at.strftime("%Y-%m-%d %H:%M UTC")],
-    ]  # fmt: skip
+    ]
     return [
         Paragraph(f"Return report — {_esc(loan['reference'])}", styles["title"]),
         Spacer(1, 4 * mm),
@@ -178,11 +180,15 @@ def _terms(report: ReturnReport, styles: dict[str, ParagraphStyle]) -> list[Flow
         ["Mass per specimen", _mg_limit(t.max_mass_per_specimen_mg)],
         ["Total mass", _mg_limit(t.max_total_mass_mg)],
         ["Specimens that may be sampled", _esc(t.max_specimens_sampled)],
-        ["Unused powder / residual solutions", f"{t.powder_disposition} / "
-                                               f"{t.solution_disposition}"],
-        ["Report data / acknowledgement", f"{'yes' if t.report_data else 'no'} / "
-                                          f"{'yes' if t.acknowledgement else 'no'}"],
-    ]  # fmt: skip
+        [
+            "Unused powder / residual solutions",
+            f"{t.powder_disposition} / {t.solution_disposition}",
+        ],
+        [
+            "Report data / acknowledgement",
+            f"{'yes' if t.report_data else 'no'} / {'yes' if t.acknowledgement else 'no'}",
+        ],
+    ]
     flow: list[Flowable] = [
         Paragraph(f"Terms in force (version {t.version})", styles["h2"]),
         _table(rows, [0.38, 0.62], styles, header=False),
@@ -222,7 +228,7 @@ def _totals(report: ReturnReport, styles: dict[str, ParagraphStyle]) -> list[Flo
         *[[f"Powder {label}", f"{report.powder_left_mg(fate):.3f} mg"] for fate, label in _FATES],
         ["Powder still held by the borrower", f"{t.powder_on_hand_mg:.3f} mg"],
         ["Flags", ", ".join(report.flags) or "none"],
-    ]  # fmt: skip
+    ]
     return [Paragraph("Totals", styles["h2"]), _table(rows, [0.38, 0.62], styles, header=False)]
 
 
@@ -251,7 +257,7 @@ def _specimen(
         ["Condition at return", entry.condition_out],
         ["Returned", _returned(entry)],
         ["Flags", ", ".join(entry.flags) or "none"],
-    ]  # fmt: skip
+    ]
     flow: list[Flowable] = [title, _table(rows, [0.3, 0.7], styles, header=False)]
     if entry.powders:
         header = ["Powder", "Site", "Drilled", "Mass", "Dissolved", "Left", "Fate"]
@@ -380,7 +386,8 @@ def _thumbnails(
 def _timeline(report: ReturnReport, styles: dict[str, ParagraphStyle]) -> list[Flowable]:
     rows = [["Custody action", "Events", "First", "Last"]] + [
         [t.action, t.count, t.first.strftime("%Y-%m-%d"), t.last.strftime("%Y-%m-%d")]
-        for t in report.timeline]  # fmt: skip
+        for t in report.timeline
+    ]
     return [
         Paragraph("Custody timeline (summary)", styles["h2"]),
         _table(rows, [0.46, 0.14, 0.2, 0.2], styles),

@@ -8,13 +8,34 @@ from tracker.domain.timeutil import iso_utc
 from tracker.services.reports import ReturnReport, SpecimenEntry
 
 COLUMNS = [
-    "loanReference", "lender", "institutionCode", "catalogNumber", "trackerId",
-    "scientificName", "element", "sampled", "massRemovedMg", "massRemovedUncertaintyMg",
-    "permittedMg", "powderDissolvedMg", "powderReturnedMg", "powderDestroyedMg", "powderRetainedMg",
-    "powderConsumedMg", "powderStillHeldMg", "residualSolutions", "conditionAtReceipt",
-    "conditionAtReturn", "returnedAt", "returnShipment", "results", "overrides", "flags",
-    "ledgerHeadSeq", "ledgerHeadHash",
-]  # fmt: skip
+    "loanReference",
+    "lender",
+    "institutionCode",
+    "catalogNumber",
+    "trackerId",
+    "scientificName",
+    "element",
+    "sampled",
+    "massRemovedMg",
+    "massRemovedUncertaintyMg",
+    "permittedMg",
+    "powderDissolvedMg",
+    "powderReturnedMg",
+    "powderDestroyedMg",
+    "powderRetainedMg",
+    "powderConsumedMg",
+    "powderStillHeldMg",
+    "residualSolutions",
+    "conditionAtReceipt",
+    "conditionAtReturn",
+    "returnedAt",
+    "returnShipment",
+    "results",
+    "overrides",
+    "flags",
+    "ledgerHeadSeq",
+    "ledgerHeadHash",
+]
 
 
 def _fate_mass(entry: SpecimenEntry, status: str) -> float:
@@ -24,28 +45,38 @@ def _fate_mass(entry: SpecimenEntry, status: str) -> float:
 def rows(report: ReturnReport) -> list[dict[str, Any]]:
     lines = []
     for s in report.specimens:
-        lines.append({
-            "loanReference": report.loan["reference"], "lender": report.lender["name"],
-            "institutionCode": s.institution_code, "catalogNumber": s.catalog_number,
-            "trackerId": s.id, "scientificName": s.scientific_name,
-            "element": s.skeletal_element, "sampled": s.sampled,
-            "massRemovedMg": round(s.drilled_mg, 6),
-            "massRemovedUncertaintyMg": round(s.drilled_u_mg, 6), "permittedMg": s.permitted_mg,
-            "powderDissolvedMg": round(sum(p.dissolved_mg for p in s.powders), 6),
-            "powderReturnedMg": _fate_mass(s, "returned"),
-            "powderDestroyedMg": _fate_mass(s, "destroyed"),
-            "powderRetainedMg": _fate_mass(s, "retained"),
-            "powderConsumedMg": _fate_mass(s, "consumed"),
-            "powderStillHeldMg": _fate_mass(s, "available"),
-            "residualSolutions": "; ".join(f"{x.id} {x.status}" for x in s.solutions),
-            "conditionAtReceipt": s.condition_in, "conditionAtReturn": s.condition_out,
-            "returnedAt": iso_utc(s.returned_at) if s.returned_at else None,
-            "returnShipment": s.return_shipment,
-            "results": "; ".join(
-                f"{r.ratio} {r.value:.6g} ±{r.two_sd or 0:.3g} (2SD, n={r.n}, {r.scale})"
-                for r in s.results),
-            "overrides": "; ".join(p.override_reason for p in s.powders if p.override_reason),
-            "flags": "; ".join(s.flags), "ledgerHeadSeq": report.ledger.seq,
-            "ledgerHeadHash": report.ledger.hash,
-        })  # fmt: skip
+        lines.append(
+            {
+                "loanReference": report.loan["reference"],
+                "lender": report.lender["name"],
+                "institutionCode": s.institution_code,
+                "catalogNumber": s.catalog_number,
+                "trackerId": s.id,
+                "scientificName": s.scientific_name,
+                "element": s.skeletal_element,
+                "sampled": s.sampled,
+                "massRemovedMg": round(s.drilled_mg, 6),
+                "massRemovedUncertaintyMg": round(s.drilled_u_mg, 6),
+                "permittedMg": s.permitted_mg,
+                "powderDissolvedMg": round(sum(p.dissolved_mg for p in s.powders), 6),
+                "powderReturnedMg": _fate_mass(s, "returned"),
+                "powderDestroyedMg": _fate_mass(s, "destroyed"),
+                "powderRetainedMg": _fate_mass(s, "retained"),
+                "powderConsumedMg": _fate_mass(s, "consumed"),
+                "powderStillHeldMg": _fate_mass(s, "available"),
+                "residualSolutions": "; ".join(f"{x.id} {x.status}" for x in s.solutions),
+                "conditionAtReceipt": s.condition_in,
+                "conditionAtReturn": s.condition_out,
+                "returnedAt": iso_utc(s.returned_at) if s.returned_at else None,
+                "returnShipment": s.return_shipment,
+                "results": "; ".join(
+                    f"{r.ratio} {r.value:.6g} ±{r.two_sd or 0:.3g} (2SD, n={r.n}, {r.scale})"
+                    for r in s.results
+                ),
+                "overrides": "; ".join(p.override_reason for p in s.powders if p.override_reason),
+                "flags": "; ".join(s.flags),
+                "ledgerHeadSeq": report.ledger.seq,
+                "ledgerHeadHash": report.ledger.hash,
+            }
+        )
     return lines

@@ -86,11 +86,16 @@ def backup(db: Database, destination: Path) -> BackupView:
     copy_live(source, destination)
     report = _verify_file(destination)
     return BackupView(
-        path=str(destination), size_bytes=destination.stat().st_size,
-        sha256=_sha256(destination), revision=schema_revision(destination), events=report.events,
-        head_seq=report.head_seq, head_hash=report.head_hash, ledger_ok=report.ok,
+        path=str(destination),
+        size_bytes=destination.stat().st_size,
+        sha256=_sha256(destination),
+        revision=schema_revision(destination),
+        events=report.events,
+        head_seq=report.head_seq,
+        head_hash=report.head_hash,
+        ledger_ok=report.ok,
         problem=None if report.ok else f"event #{report.broken_seq}: {report.reason}",
-    )  # fmt: skip
+    )
 
 
 class RestoreView(View):
@@ -135,10 +140,14 @@ def restore(
     try:
         with unit_of_work(db, actor) as uow:
             view = RestoreView(
-                database=str(path), restored_from=str(source), backup_sha256=_sha256(source),
-                backup_head_seq=report.head_seq, backup_head_hash=report.head_hash,
-                replaced_kept_as=str(aside) if aside else None, events_lost=lost,
-            )  # fmt: skip
+                database=str(path),
+                restored_from=str(source),
+                backup_sha256=_sha256(source),
+                backup_head_seq=report.head_seq,
+                backup_head_hash=report.head_hash,
+                replaced_kept_as=str(aside) if aside else None,
+                events_lost=lost,
+            )
             payload = view.model_dump(exclude={"database"})
             payload["replaced_head"] = (
                 {"seq": current.head_seq, "hash": current.head_hash} if current else None
@@ -165,10 +174,11 @@ def _check_backup(
         report = ledger.verify(backup_db)
         if not report.ok:
             raise RuleViolation(
-                "PATH", str(source),
+                "PATH",
+                str(source),
                 f"its ledger is broken at event #{report.broken_seq} ({report.reason}); "
                 "nothing was replaced",
-            )  # fmt: skip
+            )
         if anchor is not None:
             check = ledger.verify_against(backup_db, anchor).anchor
             if not check.ok:
@@ -229,10 +239,11 @@ def _events_lost(current: _Current | None, backup: VerifyReport, accept_loss: bo
             f"({lost} of its events are not in the backup)"
         )
         raise RuleViolation(
-            "--accept-loss", None,
+            "--accept-loss",
+            None,
             f"the database {what}; restoring loses them — pass --accept-loss to restore "
             "anyway (the replaced file is kept beside it)",
-        )  # fmt: skip
+        )
     return lost
 
 

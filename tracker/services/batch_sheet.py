@@ -78,15 +78,20 @@ def enter_sheet(db: Database, actor: str | None, data: EnterSheet | Raw) -> Done
             )
         uow.session.flush()  # the new positions and cuts get their IDs before the event
         payload = {
-            "file": request.filename, "sha256": hashlib.sha256(request.content).hexdigest(),
-            "rows": len(rows[1]), "added": sheet.added_with_ids(),
+            "file": request.filename,
+            "sha256": hashlib.sha256(request.content).hexdigest(),
+            "rows": len(rows[1]),
+            "added": sheet.added_with_ids(),
             "already_entered": sheet.skipped,
-        }  # fmt: skip
+        }
         uow.mention(*(item.public_id for item in sheet.new_items))  # their histories show it
         view = SheetView(
-            batch=batch.public_id, rows=len(rows[1]), already_entered=sheet.skipped,
-            positions_added=sheet.ids(BatchPosition), cuts_added=sheet.ids(Cut),
-        )  # fmt: skip
+            batch=batch.public_id,
+            rows=len(rows[1]),
+            already_entered=sheet.skipped,
+            positions_added=sheet.ids(BatchPosition),
+            cuts_added=sheet.ids(Cut),
+        )
         return finish(uow, "batch.sheet_entered", batch, payload, lambda: view)
 
 
@@ -124,10 +129,11 @@ class _Sheet:
         for name in header:
             if name not in known:
                 raise InputError(
-                    at_cell(self.filename, 1, name), None,
+                    at_cell(self.filename, 1, name),
+                    None,
                     f"is not a batch sheet column (slot, kind, item, loaded, and the cuts of "
                     f"{self.batch.public_id}: {', '.join(self.batch.cut_names)})",
-                )  # fmt: skip
+                )
 
     @contextmanager
     def cell(self, row: Row, column: str) -> Iterator[None]:
@@ -168,29 +174,47 @@ class _Sheet:
         following = 1 + max((p.slot for p in self.batch.positions), default=0)
         if slot != following:
             raise InputError(
-                at_cell(self.filename, row.number, "slot"), slot_text,
+                at_cell(self.filename, row.number, "slot"),
+                slot_text,
                 f"column {following} is the next one to enter; list columns in order",
-            )  # fmt: skip
+            )
         with self.cell(row, "item"):
-            request = parse(AddPosition, {
-                "batch": self.batch.public_id, "kind": kind,
-                "aliquot": item or None if kind is PositionKind.SAMPLE else None,
-                "reference_material": item or None if kind is PositionKind.REFERENCE else None,
-                "loaded_ug": _micrograms(loaded) if loaded else None,
-            })  # fmt: skip
+            request = parse(
+                AddPosition,
+                {
+                    "batch": self.batch.public_id,
+                    "kind": kind,
+                    "aliquot": item or None if kind is PositionKind.SAMPLE else None,
+                    "reference_material": item or None if kind is PositionKind.REFERENCE else None,
+                    "loaded_ug": _micrograms(loaded) if loaded else None,
+                },
+            )
             position, holds = place(self.uow, self.batch, slot, request)
             self.uow.session.flush()  # its ID names it to its cuts
         self.new_items.append(position)
-        self.added.append({"slot": slot, "kind": kind.value, "holds": holds,
-                           "loaded_ug": position.loaded_ug,
-                           "label": queue_label(self.uow, position)})  # fmt: skip
+        self.added.append(
+            {
+                "slot": slot,
+                "kind": kind.value,
+                "holds": holds,
+                "loaded_ug": position.loaded_ug,
+                "label": queue_label(self.uow, position),
+            }
+        )
         return position
 
     def _cut(self, row: Row, position: BatchPosition, key: str, name: str) -> None:
         text, u_text = row.cells[key], row.cells.get(f"{key} u", "") or None
         with self.cell(row, name):
-            request = parse(RecordCut, {"position": position.public_id, "cut": name,
-                                        "recovered": text, "uncertainty": u_text})  # fmt: skip
+            request = parse(
+                RecordCut,
+                {
+                    "position": position.public_id,
+                    "cut": name,
+                    "recovered": text,
+                    "uncertainty": u_text,
+                },
+            )
             existing = next((c for c in position.cuts if c.name == name), None)
             if existing is not None:
                 _same_cut(existing, request)
@@ -198,9 +222,15 @@ class _Sheet:
                 return
             cut = collect(self.uow, position, request)
         self.new_items.append(cut)
-        self.added.append({"slot": position.slot, "cut": name, "recovered_ug": cut.recovered_ug,
-                           "recovered_u_ug": cut.recovered_u_ug,
-                           "label": queue_label(self.uow, cut)})  # fmt: skip
+        self.added.append(
+            {
+                "slot": position.slot,
+                "cut": name,
+                "recovered_ug": cut.recovered_ug,
+                "recovered_u_ug": cut.recovered_u_ug,
+                "label": queue_label(self.uow, cut),
+            }
+        )
 
     def ids(self, kind: type[BatchPosition] | type[Cut]) -> list[str]:
         return [item.public_id for item in self.new_items if isinstance(item, kind)]
@@ -227,28 +257,34 @@ def _micrograms(text: str) -> float:
 
 def _same_position(position: BatchPosition, kind: PositionKind, item: str) -> None:
     holds = (
-        position.aliquot.public_id if position.aliquot
-        else position.reference_material.name if position.reference_material else ""
-    )  # fmt: skip
+        position.aliquot.public_id
+        if position.aliquot
+        else position.reference_material.name
+        if position.reference_material
+        else ""
+    )
     same_item = item.replace("-", "").upper() == holds.replace("-", "").upper()
     if position.kind is not kind or not same_item:
         raise RuleViolation(
-            "item", item or kind.value,
+            "item",
+            item or kind.value,
             f"column {position.slot} already holds {position.kind.value} {holds}".rstrip()
             + "; a sheet cannot change it",
-        )  # fmt: skip
+        )
 
 
 def _same_cut(cut: Cut, request: RecordCut) -> None:
     amount = request.recovered_ug()
     wanted = None if amount is None else amount.value
     same = (wanted is None and cut.recovered_ug is None) or (
-        wanted is not None and cut.recovered_ug is not None
+        wanted is not None
+        and cut.recovered_ug is not None
         and math.isclose(wanted, cut.recovered_ug, rel_tol=1e-12, abs_tol=1e-12)
-    )  # fmt: skip
+    )
     if not same:
         raise RuleViolation(
-            "cut", request.cut,
+            "cut",
+            request.cut,
             f"of column {cut.position.slot} is recorded as {cut.recovered_ug} µg; "
             f"fix it with `tracker correct recovery {cut.public_id}`",
-        )  # fmt: skip
+        )

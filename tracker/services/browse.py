@@ -47,10 +47,16 @@ def list_batches(db: Database) -> list[BatchLine]:
             .order_by(ColumnBatch.performed_on.desc(), ColumnBatch.id.desc())
         )
         return [
-            BatchLine(id=b.public_id, name=b.name, element=b.element, performed_on=b.performed_on,
-                      positions=len(b.positions), cut_names=list(b.cut_names))
+            BatchLine(
+                id=b.public_id,
+                name=b.name,
+                element=b.element,
+                performed_on=b.performed_on,
+                positions=len(b.positions),
+                cut_names=list(b.cut_names),
+            )
             for b in rows
-        ]  # fmt: skip
+        ]
 
 
 class SessionLine(View):
@@ -79,20 +85,28 @@ def list_sessions(db: Database) -> list[SessionLine]:
                 .group_by(Measurement.session_id)
             )
         )
-        results = _counts(session.execute(
-            select(Result.session_id, count).group_by(Result.session_id)))  # fmt: skip
+        results = _counts(
+            session.execute(select(Result.session_id, count).group_by(Result.session_id))
+        )
         rows = session.scalars(
             select(InstrumentSession).order_by(
                 InstrumentSession.started_at.desc(), InstrumentSession.id.desc()
             )
         )
         return [
-            SessionLine(id=s.public_id, name=s.name, element=s.element, instrument=s.instrument,
-                        started_at=s.started_at, runs=runs.get(s.id, 0),
-                        unmatched=unmatched.get(s.id, 0), results=results.get(s.id, 0),
-                        flags=list(s.flags))
+            SessionLine(
+                id=s.public_id,
+                name=s.name,
+                element=s.element,
+                instrument=s.instrument,
+                started_at=s.started_at,
+                runs=runs.get(s.id, 0),
+                unmatched=unmatched.get(s.id, 0),
+                results=results.get(s.id, 0),
+                flags=list(s.flags),
+            )
             for s in rows
-        ]  # fmt: skip
+        ]
 
 
 def _counts(rows: Any) -> dict[int, int]:

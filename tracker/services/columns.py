@@ -222,11 +222,18 @@ def _summary(batch: ColumnBatch) -> BatchSummary:
     if count == 0:
         flags.append("no procedural blank measured")
     return BatchSummary(
-        id=batch.public_id, name=batch.name, element=batch.element,
-        yield_threshold=batch.yield_threshold, blank_limit=batch.blank_limit,
-        blank_ng=blank, blank_sd_ng=spread, blanks=count, positions=lines, flags=flags,
+        id=batch.public_id,
+        name=batch.name,
+        element=batch.element,
+        yield_threshold=batch.yield_threshold,
+        blank_limit=batch.blank_limit,
+        blank_ng=blank,
+        blank_sd_ng=spread,
+        blanks=count,
+        positions=lines,
+        flags=flags,
         blank_deltas={k: float(v) for k, v in batch.blank_deltas.items()},
-    )  # fmt: skip
+    )
 
 
 def position_flags(position: BatchPosition) -> list[str]:
@@ -258,8 +265,14 @@ def _position_line(
         else None
     )
     return PositionLine(
-        id=position.public_id, slot=position.slot, kind=position.kind.value, holds=holds,
-        loaded_ug=position.loaded_ug, recovered_ug=cut.recovered_ug if cut else None,
-        yield_fraction=ratio.value if ratio else None, yield_u=ratio.u if ratio else None,
-        blank_fraction=fraction, flags=flags,
-    )  # fmt: skip
+        id=position.public_id,
+        slot=position.slot,
+        kind=position.kind.value,
+        holds=holds,
+        loaded_ug=position.loaded_ug,
+        recovered_ug=cut.recovered_ug if cut else None,
+        yield_fraction=ratio.value if ratio else None,
+        yield_u=ratio.u if ratio else None,
+        blank_fraction=fraction,
+        flags=flags,
+    )

@@ -126,19 +126,33 @@ def finish_correction(
     def add(event: CustodyEvent) -> None:
         uow.session.add(
             Correction(
-                item_ref=entry.item.public_id, quantity=entry.quantity, entry_table=entry.table,
-                entry_id=entry.row_id, replaced=entry.values, value=value, reason=reason,
-                entry_by=entry.author, supersedes_id=entry.previous.id if entry.previous else None,
-                supersedes_event_seq=entry.event_seq, event_seq=event.seq,
-                recorded_by=uow.operator.code, recorded_at=uow.now,
+                item_ref=entry.item.public_id,
+                quantity=entry.quantity,
+                entry_table=entry.table,
+                entry_id=entry.row_id,
+                replaced=entry.values,
+                value=value,
+                reason=reason,
+                entry_by=entry.author,
+                supersedes_id=entry.previous.id if entry.previous else None,
+                supersedes_event_seq=entry.event_seq,
+                event_seq=event.seq,
+                recorded_by=uow.operator.code,
+                recorded_at=uow.now,
             )
-        )  # fmt: skip
+        )
 
     uow.after_record.append(add)
     view = CorrectionView(
-        item=entry.item.public_id, quantity=entry.quantity, replaced=entry.values, value=value,
-        reason=reason, entry_by=entry.author, supersedes_event=entry.event_seq, effects=effects,
-    )  # fmt: skip
+        item=entry.item.public_id,
+        quantity=entry.quantity,
+        replaced=entry.values,
+        value=value,
+        reason=reason,
+        entry_by=entry.author,
+        supersedes_event=entry.event_seq,
+        effects=effects,
+    )
     payload = view.model_dump() | {
         "supersedes_correction": entry.previous.id if entry.previous else None
     }
@@ -156,8 +170,15 @@ def list_corrections(db: Database, item: str | None = None) -> list[CorrectionRe
 
 def _record_view(row: Correction) -> CorrectionRecord:
     return CorrectionRecord(
-        item=row.item_ref, quantity=row.quantity, replaced=row.replaced, value=row.value,
-        reason=row.reason, entry_by=row.entry_by, supersedes_event=row.supersedes_event_seq,
-        effects={}, recorded_by=row.recorded_by, recorded_at=row.recorded_at,
+        item=row.item_ref,
+        quantity=row.quantity,
+        replaced=row.replaced,
+        value=row.value,
+        reason=row.reason,
+        entry_by=row.entry_by,
+        supersedes_event=row.supersedes_event_seq,
+        effects={},
+        recorded_by=row.recorded_by,
+        recorded_at=row.recorded_at,
         event_seq=row.event_seq,
-    )  # fmt: skip
+    )

@@ -73,31 +73,48 @@ def _powder_mass(uow: UnitOfWork, powder: Powder, request: CorrectWeighing) -> D
     readability = request.readability or Decimal(str(powder.readability_mg))
     mass = weigh(request.tare, request.gross, readability).amount()
     entry = entry_of(
-        uow.session, powder, "powder mass", "powder", powder.id,
-        {"tare_mg": powder.tare_mg, "gross_mg": powder.gross_mg,
-         "readability_mg": powder.readability_mg, "mass_mg": powder.mass_mg,
-         "mass_u_mg": powder.mass_u_mg},
+        uow.session,
+        powder,
+        "powder mass",
+        "powder",
+        powder.id,
+        {
+            "tare_mg": powder.tare_mg,
+            "gross_mg": powder.gross_mg,
+            "readability_mg": powder.readability_mg,
+            "mass_mg": powder.mass_mg,
+            "mass_u_mg": powder.mass_u_mg,
+        },
         (powder.drilled_by, _first_seq(uow, powder)),
-    )  # fmt: skip
+    )
     authorise(uow, entry)
     value = {
-        "tare_mg": float(request.tare), "gross_mg": float(request.gross),
-        "readability_mg": float(readability), "mass_mg": mass.value, "mass_u_mg": mass.u,
-    }  # fmt: skip
+        "tare_mg": float(request.tare),
+        "gross_mg": float(request.gross),
+        "readability_mg": float(readability),
+        "mass_mg": mass.value,
+        "mass_u_mg": mass.u,
+    }
     require_change(entry, value, "gross", f"{request.gross} mg")
     taken = [weighed(s.powder_mass_mg, s.powder_mass_u_mg) for s in powder.solutions]
     _refuse_overdraw(
-        "gross", f"{request.gross} mg", by_difference(mass.value, float(readability)), taken,
-        f"already dissolved from {powder.public_id}", [s.public_id for s in powder.solutions],
-    )  # fmt: skip
+        "gross",
+        f"{request.gross} mg",
+        by_difference(mass.value, float(readability)),
+        taken,
+        f"already dissolved from {powder.public_id}",
+        [s.public_id for s in powder.solutions],
+    )
     limits = _limits_passed(uow, powder, mass)
     if limits:
         uow.require_manager("a correction that takes the loan over a limit")
         powder.override_reason = powder.override_reason or f"correction: {request.reason}"
     powder.tare_mg, powder.gross_mg = value["tare_mg"], value["gross_mg"]
     powder.readability_mg, powder.mass_mg, powder.mass_u_mg = (
-        value["readability_mg"], mass.value, mass.u,
-    )  # fmt: skip
+        value["readability_mg"],
+        mass.value,
+        mass.u,
+    )
     effects = {"limits": limits, "label": _label_if_here(uow, powder)}
     return finish_correction(uow, "powder.corrected", entry, (value, request.reason), effects)
 
@@ -107,9 +124,11 @@ def _limits_passed(uow: UnitOfWork, powder: Powder, mass: Amount) -> list[str]:
     usage = usage_of(uow.session, powder.specimen)
     without = Amount(-powder.mass_mg, powder.mass_u_mg)
     usage = type(usage)(
-        usage.loan_drilled + without, usage.specimen_drilled + without,
-        usage.sampled_specimens, usage.specimen_already_sampled,
-    )  # fmt: skip
+        usage.loan_drilled + without,
+        usage.specimen_drilled + without,
+        usage.sampled_specimens,
+        usage.specimen_already_sampled,
+    )
     terms = terms_in_force(powder.specimen.loan.terms, powder.drilled_at.date())
     found = check_drill(limits_of(terms), usage, powder.tissue, mass, powder.drilled_at.date())
     return [v.message for v in found if v.limit in ("per-specimen limit", "loan total limit")]
@@ -125,11 +144,12 @@ def _liquid_mass(
         parts = [weighed(a.mass_g, a.mass_u_g) for a in item.aliquots]
         if overdraws(grams, total(parts)):
             raise RuleViolation(
-                "gross", f"{request.gross} mg",
+                "gross",
+                f"{request.gross} mg",
                 f"gives {grams.value:.5f} g, less than the {total(parts).value:.5f} g already "
                 f"aliquoted ({', '.join(a.public_id for a in item.aliquots)}); "
                 "correct those first",
-            )  # fmt: skip
+            )
     else:
         old, old_u, author = item.mass_g, item.mass_u_g, item.taken_by
         solution = item.solution
@@ -137,14 +157,20 @@ def _liquid_mass(
         others = [weighed(a.mass_g, a.mass_u_g) for a in solution.aliquots if a is not item]
         if overdraws(whole - total(others), grams):
             raise RuleViolation(
-                "gross", f"{request.gross} mg",
+                "gross",
+                f"{request.gross} mg",
                 f"gives {grams.value:.5f} g, more than remains of {solution.public_id}",
-            )  # fmt: skip
+            )
     kind = type(item).__name__.lower()
     entry = entry_of(
-        uow.session, item, f"{kind} mass", kind, item.id, {"mass_g": old, "mass_u_g": old_u},
+        uow.session,
+        item,
+        f"{kind} mass",
+        kind,
+        item.id,
+        {"mass_g": old, "mass_u_g": old_u},
         (author, _first_seq(uow, item)),
-    )  # fmt: skip
+    )
     authorise(uow, entry)
     value = {"mass_g": grams.value, "mass_u_g": grams.u}
     require_change(entry, value, "gross", f"{request.gross} mg")
@@ -163,11 +189,12 @@ def _refuse_overdraw(
 ) -> None:
     if overdraws(parent, total(children)):
         raise RuleViolation(
-            field, shown,
+            field,
+            shown,
             f"gives {format_mass_mg(parent.value)}, less than the "
             f"{format_mass_mg(total(children).value)} {what} ({', '.join(ids)}); "
             "correct those first",
-        )  # fmt: skip
+        )
 
 
 def _first_seq(uow: UnitOfWork, item: Powder | Solution | Aliquot) -> int | None:
@@ -189,9 +216,10 @@ def correct_powder_taken(
     request = parse(CorrectPortion, data)
     if decimals_below(request.powder_taken, request.readability):
         raise InputError(
-            "powder-taken", f"{request.powder_taken} mg",
+            "powder-taken",
+            f"{request.powder_taken} mg",
             f"has more decimals than the balance reads ({request.readability} mg)",
-        )  # fmt: skip
+        )
     with unit_of_work(db, actor) as uow:
         solution = get_by_id(uow.session, Solution, "solution", request.solution)
         taken = by_difference(float(request.powder_taken), float(request.readability))
@@ -199,17 +227,25 @@ def correct_powder_taken(
         others = [s for s in powder.solutions if s is not solution]
         portions = [weighed(s.powder_mass_mg, s.powder_mass_u_mg) for s in others] + [taken]
         _refuse_overdraw(
-            "powder-taken", f"{request.powder_taken} mg",
-            by_difference(powder.mass_mg, powder.readability_mg), portions,
+            "powder-taken",
+            f"{request.powder_taken} mg",
+            by_difference(powder.mass_mg, powder.readability_mg),
+            portions,
             f"taken from {powder.public_id} with the other solutions",
             [s.public_id for s in others] or ["none"],
-        )  # fmt: skip
+        )
         entry = entry_of(
-            uow.session, solution, "powder taken", "solution", solution.id,
-            {"powder_mass_mg": solution.powder_mass_mg,
-             "powder_mass_u_mg": solution.powder_mass_u_mg},
+            uow.session,
+            solution,
+            "powder taken",
+            "solution",
+            solution.id,
+            {
+                "powder_mass_mg": solution.powder_mass_mg,
+                "powder_mass_u_mg": solution.powder_mass_u_mg,
+            },
             (solution.dissolved_by, _first_seq(uow, solution)),
-        )  # fmt: skip
+        )
         authorise(uow, entry)
         value = {"powder_mass_mg": taken.value, "powder_mass_u_mg": taken.u}
         require_change(entry, value, "powder-taken", f"{request.powder_taken} mg")

@@ -52,18 +52,24 @@ def correct_concentration(
         current = latest_concentration(solution, request.element)
         if current is None:
             raise RuleViolation(
-                "element", request.element,
+                "element",
+                request.element,
                 f"no concentration of it is recorded for {solution.public_id}; "
                 "record one with `tracker concentration`",
-            )  # fmt: skip
+            )
         entry = _concentration_entry(uow.session, solution, current)
         authorise(uow, entry)
         row = Concentration(
-            solution=solution, element=current.element, value_ug_per_g=float(request.value),
-            u_ug_per_g=request.standard_uncertainty(), method=request.method or current.method,
-            measured_at=current.measured_at, recorded_by=uow.operator.code,
-            supersedes_id=current.id, created_at=uow.now,
-        )  # fmt: skip
+            solution=solution,
+            element=current.element,
+            value_ug_per_g=float(request.value),
+            u_ug_per_g=request.standard_uncertainty(),
+            method=request.method or current.method,
+            measured_at=current.measured_at,
+            recorded_by=uow.operator.code,
+            supersedes_id=current.id,
+            created_at=uow.now,
+        )
         probe = {"value_ug_per_g": row.value_ug_per_g, "u_ug_per_g": row.u_ug_per_g}
         require_change(entry, probe, "value", f"{request.value} ug/g")
         uow.session.add(row)
@@ -82,8 +88,12 @@ def _concentration_entry(session: Session, solution: Solution, current: Concentr
     previous = latest_correction(session, solution.public_id, quantity)
     if previous is None or previous.value.get("row") != current.id:
         previous = None
-    values = {"row": current.id, "value_ug_per_g": current.value_ug_per_g,
-              "u_ug_per_g": current.u_ug_per_g, "method": current.method}  # fmt: skip
+    values = {
+        "row": current.id,
+        "value_ug_per_g": current.value_ug_per_g,
+        "u_ug_per_g": current.u_ug_per_g,
+        "method": current.method,
+    }
     seq = previous.event_seq if previous else concentration_event(session, current)
     return Entry(
         solution, quantity, "concentration", current.id, values, current.recorded_by, seq, previous
@@ -123,10 +133,14 @@ def correct_recovery(
         cut = get_by_id(uow.session, Cut, "cut", request.cut)
         made = first_event(uow.session, cut.public_id)
         entry = entry_of(
-            uow.session, cut, "cut recovery", "cut", cut.id,
+            uow.session,
+            cut,
+            "cut recovery",
+            "cut",
+            cut.id,
             {"recovered_ug": cut.recovered_ug, "recovered_u_ug": cut.recovered_u_ug},
             (made.operator if made else cut.position.batch.operator, made.seq if made else None),
-        )  # fmt: skip
+        )
         authorise(uow, entry)
         recovered, u = request.amounts_ug()
         value = {"recovered_ug": recovered, "recovered_u_ug": u}

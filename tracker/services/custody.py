@@ -240,34 +240,45 @@ def close_loan(db: Database, actor: str | None, data: CloseLoan | Raw) -> Done[L
             raise RuleViolation("loan", loan.reference, "is already closed")
         if loan.status is not LoanStatus.RETURNED:
             raise RuleViolation(
-                "loan", loan.reference,
+                "loan",
+                loan.reference,
                 "has not been returned yet; `tracker loan mark-returned` it first",
-            )  # fmt: skip
+            )
         left = _material_left(uow.session, loan.id)
         if left:
             raise RuleViolation(
-                "loan", loan.reference,
+                "loan",
+                loan.reference,
                 f"{len(left)} vial(s) of its material are still in the lab: "
                 f"{', '.join(left[:5])}; dispose of them as the terms require first",
-            )  # fmt: skip
+            )
         loan.status = LoanStatus.CLOSED
         payload = {"reason": request.reason, "returned_on": _iso(loan.returned_on)}
         return finish(
-            uow, "loan.closed", loan, payload, lambda: LoanView.of(loan, uow.now.date()),
+            uow,
+            "loan.closed",
+            loan,
+            payload,
+            lambda: LoanView.of(loan, uow.now.date()),
             parent=loan.lender,
-        )  # fmt: skip
+        )
 
 
 def _material_left(session: Session, loan_id: int) -> list[str]:
     """Solutions and aliquots made from the loan's specimens that are still available."""
     solutions = session.scalars(
-        select(Solution).join(Solution.powder).join(Powder.specimen)
+        select(Solution)
+        .join(Solution.powder)
+        .join(Powder.specimen)
         .where(Specimen.loan_id == loan_id, Solution.status == ContainerStatus.AVAILABLE)
-    ).all()  # fmt: skip
+    ).all()
     aliquots = session.scalars(
-        select(Aliquot).join(Aliquot.solution).join(Solution.powder).join(Powder.specimen)
+        select(Aliquot)
+        .join(Aliquot.solution)
+        .join(Solution.powder)
+        .join(Powder.specimen)
         .where(Specimen.loan_id == loan_id, Aliquot.status == ContainerStatus.AVAILABLE)
-    ).all()  # fmt: skip
+    ).all()
     return [s.public_id for s in solutions] + [a.public_id for a in aliquots]
 
 

@@ -70,14 +70,21 @@ def drilled_payload(
 ) -> dict[str, Any]:
     """What the ``powder.drilled`` event records (the bench's bulk writer uses it too)."""
     return {
-        "specimen": specimen.public_id, "tissue": powder.tissue, "site": powder.site,
-        "tare_mg": powder.tare_mg, "gross_mg": powder.gross_mg,
-        "readability_mg": powder.readability_mg, "mass_mg": powder.mass_mg,
-        "mass_u_mg": powder.mass_u_mg, "material": material,
-        "drilled_at": powder.drilled_at.isoformat(), "terms_version": terms_version,
-        "override": {"reason": request.override_reason,
-                     "limits": [v.message for v in violations]} if violations else None,
-    }  # fmt: skip
+        "specimen": specimen.public_id,
+        "tissue": powder.tissue,
+        "site": powder.site,
+        "tare_mg": powder.tare_mg,
+        "gross_mg": powder.gross_mg,
+        "readability_mg": powder.readability_mg,
+        "mass_mg": powder.mass_mg,
+        "mass_u_mg": powder.mass_u_mg,
+        "material": material,
+        "drilled_at": powder.drilled_at.isoformat(),
+        "terms_version": terms_version,
+        "override": {"reason": request.override_reason, "limits": [v.message for v in violations]}
+        if violations
+        else None,
+    }
 
 
 def drill(db: Database, actor: str | None, data: Drill | Raw) -> Done[PowderView]:
@@ -97,13 +104,21 @@ def drill(db: Database, actor: str | None, data: Drill | Raw) -> Done[PowderView
         if material is not None:
             material = find_material(uow.session, "material", material).name
         powder = Powder(
-            specimen=specimen, tissue=request.tissue, site=request.site,
-            tare_mg=float(request.tare), gross_mg=float(request.gross),
-            readability_mg=float(request.readability), mass_mg=mass.value, mass_u_mg=mass.u,
-            material=material, drilled_at=when, drilled_by=uow.operator.code,
+            specimen=specimen,
+            tissue=request.tissue,
+            site=request.site,
+            tare_mg=float(request.tare),
+            gross_mg=float(request.gross),
+            readability_mg=float(request.readability),
+            mass_mg=mass.value,
+            mass_u_mg=mass.u,
+            material=material,
+            drilled_at=when,
+            drilled_by=uow.operator.code,
             override_reason=request.override_reason if violations else None,
-            location=optional_location(uow, "location", request.location), created_at=uow.now,
-        )  # fmt: skip
+            location=optional_location(uow, "location", request.location),
+            created_at=uow.now,
+        )
         uow.session.add(powder)
         payload = drilled_payload(powder, specimen, material, terms.version, request, violations)
         payload["label"] = queue_label(uow, powder)
@@ -251,26 +266,39 @@ def preview_drill(db: Database, data: DrillDraft | Raw) -> DrillPreview:
             [v.message for v in check_drill(limits, usage, tissue, mass, day)] if mass else []
         )
         return DrillPreview(
-            specimen=specimen.public_id, catalog_number=specimen.catalog_number,
-            loan=specimen.loan.reference, status=specimen.status.value,
-            terms_version=terms.version, permitted_tissues=list(terms.permitted_tissues),
-            tissue=tissue, mass_mg=mass.value if mass else None, mass_u_mg=mass.u if mass else None,
-            per_specimen=_limit_line("per specimen", limits.max_mass_per_specimen_mg,
-                                     usage.specimen_drilled, mass),
-            loan_total=_limit_line("loan total", limits.max_total_mass_mg,
-                                   usage.loan_drilled, mass),
+            specimen=specimen.public_id,
+            catalog_number=specimen.catalog_number,
+            loan=specimen.loan.reference,
+            status=specimen.status.value,
+            terms_version=terms.version,
+            permitted_tissues=list(terms.permitted_tissues),
+            tissue=tissue,
+            mass_mg=mass.value if mass else None,
+            mass_u_mg=mass.u if mass else None,
+            per_specimen=_limit_line(
+                "per specimen", limits.max_mass_per_specimen_mg, usage.specimen_drilled, mass
+            ),
+            loan_total=_limit_line(
+                "loan total", limits.max_total_mass_mg, usage.loan_drilled, mass
+            ),
             max_specimens_sampled=limits.max_specimens_sampled,
             sampled_specimens=usage.sampled_specimens,
-            already_sampled=usage.specimen_already_sampled, due_on=limits.due_on,
-            problem=problem, violations=violations,
+            already_sampled=usage.specimen_already_sampled,
+            due_on=limits.due_on,
+            problem=problem,
+            violations=violations,
             within=mass is not None and problem is None and not violations,
-        )  # fmt: skip
+        )
 
 
 def _limit_line(name: str, limit: float | None, used: Amount, mass: Amount | None) -> LimitLine:
     before = None if limit is None else limit - used.value
     after = None if before is None or mass is None else before - mass.value
     return LimitLine(
-        name=name, limit_mg=limit, used_mg=used.value, used_u_mg=used.u,
-        left_before_mg=before, left_after_mg=after,
-    )  # fmt: skip
+        name=name,
+        limit_mg=limit,
+        used_mg=used.value,
+        used_u_mg=used.u,
+        left_before_mg=before,
+        left_after_mg=after,
+    )

@@ -21,15 +21,31 @@ from tracker.services.lookup import get_loan
 from tracker.services.results import results
 
 SPECIMEN_TERMS = [
-    "institutionCode", "collectionCode", "catalogNumber", "scientificName", "preparations",
-    "locality", "formation", "earliestEpochOrLowestSeries", "latestEpochOrHighestSeries",
-    "disposition", "dynamicProperties",
-]  # fmt: skip
+    "institutionCode",
+    "collectionCode",
+    "catalogNumber",
+    "scientificName",
+    "preparations",
+    "locality",
+    "formation",
+    "earliestEpochOrLowestSeries",
+    "latestEpochOrHighestSeries",
+    "disposition",
+    "dynamicProperties",
+]
 MEASUREMENT_TERMS = [
-    "institutionCode", "catalogNumber", "measurementID", "measurementType", "measurementValue",
-    "measurementAccuracy", "measurementUnit", "measurementDeterminedDate",
-    "measurementDeterminedBy", "measurementMethod", "measurementRemarks",
-]  # fmt: skip
+    "institutionCode",
+    "catalogNumber",
+    "measurementID",
+    "measurementType",
+    "measurementValue",
+    "measurementAccuracy",
+    "measurementUnit",
+    "measurementDeterminedDate",
+    "measurementDeterminedBy",
+    "measurementMethod",
+    "measurementRemarks",
+]
 _DISPOSITION = {
     SpecimenStatus.EXPECTED: "on loan, not yet received",
     SpecimenStatus.ON_HAND: "on loan",
@@ -60,18 +76,28 @@ def specimen_rows(db: Database, loan: str) -> tuple[list[str], list[dict[str, An
     rows = []
     for s in specimens:
         row: dict[str, Any] = {
-            "institutionCode": s.institution_code, "collectionCode": s.collection_code,
-            "catalogNumber": s.catalog_number, "scientificName": s.scientific_name,
-            "preparations": s.skeletal_element, "locality": s.locality, "formation": s.formation,
+            "institutionCode": s.institution_code,
+            "collectionCode": s.collection_code,
+            "catalogNumber": s.catalog_number,
+            "scientificName": s.scientific_name,
+            "preparations": s.skeletal_element,
+            "locality": s.locality,
+            "formation": s.formation,
             "earliestEpochOrLowestSeries": s.earliest_epoch,
-            "latestEpochOrHighestSeries": s.latest_epoch, "disposition": _DISPOSITION[s.status],
-            "dynamicProperties": json.dumps({
-                "trackerId": s.public_id, "sampled": bool(s.powders),
-                "drilledMg": round(sum(p.mass_mg for p in s.powders), 6),
-                "ageMinMa": s.age_min_ma, "ageMaxMa": s.age_max_ma,
-                **{k: v for k, v in s.extra.items() if not is_term(k)},
-            }, sort_keys=True),
-        }  # fmt: skip
+            "latestEpochOrHighestSeries": s.latest_epoch,
+            "disposition": _DISPOSITION[s.status],
+            "dynamicProperties": json.dumps(
+                {
+                    "trackerId": s.public_id,
+                    "sampled": bool(s.powders),
+                    "drilledMg": round(sum(p.mass_mg for p in s.powders), 6),
+                    "ageMinMa": s.age_min_ma,
+                    "ageMaxMa": s.age_max_ma,
+                    **{k: v for k, v in s.extra.items() if not is_term(k)},
+                },
+                sort_keys=True,
+            ),
+        }
         row.update({term: s.extra.get(term) for term in extra_terms})
         rows.append(row)
     return SPECIMEN_TERMS + extra_terms, rows
@@ -84,34 +110,45 @@ def measurement_rows(db: Database, loan: str) -> tuple[list[str], list[dict[str,
     rows = []
     for s in specimens:
         for p in s.powders:
-            rows.append({
-                "institutionCode": s.institution_code, "catalogNumber": s.catalog_number,
-                "measurementID": p.public_id,
-                "measurementType": f"mass of {p.tissue} removed by drilling",
-                "measurementValue": round(p.mass_mg, 6),
-                "measurementAccuracy": f"{p.mass_u_mg:.2g} (standard uncertainty)",
-                "measurementUnit": "mg",
-                "measurementDeterminedDate": p.drilled_at.date().isoformat(),
-                "measurementDeterminedBy": p.drilled_by,
-                "measurementMethod": "mass by difference of two weighings",
-                "measurementRemarks": f"site: {p.site}" if p.site else None,
-            })  # fmt: skip
+            rows.append(
+                {
+                    "institutionCode": s.institution_code,
+                    "catalogNumber": s.catalog_number,
+                    "measurementID": p.public_id,
+                    "measurementType": f"mass of {p.tissue} removed by drilling",
+                    "measurementValue": round(p.mass_mg, 6),
+                    "measurementAccuracy": f"{p.mass_u_mg:.2g} (standard uncertainty)",
+                    "measurementUnit": "mg",
+                    "measurementDeterminedDate": p.drilled_at.date().isoformat(),
+                    "measurementDeterminedBy": p.drilled_by,
+                    "measurementMethod": "mass by difference of two weighings",
+                    "measurementRemarks": f"site: {p.site}" if p.site else None,
+                }
+            )
     for r in results(db, loan):
         institution, catalog = codes[r.specimen]
         delta = r.kind == "delta"
-        rows.append({
-            "institutionCode": institution, "catalogNumber": catalog,
-            "measurementID": f"{r.cut}/{r.session}/{r.ratio}",
-            "measurementType": (f"delta {r.ratio} ({r.scale} scale)" if delta
-                                else f"isotope ratio {r.ratio} (normalised to {r.scale})"),
-            "measurementValue": round(r.value, 6 if delta else 8),
-            "measurementAccuracy": None if r.two_sd is None else f"{r.two_sd:.3g} (2SD, n={r.n})",
-            "measurementUnit": "permil" if delta else "ratio",
-            "measurementDeterminedDate": r.determined_on.isoformat(),
-            "measurementDeterminedBy": r.determined_by,
-            "measurementMethod": f"MC-ICP-MS session {r.session}, standard-sample bracketing",
-            "measurementRemarks": "; ".join(r.flags) or None,
-        })  # fmt: skip
+        rows.append(
+            {
+                "institutionCode": institution,
+                "catalogNumber": catalog,
+                "measurementID": f"{r.cut}/{r.session}/{r.ratio}",
+                "measurementType": (
+                    f"delta {r.ratio} ({r.scale} scale)"
+                    if delta
+                    else f"isotope ratio {r.ratio} (normalised to {r.scale})"
+                ),
+                "measurementValue": round(r.value, 6 if delta else 8),
+                "measurementAccuracy": None
+                if r.two_sd is None
+                else f"{r.two_sd:.3g} (2SD, n={r.n})",
+                "measurementUnit": "permil" if delta else "ratio",
+                "measurementDeterminedDate": r.determined_on.isoformat(),
+                "measurementDeterminedBy": r.determined_by,
+                "measurementMethod": f"MC-ICP-MS session {r.session}, standard-sample bracketing",
+                "measurementRemarks": "; ".join(r.flags) or None,
+            }
+        )
     return MEASUREMENT_TERMS, rows
 
 

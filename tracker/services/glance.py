@@ -78,8 +78,10 @@ def read_glance(path: Path, today: date) -> Glance | None:
         revision = connection.execute("SELECT version_num FROM alembic_version").fetchall()
         if revision != [(glance_sql.HEAD,)]:
             return None  # an older (or newer) schema: the services will deal with it
-        rows = {name: connection.execute(getattr(glance_sql, name)).fetchall()
-                for name in ("LOANS", "TERMS", "TOTALS", "MISSING")}  # fmt: skip
+        rows = {
+            name: connection.execute(getattr(glance_sql, name)).fetchall()
+            for name in ("LOANS", "TERMS", "TOTALS", "MISSING")
+        }
     except sqlite3.Error:
         return None
     finally:
@@ -93,17 +95,27 @@ def read_glance(path: Path, today: date) -> Glance | None:
 def _glance(rows: dict[str, list[Any]], today: date) -> Glance:
     versions: dict[int, list[_Version]] = defaultdict(list)
     for loan_id, version, effective, tissues, per, total, count, due, powder in rows["TERMS"]:
-        terms = Terms(version, json.loads(tissues), per, total, count, date.fromisoformat(due),
-                      Disposition(powder))  # fmt: skip
+        terms = Terms(
+            version,
+            json.loads(tissues),
+            per,
+            total,
+            count,
+            date.fromisoformat(due),
+            Disposition(powder),
+        )
         versions[loan_id].append(_Version(version, date.fromisoformat(effective), terms))
     totals = dict(totals_from_row(row) for row in rows["TOTALS"])
     lines = []
     for loan_id, reference, status, lender, code in rows["LOANS"]:
         facts = LoanFacts(
-            id=format_id(Kind.LOAN, loan_id), reference=reference, status=LoanStatus(status),
-            lender=lender, lender_code=code or lender,
+            id=format_id(Kind.LOAN, loan_id),
+            reference=reference,
+            status=LoanStatus(status),
+            lender=lender,
+            lender_code=code or lender,
             terms=terms_in_force(versions[loan_id], today).terms,
-        )  # fmt: skip
+        )
         lines.append(overview_line(facts, today, totals.get(loan_id, NO_TOTALS)))
     missing = {format_id(Kind.LOAN, loan): int(n) for loan, n in rows["MISSING"]}
     return Glance(sorted(lines, key=urgency), missing)

@@ -164,14 +164,21 @@ def _import(
     _refuse_repeat(uow, request)
     rows = _read(request, profile)
     session = InstrumentSession(
-        name=request.name, instrument=request.instrument, element=request.element,
+        name=request.name,
+        instrument=request.instrument,
+        element=request.element,
         started_at=action_time(uow, request.started_at, "started-at"),
-        operator=uow.operator.code, bracketing_standard=request.bracketing_standard,
-        mode=request.mode, ratio_names=list(profile.columns.ratios),
-        standard_values=request.standard_values, source_filename=request.filename,
+        operator=uow.operator.code,
+        bracketing_standard=request.bracketing_standard,
+        mode=request.mode,
+        ratio_names=list(profile.columns.ratios),
+        standard_values=request.standard_values,
+        source_filename=request.filename,
         source_sha256=hashlib.sha256(request.content).hexdigest(),
-        profile_name=request.profile, flags=[], created_at=uow.now,
-    )  # fmt: skip
+        profile_name=request.profile,
+        flags=[],
+        created_at=uow.now,
+    )
     uow.session.add(session)
     matcher = Matcher(uow.session, request.bracketing_standard, request.element)
     unmatched: list[UnmatchedRow] = []
@@ -211,9 +218,10 @@ def _refuse_repeat(uow: UnitOfWork, request: ImportSession) -> None:
     ).first()
     if earlier is not None:
         raise RuleViolation(
-            "FILE", request.filename,
+            "FILE",
+            request.filename,
             f"was imported already as {earlier.public_id} ({earlier.name!r}); nothing to do",
-        )  # fmt: skip
+        )
 
 
 def _require_standard_values(request: ImportSession, profile: ProfileDefinition) -> None:

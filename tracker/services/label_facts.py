@@ -48,8 +48,16 @@ Labelled = (
     | Location
 )
 LABELLED = (
-    Specimen, Powder, Solution, Aliquot, BatchPosition, Cut, ReferenceMaterial, Shipment, Location,
-)  # fmt: skip
+    Specimen,
+    Powder,
+    Solution,
+    Aliquot,
+    BatchPosition,
+    Cut,
+    ReferenceMaterial,
+    Shipment,
+    Location,
+)
 LABELLED_KINDS = (
     "specimens, powders, solutions, aliquots, column positions, cuts, "
     "reference materials, shipments and locations"
@@ -62,12 +70,17 @@ _PARENTS: dict[type[Any], list[Any]] = {
     Powder: [selectinload(Powder.specimen)],
     Solution: [selectinload(Solution.powder)],
     Aliquot: [selectinload(Aliquot.solution)],
-    BatchPosition: [selectinload(BatchPosition.batch), selectinload(BatchPosition.aliquot),
-                    selectinload(BatchPosition.reference_material)],
-    Cut: [selectinload(Cut.position).selectinload(BatchPosition.batch),
-          selectinload(Cut.position).selectinload(BatchPosition.aliquot),
-          selectinload(Cut.position).selectinload(BatchPosition.reference_material)],
-}  # fmt: skip
+    BatchPosition: [
+        selectinload(BatchPosition.batch),
+        selectinload(BatchPosition.aliquot),
+        selectinload(BatchPosition.reference_material),
+    ],
+    Cut: [
+        selectinload(Cut.position).selectinload(BatchPosition.batch),
+        selectinload(Cut.position).selectinload(BatchPosition.aliquot),
+        selectinload(Cut.position).selectinload(BatchPosition.reference_material),
+    ],
+}
 
 
 def preload(session: Session, refs: Iterable[str]) -> None:

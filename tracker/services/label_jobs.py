@@ -49,10 +49,17 @@ class JobView(View):
     @classmethod
     def of(cls, job: LabelJob, items: list[str]) -> JobView:
         return cls(
-            id=job.public_id, kind=job.kind.value, stock=job.stock, start=job.start,
-            labels=job.labels, pages=job.pages, sha256=job.sha256, items=items,
-            printer=job.printer, reason=job.reason,
-        )  # fmt: skip
+            id=job.public_id,
+            kind=job.kind.value,
+            stock=job.stock,
+            start=job.start,
+            labels=job.labels,
+            pages=job.pages,
+            sha256=job.sha256,
+            items=items,
+            printer=job.printer,
+            reason=job.reason,
+        )
 
 
 class PrintQueue(Request):
@@ -111,10 +118,17 @@ def _render_job(
 ) -> LabelJob:
     """Create the job (its ID goes into the document), render, and keep the document's hash."""
     job = LabelJob(
-        kind=kind, stock=request.stock, start=request.start, labels=len(items), pages=0,
-        sha256="", printer=request.printer, reason=getattr(request, "reason", None),
-        operator=uow.operator.code, created_at=uow.now,
-    )  # fmt: skip
+        kind=kind,
+        stock=request.stock,
+        start=request.start,
+        labels=len(items),
+        pages=0,
+        sha256="",
+        printer=request.printer,
+        reason=getattr(request, "reason", None),
+        operator=uow.operator.code,
+        created_at=uow.now,
+    )
     uow.session.add(job)
     uow.session.flush()
     facts = tuple(facts_of(uow.session, item) for item in items)
@@ -129,9 +143,15 @@ def _finish_job(
 ) -> Done[JobView]:
     ids = [item.public_id for item in items]
     payload: dict[str, Any] = {
-        "kind": job.kind.value, "items": ids, "stock": job.stock, "start": job.start,
-        "pages": job.pages, "sha256": job.sha256, "printer": job.printer, "reason": job.reason,
-    }  # fmt: skip
+        "kind": job.kind.value,
+        "items": ids,
+        "stock": job.stock,
+        "start": job.start,
+        "pages": job.pages,
+        "sha256": job.sha256,
+        "printer": job.printer,
+        "reason": job.reason,
+    }
     action = "labels.printed" if job.kind is LabelJobKind.PRINT else "labels.reprinted"
     uow.mention(*ids)
     return finish(uow, action, job, payload, lambda: JobView.of(job, ids))

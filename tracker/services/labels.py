@@ -263,4 +263,4 @@ def read_scan(db: Database, scanned: str) -> ScanView:
             location=location.path if location is not None else None,
             label=lines,
             ancestors=[f"{a.public_id} {label_of(a)}" for a in ancestors_of(row)],
-        )  # fmt: skip
+        )

@@ -215,11 +215,18 @@ def _cut_facts(row: Cut) -> dict[str, Any]:
     if ratio is not None:
         facts |= {"yield": ratio.value, "yield_u": ratio.u}
     facts["results"] = [
-        {"session": format_id(Kind.INSTRUMENT_SESSION, r.session_id), "ratio": r.ratio,
-         "kind": r.kind, "value": r.delta_permil, "scale": r.scale, "n": r.n,
-         "two_sd": None if r.sd_permil is None else 2 * r.sd_permil, "flags": list(r.flags)}
+        {
+            "session": format_id(Kind.INSTRUMENT_SESSION, r.session_id),
+            "ratio": r.ratio,
+            "kind": r.kind,
+            "value": r.delta_permil,
+            "scale": r.scale,
+            "n": r.n,
+            "two_sd": None if r.sd_permil is None else 2 * r.sd_permil,
+            "flags": list(r.flags),
+        }
         for r in row.results
-    ]  # fmt: skip
+    ]
     return facts
 
 

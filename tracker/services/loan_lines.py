@@ -66,11 +66,15 @@ def loan_line(
     shown = asdict(overview_line(loan, today, totals))
     terms = loan.terms
     return LoanLine(
-        **shown, lender=loan.lender, terms_version=terms.version,
+        **shown,
+        lender=loan.lender,
+        terms_version=terms.version,
         permitted_tissues=list(terms.permitted_tissues),
         max_mass_per_specimen_mg=terms.max_mass_per_specimen_mg,
         max_specimens_sampled=terms.max_specimens_sampled,
-        drilled_u_mg=math.sqrt(totals.variance), dissolved_mg=totals.dissolved,
-        powder_on_hand_mg=totals.powder_on_hand, powder_returned_mg=totals.returned,
+        drilled_u_mg=math.sqrt(totals.variance),
+        dissolved_mg=totals.dissolved,
+        powder_on_hand_mg=totals.powder_on_hand,
+        powder_returned_mg=totals.returned,
         specimen_lines=specimen_lines or [],
-    )  # fmt: skip
+    )

@@ -109,13 +109,20 @@ def overview_line(loan: LoanFacts, today: date, totals: Totals) -> OverviewLine:
     """A loan judged on ``today``: its allowance used, days left and flags."""
     terms, used = loan.terms, used_fraction(loan.terms, totals)
     return OverviewLine(
-        id=loan.id, reference=loan.reference, lender_code=loan.lender_code,
-        status=loan.status.value, drilled_mg=totals.drilled,
-        max_total_mass_mg=terms.max_total_mass_mg, used_fraction=used, due_on=terms.due_on,
-        days_left=(terms.due_on - today).days, sampled=totals.sampled,
-        specimens=totals.specimens, on_hand=totals.on_hand,
+        id=loan.id,
+        reference=loan.reference,
+        lender_code=loan.lender_code,
+        status=loan.status.value,
+        drilled_mg=totals.drilled,
+        max_total_mass_mg=terms.max_total_mass_mg,
+        used_fraction=used,
+        due_on=terms.due_on,
+        days_left=(terms.due_on - today).days,
+        sampled=totals.sampled,
+        specimens=totals.specimens,
+        on_hand=totals.on_hand,
         flags=loan_flags(loan, today, totals, used),
-    )  # fmt: skip
+    )
 
 
 def loan_flags(loan: LoanFacts, today: date, totals: Totals, used: float | None) -> list[str]:
@@ -151,12 +158,38 @@ def urgency(line: Ranked) -> tuple[int, int, int, float]:
 def totals_from_row(row: Sequence[Any]) -> tuple[int, Totals]:
     """A loan's ID and totals from one row of the grouped statement over its specimens'
     books (reconcile's ``_totals_statement``), however that row was read."""
-    (loan, count, holding, sampled, drilled, variance, dissolved, on_hand, returned, most,
-     override, unaccounted, missing, powder_left) = row  # fmt: skip
-    flags = {"override used": override, "unaccounted material": unaccounted,
-             "missing weighing": missing}  # fmt: skip
+    (
+        loan,
+        count,
+        holding,
+        sampled,
+        drilled,
+        variance,
+        dissolved,
+        on_hand,
+        returned,
+        most,
+        override,
+        unaccounted,
+        missing,
+        powder_left,
+    ) = row
+    flags = {
+        "override used": override,
+        "unaccounted material": unaccounted,
+        "missing weighing": missing,
+    }
     totals = Totals(
-        count, holding, sampled, drilled, variance, dissolved, on_hand, returned, most,
-        frozenset(name for name, seen in flags.items() if seen), bool(powder_left),
-    )  # fmt: skip
+        count,
+        holding,
+        sampled,
+        drilled,
+        variance,
+        dissolved,
+        on_hand,
+        returned,
+        most,
+        frozenset(name for name, seen in flags.items() if seen),
+        bool(powder_left),
+    )
     return loan, totals

@@ -117,9 +117,15 @@ class _Columns:
             texts=[(t, TERM_FIELDS[t]) for t in terms if t in TERM_FIELDS],
             ages=[(t, OWN_FIELDS[t]) for t in terms if t in OWN_FIELDS],
             extras=[t for t in terms if t not in TERM_FIELDS and t not in OWN_FIELDS],
-            keys=["extra", *(TERM_FIELDS.get(t) or OWN_FIELDS[t] for t in terms
-                             if t in TERM_FIELDS or t in OWN_FIELDS)],
-        )  # fmt: skip
+            keys=[
+                "extra",
+                *(
+                    TERM_FIELDS.get(t) or OWN_FIELDS[t]
+                    for t in terms
+                    if t in TERM_FIELDS or t in OWN_FIELDS
+                ),
+            ],
+        )
 
 
 # A cell after the first that starts like a formula, in cells joined by NUL (a literal
@@ -287,15 +293,24 @@ def _result(
 ) -> dict[str, Any]:
     """A row's result, as the fields of its RowResult."""
     if problems or fields is None:
-        return {"row": number, "catalog_number": catalog or None, "action": "error",
-                "problems": problems}  # fmt: skip
+        return {
+            "row": number,
+            "catalog_number": catalog or None,
+            "action": "error",
+            "problems": problems,
+        }
     current = existing.get(catalog)
     if current is None:
         return {"row": number, "catalog_number": catalog, "action": "create", "problems": []}
     changes = _changes(current, fields)
     action = "update" if changes else "unchanged"
-    return {"row": number, "catalog_number": catalog, "action": action, "problems": [],
-            "changes": changes}  # fmt: skip
+    return {
+        "row": number,
+        "catalog_number": catalog,
+        "action": action,
+        "problems": [],
+        "changes": changes,
+    }
 
 
 def _changes(current: Specimen, fields: Fields) -> dict[str, list[Any]]:

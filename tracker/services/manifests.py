@@ -206,10 +206,16 @@ def _first_problem(filename: str, preview: ManifestPreview, of_headings: list[st
     else:
         where, said = f"{filename}, row {first.row}", first.problems[:1]
     return InputError(
-        where, None,
-        "; ".join([*said, f"the file has {preview.problems} problem(s); see the preview, "
-                   "fix the file and import again (nothing was written)"]),
-    )  # fmt: skip
+        where,
+        None,
+        "; ".join(
+            [
+                *said,
+                f"the file has {preview.problems} problem(s); see the preview, "
+                "fix the file and import again (nothing was written)",
+            ]
+        ),
+    )
 
 
 def _mapping(session: Session, name: str | None) -> ManifestMapping:
@@ -286,11 +292,16 @@ def _examine(session: Session, request: ManifestRequest) -> _Examined:
     problems = sum(len(r.problems) for r in results) + (len(file_problem) if not rows else 0)
     tally = Counter(r.action for r in results)
     preview = ManifestPreview(
-        loan=loan.reference, file=request.filename,
-        sha256=hashlib.sha256(request.content).hexdigest(), rows=results,
-        create=tally["create"], update=tally["update"], unchanged=tally["unchanged"],
-        problems=problems, kept_as_extra=extra,
-    )  # fmt: skip
+        loan=loan.reference,
+        file=request.filename,
+        sha256=hashlib.sha256(request.content).hexdigest(),
+        rows=results,
+        create=tally["create"],
+        update=tally["update"],
+        unchanged=tally["unchanged"],
+        problems=problems,
+        kept_as_extra=extra,
+    )
     return _Examined(loan, preview, file_problem, existing, fields)
 
 

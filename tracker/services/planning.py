@@ -120,12 +120,16 @@ def plan(db: Database, data: PlanRequest | Raw) -> Plan:
         )
         lines = [walk.plan(specimen) for specimen in targets]
         return Plan(
-            loan=loan.reference, material=material.name, tissue=tissue,
+            loan=loan.reference,
+            material=material.name,
+            tissue=tissue,
             terms_version=terms.version,
             total_to_drill_mg=sum(x.to_drill_mg for x in lines if x.feasible),
-            loan_remaining_before_mg=before, loan_remaining_after_mg=budget.total_left,
-            specimens=lines, not_feasible=[x.id for x in lines if not x.feasible],
-        )  # fmt: skip
+            loan_remaining_before_mg=before,
+            loan_remaining_after_mg=budget.total_left,
+            specimens=lines,
+            not_feasible=[x.id for x in lines if not x.feasible],
+        )
 
 
 def _targets(session: object, target: str) -> tuple[Loan, list[Specimen]]:
@@ -182,12 +186,17 @@ class _Walk:
             if self.budget.count_left is not None and not specimen.powders:
                 self.budget.count_left -= 1
         return SpecimenPlan(
-            id=specimen.public_id, catalog_number=specimen.catalog_number,
-            element_needed_ug=self.needed_ug, mass_fraction_low=self.span[0],
-            mass_fraction_high=self.span[1], powder_needed_mg=self.powder_mg,
-            powder_on_hand_mg=on_hand, to_drill_mg=to_drill, feasible=feasible,
+            id=specimen.public_id,
+            catalog_number=specimen.catalog_number,
+            element_needed_ug=self.needed_ug,
+            mass_fraction_low=self.span[0],
+            mass_fraction_high=self.span[1],
+            powder_needed_mg=self.powder_mg,
+            powder_on_hand_mg=on_hand,
+            to_drill_mg=to_drill,
+            feasible=feasible,
             reason=reason or ("enough powder or solution on hand" if to_drill == 0 else "ok"),
-        )  # fmt: skip
+        )
 
     def why_not(self, specimen: Specimen, to_drill: float) -> str:
         """Empty when the drill fits every term; else the first term it breaks, in words."""

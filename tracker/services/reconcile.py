@@ -105,8 +105,19 @@ def _totals_of(books: list[_Books]) -> Totals:
         sampled += b.powders > 0
         flags |= b.flags
     flags.discard("powder on hand")
-    return Totals(len(books), holding, sampled, drilled, variance, dissolved, on_hand, returned,
-                   most, frozenset(flags), any(b.on_hand > 0 for b in books))  # fmt: skip
+    return Totals(
+        len(books),
+        holding,
+        sampled,
+        drilled,
+        variance,
+        dissolved,
+        on_hand,
+        returned,
+        most,
+        frozenset(flags),
+        any(b.on_hand > 0 for b in books),
+    )
 
 
 def reconcile(
@@ -130,8 +141,10 @@ def reconcile(
         scope = _Scope(loans[0].id if loan is not None and loans else None, open_only)
         if specimens:
             books = _books(session, scope)
-            lines = [_loan_line(row, today, _totals_of(books.get(row.id, [])),
-                                books.get(row.id, [])) for row in loans]  # fmt: skip
+            lines = [
+                _loan_line(row, today, _totals_of(books.get(row.id, [])), books.get(row.id, []))
+                for row in loans
+            ]
         else:
             totals = _loan_totals(session, scope)
             lines = [_loan_line(row, today, totals.get(row.id, NO_TOTALS)) for row in loans]
@@ -150,9 +163,12 @@ def _solution_books(scope: _Scope) -> Any:
     max(k·u, the balances' rounding bound), compared in squares (SQLite has no sqrt).
     """
     powders = scope.powders()
-    aliquots = select(Aliquot.solution_id.label("sid"), func.sum(Aliquot.mass_g).label("mass"),
-                      func.sum(Aliquot.mass_u_g * Aliquot.mass_u_g).label("var"),
-                      func.sum(Aliquot.mass_u_g).label("u_sum"))  # fmt: skip
+    aliquots = select(
+        Aliquot.solution_id.label("sid"),
+        func.sum(Aliquot.mass_g).label("mass"),
+        func.sum(Aliquot.mass_u_g * Aliquot.mass_u_g).label("var"),
+        func.sum(Aliquot.mass_u_g).label("u_sum"),
+    )
     if powders is not None:
         solutions = select(Solution.id).where(Solution.powder_id.in_(powders))
         aliquots = aliquots.where(Aliquot.solution_id.in_(solutions))
@@ -172,8 +188,11 @@ def _solution_books(scope: _Scope) -> Any:
         + func.coalesce(taken.c.u_sum, 0.0)
         + func.coalesce(Solution.residual_u_g, 0.0)
     )
-    off = and_(Solution.status.in_(_CLOSED), _beyond(gap * gap, COVERAGE_FACTOR**2 * variance),
-               _beyond(gap * gap, bound * bound))  # fmt: skip
+    off = and_(
+        Solution.status.in_(_CLOSED),
+        _beyond(gap * gap, COVERAGE_FACTOR**2 * variance),
+        _beyond(gap * gap, bound * bound),
+    )
     books = (
         select(
             Solution.powder_id.label("powder_id"),
@@ -221,20 +240,22 @@ def _per_powder(scope: _Scope) -> Select[Any]:
         Powder.residual_mg.is_(None),
         _beyond(gap * gap, bound * bound),
     )
-    rows = (
-        select(
-            Powder.specimen_id, Powder.mass_mg, Powder.mass_u_mg, dissolved.label("dissolved"),
-            case((Powder.status == _OPEN, Powder.mass_mg - dissolved), else_=0.0).label("on_hand"),
-            case((Powder.status == "returned", func.coalesce(Powder.residual_mg, gap + residual)),
-                 else_=0.0).label("returned"),
-            case((Powder.override_reason.is_not(None), 1), else_=0).label("override"),
-            case((and_(closed, outside, ~unweighed), 1), else_=0).label("unaccounted"),
-            case((unweighed, 1), else_=0).label("unweighed"),
-            func.coalesce(taken.c.lost, 0).label("solution_lost"),
-            func.coalesce(taken.c.gap, 0).label("solution_gap"),
-        )
-        .outerjoin(taken, taken.c.powder_id == Powder.id)
-    )  # fmt: skip
+    rows = select(
+        Powder.specimen_id,
+        Powder.mass_mg,
+        Powder.mass_u_mg,
+        dissolved.label("dissolved"),
+        case((Powder.status == _OPEN, Powder.mass_mg - dissolved), else_=0.0).label("on_hand"),
+        case(
+            (Powder.status == "returned", func.coalesce(Powder.residual_mg, gap + residual)),
+            else_=0.0,
+        ).label("returned"),
+        case((Powder.override_reason.is_not(None), 1), else_=0).label("override"),
+        case((and_(closed, outside, ~unweighed), 1), else_=0).label("unaccounted"),
+        case((unweighed, 1), else_=0).label("unweighed"),
+        func.coalesce(taken.c.lost, 0).label("solution_lost"),
+        func.coalesce(taken.c.gap, 0).label("solution_gap"),
+    ).outerjoin(taken, taken.c.powder_id == Powder.id)
     mine = scope.specimens()
     return rows if mine is None else rows.where(Powder.specimen_id.in_(mine))
 
@@ -265,14 +286,20 @@ def _totals_statement(scope: _Scope) -> Select[Any]:
     """One row per loan in scope: the columns :func:`totals_from_row` reads, in its order."""
     ps = _per_specimen(scope).subquery()
     query = select(
-        ps.c.loan_id, func.count(), _count(ps.c.status == SpecimenStatus.ON_HAND),
+        ps.c.loan_id,
+        func.count(),
+        _count(ps.c.status == SpecimenStatus.ON_HAND),
         _count(ps.c.powders > 0),
-        *(func.sum(func.coalesce(ps.c[name], 0.0))
-          for name in ("mass", "var", "dissolved", "on_hand", "returned")),
-        func.max(func.coalesce(ps.c.mass, 0.0)), _count(ps.c.override > 0),
+        *(
+            func.sum(func.coalesce(ps.c[name], 0.0))
+            for name in ("mass", "var", "dissolved", "on_hand", "returned")
+        ),
+        func.max(func.coalesce(ps.c.mass, 0.0)),
+        _count(ps.c.override > 0),
         _count((ps.c.unaccounted > 0) | (ps.c.gap > 0)),
-        _count((ps.c.unweighed > 0) | (ps.c.lost > 0)), _count(ps.c.on_hand > 0),
-    ).group_by(ps.c.loan_id)  # fmt: skip
+        _count((ps.c.unweighed > 0) | (ps.c.lost > 0)),
+        _count(ps.c.on_hand > 0),
+    ).group_by(ps.c.loan_id)
     return query
 
 
@@ -284,25 +311,48 @@ def _count(condition: Any) -> Any:
 def _per_specimen(scope: _Scope) -> Select[Any]:
     """One row per specimen (of the loans in scope): its powders' sums and flag counts."""
     per = _per_powder(scope).subquery()
-    sums = select(
-        per.c.specimen_id, func.count().label("powders"), func.sum(per.c.mass_mg).label("mass"),
-        func.sum(per.c.mass_u_mg * per.c.mass_u_mg).label("var"),
-        func.sum(per.c.dissolved).label("dissolved"), func.sum(per.c.on_hand).label("on_hand"),
-        func.sum(per.c.returned).label("returned"), func.sum(per.c.override).label("override"),
-        func.sum(per.c.unaccounted).label("unaccounted"),
-        func.sum(per.c.unweighed).label("unweighed"),
-        func.sum(per.c.solution_lost).label("lost"), func.sum(per.c.solution_gap).label("gap"),
-    ).group_by(per.c.specimen_id).subquery()  # fmt: skip
+    sums = (
+        select(
+            per.c.specimen_id,
+            func.count().label("powders"),
+            func.sum(per.c.mass_mg).label("mass"),
+            func.sum(per.c.mass_u_mg * per.c.mass_u_mg).label("var"),
+            func.sum(per.c.dissolved).label("dissolved"),
+            func.sum(per.c.on_hand).label("on_hand"),
+            func.sum(per.c.returned).label("returned"),
+            func.sum(per.c.override).label("override"),
+            func.sum(per.c.unaccounted).label("unaccounted"),
+            func.sum(per.c.unweighed).label("unweighed"),
+            func.sum(per.c.solution_lost).label("lost"),
+            func.sum(per.c.solution_gap).label("gap"),
+        )
+        .group_by(per.c.specimen_id)
+        .subquery()
+    )
     query = select(
-        Specimen.id, Specimen.loan_id, Specimen.catalog_number, Specimen.status,
+        Specimen.id,
+        Specimen.loan_id,
+        Specimen.catalog_number,
+        Specimen.status,
         *(sums.c[name] for name in _SUM_COLUMNS),
-    ).outerjoin(sums, sums.c.specimen_id == Specimen.id)  # fmt: skip
+    ).outerjoin(sums, sums.c.specimen_id == Specimen.id)
     mine = scope.specimens()
     return query if mine is None else query.where(Specimen.id.in_(mine))
 
 
-_SUM_COLUMNS = ("powders", "mass", "var", "dissolved", "on_hand", "returned", "override",
-                "unaccounted", "unweighed", "lost", "gap")  # fmt: skip
+_SUM_COLUMNS = (
+    "powders",
+    "mass",
+    "var",
+    "dissolved",
+    "on_hand",
+    "returned",
+    "override",
+    "unaccounted",
+    "unweighed",
+    "lost",
+    "gap",
+)
 _NO_FLAGS: frozenset[str] = frozenset()
 
 
@@ -323,8 +373,9 @@ def _books_of(row: Any) -> _Books:
         if on_hand > 0 and status is not SpecimenStatus.EXPECTED:
             found.add("powder on hand")
         flags = frozenset(found)
-    return _Books(specimen, loan_id, catalog, status, powders, mass, var, dissolved, on_hand,
-                  returned, flags)  # fmt: skip
+    return _Books(
+        specimen, loan_id, catalog, status, powders, mass, var, dissolved, on_hand, returned, flags
+    )
 
 
 def _loan_line(
@@ -333,12 +384,21 @@ def _loan_line(
     """A loan's line from its totals; with its specimens' lines when their books are given."""
     terms = terms_in_force(loan.terms, today)
     facts = LoanFacts(
-        id=loan.public_id, reference=loan.reference, status=loan.status,
-        lender=loan.lender.name, lender_code=loan.lender.institution_code or loan.lender.name,
-        terms=Terms(terms.version, list(terms.permitted_tissues), terms.max_mass_per_specimen_mg,
-                    terms.max_total_mass_mg, terms.max_specimens_sampled, terms.due_on,
-                    terms.powder_disposition),
-    )  # fmt: skip
+        id=loan.public_id,
+        reference=loan.reference,
+        status=loan.status,
+        lender=loan.lender.name,
+        lender_code=loan.lender.institution_code or loan.lender.name,
+        terms=Terms(
+            terms.version,
+            list(terms.permitted_tissues),
+            terms.max_mass_per_specimen_mg,
+            terms.max_total_mass_mg,
+            terms.max_specimens_sampled,
+            terms.due_on,
+            terms.powder_disposition,
+        ),
+    )
     permitted = terms.max_mass_per_specimen_mg
     lines = _SPECIMEN_LINES.validate_python(
         [_specimen_line(b, _specimen_flags(b, permitted), permitted) for b in books or []]
@@ -359,9 +419,15 @@ _SPECIMEN_LINES = TypeAdapter(list[SpecimenLine])
 
 def _specimen_line(books: _Books, flags: frozenset[str], permitted: float | None) -> dict[str, Any]:
     return {
-        "id": format_id(Kind.SPECIMEN, books.id), "catalog_number": books.catalog_number,
-        "status": books.status.value, "powders": books.powders, "drilled_mg": books.drilled,
-        "drilled_u_mg": math.sqrt(books.variance), "permitted_mg": permitted,
-        "dissolved_mg": books.dissolved, "powder_on_hand_mg": books.on_hand,
-        "powder_returned_mg": books.returned, "flags": sorted(flags),
-    }  # fmt: skip
+        "id": format_id(Kind.SPECIMEN, books.id),
+        "catalog_number": books.catalog_number,
+        "status": books.status.value,
+        "powders": books.powders,
+        "drilled_mg": books.drilled,
+        "drilled_u_mg": math.sqrt(books.variance),
+        "permitted_mg": permitted,
+        "dissolved_mg": books.dissolved,
+        "powder_on_hand_mg": books.on_hand,
+        "powder_returned_mg": books.returned,
+        "flags": sorted(flags),
+    }

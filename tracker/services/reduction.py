@@ -212,12 +212,21 @@ def _result(
     row.delta_permil, row.blank_corrected = value, corrected
     passed = None if accepted is None else abs(value - accepted.value) <= accepted.two_sd
     line = ResultLine(
-        target=_public(kind, key), kind=_KINDS[kind], label=label, ratio=ratio, value=value,
-        sd=stats.sd, two_sd=stats.two_sd, two_se=stats.two_se, n=stats.n,
+        target=_public(kind, key),
+        kind=_KINDS[kind],
+        label=label,
+        ratio=ratio,
+        value=value,
+        sd=stats.sd,
+        two_sd=stats.two_sd,
+        two_se=stats.two_se,
+        n=stats.n,
         accepted=accepted.value if accepted else None,
-        accepted_two_sd=accepted.two_sd if accepted else None, passed=passed,
-        blank_corrected=corrected, flags=flags + (["failed acceptance"] if passed is False else []),
-    )  # fmt: skip
+        accepted_two_sd=accepted.two_sd if accepted else None,
+        passed=passed,
+        blank_corrected=corrected,
+        flags=flags + (["failed acceptance"] if passed is False else []),
+    )
     return line, row
 
 
@@ -254,12 +263,15 @@ def _accepted(
 ) -> ReferenceValue | None:
     query = (
         select(ReferenceValue)
-        .where(ReferenceValue.reference_material_id == material_id, ReferenceValue.ratio == ratio,
-               ReferenceValue.scale == session.bracketing_standard,
-               ReferenceValue.kind == session.mode)
+        .where(
+            ReferenceValue.reference_material_id == material_id,
+            ReferenceValue.ratio == ratio,
+            ReferenceValue.scale == session.bracketing_standard,
+            ReferenceValue.kind == session.mode,
+        )
         .order_by(ReferenceValue.id.desc())
         .limit(1)
-    )  # fmt: skip
+    )
     return sql.scalars(query).first()
 
 
@@ -332,24 +344,36 @@ def session_detail(db: Database, ref: str) -> SessionDetail:
         session = get_by_id(sql, InstrumentSession, "session", ref)
         reasons = _import_reasons(sql, session.public_id)
         unmatched = [
-            UnmatchedLine(run_order=m.run_order, sample_name=m.sample_name,
-                          reason=reasons.get(m.run_order, "not matched"))
+            UnmatchedLine(
+                run_order=m.run_order,
+                sample_name=m.sample_name,
+                reason=reasons.get(m.run_order, "not matched"),
+            )
             for m in sorted(session.measurements, key=lambda m: m.run_order)
             if m.role is MeasurementRole.UNMATCHED
-        ]  # fmt: skip
+        ]
         rows = sql.scalars(
             select(Result).where(Result.session_id == session.id).order_by(Result.id)
         )
         lines = [_stored_line(sql, session, row) for row in rows]
         return SessionDetail(
-            id=session.public_id, name=session.name, instrument=session.instrument,
-            element=session.element, mode=session.mode, standard=session.bracketing_standard,
-            started_at=session.started_at, source_filename=session.source_filename,
-            profile=session.profile_name, ratios=list(session.ratio_names),
+            id=session.public_id,
+            name=session.name,
+            instrument=session.instrument,
+            element=session.element,
+            mode=session.mode,
+            standard=session.bracketing_standard,
+            started_at=session.started_at,
+            source_filename=session.source_filename,
+            profile=session.profile_name,
+            ratios=list(session.ratio_names),
             measurements=len(session.measurements),
             standards=sum(m.role is MeasurementRole.STANDARD for m in session.measurements),
-            unmatched=unmatched, results=lines, flags=list(session.flags), reduced=bool(lines),
-        )  # fmt: skip
+            unmatched=unmatched,
+            results=lines,
+            flags=list(session.flags),
+            reduced=bool(lines),
+        )
 
 
 def _import_reasons(sql: Session, public_id: str) -> dict[int, str]:
@@ -379,9 +403,18 @@ def _stored_line(sql: Session, session: InstrumentSession, row: Result) -> Resul
     passed = None if accepted is None else abs(row.delta_permil - accepted.value) <= accepted.two_sd
     sd = row.sd_permil
     return ResultLine(
-        target=_public(kind, key), kind=_KINDS[kind], label=label, ratio=row.ratio,
-        value=row.delta_permil, sd=sd, two_sd=None if sd is None else 2 * sd,
-        two_se=row.two_se_permil, n=row.n, accepted=accepted.value if accepted else None,
-        accepted_two_sd=accepted.two_sd if accepted else None, passed=passed,
-        blank_corrected=row.blank_corrected, flags=list(row.flags),
-    )  # fmt: skip
+        target=_public(kind, key),
+        kind=_KINDS[kind],
+        label=label,
+        ratio=row.ratio,
+        value=row.delta_permil,
+        sd=sd,
+        two_sd=None if sd is None else 2 * sd,
+        two_se=row.two_se_permil,
+        n=row.n,
+        accepted=accepted.value if accepted else None,
+        accepted_two_sd=accepted.two_sd if accepted else None,
+        passed=passed,
+        blank_corrected=row.blank_corrected,
+        flags=list(row.flags),
+    )

@@ -153,9 +153,18 @@ def build_return_report(db: Database, loan_ref: str) -> ReturnReport:
     head = verify(db)
     by_specimen: dict[str, list[ResultEntry]] = defaultdict(list)
     for r in results(db, loan_ref):
-        by_specimen[r.specimen].append(ResultEntry(
-            ratio=r.ratio, kind=r.kind, value=r.value, two_sd=r.two_sd, n=r.n, scale=r.scale,
-            session=r.session, flags=r.flags))  # fmt: skip
+        by_specimen[r.specimen].append(
+            ResultEntry(
+                ratio=r.ratio,
+                kind=r.kind,
+                value=r.value,
+                two_sd=r.two_sd,
+                n=r.n,
+                scale=r.scale,
+                session=r.session,
+                flags=r.flags,
+            )
+        )
     with db.read_session() as session:
         loan = _load(session, loan_ref)
         dispositions = _dispositions(session, loan)
@@ -167,30 +176,53 @@ def build_return_report(db: Database, loan_ref: str) -> ReturnReport:
         terms = terms_in_force(loan.terms, now.date())
         return ReturnReport(
             generated_at=now,
-            lender={"name": loan.lender.name, "institution_code": loan.lender.institution_code,
-                    "contact": loan.lender.contact_name, "email": loan.lender.contact_email},
-            loan={"id": loan.public_id, "reference": loan.reference, "title": loan.title,
-                  "borrower": loan.borrower, "status": loan.status.value,
-                  "received_on": loan.received_on, "due_on": terms.due_on,
-                  "returned_on": loan.returned_on},
+            lender={
+                "name": loan.lender.name,
+                "institution_code": loan.lender.institution_code,
+                "contact": loan.lender.contact_name,
+                "email": loan.lender.contact_email,
+            },
+            loan={
+                "id": loan.public_id,
+                "reference": loan.reference,
+                "title": loan.title,
+                "borrower": loan.borrower,
+                "status": loan.status.value,
+                "received_on": loan.received_on,
+                "due_on": terms.due_on,
+                "returned_on": loan.returned_on,
+            },
             terms_in_force=TermsView.of(terms),
             amendments=[TermsView.of(t) for t in loan.terms[1:]],
             documents=_documents(session, loan.id),
-            totals=totals.model_copy(update={"specimen_lines": []}), specimens=entries,
-            shipments=_shipments(session, loan.id), timeline=_timeline(session, loan),
+            totals=totals.model_copy(update={"specimen_lines": []}),
+            specimens=entries,
+            shipments=_shipments(session, loan.id),
+            timeline=_timeline(session, loan),
             flags=totals.flags,
-            ledger=LedgerHead(seq=head.head_seq, hash=head.head_hash, intact=head.ok,
-                              verify_command="tracker ledger verify"),
-        )  # fmt: skip
+            ledger=LedgerHead(
+                seq=head.head_seq,
+                hash=head.head_hash,
+                intact=head.ok,
+                verify_command="tracker ledger verify",
+            ),
+        )
 
 
 def _load(session: Session, loan_ref: str) -> Loan:
     loan = get_loan(session, "loan", loan_ref)
-    session.scalars(select(Loan).where(Loan.id == loan.id).options(
-        selectinload(Loan.terms), selectinload(Loan.lender),
-        selectinload(Loan.specimens).selectinload(Specimen.powders)
-        .selectinload(Powder.solutions).selectinload(Solution.aliquots),
-    )).one()  # fmt: skip
+    session.scalars(
+        select(Loan)
+        .where(Loan.id == loan.id)
+        .options(
+            selectinload(Loan.terms),
+            selectinload(Loan.lender),
+            selectinload(Loan.specimens)
+            .selectinload(Specimen.powders)
+            .selectinload(Powder.solutions)
+            .selectinload(Solution.aliquots),
+        )
+    ).one()
     return loan
 
 
@@ -233,17 +265,27 @@ def _specimen(
         for x in p.solutions
     ]
     return SpecimenEntry(
-        id=specimen.public_id, catalog_number=specimen.catalog_number,
-        institution_code=specimen.institution_code, scientific_name=specimen.scientific_name,
-        skeletal_element=specimen.skeletal_element, status=specimen.status.value,
-        sampled=bool(specimen.powders), condition_in=specimen.condition_in,
-        condition_out=specimen.condition_out, received_at=specimen.received_at,
+        id=specimen.public_id,
+        catalog_number=specimen.catalog_number,
+        institution_code=specimen.institution_code,
+        scientific_name=specimen.scientific_name,
+        skeletal_element=specimen.skeletal_element,
+        status=specimen.status.value,
+        sampled=bool(specimen.powders),
+        condition_in=specimen.condition_in,
+        condition_out=specimen.condition_out,
+        received_at=specimen.received_at,
         returned_at=specimen.returned_at,
         return_shipment=_shipment_id(specimen.return_shipment_id),
-        drilled_mg=line.drilled_mg, drilled_u_mg=line.drilled_u_mg,
-        permitted_mg=line.permitted_mg, powders=powders, solutions=solutions,
-        results=measured, photos=[], flags=line.flags,
-    )  # fmt: skip
+        drilled_mg=line.drilled_mg,
+        drilled_u_mg=line.drilled_u_mg,
+        permitted_mg=line.permitted_mg,
+        powders=powders,
+        solutions=solutions,
+        results=measured,
+        photos=[],
+        flags=line.flags,
+    )
 
 
 def _powder(powder: Powder, disposal: dict[str, Any]) -> PowderLine:
@@ -253,13 +295,20 @@ def _powder(powder: Powder, disposal: dict[str, Any]) -> PowderLine:
         else max(powder_remaining(powder).value, 0.0)
     )
     return PowderLine(
-        id=powder.public_id, tissue=powder.tissue, site=powder.site,
-        drilled_at=powder.drilled_at, drilled_by=powder.drilled_by, mass_mg=powder.mass_mg,
+        id=powder.public_id,
+        tissue=powder.tissue,
+        site=powder.site,
+        drilled_at=powder.drilled_at,
+        drilled_by=powder.drilled_by,
+        mass_mg=powder.mass_mg,
         mass_u_mg=powder.mass_u_mg,
-        dissolved_mg=sum(x.powder_mass_mg for x in powder.solutions), left_mg=left,
-        status=powder.status.value, shipment=_shipment_id(powder.return_shipment_id),
-        permission=disposal.get("permission"), override_reason=powder.override_reason,
-    )  # fmt: skip
+        dissolved_mg=sum(x.powder_mass_mg for x in powder.solutions),
+        left_mg=left,
+        status=powder.status.value,
+        shipment=_shipment_id(powder.return_shipment_id),
+        permission=disposal.get("permission"),
+        override_reason=powder.override_reason,
+    )
 
 
 def _shipment_id(number: int | None) -> str | None:
@@ -296,10 +345,14 @@ def _timeline(session: Session, loan: Loan) -> list[TimelineEntry]:
     solutions = [x for p in powders for x in p.solutions]
     refs += [p.public_id for p in powders] + [x.public_id for x in solutions]
     refs += [a.public_id for x in solutions for a in x.aliquots]
-    query = (select(CustodyEvent.action, func.count(), func.min(CustodyEvent.at),
-                    func.max(CustodyEvent.at))
-             .where((CustodyEvent.object_ref.in_(refs)) | (CustodyEvent.parent_ref.in_(refs)))
-             .group_by(CustodyEvent.action).order_by(func.min(CustodyEvent.at)))  # fmt: skip
+    query = (
+        select(
+            CustodyEvent.action, func.count(), func.min(CustodyEvent.at), func.max(CustodyEvent.at)
+        )
+        .where((CustodyEvent.object_ref.in_(refs)) | (CustodyEvent.parent_ref.in_(refs)))
+        .group_by(CustodyEvent.action)
+        .order_by(func.min(CustodyEvent.at))
+    )
     return [
         TimelineEntry(action=a, count=n, first=first, last=last)
         for a, n, first, last in session.execute(query)

@@ -82,17 +82,27 @@ def results(
         for result, cut, specimen, loan_row, run in session.execute(query):
             value, on, factor = _on_scale(session, result, scale)
             sd = None if result.sd_permil is None else result.sd_permil * factor
-            lines.append(SpecimenResult(
-                specimen=specimen.public_id, catalog_number=specimen.catalog_number,
-                loan=loan_row.reference, cut=cut.public_id, session=run.public_id,
-                ratio=result.ratio, kind=result.kind, value=value,
-                two_sd=None if sd is None else 2 * sd,
-                two_se=None if result.two_se_permil is None else result.two_se_permil * factor,
-                n=result.n,
-                scale=on, age_min_ma=specimen.age_min_ma, age_max_ma=specimen.age_max_ma,
-                determined_on=run.started_at.date(), determined_by=run.operator,
-                flags=list(result.flags),
-            ))  # fmt: skip
+            lines.append(
+                SpecimenResult(
+                    specimen=specimen.public_id,
+                    catalog_number=specimen.catalog_number,
+                    loan=loan_row.reference,
+                    cut=cut.public_id,
+                    session=run.public_id,
+                    ratio=result.ratio,
+                    kind=result.kind,
+                    value=value,
+                    two_sd=None if sd is None else 2 * sd,
+                    two_se=None if result.two_se_permil is None else result.two_se_permil * factor,
+                    n=result.n,
+                    scale=on,
+                    age_min_ma=specimen.age_min_ma,
+                    age_max_ma=specimen.age_max_ma,
+                    determined_on=run.started_at.date(),
+                    determined_by=run.operator,
+                    flags=list(result.flags),
+                )
+            )
         return lines
 
 
@@ -129,10 +139,15 @@ def accepted_value(
     rm = get_reference_material(session, "reference", material)
     return session.scalars(
         select(ReferenceValue)
-        .where(ReferenceValue.reference_material_id == rm.id, ReferenceValue.ratio == ratio,
-               ReferenceValue.scale == scale, ReferenceValue.kind == kind)
-        .order_by(ReferenceValue.id.desc()).limit(1)
-    ).first()  # fmt: skip
+        .where(
+            ReferenceValue.reference_material_id == rm.id,
+            ReferenceValue.ratio == ratio,
+            ReferenceValue.scale == scale,
+            ReferenceValue.kind == kind,
+        )
+        .order_by(ReferenceValue.id.desc())
+        .limit(1)
+    ).first()
 
 
 class NewReferenceValue(Request):

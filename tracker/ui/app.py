@@ -77,12 +77,13 @@ class TrackerApp(App[None]):
         Binding("c", "bench('checkin')", "Check in", id="bench.checkin", show=False),
         Binding("d", "bench('drill')", "Drill", id="bench.drill", show=False),
         Binding("s", "bench('dissolve')", "Dissolve", id="bench.dissolve", show=False),
-        Binding("k", "bench('concentration')", "Concentration", id="bench.concentration",
-                show=False),
+        Binding(
+            "k", "bench('concentration')", "Concentration", id="bench.concentration", show=False
+        ),
         Binding("a", "bench('aliquot')", "Aliquot", id="bench.aliquot", show=False),
         Binding("m", "bench('move')", "Move", id="bench.move", show=False),
         Binding("escape", "previous", "Back", id="app.previous", show=False),
-    ]  # fmt: skip
+    ]
 
     operator_label: reactive[str] = reactive("no operator yet")
     status_line: reactive[str] = reactive("")
@@ -389,8 +390,12 @@ class TrackerApp(App[None]):
 
     def on_scan_failed(self, event: ScanFailed) -> None:
         self.status_line = f"✗ scan {event.text.strip()!r}: {event.error.reason}"
-        self.notify(event.error.reason, title=f"✗ scan not understood: {event.text.strip()}",
-                    severity="error", timeout=8)  # fmt: skip
+        self.notify(
+            event.error.reason,
+            title=f"✗ scan not understood: {event.text.strip()}",
+            severity="error",
+            timeout=8,
+        )
 
 
 def bench_form(form: str, **values: str) -> Screen[None]:
@@ -404,10 +409,14 @@ def bench_form(form: str, **values: str) -> Screen[None]:
     from tracker.ui.screens.return_specimen import ReturnSpecimenScreen
 
     forms = {
-        "checkin": CheckInScreen, "drill": DrillScreen, "dissolve": DissolveScreen,
-        "concentration": ConcentrationScreen, "aliquot": AliquotScreen, "move": MoveScreen,
+        "checkin": CheckInScreen,
+        "drill": DrillScreen,
+        "dissolve": DissolveScreen,
+        "concentration": ConcentrationScreen,
+        "aliquot": AliquotScreen,
+        "move": MoveScreen,
         "return": ReturnSpecimenScreen,
-    }  # fmt: skip
+    }
     if form not in forms:
         raise InputError("form", form, f"is not one of {', '.join(forms)}")
     return forms[form](**values)
@@ -416,12 +425,21 @@ def bench_form(form: str, **values: str) -> Screen[None]:
 # Every action in the command palette: title, what it does, the action it runs.
 PALETTE: list[tuple[str, str, str]] = [
     ("Check in a specimen", "Scan a listed specimen as it arrives (key c)", "bench('checkin')"),
-    ("Drill a specimen", "Tare, gross, live allowance; refused over the limit (key d)",
-     "bench('drill')"),
-    ("Dissolve a powder", "Powder into acid, solution weighed by difference (key s)",
-     "bench('dissolve')"),
-    ("Record a concentration", "Element mass fraction of a solution (key k)",
-     "bench('concentration')"),
+    (
+        "Drill a specimen",
+        "Tare, gross, live allowance; refused over the limit (key d)",
+        "bench('drill')",
+    ),
+    (
+        "Dissolve a powder",
+        "Powder into acid, solution weighed by difference (key s)",
+        "bench('dissolve')",
+    ),
+    (
+        "Record a concentration",
+        "Element mass fraction of a solution (key k)",
+        "bench('concentration')",
+    ),
     ("Take an aliquot", "Weigh out part of a solution (key a)", "bench('aliquot')"),
     ("Move an item", "Scan an item and its new place (key m)", "bench('move')"),
     ("Return a specimen", "Send a specimen back to its lender", "bench('return')"),
@@ -434,4 +452,4 @@ PALETTE: list[tuple[str, str, str]] = [
     ("Help", "Keys and a walk through every task (F1)", "help"),
     ("Return report", "Open a loan, then R: the report for its lender", "return_report"),
     ("Import a manifest", "Open a loan, then I: the lender's specimen list", "manifest_import"),
-]  # fmt: skip
+]

@@ -60,8 +60,11 @@ class BatchScreen(Screen[None]):
     def compose(self) -> ComposeResult:
         yield OperatorBar("Column batch")
         yield Static("", id="batch-head")
-        yield IdField("Scan an aliquot to put it on the next column", name="aliquot",
-                      placeholder="scan an aliquot AQ- (Enter adds it)")  # fmt: skip
+        yield IdField(
+            "Scan an aliquot to put it on the next column",
+            name="aliquot",
+            placeholder="scan an aliquot AQ- (Enter adds it)",
+        )
         yield DataTable(id="batches", cursor_type="row", zebra_stripes=True)
         yield DataTable(id="positions", cursor_type="row", zebra_stripes=True)
         yield Static("", id="outcome")
@@ -72,8 +75,17 @@ class BatchScreen(Screen[None]):
         for label in ("Batch", "Name", "Element", "Date", "Columns"):
             batches.add_column(label)
         positions = self.query_one("#positions", DataTable)
-        for label in ("#", "Column", "Kind", "Holds", "Loaded µg", "Rec. µg", "Yield", "Blank",
-                      "Flags"):  # fmt: skip
+        for label in (
+            "#",
+            "Column",
+            "Kind",
+            "Holds",
+            "Loaded µg",
+            "Rec. µg",
+            "Yield",
+            "Blank",
+            "Flags",
+        ):
             positions.add_column(label)
         self.refresh_view()
 
@@ -135,10 +147,17 @@ class BatchScreen(Screen[None]):
         table.clear()
         for p in s.positions:
             table.add_row(
-                str(p.slot), p.id, p.kind, p.holds or "—", _num(p.loaded_ug, 2),
-                _num(p.recovered_ug, 3), _pct(p.yield_fraction, 1), _pct(p.blank_fraction, 2),
-                flag_text(p.flags), key=p.id,
-            )  # fmt: skip
+                str(p.slot),
+                p.id,
+                p.kind,
+                p.holds or "—",
+                _num(p.loaded_ug, 2),
+                _num(p.recovered_ug, 3),
+                _pct(p.yield_fraction, 1),
+                _pct(p.blank_fraction, 2),
+                flag_text(p.flags),
+                key=p.id,
+            )
         if table.row_count:
             table.move_cursor(row=min(keep, table.row_count - 1))
         self.query_one("#f-aliquot", Input).focus()
@@ -175,8 +194,11 @@ class BatchScreen(Screen[None]):
     def on_batch_screen_added(self, event: Added) -> None:
         p = event.done.item
         loaded = f" · loaded {p.loaded_ug:.2f} µg" if p.loaded_ug else ""
-        self._outcome(f"✓ column {p.slot} ({p.id}): {p.kind} {p.holds or ''}{loaded} · label "
-                      f"queued · event #{event.done.event_seq}", error=False)  # fmt: skip
+        self._outcome(
+            f"✓ column {p.slot} ({p.id}): {p.kind} {p.holds or ''}{loaded} · label "
+            f"queued · event #{event.done.event_seq}",
+            error=False,
+        )
         self.query_one("#f-aliquot", Input).value = ""
         if self.batch_id:
             self.load(self.batch_id)

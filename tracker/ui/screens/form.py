@@ -85,8 +85,9 @@ class FormScreen(Screen[None]):
             yield IdField(spec.label, name=spec.name, value=value, placeholder=spec.placeholder)
             return
         locked = spec.manager_only and not tracker_app(self).is_manager
-        yield Static(spec.label + ("  🔒 managers only" if spec.manager_only else ""),
-                     classes="field-label")  # fmt: skip
+        yield Static(
+            spec.label + ("  🔒 managers only" if spec.manager_only else ""), classes="field-label"
+        )
         yield Input(
             value,
             placeholder=(

@@ -24,9 +24,14 @@ from tracker.ui.widgets.operator_bar import OperatorBar
 
 # Which field of each bench form the item on screen fills.
 PREFILL = {
-    "checkin": "specimen", "drill": "specimen", "return": "specimen", "dissolve": "powder",
-    "concentration": "solution", "aliquot": "solution", "move": "item",
-}  # fmt: skip
+    "checkin": "specimen",
+    "drill": "specimen",
+    "return": "specimen",
+    "dissolve": "powder",
+    "concentration": "solution",
+    "aliquot": "solution",
+    "move": "item",
+}
 
 
 class ItemScreen(Screen[None]):
@@ -105,9 +110,13 @@ class ItemScreen(Screen[None]):
         history.clear()
         for e in reversed(detail.history):
             history.add_row(
-                str(e.seq), e.at.strftime("%Y-%m-%d %H:%M"), e.operator, e.action, e.object,
+                str(e.seq),
+                e.at.strftime("%Y-%m-%d %H:%M"),
+                e.operator,
+                e.action,
+                e.object,
                 e.parent,
-            )  # fmt: skip
+            )
 
     def on_refused(self, event: Refused) -> None:
         outcome = self.query_one("#outcome", Static)

@@ -56,12 +56,16 @@ class LabelsScreen(Screen[None]):
     def compose(self) -> ComposeResult:
         yield OperatorBar("Labels")
         with Horizontal(id="label-options"):
-            yield Select([(DEFAULT_STOCK, DEFAULT_STOCK)], value=DEFAULT_STOCK, id="stock",
-                         allow_blank=False)  # fmt: skip
+            yield Select(
+                [(DEFAULT_STOCK, DEFAULT_STOCK)], value=DEFAULT_STOCK, id="stock", allow_blank=False
+            )
             yield Input("1", id="start", placeholder="start position")
             yield Input("", id="printer", placeholder="printer (empty: PDF only)")
-        yield IdField("Scan an item to queue its label", name="queue-item",
-                      placeholder="scan any vial or specimen")  # fmt: skip
+        yield IdField(
+            "Scan an item to queue its label",
+            name="queue-item",
+            placeholder="scan any vial or specimen",
+        )
         with TabbedContent(id="label-tabs"):
             with TabPane("Queue", id="tab-queue"):
                 yield DataTable(id="queue", cursor_type="row", zebra_stripes=True)
@@ -107,8 +111,11 @@ class LabelsScreen(Screen[None]):
 
     def _options(self) -> tuple[str, str, str]:
         stock = str(self.query_one("#stock", Select).value)
-        return (stock, self.query_one("#start", Input).value.strip() or "1",
-                self.query_one("#printer", Input).value.strip())  # fmt: skip
+        return (
+            stock,
+            self.query_one("#start", Input).value.strip() or "1",
+            self.query_one("#printer", Input).value.strip(),
+        )
 
     def action_preview(self) -> None:
         stock, start, _ = self._options()
@@ -152,9 +159,13 @@ class LabelsScreen(Screen[None]):
             if not start.isdigit():
                 raise InputError("start", start, "is not a whole number")
             outcome = jobs.print_queue(
-                database(self), operator(self), stock=stock, start=int(start),
-                printer=printer or None, folder=tracker_app(self).out_dir,
-            )  # fmt: skip
+                database(self),
+                operator(self),
+                stock=stock,
+                start=int(start),
+                printer=printer or None,
+                folder=tracker_app(self).out_dir,
+            )
         except TrackerError as error:
             self.post_message(Refused(error, "print"))
             return
@@ -163,9 +174,11 @@ class LabelsScreen(Screen[None]):
     def on_labels_screen_printed(self, event: Printed) -> None:
         job = event.outcome.job
         sent = f" · sent to {job.printer}" if job.printer else ""
-        self._outcome(f"✓ printed {job.labels} label(s) on {job.pages} page(s) as {job.id} → "
-                      f"{event.outcome.out}{sent} · event #{event.outcome.event_seq}",
-                      error=False)  # fmt: skip
+        self._outcome(
+            f"✓ printed {job.labels} label(s) on {job.pages} page(s) as {job.id} → "
+            f"{event.outcome.out}{sent} · event #{event.outcome.event_seq}",
+            error=False,
+        )
         self.load()
 
     @on(IdField.Scanned)
@@ -188,8 +201,10 @@ class LabelsScreen(Screen[None]):
         self.post_message(self.Queued(done))
 
     def on_labels_screen_queued(self, event: Queued) -> None:
-        self._outcome(f"✓ queued {', '.join(event.done.item.items)} · event "
-                      f"#{event.done.event_seq}", error=False)  # fmt: skip
+        self._outcome(
+            f"✓ queued {', '.join(event.done.item.items)} · event #{event.done.event_seq}",
+            error=False,
+        )
         self.query_one("#f-queue-item", Input).value = ""
         self.load()
 

@@ -73,8 +73,12 @@ class LedgerScreen(Screen[None]):
     @on(Input.Submitted)
     @on(Input.Changed)
     def _filters(self) -> None:
-        self.load(*(self.query_one(f"#filter-{n}", Input).value.strip()
-                    for n in ("action", "operator", "item")))  # fmt: skip
+        self.load(
+            *(
+                self.query_one(f"#filter-{n}", Input).value.strip()
+                for n in ("action", "operator", "item")
+            )
+        )
 
     @work(thread=True, exclusive=True, group="load")
     def load(self, action: str, who: str, item: str) -> None:
@@ -92,8 +96,15 @@ class LedgerScreen(Screen[None]):
         table.clear()
         self.events = {str(e.seq): e for e in event.events}
         for e in event.events:
-            table.add_row(str(e.seq), e.at.strftime("%Y-%m-%d %H:%M"), e.operator, e.action,
-                          e.object, e.parent, key=str(e.seq))  # fmt: skip
+            table.add_row(
+                str(e.seq),
+                e.at.strftime("%Y-%m-%d %H:%M"),
+                e.operator,
+                e.action,
+                e.object,
+                e.parent,
+                key=str(e.seq),
+            )
 
     @on(DataTable.RowHighlighted, "#events")
     def _show_payload(self, event: DataTable.RowHighlighted) -> None:

@@ -70,8 +70,13 @@ class LoanScreen(Screen[None]):
 
     def on_mount(self) -> None:
         table = self.query_one("#specimens", DataTable)
-        for label, width in (("Specimen", 10), ("Catalogue no.", 13), ("Status", 8),
-                             ("Drilled / permitted", 24), ("Flags", None)):  # fmt: skip
+        for label, width in (
+            ("Specimen", 10),
+            ("Catalogue no.", 13),
+            ("Status", 8),
+            ("Drilled / permitted", 24),
+            ("Flags", None),
+        ):
             table.add_column(label, width=width)
         self.load()
 
@@ -109,12 +114,17 @@ class LoanScreen(Screen[None]):
         table.clear()
         for s in line.specimen_lines:
             used = s.drilled_mg / s.permitted_mg if s.permitted_mg else None
-            bar = Text.assemble(f"{s.drilled_mg:.3f}/{s.permitted_mg or 0:g} mg ",
-                                usage_bar(used, 6))  # fmt: skip
+            bar = Text.assemble(
+                f"{s.drilled_mg:.3f}/{s.permitted_mg or 0:g} mg ", usage_bar(used, 6)
+            )
             table.add_row(
-                s.id, s.catalog_number, s.status.replace("_", " "), bar,
-                flag_cell(s.flags, 14), key=s.id,
-            )  # fmt: skip
+                s.id,
+                s.catalog_number,
+                s.status.replace("_", " "),
+                bar,
+                flag_cell(s.flags, 14),
+                key=s.id,
+            )
         terms = Text()
         for t in detail.terms:
             terms.append(f"v{t.version} {t.kind} from {t.effective_from}: ", style="bold")
@@ -164,12 +174,14 @@ class LoanScreen(Screen[None]):
     def action_plan(self) -> None:
         request = {
             "target": self.loan,
-            "analyses": [{
-                "element": self.query_one("#plan-element", Input).value.strip(),
-                "ug_per_analysis": self.query_one("#plan-ug", Input).value.strip(),
-                "replicates": self.query_one("#plan-replicates", Input).value.strip(),
-            }],
-        }  # fmt: skip
+            "analyses": [
+                {
+                    "element": self.query_one("#plan-element", Input).value.strip(),
+                    "ug_per_analysis": self.query_one("#plan-ug", Input).value.strip(),
+                    "replicates": self.query_one("#plan-replicates", Input).value.strip(),
+                }
+            ],
+        }
         self.query_one("#loan-tabs", TabbedContent).active = "tab-plan"
         self.plan(request)
 

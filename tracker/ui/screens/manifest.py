@@ -66,8 +66,9 @@ class ManifestScreen(Screen[None]):
         yield Static("File (path)", classes="field-label")
         yield Input(placeholder="~/loans/specimen-list.csv", id="f-file", classes="field")
         yield Static("Saved mapping (optional)", classes="field-label")
-        yield Input(placeholder="leave empty for Darwin Core headings", id="f-mapping",
-                    classes="field")  # fmt: skip
+        yield Input(
+            placeholder="leave empty for Darwin Core headings", id="f-mapping", classes="field"
+        )
         yield Static("", id="manifest-summary")
         yield DataTable(id="manifest-rows", cursor_type="row", zebra_stripes=True)
         yield Static("", id="outcome")
@@ -138,8 +139,13 @@ class ManifestScreen(Screen[None]):
         table.clear()
         for row in preview.rows:
             label, style = ACTIONS[row.action]
-            table.add_row(str(row.row), row.catalog_number or "—", Text(label, style=style),
-                          _detail(row), key=str(row.row))  # fmt: skip
+            table.add_row(
+                str(row.row),
+                row.catalog_number or "—",
+                Text(label, style=style),
+                _detail(row),
+                key=str(row.row),
+            )
 
     def on_refused(self, event: Refused) -> None:
         event.stop()

@@ -60,9 +60,13 @@ class OverviewScreen(Screen[None]):
 
     def on_mount(self) -> None:
         table = self.query_one("#loans", DataTable)
-        for label, key, width in (("Loan", "loan", 12), ("Allowance used", "used", 17),
-                                  ("Due", "due", 10), ("Specimens", "specimens", 11),
-                                  ("Flags", "flags", FLAGS_WIDTH)):  # fmt: skip
+        for label, key, width in (
+            ("Loan", "loan", 12),
+            ("Allowance used", "used", 17),
+            ("Due", "due", 10),
+            ("Specimens", "specimens", 11),
+            ("Flags", "flags", FLAGS_WIDTH),
+        ):
             table.add_column(label, key=key, width=width)
         if self.glance is not None:
             self._show(self.glance.lines, self.glance.missing)

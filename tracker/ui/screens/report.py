@@ -69,9 +69,15 @@ class ReportScreen(Screen[None]):
 
     def on_mount(self) -> None:
         table = self.query_one("#report-specimens", DataTable)
-        for label, width in (("Specimen", 10), ("Catalogue no.", 14), ("Status", 9),
-                             ("Drilled mg", 18), ("Returned mg", 11), ("Results", 7),
-                             ("Flags", None)):  # fmt: skip
+        for label, width in (
+            ("Specimen", 10),
+            ("Catalogue no.", 14),
+            ("Status", 9),
+            ("Drilled mg", 18),
+            ("Returned mg", 11),
+            ("Results", 7),
+            ("Flags", None),
+        ):
             table.add_column(label, width=width)
         self.build()
 

@@ -70,11 +70,13 @@ class SessionScreen(Screen[None]):
 
     def on_mount(self) -> None:
         for table_id, labels in (
-            ("#sessions", ("Session", "Name", "Element", "Started", "Runs", "Unmatched",
-                           "Results")),
+            (
+                "#sessions",
+                ("Session", "Name", "Element", "Started", "Runs", "Unmatched", "Results"),
+            ),
             ("#results", ("Target", "Ratio", "Value", "2SD", "n", "QC / flags")),
             ("#unmatched", ("Run", "Sample name", "Why not matched")),
-        ):  # fmt: skip
+        ):
             table = self.query_one(table_id, DataTable)
             for label in labels:
                 table.add_column(label)
@@ -114,8 +116,16 @@ class SessionScreen(Screen[None]):
         table = self.query_one("#sessions", DataTable)
         table.clear()
         for s in event.sessions:
-            table.add_row(s.id, s.name, s.element, s.started_at.strftime("%Y-%m-%d"),
-                          str(s.runs), str(s.unmatched), str(s.results), key=s.id)  # fmt: skip
+            table.add_row(
+                s.id,
+                s.name,
+                s.element,
+                s.started_at.strftime("%Y-%m-%d"),
+                str(s.runs),
+                str(s.unmatched),
+                str(s.results),
+                key=s.id,
+            )
         table.focus()
 
     @on(DataTable.RowSelected, "#sessions")
@@ -129,8 +139,10 @@ class SessionScreen(Screen[None]):
         self.session = d.id
         head = Text()
         head.append(f"{d.id} {d.name} · {d.element} · {d.instrument}\n", style="bold")
-        head.append(f"file {d.source_filename or '—'} via profile {d.profile or '—'} · standard "
-                    f"{d.standard} · {d.measurements} runs, {d.standards} standards\n")  # fmt: skip
+        head.append(
+            f"file {d.source_filename or '—'} via profile {d.profile or '—'} · standard "
+            f"{d.standard} · {d.measurements} runs, {d.standards} standards\n"
+        )
         head.append(f"{len(d.unmatched)} unmatched row(s) · ")
         head.append("reduced · " if d.reduced else "⚠ not reduced yet (press r) · ")
         head.append_text(flag_text(d.flags))
@@ -194,8 +206,9 @@ def result_cells(line: ResultLine, mode: str) -> tuple[Any, ...]:
     flags = [f for f in line.flags if f != "failed acceptance"]
     text = Text("✓ pass" if line.passed else "", style="green")
     if line.passed is False:
-        text = Text(f"✗ FAIL (accepted {line.accepted:.2f} ± {line.accepted_two_sd:.2f})",
-                    style="bold red")  # fmt: skip
+        text = Text(
+            f"✗ FAIL (accepted {line.accepted:.2f} ± {line.accepted_two_sd:.2f})", style="bold red"
+        )
     if flags:
         if text.plain:
             text.append(" · ")
