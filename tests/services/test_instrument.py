@@ -252,7 +252,7 @@ def test_bad_exports_import_nothing(
     before = counts()
     with pytest.raises(InputError) as caught:
         do_import(db, export([r.format(cut=b.cut) for r in rows]))
-    # the refusal names the file too (issue #8: file, row and column)
+    # the refusal names the file too: file, row and column
     assert caught.value.field == f"run.csv, {field}" and fragment in caught.value.reason
     assert counts() == before
 

@@ -51,8 +51,9 @@ limit or failed · ↩ powder to return · ? results or recovery missing.
    plotted on its own tab.
 5. **Print labels.** Press **F5**. Choose the stock, the first free position, **v** draws the
    sheet, **p** prints the whole queue to a PDF (and to a printer if you name one).
-6. **Return report.** On a loan (F2, Enter), **R** opens the return report. *Not available
-   in this build yet* — it needs the return-report service (issue 6); the screen says so.
+6. **Return report.** On a loan (F2, Enter), **R** opens the return report: every
+   specimen's account, the flags and the ledger head; **Ctrl+S** writes it (PDF, CSV, XLSX
+   or JSON) with its anchor file, recorded in the ledger first.
 7. **The ledger.** Press **F6**: filter by action, operator or item; **v** verifies every
    hash and shows the head hash to give the lender.
 

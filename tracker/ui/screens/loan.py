@@ -1,5 +1,5 @@
 """One loan: terms in force and their amendments, its specimens with consumption bars,
-what can still be drilled (planning), and the return report and manifest (issue 6)."""
+what can still be drilled (planning), and the doors to the return report and the manifest import."""
 
 from __future__ import annotations
 
