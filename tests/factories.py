@@ -45,7 +45,9 @@ def loan(db: Database, **terms: Any) -> str:
     return loans.add_loan(db, "boss", request).item.reference
 
 
-def specimen(db: Database, loan_ref: str, *, checked_in: bool = True) -> str:
+def specimen(
+    db: Database, loan_ref: str, *, checked_in: bool = True, received_at: str | None = None
+) -> str:
     answer = specimens.add_specimen(
         db,
         "boss",
@@ -57,7 +59,10 @@ def specimen(db: Database, loan_ref: str, *, checked_in: bool = True) -> str:
         },
     )
     if checked_in:
-        specimens.check_in(db, "tech", {"specimen": answer.item.id, "condition": "complete"})
+        request = {"specimen": answer.item.id, "condition": "complete"}
+        if received_at is not None:
+            request["received_at"] = received_at
+        specimens.check_in(db, "tech", request)
     return answer.item.id
 
 
