@@ -22,10 +22,8 @@ from tracker.domain.timing import (
     CLOCK_SKEW,
     Since,
     day_of,
-    describe_window,
     is_backdated,
     not_before,
-    show,
     stated_time,
 )
 from tracker.domain.units import decimals_below
@@ -49,18 +47,16 @@ def action_time(
     :mod:`tracker.domain.timing` — every dated service calls this, and only this.
 
     Refused when in the future (exit 2) or before anything in ``after`` (exit 1). A time
-    further back than the lab's backdating window needs a manager; it is then kept beside
-    the recording time in the event's payload and in a ``BackdatedEntry`` row, and flagged
-    on the lines of ``books`` (the specimen whose books it belongs to, if one).
+    further back than the lab's backdating window needs a manager (asked for by
+    ``UnitOfWork.record``, after every other rule of the entry); it is then kept beside the
+    recording time in the event's payload and in a ``BackdatedEntry`` row, and flagged on
+    the lines of ``books`` (the specimen whose books it belongs to, if one).
     """
     moment = stated_time(uow.now, given, field)
     not_before(field, moment, after, CLOCK_SKEW if given is None else timedelta(0))
     if given is not None:
         window = backdating_window(uow.session)
-        if is_backdated(uow.now, moment, window):
-            uow.require_manager(
-                f"dating an entry more than {describe_window(window)} back ({field} {show(moment)})"
-            )
+        if is_backdated(uow.now, moment, window):  # the manager is asked for when recording
             uow.backdated = Backdating(field.replace("-", "_"), moment, window, books)
     return moment
 

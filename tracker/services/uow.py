@@ -25,7 +25,7 @@ from tracker.domain.errors import InputError, RuleViolation
 from tracker.domain.ledger import GENESIS_HASH, canonical_json, event_hash
 from tracker.domain.models import BackdatedEntry, CustodyEvent, EventRef, Operator, Role, Specimen
 from tracker.domain.timeutil import as_utc, iso_utc
-from tracker.domain.timing import hours_of
+from tracker.domain.timing import describe_window, hours_of, show
 
 Ref = HasPublicId | str | None
 # event_ref rows are written by the driver's executemany: an index, never ORM objects here
@@ -34,7 +34,7 @@ _EVENT_REF = EventRef.metadata.tables[EventRef.__tablename__]
 
 @dataclass(frozen=True)
 class Backdating:
-    """An entry dated further back than the lab's window, accepted from a manager."""
+    """An entry dated further back than the lab's window: only a manager may record it."""
 
     field: str  # the entry's dated field, e.g. "drilled_at"
     stated: datetime
@@ -44,6 +44,12 @@ class Backdating:
     @property
     def window_hours(self) -> int:
         return hours_of(self.window)
+
+    def action(self) -> str:
+        """What the manager's refusal says is being done."""
+        return (
+            f"dating an entry {show(self.stated)}, more than {describe_window(self.window)} back,"
+        )
 
     def payload(self) -> dict[str, Any]:
         """What the event's payload says of it, beside the event's own (recording) time."""
@@ -63,8 +69,8 @@ class UnitOfWork:
     after_record: list[Callable[[CustodyEvent], None]] = field(default_factory=list)
     # Further items this unit's event concerns (a manifest's specimens, a print job's labels).
     mentions: set[str] = field(default_factory=set)
-    # Set by ``common.action_time`` when a manager dates the entry beyond the lab's window:
-    # the event's payload says so and a BackdatedEntry row names the event.
+    # Set by ``common.action_time`` when the entry is dated beyond the lab's window: recording
+    # it then needs a manager, its event's payload says so and a BackdatedEntry row names it.
     backdated: Backdating | None = None
 
     def mention(self, *refs: str) -> None:
@@ -94,9 +100,10 @@ class UnitOfWork:
         """Append this unit's one custody event, chained to the current head."""
         if self.events:
             raise RuntimeError("a service records exactly one custody event")
-        self.session.flush()  # new rows get their IDs before the event names them
-        if self.backdated is not None:
+        if self.backdated is not None:  # last: refusals about the entry itself come first
+            self.require_manager(self.backdated.action())
             payload = {**payload, "backdated": self.backdated.payload()}
+        self.session.flush()  # new rows get their IDs before the event names them
         event = append_event(
             self.session,
             at=self.now,
