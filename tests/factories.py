@@ -21,7 +21,7 @@ def location(db: Database) -> str:
     ).item.id
 
 
-def loan(db: Database, **terms: Any) -> str:
+def loan(db: Database, received_on: str = "2026-01-02", **terms: Any) -> str:
     """A lender and a loan; ``terms`` override the defaults. Returns the loan reference."""
     n = next(_n)
     lender = loans.add_lender(
@@ -39,7 +39,7 @@ def loan(db: Database, **terms: Any) -> str:
         "reference": f"FM-{n}",
         "title": "Test loan",
         "borrower": "Dr. Imaginary",
-        "received_on": "2026-01-02",
+        "received_on": received_on,
         "terms": defaults | terms,
     }
     return loans.add_loan(db, "boss", request).item.reference
