@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import io
 from collections.abc import Callable
+from functools import partial
 from typing import Any
 
 import pytest
@@ -77,7 +78,7 @@ def test_a_drill_dated_1999_is_refused(db: Database, counts: Counts) -> None:
             counts,
             RuleViolation,
             "was checked in",
-            lambda actor=actor: drill(db, spec, actor, drilled_at="1999-06-01T10:00:00Z"),
+            partial(drill, db, spec, actor, drilled_at="1999-06-01T10:00:00Z"),
         )
         assert line.startswith("drilled-at: '1999-06-01T10:00:00.000000Z': is before ")
         assert f"{spec} was checked in (2026-01-05T09:00:" in line
@@ -205,7 +206,7 @@ def test_the_window_is_a_lab_setting_only_managers_change(db: Database, counts: 
     set_it = settings.set_backdating_window
     refused(counts, RuleViolation, "manager role", lambda: set_it(db, "tech", {"window": "2 days"}))
     for bad in ("4", "four days", "0 h", "91 days"):
-        refused(counts, InputError, "window", lambda bad=bad: set_it(db, "boss", {"window": bad}))
+        refused(counts, InputError, "window", partial(set_it, db, "boss", {"window": bad}))
     refused(counts, RuleViolation, "already", lambda: set_it(db, "boss", {"window": "96 hours"}))
     done = set_it(db, "boss", {"window": "36 h"})
     assert (done.item.hours, done.item.said, done.item.default) == (36, "36 hours", False)
