@@ -58,13 +58,18 @@ def refused(counts: Counts, kind: type[Exception], match: str, action: Callable[
 
 
 def note(db: Database, case: str) -> None:
+    """Add this case to the reliability row (cases named "depends: X" are summed up)."""
     FOUND.setdefault(db.backend, []).append(case)
     backends = ", ".join(sorted(FOUND))
     cases = sorted({c for found in FOUND.values() for c in found})
+    kinds = [c.removeprefix("depends: ") for c in cases if c.startswith("depends: ")]
+    found = [c for c in cases if not c.startswith("depends: ")]
+    if kinds:
+        found.append(f"{', '.join(kinds)} dated before what they depend on: refused")
     record(
         "backdating",
         f"{len(cases)} cases on {backends}",
-        "; ".join(cases) + " — each refused or flagged, nothing written on a refusal",
+        "; ".join(found) + " — nothing written on any refusal",
     )
 
 
@@ -235,6 +240,7 @@ def test_a_check_in_is_not_older_than_its_loan(db: Database, counts: Counts) -> 
         f"received-at: '2026-01-01T23:00:00.000000Z': is before loan {loan} was received "
         "(2026-01-02)"
     )
+    note(db, "depends: check-in")
 
 
 def test_a_photo_is_not_older_than_the_check_in(db: Database, counts: Counts) -> None:
@@ -248,6 +254,7 @@ def test_a_photo_is_not_older_than_the_check_in(db: Database, counts: Counts) ->
         lambda: shipments.add_photo(db, "tech", early),
     )
     shipments.add_photo(db, "tech", request | {"taken_at": "2026-01-04T12:30:00Z"})
+    note(db, "depends: photo")
 
 
 def test_a_return_is_not_older_than_the_last_drill(db: Database, counts: Counts) -> None:
@@ -258,6 +265,7 @@ def test_a_return_is_not_older_than_the_last_drill(db: Database, counts: Counts)
         counts, RuleViolation, "last drilled", lambda: specimens.return_specimen(db, "tech", back)
     )
     assert line.startswith("returned-at: '2026-01-04T14:00:00.000000Z': is before ")
+    note(db, "depends: return")
 
 
 def test_a_dissolution_is_not_older_than_its_drill(db: Database, counts: Counts) -> None:
@@ -275,6 +283,7 @@ def test_a_dissolution_is_not_older_than_its_drill(db: Database, counts: Counts)
         f"dissolved-at: '2026-01-04T14:59:00.000000Z': is before {powder} was drilled "
         "(2026-01-04T15:00:00.000000Z)"
     )
+    note(db, "depends: dissolution")
 
 
 def test_concentrations_and_aliquots_are_not_older_than_their_solution(
@@ -297,6 +306,7 @@ def test_concentrations_and_aliquots_are_not_older_than_their_solution(
         f"taken-at: .*{solution} was dissolved",
         lambda: lab.take_aliquot(db, "tech", take),
     )
+    note(db, "depends: concentration and aliquot")
 
 
 def test_a_column_batch_is_not_older_than_its_aliquots(db: Database, counts: Counts) -> None:
@@ -322,6 +332,7 @@ def test_a_column_batch_is_not_older_than_its_aliquots(db: Database, counts: Cou
     assert line.startswith(
         f"performed-on: '2026-01-04': is before {aliquot} was taken (2026-01-05T"
     )
+    note(db, "depends: column position")
 
 
 def test_an_instrument_session_is_not_older_than_its_columns(db: Database, counts: Counts) -> None:
@@ -338,6 +349,7 @@ def test_an_instrument_session_is_not_older_than_its_columns(db: Database, count
         "performed (2026-01-05)"
     )
     do_import(db, content, started_at="2026-01-05T09:00:00Z")
+    note(db, "depends: instrument session")
 
 
 def test_a_loan_is_not_returned_before_its_last_specimen(db: Database, counts: Counts) -> None:
@@ -352,3 +364,4 @@ def test_a_loan_is_not_returned_before_its_last_specimen(db: Database, counts: C
     )
     assert line.startswith("returned-on: '2026-01-04': is before the last of its specimens")
     custody.mark_loan_returned(db, "boss", {"loan": loan, "returned_on": "2026-01-05"})
+    note(db, "depends: loan return")
