@@ -44,7 +44,8 @@ def action_time(
     books: Specimen | None = None,
 ) -> datetime:
     """When the action happened: the given time or now, held to the rules of
-    :mod:`tracker.domain.timing` — every dated service calls this, and only this.
+    :mod:`tracker.domain.timing` — every service that takes a stated time calls this (fields
+    that hold a day, not a time, call ``timing.not_before`` themselves).
 
     Refused when in the future (exit 2) or before anything in ``after`` (exit 1). A time
     further back than the lab's backdating window needs a manager (asked for by
