@@ -21,7 +21,7 @@ def location(db: Database) -> str:
     ).item.id
 
 
-def loan(db: Database, **terms: Any) -> str:
+def loan(db: Database, received_on: str = "2026-01-02", **terms: Any) -> str:
     """A lender and a loan; ``terms`` override the defaults. Returns the loan reference."""
     n = next(_n)
     lender = loans.add_lender(
@@ -39,13 +39,15 @@ def loan(db: Database, **terms: Any) -> str:
         "reference": f"FM-{n}",
         "title": "Test loan",
         "borrower": "Dr. Imaginary",
-        "received_on": "2026-01-02",
+        "received_on": received_on,
         "terms": defaults | terms,
     }
     return loans.add_loan(db, "boss", request).item.reference
 
 
-def specimen(db: Database, loan_ref: str, *, checked_in: bool = True) -> str:
+def specimen(
+    db: Database, loan_ref: str, *, checked_in: bool = True, received_at: str | None = None
+) -> str:
     answer = specimens.add_specimen(
         db,
         "boss",
@@ -57,7 +59,10 @@ def specimen(db: Database, loan_ref: str, *, checked_in: bool = True) -> str:
         },
     )
     if checked_in:
-        specimens.check_in(db, "tech", {"specimen": answer.item.id, "condition": "complete"})
+        request = {"specimen": answer.item.id, "condition": "complete"}
+        if received_at is not None:
+            request["received_at"] = received_at
+        specimens.check_in(db, "tech", request)
     return answer.item.id
 
 

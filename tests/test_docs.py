@@ -68,6 +68,12 @@ def test_readme_verification_recipe_accepts_an_export_and_rejects_tampering(tmp_
     bad = subprocess.run([sys.executable, str(script), str(export)], capture_output=True, text=True)
     assert bad.returncode != 0 and "broken at event 4" in bad.stderr
 
+    export.write_text("", encoding="utf-8")  # a ledger with no first event is not intact
+    empty = subprocess.run(
+        [sys.executable, str(script), str(export)], capture_output=True, text=True
+    )
+    assert empty.returncode != 0 and "no events" in empty.stderr
+
 
 def test_readme_labels_section_names_real_stocks_commands_and_a_valid_stock_file(
     tmp_path: Path,

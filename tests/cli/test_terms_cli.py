@@ -132,7 +132,7 @@ def test_an_extension_applies_from_its_effective_day_only(lab: Lab, tmp_path: Pa
     specimen = run("specimen", "add", "--loan", "FH-78", "--catalog", "FNHC Z-9")["item"]["id"]
     run("checkin", specimen, "--condition", "complete", "--at", f"{received}T09:00:00Z")
 
-    def drill(on: date) -> Result:
+    def drill(on: date, actor: str = lab.technician) -> Result:
         return invoke(
             "drill",
             specimen,
@@ -145,7 +145,7 @@ def test_an_extension_applies_from_its_effective_day_only(lab: Lab, tmp_path: Pa
             "--at",
             f"{on}T10:00:00Z",
             db=lab.path,
-            actor=lab.technician,
+            actor=actor,
         )
 
     before = counts(lab.path)
@@ -179,9 +179,12 @@ def test_an_extension_applies_from_its_effective_day_only(lab: Lab, tmp_path: Pa
 
     assert run(*amend)["item"]["terms"]["version"] == 2
     powders = counts(lab.path)["powder"]
-    passed = drill(late)
+    # dated 100 days back: within the extension, but beyond the backdating window
+    assert lab.manager in refused(drill(late), 1, "--as")
+    passed = drill(late, actor=lab.manager)
     assert passed.exit_code == 0, passed.stderr
     assert counts(lab.path)["powder"] == powders + 1
+    assert "backdated entry" in reconcile(lab.path, "FH-78")["flags"]
     before = counts(lab.path)
     assert due.isoformat() in refused(drill(between), 1, "--at")
     assert counts(lab.path) == before

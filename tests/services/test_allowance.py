@@ -122,14 +122,17 @@ def amend(db: Database, loan: str, actor: str = "boss", **changes: object) -> No
 def test_terms_in_force_on_the_drill_day_decide(db: Database) -> None:
     # the test clock reads 2026-01-05; the loan was received on 2026-01-02, due 2026-01-03
     loan = make.loan(db, due_on="2026-01-03")
-    spec = make.specimen(db, loan)
-    drill(db, spec, "0.500", drilled_at="2026-01-03T15:00:00Z")  # on the due day: allowed
+    spec = make.specimen(db, loan, received_at="2026-01-02T10:00:00Z")
+    with pytest.raises(RuleViolation, match="recorded on 2026-01-05"):
+        drill(db, spec, "0.500", drilled_at="2026-01-03T15:00:00Z")  # on the due day, typed late
     with pytest.raises(RuleViolation, match="was due on 2026-01-03"):
         drill(db, spec, "0.500")
     amend(db, loan, due_on="2026-03-01")
     drill(db, spec, "0.500")  # today, under the extension
     with pytest.raises(RuleViolation, match="was due on 2026-01-03"):
         drill(db, spec, "0.500", drilled_at="2026-01-04T10:00:00Z")  # before it took effect
+    # on the old due day, recorded while the extension is in force: both days are within
+    drill(db, spec, "0.500", drilled_at="2026-01-03T15:00:00Z")
 
 
 def test_raised_allowance_applies_from_its_day(db: Database) -> None:

@@ -66,6 +66,8 @@ REFUSED = [
     "DROP TRIGGER custody_event_append_only ON custody_event",
     "UPDATE correction SET reason = 'nothing happened'",
     "DELETE FROM correction",
+    "DELETE FROM event_ref",
+    "UPDATE backdated_entry SET field = 'received_at'",
     "UPDATE alembic_version SET version_num = '0001_initial'",
 ]
 

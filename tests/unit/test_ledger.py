@@ -152,12 +152,21 @@ def test_intact_chain() -> None:
     assert report.broken_seq is None
 
 
-def test_empty_chain() -> None:
+def test_an_empty_chain_is_not_intact() -> None:
+    """Every ledger opens with a first event; one without it proves nothing."""
     report = verify_chain([])
-    assert report.ok
-    assert report.events == 0
-    assert report.head_seq == 0
+    assert not report.ok
+    assert report.events == 0 and report.head_seq == 0 and report.broken_seq == 1
     assert report.head_hash == GENESIS_HASH == "0" * 64
+    assert report.reason is not None and "no events" in report.reason
+
+
+def test_a_chain_without_its_first_event_is_not_intact() -> None:
+    """Events 2..5 intact among themselves, event 1 gone: broken at event 1."""
+    rows = build_chain(5)[1:]
+    report = verify_chain(rows)
+    assert not report.ok and report.broken_seq == 1 and report.events == 0
+    assert report.reason is not None and "no first event" in report.reason
 
 
 def test_altered_payload() -> None:

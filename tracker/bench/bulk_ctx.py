@@ -9,18 +9,24 @@ action's queued label is the same row ``queue_label`` writes, naming the same ev
 
 from __future__ import annotations
 
+from collections.abc import Iterable
 from dataclasses import dataclass
-from datetime import datetime
+from datetime import datetime, timedelta
 from typing import Any, TypeVar
 
 from tracker.bench.bulk_state import State
 from tracker.bench.bulk_writer import BulkWriter
 from tracker.domain.base import Base, HasPublicId
-from tracker.domain.errors import InputError
 from tracker.domain.ledger import canonical_json, event_hash
 from tracker.domain.models import CustodyEvent, Label, LabelStatus, Location, Operator
-from tracker.domain.timeutil import as_utc, iso_utc
-from tracker.services.common import CLOCK_SKEW
+from tracker.domain.timing import (
+    CLOCK_SKEW,
+    DEFAULT_BACKDATING_WINDOW,
+    Since,
+    is_backdated,
+    not_before,
+    stated_time,
+)
 
 T = TypeVar("T", bound=Base)
 
@@ -32,15 +38,16 @@ class Ctx:
     state: State
     writer: BulkWriter
 
-    def when(self, given: datetime | None, field: str) -> datetime:
-        """Like ``common.action_time``: the given time (never in the future) or now."""
-        if given is None:
-            return self.now
-        moment = as_utc(given)
-        if moment > self.now + CLOCK_SKEW:
-            raise InputError(
-                field, iso_utc(moment), f"is in the future (now is {iso_utc(self.now)})"
-            )
+    def when(self, given: datetime | None, field: str, after: Iterable[Since] = ()) -> datetime:
+        """``common.action_time``'s rules (the domain's own functions) without the database.
+
+        The plans state no times, so nothing is ever backdated here; a plan that did would
+        need the services (a manager, a BackdatedEntry row), so it is refused outright.
+        """
+        moment = stated_time(self.now, given, field)
+        not_before(field, moment, after, CLOCK_SKEW if given is None else timedelta(0))
+        if given is not None and is_backdated(self.now, moment, DEFAULT_BACKDATING_WINDOW):
+            raise RuntimeError(f"the bulk executor records no backdated entries ({field})")
         return moment
 
     def place(self, text: str | None, field: str = "location") -> Location | None:

@@ -36,6 +36,9 @@ from tracker.services.lab import (
     RecordConcentration,
     TakeAliquot,
     aliquot_element,
+    dissolved,
+    drilled,
+    on_column_after,
     portion_to_dissolve,
     require_aliquot_fits,
 )
@@ -60,7 +63,7 @@ def dissolve(ctx: Ctx, args: dict[str, Any]) -> Solution:
             acid=request.acid,
             solution_mass_g=grams.value,
             solution_mass_u_g=grams.u,
-            dissolved_at=ctx.when(request.dissolved_at, "dissolved-at"),
+            dissolved_at=ctx.when(request.dissolved_at, "dissolved-at", [drilled(powder)]),
             dissolved_by=ctx.operator.code,
             status=ContainerStatus.AVAILABLE,
             created_at=ctx.now,
@@ -93,7 +96,7 @@ def record_concentration(ctx: Ctx, args: dict[str, Any]) -> None:
         value_ug_per_g=float(request.value),
         u_ug_per_g=request.standard_uncertainty(),
         method=request.method,
-        measured_at=ctx.when(request.measured_at, "measured-at"),
+        measured_at=ctx.when(request.measured_at, "measured-at", [dissolved(solution)]),
         recorded_by=ctx.operator.code,
         supersedes_id=None,
         created_at=ctx.now,
@@ -128,7 +131,7 @@ def take_aliquot(ctx: Ctx, args: dict[str, Any]) -> Aliquot:
             mass_g=wanted.value,
             mass_u_g=wanted.u,
             purpose=request.purpose,
-            taken_at=ctx.when(request.taken_at, "taken-at"),
+            taken_at=ctx.when(request.taken_at, "taken-at", [dissolved(solution)]),
             taken_by=ctx.operator.code,
             status=ContainerStatus.AVAILABLE,
             created_at=ctx.now,
@@ -174,6 +177,7 @@ def add_position(ctx: Ctx, args: dict[str, Any]) -> BatchPosition:
         aliquot = ctx.state.get(Aliquot, "aliquot", request.aliquot)
         if aliquot.status is not ContainerStatus.AVAILABLE or aliquot.positions:
             raise RuleViolation("aliquot", aliquot.public_id, "is already used or not available")
+        on_column_after(batch, aliquot)
         element = aliquot_element(aliquot, batch.element)
         if element is None:
             raise RuleViolation("aliquot", aliquot.public_id, f"no {batch.element} concentration")

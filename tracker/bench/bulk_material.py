@@ -31,11 +31,14 @@ from tracker.domain.models import (
 )
 from tracker.domain.terms import terms_in_force
 from tracker.services.common import (
+    checked_in,
+    loan_began,
     require_on_hand,
+    returned_after,
     weigh,
 )
 from tracker.services.custody import Dispose, Move, residual_weighing
-from tracker.services.drilling import Drill, drilled_payload, limits_of
+from tracker.services.drilling import Drill, drilled_payload, limits_of, recorded_on
 from tracker.services.inputs import parse
 from tracker.services.specimens import CheckIn, NewSpecimen, ReturnSpecimen
 
@@ -71,7 +74,7 @@ def check_in(ctx: Ctx, args: dict[str, Any]) -> None:
             "specimen", specimen.public_id, f"its loan is {specimen.loan.status.value}"
         )
     location = ctx.place(request.location)
-    specimen.received_at = ctx.when(request.received_at, "received-at")
+    specimen.received_at = ctx.when(request.received_at, "received-at", [loan_began(specimen.loan)])
     specimen.status = SpecimenStatus.ON_HAND
     specimen.condition_in = request.condition
     _put(specimen, location)
@@ -92,7 +95,7 @@ def return_specimen(ctx: Ctx, args: dict[str, Any]) -> None:
     require_on_hand(specimen)
     _no_shipment(request.shipment)
     specimen.return_shipment_id = None
-    specimen.returned_at = ctx.when(request.returned_at, "returned-at")
+    specimen.returned_at = ctx.when(request.returned_at, "returned-at", returned_after(specimen))
     specimen.status = SpecimenStatus.RETURNED
     specimen.condition_out = request.condition
     previous = specimen.location.path if specimen.location else None
@@ -153,9 +156,12 @@ def drill(ctx: Ctx, args: dict[str, Any]) -> Powder:
     mass = weigh(request.tare, request.gross, request.readability).amount()
     specimen = ctx.state.get(Specimen, "specimen", request.specimen)
     require_on_hand(specimen)
-    when = ctx.when(request.drilled_at, "drilled-at")
+    when = ctx.when(request.drilled_at, "drilled-at", [checked_in(specimen)])
     terms = terms_in_force(specimen.loan.terms, when.date())
-    violations = check_drill(limits_of(terms), _usage(specimen), request.tissue, mass, when.date())
+    recorded = recorded_on(specimen.loan.terms, ctx.now.date())
+    violations = check_drill(
+        limits_of(terms), _usage(specimen), request.tissue, mass, when.date(), recorded
+    )
     if violations and not (request.override_reason and ctx.operator.role.value == "manager"):
         raise RuleViolation("drilled-mass", f"{mass.value} mg", violations[0].message)
     if request.override_reason and not violations:

@@ -69,6 +69,7 @@ def root(
 def _register() -> None:
     command = app.command
     command("init", epilog=cmd_setup.INIT_EPILOG)(cmd_setup.init)
+    command("backdating-window", epilog=cmd_setup.BACKDATING_EPILOG)(cmd_setup.backdating_window)
     command("demo", epilog=DEMO_EPILOG)(demo)
     command("backup", epilog=cmd_backup.BACKUP_EPILOG)(cmd_backup.backup)
     command("restore", epilog=cmd_backup.RESTORE_EPILOG)(cmd_backup.restore)

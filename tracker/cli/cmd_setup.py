@@ -8,7 +8,7 @@ from rich.table import Table
 from tracker.cli.render import done, plain_table
 from tracker.cli.state import database, emit, perform, state
 from tracker.domain.models import LocationKind, Role
-from tracker.services import setup
+from tracker.services import settings, setup
 
 operator_app = typer.Typer(
     epilog="Example: tracker operator list", help="People who record events.", no_args_is_help=True
@@ -107,3 +107,31 @@ def db_upgrade(ctx: typer.Context) -> None:
     old, new = upgrade_database(state(ctx).target)
     answer = {"from": old, "to": new, "changed": old != new}
     emit(ctx, answer, lambda: f"schema {old} → {new}" if old != new else f"schema already at {new}")
+
+
+BACKDATING_EPILOG = "Example: tracker --as amira backdating-window '4 days'"
+
+
+def backdating_window(
+    ctx: typer.Context,
+    window: Annotated[
+        str | None,
+        typer.Argument(
+            help="How far back, with its unit: '4 days', '36 hours'.", show_default=False
+        ),
+    ] = None,
+) -> None:
+    """Show or set (managers) how far back an entry may be dated without a manager.
+
+    An entry dated further back (drilled-at, received-at ... older than the window when it
+    is recorded) needs a manager; it keeps both times and is flagged by reconcile and in
+    the return report.
+    """
+    if window is None:
+        with database(ctx) as db:
+            shown = settings.show_backdating_window(db)
+        note = " (tracker's default)" if shown.default else ""
+        emit(ctx, shown, lambda: f"backdating window: {shown.said}{note}")
+        return
+    answer = perform(ctx, settings.set_backdating_window, {"window": window})
+    emit(ctx, answer, lambda: done(answer, f"backdating window: {answer.item.said}"))

@@ -19,6 +19,7 @@ REVISIONS: tuple[str, ...] = (
     "0005_labels",
     "0006_reports",
     "0007_reliability",
+    "0008_backdating",
 )
 HEAD = REVISIONS[-1]
 MIGRATIONS_DIR = Path(__file__).with_name("migrations")

@@ -36,6 +36,19 @@ class Limits:
 
 
 @dataclass(frozen=True)
+class Recorded:
+    """The day a drill is recorded and the due date of the terms in force on that day.
+
+    The stated day chooses the terms every limit is judged by; the due date is judged on
+    both days, so a drill typed in after the due date is overdue even when it is dated
+    before it (nobody can check the stated day; the recording day is the clock's).
+    """
+
+    on: date
+    due_on: date
+
+
+@dataclass(frozen=True)
 class Violation:
     """One exceeded limit, said in full: the limit, used, requested, remaining."""
 
@@ -45,6 +58,20 @@ class Violation:
 
 def _mg(amount: Amount) -> str:
     return format_value_u(amount.value, amount.u, "mg")
+
+
+def _overdue(limits: Limits, on: date, recorded: Recorded | None) -> Violation | None:
+    if on > limits.due_on:
+        due = limits.due_on.isoformat()
+        return Violation("due date", f"the loan was due on {due} (record an extension first)")
+    if recorded is not None and recorded.on > recorded.due_on:
+        return Violation(
+            "due date",
+            f"the loan was due on {recorded.due_on.isoformat()} and this drill is recorded on "
+            f"{recorded.on.isoformat()}: dated {on.isoformat()}, it is still recorded late "
+            "(record an extension first)",
+        )
+    return None
 
 
 def _mass_limit(name: str, limit: float, used: Amount, request: Amount) -> Violation | None:
@@ -59,20 +86,24 @@ def _mass_limit(name: str, limit: float, used: Amount, request: Amount) -> Viola
 
 
 def check_drill(
-    limits: Limits, usage: Usage, tissue: str, request: Amount, on: date
+    limits: Limits,
+    usage: Usage,
+    tissue: str,
+    request: Amount,
+    on: date,
+    recorded: Recorded | None = None,
 ) -> list[Violation]:
-    """Every limit this drill would break (empty when it is within the terms)."""
+    """Every limit this drill would break (empty when it is within the terms).
+
+    ``limits`` are the terms in force on ``on``, the drill's stated day; ``recorded`` (when
+    given) adds the due date judged on the day the drill is recorded.
+    """
     found: list[Violation] = []
     if tissue not in limits.permitted_tissues:
         allowed = ", ".join(limits.permitted_tissues)
         found.append(Violation("tissue", f"the loan permits only {allowed}, not {tissue}"))
-    if on > limits.due_on:
-        found.append(
-            Violation(
-                "due date",
-                f"the loan was due on {limits.due_on.isoformat()} (record an extension first)",
-            )
-        )
+    overdue = _overdue(limits, on, recorded)
+    found += [overdue] if overdue else []
     if limits.max_mass_per_specimen_mg is not None:
         v = _mass_limit(
             "per-specimen limit", limits.max_mass_per_specimen_mg, usage.specimen_drilled, request

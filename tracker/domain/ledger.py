@@ -32,6 +32,9 @@ from tracker.domain.timeutil import iso_utc
 
 FORMAT = "tracker-ledger/1"
 GENESIS_HASH = "0" * 64
+# An empty ledger proves nothing: every database opens its ledger with a first event, so a
+# ledger without one has lost it (or never was one) and is not intact.
+EMPTY = "the ledger holds no events, not even the first one `tracker init` records"
 
 
 def canonical_json(payload: Any) -> str:
@@ -145,7 +148,8 @@ def verify_batches(batches: Iterable[Iterable[LedgerTuple]]) -> VerifyReport:
     recomputed hash. Streaming: memory does not grow with the ledger. The hashing is
     inlined and the batches walked in this frame (this loop runs once per event of a
     decade's ledger); it computes exactly :func:`event_hash`, and a field holding a line
-    feed counts as altered. Events accepted so far are always 1..expected - 1.
+    feed counts as altered. Events accepted so far are always 1..expected - 1. A ledger
+    with no event 1 — empty, or starting later — is not intact.
 
     ``at`` is a datetime, the ledger's ISO text, or the text SQLite stores
     (``2026-03-04 09:15:00.000000``: SQLAlchemy's format, always with microseconds, UTC),
@@ -182,10 +186,14 @@ def verify_batches(batches: Iterable[Iterable[LedgerTuple]]) -> VerifyReport:
                 reason = "stored hash does not match the event's contents (altered after writing)"
                 return VerifyReport(False, expected - 1, expected - 1, prev, seq, reason)
             expected, prev = seq + 1, digest
+    if expected == 1:  # not one event: a ledger always has its first (`tracker init`)
+        return VerifyReport(False, 0, 0, prev, 1, EMPTY)
     return VerifyReport(True, expected - 1, expected - 1, prev)
 
 
 def _link_problem(seq: int, expected_seq: int, prev_hash: str, prev: str) -> tuple[int, str]:
+    if expected_seq == 1 and seq > 1:
+        return 1, f"the ledger has no first event (the lowest stored event is #{seq})"
     if seq > expected_seq:
         return expected_seq, f"event {expected_seq} is missing (next stored event is {seq})"
     if seq < expected_seq:

@@ -113,6 +113,7 @@ def render_pdf(report: ReturnReport, photos: dict[str, bytes]) -> bytes:
     header = f"Return report · {loan['reference']} · {report.lender['name']}"
     footer = f"ledger head #{report.ledger.seq} {report.ledger.hash[:16]}…"
     story = [*_front(report, styles), *_terms(report, styles), *_totals(report, styles)]
+    story += _backdated(report, styles)
     story += [Paragraph("Specimens", styles["h2"])]
     for entry in report.specimens:
         story += _specimen(entry, photos, styles)
@@ -230,6 +231,35 @@ def _totals(report: ReturnReport, styles: dict[str, ParagraphStyle]) -> list[Flo
         ["Flags", ", ".join(report.flags) or "none"],
     ]
     return [Paragraph("Totals", styles["h2"]), _table(rows, [0.38, 0.62], styles, header=False)]
+
+
+def _backdated(report: ReturnReport, styles: dict[str, ParagraphStyle]) -> list[Flowable]:
+    """Entries dated further back than the lab's window: when each says it happened, and
+    when it was recorded (and by which manager)."""
+    if not report.backdated:
+        return []
+    rows: list[list[Any]] = [["Item", "Time stated", "Dated", "Recorded", "By", "Event"]]
+    rows += [
+        [
+            b.item,
+            b.field.replace("_", " "),
+            f"{b.stated_at:%Y-%m-%d %H:%M} UTC",
+            f"{b.recorded_at:%Y-%m-%d %H:%M} UTC",
+            b.recorded_by,
+            f"#{b.event_seq}",
+        ]
+        for b in report.backdated
+    ]
+    note = (
+        "These entries were dated further back than the laboratory's backdating window "
+        "allows without a manager; a manager recorded each, and both times are kept."
+    )
+    return [
+        Paragraph("Entries dated back", styles["h2"]),
+        Paragraph(note, styles["small"]),
+        Spacer(1, 1.5 * mm),
+        _table(rows, [0.2, 0.14, 0.2, 0.2, 0.12, 0.14], styles),
+    ]
 
 
 _FATES = (

@@ -20,7 +20,7 @@ from tracker.domain.models import (
 )
 from tracker.services.common import finish
 from tracker.services.inputs import Element, FieldProblem, Name, Raw, Request, Text, parse
-from tracker.services.lab import aliquot_element
+from tracker.services.lab import aliquot_element, on_column_after
 from tracker.services.label_queue import queue_label
 from tracker.services.lookup import get_by_id, get_reference_material
 from tracker.services.uow import UnitOfWork, unit_of_work
@@ -201,6 +201,7 @@ def place(
         aliquot = get_by_id(uow.session, Aliquot, "aliquot", request.aliquot)
         if aliquot.status is not ContainerStatus.AVAILABLE or aliquot.positions:
             raise RuleViolation("aliquot", aliquot.public_id, "is already used or not available")
+        on_column_after(batch, aliquot)
         element = aliquot_element(aliquot, batch.element)
         if element is None:
             raise RuleViolation(

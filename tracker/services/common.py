@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from collections.abc import Callable
+from collections.abc import Callable, Iterable
 from datetime import datetime, timedelta
 from decimal import Decimal
 from typing import Any, TypeVar
@@ -11,33 +11,74 @@ from pydantic import BaseModel
 
 from tracker.domain.errors import InputError, RuleViolation
 from tracker.domain.models import (
+    Loan,
     Location,
     Shipment,
     ShipmentDirection,
     Specimen,
     SpecimenStatus,
 )
-from tracker.domain.timeutil import as_utc, iso_utc
+from tracker.domain.timing import (
+    CLOCK_SKEW,
+    Since,
+    day_of,
+    is_backdated,
+    not_before,
+    stated_time,
+)
 from tracker.domain.units import decimals_below
 from tracker.domain.weighing import MassByDifference
-from tracker.services.lookup import get_by_id
-from tracker.services.uow import Ref, UnitOfWork
+from tracker.services.lookup import backdating_window, get_by_id
+from tracker.services.uow import Backdating, Ref, UnitOfWork
 from tracker.services.views import Done
 
 V = TypeVar("V", bound=BaseModel)
 
-# Workstation clocks drift; a time this far ahead of the recording clock is still "now".
-CLOCK_SKEW = timedelta(minutes=5)
 
+def action_time(
+    uow: UnitOfWork,
+    given: datetime | None,
+    field: str,
+    after: Iterable[Since] = (),
+    *,
+    books: Specimen | None = None,
+) -> datetime:
+    """When the action happened: the given time or now, held to the rules of
+    :mod:`tracker.domain.timing` — every service that takes a stated time calls this (fields
+    that hold a day, not a time, call ``timing.not_before`` themselves).
 
-def action_time(uow: UnitOfWork, given: datetime | None, field: str) -> datetime:
-    """When the action happened: the given time (never in the future) or now."""
-    if given is None:
-        return uow.now
-    moment = as_utc(given)
-    if moment > uow.now + CLOCK_SKEW:
-        raise InputError(field, iso_utc(moment), f"is in the future (now is {iso_utc(uow.now)})")
+    Refused when in the future (exit 2) or before anything in ``after`` (exit 1). A time
+    further back than the lab's backdating window needs a manager (asked for by
+    ``UnitOfWork.record``, after every other rule of the entry); it is then kept beside the
+    recording time in the event's payload and in a ``BackdatedEntry`` row, and flagged on
+    the lines of ``books`` (the specimen whose books it belongs to, if one).
+    """
+    moment = stated_time(uow.now, given, field)
+    not_before(field, moment, after, CLOCK_SKEW if given is None else timedelta(0))
+    if given is not None:
+        window = backdating_window(uow.session)
+        if is_backdated(uow.now, moment, window):  # the manager is asked for when recording
+            uow.backdated = Backdating(field.replace("-", "_"), moment, window, books)
     return moment
+
+
+def checked_in(specimen: Specimen) -> Since:
+    """A specimen's check-in: nothing done to it in the lab can be older."""
+    return Since(f"{specimen.public_id} was checked in", specimen.received_at)
+
+
+def returned_after(specimen: Specimen) -> list[Since]:
+    """A specimen goes back after it came in and after the last powder drilled from it."""
+    drilled = max((p.drilled_at for p in specimen.powders), default=None)
+    return [checked_in(specimen), Since(f"{specimen.public_id} was last drilled", drilled)]
+
+
+def loan_began(loan: Loan) -> Since:
+    """A loan's first day: its receipt, or the day it was recorded when none was given (the
+    day its original terms take effect from)."""
+    if loan.received_on is not None:
+        return Since(f"loan {loan.reference} was received", loan.received_on)
+    return Since(f"loan {loan.reference} was recorded", day_of(loan.created_at))
 
 
 # Defaults when the form does not say (common practice): a microbalance reading to

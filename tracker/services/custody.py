@@ -15,6 +15,7 @@ from tracker.domain.models import (
     Aliquot,
     ContainerStatus,
     Cut,
+    Loan,
     LoanStatus,
     Location,
     Powder,
@@ -22,10 +23,12 @@ from tracker.domain.models import (
     Specimen,
     SpecimenStatus,
 )
+from tracker.domain.timing import Since, not_before
 from tracker.services.common import (
     ANALYTICAL_BALANCE_MG,
     MICROBALANCE_MG,
     finish,
+    loan_began,
     return_shipment,
     weigh,
 )
@@ -208,6 +211,7 @@ def mark_loan_returned(db: Database, actor: str | None, data: MarkReturned | Raw
         returned_on = request.returned_on or uow.now.date()
         if returned_on > uow.now.date():
             raise InputError("returned-on", returned_on.isoformat(), "is in the future")
+        not_before("returned-on", returned_on, _loan_returned_after(loan))
         loan.status = LoanStatus.RETURNED
         loan.returned_on = returned_on
         return finish(
@@ -218,6 +222,12 @@ def mark_loan_returned(db: Database, actor: str | None, data: MarkReturned | Raw
             lambda: LoanView.of(loan, returned_on),
             parent=loan.lender,
         )
+
+
+def _loan_returned_after(loan: Loan) -> list[Since]:
+    """A loan goes back after it began and after the last of its specimens went back."""
+    last = max((s.returned_at for s in loan.specimens if s.returned_at), default=None)
+    return [loan_began(loan), Since("the last of its specimens was returned", last)]
 
 
 class CloseLoan(Request):

@@ -19,16 +19,18 @@ from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
 from tracker.db.database import Database
-from tracker.domain.allowance import Limits, Usage, Violation, check_drill
+from tracker.domain.allowance import Limits, Recorded, Usage, Violation, check_drill
 from tracker.domain.budget import Amount
 from tracker.domain.errors import InputError, RuleViolation
 from tracker.domain.materials import TISSUE_DEFAULTS
 from tracker.domain.models import LoanTerms, Powder, Specimen
 from tracker.domain.terms import terms_in_force
+from tracker.domain.timing import day_of
 from tracker.domain.units import format_value_u
 from tracker.services.common import (
     MICROBALANCE_MG,
     action_time,
+    checked_in,
     finish,
     optional_location,
     require_on_hand,
@@ -94,10 +96,17 @@ def drill(db: Database, actor: str | None, data: Drill | Raw) -> Done[PowderView
     with unit_of_work(db, actor) as uow:
         specimen = get_by_id(uow.session, Specimen, "specimen", request.specimen)
         require_on_hand(specimen)
-        when = action_time(uow, request.drilled_at, "drilled-at")
+        when = action_time(
+            uow, request.drilled_at, "drilled-at", [checked_in(specimen)], books=specimen
+        )
         terms = terms_in_force(specimen.loan.terms, when.date())
         violations = check_drill(
-            limits_of(terms), usage_of(uow.session, specimen), request.tissue, mass, when.date()
+            limits_of(terms),
+            usage_of(uow.session, specimen),
+            request.tissue,
+            mass,
+            when.date(),
+            recorded_on(specimen.loan.terms, uow.now.date()),
         )
         _refuse_or_override(uow, request, violations, mass, when.date())
         material = request.material or TISSUE_DEFAULTS.get(request.tissue)
@@ -154,6 +163,11 @@ def _field_of(violation: Violation, request: Drill, mass: Amount, day: date) -> 
     if violation.limit == "specimen count":
         return "specimen", request.specimen
     return "drilled-mass", format_value_u(mass.value, mass.u, "mg")
+
+
+def recorded_on(versions: list[LoanTerms], day: date) -> Recorded:
+    """The recording day and the due date in force on it (see :class:`Recorded`)."""
+    return Recorded(day, terms_in_force(versions, day).due_on)
 
 
 def limits_of(terms: LoanTerms) -> Limits:
@@ -258,12 +272,16 @@ def preview_drill(db: Database, data: DrillDraft | Raw) -> DrillPreview:
             problem = error.one_line()
     with db.read_session() as session:
         specimen = get_by_id(session, Specimen, "specimen", request.specimen)
-        day = (request.drilled_at or db.clock()).date()
+        today = db.clock().date()
+        day = day_of(request.drilled_at) if request.drilled_at else today
         terms = terms_in_force(specimen.loan.terms, day)
         limits, usage = limits_of(terms), usage_of(session, specimen)
         tissue = (request.tissue or terms.permitted_tissues[0]).lower()
+        recorded = recorded_on(specimen.loan.terms, today)
         violations = (
-            [v.message for v in check_drill(limits, usage, tissue, mass, day)] if mass else []
+            [v.message for v in check_drill(limits, usage, tissue, mass, day, recorded)]
+            if mass
+            else []
         )
         return DrillPreview(
             specimen=specimen.public_id,

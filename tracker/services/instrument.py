@@ -21,12 +21,16 @@ from tracker.db.database import Database
 from tracker.domain.errors import InputError, NotFound, RuleViolation, in_file
 from tracker.domain.isotopes import parse_ratio
 from tracker.domain.models import (
+    BatchPosition,
+    ColumnBatch,
+    Cut,
     InstrumentSession,
     MappingProfile,
     Measurement,
     MeasurementRole,
 )
 from tracker.domain.tables import Row, TableError, read_table
+from tracker.domain.timing import Since, not_before
 from tracker.services.common import action_time, finish
 from tracker.services.inputs import AwareDatetime, Element, Name, Raw, Request, parse
 from tracker.services.matching import Matcher, require_brackets
@@ -199,6 +203,7 @@ def _import(
     require_brackets(
         session.measurements, {r[1]: r[0].number for r in rows}, profile.columns.sample_name
     )
+    not_before("started-at", session.started_at, _columns_measured(uow, session.measurements))
     view = lambda: _view(session, unmatched)  # noqa: E731
     payload = {
         "file": request.filename,
@@ -208,6 +213,20 @@ def _import(
         "unmatched": [u.model_dump() for u in unmatched],
     }
     return finish(uow, "session.imported", session, payload, view)
+
+
+def _columns_measured(uow: UnitOfWork, measurements: list[Measurement]) -> list[Since]:
+    """The column batches the session's samples and blanks came from: it starts after them."""
+    cuts = {m.cut_id for m in measurements if m.cut_id is not None}
+    positions = {m.position_id for m in measurements if m.position_id is not None}
+    if not cuts and not positions:
+        return []
+    via_cuts = select(Cut.position_id).where(Cut.id.in_(cuts))
+    used = select(BatchPosition.batch_id).where(
+        BatchPosition.id.in_(positions) | BatchPosition.id.in_(via_cuts)
+    )
+    batches = uow.session.scalars(select(ColumnBatch).where(ColumnBatch.id.in_(used)))
+    return [Since(f"batch {b.public_id} was performed", b.performed_on) for b in batches]
 
 
 def _refuse_repeat(uow: UnitOfWork, request: ImportSession) -> None:

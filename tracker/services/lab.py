@@ -20,11 +20,13 @@ from tracker.domain.errors import InputError, RuleViolation
 from tracker.domain.models import (
     Aliquot,
     AliquotPurpose,
+    ColumnBatch,
     Concentration,
     ContainerStatus,
     Powder,
     Solution,
 )
+from tracker.domain.timing import Since, not_before
 from tracker.domain.units import decimals_below, format_mass_mg, format_value_u
 from tracker.services.common import (
     ANALYTICAL_BALANCE_MG,
@@ -87,7 +89,13 @@ def dissolve(db: Database, actor: str | None, data: Dissolve | Raw) -> Done[Solu
             acid=request.acid,
             solution_mass_g=grams.value,
             solution_mass_u_g=grams.u,
-            dissolved_at=action_time(uow, request.dissolved_at, "dissolved-at"),
+            dissolved_at=action_time(
+                uow,
+                request.dissolved_at,
+                "dissolved-at",
+                [drilled(powder)],
+                books=powder.specimen,
+            ),
             dissolved_by=uow.operator.code,
             location=optional_location(uow, "location", request.location),
             created_at=uow.now,
@@ -114,6 +122,20 @@ def dissolve(db: Database, actor: str | None, data: Dissolve | Raw) -> Done[Solu
             lambda: SolutionView.of(solution),
             parent=powder,
         )
+
+
+def drilled(powder: Powder) -> Since:
+    return Since(f"{powder.public_id} was drilled", powder.drilled_at)
+
+
+def dissolved(solution: Solution) -> Since:
+    return Since(f"{solution.public_id} was dissolved", solution.dissolved_at)
+
+
+def on_column_after(batch: ColumnBatch, aliquot: Aliquot) -> None:
+    """An aliquot goes on a column of a batch performed on or after the day it was taken."""
+    taken = Since(f"{aliquot.public_id} was taken", aliquot.taken_at)
+    not_before("performed-on", batch.performed_on, [taken])
 
 
 def portion_to_dissolve(powder: Powder, request: Dissolve) -> tuple[Amount, Amount]:
@@ -226,7 +248,13 @@ def record_concentration(
             value_ug_per_g=float(request.value),
             u_ug_per_g=request.standard_uncertainty(),
             method=request.method,
-            measured_at=action_time(uow, request.measured_at, "measured-at"),
+            measured_at=action_time(
+                uow,
+                request.measured_at,
+                "measured-at",
+                [dissolved(solution)],
+                books=solution.powder.specimen,
+            ),
             recorded_by=uow.operator.code,
             created_at=uow.now,
         )
@@ -293,7 +321,13 @@ def take_aliquot(db: Database, actor: str | None, data: TakeAliquot | Raw) -> Do
             mass_g=wanted.value,
             mass_u_g=wanted.u,
             purpose=request.purpose,
-            taken_at=action_time(uow, request.taken_at, "taken-at"),
+            taken_at=action_time(
+                uow,
+                request.taken_at,
+                "taken-at",
+                [dissolved(solution)],
+                books=solution.powder.specimen,
+            ),
             taken_by=uow.operator.code,
             location=optional_location(uow, "location", request.location),
             created_at=uow.now,

@@ -17,7 +17,7 @@ from sqlalchemy.orm import Session
 from tracker.db.database import Database
 from tracker.domain.errors import InputError, RuleViolation
 from tracker.domain.labels import LabelFacts, uri_prefix_problem
-from tracker.domain.models import Label, LabelSetting, LabelStatus
+from tracker.domain.models import Label, LabelStatus, LabSetting
 from tracker.services.common import finish
 from tracker.services.inputs import Raw, Request, parse
 from tracker.services.label_facts import (
@@ -218,11 +218,11 @@ def set_uri_prefix(
         before = uri_prefix(uow.session)
         if before == request.uri_prefix:
             raise RuleViolation("uri-prefix", request.uri_prefix, "is already the lab's setting")
-        row = uow.session.get(LabelSetting, URI_PREFIX_KEY)
+        row = uow.session.get(LabSetting, URI_PREFIX_KEY)
         if request.uri_prefix is None:
             uow.session.delete(row)  # the setting differs from None, so the row exists
         else:
-            row = row or LabelSetting(key=URI_PREFIX_KEY)
+            row = row or LabSetting(key=URI_PREFIX_KEY)
             row.value = request.uri_prefix
             row.updated_by, row.updated_at = uow.operator.code, uow.now
             uow.session.add(row)

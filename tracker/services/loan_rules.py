@@ -17,6 +17,8 @@ from typing import Any, Protocol
 from tracker.domain.vocab import Disposition, LoanStatus
 
 DUE_SOON_DAYS = 30
+# A specimen with an entry a manager dated further back than the lab's backdating window.
+BACKDATED = "backdated entry"
 
 
 @dataclass(frozen=True, slots=True)
@@ -33,7 +35,7 @@ class Totals:
     powder_on_hand: float
     returned: float
     most_drilled: float  # the largest drilled total of one specimen, for the per-specimen limit
-    flags: frozenset[str]  # closure and override flags of any specimen
+    flags: frozenset[str]  # closure, override and backdating flags of any specimen
     powder_left: bool  # any powder still on hand, whatever its specimen's status
 
 
@@ -173,11 +175,13 @@ def totals_from_row(row: Sequence[Any]) -> tuple[int, Totals]:
         unaccounted,
         missing,
         powder_left,
+        backdated,
     ) = row
     flags = {
         "override used": override,
         "unaccounted material": unaccounted,
         "missing weighing": missing,
+        BACKDATED: backdated,
     }
     totals = Totals(
         count,

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from datetime import timedelta
 from typing import Any, TypeVar
 
 from sqlalchemy import Select, func, select
@@ -18,7 +19,7 @@ from tracker.domain.models import (
     Document,
     InstrumentSession,
     LabelJob,
-    LabelSetting,
+    LabSetting,
     Lender,
     Loan,
     LoanStatus,
@@ -31,6 +32,7 @@ from tracker.domain.models import (
     Specimen,
     UserMaterial,
 )
+from tracker.domain.timing import DEFAULT_BACKDATING_WINDOW
 
 MODEL_BY_KIND: dict[Kind, type[Any]] = {
     Kind.LENDER: Lender,
@@ -67,10 +69,20 @@ def uri_prefix(session: Session) -> str | None:
     """
     if _CACHE_KEY not in session.info:
         session.info[_CACHE_KEY] = session.scalar(
-            select(LabelSetting.value).where(LabelSetting.key == URI_PREFIX_KEY)
+            select(LabSetting.value).where(LabSetting.key == URI_PREFIX_KEY)
         )
     value = session.info[_CACHE_KEY]
     return value if isinstance(value, str) else None
+
+
+BACKDATING_WINDOW_KEY = "backdating_window_hours"
+
+
+def backdating_window(session: Session) -> timedelta:
+    """How far back an entry may be dated without a manager: the lab's setting, or the
+    default (:data:`tracker.domain.timing.DEFAULT_BACKDATING_WINDOW`, justified there)."""
+    hours = session.scalar(select(LabSetting.value).where(LabSetting.key == BACKDATING_WINDOW_KEY))
+    return DEFAULT_BACKDATING_WINDOW if hours is None else timedelta(hours=int(hours))
 
 
 def prefix_for(session: Session, text: str) -> str | None:

@@ -25,6 +25,7 @@ from tracker.domain.budget import COVERAGE_FACTOR, SQRT6
 from tracker.domain.ids import Kind, format_id
 from tracker.domain.models import (
     Aliquot,
+    BackdatedEntry,
     ContainerStatus,
     Loan,
     LoanStatus,
@@ -37,6 +38,7 @@ from tracker.domain.terms import terms_in_force
 from tracker.services.bulk import collector_paused
 from tracker.services.loan_lines import LoanLine, SpecimenLine, loan_line
 from tracker.services.loan_rules import (
+    BACKDATED,
     NO_TOTALS,
     LoanFacts,
     Terms,
@@ -299,6 +301,7 @@ def _totals_statement(scope: _Scope) -> Select[Any]:
         _count((ps.c.unaccounted > 0) | (ps.c.gap > 0)),
         _count((ps.c.unweighed > 0) | (ps.c.lost > 0)),
         _count(ps.c.on_hand > 0),
+        _count(ps.c.backdated > 0),
     ).group_by(ps.c.loan_id)
     return query
 
@@ -329,15 +332,32 @@ def _per_specimen(scope: _Scope) -> Select[Any]:
         .group_by(per.c.specimen_id)
         .subquery()
     )
-    query = select(
-        Specimen.id,
-        Specimen.loan_id,
-        Specimen.catalog_number,
-        Specimen.status,
-        *(sums.c[name] for name in _SUM_COLUMNS),
-    ).outerjoin(sums, sums.c.specimen_id == Specimen.id)
+    dated = _backdated(scope)
+    query = (
+        select(
+            Specimen.id,
+            Specimen.loan_id,
+            Specimen.catalog_number,
+            Specimen.status,
+            *(sums.c[name] for name in _SUM_COLUMNS),
+            func.coalesce(dated.c.entries, 0).label("backdated"),
+        )
+        .outerjoin(sums, sums.c.specimen_id == Specimen.id)
+        .outerjoin(dated, dated.c.specimen_id == Specimen.id)
+    )
     mine = scope.specimens()
     return query if mine is None else query.where(Specimen.id.in_(mine))
+
+
+def _backdated(scope: _Scope) -> Any:
+    """Per specimen (in scope): how many of its entries a manager dated beyond the window."""
+    query = (
+        select(BackdatedEntry.specimen_id, func.count().label("entries"))
+        .where(BackdatedEntry.specimen_id.is_not(None))
+        .group_by(BackdatedEntry.specimen_id)
+    )
+    mine = scope.specimens()
+    return (query if mine is None else query.where(BackdatedEntry.specimen_id.in_(mine))).subquery()
 
 
 _SUM_COLUMNS = (
@@ -356,14 +376,20 @@ _SUM_COLUMNS = (
 _NO_FLAGS: frozenset[str] = frozenset()
 
 
+_BACKDATED = frozenset({BACKDATED})
+
+
 def _books_of(row: Any) -> _Books:
     specimen, loan_id, catalog, status, powders, mass, var, dissolved, on_hand, returned = row[:10]
-    if not powders:  # listed, never drilled
-        return _Books(specimen, loan_id, catalog, status, 0, 0.0, 0.0, 0.0, 0.0, 0.0, _NO_FLAGS)
-    override, unaccounted, unweighed, lost, gap = row[10:]
+    override, unaccounted, unweighed, lost, gap, backdated = row[10:]
+    if not powders:  # listed, never drilled (perhaps checked in on a backdated day)
+        flags = _BACKDATED if backdated else _NO_FLAGS
+        return _Books(specimen, loan_id, catalog, status, 0, 0.0, 0.0, 0.0, 0.0, 0.0, flags)
     flags = _NO_FLAGS
-    if override or unaccounted or unweighed or lost or gap or on_hand > 0:
+    if override or unaccounted or unweighed or lost or gap or on_hand > 0 or backdated:
         found = set()
+        if backdated:
+            found.add(BACKDATED)
         if override:
             found.add("override used")
         if unaccounted or gap:

@@ -19,7 +19,9 @@ from sqlalchemy import func, or_, select
 from sqlalchemy.orm import Session, selectinload
 
 from tracker.db.database import Database
+from tracker.domain.ids import Kind, format_id
 from tracker.domain.models import (
+    BackdatedEntry,
     CustodyEvent,
     Loan,
     LoanDocument,
@@ -34,6 +36,7 @@ from tracker.services.common import finish
 from tracker.services.inputs import Raw, Request, parse
 from tracker.services.lab import powder_remaining
 from tracker.services.ledger import verify
+from tracker.services.loan_rules import BACKDATED
 from tracker.services.lookup import get_loan
 from tracker.services.reconcile import LoanLine, reconcile
 from tracker.services.results import results
@@ -111,6 +114,19 @@ class SpecimenEntry(View):
     flags: list[str]
 
 
+class BackdatedLine(View):
+    """An entry a manager dated further back than the lab's window: both of its times."""
+
+    item: str  # what its event concerns (a powder, a specimen, an instrument session ...)
+    specimen: str | None
+    field: str  # which time was stated, e.g. "drilled_at"
+    stated_at: datetime
+    recorded_at: datetime
+    recorded_by: str
+    window_hours: int
+    event_seq: int
+
+
 class TimelineEntry(View):
     action: str
     count: int
@@ -140,6 +156,7 @@ class ReturnReport(View):
     flags: list[str]
     ledger: LedgerHead
     notes: list[str] = Field(default_factory=list)
+    backdated: list[BackdatedLine] = Field(default_factory=list)
 
     def powder_left_mg(self, status: str) -> float:
         """Powder mass left in vials that ended ``status`` (destroyed, retained, consumed)."""
@@ -174,6 +191,8 @@ def build_return_report(db: Database, loan_ref: str) -> ReturnReport:
             for s in loan.specimens
         ]
         terms = terms_in_force(loan.terms, now.date())
+        sessions = {r.session for rs in by_specimen.values() for r in rs}
+        backdated = _backdated(session, loan.id, sessions)
         return ReturnReport(
             generated_at=now,
             lender={
@@ -199,7 +218,8 @@ def build_return_report(db: Database, loan_ref: str) -> ReturnReport:
             specimens=entries,
             shipments=_shipments(session, loan.id),
             timeline=_timeline(session, loan),
-            flags=totals.flags,
+            flags=sorted(set(totals.flags) | ({BACKDATED} if backdated else set())),
+            backdated=backdated,
             ledger=LedgerHead(
                 seq=head.head_seq,
                 hash=head.head_hash,
@@ -207,6 +227,29 @@ def build_return_report(db: Database, loan_ref: str) -> ReturnReport:
                 verify_command="tracker ledger verify",
             ),
         )
+
+
+def _backdated(session: Session, loan_id: int, sessions: set[str]) -> list[BackdatedLine]:
+    """The loan's backdated entries, and those of the instrument sessions its results
+    come from (a session spans many loans, so it names none)."""
+    query = (
+        select(BackdatedEntry)
+        .where(or_(BackdatedEntry.loan_id == loan_id, BackdatedEntry.item_ref.in_(sessions)))
+        .order_by(BackdatedEntry.event_seq)
+    )
+    return [
+        BackdatedLine(
+            item=row.item_ref,
+            specimen=format_id(Kind.SPECIMEN, row.specimen_id) if row.specimen_id else None,
+            field=row.field,
+            stated_at=row.stated_at,
+            recorded_at=row.recorded_at,
+            recorded_by=row.recorded_by,
+            window_hours=row.window_hours,
+            event_seq=row.event_seq,
+        )
+        for row in session.scalars(query)
+    ]
 
 
 def _load(session: Session, loan_ref: str) -> Loan:

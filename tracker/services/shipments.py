@@ -25,8 +25,9 @@ from tracker.domain.models import (
     Specimen,
     SpecimenPhoto,
 )
+from tracker.domain.timing import Since
 from tracker.services.amendments import Upload, store_document
-from tracker.services.common import action_time, finish
+from tracker.services.common import action_time, checked_in, finish, loan_began
 from tracker.services.inputs import AwareDatetime, Raw, Request, Text, parse
 from tracker.services.lookup import get_by_id, get_loan
 from tracker.services.uow import unit_of_work
@@ -117,7 +118,9 @@ def add_photo(db: Database, actor: str | None, data: AddPhoto | Raw) -> Done[Pho
             document=document,
             stage=request.stage,
             caption=request.caption,
-            taken_at=action_time(uow, request.taken_at, "taken-at"),
+            taken_at=action_time(
+                uow, request.taken_at, "taken-at", _photo_after(specimen), books=specimen
+            ),
             created_at=uow.now,
         )
         uow.session.add(row)
@@ -135,6 +138,14 @@ def add_photo(db: Database, actor: str | None, data: AddPhoto | Raw) -> Done[Pho
         return finish(
             uow, "specimen.photographed", specimen, payload, lambda: view, parent=document
         )
+
+
+def _photo_after(specimen: Specimen) -> list[Since]:
+    """A photograph shows the specimen in the lab: after its check-in (before one, after
+    its loan began)."""
+    if specimen.received_at is None:
+        return [loan_began(specimen.loan)]
+    return [checked_in(specimen)]
 
 
 def _require_image(upload: Upload) -> None:

@@ -14,9 +14,11 @@ from tracker.domain.models import LoanStatus, Specimen, SpecimenStatus
 from tracker.services.common import (
     action_time,
     finish,
+    loan_began,
     optional_location,
     require_on_hand,
     return_shipment,
+    returned_after,
 )
 from tracker.services.inputs import AwareDatetime, FieldProblem, Name, Raw, Request, Text, parse
 from tracker.services.label_queue import queue_label
@@ -101,7 +103,9 @@ def check_in(db: Database, actor: str | None, data: CheckIn | Raw) -> Done[Speci
                 "specimen", specimen.public_id, f"its loan is {specimen.loan.status.value}"
             )
         location = optional_location(uow, "location", request.location)
-        specimen.received_at = action_time(uow, request.received_at, "received-at")
+        specimen.received_at = action_time(
+            uow, request.received_at, "received-at", [loan_began(specimen.loan)], books=specimen
+        )
         specimen.status = SpecimenStatus.ON_HAND
         specimen.condition_in = request.condition
         specimen.location = location
@@ -140,7 +144,9 @@ def return_specimen(
         require_on_hand(specimen)
         shipment = return_shipment(uow, request.shipment, specimen.loan_id)
         specimen.return_shipment_id = shipment.id if shipment else None
-        specimen.returned_at = action_time(uow, request.returned_at, "returned-at")
+        specimen.returned_at = action_time(
+            uow, request.returned_at, "returned-at", returned_after(specimen), books=specimen
+        )
         specimen.status = SpecimenStatus.RETURNED
         specimen.condition_out = request.condition
         previous = specimen.location.path if specimen.location else None

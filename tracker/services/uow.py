@@ -12,7 +12,7 @@ from __future__ import annotations
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
 from dataclasses import dataclass, field
-from datetime import datetime
+from datetime import datetime, timedelta
 from typing import Any
 
 from sqlalchemy import select
@@ -23,12 +23,38 @@ from tracker.db.rows import insert_rows
 from tracker.domain.base import HasPublicId
 from tracker.domain.errors import InputError, RuleViolation
 from tracker.domain.ledger import GENESIS_HASH, canonical_json, event_hash
-from tracker.domain.models import CustodyEvent, EventRef, Operator, Role
-from tracker.domain.timeutil import as_utc
+from tracker.domain.models import BackdatedEntry, CustodyEvent, EventRef, Operator, Role, Specimen
+from tracker.domain.timeutil import as_utc, iso_utc
+from tracker.domain.timing import describe_window, hours_of, show
 
 Ref = HasPublicId | str | None
 # event_ref rows are written by the driver's executemany: an index, never ORM objects here
 _EVENT_REF = EventRef.metadata.tables[EventRef.__tablename__]
+
+
+@dataclass(frozen=True)
+class Backdating:
+    """An entry dated further back than the lab's window: only a manager may record it."""
+
+    field: str  # the entry's dated field, e.g. "drilled_at"
+    stated: datetime
+    window: timedelta
+    specimen: Specimen | None  # where it sits on a loan's books (None: no one specimen)
+
+    @property
+    def window_hours(self) -> int:
+        return hours_of(self.window)
+
+    def action(self) -> str:
+        """What the manager's refusal says is being done."""
+        return (
+            f"dating an entry {show(self.stated)}, more than {describe_window(self.window)} back,"
+        )
+
+    def payload(self) -> dict[str, Any]:
+        """What the event's payload says of it, beside the event's own (recording) time."""
+        stated = iso_utc(self.stated)
+        return {"field": self.field, "stated_at": stated, "window_hours": self.window_hours}
 
 
 @dataclass
@@ -43,6 +69,9 @@ class UnitOfWork:
     after_record: list[Callable[[CustodyEvent], None]] = field(default_factory=list)
     # Further items this unit's event concerns (a manifest's specimens, a print job's labels).
     mentions: set[str] = field(default_factory=set)
+    # Set by ``common.action_time`` when the entry is dated beyond the lab's window: recording
+    # it then needs a manager, its event's payload says so and a BackdatedEntry row names it.
+    backdated: Backdating | None = None
 
     def mention(self, *refs: str) -> None:
         """Make the event findable from each of these items' history."""
@@ -71,6 +100,9 @@ class UnitOfWork:
         """Append this unit's one custody event, chained to the current head."""
         if self.events:
             raise RuntimeError("a service records exactly one custody event")
+        if self.backdated is not None:  # last: refusals about the entry itself come first
+            self.require_manager(self.backdated.action())
+            payload = {**payload, "backdated": self.backdated.payload()}
         self.session.flush()  # new rows get their IDs before the event names them
         event = append_event(
             self.session,
@@ -86,9 +118,25 @@ class UnitOfWork:
         if refs:  # set-based: a manifest's one event can mention 100,000 specimens
             rows = [{"seq": event.seq, "ref": ref} for ref in refs]
             insert_rows(self.session.connection(), _EVENT_REF, rows)
+        if self.backdated is not None:
+            self.session.add(self._backdated_row(event, self.backdated))
         for hook in self.after_record:
             hook(event)
         return event
+
+    def _backdated_row(self, event: CustodyEvent, entry: Backdating) -> BackdatedEntry:
+        specimen = entry.specimen
+        return BackdatedEntry(
+            event_seq=event.seq,
+            item_ref=event.object_ref,
+            field=entry.field,
+            stated_at=entry.stated,
+            recorded_at=event.at,
+            window_hours=entry.window_hours,
+            recorded_by=self.operator.code,
+            loan_id=specimen.loan_id if specimen is not None else None,
+            specimen_id=specimen.id if specimen is not None else None,
+        )
 
     def commit(self) -> None:
         if len(self.events) != 1:

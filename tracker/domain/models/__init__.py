@@ -25,8 +25,8 @@ from tracker.domain.models.instrument import (
     Result,
     SrCurve,
 )
-from tracker.domain.models.labels import Label, LabelJob, LabelSetting
-from tracker.domain.models.ledger import CustodyEvent, EventRef
+from tracker.domain.models.labels import Label, LabelJob
+from tracker.domain.models.ledger import BackdatedEntry, CustodyEvent, EventRef
 from tracker.domain.models.loans import (
     Document,
     Loan,
@@ -44,10 +44,12 @@ from tracker.domain.models.material import (
     SpecimenPhoto,
 )
 from tracker.domain.models.people import Lender, Location, Operator
+from tracker.domain.models.settings import LabSetting
 
 __all__ = [
     "Aliquot",
     "AliquotPurpose",
+    "BackdatedEntry",
     "BatchPosition",
     "ColumnBatch",
     "Concentration",
@@ -59,10 +61,10 @@ __all__ = [
     "Document",
     "EventRef",
     "InstrumentSession",
+    "LabSetting",
     "Label",
     "LabelJob",
     "LabelJobKind",
-    "LabelSetting",
     "LabelStatus",
     "Lender",
     "Loan",

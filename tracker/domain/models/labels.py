@@ -1,4 +1,4 @@
-"""The label print queue, print jobs and the lab's label settings.
+"""The label print queue and print jobs.
 
 A ``Label`` row is one physical label: queued by the custody event that made
 the need for it (a drill, a check-in ...), then printed by one ``LabelJob``.
@@ -58,14 +58,3 @@ class Label(Base):
     job_id: Mapped[int | None] = mapped_column(ForeignKey("label_job.id"), index=True)
 
     job: Mapped[LabelJob | None] = relationship()
-
-
-class LabelSetting(Base):
-    """Lab-wide label settings (one row per key), shared by every workstation."""
-
-    __tablename__ = "label_setting"
-
-    key: Mapped[str] = mapped_column(String(40), primary_key=True)
-    value: Mapped[str] = mapped_column(Text)
-    updated_by: Mapped[str] = mapped_column(String(32), ForeignKey("operator.code"))
-    updated_at: Mapped[datetime]

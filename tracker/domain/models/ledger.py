@@ -42,3 +42,26 @@ class EventRef(Base):
 
     seq: Mapped[int] = mapped_column(ForeignKey("custody_event.seq"), primary_key=True)
     ref: Mapped[str] = mapped_column(String(40), primary_key=True, index=True)
+
+
+class BackdatedEntry(Base):
+    """An entry dated further back than the lab's window, accepted from a manager.
+
+    Append-only like the ledger: one row per such entry, naming its event, the item the
+    event concerns, the field and both times (stated and recorded), and where it sits on a
+    loan's books (``specimen_id``; none for an instrument session, which spans many).
+    Reconciliation counts these rows per specimen to flag the loan's lines.
+    """
+
+    __tablename__ = "backdated_entry"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    event_seq: Mapped[int] = mapped_column(unique=True)  # the entry's own ledger event
+    item_ref: Mapped[str] = mapped_column(String(40), index=True)  # the event's object
+    field: Mapped[str] = mapped_column(String(40))  # e.g. "drilled_at"
+    stated_at: Mapped[datetime]
+    recorded_at: Mapped[datetime]
+    window_hours: Mapped[int]  # the lab's window when it was recorded
+    recorded_by: Mapped[str] = mapped_column(String(32), ForeignKey("operator.code"))
+    loan_id: Mapped[int | None] = mapped_column(ForeignKey("loan.id"), index=True)
+    specimen_id: Mapped[int | None] = mapped_column(ForeignKey("specimen.id"), index=True)
