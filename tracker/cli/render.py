@@ -193,7 +193,7 @@ def reconcile_tables(lines: list[LoanLine]) -> RenderableType:
         for s in line.specimen_lines:
             permitted = f"/{s.permitted_mg:g} mg" if s.permitted_mg else " mg"
             table.add_row(
-                f"{s.id}\n[dim]{s.catalog_number}[/dim]",
+                Text.assemble(f"{s.id}\n", (f"{s.catalog_number}", "dim")),
                 f"{s.drilled_mg:.3f}{permitted}",
                 f"{s.dissolved_mg:.3f}",
                 f"{s.powder_on_hand_mg:.3f}",
@@ -219,7 +219,7 @@ def plan_table(plan: Plan) -> RenderableType:
     for s in plan.specimens:
         verdict = ("yes: " if s.feasible else "NO: ") + s.reason
         table.add_row(
-            f"{s.id}\n[dim]{s.catalog_number}[/dim]",
+            Text.assemble(f"{s.id}\n", (f"{s.catalog_number}", "dim")),
             f"{s.element_needed_ug:.2f}",
             f"{s.powder_needed_mg:.3f} mg",
             f"{s.powder_on_hand_mg:.3f} mg",

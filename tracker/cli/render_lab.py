@@ -42,7 +42,7 @@ def batch_table(summary: BatchSummary) -> RenderableType:
         )
         moved = f"{_pm(line.loaded_ug, 2)} → {_pm(line.recovered_ug, 2)} µg"
         table.add_row(
-            f"{line.slot}. {line.id}\n[dim]{line.kind}[/dim]",
+            Text.assemble(f"{line.slot}. {line.id}\n", (f"{line.kind}", "dim")),
             line.holds or "",
             moved,
             yield_text,
@@ -80,7 +80,10 @@ def reduction_table(reduction: Reduction) -> RenderableType:
         ]
         flags = sorted({f for x in by_ratio.values() for f in x.flags})
         table.add_row(
-            f"{target}\n[dim]{first.label}[/dim]", *cells, "\n".join(checks) or "—", _flags(flags)
+            Text.assemble(f"{target}\n", (f"{first.label}", "dim")),
+            *cells,
+            "\n".join(checks) or "—",
+            _flags(flags),
         )
     return Group(head, table)
 
@@ -99,7 +102,7 @@ def results_table(rows: list[SpecimenResult]) -> RenderableType:
     for r in rows:
         digits = 3 if r.kind == "delta" else 6
         table.add_row(
-            f"{r.specimen}\n[dim]{r.catalog_number}[/dim]",
+            Text.assemble(f"{r.specimen}\n", (f"{r.catalog_number}", "dim")),
             r.ratio,
             _pm(r.value, digits),
             _pm(r.two_sd, digits),
@@ -118,7 +121,7 @@ def screen_table(lines: list[Screening]) -> RenderableType:
         allowed = "; ".join(f"{a:.2f}–{b:.2f}" for a, b in s.intervals_ma) or "none"
         strata = "—" if s.age_min_ma is None else f"{s.age_min_ma:g}–{s.age_max_ma:g}"
         table.add_row(
-            f"{s.specimen}\n[dim]{s.catalog_number}[/dim]",
+            Text.assemble(f"{s.specimen}\n", (f"{s.catalog_number}", "dim")),
             f"{s.ratio:.6f}",
             allowed,
             strata,
