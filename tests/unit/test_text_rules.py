@@ -48,11 +48,7 @@ NAMED = [
 
 
 def every_code_point_in(categories: set[str]) -> list[str]:
-    return [
-        chr(c)
-        for c in range(sys.maxunicode + 1)
-        if unicodedata.category(chr(c)) in categories
-    ]
+    return [chr(c) for c in range(sys.maxunicode + 1) if unicodedata.category(chr(c)) in categories]
 
 
 def refused(text: str, *, multiline: bool = False) -> bool:
@@ -152,7 +148,7 @@ def test_tab_and_line_break_in_a_name_say_the_field_is_one_line() -> None:
 
 
 def test_visible_writes_every_unreadable_character_as_its_code_point() -> None:
-    hidden = every_code_point_in(UNREADABLE - {"Cn", "Co"}) + ["\ue000", "\U0010fffd", "\u0378"]
+    hidden = [*every_code_point_in(UNREADABLE - {"Cn", "Co"}), "\ue000", "\U0010fffd", "\u0378"]
     for char in hidden:
         shown = visible(f"a{char}b", keep_lines=False)
         assert shown == f"a{marker(char)}b", hex(ord(char))

@@ -59,6 +59,10 @@ class PlainConsole(Console):
     def print(self, *objects: Any, **options: Any) -> None:
         super().print(*(Shown(item) for item in objects), **options)
 
+    def render_str(self, text: str, **options: Any) -> Any:
+        """Every string printed or put in a table cell, shown (and measured) visibly."""
+        return super().render_str(visible(text), **options)
+
 
 console = PlainConsole()
 errors = PlainConsole(stderr=True)
