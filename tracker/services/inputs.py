@@ -14,7 +14,7 @@ breaks and tabs; every other field is one line.
 from __future__ import annotations
 
 import typing
-from collections.abc import Mapping
+from collections.abc import Iterable, Mapping
 from datetime import date, datetime
 from decimal import Decimal
 from typing import Annotated, Any, ClassVar, TypeVar
@@ -54,26 +54,35 @@ class Request(BaseModel):
     model_config = ConfigDict(extra="forbid", str_strip_whitespace=True, frozen=True)
 
     # Filled in for each subclass: fields (and aliases) of free text; fields holding other
-    # requests, which judge their own text.
+    # requests, which judge their own text; fields whose dictionaries or lists hold text.
     free_text_fields: ClassVar[frozenset[str]] = frozenset()
     nested_fields: ClassVar[frozenset[str]] = frozenset()
+    text_containers: ClassVar[frozenset[str]] = frozenset()
 
     @classmethod
     def __pydantic_init_subclass__(cls, **kwargs: Any) -> None:
         super().__pydantic_init_subclass__(**kwargs)
         cls.free_text_fields = _keys(cls.model_fields, _is_free_text)
         cls.nested_fields = _keys(cls.model_fields, _holds_model)
+        cls.text_containers = _keys(cls.model_fields, _holds_container) - cls.nested_fields
 
     @model_validator(mode="before")
     @classmethod
     def _outside_text(cls, data: Any) -> Any:
         if not isinstance(data, Mapping):
             return data
-        nested, free = cls.nested_fields, cls.free_text_fields
-        return {
-            key: value if key in nested else _judged(str(key), value, key in free)
-            for key, value in data.items()
-        }
+        if _plain_ascii([value for value in data.values() if type(value) is str]):
+            looked_at = [key for key in cls.text_containers if key in data]  # the usual case
+        else:
+            looked_at = [key for key in data if key not in cls.nested_fields]
+        judged: dict[Any, Any] | None = None  # a copy, made only when some text changes
+        for key in looked_at:
+            value = data[key]
+            kept = _judged(str(key), value, key in cls.free_text_fields)
+            if kept is not value:
+                judged = dict(data) if judged is None else judged
+                judged[key] = kept
+        return data if judged is None else judged
 
 
 R = TypeVar("R", bound=BaseModel)
@@ -91,24 +100,52 @@ class TextRefused(FieldProblem):
     """A field's text holds a character the text rule refuses; ``value`` shows it visibly."""
 
 
-def _judged(field: str, value: Any, multiline: bool) -> Any:
-    """``value`` with every text in it accepted (stripped, NFC), or TextRefused for the field.
+# Values that hold no text, passed over without a look (anything else is looked into).
+_NOT_TEXT = frozenset({type(None), bool, int, float, Decimal, bytes, date, datetime})
 
-    Dictionary keys are one line; values and list items are judged like the field.
+
+def _judged(field: str, value: Any, multiline: bool) -> Any:
+    """``value`` with every text in it accepted (in NFC), or TextRefused for the field.
+
+    Dictionary keys are one line; values and list items are judged like the field. What
+    needs no change is returned as it came (the same object), so callers copy only on change.
     """
-    if isinstance(value, str):
+    kind = type(value)
+    if kind in _NOT_TEXT:
+        return value
+    if kind is str:
         try:
-            return accept(value, multiline=multiline)
+            kept = accept(value, multiline=multiline)
         except TextProblem as problem:
             raise TextRefused(field.replace("_", "-"), problem.shown, problem.reason) from None
-    if isinstance(value, Mapping):
-        return {
-            _judged(field, key, False): _judged(f"{field}.{key}", item, multiline)
+        return value if kept == value else kept
+    if kind is dict or isinstance(value, Mapping):
+        if _plain_ascii([*value, *value.values()]):
+            return value
+        pairs = [
+            (_judged(field, key, False), _judged(f"{field}.{key}", item, multiline))
             for key, item in value.items()
-        }
+        ]
+        same = all(
+            k is key and v is item for (k, v), (key, item) in zip(pairs, value.items(), strict=True)
+        )
+        return value if same else dict(pairs)
     if isinstance(value, list | tuple):
-        return [_judged(field, item, multiline) for item in value]
+        if _plain_ascii(value):
+            return value
+        items = [_judged(field, item, multiline) for item in value]
+        return value if all(a is b for a, b in zip(items, value, strict=True)) else items
     return value
+
+
+def _plain_ascii(items: Iterable[Any]) -> bool:
+    """Whether every item is text in printable ASCII, which the text rule neither refuses nor
+    changes: checked at C speed in one join."""
+    try:
+        joined = " ".join(items)
+    except TypeError:  # not all of them are text
+        return False
+    return joined.isascii() and joined.isprintable()
 
 
 def imported_text(where: str, value: str, *, multiline: bool = False) -> str:
@@ -135,6 +172,16 @@ def _is_free_text(info: FieldInfo) -> bool:
 
 def _holds_model(info: FieldInfo) -> bool:
     return _mentions(info.annotation, lambda t: isinstance(t, type) and issubclass(t, BaseModel))
+
+
+def _holds_container(info: FieldInfo) -> bool:
+    return _mentions(
+        info.annotation,
+        lambda t: t is Any or typing.get_origin(t) in _CONTAINERS or t in _CONTAINERS,
+    )
+
+
+_CONTAINERS = (dict, list, tuple, set, frozenset, Mapping)
 
 
 def _mentions(annotation: Any, found: typing.Callable[[Any], bool]) -> bool:
