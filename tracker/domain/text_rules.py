@@ -61,13 +61,15 @@ def is_hidden(char: str) -> bool:
 
 
 def accept(text: str, *, multiline: bool = False) -> str:
-    """The text as it is kept, in NFC; or TextProblem naming the first bad character.
+    """The text as it is kept: trimmed, in NFC; or TextProblem naming the first bad character.
 
-    One-line text (names, IDs, catalogue numbers, codes) holds no control character at all,
-    tab and line break included, not even at its ends: nothing is dropped silently. Free
-    text (``multiline``) may keep line breaks (a Windows CR LF becomes LF) and tabs, nothing
-    else of the controls. Surrounding spaces are the caller's to trim (request models do).
+    Blanks around the text (spaces, a tab or line break left by a spreadsheet) are trimmed,
+    as request models always did. One-line text (names, IDs, catalogue numbers, codes) then
+    holds no control character at all, tab and line break included. Free text
+    (``multiline``) may keep line breaks (a Windows CR LF becomes LF) and tabs, nothing else
+    of the controls.
     """
+    text = text.strip()
     if multiline and "\r\n" in text:
         text = text.replace("\r\n", "\n")
     if text.isascii() and (text.isprintable() or (multiline and _only_line_keepers(text))):

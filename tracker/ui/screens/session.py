@@ -216,4 +216,11 @@ def result_cells(line: ResultLine, mode: str) -> tuple[Any, ...]:
         if text.plain:
             text.append(" · ")
         text.append_text(flag_text(flags))
-    return (shown(line.label), line.ratio, f"{line.value:.3f}{unit}", two_sd, str(line.n), text)
+    return (
+        shown(line.label),
+        shown(line.ratio),
+        f"{line.value:.3f}{unit}",
+        two_sd,
+        str(line.n),
+        text,
+    )
