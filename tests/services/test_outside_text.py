@@ -150,6 +150,16 @@ def test_a_manifest_heading_with_a_hidden_character_is_a_problem_of_the_file(
     assert snapshot_counts(db) == before
 
 
+def test_two_headings_composed_two_ways_are_one_heading_written_twice(db: Database) -> None:
+    loan = factories.loan(db)
+    before = snapshot_counts(db)
+    text = "catalogNumber,café,cafe\u0301\nFM 1,a,b\n"  # UAX #15: the same heading twice
+    with pytest.raises(InputError) as caught:
+        manifests.import_manifest(db, "boss", manifest(db, loan, text))
+    assert caught.value.field == "list.csv, header" and "twice" in caught.value.reason
+    assert snapshot_counts(db) == before
+
+
 def test_a_manifest_reads_composed_and_decomposed_numbers_as_one(db: Database) -> None:
     loan = factories.loan(db)
     first = "catalogNumber,locality\nMuséum 1,Pit\n"

@@ -129,7 +129,15 @@ def _judged(field: str, value: Any, multiline: bool) -> Any:
         same = all(
             k is key and v is item for (k, v), (key, item) in zip(pairs, value.items(), strict=True)
         )
-        return value if same else dict(pairs)
+        if same:
+            return value
+        kept_pairs = dict(pairs)
+        if len(kept_pairs) < len(pairs):  # two names that differ only in how they are composed
+            twice = next(k for n, (k, _) in enumerate(pairs) if k in dict(pairs[:n]))
+            raise TextRefused(
+                field.replace("_", "-"), twice, "is written twice (composed two ways, NFC)"
+            )
+        return kept_pairs
     if isinstance(value, list | tuple):
         if _plain_ascii(value):
             return value

@@ -66,11 +66,16 @@ def header_problems(header: list[str]) -> list[str]:
         for h in header
         if looks_like_formula(h)
     ]
+    seen: set[str] = set()
     for heading in header:
         try:
-            accept(heading)
+            kept = accept(heading)
         except TextProblem as problem:
             found.append(f"heading {problem.shown!r} {problem.reason}")
+            continue
+        if kept in seen:
+            found.append(f"heading {kept!r} is written twice (composed two ways, NFC)")
+        seen.add(kept)
     if REQUIRED not in header:
         found.append(f"no {REQUIRED} column (Darwin Core term); headings are: {', '.join(header)}")
     return found
