@@ -13,6 +13,7 @@ from rich.text import Text
 
 from tracker.cli.render import done, plain_table
 from tracker.cli.state import cli_fields, database, emit, perform, state
+from tracker.domain.text_rules import visible
 from tracker.services import labels
 
 Opt = typer.Option
@@ -159,7 +160,7 @@ def _job_text(outcome: Any) -> Text:
     if outcome.printer is not None:
         style = "green" if outcome.printer.sent else "yellow"
         text.append(f"\nprinter {outcome.printer.printer}: ")
-        text.append(outcome.printer.message, style=style)
+        text.append(visible(outcome.printer.message), style=style)
     return text
 
 
@@ -281,14 +282,14 @@ def lookup(
         found = labels.read_scan(db, scanned)
 
     def human() -> Text:
-        text = Text.assemble((found.id, "bold"), f"  {found.kind}  {found.what}")
+        text = Text.assemble((found.id, "bold"), visible(f"  {found.kind}  {found.what}"))
         if found.status:
             text.append(f"  [{found.status}]")
         if found.label:
-            text.append("\nlabel: " + " / ".join(found.label))
-        text.append(f"\nlocation: {found.location or 'not recorded'}")
+            text.append(visible("\nlabel: " + " / ".join(found.label)))
+        text.append(visible(f"\nlocation: {found.location or 'not recorded'}"))
         for ancestor in found.ancestors:
-            text.append(f"\nfrom: {ancestor}")
+            text.append(visible(f"\nfrom: {ancestor}"))
         return text
 
     emit(ctx, found, human)

@@ -12,6 +12,7 @@ from tracker.cli.render import done, plain_table
 from tracker.cli.state import database, emit, errors, perform, read_upload, state
 from tracker.domain.errors import InputError
 from tracker.domain.models import ShipmentDirection
+from tracker.domain.text_rules import visible
 from tracker.output import report_files
 from tracker.services import exports, manifests, shipments
 
@@ -78,12 +79,14 @@ def _preview_table(preview: manifests.ManifestPreview) -> Any:
     from rich.text import Text
 
     head = Text(
-        f"{preview.file}: {preview.create} to create, {preview.update} to update, "
-        f"{preview.unchanged} unchanged, {preview.problems} problem(s)"
-        + (
-            f"; kept as extra terms: {', '.join(preview.kept_as_extra)}"
-            if preview.kept_as_extra
-            else ""
+        visible(
+            f"{preview.file}: {preview.create} to create, {preview.update} to update, "
+            f"{preview.unchanged} unchanged, {preview.problems} problem(s)"
+            + (
+                f"; kept as extra terms: {', '.join(preview.kept_as_extra)}"
+                if preview.kept_as_extra
+                else ""
+            )
         )
     )
     table = plain_table("row", "catalogue no.", "action", "problems / changes")

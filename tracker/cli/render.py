@@ -1,6 +1,9 @@
 """Rich renderings of service views for people at a terminal.
 
-No colour carries meaning on its own: every status is also written in words.
+No colour carries meaning on its own: every status is also written in words. Text from
+the database (names, catalogue numbers) goes into ``Text`` through
+:func:`tracker.domain.text_rules.visible`, so a hidden character in it is measured as
+the ``<U+001B>`` it is shown as; the console (cli/state.py) shows any that remain.
 """
 
 from typing import Any
@@ -11,6 +14,7 @@ from rich.table import Table
 from rich.text import Text
 from rich.tree import Tree
 
+from tracker.domain.text_rules import visible
 from tracker.domain.units import format_mass_mg, format_value_u
 from tracker.services.lineage import ItemDetail, Node
 from tracker.services.planning import Plan
@@ -23,7 +27,7 @@ BAR_WIDTH = 8
 def done(answer: Done[Any], what: str) -> Text:
     """One line confirming what was recorded, with the ledger event number."""
     return Text.assemble(
-        ("recorded ", "green"), (what, "bold"), f"  (ledger event #{answer.event_seq})"
+        ("recorded ", "green"), (visible(what), "bold"), f"  (ledger event #{answer.event_seq})"
     )
 
 
@@ -67,7 +71,7 @@ def overview_table(lines: list[LoanLine]) -> RenderableType:
         )
         sampled = f"{line.sampled}/{line.max_specimens_sampled or '-'} sampled"
         table.add_row(
-            Text.assemble(line.reference, "\n", (f"{line.lender_code} {line.id}", "dim")),
+            Text.assemble(visible(line.reference), "\n", (f"{line.lender_code} {line.id}", "dim")),
             f"{sampled}\n{line.on_hand}/{line.specimens} on hand",
             Text.assemble(f"{line.drilled_mg:.3f}{allowed}\n", usage_bar(line.used_fraction)),
             due,
@@ -95,7 +99,7 @@ def _add_children(tree: Tree, node: Node) -> None:
 
 
 def _node_label(node: Node) -> Text:
-    text = Text.assemble((node.id, "bold cyan"), f"  {node.label}")
+    text = Text.assemble((node.id, "bold cyan"), visible(f"  {node.label}"))
     if node.status:
         text.append(f"  [{node.status.replace('_', ' ')}]", style="dim")
     facts = _facts(node.facts)
@@ -154,9 +158,9 @@ def item_detail(detail: ItemDetail) -> RenderableType:
     parts: list[RenderableType] = []
     if detail.ancestors:
         path = " › ".join(f"{a.id} {a.label}" for a in detail.ancestors)
-        parts.append(Text(f"from: {path}", style="dim"))
+        parts.append(Text(visible(f"from: {path}"), style="dim"))
     if detail.location:
-        parts.append(Text(f"location: {detail.location}"))
+        parts.append(Text(visible(f"location: {detail.location}")))
     parts.append(lineage_tree(detail.item))
     parts.append(history_table(detail.history))
     return Group(*parts)
@@ -179,7 +183,7 @@ def reconcile_tables(lines: list[LoanLine]) -> RenderableType:
             else line.status
         )
         head = Text.assemble(
-            (f"{line.reference}", "bold"),
+            (visible(line.reference), "bold"),
             f"  {line.lender_code}  {line.id}  terms v{line.terms_version}  {due}\n",
             f"drilled {format_value_u(line.drilled_mg, line.drilled_u_mg, 'mg')} of {limit}; "
             f"{line.sampled}/{line.max_specimens_sampled or '-'} specimens sampled; "
@@ -193,7 +197,7 @@ def reconcile_tables(lines: list[LoanLine]) -> RenderableType:
         for s in line.specimen_lines:
             permitted = f"/{s.permitted_mg:g} mg" if s.permitted_mg else " mg"
             table.add_row(
-                f"{s.id}\n[dim]{s.catalog_number}[/dim]",
+                Text.assemble(f"{s.id}\n", (visible(s.catalog_number), "dim")),
                 f"{s.drilled_mg:.3f}{permitted}",
                 f"{s.dissolved_mg:.3f}",
                 f"{s.powder_on_hand_mg:.3f}",
@@ -219,7 +223,7 @@ def plan_table(plan: Plan) -> RenderableType:
     for s in plan.specimens:
         verdict = ("yes: " if s.feasible else "NO: ") + s.reason
         table.add_row(
-            f"{s.id}\n[dim]{s.catalog_number}[/dim]",
+            Text.assemble(f"{s.id}\n", (visible(s.catalog_number), "dim")),
             f"{s.element_needed_ug:.2f}",
             f"{s.powder_needed_mg:.3f} mg",
             f"{s.powder_on_hand_mg:.3f} mg",

@@ -4,6 +4,7 @@ from rich.console import Group, RenderableType
 from rich.text import Text
 
 from tracker.cli.render import plain_table
+from tracker.domain.text_rules import visible
 from tracker.services.columns import BatchSummary
 from tracker.services.reduction import Reduction, ResultLine
 from tracker.services.results import SpecimenResult
@@ -26,7 +27,7 @@ def batch_table(summary: BatchSummary) -> RenderableType:
         + (f", SD {summary.blank_sd_ng:.1f} ng)" if summary.blank_sd_ng else ")")
     )
     head = Text.assemble(
-        (f"{summary.name}", "bold"),
+        (visible(summary.name), "bold"),
         f"  {summary.id}  {summary.element}; ",
         f"yield ≥ {summary.yield_threshold * 100:g} %, blank ≤ "
         f"{summary.blank_limit * 100:g} %; {blank}",
@@ -42,7 +43,7 @@ def batch_table(summary: BatchSummary) -> RenderableType:
         )
         moved = f"{_pm(line.loaded_ug, 2)} → {_pm(line.recovered_ug, 2)} µg"
         table.add_row(
-            f"{line.slot}. {line.id}\n[dim]{line.kind}[/dim]",
+            Text.assemble(f"{line.slot}. {line.id}\n", (f"{line.kind}", "dim")),
             line.holds or "",
             moved,
             yield_text,
@@ -55,7 +56,7 @@ def batch_table(summary: BatchSummary) -> RenderableType:
 def reduction_table(reduction: Reduction) -> RenderableType:
     """One row per target, one column per ratio: value ± 2SD (n); checks and flags merged."""
     head = Text.assemble(
-        (f"{reduction.name}", "bold"),
+        (visible(reduction.name), "bold"),
         f"  {reduction.session}  on the {reduction.scale} scale; "
         f"{reduction.unmatched} unmatched rows\n",
         (
@@ -80,7 +81,10 @@ def reduction_table(reduction: Reduction) -> RenderableType:
         ]
         flags = sorted({f for x in by_ratio.values() for f in x.flags})
         table.add_row(
-            f"{target}\n[dim]{first.label}[/dim]", *cells, "\n".join(checks) or "—", _flags(flags)
+            Text.assemble(f"{target}\n", (visible(first.label), "dim")),
+            *cells,
+            "\n".join(checks) or "—",
+            _flags(flags),
         )
     return Group(head, table)
 
@@ -99,7 +103,7 @@ def results_table(rows: list[SpecimenResult]) -> RenderableType:
     for r in rows:
         digits = 3 if r.kind == "delta" else 6
         table.add_row(
-            f"{r.specimen}\n[dim]{r.catalog_number}[/dim]",
+            Text.assemble(f"{r.specimen}\n", (visible(r.catalog_number), "dim")),
             r.ratio,
             _pm(r.value, digits),
             _pm(r.two_sd, digits),
@@ -118,7 +122,7 @@ def screen_table(lines: list[Screening]) -> RenderableType:
         allowed = "; ".join(f"{a:.2f}–{b:.2f}" for a, b in s.intervals_ma) or "none"
         strata = "—" if s.age_min_ma is None else f"{s.age_min_ma:g}–{s.age_max_ma:g}"
         table.add_row(
-            f"{s.specimen}\n[dim]{s.catalog_number}[/dim]",
+            Text.assemble(f"{s.specimen}\n", (visible(s.catalog_number), "dim")),
             f"{s.ratio:.6f}",
             allowed,
             strata,

@@ -17,14 +17,55 @@ from typing import Any
 
 import typer
 from pydantic import BaseModel
-from rich.console import Console, RenderableType
+from rich.console import Console, ConsoleOptions, RenderableType, RenderResult
+from rich.segment import Segment
 from typer.core import TyperGroup
 
 from tracker.db.location import default_database
 from tracker.domain.errors import InputError, TrackerError
+from tracker.domain.text_rules import json_visible, visible
 
-console = Console(highlight=False)
-errors = Console(stderr=True, highlight=False)
+
+class Shown:
+    """Any rendering, with every character a terminal would act on written visibly.
+
+    Stored text can hold what an older release let in (an ESC sequence in a lender's
+    name, a bidi override in a catalogue number): every segment of text passes through
+    :func:`tracker.domain.text_rules.visible` on its way out; only rich's own control
+    segments (cursor moves it makes itself) pass as they are.
+    """
+
+    def __init__(self, inner: RenderableType) -> None:
+        self.inner = inner
+
+    def __rich_console__(self, console: Console, options: ConsoleOptions) -> RenderResult:
+        for segment in console.render(self.inner, options):
+            if segment.control:
+                yield segment
+            else:
+                yield Segment(visible(segment.text), segment.style)
+
+
+class PlainConsole(Console):
+    """The CLI's console: no markup, no emoji codes, no highlighting, stored text shown.
+
+    ``[red]`` or ``:warning:`` in a stored name prints as written; renderers style with
+    ``Text`` spans, never with markup in strings.
+    """
+
+    def __init__(self, **options: Any) -> None:
+        super().__init__(highlight=False, markup=False, emoji=False, **options)
+
+    def print(self, *objects: Any, **options: Any) -> None:
+        super().print(*(Shown(item) for item in objects), **options)
+
+    def render_str(self, text: str, **options: Any) -> Any:
+        """Every string printed or put in a table cell, shown (and measured) visibly."""
+        return super().render_str(visible(text), **options)
+
+
+console = PlainConsole()
+errors = PlainConsole(stderr=True)
 
 
 @dataclass
@@ -174,7 +215,7 @@ def jsonable(data: Any) -> Any:
 def emit(ctx: typer.Context, data: Any, human: Callable[[], RenderableType | str]) -> None:
     """Print ``data`` as one JSON document with --json, else the human rendering."""
     if state(ctx).as_json:
-        typer.echo(json.dumps(jsonable(data), ensure_ascii=False, indent=2))
+        typer.echo(json_visible(json.dumps(jsonable(data), ensure_ascii=False, indent=2)))
     else:
         rendered = human()
         console.print(rendered, soft_wrap=isinstance(rendered, str))  # paths stay whole
@@ -183,8 +224,8 @@ def emit(ctx: typer.Context, data: Any, human: Callable[[], RenderableType | str
 def refuse(error: TrackerError, as_json: bool) -> int:
     """Print a refusal: one line on stderr, and with --json one JSON object on stdout."""
     if as_json:
-        typer.echo(json.dumps(error.as_dict(), ensure_ascii=False))
-    errors.print(f"error: {error.one_line()}", markup=False, soft_wrap=True)
+        typer.echo(json_visible(json.dumps(error.as_dict(), ensure_ascii=False)))
+    errors.print(f"error: {visible(error.one_line(), keep_lines=False)}", soft_wrap=True)
     return error.exit_code
 
 

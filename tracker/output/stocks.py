@@ -15,9 +15,10 @@ from importlib import resources
 from pathlib import Path
 from typing import Annotated, Any, Literal
 
-from pydantic import BaseModel, ConfigDict, Field, ValidationError, model_validator
+from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator, model_validator
 
 from tracker.domain.errors import InputError
+from tracker.domain.text_rules import TextProblem, accept
 from tracker.domain.textfiles import MAX_SETTINGS_BYTES, FileProblem, load_settings
 from tracker.output.geometry import Box
 
@@ -62,6 +63,15 @@ class Stock(BaseModel):
     text_pt: Points = 5.5
     max_module_mm: Annotated[float, Field(ge=MIN_MODULE_MM, le=5)] = 0.5
     error_correction: Literal["L", "M", "Q", "H"] = "M"
+
+    @field_validator("description")
+    @classmethod
+    def _readable(cls, value: str) -> str:
+        """A lab's description is shown in lists: judged like any text from outside."""
+        try:
+            return accept(value)
+        except TextProblem as problem:
+            raise ValueError(f"{problem.shown!r} {problem.reason}") from None
 
     @property
     def per_sheet(self) -> int:

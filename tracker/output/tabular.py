@@ -2,16 +2,32 @@
 
 Every text cell passes through :func:`tracker.domain.spreadsheet.neutralise`; numbers
 stay numbers. XLSX cells are written as explicit strings or numbers, never as formulas.
+
+Stored text can hold characters an older release let in (an ESC, a bidi override).
+CSV keeps every character exactly: a CSV export is a copy of the data for another
+program (a lender's database, a diff against the manifest), which must get the text as
+it is stored; its control characters are inert in a spreadsheet, and the one thing a
+spreadsheet would *run* — a formula — is already neutralised. An XLSX cell is XML text,
+which cannot hold most C0 controls (openpyxl refuses them with an error, and a U+FFFE it
+lets through leaves a workbook no reader opens): those are written visibly
+(``<U+001B>``); everything else is kept (a carriage return is read back as a line
+feed, as XML reads every line end).
 """
 
 from __future__ import annotations
 
 import csv
 import io
+import re
 from collections.abc import Sequence
 from typing import Any
 
 from tracker.domain.spreadsheet import neutralise
+from tracker.domain.text_rules import marker
+
+# Characters outside XML 1.0's Char production (XML 1.0 Fifth Edition §2.2, from memory:
+# #x9 | #xA | #xD | [#x20-#xD7FF] | [#xE000-#xFFFD] | [#x10000-#x10FFFF]).
+_NOT_XML_TEXT = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\ud800-\udfff\ufffe\uffff]")
 
 
 def _cell(value: Any) -> Any:
@@ -34,14 +50,22 @@ def csv_bytes(columns: Sequence[str], rows: Sequence[dict[str, Any]]) -> bytes:
     return ("\ufeff" + buffer.getvalue()).encode("utf-8")
 
 
+def _xlsx_cell(value: Any) -> Any:
+    cell = _cell(value)
+    if isinstance(cell, str) and _NOT_XML_TEXT.search(cell):
+        return _NOT_XML_TEXT.sub(lambda found: marker(found.group()), cell)
+    return cell
+
+
 def xlsx_bytes(columns: Sequence[str], rows: Sequence[dict[str, Any]], sheet: str) -> bytes:
+    """An XLSX workbook of one sheet; every stored string can be written (see above)."""
     from openpyxl import Workbook  # imported lazily: only XLSX exports need it
 
     book = Workbook(write_only=True)
     page = book.create_sheet(sheet[:31])
-    page.append(list(columns))
+    page.append([_xlsx_cell(c) for c in columns])
     for row in rows:
-        page.append([_cell(row.get(c)) for c in columns])
+        page.append([_xlsx_cell(row.get(c)) for c in columns])
     buffer = io.BytesIO()
     book.save(buffer)
     return buffer.getvalue()

@@ -32,7 +32,15 @@ from tracker.domain.models import (
 from tracker.domain.tables import Row, TableError, read_table
 from tracker.domain.timing import Since, not_before
 from tracker.services.common import action_time, finish
-from tracker.services.inputs import AwareDatetime, Element, Name, Raw, Request, parse
+from tracker.services.inputs import (
+    AwareDatetime,
+    Element,
+    Name,
+    Raw,
+    Request,
+    imported_text,
+    parse,
+)
 from tracker.services.matching import Matcher, require_brackets
 from tracker.services.uow import UnitOfWork, unit_of_work
 from tracker.services.views import Done, View
@@ -300,9 +308,15 @@ def _read(
                 f"run number repeats row {seen[run]}",
             )
         seen[run] = row.number
-        label = row.cells.get(columns.sample_id) if columns.sample_id else None
-        result.append((row, run, row.cells[columns.sample_name], label or None))
+        name = _text(row, columns.sample_name)  # kept with the measurement, matched or not
+        label = _text(row, columns.sample_id) if columns.sample_id else None
+        result.append((row, run, name, label or None))
     return sorted(result, key=lambda item: item[1])
+
+
+def _text(row: Row, column: str) -> str:
+    """A cell kept as text: refused, naming row and column, if it holds a hidden character."""
+    return imported_text(f"row {row.number}, column {column}", row.cells.get(column, ""))
 
 
 MAX_RUN = 999_999_999  # far beyond any session; keeps run numbers inside a 64-bit column

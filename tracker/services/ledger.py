@@ -37,6 +37,7 @@ from tracker.domain.ledger import (
     verify_tuples,
 )
 from tracker.domain.models import CustodyEvent
+from tracker.domain.text_rules import json_visible
 from tracker.services.views import EventView
 
 _COLUMNS = (
@@ -171,7 +172,9 @@ def export_jsonl(db: Database, out: TextIO) -> int:
             "payload": payload,
             "hash": digest,
         }
-        out.write(json.dumps(record, ensure_ascii=False) + "\n")
+        # hidden characters as JSON escapes: the values are exact, and a terminal the export
+        # is printed to never receives a raw ESC or bidi control from a stored name
+        out.write(json_visible(json.dumps(record, ensure_ascii=False)) + "\n")
         count += 1
     return count
 

@@ -19,6 +19,8 @@ from pydantic import Field, TypeAdapter, ValidationError
 from tracker.domain.models import Specimen
 from tracker.domain.spreadsheet import FORMULA_TRIGGERS, looks_like_formula
 from tracker.domain.tables import Row
+from tracker.domain.text_rules import TextProblem, accept, nfc
+from tracker.services.inputs import TextRefused
 from tracker.services.specimens import NewSpecimen
 from tracker.services.views import View
 
@@ -39,6 +41,10 @@ OWN_FIELDS = {"ageMinMa": "age_min_ma", "ageMaxMa": "age_max_ma"}
 DATE_TERMS = ("eventDate", "dateIdentified", "georeferencedDate")
 NUMBER_TERMS = ("decimalLatitude", "decimalLongitude", "ageMinMa", "ageMaxMa")
 REQUIRED = "catalogNumber"
+# A refusal of a specimen field's text names the file's column it came from.
+_COLUMN_OF_FIELD = {
+    field.replace("_", "-"): term for term, field in {**TERM_FIELDS, **OWN_FIELDS}.items()
+}
 
 # All clean rows validated in one call instead of one call (and one error path) per row.
 _SPECIMENS = TypeAdapter(list[NewSpecimen])
@@ -60,6 +66,16 @@ def header_problems(header: list[str]) -> list[str]:
         for h in header
         if looks_like_formula(h)
     ]
+    seen: set[str] = set()
+    for heading in header:
+        try:
+            kept = accept(heading)
+        except TextProblem as problem:
+            found.append(f"heading {problem.shown!r} {problem.reason}")
+            continue
+        if kept in seen:
+            found.append(f"heading {kept!r} is written twice (composed two ways, NFC)")
+        seen.add(kept)
     if REQUIRED not in header:
         found.append(f"no {REQUIRED} column (Darwin Core term); headings are: {', '.join(header)}")
     return found
@@ -89,7 +105,7 @@ def check_rows(
             found[n].append(problem)
     results = []
     for row, problems in zip(rows, found, strict=True):
-        catalog = row.cells.get(REQUIRED, "").strip()
+        catalog = nfc(row.cells.get(REQUIRED, "").strip())
         result = _result(row.number, catalog, problems, fields.get(row.number), existing)
         if result["action"] in ("unchanged", "error"):
             fields.pop(row.number, None)
@@ -165,8 +181,12 @@ def _first_checks(
 
 
 def _catalog_problems(row: Row, seen: dict[str, int], problems: list[str]) -> list[str]:
-    """``problems`` with the row's catalogue number's own added: empty, or seen before."""
-    catalog = row.cells.get(REQUIRED, "").strip()
+    """``problems`` with the row's catalogue number's own added: empty, or seen before.
+
+    Numbers are compared in NFC, as they are kept: the same letters composed differently
+    are the same number.
+    """
+    catalog = nfc(row.cells.get(REQUIRED, "").strip())
     if REQUIRED in row.cells and not catalog:
         problems.append(f"{REQUIRED} is empty")
     elif catalog and catalog in seen:
@@ -275,6 +295,9 @@ def _fields(keys: list[str], specimen: NewSpecimen) -> Fields:
 def _said(error: Any) -> str:
     """A validation error as the preview says it: the field (or who is blamed) and why."""
     blamed = error.get("ctx", {}).get("error")
+    if isinstance(blamed, TextRefused):  # said at the cell, as the other cell problems are
+        column = _COLUMN_OF_FIELD.get(blamed.field) or blamed.field.removeprefix("extra.")
+        return f"column {column}: {blamed.value!r} {blamed.reason}"
     reason = getattr(blamed, "reason", None) or error["msg"]
     where = getattr(blamed, "field", None) or ".".join(str(p) for p in error["loc"][1:])
     return f"{where}: {reason}"

@@ -20,7 +20,16 @@ from tracker.services.common import (
     return_shipment,
     returned_after,
 )
-from tracker.services.inputs import AwareDatetime, FieldProblem, Name, Raw, Request, Text, parse
+from tracker.services.inputs import (
+    FREE_TEXT,
+    AwareDatetime,
+    FieldProblem,
+    Name,
+    Raw,
+    Request,
+    Text,
+    parse,
+)
 from tracker.services.label_queue import queue_label
 from tracker.services.lookup import get_by_id, get_loan
 from tracker.services.uow import unit_of_work
@@ -42,7 +51,8 @@ class NewSpecimen(Request):
     latest_epoch: Short | None = None
     age_max_ma: Annotated[float, Field(ge=0, le=4600)] | None = None
     age_min_ma: Annotated[float, Field(ge=0, le=4600)] | None = None
-    extra: dict[str, Any] = Field(default_factory=dict)
+    # Darwin Core terms kept as they came (keys one line; values may be remarks on lines)
+    extra: Annotated[dict[str, Any], FREE_TEXT] = Field(default_factory=dict)
 
     @model_validator(mode="after")
     def _ages_ordered(self) -> NewSpecimen:

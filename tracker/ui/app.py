@@ -12,14 +12,15 @@ through the services, which then read the overview again.
 
 from __future__ import annotations
 
-from collections.abc import Iterable
+from collections.abc import Iterable, Sequence
 from pathlib import Path
-from typing import TYPE_CHECKING, ClassVar
+from typing import TYPE_CHECKING, Any, ClassVar
 
 from textual import events, work
 from textual.app import App, SystemCommand
 from textual.binding import Binding, BindingType
 from textual.command import CommandPalette
+from textual.filter import LineFilter
 from textual.message import Message
 from textual.reactive import reactive
 from textual.screen import Screen
@@ -28,10 +29,12 @@ from textual.widgets import Input
 
 from tracker.domain.errors import InputError, TrackerError
 from tracker.domain.ids import BadId, Kind, parse_id
+from tracker.domain.text_rules import visible
 from tracker.domain.timeutil import Clock, utcnow
 from tracker.services.glance import Glance, Glancer, start_glance
 from tracker.ui import settings
 from tracker.ui.messages import ScanFailed, ScanResolved
+from tracker.ui.plain import VisibleCharacters, shown
 from tracker.ui.scan import BurstDetector
 from tracker.ui.widgets.id_field import IdInput
 
@@ -109,6 +112,15 @@ class TrackerApp(App[None]):
         self._typed_before: tuple[Input, str] | None = None
         # only with an operator named: otherwise the first screen is the operator's choice
         self._glancer = glancer or (start_glance(target, clock().date()) if operator else None)
+        self._visible = VisibleCharacters()
+
+    def get_line_filters(self) -> Sequence[LineFilter]:
+        """Textual's own filters, then ours: no hidden character is drawn raw (see plain.py)."""
+        return [*super().get_line_filters(), self._visible]
+
+    def tell(self, message: str, *, title: str = "", **options: Any) -> None:
+        """A notification whose words may quote stored text: shown as written, never markup."""
+        self.notify(visible(message), title=visible(title), markup=False, **options)
 
     # ------------------------------------------------------------------ start-up
     def on_mount(self) -> None:
@@ -150,11 +162,13 @@ class TrackerApp(App[None]):
             self.set_operator(self.preselected)
             return
         if self.preselected:
-            self.notify(f"✗ --as {self.preselected}: no such active operator", severity="error")
+            self.tell(f"✗ --as {self.preselected}: no such active operator", severity="error")
         self.action_choose_operator()
 
     def on_database_failed(self, event: DatabaseFailed) -> None:
-        self.exit(message=f"error: {event.error.one_line()}", return_code=event.error.exit_code)
+        self.exit(
+            message=shown(f"error: {event.error.one_line()}"), return_code=event.error.exit_code
+        )
 
     def on_unmount(self) -> None:
         if self.db is not None:
@@ -279,7 +293,7 @@ class TrackerApp(App[None]):
         if loan:
             self.push_screen(ReportScreen(loan))
         else:
-            self.notify("Open a loan (F2, Enter) and press R for its return report.")
+            self.tell("Open a loan (F2, Enter) and press R for its return report.")
 
     def action_manifest_import(self, loan: str = "") -> None:
         from tracker.ui.screens.manifest import ManifestScreen
@@ -288,7 +302,7 @@ class TrackerApp(App[None]):
         if loan:
             self.push_screen(ManifestScreen(loan))
         else:
-            self.notify("Open a loan (F2, Enter) and press I to import its manifest.")
+            self.tell("Open a loan (F2, Enter) and press I to import its manifest.")
 
     def get_system_commands(self, screen: Screen[object]) -> Iterable[SystemCommand]:
         yield from super().get_system_commands(screen)
@@ -390,7 +404,7 @@ class TrackerApp(App[None]):
 
     def on_scan_failed(self, event: ScanFailed) -> None:
         self.status_line = f"✗ scan {event.text.strip()!r}: {event.error.reason}"
-        self.notify(
+        self.tell(
             event.error.reason,
             title=f"✗ scan not understood: {event.text.strip()}",
             severity="error",

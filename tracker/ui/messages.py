@@ -5,9 +5,12 @@ from __future__ import annotations
 
 from typing import TYPE_CHECKING
 
+from rich.text import Text
 from textual.message import Message
 
 from tracker.domain.errors import TrackerError
+from tracker.domain.text_rules import visible
+from tracker.ui.plain import shown
 
 if TYPE_CHECKING:  # the label services are heavy; only the scan worker needs them loaded
     from tracker.services.labels import ScanView
@@ -37,6 +40,7 @@ class ScanFailed(Message):
         self.text, self.error = text, error
 
 
-def refusal_text(error: TrackerError) -> str:
-    """How every refusal reads on screen: a cross, then the service's own one line."""
-    return f"✗ refused: {error.one_line()}"
+def refusal_text(error: TrackerError) -> Text:
+    """How every refusal reads on screen: a cross, then the service's own one line (which
+    quotes values from outside: shown with hidden characters visible, never as markup)."""
+    return shown(f"✗ refused: {visible(error.one_line(), keep_lines=False)}")

@@ -20,6 +20,7 @@ from tracker.services.columns import BatchSummary
 from tracker.services.views import Done
 from tracker.ui.context import database, operator, tracker_app
 from tracker.ui.messages import Refused, refusal_text
+from tracker.ui.plain import shown
 from tracker.ui.screens.batch_forms import CutScreen, NewBatchScreen, ReferencePositionScreen
 from tracker.ui.widgets.bars import flag_text
 from tracker.ui.widgets.id_field import IdField
@@ -123,7 +124,9 @@ class BatchScreen(Screen[None]):
         table = self.query_one("#batches", DataTable)
         table.clear()
         for b in event.batches:
-            table.add_row(b.id, b.name, b.element, str(b.performed_on), str(b.positions), key=b.id)
+            table.add_row(
+                b.id, shown(b.name), b.element, str(b.performed_on), str(b.positions), key=b.id
+            )
         table.focus()
 
     @on(DataTable.RowSelected, "#batches")
@@ -136,7 +139,7 @@ class BatchScreen(Screen[None]):
         s = self.summary = event.summary
         self.batch_id = s.id
         head = Text()
-        head.append(f"{s.id} {s.name} · {s.element}", style="bold")
+        head.append(shown(f"{s.id} {s.name} · {s.element}", style="bold"))
         head.append(f" · yield ≥ {s.yield_threshold * 100:g} % · blank ≤ {s.blank_limit * 100:g} %")
         blank = "no blank measured" if s.blank_ng is None else f"{s.blank_ng:.1f} ng (n={s.blanks})"
         head.append(f"\nprocedural blank: {blank} · ")
@@ -150,7 +153,7 @@ class BatchScreen(Screen[None]):
                 str(p.slot),
                 p.id,
                 p.kind,
-                p.holds or "—",
+                shown(p.holds or "—"),
                 _num(p.loaded_ug, 2),
                 _num(p.recovered_ug, 3),
                 _pct(p.yield_fraction, 1),
@@ -206,9 +209,9 @@ class BatchScreen(Screen[None]):
     def on_refused(self, event: Refused) -> None:
         self._outcome(refusal_text(event.error), error=True)
 
-    def _outcome(self, text: str, *, error: bool) -> None:
+    def _outcome(self, text: str | Text, *, error: bool) -> None:
         outcome = self.query_one("#outcome", Static)
-        outcome.update(text)
+        outcome.update(text if isinstance(text, Text) else shown(text))
         outcome.set_class(error, "-error")
 
     # ------------------------------------------------------------------ other forms

@@ -22,6 +22,7 @@ from tracker.services.drilling import DrillPreview, LimitLine
 from tracker.services.views import Done
 from tracker.ui.context import database
 from tracker.ui.messages import Refused
+from tracker.ui.plain import shown
 from tracker.ui.screens.form import Field, FormScreen
 from tracker.ui.widgets.bars import usage_bar
 from tracker.ui.widgets.id_field import IdField
@@ -84,7 +85,7 @@ class DrillScreen(FormScreen):
     def _preview_now(self) -> None:
         draft = {k: v for k, v in self.values().items() if k in PREVIEWED_FIELDS}
         if "specimen" not in draft:
-            self.show_preview("Scan a specimen to see its allowance.")
+            self.show_preview(Text("Scan a specimen to see its allowance."))
             return
         self._seq += 1
         self.preview(draft, self._seq)
@@ -104,7 +105,7 @@ class DrillScreen(FormScreen):
             if event.purpose != f"preview {self._seq}":
                 return
             self.preview_view = None
-            self.show_preview(Text(f"✗ {event.error.one_line()}"))
+            self.show_preview(shown(f"✗ {event.error.one_line()}"))
             return
         super().on_refused(event)
 
@@ -118,7 +119,7 @@ class DrillScreen(FormScreen):
             tissue.value = event.preview.tissue  # the loan permits only this one
         self.show_preview(render_preview(event.preview))
 
-    def show_preview(self, content: Text | str) -> None:
+    def show_preview(self, content: Text) -> None:
         preview = self.query_one("#preview", Static)
         preview.update(content)
         preview.set_class(True, "-shown")
@@ -127,7 +128,7 @@ class DrillScreen(FormScreen):
 def render_preview(view: DrillPreview) -> Text:
     text = Text()
     text.append(f"Allowance · {view.loan} terms v{view.terms_version} · ", style="bold")
-    text.append(f"{view.catalog_number} ({view.status.replace('_', ' ')})\n")
+    text.append(shown(f"{view.catalog_number} ({view.status.replace('_', ' ')})\n"))
     text.append(f"  permitted: {', '.join(view.permitted_tissues)} · due {view.due_on}\n")
     if view.mass_mg is not None:
         text.append(f"  this drill: {view.mass_mg:.3f} ± {view.mass_u_mg or 0:.3f} mg\n")
@@ -139,7 +140,7 @@ def render_preview(view: DrillPreview) -> Text:
             f"  specimens: {view.sampled_specimens} of {view.max_specimens_sampled} sampled{more}\n"
         )
     if view.problem:
-        text.append(f"✗ {view.problem}\n", style="bold red")
+        text.append(shown(f"✗ {view.problem}\n", style="bold red"))
     for violation in view.violations:
         text.append(f"✗ over: {violation}\n", style="bold red")
     if view.violations:

@@ -11,6 +11,7 @@ from collections.abc import Callable
 from dataclasses import dataclass
 from typing import Any, ClassVar
 
+from rich.text import Text
 from textual import work
 from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
@@ -143,7 +144,7 @@ class FormScreen(Screen[None]):
         self.show_outcome(
             f"✓ saved {item or ''} · ledger event #{event.done.event_seq}", error=False
         )
-        self.notify(f"✓ {self.TITLE}: saved {item or ''}", title="Saved")
+        tracker_app(self).tell(f"✓ {self.TITLE}: saved {item or ''}", title="Saved")
         self.after_save(event.done)
 
     def after_save(self, done: Done[Any]) -> None:
@@ -152,7 +153,7 @@ class FormScreen(Screen[None]):
         if item:
             tracker_app(self).open_id(item, replace=True)
 
-    def show_outcome(self, text: str, *, error: bool) -> None:
+    def show_outcome(self, text: str | Text, *, error: bool) -> None:
         show_outcome(self.query_one("#outcome", Static), text, error=error)
 
     def on_id_field_scanned(self, event: IdField.Scanned) -> None:

@@ -20,6 +20,7 @@ from tracker.services.lineage import ItemDetail, Node
 from tracker.services.views import Done
 from tracker.ui.context import database, operator, tracker_app
 from tracker.ui.messages import Refused, refusal_text
+from tracker.ui.plain import shown
 from tracker.ui.widgets.operator_bar import OperatorBar
 
 # Which field of each bench form the item on screen fills.
@@ -95,10 +96,10 @@ class ItemScreen(Screen[None]):
         self.item_id = detail.item.id
         path = " › ".join(f"{a.id}" for a in detail.ancestors)
         head = Text()
-        head.append(f"{detail.item.id}  {detail.item.label}", style="bold")
+        head.append(shown(f"{detail.item.id}  {detail.item.label}", style="bold"))
         if detail.item.status:
             head.append(f"  · {detail.item.status.replace('_', ' ')}")
-        head.append(f"\nfrom: {path or '—'}\nwhere: {detail.location or '—'}")
+        head.append(shown(f"\nfrom: {path or '—'}\nwhere: {detail.location or '—'}"))
         self.query_one("#item-head", Static).update(head)
         tree: Tree[str] = self.query_one("#lineage", Tree)
         tree.clear()
@@ -112,10 +113,10 @@ class ItemScreen(Screen[None]):
             history.add_row(
                 str(e.seq),
                 e.at.strftime("%Y-%m-%d %H:%M"),
-                e.operator,
-                e.action,
-                e.object,
-                e.parent,
+                shown(e.operator),
+                shown(e.action),
+                shown(e.object),
+                shown(e.parent),
             )
 
     def on_refused(self, event: Refused) -> None:
@@ -146,7 +147,7 @@ class ItemScreen(Screen[None]):
     def on_item_screen_label_queued(self, event: LabelQueued) -> None:
         outcome = self.query_one("#outcome", Static)
         outcome.set_class(False, "-error")
-        outcome.update(f"✓ label queued for {self.item_id} · event #{event.done.event_seq}")
+        outcome.update(shown(f"✓ label queued for {self.item_id} · event #{event.done.event_seq}"))
 
 
 def _grow(parent: TreeNode[str], node: Node) -> None:
@@ -161,7 +162,7 @@ def node_text(node: Node) -> Text:
     """One lineage node: ID, what it is, status in words, and its amounts with units."""
     text = Text()
     text.append(node.id, style="bold")
-    text.append(f" {node.label}")
+    text.append(shown(f" {node.label}"))
     if node.status:
         text.append(f" · {node.status.replace('_', ' ')}", style="dim")
     facts = facts_text(node.kind, node.facts)

@@ -19,6 +19,7 @@ from tracker.services.labels import LabelView
 from tracker.services.views import Done
 from tracker.ui.context import database, operator, tracker_app
 from tracker.ui.messages import Refused, refusal_text
+from tracker.ui.plain import shown
 from tracker.ui.widgets.id_field import IdField
 from tracker.ui.widgets.operator_bar import OperatorBar
 
@@ -104,7 +105,9 @@ class LabelsScreen(Screen[None]):
         table = self.query_one("#queue", DataTable)
         table.clear()
         for label in event.queue:
-            table.add_row(label.item, label.kind, " / ".join(label.lines[:2]), label.queued_by)
+            table.add_row(
+                label.item, label.kind, shown(" / ".join(label.lines[:2])), shown(label.queued_by)
+            )
         self.query_one("#label-hint", Static).update(
             f"{len(event.queue)} label(s) queued · p prints them all · v draws the sheet"
         )
@@ -211,7 +214,7 @@ class LabelsScreen(Screen[None]):
     def on_refused(self, event: Refused) -> None:
         self._outcome(refusal_text(event.error), error=True)
 
-    def _outcome(self, text: str, *, error: bool) -> None:
+    def _outcome(self, text: str | Text, *, error: bool) -> None:
         outcome = self.query_one("#outcome", Static)
-        outcome.update(text)
+        outcome.update(text if isinstance(text, Text) else shown(text))
         outcome.set_class(error, "-error")

@@ -6,7 +6,6 @@ from __future__ import annotations
 import json
 from typing import ClassVar
 
-from rich.text import Text
 from textual import on, work
 from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
@@ -21,6 +20,7 @@ from tracker.services import ledger
 from tracker.services.views import EventView
 from tracker.ui.context import database
 from tracker.ui.messages import Refused, refusal_text
+from tracker.ui.plain import shown
 from tracker.ui.widgets.operator_bar import OperatorBar
 
 LIMIT = 500
@@ -99,10 +99,10 @@ class LedgerScreen(Screen[None]):
             table.add_row(
                 str(e.seq),
                 e.at.strftime("%Y-%m-%d %H:%M"),
-                e.operator,
-                e.action,
-                e.object,
-                e.parent,
+                shown(e.operator),
+                shown(e.action),
+                shown(e.object),
+                shown(e.parent),
                 key=str(e.seq),
             )
 
@@ -112,7 +112,7 @@ class LedgerScreen(Screen[None]):
         if chosen is not None:
             payload = json.dumps(chosen.payload, ensure_ascii=False)
             self.query_one("#event-payload", Static).update(
-                Text(f"#{chosen.seq} {chosen.hash[:16]}… {payload[:300]}")
+                shown(f"#{chosen.seq} {chosen.hash[:16]}… {payload[:300]}")
             )
 
     def action_verify(self) -> None:
@@ -146,7 +146,7 @@ class LedgerScreen(Screen[None]):
                 f"✗ ledger BROKEN at event #{r.broken_seq}: {r.reason} "
                 f"({r.events} events verified before it)"
             )
-        result.update(Text(line, style="green" if r.ok else "bold red"))
+        result.update(shown(line, style="green" if r.ok else "bold red"))
         result.set_class(not r.ok, "-error")
 
     def on_refused(self, event: Refused) -> None:

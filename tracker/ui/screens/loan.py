@@ -21,6 +21,7 @@ from tracker.services.planning import Plan
 from tracker.services.reconcile import LoanLine
 from tracker.ui.context import database, tracker_app
 from tracker.ui.messages import Refused, refusal_text
+from tracker.ui.plain import shown
 from tracker.ui.widgets.bars import flag_cell, flag_text, usage_bar
 from tracker.ui.widgets.operator_bar import OperatorBar
 
@@ -98,9 +99,9 @@ class LoanScreen(Screen[None]):
         line, detail = event.line, event.detail
         self.loan = line.id
         head = Text()
-        head.append(f"{line.reference} · {line.lender} · {line.status}\n", style="bold")
-        head.append(f"{detail.item.label.split(': ', 1)[-1]}\n")
-        head.append(f"terms v{line.terms_version}: {', '.join(line.permitted_tissues)}; ")
+        head.append(shown(f"{line.reference} · {line.lender} · {line.status}\n", style="bold"))
+        head.append(shown(f"{detail.item.label.split(': ', 1)[-1]}\n"))
+        head.append(shown(f"terms v{line.terms_version}: {', '.join(line.permitted_tissues)}; "))
         head.append(f"≤ {line.max_mass_per_specimen_mg or '—'} mg each, ")
         head.append(f"≤ {line.max_total_mass_mg or '—'} mg total, ")
         head.append(f"≤ {line.max_specimens_sampled or '—'} specimens; due {line.due_on}")
@@ -119,7 +120,7 @@ class LoanScreen(Screen[None]):
             )
             table.add_row(
                 s.id,
-                s.catalog_number,
+                shown(s.catalog_number),
                 s.status.replace("_", " "),
                 bar,
                 flag_cell(s.flags, 14),
@@ -129,13 +130,15 @@ class LoanScreen(Screen[None]):
         for t in detail.terms:
             terms.append(f"v{t.version} {t.kind} from {t.effective_from}: ", style="bold")
             terms.append(
-                f"{', '.join(t.permitted_tissues)}; ≤ {t.max_mass_per_specimen_mg} mg each, "
-                f"≤ {t.max_total_mass_mg} mg total, ≤ {t.max_specimens_sampled} specimens, "
-                f"due {t.due_on}; powder: {t.powder_disposition}\n"
+                shown(
+                    f"{', '.join(t.permitted_tissues)}; ≤ {t.max_mass_per_specimen_mg} mg each, "
+                    f"≤ {t.max_total_mass_mg} mg total, ≤ {t.max_specimens_sampled} specimens, "
+                    f"due {t.due_on}; powder: {t.powder_disposition}\n"
+                )
             )
         for d in detail.documents:
             terms.append(
-                f"document {d.filename} ({d.role or 'attached'}) sha256 {d.sha256[:16]}…\n"
+                shown(f"document {d.filename} ({d.role or 'attached'}) sha256 {d.sha256[:16]}…\n")
             )
         self.query_one("#terms", Static).update(terms)
 
@@ -206,5 +209,5 @@ class LoanScreen(Screen[None]):
         for s in plan.specimens:
             mark = "✓" if s.feasible else "✗"
             line = f"{mark} {s.id} {s.catalog_number}: drill {s.to_drill_mg:.3f} mg — {s.reason}\n"
-            text.append(line, style="" if s.feasible else "red")
+            text.append(shown(line, style="" if s.feasible else "red"))
         self.query_one("#plan", Static).update(text)

@@ -22,8 +22,9 @@ from textual.widgets import DataTable, Footer, Input, Static
 from tracker.domain.errors import InputError, TrackerError
 from tracker.services import manifests
 from tracker.services.manifests import ManifestOutcome, ManifestPreview, RowResult
-from tracker.ui.context import database, operator
+from tracker.ui.context import database, operator, tracker_app
 from tracker.ui.messages import Refused, refusal_text
+from tracker.ui.plain import shown
 from tracker.ui.widgets.operator_bar import OperatorBar
 from tracker.ui.widgets.outcome import show_outcome
 
@@ -130,7 +131,7 @@ class ManifestScreen(Screen[None]):
             f" · ledger event #{outcome.event_seq}",
             error=False,
         )
-        self.notify(f"✓ manifest imported into {self.loan}", title="Manifest")
+        tracker_app(self).tell(f"✓ manifest imported into {self.loan}", title="Manifest")
 
     def show_preview(self, preview: ManifestPreview) -> None:
         self.preview_view = preview
@@ -141,9 +142,9 @@ class ManifestScreen(Screen[None]):
             label, style = ACTIONS[row.action]
             table.add_row(
                 str(row.row),
-                row.catalog_number or "—",
+                shown(row.catalog_number or "—"),
                 Text(label, style=style),
-                _detail(row),
+                shown(_detail(row)),
                 key=str(row.row),
             )
 
@@ -151,7 +152,7 @@ class ManifestScreen(Screen[None]):
         event.stop()
         self.show_outcome(refusal_text(event.error), error=True)
 
-    def show_outcome(self, text: str, *, error: bool) -> None:
+    def show_outcome(self, text: str | Text, *, error: bool) -> None:
         show_outcome(self.query_one("#outcome", Static), text, error=error)
 
 

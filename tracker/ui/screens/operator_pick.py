@@ -13,6 +13,7 @@ from textual.widgets import Footer, OptionList, Static
 from textual.widgets.option_list import Option
 
 from tracker.services.views import OperatorView
+from tracker.ui.plain import shown
 
 
 class OperatorScreen(ModalScreen[str]):
@@ -38,8 +39,10 @@ class OperatorScreen(ModalScreen[str]):
             yield OptionList(
                 *[
                     Option(
-                        f"{o.code:<10} {o.name} · {o.role}"
-                        + ("  (manager: may override limits)" if o.role == "manager" else ""),
+                        shown(
+                            f"{o.code:<10} {o.name} · {o.role}"
+                            + ("  (manager: may override limits)" if o.role == "manager" else "")
+                        ),
                         id=o.code,
                     )
                     for o in self.operators

@@ -23,6 +23,7 @@ from tracker.services.glance import Glance
 from tracker.services.loan_rules import OverviewLine
 from tracker.ui.context import database, tracker_app
 from tracker.ui.messages import Refused, refusal_text
+from tracker.ui.plain import shown
 from tracker.ui.widgets.bars import flag_cell, usage_bar
 from tracker.ui.widgets.operator_bar import OperatorBar
 
@@ -116,7 +117,7 @@ class OverviewScreen(Screen[None]):
                 else f"{line.due_on}\n{line.status}"
             )
             table.add_row(
-                Text(f"{line.reference}\n{line.lender_code}", style="bold"),
+                shown(f"{line.reference}\n{line.lender_code}", style="bold"),
                 Text.assemble(
                     f"{line.drilled_mg:.3f}/{line.max_total_mass_mg or 0:g} mg\n",
                     usage_bar(line.used_fraction, 8),
@@ -129,9 +130,9 @@ class OverviewScreen(Screen[None]):
             )
         if table.row_count:
             table.move_cursor(row=min(keep, table.row_count - 1))
-        shown = "loans · a: open loans only" if self.every_loan else "open loans · a: all loans"
+        which = "loans · a: open loans only" if self.every_loan else "open loans · a: all loans"
         self.query_one("#loan-hint", Static).update(
-            f"{len(lines)} {shown} · Enter opens a loan · scan any label to jump to it"
+            f"{len(lines)} {which} · Enter opens a loan · scan any label to jump to it"
         )
 
     def on_refused(self, event: Refused) -> None:

@@ -26,6 +26,7 @@ from tracker.services import reports
 from tracker.services.reports import ReturnReport, SpecimenEntry
 from tracker.ui.context import database, operator, tracker_app
 from tracker.ui.messages import Refused, refusal_text
+from tracker.ui.plain import shown
 from tracker.ui.widgets.bars import flag_cell, flag_text
 from tracker.ui.widgets.operator_bar import OperatorBar
 from tracker.ui.widgets.outcome import show_outcome
@@ -96,7 +97,7 @@ class ReportScreen(Screen[None]):
     def on_report_screen_built(self, event: Built) -> None:
         self.report = event.report
         title = f"Return report {event.report.loan['reference']}"
-        self.query_one(".bar-title", Static).update(title)
+        self.query_one(".bar-title", Static).update(shown(title))
         self.query_one("#report-head", Static).update(_head(event.report))
         table = self.query_one("#report-specimens", DataTable)
         table.clear()
@@ -129,7 +130,7 @@ class ReportScreen(Screen[None]):
             f" · ledger event #{w.record.event_seq}",
             error=False,
         )
-        self.notify(f"✓ return report written: {w.target.name}", title="Report")
+        tracker_app(self).tell(f"✓ return report written: {w.target.name}", title="Report")
 
     def on_refused(self, event: Refused) -> None:
         event.stop()
@@ -137,19 +138,19 @@ class ReportScreen(Screen[None]):
             self.query_one("#report-head", Static).update(refusal_text(event.error))
         self.show_outcome(refusal_text(event.error), error=True)
 
-    def show_outcome(self, text: str, *, error: bool) -> None:
+    def show_outcome(self, text: str | Text, *, error: bool) -> None:
         show_outcome(self.query_one("#outcome", Static), text, error=error)
 
 
 def _head(report: ReturnReport) -> Text:
     loan, lender = report.loan, report.lender
     text = Text()
-    text.append(f"{loan['reference']} · {loan['title'] or ''}\n", style="bold")
-    text.append(f"lender {lender['name']} ({lender['institution_code'] or '—'}) · ")
+    text.append(shown(f"{loan['reference']} · {loan['title'] or ''}\n", style="bold"))
+    text.append(shown(f"lender {lender['name']} ({lender['institution_code'] or '—'}) · "))
     text.append(f"{loan['status']} · due {loan['due_on']}")
     text.append(f" · returned {loan['returned_on']}\n" if loan["returned_on"] else "\n")
     terms = report.terms_in_force
-    text.append(f"terms v{terms.version}: {', '.join(terms.permitted_tissues)}\n")
+    text.append(shown(f"terms v{terms.version}: {', '.join(terms.permitted_tissues)}\n"))
     mark, style = ("✓ intact", "green") if report.ledger.intact else ("✗ BROKEN", "bold red")
     text.append(f"ledger {mark}", style=style)
     text.append(f" · head #{report.ledger.seq} {report.ledger.hash[:16]}…")
@@ -161,7 +162,7 @@ def _row(entry: SpecimenEntry) -> tuple[str | Text, ...]:
     returned = sum(p.left_mg for p in entry.powders if p.status == "returned")
     return (
         entry.id,
-        entry.catalog_number,
+        shown(entry.catalog_number),
         entry.status.replace("_", " "),
         drilled,
         f"{returned:.3f}" if entry.powders else "—",

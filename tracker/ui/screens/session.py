@@ -21,6 +21,7 @@ from tracker.services.reduction import ResultLine, SessionDetail
 from tracker.services.views import Done
 from tracker.ui.context import database, operator
 from tracker.ui.messages import Refused, refusal_text
+from tracker.ui.plain import shown
 from tracker.ui.screens.session_import import ImportSessionScreen
 from tracker.ui.widgets.bars import flag_text
 from tracker.ui.widgets.drift_plot import DriftPlot
@@ -118,7 +119,7 @@ class SessionScreen(Screen[None]):
         for s in event.sessions:
             table.add_row(
                 s.id,
-                s.name,
+                shown(s.name),
                 s.element,
                 s.started_at.strftime("%Y-%m-%d"),
                 str(s.runs),
@@ -138,10 +139,12 @@ class SessionScreen(Screen[None]):
         d = event.detail
         self.session = d.id
         head = Text()
-        head.append(f"{d.id} {d.name} · {d.element} · {d.instrument}\n", style="bold")
+        head.append(shown(f"{d.id} {d.name} · {d.element} · {d.instrument}\n", style="bold"))
         head.append(
-            f"file {d.source_filename or '—'} via profile {d.profile or '—'} · standard "
-            f"{d.standard} · {d.measurements} runs, {d.standards} standards\n"
+            shown(
+                f"file {d.source_filename or '—'} via profile {d.profile or '—'} · standard "
+                f"{d.standard} · {d.measurements} runs, {d.standards} standards\n"
+            )
         )
         head.append(f"{len(d.unmatched)} unmatched row(s) · ")
         head.append("reduced · " if d.reduced else "⚠ not reduced yet (press r) · ")
@@ -154,7 +157,7 @@ class SessionScreen(Screen[None]):
         unmatched = self.query_one("#unmatched", DataTable)
         unmatched.clear()
         for u in d.unmatched:
-            unmatched.add_row(str(u.run_order), u.sample_name, u.reason)
+            unmatched.add_row(str(u.run_order), shown(u.sample_name), shown(u.reason))
         self.query_one("#drift", DriftPlot).show(event.drift)
 
     def on_refused(self, event: Refused) -> None:
@@ -213,4 +216,11 @@ def result_cells(line: ResultLine, mode: str) -> tuple[Any, ...]:
         if text.plain:
             text.append(" · ")
         text.append_text(flag_text(flags))
-    return (f"{line.label}", line.ratio, f"{line.value:.3f}{unit}", two_sd, str(line.n), text)
+    return (
+        shown(line.label),
+        shown(line.ratio),
+        f"{line.value:.3f}{unit}",
+        two_sd,
+        str(line.n),
+        text,
+    )

@@ -15,6 +15,7 @@ from tracker.services import instrument
 from tracker.services.instrument import ProfileView
 from tracker.services.views import Done
 from tracker.ui.context import database
+from tracker.ui.plain import shown
 from tracker.ui.screens.form import Field, FormScreen
 
 
@@ -45,7 +46,7 @@ class ImportSessionScreen(FormScreen):
 
     def on_import_session_screen_profiles(self, event: Profiles) -> None:
         names = ", ".join(p.name for p in event.profiles) or "none saved yet"
-        self.query_one(".intro", Static).update(f"{self.INTRO}\nSaved profiles: {names}")
+        self.query_one(".intro", Static).update(shown(f"{self.INTRO}\nSaved profiles: {names}"))
 
     @staticmethod
     def service(db: Database, actor: str | None, values: dict[str, Any]) -> Done[Any]:

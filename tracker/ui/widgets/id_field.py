@@ -18,6 +18,7 @@ from textual.widgets import Input, Static
 
 from tracker.domain.errors import TrackerError
 from tracker.ui.context import database
+from tracker.ui.plain import shown
 
 if TYPE_CHECKING:  # the label services load lineage and label facts: only a lookup needs them
     from tracker.services.labels import ScanView
@@ -149,6 +150,6 @@ class IdField(Vertical):
 
     def _hint(self, text: str, error: bool = False) -> None:
         hint = self.query_one(".field-hint", Static)
-        hint.update(text)
+        hint.update(shown(text))  # what was looked up, and what the service said of it
         hint.set_class(error, "-error")
         self.set_class(error, "-invalid")

@@ -7,6 +7,7 @@ from textual.containers import Horizontal
 from textual.widgets import Static
 
 from tracker.ui.context import tracker_app
+from tracker.ui.plain import shown
 
 
 class OperatorBar(Horizontal):
@@ -18,9 +19,9 @@ class OperatorBar(Horizontal):
 
     def compose(self) -> ComposeResult:
         app = tracker_app(self)  # the bars start with the app's current values ...
-        yield Static(self.title, classes="bar-title")
-        yield Static(app.status_line, id="bar-status", classes="bar-status")
-        yield Static(app.operator_label, id="bar-operator", classes="bar-operator")
+        yield Static(shown(self.title), classes="bar-title")
+        yield Static(shown(app.status_line), id="bar-status", classes="bar-status")
+        yield Static(shown(app.operator_label), id="bar-operator", classes="bar-operator")
 
     def on_mount(self) -> None:
         # ... and follow its changes. Not asked for the current value here: on a busy machine
@@ -32,13 +33,13 @@ class OperatorBar(Horizontal):
     def show_title(self, title: str) -> None:
         """Say what the screen now shows (a screen that switches views calls this)."""
         self.title = title
-        for shown in self.query(".bar-title").results(Static):
-            shown.update(title)
+        for bar in self.query(".bar-title").results(Static):
+            bar.update(shown(title))
 
     def _show_operator(self, label: str) -> None:
         for line in self.query("#bar-operator").results(Static):
-            line.update(label)
+            line.update(shown(label))
 
     def _show_status(self, line: str) -> None:
-        for shown in self.query("#bar-status").results(Static):
-            shown.update(line)
+        for bar in self.query("#bar-status").results(Static):
+            bar.update(shown(line))
