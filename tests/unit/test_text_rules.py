@@ -114,6 +114,15 @@ def test_variation_selectors_are_refused_in_names_and_kept_in_notes() -> None:
         assert accept(f"sample ok{char}", multiline=True) == f"sample ok{char}"
 
 
+def test_every_space_but_the_ordinary_one_is_refused_in_names_and_kept_in_notes() -> None:
+    spaces = every_code_point_in({"Zs"})  # space separators, as unicodedata files them
+    assert " " in spaces and "\u00a0" in spaces
+    for char in spaces:
+        assert refused(f"MZ{char}12") is (char != " "), hex(ord(char))
+        note = f"a{char}note"
+        assert accept(note, multiline=True) == unicodedata.normalize("NFC", note)
+
+
 def test_text_is_kept_in_normalization_form_c() -> None:
     # UAX #15: "é" precomposed (U+00E9) and decomposed (e + U+0301) are canonically equivalent.
     composed, decomposed = "Muséum Z-1", "Muse\u0301um Z-1"

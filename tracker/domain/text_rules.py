@@ -38,6 +38,9 @@ IGNORABLE_MARKS = re.compile(
     "[\u034f\u115f\u1160\u17b4\u17b5\u180b-\u180d\u180f\u3164\ufe00-\ufe0f\uffa0"
     "\U000e0100-\U000e01ef]"
 )
+# Space separators (category Zs) other than the ordinary space: a no-break or thin space
+# looks like a space, so "MZ 12" typed with one is a second, look-alike catalogue number.
+_ODD_SPACE = re.compile("[\u00a0\u1680\u2000-\u200a\u202f\u205f\u3000]")
 LINE_KEEPERS = frozenset("\n\t")  # what free text (notes, reasons) may keep of the controls
 EXCERPT_BEFORE, EXCERPT_AFTER, EXCERPT_MAX = 12, 12, 56
 
@@ -93,7 +96,7 @@ def _require_clean(text: str, multiline: bool) -> None:
     printable = text.isprintable() or (multiline and _only_line_keepers(text))
     first = None if printable else _first_hidden(text, multiline)
     if first is None and not multiline:
-        mark = IGNORABLE_MARKS.search(text)
+        mark = IGNORABLE_MARKS.search(text) or _ODD_SPACE.search(text)
         first = None if mark is None else mark.start()
     if first is not None:
         raise TextProblem(excerpt(text, first), _reason(text[first], multiline))
@@ -142,6 +145,8 @@ def _reason(char: str, multiline: bool) -> str:
         why = "a private-use character, whose look depends on the font"
     elif category == "Cn":
         why = f"not a character in Unicode {unicodedata.unidata_version}"
+    elif category == "Zs":
+        why = "a space that looks like an ordinary one but is not; type an ordinary space"
     else:
         why = "an invisible mark that would make look-alike names and numbers"
     return f"holds {called}, {why}; remove it"
