@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import hashlib
 import math
-from typing import Annotated, Any, Literal
+from typing import Annotated, Any, Literal, NamedTuple
 
 from pydantic import Field
 from sqlalchemy import func, select
@@ -148,21 +148,43 @@ class SessionView(View):
 
 
 def import_session(db: Database, actor: str | None, data: ImportSession | Raw) -> Done[SessionView]:
-    """Read an instrument export through a saved profile into a new session."""
+    """Read an instrument export through a saved profile into a new session.
+
+    The export is read and every row checked through the profile before the writer
+    lock is taken; inside it, rows are matched to what the database holds and written.
+    """
     request = parse(ImportSession, data)
-    with unit_of_work(db, actor) as uow:
-        profile = _profile(uow.session, request.profile)
+    with db.read_session() as session:
+        profile = _profile(session, request.profile)
+    with in_file(request.filename):
         _require_standard_values(request, profile)
-        with in_file(request.filename):
-            return _import(uow, request, profile)
+        rows = _read(request, profile)
+    with unit_of_work(db, actor, "import instrument session") as uow:
+        current = _profile(uow.session, request.profile)
+        if current != profile:  # saved anew meanwhile: read the export as it says now
+            profile = current
+            with in_file(request.filename):
+                _require_standard_values(request, profile)
+                rows = _read(request, profile)
+        with in_file(request.filename), uow.session.no_autoflush:
+            return _import(uow, request, profile, rows)
+
+
+class _Run(NamedTuple):
+    """One row of an export, read and checked: what its measurement will hold."""
+
+    row: int
+    run: int
+    name: str
+    label: str | None
+    values: dict[str, Any]  # ratios and their errors, by ratio
 
 
 def _import(
-    uow: UnitOfWork, request: ImportSession, profile: ProfileDefinition
+    uow: UnitOfWork, request: ImportSession, profile: ProfileDefinition, rows: list[_Run]
 ) -> Done[SessionView]:
-    """The import proper, inside the caller's unit of work."""
+    """The import proper, inside the caller's unit of work; the rows are checked already."""
     _refuse_repeat(uow, request)
-    rows = _read(request, profile)
     session = InstrumentSession(
         name=request.name,
         instrument=request.instrument,
@@ -181,25 +203,26 @@ def _import(
     )
     uow.session.add(session)
     matcher = Matcher(uow.session, request.bracketing_standard, request.element)
+    matcher.look_up([run.label or run.name for run in rows])
+    measurements: list[Measurement] = []
     unmatched: list[UnmatchedRow] = []
-    for row, run, name, label in rows:
+    for run in rows:
         measurement = Measurement(
             session=session,
-            run_order=run,
-            sample_name=name,
+            run_order=run.run,
+            sample_name=run.name,
             created_at=uow.now,
-            **_values(row, profile),
+            **run.values,
         )
         uow.session.add(measurement)
-        reason = matcher.assign(measurement, label or name)
+        measurements.append(measurement)
+        reason = matcher.assign(measurement, run.label or run.name)
         if reason:
             unmatched.append(
-                UnmatchedRow(row=row.number, run_order=run, sample_name=name, reason=reason)
+                UnmatchedRow(row=run.row, run_order=run.run, sample_name=run.name, reason=reason)
             )
-    require_brackets(
-        session.measurements, {r[1]: r[0].number for r in rows}, profile.columns.sample_name
-    )
-    view = lambda: _view(session, unmatched)  # noqa: E731
+    require_brackets(measurements, {r.run: r.row for r in rows}, profile.columns.sample_name)
+    view = lambda: _view(session, measurements, unmatched)  # noqa: E731
     payload = {
         "file": request.filename,
         "sha256": session.source_sha256,
@@ -238,10 +261,8 @@ def _require_standard_values(request: ImportSession, profile: ProfileDefinition)
         )
 
 
-def _read(
-    request: ImportSession, profile: ProfileDefinition
-) -> list[tuple[Row, int, str, str | None]]:
-    """Rows with their run order, sample name and label ID; every problem names row and column."""
+def _read(request: ImportSession, profile: ProfileDefinition) -> list[_Run]:
+    """Every row read and checked, in run order; every problem names row and column."""
     try:
         header, rows = read_table(
             request.content,
@@ -282,8 +303,9 @@ def _read(
             )
         seen[run] = row.number
         label = row.cells.get(columns.sample_id) if columns.sample_id else None
-        result.append((row, run, row.cells[columns.sample_name], label or None))
-    return sorted(result, key=lambda item: item[1])
+        name = row.cells[columns.sample_name]
+        result.append(_Run(row.number, run, name, label or None, _values(row, profile)))
+    return sorted(result, key=lambda item: item.run)
 
 
 MAX_RUN = 999_999_999  # far beyond any session; keeps run numbers inside a 64-bit column
@@ -325,8 +347,10 @@ def _positive(row: Row, column: str, *, allow_zero: bool = False) -> float:
     return value
 
 
-def _view(session: InstrumentSession, unmatched: list[UnmatchedRow]) -> SessionView:
-    roles = [m.role for m in session.measurements]
+def _view(
+    session: InstrumentSession, measurements: list[Measurement], unmatched: list[UnmatchedRow]
+) -> SessionView:
+    roles = [m.role for m in measurements]
     return SessionView(
         id=session.public_id,
         name=session.name,
