@@ -143,7 +143,7 @@ def leave_note(database: Path, holder: Holder) -> Path | None:
     staged = path.with_name(f"{path.name}.{holder.pid}")
     record = {**asdict(holder), "since": holder.since.isoformat()}
     try:
-        mode = database.stat().st_mode & 0o666
+        mode = database.stat().st_mode & 0o666 if database.exists() else 0o600
         fd = os.open(staged, os.O_WRONLY | os.O_CREAT | os.O_TRUNC, mode)
         with os.fdopen(fd, "w", encoding="utf-8") as handle:
             json.dump(record, handle)

@@ -38,6 +38,7 @@ from tracker.domain.models import (
 )
 from tracker.domain.tables import Row, TableError, read_table
 from tracker.domain.units import UnitError, mass_to_mg
+from tracker.services.bulk import collector_paused
 from tracker.services.chemistry import AddPosition, Holding, holding, place
 from tracker.services.columns import RecordCut, collect
 from tracker.services.common import finish
@@ -75,6 +76,11 @@ def enter_sheet(db: Database, actor: str | None, data: EnterSheet | Raw) -> Done
     inside it only what depends on the batch as it stands is checked and written.
     """
     request = parse(EnterSheet, data)
+    with collector_paused():  # resumed once the rows read and written are freed
+        return _enter(db, actor, request)
+
+
+def _enter(db: Database, actor: str | None, request: EnterSheet) -> Done[SheetView]:
     header, rows = _read(request)
     batch_id, cuts = _cut_names(db, request.batch)
     lines = _Reading(request.filename, batch_id, cuts).lines(header, rows)

@@ -7,7 +7,7 @@ from typing import TYPE_CHECKING
 
 from textual.message import Message
 
-from tracker.domain.errors import TrackerError
+from tracker.domain.errors import Busy, TrackerError
 
 if TYPE_CHECKING:  # the label services are heavy; only the scan worker needs them loaded
     from tracker.services.labels import ScanView
@@ -38,5 +38,11 @@ class ScanFailed(Message):
 
 
 def refusal_text(error: TrackerError) -> str:
-    """How every refusal reads on screen: a cross, then the service's own one line."""
+    """How every refusal reads on screen: a cross, then the service's own one line.
+
+    A busy database is no refusal of the request: its line (who holds the database,
+    since when, try again) stands alone, word for word as the command line prints it.
+    """
+    if isinstance(error, Busy):
+        return f"✗ {error.one_line()}"
     return f"✗ refused: {error.one_line()}"
