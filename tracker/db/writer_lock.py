@@ -44,7 +44,8 @@ NOTE_SUFFIX = ".writer"
 APPLICATION_PREFIX = "tracker: "
 # PostgreSQL keeps the first 63 bytes of an application_name (NAMEDATALEN - 1).
 APPLICATION_NAME_BYTES = 63
-# SQLSTATE 55P03 lock_not_available: lock_timeout ran out (PostgreSQL, Appendix A).
+# SQLSTATE 55P03 lock_not_available: lock_timeout ran out (PostgreSQL documentation,
+# Appendix A "Error Codes"; from memory, and seen in this module's tests).
 PG_LOCK_NOT_AVAILABLE = "55P03"
 # sqlite3's messages for SQLITE_BUSY and SQLITE_LOCKED (from memory of the C API's texts).
 SQLITE_BUSY_TEXTS = ("database is locked", "database is busy", "database table is locked")
@@ -79,6 +80,7 @@ class WriterLock:
 
     def __init__(self, engine: Engine, operator: str, doing: str) -> None:
         self.engine, self.operator, self.doing = engine, operator, doing
+        self.database = sqlite_path(engine.url.render_as_string(hide_password=False))
         self.note: Path | None = None
 
     def take(self, session: Session) -> None:
@@ -86,9 +88,8 @@ class WriterLock:
         name = application_name(self.operator, self.doing)
         with busy_as_refusal(self.engine):
             session.connection(execution_options={HOLDER_OPTION: name})
-        database = sqlite_path(self.engine.url.render_as_string(hide_password=False))
-        if database is not None:
-            self.note = leave_note(database, Holder.this_process(self.operator, self.doing))
+        if self.database is not None:
+            self.note = leave_note(self.database, Holder.this_process(self.operator, self.doing))
 
     def release(self) -> None:
         """Called just before COMMIT or ROLLBACK: the note never outlives the lock it names."""
@@ -137,16 +138,22 @@ def leave_note(database: Path, holder: Holder) -> Path | None:
     """Write the holder's note beside the database (whole, then renamed into place).
 
     Best effort: a folder this process may not write in only costs waiters the name.
-    The note is as private as the database file itself.
+    The note is as private as the database file itself. Plain system calls: every
+    write on SQLite pays for the note, so it costs tens of microseconds, not hundreds.
     """
     path = note_path(database)
     staged = path.with_name(f"{path.name}.{holder.pid}")
     record = {**asdict(holder), "since": holder.since.isoformat()}
     try:
-        mode = database.stat().st_mode & 0o666 if database.exists() else 0o600
+        try:
+            mode = database.stat().st_mode & 0o666
+        except FileNotFoundError:
+            mode = 0o600
         fd = os.open(staged, os.O_WRONLY | os.O_CREAT | os.O_TRUNC, mode)
-        with os.fdopen(fd, "w", encoding="utf-8") as handle:
-            json.dump(record, handle)
+        try:
+            os.write(fd, json.dumps(record).encode("utf-8"))
+        finally:
+            os.close(fd)
         staged.replace(path)
     except OSError:
         with contextlib.suppress(OSError):
@@ -202,7 +209,8 @@ def _sqlite_holder(database: Path) -> Busy:
 # ---------------------------------------------------------------- PostgreSQL: pg_locks
 
 # The bigint key of pg_advisory_xact_lock is kept as classid (high 32 bits), objid (low
-# 32 bits) and objsubid 1 (PostgreSQL documentation, "pg_locks").
+# 32 bits) and objsubid 1 (PostgreSQL documentation, "pg_locks"; from memory, and the
+# tests find the holder this way).
 _PG_HOLDER = text(
     """
     SELECT a.pid, a.application_name, a.usename, host(a.client_addr) AS client,
