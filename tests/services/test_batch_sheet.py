@@ -126,3 +126,12 @@ def test_a_sheet_that_disagrees_with_the_batch_is_refused(
         enter(db, batch, b"slot,kind,Sr\n1,blank,1 ug\n")
     assert caught.value.field == "cols.csv, row 1, column sr"
     assert counts() == before
+
+
+def test_a_quoted_empty_cut_cell_enters_the_column_alone(
+    db: Database, bench: tuple[str, str]
+) -> None:
+    """Found by hypothesis: '""' is an empty CSV cell, so no cut (the fuzz test expected one)."""
+    batch, _ = bench
+    answer = enter(db, batch, b'slot,kind,Ca\n1,blank,""\n')
+    assert (len(answer.positions_added), answer.cuts_added, answer.already_entered) == (1, [], 0)

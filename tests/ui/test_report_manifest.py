@@ -8,10 +8,12 @@ import hashlib
 import json
 from pathlib import Path
 
+import pytest
 from sqlalchemy import select
 from textual.pilot import Pilot
 from textual.widgets import DataTable, Input, Static
 
+from tests.busy import held
 from tests.ui.conftest import Lab, events_after, head, query, settle, text_of, until
 from tracker.domain.models import Loan, Specimen
 from tracker.services import reconcile
@@ -137,3 +139,29 @@ async def test_a_manifest_with_a_problem_is_refused_whole(lab: Lab, tmp_path: Pa
         assert "1 problem(s)" in text_of(outcome) and "nothing was written" in text_of(outcome)
     assert events_after(lab, start) == []
     assert len(loan_specimens(lab)) == count
+
+
+async def test_a_manifest_import_kept_waiting_by_another_writer_says_who_and_writes_nothing(
+    lab: Lab, tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    monkeypatch.setenv("TRACKER_BUSY_WAIT", "0.3")  # read when the interface opens the database
+    start = head(lab)
+    path = tmp_path / "kf-list.csv"
+    path.write_text(MANIFEST)
+    async with lab.app().run_test(size=(160, 36)) as pilot:
+        await open_loan(pilot, "I")
+        screen = pilot.app.screen
+        assert isinstance(screen, ManifestScreen)
+        screen.query_one("#f-file", Input).value = str(path)
+        outcome = screen.query_one("#outcome", Static)
+        with held(str(lab.db_path), "tomas", "enter batch sheet"):
+            await pilot.press("ctrl+s")
+            await until(pilot, lambda: "✗" in text_of(outcome))
+        said = " ".join(text_of(outcome).split())  # as drawn, wrapped or not
+        assert said.startswith('✗ the database is busy: tomas running "enter batch sheet" (')
+        assert " since " in said and said.endswith("; try again")
+        assert pilot.app.screen is screen  # still there: no traceback, no exit
+        await pilot.press("ctrl+s")  # the same import, once the other writer is done
+        await until(pilot, lambda: "✓ imported" in text_of(outcome))
+    (event,) = events_after(lab, start)
+    assert event.action == "manifest.imported"

@@ -16,6 +16,7 @@ from sqlalchemy.orm import Session, sessionmaker
 
 from tracker.db import migrate
 from tracker.db.engine import build_engine, create_private_file, resolve_url, sqlite_path, writer
+from tracker.db.writer_lock import busy_as_refusal
 from tracker.domain.errors import InputError, RuleViolation
 from tracker.domain.timeutil import Clock, utcnow
 
@@ -72,8 +73,8 @@ def open_database(
             raise InputError("--db", str(path), "no database here; run `tracker init` first")
         create_private_file(path)
     db = Database(url, build_engine(url), clock)
-    try:
-        with unreachable_as_refusal(url):
+    try:  # an upgrade waits for the writer lock like any writer: Busy if in vain
+        with unreachable_as_refusal(url), busy_as_refusal(db.engine):
             _bring_to_head(db, create=create, upgrade=upgrade)
     except Exception:
         db.close()

@@ -4,6 +4,9 @@ SQLite gets WAL, foreign keys, a busy timeout and â€” for write units of work â€
 ``BEGIN IMMEDIATE``, so two writers queue for the lock instead of failing late.
 PostgreSQL write units of work take one transaction-scoped advisory lock, so
 ledger appends and allowance checks are serialised across workstations.
+
+Either way a writer waits for the lock at most :func:`busy_wait_ms` (30 s, or
+``TRACKER_BUSY_WAIT`` seconds); what it is told then is ``tracker.db.writer_lock``'s.
 """
 
 from __future__ import annotations
@@ -16,7 +19,10 @@ from sqlalchemy import Engine, create_engine, event
 from sqlalchemy.engine import make_url
 
 WRITE_OPTION = "tracker_write"
+# The writer's name for others to read while it holds the lock (PostgreSQL application_name).
+HOLDER_OPTION = "tracker_holder"
 BUSY_TIMEOUT_MS = 30_000
+BUSY_WAIT_VARIABLE = "TRACKER_BUSY_WAIT"
 # Arbitrary constant naming the lab-wide writer lock on PostgreSQL.
 PG_WRITER_LOCK = 0x7261636B  # "rack"
 
@@ -40,6 +46,26 @@ def sqlite_path(url: str) -> Path | None:
     return Path(parsed.database)
 
 
+def busy_wait_ms() -> int:
+    """How long a writer waits for another's lock: ``TRACKER_BUSY_WAIT`` seconds, else 30 s.
+
+    Read when an engine is built. A value that is not a number of seconds is refused
+    with one line rather than ignored, so a typo never means waiting the default.
+    """
+    text = os.environ.get(BUSY_WAIT_VARIABLE, "").strip()
+    if not text:
+        return BUSY_TIMEOUT_MS
+    try:
+        seconds = float(text)
+    except ValueError:
+        seconds = -1.0
+    if not 0 <= seconds <= 24 * 3600:  # NaN fails this too
+        from tracker.domain.errors import InputError
+
+        raise InputError(BUSY_WAIT_VARIABLE, text, "is not a number of seconds (0 to 86400)")
+    return round(seconds * 1000)
+
+
 def create_private_file(path: Path) -> None:
     """Create an empty database file readable and writable by its owner only."""
     path.parent.mkdir(parents=True, exist_ok=True)
@@ -50,12 +76,13 @@ def create_private_file(path: Path) -> None:
 def build_engine(url: str) -> Engine:
     """Create an engine with the backend's rules installed; nothing connects yet."""
     backend = make_url(url).get_backend_name()
+    wait_ms = busy_wait_ms()
     if backend == "sqlite":
-        engine = create_engine(url, connect_args={"timeout": BUSY_TIMEOUT_MS / 1000})
-        _install_sqlite_rules(engine)
+        engine = create_engine(url, connect_args={"timeout": wait_ms / 1000})
+        _install_sqlite_rules(engine, wait_ms)
     elif backend == "postgresql":
         engine = create_engine(url, pool_pre_ping=True)
-        _install_postgresql_rules(engine)
+        _install_postgresql_rules(engine, wait_ms)
     else:
         raise ValueError(f"unsupported database backend {backend!r}; use SQLite or PostgreSQL")
     return engine
@@ -66,13 +93,13 @@ def writer(engine: Engine) -> Engine:
     return engine.execution_options(**{WRITE_OPTION: True})
 
 
-def _install_sqlite_rules(engine: Engine) -> None:
+def _install_sqlite_rules(engine: Engine, wait_ms: int) -> None:
     @event.listens_for(engine, "connect")
     def _on_connect(dbapi_connection: Any, _record: Any) -> None:
         dbapi_connection.isolation_level = None  # we issue BEGIN ourselves, below
         cursor = dbapi_connection.cursor()
         cursor.execute("PRAGMA foreign_keys = ON")
-        cursor.execute(f"PRAGMA busy_timeout = {BUSY_TIMEOUT_MS}")
+        cursor.execute(f"PRAGMA busy_timeout = {wait_ms}")
         cursor.execute("PRAGMA journal_mode = WAL")
         cursor.execute("PRAGMA synchronous = NORMAL")
         cursor.close()
@@ -83,8 +110,22 @@ def _install_sqlite_rules(engine: Engine) -> None:
         connection.exec_driver_sql("BEGIN IMMEDIATE" if write else "BEGIN")
 
 
-def _install_postgresql_rules(engine: Engine) -> None:
+def _install_postgresql_rules(engine: Engine, wait_ms: int) -> None:
+    # lock_timeout 0 would mean "wait for ever": a wait of 0 s is the shortest there is.
+    take_lock = (
+        f"SET LOCAL lock_timeout = {max(wait_ms, 1)}; "
+        f"SELECT pg_advisory_xact_lock({PG_WRITER_LOCK}); "
+        "SET LOCAL lock_timeout = DEFAULT"
+    )
+
     @event.listens_for(engine, "begin")
     def _on_begin(connection: Any) -> None:
-        if connection.get_execution_options().get(WRITE_OPTION, False):
-            connection.exec_driver_sql(f"SELECT pg_advisory_xact_lock({PG_WRITER_LOCK})")
+        options = connection.get_execution_options()
+        if not options.get(WRITE_OPTION, False):
+            return
+        holder = options.get(HOLDER_OPTION)
+        if holder:  # named before waiting: pg_stat_activity shows who waits and who holds
+            connection.exec_driver_sql(
+                "SELECT set_config('application_name', %(name)s, true)", {"name": holder}
+            )
+        connection.exec_driver_sql(take_lock)  # one round trip; the wait bounded, then reset

@@ -17,28 +17,34 @@ from __future__ import annotations
 import hashlib
 import math
 from collections.abc import Iterator
-from contextlib import contextmanager
+from contextlib import contextmanager, suppress
+from dataclasses import dataclass
 from pathlib import PurePath
 from typing import Annotated, Any
 
 from pydantic import Field
+from sqlalchemy import select
+from sqlalchemy.orm import Session, selectinload
 
 from tracker.db.database import Database
 from tracker.domain.errors import InputError, RuleViolation, TrackerError, at_cell
 from tracker.domain.models import (
+    Aliquot,
     BatchPosition,
     ColumnBatch,
     Cut,
     PositionKind,
+    Solution,
 )
 from tracker.domain.tables import Row, TableError, read_table
 from tracker.domain.units import UnitError, mass_to_mg
-from tracker.services.chemistry import AddPosition, place
+from tracker.services.bulk import collector_paused
+from tracker.services.chemistry import AddPosition, Holding, holding, place
 from tracker.services.columns import RecordCut, collect
 from tracker.services.common import finish
 from tracker.services.inputs import Raw, Request, parse
 from tracker.services.label_queue import queue_label
-from tracker.services.lookup import get_by_id
+from tracker.services.lookup import get_by_id, prefix_for, read_id
 from tracker.services.uow import UnitOfWork, unit_of_work
 from tracker.services.views import Done, View
 
@@ -46,6 +52,7 @@ FORMATS = {".csv": "csv", ".tsv": "tsv", ".txt": "tsv", ".xlsx": "xlsx"}
 FIXED = ("slot", "kind", "item", "loaded")
 # Where a refusal from the position and cut rules points on the sheet.
 _COLUMN_OF = {"aliquot": "item", "reference-material": "item", "loaded-ug": "loaded"}
+_CHUNK = 500  # IDs per IN (...) list: well inside every backend's limit on parameters
 
 
 class EnterSheet(Request):
@@ -63,15 +70,27 @@ class SheetView(View):
 
 
 def enter_sheet(db: Database, actor: str | None, data: EnterSheet | Raw) -> Done[SheetView]:
-    """Add every column and cut a batch sheet lists that is not entered yet."""
+    """Add every column and cut a batch sheet lists that is not entered yet.
+
+    The whole sheet is read and every cell checked before the writer lock is taken;
+    inside it only what depends on the batch as it stands is checked and written.
+    """
     request = parse(EnterSheet, data)
-    rows = _read(request)
-    with unit_of_work(db, actor) as uow:
+    with collector_paused():  # resumed once the rows read and written are freed
+        return _enter(db, actor, request)
+
+
+def _enter(db: Database, actor: str | None, request: EnterSheet) -> Done[SheetView]:
+    header, rows = _read(request)
+    batch_id, cuts = _cut_names(db, request.batch)
+    lines = _Reading(request.filename, batch_id, cuts).lines(header, rows)
+    with unit_of_work(db, actor, "enter batch sheet") as uow:
         batch = get_by_id(uow.session, ColumnBatch, "batch", request.batch)
         sheet = _Sheet(uow, batch, request.filename)
-        sheet.check_columns(rows[0])
-        for row in rows[1]:
-            sheet.enter(row)
+        with uow.session.no_autoflush:  # one flush at the end, not one per lookup
+            sheet.look_up(lines)
+            for line in lines:
+                sheet.enter(line)
         if not sheet.new_items:
             raise RuleViolation(
                 "FILE", request.filename, f"every row is already entered in {batch.public_id}"
@@ -80,14 +99,14 @@ def enter_sheet(db: Database, actor: str | None, data: EnterSheet | Raw) -> Done
         payload = {
             "file": request.filename,
             "sha256": hashlib.sha256(request.content).hexdigest(),
-            "rows": len(rows[1]),
+            "rows": len(rows),
             "added": sheet.added_with_ids(),
             "already_entered": sheet.skipped,
         }
         uow.mention(*(item.public_id for item in sheet.new_items))  # their histories show it
         view = SheetView(
             batch=batch.public_id,
-            rows=len(rows[1]),
+            rows=len(rows),
             already_entered=sheet.skipped,
             positions_added=sheet.ids(BatchPosition),
             cuts_added=sheet.ids(Cut),
@@ -110,18 +129,49 @@ def _read(request: EnterSheet) -> tuple[list[str], list[Row]]:
     ]
 
 
-class _Sheet:
-    """One sheet being entered into one batch, row by row, inside one unit of work."""
+def _cut_names(db: Database, batch: str) -> tuple[str, list[str]]:
+    """The batch's ID and cuts, which say what the sheet's columns are (fixed at its making)."""
+    with db.read_session() as session:
+        row = get_by_id(session, ColumnBatch, "batch", batch)
+        return row.public_id, list(row.cut_names)
 
-    def __init__(self, uow: UnitOfWork, batch: ColumnBatch, filename: str) -> None:
-        self.uow, self.batch, self.filename = uow, batch, filename
-        self.cuts = {name.lower(): name for name in batch.cut_names}
-        self.new_items: list[BatchPosition | Cut] = []
-        self.added: list[dict[str, Any]] = []
-        self.skipped = 0
+
+@contextmanager
+def _cell(filename: str, row: int, column: str) -> Iterator[None]:
+    """Refusals from the shared rules name this file, row and column instead."""
+    try:
+        yield
+    except TrackerError as error:
+        where = _COLUMN_OF.get(error.field, column)
+        error.field = at_cell(filename, row, where)
+        raise
+
+
+@dataclass(frozen=True)
+class _Line:
+    """One row of the sheet, every cell read and checked: what it would enter."""
+
+    row: int
+    slot: int
+    slot_text: str
+    item: str
+    position: AddPosition
+    cuts: list[RecordCut]  # named as the batch names them; the column is found inside
+
+
+class _Reading:
+    """The sheet's rows checked on their own, before any lock: the file's part of the rules."""
+
+    def __init__(self, filename: str, batch: str, cut_names: list[str]) -> None:
+        self.filename, self.batch = filename, batch
+        self.cuts = {name.lower(): name for name in cut_names}
         self.rows_of: dict[int, int] = {}  # slot -> the row of this sheet that lists it
 
-    def check_columns(self, header: list[str]) -> None:
+    def lines(self, header: list[str], rows: list[Row]) -> list[_Line]:
+        self._check_columns(header)
+        return [self._line(row) for row in rows]
+
+    def _check_columns(self, header: list[str]) -> None:
         known = {*FIXED, *self.cuts, *(f"{c} u" for c in self.cuts)}
         for required in ("slot", "kind"):
             if required not in header:
@@ -132,70 +182,117 @@ class _Sheet:
                     at_cell(self.filename, 1, name),
                     None,
                     f"is not a batch sheet column (slot, kind, item, loaded, and the cuts of "
-                    f"{self.batch.public_id}: {', '.join(self.batch.cut_names)})",
+                    f"{self.batch}: {', '.join(self.cuts.values())})",
                 )
 
-    @contextmanager
-    def cell(self, row: Row, column: str) -> Iterator[None]:
-        """Refusals from the shared rules name this file, row and column instead."""
-        try:
-            yield
-        except TrackerError as error:
-            where = _COLUMN_OF.get(error.field, column)
-            error.field = at_cell(self.filename, row.number, where)
-            raise
-
-    def enter(self, row: Row) -> None:
-        position = self._position(row)
-        for key, name in self.cuts.items():
-            if row.cells.get(key, ""):
-                self._cut(row, position, key, name)
-
-    def _position(self, row: Row) -> BatchPosition:
+    def _line(self, row: Row) -> _Line:
         slot_text, kind_text = row.cells.get("slot", ""), row.cells.get("kind", "").lower()
-        with self.cell(row, "slot"):
+        with _cell(self.filename, row.number, "slot"):
             slot = _slot(slot_text)
             if slot in self.rows_of:
                 raise InputError(
                     "slot", slot_text, f"column {slot} is listed on row {self.rows_of[slot]} too"
                 )
         self.rows_of[slot] = row.number
-        with self.cell(row, "kind"):
+        with _cell(self.filename, row.number, "kind"):
             if kind_text not in {k.value for k in PositionKind}:
                 raise InputError("kind", kind_text, "is not sample, blank or reference")
         kind = PositionKind(kind_text)
         item, loaded = row.cells.get("item", ""), row.cells.get("loaded", "")
-        existing = next((p for p in self.batch.positions if p.slot == slot), None)
-        if existing is not None:
-            with self.cell(row, "item"):
-                _same_position(existing, kind, item)
-            self.skipped += 1
-            return existing
-        following = 1 + max((p.slot for p in self.batch.positions), default=0)
-        if slot != following:
-            raise InputError(
-                at_cell(self.filename, row.number, "slot"),
-                slot_text,
-                f"column {following} is the next one to enter; list columns in order",
-            )
-        with self.cell(row, "item"):
-            request = parse(
+        with _cell(self.filename, row.number, "item"):
+            position = parse(
                 AddPosition,
                 {
-                    "batch": self.batch.public_id,
+                    "batch": "",  # the batch is the sheet's; it is looked up once, inside
                     "kind": kind,
                     "aliquot": item or None if kind is PositionKind.SAMPLE else None,
                     "reference_material": item or None if kind is PositionKind.REFERENCE else None,
                     "loaded_ug": _micrograms(loaded) if loaded else None,
                 },
             )
-            position, holds = place(self.uow, self.batch, slot, request)
-            self.uow.session.flush()  # its ID names it to its cuts
+        cuts = [
+            self._cut(row, key, name) for key, name in self.cuts.items() if row.cells.get(key, "")
+        ]
+        return _Line(row.number, slot, slot_text, item, position, cuts)
+
+    def _cut(self, row: Row, key: str, name: str) -> RecordCut:
+        text, u_text = row.cells[key], row.cells.get(f"{key} u", "") or None
+        with _cell(self.filename, row.number, name):
+            return parse(
+                RecordCut,
+                {
+                    "position": "",  # the row's column: made or found inside the unit of work
+                    "cut": name,
+                    "recovered": text,
+                    "uncertainty": u_text,
+                },
+            )
+
+
+class _Sheet:
+    """One checked sheet being entered into one batch, inside one unit of work."""
+
+    def __init__(self, uow: UnitOfWork, batch: ColumnBatch, filename: str) -> None:
+        self.uow, self.batch, self.filename = uow, batch, filename
+        self.positions = {p.slot: p for p in _positions(uow.session, batch)}
+        self.following = 1 + max(self.positions, default=0)
+        self.holdings: dict[tuple[str, str], Holding] = {}
+        self.new_items: list[BatchPosition | Cut] = []
+        self.added: list[dict[str, Any]] = []
+        self.skipped = 0
+
+    def look_up(self, lines: list[_Line]) -> None:
+        """Load every aliquot the new rows name in a few statements, with what the rules read.
+
+        ``place`` then finds each in the session (no statement per row); a name or ID that
+        is not there is looked up on its own, and refused by the shared lookup.
+        """
+        wanted: set[int] = set()
+        for line in lines:
+            text = line.position.aliquot
+            if text and line.slot not in self.positions:
+                with suppress(TrackerError):  # refused, with its row, when it is entered
+                    wanted.add(read_id("aliquot", text, prefix_for(self.uow.session, text)).number)
+        ordered = sorted(wanted)
+        for start in range(0, len(ordered), _CHUNK):
+            self.uow.session.scalars(
+                select(Aliquot)
+                .where(Aliquot.id.in_(ordered[start : start + _CHUNK]))
+                .options(
+                    selectinload(Aliquot.positions),
+                    selectinload(Aliquot.solution).selectinload(Solution.concentrations),
+                )
+            ).all()
+
+    def enter(self, line: _Line) -> None:
+        position = self._position(line)
+        for cut in line.cuts:
+            self._cut(line, position, cut)
+
+    def _position(self, line: _Line) -> BatchPosition:
+        existing = self.positions.get(line.slot)
+        if existing is not None:
+            with _cell(self.filename, line.row, "item"):
+                _same_position(existing, line.position.kind, line.item)
+            self.skipped += 1
+            return existing
+        if line.slot != self.following:
+            raise InputError(
+                at_cell(self.filename, line.row, "slot"),
+                line.slot_text,
+                f"column {self.following} is the next one to enter; list columns in order",
+            )
+        with _cell(self.filename, line.row, "item"):
+            position, holds = place(
+                self.uow, self.batch, line.slot, line.position, self._holding(line.position)
+            )
+        self.positions[line.slot] = position
+        self.following += 1
         self.new_items.append(position)
         self.added.append(
             {
-                "slot": slot,
-                "kind": kind.value,
+                "slot": line.slot,
+                "kind": line.position.kind.value,
                 "holds": holds,
                 "loaded_ug": position.loaded_ug,
                 "label": queue_label(self.uow, position),
@@ -203,19 +300,16 @@ class _Sheet:
         )
         return position
 
-    def _cut(self, row: Row, position: BatchPosition, key: str, name: str) -> None:
-        text, u_text = row.cells[key], row.cells.get(f"{key} u", "") or None
-        with self.cell(row, name):
-            request = parse(
-                RecordCut,
-                {
-                    "position": position.public_id,
-                    "cut": name,
-                    "recovered": text,
-                    "uncertainty": u_text,
-                },
-            )
-            existing = next((c for c in position.cuts if c.name == name), None)
+    def _holding(self, request: AddPosition) -> Holding:
+        """The shared lookup, once per distinct item (a sheet names one material many times)."""
+        key = (request.aliquot or "", request.reference_material or "")
+        if key not in self.holdings:
+            self.holdings[key] = holding(self.uow.session, request)
+        return self.holdings[key]
+
+    def _cut(self, line: _Line, position: BatchPosition, request: RecordCut) -> None:
+        with _cell(self.filename, line.row, request.cut):
+            existing = next((c for c in position.cuts if c.name == request.cut), None)
             if existing is not None:
                 _same_cut(existing, request)
                 self.skipped += 1
@@ -225,7 +319,7 @@ class _Sheet:
         self.added.append(
             {
                 "slot": position.slot,
-                "cut": name,
+                "cut": request.cut,
                 "recovered_ug": cut.recovered_ug,
                 "recovered_u_ug": cut.recovered_u_ug,
                 "label": queue_label(self.uow, cut),
@@ -240,6 +334,21 @@ class _Sheet:
             {"id": item.public_id, **entry}
             for entry, item in zip(self.added, self.new_items, strict=True)
         ]
+
+
+def _positions(session: Session, batch: ColumnBatch) -> list[BatchPosition]:
+    """The batch's columns as entered, with what a repeated sheet compares them with."""
+    return list(
+        session.scalars(
+            select(BatchPosition)
+            .where(BatchPosition.batch_id == batch.id)
+            .options(
+                selectinload(BatchPosition.cuts),
+                selectinload(BatchPosition.aliquot),
+                selectinload(BatchPosition.reference_material),
+            )
+        )
+    )
 
 
 def _slot(text: str) -> int:

@@ -2,11 +2,13 @@
 
 from __future__ import annotations
 
+from dataclasses import dataclass
 from datetime import date
 from typing import Annotated
 
 from pydantic import Field, field_validator, model_validator
 from sqlalchemy import func, select
+from sqlalchemy.orm import Session
 
 from tracker.db.database import Database
 from tracker.domain.errors import InputError, RuleViolation
@@ -162,7 +164,7 @@ def add_position(db: Database, actor: str | None, data: AddPosition | Raw) -> Do
     with unit_of_work(db, actor) as uow:
         batch = get_by_id(uow.session, ColumnBatch, "batch", request.batch)
         slot = 1 + max((p.slot for p in batch.positions), default=0)
-        position, holds = place(uow, batch, slot, request)
+        position, holds = place(uow, batch, slot, request, holding(uow.session, request))
         payload = {
             "batch": batch.public_id,
             "slot": slot,
@@ -190,15 +192,39 @@ def add_position(db: Database, actor: str | None, data: AddPosition | Raw) -> Do
         )
 
 
+@dataclass(frozen=True)
+class Holding:
+    """What a new column holds, looked up: an aliquot, a reference material, or nothing."""
+
+    aliquot: Aliquot | None = None
+    material: ReferenceMaterial | None = None
+
+
+def holding(session: Session, request: AddPosition) -> Holding:
+    """Look up the aliquot or reference material a request names (refused if none is)."""
+    return Holding(
+        aliquot=get_by_id(session, Aliquot, "aliquot", request.aliquot)
+        if request.aliquot
+        else None,
+        material=get_reference_material(session, "reference-material", request.reference_material)
+        if request.reference_material
+        else None,
+    )
+
+
 def place(
-    uow: UnitOfWork, batch: ColumnBatch, slot: int, request: AddPosition
+    uow: UnitOfWork, batch: ColumnBatch, slot: int, request: AddPosition, holds: Holding
 ) -> tuple[BatchPosition, str | None]:
-    """Add one column to a batch (part of a unit of work); returns it and what it holds."""
+    """Add one column to a batch (part of a unit of work); returns it and what it holds.
+
+    The caller looks up what it holds (``holding``, or a batch sheet's lookups of all its
+    rows at once); the rules here only read those rows and what is loaded with them.
+    """
     position = BatchPosition(batch=batch, slot=slot, kind=request.kind, created_at=uow.now)
     uow.session.add(position)
-    holds = None
-    if request.aliquot:
-        aliquot = get_by_id(uow.session, Aliquot, "aliquot", request.aliquot)
+    held = None
+    if holds.aliquot is not None:
+        aliquot = holds.aliquot
         if aliquot.status is not ContainerStatus.AVAILABLE or aliquot.positions:
             raise RuleViolation("aliquot", aliquot.public_id, "is already used or not available")
         on_column_after(batch, aliquot)
@@ -212,12 +238,9 @@ def place(
         position.aliquot = aliquot
         position.loaded_ug, position.loaded_u_ug = element[1], element[2]
         aliquot.status = ContainerStatus.CONSUMED
-        holds = aliquot.public_id
-    if request.reference_material:
-        material = get_reference_material(
-            uow.session, "reference-material", request.reference_material
-        )
-        position.reference_material = material
+        held = aliquot.public_id
+    if holds.material is not None:
+        position.reference_material = holds.material
         position.loaded_ug, position.loaded_u_ug = request.loaded_ug, request.loaded_u_ug
-        holds = material.name
-    return position, holds
+        held = holds.material.name
+    return position, held

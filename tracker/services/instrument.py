@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import hashlib
 import math
-from typing import Annotated, Any, Literal
+from typing import Annotated, Any, Literal, NamedTuple
 
 from pydantic import Field
 from sqlalchemy import func, select
@@ -31,6 +31,7 @@ from tracker.domain.models import (
 )
 from tracker.domain.tables import Row, TableError, read_table
 from tracker.domain.timing import Since, not_before
+from tracker.services.bulk import collector_paused
 from tracker.services.common import action_time, finish
 from tracker.services.inputs import (
     AwareDatetime,
@@ -160,21 +161,46 @@ class SessionView(View):
 
 
 def import_session(db: Database, actor: str | None, data: ImportSession | Raw) -> Done[SessionView]:
-    """Read an instrument export through a saved profile into a new session."""
+    """Read an instrument export through a saved profile into a new session.
+
+    The export is read and every row checked through the profile before the writer
+    lock is taken; inside it, rows are matched to what the database holds and written.
+    """
     request = parse(ImportSession, data)
-    with unit_of_work(db, actor) as uow:
-        profile = _profile(uow.session, request.profile)
+    with collector_paused():  # resumed once the rows read and written are freed
+        with db.read_session() as session:
+            profile = _profile(session, request.profile)
+        rows = _checked_rows(request, profile)
+        with unit_of_work(db, actor, "import instrument session") as uow:
+            current = _profile(uow.session, request.profile)
+            if current != profile:  # saved anew meanwhile: read the export as it says now
+                profile, rows = current, _checked_rows(request, current)
+            with in_file(request.filename), uow.session.no_autoflush:
+                return _import(uow, request, profile, rows)
+
+
+def _checked_rows(request: ImportSession, profile: ProfileDefinition) -> list[_Run]:
+    """The export read through the profile, every row checked: no database needed."""
+    with in_file(request.filename):
         _require_standard_values(request, profile)
-        with in_file(request.filename):
-            return _import(uow, request, profile)
+        return _read(request, profile)
+
+
+class _Run(NamedTuple):
+    """One row of an export, read and checked: what its measurement will hold."""
+
+    row: int
+    run: int
+    name: str
+    label: str | None
+    values: dict[str, Any]  # ratios and their errors, by ratio
 
 
 def _import(
-    uow: UnitOfWork, request: ImportSession, profile: ProfileDefinition
+    uow: UnitOfWork, request: ImportSession, profile: ProfileDefinition, rows: list[_Run]
 ) -> Done[SessionView]:
-    """The import proper, inside the caller's unit of work."""
+    """The import proper, inside the caller's unit of work; the rows are checked already."""
     _refuse_repeat(uow, request)
-    rows = _read(request, profile)
     session = InstrumentSession(
         name=request.name,
         instrument=request.instrument,
@@ -193,26 +219,27 @@ def _import(
     )
     uow.session.add(session)
     matcher = Matcher(uow.session, request.bracketing_standard, request.element)
+    matcher.look_up([run.label or run.name for run in rows])
+    measurements: list[Measurement] = []
     unmatched: list[UnmatchedRow] = []
-    for row, run, name, label in rows:
+    for run in rows:
         measurement = Measurement(
             session=session,
-            run_order=run,
-            sample_name=name,
+            run_order=run.run,
+            sample_name=run.name,
             created_at=uow.now,
-            **_values(row, profile),
+            **run.values,
         )
         uow.session.add(measurement)
-        reason = matcher.assign(measurement, label or name)
+        measurements.append(measurement)
+        reason = matcher.assign(measurement, run.label or run.name)
         if reason:
             unmatched.append(
-                UnmatchedRow(row=row.number, run_order=run, sample_name=name, reason=reason)
+                UnmatchedRow(row=run.row, run_order=run.run, sample_name=run.name, reason=reason)
             )
-    require_brackets(
-        session.measurements, {r[1]: r[0].number for r in rows}, profile.columns.sample_name
-    )
-    not_before("started-at", session.started_at, _columns_measured(uow, session.measurements))
-    view = lambda: _view(session, unmatched)  # noqa: E731
+    require_brackets(measurements, {r.run: r.row for r in rows}, profile.columns.sample_name)
+    not_before("started-at", session.started_at, _columns_measured(uow, measurements))
+    view = lambda: _view(session, measurements, unmatched)  # noqa: E731
     payload = {
         "file": request.filename,
         "sha256": session.source_sha256,
@@ -265,10 +292,8 @@ def _require_standard_values(request: ImportSession, profile: ProfileDefinition)
         )
 
 
-def _read(
-    request: ImportSession, profile: ProfileDefinition
-) -> list[tuple[Row, int, str, str | None]]:
-    """Rows with their run order, sample name and label ID; every problem names row and column."""
+def _read(request: ImportSession, profile: ProfileDefinition) -> list[_Run]:
+    """Every row read and checked, in run order; every problem names row and column."""
     try:
         header, rows = read_table(
             request.content,
@@ -310,8 +335,8 @@ def _read(
         seen[run] = row.number
         name = _text(row, columns.sample_name)  # kept with the measurement, matched or not
         label = _text(row, columns.sample_id) if columns.sample_id else None
-        result.append((row, run, name, label or None))
-    return sorted(result, key=lambda item: item[1])
+        result.append(_Run(row.number, run, name, label or None, _values(row, profile)))
+    return sorted(result, key=lambda item: item.run)
 
 
 def _text(row: Row, column: str) -> str:
@@ -358,8 +383,10 @@ def _positive(row: Row, column: str, *, allow_zero: bool = False) -> float:
     return value
 
 
-def _view(session: InstrumentSession, unmatched: list[UnmatchedRow]) -> SessionView:
-    roles = [m.role for m in session.measurements]
+def _view(
+    session: InstrumentSession, measurements: list[Measurement], unmatched: list[UnmatchedRow]
+) -> SessionView:
+    roles = [m.role for m in measurements]
     return SessionView(
         id=session.public_id,
         name=session.name,

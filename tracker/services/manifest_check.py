@@ -3,7 +3,8 @@
 The preview a person reads and the rows an import writes come from the same pass: each
 row is checked once, and a clean row's specimen columns are validated once (all rows in
 one call, by the same model `specimen add` uses) and kept for the write. Nothing here
-touches the database; the caller hands over the loan's specimens as they stand.
+touches the database: :func:`check_file` needs only the file (an import runs it before
+taking the writer lock), :func:`compare` the loan's specimens as they stand.
 """
 
 from __future__ import annotations
@@ -81,13 +82,21 @@ def header_problems(header: list[str]) -> list[str]:
     return found
 
 
-def check_rows(
-    rows: list[Row], existing: Mapping[str, Specimen], file_problem: list[str]
-) -> tuple[list[RowResult], dict[int, Fields]]:
-    """Every row's result for the preview, and the validated columns of each clean row.
+@dataclass(frozen=True)
+class CheckedRow:
+    """One row checked on its own: its problems, or its validated specimen columns."""
 
-    The second value maps a row number to what `write` needs for a row that creates or
-    updates a specimen; rows with problems or nothing to change are not in it.
+    number: int
+    catalog: str
+    problems: list[str]
+    fields: Fields | None  # None for a row with problems
+
+
+def check_file(rows: list[Row], file_problem: list[str]) -> list[CheckedRow]:
+    """Every row checked against the file alone (no database): run before any lock.
+
+    A clean row's specimen columns are validated here, all rows in one call, by the
+    model `specimen add` uses; :func:`compare` then says what each clean row changes.
     """
     columns = _Columns.of(list(rows[0].cells) if rows else [])
     seen: dict[str, int] = {}
@@ -100,15 +109,29 @@ def check_rows(
     fields: dict[int, Fields] = {}
     for n, (checked, problem) in zip(clean, validated, strict=True):
         if problem is None:
-            fields[rows[n].number] = checked
+            fields[n] = checked
         else:
             found[n].append(problem)
+    return [
+        CheckedRow(row.number, nfc(row.cells.get(REQUIRED, "").strip()), problems, fields.get(n))
+        for n, (row, problems) in enumerate(zip(rows, found, strict=True))
+    ]
+
+
+def compare(
+    checked: list[CheckedRow], existing: Mapping[str, Specimen]
+) -> tuple[list[RowResult], dict[int, Fields]]:
+    """Every row's result for the preview, against the loan's specimens as they stand.
+
+    The second value maps a row number to what `write` needs for a row that creates or
+    updates a specimen; rows with problems or nothing to change are not in it.
+    """
     results = []
-    for row, problems in zip(rows, found, strict=True):
-        catalog = nfc(row.cells.get(REQUIRED, "").strip())
-        result = _result(row.number, catalog, problems, fields.get(row.number), existing)
-        if result["action"] in ("unchanged", "error"):
-            fields.pop(row.number, None)
+    fields: dict[int, Fields] = {}
+    for row in checked:
+        result = _result(row.number, row.catalog, row.problems, row.fields, existing)
+        if result["action"] in ("create", "update") and row.fields is not None:
+            fields[row.number] = row.fields
         results.append(result)
     return _ROW_RESULTS.validate_python(results), fields
 

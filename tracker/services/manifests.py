@@ -31,8 +31,10 @@ from tracker.services.lookup import get_loan
 from tracker.services.manifest_check import (
     OWN_FIELDS,
     TERM_FIELDS,
+    CheckedRow,
     Fields,
-    check_rows,
+    check_file,
+    compare,
     header_problems,
 )
 from tracker.services.manifest_check import RowResult as RowResult
@@ -152,8 +154,10 @@ def save_mapping(db: Database, actor: str | None, data: NewMapping | Raw) -> Don
 def preview_manifest(db: Database, data: ManifestRequest | Raw) -> ManifestPreview:
     """Everything the import would do, and every problem, row by row. Writes nothing."""
     request = parse(ManifestRequest, data)
-    with collector_paused(), db.read_session() as session:
-        return _examine(session, request).preview
+    with collector_paused():
+        reading = _read_file(request, _saved_mapping(db, request))
+        with db.read_session() as session:
+            return _examine(session, request, reading).preview
 
 
 def import_manifest(
@@ -161,8 +165,8 @@ def import_manifest(
 ) -> ManifestOutcome:
     """Create and update the loan's specimens from a clean manifest, in one transaction.
 
-    The file is read and checked once: the preview it answers with is the pass whose
-    validated rows are written.
+    The file is read and checked once, before the writer lock is taken: the preview it
+    answers with is the pass whose validated rows are written.
     """
     request = parse(ManifestRequest, data)
     with collector_paused():  # resumed once the rows checked and written are freed
@@ -170,11 +174,16 @@ def import_manifest(
 
 
 def _import(db: Database, actor: str | None, request: ManifestRequest) -> ManifestOutcome:
-    with unit_of_work(db, actor) as uow:
-        examined = _examine(uow.session, request)
+    mapping = _saved_mapping(db, request)
+    reading = _read_file(request, mapping)  # the whole file, before the lock
+    with unit_of_work(db, actor, "import lender manifest") as uow:
+        current = _mapping(uow.session, request.mapping)
+        if current != mapping:  # saved anew meanwhile: read the file as it says now
+            reading = _read_file(request, current)
+        examined = _examine(uow.session, request, reading)
         preview = examined.preview
         if not preview.clean:
-            raise _first_problem(request.filename, preview, examined.header_problems)
+            raise _first_problem(request.filename, preview, reading.header_problems)
         loan = examined.loan
         if loan.status is not LoanStatus.OPEN:
             raise RuleViolation("loan", loan.reference, f"is {loan.status.value}")
@@ -193,6 +202,13 @@ def _import(db: Database, actor: str | None, request: ManifestRequest) -> Manife
     return ManifestOutcome(
         preview=preview, created=created, updated=updated, event_seq=done.event_seq
     )
+
+
+def _saved_mapping(db: Database, request: ManifestRequest) -> ManifestMapping:
+    """The mapping the file is read through; the loan is looked up too, to refuse a typo early."""
+    with db.read_session() as session:
+        get_loan(session, "loan", request.loan)
+        return _mapping(session, request.mapping)
 
 
 def _first_problem(filename: str, preview: ManifestPreview, of_headings: list[str]) -> InputError:
@@ -230,8 +246,7 @@ def _mapping(session: Session, name: str | None) -> ManifestMapping:
     return mapping
 
 
-def _rows(session: Session, request: ManifestRequest) -> tuple[list[str], list[Row]]:
-    mapping = _mapping(session, request.mapping)
+def _rows(request: ManifestRequest, mapping: ManifestMapping) -> tuple[list[str], list[Row]]:
     fmt = mapping.format if request.mapping else _format_of(request.filename)
     try:
         header, rows = read_table(
@@ -269,32 +284,49 @@ def _format_of(filename: str) -> str:
 
 
 @dataclass(frozen=True)
+class _Reading:
+    """A manifest read and every row checked, without the database (before the lock)."""
+
+    header: list[str]
+    header_problems: list[str]
+    rows: list[CheckedRow]
+    sha256: str
+
+
+def _read_file(request: ManifestRequest, mapping: ManifestMapping) -> _Reading:
+    header, rows = _rows(request, mapping)
+    problems = header_problems(header)
+    digest = hashlib.sha256(request.content).hexdigest()
+    return _Reading(header, problems, check_file(rows, problems), digest)
+
+
+@dataclass(frozen=True)
 class _Examined:
     """One reading of a manifest: the preview, and what an import of it would write."""
 
     loan: Loan
     preview: ManifestPreview
-    header_problems: list[str]
     existing: dict[str, Specimen]  # the loan's specimens by catalogue number
     fields: dict[int, Fields]  # row number -> validated columns, for rows that write
 
 
-def _examine(session: Session, request: ManifestRequest) -> _Examined:
+def _examine(session: Session, request: ManifestRequest, reading: _Reading) -> _Examined:
+    """The checked rows against the loan's specimens as they stand: the preview."""
     loan = get_loan(session, "loan", request.loan)
-    header, rows = _rows(session, request)
     existing = {
         s.catalog_number: s
         for s in session.scalars(select(Specimen).where(Specimen.loan_id == loan.id))
     }
-    file_problem = header_problems(header)
-    results, fields = check_rows(rows, existing, file_problem)
+    results, fields = compare(reading.rows, existing)
+    header = reading.header
     extra = sorted(h for h in header if h not in TERM_FIELDS and h not in OWN_FIELDS)
-    problems = sum(len(r.problems) for r in results) + (len(file_problem) if not rows else 0)
+    problems = sum(len(r.problems) for r in results)
+    problems += len(reading.header_problems) if not reading.rows else 0
     tally = Counter(r.action for r in results)
     preview = ManifestPreview(
         loan=loan.reference,
         file=request.filename,
-        sha256=hashlib.sha256(request.content).hexdigest(),
+        sha256=reading.sha256,
         rows=results,
         create=tally["create"],
         update=tally["update"],
@@ -302,7 +334,7 @@ def _examine(session: Session, request: ManifestRequest) -> _Examined:
         problems=problems,
         kept_as_extra=extra,
     )
-    return _Examined(loan, preview, file_problem, existing, fields)
+    return _Examined(loan, preview, existing, fields)
 
 
 def _write(

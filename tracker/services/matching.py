@@ -8,7 +8,7 @@ position; anything else is *unmatched*, kept and listed with the reason.
 from __future__ import annotations
 
 from sqlalchemy import select
-from sqlalchemy.orm import Session
+from sqlalchemy.orm import Session, selectinload
 
 from tracker.domain.errors import InputError
 from tracker.domain.ids import BadId, Kind, looks_like_id, parse_id
@@ -21,6 +21,8 @@ from tracker.domain.models import (
     ReferenceMaterial,
 )
 
+_CHUNK = 500  # IDs per IN (...) list: well inside every backend's limit on parameters
+
 
 class Matcher:
     """Decides what each row measured, from its label ID or its name."""
@@ -28,6 +30,37 @@ class Matcher:
     def __init__(self, session: Session, standard: str, element: str) -> None:
         self.session, self.standard, self.element = session, standard.lower(), element
         self.materials = {m.name.lower(): m for m in session.scalars(select(ReferenceMaterial))}
+
+    def look_up(self, labels: list[str]) -> None:
+        """Load the cuts and columns these labels name in a few statements, not one per row.
+
+        ``assign`` then finds them in the session; an ID that names nothing is still
+        looked for on its own (and reported unmatched).
+        """
+        wanted: dict[Kind, set[int]] = {Kind.CUT: set(), Kind.POSITION: set()}
+        for label in labels:
+            if label.strip().lower() in self.materials or not looks_like_id(label):
+                continue
+            try:
+                public = parse_id(label)
+            except BadId:
+                continue
+            if public.kind in wanted:
+                wanted[public.kind].add(public.number)
+        cuts = sorted(wanted[Kind.CUT])
+        for start in range(0, len(cuts), _CHUNK):
+            self.session.scalars(
+                select(Cut)
+                .where(Cut.id.in_(cuts[start : start + _CHUNK]))
+                .options(selectinload(Cut.position).selectinload(BatchPosition.batch))
+            ).all()
+        positions = sorted(wanted[Kind.POSITION])
+        for start in range(0, len(positions), _CHUNK):
+            self.session.scalars(
+                select(BatchPosition)
+                .where(BatchPosition.id.in_(positions[start : start + _CHUNK]))
+                .options(selectinload(BatchPosition.batch), selectinload(BatchPosition.cuts))
+            ).all()
 
     def assign(self, measurement: Measurement, label: str) -> str:
         """Set the measurement's role and target; return why it is unmatched, or ''."""
@@ -78,14 +111,19 @@ class Matcher:
 def require_brackets(
     measurements: list[Measurement], rows: dict[int, int], sample_column: str
 ) -> None:
-    """Every sample, reference and blank needs a standard measured before AND after it."""
+    """Every sample, reference and blank needs a standard measured before AND after it.
+
+    That is: a standard runs before it (the first standard is earlier) and one after it
+    (the last standard is later) — two comparisons per row, whatever the file's length.
+    """
     ordered = sorted(measurements, key=lambda m: m.run_order)
     standards = [m.run_order for m in ordered if m.role is MeasurementRole.STANDARD]
+    first, last = (standards[0], standards[-1]) if standards else (None, None)
     for m in ordered:
         if m.role in (MeasurementRole.STANDARD, MeasurementRole.UNMATCHED):
             continue
-        before = any(s < m.run_order for s in standards)
-        after = any(s > m.run_order for s in standards)
+        before = first is not None and first < m.run_order
+        after = last is not None and last > m.run_order
         if not (before and after):
             side = "before" if not before else "after"
             raise InputError(

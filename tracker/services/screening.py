@@ -20,6 +20,7 @@ from tracker.domain.errors import InputError, NotFound, RuleViolation, at_cell
 from tracker.domain.models import SrCurve
 from tracker.domain.srcurve import Curve, CurveError, CurvePoint, overlaps, parse_curve_csv
 from tracker.domain.textfiles import FileProblem, decode_text
+from tracker.services.bulk import collector_paused
 from tracker.services.common import finish
 from tracker.services.inputs import Name, Raw, Request, Text, parse
 from tracker.services.lookup import get_loan
@@ -51,12 +52,17 @@ class NewCurve(Request):
 def add_curve(db: Database, actor: str | None, data: NewCurve | Raw) -> Done[CurveView]:
     """Keep a reference curve (CSV: age_ma, 87sr/86sr, u — sorted by age, no gaps)."""
     request = parse(NewCurve, data)
+    with collector_paused():  # resumed once the points read and written are freed
+        return _add_curve(db, actor, request)
+
+
+def _add_curve(db: Database, actor: str | None, request: NewCurve) -> Done[CurveView]:
     file = request.filename or request.name
-    try:
+    try:  # the whole file, before the writer lock
         curve = parse_curve_csv(decode_text(request.content, limit=MAX_CURVE_BYTES))
     except (CurveError, FileProblem) as exc:
         raise InputError(at_cell(file, exc.row, exc.column), None, exc.reason) from None
-    with unit_of_work(db, actor) as uow:
+    with unit_of_work(db, actor, "add Sr curve") as uow:
         if uow.session.scalars(select(SrCurve).where(SrCurve.name == request.name)).first():
             raise RuleViolation("name", request.name, "a curve with this name exists")
         digest = hashlib.sha256(request.content).hexdigest()

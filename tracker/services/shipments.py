@@ -107,9 +107,9 @@ class AddPhoto(Request):
 def add_photo(db: Database, actor: str | None, data: AddPhoto | Raw) -> Done[PhotoView]:
     """Keep a photograph of a specimen's condition (kept once, by its SHA-256)."""
     request = parse(AddPhoto, data)
+    _require_image(request.photo)  # the file alone, before the writer lock
     with unit_of_work(db, actor) as uow:
         specimen = get_by_id(uow.session, Specimen, "specimen", request.specimen)
-        _require_image(request.photo)
         document = store_document(uow.session, request.photo, uow.now)
         if any(p.document_id == document.id for p in _photos(uow.session, specimen.id)):
             raise RuleViolation("photo", request.photo.filename, "is already kept for it")

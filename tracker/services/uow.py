@@ -5,10 +5,16 @@ transaction takes the writer lock (``BEGIN IMMEDIATE`` on SQLite, an advisory
 lock on PostgreSQL), so reading the ledger head, checking rules and appending
 the next event cannot interleave with another writer. Leaving the block
 without :meth:`UnitOfWork.commit` rolls everything back.
+
+Everyone else waits while a unit of work is open, so a service reads and checks
+its input (a whole file, for importers) *before* opening one, and does only the
+database's part inside. A writer that waits in vain leaves with ``Busy`` (exit 3)
+naming the holder (``tracker.db.writer_lock``).
 """
 
 from __future__ import annotations
 
+import sys
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
 from dataclasses import dataclass, field
@@ -20,6 +26,7 @@ from sqlalchemy.orm import Session
 
 from tracker.db.database import Database
 from tracker.db.rows import insert_rows
+from tracker.db.writer_lock import WriterLock
 from tracker.domain.base import HasPublicId
 from tracker.domain.errors import InputError, RuleViolation
 from tracker.domain.ledger import GENESIS_HASH, canonical_json, event_hash
@@ -72,6 +79,8 @@ class UnitOfWork:
     # Set by ``common.action_time`` when the entry is dated beyond the lab's window: recording
     # it then needs a manager, its event's payload says so and a BackdatedEntry row names it.
     backdated: Backdating | None = None
+    # Lets go of what announces this writer to waiters, just before COMMIT releases the lock.
+    release: Callable[[], None] = lambda: None
 
     def mention(self, *refs: str) -> None:
         """Make the event findable from each of these items' history."""
@@ -141,6 +150,8 @@ class UnitOfWork:
     def commit(self) -> None:
         if len(self.events) != 1:
             raise RuntimeError("a service must record exactly one custody event before commit")
+        self.session.flush()  # the long part of committing, still announced to waiters
+        self.release()
         self.session.commit()
         self.committed = True
 
@@ -184,21 +195,37 @@ def append_event(
 
 
 @contextmanager
-def unit_of_work(db: Database, actor: str | None) -> Iterator[UnitOfWork]:
-    """Open a write transaction as ``actor``; roll back unless the service commits."""
+def unit_of_work(db: Database, actor: str | None, doing: str = "") -> Iterator[UnitOfWork]:
+    """Open a write transaction as ``actor``; roll back unless the service commits.
+
+    ``doing`` is what a writer kept waiting is told this one is doing ("import lender
+    manifest"); by default the name of the service that opened the unit of work.
+    """
     session = db.write_session()
+    lock = WriterLock(db.engine, actor or "(no operator)", doing or _calling_service())
     try:
         session.begin()
+        lock.take(session)  # waits for other writers; Busy, naming the holder, if in vain
         operator = find_operator(session, actor)
-        uow = UnitOfWork(session, operator, as_utc(db.clock()))
+        uow = UnitOfWork(session, operator, as_utc(db.clock()), release=lock.release)
         yield uow
         if not uow.committed:
+            lock.release()
             session.rollback()
     except BaseException:
+        lock.release()
         session.rollback()
         raise
     finally:
         session.close()
+
+
+def _calling_service() -> str:
+    """The name of the service function that opened the unit of work, said in words."""
+    frame = sys._getframe(1)
+    while frame.f_back is not None and frame.f_globals.get("__name__") in (__name__, "contextlib"):
+        frame = frame.f_back
+    return frame.f_code.co_name.strip("_").replace("_", " ") or "a write"
 
 
 def find_operator(session: Session, actor: str | None) -> Operator:

@@ -8,7 +8,7 @@ from typing import TYPE_CHECKING
 from rich.text import Text
 from textual.message import Message
 
-from tracker.domain.errors import TrackerError
+from tracker.domain.errors import Busy, TrackerError
 from tracker.domain.text_rules import visible
 from tracker.ui.plain import shown
 
@@ -42,5 +42,10 @@ class ScanFailed(Message):
 
 def refusal_text(error: TrackerError) -> Text:
     """How every refusal reads on screen: a cross, then the service's own one line (which
-    quotes values from outside: shown with hidden characters visible, never as markup)."""
-    return shown(f"✗ refused: {visible(error.one_line(), keep_lines=False)}")
+    quotes values from outside: shown with hidden characters visible, never as markup).
+
+    A busy database is no refusal of the request: its line (who holds the database,
+    since when, try again) stands alone, word for word as the command line prints it.
+    """
+    line = visible(error.one_line(), keep_lines=False)
+    return shown(f"✗ {line}" if isinstance(error, Busy) else f"✗ refused: {line}")
