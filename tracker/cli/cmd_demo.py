@@ -6,7 +6,7 @@ from typing import Annotated
 import typer
 
 from tracker.cli import cmd_inspect
-from tracker.cli.state import errors, state
+from tracker.cli.state import cli_fields, errors, state
 
 DEMO_FILE = "tracker-demo.sqlite"
 DEMO_EPILOG = f"Example: tracker demo --out {DEMO_FILE}"
@@ -14,9 +14,10 @@ DEMO_EPILOG = f"Example: tracker demo --out {DEMO_FILE}"
 
 def demo(
     ctx: typer.Context,
-    out: Annotated[Path, typer.Option("--out", help="Where to write the demo database.")] = Path(
-        DEMO_FILE
-    ),
+    out: Annotated[
+        Path,
+        typer.Option("--out", help="New file for the demo database (an existing file is refused)."),
+    ] = Path(DEMO_FILE),
     no_open: Annotated[
         bool,
         typer.Option("--no-open", help="Print the overview instead of opening the interface."),
@@ -29,7 +30,8 @@ def demo(
     """
     from tracker.io.demo import build_demo
 
-    steps = build_demo(out)
+    with cli_fields(ctx):
+        steps = build_demo(out)
     errors.print(
         f"built {out} from the demo scenario ({steps} steps, all invented data)",
         markup=False,

@@ -16,8 +16,8 @@ from sqlalchemy import create_engine
 
 from tracker.db.database import Database
 from tracker.db.engine import BUSY_TIMEOUT_MS, create_private_file
+from tracker.db.outputs import SQLITE_HEADER
 
-SQLITE_HEADER = b"SQLite format 3\x00"
 SIDE_FILES = ("-wal", "-shm")
 
 
@@ -42,6 +42,12 @@ def copy_live(source: Path, destination: Path) -> None:
     except BaseException:
         destination.unlink(missing_ok=True)
         raise
+
+
+def fold_log(path: Path) -> None:
+    """Fold a closed database's write-ahead log into its file, so the file alone is whole."""
+    with closing(sqlite3.connect(path, timeout=BUSY_TIMEOUT_MS / 1000)) as connection:
+        connection.execute("PRAGMA wal_checkpoint(TRUNCATE)")
 
 
 def read_only(path: Path) -> Database:
