@@ -28,6 +28,7 @@ import hashlib
 import io
 import os
 import secrets
+import shutil
 import stat
 from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass
@@ -50,13 +51,18 @@ SQLITE_HEADER = b"SQLite format 3\x00"
 WAL_MAGICS = (bytes.fromhex("377f0682"), bytes.fromhex("377f0683"))
 JOURNAL_MAGIC = bytes.fromhex("d9d505f920a163d7")
 SIDE_SUFFIXES = ("-wal", "-shm", "-journal")
+KINDS = {  # what each kind of SQLite file is, said to a person who named one as a target
+    "an SQLite database": "a lab's database or a backup of one",
+    "an SQLite write-ahead log": "part of a database",
+    "an SQLite rollback journal": "part of a database",
+}
 STAMP = "%Y%m%dT%H%M%SZ"
 MAX_VARIANTS = 1000  # name-2 … name-1000: beyond that something is wrong with the folder
 # Where hard links are not available (some network and FAT file systems) publishing falls
-# back to a rename after checking the name is free, which leaves a moment's race.
+# back to a rename after checking that the name is free, which leaves a moment's race.
 NO_LINKS = {errno.EPERM, errno.EOPNOTSUPP, errno.ENOTSUP, errno.EMLINK, errno.EXDEV}
 
-Content = bytes | Callable[[BinaryIO], None]
+Content = bytes | Callable[[BinaryIO], object]
 
 
 class TargetExists(InputError):
@@ -85,8 +91,13 @@ def variants(path: Path) -> Iterator[Path]:
 
 
 def sqlite_kind(path: Path) -> str | None:
-    """What SQLite file ``path`` is by its first bytes ("database", …), or None."""
+    """What SQLite file ``path`` is by its first bytes ("an SQLite database" …), or None.
+
+    Only regular files are opened: reading a named pipe or a device would block or consume.
+    """
     try:
+        if not stat.S_ISREG(path.stat().st_mode):
+            return None
         with path.open("rb") as handle:
             head = handle.read(len(SQLITE_HEADER))
     except OSError:
@@ -117,18 +128,18 @@ def check_target(
         raise InputError(field, str(path), "its folder does not exist")
     if path.is_dir():
         raise InputError(field, str(path), "is a folder; give a file name")
-    never = "tracker never writes over it, even with --force"
+    never = "tracker never writes over it" + (", even with --force" if forceable else "")
     if database is not None and _is_database_file(path, database):
         raise InputError(field, str(path), f"is the lab's database or one of its files; {never}")
     kind = sqlite_kind(path)
     if kind is not None:
-        raise InputError(field, str(path), f"is {kind} (a database, a backup or its log); {never}")
+        raise InputError(field, str(path), f"is {kind} ({KINDS[kind]}); {never}")
     owner = _side_file_owner(path)
     if owner is not None:
         raise InputError(field, str(path), f"belongs to the SQLite database {owner}; {never}")
     if not os.path.lexists(path):
         return
-    if not path.is_symlink() and not stat.S_ISREG(path.stat().st_mode):
+    if not path.is_symlink() and not _is_regular(path):
         raise InputError(field, str(path), "is not a regular file; give a file name")
     if not forceable:
         raise TargetExists(field, str(path), "already exists; tracker never replaces a file here")
@@ -139,6 +150,13 @@ def check_target(
             "already exists; choose another name, or add --force to replace it "
             f"(the old file is then kept as {path.name}.replaced-<UTC time>)",
         )
+
+
+def _is_regular(path: Path) -> bool:
+    try:
+        return stat.S_ISREG(path.stat().st_mode)
+    except OSError:
+        return False
 
 
 def _is_database_file(path: Path, database: Path) -> bool:
@@ -260,6 +278,22 @@ def publish(
     The target is checked again (it may have changed since the command started); a name
     that exists by the time of the link is refused, never replaced.
     """
+    kept = _link(temp, target, field, force, database, clock, forceable)
+    temp.unlink(missing_ok=True)
+    _sync_folder(target.parent)
+    return kept
+
+
+def _link(
+    temp: Path,
+    target: Path,
+    field: str,
+    force: bool,
+    database: Path | None,
+    clock: Clock,
+    forceable: bool = True,
+) -> Path | None:
+    """The second name for ``temp`` (the temporary name stays until the caller drops it)."""
     check_target(target, field, force=force, database=database, forceable=forceable)
     kept = _move_aside(target, clock, field) if force and os.path.lexists(target) else None
     try:
@@ -271,9 +305,7 @@ def publish(
     except OSError as error:
         if error.errno not in NO_LINKS:
             raise InputError(field, str(target), f"cannot be written ({error.strerror})") from None
-        _rename_if_free(temp, target, field)
-    temp.unlink(missing_ok=True)
-    _sync_folder(target.parent)
+        _copy_if_free(temp, target, field)
     return kept
 
 
@@ -301,6 +333,21 @@ def _rename_if_free(source: Path, target: Path, field: str) -> None:
             field, str(target), "appeared while it was being written; nothing was replaced"
         )
     source.rename(target)
+
+
+def _copy_if_free(temp: Path, target: Path, field: str) -> None:
+    """Without hard links: a whole copy of the staged file renamed to the target if that is
+    still free (the staged file stays for the caller, as after a link)."""
+    copy = temp_path(temp.parent, target.name)
+    try:
+        with temp.open("rb") as source, copy.open("xb") as out:
+            shutil.copyfileobj(source, out, 1 << 20)
+            out.flush()
+            os.fsync(out.fileno())
+        shutil.copymode(temp, copy)
+        _rename_if_free(copy, target, field)
+    finally:
+        copy.unlink(missing_ok=True)
 
 
 def _sync_folder(folder: Path) -> None:
@@ -374,7 +421,9 @@ def publish_first_free(
                 _undo(path)
             first = False
             continue
-        return candidate, kept
+        for folder in {path.parent for path in candidate}:
+            _sync_folder(folder)
+        return candidate, kept  # the temporary names go with the caller's discard
     raise InputError(field, str(staged[0].temp.parent), "no free file name; choose another folder")
 
 
@@ -392,7 +441,7 @@ def _place(
         made.append(target.parent)
     if item.reuse and holds(target, item.sha256):
         return None
-    kept = publish(item.temp, target, field, force=force, database=database, clock=clock)
+    kept = _link(item.temp, target, field, force, database, clock)
     made.append(target)
     return kept
 
