@@ -121,6 +121,24 @@ async def test_a_typed_name_that_exists_is_refused_in_words_and_another_is_writt
     ]
 
 
+async def test_two_reports_written_from_the_screen_get_two_names(lab: Lab) -> None:
+    start = head(lab)
+    async with lab.app().run_test(size=(120, 40)) as pilot:
+        await open_loan(pilot, "R")
+        screen = pilot.app.screen
+        assert isinstance(screen, ReportScreen)
+        await until(pilot, lambda: screen.report is not None)
+        outcome = screen.query_one("#outcome", Static)
+        for _ in range(2):
+            await pilot.press("ctrl+s")
+            await until(pilot, lambda: "✓ wrote" in text_of(outcome))
+            outcome.update("")
+    events = events_after(lab, start)
+    assert [e.action for e in events] == ["report.generated"] * 2
+    pdfs = sorted(p.name for p in lab.out.glob("*.pdf"))
+    assert pdfs == sorted(f"{LOAN}-return-report-event-{e.seq}.pdf" for e in events)
+
+
 MANIFEST = (
     "catalogNumber,institutionCode,scientificName,locality,preparations\n"
     "KFMNH P 20311,KFMNH,Otodontidae indet.,Ollen Brook pit (upper bed; invented),tooth\n"
