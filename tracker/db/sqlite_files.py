@@ -16,18 +16,14 @@ from sqlalchemy import create_engine
 
 from tracker.db.database import Database
 from tracker.db.engine import BUSY_TIMEOUT_MS, create_private_file
-from tracker.db.outputs import SQLITE_HEADER
+from tracker.db.outputs import sqlite_kind
 
 SIDE_FILES = ("-wal", "-shm")
 
 
 def looks_like_sqlite(path: Path) -> bool:
     """Whether the file starts with SQLite's 16-byte header (a cheap first check)."""
-    try:
-        with path.open("rb") as handle:
-            return handle.read(len(SQLITE_HEADER)) == SQLITE_HEADER
-    except OSError:
-        return False
+    return sqlite_kind(path) == "an SQLite database"
 
 
 def copy_live(source: Path, destination: Path) -> None:

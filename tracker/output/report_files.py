@@ -104,11 +104,12 @@ def write_return_report(
     data = render(report, photos, fmt)
     if target is not None:
         _check_companions(db, target, photos, force)
-    staged = [
-        outputs.stage(folder, target.name if target else f"report.{fmt}", data, "out"),
-        outputs.stage(folder, "report.anchor.json", anchor_bytes(db, report), "out"),
-    ]
+    staged: list[outputs.Staged] = []
     try:
+        staged.append(
+            outputs.stage(folder, target.name if target else f"report.{fmt}", data, "out")
+        )
+        staged.append(outputs.stage(folder, "report.anchor.json", anchor_bytes(db, report), "out"))
         for digest, photo in photos.items():
             staged.append(outputs.stage(folder, digest, photo, "out", reuse=True))
         record = reports.record_report(  # recorded first: a refused record leaves no file
