@@ -186,3 +186,18 @@ def test_the_command_the_demo_suggests_works(tmp_path: Path) -> None:
     assert hint is not None, result.stderr
     shown = invoke("show", hint[1], db=out)
     assert shown.exit_code == 0, shown.stderr
+
+
+def test_the_demo_run_again_without_out_builds_a_second_file_beside_the_first(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    monkeypatch.chdir(tmp_path)
+    first = invoke("demo", "--no-open")
+    assert first.exit_code == 0, first.stderr
+    built = tmp_path / "tracker-demo.sqlite"
+    before = built.read_bytes()
+    second = invoke("demo", "--no-open")
+    assert second.exit_code == 0, second.stderr
+    assert "tracker-demo-2.sqlite" in " ".join(second.stderr.split())
+    assert built.read_bytes() == before  # the first demo is never replaced
+    assert verify_json(tmp_path / "tracker-demo-2.sqlite")[0] == 0

@@ -213,7 +213,7 @@ def test_preview_draws_the_queue_and_records_nothing(demo: Path, tmp_path: Path)
             "--stock",
             "cap-dot",
             "--out",
-            str(out),
+            str(out.with_name("one.png")),  # a new file: the first sheet is never replaced
             db=demo,
             as_json=True,
         )

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from typing import Any
 
-from tests.cli.conftest import lab, lab_template  # noqa: F401  (shared fixtures)
+from tests.cli.conftest import demo, demo_db, lab, lab_template  # noqa: F401  (shared fixtures)
 from tests.reliability import report
 
 

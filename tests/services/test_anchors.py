@@ -31,7 +31,7 @@ def _delete_events_after(db: Database, seq: int) -> None:
 
 
 def test_anchor_holds_while_the_ledger_grows(db: Database, tmp_path: Path) -> None:
-    kept = ledger.write_anchor(db, tmp_path / "head.json")
+    kept = ledger.write_anchor(db, tmp_path / "head.json").anchor
     make.specimen(db, make.loan(db))
     report = ledger.verify_against(db, ledger.read_anchor(tmp_path / "head.json"))
     assert report.ok and report.chain.head_seq > kept.seq
@@ -43,7 +43,7 @@ def test_deleting_the_newest_events_passes_the_chain_but_fails_the_anchor(
     make.loan(db)
     cut_at = ledger.verify(db).head_seq
     make.specimen(db, make.loan(db))
-    anchor = ledger.write_anchor(db, tmp_path / "head.json")
+    anchor = ledger.write_anchor(db, tmp_path / "head.json").anchor
     _drop_append_only_triggers(db)
     _delete_events_after(db, cut_at)
 
@@ -59,7 +59,7 @@ def test_events_cut_and_re_appended_with_valid_hashes_fail_the_anchor(
 ) -> None:
     """A careful tamperer rebuilds the tail with valid hashes: the chain passes, the anchor not."""
     make.specimen(db, make.loan(db))
-    anchor = ledger.write_anchor(db, tmp_path / "head.json")
+    anchor = ledger.write_anchor(db, tmp_path / "head.json").anchor
     _drop_append_only_triggers(db)
     _delete_events_after(db, anchor.seq - 2)
     with db.write_session() as session, session.begin():

@@ -294,12 +294,12 @@ async def test_labels_previewed_and_printed(lab: Lab) -> None:
         assert outcome.startswith(f"✓ printed {len(queued)} label(s)")
         assert screen.query_one("#queue").row_count == 0
     (job,) = query(lab, select(LabelJob))
-    pdf = lab.out / f"labels-{job.public_id}.pdf"
+    (event,) = events_after(lab, start)
+    assert (event.action, event.object_ref) == ("labels.printed", job.public_id)
+    pdf = lab.out / f"labels-{job.public_id}-event-{event.seq}.pdf"  # named after job and event
     assert pdf.read_bytes().startswith(b"%PDF")
     assert job.labels == len(queued) and job.operator == "ines"
     assert not query(lab, select(Label).where(Label.status == LabelStatus.QUEUED))
-    (event,) = events_after(lab, start)
-    assert (event.action, event.object_ref) == ("labels.printed", job.public_id)
 
 
 async def test_ledger_verified_with_its_head_hash(lab: Lab) -> None:

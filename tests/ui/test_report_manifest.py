@@ -57,9 +57,9 @@ async def test_the_report_shows_every_specimen_then_writes_a_recorded_pdf(lab: L
         assert events_after(lab, start) == []  # looking writes nothing
         await pilot.press("ctrl+s")
         await until(pilot, lambda: "✓ wrote" in text_of(screen.query_one("#outcome", Static)))
-    pdf = lab.out / f"{LOAN}-return-report.pdf"
-    assert pdf.read_bytes().startswith(b"%PDF")
     (event,) = events_after(lab, start)
+    pdf = lab.out / f"{LOAN}-return-report-event-{event.seq}.pdf"  # named after its event
+    assert pdf.read_bytes().startswith(b"%PDF")
     assert (event.action, event.operator) == ("report.generated", "ines")
     digest = hashlib.sha256(pdf.read_bytes()).hexdigest()
     assert json.loads(event.payload)["files"] == {"pdf": digest}
@@ -79,10 +79,66 @@ async def test_a_report_that_cannot_be_written_records_nothing(lab: Lab) -> None
         await pilot.press("ctrl+s")
         outcome = screen.query_one("#outcome", Static)
         await until(pilot, lambda: "✗" in text_of(outcome))
-        assert text_of(outcome).startswith("✗ refused: out: ")
-        assert "its folder does not exist" in text_of(outcome)
+        assert text_of(outcome).startswith("✗ refused: file: ")
+        assert "the output folder does not exist" in text_of(outcome)
     assert events_after(lab, start) == []
     assert not lab.out.exists()
+
+
+async def test_a_typed_name_that_exists_is_refused_in_words_and_another_is_written(
+    lab: Lab,
+) -> None:
+    start = head(lab)
+    taken = lab.out / "for-the-lender.pdf"
+    taken.write_bytes(b"an earlier report the lender already has")
+    async with lab.app().run_test(size=(120, 40)) as pilot:
+        await open_loan(pilot, "R")
+        screen = pilot.app.screen
+        assert isinstance(screen, ReportScreen)
+        await until(pilot, lambda: screen.report is not None)
+        name = screen.query_one("#report-file", Input)
+        name.value = taken.name
+        await pilot.press("ctrl+s")
+        outcome = screen.query_one("#outcome", Static)
+        await until(pilot, lambda: "✗" in text_of(outcome))
+        said = text_of(outcome)  # (a long path is shortened in the middle)
+        assert said.startswith("✗ refused: file: '/")
+        assert "for-the-lender.pdf': already exists; type another file name" in said
+        assert "nothing was written or recorded" in said
+        assert events_after(lab, start) == []
+        assert taken.read_bytes() == b"an earlier report the lender already has"
+        name.value = "for-the-lender-2.pdf"  # the person picks another name
+        name.focus()
+        await pilot.press("enter")
+        await until(pilot, lambda: "✓ wrote" in text_of(outcome))
+    (event,) = events_after(lab, start)
+    written = lab.out / "for-the-lender-2.pdf"
+    digest = hashlib.sha256(written.read_bytes()).hexdigest()
+    assert json.loads(event.payload)["files"] == {"pdf": digest}
+    assert taken.read_bytes() == b"an earlier report the lender already has"
+    assert sorted(p.name for p in lab.out.iterdir()) == [
+        "for-the-lender-2.pdf",
+        "for-the-lender-2.pdf.anchor.json",
+        "for-the-lender.pdf",
+    ]
+
+
+async def test_two_reports_written_from_the_screen_get_two_names(lab: Lab) -> None:
+    start = head(lab)
+    async with lab.app().run_test(size=(120, 40)) as pilot:
+        await open_loan(pilot, "R")
+        screen = pilot.app.screen
+        assert isinstance(screen, ReportScreen)
+        await until(pilot, lambda: screen.report is not None)
+        outcome = screen.query_one("#outcome", Static)
+        for _ in range(2):
+            await pilot.press("ctrl+s")
+            await until(pilot, lambda: "✓ wrote" in text_of(outcome))
+            outcome.update("")
+    events = events_after(lab, start)
+    assert [e.action for e in events] == ["report.generated"] * 2
+    pdfs = sorted(p.name for p in lab.out.glob("*.pdf"))
+    assert pdfs == sorted(f"{LOAN}-return-report-event-{e.seq}.pdf" for e in events)
 
 
 MANIFEST = (

@@ -13,7 +13,9 @@ from typing import Annotated, Any
 import typer
 from rich.table import Table
 
+from tracker.cli.out_options import Force
 from tracker.cli.state import emit, errors
+from tracker.db import outputs
 from tracker.domain.errors import InputError
 
 bench_app = typer.Typer(
@@ -70,8 +72,8 @@ def generate(
     value = _scale(scale, "--scale")
     if executor not in ("bulk", "services"):
         raise InputError("--executor", executor, "is neither bulk nor services")
-    if out is not None and out.exists():
-        raise InputError("--out", str(out), "already exists; choose a new file")
+    if out is not None:
+        outputs.check_target(out, "--out", forceable=False)
     progress = lambda n: _say(f"{n:,} steps written")  # noqa: E731
     if pg_url is not None or out is not None:
         target = pg_url or str(out)
@@ -109,8 +111,9 @@ def run(
         str | None, Opt("--only", help="Some figures: reconcile,verify,manifest,lookup,...")
     ] = None,
     markdown: Annotated[
-        Path | None, Opt("--markdown", help="Also write the tables as Markdown to this file.")
+        Path | None, Opt("--markdown", help="Also write the tables as Markdown to a new file.")
     ] = None,
+    force: Force = False,
 ) -> None:
     """Measure every figure next to its floor; exit 1 if a target is missed."""
     from tracker.bench import run as bench
@@ -132,8 +135,8 @@ def run(
         only=keys,
         say=_say,
     )
-    if markdown is not None and not markdown.parent.is_dir():
-        raise InputError("--markdown", str(markdown), "is in a folder that does not exist")
+    if markdown is not None:
+        outputs.check_target(markdown, "--markdown", force=force)
     report = bench.run(options)
     if markdown is not None:
         from tracker.bench.markdown import markdown as as_markdown
@@ -141,7 +144,10 @@ def run(
         scales_text = ",".join(f"{s:g}" for s in options.scales)
         command = f"tracker bench run --scales {scales_text} --backend {backend} --repeat {repeat}"
         command += f" --only {only}" if only else ""
-        markdown.write_text(as_markdown(report.as_dict(), command), encoding="utf-8")
+        text = as_markdown(report.as_dict(), command)
+        written = outputs.write_new(markdown, text.encode(), "--markdown", force=force)
+        if written.replaced is not None:
+            _say(f"kept the replaced file as {written.replaced}")
     emit(ctx, report.as_dict(), lambda: _tables(report))
     if not report.all_met:
         raise typer.Exit(1)

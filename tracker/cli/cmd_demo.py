@@ -6,7 +6,7 @@ from typing import Annotated
 import typer
 
 from tracker.cli import cmd_inspect
-from tracker.cli.state import errors, state
+from tracker.cli.state import cli_fields, errors, state
 
 DEMO_FILE = "tracker-demo.sqlite"
 DEMO_EPILOG = f"Example: tracker demo --out {DEMO_FILE}"
@@ -14,9 +14,14 @@ DEMO_EPILOG = f"Example: tracker demo --out {DEMO_FILE}"
 
 def demo(
     ctx: typer.Context,
-    out: Annotated[Path, typer.Option("--out", help="Where to write the demo database.")] = Path(
-        DEMO_FILE
-    ),
+    out: Annotated[
+        Path | None,
+        typer.Option(
+            "--out",
+            help=f"New file for the demo database (an existing file is refused); default "
+            f"{DEMO_FILE} here, or tracker-demo-2.sqlite … when that is taken.",
+        ),
+    ] = None,
     no_open: Annotated[
         bool,
         typer.Option("--no-open", help="Print the overview instead of opening the interface."),
@@ -27,9 +32,11 @@ def demo(
     On a terminal the interface opens on the demo; piped, with --json or with --no-open
     the loans overview is printed instead.
     """
-    from tracker.io.demo import build_demo
+    from tracker.io.demo import build_demo, free_demo_path
 
-    steps = build_demo(out)
+    with cli_fields(ctx):
+        out = out or free_demo_path(Path.cwd(), DEMO_FILE)
+        steps = build_demo(out)
     errors.print(
         f"built {out} from the demo scenario ({steps} steps, all invented data)",
         markup=False,

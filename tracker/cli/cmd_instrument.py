@@ -8,9 +8,11 @@ from typing import Annotated, Any
 
 import typer
 
+from tracker.cli.out_options import Force, kept_as, kept_note
 from tracker.cli.render import done
 from tracker.cli.render_lab import batch_table, reduction_table, results_table, screen_table
-from tracker.cli.state import database, emit, perform, read_upload, write_output
+from tracker.cli.state import database, emit, errors, perform, read_upload
+from tracker.db import outputs
 from tracker.domain.errors import InputError, TrackerError, at_cell
 from tracker.domain.textfiles import MAX_SETTINGS_BYTES, FileProblem, load_settings
 from tracker.services import batch_sheet as batch_sheet_service
@@ -247,36 +249,61 @@ def session_reduce(
 def session_plot(
     ctx: typer.Context,
     session: Annotated[str, typer.Argument(help="Session ID.")],
-    out: Annotated[Path, Opt("--out", help="PNG file to write.")],
+    out: Annotated[Path, Opt("--out", help="New PNG file to write.")],
+    force: Force = False,
 ) -> None:
     """Plot the bracketing standard's drift over the session (PNG)."""
     from tracker.output.plots import drift_png
 
     with database(ctx) as db:
+        outputs.check_target(out, "--out", force=force, database=db.path)
         series = instrument.standard_drift(db, session)
-    write_output(out, drift_png(series), "--out")
-    emit(ctx, {"out": str(out), "standards": len(series.runs)}, lambda: f"wrote {out}")
+        written = outputs.write_new(
+            out, drift_png(series), "--out", force=force, database=db.path, clock=db.clock
+        )
+    emit(
+        ctx,
+        {
+            "out": str(out),
+            "standards": len(series.runs),
+            "replaced_kept_as": kept_as(written.replaced),
+        },
+        lambda: f"wrote {out}" + kept_note(written.replaced),
+    )
 
 
 def results_command(
     ctx: typer.Context,
     loan: Annotated[str | None, Opt("--loan", help="Only this loan.")] = None,
     scale: Annotated[str | None, Opt("--scale", help="Report on this reference's scale.")] = None,
-    plot: Annotated[Path | None, Opt("--plot", help="Also write δ against age (PNG).")] = None,
+    plot: Annotated[
+        Path | None, Opt("--plot", help="Also write δ against age to a new PNG file.")
+    ] = None,
     ratio: Annotated[str, Opt("--ratio", help="Ratio to plot.")] = "44/40",
+    force: Force = False,
 ) -> None:
     """Results per specimen (δ with 2SD and n), optionally on another reference scale."""
     with database(ctx) as db:
+        if plot is not None:
+            outputs.check_target(plot, "--plot", force=force, database=db.path)
         rows = results.results(db, loan, scale)
-    if plot is not None:
-        from tracker.output.plots import delta_vs_age_png
-
-        try:
-            picture = delta_vs_age_png(rows, ratio)
-        except ValueError as error:
-            raise InputError("--ratio", ratio, str(error)) from None
-        write_output(plot, picture, "--plot")
+        if plot is not None:
+            _write_plot(db, rows, ratio, plot, force)
     emit(ctx, rows, lambda: results_table(rows))
+
+
+def _write_plot(db: Any, rows: Any, ratio: str, plot: Path, force: bool) -> None:
+    from tracker.output.plots import delta_vs_age_png
+
+    try:
+        picture = delta_vs_age_png(rows, ratio)
+    except ValueError as error:
+        raise InputError("--ratio", ratio, str(error)) from None
+    written = outputs.write_new(
+        plot, picture, "--plot", force=force, database=db.path, clock=db.clock
+    )
+    if written.replaced is not None:
+        errors.print(f"kept the replaced file as {written.replaced}", markup=False, soft_wrap=True)
 
 
 RESULTS_EPILOG = "Example: tracker results --loan KF-2026-014 --scale 'Seawater in-house'"

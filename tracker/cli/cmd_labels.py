@@ -11,6 +11,7 @@ import typer
 from rich.table import Table
 from rich.text import Text
 
+from tracker.cli.out_options import Force, kept_note
 from tracker.cli.render import done, plain_table
 from tracker.cli.state import cli_fields, database, emit, perform, state
 from tracker.domain.text_rules import visible
@@ -30,7 +31,9 @@ StockOpt = Annotated[str, Opt("--stock", help="Label stock; see `tracker labels 
 Start = Annotated[
     int, Opt("--start", help="First free position on the first sheet (1 = top left, by rows).")
 ]
-OutPdf = Annotated[Path | None, Opt("--out", help="PDF to write; default labels-<job>.pdf here.")]
+OutPdf = Annotated[
+    Path | None, Opt("--out", help="New PDF to write; default labels-<job>-event-<n>.pdf here.")
+]
 Printer = Annotated[
     str | None, Opt("--printer", help="Also send the PDF to this print queue with `lp -d`.")
 ]
@@ -99,6 +102,7 @@ def print_command(
     out: OutPdf = None,
     printer: Printer = None,
     stocks: StocksFile = None,
+    force: Force = False,
 ) -> None:
     """Print every queued label to a vector PDF and record the job (one ledger event)."""
     from tracker.output import jobs
@@ -112,6 +116,7 @@ def print_command(
             out=out,
             printer=printer,
             stocks_file=stocks,
+            force=force,
         )
     emit(ctx, outcome, lambda: _job_text(outcome))
 
@@ -130,6 +135,7 @@ def reprint_command(
     out: OutPdf = None,
     printer: Printer = None,
     stocks: StocksFile = None,
+    force: Force = False,
 ) -> None:
     """Print named items' labels again, with a reason (one ledger event); the queue stays."""
     from tracker.output import jobs
@@ -145,6 +151,7 @@ def reprint_command(
             out=out,
             printer=printer,
             stocks_file=stocks,
+            force=force,
         )
     emit(ctx, outcome, lambda: _job_text(outcome))
 
@@ -155,7 +162,8 @@ def _job_text(outcome: Any) -> Text:
         ("recorded ", "green"),
         (f"{job.kind} job {job.id}", "bold"),
         f": {job.labels} label(s) on {job.stock}, {job.pages} page(s) → {outcome.out}"
-        f"  (ledger event #{outcome.event_seq})\nSHA-256 {job.sha256}",
+        f"  (ledger event #{outcome.event_seq}){_kept(outcome.replaced_kept_as)}"
+        f"\nSHA-256 {job.sha256}",
     )
     if outcome.printer is not None:
         style = "green" if outcome.printer.sent else "yellow"
@@ -170,7 +178,7 @@ def _job_text(outcome: Any) -> Text:
 def preview(
     ctx: typer.Context,
     stock: StockOpt,
-    out: Annotated[Path, Opt("--out", help="PNG to write.")],
+    out: Annotated[Path, Opt("--out", help="New PNG to write.")],
     items: Annotated[
         list[str] | None, Arg(help="IDs to preview; default the queue.", show_default=False)
     ] = None,
@@ -178,6 +186,7 @@ def preview(
     page: Annotated[int, Opt("--page", help="Which sheet of the job.")] = 1,
     dpi: Annotated[int, Opt("--dpi", help="Resolution of the PNG.")] = 300,
     stocks: StocksFile = None,
+    force: Force = False,
 ) -> None:
     """Draw one sheet of labels as a PNG, with the label outlines; nothing is recorded."""
     from tracker.output import jobs
@@ -192,6 +201,7 @@ def preview(
             page=page,
             dpi=dpi,
             stocks_file=stocks,
+            force=force,
         )
     emit(
         ctx,
@@ -199,8 +209,13 @@ def preview(
         lambda: (
             f"wrote {outcome.out}: page {outcome.page} of {outcome.pages}, "
             f"{len(outcome.items)} label(s) on {outcome.stock} (preview only, nothing recorded)"
+            + _kept(outcome.replaced_kept_as)
         ),
     )
+
+
+def _kept(replaced: str | None) -> str:
+    return kept_note(None if replaced is None else Path(replaced))
 
 
 @labels_app.command("stocks", epilog="Example: tracker labels stocks --stocks lab-stocks.toml")

@@ -6,10 +6,10 @@ from typing import Annotated, Any
 
 import typer
 
+from tracker.cli.out_options import Force, kept_as, kept_note
 from tracker.cli.render import history_table
 from tracker.cli.state import database, emit, errors
 from tracker.domain.anchors import AnchorCheck
-from tracker.domain.errors import InputError
 from tracker.domain.ledger import VerifyReport
 from tracker.services import ledger
 
@@ -70,8 +70,9 @@ def ledger_verify(
 def ledger_anchor(
     ctx: typer.Context,
     out: Annotated[
-        Path | None, typer.Option("--out", help="File to write; default stdout.")
+        Path | None, typer.Option("--out", help="New file to write; default stdout.")
     ] = None,
+    force: Force = False,
 ) -> None:
     """Write the ledger's head (event number and hash) to keep outside the database.
 
@@ -83,11 +84,20 @@ def ledger_anchor(
         if out is None:
             typer.echo(ledger.current_anchor(db).to_text(), nl=False)
             return
-        kept = ledger.write_anchor(db, out)
+        written = ledger.write_anchor(db, out, force=force)
+    kept = written.anchor
     emit(
         ctx,
-        {"out": str(out), "seq": kept.seq, "hash": kept.hash, "taken_at": kept.taken_at},
-        lambda: f"anchored event #{kept.seq} {kept.hash} in {out}",
+        {
+            "out": str(out),
+            "seq": kept.seq,
+            "hash": kept.hash,
+            "taken_at": kept.taken_at,
+            "replaced_kept_as": kept_as(written.file.replaced),
+        },
+        lambda: (
+            f"anchored event #{kept.seq} {kept.hash} in {out}" + kept_note(written.file.replaced)
+        ),
     )
 
 
@@ -109,8 +119,9 @@ def ledger_list(
 def ledger_export(
     ctx: typer.Context,
     out: Annotated[
-        Path | None, typer.Option("--out", help="File to write; default stdout.")
+        Path | None, typer.Option("--out", help="New file to write; default stdout.")
     ] = None,
+    force: Force = False,
 ) -> None:
     """Write the ledger as JSON Lines, each field exactly as hashed (see README)."""
     with database(ctx) as db:
@@ -118,10 +129,9 @@ def ledger_export(
             count = ledger.export_jsonl(db, sys.stdout)
             errors.print(f"exported {count} events")
             return
-        try:
-            handle = out.open("w", encoding="utf-8")
-        except OSError as error:
-            raise InputError("--out", str(out), f"cannot be written ({error.strerror})") from None
-        with handle:
-            count = ledger.export_jsonl(db, handle)
-    emit(ctx, {"events": count, "out": str(out)}, lambda: f"exported {count} events to {out}")
+        count, written = ledger.export_file(db, out, force=force)
+    emit(
+        ctx,
+        {"events": count, "out": str(out), "replaced_kept_as": kept_as(written.replaced)},
+        lambda: f"exported {count} events to {out}" + kept_note(written.replaced),
+    )

@@ -2,14 +2,17 @@
 
 import json
 import mimetypes
+from collections.abc import Callable
 from datetime import datetime
 from pathlib import Path
 from typing import Annotated, Any
 
 import typer
 
+from tracker.cli.out_options import Force, kept_as, kept_note
 from tracker.cli.render import done, plain_table
 from tracker.cli.state import database, emit, errors, perform, read_upload, state
+from tracker.db import outputs
 from tracker.domain.errors import InputError
 from tracker.domain.models import ShipmentDirection
 from tracker.domain.text_rules import visible
@@ -49,11 +52,17 @@ def report_return(
     ctx: typer.Context,
     loan: Annotated[str, typer.Argument(help="Loan ID or reference.")],
     fmt: Annotated[str, Opt("--format", help="pdf, csv, xlsx or json.")] = "pdf",
-    out: Annotated[Path | None, Opt("--out", help="File to write.")] = None,
+    out: Annotated[
+        Path | None,
+        Opt("--out", help="New file to write; default <loan>-return-report-event-<n>.<format>."),
+    ] = None,
+    force: Force = False,
 ) -> None:
     """The lender's return report: terms, every specimen's account, results, ledger head."""
     with database(ctx) as db:
-        written = report_files.write_return_report(db, state(ctx).actor, loan, fmt, out, Path.cwd())
+        written = report_files.write_return_report(
+            db, state(ctx).actor, loan, fmt, out, Path.cwd(), force=force
+        )
     record = written.record
     emit(ctx, record, lambda: done(record, f"{written.target} (sha256 {written.sha256[:16]}…)"))
     photos = f" and {written.photos} photo(s) in {written.photo_folder}" if written.photos else ""
@@ -62,6 +71,8 @@ def report_return(
         markup=False,
         soft_wrap=True,
     )
+    for replaced in written.replaced:
+        errors.print(f"kept the replaced file as {replaced}", markup=False, soft_wrap=True)
 
 
 def _manifest_request(loan: str, file: Path, mapping: str | None) -> dict[str, Any]:
@@ -167,27 +178,46 @@ def manifest_mapping(
     emit(ctx, answer, lambda: done(answer, f"manifest mapping {name}"))
 
 
-def _export(columns: list[str], rows: list[dict[str, Any]], out: Path, sheet: str) -> str:
+def _write_export(
+    ctx: typer.Context, out: Path, force: bool, build: Callable[[Any], bytes]
+) -> outputs.Written:
+    """Refuse the target before reading anything, then build the file from one export
+    service and write it (:mod:`tracker.db.outputs`)."""
+    with database(ctx) as db:
+        outputs.check_target(out, "--out", force=force, database=db.path)
+        data = build(db)
+        return outputs.write_new(out, data, "--out", force=force, database=db.path)
+
+
+def _export_rows(
+    ctx: typer.Context, reader: Any, loan: str, out: Path, noun: str, force: bool
+) -> None:
+    """Read rows through one export service and write them as CSV or XLSX."""
     from tracker.output import tabular
 
-    data = (
-        tabular.xlsx_bytes(columns, rows, sheet)
-        if out.suffix.lower() == ".xlsx"
-        else tabular.csv_bytes(columns, rows)
-    )
-    return report_files.write_atomically(out, data)
+    counted: list[int] = []
 
-
-def _export_rows(ctx: typer.Context, reader: Any, loan: str, out: Path, noun: str) -> None:
-    """Read rows through one export service and write them as CSV or XLSX."""
-    with database(ctx) as db:
+    def build(db: Any) -> bytes:
         columns, rows = reader(db, loan)
-    digest = _export(columns, rows, out, noun)
+        counted.append(len(rows))
+        if out.suffix.lower() == ".xlsx":
+            return tabular.xlsx_bytes(columns, rows, noun)
+        return tabular.csv_bytes(columns, rows)
+
+    written = _write_export(ctx, out, force, build)
     emit(
         ctx,
-        {"out": str(out), "rows": len(rows), "sha256": digest},
-        lambda: f"wrote {len(rows)} {noun} to {out}",
+        {
+            "out": str(out),
+            "rows": counted[0],
+            "sha256": written.sha256,
+            "replaced_kept_as": kept_as(written.replaced),
+        },
+        lambda: f"wrote {counted[0]} {noun} to {out}" + kept_note(written.replaced),
     )
+
+
+OutTable = Annotated[Path, Opt("--out", help="New CSV or XLSX file.")]
 
 
 @export_app.command(
@@ -196,10 +226,11 @@ def _export_rows(ctx: typer.Context, reader: Any, loan: str, out: Path, noun: st
 def export_specimens(
     ctx: typer.Context,
     loan: Annotated[str, Opt("--loan", help="Loan ID or reference.")],
-    out: Annotated[Path, Opt("--out", help="CSV or XLSX file.")],
+    out: OutTable,
+    force: Force = False,
 ) -> None:
     """Specimens with Darwin Core headings."""
-    _export_rows(ctx, exports.specimen_rows, loan, out, "specimens")
+    _export_rows(ctx, exports.specimen_rows, loan, out, "specimens", force)
 
 
 @export_app.command(
@@ -209,25 +240,32 @@ def export_specimens(
 def export_measurements(
     ctx: typer.Context,
     loan: Annotated[str, Opt("--loan", help="Loan ID or reference.")],
-    out: Annotated[Path, Opt("--out", help="CSV or XLSX file.")],
+    out: OutTable,
+    force: Force = False,
 ) -> None:
     """Drilled masses and results as Darwin Core measurement rows."""
-    _export_rows(ctx, exports.measurement_rows, loan, out, "measurements")
+    _export_rows(ctx, exports.measurement_rows, loan, out, "measurements", force)
 
 
 @export_app.command("loan", epilog="Example: tracker export loan KF-2026-014 --out loan.json")
 def export_loan(
     ctx: typer.Context,
     loan: Annotated[str, typer.Argument(help="Loan ID or reference.")],
-    out: Annotated[Path, Opt("--out", help="JSON file.")],
+    out: Annotated[Path, Opt("--out", help="New JSON file.")],
+    force: Force = False,
 ) -> None:
     """The whole loan as JSON: the return report's content and every specimen's lineage."""
-    with database(ctx) as db:
+
+    def build(db: Any) -> bytes:
         document = exports.loan_document(db, loan)
-    digest = report_files.write_atomically(
-        out, (json.dumps(document, indent=2, ensure_ascii=False) + "\n").encode()
+        return (json.dumps(document, indent=2, ensure_ascii=False) + "\n").encode()
+
+    written = _write_export(ctx, out, force, build)
+    emit(
+        ctx,
+        {"out": str(out), "sha256": written.sha256, "replaced_kept_as": kept_as(written.replaced)},
+        lambda: f"wrote {out}" + kept_note(written.replaced),
     )
-    emit(ctx, {"out": str(out), "sha256": digest}, lambda: f"wrote {out}")
 
 
 @shipment_app.command(

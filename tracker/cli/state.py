@@ -194,14 +194,6 @@ def read_upload(
     return {"filename": path.name, "content": content}
 
 
-def write_output(path: Path, data: bytes, option: str) -> None:
-    """Write a file a command produces; a folder that is missing or locked is one line."""
-    try:
-        path.write_bytes(data)
-    except OSError as error:
-        raise InputError(option, str(path), f"cannot be written ({error.strerror})") from None
-
-
 def jsonable(data: Any) -> Any:
     if isinstance(data, BaseModel):
         return data.model_dump(mode="json")

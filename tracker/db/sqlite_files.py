@@ -16,18 +16,14 @@ from sqlalchemy import create_engine
 
 from tracker.db.database import Database
 from tracker.db.engine import BUSY_TIMEOUT_MS, create_private_file
+from tracker.db.outputs import sqlite_kind
 
-SQLITE_HEADER = b"SQLite format 3\x00"
 SIDE_FILES = ("-wal", "-shm")
 
 
 def looks_like_sqlite(path: Path) -> bool:
     """Whether the file starts with SQLite's 16-byte header (a cheap first check)."""
-    try:
-        with path.open("rb") as handle:
-            return handle.read(len(SQLITE_HEADER)) == SQLITE_HEADER
-    except OSError:
-        return False
+    return sqlite_kind(path) == "an SQLite database"
 
 
 def copy_live(source: Path, destination: Path) -> None:
@@ -42,6 +38,12 @@ def copy_live(source: Path, destination: Path) -> None:
     except BaseException:
         destination.unlink(missing_ok=True)
         raise
+
+
+def fold_log(path: Path) -> None:
+    """Fold a closed database's write-ahead log into its file, so the file alone is whole."""
+    with closing(sqlite3.connect(path, timeout=BUSY_TIMEOUT_MS / 1000)) as connection:
+        connection.execute("PRAGMA wal_checkpoint(TRUNCATE)")
 
 
 def read_only(path: Path) -> Database:

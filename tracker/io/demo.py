@@ -16,7 +16,9 @@ from importlib import resources
 from pathlib import Path
 from typing import Any
 
+from tracker.db import outputs
 from tracker.db.database import Database
+from tracker.db.sqlite_files import fold_log
 from tracker.domain.errors import InputError
 from tracker.services import (
     amendments,
@@ -147,25 +149,55 @@ def load_scenario(path: Path | None = None) -> dict[str, Any]:
 
 
 def build_demo(out: Path, scenario: Path | None = None) -> int:
-    """Write the demo database to ``out`` (replacing it); returns the number of steps."""
+    """Write the demo database to a new file ``out``; returns the number of steps.
+
+    An existing ``out`` is refused (a demo never replaces anything, least of all a lab's
+    database); the demo is built under a hidden name beside it and published only when
+    whole (:mod:`tracker.db.outputs`).
+    """
+    _refuse_existing(out)
+    outputs.check_target(out, "out", forceable=False)
     data = load_scenario(scenario)
     steps = sorted(data["steps"], key=lambda s: _aware(s["at"]))  # stable: file order on ties
-    partial = out.with_name(out.name + ".partial")
-    _remove(partial)
+    building = outputs.temp_path(out.parent, out.name)
     founder = data["founder"]
     clock = StepClock(_aware(founder["at"]))
-    db = setup.init_database(partial, {"code": founder["code"], "name": founder["name"]}, clock)
+    first = {"code": founder["code"], "name": founder["name"]}
     try:
-        replay = Replay(db, clock, (scenario or scenario_path()).parent)
-        for number, step in enumerate(steps):
-            replay.run(number, step)
+        db = setup.init_database(building, first, clock)
+        try:
+            replay = Replay(db, clock, (scenario or scenario_path()).parent)
+            for number, step in enumerate(steps):
+                replay.run(number, step)
+        finally:
+            db.close()
+        fold_log(building)  # the file alone must hold every row before it gets its name
+        outputs.publish(building, out, "out", forceable=False)
     finally:
-        db.close()
-    _remove(out)
-    partial.replace(out)
+        outputs.discard(*(Path(f"{building}{suffix}") for suffix in ("", *outputs.SIDE_SUFFIXES)))
     return len(steps)
 
 
-def _remove(path: Path) -> None:
-    for suffix in ("", "-wal", "-shm"):
-        Path(str(path) + suffix).unlink(missing_ok=True)
+def free_demo_path(folder: Path, name: str = "tracker-demo.sqlite") -> Path:
+    """The first of ``tracker-demo.sqlite``, ``tracker-demo-2.sqlite`` … in ``folder`` that is
+    free with its logs: running the demo again builds a second demo beside the first."""
+    for candidate in outputs.variants(folder / name):
+        if not any(_taken(Path(f"{candidate}{s}")) for s in ("", *outputs.SIDE_SUFFIXES)):
+            return candidate
+    raise InputError("out", str(folder / name), "no free file name; give one with --out")
+
+
+def _taken(path: Path) -> bool:
+    return path.exists() or path.is_symlink()
+
+
+def _refuse_existing(out: Path) -> None:
+    """One line for an existing file (or a database's leftover log beside the name)."""
+    for suffix in ("", *outputs.SIDE_SUFFIXES):
+        taken = Path(f"{out}{suffix}")
+        if _taken(taken):
+            raise InputError(
+                "out",
+                str(taken),
+                "already exists; the demo never replaces a file — choose another path",
+            )

@@ -1,22 +1,23 @@
 """Print jobs end to end: the stock, the layout, the PDF written safely, the record, the printer.
 
-The order matters. The stock and the start position are checked before the
-database is touched. The PDF is rendered inside the print service's
-transaction (so the labels in it are exactly those marked printed) and staged
-beside its destination; only when the job is committed is it renamed into
-place. A refusal anywhere leaves neither a record nor a file.
+The order matters. The stock, the start position and the output file are checked before
+the database is touched. The PDF is rendered inside the print service's transaction (so
+the labels in it are exactly those marked printed) and staged beside its destination; only
+when the job is committed is it published (:mod:`tracker.db.outputs`: never over the
+database, never over an existing file unless forced). A refusal anywhere leaves neither a
+record nor a file. Without a name, the PDF is named after its job and ledger event.
 """
 
 from __future__ import annotations
 
-import os
-import tempfile
 from collections.abc import Callable
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
 from pydantic import BaseModel, ConfigDict
 
+from tracker.db import outputs
 from tracker.db.database import Database
 from tracker.domain.errors import InputError
 from tracker.domain.labels import PrintBatch, Rendered
@@ -40,6 +41,7 @@ class PrintOutcome(BaseModel):
     event_hash: str
     out: str
     printer: PrinterReport | None
+    replaced_kept_as: str | None = None
 
 
 class PreviewOutcome(BaseModel):
@@ -50,6 +52,7 @@ class PreviewOutcome(BaseModel):
     page: int
     pages: int
     items: list[str]  # the labels on the previewed page, in order
+    replaced_kept_as: str | None = None
 
 
 def print_queue(
@@ -62,13 +65,16 @@ def print_queue(
     printer: str | None = None,
     stocks_file: Path | None = None,
     folder: Path | None = None,
+    force: bool = False,
 ) -> PrintOutcome:
     """Every queued label to a PDF, recorded as one print job.
 
-    Without ``out`` the PDF is named after its job, in ``folder`` (default: the current one).
+    Without ``out`` the PDF is named after its job and event, in ``folder`` (default: the
+    current one); an existing ``out`` is replaced only with ``force`` (and kept beside it).
     """
     request = {"stock": stock, "start": start, "printer": printer}
-    return _run(db, actor, label_jobs.print_queue, request, out, stocks_file, folder)
+    target = Target(out, folder, force)
+    return _run(db, actor, label_jobs.print_queue, request, target, stocks_file)
 
 
 def reprint(
@@ -82,13 +88,33 @@ def reprint(
     out: Path | None = None,
     printer: str | None = None,
     stocks_file: Path | None = None,
+    force: bool = False,
 ) -> PrintOutcome:
     """Named items' labels again, with the reason, recorded as one reprint job."""
     request = {"items": items, "reason": reason, "stock": stock, "start": start, "printer": printer}
-    return _run(db, actor, label_jobs.reprint, request, out, stocks_file)
+    return _run(db, actor, label_jobs.reprint, request, Target(out, None, force), stocks_file)
 
 
 Service = Callable[..., Done[JobView]]
+
+
+@dataclass(frozen=True)
+class Target:
+    """Where a job's PDF goes: a named file, or a new name in a folder (default: here)."""
+
+    out: Path | None
+    folder: Path | None
+    force: bool
+
+    def check(self, db: Database) -> Path:
+        """Refuse a target that may not be written before anything is recorded; the folder."""
+        if self.out is not None:
+            outputs.check_target(self.out, "out", force=self.force, database=db.path)
+            return self.out.parent
+        folder = self.folder or Path.cwd()
+        if not folder.is_dir():
+            raise InputError("out", str(folder), "the output folder does not exist")
+        return folder
 
 
 def _run(
@@ -96,36 +122,40 @@ def _run(
     actor: str | None,
     service: Service,
     request: dict[str, Any],
-    out: Path | None,
+    target: Target,
     stocks_file: Path | None,
-    folder: Path | None = None,
 ) -> PrintOutcome:
     chosen = _stock(request["stock"], request["start"], stocks_file)
-    folder = _folder(out if out is not None or folder is None else folder / "labels.pdf")
-    staged: list[tuple[Path, Path]] = []
+    folder = target.check(db)
+    staged: list[outputs.Staged] = []
 
     def render(batch: PrintBatch) -> Rendered:
         pages = lay_out(chosen, batch.labels, request["start"])
         content = render_pdf(chosen, pages, f"tracker labels, print job {batch.job}")
-        target = out if out is not None else folder / f"labels-{batch.job}.pdf"
-        staged.append((_stage(target, content), target))
+        staged.append(outputs.stage(folder, f"labels-{batch.job}.pdf", content, "out"))
         return Rendered(content=content, pages=len(pages))
 
     try:
         done = service(db, actor, request, render)
-    except BaseException:
-        for partial, _ in staged:
-            partial.unlink(missing_ok=True)
-        raise
-    partial, target = staged[-1]
-    partial.replace(target)
+        first = target.out or folder / f"labels-{done.item.id}-event-{done.event_seq}.pdf"
+        (path,), (kept,) = outputs.publish_first_free(
+            staged[-1:],
+            ([name] for name in outputs.variants(first)),
+            "out",
+            force=target.force,
+            database=db.path,
+            clock=db.clock,
+        )
+    finally:
+        outputs.discard(*staged)
     printer = request["printer"]
     return PrintOutcome(
         job=done.item,
         event_seq=done.event_seq,
         event_hash=done.event_hash,
-        out=str(target),
-        printer=send(target, printer) if printer else None,
+        out=str(path),
+        printer=send(path, printer) if printer else None,
+        replaced_kept_as=None if kept is None else str(kept),
     )
 
 
@@ -139,12 +169,13 @@ def preview(
     page: int = 1,
     dpi: int = 300,
     stocks_file: Path | None = None,
+    force: bool = False,
 ) -> PreviewOutcome:
     """One sheet of the queue (or of the named items) as a PNG; nothing is recorded."""
     chosen = _stock(stock, start, stocks_file)
     if not MIN_DPI <= dpi <= MAX_DPI:
         raise InputError("dpi", dpi, f"must be between {MIN_DPI} and {MAX_DPI}")
-    _folder(out)
+    outputs.check_target(out, "out", force=force, database=db.path)
     facts = labels.facts_for(db, items) if items else labels.queued_facts(db)
     if not facts:
         raise InputError("items", None, "no labels are queued; name the IDs to preview")
@@ -152,32 +183,19 @@ def preview(
     if not 1 <= page <= len(pages):
         raise InputError("page", page, f"there are {len(pages)} page(s) of labels")
     shown = pages[page - 1]
-    _stage(out, render_png(chosen, shown, dpi)).replace(out)
-    ids = [label.facts.item for label in shown.labels]
-    return PreviewOutcome(out=str(out), stock=chosen.name, page=page, pages=len(pages), items=ids)
+    png = render_png(chosen, shown, dpi)
+    written = outputs.write_new(out, png, "out", force=force, database=db.path, clock=db.clock)
+    return PreviewOutcome(
+        out=str(out),
+        stock=chosen.name,
+        page=page,
+        pages=len(pages),
+        items=[label.facts.item for label in shown.labels],
+        replaced_kept_as=None if written.replaced is None else str(written.replaced),
+    )
 
 
 def _stock(name: str, start: int, stocks_file: Path | None) -> Stock:
     chosen = load_stock(name, stocks_file)
     check_start(chosen, start)
     return chosen
-
-
-def _folder(out: Path | None) -> Path:
-    folder = Path.cwd() if out is None else out.parent
-    if not folder.is_dir():
-        raise InputError("out", str(out), "its folder does not exist")
-    if out is not None and out.is_dir():
-        raise InputError("out", str(out), "is a folder; give a file name")
-    return folder
-
-
-def _stage(target: Path, content: bytes) -> Path:
-    """Write ``content`` to a hidden file beside ``target``; the caller renames it into place."""
-    handle, name = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".partial", dir=target.parent)
-    with os.fdopen(handle, "wb") as stream:
-        stream.write(content)
-    mask = os.umask(0)  # mkstemp makes the file private; give it the usual mode for new files
-    os.umask(mask)
-    Path(name).chmod(0o666 & ~mask)
-    return Path(name)

@@ -1,18 +1,23 @@
 """Writing a return report to disk: the rendered file, its ledger anchor and its photos.
 
 Shared by the CLI (`tracker report return`) and the terminal interface. The order matters
-for custody: every file is first written beside its target as a hidden partial, then the
-report event is recorded, and only then are the partials renamed into place. A refused
-record (wrong operator, closed database) therefore leaves no file a lender could mistake
-for a recorded report.
+for custody: every file is first written whole beside its target under a hidden name, then
+the report event is recorded, and only then are the files published under their names
+(:mod:`tracker.db.outputs`: never over the database, never over an existing file unless
+forced). A refused record (wrong operator, closed database) therefore leaves no file a
+lender could mistake for a recorded report, and a refused target records nothing.
+
+Without a name, the report is named after the loan and the number of its report event,
+so two reports of the same loan never share a name.
 """
 
 from __future__ import annotations
 
-import hashlib
+from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 
+from tracker.db import outputs
 from tracker.db.database import Database
 from tracker.domain.errors import InputError
 from tracker.services import ledger, reports
@@ -28,16 +33,26 @@ class WrittenReport:
     anchor: Path
     photos: int
     photo_folder: Path | None
+    replaced: list[Path]  # files --force moved aside, each kept as <name>.replaced-<time>
 
     @property
     def sha256(self) -> str:
         return next(iter(self.record.item.files.values()))
 
 
-def default_name(loan_reference: str, fmt: str) -> str:
-    """``KF-2026-014-return-report.pdf``: the reference with anything odd made a hyphen."""
+def default_name(loan_reference: str, fmt: str, event_seq: int) -> str:
+    """``KF-2026-014-return-report-event-57.pdf``: the reference with anything odd made a
+    hyphen, and the report event's number, so that no two reports share a name."""
     slug = "".join(c if c.isalnum() or c in "-_" else "-" for c in loan_reference)
-    return f"{slug}-return-report.{fmt}"
+    return f"{slug}-return-report-event-{event_seq}.{fmt}"
+
+
+def anchor_path(target: Path) -> Path:
+    return target.with_name(f"{target.name}.anchor.json")
+
+
+def photo_folder(target: Path) -> Path:
+    return target.with_name(f"{target.stem}-attachments")
 
 
 def render(report: reports.ReturnReport, photos: dict[str, bytes], fmt: str) -> bytes:
@@ -63,59 +78,86 @@ def anchor_bytes(db: Database, report: reports.ReturnReport) -> bytes:
     return ledger.anchor_for(db, report.ledger.seq, report.ledger.hash, label).to_text().encode()
 
 
-def stage(path: Path, data: bytes, field: str = "out") -> Path:
-    """Write ``data`` to a hidden file beside ``path``; the caller renames or removes it."""
-    if not path.parent.is_dir():
-        raise InputError(field, str(path), "its folder does not exist")
-    staged = path.with_name(f".{path.name}.partial")
-    staged.write_bytes(data)
-    return staged
-
-
-def write_atomically(path: Path, data: bytes, field: str = "out") -> str:
-    """Write a file atomically (beside it, then renamed) and return its SHA-256."""
-    stage(path, data, field).replace(path)
-    return hashlib.sha256(data).hexdigest()
-
-
 def write_return_report(
-    db: Database, actor: str | None, loan: str, fmt: str, target: Path | None, folder: Path
+    db: Database,
+    actor: str | None,
+    loan: str,
+    fmt: str,
+    target: Path | None,
+    folder: Path,
+    *,
+    force: bool = False,
 ) -> WrittenReport:
-    """Build, render, record and write the report; ``target`` defaults to a name in ``folder``."""
+    """Build, render, record and write the report; without ``target``, a new name in ``folder``.
+
+    An existing ``target`` (or its anchor or a photo of another content) is refused before
+    anything is recorded, unless ``force``: then each is kept as ``<name>.replaced-<time>``.
+    """
     if fmt not in FORMATS:
         raise InputError("format", fmt, f"use one of {', '.join(FORMATS)}")
+    if target is not None:
+        outputs.check_target(target, "out", force=force, database=db.path)
+        folder = target.parent
+    elif not folder.is_dir():
+        raise InputError("out", str(folder), "the output folder does not exist")
     report, photos = reports.attach_photos(db, reports.build_return_report(db, loan))
-    target = target or folder / default_name(report.loan["reference"], fmt)
     data = render(report, photos, fmt)
-    anchor = target.with_name(f"{target.name}.anchor.json")
-    files = {target: data, anchor: anchor_bytes(db, report)}
-    photo_folder = target.with_name(f"{target.stem}-attachments") if photos else None
-    made = photo_folder is not None and not photo_folder.exists()
-    if photo_folder is not None:
-        if not target.parent.is_dir():
-            raise InputError("out", str(target), "its folder does not exist")
-        photo_folder.mkdir(exist_ok=True)
-        files |= {photo_folder / digest: photo for digest, photo in photos.items()}
-    staged: dict[Path, Path] = {}
-    try:  # the event is recorded first: a refused record leaves no file behind
-        for path, content in files.items():
-            staged[path] = stage(path, content)
-        record = reports.record_report(
+    if target is not None:
+        _check_companions(db, target, photos, force)
+    staged: list[outputs.Staged] = []
+    try:
+        staged.append(
+            outputs.stage(folder, target.name if target else f"report.{fmt}", data, "out")
+        )
+        staged.append(outputs.stage(folder, "report.anchor.json", anchor_bytes(db, report), "out"))
+        for digest, photo in photos.items():
+            staged.append(outputs.stage(folder, digest, photo, "out", reuse=True))
+        record = reports.record_report(  # recorded first: a refused record leaves no file
             db,
             actor,
             {
                 "loan": loan,
-                "files": {fmt: hashlib.sha256(data).hexdigest()},
+                "files": {fmt: staged[0].sha256},
                 "head_seq": report.ledger.seq,
                 "head_hash": report.ledger.hash,
             },
         )
-    except BaseException:
-        for partial in staged.values():
-            partial.unlink(missing_ok=True)
-        if made and photo_folder is not None:
-            photo_folder.rmdir()
-        raise
-    for path, partial in staged.items():
-        partial.replace(path)
-    return WrittenReport(record, target, anchor, len(photos), photo_folder)
+        first = target or folder / default_name(report.loan["reference"], fmt, record.event_seq)
+        names, kept = outputs.publish_first_free(
+            staged,
+            _names(first, list(photos)),
+            "out",
+            force=force,
+            database=db.path,
+            clock=db.clock,
+        )
+    finally:
+        outputs.discard(*staged)
+    return WrittenReport(
+        record,
+        names[0],
+        names[1],
+        len(photos),
+        photo_folder(names[0]) if photos else None,
+        [path for path in kept if path is not None],
+    )
+
+
+def _names(first: Path, digests: Sequence[str]) -> Iterator[list[Path]]:
+    """The report's name, its anchor's and its photos', for each free-name variant."""
+    for target in outputs.variants(first):
+        folder = photo_folder(target)
+        yield [target, anchor_path(target), *(folder / digest for digest in digests)]
+
+
+def _check_companions(db: Database, target: Path, photos: dict[str, bytes], force: bool) -> None:
+    """The anchor and the photos go beside the report: the same rules, checked up front."""
+    outputs.check_target(anchor_path(target), "out", force=force, database=db.path)
+    folder = photo_folder(target)
+    if photos and (folder.exists() or folder.is_symlink()) and not folder.is_dir():
+        raise InputError("out", str(folder), "is not a folder; the report's photos go there")
+    if not folder.is_dir():
+        return
+    for digest in photos:
+        if not outputs.holds(folder / digest, digest):  # the same photo already there is fine
+            outputs.check_target(folder / digest, "out", force=force, database=db.path)

@@ -17,11 +17,12 @@ from pathlib import Path
 
 from sqlalchemy import select
 
-from tracker.db import migrate
+from tracker.db import migrate, outputs
 from tracker.db.database import Database, open_database
 from tracker.db.engine import resolve_url, sqlite_path
 from tracker.db.sqlite_files import (
     copy_live,
+    fold_log,
     keep_aside,
     looks_like_sqlite,
     put_back,
@@ -77,19 +78,32 @@ def _verify_file(path: Path) -> VerifyReport:
 
 
 def backup(db: Database, destination: Path) -> BackupView:
-    """Copy the open database to a new file (never over an existing one) and check the copy."""
+    """Copy the open database to a new file (never over an existing one) and check the copy.
+
+    The copy is built under a hidden name beside the destination and published only when
+    whole (:mod:`tracker.db.outputs`), so a crash never leaves half a backup under its name.
+    """
     source = _file_path(db.url, "backup")
-    if destination.exists() or destination.is_symlink():
-        raise InputError("PATH", str(destination), "already exists; tracker never overwrites")
-    if not destination.parent.is_dir():
-        raise InputError("PATH", str(destination), "its folder does not exist")
-    copy_live(source, destination)
-    report = _verify_file(destination)
+    outputs.check_target(destination, "PATH", database=source, forceable=False)
+    building = outputs.temp_path(destination.parent, destination.name)
+    try:
+        copy_live(source, building)
+        view = _checked_copy(building, destination)
+        fold_log(building)  # reading may leave an empty log beside it: the file alone is whole
+        outputs.publish(building, destination, "PATH", database=source, forceable=False)
+    finally:
+        outputs.discard(*(Path(f"{building}{suffix}") for suffix in ("", *outputs.SIDE_SUFFIXES)))
+    return view
+
+
+def _checked_copy(copy: Path, destination: Path) -> BackupView:
+    """What a copy holds (its ledger verified), read before it gets its name."""
+    report = _verify_file(copy)
     return BackupView(
         path=str(destination),
-        size_bytes=destination.stat().st_size,
-        sha256=_sha256(destination),
-        revision=schema_revision(destination),
+        size_bytes=copy.stat().st_size,
+        sha256=_sha256(copy),
+        revision=schema_revision(copy),
         events=report.events,
         head_seq=report.head_seq,
         head_hash=report.head_hash,
@@ -132,7 +146,7 @@ def restore(
     report = _check_backup(source, path, actor, anchor)
     current = _current(path, source) if path.exists() else None
     lost = _events_lost(current, report, accept_loss)
-    aside = _aside_name(path, clock) if current is not None else None
+    aside = outputs.replaced_name(path, clock()) if current is not None else None
     if aside is not None:
         keep_aside(path, aside)
     put_back(source, path)
@@ -245,13 +259,3 @@ def _events_lost(current: _Current | None, backup: VerifyReport, accept_loss: bo
             "anyway (the replaced file is kept beside it)",
         )
     return lost
-
-
-def _aside_name(path: Path, clock: Clock) -> Path:
-    stamp = clock().strftime("%Y%m%dT%H%M%SZ")
-    aside = path.with_name(f"{path.name}.replaced-{stamp}")
-    n = 1
-    while aside.exists():
-        aside = path.with_name(f"{path.name}.replaced-{stamp}.{n}")
-        n += 1
-    return aside

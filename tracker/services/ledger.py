@@ -7,17 +7,17 @@ anchor` call, :func:`verify_against` what `tracker ledger verify --anchor` calls
 
 from __future__ import annotations
 
+import io
 import json
-import os
-import tempfile
 from collections.abc import Callable, Iterator
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Annotated, Any, Literal, TextIO
+from typing import Annotated, Any, BinaryIO, Literal, TextIO
 
 from pydantic import BaseModel, Field
 from sqlalchemy import ColumnElement, String, func, or_, select, type_coerce
 
+from tracker.db import outputs
 from tracker.db.database import Database
 from tracker.domain.anchors import (
     MAX_ANCHOR_BYTES,
@@ -179,6 +179,21 @@ def export_jsonl(db: Database, out: TextIO) -> int:
     return count
 
 
+def export_file(db: Database, path: Path, *, force: bool = False) -> tuple[int, outputs.Written]:
+    """The ledger as JSON Lines in a new file ``path``, published only once complete."""
+    count = 0
+
+    def write(stream: BinaryIO) -> None:
+        nonlocal count
+        text = io.TextIOWrapper(stream, encoding="utf-8", newline="")
+        count = export_jsonl(db, text)
+        text.flush()
+        text.detach()
+
+    written = outputs.write_new(path, write, "out", force=force, database=db.path, clock=db.clock)
+    return count, written
+
+
 class AnchorFile(BaseModel):
     """An anchor file (format tracker-anchor/1): the ledger's head kept outside it."""
 
@@ -216,21 +231,23 @@ def anchor_for(db: Database, seq: int, head_hash: str, label: str | None = None)
     return make_anchor(seq, head_hash, first, db.clock(), label)
 
 
-def write_anchor(db: Database, path: Path, label: str | None = None) -> Anchor:
-    """Write the current head to ``path`` (atomically: a reader never sees half a file)."""
+@dataclass(frozen=True)
+class WrittenAnchor:
+    anchor: Anchor
+    file: outputs.Written
+
+
+def write_anchor(
+    db: Database, path: Path, label: str | None = None, *, force: bool = False
+) -> WrittenAnchor:
+    """Write the current head to a new file ``path`` (whole or not at all; an existing file
+    only with ``force``, kept beside it; never the database: :mod:`tracker.db.outputs`)."""
+    outputs.check_target(path, "out", force=force, database=db.path)
     anchor = current_anchor(db, label)
-    directory = path.parent if str(path.parent) else Path()
-    try:
-        handle, staged = tempfile.mkstemp(prefix=f".{path.name}.", dir=directory)
-        with os.fdopen(handle, "w", encoding="utf-8") as out:
-            out.write(anchor.to_text())
-            out.flush()
-            os.fsync(out.fileno())
-        Path(staged).chmod(0o644)  # an anchor is meant to be handed to others
-        Path(staged).replace(path)
-    except OSError as error:
-        raise InputError("--out", str(path), f"cannot be written ({error.strerror})") from None
-    return anchor
+    written = outputs.write_new(
+        path, anchor.to_text().encode(), "out", force=force, database=db.path, clock=db.clock
+    )
+    return WrittenAnchor(anchor, written)
 
 
 def read_anchor(path: Path) -> Anchor:

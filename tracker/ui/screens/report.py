@@ -3,23 +3,27 @@
 The screen shows the report the service builds (totals, every specimen's account, flags,
 the ledger head) before anything is written; Ctrl+S writes it in the chosen format to the
 output folder through the same code as `tracker report return`, which records the report
-event first and leaves no file if that is refused.
+event first and leaves no file if that is refused. The file is named after the loan and
+its report event unless a name is typed; a typed name that exists is refused in words (the
+screen never replaces a file), so the person types another.
 """
 
 from __future__ import annotations
 
+from pathlib import Path
 from typing import ClassVar
 
 from rich.text import Text
-from textual import work
+from textual import on, work
 from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
 from textual.containers import Horizontal
 from textual.message import Message
 from textual.screen import Screen
-from textual.widgets import DataTable, Footer, Select, Static
+from textual.widgets import DataTable, Footer, Input, Select, Static
 
-from tracker.domain.errors import TrackerError
+from tracker.db.outputs import TargetExists
+from tracker.domain.errors import InputError, TrackerError
 from tracker.output import report_files
 from tracker.output.report_files import WrittenReport
 from tracker.services import reports
@@ -65,6 +69,12 @@ class ReportScreen(Screen[None]):
             yield Static("Write as", classes="field-label")
             options = [(fmt.upper(), fmt) for fmt in report_files.FORMATS]
             yield Select(options, value="pdf", allow_blank=False, id="report-format")
+            yield Static("File", classes="field-label")
+            yield Input(
+                "",
+                id="report-file",
+                placeholder="empty: named after the loan and the report's event number",
+            )
         yield Static("", id="outcome")
         yield Footer(compact=True)
 
@@ -107,17 +117,28 @@ class ReportScreen(Screen[None]):
 
     def action_write(self) -> None:
         fmt = str(self.query_one("#report-format", Select).value)
+        name = self.query_one("#report-file", Input).value.strip()
         self.show_outcome(f"… writing the {fmt.upper()} report", error=False)
-        self.write(fmt)
+        self.write(fmt, name)
+
+    @on(Input.Submitted, "#report-file")
+    def _name_typed(self) -> None:
+        self.action_write()
 
     @work(thread=True, exclusive=True, group="write")
-    def write(self, fmt: str) -> None:
+    def write(self, fmt: str, name: str) -> None:
         folder = tracker_app(self).out_dir
+        target = None if not name else folder / Path(name).expanduser()  # absolute stays
         try:
             written = report_files.write_return_report(
-                database(self), operator(self), self.loan, fmt, None, folder
+                database(self), operator(self), self.loan, fmt, target, folder
             )
+        except TargetExists as error:
+            said = "already exists; type another file name (nothing was written or recorded)"
+            self.post_message(Refused(InputError("file", error.value, said), "write"))
+            return
         except TrackerError as error:
+            error.field = "file" if error.field == "out" else error.field
             self.post_message(Refused(error, "write"))
             return
         self.post_message(self.Written(written))

@@ -1,0 +1,29 @@
+"""What every command that writes a file shares: its ``--force`` option and what it says.
+
+The rules themselves (never the database, never over a file unless forced, published
+whole) live in :mod:`tracker.db.outputs`; this only spells them for the command line.
+"""
+
+from pathlib import Path
+from typing import Annotated
+
+import typer
+
+Force = Annotated[
+    bool,
+    typer.Option(
+        "--force",
+        help="Replace an existing output file; the old one is kept beside it as "
+        "<name>.replaced-<UTC time>. The database and its backups are never replaced.",
+    ),
+]
+
+
+def kept_as(replaced: Path | None) -> str | None:
+    """Where a replaced file was kept, for ``--json`` (None when nothing was replaced)."""
+    return None if replaced is None else str(replaced)
+
+
+def kept_note(replaced: Path | None) -> str:
+    """What a person is told when ``--force`` moved a file aside (nothing otherwise)."""
+    return f" (the file it replaced is kept as {replaced})" if replaced is not None else ""
