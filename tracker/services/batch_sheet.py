@@ -101,13 +101,16 @@ def _read(request: EnterSheet) -> tuple[list[str], list[Row]]:
         raise InputError("FILE", request.filename, "name the sheet .csv, .tsv or .xlsx")
     try:
         header, rows = read_table(request.content, fmt)
+        # each row keeps only its filled cells (a blank reads as "" all the same), by the
+        # lower-case heading: a wide sheet's empty columns cost nothing once read
+        kept = [Row(r.number, {k.lower(): v for k, v in r.cells.items() if v}) for r in rows]
     except TableError as exc:
+        if exc.column == "file":  # the whole file, not one of its cells
+            raise InputError("FILE", request.filename, exc.reason) from None
         raise InputError(at_cell(request.filename, exc.row, exc.column), None, exc.reason) from None
-    if not rows:
+    if not kept:
         raise InputError("FILE", request.filename, "lists no columns below its header")
-    return [h.lower() for h in header], [
-        Row(r.number, {k.lower(): v for k, v in r.cells.items()}) for r in rows
-    ]
+    return [h.lower() for h in header], kept
 
 
 class _Sheet:

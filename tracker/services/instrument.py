@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import hashlib
 import math
-from typing import Annotated, Any, Literal
+from typing import Annotated, Any, Literal, NamedTuple
 
 from pydantic import Field
 from sqlalchemy import func, select
@@ -182,22 +182,23 @@ def _import(
     uow.session.add(session)
     matcher = Matcher(uow.session, request.bracketing_standard, request.element)
     unmatched: list[UnmatchedRow] = []
-    for row, run, name, label in rows:
+    for run in rows:
         measurement = Measurement(
             session=session,
-            run_order=run,
-            sample_name=name,
+            run_order=run.run,
+            sample_name=run.name,
             created_at=uow.now,
-            **_values(row, profile),
+            ratios=run.ratios,
+            errors=run.errors,
         )
         uow.session.add(measurement)
-        reason = matcher.assign(measurement, label or name)
+        reason = matcher.assign(measurement, run.label or run.name)
         if reason:
             unmatched.append(
-                UnmatchedRow(row=row.number, run_order=run, sample_name=name, reason=reason)
+                UnmatchedRow(row=run.row, run_order=run.run, sample_name=run.name, reason=reason)
             )
     require_brackets(
-        session.measurements, {r[1]: r[0].number for r in rows}, profile.columns.sample_name
+        session.measurements, {r.run: r.row for r in rows}, profile.columns.sample_name
     )
     view = lambda: _view(session, unmatched)  # noqa: E731
     payload = {
@@ -238,10 +239,23 @@ def _require_standard_values(request: ImportSession, profile: ProfileDefinition)
         )
 
 
-def _read(
-    request: ImportSession, profile: ProfileDefinition
-) -> list[tuple[Row, int, str, str | None]]:
-    """Rows with their run order, sample name and label ID; every problem names row and column."""
+class _Run(NamedTuple):
+    """One row of the export as the import keeps it: its place, run, names and numbers.
+
+    The row's cells are let go once these are read, so a session's rows cost their
+    values, not a dictionary of every cell of a wide export.
+    """
+
+    row: int
+    run: int
+    name: str
+    label: str | None
+    ratios: dict[str, float]
+    errors: dict[str, float]
+
+
+def _read(request: ImportSession, profile: ProfileDefinition) -> list[_Run]:
+    """The rows by run order, their values read; every problem names row and column."""
     try:
         header, rows = read_table(
             request.content,
@@ -250,12 +264,18 @@ def _read(
             sheet=profile.sheet,
             comment_prefix=profile.comment_prefix,
         )
+        _require_columns(header, profile.columns)
+        seen: dict[int, int] = {}
+        runs = [_run(row, profile.columns, seen) for row in rows]
     except TableError as exc:
         if exc.column in ("file", "sheet"):  # the whole file, not one of its cells
             value = request.filename if exc.column == "file" else profile.sheet
             raise InputError(exc.column, value, exc.reason) from None
         raise InputError(f"row {exc.row}, column {exc.column}", None, exc.reason) from None
-    columns = profile.columns
+    return sorted(runs, key=lambda run: run.run)
+
+
+def _require_columns(header: list[str], columns: ColumnMap) -> None:
     wanted = [
         columns.run_order,
         columns.sample_name,
@@ -270,20 +290,25 @@ def _read(
                 name,
                 f"names a column the file lacks; the file has: {', '.join(header)}",
             )
-    seen: dict[int, int] = {}
-    result = []
-    for row in rows:
-        run = _run_order(row, columns.run_order)
-        if run in seen:
-            raise InputError(
-                f"row {row.number}, column {columns.run_order}",
-                run,
-                f"run number repeats row {seen[run]}",
-            )
-        seen[run] = row.number
-        label = row.cells.get(columns.sample_id) if columns.sample_id else None
-        result.append((row, run, row.cells[columns.sample_name], label or None))
-    return sorted(result, key=lambda item: item[1])
+
+
+def _run(row: Row, columns: ColumnMap, seen: dict[int, int]) -> _Run:
+    """One row read: its run number (not seen before), its names and its positive values."""
+    run = _run_order(row, columns.run_order)
+    if run in seen:
+        raise InputError(
+            f"row {row.number}, column {columns.run_order}",
+            run,
+            f"run number repeats row {seen[run]}",
+        )
+    seen[run] = row.number
+    label = row.cells.get(columns.sample_id) if columns.sample_id else None
+    ratios = {name: _positive(row, column) for name, column in columns.ratios.items()}
+    errors = {
+        name: _positive(row, column, allow_zero=True) for name, column in columns.errors.items()
+    }
+    name = row.cells[columns.sample_name]
+    return _Run(row.number, run, name, label or None, ratios, errors)
 
 
 MAX_RUN = 999_999_999  # far beyond any session; keeps run numbers inside a 64-bit column
@@ -302,15 +327,6 @@ def _run_order(row: Row, column: str) -> int:
     if abs(value) > MAX_RUN:
         raise InputError(f"row {row.number}, column {column}", text, f"is beyond {MAX_RUN:,} runs")
     return int(value)
-
-
-def _values(row: Row, profile: ProfileDefinition) -> dict[str, Any]:
-    ratios = {name: _positive(row, column) for name, column in profile.columns.ratios.items()}
-    errors = {
-        name: _positive(row, column, allow_zero=True)
-        for name, column in profile.columns.errors.items()
-    }
-    return {"ratios": ratios, "errors": errors}
 
 
 def _positive(row: Row, column: str, *, allow_zero: bool = False) -> float:

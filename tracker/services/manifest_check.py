@@ -9,13 +9,15 @@ touches the database; the caller hands over the loan's specimens as they stand.
 from __future__ import annotations
 
 import re
-from collections.abc import Mapping
+from collections.abc import Callable, Iterable, Iterator, Mapping
 from dataclasses import dataclass
 from datetime import date
+from itertools import islice
 from typing import Any, Literal
 
 from pydantic import Field, TypeAdapter, ValidationError
 
+from tracker.domain.darwincore import extra_terms_problem
 from tracker.domain.models import Specimen
 from tracker.domain.spreadsheet import FORMULA_TRIGGERS, looks_like_formula
 from tracker.domain.tables import Row
@@ -65,16 +67,53 @@ def header_problems(header: list[str]) -> list[str]:
     return found
 
 
+# Rows are checked a slice at a time, each slice as a whole (the bulk checks below), and
+# then let go: a slice holds about this many cells, whatever the file's width.
+SLICE_CELLS = 50_000
+Find = Callable[[list[str]], Mapping[str, Specimen]]  # catalogue numbers -> the loan's specimens
+
+
+@dataclass(frozen=True)
+class Checked:
+    """What the check of a whole file keeps: no cell that a write does not need."""
+
+    results: list[RowResult]
+    fields: dict[int, Fields]  # row number -> validated columns, for rows that write
+    updates: dict[str, Specimen]  # catalogue number -> the loan's specimen a row changes
+
+
 def check_rows(
-    rows: list[Row], existing: Mapping[str, Specimen], file_problem: list[str]
-) -> tuple[list[RowResult], dict[int, Fields]]:
+    header: list[str], rows: Iterable[Row], find: Find, file_problem: list[str]
+) -> Checked:
     """Every row's result for the preview, and the validated columns of each clean row.
 
-    The second value maps a row number to what `write` needs for a row that creates or
-    updates a specimen; rows with problems or nothing to change are not in it.
+    ``fields`` maps a row number to what `write` needs for a row that creates or updates
+    a specimen; rows with problems or nothing to change are not in it. ``find`` gives the
+    loan's specimens among a slice's catalogue numbers, so only those are ever loaded.
     """
-    columns = _Columns.of(list(rows[0].cells) if rows else [])
+    columns = _Columns.of(header)
     seen: dict[str, int] = {}
+    checked = Checked([], {}, {})
+    for chunk in _slices(rows, max(1, SLICE_CELLS // max(1, len(header)))):
+        _check_slice(chunk, columns, seen, find, file_problem, checked)
+    return checked
+
+
+def _slices(rows: Iterable[Row], size: int) -> Iterator[list[Row]]:
+    iterator = iter(rows)
+    while chunk := list(islice(iterator, size)):
+        yield chunk
+
+
+def _check_slice(
+    rows: list[Row],
+    columns: _Columns,
+    seen: dict[str, int],
+    find: Find,
+    file_problem: list[str],
+    checked: Checked,
+) -> None:
+    """One slice of rows checked together, its results and clean rows' columns kept."""
     if file_problem or not _cells_all_read(rows, columns.typed):
         found = [_first_checks(row, seen, file_problem, columns.typed) for row in rows]
     else:  # the common case: only a catalogue number can still be wrong
@@ -82,19 +121,23 @@ def check_rows(
     clean = [n for n, problems in enumerate(found) if not problems]
     validated = _validate(columns, [rows[n] for n in clean])
     fields: dict[int, Fields] = {}
-    for n, (checked, problem) in zip(clean, validated, strict=True):
+    for n, (values, problem) in zip(clean, validated, strict=True):
         if problem is None:
-            fields[rows[n].number] = checked
+            fields[rows[n].number] = values
         else:
             found[n].append(problem)
+    catalogs = [row.cells.get(REQUIRED, "").strip() for row in rows]
+    existing = find([c for n, c in enumerate(catalogs) if rows[n].number in fields])
     results = []
-    for row, problems in zip(rows, found, strict=True):
-        catalog = row.cells.get(REQUIRED, "").strip()
+    for row, catalog, problems in zip(rows, catalogs, found, strict=True):
         result = _result(row.number, catalog, problems, fields.get(row.number), existing)
         if result["action"] in ("unchanged", "error"):
             fields.pop(row.number, None)
+        elif result["action"] == "update":
+            checked.updates[catalog] = existing[catalog]
         results.append(result)
-    return _ROW_RESULTS.validate_python(results), fields
+    checked.results.extend(_ROW_RESULTS.validate_python(results))
+    checked.fields.update(fields)
 
 
 @dataclass(frozen=True)
@@ -231,24 +274,29 @@ def _validate(columns: _Columns, rows: list[Row]) -> list[tuple[Fields, str | No
     """Each row's specimen columns validated like `specimen add`, or the row's first problem.
 
     Columns the file does not have are left out (an update never blanks them); other
-    headings become extra terms, kept with the specimen. All rows go to pydantic in
-    one call; only when some row fails are the others validated again, without it.
+    headings become extra terms, kept with the specimen within the caps on extra terms.
+    All rows go to pydantic in one call; only when some row fails are the others
+    validated again, without it.
     """
     present = [_present(columns, row.cells) for row in rows]
+    said: dict[int, str] = {}
+    for n, candidate in enumerate(present):
+        problem = extra_terms_problem(candidate["extra"])
+        if problem is not None:
+            said[n] = f"extra terms: {problem}"
+    keep = [n for n in range(len(present)) if n not in said]
     try:
-        specimens = _SPECIMENS.validate_python(present)
+        specimens = _SPECIMENS.validate_python([present[n] for n in keep])
     except ValidationError as exc:
-        first: dict[int, Any] = {}
         for error in exc.errors(include_url=False):
-            first.setdefault(int(error["loc"][0]), error)  # (row in the list, field)
-        good = iter(
-            _SPECIMENS.validate_python([p for n, p in enumerate(present) if n not in first])
-        )
-        return [
-            ({}, _said(first[n])) if n in first else (_fields(columns.keys, next(good)), None)
-            for n in range(len(present))
-        ]
-    return [(_fields(columns.keys, specimen), None) for specimen in specimens]
+            said.setdefault(keep[int(error["loc"][0])], _said(error))  # (row in the list, field)
+        keep = [n for n in keep if n not in said]
+        specimens = _SPECIMENS.validate_python([present[n] for n in keep])
+    good = dict(zip(keep, specimens, strict=True))
+    return [
+        (_fields(columns.keys, good[n]), None) if n in good else ({}, said[n])
+        for n in range(len(present))
+    ]
 
 
 def _present(columns: _Columns, cells: dict[str, str]) -> dict[str, Any]:

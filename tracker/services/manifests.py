@@ -11,19 +11,21 @@ from __future__ import annotations
 
 import hashlib
 from collections import Counter
+from collections.abc import Iterator
+from contextlib import contextmanager
 from dataclasses import dataclass
 from typing import Annotated, Any, Literal
 
 from pydantic import BaseModel, ConfigDict, Field
 from sqlalchemy import select
-from sqlalchemy.orm import Session
+from sqlalchemy.orm import Session, undefer
 
 from tracker.db.database import Database
 from tracker.db.rows import insert_rows
 from tracker.domain.errors import InputError, NotFound, RuleViolation, at_cell
 from tracker.domain.ids import Kind, format_id
 from tracker.domain.models import Loan, LoanStatus, MappingProfile, Specimen, SpecimenStatus
-from tracker.domain.tables import Row, TableError, read_table
+from tracker.domain.tables import Row, Table, TableError, read_table
 from tracker.services.bulk import collector_paused
 from tracker.services.common import finish
 from tracker.services.inputs import Name, Raw, Request, parse
@@ -230,10 +232,12 @@ def _mapping(session: Session, name: str | None) -> ManifestMapping:
     return mapping
 
 
-def _rows(session: Session, request: ManifestRequest) -> tuple[list[str], list[Row]]:
+def _table(session: Session, request: ManifestRequest) -> Table:
+    """The file's headings (as terms, through the mapping) and its rows, read as they are used."""
     mapping = _mapping(session, request.mapping)
     fmt = mapping.format if request.mapping else _format_of(request.filename)
-    try:
+    rename = {heading: term for term, heading in mapping.columns.items()}
+    with _as_input(request.filename):
         header, rows = read_table(
             request.content,
             fmt,
@@ -242,23 +246,34 @@ def _rows(session: Session, request: ManifestRequest) -> tuple[list[str], list[R
             comment_prefix=None,
             keep_formulas=True,  # flagged row by row in the preview instead
         )
+    return Table([rename.get(h, h) for h in header], _renamed(request.filename, rows, rename))
+
+
+def _renamed(filename: str, rows: Iterator[Row], rename: dict[str, str]) -> Iterator[Row]:
+    """The rows under their terms, at most MAX_ROWS of them; a reading problem named in the file."""
+    with _as_input(filename):
+        for count, row in enumerate(rows, start=1):
+            if count > MAX_ROWS:
+                raise InputError(
+                    "file",
+                    filename,
+                    f"has more than {MAX_ROWS:,} rows; split it into files of at most {MAX_ROWS:,}",
+                )
+            if rename:
+                row = Row(row.number, {rename.get(k, k): v for k, v in row.cells.items()})
+            yield row
+
+
+@contextmanager
+def _as_input(filename: str) -> Iterator[None]:
+    """A problem reading the table, said as a refusal of the file (or of its row and column)."""
+    try:
+        yield
     except TableError as exc:
         if exc.column == "file":
-            raise InputError("file", request.filename, exc.reason) from None
-        where = at_cell(request.filename, exc.row, exc.column)
+            raise InputError("file", filename, exc.reason) from None
+        where = at_cell(filename, exc.row, exc.column)
         raise InputError(where, None, exc.reason) from None
-    if len(rows) > MAX_ROWS:
-        raise InputError(
-            "file",
-            request.filename,
-            f"has {len(rows)} rows; split it into files of at most {MAX_ROWS}",
-        )
-    rename = {heading: term for term, heading in mapping.columns.items()}
-    if not rename:
-        return header, rows
-    header = [rename.get(h, h) for h in header]
-    rows = [Row(r.number, {rename.get(k, k): v for k, v in r.cells.items()}) for r in rows]
-    return header, rows
 
 
 def _format_of(filename: str) -> str:
@@ -275,21 +290,28 @@ class _Examined:
     loan: Loan
     preview: ManifestPreview
     header_problems: list[str]
-    existing: dict[str, Specimen]  # the loan's specimens by catalogue number
+    updates: dict[str, Specimen]  # the loan's specimens the file changes, by catalogue number
     fields: dict[int, Fields]  # row number -> validated columns, for rows that write
 
 
 def _examine(session: Session, request: ManifestRequest) -> _Examined:
     loan = get_loan(session, "loan", request.loan)
-    header, rows = _rows(session, request)
-    existing = {
-        s.catalog_number: s
-        for s in session.scalars(select(Specimen).where(Specimen.loan_id == loan.id))
-    }
+    header, rows = _table(session, request)
+
+    def find(catalogs: list[str]) -> dict[str, Specimen]:
+        """The loan's specimens among these, with their extra terms (a row may change them)."""
+        query = (
+            select(Specimen)
+            .where(Specimen.loan_id == loan.id, Specimen.catalog_number.in_(catalogs))
+            .options(undefer(Specimen.extra))
+        )
+        return {s.catalog_number: s for s in session.scalars(query)} if catalogs else {}
+
     file_problem = header_problems(header)
-    results, fields = check_rows(rows, existing, file_problem)
+    checked = check_rows(header, rows, find, file_problem)
+    results = checked.results
     extra = sorted(h for h in header if h not in TERM_FIELDS and h not in OWN_FIELDS)
-    problems = sum(len(r.problems) for r in results) + (len(file_problem) if not rows else 0)
+    problems = sum(len(r.problems) for r in results) + (len(file_problem) if not results else 0)
     tally = Counter(r.action for r in results)
     preview = ManifestPreview(
         loan=loan.reference,
@@ -302,7 +324,7 @@ def _examine(session: Session, request: ManifestRequest) -> _Examined:
         problems=problems,
         kept_as_extra=extra,
     )
-    return _Examined(loan, preview, file_problem, existing, fields)
+    return _Examined(loan, preview, file_problem, checked.updates, checked.fields)
 
 
 def _write(
@@ -315,7 +337,7 @@ def _write(
         if result.action == "create":
             new.append(examined.fields[result.row])
         elif result.action == "update":
-            specimen = examined.existing[result.catalog_number or ""]
+            specimen = examined.updates[result.catalog_number or ""]
             extra = dict(specimen.extra)
             for name, (_, value) in result.changes.items():
                 if name.startswith("extra."):
