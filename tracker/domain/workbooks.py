@@ -139,8 +139,9 @@ def _count_shared_strings(stream: IO[bytes]) -> None:
                 raise TableError(
                     1,
                     "file",
-                    f"holds more than {MAX_SHARED_STRINGS:,} shared strings (distinct texts); "
-                    f"workbooks are capped at {MAX_SHARED_STRINGS:,}: split it into smaller files",
+                    f"its shared-strings table (the texts its cells point to) holds more than "
+                    f"{MAX_SHARED_STRINGS:,} entries; workbooks are capped at "
+                    f"{MAX_SHARED_STRINGS:,} shared strings: split it into smaller files",
                 )
 
     def end(name: str) -> None:
@@ -155,9 +156,9 @@ def _count_shared_strings(stream: IO[bytes]) -> None:
                 raise TableError(
                     1,
                     "file",
-                    f"holds more than {MAX_SHARED_CHARS:,} characters of shared strings "
-                    f"(by its string {count:,}); workbooks are capped at {MAX_SHARED_CHARS:,}: "
-                    "split it into smaller files",
+                    f"its shared strings reach {chars:,} characters by entry {count:,}; "
+                    f"workbooks are capped at {MAX_SHARED_CHARS:,} characters of shared "
+                    "strings: split it into smaller files",
                 )
 
     parser = _parser()

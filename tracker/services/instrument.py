@@ -266,7 +266,16 @@ def _read(request: ImportSession, profile: ProfileDefinition) -> list[_Run]:
         )
         _require_columns(header, profile.columns)
         seen: dict[int, int] = {}
-        runs = [_run(row, profile.columns, seen) for row in rows]
+        runs = []
+        for row in rows:
+            if len(runs) == MAX_SESSION_ROWS:
+                raise InputError(
+                    "file",
+                    request.filename,
+                    f"has more than {MAX_SESSION_ROWS:,} rows of runs by row {row.number:,}; "
+                    f"sessions are capped at {MAX_SESSION_ROWS:,} runs: split the export",
+                )
+            runs.append(_run(row, profile.columns, seen))
     except TableError as exc:
         if exc.column in ("file", "sheet"):  # the whole file, not one of its cells
             value = request.filename if exc.column == "file" else profile.sheet
@@ -312,6 +321,10 @@ def _run(row: Row, columns: ColumnMap, seen: dict[int, int]) -> _Run:
 
 
 MAX_RUN = 999_999_999  # far beyond any session; keeps run numbers inside a 64-bit column
+# Runs in one session. A day on a multi-collector ICP-MS is a few hundred runs, an
+# autosampler's weekend a few thousand (common practice); every run becomes a measurement
+# row held in the import's one transaction (a few kilobytes each), so the cap bounds it.
+MAX_SESSION_ROWS = 20_000
 
 
 def _run_order(row: Row, column: str) -> int:
