@@ -266,7 +266,7 @@ def _read(request: ImportSession, profile: ProfileDefinition) -> list[_Run]:
         )
         _require_columns(header, profile.columns)
         seen: dict[int, int] = {}
-        runs = []
+        runs: list[_Run] = []
         for row in rows:
             if len(runs) == MAX_SESSION_ROWS:
                 raise InputError(

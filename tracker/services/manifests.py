@@ -36,12 +36,14 @@ from tracker.services.manifest_check import (
     Fields,
     check_rows,
     header_problems,
+    unpacked,
 )
 from tracker.services.manifest_check import RowResult as RowResult
 from tracker.services.uow import unit_of_work
 from tracker.services.views import Done, View
 
 MAX_ROWS = 100_000
+INSERT_SLICE = 5_000  # new specimens per executemany: their unpacked terms held at once
 # New specimens are inserted by the driver's executemany (no ORM object per row).
 _SPECIMEN = Specimen.metadata.tables[Specimen.__tablename__]
 
@@ -350,15 +352,19 @@ def _write(
 
 
 def _insert(session: Session, loan_id: int, new: list[Fields], now: Any) -> list[str]:
-    """Insert the new specimens in one driver executemany and return their IDs, in file order.
+    """Insert the new specimens and return their IDs, in file order.
 
-    What every new row shares (loan, status, creation time) is written into the statement
-    once. The IDs are then read back by catalogue number, which is unique within a loan.
+    Each slice of INSERT_SLICE rows is one driver executemany, its rows' extra terms
+    unpacked only for it; what every new row shares (loan, status, creation time) is
+    written into the statement once. The IDs are then read back by catalogue number,
+    which is unique within a loan.
     """
     if not new:
         return []
     shared = {"loan_id": loan_id, "status": SpecimenStatus.EXPECTED, "created_at": now}
-    insert_rows(session.connection(), _SPECIMEN, new, shared)
+    for start in range(0, len(new), INSERT_SLICE):
+        rows = [unpacked(fields) for fields in new[start : start + INSERT_SLICE]]
+        insert_rows(session.connection(), _SPECIMEN, rows, shared)
     ids = dict(
         session.execute(
             select(Specimen.catalog_number, Specimen.id).where(Specimen.loan_id == loan_id)
