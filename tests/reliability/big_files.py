@@ -184,7 +184,12 @@ def shared_strings(path: Path) -> tuple[int, int]:
     return len(texts), sum(len(text) for text in texts)
 
 
-# ---------------------------------------------------------------- photographs
+# ---------------------------------------------------------------- label stocks and photographs
+
+WALL_STOCK = (  # a lab's own stock as large as a stock may be: 2 m × 1.9 m
+    "[stock.wall]\npage_width_mm = 2000.0\npage_height_mm = 1900.0\n"
+    "label_width_mm = 60.0\nlabel_height_mm = 30.0\n"
+)
 
 
 def jpeg_claiming(width: int, height: int) -> bytes:

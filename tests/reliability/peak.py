@@ -36,7 +36,6 @@ class Measured:
 def measure(argv: list[str]) -> Measured:
     """Run ``argv`` as the driver's only child; its peak resident memory and its output."""
     env = {k: v for k, v in os.environ.items() if not k.startswith("TRACKER_")}
-    env["NO_COLOR"] = "1"
     found = subprocess.run(
         [sys.executable, "-c", _DRIVER, *argv], capture_output=True, text=True, env=env, check=True
     )

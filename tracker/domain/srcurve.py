@@ -35,7 +35,7 @@ class CurveError(ValueError):
         self.row, self.column, self.reason = row, column, reason
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, slots=True)  # a curve holds up to MAX_POINTS of them: no __dict__ each
 class CurvePoint:
     age_ma: float
     ratio: float
