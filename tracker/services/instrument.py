@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import hashlib
 import math
+from itertools import chain
 from typing import Annotated, Any, Literal, NamedTuple
 
 from pydantic import Field
@@ -264,10 +265,13 @@ def _read(request: ImportSession, profile: ProfileDefinition) -> list[_Run]:
             sheet=profile.sheet,
             comment_prefix=profile.comment_prefix,
         )
+        # what is wrong with the file itself before its first row (a broken sheet, rows past
+        # a cap) is said first; then the profile is held against the header
+        first = next(rows, None)
         _require_columns(header, profile.columns)
         seen: dict[int, int] = {}
         runs: list[_Run] = []
-        for row in rows:
+        for row in chain([first] if first else [], rows):
             if len(runs) == MAX_SESSION_ROWS:
                 raise InputError(
                     "file",

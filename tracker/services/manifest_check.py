@@ -1,9 +1,10 @@
 """Checking a lender's manifest row by row, in one pass that both previews and prepares.
 
 The preview a person reads and the rows an import writes come from the same pass: each
-row is checked once, and a clean row's specimen columns are validated once (all rows in
-one call, by the same model `specimen add` uses) and kept for the write. Nothing here
-touches the database; the caller hands over the loan's specimens as they stand.
+row is checked once, and a clean row's specimen columns are validated once (a slice of
+rows in one call, by the same model `specimen add` uses) and kept for the write. Rows
+arrive as the file is read and are let go once checked. Nothing here touches the
+database; the caller hands over a way to find the loan's specimens a slice names.
 """
 
 from __future__ import annotations
