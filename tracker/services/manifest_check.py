@@ -97,9 +97,14 @@ def check_rows(
     columns = _Columns.of(header)
     seen: dict[str, int] = {}
     checked = Checked([], {}, {})
-    for chunk in _slices(rows, max(1, SLICE_CELLS // max(1, len(header)))):
+    for chunk in _slices(rows, rows_per_slice(len(header))):
         _check_slice(chunk, columns, seen, find, file_problem, checked)
     return checked
+
+
+def rows_per_slice(columns: int) -> int:
+    """How many rows of this width make a slice of about SLICE_CELLS cells (at least one)."""
+    return max(1, SLICE_CELLS // max(1, columns))
 
 
 def _slices(rows: Iterable[Row], size: int) -> Iterator[list[Row]]:

@@ -36,6 +36,7 @@ from tracker.services.manifest_check import (
     Fields,
     check_rows,
     header_problems,
+    rows_per_slice,
     unpacked,
 )
 from tracker.services.manifest_check import RowResult as RowResult
@@ -43,7 +44,6 @@ from tracker.services.uow import unit_of_work
 from tracker.services.views import Done, View
 
 MAX_ROWS = 100_000
-INSERT_SLICE = 5_000  # new specimens per executemany: their unpacked terms held at once
 # New specimens are inserted by the driver's executemany (no ORM object per row).
 _SPECIMEN = Specimen.metadata.tables[Specimen.__tablename__]
 
@@ -294,6 +294,7 @@ class _Examined:
     header_problems: list[str]
     updates: dict[str, Specimen]  # the loan's specimens the file changes, by catalogue number
     fields: dict[int, Fields]  # row number -> validated columns, for rows that write
+    slice_rows: int  # rows checked together, and written together
 
 
 def _examine(session: Session, request: ManifestRequest) -> _Examined:
@@ -326,7 +327,8 @@ def _examine(session: Session, request: ManifestRequest) -> _Examined:
         problems=problems,
         kept_as_extra=extra,
     )
-    return _Examined(loan, preview, file_problem, checked.updates, checked.fields)
+    slice_rows = rows_per_slice(len(header))
+    return _Examined(loan, preview, file_problem, checked.updates, checked.fields, slice_rows)
 
 
 def _write(
@@ -348,22 +350,22 @@ def _write(
                     setattr(specimen, name, value)
             specimen.extra = extra
             updated.append(specimen.public_id)
-    return _insert(session, loan_id, new, now), updated
+    return _insert(session, loan_id, new, examined.slice_rows, now), updated
 
 
-def _insert(session: Session, loan_id: int, new: list[Fields], now: Any) -> list[str]:
+def _insert(session: Session, loan_id: int, new: list[Fields], size: int, now: Any) -> list[str]:
     """Insert the new specimens and return their IDs, in file order.
 
-    Each slice of INSERT_SLICE rows is one driver executemany, its rows' extra terms
-    unpacked only for it; what every new row shares (loan, status, creation time) is
-    written into the statement once. The IDs are then read back by catalogue number,
-    which is unique within a loan.
+    The rows go a slice at a time (as many as were checked together), each slice one
+    driver executemany with its rows' extra terms unpacked only for it; what every new
+    row shares (loan, status, creation time) is written into the statement once. The IDs
+    are then read back by catalogue number, which is unique within a loan.
     """
     if not new:
         return []
     shared = {"loan_id": loan_id, "status": SpecimenStatus.EXPECTED, "created_at": now}
-    for start in range(0, len(new), INSERT_SLICE):
-        rows = [unpacked(fields) for fields in new[start : start + INSERT_SLICE]]
+    for start in range(0, len(new), size):
+        rows = [unpacked(fields) for fields in new[start : start + size]]
         insert_rows(session.connection(), _SPECIMEN, rows, shared)
     ids = dict(
         session.execute(
