@@ -140,7 +140,7 @@ def test_unreadable_and_oversized_files_are_refused_whole(lab: Lab, tmp_path: Pa
             "error: cp1252.csv, row 2, column 2: byte 0xE9 is not UTF-8; save the file as UTF-8"
         ], command
         result = invoke("manifest", command, "FH-77", str(big_path), db=lab.path, actor="ysolde")
-        reason = "has 100001 rows; split it into files of at most 100000"
+        reason = "has more than 100,000 rows; split it into files of at most 100,000"
         assert reason in refused(result, 2, "FILE"), command
     assert counts(lab.path) == before
 

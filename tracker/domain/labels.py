@@ -17,6 +17,11 @@ from dataclasses import dataclass
 # end where the ID begins: after "/", "=", "#" or ":".
 _URI_PREFIX = re.compile(r"^[A-Za-z][A-Za-z0-9+.\-]*:[A-Za-z0-9\-._~:/?#\[\]@!$&'()*+,;=%]*[/=#:]$")
 URI_PREFIX_MAX = 120
+# A sheet preview is looked at on a screen. An A4 or US Letter sheet at the highest
+# resolution a preview may ask (1200 dpi) is 139 or 135 million pixels, one byte each in
+# grey; a lab's own stock may be up to two metres a side, which at that resolution would
+# be billions. Previews are capped just above a full office sheet at 1200 dpi.
+MAX_PREVIEW_PIXELS = 150_000_000
 
 
 @dataclass(frozen=True)

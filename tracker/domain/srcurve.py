@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import math
 from bisect import bisect_right
-from collections.abc import Callable
+from collections.abc import Callable, Iterator
 from dataclasses import dataclass
 from functools import cached_property
 from itertools import pairwise
@@ -35,7 +35,7 @@ class CurveError(ValueError):
         self.row, self.column, self.reason = row, column, reason
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, slots=True)  # a curve holds up to MAX_POINTS of them: no __dict__ each
 class CurvePoint:
     age_ma: float
     ratio: float
@@ -125,36 +125,46 @@ def parse_curve_csv(text: str) -> Curve:
     Rows are numbered as lines of the file (comment lines starting with # included), so an
     error points at the line a person sees in an editor.
     """
-    try:
-        lines = list(csv_records(text))
-    except TableError as exc:
-        raise CurveError(exc.row, exc.column, exc.reason) from None
-    if len(lines) > MAX_POINTS:
-        raise CurveError(MAX_POINTS + 1, "age_ma", f"a curve of more than {MAX_POINTS} rows")
-    kept = [
+    kept = (
         (n, r)
-        for n, r in lines
+        for n, r in _records(text)
         if r and any(c.strip() for c in r) and not r[0].lstrip().startswith("#")
-    ]
-    if not kept:
+    )
+    first = next(kept, None)
+    if first is None:
         raise CurveError(1, "header", "the file is empty")
-    header_line, raw_header = kept[0]
+    header_line, raw_header = first
     header = [cell.strip().lower() for cell in raw_header]
     columns = {
         name: _find(header, options, header_line)
         for name, options in (("age_ma", _AGE), ("ratio", _RATIO), ("u", _U))
     }
     points: list[CurvePoint] = []
-    for number, row in kept[1:]:
+    last = header_line
+    for number, row in kept:
         values = {
             name: _number(row, index, number, header[index]) for name, index in columns.items()
         }
         point = CurvePoint(values["age_ma"], values["ratio"], values["u"])
         _check(point, points[-1] if points else None, number, header, columns)
         points.append(point)
+        last = number
     if len(points) < 2:
-        raise CurveError(kept[-1][0], "age_ma", "a curve needs at least two points")
+        raise CurveError(last, "age_ma", "a curve needs at least two points")
     return Curve(tuple(points))
+
+
+def _records(text: str) -> Iterator[tuple[int, list[str]]]:
+    """The file's records as they are read (only the points are kept), at most MAX_POINTS."""
+    try:
+        for count, record in enumerate(csv_records(text), start=1):
+            if count > MAX_POINTS:
+                raise CurveError(
+                    MAX_POINTS + 1, "age_ma", f"a curve of more than {MAX_POINTS} rows"
+                )
+            yield record
+    except TableError as exc:
+        raise CurveError(exc.row, exc.column, exc.reason) from None
 
 
 def _find(header: list[str], options: tuple[str, ...], line: int) -> int:

@@ -5,29 +5,32 @@ that an error can name "row 14, column 44Ca/40Ca" exactly as a person sees it in
 spreadsheet. Comment lines (instrument preambles) and blank lines are skipped.
 
 The bytes come from elsewhere, so nothing here trusts them: text is checked first
-(:mod:`tracker.domain.textfiles`), a workbook's ZIP directory is read before any
-XML is unpacked (a "zip bomb" declares gigabytes), rows and columns are counted as
-they come, and a cell that holds a spreadsheet formula is refused rather than kept
-as text a spreadsheet would later run. Every failure is a :class:`TableError`.
+(:mod:`tracker.domain.textfiles`), a workbook's parts are measured before openpyxl
+unpacks them (:mod:`tracker.domain.workbooks`), rows, columns and cells are counted as
+they come, and a cell that holds a spreadsheet formula is refused rather than kept as
+text a spreadsheet would later run. Every failure is a :class:`TableError`.
+
+Rows are read one at a time (:class:`Table`), so memory follows the file, not the file
+times the cost of a Python object per cell; the caps below bound what one file may ask.
 """
 
 from __future__ import annotations
 
 import csv
-import io
-import zipfile
 from collections.abc import Iterable, Iterator
 from dataclasses import dataclass
-from datetime import date, datetime, time
+from typing import NamedTuple
 
 from tracker.domain.spreadsheet import looks_like_formula
-from tracker.domain.textfiles import MAX_TABLE_BYTES, FileProblem, check_size, decode_text
+from tracker.domain.textfiles import FileProblem, decode_text
 
 MAX_ROWS = 500_000
 MAX_COLUMNS = 1_000
-MAX_WORKBOOK_MEMBERS = 1_000
-# What a workbook may unpack to (its ZIP directory's declared sizes, which zipfile enforces).
-MAX_UNPACKED_BYTES = 256 * 1024 * 1024
+# Cells in one file, counted as rows × the header's columns. A real lender list is at most
+# tens of thousands of rows with dozens of columns (40,000 × 50 = 2,000,000), an instrument
+# session's export a few thousand runs (common practice); beyond that a file is a mistake
+# or an attack, and every consumer's work grows with it.
+MAX_CELLS = 2_000_000
 
 
 class TableError(ValueError):
@@ -42,6 +45,19 @@ class Row:
     cells: dict[str, str]
 
 
+class Table(NamedTuple):
+    """A file's header and its rows; the rows are read from the bytes as they are iterated.
+
+    Nothing holds the whole file's rows: a consumer keeps what it needs of each row (its
+    validated values) and lets the row go, so reading a file costs the file itself plus
+    one row at a time. The rows can be iterated once; every check below (cells, columns,
+    formulas) is made as each row comes, so a refusal can arrive part-way through.
+    """
+
+    header: list[str]
+    rows: Iterator[Row]
+
+
 def read_table(
     content: bytes,
     fmt: str,
@@ -50,8 +66,8 @@ def read_table(
     sheet: str | None = None,
     comment_prefix: str | None = "#",
     keep_formulas: bool = False,
-) -> tuple[list[str], list[Row]]:
-    """(header, rows) from the file; the header is the ``header_row``-th kept line.
+) -> Table:
+    """The file's header (the ``header_row``-th kept line) and its rows, read lazily.
 
     A cell a spreadsheet would run as a formula is refused, unless ``keep_formulas``
     (for a caller that reports such cells row by row itself).
@@ -61,22 +77,57 @@ def read_table(
         raise TableError(1, "file", "is not an XLSX workbook; use a csv or tsv profile")
     if fmt != "xlsx" and zipped:
         raise TableError(1, "file", "looks like an XLSX workbook; use a profile with format xlsx")
-    lines = _xlsx_lines(content, sheet) if fmt == "xlsx" else _text_lines(content, fmt)
+    if fmt == "xlsx":
+        from tracker.domain.workbooks import sheet_lines  # openpyxl only for workbooks
+
+        lines = sheet_lines(content, sheet)
+    else:
+        lines = _text_lines(content, fmt)
     # _counted strips every cell and drops trailing blank ones: a line left empty was blank
-    kept = [
+    kept = (
         (n, cells)
-        for n, cells in lines
+        for n, cells in _counted(lines)
         if cells and not (comment_prefix and cells[0].startswith(comment_prefix))
-    ]
-    if len(kept) < header_row:
-        raise TableError(header_row, "header", "the file has no header row there")
-    header_number, header = kept[header_row - 1]
+    )
+    header_number, header = _header(kept, header_row)
     if len(set(header)) != len(header):
         raise TableError(header_number, "header", "two columns have the same name")
-    rows = [_row(number, cells, header) for number, cells in kept[header_row:]]
-    for row in [] if keep_formulas else rows:
-        _refuse_formulas(row, header)
-    return header, rows
+    return Table(header, _rows(kept, header, keep_formulas))
+
+
+def _header(kept: Iterator[tuple[int, list[str]]], header_row: int) -> tuple[int, list[str]]:
+    found = None
+    for _ in range(header_row):
+        found = next(kept, None)
+        if found is None:
+            raise TableError(header_row, "header", "the file has no header row there")
+    assert found is not None  # header_row is at least 1
+    return found
+
+
+def _rows(
+    kept: Iterator[tuple[int, list[str]]], header: list[str], keep_formulas: bool
+) -> Iterator[Row]:
+    """Each line under the header as a Row, counting cells as a consumer sees them.
+
+    A row counts as many cells as the header has columns (a shorter one is filled with
+    blanks), so the cap bounds the work of every consumer, not only what the file spells.
+    """
+    cells_read = len(header)
+    for number, cells in kept:
+        cells_read += len(header)
+        if cells_read > MAX_CELLS:
+            raise TableError(
+                number,
+                "file",
+                f"reaches {cells_read:,} cells by row {number:,} ({len(header):,} columns "
+                f"under the header); files are capped at {MAX_CELLS:,} cells: "
+                "split it into smaller files",
+            )
+        row = _row(number, cells, header)
+        if not keep_formulas:
+            _refuse_formulas(row, header)
+        yield row
 
 
 def _row(number: int, cells: list[str], header: list[str]) -> Row:
@@ -109,13 +160,13 @@ def _refuse_formulas(row: Row, header: list[str]) -> None:
             )
 
 
-def _text_lines(content: bytes, fmt: str) -> list[tuple[int, list[str]]]:
+def _text_lines(content: bytes, fmt: str) -> Iterator[tuple[int, list[str]]]:
     delimiter = "\t" if fmt == "tsv" else ","
     try:
         text = decode_text(content, delimiter)
     except FileProblem as problem:
         raise TableError(problem.row, problem.column, problem.reason) from None
-    return _counted(csv_records(text, delimiter))
+    return csv_records(text, delimiter)
 
 
 def csv_records(text: str, delimiter: str = ",") -> Iterator[tuple[int, list[str]]]:
@@ -124,26 +175,50 @@ def csv_records(text: str, delimiter: str = ",") -> Iterator[tuple[int, list[str
     Strict: a quote left open would otherwise swallow every line after it into one
     cell, silently; here it is refused at the line and cell where it opens.
     """
-    reader = csv.reader(io.StringIO(text), delimiter=delimiter, strict=True)
+    reader = csv.reader(_lines(text), delimiter=delimiter, strict=True)
     start = 1
     try:
         for cells in reader:
             yield start, cells
             start = reader.line_num + 1
     except csv.Error as exc:
-        line = text.splitlines()[start - 1] if start <= text.count("\n") + 1 else ""
+        line = _line(text, start)
         quote = line.find('"')
         cell = line[: max(quote, 0)].count(delimiter) + 1
         raise TableError(start, str(cell), f"cannot be read as CSV: {exc}") from None
 
 
-def _counted(lines: Iterable[tuple[int, list[str]]]) -> list[tuple[int, list[str]]]:
+def _lines(text: str) -> Iterator[str]:
+    """The text's lines, each with its line feed, one at a time.
+
+    What io.StringIO would give, without its copy of the whole text at four bytes a
+    character: only the line being parsed is copied out of the text.
+    """
+    start, size = 0, len(text)
+    while start < size:
+        end = text.find("\n", start)
+        end = size if end < 0 else end + 1
+        yield text[start:end]
+        start = end
+
+
+def _line(text: str, number: int) -> str:
+    """The ``number``-th line of the text (1-based; empty past the end), without its line feed."""
+    start = 0
+    for _ in range(number - 1):
+        start = text.find("\n", start) + 1
+        if start == 0:
+            return ""
+    end = text.find("\n", start)
+    return text[start : end if end >= 0 else len(text)]
+
+
+def _counted(lines: Iterable[tuple[int, list[str]]]) -> Iterator[tuple[int, list[str]]]:
     """The lines, refused beyond MAX_ROWS rows or MAX_COLUMNS cells.
 
     Every cell comes back stripped of surrounding blanks, and blank cells at the end of
     a line are dropped (so a blank line comes back empty).
     """
-    kept = []
     for number, cells in lines:
         if number > MAX_ROWS:
             raise TableError(number, "1", f"the table is longer than {MAX_ROWS:,} rows")
@@ -152,75 +227,4 @@ def _counted(lines: Iterable[tuple[int, list[str]]]) -> list[tuple[int, list[str
             cells.pop()
         if len(cells) > MAX_COLUMNS:
             raise TableError(number, str(MAX_COLUMNS + 1), f"more than {MAX_COLUMNS} columns")
-        kept.append((number, cells))
-    return kept
-
-
-def _check_workbook(content: bytes) -> None:
-    """Read the ZIP directory only: refuse a workbook that would unpack to too much."""
-    try:
-        check_size(content, MAX_TABLE_BYTES)
-    except FileProblem as problem:
-        raise TableError(problem.row, "file", problem.reason) from None
-    try:
-        with zipfile.ZipFile(io.BytesIO(content)) as archive:
-            members = archive.infolist()
-    except (zipfile.BadZipFile, ValueError, OSError, EOFError) as exc:
-        raise TableError(1, "file", f"is not a readable XLSX workbook ({exc})") from None
-    if len(members) > MAX_WORKBOOK_MEMBERS:
-        raise TableError(1, "file", f"holds {len(members)} parts; not a workbook to import")
-    unpacked = sum(m.file_size for m in members)
-    if unpacked > MAX_UNPACKED_BYTES:
-        raise TableError(
-            1,
-            "file",
-            f"would unpack to {unpacked:,} bytes (more than {MAX_UNPACKED_BYTES:,}): refused",
-        )
-
-
-def _xlsx_lines(content: bytes, sheet: str | None) -> list[tuple[int, list[str]]]:
-    from openpyxl import load_workbook  # imported lazily: only XLSX imports need it
-
-    _check_workbook(content)
-    try:
-        # data_only=False: a formula cell reads as its formula, so it is seen (and refused
-        # or flagged) instead of silently taking whatever value the file cached for it
-        book = load_workbook(io.BytesIO(content), read_only=True, data_only=False)
-    except Exception as exc:  # openpyxl fails on a broken workbook in many ways; name it once
-        raise TableError(1, "file", f"is not a readable XLSX workbook ({_short(exc)})") from None
-    try:
-        if sheet is not None and sheet not in book.sheetnames:
-            raise TableError(
-                1, "sheet", f"no sheet named {sheet!r}; it has {', '.join(book.sheetnames)}"
-            )
-        page = book[sheet] if sheet else book.worksheets[0]
-        page.reset_dimensions()  # the file's own claim of its size is not trusted
-        return _counted(
-            (n, [_cell_text(v) for v in values])
-            for n, values in enumerate(page.iter_rows(values_only=True), start=1)
-        )
-    except TableError:
-        raise
-    except Exception as exc:  # a sheet's XML broken part-way through
-        raise TableError(1, "file", f"is not a readable XLSX workbook ({_short(exc)})") from None
-    finally:
-        book.close()
-
-
-def _cell_text(value: object) -> str:
-    """A workbook cell as the text a CSV export of it would hold (dates in ISO 8601)."""
-    if value is None:
-        return ""
-    if isinstance(value, float):
-        return repr(value)
-    if isinstance(value, datetime):
-        has_time = value.time() != time(0, 0) or value.tzinfo is not None
-        return value.isoformat() if has_time else value.date().isoformat()
-    if isinstance(value, date | time):
-        return value.isoformat()
-    return str(value)
-
-
-def _short(exc: Exception) -> str:
-    text = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
-    return text[:120]
+        yield number, cells

@@ -20,10 +20,10 @@ from pydantic import BaseModel, ConfigDict
 from tracker.db import outputs
 from tracker.db.database import Database
 from tracker.domain.errors import InputError
-from tracker.domain.labels import PrintBatch, Rendered
+from tracker.domain.labels import MAX_PREVIEW_PIXELS, PrintBatch, Rendered
 from tracker.output.layout import lay_out
 from tracker.output.pdf import render_pdf
-from tracker.output.png import render_png
+from tracker.output.png import page_pixels, render_png
 from tracker.output.printer import PrinterReport, send
 from tracker.output.stocks import Stock, check_start, load_stock
 from tracker.services import label_jobs, labels
@@ -175,6 +175,7 @@ def preview(
     chosen = _stock(stock, start, stocks_file)
     if not MIN_DPI <= dpi <= MAX_DPI:
         raise InputError("dpi", dpi, f"must be between {MIN_DPI} and {MAX_DPI}")
+    _check_pixels(chosen, dpi)
     outputs.check_target(out, "out", force=force, database=db.path)
     facts = labels.facts_for(db, items) if items else labels.queued_facts(db)
     if not facts:
@@ -193,6 +194,28 @@ def preview(
         items=[label.facts.item for label in shown.labels],
         replaced_kept_as=None if written.replaced is None else str(written.replaced),
     )
+
+
+def _check_pixels(stock: Stock, dpi: int) -> None:
+    """Refuse, before drawing, a preview larger than MAX_PREVIEW_PIXELS; say the dpi that fits."""
+    if _area(stock, dpi) <= MAX_PREVIEW_PIXELS:
+        return
+    width, height = page_pixels(stock, dpi)
+    fitting = (d for d in range(dpi - 1, MIN_DPI - 1, -1) if _area(stock, d) <= MAX_PREVIEW_PIXELS)
+    fits = next(fitting, None)
+    advice = f"ask {fits} dpi or less" if fits else "this stock's page is too large to preview"
+    raise InputError(
+        "dpi",
+        dpi,
+        f"the {stock.page_width_mm:g} × {stock.page_height_mm:g} mm page of {stock.name} would "
+        f"be {width:,} × {height:,} = {width * height:,} pixels; previews are capped at "
+        f"{MAX_PREVIEW_PIXELS:,} pixels: {advice}",
+    )
+
+
+def _area(stock: Stock, dpi: int) -> int:
+    width, height = page_pixels(stock, dpi)
+    return width * height
 
 
 def _stock(name: str, start: int, stocks_file: Path | None) -> Stock:

@@ -22,10 +22,15 @@ OUTLINE = 200  # light grey, well away from the dark modules a decoder looks for
 MM_PER_INCH = 25.4
 
 
+def page_pixels(stock: Stock, dpi: int) -> tuple[int, int]:
+    """The preview's width and height in pixels: the stock's page at ``dpi``."""
+    scale = dpi / MM_PER_INCH
+    return round(stock.page_width_mm * scale), round(stock.page_height_mm * scale)
+
+
 def render_png(stock: Stock, page: Page, dpi: int) -> bytes:
     scale = dpi / MM_PER_INCH
-    size = (round(stock.page_width_mm * scale), round(stock.page_height_mm * scale))
-    image = Image.new("L", size, 255)
+    image = Image.new("L", page_pixels(stock, dpi), 255)
     draw = ImageDraw.Draw(image)
     for index in range(stock.per_sheet):
         _outline(draw, stock.cell(index), scale, stock.shape == "round")

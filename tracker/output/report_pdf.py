@@ -9,15 +9,16 @@ Sans (shipped inside matplotlib), which has δ, ‰, ± and µ.
 from __future__ import annotations
 
 import io
+import warnings
 from functools import cache
 from pathlib import Path
 from typing import Any
 
+from PIL import Image as Pillow
 from reportlab.lib import colors
 from reportlab.lib.pagesizes import A4
 from reportlab.lib.styles import ParagraphStyle
 from reportlab.lib.units import mm
-from reportlab.lib.utils import ImageReader
 from reportlab.pdfbase import pdfmetrics
 from reportlab.pdfbase.pdfmetrics import registerFontFamily
 from reportlab.pdfbase.ttfonts import TTFont
@@ -39,6 +40,7 @@ FACE, BOLD = "TrackerReport", "TrackerReport-Bold"
 MARGIN = 18 * mm
 WIDTH = A4[0] - 2 * MARGIN
 THUMB = 38 * mm
+THUMB_PIXELS = 600  # 38 mm at 400 dpi: sharp in print
 
 
 @cache
@@ -383,10 +385,8 @@ def _thumbnails(
         data = photos.get(photo.sha256)
         if data is None:
             continue
-        try:
-            reader = ImageReader(io.BytesIO(data))
-            width, height = reader.getSize()
-        except Exception:  # a stored file that no longer reads as an image: say so, go on
+        small = thumbnail(data)
+        if small is None:  # a stored file that no longer reads as an image: say so, go on
             cells.append(
                 [
                     Paragraph("(image could not be read)", styles["small"]),
@@ -394,8 +394,9 @@ def _thumbnails(
                 ]
             )
             continue
+        jpeg, (width, height) = small
         scale = THUMB / max(width, height)
-        image = Image(io.BytesIO(data), width=width * scale, height=height * scale)
+        image = Image(io.BytesIO(jpeg), width=width * scale, height=height * scale)
         caption = Paragraph(
             f"{photo.stage}: {_esc(photo.caption)}<br/>{photo.sha256[:16]}…", styles["small"]
         )
@@ -411,6 +412,36 @@ def _thumbnails(
     return [
         KeepTogether([Spacer(1, 1.5 * mm), heading, Table(rows, colWidths=widths, hAlign="LEFT")])
     ]
+
+
+def thumbnail(data: bytes) -> tuple[bytes, tuple[int, int]] | None:
+    """The photograph as a small image for the page (and its size in pixels), or None if
+    it cannot be read.
+
+    The page shows it THUMB wide, so THUMB_PIXELS a side is all it needs. A JPEG is
+    decoded straight at 1/2, 1/4 or 1/8 of its size (Pillow's draft), so a large photo
+    is never held at full size; other formats are decoded once and reduced. Photographs
+    are capped when kept (domain/photos.py); one kept before the cap, beyond Pillow's
+    own limit, is reported unreadable rather than decoded.
+    """
+    box = (THUMB_PIXELS, THUMB_PIXELS)
+    try:
+        with (
+            warnings.catch_warnings(action="ignore", category=Pillow.DecompressionBombWarning),
+            Pillow.open(io.BytesIO(data)) as image,
+        ):
+            original = image.size
+            image.draft("RGB", box)
+            image.thumbnail(box)
+            small = image.convert("RGB")
+    except (Pillow.DecompressionBombError, OSError, SyntaxError, ValueError):
+        return None
+    out = io.BytesIO()
+    if small.size == original:  # small enough already: drawn pixel for pixel
+        small.save(out, "PNG")
+    else:
+        small.save(out, "JPEG", quality=85)
+    return out.getvalue(), small.size
 
 
 def _timeline(report: ReturnReport, styles: dict[str, ParagraphStyle]) -> list[Flowable]:

@@ -50,6 +50,7 @@ from tracker.services.views import Done, View
 
 FORMATS = {".csv": "csv", ".tsv": "tsv", ".txt": "tsv", ".xlsx": "xlsx"}
 FIXED = ("slot", "kind", "item", "loaded")
+MAX_SLOT = 10_000  # columns in one batch: far beyond any rack of columns
 # Where a refusal from the position and cut rules points on the sheet.
 _COLUMN_OF = {"aliquot": "item", "reference-material": "item", "loaded-ug": "loaded"}
 _CHUNK = 500  # IDs per IN (...) list: well inside every backend's limit on parameters
@@ -120,13 +121,25 @@ def _read(request: EnterSheet) -> tuple[list[str], list[Row]]:
         raise InputError("FILE", request.filename, "name the sheet .csv, .tsv or .xlsx")
     try:
         header, rows = read_table(request.content, fmt)
+        # each row keeps only its filled cells (a blank reads as "" all the same), by the
+        # lower-case heading: a wide sheet's empty columns cost nothing once read
+        kept: list[Row] = []
+        for row in rows:
+            if len(kept) == MAX_SLOT:  # every row names its own column: the rest cannot fit
+                raise InputError(
+                    "FILE",
+                    request.filename,
+                    f"lists more than {MAX_SLOT:,} rows by row {row.number:,}; a batch holds "
+                    f"at most {MAX_SLOT:,} columns",
+                )
+            kept.append(Row(row.number, {k.lower(): v for k, v in row.cells.items() if v}))
     except TableError as exc:
+        if exc.column == "file":  # the whole file, not one of its cells
+            raise InputError("FILE", request.filename, exc.reason) from None
         raise InputError(at_cell(request.filename, exc.row, exc.column), None, exc.reason) from None
-    if not rows:
+    if not kept:
         raise InputError("FILE", request.filename, "lists no columns below its header")
-    return [h.lower() for h in header], [
-        Row(r.number, {k.lower(): v for k, v in r.cells.items()}) for r in rows
-    ]
+    return [h.lower() for h in header], kept
 
 
 def _cut_names(db: Database, batch: str) -> tuple[str, list[str]]:
@@ -352,7 +365,7 @@ def _positions(session: Session, batch: ColumnBatch) -> list[BatchPosition]:
 
 
 def _slot(text: str) -> int:
-    if not text.isdigit() or not 1 <= int(text) <= 10_000:
+    if not text.isdigit() or not 1 <= int(text) <= MAX_SLOT:
         raise InputError("slot", text, "is not a column number (1, 2, 3 ...)")
     return int(text)
 

@@ -12,7 +12,7 @@ import json
 from typing import Any
 
 from sqlalchemy import select
-from sqlalchemy.orm import selectinload
+from sqlalchemy.orm import selectinload, undefer
 
 from tracker.db.database import Database
 from tracker.domain.darwincore import is_term
@@ -60,7 +60,10 @@ def _specimens(db: Database, loan: str) -> list[Specimen]:
             select(Specimen)
             .where(Specimen.loan_id == row.id)
             .order_by(Specimen.id)
-            .options(selectinload(Specimen.powders).selectinload(Powder.solutions))
+            .options(
+                undefer(Specimen.extra),  # the lender's other terms travel in the export
+                selectinload(Specimen.powders).selectinload(Powder.solutions),
+            )
         )
         found = list(session.scalars(query))
         session.expunge_all()

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import hashlib
 import math
+from itertools import chain
 from typing import Annotated, Any, Literal, NamedTuple
 
 from pydantic import Field
@@ -186,16 +187,6 @@ def _checked_rows(request: ImportSession, profile: ProfileDefinition) -> list[_R
         return _read(request, profile)
 
 
-class _Run(NamedTuple):
-    """One row of an export, read and checked: what its measurement will hold."""
-
-    row: int
-    run: int
-    name: str
-    label: str | None
-    values: dict[str, Any]  # ratios and their errors, by ratio
-
-
 def _import(
     uow: UnitOfWork, request: ImportSession, profile: ProfileDefinition, rows: list[_Run]
 ) -> Done[SessionView]:
@@ -228,7 +219,8 @@ def _import(
             run_order=run.run,
             sample_name=run.name,
             created_at=uow.now,
-            **run.values,
+            ratios=run.ratios,
+            errors=run.errors,
         )
         uow.session.add(measurement)
         measurements.append(measurement)
@@ -292,8 +284,23 @@ def _require_standard_values(request: ImportSession, profile: ProfileDefinition)
         )
 
 
+class _Run(NamedTuple):
+    """One row of the export as the import keeps it: its place, run, names and numbers.
+
+    The row's cells are let go once these are read, so a session's rows cost their
+    values, not a dictionary of every cell of a wide export.
+    """
+
+    row: int
+    run: int
+    name: str
+    label: str | None
+    ratios: dict[str, float]
+    errors: dict[str, float]
+
+
 def _read(request: ImportSession, profile: ProfileDefinition) -> list[_Run]:
-    """Every row read and checked, in run order; every problem names row and column."""
+    """The rows by run order, their values read; every problem names row and column."""
     try:
         header, rows = read_table(
             request.content,
@@ -302,12 +309,30 @@ def _read(request: ImportSession, profile: ProfileDefinition) -> list[_Run]:
             sheet=profile.sheet,
             comment_prefix=profile.comment_prefix,
         )
+        # what is wrong with the file itself before its first row (a broken sheet, rows past
+        # a cap) is said first; then the profile is held against the header
+        first = next(rows, None)
+        _require_columns(header, profile.columns)
+        seen: dict[int, int] = {}
+        runs: list[_Run] = []
+        for row in chain([first] if first else [], rows):
+            if len(runs) == MAX_SESSION_ROWS:
+                raise InputError(
+                    "file",
+                    request.filename,
+                    f"has more than {MAX_SESSION_ROWS:,} rows of runs by row {row.number:,}; "
+                    f"sessions are capped at {MAX_SESSION_ROWS:,} runs: split the export",
+                )
+            runs.append(_run(row, profile.columns, seen))
     except TableError as exc:
         if exc.column in ("file", "sheet"):  # the whole file, not one of its cells
             value = request.filename if exc.column == "file" else profile.sheet
             raise InputError(exc.column, value, exc.reason) from None
         raise InputError(f"row {exc.row}, column {exc.column}", None, exc.reason) from None
-    columns = profile.columns
+    return sorted(runs, key=lambda run: run.run)
+
+
+def _require_columns(header: list[str], columns: ColumnMap) -> None:
     wanted = [
         columns.run_order,
         columns.sample_name,
@@ -322,21 +347,25 @@ def _read(request: ImportSession, profile: ProfileDefinition) -> list[_Run]:
                 name,
                 f"names a column the file lacks; the file has: {', '.join(header)}",
             )
-    seen: dict[int, int] = {}
-    result = []
-    for row in rows:
-        run = _run_order(row, columns.run_order)
-        if run in seen:
-            raise InputError(
-                f"row {row.number}, column {columns.run_order}",
-                run,
-                f"run number repeats row {seen[run]}",
-            )
-        seen[run] = row.number
-        name = _text(row, columns.sample_name)  # kept with the measurement, matched or not
-        label = _text(row, columns.sample_id) if columns.sample_id else None
-        result.append(_Run(row.number, run, name, label or None, _values(row, profile)))
-    return sorted(result, key=lambda item: item.run)
+
+
+def _run(row: Row, columns: ColumnMap, seen: dict[int, int]) -> _Run:
+    """One row read: its run number (not seen before), its names and its positive values."""
+    run = _run_order(row, columns.run_order)
+    if run in seen:
+        raise InputError(
+            f"row {row.number}, column {columns.run_order}",
+            run,
+            f"run number repeats row {seen[run]}",
+        )
+    seen[run] = row.number
+    name = _text(row, columns.sample_name)  # kept with the measurement, matched or not
+    label = _text(row, columns.sample_id) if columns.sample_id else None
+    ratios = {ratio: _positive(row, column) for ratio, column in columns.ratios.items()}
+    errors = {
+        ratio: _positive(row, column, allow_zero=True) for ratio, column in columns.errors.items()
+    }
+    return _Run(row.number, run, name, label or None, ratios, errors)
 
 
 def _text(row: Row, column: str) -> str:
@@ -345,6 +374,10 @@ def _text(row: Row, column: str) -> str:
 
 
 MAX_RUN = 999_999_999  # far beyond any session; keeps run numbers inside a 64-bit column
+# Runs in one session. A day on a multi-collector ICP-MS is a few hundred runs, an
+# autosampler's weekend a few thousand (common practice); every run becomes a measurement
+# row held in the import's one transaction (a few kilobytes each), so the cap bounds it.
+MAX_SESSION_ROWS = 20_000
 
 
 def _run_order(row: Row, column: str) -> int:
@@ -360,15 +393,6 @@ def _run_order(row: Row, column: str) -> int:
     if abs(value) > MAX_RUN:
         raise InputError(f"row {row.number}, column {column}", text, f"is beyond {MAX_RUN:,} runs")
     return int(value)
-
-
-def _values(row: Row, profile: ProfileDefinition) -> dict[str, Any]:
-    ratios = {name: _positive(row, column) for name, column in profile.columns.ratios.items()}
-    errors = {
-        name: _positive(row, column, allow_zero=True)
-        for name, column in profile.columns.errors.items()
-    }
-    return {"ratios": ratios, "errors": errors}
 
 
 def _positive(row: Row, column: str, *, allow_zero: bool = False) -> float:

@@ -1,22 +1,27 @@
 """Checking a lender's manifest row by row, in one pass that both previews and prepares.
 
 The preview a person reads and the rows an import writes come from the same pass: each
-row is checked once, and a clean row's specimen columns are validated once (all rows in
-one call, by the same model `specimen add` uses) and kept for the write. Nothing here
-touches the database: :func:`check_file` needs only the file (an import runs it before
-taking the writer lock), :func:`compare` the loan's specimens as they stand.
+row is checked once, and a clean row's specimen columns are validated once (a slice of
+rows in one call, by the same model `specimen add` uses) and kept for the write. Rows
+arrive as the file is read and are let go once checked, so memory follows what a write
+needs, not the file's cells. Nothing here touches the database: :func:`check_file` needs
+only the file (an import runs it before taking the writer lock); :func:`compare` is handed
+a way to find the loan's specimens that a slice of rows names.
 """
 
 from __future__ import annotations
 
+import json
 import re
-from collections.abc import Mapping
+from collections.abc import Callable, Iterable, Iterator, Mapping
 from dataclasses import dataclass
 from datetime import date
-from typing import Any, Literal
+from itertools import islice
+from typing import Any, Literal, TypeVar
 
 from pydantic import Field, TypeAdapter, ValidationError
 
+from tracker.domain.darwincore import extra_terms_problem
 from tracker.domain.models import Specimen
 from tracker.domain.spreadsheet import FORMULA_TRIGGERS, looks_like_formula
 from tracker.domain.tables import Row
@@ -49,7 +54,8 @@ _COLUMN_OF_FIELD = {
 
 # All clean rows validated in one call instead of one call (and one error path) per row.
 _SPECIMENS = TypeAdapter(list[NewSpecimen])
-Fields = dict[str, Any]  # a row's specimen columns, validated, in the file's column order
+# A row's specimen columns, validated, in the file's column order; "extra" packed (`unpacked`).
+Fields = dict[str, Any]
 
 
 class RowResult(View):
@@ -82,6 +88,13 @@ def header_problems(header: list[str]) -> list[str]:
     return found
 
 
+T = TypeVar("T")
+# Rows are checked a slice at a time, each slice as a whole (the bulk checks below), and
+# then let go: a slice holds about this many cells, whatever the file's width.
+SLICE_CELLS = 50_000
+Find = Callable[[list[str]], Mapping[str, Specimen]]  # catalogue numbers -> the loan's specimens
+
+
 @dataclass(frozen=True)
 class CheckedRow:
     """One row checked on its own: its problems, or its validated specimen columns."""
@@ -92,14 +105,46 @@ class CheckedRow:
     fields: Fields | None  # None for a row with problems
 
 
-def check_file(rows: list[Row], file_problem: list[str]) -> list[CheckedRow]:
+@dataclass(frozen=True)
+class Compared:
+    """The checked rows held against the loan: the preview's results and what a write needs."""
+
+    results: list[RowResult]
+    fields: dict[int, Fields]  # row number -> validated columns, for rows that write
+    updates: dict[str, Specimen]  # catalogue number -> the loan's specimen a row changes
+
+
+def check_file(header: list[str], rows: Iterable[Row], file_problem: list[str]) -> list[CheckedRow]:
     """Every row checked against the file alone (no database): run before any lock.
 
-    A clean row's specimen columns are validated here, all rows in one call, by the
-    model `specimen add` uses; :func:`compare` then says what each clean row changes.
+    Rows are taken a slice at a time; a clean row's specimen columns are validated with
+    its slice in one call, by the model `specimen add` uses, and only they are kept.
+    :func:`compare` then says what each clean row changes.
     """
-    columns = _Columns.of(list(rows[0].cells) if rows else [])
+    columns = _Columns.of(header)
     seen: dict[str, int] = {}
+    checked: list[CheckedRow] = []
+    for chunk in slices(rows, rows_per_slice(len(header))):
+        checked += _check_slice(chunk, columns, seen, file_problem)
+    return checked
+
+
+def rows_per_slice(columns: int) -> int:
+    """How many rows of this width make a slice of about SLICE_CELLS cells (at least one)."""
+    return max(1, SLICE_CELLS // max(1, columns))
+
+
+def slices(items: Iterable[T], size: int) -> Iterator[list[T]]:
+    """``items`` in lists of ``size`` (the last one shorter), read as they are used."""
+    iterator = iter(items)
+    while chunk := list(islice(iterator, size)):
+        yield chunk
+
+
+def _check_slice(
+    rows: list[Row], columns: _Columns, seen: dict[str, int], file_problem: list[str]
+) -> list[CheckedRow]:
+    """One slice of rows checked together; each clean row keeps its validated columns."""
     if file_problem or not _cells_all_read(rows, columns.typed):
         found = [_first_checks(row, seen, file_problem, columns.typed) for row in rows]
     else:  # the common case: only a catalogue number can still be wrong
@@ -107,9 +152,9 @@ def check_file(rows: list[Row], file_problem: list[str]) -> list[CheckedRow]:
     clean = [n for n, problems in enumerate(found) if not problems]
     validated = _validate(columns, [rows[n] for n in clean])
     fields: dict[int, Fields] = {}
-    for n, (checked, problem) in zip(clean, validated, strict=True):
+    for n, (values, problem) in zip(clean, validated, strict=True):
         if problem is None:
-            fields[n] = checked
+            fields[n] = values
         else:
             found[n].append(problem)
     return [
@@ -118,22 +163,25 @@ def check_file(rows: list[Row], file_problem: list[str]) -> list[CheckedRow]:
     ]
 
 
-def compare(
-    checked: list[CheckedRow], existing: Mapping[str, Specimen]
-) -> tuple[list[RowResult], dict[int, Fields]]:
+def compare(checked: list[CheckedRow], find: Find, size: int) -> Compared:
     """Every row's result for the preview, against the loan's specimens as they stand.
 
-    The second value maps a row number to what `write` needs for a row that creates or
-    updates a specimen; rows with problems or nothing to change are not in it.
+    ``find`` gives the loan's specimens among a slice's catalogue numbers, so only those
+    are ever loaded; rows with problems or nothing to change have no ``fields``.
     """
-    results = []
-    fields: dict[int, Fields] = {}
-    for row in checked:
-        result = _result(row.number, row.catalog, row.problems, row.fields, existing)
-        if result["action"] in ("create", "update") and row.fields is not None:
-            fields[row.number] = row.fields
-        results.append(result)
-    return _ROW_RESULTS.validate_python(results), fields
+    compared = Compared([], {}, {})
+    for chunk in slices(checked, size):
+        existing = find([row.catalog for row in chunk if row.fields is not None])
+        results = []
+        for row in chunk:
+            result = _result(row.number, row.catalog, row.problems, row.fields, existing)
+            if result["action"] in ("create", "update") and row.fields is not None:
+                compared.fields[row.number] = row.fields
+            if result["action"] == "update":
+                compared.updates[row.catalog] = existing[row.catalog]
+            results.append(result)
+        compared.results.extend(_ROW_RESULTS.validate_python(results))
+    return compared
 
 
 @dataclass(frozen=True)
@@ -274,24 +322,29 @@ def _validate(columns: _Columns, rows: list[Row]) -> list[tuple[Fields, str | No
     """Each row's specimen columns validated like `specimen add`, or the row's first problem.
 
     Columns the file does not have are left out (an update never blanks them); other
-    headings become extra terms, kept with the specimen. All rows go to pydantic in
-    one call; only when some row fails are the others validated again, without it.
+    headings become extra terms, kept with the specimen within the caps on extra terms.
+    All rows go to pydantic in one call; only when some row fails are the others
+    validated again, without it.
     """
     present = [_present(columns, row.cells) for row in rows]
+    said: dict[int, str] = {}
+    for n, candidate in enumerate(present):
+        problem = extra_terms_problem(candidate["extra"])
+        if problem is not None:
+            said[n] = f"extra terms: {problem}"
+    keep = [n for n in range(len(present)) if n not in said]
     try:
-        specimens = _SPECIMENS.validate_python(present)
+        specimens = _SPECIMENS.validate_python([present[n] for n in keep])
     except ValidationError as exc:
-        first: dict[int, Any] = {}
         for error in exc.errors(include_url=False):
-            first.setdefault(int(error["loc"][0]), error)  # (row in the list, field)
-        good = iter(
-            _SPECIMENS.validate_python([p for n, p in enumerate(present) if n not in first])
-        )
-        return [
-            ({}, _said(first[n])) if n in first else (_fields(columns.keys, next(good)), None)
-            for n in range(len(present))
-        ]
-    return [(_fields(columns.keys, specimen), None) for specimen in specimens]
+            said.setdefault(keep[int(error["loc"][0])], _said(error))  # (row in the list, field)
+        keep = [n for n in keep if n not in said]
+        specimens = _SPECIMENS.validate_python([present[n] for n in keep])
+    good = dict(zip(keep, specimens, strict=True))
+    return [
+        (_fields(columns.keys, good[n]), None) if n in good else ({}, said[n])
+        for n in range(len(present))
+    ]
 
 
 def _present(columns: _Columns, cells: dict[str, str]) -> dict[str, Any]:
@@ -306,13 +359,23 @@ def _present(columns: _Columns, cells: dict[str, str]) -> dict[str, Any]:
 
 
 def _fields(keys: list[str], specimen: NewSpecimen) -> Fields:
-    """The validated columns the file has, in its order.
+    """The validated columns the file has, in its order, the extra terms packed as JSON text.
 
     A pydantic model keeps its field values in ``__dict__``; they are read there
-    rather than through one getattr per column of each of 20,000 rows.
+    rather than through one getattr per column of each of 20,000 rows. A row's extra
+    terms are most of a wide list's cells: kept as one text until they are compared
+    (an update) or written, they cost about their characters rather than a dictionary
+    entry and a string each.
     """
     values = vars(specimen)
-    return {key: values[key] for key in keys}
+    fields = {key: values[key] for key in keys}
+    fields["extra"] = json.dumps(fields["extra"], ensure_ascii=False, separators=(",", ":"))
+    return fields
+
+
+def unpacked(fields: Fields) -> Fields:
+    """A checked row's columns as a specimen takes them: its extra terms a mapping again."""
+    return {**fields, "extra": json.loads(fields["extra"])}
 
 
 def _said(error: Any) -> str:
@@ -366,7 +429,7 @@ def _changes(current: Specimen, fields: Fields) -> dict[str, list[Any]]:
         for k, v in fields.items()
         if k != "extra" and getattr(current, k) != v
     }
-    for term, value in fields.get("extra", {}).items():
+    for term, value in json.loads(fields["extra"]).items():
         if current.extra.get(term) != value:
             changes[f"extra.{term}"] = [current.extra.get(term), value]
     return changes

@@ -11,19 +11,21 @@ from __future__ import annotations
 
 import hashlib
 from collections import Counter
+from collections.abc import Iterator
+from contextlib import contextmanager
 from dataclasses import dataclass
 from typing import Annotated, Any, Literal
 
 from pydantic import BaseModel, ConfigDict, Field
 from sqlalchemy import select
-from sqlalchemy.orm import Session
+from sqlalchemy.orm import Session, undefer
 
 from tracker.db.database import Database
 from tracker.db.rows import insert_rows
 from tracker.domain.errors import InputError, NotFound, RuleViolation, at_cell
 from tracker.domain.ids import Kind, format_id
 from tracker.domain.models import Loan, LoanStatus, MappingProfile, Specimen, SpecimenStatus
-from tracker.domain.tables import Row, TableError, read_table
+from tracker.domain.tables import Row, Table, TableError, read_table
 from tracker.services.bulk import collector_paused
 from tracker.services.common import finish
 from tracker.services.inputs import Name, Raw, Request, parse
@@ -36,6 +38,8 @@ from tracker.services.manifest_check import (
     check_file,
     compare,
     header_problems,
+    rows_per_slice,
+    unpacked,
 )
 from tracker.services.manifest_check import RowResult as RowResult
 from tracker.services.uow import unit_of_work
@@ -246,9 +250,11 @@ def _mapping(session: Session, name: str | None) -> ManifestMapping:
     return mapping
 
 
-def _rows(request: ManifestRequest, mapping: ManifestMapping) -> tuple[list[str], list[Row]]:
+def _table(request: ManifestRequest, mapping: ManifestMapping) -> Table:
+    """The file's headings (as terms, through the mapping) and its rows, read as they are used."""
     fmt = mapping.format if request.mapping else _format_of(request.filename)
-    try:
+    rename = {heading: term for term, heading in mapping.columns.items()}
+    with _as_input(request.filename):
         header, rows = read_table(
             request.content,
             fmt,
@@ -257,23 +263,34 @@ def _rows(request: ManifestRequest, mapping: ManifestMapping) -> tuple[list[str]
             comment_prefix=None,
             keep_formulas=True,  # flagged row by row in the preview instead
         )
+    return Table([rename.get(h, h) for h in header], _renamed(request.filename, rows, rename))
+
+
+def _renamed(filename: str, rows: Iterator[Row], rename: dict[str, str]) -> Iterator[Row]:
+    """The rows under their terms, at most MAX_ROWS of them; a reading problem named in the file."""
+    with _as_input(filename):
+        for count, row in enumerate(rows, start=1):
+            if count > MAX_ROWS:
+                raise InputError(
+                    "file",
+                    filename,
+                    f"has more than {MAX_ROWS:,} rows; split it into files of at most {MAX_ROWS:,}",
+                )
+            if rename:
+                row = Row(row.number, {rename.get(k, k): v for k, v in row.cells.items()})
+            yield row
+
+
+@contextmanager
+def _as_input(filename: str) -> Iterator[None]:
+    """A problem reading the table, said as a refusal of the file (or of its row and column)."""
+    try:
+        yield
     except TableError as exc:
         if exc.column == "file":
-            raise InputError("file", request.filename, exc.reason) from None
-        where = at_cell(request.filename, exc.row, exc.column)
+            raise InputError("file", filename, exc.reason) from None
+        where = at_cell(filename, exc.row, exc.column)
         raise InputError(where, None, exc.reason) from None
-    if len(rows) > MAX_ROWS:
-        raise InputError(
-            "file",
-            request.filename,
-            f"has {len(rows)} rows; split it into files of at most {MAX_ROWS}",
-        )
-    rename = {heading: term for term, heading in mapping.columns.items()}
-    if not rename:
-        return header, rows
-    header = [rename.get(h, h) for h in header]
-    rows = [Row(r.number, {rename.get(k, k): v for k, v in r.cells.items()}) for r in rows]
-    return header, rows
 
 
 def _format_of(filename: str) -> str:
@@ -292,12 +309,17 @@ class _Reading:
     rows: list[CheckedRow]
     sha256: str
 
+    @property
+    def slice_rows(self) -> int:
+        """Rows held against the loan together, and written together."""
+        return rows_per_slice(len(self.header))
+
 
 def _read_file(request: ManifestRequest, mapping: ManifestMapping) -> _Reading:
-    header, rows = _rows(request, mapping)
+    header, rows = _table(request, mapping)
     problems = header_problems(header)
     digest = hashlib.sha256(request.content).hexdigest()
-    return _Reading(header, problems, check_file(rows, problems), digest)
+    return _Reading(header, problems, check_file(header, rows, problems), digest)
 
 
 @dataclass(frozen=True)
@@ -306,18 +328,26 @@ class _Examined:
 
     loan: Loan
     preview: ManifestPreview
-    existing: dict[str, Specimen]  # the loan's specimens by catalogue number
+    updates: dict[str, Specimen]  # the loan's specimens the file changes, by catalogue number
     fields: dict[int, Fields]  # row number -> validated columns, for rows that write
+    slice_rows: int  # rows written together
 
 
 def _examine(session: Session, request: ManifestRequest, reading: _Reading) -> _Examined:
     """The checked rows against the loan's specimens as they stand: the preview."""
     loan = get_loan(session, "loan", request.loan)
-    existing = {
-        s.catalog_number: s
-        for s in session.scalars(select(Specimen).where(Specimen.loan_id == loan.id))
-    }
-    results, fields = compare(reading.rows, existing)
+
+    def find(catalogs: list[str]) -> dict[str, Specimen]:
+        """The loan's specimens among these, with their extra terms (a row may change them)."""
+        query = (
+            select(Specimen)
+            .where(Specimen.loan_id == loan.id, Specimen.catalog_number.in_(catalogs))
+            .options(undefer(Specimen.extra))
+        )
+        return {s.catalog_number: s for s in session.scalars(query)} if catalogs else {}
+
+    compared = compare(reading.rows, find, reading.slice_rows)
+    results = compared.results
     header = reading.header
     extra = sorted(h for h in header if h not in TERM_FIELDS and h not in OWN_FIELDS)
     problems = sum(len(r.problems) for r in results)
@@ -334,7 +364,7 @@ def _examine(session: Session, request: ManifestRequest, reading: _Reading) -> _
         problems=problems,
         kept_as_extra=extra,
     )
-    return _Examined(loan, preview, existing, fields)
+    return _Examined(loan, preview, compared.updates, compared.fields, reading.slice_rows)
 
 
 def _write(
@@ -347,7 +377,7 @@ def _write(
         if result.action == "create":
             new.append(examined.fields[result.row])
         elif result.action == "update":
-            specimen = examined.existing[result.catalog_number or ""]
+            specimen = examined.updates[result.catalog_number or ""]
             extra = dict(specimen.extra)
             for name, (_, value) in result.changes.items():
                 if name.startswith("extra."):
@@ -356,19 +386,23 @@ def _write(
                     setattr(specimen, name, value)
             specimen.extra = extra
             updated.append(specimen.public_id)
-    return _insert(session, loan_id, new, now), updated
+    return _insert(session, loan_id, new, examined.slice_rows, now), updated
 
 
-def _insert(session: Session, loan_id: int, new: list[Fields], now: Any) -> list[str]:
-    """Insert the new specimens in one driver executemany and return their IDs, in file order.
+def _insert(session: Session, loan_id: int, new: list[Fields], size: int, now: Any) -> list[str]:
+    """Insert the new specimens and return their IDs, in file order.
 
-    What every new row shares (loan, status, creation time) is written into the statement
-    once. The IDs are then read back by catalogue number, which is unique within a loan.
+    The rows go a slice at a time (as many as were checked together), each slice one
+    driver executemany with its rows' extra terms unpacked only for it; what every new
+    row shares (loan, status, creation time) is written into the statement once. The IDs
+    are then read back by catalogue number, which is unique within a loan.
     """
     if not new:
         return []
     shared = {"loan_id": loan_id, "status": SpecimenStatus.EXPECTED, "created_at": now}
-    insert_rows(session.connection(), _SPECIMEN, new, shared)
+    for start in range(0, len(new), size):
+        rows = [unpacked(fields) for fields in new[start : start + size]]
+        insert_rows(session.connection(), _SPECIMEN, rows, shared)
     ids = dict(
         session.execute(
             select(Specimen.catalog_number, Specimen.id).where(Specimen.loan_id == loan_id)

@@ -8,6 +8,7 @@ can say which parcel carried what.
 from __future__ import annotations
 
 import io
+import warnings
 from datetime import date
 from typing import Annotated, Literal
 
@@ -25,6 +26,7 @@ from tracker.domain.models import (
     Specimen,
     SpecimenPhoto,
 )
+from tracker.domain.photos import MAX_PHOTO_PIXELS, PHOTO_FORMATS, photo_pixels_problem
 from tracker.domain.timing import Since
 from tracker.services.amendments import Upload, store_document
 from tracker.services.common import action_time, checked_in, finish, loan_began
@@ -32,8 +34,6 @@ from tracker.services.inputs import AwareDatetime, Raw, Request, Text, parse
 from tracker.services.lookup import get_by_id, get_loan
 from tracker.services.uow import unit_of_work
 from tracker.services.views import DocumentView, Done, View
-
-PHOTO_FORMATS = ("JPEG", "PNG", "TIFF", "WEBP")  # Pillow's format names
 
 
 class ShipmentView(View):
@@ -149,19 +149,41 @@ def _photo_after(specimen: Specimen) -> list[Since]:
 
 
 def _require_image(upload: Upload) -> None:
-    """The bytes must decode as a JPEG, PNG, TIFF or WebP image, whatever the file is called."""
+    """The bytes must be a JPEG, PNG, TIFF or WebP photograph within the pixel cap.
+
+    Image.open reads the header only; the size is checked there, before verify() reads
+    the rest of the file, and no pixel is decoded. Pillow's own decompression-bomb
+    warning is left unsaid (the cap below it says more), and its error, raised for a
+    header declaring more than twice its limit, is turned into the same refusal.
+    """
     from PIL import Image, UnidentifiedImageError  # Pillow comes with qrcode[pil]
 
+    bomb = Image.DecompressionBombWarning
     try:
-        with Image.open(io.BytesIO(upload.content)) as image:
-            image.verify()
-            kind = image.format
+        with (
+            warnings.catch_warnings(action="ignore", category=bomb),
+            Image.open(io.BytesIO(upload.content)) as image,
+        ):
+            kind, size = image.format, image.size
+            if kind in PHOTO_FORMATS and photo_pixels_problem(*size) is None:
+                image.verify()
+    except Image.DecompressionBombError:
+        declared = 2 * (Image.MAX_IMAGE_PIXELS or 0)
+        raise InputError(
+            "photo",
+            upload.filename,
+            f"declares more than {declared:,} pixels; photographs are capped at "
+            f"{MAX_PHOTO_PIXELS:,} pixels: keep a smaller copy",
+        ) from None
     except (UnidentifiedImageError, OSError, SyntaxError, ValueError):
         raise InputError(
             "photo", upload.filename, "is not a readable image; photos are JPEG, PNG, TIFF or WebP"
         ) from None
     if kind not in PHOTO_FORMATS:
         raise InputError("photo", upload.filename, f"is {kind}; photos are JPEG, PNG, TIFF or WebP")
+    problem = photo_pixels_problem(*size)
+    if problem is not None:
+        raise InputError("photo", upload.filename, problem)
 
 
 def _photos(session: Session, specimen_id: int) -> list[SpecimenPhoto]:

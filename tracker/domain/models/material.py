@@ -50,7 +50,10 @@ class Specimen(HasPublicId, Base):
     latest_epoch: Mapped[str | None] = mapped_column(String(60))  # dwc:latestEpochOrHighestSeries
     age_max_ma: Mapped[float | None]  # oldest stratigraphic age, Ma
     age_min_ma: Mapped[float | None]  # youngest stratigraphic age, Ma
-    extra: Mapped[dict[str, Any]] = mapped_column(default=dict)  # other Darwin Core terms
+    # Other terms of the lender's list: as large as a lender's row (within the caps in
+    # domain/darwincore.py), read only by exports and manifest updates, which undefer them;
+    # any other load of specimens (a loan's tree, reports, scans) leaves them in the database.
+    extra: Mapped[dict[str, Any]] = mapped_column(default=dict, deferred=True)
     status: Mapped[SpecimenStatus] = mapped_column(
         enum_type(SpecimenStatus), default=SpecimenStatus.EXPECTED
     )
