@@ -146,7 +146,7 @@ def _reason(char: str, multiline: bool) -> str:
     elif category == "Cn":
         why = f"not a character in Unicode {unicodedata.unidata_version}"
     elif category == "Zs":
-        why = "a space that looks like an ordinary one but is not; type an ordinary space"
+        return f"holds {called}, a space that looks like an ordinary one; type an ordinary space"
     else:
         why = "an invisible mark that would make look-alike names and numbers"
     return f"holds {called}, {why}; remove it"
