@@ -2,7 +2,8 @@
 
 ``db`` is parametrised over SQLite and PostgreSQL: every test that takes it runs
 on both backends, each time on a fresh database copied from a template that
-already holds the schema, a manager (``boss``) and a technician (``tech``).
+already holds the schema, a manager (``boss``) and a technician (``tech``), each with
+a registered signing key (``tests/keys.py``: unlocked in every test).
 """
 
 from __future__ import annotations
@@ -21,6 +22,7 @@ from hypothesis import settings
 from sqlalchemy import create_engine, func, select, text
 from sqlalchemy.engine import make_url
 
+from tests import keys
 from tests.pg import private_cluster, server_binaries
 from tracker.db.database import Database, open_database
 from tracker.domain.base import Base
@@ -49,10 +51,31 @@ class TickingClock:
         return self.now
 
 
+@pytest.fixture(scope="session", autouse=True)
+def _signing_keys(tmp_path_factory: pytest.TempPathFactory) -> Iterator[None]:
+    """A config folder of the session's own with the seeded operators' key files, and the
+    passphrase that unlocks them where a command runs in a child process."""
+    with pytest.MonkeyPatch.context() as patch:
+        patch.setenv("TRACKER_CONFIG_DIR", str(tmp_path_factory.mktemp("config")))
+        patch.setenv("TRACKER_PASSPHRASE", keys.PASSPHRASE)
+        patch.delenv("TRACKER_PASSPHRASE_FILE", raising=False)
+        keys.write_key_files()
+        yield
+
+
+@pytest.fixture(autouse=True)
+def _unlocked() -> None:
+    """Every test starts with the invented keys unlocked (a test may lock them)."""
+    keys.unlock_all()
+
+
 def seed(target: str) -> None:
-    """Schema, a manager (boss), a technician (tech) and their ledger events."""
-    db = setup.init_database(target, {"code": "boss", "name": "Bea Oswald"}, TickingClock())
-    setup.add_operator(db, "boss", {"code": "tech", "name": "Teo Chandler", "role": "technician"})
+    """Schema, a manager (boss), a technician (tech), their keys and ledger events."""
+    db = setup.init_database(
+        target, {"code": "boss", "name": "Bea Oswald"}, TickingClock(), signer=keys.signer("boss")
+    )
+    tech = {"code": "tech", "name": "Teo Chandler", "role": "technician"}
+    setup.add_operator(db, "boss", tech | {"public_key": keys.signer("tech").public_hex})
     db.close()
 
 

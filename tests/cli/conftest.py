@@ -108,7 +108,19 @@ def build_lab(path: Path) -> Lab:
         return ok_json(invoke(*args, db=path, actor=actor, as_json=True))
 
     run("init", "--code", manager, "--name", "Ysolde Marrin", actor=None)
-    run("operator", "add", tech, "--name", "Bram Okonjo", "--role", "technician")
+    public = path.with_name(f"{tech}.pub")  # the technician makes a key, the manager adds it
+    run("key", "new", "--out", str(public), actor=tech)
+    run(
+        "operator",
+        "add",
+        tech,
+        "--name",
+        "Bram Okonjo",
+        "--role",
+        "technician",
+        "--key",
+        str(public),
+    )
     building = run("location", "add", "building", "Annex K")["item"]["id"]
     room = run("location", "add", "room", "K-104", "--in", building)["item"]["id"]
     box = run("location", "add", "box", "Box 3", "--in", room)["item"]["id"]

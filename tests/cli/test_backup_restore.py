@@ -108,7 +108,7 @@ def test_restore_refuses_a_backup_older_than_the_anchor(lab: Lab, tmp_path: Path
     ok_json(invoke("backup", str(copy), db=lab.path, as_json=True))
     _add_building(lab, "Annex anchored")
     anchor = tmp_path / "head.json"
-    ok_json(invoke("ledger", "anchor", "--out", str(anchor), db=lab.path, as_json=True))
+    ok_json(invoke("ledger", "anchor", "--out", str(anchor), db=lab.path, actor=lab.manager, as_json=True))
     before = lab.path.read_bytes()
     result = invoke(
         "restore",
@@ -170,10 +170,13 @@ def test_restore_refusals_are_one_line_and_change_nothing(
 
 
 WRITER = """
-import sys
+import os, sys
 from tracker.db.database import open_database
-from tracker.services import setup
+from tracker.services import keys, setup
 db = open_database(sys.argv[1])
+key_file = keys.key_to_unlock(db, sys.argv[3])  # a script unlocks its key like the CLI
+if key_file is not None:
+    keys.unlock_file(db, key_file, os.environ["TRACKER_PASSPHRASE"])
 for n in range(int(sys.argv[2])):
     setup.add_location(db, sys.argv[3], {"kind": "building", "name": f"Busy hall {n}"})
 db.close()

@@ -50,18 +50,10 @@ def test_a_technician_corrects_their_own_weighing_and_show_has_both(lab: Lab) ->
 def test_correcting_someone_elses_entry_is_refused_in_one_line_until_a_manager_does_it(
     lab: Lab,
 ) -> None:
-    ok_json(
-        invoke(
-            "operator",
-            "add",
-            "wren",
-            "--name",
-            "Wren Tallis",
-            db=lab.path,
-            actor=lab.manager,
-            as_json=True,
-        )
-    )
+    public = lab.path.with_name("wren.pub")
+    ok_json(invoke("key", "new", "--out", str(public), actor="wren", as_json=True))
+    named = ("--name", "Wren Tallis", "--key", str(public))
+    ok_json(invoke("operator", "add", "wren", *named, db=lab.path, actor=lab.manager, as_json=True))
     argv = (
         "correct",
         "concentration",

@@ -19,7 +19,7 @@ def test_anchor_then_verify_passes_and_a_rolled_back_copy_fails(lab: Lab, tmp_pa
         )
     )
     anchor = tmp_path / "head.json"
-    written = ok_json(invoke("ledger", "anchor", "--out", str(anchor), db=lab.path, as_json=True))
+    written = ok_json(invoke("ledger", "anchor", "--out", str(anchor), db=lab.path, actor=lab.manager, as_json=True))
     assert json.loads(anchor.read_text())["seq"] == written["seq"]
     validate(json.loads(anchor.read_text()), "anchor.schema.json")
 
@@ -35,7 +35,7 @@ def test_anchor_then_verify_passes_and_a_rolled_back_copy_fails(lab: Lab, tmp_pa
 
 
 def test_anchor_to_stdout_is_the_anchor_file_itself(lab: Lab) -> None:
-    result = invoke("ledger", "anchor", db=lab.path)
+    result = invoke("ledger", "anchor", db=lab.path, actor=lab.manager)
     assert result.exit_code == 0
     record = json.loads(result.stdout)
     connection = sqlite3.connect(lab.path)
@@ -43,7 +43,8 @@ def test_anchor_to_stdout_is_the_anchor_file_itself(lab: Lab) -> None:
         "SELECT seq, hash FROM custody_event ORDER BY seq DESC LIMIT 1"
     ).fetchone()
     connection.close()
-    assert (record["format"], record["seq"], record["hash"]) == ("tracker-anchor/1", seq, digest)
+    assert (record["format"], record["seq"], record["hash"]) == ("tracker-anchor/2", seq, digest)
+    assert record["signed_by"] == lab.manager
 
 
 def test_a_file_that_is_not_an_anchor_is_one_line_exit_2(lab: Lab, tmp_path: Path) -> None:

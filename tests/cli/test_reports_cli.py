@@ -171,7 +171,8 @@ def test_each_report_is_one_event_naming_its_file_and_head(
     anchor_file = m.path.with_name(f"{m.path.name}.anchor.json")
     anchor = json.loads(anchor_file.read_text())
     assert (anchor["seq"], anchor["hash"]) == (head["seq"], head["hash"])
-    assert anchor["format"] == "tracker-anchor/1" and loan in anchor["label"]
+    assert anchor["format"] == "tracker-anchor/2" and loan in anchor["label"]
+    assert anchor["signed_by"] == "ines"  # the demo's manager wrote the report
     assert invoke("ledger", "verify", "--anchor", str(anchor_file), db=made["db"]).exit_code == 0
     # and the file itself shows that head
     if fmt == "json":

@@ -64,7 +64,19 @@ def test_full_session_through_the_cli(tmp_path: Path) -> None:
     assert opened["operator"] == MANAGER and opened["role"] == "manager"
     assert s.path.exists()
 
-    op = s.write("operator", "add", TECH, "--name", "Wenna Driscoll", "--role", "technician")
+    public = tmp_path / f"{TECH}.pub"
+    assert ok_json(invoke("key", "new", "--out", str(public), actor=TECH, as_json=True))
+    op = s.write(
+        "operator",
+        "add",
+        TECH,
+        "--name",
+        "Wenna Driscoll",
+        "--role",
+        "technician",
+        "--key",
+        str(public),
+    )
     assert (op["code"], op["role"], op["active"]) == (TECH, "technician", True)
     assert op["id"].startswith("OP-")
 

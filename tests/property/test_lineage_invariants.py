@@ -20,6 +20,7 @@ from hypothesis.stateful import Bundle, RuleBasedStateMachine, invariant, rule
 from sqlalchemy import func, select
 
 from tests import factories as make
+from tests import keys
 from tests.conftest import TickingClock
 from tracker.db.database import open_database
 from tracker.domain.budget import COVERAGE_FACTOR, Amount, total
@@ -35,8 +36,13 @@ def _template() -> Path:
     global _TEMPLATE
     if _TEMPLATE is None:
         _TEMPLATE = Path(tempfile.mkdtemp(prefix="tracker-prop-")) / "t.sqlite"
-        db = setup.init_database(_TEMPLATE, {"code": "boss", "name": "Bea Oswald"}, TickingClock())
-        setup.add_operator(db, "boss", {"code": "tech", "name": "Teo Chandler"})
+        db = setup.init_database(
+            _TEMPLATE,
+            {"code": "boss", "name": "Bea Oswald"},
+            TickingClock(),
+            signer=keys.signer("boss"),
+        )
+        setup.add_operator(db, "boss", keys.person("tech", "Teo Chandler"))
         db.close()
     return _TEMPLATE
 

@@ -8,9 +8,10 @@ import pytest
 from sqlalchemy import text
 
 from tests import factories as make
+from tests import keys
 from tracker.db.database import Database
 from tracker.domain.errors import InputError
-from tracker.services import ledger, setup
+from tracker.services import authority, ledger, setup
 from tracker.services.uow import append_event
 
 
@@ -31,7 +32,7 @@ def _delete_events_after(db: Database, seq: int) -> None:
 
 
 def test_anchor_holds_while_the_ledger_grows(db: Database, tmp_path: Path) -> None:
-    kept = ledger.write_anchor(db, tmp_path / "head.json").anchor
+    kept = ledger.write_anchor(db, "boss", tmp_path / "head.json").anchor
     make.specimen(db, make.loan(db))
     report = ledger.verify_against(db, ledger.read_anchor(tmp_path / "head.json"))
     assert report.ok and report.chain.head_seq > kept.seq
@@ -43,7 +44,7 @@ def test_deleting_the_newest_events_passes_the_chain_but_fails_the_anchor(
     make.loan(db)
     cut_at = ledger.verify(db).head_seq
     make.specimen(db, make.loan(db))
-    anchor = ledger.write_anchor(db, tmp_path / "head.json").anchor
+    anchor = ledger.write_anchor(db, "boss", tmp_path / "head.json").anchor
     _drop_append_only_triggers(db)
     _delete_events_after(db, cut_at)
 
@@ -59,7 +60,7 @@ def test_events_cut_and_re_appended_with_valid_hashes_fail_the_anchor(
 ) -> None:
     """A careful tamperer rebuilds the tail with valid hashes: the chain passes, the anchor not."""
     make.specimen(db, make.loan(db))
-    anchor = ledger.write_anchor(db, tmp_path / "head.json").anchor
+    anchor = ledger.write_anchor(db, "boss", tmp_path / "head.json").anchor
     _drop_append_only_triggers(db)
     _delete_events_after(db, anchor.seq - 2)
     with db.write_session() as session, session.begin():
@@ -72,6 +73,8 @@ def test_events_cut_and_re_appended_with_valid_hashes_fail_the_anchor(
                 object_ref="",
                 parent_ref="",
                 payload={"n": n},
+                signer=keys.signer("boss"),
+                origin=authority.origin(session, db),
             )
     assert ledger.verify(db).ok
     report = ledger.verify_against(db, anchor)
@@ -79,9 +82,10 @@ def test_events_cut_and_re_appended_with_valid_hashes_fail_the_anchor(
 
 
 def test_an_anchor_from_another_database_is_recognised(db: Database, tmp_path: Path) -> None:
-    other = setup.init_database(tmp_path / "other.sqlite", {"code": "x", "name": "Xan Other"})
+    first = {"code": "x", "name": "Xan Other"}
+    other = setup.init_database(tmp_path / "other.sqlite", first, signer=keys.signer("x"))
     try:
-        foreign = ledger.current_anchor(other)
+        foreign = ledger.current_anchor(other, "x")
     finally:
         other.close()
     report = ledger.verify_against(db, foreign)

@@ -14,6 +14,7 @@ from sqlalchemy import Engine, event, text
 from typer.testing import CliRunner
 
 from tests import factories as make
+from tests import keys
 from tests.cli.conftest import CLEAN_ENV
 from tests.conftest import snapshot_counts
 from tests.reliability.report import record
@@ -258,7 +259,9 @@ def test_a_fresh_database_verifies_and_an_uninitialised_one_is_not_restored(
 ) -> None:
     """`tracker init` writes event 1, so a fresh database, and its backup, verify; a file
     with the schema but no ledger is reported broken by `backup` and refused by `restore`."""
-    fresh = setup.init_database(tmp_path / "fresh.sqlite", {"code": "amy", "name": "Amy Test"})
+    fresh = setup.init_database(
+        tmp_path / "fresh.sqlite", {"code": "amy", "name": "Amy Test"}, signer=keys.signer("amy")
+    )
     try:
         report = ledger.verify(fresh)
         assert report.ok and report.events == 1

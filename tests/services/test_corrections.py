@@ -9,6 +9,7 @@ import pytest
 from sqlalchemy import select
 
 from tests import factories as make
+from tests import keys
 from tests.services.test_instrument import STD, bench, delta_row, do_import, export
 from tracker.db.database import Database
 from tracker.domain.errors import InputError, RuleViolation
@@ -72,7 +73,7 @@ def test_powder_correction_keeps_the_original_and_totals_use_the_latest(db: Data
 def test_another_operators_entry_needs_a_manager_and_the_refusal_says_so(
     db: Database, counts: Counts
 ) -> None:
-    setup.add_operator(db, "boss", {"code": "tova", "name": "Tova Lind", "role": "technician"})
+    setup.add_operator(db, "boss", keys.person("tova", "Tova Lind"))
     powder = make.powder(db, make.specimen(db, make.loan(db)), "2.000")
     before = counts()
     with pytest.raises(RuleViolation) as caught:

@@ -14,6 +14,7 @@ from sqlalchemy import create_engine, text
 from sqlalchemy.engine import make_url
 
 from tests import factories as make
+from tests import keys
 from tests.conftest import TickingClock
 from tracker.db import migrate
 from tracker.db.database import Database, open_database, upgrade_database
@@ -21,6 +22,7 @@ from tracker.db.engine import build_engine, create_private_file
 from tracker.domain.base import Base
 from tracker.domain.errors import RuleViolation
 from tracker.domain.ids import check_character
+from tracker.services import keys as keys_service
 from tracker.services import lineage, setup
 from tracker.services.ledger import verify
 
@@ -56,7 +58,7 @@ def test_old_sqlite_file_is_backed_up_and_upgraded_on_open(tmp_path: Path) -> No
     with db.engine.connect() as conn:
         assert migrate.current_revision(conn) == migrate.REVISIONS[0]
     _write_first_revision_rows(db)
-    head_before = verify(db)
+    head_before = _head(db)
     db.close()
 
     path = tmp_path / "old.sqlite"
@@ -64,12 +66,20 @@ def test_old_sqlite_file_is_backed_up_and_upgraded_on_open(tmp_path: Path) -> No
     try:
         with reopened.engine.connect() as conn:
             assert migrate.current_revision(conn) == migrate.HEAD
-        assert verify(reopened) == head_before
+        upgraded = verify(reopened)
+        assert upgraded.ok and (upgraded.head_seq, upgraded.head_hash) == head_before
         specimen = lineage.show_item(reopened, "SP-00001-" + check_character("SP00001")).item
         assert specimen.children[0].facts["mass_mg"] == pytest.approx(2.15)
-        # the upgraded file takes new writes through today's services
+        assert (upgraded.unsigned, upgraded.signed) == (3, 0)  # never "valid"
+        # the upgraded file takes new writes through today's services, once a manager has
+        # registered the first key (it signs its own registration)
+        first = {"operator": "boss", "public_key": keys.signer("boss").public_hex}
+        keys_service.register_key(reopened, "boss", first)
+        second = {"operator": "tech", "public_key": keys.signer("tech").public_hex}
+        keys_service.register_key(reopened, "boss", second)
         make.powder(reopened, make.specimen(reopened, make.loan(reopened)))
-        assert verify(reopened).ok
+        after = verify(reopened)
+        assert after.ok and after.unsigned == 3 and after.signing_since == 4
     finally:
         reopened.close()
     backup = tmp_path / f"old.sqlite.bak-{migrate.REVISIONS[0]}"
@@ -98,23 +108,50 @@ _FIRST_REVISION_ROWS = [
 ]
 
 
+# The people as the first release's ledger recorded them, and a drill.
+_FIRST_REVISION_EVENTS = (
+    ("ledger.opened", {"operator": "boss", "role": "manager"}),
+    ("operator.added", {"code": "tech", "name": "Teo Chandler", "role": "technician"}),
+    ("powder.drilled", {"step": 3}),
+)
+
+
+def _head(db: Database) -> tuple[int, str]:
+    """The newest event's number and hash, read with the schema the database has."""
+    with db.engine.connect() as conn:
+        row = conn.execute(text("SELECT seq, hash FROM custody_event ORDER BY seq DESC")).first()
+    assert row is not None
+    return int(row[0]), str(row[1])
+
+
 def _write_first_revision_rows(db: Database) -> None:
-    from tracker.services.uow import append_event
+    """The rows, and two events as the first release hashed them (format 1, unsigned)."""
+    from tracker.domain.ledger import GENESIS_HASH, canonical_json, event_hash
 
     with db.write_session() as session, session.begin():
         now = db.clock()
         for statement in _FIRST_REVISION_ROWS:
             session.execute(text(statement), {"now": now.replace(tzinfo=None)})
-        for seq, action in enumerate(("ledger.opened", "powder.drilled"), start=1):
-            append_event(
-                session,
-                at=now,
-                operator="boss",
-                action=action,
-                object_ref="",
-                parent_ref="",
-                payload={"step": seq},
+        prev = GENESIS_HASH
+        for seq, (action, facts) in enumerate(_FIRST_REVISION_EVENTS, start=1):
+            payload = canonical_json(facts)
+            digest = event_hash(seq, now, "boss", action, "", "", prev, payload)
+            session.execute(
+                text(
+                    "INSERT INTO custody_event (seq, at, operator, action, object_ref, "
+                    "parent_ref, payload, prev_hash, hash) VALUES (:seq, :at, 'boss', :action, "
+                    "'', '', :payload, :prev, :hash)"
+                ),
+                {
+                    "seq": seq,
+                    "at": now if db.backend == "postgresql" else f"{now:%Y-%m-%d %H:%M:%S.%f}",
+                    "action": action,
+                    "payload": payload,
+                    "prev": prev,
+                    "hash": digest,
+                },
             )
+            prev = digest
 
 
 @pytest.mark.postgresql
@@ -133,14 +170,16 @@ def test_postgresql_upgrade_keeps_data_and_refuses_ledger_edits(pg_server: str) 
         engine.dispose()
         old = Database(url, build_engine(url), TickingClock())
         _write_first_revision_rows(old)
-        head_before = verify(old)
+        head_before = _head(old)
         old.close()
         with pytest.raises(RuleViolation, match="pg_dump"):
             open_database(url)  # a shared database is never upgraded silently
         assert upgrade_database(url) == (migrate.REVISIONS[0], migrate.HEAD)
         db = open_database(url, clock=TickingClock())
         try:
-            assert verify(db) == head_before
+            upgraded = verify(db)
+            assert upgraded.ok and (upgraded.head_seq, upgraded.head_hash) == head_before
+            assert (upgraded.unsigned, upgraded.signed) == (3, 0)
             with pytest.raises(Exception, match="append-only"), db.engine.begin() as conn:
                 conn.execute(text("UPDATE custody_event SET payload = '{}'"))
         finally:
@@ -160,7 +199,9 @@ def test_explicit_upgrade_reports_revisions(tmp_path: Path) -> None:
 
 def test_database_from_a_newer_tracker_is_refused(tmp_path: Path) -> None:
     path = tmp_path / "new.sqlite"
-    setup.init_database(path, {"code": "boss", "name": "Bea Oswald"}).close()
+    setup.init_database(
+        path, {"code": "boss", "name": "Bea Oswald"}, signer=keys.signer("boss")
+    ).close()
     with create_engine(f"sqlite:///{path}").begin() as conn:
         conn.execute(text("UPDATE alembic_version SET version_num = '9999_future'"))
     with pytest.raises(RuleViolation, match="newer than this tracker"):

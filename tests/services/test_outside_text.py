@@ -13,7 +13,7 @@ from typing import Any
 
 import pytest
 
-from tests import factories
+from tests import factories, keys
 from tests.conftest import snapshot_counts
 from tracker.db.database import Database
 from tracker.domain.errors import InputError, RuleViolation
@@ -180,7 +180,7 @@ PROFILE: dict[str, Any] = {
 
 
 def test_an_instrument_row_kept_as_text_is_judged_at_its_row_and_column(db: Database) -> None:
-    setup.add_operator(db, "boss", {"code": "ana", "name": "Ana Lyst", "role": "technician"})
+    setup.add_operator(db, "boss", keys.person("ana", "Ana Lyst"))
     instrument.save_profile(db, "boss", {"name": "mc", "definition": PROFILE})
     before = snapshot_counts(db)
     export = "Run,Name,r4440\n1,STD-X,2.1\n2,unknown\u202evial,2.2\n3,STD-X,2.1\n"

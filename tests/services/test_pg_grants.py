@@ -13,6 +13,7 @@ from sqlalchemy import create_engine, text
 from sqlalchemy.engine import make_url
 
 from tests import factories as make
+from tests import keys
 from tracker.db.database import open_database
 from tracker.services import corrections, ledger, setup
 
@@ -75,8 +76,10 @@ REFUSED = [
 def test_the_readme_grants_let_the_app_work_but_never_edit_the_ledger(
     cluster: dict[str, str],
 ) -> None:
-    owner = setup.init_database(cluster["owner_url"], {"code": "boss", "name": "Bea Oswald"})
-    setup.add_operator(owner, "boss", {"code": "tech", "name": "Teo Chandler"})
+    owner = setup.init_database(
+        cluster["owner_url"], {"code": "boss", "name": "Bea Oswald"}, signer=keys.signer("boss")
+    )
+    setup.add_operator(owner, "boss", keys.person("tech", "Teo Chandler"))
     with owner.engine.begin() as conn:
         sql = _grant_lines().replace("tracker_lab", cluster["db"])
         sql = sql.replace("tracker_app", cluster["app"])

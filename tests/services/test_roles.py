@@ -13,6 +13,7 @@ from typing import Any
 import pytest
 
 from tests import factories as make
+from tests import keys
 from tracker.db.database import Database
 from tracker.domain.errors import RuleViolation
 from tracker.services import (
@@ -40,7 +41,7 @@ def _returned_loan(db: Database) -> str:
 
 
 def _others_powder(db: Database) -> str:
-    setup.add_operator(db, "boss", {"code": "tova", "name": "Tova Lind", "role": "technician"})
+    setup.add_operator(db, "boss", keys.person("tova", "Tova Lind"))
     return drilling.drill(
         db,
         "tova",
@@ -181,8 +182,11 @@ def test_a_loan_closes_only_after_its_return_and_its_leftovers(
         )
 
 
-def test_a_manager_refusal_without_any_active_manager_still_explains(db: Database) -> None:
-    """No manager to name (all deactivated by hand): the refusal still says which role."""
+def test_a_manager_deactivated_by_hand_in_the_table_is_still_the_ledgers_manager(
+    db: Database,
+) -> None:
+    """The ``operator`` table decides nothing: boss deactivated by an UPDATE is still the
+    manager the ledger's signed events name, and a technician is still refused."""
     from sqlalchemy import text
 
     with db.engine.begin() as conn:
@@ -190,5 +194,6 @@ def test_a_manager_refusal_without_any_active_manager_still_explains(db: Databas
     with pytest.raises(RuleViolation) as caught:
         setup.add_operator(db, "tech", {"code": "new", "name": "New One"})
     assert caught.value.reason.endswith(
-        "needs an operator with the manager role (tech is a technician)"
+        "needs an operator with the manager role (tech is a technician); "
+        "ask a manager (boss) to do it"
     )

@@ -32,8 +32,8 @@ def test_anchor_text_is_the_documented_json_and_reads_back() -> None:
     [
         ("", "not JSON"),
         ("[" * 100_000, "not JSON"),  # nesting deeper than the parser's recursion limit
-        ('{"format": "tracker-ledger/1"}', "not a tracker-anchor/1 file"),
-        ('["tracker-anchor/1"]', "not a tracker-anchor/1 file"),
+        ('{"format": "tracker-ledger/1"}', "not a tracker-anchor/1 or tracker-anchor/2 file"),
+        ('["tracker-anchor/1"]', "not a tracker-anchor/1 or tracker-anchor/2 file"),
         (json.dumps({"format": "tracker-anchor/1", "seq": True}), "not an event number"),
         (json.dumps({"format": "tracker-anchor/1", "seq": 0}), "not an event number"),
         (json.dumps({"format": "tracker-anchor/1", "seq": 3, "hash": "AB"}), "hash"),

@@ -26,8 +26,10 @@ from tracker.bench.plan import Step
 from tracker.bench.replay import call_service, check_made, made_id
 from tracker.db.database import Database
 from tracker.domain.base import Base
+from tracker.domain.signing import Signer
 from tracker.domain.timeutil import as_utc
 from tracker.io.demo import StepClock
+from tracker.services import authority as signing
 
 HANDLERS = {**MATERIAL, **LAB}
 FLUSH_ROWS = 50_000
@@ -48,6 +50,18 @@ class BulkExecutor:
         self.writer = BulkWriter(db)
         self.state.sync(db)
         self.report = BulkReport()
+        with db.read_session() as session:  # who and where the services would record
+            self.origin = signing.origin(session, db)
+        self._signers: dict[str, Signer] = {}
+
+    def signer(self, code: str) -> Signer:
+        """The key the services would sign ``code``'s events with (their own choice)."""
+        if code not in self._signers:
+            found = signing.signer_for(signing.read(self.db), code, self.db.keyring)
+            if found is None:
+                raise RuntimeError("the benchmark's ledger has no signing keys")
+            self._signers[code] = found
+        return self._signers[code]
 
     def run(self, steps: Iterable[Step]) -> BulkReport:
         started = perf_counter()
@@ -65,7 +79,9 @@ class BulkExecutor:
             self._by_service(step)
             return
         now = as_utc(step.at)
-        ctx = Ctx(now, self.state.operator(step.by), self.state, self.writer)
+        operator = self.state.operator(step.by)
+        signer = self.signer(operator.code)
+        ctx = Ctx(now, operator, self.state, self.writer, signer, self.origin)
         made = handler(ctx, step.args)
         check_made(step, getattr(made, "public_id", None))
         if self.writer.pending >= FLUSH_ROWS:

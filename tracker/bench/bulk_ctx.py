@@ -2,9 +2,10 @@
 
 :meth:`Ctx.record` is :func:`tracker.services.uow.append_event` without a database round
 trip: the next sequence number and the previous hash come from memory, the payload goes
-through the domain's own :func:`canonical_json` and the hash through its own
-:func:`event_hash`, so the chain is the one the services would have written. A bench
-action's queued label is the same row ``queue_label`` writes, naming the same event.
+through the domain's own :func:`canonical_json`, and the hash and its signature through its
+own :func:`seal` with the operator's key (chosen by the services' ``signer_for``), so the
+chain is the one the services would have written. A bench action's queued label is the
+same row ``queue_label`` writes, naming the same event.
 """
 
 from __future__ import annotations
@@ -16,9 +17,11 @@ from typing import Any, TypeVar
 
 from tracker.bench.bulk_state import State
 from tracker.bench.bulk_writer import BulkWriter
+from tracker.domain.authority import FORMAT_2
 from tracker.domain.base import Base, HasPublicId
-from tracker.domain.ledger import canonical_json, event_hash
+from tracker.domain.ledger import Origin, canonical_json, seal
 from tracker.domain.models import CustodyEvent, Label, LabelStatus, Location, Operator
+from tracker.domain.signing import Signer
 from tracker.domain.timing import (
     CLOCK_SKEW,
     DEFAULT_BACKDATING_WINDOW,
@@ -37,6 +40,8 @@ class Ctx:
     operator: Operator
     state: State
     writer: BulkWriter
+    signer: Signer
+    origin: Origin
 
     def when(self, given: datetime | None, field: str, after: Iterable[Since] = ()) -> datetime:
         """``common.action_time``'s rules (the domain's own functions) without the database.
@@ -73,7 +78,10 @@ class Ctx:
         seq, previous = state.head_seq + 1, state.head_hash
         object_ref, parent_ref = obj.public_id, parent.public_id if parent else ""
         text = canonical_json(payload)
-        digest = event_hash(seq, self.now, code, action, object_ref, parent_ref, previous, text)
+        origin = self.origin
+        sealed = seal(
+            seq, self.now, code, origin, action, object_ref, parent_ref, previous, text, self.signer
+        )
         self.writer.add_row(
             CustodyEvent,
             {
@@ -85,10 +93,16 @@ class Ctx:
                 "parent_ref": parent_ref,
                 "payload": text,
                 "prev_hash": previous,
-                "hash": digest,
+                "hash": sealed.hash,
+                "format": FORMAT_2,
+                "os_user": origin.os_user,
+                "host": origin.host,
+                "db_user": origin.db_user,
+                "key_id": sealed.key_id,
+                "signature": sealed.signature,
             },
         )
-        state.head_seq, state.head_hash = seq, digest
+        state.head_seq, state.head_hash = seq, sealed.hash
         if label is not None:
             self.writer.add_row(
                 Label,

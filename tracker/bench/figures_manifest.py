@@ -19,7 +19,7 @@ from pathlib import Path
 from typing import Any
 
 from tracker.bench.measure import Figure, Target, settle_writes, timed
-from tracker.bench.plan import FOUNDER
+from tracker.bench.plan import FOUNDER, bench_keyring
 from tracker.bench.shape import END
 from tracker.db.database import open_database
 from tracker.domain.ids import Kind, format_id
@@ -95,6 +95,7 @@ def manifest_figure(cached: Path, workdir: Path, repeat: int) -> Figure:
     settle_writes()  # the copy's pages on disk first, so no timed commit waits behind them
     clock = StepClock(END)
     db = open_database(work, clock=clock, upgrade=False)
+    db.keyring = bench_keyring()  # the synthetic operators sign
     content = manifest_csv()
     best, bare = float("inf"), float("inf")
     made: list[tuple[int, int]] = []

@@ -22,6 +22,7 @@ from tracker.bench.generate import Built, Progress, build, ledger_head
 from tracker.bench.measure import Figure, Target
 from tracker.bench.pg_clients import drills, floor
 from tracker.bench.pgserver import private_cluster, server_binaries
+from tracker.bench.plan import bench_keyring
 from tracker.bench.shape import END
 from tracker.db.database import Database, open_database
 from tracker.domain.errors import InputError
@@ -83,6 +84,7 @@ def built_database(
 
 def postgresql_figures(url: str, scale: float, repeat: int) -> list[Figure]:
     db = open_database(url, clock=StepClock(END), upgrade=False)
+    db.keyring = bench_keyring()  # the synthetic operators sign
     try:
         figure = reconcile_figure(db, repeat, key="pg_reconcile")
         figure.title = f"PostgreSQL: {figure.title}"

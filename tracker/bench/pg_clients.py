@@ -20,11 +20,13 @@ GROSS_MG = "1000.100 mg"  # 0.1 mg of powder per drill: far inside every loan's 
 
 def drills(url: str, work: list[tuple[str, str]], who: int, start: Any, out: Any) -> None:
     """Drill each (specimen, tissue) once; put (started, finished, count) on ``out``."""
+    from tracker.bench.plan import bench_keyring
     from tracker.db.database import open_database
     from tracker.io.demo import StepClock
     from tracker.services import drilling
 
     db = open_database(url, clock=StepClock(END), upgrade=False)
+    db.keyring = bench_keyring()  # the synthetic operators sign
     actor = TECHNICIANS[who % len(TECHNICIANS)]
     try:
         start.wait()

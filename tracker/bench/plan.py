@@ -20,11 +20,25 @@ from datetime import datetime, timedelta
 from typing import Any
 
 from tracker.bench.shape import START, Shape
+from tracker.db.keyring import Keyring
 from tracker.domain.ids import Kind, format_id
+from tracker.domain.signing import Signer, seeded_signer
 
 FOUNDER = {"code": "mgr01", "name": "Synthetic Manager 01"}
 MANAGERS = ("mgr01", "mgr02")
 TECHNICIANS = ("tech01", "tech02", "tech03", "tech04", "tech05")
+
+
+def bench_signer(code: str) -> Signer:
+    """A synthetic operator's invented key, derived from a public seed (it proves nothing)."""
+    return seeded_signer(f"tracker bench key {code}")
+
+
+def bench_keyring() -> Keyring:
+    """Every synthetic operator's key, unlocked: what the benchmark's databases sign with."""
+    return Keyring({s.key_id: s for s in map(bench_signer, (*MANAGERS, *TECHNICIANS))})
+
+
 STANDARD = "Synthetic Ca bracketing standard"
 REFERENCES = {"Synthetic calcite RM-1": 0.62, "Synthetic seawater RM-2": 1.83}  # accepted δ ‰
 PROFILE = "synthetic-mc-ca"
@@ -100,7 +114,9 @@ def setup_steps(shape: Shape, ids: Ids, world: World) -> Iterator[Step]:
     for code in (*MANAGERS[1:], *TECHNICIANS):
         role = "manager" if code in MANAGERS else "technician"
         name = f"Synthetic {role.title()} {code[-2:]}"
-        yield Step(clock.tick(), founder, "operator", {"code": code, "name": name, "role": role})
+        person = {"code": code, "name": name, "role": role}
+        person["public_key"] = bench_signer(code).public_hex
+        yield Step(clock.tick(), founder, "operator", person)
     yield from _places(clock, ids, world)
     for name in (STANDARD, *REFERENCES):
         matrix = "synthetic solution" if name == STANDARD else "synthetic powder"

@@ -11,7 +11,7 @@ from collections.abc import Iterable
 from pathlib import Path
 from typing import Any
 
-from tracker.bench.plan import FOUNDER, Step
+from tracker.bench.plan import FOUNDER, Step, bench_keyring, bench_signer
 from tracker.bench.shape import START
 from tracker.db.database import Database
 from tracker.io.demo import SERVICES, StepClock
@@ -21,7 +21,8 @@ from tracker.services import setup
 def new_database(target: str | Path, clock: StepClock) -> Database:
     """An empty tracker database whose ledger opens at the start of the synthetic decade."""
     clock.now = START
-    return setup.init_database(target, FOUNDER, clock)
+    signer = bench_signer(FOUNDER["code"])
+    return setup.init_database(target, FOUNDER, clock, signer=signer, keyring=bench_keyring())
 
 
 def made_id(answer: Any) -> str | None:

@@ -18,6 +18,7 @@ from typing import Any, Literal
 from tracker.bench import figures_ledger, figures_manifest, figures_read, figures_ui
 from tracker.bench.generate import Built, cached_apart
 from tracker.bench.measure import Figure, machine, settle_writes
+from tracker.bench.plan import bench_keyring
 from tracker.bench.shape import END
 from tracker.db.database import open_database
 from tracker.domain.errors import TrackerError
@@ -142,6 +143,7 @@ def _sqlite(options: Options, scale: float, report: Report) -> None:
     settle_writes()  # a database just built leaves its pages to be written: not during a figure
     report.builds.append(built)
     db = open_database(built.target, clock=StepClock(END), upgrade=False)
+    db.keyring = bench_keyring()  # the synthetic operators sign
     steps: dict[str, Callable[[], list[Figure]]] = {
         "reconcile": lambda: [figures_read.reconcile_figure(db, options.repeat)],
         "verify": lambda: figures_ledger.verify_figures(built.target, options.repeat),

@@ -12,6 +12,7 @@ from tracker.cli import (
     cmd_correct,
     cmd_inspect,
     cmd_instrument,
+    cmd_keys,
     cmd_lab,
     cmd_labels,
     cmd_ledger,
@@ -105,6 +106,7 @@ def _register() -> None:
         instrument.reference_value
     )
     app.add_typer(cmd_setup.operator_app, name="operator")
+    app.add_typer(cmd_keys.key_app, name="key")
     app.add_typer(cmd_setup.location_app, name="location")
     app.add_typer(cmd_loans.lender_app, name="lender")
     app.add_typer(cmd_loans.loan_app, name="loan")

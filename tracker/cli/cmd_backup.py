@@ -6,7 +6,7 @@ from typing import Annotated
 import typer
 
 from tracker.cli.render import done
-from tracker.cli.state import database, emit, errors, state
+from tracker.cli.state import cli_fields, database, emit, errors, state, unlock
 from tracker.services import backups, ledger
 
 BACKUP_EPILOG = (
@@ -62,12 +62,19 @@ def restore(
     """Replace the database with a backup, only if the backup's ledger verifies.
 
     Nothing is replaced when the backup's chain is broken, when it misses the given
-    anchor, or when the database holds newer events (unless --accept-loss). The
+    anchor, or when the database holds newer events (unless --accept-loss, which needs
+    a manager). The
     replaced file is kept beside it (<file>.replaced-<time>), and the restore is
     recorded in the restored ledger.
     """
     kept = ledger.read_anchor(anchor) if anchor is not None else None
     settings = state(ctx)
+    with cli_fields(ctx):
+        restored = backups.open_backup(path)  # the restore is signed in the backup's ledger
+        try:
+            unlock(restored, settings.actor)
+        finally:
+            restored.close()
     answer = backups.restore(
         settings.target, settings.actor, path, accept_loss=accept_loss, anchor=kept
     )

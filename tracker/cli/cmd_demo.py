@@ -30,13 +30,18 @@ def demo(
     """Build the demo database (invented loans and specimens) and open it.
 
     On a terminal the interface opens on the demo; piped, with --json or with --no-open
-    the loans overview is printed instead.
+    the loans overview is printed instead. The demo's people sign with invented keys; their
+    key files are left in your config folder, locked with the demo's passphrase
+    "demo passphrase, invented" (README, Quick start).
     """
-    from tracker.io.demo import build_demo, free_demo_path
+    from tracker.db.keyring import PROCESS
+    from tracker.io.demo import build_demo, demo_operators, demo_signer, free_demo_path
 
     with cli_fields(ctx):
         out = out or free_demo_path(Path.cwd(), DEMO_FILE)
         steps = build_demo(out)
+    for code in demo_operators():  # invented, public keys: the demo opens without asking
+        PROCESS.add(demo_signer(code))
     errors.print(
         f"built {out} from the demo scenario ({steps} steps, all invented data)",
         markup=False,

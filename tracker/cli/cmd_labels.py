@@ -13,7 +13,7 @@ from rich.text import Text
 
 from tracker.cli.out_options import Force, kept_note
 from tracker.cli.render import done, plain_table
-from tracker.cli.state import cli_fields, database, emit, perform, state
+from tracker.cli.state import cli_fields, database, emit, perform, state, writing
 from tracker.domain.text_rules import visible
 from tracker.services import labels
 
@@ -107,7 +107,7 @@ def print_command(
     """Print every queued label to a vector PDF and record the job (one ledger event)."""
     from tracker.output import jobs
 
-    with database(ctx) as db:
+    with writing(ctx) as db:
         outcome = jobs.print_queue(
             db,
             state(ctx).actor,
@@ -140,7 +140,7 @@ def reprint_command(
     """Print named items' labels again, with a reason (one ledger event); the queue stays."""
     from tracker.output import jobs
 
-    with database(ctx) as db:
+    with writing(ctx) as db:
         outcome = jobs.reprint(
             db,
             state(ctx).actor,

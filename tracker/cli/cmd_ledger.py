@@ -1,6 +1,8 @@
 """The custody ledger: verify (against an anchor too), anchor, list, export."""
 
 import sys
+from collections.abc import Iterator
+from contextlib import contextmanager
 from pathlib import Path
 from typing import Annotated, Any
 
@@ -8,7 +10,7 @@ import typer
 
 from tracker.cli.out_options import Force, kept_as, kept_note
 from tracker.cli.render import history_table
-from tracker.cli.state import database, emit, errors
+from tracker.cli.state import database, emit, errors, state, writing
 from tracker.domain.anchors import AnchorCheck
 from tracker.domain.ledger import VerifyReport
 from tracker.services import ledger
@@ -26,12 +28,38 @@ def _verify_text(report: VerifyReport, check: AnchorCheck | None) -> str:
             f"ledger BROKEN at event #{report.broken_seq}: {report.reason} "
             f"({report.events} events verified before it)"
         )
-    text = f"ledger intact: {report.events} events, head #{report.head_seq} {report.head_hash}"
+    text = (
+        f"ledger intact: {report.events} events, head #{report.head_seq} {report.head_hash}\n"
+        f"signatures: {_signatures(report)}"
+    )
     if check is None:
         return text
     if check.ok:
         return f"{text}\nanchor holds: event #{check.anchor_seq} is still {check.anchor_hash}"
     return f"{text}\nanchor FAILED: {check.problem}"
+
+
+def _signatures(report: VerifyReport) -> str:
+    signed = f"{report.signed} signed by a key valid at the time, every one verified"
+    if not report.unsigned:
+        return signed
+    before = f"{report.unsigned} unsigned (recorded before signing)"
+    return f"{signed}; {before}" if report.signed else before
+
+
+@contextmanager
+def _progress(ctx: typer.Context) -> Iterator[ledger.Progress | None]:
+    """A progress bar on stderr when it is a terminal (never with --json): hashes and
+    signatures of a decade's ledger take a while."""
+    if state(ctx).as_json or not errors.is_terminal:
+        yield None
+        return
+    from rich.progress import BarColumn, MofNCompleteColumn, Progress, TimeRemainingColumn
+
+    columns = ("verifying", BarColumn(), MofNCompleteColumn(), TimeRemainingColumn())
+    with Progress(*columns, console=errors, transient=True) as bar:
+        task = bar.add_task("verify", total=None)
+        yield lambda done, total: bar.update(task, completed=done, total=total)
 
 
 @ledger_app.command(
@@ -45,17 +73,22 @@ def ledger_verify(
         typer.Option("--anchor", help="Also require the head kept in this anchor file."),
     ] = None,
 ) -> None:
-    """Re-hash every event; print the head hash (exit 0) or the first broken event (exit 1).
+    """Re-hash every event and check every signature; print the head (exit 0) or the first
+    broken event (exit 1).
 
-    With --anchor, the ledger must also still hold the event the anchor file names:
-    a ledger whose newest events were deleted, or an old copy put back, fails.
+    Each signature is checked against the keys the ledger held at that event (registration
+    and revocation are events), and a manager's action must carry a manager's signature.
+    Events recorded before signing began are counted as unsigned, never as signed. With
+    --anchor, the ledger must also still hold the event the anchor file names, and the
+    anchor must be signed by a manager's key: a ledger whose newest events were deleted,
+    an old copy put back, or an anchor forged for a rewritten ledger fails.
     """
     kept = ledger.read_anchor(anchor) if anchor is not None else None
-    with database(ctx) as db:
+    with database(ctx) as db, _progress(ctx) as progress:
         if kept is None:
-            report, check = ledger.verify(db), None
+            report, check = ledger.verify(db, progress), None
         else:
-            both = ledger.verify_against(db, kept)
+            both = ledger.verify_against(db, kept, progress)
             report, check = both.chain, both.anchor
     answer: dict[str, Any] = dict(report.__dict__)
     answer["anchor"] = None if check is None else dict(check.__dict__)
@@ -78,13 +111,15 @@ def ledger_anchor(
 
     Keep anchors where the database's users cannot change them (send one with each
     return report); `tracker ledger verify --anchor FILE` later proves that no newer
-    events than the anchor's were cut off the ledger.
+    events than the anchor's were cut off the ledger. An anchor is signed with your key:
+    a manager's.
     """
-    with database(ctx) as db:
+    actor = state(ctx).actor
+    with writing(ctx) as db:
         if out is None:
-            typer.echo(ledger.current_anchor(db).to_text(), nl=False)
+            typer.echo(ledger.current_anchor(db, actor).to_text(), nl=False)
             return
-        written = ledger.write_anchor(db, out, force=force)
+        written = ledger.write_anchor(db, actor, out, force=force)
     kept = written.anchor
     emit(
         ctx,

@@ -11,7 +11,7 @@ import typer
 
 from tracker.cli.out_options import Force, kept_as, kept_note
 from tracker.cli.render import done, plain_table
-from tracker.cli.state import database, emit, errors, perform, read_upload, state
+from tracker.cli.state import database, emit, errors, perform, read_upload, state, writing
 from tracker.db import outputs
 from tracker.domain.errors import InputError
 from tracker.domain.models import ShipmentDirection
@@ -58,8 +58,10 @@ def report_return(
     ] = None,
     force: Force = False,
 ) -> None:
-    """The lender's return report: terms, every specimen's account, results, ledger head."""
-    with database(ctx) as db:
+    """The lender's return report: terms, every specimen's account, results, ledger head.
+
+    Its anchor file is signed by your key, so the report is written by a manager."""
+    with writing(ctx) as db:
         written = report_files.write_return_report(
             db, state(ctx).actor, loan, fmt, out, Path.cwd(), force=force
         )

@@ -1,12 +1,21 @@
 """Commands that set a database up: init, operators, locations, schema upgrades."""
 
+from pathlib import Path
 from typing import Annotated
 
 import typer
 from rich.table import Table
 
 from tracker.cli.render import done, plain_table
-from tracker.cli.state import database, emit, perform, state
+from tracker.cli.state import (
+    cli_fields,
+    database,
+    emit,
+    passphrase,
+    perform,
+    read_upload,
+    state,
+)
 from tracker.domain.models import LocationKind, Role
 from tracker.services import settings, setup
 
@@ -28,13 +37,42 @@ def init(
     code: Annotated[str, typer.Option("--code", help="Your operator code (what --as takes).")],
     name: Annotated[str, typer.Option("--name", help="Your full name.")],
 ) -> None:
-    """Create a new database with you as its first manager and open its ledger."""
+    """Create a new database with you as its first manager and open its ledger.
+
+    Makes your signing key (asking for a new passphrase, twice): the private key goes to
+    your config folder, encrypted with it; the ledger's first event registers the public
+    key and is signed with it.
+    """
+    from tracker.db.keyfiles import write_key
+    from tracker.domain.signing import new_signer
+    from tracker.services.inputs import parse
     from tracker.services.setup import init_database
 
-    db = init_database(state(ctx).target, {"code": code, "name": name})
+    with cli_fields(ctx):
+        parse(setup.NewOperator, {"code": code, "name": name})  # before any question
+        signer = new_signer()
+        key_file = write_key(code, signer, passphrase(f"your new key ({code})", new=True))
+        try:
+            db = init_database(state(ctx).target, {"code": code, "name": name}, signer=signer)
+        except BaseException:
+            key_file.path.unlink(missing_ok=True)  # the key of a ledger that was not opened
+            raise
     try:
-        answer = {"database": db.url, "operator": code, "role": Role.MANAGER.value}
-        emit(ctx, answer, lambda: f"created {db.url}; operator {code} (manager)")
+        answer = {
+            "database": db.url,
+            "operator": code,
+            "role": Role.MANAGER.value,
+            "key_id": signer.key_id,
+            "key_file": str(key_file.path),
+        }
+        emit(
+            ctx,
+            answer,
+            lambda: (
+                f"created {db.url}; operator {code} (manager), signing key "
+                f"{signer.key_id} kept in {key_file.path}"
+            ),
+        )
     finally:
         db.close()
 
@@ -44,17 +82,64 @@ INIT_EPILOG = "Example: tracker --db lab.sqlite init --code amira --name 'Amira 
 
 @operator_app.command(
     "add",
-    epilog="Example: tracker --as amira operator add tomas --name 'Tomas Rieger' --role technician",
+    epilog="Example: tracker --as amira operator add tomas --name 'Tomas Rieger' --role technician "
+    "--key tomas.pub",
 )
 def operator_add(
     ctx: typer.Context,
     code: Annotated[str, typer.Argument(help="Short code typed after --as.")],
     name: Annotated[str, typer.Option("--name", help="Full name.")],
     role: Annotated[Role, typer.Option("--role", help="technician or manager.")] = Role.TECHNICIAN,
+    key: Annotated[
+        Path | None,
+        typer.Option("--key", help="Their public key file (from `tracker key new`), if made."),
+    ] = None,
 ) -> None:
-    """Register an operator (managers only)."""
-    answer = perform(ctx, setup.add_operator, {"code": code, "name": name, "role": role})
+    """Register an operator, and their public signing key if given (managers only)."""
+    request: dict[str, object] = {"code": code, "name": name, "role": role}
+    if key is not None:
+        request["public_key"] = _public_key(ctx, key, "--key")
+    answer = perform(ctx, setup.add_operator, request)
     emit(ctx, answer, lambda: done(answer, f"operator {code} ({role.value})"))
+
+
+def _public_key(ctx: typer.Context, path: Path, option: str) -> str:
+    from tracker.services.keys import public_key_from
+
+    upload = read_upload(path, option, limit=64 * 1024)
+    assert upload is not None
+    with cli_fields(ctx):
+        return public_key_from(upload["content"], option)
+
+
+@operator_app.command(
+    "deactivate",
+    epilog="Example: tracker --as amira operator deactivate tomas --reason 'left the lab'",
+)
+def operator_deactivate(
+    ctx: typer.Context,
+    code: Annotated[str, typer.Argument(help="The operator to deactivate.", metavar="OPERATOR")],
+    reason: Annotated[str, typer.Option("--reason", help="Why, for the ledger.")],
+) -> None:
+    """Stop an operator from recording anything; their keys sign nothing more (managers)."""
+    answer = perform(ctx, setup.deactivate_operator, {"operator": code, "reason": reason})
+    emit(ctx, answer, lambda: done(answer, f"operator {code} deactivated"))
+
+
+@operator_app.command(
+    "role",
+    epilog="Example: tracker --as amira operator role priya manager --reason 'lab manager now'",
+)
+def operator_role(
+    ctx: typer.Context,
+    code: Annotated[str, typer.Argument(help="The operator.", metavar="OPERATOR")],
+    role: Annotated[Role, typer.Argument(help="technician or manager.")],
+    reason: Annotated[str, typer.Option("--reason", help="Why, for the ledger.")],
+) -> None:
+    """Make an operator a manager or a technician (managers; the last manager stays one)."""
+    request = {"operator": code, "role": role, "reason": reason}
+    answer = perform(ctx, setup.change_role, request)
+    emit(ctx, answer, lambda: done(answer, f"operator {code} is now a {role.value}"))
 
 
 @operator_app.command("list", epilog="Example: tracker operator list")

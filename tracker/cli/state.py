@@ -167,10 +167,59 @@ def database(ctx: typer.Context) -> Iterator[Any]:
             db.close()
 
 
+@contextmanager
+def writing(ctx: typer.Context, *, first_key: str | None = None) -> Iterator[Any]:
+    """The selected database for a command that records, with the selected operator's key
+    unlocked (:func:`unlock`) before any work."""
+    with database(ctx) as db:
+        with cli_fields(ctx):
+            unlock(db, state(ctx).actor, first_key=first_key)
+        yield db
+
+
 def perform(ctx: typer.Context, service: Callable[..., Any], request: dict[str, Any]) -> Any:
     """Call one write service on the selected database as the selected operator."""
-    with database(ctx) as db:
+    with writing(ctx) as db:
         return service(db, state(ctx).actor, request)
+
+
+# Scripts that cannot type a passphrase: a file readable by its owner only (preferred), or
+# the variable itself (any process of the same user can read a process's environment).
+PASSPHRASE_FILE_ENV = "TRACKER_PASSPHRASE_FILE"
+PASSPHRASE_ENV = "TRACKER_PASSPHRASE"
+
+
+def passphrase(what: str, *, new: bool = False) -> str:
+    """The passphrase for ``what``: from TRACKER_PASSPHRASE_FILE (its first line; the file
+    must be private), from TRACKER_PASSPHRASE, or asked for on the terminal (hidden; a new
+    one twice). The question goes to stderr, so ``--json`` output stays one document."""
+    from tracker.db.keyfiles import read_private
+
+    named = os.environ.get(PASSPHRASE_FILE_ENV)
+    if named:
+        data = read_private(Path(named), PASSPHRASE_FILE_ENV)
+        lines = data.decode("utf-8", "replace").splitlines()
+        return lines[0] if lines else ""
+    given = os.environ.get(PASSPHRASE_ENV)
+    if given is not None:
+        return given
+    asked: str = typer.prompt(
+        f"passphrase for {what}", hide_input=True, confirmation_prompt=new, err=True
+    )
+    return asked
+
+
+def unlock(db: Any, actor: str | None, *, first_key: str | None = None) -> None:
+    """Unlock ``actor``'s signing key for ``db`` (asking for its passphrase) unless it is
+    unlocked already; a key that may not sign is refused in one line before any work."""
+    if not actor:
+        return  # the service says an operator is needed
+    from tracker.services import keys
+
+    key_file = keys.key_to_unlock(db, actor, first_key=first_key)
+    if key_file is not None:
+        said = f"{key_file.operator}'s key {key_file.key_id}"
+        keys.unlock_file(db, key_file, passphrase(said))
 
 
 # Bigger than any file a service accepts, so the service's own limit names the problem;

@@ -7,6 +7,7 @@ from collections.abc import Iterator
 from contextlib import contextmanager
 from dataclasses import dataclass, field
 from pathlib import Path
+from typing import Any
 
 from sqlalchemy import Engine
 from sqlalchemy import exc as sa_exc
@@ -16,6 +17,7 @@ from sqlalchemy.orm import Session, sessionmaker
 
 from tracker.db import migrate
 from tracker.db.engine import build_engine, create_private_file, resolve_url, sqlite_path, writer
+from tracker.db.keyring import PROCESS, Keyring
 from tracker.db.writer_lock import busy_as_refusal
 from tracker.domain.errors import InputError, RuleViolation
 from tracker.domain.timeutil import Clock, utcnow
@@ -28,6 +30,11 @@ class Database:
     url: str
     engine: Engine
     clock: Clock = field(default=utcnow)
+    # the unlocked keys its units of work sign with (this process's, unless replaced)
+    keyring: Keyring = field(default_factory=lambda: PROCESS)
+    # what services may keep between units of work on this handle (the authority read
+    # from the ledger, the session user): keyed by the service that keeps it
+    memo: dict[str, Any] = field(default_factory=dict)
 
     def __post_init__(self) -> None:
         self._reader = sessionmaker(self.engine, expire_on_commit=False)

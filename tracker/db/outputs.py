@@ -206,15 +206,25 @@ def temp_path(folder: Path, name: str) -> Path:
     return folder / f".{name}.{secrets.token_hex(4)}.partial"
 
 
-def stage(folder: Path, name: str, content: Content, field: str, *, reuse: bool = False) -> Staged:
+def stage(
+    folder: Path,
+    name: str,
+    content: Content,
+    field: str,
+    *,
+    reuse: bool = False,
+    private: bool = False,
+) -> Staged:
     """Write ``content`` (bytes, or a function writing to a binary stream) to a new hidden
-    file in ``folder``, flushed to disk; the caller publishes or discards it."""
+    file in ``folder``, flushed to disk; the caller publishes or discards it. A ``private``
+    file (a private key) is readable and writable by its owner only from its first byte."""
     target = folder / name
     if not folder.is_dir():
         raise InputError(field, str(target), "its folder does not exist")
     temp = temp_path(folder, name)
+    mode = 0o600 if private else 0o666
     try:
-        fd = os.open(temp, os.O_WRONLY | os.O_CREAT | os.O_EXCL | getattr(os, "O_BINARY", 0), 0o666)
+        fd = os.open(temp, os.O_WRONLY | os.O_CREAT | os.O_EXCL | getattr(os, "O_BINARY", 0), mode)
     except OSError as error:
         raise InputError(field, str(target), f"cannot be written ({error.strerror})") from None
     sink = _Hashing(io.FileIO(fd, "wb"))
@@ -381,10 +391,11 @@ def write_new(
     force: bool = False,
     database: Path | None = None,
     clock: Clock = utcnow,
+    private: bool = False,
 ) -> Written:
     """Check, stage and publish one file (the usual case: nothing recorded in between)."""
     check_target(target, field, force=force, database=database)
-    staged = stage(target.parent, target.name, content, field)
+    staged = stage(target.parent, target.name, content, field, private=private)
     try:
         kept = publish(staged.temp, target, field, force=force, database=database, clock=clock)
     finally:

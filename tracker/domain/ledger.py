@@ -17,6 +17,28 @@ and ``hash`` is the lower-case hex SHA-256 of those bytes. No field may contain
 a line feed (the payload's JSON escapes its own). A lender re-verifies an
 exported ledger by recomputing each hash and checking that each ``prev_hash``
 equals the previous line's ``hash`` — nothing needs re-serialising.
+
+Format "tracker-ledger/2" (every event recorded since signing began) adds where the event
+came from, after the operator; the bytes are these twelve fields joined the same way::
+
+    tracker-ledger/2
+    <seq>
+    <at>
+    <operator>
+    <os_user>        the operating-system user that ran tracker
+    <host>           the computer's host name
+    <db_user>        PostgreSQL's session_user (the database enforces it); empty on SQLite
+    <action>
+    <object>
+    <parent>
+    <prev_hash>
+    <payload>
+
+Each such event also stores, outside the hashed bytes, its signer's key ID and the Ed25519
+signature of the 64 ASCII characters of its ``hash`` (:mod:`tracker.domain.signing`); the
+signature covers the hash, and the hash covers everything else. Who may sign what is
+:mod:`tracker.domain.authority`. Events of either format verify by their own rule; the
+format of each is stored with it.
 """
 
 from __future__ import annotations
@@ -28,9 +50,12 @@ from dataclasses import dataclass
 from datetime import datetime
 from typing import Any
 
+from tracker.domain.authority import AUTHORITY_ACTIONS, FORMAT_1, FORMAT_2, Authority, Claim
+from tracker.domain.signing import Signer
 from tracker.domain.timeutil import iso_utc
 
-FORMAT = "tracker-ledger/1"
+FORMAT = FORMAT_1  # the first format: events recorded before signing
+CURRENT_FORMAT = FORMAT_2  # every event recorded now
 GENESIS_HASH = "0" * 64
 # An empty ledger proves nothing: every database opens its ledger with a first event, so a
 # ledger without one has lost it (or never was one) and is not intact.
@@ -78,6 +103,78 @@ def event_hash(
 
 
 @dataclass(frozen=True)
+class Origin:
+    """Where an event comes from: the OS user and host that ran tracker, and the database
+    login (PostgreSQL's ``session_user``, read from the server; empty on SQLite)."""
+
+    os_user: str
+    host: str
+    db_user: str = ""
+
+
+def canonical_bytes_2(
+    seq: int,
+    at: str,
+    operator: str,
+    origin: Origin,
+    action: str,
+    object_ref: str,
+    parent_ref: str,
+    prev_hash: str,
+    payload: str,
+) -> bytes:
+    """The exact bytes hashed for a "tracker-ledger/2" event (see the module docstring)."""
+    fields = (
+        FORMAT_2,
+        str(seq),
+        at,
+        operator,
+        origin.os_user,
+        origin.host,
+        origin.db_user,
+        action,
+        object_ref,
+        parent_ref,
+        prev_hash,
+        payload,
+    )
+    for value in fields:
+        if "\n" in value:
+            raise ValueError(f"ledger field contains a line feed: {value[:40]!r}")
+    return "\n".join(fields).encode("utf-8")
+
+
+@dataclass(frozen=True)
+class Sealed:
+    """A new event's hash and its operator's signature of it."""
+
+    hash: str
+    key_id: str
+    signature: str
+
+
+def seal(
+    seq: int,
+    at: datetime,
+    operator: str,
+    origin: Origin,
+    action: str,
+    object_ref: str,
+    parent_ref: str,
+    prev_hash: str,
+    payload: str,
+    signer: Signer,
+) -> Sealed:
+    """Hash a new event (format 2) and sign its hash: what every writer of events calls —
+    the unit of work, ``tracker init`` and the benchmark's bulk writer alike."""
+    data = canonical_bytes_2(
+        seq, iso_utc(at), operator, origin, action, object_ref, parent_ref, prev_hash, payload
+    )
+    digest = hashlib.sha256(data).hexdigest()
+    return Sealed(digest, signer.key_id, signer.sign_hash(digest))
+
+
+@dataclass(frozen=True)
 class LedgerRow:
     """The stored columns of one event, as read back for verification."""
 
@@ -90,6 +187,12 @@ class LedgerRow:
     payload: str
     prev_hash: str
     hash: str
+    format: str = FORMAT_1
+    os_user: str = ""
+    host: str = ""
+    db_user: str = ""
+    key_id: str | None = None
+    signature: str | None = None
 
 
 @dataclass(frozen=True)
@@ -100,6 +203,9 @@ class VerifyReport:
     head_hash: str
     broken_seq: int | None = None
     reason: str | None = None
+    signed: int = 0  # events whose signature was checked and held
+    unsigned: int = 0  # events recorded before signing began (format 1): never "valid"
+    signing_since: int | None = None  # the first signed event
 
 
 def verify_chain(rows: Iterable[LedgerRow]) -> VerifyReport:
@@ -115,6 +221,12 @@ def verify_chain(rows: Iterable[LedgerRow]) -> VerifyReport:
             r.payload,
             r.prev_hash,
             r.hash,
+            r.format,
+            r.os_user,
+            r.host,
+            r.db_user,
+            r.key_id,
+            r.signature,
         )
         for r in rows
     )
@@ -122,7 +234,23 @@ def verify_chain(rows: Iterable[LedgerRow]) -> VerifyReport:
 
 # The stored columns of one event as a plain tuple, in LedgerRow's order: the service streams
 # these straight from the driver (a million events: no object per row).
-LedgerTuple = tuple[int, "datetime | str", str, str, str, str, str, str, str]
+LedgerTuple = tuple[
+    int,
+    "datetime | str",
+    str,
+    str,
+    str,
+    str,
+    str,
+    str,
+    str,
+    str,
+    str,
+    str,
+    str,
+    "str | None",
+    "str | None",
+]
 
 
 def ledger_stamp(at: datetime | str) -> str:
@@ -144,12 +272,14 @@ def verify_batches(batches: Iterable[Iterable[LedgerTuple]]) -> VerifyReport:
     """Walk events in ``seq`` order, batch after batch; stop at the first broken link.
 
     Checks, in order, for each event: the sequence continues without a gap, its
-    ``prev_hash`` is the previous event's hash, and its stored hash matches its
-    recomputed hash. Streaming: memory does not grow with the ledger. The hashing is
+    ``prev_hash`` is the previous event's hash, its stored hash matches its recomputed
+    hash (by its own format), and — through :meth:`Authority.admit` — its signature, made
+    by a key valid for its operator at that point of the ledger, and a manager's wherever
+    one is needed. Streaming: memory does not grow with the ledger. The hashing is
     inlined and the batches walked in this frame (this loop runs once per event of a
-    decade's ledger); it computes exactly :func:`event_hash`, and a field holding a line
-    feed counts as altered. Events accepted so far are always 1..expected - 1. A ledger
-    with no event 1 — empty, or starting later — is not intact.
+    decade's ledger); it computes exactly :func:`event_hash` and :func:`canonical_bytes_2`,
+    and a field holding a line feed counts as altered. Events accepted so far are always
+    1..expected - 1. A ledger with no event 1 — empty, or starting later — is not intact.
 
     ``at`` is a datetime, the ledger's ISO text, or the text SQLite stores
     (``2026-03-04 09:15:00.000000``: SQLAlchemy's format, always with microseconds, UTC),
@@ -157,38 +287,93 @@ def verify_batches(batches: Iterable[Iterable[LedgerTuple]]) -> VerifyReport:
     hashed as it stands, so it fails: tracker never writes it.
     """
     expected, prev = 1, GENESIS_HASH
-    sha256, head = hashlib.sha256, FORMAT
+    sha256, authority = hashlib.sha256, Authority()
     for batch in batches:
-        for seq, at, operator, action, object_ref, parent_ref, payload, prev_hash, digest in batch:
+        for row in batch:
+            seq, at, operator, action, object_ref, parent_ref, payload, prev_hash, digest = row[:9]
+            fmt = row[9]
             if seq != expected or prev_hash != prev:
                 problem = _link_problem(seq, expected, prev_hash, prev)
-                return VerifyReport(False, expected - 1, expected - 1, prev, *problem)
+                return _broken(authority, expected, prev, *problem)
             if not isinstance(at, str):
                 stamp = iso_utc(at)
             elif len(at) == 26 and at[10] == " ":  # SQLite's stored text (see above)
                 stamp = f"{at[:10]}T{at[11:]}Z"
             else:
                 stamp = at
-            text = "\n".join(
-                (
-                    head,
-                    str(seq),
-                    stamp,
-                    operator,
-                    action,
-                    object_ref,
-                    parent_ref,
-                    prev_hash,
-                    payload,
-                )
-            )
-            if sha256(text.encode("utf-8")).hexdigest() != digest or text.count("\n") != 8:
+            head: tuple[str, ...]
+            if fmt == FORMAT_2:
+                head, lines = (fmt, str(seq), stamp, operator, *row[10:13]), 11
+            else:
+                head, lines = (fmt, str(seq), stamp, operator), 8
+            text = "\n".join((*head, action, object_ref, parent_ref, prev_hash, payload))
+            if sha256(text.encode("utf-8")).hexdigest() != digest or text.count("\n") != lines:
                 reason = "stored hash does not match the event's contents (altered after writing)"
-                return VerifyReport(False, expected - 1, expected - 1, prev, seq, reason)
+                return _broken(authority, expected, prev, seq, reason)
+            claim = Claim(seq, operator, action, object_ref, payload, digest, fmt, *row[13:15])
+            problem_text = authority.admit(claim)
+            if problem_text is not None:
+                return _broken(authority, expected, prev, seq, problem_text)
             expected, prev = seq + 1, digest
     if expected == 1:  # not one event: a ledger always has its first (`tracker init`)
         return VerifyReport(False, 0, 0, prev, 1, EMPTY)
-    return VerifyReport(True, expected - 1, expected - 1, prev)
+    return VerifyReport(
+        True,
+        expected - 1,
+        expected - 1,
+        prev,
+        signed=authority.signed,
+        unsigned=authority.unsigned,
+        signing_since=authority.signing_since,
+    )
+
+
+def _broken(authority: Authority, expected: int, prev: str, seq: int, reason: str) -> VerifyReport:
+    return VerifyReport(
+        False,
+        expected - 1,
+        expected - 1,
+        prev,
+        seq,
+        reason,
+        authority.signed,
+        authority.unsigned,
+        authority.signing_since,
+    )
+
+
+def stored_hash_holds(row: LedgerTuple) -> bool:
+    """Whether one stored event's hash is the hash of its stored fields (by its format)."""
+    seq, at, operator, action, object_ref, parent_ref, payload, prev_hash, digest = row[:9]
+    stamp = ledger_stamp(at)
+    try:
+        if row[9] == FORMAT_2:
+            origin = Origin(*row[10:13])
+            data = canonical_bytes_2(
+                seq, stamp, operator, origin, action, object_ref, parent_ref, prev_hash, payload
+            )
+        else:
+            data = canonical_bytes(
+                seq, stamp, operator, action, object_ref, parent_ref, prev_hash, payload
+            )
+    except ValueError:
+        return False
+    return hashlib.sha256(data).hexdigest() == digest
+
+
+def replay_authority(rows: Iterable[LedgerTuple]) -> Authority:
+    """Who may sign now, from the authority events alone (in order; others are skipped).
+
+    What a unit of work relies on: each event is admitted only when its stored hash holds
+    and :meth:`Authority.admit` accepts it, so an event inserted by hand with a forged or
+    a technician's signature confers nothing (``ledger verify`` names it).
+    """
+    authority = Authority()
+    for row in rows:
+        if row[3] not in AUTHORITY_ACTIONS or not stored_hash_holds(row):
+            continue
+        authority.admit(Claim(row[0], row[2], row[3], row[4], row[6], row[8], row[9], *row[13:15]))
+    return authority
 
 
 def _link_problem(seq: int, expected_seq: int, prev_hash: str, prev: str) -> tuple[int, str]:

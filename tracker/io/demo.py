@@ -4,6 +4,13 @@ The scenario is plain text a person can read and edit. Every step goes through
 the same service a person would call, with the ledger clock set to the step's
 time, so the demo database — IDs, timestamps and hash chain — is identical on
 every machine.
+
+Its people sign with invented keys derived from public seeds (``tracker demo key
+<code>``), and its events say they come from an invented user and host: the signatures
+are the same on every machine, and they prove nothing about anyone — anybody can derive
+these keys. Building the demo also leaves each demo operator's key file in the user's
+config folder (when it is not there yet), encrypted with the demo's own passphrase,
+:data:`DEMO_PASSPHRASE`, so a person can try writing as a demo operator.
 """
 
 from __future__ import annotations
@@ -16,10 +23,12 @@ from importlib import resources
 from pathlib import Path
 from typing import Any
 
-from tracker.db import outputs
+from tracker.db import keyfiles, outputs
 from tracker.db.database import Database
+from tracker.db.keyring import Keyring
 from tracker.db.sqlite_files import fold_log
 from tracker.domain.errors import InputError
+from tracker.domain.signing import Signer, seeded_signer
 from tracker.services import (
     amendments,
     chemistry,
@@ -77,6 +86,37 @@ SERVICES: dict[str, Service] = {
 }
 
 
+# The demo's passphrase, documented in the README: it unlocks the demo operators' key files.
+DEMO_PASSPHRASE = "demo passphrase, invented"
+# Where the demo's events say they come from (invented, so its ledger is the same anywhere).
+DEMO_MACHINE = ("demo", "demo-lab.invalid")
+
+
+def demo_signer(code: str) -> Signer:
+    """A demo operator's invented key: derived from a public seed, so anyone can sign with it."""
+    return seeded_signer(f"tracker demo key {code}")
+
+
+def demo_keyring(codes: list[str]) -> Keyring:
+    """The demo people's keys, unlocked, and the demo's invented user and host."""
+    return Keyring({s.key_id: s for s in map(demo_signer, codes)}, machine=DEMO_MACHINE)
+
+
+def demo_operators(data: dict[str, Any] | None = None) -> list[str]:
+    """The founder's code and every operator the scenario adds."""
+    data = data or load_scenario()
+    added = [step["args"]["code"] for step in data["steps"] if step["do"] == "operator"]
+    return [data["founder"]["code"], *added]
+
+
+def leave_key_files(codes: list[str]) -> None:
+    """Each demo operator's key file in the config folder, unless one is there already."""
+    for code in codes:
+        signer = demo_signer(code)
+        if keyfiles.file_for(signer.key_id) is None:
+            keyfiles.write_key(code, signer, DEMO_PASSPHRASE)
+
+
 def scenario_path() -> Path:
     """The scenario in the source tree, else the copy packaged into the wheel."""
     source = Path(__file__).resolve().parents[2] / "demo_db" / "scenario.toml"
@@ -131,7 +171,10 @@ class Replay:
         if action not in SERVICES:
             raise InputError(f"steps[{number}].do", action, "unknown demo action")
         self.clock.now = _aware(step["at"])
-        answer = SERVICES[action](self.db, step["by"], self.resolve(step.get("args", {})))
+        args = self.resolve(step.get("args", {}))
+        if action == "operator":  # the person's invented key, registered with them
+            args = {**args, "public_key": demo_signer(args["code"]).public_hex}
+        answer = SERVICES[action](self.db, step["by"], args)
         if "as" in step:
             self.aliases[step["as"]] = answer.item.id
 
@@ -163,8 +206,11 @@ def build_demo(out: Path, scenario: Path | None = None) -> int:
     founder = data["founder"]
     clock = StepClock(_aware(founder["at"]))
     first = {"code": founder["code"], "name": founder["name"]}
+    keyring = demo_keyring(demo_operators(data))
     try:
-        db = setup.init_database(building, first, clock)
+        db = setup.init_database(
+            building, first, clock, signer=demo_signer(founder["code"]), keyring=keyring
+        )
         try:
             replay = Replay(db, clock, (scenario or scenario_path()).parent)
             for number, step in enumerate(steps):
@@ -173,6 +219,7 @@ def build_demo(out: Path, scenario: Path | None = None) -> int:
             db.close()
         fold_log(building)  # the file alone must hold every row before it gets its name
         outputs.publish(building, out, "out", forceable=False)
+        leave_key_files(demo_operators(data))
     finally:
         outputs.discard(*(Path(f"{building}{suffix}") for suffix in ("", *outputs.SIDE_SUFFIXES)))
     return len(steps)

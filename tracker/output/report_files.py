@@ -71,11 +71,12 @@ def render(report: reports.ReturnReport, photos: dict[str, bytes], fmt: str) -> 
     return tabular.xlsx_bytes(report_tables.COLUMNS, rows, "return report")
 
 
-def anchor_bytes(db: Database, report: reports.ReturnReport) -> bytes:
-    """The ledger head the report shows, checked against the ledger, as an anchor file for
-    `tracker ledger verify --anchor` later."""
+def anchor_bytes(db: Database, actor: str | None, report: reports.ReturnReport) -> bytes:
+    """The ledger head the report shows, checked against the ledger and signed by ``actor``
+    (a manager), as an anchor file for `tracker ledger verify --anchor` later."""
     label = f"return report {report.loan['reference']}"
-    return ledger.anchor_for(db, report.ledger.seq, report.ledger.hash, label).to_text().encode()
+    anchor = ledger.anchor_for(db, actor, report.ledger.seq, report.ledger.hash, label)
+    return anchor.to_text().encode()
 
 
 def write_return_report(
@@ -104,12 +105,13 @@ def write_return_report(
     data = render(report, photos, fmt)
     if target is not None:
         _check_companions(db, target, photos, force)
+    anchor = anchor_bytes(db, actor, report)  # a manager's signature, before any file
     staged: list[outputs.Staged] = []
     try:
         staged.append(
             outputs.stage(folder, target.name if target else f"report.{fmt}", data, "out")
         )
-        staged.append(outputs.stage(folder, "report.anchor.json", anchor_bytes(db, report), "out"))
+        staged.append(outputs.stage(folder, "report.anchor.json", anchor, "out"))
         for digest, photo in photos.items():
             staged.append(outputs.stage(folder, digest, photo, "out", reuse=True))
         record = reports.record_report(  # recorded first: a refused record leaves no file

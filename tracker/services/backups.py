@@ -20,6 +20,7 @@ from sqlalchemy import select
 from tracker.db import migrate, outputs
 from tracker.db.database import Database, open_database
 from tracker.db.engine import resolve_url, sqlite_path
+from tracker.db.keyring import PROCESS, Keyring
 from tracker.db.sqlite_files import (
     copy_live,
     fold_log,
@@ -34,6 +35,7 @@ from tracker.domain.errors import InputError, RuleViolation
 from tracker.domain.ledger import VerifyReport
 from tracker.domain.models import CustodyEvent, Operator
 from tracker.domain.timeutil import Clock, utcnow
+from tracker.services import authority as signing
 from tracker.services import ledger
 from tracker.services.common import finish
 from tracker.services.uow import unit_of_work
@@ -140,17 +142,25 @@ def restore(
     accept_loss: bool = False,
     anchor: Anchor | None = None,
     clock: Clock = utcnow,
+    keyring: Keyring | None = None,
 ) -> Done[RestoreView]:
-    """Replace the database with a backup whose ledger verifies; keep what it replaces."""
+    """Replace the database with a backup whose ledger verifies; keep what it replaces.
+
+    The restore is recorded in the restored ledger, signed by ``actor``'s key as that
+    ledger knows it (unlocked in ``keyring``, by default this process's); one that drops
+    newer events needs a manager. Both are checked before anything is replaced."""
     path = _file_path(resolve_url(target), "restore")
     report = _check_backup(source, path, actor, anchor)
     current = _current(path, source) if path.exists() else None
     lost = _events_lost(current, report, accept_loss)
+    _require_signer(source, actor, lost, keyring or PROCESS)  # before a byte is touched
     aside = outputs.replaced_name(path, clock()) if current is not None else None
     if aside is not None:
         keep_aside(path, aside)
     put_back(source, path)
     db = open_database(path, clock=clock)
+    if keyring is not None:
+        db.keyring = keyring
     try:
         with unit_of_work(db, actor) as uow:
             view = RestoreView(
@@ -211,6 +221,40 @@ def _require_operator(backup_db: Database, actor: str | None) -> None:
         found = session.scalar(select(Operator.active).where(Operator.code == actor))
     if not found:
         raise InputError("--as", actor, "is not an active operator in the backup")
+
+
+def open_backup(source: Path) -> Database:
+    """A backup opened read-only (to unlock the key its ledger knows, before a restore)."""
+    if not looks_like_sqlite(source):
+        raise InputError("PATH", str(source), "is not an SQLite database file")
+    return read_only(source)
+
+
+def _require_signer(source: Path, actor: str | None, lost: int, keyring: Keyring) -> None:
+    """The restore's event will be signed in the backup's ledger: ``actor`` needs a key that
+    ledger lets them sign with, unlocked, and a manager's role to drop events."""
+    backup_db = read_only(source)
+    try:
+        authority = signing.read(backup_db)
+    finally:
+        backup_db.close()
+    assert actor is not None  # _check_backup asked for one
+    if not authority.keys:
+        raise RuleViolation(
+            "PATH",
+            str(source),
+            "was kept before signing began, so its ledger cannot record the restore; "
+            "copy the file back by hand (after a backup of the database) and register a key",
+        )
+    signing.signer_for(authority, actor, keyring)
+    if lost and not authority.is_manager(actor):
+        role = authority.role(actor) or "stranger to this ledger"
+        raise RuleViolation(
+            "--as",
+            actor,
+            f"a restore that loses {lost} event(s) needs an operator with the manager role "
+            f"({actor} is a {role}); ask a manager ({', '.join(authority.managers())}) to do it",
+        )
 
 
 def _hashes(db: Database) -> Iterator[str]:

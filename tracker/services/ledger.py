@@ -27,6 +27,7 @@ from tracker.domain.anchors import (
     check_anchor,
     make_anchor,
     parse_anchor,
+    signature_problem,
 )
 from tracker.domain.errors import InputError, RuleViolation
 from tracker.domain.ledger import (
@@ -38,6 +39,7 @@ from tracker.domain.ledger import (
 )
 from tracker.domain.models import CustodyEvent
 from tracker.domain.text_rules import json_visible
+from tracker.services import authority as signing
 from tracker.services.views import EventView
 
 _COLUMNS = (
@@ -50,6 +52,12 @@ _COLUMNS = (
     CustodyEvent.payload,
     CustodyEvent.prev_hash,
     CustodyEvent.hash,
+    CustodyEvent.format,
+    CustodyEvent.os_user,
+    CustodyEvent.host,
+    CustodyEvent.db_user,
+    CustodyEvent.key_id,
+    CustodyEvent.signature,
 )
 BATCH = 5000
 
@@ -144,33 +152,50 @@ def recent_events(
 
 
 class LedgerLine(BaseModel):
-    """One line of an exported ledger (format tracker-ledger/1): every field as hashed."""
+    """One line of an exported ledger: every field as hashed (by the line's ``format``), and
+    for a signed event its signer's key ID and signature (``null`` for events recorded
+    before signing). The public keys are in the events that register them (payload ``key``).
+    """
 
+    format: Literal["tracker-ledger/1", "tracker-ledger/2"]
     seq: Annotated[int, Field(ge=1)]
     at: Annotated[str, Field(pattern=r"^\d{4}-\d{2}-\d{2}T\d{2}:\d{2}:\d{2}\.\d{6}Z$")]
     operator: str
+    os_user: str  # format 2 only: empty in format 1 lines, and not hashed there
+    host: str
+    db_user: str
     action: str
     object: str
     parent: str
     prev_hash: Annotated[str, Field(pattern="^[0-9a-f]{64}$")]
     payload: str  # canonical JSON, exactly the bytes that were hashed
     hash: Annotated[str, Field(pattern="^[0-9a-f]{64}$")]
+    key_id: Annotated[str, Field(pattern="^[0-9a-f]{16}$")] | None
+    signature: Annotated[str, Field(pattern="^[0-9a-f]{128}$")] | None  # over the hash's ASCII
 
 
 def export_jsonl(db: Database, out: TextIO) -> int:
     """Write one JSON object per event, fields exactly as hashed; returns the count."""
     count = 0
-    for seq, at, operator, action, object_ref, parent_ref, payload, prev_hash, digest in _rows(db):
+    for row in _rows(db):
+        seq, at, operator, action, object_ref, parent_ref, payload, prev_hash, digest = row[:9]
+        fmt, os_user, host, db_user, key, signature = row[9:]
         record = {
+            "format": fmt,
             "seq": seq,
             "at": ledger_stamp(at),
             "operator": operator,
+            "os_user": os_user,
+            "host": host,
+            "db_user": db_user,
             "action": action,
             "object": object_ref,
             "parent": parent_ref,
             "prev_hash": prev_hash,
             "payload": payload,
             "hash": digest,
+            "key_id": key,
+            "signature": signature,
         }
         # hidden characters as JSON escapes: the values are exact, and a terminal the export
         # is printed to never receives a raw ESC or bidi control from a stored name
@@ -195,14 +220,17 @@ def export_file(db: Database, path: Path, *, force: bool = False) -> tuple[int, 
 
 
 class AnchorFile(BaseModel):
-    """An anchor file (format tracker-anchor/1): the ledger's head kept outside it."""
+    """An anchor file: the ledger's head kept outside it; format 2 is signed by a manager."""
 
-    format: Literal["tracker-anchor/1"]
+    format: Literal["tracker-anchor/1", "tracker-anchor/2"]
     seq: Annotated[int, Field(ge=1)]
     hash: Annotated[str, Field(pattern="^[0-9a-f]{64}$")]
     first_hash: Annotated[str, Field(pattern="^[0-9a-f]{64}$")]  # names the ledger
     taken_at: str  # ISO 8601 UTC
     label: str | None = None  # what it was taken for, e.g. a return report
+    signed_by: str | None = None  # format 2: the manager whose key signed it
+    key_id: Annotated[str, Field(pattern="^[0-9a-f]{16}$")] | None = None
+    signature: Annotated[str, Field(pattern="^[0-9a-f]{128}$")] | None = None
 
 
 def _hash_of(db: Database, seq: int) -> str | None:
@@ -210,8 +238,31 @@ def _hash_of(db: Database, seq: int) -> str | None:
         return session.scalar(select(CustodyEvent.hash).where(CustodyEvent.seq == seq))
 
 
-def current_anchor(db: Database, label: str | None = None) -> Anchor:
-    """The ledger's head now, as an anchor; refused for an empty ledger."""
+def _signed(db: Database, actor: str | None, anchor: Anchor) -> Anchor:
+    """``anchor`` signed by ``actor``'s unlocked key, which must be a manager's. A ledger that
+    has no key yet (kept before signing) gets an unsigned anchor, as before."""
+    authority = signing.read(db)
+    if not authority.keys:
+        return anchor
+    if not actor:
+        raise InputError("--as", None, "no operator given; an anchor is signed by a manager")
+    signer = signing.signer_for(authority, actor, db.keyring)
+    assert signer is not None  # the ledger has keys
+    if not authority.is_manager(actor):
+        role = authority.role(actor) or "stranger to this ledger"
+        managers = ", ".join(authority.managers())
+        raise RuleViolation(
+            "--as",
+            actor,
+            f"signing an anchor needs an operator with the manager role ({actor} is a {role}); "
+            f"ask a manager ({managers}) to do it",
+        )
+    return anchor.signed(signer, actor)
+
+
+def current_anchor(db: Database, actor: str | None, label: str | None = None) -> Anchor:
+    """The ledger's head now, as an anchor signed by ``actor`` (a manager); refused for an
+    empty ledger."""
     with db.read_session() as session:
         head = session.execute(
             select(CustodyEvent.seq, CustodyEvent.hash).order_by(CustodyEvent.seq.desc()).limit(1)
@@ -219,16 +270,19 @@ def current_anchor(db: Database, label: str | None = None) -> Anchor:
         first = session.scalar(select(CustodyEvent.hash).where(CustodyEvent.seq == 1))
     if head is None or first is None:
         raise RuleViolation("--db", db.url, "the ledger has no events to anchor")
-    return make_anchor(head.seq, head.hash, first, db.clock(), label)
+    return _signed(db, actor, make_anchor(head.seq, head.hash, first, db.clock(), label))
 
 
-def anchor_for(db: Database, seq: int, head_hash: str, label: str | None = None) -> Anchor:
-    """An anchor of an event a document shows (a report's head), checked against the ledger."""
+def anchor_for(
+    db: Database, actor: str | None, seq: int, head_hash: str, label: str | None = None
+) -> Anchor:
+    """An anchor of an event a document shows (a report's head), checked against the ledger
+    and signed by ``actor`` (a manager)."""
     if _hash_of(db, seq) != head_hash:
         raise RuleViolation("--db", db.url, f"the ledger holds no event #{seq} with that hash")
     first = _hash_of(db, 1)
     assert first is not None  # event #seq exists, so event 1 does
-    return make_anchor(seq, head_hash, first, db.clock(), label)
+    return _signed(db, actor, make_anchor(seq, head_hash, first, db.clock(), label))
 
 
 @dataclass(frozen=True)
@@ -238,12 +292,18 @@ class WrittenAnchor:
 
 
 def write_anchor(
-    db: Database, path: Path, label: str | None = None, *, force: bool = False
+    db: Database,
+    actor: str | None,
+    path: Path,
+    label: str | None = None,
+    *,
+    force: bool = False,
 ) -> WrittenAnchor:
-    """Write the current head to a new file ``path`` (whole or not at all; an existing file
-    only with ``force``, kept beside it; never the database: :mod:`tracker.db.outputs`)."""
+    """Write the current head, signed, to a new file ``path`` (whole or not at all; an
+    existing file only with ``force``, kept beside it; never the database:
+    :mod:`tracker.db.outputs`)."""
     outputs.check_target(path, "out", force=force, database=db.path)
-    anchor = current_anchor(db, label)
+    anchor = current_anchor(db, actor, label)
     written = outputs.write_new(
         path, anchor.to_text().encode(), "out", force=force, database=db.path, clock=db.clock
     )
@@ -277,10 +337,20 @@ class AnchoredReport:
         return self.chain.ok and self.anchor.ok
 
 
-def verify_against(db: Database, anchor: Anchor) -> AnchoredReport:
-    """The whole chain verified, and the anchored event still in it with the same hash."""
-    chain = verify(db)
+def verify_against(
+    db: Database, anchor: Anchor, progress: Progress | None = None
+) -> AnchoredReport:
+    """The whole chain verified, the anchored event still in it with the same hash, and the
+    anchor's signature a manager's, by the keys the ledger held at that event."""
+    chain = verify(db, progress)
     with db.read_session() as session:
         stored_head = session.scalar(select(func.max(CustodyEvent.seq))) or 0
+        anchored_format = session.scalar(
+            select(CustodyEvent.format).where(CustodyEvent.seq == anchor.seq)
+        )
     check = check_anchor(anchor, _hash_of(db, 1), stored_head, _hash_of(db, anchor.seq))
+    if check.ok and anchored_format is not None:
+        problem = signature_problem(anchor, signing.upto(db, anchor.seq), anchored_format)
+        if problem is not None:
+            check = AnchorCheck(False, anchor.seq, anchor.hash, problem)
     return AnchoredReport(chain, check)

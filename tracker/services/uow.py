@@ -10,6 +10,12 @@ Everyone else waits while a unit of work is open, so a service reads and checks
 its input (a whole file, for importers) *before* opening one, and does only the
 database's part inside. A writer that waits in vain leaves with ``Busy`` (exit 3)
 naming the holder (``tracker.db.writer_lock``).
+
+Every event is signed (:mod:`tracker.services.authority`): the unit of work finds its
+operator's unlocked, registered key when it opens (or refuses before any work), asks the
+ledger — never the ``operator`` table — whether the operator is a manager, and signs the
+event's hash when it records it. Whatever :func:`tracker.domain.authority.manager_needed`
+says needs a manager is refused otherwise, here as in ``ledger verify``.
 """
 
 from __future__ import annotations
@@ -27,12 +33,15 @@ from sqlalchemy.orm import Session
 from tracker.db.database import Database
 from tracker.db.rows import insert_rows
 from tracker.db.writer_lock import WriterLock
+from tracker.domain.authority import FORMAT_2, Authority, manager_needed
 from tracker.domain.base import HasPublicId
 from tracker.domain.errors import InputError, RuleViolation
-from tracker.domain.ledger import GENESIS_HASH, canonical_json, event_hash
-from tracker.domain.models import BackdatedEntry, CustodyEvent, EventRef, Operator, Role, Specimen
+from tracker.domain.ledger import GENESIS_HASH, Origin, canonical_json, seal
+from tracker.domain.models import BackdatedEntry, CustodyEvent, EventRef, Operator, Specimen
+from tracker.domain.signing import Signer
 from tracker.domain.timeutil import as_utc, iso_utc
 from tracker.domain.timing import describe_window, hours_of, show
+from tracker.services import authority as signing
 
 Ref = HasPublicId | str | None
 # event_ref rows are written by the driver's executemany: an index, never ORM objects here
@@ -69,6 +78,12 @@ class UnitOfWork:
     session: Session
     operator: Operator
     now: datetime
+    # who may sign (from the ledger), the key this unit signs with, where it comes from;
+    # a ledger kept before signing has no key yet: then ``signer`` is None until a manager
+    # registers their own first key (``keys.register_key`` sets it)
+    authority: Authority = field(default_factory=Authority)
+    signer: Signer | None = None
+    origin: Origin = field(default_factory=lambda: Origin("", ""))
     events: list[CustodyEvent] = field(default_factory=list)
     committed: bool = False
     # Rows that must name this unit's event (a queued label names the event that queued
@@ -87,31 +102,36 @@ class UnitOfWork:
         self.mentions.update(ref for ref in refs if ref)
 
     def require_manager(self, action: str) -> None:
-        """Refuse an action reserved for managers: who tried, what it needs, who can do it."""
-        if self.operator.role is Role.MANAGER:
+        """Refuse an action reserved for managers: who tried, what it needs, who can do it.
+
+        The role is the ledger's (signed events), never the ``operator`` table's."""
+        code = self.operator.code
+        if self.authority.is_manager(code):
             return
-        managers = self.session.scalars(
-            select(Operator.code)
-            .where(Operator.role == Role.MANAGER, Operator.active.is_(True))
-            .order_by(Operator.code)
-        ).all()
+        managers = self.authority.managers()
         who = f"; ask a manager ({', '.join(managers)}) to do it" if managers else ""
+        role = self.authority.role(code) or self.operator.role.value
         raise RuleViolation(
             "--as",
-            self.operator.code,
-            f"{action} needs an operator with the manager role "
-            f"({self.operator.code} is a {self.operator.role.value}){who}",
+            code,
+            f"{action} needs an operator with the manager role ({code} is a {role}){who}",
         )
 
     def record(
         self, action: str, obj: Ref, payload: dict[str, Any], parent: Ref = None
     ) -> CustodyEvent:
-        """Append this unit's one custody event, chained to the current head."""
+        """Append this unit's one custody event, chained to the current head and signed."""
         if self.events:
             raise RuntimeError("a service records exactly one custody event")
         if self.backdated is not None:  # last: refusals about the entry itself come first
             self.require_manager(self.backdated.action())
             payload = {**payload, "backdated": self.backdated.payload()}
+        text = canonical_json(payload)
+        needed = manager_needed(action, self.operator.code, text)
+        if needed is not None:  # the verifier's own rule: no service can forget it
+            self.require_manager(needed)
+        if self.signer is None:
+            raise RuleViolation("--as", self.operator.code, signing.NO_KEYS_YET)
         self.session.flush()  # new rows get their IDs before the event names them
         event = append_event(
             self.session,
@@ -121,6 +141,8 @@ class UnitOfWork:
             object_ref=_ref(obj),
             parent_ref=_ref(parent),
             payload=payload,
+            signer=self.signer,
+            origin=self.origin,
         )
         self.events.append(event)
         refs = sorted(self.mentions - {event.object_ref, event.parent_ref})
@@ -171,13 +193,16 @@ def append_event(
     object_ref: str,
     parent_ref: str,
     payload: dict[str, Any],
+    signer: Signer,
+    origin: Origin,
 ) -> CustodyEvent:
-    """Write the next ledger event; the caller must hold the writer lock."""
+    """Write the next ledger event, signed; the caller must hold the writer lock."""
     head = session.execute(
         select(CustodyEvent.seq, CustodyEvent.hash).order_by(CustodyEvent.seq.desc()).limit(1)
     ).first()
     seq, prev = (head.seq + 1, head.hash) if head else (1, GENESIS_HASH)
     text = canonical_json(payload)
+    sealed = seal(seq, at, operator, origin, action, object_ref, parent_ref, prev, text, signer)
     event = CustodyEvent(
         seq=seq,
         at=at,
@@ -187,7 +212,13 @@ def append_event(
         parent_ref=parent_ref,
         payload=text,
         prev_hash=prev,
-        hash=event_hash(seq, at, operator, action, object_ref, parent_ref, prev, text),
+        hash=sealed.hash,
+        format=FORMAT_2,
+        os_user=origin.os_user,
+        host=origin.host,
+        db_user=origin.db_user,
+        key_id=sealed.key_id,
+        signature=sealed.signature,
     )
     session.add(event)
     session.flush()
@@ -207,7 +238,16 @@ def unit_of_work(db: Database, actor: str | None, doing: str = "") -> Iterator[U
         session.begin()
         lock.take(session)  # waits for other writers; Busy, naming the holder, if in vain
         operator = find_operator(session, actor)
-        uow = UnitOfWork(session, operator, as_utc(db.clock()), release=lock.release)
+        authority = signing.current(session, db)
+        uow = UnitOfWork(
+            session,
+            operator,
+            as_utc(db.clock()),
+            authority,
+            signing.signer_for(authority, operator.code, db.keyring),
+            signing.origin(session, db),
+            release=lock.release,
+        )
         yield uow
         if not uow.committed:
             lock.release()

@@ -7,17 +7,9 @@ that is set (tests point it at a temporary folder). Nothing here touches the dat
 from __future__ import annotations
 
 import json
-import os
 from pathlib import Path
 
-
-def config_dir() -> Path:
-    given = os.environ.get("TRACKER_CONFIG_DIR")
-    if given:
-        return Path(given)
-    from platformdirs import user_config_dir
-
-    return Path(user_config_dir("tracker", appauthor=False))
+from tracker.db.location import config_dir
 
 
 def _file() -> Path:

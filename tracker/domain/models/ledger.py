@@ -4,19 +4,29 @@ from __future__ import annotations
 
 from datetime import datetime
 
-from sqlalchemy import ForeignKey, Index, String, Text
+from sqlalchemy import ForeignKey, Index, String, Text, text
 from sqlalchemy.orm import Mapped, mapped_column
 
+from tracker.domain.authority import AUTHORITY_SQL, FORMAT_1
 from tracker.domain.base import Base
 
 
 class CustodyEvent(Base):
-    """One recorded action. ``hash`` covers every column but itself (see tracker.domain.ledger)."""
+    """One recorded action. ``hash`` covers every column but itself, ``key_id`` and
+    ``signature`` (see tracker.domain.ledger); the signature covers the hash."""
 
     __tablename__ = "custody_event"
     __table_args__ = (
         Index("ix_custody_event_object_ref", "object_ref"),
         Index("ix_custody_event_parent_ref", "parent_ref"),
+        # the few events that say who may sign (tracker.domain.authority), read by every
+        # unit of work: a partial index, so the million others cost it nothing
+        Index(
+            "ix_custody_event_authority",
+            "seq",
+            sqlite_where=text(AUTHORITY_SQL),
+            postgresql_where=text(AUTHORITY_SQL),
+        ),
     )
 
     seq: Mapped[int] = mapped_column(primary_key=True, autoincrement=False)
@@ -28,6 +38,13 @@ class CustodyEvent(Base):
     payload: Mapped[str] = mapped_column(Text)  # canonical JSON, exactly as hashed
     prev_hash: Mapped[str] = mapped_column(String(64))
     hash: Mapped[str] = mapped_column(String(64), unique=True)
+    # the canonical form the hash was computed by; events from before signing keep format 1
+    format: Mapped[str] = mapped_column(String(20), server_default=FORMAT_1)
+    os_user: Mapped[str] = mapped_column(String(64), server_default="")  # who ran tracker
+    host: Mapped[str] = mapped_column(String(255), server_default="")  # on which computer
+    db_user: Mapped[str] = mapped_column(String(63), server_default="")  # PostgreSQL login
+    key_id: Mapped[str | None] = mapped_column(String(16))  # the signer's key (not hashed)
+    signature: Mapped[str | None] = mapped_column(String(128))  # Ed25519 over the hash
 
 
 class EventRef(Base):
