@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import json
 import re
 import subprocess
 import sys
@@ -41,12 +42,17 @@ def test_ci_runs_the_readme_test_command_verbatim() -> None:
     assert "TRACKER_REQUIRE_PG=1" in ci  # PostgreSQL tests may not be skipped in CI
 
 
-def test_readme_verification_recipe_accepts_an_export_and_rejects_tampering(tmp_path: Path) -> None:
-    recipe = _blocks(_section("The custody ledger"), "python")
-    assert len(recipe) == 1 and len(recipe[0].splitlines()) <= 20
-    script = tmp_path / "verify.py"
-    script.write_text(recipe[0], encoding="utf-8")
+def _recipe(tmp_path: Path, marker: str) -> Path:
+    """The ledger section's Python block that uses ``marker``, written out as a script."""
+    blocks = [b for b in _blocks(_section("The custody ledger"), "python") if marker in b]
+    assert len(blocks) == 1
+    script = tmp_path / f"recipe-{len(list(tmp_path.glob('recipe-*')))}.py"
+    script.write_text(blocks[0], encoding="utf-8")
+    return script
 
+
+def _exported(tmp_path: Path) -> tuple[Path, int, str]:
+    """A real export: a seeded lab with a loan and a drilled powder."""
     seed(str(tmp_path / "l.sqlite"))
     db = open_database(tmp_path / "l.sqlite", clock=TickingClock())
     make.powder(db, make.specimen(db, make.loan(db)), mg="1.500")
@@ -55,24 +61,54 @@ def test_readme_verification_recipe_accepts_an_export_and_rejects_tampering(tmp_
         count = ledger.export_jsonl(db, handle)
     head = ledger.verify(db).head_hash
     db.close()
+    return export, count, head
 
-    good = subprocess.run(
+
+def _run(script: Path, export: Path) -> subprocess.CompletedProcess[str]:
+    return subprocess.run(
         [sys.executable, str(script), str(export)], capture_output=True, text=True
     )
+
+
+def test_readme_verification_recipe_accepts_an_export_and_rejects_tampering(tmp_path: Path) -> None:
+    script = _recipe(tmp_path, "hashlib")
+    assert len(script.read_text(encoding="utf-8").splitlines()) <= 20
+    export, count, head = _exported(tmp_path)
+
+    good = _run(script, export)
     assert good.returncode == 0, good.stderr
     assert f"intact: {count} events, head {head}" in good.stdout
 
     lines = export.read_text(encoding="utf-8").splitlines()
     lines[3] = lines[3].replace("Test loan", "Test lean")
     export.write_text("\n".join(lines) + "\n", encoding="utf-8")
-    bad = subprocess.run([sys.executable, str(script), str(export)], capture_output=True, text=True)
+    bad = _run(script, export)
     assert bad.returncode != 0 and "broken at event 4" in bad.stderr
 
     export.write_text("", encoding="utf-8")  # a ledger with no first event is not intact
-    empty = subprocess.run(
-        [sys.executable, str(script), str(export)], capture_output=True, text=True
-    )
+    empty = _run(script, export)
     assert empty.returncode != 0 and "no events" in empty.stderr
+
+
+def test_readme_signature_recipe_accepts_an_export_and_rejects_one_altered_signature(
+    tmp_path: Path,
+) -> None:
+    script = _recipe(tmp_path, "Ed25519PublicKey")
+    export, count, _ = _exported(tmp_path)
+
+    good = _run(script, export)
+    assert good.returncode == 0, good.stderr
+    assert f"signatures valid: {count} signed, 0 unsigned" in good.stdout
+
+    lines = export.read_text(encoding="utf-8").splitlines()
+    record = json.loads(lines[4])
+    flipped = "1" if record["signature"][0] == "0" else "0"
+    record["signature"] = flipped + record["signature"][1:]
+    lines[4] = json.dumps(record, ensure_ascii=False)
+    export.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    bad = _run(script, export)
+    assert bad.returncode != 0
+    assert f"event {record['seq']}: the signature does not match" in bad.stderr
 
 
 def test_readme_labels_section_names_real_stocks_commands_and_a_valid_stock_file(

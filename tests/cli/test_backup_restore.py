@@ -108,7 +108,11 @@ def test_restore_refuses_a_backup_older_than_the_anchor(lab: Lab, tmp_path: Path
     ok_json(invoke("backup", str(copy), db=lab.path, as_json=True))
     _add_building(lab, "Annex anchored")
     anchor = tmp_path / "head.json"
-    ok_json(invoke("ledger", "anchor", "--out", str(anchor), db=lab.path, actor=lab.manager, as_json=True))
+    ok_json(
+        invoke(
+            "ledger", "anchor", "--out", str(anchor), db=lab.path, actor=lab.manager, as_json=True
+        )
+    )
     before = lab.path.read_bytes()
     result = invoke(
         "restore",

@@ -19,7 +19,11 @@ def test_anchor_then_verify_passes_and_a_rolled_back_copy_fails(lab: Lab, tmp_pa
         )
     )
     anchor = tmp_path / "head.json"
-    written = ok_json(invoke("ledger", "anchor", "--out", str(anchor), db=lab.path, actor=lab.manager, as_json=True))
+    written = ok_json(
+        invoke(
+            "ledger", "anchor", "--out", str(anchor), db=lab.path, actor=lab.manager, as_json=True
+        )
+    )
     assert json.loads(anchor.read_text())["seq"] == written["seq"]
     validate(json.loads(anchor.read_text()), "anchor.schema.json")
 

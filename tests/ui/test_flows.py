@@ -317,8 +317,8 @@ async def test_ledger_verified_with_its_head_hash(lab: Lab) -> None:
         await settle(pilot)
         result = text_of(screen.query_one("#verify-result", Static))
         assert result == (
-            f"✓ ledger intact: {expected.events} events · head #{expected.head_seq} "
-            f"{expected.head_hash}"
+            f"✓ ledger intact: {expected.events} events · {expected.events} signed, every "
+            f"signature valid · head #{expected.head_seq} {expected.head_hash}"
         )
         assert screen.query_one("#verify-progress").percentage == 1.0
 

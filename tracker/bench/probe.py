@@ -1,10 +1,11 @@
 """Child processes for figures that need a fresh interpreter: ledger verification and its floor.
 
 ``python -m tracker.bench.probe verify TARGET`` times ``ledger.verify``;
-``python -m tracker.bench.probe verify-floor FILE`` times the bare loop (raw ``sqlite3`` and
-``hashlib``, nothing of tracker imported). Each prints one JSON line with its own peak
-resident memory (``VmHWM``). The child must say it: the kernel's ``ru_maxrss`` for a child
-also counts the parent's pages it carried between fork and exec.
+``python -m tracker.bench.probe verify-floor FILE`` times the bare loop (raw ``sqlite3``,
+``hashlib`` and ``cryptography``'s Ed25519, nothing of tracker imported). Each prints one
+JSON line with its own peak resident memory (``VmHWM``). The child must say it: the
+kernel's ``ru_maxrss`` for a child also counts the parent's pages it carried between fork
+and exec.
 """
 
 from __future__ import annotations
@@ -15,24 +16,51 @@ import time
 
 
 def bare_verify(path: str) -> dict[str, object]:
-    """Read every event with the sqlite3 module and hash the canonical bytes it stores."""
+    """Read every event with the sqlite3 module, hash the canonical bytes it stores (by its
+    format) and check each signature with the ``cryptography`` package against the key an
+    earlier event registered to its operator (nothing of tracker imported)."""
     import hashlib
+    import json
     import sqlite3
+
+    from cryptography.exceptions import InvalidSignature
+    from cryptography.hazmat.primitives.asymmetric.ed25519 import Ed25519PublicKey
 
     connection = sqlite3.connect(f"file:{path}?mode=ro", uri=True)
     cursor = connection.execute(
-        "SELECT seq, at, operator, action, object_ref, parent_ref, prev_hash, payload, hash "
-        "FROM custody_event ORDER BY seq"
+        "SELECT seq, at, operator, action, object_ref, parent_ref, prev_hash, payload, hash, "
+        "format, os_user, host, db_user, key_id, signature FROM custody_event ORDER BY seq"
     )
+    keys: dict[str, tuple[str, Ed25519PublicKey]] = {}
+    registers = ("ledger.opened", "operator.added", "key.registered")
     previous, count, ok = "0" * 64, 0, True
-    for seq, at, operator, action, obj, parent, prev_hash, payload, digest in cursor:
+    for row in cursor:
+        seq, at, operator, action, obj, parent, prev_hash, payload, digest = row[:9]
+        fmt, os_user, host, db_user, key_id, signature = row[9:]
         stamp = f"{at[:10]}T{at[11:]}Z"  # stored "2016-01-05 08:00:00.000000" → ISO 8601 UTC
-        data = "\n".join(
-            ("tracker-ledger/1", str(seq), stamp, operator, action, obj, parent, prev_hash, payload)
-        ).encode("utf-8")
+        origin = (os_user, host, db_user) if fmt == "tracker-ledger/2" else ()
+        fields = (fmt, str(seq), stamp, operator, *origin, action, obj, parent, prev_hash, payload)
+        data = "\n".join(fields).encode("utf-8")
         if prev_hash != previous or hashlib.sha256(data).hexdigest() != digest:
             ok = False
             break
+        if fmt == "tracker-ledger/2":
+            if action in registers or action == "key.revoked":
+                facts = json.loads(payload)
+                key = facts.get("key")
+                if action in registers and key:
+                    public = bytes.fromhex(key["public_key"])
+                    keys[key["id"]] = (key["operator"], Ed25519PublicKey.from_public_bytes(public))
+            owner, public_key = keys.get(key_id, ("", None))
+            try:
+                if public_key is None or owner != operator:
+                    raise InvalidSignature
+                public_key.verify(bytes.fromhex(signature), digest.encode("ascii"))
+            except InvalidSignature:
+                ok = False
+                break
+            if action == "key.revoked":
+                keys.pop(facts["key_id"], None)
         previous, count = digest, count + 1
     connection.close()
     return {"events": count, "ok": ok, "head": previous}

@@ -25,7 +25,16 @@ from tracker.domain.errors import TrackerError
 from tracker.io.demo import StepClock
 
 Backend = Literal["sqlite", "postgresql", "both"]
-SQLITE_FIGURES = ("reconcile", "verify", "manifest", "lookup", "lineage", "labels", "tui")
+SQLITE_FIGURES = (
+    "reconcile",
+    "verify",
+    "signing",
+    "manifest",
+    "lookup",
+    "lineage",
+    "labels",
+    "tui",
+)
 PG_FIGURES = ("pg",)
 LINEAR = 1.15  # growth exponents up to this count as linear (timings on a busy 2-core machine)
 
@@ -147,6 +156,7 @@ def _sqlite(options: Options, scale: float, report: Report) -> None:
     steps: dict[str, Callable[[], list[Figure]]] = {
         "reconcile": lambda: [figures_read.reconcile_figure(db, options.repeat)],
         "verify": lambda: figures_ledger.verify_figures(built.target, options.repeat),
+        "signing": lambda: [figures_ledger.signing_figure(db, options.repeat)],
         "manifest": lambda: _manifest(built, options),
         "lookup": lambda: [figures_read.lookup_figure(db)],
         "lineage": lambda: [figures_read.lineage_figure(db)],

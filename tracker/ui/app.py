@@ -8,10 +8,16 @@ Start-up draws before it loads: this module imports neither SQLAlchemy nor the s
 With an operator named (``--as``) on a SQLite file, the open loans' glance
 (:mod:`tracker.services.glance`) fills the overview while a worker opens the database
 through the services, which then read the overview again.
+
+Signing: when an operator is chosen the app asks, once, for the passphrase of their key
+(:class:`~tracker.ui.screens.passphrase.PassphraseScreen`); the unlocked key stays in this
+process's memory only, and after ``lock_after`` seconds without a key press or a click it
+is forgotten and the passphrase asked for again.
 """
 
 from __future__ import annotations
 
+import time
 from collections.abc import Iterable, Sequence
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, ClassVar
@@ -40,6 +46,7 @@ from tracker.ui.widgets.id_field import IdInput
 
 if TYPE_CHECKING:  # loaded by the workers that open the database, after the first screen
     from tracker.db.database import Database
+    from tracker.db.keyfiles import KeyFile
     from tracker.services.views import OperatorView
 
 
@@ -55,6 +62,22 @@ class GlanceRead(Message):
     def __init__(self, glance: Glance | None) -> None:
         super().__init__()
         self.glance = glance
+
+
+class KeyNeeded(Message):
+    """The operator's key is locked: ask for its passphrase (``why``: after the idle lock)."""
+
+    def __init__(self, key_file: KeyFile, why: str) -> None:
+        super().__init__()
+        self.key_file, self.why = key_file, why
+
+
+class KeyProblem(Message):
+    """The operator cannot sign here (no key registered, revoked, no key file ...)."""
+
+    def __init__(self, error: TrackerError) -> None:
+        super().__init__()
+        self.error = error
 
 
 class DatabaseFailed(Message):
@@ -99,9 +122,14 @@ class TrackerApp(App[None]):
         clock: Clock = utcnow,
         out_dir: Path | None = None,
         glancer: Glancer | None = None,
+        lock_after: float | None = None,
     ) -> None:
         super().__init__()
         self.target, self.preselected, self.clock = target, operator, clock
+        # seconds without input before the signing key is locked again (TRACKER_LOCK_AFTER)
+        self.lock_after = lock_after if lock_after is not None else settings.lock_after()
+        self._last_input = time.monotonic()
+        self.signing = False  # the operator's key is unlocked (as far as this app knows)
         self.out_dir = out_dir or Path.cwd()  # where printed label PDFs are written
         self.db: Database | None = None
         self.operator: str | None = None
@@ -124,6 +152,7 @@ class TrackerApp(App[None]):
 
     # ------------------------------------------------------------------ start-up
     def on_mount(self) -> None:
+        self.set_interval(min(self.lock_after / 3, 5.0), self._lock_when_idle)
         self.status_line = "opening the database …"
         if self._glancer is None:
             self.open_database()
@@ -191,6 +220,8 @@ class TrackerApp(App[None]):
         role = self.role or "?"
         mark = "★ manager" if role == "manager" else f"{role} (no overrides)"
         self.operator_label = f"operator: {code} · {mark}"
+        self.signing = False
+        self.find_key(code)
         if not first:
             return
         from tracker.ui.screens.overview import OverviewScreen
@@ -200,6 +231,59 @@ class TrackerApp(App[None]):
             shown[0].action_refresh()
         else:
             self.push_screen(OverviewScreen())
+
+    # ------------------------------------------------------------------ the signing key
+    @work(thread=True, exclusive=True, group="key")
+    def find_key(self, code: str, why: str = "") -> None:
+        """Which key file to unlock for ``code`` (none: unlocked already), or why none can."""
+        from tracker.services import keys
+
+        if self.db is None:
+            return
+        try:
+            key_file = keys.key_to_unlock(self.db, code)
+        except TrackerError as error:
+            self.post_message(KeyProblem(error))
+            return
+        if key_file is None:
+            self.call_from_thread(setattr, self, "signing", True)
+        else:
+            self.post_message(KeyNeeded(key_file, why))
+
+    def on_key_needed(self, event: KeyNeeded) -> None:
+        from tracker.ui.screens.passphrase import PassphraseScreen
+
+        assert self.db is not None
+
+        def unlocked(done: bool | None) -> None:
+            self.signing = bool(done)
+            self._last_input = time.monotonic()
+            if done:
+                self.status_line = f"✓ {event.key_file.operator}'s key is unlocked"
+
+        self.push_screen(PassphraseScreen(self.db, event.key_file, event.why), unlocked)
+
+    def on_key_problem(self, event: KeyProblem) -> None:
+        self.status_line = f"✗ {event.error.one_line()}"
+        self.tell(event.error.one_line(), title="✗ no signing key", severity="error", timeout=10)
+
+    def _lock_when_idle(self) -> None:
+        idle = time.monotonic() - self._last_input
+        if self.signing and self.operator is not None and idle >= self.lock_after:
+            self.signing = False
+            self.lock_key(self.operator)
+
+    @work(thread=True, exclusive=True, group="key")
+    def lock_key(self, code: str) -> None:
+        """Forget the operator's unlocked keys, then ask for the passphrase again."""
+        from tracker.services import keys
+
+        if self.db is None:
+            return
+        keys.lock(self.db, code)
+        minutes = self.lock_after / 60
+        said = f"{minutes:g} minute(s)" if minutes >= 1 else f"{self.lock_after:g} s"
+        self.call_from_thread(self.find_key, code, f"Locked after {said} without input.")
 
     def action_choose_operator(self) -> None:
         from tracker.ui.screens.operator_pick import OperatorScreen
@@ -311,6 +395,8 @@ class TrackerApp(App[None]):
 
     # ------------------------------------------------------------------ scanning
     async def on_event(self, event: events.Event) -> None:
+        if isinstance(event, events.Key | events.MouseDown):
+            self._last_input = time.monotonic()  # the idle lock counts from here
         if (
             isinstance(event, events.Key)
             and not event.is_forwarded

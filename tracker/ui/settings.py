@@ -1,4 +1,5 @@
-"""What the terminal interface remembers on this machine: the operator last chosen per database.
+"""What the terminal interface remembers on this machine: the operator last chosen per database;
+and how long it keeps a signing key unlocked without input (TRACKER_LOCK_AFTER).
 
 Kept as JSON in the user's config directory (platformdirs), or in TRACKER_CONFIG_DIR when
 that is set (tests point it at a temporary folder). Nothing here touches the database.
@@ -7,6 +8,7 @@ that is set (tests point it at a temporary folder). Nothing here touches the dat
 from __future__ import annotations
 
 import json
+import os
 from pathlib import Path
 
 from tracker.db.location import config_dir
@@ -46,3 +48,28 @@ def remember_operator(database: str, code: str) -> None:
         _file().write_text(json.dumps(data, indent=2, sort_keys=True), encoding="utf-8")
     except OSError:
         pass
+
+
+LOCK_AFTER_ENV = "TRACKER_LOCK_AFTER"
+DEFAULT_LOCK_AFTER = 15 * 60.0  # seconds without a key press or a click
+MAX_LOCK_AFTER = 24 * 3600.0
+
+
+def lock_after() -> float:
+    """How long the interface keeps a signing key unlocked without input, in seconds:
+    TRACKER_LOCK_AFTER, else 15 minutes. Anything but a number of seconds up to a day is
+    refused in one line."""
+    from tracker.domain.errors import InputError
+
+    given = os.environ.get(LOCK_AFTER_ENV)
+    if given is None or not given.strip():
+        return DEFAULT_LOCK_AFTER
+    try:
+        seconds = float(given)
+    except ValueError:
+        seconds = -1.0
+    if not 0 < seconds <= MAX_LOCK_AFTER:  # also refuses NaN
+        raise InputError(
+            LOCK_AFTER_ENV, given, "is not a number of seconds above 0, up to 86400 (a day)"
+        )
+    return seconds

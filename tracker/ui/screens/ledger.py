@@ -140,7 +140,13 @@ class LedgerScreen(Screen[None]):
         r = event.report
         result = self.query_one("#verify-result", Static)
         if r.ok:
-            line = f"✓ ledger intact: {r.events} events · head #{r.head_seq} {r.head_hash}"
+            signed = f"{r.signed} signed, every signature valid"
+            if r.unsigned:
+                signed += f" · {r.unsigned} unsigned (recorded before signing)"
+            line = (
+                f"✓ ledger intact: {r.events} events · {signed} · head #{r.head_seq} "
+                f"{r.head_hash}"
+            )
         else:
             line = (
                 f"✗ ledger BROKEN at event #{r.broken_seq}: {r.reason} "
