@@ -1,0 +1,74 @@
+"""The interface and signing keys: the passphrase asked once when the operator is chosen, the
+key locked again after the idle time; a technician's manager action refused however the
+form is filled, even after the ``operator`` table was edited."""
+
+from __future__ import annotations
+
+from sqlalchemy import text
+from textual.widgets import Input, Static
+
+from tests.ui.conftest import Lab, clock, events_after, head, scan, settle, text_of, until
+from tracker.db.keyring import PROCESS
+from tracker.io.demo import DEMO_PASSPHRASE, demo_operators, demo_signer, leave_key_files
+from tracker.ui.app import TrackerApp
+from tracker.ui.screens.drill import DrillScreen
+from tracker.ui.screens.ledger import LedgerScreen
+from tracker.ui.screens.passphrase import PassphraseScreen
+
+TOMAS = demo_signer("tomas").key_id
+
+
+async def test_the_passphrase_is_asked_once_and_again_after_the_idle_time(lab: Lab) -> None:
+    leave_key_files(demo_operators())  # in this test's config folder
+    PROCESS.forget()
+    app = TrackerApp(str(lab.db_path), "tomas", clock=clock, out_dir=lab.out, lock_after=1.5)
+    async with app.run_test(size=(100, 30)) as pilot:
+        await until(pilot, lambda: isinstance(pilot.app.screen, PassphraseScreen))
+        field = pilot.app.screen.query_one("#passphrase", Input)
+        assert field.password  # typed characters are not shown
+        field.value = "not the passphrase at all"
+        await pilot.press("enter")
+        problem = pilot.app.screen.query_one("#passphrase-problem", Static)
+        await until(pilot, lambda: "does not unlock tomas's key" in text_of(problem))
+        assert PROCESS.get(TOMAS) is None and isinstance(pilot.app.screen, PassphraseScreen)
+        field.value = DEMO_PASSPHRASE
+        await pilot.press("enter")
+        await until(pilot, lambda: not isinstance(pilot.app.screen, PassphraseScreen))
+        assert PROCESS.get(TOMAS) is not None
+        for _ in range(3):  # working (keys pressed within the idle time): never asked again
+            await pilot.press("f6")
+            await pilot.pause(0.3)
+            assert not isinstance(pilot.app.screen, PassphraseScreen)
+        assert isinstance(pilot.app.screen, LedgerScreen)
+        await until(pilot, lambda: isinstance(pilot.app.screen, PassphraseScreen), seconds=10)
+        assert PROCESS.get(TOMAS) is None  # forgotten: the key is locked again
+        assert "Locked after" in text_of(pilot.app.screen.query_one(".intro", Static))
+
+
+async def test_a_technician_cannot_override_from_the_interface_even_as_a_manager_in_the_table(
+    lab: Lab,
+) -> None:
+    db = lab.open()
+    with db.engine.begin() as conn:
+        conn.execute(text("UPDATE operator SET role = 'manager' WHERE code = 'tomas'"))
+    db.close()
+    start = head(lab)
+    async with lab.app("tomas").run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        assert "no overrides" in pilot.app.operator_label  # the ledger's role, not the table's
+        await pilot.press("d")
+        await settle(pilot)
+        form = pilot.app.screen
+        assert isinstance(form, DrillScreen)
+        override = form.query_one("#f-override-reason", Input)
+        assert override.disabled
+        await scan(pilot, "SP-00010-U")
+        form.query_one("#f-tare", Input).value = "1200.000 mg"
+        form.query_one("#f-gross", Input).value = "1201.500 mg"  # over the specimen's limit
+        override.value = "forced into the disabled field"  # what a determined person could do
+        await pilot.press("ctrl+s")
+        await until(pilot, lambda: "refused" in text_of(form.query_one("#outcome", Static)))
+        outcome = text_of(form.query_one("#outcome", Static))
+        assert "overriding a loan limit needs an operator with the manager role" in outcome
+        assert "(tomas is a technician)" in outcome
+    assert events_after(lab, start) == []
