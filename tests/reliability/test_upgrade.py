@@ -15,8 +15,7 @@ from typing import Any
 from tests.cli.conftest import invoke, ok_json
 from tests.reliability.report import record
 from tracker.db import migrate
-from tracker.db.database import Database, open_database
-from tracker.db.engine import build_engine
+from tracker.db.database import open_database
 from tracker.services import ledger
 
 FIXTURE = Path(__file__).resolve().parents[1] / "fixtures" / "demo-d02aa5d.sqlite"
@@ -46,14 +45,17 @@ def _tables(path: Path) -> dict[str, dict[tuple[Any, ...], dict[str, Any]]]:
         connection.close()
 
 
-def _old_ledger_head(path: Path) -> ledger.VerifyReport:
-    """Verify the old file's chain with today's verifier, without upgrading it."""
-    url = f"sqlite:///{path}"
-    db = Database(url, build_engine(url))
+def _old_ledger_head(path: Path) -> tuple[int, str]:
+    """The old file's newest event, read without upgrading it (today's verifier reads the
+    columns revision 0009 adds, so it verifies the file once upgraded)."""
+    connection = sqlite3.connect(path)
     try:
-        return ledger.verify(db)
+        seq, digest = connection.execute(
+            "SELECT seq, hash FROM custody_event ORDER BY seq DESC LIMIT 1"
+        ).fetchone()
     finally:
-        db.close()
+        connection.close()
+    return int(seq), str(digest)
 
 
 def test_first_release_database_upgrades_with_every_row_and_event_intact(tmp_path: Path) -> None:
@@ -63,7 +65,7 @@ def test_first_release_database_upgrades_with_every_row_and_event_intact(tmp_pat
     before = _tables(path)
     assert before["alembic_version"] == {(FIRST_REVISION,): {"version_num": FIRST_REVISION}}
     head_before = _old_ledger_head(path)
-    assert head_before.ok and head_before.events == len(before["custody_event"]) == 114
+    assert head_before[0] == len(before["custody_event"]) == 114
 
     db = open_database(path)  # backs the file up, then upgrades it
     try:
@@ -72,7 +74,9 @@ def test_first_release_database_upgrades_with_every_row_and_event_intact(tmp_pat
         db.close()
     after = _tables(path)
 
-    assert head_after == head_before  # same events, same head hash, chain intact
+    assert head_after.ok and (head_after.head_seq, head_after.head_hash) == head_before
+    # recorded before signing: every event unsigned, none counted as a valid signature
+    assert (head_after.unsigned, head_after.signed, head_after.signing_since) == (114, 0, None)
     changed = []
     for table, rows in before.items():
         if table == "alembic_version":
@@ -89,21 +93,35 @@ def test_first_release_database_upgrades_with_every_row_and_event_intact(tmp_pat
     rows = sum(len(r) for r in before.values())
     record(
         "upgrade from the first release (d02aa5d demo)",
-        f"{len(before)} tables, {rows} rows, {head_before.events} events",
-        f"{len(changed)} rows changed, ledger head kept (#{head_after.head_seq})",
+        f"{len(before)} tables, {rows} rows, {head_after.events} events",
+        f"{len(changed)} rows changed, ledger head kept (#{head_after.head_seq}), "
+        f"{head_after.unsigned} events unsigned (recorded before signing)",
     )
 
 
 def test_upgraded_first_release_database_takes_new_work(tmp_path: Path) -> None:
-    """The upgraded file is a working database: today's commands write and verify on it."""
+    """The upgraded file is a working database once its manager registered the first key:
+    today's commands write, sign and verify on it; before that, nothing is recorded."""
     path = tmp_path / "lab.sqlite"
     shutil.copyfile(FIXTURE, path)
     path.chmod(0o600)
     operators = _tables(path)["operator"].values()
     manager = next(o["code"] for o in operators if o["role"] == "manager")
-    building = ok_json(
-        invoke("location", "add", "building", "Annex Z", db=path, actor=manager, as_json=True)
+    add = ("location", "add", "building", "Annex Z")
+    refused = invoke(*add, db=path, actor=manager)
+    assert refused.exit_code == 1 and "has no signing keys yet" in refused.stderr
+    assert len(refused.stderr.strip().splitlines()) == 1
+    public = tmp_path / "first.pub"
+    ok_json(invoke("key", "new", "--out", str(public), actor=manager, as_json=True))
+    first = ok_json(
+        invoke("key", "register", manager, str(public), db=path, actor=manager, as_json=True)
     )
-    assert building["event_seq"] == 115
+    assert first["event_seq"] == 115
+    building = ok_json(invoke(*add, db=path, actor=manager, as_json=True))
+    assert building["event_seq"] == 116
     verified = ok_json(invoke("ledger", "verify", db=path, as_json=True))
-    assert verified["ok"] and verified["events"] == 115
+    assert verified["ok"] and verified["events"] == 116
+    assert (verified["unsigned"], verified["signed"], verified["signing_since"]) == (114, 2, 115)
+    technician = next(o["code"] for o in operators if o["role"] == "technician")
+    late = invoke(*add[:-1], "Annex Y", db=path, actor=technician)
+    assert late.exit_code == 1 and "has no registered signing key" in late.stderr

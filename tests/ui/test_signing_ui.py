@@ -4,16 +4,19 @@ form is filled, even after the ``operator`` table was edited."""
 
 from __future__ import annotations
 
+import pytest
 from sqlalchemy import text
 from textual.widgets import Input, Static
 
 from tests.ui.conftest import Lab, clock, events_after, head, scan, settle, text_of, until
 from tracker.db.keyring import PROCESS
+from tracker.domain.errors import InputError
 from tracker.io.demo import DEMO_PASSPHRASE, demo_operators, demo_signer, leave_key_files
 from tracker.ui.app import TrackerApp
 from tracker.ui.screens.drill import DrillScreen
 from tracker.ui.screens.ledger import LedgerScreen
 from tracker.ui.screens.passphrase import PassphraseScreen
+from tracker.ui.settings import LOCK_AFTER_ENV, lock_after
 
 TOMAS = demo_signer("tomas").key_id
 
@@ -72,3 +75,20 @@ async def test_a_technician_cannot_override_from_the_interface_even_as_a_manager
         assert "overriding a loan limit needs an operator with the manager role" in outcome
         assert "(tomas is a technician)" in outcome
     assert events_after(lab, start) == []
+
+
+@pytest.mark.parametrize("given", ["soon", "0", "-5", "nan", "86401", "1e9"])
+def test_an_idle_time_that_is_not_one_is_refused_in_one_line(
+    given: str, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    monkeypatch.setenv(LOCK_AFTER_ENV, given)
+    with pytest.raises(InputError) as caught:
+        lock_after()
+    assert caught.value.field == LOCK_AFTER_ENV and caught.value.value == given
+
+
+def test_the_idle_time_is_fifteen_minutes_unless_set(monkeypatch: pytest.MonkeyPatch) -> None:
+    monkeypatch.delenv(LOCK_AFTER_ENV, raising=False)
+    assert lock_after() == 15 * 60
+    monkeypatch.setenv(LOCK_AFTER_ENV, "90")
+    assert lock_after() == 90

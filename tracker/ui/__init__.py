@@ -29,7 +29,17 @@ def make_app(
 
 
 def run_tui(target: str, operator: str | None) -> int:
-    """Open the terminal interface on ``target``; returns the exit code."""
-    app = make_app(target, operator, out_dir=Path.cwd())
+    """Open the terminal interface on ``target``; returns the exit code (a setting it cannot
+    use, such as TRACKER_LOCK_AFTER, is one line on stderr)."""
+    import sys
+
+    from tracker.domain.errors import TrackerError
+    from tracker.domain.text_rules import visible
+
+    try:
+        app = make_app(target, operator, out_dir=Path.cwd())
+    except TrackerError as error:
+        print(f"error: {visible(error.one_line(), keep_lines=False)}", file=sys.stderr)
+        return error.exit_code
     app.run()
     return app.return_code or 0
