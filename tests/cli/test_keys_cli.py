@@ -13,6 +13,7 @@ from collections.abc import Iterator
 from pathlib import Path
 
 import pytest
+from typer.testing import Result
 
 from tests import keys
 from tests.cli.conftest import Lab, counts, invoke, ok_json
@@ -31,15 +32,14 @@ def locked(monkeypatch: pytest.MonkeyPatch) -> Iterator[None]:
     PROCESS.forget()
 
 
-def refused(result: object, code: int) -> str:
-    exit_code, stderr = getattr(result, "exit_code", None), getattr(result, "stderr", "")
-    assert exit_code == code, (exit_code, stderr)
-    lines = stderr.strip().splitlines()
+def refused(result: Result, code: int) -> str:
+    assert result.exit_code == code, (result.exit_code, result.stderr)
+    lines = result.stderr.strip().splitlines()
     assert len(lines) == 1, lines
-    return str(lines[0])
+    return lines[0]
 
 
-def add_building(lab: Lab, name: str, actor: str | None = None) -> object:
+def add_building(lab: Lab, name: str, actor: str | None = None) -> Result:
     return invoke(
         "location", "add", "building", name, db=lab.path, actor=actor or lab.manager, as_json=True
     )

@@ -35,7 +35,8 @@ class Measured:
 
 def measure(argv: list[str]) -> Measured:
     """Run ``argv`` as the driver's only child; its peak resident memory and its output."""
-    env = {k: v for k, v in os.environ.items() if not k.startswith("TRACKER_")}
+    keep = ("TRACKER_CONFIG_DIR", "TRACKER_PASSPHRASE")  # the session's key files, unlocked
+    env = {k: v for k, v in os.environ.items() if not k.startswith("TRACKER_") or k in keep}
     found = subprocess.run(
         [sys.executable, "-c", _DRIVER, *argv], capture_output=True, text=True, env=env, check=True
     )

@@ -189,7 +189,11 @@ def _child(job: dict[str, Any]) -> None:
 
 
 def zygote() -> None:
-    """Fork one child per job line; children are reaped by the kernel (SIGCHLD ignored)."""
+    """Fork one child per job line; children are reaped by the kernel (SIGCHLD ignored).
+    The test operators' keys are unlocked once here, as a person's session would be."""
+    from tests import keys
+
+    keys.unlock_all()
     signal.signal(signal.SIGCHLD, signal.SIG_IGN)
     print("ready", flush=True)
     for line in sys.stdin:

@@ -20,6 +20,7 @@ from sqlalchemy import insert, select, text
 
 from tests import factories as make
 from tests import keys
+from tests.conftest import snapshot_counts
 from tracker.db.database import Database
 from tracker.db.keyring import PROCESS
 from tracker.domain.authority import FORMAT_2
@@ -65,7 +66,7 @@ def insert_event(
         body = canonical_json(payload)
         sealed = seal(seq + 1, at, operator, origin, action, obj, "", prev, body, signer)
         session.execute(
-            insert(CustodyEvent.__table__),
+            insert(CustodyEvent),
             {
                 "seq": seq + 1,
                 "at": at,
@@ -339,3 +340,32 @@ def test_roles_change_by_signed_events_and_the_last_manager_stays_one(
     assert promoted.item.role == "manager"
     amend(db, "tech", make.loan(db))  # now a manager's action by tech is signed by a manager
     assert ledger.verify(db).ok
+
+
+@pytest.mark.parametrize(
+    "db_url", [pytest.param("postgresql", marks=pytest.mark.postgresql)], indirect=True
+)
+def test_postgresql_refuses_an_event_that_claims_another_login(db: Database) -> None:
+    before = snapshot_counts(db)
+    with pytest.raises(Exception, match="is not the session user"), db.engine.begin() as conn:
+        conn.execute(
+            text(
+                "INSERT INTO custody_event (seq, at, operator, action, object_ref, parent_ref, "
+                "payload, prev_hash, hash, format, db_user) SELECT seq + 1, at, operator, "
+                "action, object_ref, parent_ref, payload, hash, repeat('e', 64), format, "
+                "'someone_else' FROM custody_event ORDER BY seq DESC LIMIT 1"
+            )
+        )
+    assert snapshot_counts(db) == before
+    with db.engine.begin() as conn:  # without a value the login is filled in by the server
+        conn.execute(
+            text(
+                "INSERT INTO custody_event (seq, at, operator, action, object_ref, parent_ref, "
+                "payload, prev_hash, hash) SELECT seq + 1, at, operator, action, object_ref, "
+                "parent_ref, payload, hash, repeat('f', 64) FROM custody_event "
+                "ORDER BY seq DESC LIMIT 1"
+            )
+        )
+        login = conn.scalar(text("SELECT session_user"))
+        stored = conn.scalar(text("SELECT db_user FROM custody_event ORDER BY seq DESC LIMIT 1"))
+    assert stored == login

@@ -58,6 +58,7 @@ async def test_a_technician_cannot_override_from_the_interface_even_as_a_manager
     start = head(lab)
     async with lab.app("tomas").run_test(size=(80, 24)) as pilot:
         await settle(pilot)
+        assert isinstance(pilot.app, TrackerApp)
         assert "no overrides" in pilot.app.operator_label  # the ledger's role, not the table's
         await pilot.press("d")
         await settle(pilot)

@@ -28,6 +28,11 @@ Esc back · Ctrl+Q quit. Bench forms: **c** check in · **d** drill · **s** dis
 Status is always written in words and symbols: ✓ ok/pass · ⚠ warning · ✗ refused, over a
 limit or failed · ↩ powder to return · ? results or recovery missing.
 
+**Signing.** Every event is signed with its operator's own key. When you choose who you are,
+tracker asks once for your key's passphrase; after a while without a key press (15 minutes,
+or `TRACKER_LOCK_AFTER` seconds) the key is locked and the passphrase asked again. The demo's
+passphrase is `demo passphrase, invented`.
+
 ## Walk-through on the demo database
 
 1. **Check in a specimen by scanning.** Press **c**. Scan the specimen's label (on the demo:
@@ -53,9 +58,9 @@ limit or failed · ↩ powder to return · ? results or recovery missing.
    sheet, **p** prints the whole queue to a PDF (and to a printer if you name one).
 6. **Return report.** On a loan (F2, Enter), **R** opens the return report: every
    specimen's account, the flags and the ledger head; **Ctrl+S** writes it (PDF, CSV, XLSX
-   or JSON) with its anchor file, recorded in the ledger first.
+   or JSON) with its anchor file, signed by a manager's key and recorded in the ledger first.
 7. **The ledger.** Press **F6**: filter by action, operator or item; **v** verifies every
-   hash and shows the head hash to give the lender.
+   hash and signature and shows the head hash to give the lender.
 
 ## On a loan (F2, Enter)
 Enter opens a specimen · **c** check in · **d** drill the selected specimen · **p** plan what

@@ -144,8 +144,7 @@ class LedgerScreen(Screen[None]):
             if r.unsigned:
                 signed += f" · {r.unsigned} unsigned (recorded before signing)"
             line = (
-                f"✓ ledger intact: {r.events} events · {signed} · head #{r.head_seq} "
-                f"{r.head_hash}"
+                f"✓ ledger intact: {r.events} events · {signed} · head #{r.head_seq} {r.head_hash}"
             )
         else:
             line = (
