@@ -135,22 +135,22 @@ def test_a_key_made_but_not_registered_is_unknown_and_signs_nothing(
     lab: Lab, locked: None, tmp_path: Path
 ) -> None:
     made = ok_json(
-        invoke("key", "new", "--out", str(tmp_path / "k.pub"), actor="wren", as_json=True)
+        invoke("key", "new", "--out", str(tmp_path / "k.pub"), actor="wynn", as_json=True)
     )
     ok_json(
         invoke(
             "operator",
             "add",
-            "wren",
+            "wynn",
             "--name",
-            "Wren Tallis",
+            "Wynn Tallis",
             db=lab.path,
             actor=lab.manager,
             as_json=True,
         )
     )
     before = counts(lab.path)
-    line = refused(add_building(lab, "Annex U", actor="wren"), 1)
+    line = refused(add_building(lab, "Annex U", actor="wynn"), 1)
     assert f"key {made['key_id']} is not registered in this ledger" in line
     assert counts(lab.path) == before
     # a manager registers it; the public key file holds exactly the key made
@@ -160,14 +160,14 @@ def test_a_key_made_but_not_registered_is_unknown_and_signs_nothing(
         invoke(
             "key",
             "register",
-            "wren",
+            "wynn",
             str(tmp_path / "k.pub"),
             db=lab.path,
             actor=lab.manager,
             as_json=True,
         )
     )
-    assert ok_json(add_building(lab, "Annex U", actor="wren"))["item"]["path"] == "Annex U"
+    assert ok_json(add_building(lab, "Annex U", actor="wynn"))["item"]["path"] == "Annex U"
 
 
 def test_a_revoked_key_is_refused_and_a_new_one_takes_over(
