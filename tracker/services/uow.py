@@ -96,6 +96,9 @@ class UnitOfWork:
     backdated: Backdating | None = None
     # Lets go of what announces this writer to waiters, just before COMMIT releases the lock.
     release: Callable[[], None] = lambda: None
+    # Set when a service asked for a manager: the event must then say why, in a way the
+    # verifier reads (``manager_needed``), or a technician's forged copy would pass it.
+    manager_asked: str | None = None
 
     def mention(self, *refs: str) -> None:
         """Make the event findable from each of these items' history."""
@@ -107,6 +110,7 @@ class UnitOfWork:
         The role is the ledger's (signed events), never the ``operator`` table's."""
         code = self.operator.code
         if self.authority.is_manager(code):
+            self.manager_asked = self.manager_asked or action
             return
         managers = self.authority.managers()
         who = f"; ask a manager ({', '.join(managers)}) to do it" if managers else ""
@@ -130,6 +134,11 @@ class UnitOfWork:
         needed = manager_needed(action, self.operator.code, text)
         if needed is not None:  # the verifier's own rule: no service can forget it
             self.require_manager(needed)
+        elif self.manager_asked is not None:
+            raise RuntimeError(
+                f"{action}: {self.manager_asked!r} needed a manager, but manager_needed cannot "
+                "tell so from the event: extend tracker.domain.authority.manager_needed"
+            )
         if self.signer is None:
             raise RuleViolation("--as", self.operator.code, signing.NO_KEYS_YET)
         self.session.flush()  # new rows get their IDs before the event names them
