@@ -277,6 +277,11 @@ class EventView(View):
     parent: str
     payload: dict[str, Any]
     hash: str
+    # where it came from and who signed it (empty and None for events before signing)
+    os_user: str = ""
+    host: str = ""
+    db_user: str = ""
+    key_id: str | None = None
 
     @classmethod
     def of(cls, row: CustodyEvent) -> EventView:
@@ -289,6 +294,10 @@ class EventView(View):
             parent=row.parent_ref,
             payload=json.loads(row.payload),
             hash=row.hash,
+            os_user=row.os_user,
+            host=row.host,
+            db_user=row.db_user,
+            key_id=row.key_id,
         )
 
 

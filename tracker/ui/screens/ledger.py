@@ -111,8 +111,16 @@ class LedgerScreen(Screen[None]):
         chosen = getattr(self, "events", {}).get(str(event.row_key.value))
         if chosen is not None:
             payload = json.dumps(chosen.payload, ensure_ascii=False)
+            where = f"{chosen.os_user}@{chosen.host}" + (
+                f" as {chosen.db_user}" if chosen.db_user else ""
+            )
+            signed = (
+                f"signed with key {chosen.key_id} · from {where}"
+                if chosen.key_id
+                else "unsigned (recorded before signing)"
+            )
             self.query_one("#event-payload", Static).update(
-                shown(f"#{chosen.seq} {chosen.hash[:16]}… {payload[:300]}")
+                shown(f"#{chosen.seq} {chosen.hash[:16]}… {signed}\n{payload[:300]}")
             )
 
     def action_verify(self) -> None:
