@@ -157,9 +157,9 @@ def _sessions_whole(url: str, most: int) -> int:
                 .outerjoin(Measurement)
                 .group_by(InstrumentSession.id)
             ).all()
-            events = session.scalar(
+            events = session.execute(
                 select(func.count()).where(CustodyEvent.action == "session.imported")
-            )
+            ).scalar_one()
         assert all(rows == EXPORT_ROWS for _, rows in sizes), sizes
         digests = [digest for digest, _ in sizes]
         assert len(set(digests)) == len(digests) == events <= most

@@ -12,6 +12,7 @@ from __future__ import annotations
 
 from collections.abc import Callable
 from dataclasses import dataclass
+from functools import partial
 from pathlib import Path
 
 import pytest
@@ -157,34 +158,40 @@ TEXT = {  # a well-formed file of each text importer, to spoil
     "mapping profile (JSON)": '{\n  "format": "csv"\n}',
     "label stock file": STOCK,
 }
+
+
+def _unclosed_quote(header: str) -> bytes:
+    return f'{header}\n1,"STD-X,2.1\n2,b,3\n'.encode()
+
+
 # (importer, case, file bytes, words the one line must hold; "row" cases name row and column)
 CASES: list[tuple[str, str, Callable[[], bytes], tuple[str, ...]]] = []
 for name, text in TEXT.items():
     CASES += [
-        (name, "UTF-16 text", lambda t=text: h.utf16(t), ("UTF-16",)),
+        (name, "UTF-16 text", partial(h.utf16, text), ("UTF-16",)),
         (
             name,
             "Latin-1 bytes on row 2",
-            lambda t=text: h.latin1_on_row(t + "\n", 2),
+            partial(h.latin1_on_row, text + "\n", 2),
             ("row 2", "column", "not UTF-8"),
         ),
         (
             name,
             "a NUL byte on row 2",
-            lambda t=text: h.nul_on_row(t + "\n", 2),
+            partial(h.nul_on_row, text + "\n", 2),
             ("row 2", "column", "NUL"),
         ),
-        (name, "random binary", lambda: h.random_bytes(), ()),
+        (name, "random binary", h.random_bytes, ()),
     ]
 for name in ("instrument export (CSV)", "batch sheet", "lender manifest", "Sr reference curve"):
     header = TEXT[name].splitlines()[0]
     long_line = ("row 2", "column", "long") if name != "Sr reference curve" else ("files over",)
     CASES += [
-        (name, "a 100 MB line", lambda x=header: h.huge_line(x), long_line),
+        (name, "a 100 MB line", partial(h.huge_line, header), long_line),
         (
             name,
             "an unclosed quote",
-            lambda x=header: f'{x}\n1,"STD-X,2.1\n2,b,3\n'.encode(),
+            partial(_unclosed_quote, header),
             ("row 2", "column 2", "unexpected end of data"),
         ),
     ]

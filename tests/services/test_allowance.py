@@ -14,6 +14,7 @@ from tracker.db.database import Database
 from tracker.domain.errors import InputError, RuleViolation
 from tracker.domain.models import CustodyEvent, Document, Powder
 from tracker.services import amendments, drilling
+from tracker.services.inputs import Raw
 from tracker.services.ledger import verify
 
 Counts = Callable[[], dict[str, int]]
@@ -65,7 +66,7 @@ def test_per_specimen_limit_refusal_states_the_numbers(db: Database, counts: Cou
 def test_each_limit_refuses(
     db: Database,
     counts: Counts,
-    terms: dict[str, object],
+    terms: Raw,
     setup_mg: str | None,
     request_mg: str,
     field: str,

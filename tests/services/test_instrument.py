@@ -145,7 +145,10 @@ def test_reference_material_pass_and_fail(db: Database) -> None:
             "source": "invented for the test",
         },
     )
-    rm = lambda d: [delta_row(10, "RM-A", STD, d), delta_row(11, "STD-X", STD, 0.0)]  # noqa: E731
+
+    def rm(d: float) -> list[str]:
+        return [delta_row(10, "RM-A", STD, d), delta_row(11, "STD-X", STD, 0.0)]
+
     passing = do_import(db, session_of(b.cut, [0.5], rm(0.75)))
     good = reduction.reduce_session(db, "tech", {"session": passing}).item
     assert good.flags == []

@@ -10,6 +10,7 @@ from tests import factories as make
 from tracker.db.database import Database
 from tracker.domain.errors import InputError, RuleViolation
 from tracker.services import loans, setup, specimens
+from tracker.services.inputs import Raw
 
 Counts = Callable[[], dict[str, int]]
 
@@ -78,7 +79,7 @@ def test_loan_records_original_terms(db: Database) -> None:
     ],
 )
 def test_inconsistent_terms_are_refused(
-    db: Database, counts: Counts, terms: dict[str, object], field: str, fragment: str
+    db: Database, counts: Counts, terms: Raw, field: str, fragment: str
 ) -> None:
     before = counts()
     with pytest.raises(InputError) as caught:
