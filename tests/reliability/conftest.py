@@ -6,6 +6,7 @@ from typing import Any
 
 from tests.cli.conftest import demo, demo_db, lab, lab_template  # noqa: F401  (shared fixtures)
 from tests.reliability import report
+from tests.reliability.bench import bench, bench_profile, bench_template  # noqa: F401
 
 
 def pytest_terminal_summary(terminalreporter: Any) -> None:
