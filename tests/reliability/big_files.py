@@ -99,6 +99,14 @@ def _extra_cells(rng: random.Random, n: int) -> dict[str, str]:
     }
 
 
+# The mapping profile that reads export_rows (``{fmt}`` is csv or xlsx).
+EXPORT_PROFILE = (
+    'format = "{fmt}"\n[columns]\nrun_order = "Run"\nsample_name = "Name"\n'
+    '[columns.ratios]\n"44/40" = "r4440"\n"48/44" = "r4844"\n'
+    '[columns.errors]\n"44/40" = "r4440 2SE"\n"48/44" = "r4844 2SE"\n'
+)
+
+
 def export_rows(rows: int) -> Iterator[list[str]]:
     """An instrument export: run, name, two ratios and their internal errors (all standards)."""
     yield ["Run", "Name", "r4440", "r4440 2SE", "r4844", "r4844 2SE"]

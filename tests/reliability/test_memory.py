@@ -24,11 +24,6 @@ from tests.reliability.peak import Measured, baseline, file_mib, measure, tracke
 from tests.reliability.report import record
 
 pytestmark = pytest.mark.slow
-PROFILE = (
-    'format = "{fmt}"\n[columns]\nrun_order = "Run"\nsample_name = "Name"\n'
-    '[columns.ratios]\n"44/40" = "r4440"\n"48/44" = "r4844"\n'
-    '[columns.errors]\n"44/40" = "r4440 2SE"\n"48/44" = "r4844 2SE"\n'
-)
 # What a command may cost beyond its imports whatever the file: a database session,
 # SQLAlchemy's statement caches, the interpreter's own arenas (common practice: tens of MB).
 FIXED_MIB = 40.0
@@ -36,8 +31,8 @@ FIXED_MIB = 40.0
 
 @pytest.fixture(scope="module")
 def bench_profile() -> str:
-    """Exports here carry two ratios and their errors."""
-    return PROFILE
+    """The exports here carry two ratios and their errors."""
+    return big.EXPORT_PROFILE
 
 
 def _within(
