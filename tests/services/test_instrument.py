@@ -3,18 +3,17 @@
 from __future__ import annotations
 
 import math
-from collections.abc import Callable
 from dataclasses import dataclass
 
 import pytest
 
 from tests import factories as make
+from tests.conftest import Counts
 from tracker.db.database import Database
 from tracker.domain.errors import InputError, RuleViolation
 from tracker.domain.isotopes import exponential_factor
 from tracker.services import chemistry, columns, instrument, reduction, results
 
-Counts = Callable[[], dict[str, int]]
 PROFILE = {
     "format": "csv",
     "columns": {

@@ -13,13 +13,12 @@ from sqlalchemy import select
 from stdnum.iso7064 import mod_37_2
 
 from tests import factories as make
+from tests.conftest import Counts
 from tracker.db.database import Database
 from tracker.domain.errors import InputError, RuleViolation, TrackerError
 from tracker.domain.models import CustodyEvent, Label, LabelStatus
 from tracker.services import chemistry, drilling, lab, labels, specimens
 from tracker.services.ledger import verify
-
-Counts = Callable[[], dict[str, int]]
 
 
 def _events(db: Database) -> list[CustodyEvent]:

@@ -2,17 +2,14 @@
 
 from __future__ import annotations
 
-from collections.abc import Callable
-
 import pytest
 
 from tests import factories as make
+from tests.conftest import Counts
 from tracker.db.database import Database
 from tracker.domain.errors import InputError, RuleViolation
 from tracker.services import loans, setup, specimens
 from tracker.services.inputs import Raw
-
-Counts = Callable[[], dict[str, int]]
 
 
 def test_only_managers_add_operators(db: Database, counts: Counts) -> None:
