@@ -12,7 +12,6 @@ from __future__ import annotations
 
 import json
 import time
-from collections.abc import Iterator
 from pathlib import Path
 
 import pytest
@@ -37,13 +36,6 @@ COLUMNS = 9000
 WAIT_S = 0.5
 IMPORT = '"enter batch sheet"'
 PLACE = "Annex (invented)"
-
-
-@pytest.fixture(scope="module")
-def zygote() -> Iterator[Zygote]:
-    started = Zygote()
-    yield started
-    started.close()
 
 
 def holder(engine: Engine) -> str:

@@ -53,13 +53,6 @@ PROFILE = {
 }
 
 
-@pytest.fixture(scope="module")
-def zygote() -> Iterator[Zygote]:
-    started = Zygote()
-    yield started
-    started.close()
-
-
 def _export(seed: int) -> bytes:
     """Standards on odd runs, a reference material or an unmatched row between them."""
     rng = random.Random(seed)
