@@ -156,6 +156,9 @@ def snapshot_counts(db: Database) -> dict[str, int]:
     return counts
 
 
+Counts = Callable[[], dict[str, int]]  # the ``counts`` fixture: snapshot_counts(db) when called
+
+
 @pytest.fixture
-def counts(db: Database) -> Callable[[], dict[str, int]]:
+def counts(db: Database) -> Counts:
     return lambda: snapshot_counts(db)

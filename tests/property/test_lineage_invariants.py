@@ -11,8 +11,10 @@ from __future__ import annotations
 
 import shutil
 import tempfile
+from collections.abc import Callable
 from decimal import Decimal
 from pathlib import Path
+from typing import Protocol
 
 from hypothesis import HealthCheck, settings
 from hypothesis import strategies as st
@@ -45,6 +47,18 @@ masses_mg = st.decimals(min_value=Decimal("0.001"), max_value=Decimal("6"), plac
 grams = st.decimals(min_value=Decimal("0.0001"), max_value=Decimal("2"), places=4)
 
 
+class Identified(Protocol):
+    @property
+    def id(self) -> str: ...
+
+
+class Answer(Protocol):
+    """What drill, dissolve and take_aliquot answer: the new item, by its ID."""
+
+    @property
+    def item(self) -> Identified: ...
+
+
 class LabBench(RuleBasedStateMachine):
     specimens = Bundle("specimens")
     powders = Bundle("powders")
@@ -68,15 +82,15 @@ class LabBench(RuleBasedStateMachine):
         with self.db.read_session() as session:
             return session.scalar(select(func.count()).select_from(CustodyEvent)) or 0
 
-    def _attempt(self, call: object) -> str | None:
+    def _attempt(self, call: Callable[[], Answer]) -> str | None:
         """Run a service call; count it if accepted; a refusal must leave the ledger alone."""
         try:
-            answer = call()  # type: ignore[operator]
+            answer = call()
         except TrackerError:
             assert self._ledger_length() == self.expected_events
             return None
         self.expected_events += 1
-        return answer.item.id  # type: ignore[no-any-return,attr-defined]
+        return answer.item.id
 
     @rule(target=specimens)
     def add_specimen(self) -> str:

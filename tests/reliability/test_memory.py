@@ -13,58 +13,26 @@ from __future__ import annotations
 
 import sqlite3
 import zipfile
-from dataclasses import dataclass
 from pathlib import Path
 
 import pytest
 
-from tests.cli.conftest import Lab, copy_sqlite, invoke, ok_json
+from tests.cli.conftest import copy_sqlite, invoke, ok_json
 from tests.reliability import big_files as big
+from tests.reliability.bench import Bench, session_import
 from tests.reliability.peak import Measured, baseline, file_mib, measure, tracker
 from tests.reliability.report import record
 
 pytestmark = pytest.mark.slow
-PROFILE = (
-    'format = "{fmt}"\n[columns]\nrun_order = "Run"\nsample_name = "Name"\n'
-    '[columns.ratios]\n"44/40" = "r4440"\n"48/44" = "r4844"\n'
-    '[columns.errors]\n"44/40" = "r4440 2SE"\n"48/44" = "r4844 2SE"\n'
-)
-SESSION = ["--name", "memory", "--instrument", "MC", "--element", "Ca", "--standard", "STD-X"]
 # What a command may cost beyond its imports whatever the file: a database session,
 # SQLAlchemy's statement caches, the interpreter's own arenas (common practice: tens of MB).
 FIXED_MIB = 40.0
 
 
-@dataclass(frozen=True)
-class Bench:
-    path: Path
-    lab: Lab
-    batch: str
-
-
 @pytest.fixture(scope="module")
-def bench_template(lab_template: Lab, tmp_path_factory: pytest.TempPathFactory) -> Bench:
-    folder = tmp_path_factory.mktemp("memory")
-    path = copy_sqlite(lab_template.path, folder / "lab.sqlite")
-    for fmt in ("csv", "xlsx"):
-        profile = folder / f"mem-{fmt}.toml"
-        profile.write_text(PROFILE.format(fmt=fmt), encoding="utf-8")
-        args = ("profile", "save", f"mem-{fmt}", str(profile))
-        ok_json(invoke(*args, db=path, actor=lab_template.technician, as_json=True))
-    created = invoke(
-        *("batch", "create", "--name", "memory", "--date", "2026-01-05", "--element", "Ca"),
-        *("--resin", "DGA", "--scheme", "load; rinse; elute", "--cuts", "matrix,Ca"),
-        db=path,
-        actor=lab_template.technician,
-        as_json=True,
-    )
-    return Bench(path, lab_template, ok_json(created)["item"]["id"])
-
-
-@pytest.fixture
-def bench(bench_template: Bench, tmp_path: Path) -> Bench:
-    path = copy_sqlite(bench_template.path, tmp_path / "lab.sqlite")
-    return Bench(path, bench_template.lab, bench_template.batch)
+def bench_profile() -> str:
+    """The exports here carry two ratios and their errors."""
+    return big.EXPORT_PROFILE
 
 
 def _within(
@@ -115,7 +83,7 @@ def test_a_list_over_the_cell_cap_is_refused_before_it_is_read_whole(
 ) -> None:
     """The 44,000-row, 1,000-column list that once took gigabytes: refused at the cap."""
     path = tmp_path / "wide.csv"
-    header = big.SPECIMEN_TERMS + [f"lenderField{i}" for i in range(1000 - 11)]
+    header = big.SPECIMEN_TERMS + [f"lenderField{i}" for i in range(1000 - len(big.SPECIMEN_TERMS))]
     rows = (
         [f"SYN W {n}", *(f"v{n % 97}-{i}" for i in range(len(header) - 1))] for n in range(1, 4_001)
     )
@@ -135,7 +103,7 @@ def test_a_session_at_its_run_cap_costs_a_fixed_bound(bench: Bench, tmp_path: Pa
 
     path = big.write_csv(tmp_path / "export.csv", big.export_rows(MAX_SESSION_ROWS))
     base = _imports("tracker.services.instrument")
-    argv = ["session", "import", str(path), "--profile", "mem-csv", *SESSION]
+    argv = session_import(path, "csv")
     done = measure(tracker(bench.path, *argv, actor=bench.lab.technician))
     assert done.exit_code == 0, done.stderr
     cost = done.peak_mib - base
@@ -159,7 +127,7 @@ def test_an_export_beyond_the_run_cap_costs_a_fraction_of_the_file(
     else:
         big.write_workbook(path, big.export_rows(rows))
     base = _imports("tracker.services.instrument", *(["openpyxl"] if fmt == "xlsx" else []))
-    argv = ["session", "import", str(path), "--profile", f"mem-{fmt}", *SESSION]
+    argv = session_import(path, fmt)
     done = measure(tracker(bench.path, *argv, actor=bench.lab.technician))
     assert done.exit_code == 2 and "capped at 20,000 runs" in done.stderr, done.stderr
     size = f"{rows:,} runs, {file_mib(path):.1f} MB, refused at the 20,000-run cap"

@@ -17,6 +17,7 @@ from tests.reliability.report import record
 from tracker.db import migrate
 from tracker.db.database import Database, open_database
 from tracker.db.engine import build_engine
+from tracker.domain.ledger import VerifyReport
 from tracker.services import ledger
 
 FIXTURE = Path(__file__).resolve().parents[1] / "fixtures" / "demo-d02aa5d.sqlite"
@@ -46,7 +47,7 @@ def _tables(path: Path) -> dict[str, dict[tuple[Any, ...], dict[str, Any]]]:
         connection.close()
 
 
-def _old_ledger_head(path: Path) -> ledger.VerifyReport:
+def _old_ledger_head(path: Path) -> VerifyReport:
     """Verify the old file's chain with today's verifier, without upgrading it."""
     url = f"sqlite:///{path}"
     db = Database(url, build_engine(url))
@@ -86,10 +87,10 @@ def test_first_release_database_upgrades_with_every_row_and_event_intact(tmp_pat
     assert after["alembic_version"] == {(migrate.HEAD,): {"version_num": migrate.HEAD}}
     backup = tmp_path / f"lab.sqlite.bak-{FIRST_REVISION}"
     assert _tables(backup) == before and backup.stat().st_mode & 0o077 == 0
-    rows = sum(len(r) for r in before.values())
+    row_count = sum(len(r) for r in before.values())
     record(
         "upgrade from the first release (d02aa5d demo)",
-        f"{len(before)} tables, {rows} rows, {head_before.events} events",
+        f"{len(before)} tables, {row_count} rows, {head_before.events} events",
         f"{len(changed)} rows changed, ledger head kept (#{head_after.head_seq})",
     )
 

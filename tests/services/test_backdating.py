@@ -19,6 +19,7 @@ from pypdf import PdfReader
 from sqlalchemy import select
 
 from tests import factories as make
+from tests.conftest import Counts
 from tests.reliability.report import record
 from tests.services.test_instrument import bench, do_import, session_of
 from tracker.db.database import Database
@@ -38,7 +39,6 @@ from tracker.services import (
 )
 from tracker.services.reconcile import reconcile
 
-Counts = Callable[[], dict[str, int]]
 BACKDATED = "backdated entry"
 FOUND: dict[str, list[str]] = {}  # backend -> what each found case did, for the reliability row
 

@@ -13,13 +13,12 @@ from sqlalchemy import select
 from stdnum.iso7064 import mod_37_2
 
 from tests import factories as make
+from tests.conftest import Counts
 from tracker.db.database import Database
-from tracker.domain.errors import InputError, RuleViolation
+from tracker.domain.errors import InputError, RuleViolation, TrackerError
 from tracker.domain.models import CustodyEvent, Label, LabelStatus
 from tracker.services import chemistry, drilling, lab, labels, specimens
 from tracker.services.ledger import verify
-
-Counts = Callable[[], dict[str, int]]
 
 
 def _events(db: Database) -> list[CustodyEvent]:
@@ -136,7 +135,7 @@ def test_queue_refusals_write_nothing(
     db: Database,
     counts: Counts,
     items: list[str],
-    error: type[Exception],
+    error: type[TrackerError],
     field: str,
     fragment: str,
 ) -> None:
@@ -153,7 +152,7 @@ def test_queue_refusals_write_nothing(
     before = counts()
     with pytest.raises(error) as caught:
         labels.queue_labels(db, "tech", {"items": filled})
-    assert caught.value.field == field and fragment in caught.value.reason  # type: ignore[attr-defined]
+    assert caught.value.field == field and fragment in caught.value.reason
     assert counts() == before
 
 

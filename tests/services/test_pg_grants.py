@@ -25,7 +25,8 @@ def _grant_lines() -> str:
         r"^## Storage\n(.*?)(?=^## )", README.read_text(encoding="utf-8"), flags=re.S | re.M
     )
     assert storage is not None
-    (block,) = re.findall(r"```sql\n(.*?)```", storage.group(1), flags=re.S)
+    blocks: list[str] = re.findall(r"```sql\n(.*?)```", storage.group(1), flags=re.S)
+    (block,) = blocks
     return block
 
 

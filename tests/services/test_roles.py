@@ -13,6 +13,7 @@ from typing import Any
 import pytest
 
 from tests import factories as make
+from tests.conftest import Counts
 from tracker.db.database import Database
 from tracker.domain.errors import RuleViolation
 from tracker.services import (
@@ -27,7 +28,6 @@ from tracker.services import (
     specimens,
 )
 
-Counts = Callable[[], dict[str, int]]
 REASON = "the lender agreed by letter of 2026-01-04"
 
 
