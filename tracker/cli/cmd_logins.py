@@ -64,10 +64,10 @@ def add_login(
     with database(ctx) as db:
         if show:
             statements = logins.login_sql(db, request)
-            answer = {"operator": operator, "login": login, "statements": statements}
+            printed = {"operator": operator, "login": login, "statements": statements}
             emit(
                 ctx,
-                answer,
+                printed,
                 lambda: _sql(
                     statements,
                     f"-- then give {login} a password (psql: \\password {login}) or the lab's "
@@ -78,5 +78,5 @@ def add_login(
             return
         ran = logins.create_login(db, request)
         bound = logins.bind_login(db, state(ctx).actor, {"operator": operator, "login": login})
-    answer: dict[str, object] = {"created": ran, "bound": bound}
+    answer = {"created": ran, "bound": bound}
     emit(ctx, answer, lambda: done(bound, f"login {login} for operator {operator}"))

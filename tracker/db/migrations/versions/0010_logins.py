@@ -95,7 +95,10 @@ SPECIMEN_TERMS = (
 )
 # Changes checked when the transaction commits: (table, name, events, columns or None for
 # any column, the ledger actions that may make them). Every table the services update has
-# a guard on any column with any event ("%"); some columns need a particular event.
+# a guard on any column with any event ("%"); some columns need a particular event. At
+# COMMIT a table's checks run in the order of their names: the particular ones
+# (``<table>_login_check_...``, corrections included) before ``<table>_login_event``, so a
+# refusal names the most particular rule broken.
 EVENT_GUARDS: tuple[tuple[str, str, str, tuple[str, ...] | None, tuple[str, ...]], ...] = (
     *(
         (table, "changed", "UPDATE", None, ("%",))
@@ -277,9 +280,9 @@ def _functions() -> list[str]:
         AS $$
         DECLARE author text;
         BEGIN
-            SELECT min(old.recorded_by) INTO author FROM added a
-                JOIN concentration old ON old.id = a.supersedes_id
-                WHERE old.recorded_by <> a.recorded_by;
+            SELECT min(prior.recorded_by) INTO author FROM added a
+                JOIN concentration prior ON prior.id = a.supersedes_id
+                WHERE prior.recorded_by <> a.recorded_by;
             IF author IS NOT NULL THEN
                 PERFORM tracker_require_manager(
                     format('correcting a concentration recorded by %s', author));
@@ -382,10 +385,10 @@ def _immediate_checks() -> None:
     _statement("powder", "override", "tracker_check_override")
     _statement("correction", "others", "tracker_check_correction_rows")
     _statement("concentration", "superseded", "tracker_check_superseded")
-    for table, what in MANAGER_ROWS.items():
+    for table, what in MANAGER_ROWS.items():  # BEFORE: the roles as they stood
         events = "INSERT OR UPDATE" if table in ("operator", "lab_setting") else "INSERT"
         op.execute(
-            f"CREATE TRIGGER {table}_login_manager AFTER {events} ON {table} "
+            f"CREATE TRIGGER {table}_login_manager BEFORE {events} ON {table} "
             f"FOR EACH STATEMENT {NOT_OWNER} EXECUTE FUNCTION tracker_manager_only('{what}')"
         )
     op.execute(
@@ -405,7 +408,7 @@ def _deferred_checks() -> None:
     for table in dict.fromkeys(row[0] for row in CORRECTED):
         measured = ", ".join(c for t, _, _, _, c in CORRECTED if t == table)
         op.execute(
-            f"CREATE CONSTRAINT TRIGGER {table}_login_corrected AFTER UPDATE OF {measured} "
+            f"CREATE CONSTRAINT TRIGGER {table}_login_check_corrected AFTER UPDATE OF {measured} "
             f"ON {table} DEFERRABLE INITIALLY DEFERRED FOR EACH ROW {NOT_OWNER} "
             "EXECUTE FUNCTION tracker_check_corrected()"
         )
@@ -413,6 +416,7 @@ def _deferred_checks() -> None:
         of = f" OF {', '.join(columns)}" if columns else ""
         events = events.replace("UPDATE", f"UPDATE{of}")
         patterns = ", ".join(f"'{action}'" for action in actions)
+        name = "event" if name == "changed" else f"check_{name}"  # fired in name order
         op.execute(
             f"CREATE CONSTRAINT TRIGGER {table}_login_{name} AFTER {events} ON {table} "
             f"DEFERRABLE INITIALLY DEFERRED FOR EACH ROW {NOT_OWNER} "
