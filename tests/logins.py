@@ -18,13 +18,14 @@ from datetime import datetime
 from typing import Any
 
 import pytest
-from sqlalchemy import Connection, create_engine, text
+from sqlalchemy import Connection, create_engine, select, text
 from sqlalchemy.engine import make_url
 from typer.testing import CliRunner, Result
 
 from tests.cli.conftest import CLEAN_ENV
 from tracker.cli import app
 from tracker.db.database import Database, open_database
+from tracker.domain.base import Base
 from tracker.io.demo import Replay, StepClock, load_scenario, scenario_path
 from tracker.services import setup
 
@@ -104,6 +105,14 @@ class Lab:
         finally:
             engine.dispose()
 
+    def rows(self) -> dict[str, list[str]]:
+        """Every row of every table, read as the owner: equal before and after = no change."""
+        with self.db().read_session() as session:
+            return {
+                table.name: sorted(repr(tuple(row)) for row in session.execute(select(table)))
+                for table in Base.metadata.sorted_tables
+            }
+
     def close(self) -> None:
         for handle in self.handles.values():
             handle.close()
@@ -134,7 +143,13 @@ def drop_database(cluster: Cluster, name: str) -> None:
     cluster.admin(f"DROP DATABASE IF EXISTS {name} WITH (FORCE)")
 
 
-Probe = Callable[[Lab, int, dict[str, Any]], None]
+Probe = Callable[[Lab, Replay, int, dict[str, Any]], None]
+
+
+def demo_steps() -> list[dict[str, Any]]:
+    """The scenario's steps in the order the demo runs them."""
+    steps = load_scenario()["steps"]
+    return sorted(steps, key=lambda s: datetime.fromisoformat(s["at"]))
 
 
 def build_demo_lab(cluster: Cluster, name: str, probe: Probe | None = None) -> Lab:
@@ -142,9 +157,8 @@ def build_demo_lab(cluster: Cluster, name: str, probe: Probe | None = None) -> L
 
     ``probe`` is called before each step (the test's chance to try it another way first).
     """
-    data = load_scenario()
-    steps = sorted(data["steps"], key=lambda s: datetime.fromisoformat(s["at"]))
-    founder = data["founder"]
+    steps = demo_steps()
+    founder = load_scenario()["founder"]
     clock = StepClock(datetime.fromisoformat(founder["at"]))
     owner_url = cluster.url(name, cluster.owner)
     setup.init_database(
@@ -170,7 +184,7 @@ def build_demo_lab(cluster: Cluster, name: str, probe: Probe | None = None) -> L
     replay = Replay(lab.db(founder["code"]), clock, scenario_path().parent)
     for number, step in enumerate(steps):
         if probe is not None:
-            probe(lab, number, step)
+            probe(lab, replay, number, step)
         replay.db = lab.db(step["by"])
         replay.run(number, step)
         if step["do"] == "operator":

@@ -7,15 +7,26 @@ every table before and after (read as the owner).
 
 from __future__ import annotations
 
+import copy
 import re
-from collections.abc import Callable
+from collections.abc import Callable, Iterable
+from pathlib import Path
 from typing import Any
 
 import pytest
 from sqlalchemy import func, select, text
 from sqlalchemy.exc import DBAPIError
 
-from tests.logins import Lab
+from tests.logins import (
+    PEOPLE,
+    Cluster,
+    Lab,
+    build_demo_lab,
+    cli,
+    demo_steps,
+    drop_database,
+    new_database,
+)
 from tracker.db import logins
 from tracker.domain.base import Base
 from tracker.domain.errors import RuleViolation
@@ -28,10 +39,12 @@ from tracker.domain.models import (
     CustodyEvent,
     Cut,
     InstrumentSession,
+    Operator,
     Powder,
     Result,
     Solution,
 )
+from tracker.io.demo import Replay
 from tracker.services import (
     amendments,
     corrections,
@@ -51,24 +64,15 @@ REFUSED = re.compile(
 )
 
 
-def rows(lab: Lab) -> dict[str, list[str]]:
-    """Every row of every table, read as the owner."""
-    with lab.db().read_session() as session:
-        return {
-            table.name: sorted(repr(tuple(row)) for row in session.execute(select(table)))
-            for table in Base.metadata.sorted_tables
-        }
-
-
 def refused(lab: Lab, person: str, *statements: str) -> str:
     """Run statements in one transaction of the person's own SQL client: refused, no change."""
-    before = rows(lab)
+    before = lab.rows()
     with pytest.raises(DBAPIError) as caught, lab.raw(person) as conn:
         for statement in statements:
             conn.execute(text(statement))
     said = str(caught.value.orig)
     assert REFUSED.search(said), said
-    assert rows(lab) == before
+    assert lab.rows() == before
     return said
 
 
@@ -258,26 +262,26 @@ def _drill(lab: Lab, login: str, actor: str, **extra: str) -> Any:
 
 @pytest.mark.parametrize(("login", "actor"), [("tomas", "ines"), ("tomas", "priya")])
 def test_as_naming_another_person_is_refused(demo_lab: Lab, login: str, actor: str) -> None:
-    before = rows(demo_lab)
+    before = demo_lab.rows()
     with pytest.raises(RuleViolation) as caught:
         _drill(demo_lab, login, actor)
     assert caught.value.field == "--as" and caught.value.value == actor
     assert f"records as {login} only" in caught.value.one_line()
-    assert rows(demo_lab) == before
+    assert demo_lab.rows() == before
     assert _drill(demo_lab, login, login).item.id  # their own name: recorded
 
 
 def test_a_login_bound_to_no_one_is_told_so(demo_lab: Lab) -> None:
-    before = rows(demo_lab)
+    before = demo_lab.rows()
     with pytest.raises(RuleViolation, match="bound to no operator") as caught:
         _drill(demo_lab, "stranger", "tomas")
     assert caught.value.field == "--db"
-    assert rows(demo_lab) == before
+    assert demo_lab.rows() == before
 
 
 def test_a_technicians_login_gets_no_managers_action(demo_lab: Lab) -> None:
     lab = demo_lab
-    before = rows(lab)
+    before = lab.rows()
     override = {"gross": "1205.000 mg", "override_reason": "the lender agreed by phone"}
     attempts: list[Callable[[], Any]] = [
         lambda: _drill(lab, "tomas", "tomas", **override),
@@ -297,7 +301,7 @@ def test_a_technicians_login_gets_no_managers_action(demo_lab: Lab) -> None:
     for attempt in attempts:
         with pytest.raises(RuleViolation, match=r"manager role|records as tomas only"):
             attempt()
-    assert rows(lab) == before
+    assert lab.rows() == before
 
 
 def test_corrections_and_reductions_work_as_each_persons_login(demo_lab: Lab) -> None:
@@ -434,3 +438,64 @@ def test_the_database_guards_exactly_the_measured_columns(demo_lab: Lab) -> None
         assert set(columns) <= set(tables[table].columns.keys()), table
     for table, columns in {**logins.CORRECTED, **logins.DERIVED}.items():
         assert set(columns) <= set(logins.UPDATABLE[table]), table
+
+
+# ---------------------------------------------------------------- a day's work
+
+
+@pytest.mark.slow
+def test_a_days_work_as_each_persons_own_login(login_cluster: Cluster, tmp_path: Path) -> None:
+    """The whole demo — check-ins, drills, dissolutions, concentrations, aliquots, batches,
+    cuts, instrument imports, reductions, amendments, labels — replayed through the login of
+    the person doing each step. The first step of each kind is first tried through another
+    person's login: refused, nothing written. Then a report, by a technician's login."""
+    tried: dict[str, str] = {}
+
+    def probe(lab: Lab, replay: Replay, number: int, step: dict[str, Any]) -> None:
+        with lab.db().read_session() as session:
+            bound = set(session.scalars(select(Operator.code).where(Operator.login.is_not(None))))
+        other = next((p for p in PEOPLE if p in bound and p != step["by"]), None)
+        if step["do"] in tried or other is None:
+            return
+        before = lab.rows()
+        replay.db = lab.db(other)
+        with pytest.raises(RuleViolation) as caught:
+            replay.run(number, copy.deepcopy(step))  # resolving a step's files takes them out
+        assert (caught.value.field, caught.value.value) == ("--as", step["by"])
+        assert lab.rows() == before
+        tried[step["do"]] = other
+
+    name = new_database(login_cluster)
+    try:
+        lab = build_demo_lab(login_cluster, name, probe)
+        _check_the_days_work(lab, tried.keys(), tmp_path / "return.json")
+        lab.close()
+    finally:
+        drop_database(login_cluster, name)
+
+
+def _check_the_days_work(lab: Lab, tried: Iterable[str], out: Path) -> None:
+    kinds = {"checkin", "drill", "dissolve", "aliquot", "batch", "session_import", "reduce"}
+    assert kinds | {"amend", "position", "cut"} <= set(tried)
+    report = cli(
+        "--db",
+        lab.url("priya"),
+        "--as",
+        "priya",
+        "report",
+        "return",
+        "NMFI-25-033",
+        "--format",
+        "json",
+        "--out",
+        str(out),
+    )
+    assert report.exit_code == 0, report.output
+    with lab.db().read_session() as session:
+        events = session.execute(
+            select(CustodyEvent.action, CustodyEvent.operator).order_by(CustodyEvent.seq)
+        ).all()
+    work = [who for action, who in events if action != "operator.login_bound"]
+    assert work == ["ines"] + [step["by"] for step in demo_steps()] + ["priya"]
+    assert events[-1].action == "report.generated"
+    assert ledger.verify(lab.db("tomas")).ok
