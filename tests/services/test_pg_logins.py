@@ -193,10 +193,14 @@ SAID = {
 }
 
 
-@pytest.mark.parametrize("what", TECHNICIAN_SQL)
-def test_a_technicians_own_sql_client_is_refused(demo_lab: Lab, what: str) -> None:
-    said = refused(demo_lab, "tomas", *TECHNICIAN_SQL[what])
-    assert SAID.get(what, "") in said
+def test_a_technicians_own_sql_client_is_refused(demo_lab: Lab) -> None:
+    """Each attempt in its own transaction on one copy (each changes nothing: checked)."""
+    wrong = {}
+    for what, statements in TECHNICIAN_SQL.items():
+        said = refused(demo_lab, "tomas", *statements)
+        if SAID.get(what, "") not in said:
+            wrong[what] = said
+    assert wrong == {}
 
 
 def _tables() -> list[str]:
