@@ -53,6 +53,7 @@ from tracker.services import (
     ledger,
     reduction,
 )
+from tracker.services.views import Done
 
 pytestmark = pytest.mark.postgresql
 
@@ -103,7 +104,7 @@ def one(lab: Lab, statement: Any) -> Any:
 
 def drilled_by(lab: Lab, person: str) -> Powder:
     found = one(lab, select(Powder).where(Powder.drilled_by == person).order_by(Powder.id))
-    assert found is not None
+    assert isinstance(found, Powder)
     return found
 
 
@@ -320,7 +321,7 @@ def test_corrections_and_reductions_work_as_each_persons_login(demo_lab: Lab) ->
     before = {r.id: r.created_at for r in _results(lab)}
     loaded = one(lab, select(BatchPosition.loaded_ug).where(BatchPosition.aliquot_id == aliquot.id))
     tare = f"{powder.tare_mg:.3f} mg"
-    done = [
+    done: list[Done[Any]] = [
         corrections.correct_weighing(
             lab.db("tomas"),
             "tomas",
