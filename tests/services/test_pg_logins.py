@@ -45,13 +45,19 @@ from tracker.domain.models import (
     Solution,
 )
 from tracker.io.demo import Replay
+from tracker.output import jobs
 from tracker.services import (
     amendments,
+    batch_sheet,
+    chemistry,
     corrections,
     corrections_values,
     drilling,
+    labels,
     ledger,
+    manifests,
     reduction,
+    settings,
 )
 from tracker.services.views import Done
 
@@ -403,6 +409,47 @@ def test_corrections_and_reductions_work_as_each_persons_login(demo_lab: Lab) ->
 def _results(lab: Lab) -> list[Result]:
     with lab.db().read_session() as session:
         return list(session.scalars(select(Result)))
+
+
+def test_what_the_demo_does_not_do_works_as_each_persons_login(
+    demo_lab: Lab, tmp_path: Path
+) -> None:
+    """Settings, a corrected manifest, a batch sheet and printing labels, by own logins."""
+    lab = demo_lab
+    done: list[Done[Any]] = [
+        settings.set_backdating_window(lab.db("ines"), "ines", {"window": "5 days"}),
+        labels.set_uri_prefix(lab.db("ines"), "ines", {"uri_prefix": "https://lab.invalid/i/"}),
+        labels.set_uri_prefix(lab.db("ines"), "ines", {"uri_prefix": None}),
+    ]
+    fixed = b"catalogNumber,locality\nKFMNH P 20311,Invented Quarry 2\n"
+    manifest = {"loan": "KF-2026-014", "filename": "list.csv", "content": fixed}
+    imported = manifests.import_manifest(lab.db("ines"), "ines", manifest)
+    assert imported.updated and imported.event_seq is not None
+    batch = chemistry.create_batch(
+        lab.db("priya"),
+        "priya",
+        {
+            "name": "Ca 2026-12",
+            "performed_on": "2026-12-01",
+            "element": "Ca",
+            "resin": "DGA",
+            "elution_scheme": "load, rinse, elute",
+            "cut_names": "matrix,Ca",
+        },
+    )
+    rows = (
+        "slot,kind,item,loaded,matrix,Ca\n1,blank,,,,0.050 ug\n2,reference,SRM 915a,10 ug,,9.9 ug\n"
+    )
+    sheet = {"batch": batch.item.id, "filename": "cols.csv", "content": rows.encode()}
+    done += [batch, batch_sheet.enter_sheet(lab.db("priya"), "priya", sheet)]
+    printed = jobs.print_queue(lab.db("tomas"), "tomas", stock="a4-65", out=tmp_path / "l.pdf")
+    assert printed.job.labels
+    with lab.db().read_session() as session:
+        made = dict(session.execute(select(CustodyEvent.seq, CustodyEvent.operator)).all())
+    seqs = [d.event_seq for d in done] + [imported.event_seq, printed.event_seq]
+    assert [made[seq] for seq in seqs] == ["ines"] * 3 + ["priya"] * 2 + ["ines", "tomas"]
+    assert labels.label_settings(lab.db("tomas")).uri_prefix is None
+    assert ledger.verify(lab.db("tomas")).ok
 
 
 def test_a_managers_own_login_does_a_managers_work(demo_lab: Lab) -> None:
