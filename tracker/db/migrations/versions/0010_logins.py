@@ -359,8 +359,8 @@ def _functions() -> list[str]:
             END IF;
             IF NOT latest.action LIKE ANY (TG_ARGV) THEN
                 RAISE EXCEPTION '%: changed with the event %; only % may change it',
-                    TG_TABLE_NAME, latest.action, array_to_string(TG_ARGV, ', ')
-                    USING ERRCODE = '42501';
+                    TG_TABLE_NAME, latest.action,
+                    replace(array_to_string(TG_ARGV, ', '), '%', '*') USING ERRCODE = '42501';
             END IF;
             RETURN NULL;
         END $$""",
