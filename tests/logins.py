@@ -26,6 +26,7 @@ from tests.cli.conftest import CLEAN_ENV
 from tracker.cli import app
 from tracker.db.database import Database, open_database
 from tracker.domain.base import Base
+from tracker.domain.models import Powder
 from tracker.io.demo import Replay, StepClock, load_scenario, scenario_path
 from tracker.services import setup
 
@@ -112,6 +113,17 @@ class Lab:
                 table.name: sorted(repr(tuple(row)) for row in session.execute(select(table)))
                 for table in Base.metadata.sorted_tables
             }
+
+    def one(self, statement: Any) -> Any:
+        """The first answer of a query, read as the owner."""
+        with self.db().read_session() as session:
+            return session.scalars(statement).first()
+
+    def drilled_by(self, person: str) -> Powder:
+        """The first powder a person drilled."""
+        found = self.one(select(Powder).where(Powder.drilled_by == person).order_by(Powder.id))
+        assert isinstance(found, Powder)
+        return found
 
     def close(self) -> None:
         for handle in self.handles.values():
