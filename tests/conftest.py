@@ -27,6 +27,9 @@ from tracker.domain.base import Base
 from tracker.domain.models import CustodyEvent
 from tracker.services import setup
 
+# The shared-database lab with one login per person (PostgreSQL tests that ask for it).
+pytest_plugins = ("tests.logins",)
+
 START = datetime(2026, 1, 5, 9, 0, tzinfo=UTC)
 
 # CI runs the same generated cases every time (derandomized: a red run is a change in the

@@ -20,6 +20,7 @@ REVISIONS: tuple[str, ...] = (
     "0006_reports",
     "0007_reliability",
     "0008_backdating",
+    "0010_logins",
 )
 HEAD = REVISIONS[-1]
 MIGRATIONS_DIR = Path(__file__).with_name("migrations")

@@ -220,8 +220,7 @@ def place(
     The caller looks up what it holds (``holding``, or a batch sheet's lookups of all its
     rows at once); the rules here only read those rows and what is loaded with them.
     """
-    position = BatchPosition(batch=batch, slot=slot, kind=request.kind, created_at=uow.now)
-    uow.session.add(position)
+    loaded: tuple[float | None, float | None] = (None, None)
     held = None
     if holds.aliquot is not None:
         aliquot = holds.aliquot
@@ -235,12 +234,24 @@ def place(
                 aliquot.public_id,
                 f"its solution has no {batch.element} concentration yet; record one first",
             )
-        position.aliquot = aliquot
-        position.loaded_ug, position.loaded_u_ug = element[1], element[2]
-        aliquot.status = ContainerStatus.CONSUMED
+        loaded = element[1], element[2]
         held = aliquot.public_id
     if holds.material is not None:
-        position.reference_material = holds.material
-        position.loaded_ug, position.loaded_u_ug = request.loaded_ug, request.loaded_u_ug
+        loaded = request.loaded_ug, request.loaded_u_ug
         held = holds.material.name
+    # Built whole, then added: one INSERT. What it loaded is a value derived from measurements,
+    # which a workstation login may not UPDATE afterwards outside a correction.
+    position = BatchPosition(
+        batch=batch,
+        slot=slot,
+        kind=request.kind,
+        aliquot=holds.aliquot,
+        reference_material=holds.material,
+        loaded_ug=loaded[0],
+        loaded_u_ug=loaded[1],
+        created_at=uow.now,
+    )
+    uow.session.add(position)
+    if holds.aliquot is not None:
+        holds.aliquot.status = ContainerStatus.CONSUMED
     return position, held

@@ -22,8 +22,10 @@ from datetime import datetime, timedelta
 from typing import Any
 
 from sqlalchemy import select
+from sqlalchemy.exc import DBAPIError
 from sqlalchemy.orm import Session
 
+from tracker.db import logins
 from tracker.db.database import Database
 from tracker.db.rows import insert_rows
 from tracker.db.writer_lock import WriterLock
@@ -207,11 +209,19 @@ def unit_of_work(db: Database, actor: str | None, doing: str = "") -> Iterator[U
         session.begin()
         lock.take(session)  # waits for other writers; Busy, naming the holder, if in vain
         operator = find_operator(session, actor)
+        if db.backend == "postgresql":
+            agree_with_login(session, operator)
         uow = UnitOfWork(session, operator, as_utc(db.clock()), release=lock.release)
         yield uow
         if not uow.committed:
             lock.release()
             session.rollback()
+    except DBAPIError as error:
+        lock.release()
+        session.rollback()
+        if getattr(error.orig, "sqlstate", None) != INSUFFICIENT_PRIVILEGE:
+            raise
+        raise _refused(error) from None
     except BaseException:
         lock.release()
         session.rollback()
@@ -226,6 +236,47 @@ def _calling_service() -> str:
     while frame.f_back is not None and frame.f_globals.get("__name__") in (__name__, "contextlib"):
         frame = frame.f_back
     return frame.f_code.co_name.strip("_").replace("_", " ") or "a write"
+
+
+# PostgreSQL's SQLSTATE for "permission denied", also raised by revision 0010's login checks.
+INSUFFICIENT_PRIVILEGE = "42501"
+
+
+def agree_with_login(session: Session, operator: Operator) -> None:
+    """On PostgreSQL a login writes as the operator bound to it, and as no one else.
+
+    The tables' owner (and a superuser) may write as any operator: it sets the database
+    up and could rewrite anything by SQL anyway. Any other login bound to no operator
+    writes nothing. The database holds every login to the same rule (revision 0010); this
+    check says it first, in a person's words.
+    """
+    who = logins.connected(session.connection())
+    if who.owner:
+        return
+    bound = session.scalar(select(Operator.code).where(Operator.login == who.login))
+    if bound is None:
+        raise RuleViolation(
+            "--db",
+            who.login,
+            "this database login is bound to no operator; a manager binds it with "
+            "`tracker db add-login OPERATOR LOGIN`",
+        )
+    if bound != operator.code:
+        raise RuleViolation(
+            "--as",
+            operator.code,
+            f"this database login ({who.login}) records as {bound} only; "
+            "each person connects with their own login",
+        )
+
+
+def _refused(error: DBAPIError) -> RuleViolation:
+    """The database refused a write for want of a privilege or by a login rule: one line."""
+    cause = str(error.orig).strip().splitlines()[0] if error.orig else "permission denied"
+    hint = ""
+    if cause.startswith("permission denied"):
+        hint = " (after an upgrade the owner runs `tracker db workstation-grants` again)"
+    return RuleViolation("--db", None, f"the database refused this: {cause}{hint}")
 
 
 def find_operator(session: Session, actor: str | None) -> Operator:

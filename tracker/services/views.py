@@ -38,11 +38,17 @@ class OperatorView(View):
     name: str
     role: str
     active: bool
+    login: str | None = None  # the PostgreSQL login bound to them (shared databases)
 
     @classmethod
     def of(cls, row: Operator) -> OperatorView:
         return cls(
-            id=row.public_id, code=row.code, name=row.name, role=row.role.value, active=row.active
+            id=row.public_id,
+            code=row.code,
+            name=row.name,
+            role=row.role.value,
+            active=row.active,
+            login=row.login,
         )
 
 
