@@ -19,7 +19,7 @@ from dataclasses import dataclass
 from datetime import datetime
 from itertools import combinations
 
-from sqlalchemy import delete, select
+from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from tracker.db.database import Database
@@ -111,7 +111,9 @@ def recompute(sql: Session, session: InstrumentSession, now: datetime) -> Reduct
     flags = sorted(
         {f"reference material failed: {x.label} {x.ratio}" for x in lines if x.passed is False}
     )
-    sql.execute(delete(Result).where(Result.session_id == session.id))
+    for old in sql.scalars(select(Result).where(Result.session_id == session.id)):
+        sql.delete(old)  # through the session, so the unit's facts state what went
+    sql.flush()  # gone before the new rows are numbered, as a DELETE statement would be
     for line, row in zip(lines, rows, strict=True):
         row.flags = list(line.flags)
         sql.add(row)
