@@ -15,9 +15,9 @@ from pathlib import Path
 from typing import Annotated, Any, BinaryIO, Literal, TextIO
 
 from pydantic import BaseModel, Field
-from sqlalchemy import ColumnElement, String, func, or_, select, type_coerce
+from sqlalchemy import ColumnElement, Connection, String, func, or_, select, type_coerce
 
-from tracker.db import outputs
+from tracker.db import outputs, stream
 from tracker.db.database import Database
 from tracker.domain.anchors import (
     MAX_ANCHOR_BYTES,
@@ -69,26 +69,21 @@ def _rows(db: Database) -> Iterator[LedgerTuple]:
 
 
 def _batches(db: Database) -> Iterator[list[LedgerTuple]]:
-    """Ledger rows in sequence order, a batch at a time.
-
-    The statement is built and compiled by SQLAlchemy, then read through the driver's own
-    cursor in batches (a server-side cursor on PostgreSQL): verifying a decade's ledger
-    is a million rows, and wrapping each in a result row would cost more than hashing it.
-    """
-    columns = (CustodyEvent.seq, _stamp_column(db.backend), *_COLUMNS[2:])
-    statement = select(*columns).order_by(CustodyEvent.seq)
+    """Ledger rows in sequence order, a batch at a time (see :mod:`tracker.db.stream`)."""
     with db.engine.connect() as connection:
-        sql = str(statement.compile(connection, compile_kwargs={"literal_binds": True}))
-        driver = connection.connection.driver_connection
-        assert driver is not None
-        named = {"name": "tracker_ledger_walk"} if db.backend == "postgresql" else {}
-        cursor = driver.cursor(**named)
-        try:
-            cursor.execute(sql)
-            while batch := cursor.fetchmany(BATCH):
-                yield batch
-        finally:
-            cursor.close()
+        yield from event_batches(connection)
+
+
+def event_batches(connection: Connection) -> Iterator[list[LedgerTuple]]:
+    """Ledger rows in sequence order, a batch at a time, read on ``connection``.
+
+    The statement is built by SQLAlchemy and read through the driver's own cursor
+    (a server-side cursor on PostgreSQL): verifying a decade's ledger is a million rows,
+    and wrapping each in a result row would cost more than hashing it.
+    """
+    columns = (CustodyEvent.seq, _stamp_column(connection.dialect.name), *_COLUMNS[2:])
+    statement = select(*columns).order_by(CustodyEvent.seq)
+    yield from stream.batches(connection, statement, "tracker_ledger_walk", BATCH)
 
 
 Progress = Callable[[int, int], None]  # (events read, events in the ledger)
