@@ -78,6 +78,7 @@ class Column:
     name: str
     convert: Convert
     default: Callable[[], Any] | None  # the model's Python-side default, for unset values
+    shape: str  # what the fact is: "public", "time", "day", "number", "text", "json" ...
 
 
 @dataclass(frozen=True)
@@ -147,35 +148,30 @@ def _nullable(convert: Convert) -> Convert:
     return facts_value
 
 
-def _converter(column: Any, kinds: Mapping[str, Kind]) -> Convert:
+_SHAPES: tuple[tuple[type[Any], str, Convert], ...] = (
+    (UTCDateTime, "time", _moment),
+    (EnumType, "text", _text),
+    (Date, "day", _day),
+    (Boolean, "flag", _flag),
+    (Float, "number", _number),
+    (Numeric, "exact", _exact),
+    (Integer, "whole", _whole),
+    (LargeBinary, "digest", _digest),
+    (JSON, "json", _as_is),
+)
+
+
+def _converter(column: Any, kinds: Mapping[str, Kind]) -> tuple[Convert, str]:
     """How a stored value of ``column`` is written in the facts (by the column's type)."""
     for foreign in column.foreign_keys:
         target = foreign.column
         kind = kinds.get(target.table.name)
         if kind is not None and target.primary_key:
-            return _nullable(_public(kind))
-    kind_of_type = column.type
-    if isinstance(kind_of_type, UTCDateTime):
-        convert: Convert = _moment
-    elif isinstance(kind_of_type, EnumType):
-        convert = _text
-    elif isinstance(kind_of_type, Date):
-        convert = _day
-    elif isinstance(kind_of_type, Boolean):
-        convert = _flag
-    elif isinstance(kind_of_type, Float):
-        convert = _number
-    elif isinstance(kind_of_type, Numeric):
-        convert = _exact
-    elif isinstance(kind_of_type, Integer):
-        convert = _whole
-    elif isinstance(kind_of_type, LargeBinary):
-        convert = _digest
-    elif isinstance(kind_of_type, JSON):
-        convert = _as_is
-    else:
-        convert = _text
-    return _nullable(convert)
+            return _nullable(_public(kind)), "public"
+    for type_, shape, convert in _SHAPES:
+        if isinstance(column.type, type_):
+            return _nullable(convert), shape
+    return _nullable(_text), "text"
 
 
 def _default(column: Any) -> Callable[[], Any] | None:
@@ -222,7 +218,8 @@ def layout(table: str) -> Layout:
     columns: list[Column] = []
     for prop in mapper.column_attrs:
         column = prop.columns[0]
-        entry = Column(prop.key, column.key, _converter(column, kinds), _default(column))
+        convert, shape = _converter(column, kinds)
+        entry = Column(prop.key, column.key, convert, _default(column), shape)
         (key if column.primary_key else columns).append(entry)
     index = {column.name: n for n, column in enumerate(columns)}
     return Layout(table, kinds.get(table), tuple(key), tuple(columns), index)

@@ -20,8 +20,10 @@ from __future__ import annotations
 import json
 from collections.abc import Iterable, Iterator
 from dataclasses import dataclass, field
+from datetime import datetime
 from typing import Any, Literal
 
+from tracker.domain import legacy
 from tracker.domain.facts import FACTS, Layout, described_tables, layout
 from tracker.domain.ids import Kind, looks_like_id, parse_id
 
@@ -105,14 +107,17 @@ class Coverage:
         ]
         if self.unchecked_rows:
             rows = ", ".join(f"{n} {table}" for table, n in sorted(self.unchecked_rows.items()))
-            said.append(f"rows they made were not checked ({rows})")
+            said.append(f"rows they made without stating them were not checked ({rows})")
         if self.unchecked_fields:
             fields = "; ".join(
                 f"{table}: {', '.join(sorted(names))}"
                 for table, names in sorted(self.unchecked_fields.items())
             )
-            said.append(f"of rows they made and later events changed, these were not: {fields}")
-        said.append("the items they name were checked to exist")
+            said.append(
+                "of the rows they made, the fields their payloads state were checked and "
+                f"these were not (no event stated them since): {fields}"
+            )
+        said.append("every item they name was checked to exist")
         said.append(f"from event #{self.checked_from} on every row and field is checked")
         return "; ".join(said)
 
@@ -127,12 +132,23 @@ class Books:
     horizon: dict[str, int] = field(default_factory=dict)
     named: dict[str, dict[str, int]] = field(default_factory=dict)  # by legacy events
 
-    def apply(self, seq: int, object_ref: str, parent_ref: str, payload: str) -> None:
+    def apply(
+        self,
+        seq: int,
+        at: datetime | str,
+        operator: str,
+        action: str,
+        object_ref: str,
+        parent_ref: str,
+        payload: str,
+    ) -> None:
         """Replay one event."""
         self.coverage.events += 1
         stated = json.loads(payload).get(FACTS) if _STATES_FACTS in payload else None
         if stated is None:
             self._legacy(seq, object_ref, parent_ref)
+            if action in legacy.MADE or action.endswith(".corrected"):
+                self._legacy_row(at, operator, action, object_ref, json.loads(payload))
             return
         for table, gone in stated.get("deleted", {}).items():
             held = self.rows.get(table, {})
@@ -162,6 +178,27 @@ class Books:
             where = _row_of(ref)
             if where is not None:
                 self.named.setdefault(where[0], {}).setdefault(where[1], seq)
+
+    def _legacy_row(
+        self, at: datetime | str, operator: str, action: str, ref: str, payload: dict[str, Any]
+    ) -> None:
+        """What an old event's own payload states of the row it made or corrected."""
+        where = _row_of(ref)
+        if where is None:
+            return
+        table, key = where
+        rules = layout(table)
+        values = self.rows.setdefault(table, {}).get(key)
+        found = legacy.made(action, at, operator, payload)
+        if found is not None and found[0] == table:
+            values = self.rows[table][key] = [UNKNOWN] * len(rules.columns)
+            facts = found[1]
+        else:
+            facts = legacy.corrected(action, payload) or {}
+        if values is None:
+            return
+        for name, value in facts.items():
+            values[rules.index[name]] = value
 
     def _mark_horizon(self, rules: Layout, key: str) -> None:
         number = _number(rules, key)

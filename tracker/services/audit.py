@@ -146,8 +146,8 @@ def _replayed(
     counted.progress(0, counted.total)
     for batch in batches:
         yield batch
-        for seq, _, _, _, object_ref, parent_ref, payload, _, _ in batch:
-            books.apply(seq, object_ref, parent_ref, payload)
+        for seq, at, operator, action, object_ref, parent_ref, payload, _, _ in batch:
+            books.apply(seq, at, operator, action, object_ref, parent_ref, payload)
             counted.step()
 
 
