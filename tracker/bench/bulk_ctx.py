@@ -24,7 +24,7 @@ from tracker.bench.bulk_writer import BulkWriter
 from tracker.domain.base import Base, HasPublicId
 from tracker.domain.facts import FACTS, Written, changed_columns, layout, table_of, values_of
 from tracker.domain.ledger import canonical_json, event_hash
-from tracker.domain.models import CustodyEvent, Label, LabelStatus, Location, Operator
+from tracker.domain.models import CustodyEvent, EventRef, Label, LabelStatus, Location, Operator
 from tracker.domain.timing import (
     CLOCK_SKEW,
     DEFAULT_BACKDATING_WINDOW,
@@ -101,6 +101,13 @@ class Ctx:
             self.written.created_rows(Label.__tablename__, [row])
         for item in self.touched:
             self.written.changed(item, changed_columns(item))
+        mentions = [
+            {"seq": seq, "ref": ref}
+            for ref in sorted(self.written.names() - {object_ref, parent_ref})
+        ]
+        for row in mentions:
+            self.writer.add_row(EventRef, row)
+        self.written.created_rows(EventRef.__tablename__, mentions)
         text = canonical_json({**payload, FACTS: self.written.facts()})
         _settle(self.touched)
         digest = event_hash(seq, self.now, code, action, object_ref, parent_ref, previous, text)

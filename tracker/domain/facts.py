@@ -65,6 +65,8 @@ FACTS = "facts"  # the payload's key
 FORMAT = "tracker-facts/1"
 # The ledger's own table: an event cannot state the facts of itself.
 NOT_DESCRIBED = frozenset({"custody_event"})
+# Columns that hold an item's public ID as text (not a foreign key): they name it all the same.
+ITEM_COLUMNS = frozenset({"item_ref"})
 
 Convert = Callable[[Any], Any]
 _MISSING = object()
@@ -79,6 +81,7 @@ class Column:
     convert: Convert
     default: Callable[[], Any] | None  # the model's Python-side default, for unset values
     shape: str  # what the fact is: "public", "time", "day", "number", "text", "json" ...
+    refers: Kind | None = None  # for a reference by public ID: the kind it names
 
 
 @dataclass(frozen=True)
@@ -161,13 +164,20 @@ _SHAPES: tuple[tuple[type[Any], str, Convert], ...] = (
 )
 
 
-def _converter(column: Any, kinds: Mapping[str, Kind]) -> tuple[Convert, str]:
-    """How a stored value of ``column`` is written in the facts (by the column's type)."""
+def _refers(column: Any, kinds: Mapping[str, Kind]) -> Kind | None:
+    """The kind of public ID a foreign key names (None: not a reference by public ID)."""
     for foreign in column.foreign_keys:
         target = foreign.column
         kind = kinds.get(target.table.name)
         if kind is not None and target.primary_key:
-            return _nullable(_public(kind)), "public"
+            return kind
+    return None
+
+
+def _converter(column: Any, kind: Kind | None) -> tuple[Convert, str]:
+    """How a stored value of ``column`` is written in the facts (by the column's type)."""
+    if kind is not None:
+        return _nullable(_public(kind)), "public"
     for type_, shape, convert in _SHAPES:
         if isinstance(column.type, type_):
             return _nullable(convert), shape
@@ -218,8 +228,9 @@ def layout(table: str) -> Layout:
     columns: list[Column] = []
     for prop in mapper.column_attrs:
         column = prop.columns[0]
-        convert, shape = _converter(column, kinds)
-        entry = Column(prop.key, column.key, convert, _default(column), shape)
+        refers = _refers(column, kinds)
+        convert, shape = _converter(column, refers)
+        entry = Column(prop.key, column.key, convert, _default(column), shape, refers)
         (key if column.primary_key else columns).append(entry)
     index = {column.name: n for n, column in enumerate(columns)}
     return Layout(table, kinds.get(table), tuple(key), tuple(columns), index)
@@ -286,7 +297,7 @@ class Written:
 
     _created: dict[tuple[str, str], Any] = field(default_factory=dict)
     _changed: dict[tuple[str, str], tuple[Any, set[str]]] = field(default_factory=dict)
-    _deleted: dict[tuple[str, str], None] = field(default_factory=dict)
+    _deleted: dict[tuple[str, str], frozenset[str]] = field(default_factory=dict)
 
     def created(self, obj: Any) -> None:
         """A new ORM row (its primary key assigned)."""
@@ -323,7 +334,7 @@ class Written:
         where = (table, layout(table).key_of(_key_values(obj, table)))
         self._changed.pop(where, None)
         if self._created.pop(where, None) is None:
-            self._deleted[where] = None
+            self._deleted[where] = _names(layout(table), where[1], values_of(obj))
 
     def __bool__(self) -> bool:
         return bool(self._created or self._changed or self._deleted)
@@ -333,6 +344,20 @@ class Written:
         yield from self._created
         yield from self._changed
         yield from self._deleted
+
+    def names(self) -> set[str]:
+        """Every item the rows written concern: each row's own public ID, or, for a row
+        without one, the public IDs it refers to (a label's item, a result's cut). A unit
+        of work's event mentions them, so an item's history — and an audit of one loan's
+        rows — finds every event that wrote a row of it."""
+        found: set[str] = set()
+        for (table, key), row in self._created.items():
+            found |= _names(layout(table), key, row if isinstance(row, Mapping) else None, row)
+        for (table, key), (obj, _) in self._changed.items():
+            found |= _names(layout(table), key, None, obj)
+        for named in self._deleted.values():
+            found |= named
+        return found
 
     def facts(self) -> dict[str, Any]:
         """The payload's facts (see the module's documentation)."""
@@ -348,6 +373,39 @@ class Written:
             deleted.setdefault(table, []).append(key)
         sections = {"created": created, "changed": changed, "deleted": deleted}
         return {name: section for name, section in sections.items() if section}
+
+
+def references(rules: Layout, facts: Mapping[str, Any]) -> set[str]:
+    """The items a row's facts refer to: its references by public ID, a label's item."""
+    return {
+        value
+        for column in rules.columns
+        if column.shape == "public" or column.name in ITEM_COLUMNS
+        if (value := facts.get(column.name))
+    }
+
+
+def names_of(rules: Layout, key: str, facts: Mapping[str, Any]) -> frozenset[str]:
+    """The items a row concerns, from its facts: its own public ID, or those it refers to."""
+    return frozenset({key} if rules.kind is not None else references(rules, facts))
+
+
+def _names(
+    rules: Layout, key: str, values: Mapping[str, Any] | None, obj: Any = None
+) -> frozenset[str]:
+    if rules.kind is not None:
+        return frozenset({key})
+    held = values if values is not None else values_of(obj)
+    named = (
+        column.name
+        for column in rules.columns
+        if column.shape == "public" or column.name in ITEM_COLUMNS
+    )
+    return names_of(rules, key, {name: _fact(rules, name, held) for name in named})
+
+
+def _fact(rules: Layout, name: str, values: Mapping[str, Any]) -> Any:
+    return rules.columns[rules.index[name]].convert(values.get(name))
 
 
 def _key_values(obj: Any, table: str) -> dict[str, Any]:

@@ -24,7 +24,7 @@ from datetime import datetime
 from typing import Any, Literal
 
 from tracker.domain import legacy
-from tracker.domain.facts import FACTS, Layout, described_tables, layout
+from tracker.domain.facts import FACTS, Layout, described_tables, layout, references
 from tracker.domain.ids import Kind, looks_like_id, parse_id
 
 Problem = Literal["changed", "unrecorded", "missing"]
@@ -123,9 +123,41 @@ class Coverage:
 
 
 @dataclass
-class Books:
-    """Each table's rows as the ledger states them, event after event."""
+class Scope:
+    """The rows an audit of one part of the lab (a loan's report) holds against the ledger.
 
+    ``roots`` are the items whose rows are in scope together with every row that refers
+    to them (a loan, its specimens, their powders ...); ``keys`` are items whose own rows
+    are in scope without pulling in what refers to them (the loan's lender, its documents).
+    A row made by an event and referring to a root becomes a root itself: a specimen the
+    stored rows no longer hold is still found, and so are its powders, on the next pass.
+    """
+
+    roots: set[str]
+    keys: set[str] = field(default_factory=set)
+
+    def names(self) -> set[str]:
+        return self.roots | self.keys
+
+    def admits(self, rules: Layout, key: str, facts: dict[str, Any]) -> bool:
+        """Is this row (its key and its full facts) in scope?"""
+        if key in self.roots or key in self.keys:
+            return True
+        if not references(rules, facts) & self.roots:
+            return False
+        if rules.kind is not None:
+            self.roots.add(key)
+        return True
+
+    def holds(self, key: str) -> bool:
+        return key in self.roots or key in self.keys
+
+
+@dataclass
+class Books:
+    """Each table's rows as the ledger states them, event after event (within ``scope``)."""
+
+    scope: Scope | None = None
     rows: dict[str, dict[str, list[Any]]] = field(default_factory=dict)
     coverage: Coverage = field(default_factory=Coverage)
     # the first key number of each table's rows made by events with facts
@@ -150,6 +182,7 @@ class Books:
             if action in legacy.MADE or action.endswith(".corrected"):
                 self._legacy_row(at, operator, action, object_ref, json.loads(payload))
             return
+        scope = self.scope
         for table, gone in stated.get("deleted", {}).items():
             held = self.rows.get(table, {})
             for key in gone:
@@ -158,6 +191,8 @@ class Books:
             rules = layout(table)
             held = self.rows.setdefault(table, {})
             for key, facts in made.items():
+                if scope is not None and not scope.admits(rules, key, facts):
+                    continue
                 held[key] = [facts.get(column.name) for column in rules.columns]
                 if self.coverage.legacy_events:
                     self._mark_horizon(rules, key)
@@ -166,6 +201,8 @@ class Books:
             held = self.rows.setdefault(table, {})
             for key, facts in changes.items():
                 values = held.get(key)
+                if values is None and scope is not None and not scope.holds(key):
+                    continue  # out of scope (or an old row of unknown whereabouts)
                 if values is None:  # a row an event before the facts made
                     values = held[key] = [UNKNOWN] * len(rules.columns)
                 for name, value in facts.items():
@@ -176,7 +213,7 @@ class Books:
         self.coverage.last_legacy = seq
         for ref in (object_ref, parent_ref):
             where = _row_of(ref)
-            if where is not None:
+            if where is not None and (self.scope is None or self.scope.holds(ref)):
                 self.named.setdefault(where[0], {}).setdefault(where[1], seq)
 
     def _legacy_row(
@@ -184,7 +221,7 @@ class Books:
     ) -> None:
         """What an old event's own payload states of the row it made or corrected."""
         where = _row_of(ref)
-        if where is None:
+        if where is None or (self.scope is not None and not self.scope.holds(ref)):
             return
         table, key = where
         rules = layout(table)

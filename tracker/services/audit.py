@@ -15,19 +15,38 @@ from collections.abc import Callable, Iterable, Iterator
 from dataclasses import dataclass
 from typing import Any
 
-from sqlalchemy import Connection, Table, func, select
+from sqlalchemy import Connection, Select, Table, func, select
 
 from tracker.db import stream
 from tracker.db.database import Database
 from tracker.domain.base import Base
+from tracker.domain.errors import RuleViolation
 from tracker.domain.facts import Layout, described_tables, layout, row_facts
 from tracker.domain.ledger import LedgerTuple, VerifyReport, verify_batches
 from tracker.domain.models import CustodyEvent
 from tracker.domain.replay import Books, Coverage, Discrepancy
 from tracker.services.ledger import event_batches
+from tracker.services.view_base import View
 
 Progress = Callable[[int, int], None]  # (events and rows read, events and rows in all)
 SHOWN = 3  # discrepancies named in a one-line verdict
+AUDIT_COMMAND = "tracker ledger audit"
+
+
+class DiscrepancyView(View):
+    """One discrepancy, as a report or an export lists it."""
+
+    kind: str  # changed, unrecorded (no event made the row), missing (a row the ledger made)
+    table: str
+    key: str
+    field: str | None
+    ledger: Any
+    stored: Any
+    said: str  # the whole of it in words
+
+    @classmethod
+    def of(cls, found: Discrepancy) -> DiscrepancyView:
+        return cls(**found.as_dict(), said=found.one_line())
 
 
 @dataclass(frozen=True)
@@ -38,6 +57,7 @@ class AuditReport:
     discrepancies: list[Discrepancy]
     coverage: Coverage
     rows: int  # stored rows compared
+    scope: str = ""  # what was audited when not the whole lab ("loan KF-2026-014")
 
     @property
     def ok(self) -> bool:
@@ -50,10 +70,11 @@ class AuditReport:
                 f"books not audited: the ledger is broken at event #{self.chain.broken_seq} "
                 f"({self.chain.reason})"
             )
+        books = f"the books of {self.scope}" if self.scope else "books"
         if not self.discrepancies:
             agree = (
-                f"books agree with the ledger: {self.rows:,} rows, "
-                f"{self.chain.events:,} events replayed"
+                f"{books} agree with the ledger: {self.rows:,} rows, "
+                f"{self.coverage.events:,} events replayed"
             )
             if self.coverage.complete:
                 return agree
@@ -65,12 +86,31 @@ class AuditReport:
         more = len(self.discrepancies) - SHOWN
         tail = f"; and {more:,} more" if more > 0 else ""
         count = len(self.discrepancies)
-        return f"books DIFFER from the ledger in {count:,} place(s): {first}{tail}"
+        return f"{books} DIFFER from the ledger in {count:,} place(s): {first}{tail}"
+
+    def views(self) -> list[DiscrepancyView]:
+        return [DiscrepancyView.of(found) for found in self.discrepancies]
+
+    def vouch(self, field: str, value: str, *, despite: bool) -> list[DiscrepancyView]:
+        """What a report or an export of these books must list: nothing when they agree
+        with the ledger; when they differ, refused — unless written ``despite`` them, then
+        every discrepancy, to be shown with what is written."""
+        if not self.discrepancies:
+            return []
+        if not despite:
+            raise RuleViolation(
+                field,
+                value,
+                f"{self.verdict()}; refused — see `{AUDIT_COMMAND}`; made despite the "
+                "discrepancies (--despite-discrepancies), it lists every one",
+            )
+        return self.views()
 
     def as_dict(self) -> dict[str, Any]:
         coverage = self.coverage
         return {
             "ok": self.ok,
+            "scope": self.scope or "the whole lab",
             "chain_ok": self.chain.ok,
             "events": self.chain.events,
             "head_hash": self.chain.head_hash,
@@ -99,7 +139,7 @@ def audit(db: Database, progress: Progress | None = None, every: int = 500) -> A
             return AuditReport(chain, [], books.coverage, 0)
         found: list[Discrepancy] = []
         for name in described_tables():
-            stored = counted.rows(_stored(connection, name))
+            stored = counted.rows(_stored_all(connection, name))
             found.extend(books.compare(name, stored))
         counted.finish()
         return AuditReport(chain, found, books.coverage, counted.rows_seen)
@@ -151,19 +191,27 @@ def _replayed(
             counted.step()
 
 
+def _stored_all(connection: Connection, name: str) -> Iterator[tuple[str, dict[str, Any]]]:
+    return stored(connection, name)
+
+
 def _table(name: str) -> Table:
     return Base.metadata.tables[name]
 
 
-def _stored(connection: Connection, name: str) -> Iterator[tuple[str, dict[str, Any]]]:
-    """Each stored row of ``name``: its key and its facts, read through the columns' own
-    types; a value no type can read (a tamperer's text in a time column) is said as such."""
+def stored(
+    connection: Connection, name: str, statement: Select[Any] | None = None
+) -> Iterator[tuple[str, dict[str, Any]]]:
+    """Each stored row of ``name`` (those ``statement`` selects, or all): its key and its
+    facts, read through the columns' own types; a value no type can read (a tamperer's
+    text in a time column) is said as such."""
     table = _table(name)
     rules = layout(name)
     dialect = connection.dialect
     columns = list(table.columns)
     readers = [c.type.dialect_impl(dialect).result_processor(dialect, None) for c in columns]
-    for batch in stream.batches(connection, select(table), f"tracker_audit_{name}"):
+    query = select(table) if statement is None else statement
+    for batch in stream.batches(connection, query, f"tracker_audit_{name}"):
         for raw in batch:
             values: dict[str, Any] = {}
             unreadable: dict[str, Any] = {}

@@ -54,7 +54,7 @@ _COLUMNS = (
 BATCH = 5000
 
 
-def _stamp_column(backend: str) -> ColumnElement[Any]:
+def stamp_column(backend: str) -> ColumnElement[Any]:
     """The event time as stored: SQLite's text as it is (the walk makes it ISO text, cheaper
     than a million datetimes), PostgreSQL's timestamps as datetimes."""
     if backend != "sqlite":
@@ -81,7 +81,7 @@ def event_batches(connection: Connection) -> Iterator[list[LedgerTuple]]:
     (a server-side cursor on PostgreSQL): verifying a decade's ledger is a million rows,
     and wrapping each in a result row would cost more than hashing it.
     """
-    columns = (CustodyEvent.seq, _stamp_column(connection.dialect.name), *_COLUMNS[2:])
+    columns = (CustodyEvent.seq, stamp_column(connection.dialect.name), *_COLUMNS[2:])
     statement = select(*columns).order_by(CustodyEvent.seq)
     yield from stream.batches(connection, statement, "tracker_ledger_walk", BATCH)
 

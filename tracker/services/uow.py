@@ -90,7 +90,8 @@ class UnitOfWork:
     sealed: Callable[[], None] = lambda: None  # no row may be written once facts are taken
 
     def mention(self, *refs: str) -> None:
-        """Make the event findable from each of these items' history."""
+        """Make the event findable from each of these items' history (every item whose rows
+        the unit writes is mentioned anyway: ``Written.names``)."""
         self.mentions.update(ref for ref in refs if ref)
 
     def require_manager(self, action: str) -> None:
@@ -131,7 +132,7 @@ class UnitOfWork:
         for hook in self.naming_event:
             hook(link[0])
         self.session.flush()
-        refs = sorted(self.mentions - {object_ref, parent_ref})
+        refs = sorted((self.mentions | self.written.names()) - {object_ref, parent_ref})
         mentions = [{"seq": link[0], "ref": ref} for ref in refs]
         self.written.created_rows(_EVENT_REF.name, mentions)
         payload = {**payload, FACTS: self.written.facts()}
