@@ -8,7 +8,7 @@ server-side cursor on PostgreSQL, so memory holds one batch, never the table.
 
 from __future__ import annotations
 
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator, Sequence
 from contextlib import contextmanager
 from typing import Any
 
@@ -17,10 +17,15 @@ from sqlalchemy.sql import ClauseElement
 
 
 def batches(
-    connection: Connection, statement: ClauseElement, name: str, size: int = 5000
+    connection: Connection,
+    statement: ClauseElement,
+    name: str,
+    size: int = 5000,
+    described: Callable[[Sequence[Any]], None] | None = None,
 ) -> Iterator[list[tuple[Any, ...]]]:
     """The statement's rows as the driver returns them (values unconverted), ``size`` at a
-    time; ``name`` names PostgreSQL's server-side cursor."""
+    time; ``name`` names PostgreSQL's server-side cursor. ``described`` is told the
+    cursor's description (each column's driver type) before the first batch."""
     sql = str(statement.compile(connection, compile_kwargs={"literal_binds": True}))
     driver = connection.connection.driver_connection
     assert driver is not None
@@ -28,6 +33,8 @@ def batches(
     cursor = driver.cursor(**named)
     try:
         cursor.execute(sql)
+        if described is not None:
+            described(cursor.description)
         while batch := cursor.fetchmany(size):
             yield batch
     finally:

@@ -11,7 +11,7 @@ meanwhile can neither hide a discrepancy nor make one up.
 
 from __future__ import annotations
 
-from collections.abc import Callable, Iterable, Iterator
+from collections.abc import Callable, Iterable, Iterator, Sequence
 from dataclasses import dataclass
 from typing import Any
 
@@ -209,9 +209,17 @@ def stored(
     rules = layout(name)
     dialect = connection.dialect
     columns = list(table.columns)
-    readers = [c.type.dialect_impl(dialect).result_processor(dialect, None) for c in columns]
+    readers: list[Any] = []
+
+    def described(description: Sequence[Any]) -> None:
+        """Each column's own reader, for the driver's type of it (PostgreSQL's floats)."""
+        readers.extend(
+            c.type.dialect_impl(dialect).result_processor(dialect, d[1])
+            for c, d in zip(columns, description, strict=True)
+        )
+
     query = select(table) if statement is None else statement
-    for batch in stream.batches(connection, query, f"tracker_audit_{name}"):
+    for batch in stream.batches(connection, query, f"tracker_audit_{name}", described=described):
         for raw in batch:
             values: dict[str, Any] = {}
             unreadable: dict[str, Any] = {}
