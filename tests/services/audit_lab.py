@@ -135,7 +135,7 @@ def _past_the_rules(connection: Connection, backend: str) -> None:
 
 
 @pytest.fixture(scope="session")
-def lab_template(tmp_path_factory: pytest.TempPathFactory) -> Path:
+def audited_lab_template(tmp_path_factory: pytest.TempPathFactory) -> Path:
     folder = tmp_path_factory.mktemp("audit-lab")
     path = folder / "lab.sqlite"
     run_scenario(path)
@@ -144,7 +144,9 @@ def lab_template(tmp_path_factory: pytest.TempPathFactory) -> Path:
 
 
 @pytest.fixture(scope="session")
-def pg_lab_template(pg_server: str, tmp_path_factory: pytest.TempPathFactory) -> Iterator[str]:
+def pg_audited_lab_template(
+    pg_server: str, tmp_path_factory: pytest.TempPathFactory
+) -> Iterator[str]:
     name = f"tracker_audit_lab_{os.getpid()}"
     admin = _admin(pg_server)
     with admin.connect() as connection:
@@ -167,12 +169,12 @@ def books(request: pytest.FixtureRequest, tmp_path: Path) -> Iterator[Books]:
     """A fresh copy of the lab on the parametrised backend."""
     if request.param == "sqlite":
         target = tmp_path / "lab.sqlite"
-        shutil.copyfile(request.getfixturevalue("lab_template"), target)
+        shutil.copyfile(request.getfixturevalue("audited_lab_template"), target)
         target.chmod(0o600)
         yield Books(str(target), "sqlite")
         return
     server = request.getfixturevalue("pg_server")
-    template = request.getfixturevalue("pg_lab_template")
+    template = request.getfixturevalue("pg_audited_lab_template")
     name = f"tracker_audit_{os.getpid()}_{next(_copies)}"
     admin = _admin(server)
     with admin.connect() as connection:
