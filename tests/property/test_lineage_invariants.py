@@ -79,7 +79,7 @@ class LabBench(RuleBasedStateMachine):
             assert self._ledger_length() == self.expected_events
             return None
         self.expected_events += 1
-        return getattr(answer.item, "id", None)  # type: ignore[attr-defined]
+        return getattr(answer.item, "id", None)
 
     @rule(target=specimens)
     def add_specimen(self) -> str:

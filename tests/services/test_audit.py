@@ -25,7 +25,7 @@ from tracker.services.audit import audit
 
 DESCRIBED = [t.name for t in Base.metadata.sorted_tables if t.name != "custody_event"]
 _KINDS = {
-    mapper.local_table.name: mapper.class_.id_kind  # type: ignore[union-attr]
+    mapper.local_table.name: mapper.class_.id_kind  # type: ignore[attr-defined]
     for mapper in Base.registry.mappers
     if hasattr(mapper.class_, "id_kind")
 }

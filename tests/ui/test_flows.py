@@ -8,7 +8,7 @@ from pathlib import Path
 from typing import Any
 
 from sqlalchemy import select
-from textual.widgets import Input, Static
+from textual.widgets import Input, ProgressBar, Static
 
 from tests.ui.conftest import (
     Lab,
@@ -344,7 +344,7 @@ async def test_ledger_screen_audits_the_books_in_a_worker(lab: Lab) -> None:
         result = text_of(screen.query_one("#verify-result", Static))
         assert result.startswith("✗ books DIFFER from the ledger in 1 place(s): powder PW-00001-5")
         assert "mass_mg is 1.0" in result
-        assert screen.query_one("#verify-progress").percentage == 1.0
+        assert screen.query_one("#verify-progress", ProgressBar).percentage == 1.0
 
 
 async def test_operator_chosen_at_start_and_remembered(lab: Lab) -> None:
