@@ -59,7 +59,7 @@ from sqlalchemy.orm import Mapper
 
 from tracker.domain.base import Base, UTCDateTime
 from tracker.domain.ids import Kind, format_id
-from tracker.domain.timeutil import iso_utc
+from tracker.domain.ledger import ledger_stamp
 
 FACTS = "facts"  # the payload's key
 FORMAT = "tracker-facts/1"
@@ -101,36 +101,49 @@ class Layout:
         return "/".join(str(values[column.name]) for column in self.key)
 
 
+# Each converter takes a stored value (None included: nothing stored reads as null). They
+# are called once for every column of every row an audit reads, so each is one call.
+
+
 def _text(value: Any) -> Any:
+    if value is None:
+        return None
     return value.value if isinstance(value, Enum) else str(value)
 
 
 def _number(value: Any) -> Any:
+    if value is None:
+        return None
     return str(value) if isinstance(value, Decimal) else float(value)
 
 
 def _exact(value: Any) -> Any:
-    return str(value) if isinstance(value, Decimal) else _number(value)
+    if value is None:
+        return None
+    return str(value) if isinstance(value, Decimal) else float(value)
 
 
-def _whole(value: Any) -> int:
-    return int(value)
+def _whole(value: Any) -> Any:
+    return None if value is None else int(value)
 
 
-def _flag(value: Any) -> bool:
-    return bool(value)
+def _flag(value: Any) -> Any:
+    return None if value is None else bool(value)
 
 
-def _moment(value: Any) -> str:
-    return iso_utc(value)
+def _moment(value: Any) -> Any:
+    # a datetime, or the text SQLite stores, in the ledger's form
+    return None if value is None else ledger_stamp(value)
 
 
-def _day(value: Any) -> str:
+def _day(value: Any) -> Any:
+    if value is None:
+        return None
     return value.isoformat() if isinstance(value, date | datetime) else str(value)
 
 
-def _digest(value: Any) -> str:
-    return "sha256:" + hashlib.sha256(bytes(value)).hexdigest()
+def _digest(value: Any) -> Any:
+    return None if value is None else "sha256:" + hashlib.sha256(bytes(value)).hexdigest()
 
 
 def _as_is(value: Any) -> Any:
@@ -138,17 +151,10 @@ def _as_is(value: Any) -> Any:
 
 
 def _public(kind: Kind) -> Convert:
-    def convert(value: Any) -> str:
-        return format_id(kind, int(value))
+    def convert(value: Any) -> Any:
+        return None if value is None else format_id(kind, int(value))
 
     return convert
-
-
-def _nullable(convert: Convert) -> Convert:
-    def facts_value(value: Any) -> Any:
-        return None if value is None else convert(value)
-
-    return facts_value
 
 
 _SHAPES: tuple[tuple[type[Any], str, Convert], ...] = (
@@ -177,11 +183,11 @@ def _refers(column: Any, kinds: Mapping[str, Kind]) -> Kind | None:
 def _converter(column: Any, kind: Kind | None) -> tuple[Convert, str]:
     """How a stored value of ``column`` is written in the facts (by the column's type)."""
     if kind is not None:
-        return _nullable(_public(kind)), "public"
+        return _public(kind), "public"
     for type_, shape, convert in _SHAPES:
         if isinstance(column.type, type_):
-            return _nullable(convert), shape
-    return _nullable(_text), "text"
+            return convert, shape
+    return _text, "text"
 
 
 def _default(column: Any) -> Callable[[], Any] | None:

@@ -21,6 +21,7 @@ import json
 from collections.abc import Iterable, Iterator
 from dataclasses import dataclass, field
 from datetime import datetime
+from sys import intern
 from typing import Any, Literal
 
 from tracker.domain import legacy
@@ -193,7 +194,8 @@ class Books:
             for key, facts in made.items():
                 if scope is not None and not scope.admits(rules, key, facts):
                     continue
-                held[key] = [facts.get(column.name) for column in rules.columns]
+                stated_values = [facts.get(column.name) for column in rules.columns]
+                held[key] = [v if type(v) is not str else intern(v) for v in stated_values]
                 if self.coverage.legacy_events:
                     self._mark_horizon(rules, key)
         for table, changes in stated.get("changed", {}).items():
@@ -206,7 +208,7 @@ class Books:
                 if values is None:  # a row an event before the facts made
                     values = held[key] = [UNKNOWN] * len(rules.columns)
                 for name, value in facts.items():
-                    values[rules.index[name]] = value
+                    values[rules.index[name]] = _kept(value)
 
     def _legacy(self, seq: int, object_ref: str, parent_ref: str) -> None:
         self.coverage.legacy_events += 1
@@ -286,6 +288,12 @@ class Books:
         number = _number(rules, key)
         horizon = self.horizon.get(rules.table)
         return number is None or horizon is None or number < horizon
+
+
+def _kept(value: Any) -> Any:
+    """A replayed value as held until its row is compared: text shared between the rows
+    that repeat it (statuses, operators, places), so memory follows the distinct values."""
+    return intern(value) if type(value) is str else value
 
 
 def _number(rules: Layout, key: str) -> int | None:

@@ -211,10 +211,16 @@ def stored(
     columns = list(table.columns)
     readers: list[Any] = []
 
+    shapes = {column.name: column.shape for column in (*rules.key, *rules.columns)}
+
     def described(description: Sequence[Any]) -> None:
-        """Each column's own reader, for the driver's type of it (PostgreSQL's floats)."""
+        """The column's own reader, for the driver's type of it, where the facts need one
+        (structured JSON); every other value is written as a fact from what the driver
+        gives (times as SQLite stores them included: ``ledger.ledger_stamp``)."""
         readers.extend(
             c.type.dialect_impl(dialect).result_processor(dialect, d[1])
+            if shapes[c.key] == "json"
+            else None
             for c, d in zip(columns, description, strict=True)
         )
 
