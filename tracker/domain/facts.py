@@ -35,7 +35,7 @@ audit on the rows it reads back, so all three speak the same form.
 from __future__ import annotations
 
 import hashlib
-from collections.abc import Callable, Iterable, Iterator, Mapping
+from collections.abc import Callable, Iterable, Iterator, Mapping, Sequence
 from dataclasses import dataclass, field
 from datetime import date, datetime
 from decimal import Decimal
@@ -313,11 +313,19 @@ class Written:
         key = layout(table).key_of(_key_values(obj, table))
         self._created[(table, key)] = obj
 
-    def created_rows(self, table: str, rows: Iterable[Mapping[str, Any]]) -> None:
-        """New rows written set-based (``insert_rows``): every column's value, key included."""
+    def created_rows(
+        self, table: str, rows: Sequence[Mapping[str, Any]], shared: Mapping[str, Any] | None = None
+    ) -> None:
+        """New rows written set-based (``insert_rows``): every column's value, key included,
+        and the values every row shares."""
         rules = layout(table)
-        for values in rows:
-            self._created[(table, rules.key_of(values))] = values
+        keys = (rules.key_of(values) for values in rows)
+        self.created_facts(table, zip(keys, rows_facts(table, rows, shared), strict=True))
+
+    def created_facts(self, table: str, stated: Iterable[tuple[str, dict[str, Any]]]) -> None:
+        """New rows written set-based, given as their keys and facts (``rows_facts``)."""
+        for key, facts in stated:
+            self._created[(table, key)] = _Stated(facts)
 
     def changed(self, obj: Any, columns: Iterable[str]) -> None:
         """An existing ORM row whose ``columns`` were given new values."""
@@ -358,7 +366,10 @@ class Written:
         rows — finds every event that wrote a row of it."""
         found: set[str] = set()
         for (table, key), row in self._created.items():
-            found |= _names(layout(table), key, row if isinstance(row, Mapping) else None, row)
+            if isinstance(row, _Stated):
+                found |= names_of(layout(table), key, row)
+            else:
+                found |= _names(layout(table), key, None, row)
         for (table, key), (obj, _) in self._changed.items():
             found |= _names(layout(table), key, None, obj)
         for named in self._deleted.values():
@@ -369,8 +380,8 @@ class Written:
         """The payload's facts (see the module's documentation)."""
         created: dict[str, dict[str, Any]] = {}
         for (table, key), row in self._created.items():
-            values = row if isinstance(row, Mapping) else values_of(row)
-            created.setdefault(table, {})[key] = row_facts(layout(table), values)
+            stated = row if isinstance(row, _Stated) else row_facts(layout(table), values_of(row))
+            created.setdefault(table, {})[key] = stated
         changed: dict[str, dict[str, Any]] = {}
         for (table, key), (obj, names) in self._changed.items():
             changed.setdefault(table, {})[key] = row_facts(layout(table), values_of(obj), names)
@@ -379,6 +390,25 @@ class Written:
             deleted.setdefault(table, []).append(key)
         sections = {"created": created, "changed": changed, "deleted": deleted}
         return {name: section for name, section in sections.items() if section}
+
+
+class _Stated(dict[str, Any]):
+    """A row written set-based, kept as its facts (an ORM row is kept as itself)."""
+
+
+def rows_facts(
+    table: str, rows: Iterable[Mapping[str, Any]], shared: Mapping[str, Any] | None = None
+) -> Iterator[dict[str, Any]]:
+    """The facts of rows written set-based: what they share converted once, the rest row
+    by row (a manifest's 20,000 specimens share their loan, status and time)."""
+    rules = layout(table)
+    common = row_facts(rules, shared, shared.keys()) if shared else {}
+    varying = [column for column in rules.columns if column.name not in common]
+    for values in rows:
+        get = values.get
+        facts = {column.name: column.convert(get(column.name)) for column in varying}
+        facts.update(common)
+        yield facts
 
 
 def references(rules: Layout, facts: Mapping[str, Any]) -> set[str]:

@@ -23,6 +23,7 @@ from sqlalchemy.orm import Session, undefer
 from tracker.db.database import Database
 from tracker.db.rows import insert_rows
 from tracker.domain.errors import InputError, NotFound, RuleViolation, at_cell
+from tracker.domain.facts import rows_facts
 from tracker.domain.ids import Kind, format_id
 from tracker.domain.models import Loan, LoanStatus, MappingProfile, Specimen, SpecimenStatus
 from tracker.domain.tables import Row, Table, TableError, read_table
@@ -400,16 +401,17 @@ def _insert(uow: UnitOfWork, loan_id: int, new: list[Fields], size: int) -> list
         return []
     session = uow.session
     shared = {"loan_id": loan_id, "status": SpecimenStatus.EXPECTED, "created_at": uow.now}
+    stated: list[tuple[str, dict[str, Any]]] = []  # each row's catalogue number and facts
     for start in range(0, len(new), size):
         rows = [unpacked(fields) for fields in new[start : start + size]]
         insert_rows(session.connection(), _SPECIMEN, rows, shared)
+        catalog = (row["catalog_number"] for row in rows)
+        stated.extend(zip(catalog, rows_facts(_SPECIMEN.name, rows, shared), strict=True))
     ids = dict(
         session.execute(
             select(Specimen.catalog_number, Specimen.id).where(Specimen.loan_id == loan_id)
         ).all()
     )
-    uow.written.created_rows(
-        _SPECIMEN.name,
-        ({**unpacked(row), **shared, "id": ids[row["catalog_number"]]} for row in new),
-    )
-    return [format_id(Kind.SPECIMEN, ids[row["catalog_number"]]) for row in new]
+    made = [(format_id(Kind.SPECIMEN, ids[catalog]), facts) for catalog, facts in stated]
+    uow.written.created_facts(_SPECIMEN.name, made)
+    return [key for key, _ in made]
