@@ -106,8 +106,8 @@ class Layout:
 
 
 def _text(value: Any) -> Any:
-    if value is None:
-        return None
+    if value is None or type(value) is str:
+        return value
     return value.value if isinstance(value, Enum) else str(value)
 
 
@@ -404,6 +404,9 @@ def rows_facts(
     rules = layout(table)
     common = row_facts(rules, shared, shared.keys()) if shared else {}
     varying = [column for column in rules.columns if column.name not in common]
+    if not varying:  # a ledger mention: nothing but its key
+        yield from (dict(common) for _ in rows)
+        return
     for values in rows:
         get = values.get
         facts = {column.name: column.convert(get(column.name)) for column in varying}
