@@ -22,7 +22,15 @@ from sqlalchemy.orm.attributes import set_committed_value
 from tracker.bench.bulk_state import State
 from tracker.bench.bulk_writer import BulkWriter
 from tracker.domain.base import Base, HasPublicId
-from tracker.domain.facts import FACTS, Written, changed_columns, layout, table_of, values_of
+from tracker.domain.facts import (
+    FACTS,
+    Written,
+    changed_columns,
+    expanded,
+    layout,
+    table_of,
+    values_of,
+)
 from tracker.domain.ledger import canonical_json, event_hash
 from tracker.domain.models import CustodyEvent, EventRef, Label, LabelStatus, Location, Operator
 from tracker.domain.timing import (
@@ -108,7 +116,7 @@ class Ctx:
         for row in mentions:
             self.writer.add_row(EventRef, row)
         self.written.created_rows(EventRef.__tablename__, mentions)
-        text = canonical_json({**payload, FACTS: self.written.facts()})
+        text = canonical_json({**payload, FACTS: self.written.facts()}, default=expanded)
         _settle(self.touched)
         digest = event_hash(seq, self.now, code, action, object_ref, parent_ref, previous, text)
         self.writer.add_row(

@@ -35,6 +35,7 @@ audit on the rows it reads back, so all three speak the same form.
 from __future__ import annotations
 
 import hashlib
+import json
 from collections.abc import Callable, Iterable, Iterator, Mapping, Sequence
 from dataclasses import dataclass, field
 from datetime import date, datetime
@@ -322,10 +323,10 @@ class Written:
         keys = (rules.key_of(values) for values in rows)
         self.created_facts(table, zip(keys, rows_facts(table, rows, shared), strict=True))
 
-    def created_facts(self, table: str, stated: Iterable[tuple[str, dict[str, Any]]]) -> None:
+    def created_facts(self, table: str, stated: Iterable[tuple[str, Stated]]) -> None:
         """New rows written set-based, given as their keys and facts (``rows_facts``)."""
         for key, facts in stated:
-            self._created[(table, key)] = _Stated(facts)
+            self._created[(table, key)] = facts
 
     def changed(self, obj: Any, columns: Iterable[str]) -> None:
         """An existing ORM row whose ``columns`` were given new values."""
@@ -366,7 +367,7 @@ class Written:
         rows — finds every event that wrote a row of it."""
         found: set[str] = set()
         for (table, key), row in self._created.items():
-            if isinstance(row, _Stated):
+            if isinstance(row, Stated):
                 found |= names_of(layout(table), key, row)
             else:
                 found |= _names(layout(table), key, None, row)
@@ -377,10 +378,11 @@ class Written:
         return found
 
     def facts(self) -> dict[str, Any]:
-        """The payload's facts (see the module's documentation)."""
+        """The payload's facts (see the module's documentation); rows written set-based are
+        ``Stated`` until the payload is written (``canonical_json(..., default=expanded)``)."""
         created: dict[str, dict[str, Any]] = {}
         for (table, key), row in self._created.items():
-            stated = row if isinstance(row, _Stated) else row_facts(layout(table), values_of(row))
+            stated = row if isinstance(row, Stated) else row_facts(layout(table), values_of(row))
             created.setdefault(table, {})[key] = stated
         changed: dict[str, dict[str, Any]] = {}
         for (table, key), (obj, names) in self._changed.items():
@@ -392,29 +394,72 @@ class Written:
         return {name: section for name, section in sections.items() if section}
 
 
-class _Stated(dict[str, Any]):
-    """A row written set-based, kept as its facts (an ORM row is kept as itself)."""
+class Stated:
+    """A row written set-based, kept small until its event's payload is written.
+
+    A manifest's one event states 20,000 specimens: held as dictionaries they would cost
+    many times their file. Here a row is its converted values (those every row shares held
+    once), with columns still in JSON text (a specimen's other terms, as they were checked)
+    parsed only when the payload is written, one row at a time (:func:`expanded`).
+    """
+
+    __slots__ = ("_common", "_names", "_texts", "_values")
+
+    def __init__(
+        self,
+        names: tuple[str, ...],
+        values: tuple[Any, ...],
+        common: Mapping[str, Any],
+        texts: frozenset[str],
+    ) -> None:
+        self._names, self._values, self._common, self._texts = names, values, common, texts
+
+    def get(self, name: str, default: Any = None) -> Any:
+        if name in self._common:
+            return self._common[name]
+        for key, value in zip(self._names, self._values, strict=True):
+            if key == name:
+                return json.loads(value) if key in self._texts and value is not None else value
+        return default
+
+    def as_dict(self) -> dict[str, Any]:
+        found = dict(self._common)
+        for key, value in zip(self._names, self._values, strict=True):
+            parsed = key in self._texts and value is not None
+            found[key] = json.loads(value) if parsed else value
+        return found
+
+
+def expanded(value: Any) -> Any:
+    """``json.dumps``'s ``default``: a ``Stated`` row written out as its facts."""
+    if isinstance(value, Stated):
+        return value.as_dict()
+    raise TypeError(f"{type(value).__name__} is not a row's facts")
 
 
 def rows_facts(
-    table: str, rows: Iterable[Mapping[str, Any]], shared: Mapping[str, Any] | None = None
-) -> Iterator[dict[str, Any]]:
+    table: str,
+    rows: Iterable[Mapping[str, Any]],
+    shared: Mapping[str, Any] | None = None,
+    texts: frozenset[str] = frozenset(),
+) -> Iterator[Stated]:
     """The facts of rows written set-based: what they share converted once, the rest row
-    by row (a manifest's 20,000 specimens share their loan, status and time)."""
+    by row; ``texts`` are JSON columns the rows hold as JSON text (kept so until written)."""
     rules = layout(table)
     common = row_facts(rules, shared, shared.keys()) if shared else {}
     varying = [column for column in rules.columns if column.name not in common]
-    if not varying:  # a ledger mention: nothing but its key
-        yield from (dict(common) for _ in rows)
-        return
+    names = tuple(column.name for column in varying)
+    converters = [
+        (column.name, _as_is if column.name in texts else column.convert) for column in varying
+    ]
     for values in rows:
         get = values.get
-        facts = {column.name: column.convert(get(column.name)) for column in varying}
-        facts.update(common)
-        yield facts
+        yield Stated(
+            names, tuple(convert(get(name)) for name, convert in converters), common, texts
+        )
 
 
-def references(rules: Layout, facts: Mapping[str, Any]) -> set[str]:
+def references(rules: Layout, facts: Mapping[str, Any] | Stated) -> set[str]:
     """The items a row's facts refer to: its references by public ID, a label's item."""
     return {
         value
@@ -424,7 +469,7 @@ def references(rules: Layout, facts: Mapping[str, Any]) -> set[str]:
     }
 
 
-def names_of(rules: Layout, key: str, facts: Mapping[str, Any]) -> frozenset[str]:
+def names_of(rules: Layout, key: str, facts: Mapping[str, Any] | Stated) -> frozenset[str]:
     """The items a row concerns, from its facts: its own public ID, or those it refers to."""
     return frozenset({key} if rules.kind is not None else references(rules, facts))
 

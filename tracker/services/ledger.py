@@ -15,7 +15,19 @@ from pathlib import Path
 from typing import Annotated, Any, BinaryIO, Literal, TextIO
 
 from pydantic import BaseModel, Field
-from sqlalchemy import ColumnElement, Connection, String, func, or_, select, type_coerce
+from sqlalchemy import (
+    ColumnElement,
+    Connection,
+    Select,
+    String,
+    Text,
+    cast,
+    func,
+    or_,
+    select,
+    type_coerce,
+)
+from sqlalchemy.dialects.postgresql import JSONB
 
 from tracker.db import outputs, stream
 from tracker.db.database import Database
@@ -29,6 +41,7 @@ from tracker.domain.anchors import (
     parse_anchor,
 )
 from tracker.domain.errors import InputError, RuleViolation
+from tracker.domain.facts import FACTS
 from tracker.domain.ledger import (
     LedgerTuple,
     VerifyReport,
@@ -126,7 +139,7 @@ def recent_events(
     """Newest events first; optionally those whose action starts with ``action``, recorded by
     ``operator``, or naming ``item`` (a public ID, as the event's object or its parent)."""
     with db.read_session() as session:
-        query = select(CustodyEvent).order_by(CustodyEvent.seq.desc()).limit(limit)
+        query = listed(db.backend).order_by(CustodyEvent.seq.desc()).limit(limit)
         if action:
             query = query.where(CustodyEvent.action.startswith(action))
         if operator:
@@ -135,7 +148,32 @@ def recent_events(
             query = query.where(
                 or_(CustodyEvent.object_ref == item, CustodyEvent.parent_ref == item)
             )
-        return [EventView.of(e) for e in session.scalars(query)]
+        return [EventView.of(e) for e in session.execute(query)]
+
+
+def listed(backend: str) -> Select[Any]:
+    """Events as lists and histories show them (``EventView``): the payload's facts are
+    left out by the database itself — a manifest's one event states 20,000 rows, and a
+    list of events shows none of them."""
+    stored = CustodyEvent.payload
+    if backend == "sqlite":
+        own: ColumnElement[Any] = func.json_remove(stored, f"$.{FACTS}")
+        states = func.json_type(stored, f"$.{FACTS}").is_not(None)
+    else:
+        document = cast(stored, JSONB)
+        own = cast(document.op("-")(FACTS), Text)
+        states = document.has_key(FACTS)
+    return select(
+        CustodyEvent.seq,
+        CustodyEvent.at,
+        CustodyEvent.operator,
+        CustodyEvent.action,
+        CustodyEvent.object_ref,
+        CustodyEvent.parent_ref,
+        own.label("payload"),
+        CustodyEvent.hash,
+        states.label("states_facts"),
+    )
 
 
 class LedgerLine(BaseModel):

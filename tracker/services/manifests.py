@@ -23,7 +23,7 @@ from sqlalchemy.orm import Session, undefer
 from tracker.db.database import Database
 from tracker.db.rows import insert_rows
 from tracker.domain.errors import InputError, NotFound, RuleViolation, at_cell
-from tracker.domain.facts import rows_facts
+from tracker.domain.facts import Stated, rows_facts
 from tracker.domain.ids import Kind, format_id
 from tracker.domain.models import Loan, LoanStatus, MappingProfile, Specimen, SpecimenStatus
 from tracker.domain.tables import Row, Table, TableError, read_table
@@ -49,6 +49,7 @@ from tracker.services.views import Done, View
 MAX_ROWS = 100_000
 # New specimens are inserted by the driver's executemany (no ORM object per row).
 _SPECIMEN = Specimen.metadata.tables[Specimen.__tablename__]
+PACKED = frozenset({"extra"})  # a checked row's columns held as JSON text (``unpacked``)
 
 
 class ManifestMapping(Request):
@@ -401,12 +402,13 @@ def _insert(uow: UnitOfWork, loan_id: int, new: list[Fields], size: int) -> list
         return []
     session = uow.session
     shared = {"loan_id": loan_id, "status": SpecimenStatus.EXPECTED, "created_at": uow.now}
-    stated: list[tuple[str, dict[str, Any]]] = []  # each row's catalogue number and facts
+    stated: list[tuple[str, Stated]] = []  # each row's catalogue number and facts
     for start in range(0, len(new), size):
-        rows = [unpacked(fields) for fields in new[start : start + size]]
-        insert_rows(session.connection(), _SPECIMEN, rows, shared)
-        catalog = (row["catalog_number"] for row in rows)
-        stated.extend(zip(catalog, rows_facts(_SPECIMEN.name, rows, shared), strict=True))
+        checked = new[start : start + size]
+        insert_rows(session.connection(), _SPECIMEN, [unpacked(f) for f in checked], shared)
+        catalog = (fields["catalog_number"] for fields in checked)
+        facts = rows_facts(_SPECIMEN.name, checked, shared, texts=PACKED)  # extra as checked
+        stated.extend(zip(catalog, facts, strict=True))
     ids = dict(
         session.execute(
             select(Specimen.catalog_number, Specimen.id).where(Specimen.loan_id == loan_id)

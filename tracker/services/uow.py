@@ -29,7 +29,7 @@ from tracker.db.rows import insert_rows
 from tracker.db.writer_lock import WriterLock
 from tracker.domain.base import HasPublicId
 from tracker.domain.errors import InputError, RuleViolation
-from tracker.domain.facts import FACTS, Written
+from tracker.domain.facts import FACTS, Written, expanded
 from tracker.domain.ledger import GENESIS_HASH, canonical_json, event_hash
 from tracker.domain.models import BackdatedEntry, CustodyEvent, EventRef, Operator, Role, Specimen
 from tracker.domain.timeutil import as_utc, iso_utc
@@ -198,7 +198,7 @@ def append_event(
     (:func:`next_link`) to name the event in rows written before it.
     """
     seq, prev = link or next_link(session)
-    text = canonical_json(payload)
+    text = canonical_json(payload, default=expanded)  # rows written set-based, row by row
     event = CustodyEvent(
         seq=seq,
         at=at,

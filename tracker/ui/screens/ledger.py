@@ -4,7 +4,7 @@ against it with a progress bar, and show the head hash a lender can check indepe
 from __future__ import annotations
 
 import json
-from typing import Any, ClassVar
+from typing import ClassVar
 
 from textual import on, work
 from textual.app import ComposeResult
@@ -15,7 +15,6 @@ from textual.screen import Screen
 from textual.widgets import DataTable, Footer, Input, ProgressBar, Static
 
 from tracker.domain.errors import TrackerError
-from tracker.domain.facts import FACTS
 from tracker.domain.ledger import VerifyReport
 from tracker.services import audit, ledger
 from tracker.services.audit import AuditReport
@@ -26,17 +25,6 @@ from tracker.ui.plain import shown
 from tracker.ui.widgets.operator_bar import OperatorBar
 
 LIMIT = 500
-
-
-def _rows_said(facts: dict[str, dict[str, Any]] | None) -> str:
-    """How many rows of which tables the event states it wrote (its ``facts``)."""
-    if facts is None:
-        return " · states no row facts (recorded before they were kept)"
-    said = [
-        f"{verb} " + ", ".join(f"{len(rows)} {table}" for table, rows in sorted(tables.items()))
-        for verb, tables in sorted(facts.items())
-    ]
-    return " · rows " + ("; ".join(said) if said else "none")
 
 
 class LedgerScreen(Screen[None]):
@@ -132,9 +120,12 @@ class LedgerScreen(Screen[None]):
     def _show_payload(self, event: DataTable.RowHighlighted) -> None:
         chosen = getattr(self, "events", {}).get(str(event.row_key.value))
         if chosen is not None:
-            own = {k: v for k, v in chosen.payload.items() if k != FACTS}
-            payload = json.dumps(own, ensure_ascii=False)[:300]
-            rows = _rows_said(chosen.payload.get(FACTS))
+            payload = json.dumps(chosen.payload, ensure_ascii=False)[:300]
+            rows = (
+                " · states the facts of the rows it wrote"
+                if chosen.states_facts
+                else " · states no row facts (recorded before they were kept)"
+            )
             self.query_one("#event-payload", Static).update(
                 shown(f"#{chosen.seq} {chosen.hash[:16]}… {payload}{rows}")
             )
