@@ -7,6 +7,7 @@ library's sqlite3, lets tracker open (back up and upgrade) a copy, and compares 
 
 from __future__ import annotations
 
+import json
 import shutil
 import sqlite3
 from pathlib import Path
@@ -108,3 +109,62 @@ def test_upgraded_first_release_database_takes_new_work(tmp_path: Path) -> None:
     assert building["event_seq"] == 115
     verified = ok_json(invoke("ledger", "verify", db=path, as_json=True))
     assert verified["ok"] and verified["events"] == 115
+
+
+def test_an_upgraded_first_release_database_is_audited_as_far_as_its_events_say(
+    tmp_path: Path,
+) -> None:
+    """Events of the first release state no row facts: the audit says so, checks what their
+    payloads do state (a catalogue number, a drill's weighings), and checks everything for
+    events recorded after the upgrade."""
+    path = tmp_path / "lab.sqlite"
+    shutil.copyfile(FIXTURE, path)
+    path.chmod(0o600)
+    old = _tables(path)
+    clean = ok_json(invoke("ledger", "audit", db=path, as_json=True))
+    assert clean["ok"] and not clean["complete"] and clean["checked_from_event"] == 115
+    statement = clean["not_checked"]
+    assert "up to #114" in statement and "from event #115 on every row and field" in statement
+    assert clean["unchecked_rows"]["concentration"] == len(old["concentration"])
+    assert "status" in clean["unchecked_fields"]["powder"]  # no old payload states it
+
+    # what the old payloads do state is checked: a catalogue number and a drilled mass
+    specimen = old["specimen"][(3,)]
+    powder = old["powder"][(2,)]
+    with sqlite3.connect(path) as connection:
+        connection.execute("UPDATE specimen SET catalog_number = 'ALTERED' WHERE id = 3")
+        connection.execute("UPDATE powder SET mass_mg = 1.0 WHERE id = 2")
+    altered = invoke("ledger", "audit", db=path, as_json=True)
+    assert altered.exit_code == 1
+    found = {(d["table"], d["field"]): d for d in json.loads(altered.stdout)["discrepancies"]}
+    assert set(found) == {("specimen", "catalog_number"), ("powder", "mass_mg")}
+    assert found["specimen", "catalog_number"]["ledger"] == specimen["catalog_number"]
+    assert found["powder", "mass_mg"]["ledger"] == powder["mass_mg"]
+    record(
+        "audit of the first release's upgraded database",
+        f"{len(old['custody_event'])} events without facts",
+        "says what it could not check and from which event on it checks everything; "
+        "2 altered values the old payloads state named",
+    )
+
+
+def test_work_after_the_upgrade_is_checked_in_full(tmp_path: Path) -> None:
+    path = tmp_path / "lab.sqlite"
+    shutil.copyfile(FIXTURE, path)
+    path.chmod(0o600)
+    operators = _tables(path)["operator"].values()
+    manager = next(o["code"] for o in operators if o["role"] == "manager")
+    made = ok_json(
+        invoke("location", "add", "building", "Annex Z", db=path, actor=manager, as_json=True)
+    )
+    with sqlite3.connect(path) as connection:
+        connection.execute("UPDATE location SET name = 'Annex Y' WHERE name = 'Annex Z'")
+    altered = invoke("ledger", "audit", db=path, as_json=True)
+    assert altered.exit_code == 1
+    (found,) = json.loads(altered.stdout)["discrepancies"]
+    assert (found["key"], found["field"], found["ledger"], found["stored"]) == (
+        made["item"]["id"],
+        "name",
+        "Annex Z",
+        "Annex Y",
+    )

@@ -115,10 +115,16 @@ def test_queue_by_hand_is_one_event_for_all_items(db: Database, counts: Counts) 
     assert answer.item.items == [spec, spec, powder, powder, reference, reference]
     event = _events(db)[-1]
     assert event.action == "labels.queued" and event.object_ref == ""  # several items
-    assert json.loads(event.payload) == {"items": [spec, powder, reference], "copies": 2}
+    payload = json.loads(event.payload)
+    facts = payload.pop("facts")
+    assert payload == {"items": [spec, powder, reference], "copies": 2}
     listed = labels.list_labels(db)
     assert [row.item for row in listed] == [spec, spec, powder, powder, reference, reference]
     assert all(row.queued_event == event.seq for row in listed)
+    # the six rows that name the event are among its facts, as they were stored
+    stated = facts["created"]["label"]
+    assert len(stated) == 6 and {row["queued_event_seq"] for row in stated.values()} == {event.seq}
+    assert sorted(row["item_ref"] for row in stated.values()) == sorted(answer.item.items)
 
 
 @pytest.mark.parametrize(
@@ -183,12 +189,17 @@ def test_the_link_prefix_is_a_manager_setting_recorded_in_the_ledger(
     labels.set_uri_prefix(db, "boss", {"uri_prefix": PREFIX})
     assert labels.label_settings(db).uri_prefix == PREFIX
     event = _events(db)[-1]
-    assert (event.action, json.loads(event.payload)) == (
+    payload = json.loads(event.payload)
+    facts = payload.pop("facts")
+    assert (event.action, payload) == (
         "labels.uri_prefix_set",
         {"uri_prefix": PREFIX, "previous": None},
     )
+    assert facts["created"]["lab_setting"]["uri_prefix"]["value"] == PREFIX
     labels.set_uri_prefix(db, "boss", {"uri_prefix": None})
     assert labels.label_settings(db).uri_prefix is None
+    gone = json.loads(_events(db)[-1].payload)["facts"]
+    assert gone == {"deleted": {"lab_setting": ["uri_prefix"]}}
     assert verify(db).ok
 
 

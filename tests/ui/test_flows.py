@@ -3,6 +3,7 @@ the rows the services wrote and the ledger events that record them."""
 
 from __future__ import annotations
 
+import sqlite3
 from pathlib import Path
 
 from sqlalchemy import select
@@ -37,7 +38,7 @@ from tracker.domain.models import (
     Specimen,
     SpecimenStatus,
 )
-from tracker.services import ledger
+from tracker.services import audit, ledger
 from tracker.ui.screens.batch import BatchScreen
 from tracker.ui.screens.checkin import CheckInScreen
 from tracker.ui.screens.drill import DrillScreen
@@ -318,6 +319,29 @@ async def test_ledger_verified_with_its_head_hash(lab: Lab) -> None:
             f"✓ ledger intact: {expected.events} events · head #{expected.head_seq} "
             f"{expected.head_hash}"
         )
+        assert screen.query_one("#verify-progress", ProgressBar).percentage == 1.0
+
+
+async def test_ledger_screen_audits_the_books_in_a_worker(lab: Lab) -> None:
+    """`a` replays the ledger and holds every row against it, with the progress bar; a value
+    changed behind the ledger's back is named."""
+    db = lab.open()
+    expected = audit.audit(db)
+    db.close()
+    assert expected.ok
+    with sqlite3.connect(lab.db_path) as raw:
+        raw.execute("UPDATE powder SET mass_mg = 1.0 WHERE id = 1")
+    async with lab.app().run_test(size=(100, 30)) as pilot:
+        await settle(pilot)
+        await pilot.press("f6")
+        await settle(pilot)
+        screen = pilot.app.screen
+        assert isinstance(screen, LedgerScreen)
+        await pilot.press("a")
+        await settle(pilot)
+        result = text_of(screen.query_one("#verify-result", Static))
+        assert result.startswith("✗ books DIFFER from the ledger in 1 place(s): powder PW-00001-5")
+        assert "mass_mg is 1.0" in result
         assert screen.query_one("#verify-progress", ProgressBar).percentage == 1.0
 
 

@@ -15,7 +15,13 @@ from dataclasses import asdict, dataclass, field
 from pathlib import Path
 from typing import Any, Literal
 
-from tracker.bench import figures_ledger, figures_manifest, figures_read, figures_ui
+from tracker.bench import (
+    figures_audit,
+    figures_ledger,
+    figures_manifest,
+    figures_read,
+    figures_ui,
+)
 from tracker.bench.generate import Built, cached_apart
 from tracker.bench.measure import Figure, machine, settle_writes
 from tracker.bench.shape import END
@@ -24,7 +30,7 @@ from tracker.domain.errors import TrackerError
 from tracker.io.demo import StepClock
 
 Backend = Literal["sqlite", "postgresql", "both"]
-SQLITE_FIGURES = ("reconcile", "verify", "manifest", "lookup", "lineage", "labels", "tui")
+SQLITE_FIGURES = ("reconcile", "verify", "audit", "manifest", "lookup", "lineage", "labels", "tui")
 PG_FIGURES = ("pg",)
 LINEAR = 1.15  # growth exponents up to this count as linear (timings on a busy 2-core machine)
 
@@ -145,6 +151,7 @@ def _sqlite(options: Options, scale: float, report: Report) -> None:
     steps: dict[str, Callable[[], list[Figure]]] = {
         "reconcile": lambda: [figures_read.reconcile_figure(db, options.repeat)],
         "verify": lambda: figures_ledger.verify_figures(built.target, options.repeat),
+        "audit": lambda: figures_audit.audit_figures(built.target, options.repeat),
         "manifest": lambda: _manifest(built, options),
         "lookup": lambda: [figures_read.lookup_figure(db)],
         "lineage": lambda: [figures_read.lineage_figure(db)],

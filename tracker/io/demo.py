@@ -157,24 +157,31 @@ def build_demo(out: Path, scenario: Path | None = None) -> int:
     """
     _refuse_existing(out)
     outputs.check_target(out, "out", forceable=False)
-    data = load_scenario(scenario)
-    steps = sorted(data["steps"], key=lambda s: _aware(s["at"]))  # stable: file order on ties
     building = outputs.temp_path(out.parent, out.name)
-    founder = data["founder"]
-    clock = StepClock(_aware(founder["at"]))
-    first = {"code": founder["code"], "name": founder["name"]}
     try:
-        db = setup.init_database(building, first, clock)
-        try:
-            replay = Replay(db, clock, (scenario or scenario_path()).parent)
-            for number, step in enumerate(steps):
-                replay.run(number, step)
-        finally:
-            db.close()
+        steps = run_scenario(building, scenario)
         fold_log(building)  # the file alone must hold every row before it gets its name
         outputs.publish(building, out, "out", forceable=False)
     finally:
         outputs.discard(*(Path(f"{building}{suffix}") for suffix in ("", *outputs.SIDE_SUFFIXES)))
+    return steps
+
+
+def run_scenario(target: str | Path, scenario: Path | None = None) -> int:
+    """Open a new database at ``target`` (a file or an empty PostgreSQL database) and run
+    the scenario's steps through the services; returns the number of steps."""
+    data = load_scenario(scenario)
+    steps = sorted(data["steps"], key=lambda s: _aware(s["at"]))  # stable: file order on ties
+    founder = data["founder"]
+    clock = StepClock(_aware(founder["at"]))
+    first = {"code": founder["code"], "name": founder["name"]}
+    db = setup.init_database(target, first, clock)
+    try:
+        replay = Replay(db, clock, (scenario or scenario_path()).parent)
+        for number, step in enumerate(steps):
+            replay.run(number, step)
+    finally:
+        db.close()
     return len(steps)
 
 

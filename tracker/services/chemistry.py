@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from datetime import date
-from typing import Annotated
+from typing import Annotated, Any
 
 from pydantic import Field, field_validator, model_validator
 from sqlalchemy import func, select
@@ -119,9 +119,13 @@ def create_batch(db: Database, actor: str | None, data: NewBatch | Raw) -> Done[
             raise InputError("performed-on", request.performed_on.isoformat(), "is in the future")
         batch = ColumnBatch(**request.model_dump(), operator=uow.operator.code, created_at=uow.now)
         uow.session.add(batch)
-        return finish(
-            uow, "batch.created", batch, request.model_dump(mode="json"), lambda: _batch_view(batch)
-        )
+        view = lambda: _batch_view(batch)  # noqa: E731
+        return finish(uow, "batch.created", batch, batch_payload(request), view)
+
+
+def batch_payload(request: NewBatch) -> dict[str, Any]:
+    """What the ``batch.created`` event says (the bench's bulk writer uses it too)."""
+    return request.model_dump(mode="json")
 
 
 class PositionView(View):
@@ -165,15 +169,7 @@ def add_position(db: Database, actor: str | None, data: AddPosition | Raw) -> Do
         batch = get_by_id(uow.session, ColumnBatch, "batch", request.batch)
         slot = 1 + max((p.slot for p in batch.positions), default=0)
         position, holds = place(uow, batch, slot, request, holding(uow.session, request))
-        payload = {
-            "batch": batch.public_id,
-            "slot": slot,
-            "kind": request.kind.value,
-            "holds": holds,
-            "loaded_ug": position.loaded_ug,
-            "loaded_u_ug": position.loaded_u_ug,
-            "label": queue_label(uow, position),
-        }
+        payload = position_payload(batch, position, request, holds, queue_label(uow, position))
         return finish(
             uow,
             "batch.position_added",
@@ -190,6 +186,21 @@ def add_position(db: Database, actor: str | None, data: AddPosition | Raw) -> Do
             ),
             parent=batch,
         )
+
+
+def position_payload(
+    batch: ColumnBatch, position: BatchPosition, request: AddPosition, holds: str | None, label: str
+) -> dict[str, Any]:
+    """What the ``batch.position_added`` event says (the bench's bulk writer uses it too)."""
+    return {
+        "batch": batch.public_id,
+        "slot": position.slot,
+        "kind": request.kind.value,
+        "holds": holds,
+        "loaded_ug": position.loaded_ug,
+        "loaded_u_ug": position.loaded_u_ug,
+        "label": label,
+    }
 
 
 @dataclass(frozen=True)

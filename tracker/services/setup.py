@@ -9,9 +9,11 @@ from sqlalchemy import func, select
 from tracker import __version__
 from tracker.db.database import Database, open_database
 from tracker.domain.errors import InputError, RuleViolation
+from tracker.domain.facts import FACTS, Written
 from tracker.domain.ledger import FORMAT
 from tracker.domain.models import Location, LocationKind, Operator, Role
 from tracker.domain.timeutil import Clock, utcnow
+from tracker.services.capture import capturing
 from tracker.services.common import finish
 from tracker.services.inputs import Name, Raw, Request, ShortCode, parse
 from tracker.services.lookup import get_by_id
@@ -36,24 +38,31 @@ def init_database(
             db.close()
             raise RuleViolation("--db", db.url, "already initialised")
         now = clock()
-        operator = Operator(code=request.code, name=request.name, role=Role.MANAGER, created_at=now)
-        session.add(operator)
-        session.flush()
-        append_event(
-            session,
-            at=now,
-            operator=operator.code,
-            action="ledger.opened",
-            object_ref=operator.public_id,
-            parent_ref="",
-            payload={
+        written = Written()
+        with capturing(session, written) as capture:
+            operator = Operator(
+                code=request.code, name=request.name, role=Role.MANAGER, created_at=now
+            )
+            session.add(operator)
+            session.flush()
+            payload = {
                 "format": FORMAT,
                 "tracker": __version__,
                 "operator": operator.code,
                 "name": operator.name,
                 "role": Role.MANAGER.value,
-            },
-        )
+                FACTS: written.facts(),
+            }
+            capture.seal()
+            append_event(
+                session,
+                at=now,
+                operator=operator.code,
+                action="ledger.opened",
+                object_ref=operator.public_id,
+                parent_ref="",
+                payload=payload,
+            )
     return db
 
 

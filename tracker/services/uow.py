@@ -31,10 +31,12 @@ from tracker.db.rows import insert_rows
 from tracker.db.writer_lock import WriterLock
 from tracker.domain.base import HasPublicId
 from tracker.domain.errors import InputError, RuleViolation
+from tracker.domain.facts import FACTS, Written, expanded
 from tracker.domain.ledger import GENESIS_HASH, canonical_json, event_hash
 from tracker.domain.models import BackdatedEntry, CustodyEvent, EventRef, Operator, Role, Specimen
 from tracker.domain.timeutil import as_utc, iso_utc
 from tracker.domain.timing import describe_window, hours_of, show
+from tracker.services.capture import capturing
 
 Ref = HasPublicId | str | None
 # event_ref rows are written by the driver's executemany: an index, never ORM objects here
@@ -74,8 +76,9 @@ class UnitOfWork:
     events: list[CustodyEvent] = field(default_factory=list)
     committed: bool = False
     # Rows that must name this unit's event (a queued label names the event that queued
-    # it) are written by these hooks once the event exists, inside the same transaction.
-    after_record: list[Callable[[CustodyEvent], None]] = field(default_factory=list)
+    # it) are added by these hooks, given the event's number, just before the event is
+    # written: so they are among the rows its facts state.
+    naming_event: list[Callable[[int], None]] = field(default_factory=list)
     # Further items this unit's event concerns (a manifest's specimens, a print job's labels).
     mentions: set[str] = field(default_factory=set)
     # Set by ``common.action_time`` when the entry is dated beyond the lab's window: recording
@@ -83,9 +86,14 @@ class UnitOfWork:
     backdated: Backdating | None = None
     # Lets go of what announces this writer to waiters, just before COMMIT releases the lock.
     release: Callable[[], None] = lambda: None
+    # Every row this unit writes: the session's flushes tell it (services.capture), and so
+    # must whatever writes rows past the session (insert_rows).
+    written: Written = field(default_factory=Written)
+    sealed: Callable[[], None] = lambda: None  # no row may be written once facts are taken
 
     def mention(self, *refs: str) -> None:
-        """Make the event findable from each of these items' history."""
+        """Make the event findable from each of these items' history (every item whose rows
+        the unit writes is mentioned anyway: ``Written.names``)."""
         self.mentions.update(ref for ref in refs if ref)
 
     def require_manager(self, action: str) -> None:
@@ -108,41 +116,52 @@ class UnitOfWork:
     def record(
         self, action: str, obj: Ref, payload: dict[str, Any], parent: Ref = None
     ) -> CustodyEvent:
-        """Append this unit's one custody event, chained to the current head."""
+        """Append this unit's one custody event, chained to the current head.
+
+        Its payload states the facts of every row the unit wrote (``domain.facts``),
+        the rows that name the event (labels, corrections ...) and its mentions included.
+        """
         if self.events:
             raise RuntimeError("a service records exactly one custody event")
         if self.backdated is not None:  # last: refusals about the entry itself come first
             self.require_manager(self.backdated.action())
             payload = {**payload, "backdated": self.backdated.payload()}
         self.session.flush()  # new rows get their IDs before the event names them
+        link = next_link(self.session)
+        object_ref, parent_ref = _ref(obj), _ref(parent)
+        if self.backdated is not None:
+            self.session.add(self._backdated_row(link[0], object_ref, self.backdated))
+        for hook in self.naming_event:
+            hook(link[0])
+        self.session.flush()
+        refs = sorted((self.mentions | self.written.names()) - {object_ref, parent_ref})
+        mentions = [{"seq": link[0], "ref": ref} for ref in refs]
+        self.written.created_rows(_EVENT_REF.name, mentions)
+        payload = {**payload, FACTS: self.written.facts()}
+        self.sealed()
         event = append_event(
             self.session,
             at=self.now,
             operator=self.operator.code,
             action=action,
-            object_ref=_ref(obj),
-            parent_ref=_ref(parent),
+            object_ref=object_ref,
+            parent_ref=parent_ref,
             payload=payload,
+            link=link,
         )
         self.events.append(event)
-        refs = sorted(self.mentions - {event.object_ref, event.parent_ref})
-        if refs:  # set-based: a manifest's one event can mention 100,000 specimens
-            rows = [{"seq": event.seq, "ref": ref} for ref in refs]
-            insert_rows(self.session.connection(), _EVENT_REF, rows)
-        if self.backdated is not None:
-            self.session.add(self._backdated_row(event, self.backdated))
-        for hook in self.after_record:
-            hook(event)
+        if mentions:  # set-based: a manifest's one event can mention 100,000 specimens
+            insert_rows(self.session.connection(), _EVENT_REF, mentions)
         return event
 
-    def _backdated_row(self, event: CustodyEvent, entry: Backdating) -> BackdatedEntry:
+    def _backdated_row(self, seq: int, item: str, entry: Backdating) -> BackdatedEntry:
         specimen = entry.specimen
         return BackdatedEntry(
-            event_seq=event.seq,
-            item_ref=event.object_ref,
+            event_seq=seq,
+            item_ref=item,
             field=entry.field,
             stated_at=entry.stated,
-            recorded_at=event.at,
+            recorded_at=self.now,
             window_hours=entry.window_hours,
             recorded_by=self.operator.code,
             loan_id=specimen.loan_id if specimen is not None else None,
@@ -173,13 +192,15 @@ def append_event(
     object_ref: str,
     parent_ref: str,
     payload: dict[str, Any],
+    link: tuple[int, str] | None = None,
 ) -> CustodyEvent:
-    """Write the next ledger event; the caller must hold the writer lock."""
-    head = session.execute(
-        select(CustodyEvent.seq, CustodyEvent.hash).order_by(CustodyEvent.seq.desc()).limit(1)
-    ).first()
-    seq, prev = (head.seq + 1, head.hash) if head else (1, GENESIS_HASH)
-    text = canonical_json(payload)
+    """Write the next ledger event; the caller must hold the writer lock.
+
+    ``link`` is the event's number and the previous hash when the caller has read them
+    (:func:`next_link`) to name the event in rows written before it.
+    """
+    seq, prev = link or next_link(session)
+    text = canonical_json(payload, default=expanded)  # rows written set-based, row by row
     event = CustodyEvent(
         seq=seq,
         at=at,
@@ -194,6 +215,14 @@ def append_event(
     session.add(event)
     session.flush()
     return event
+
+
+def next_link(session: Session) -> tuple[int, str]:
+    """The next event's number and the hash it chains to (the caller holds the writer lock)."""
+    head = session.execute(
+        select(CustodyEvent.seq, CustodyEvent.hash).order_by(CustodyEvent.seq.desc()).limit(1)
+    ).first()
+    return (head.seq + 1, head.hash) if head else (1, GENESIS_HASH)
 
 
 @contextmanager
@@ -212,7 +241,9 @@ def unit_of_work(db: Database, actor: str | None, doing: str = "") -> Iterator[U
         if db.backend == "postgresql":
             agree_with_login(session, operator)
         uow = UnitOfWork(session, operator, as_utc(db.clock()), release=lock.release)
-        yield uow
+        with capturing(session, uow.written) as capture:
+            uow.sealed = capture.seal
+            yield uow
         if not uow.committed:
             lock.release()
             session.rollback()

@@ -15,7 +15,6 @@ from pydantic import BaseModel
 from tracker.domain.models import (
     Aliquot,
     Concentration,
-    CustodyEvent,
     Document,
     Lender,
     Loan,
@@ -275,6 +274,9 @@ class AliquotView(View):
 
 
 class EventView(View):
+    """An event as lists and histories show it: its payload without the facts of its rows
+    (``ledger export`` and the audit have them), and whether it states them."""
+
     seq: int
     at: datetime
     operator: str
@@ -283,9 +285,11 @@ class EventView(View):
     parent: str
     payload: dict[str, Any]
     hash: str
+    states_facts: bool = False
 
     @classmethod
-    def of(cls, row: CustodyEvent) -> EventView:
+    def of(cls, row: Any) -> EventView:
+        """From a row of ``ledger.listed`` (the payload's facts left out by the database)."""
         return cls(
             seq=row.seq,
             at=row.at,
@@ -295,6 +299,7 @@ class EventView(View):
             parent=row.parent_ref,
             payload=json.loads(row.payload),
             hash=row.hash,
+            states_facts=bool(row.states_facts),
         )
 
 
