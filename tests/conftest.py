@@ -29,6 +29,9 @@ from tracker.domain.base import Base
 from tracker.domain.models import CustodyEvent
 from tracker.services import setup
 
+# The shared-database lab with one login per person (PostgreSQL tests that ask for it).
+pytest_plugins = ("tests.logins",)
+
 START = datetime(2026, 1, 5, 9, 0, tzinfo=UTC)
 
 # CI runs the same generated cases every time (derandomized: a red run is a change in the
@@ -179,6 +182,9 @@ def snapshot_counts(db: Database) -> dict[str, int]:
     return counts
 
 
+Counts = Callable[[], dict[str, int]]  # the ``counts`` fixture: snapshot_counts(db) when called
+
+
 @pytest.fixture
-def counts(db: Database) -> Callable[[], dict[str, int]]:
+def counts(db: Database) -> Counts:
     return lambda: snapshot_counts(db)

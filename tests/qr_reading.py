@@ -31,7 +31,9 @@ class Decoded:
 def decode(image: Image.Image, dpi: float) -> list[Decoded]:
     """Every QR code zxing-cpp finds on the image, with where its centre is, in mm."""
     found = []
-    for result in zxingcpp.read_barcodes(image, formats=zxingcpp.BarcodeFormat.QRCode):
+    for result in zxingcpp.read_barcodes(
+        image, formats=zxingcpp.BarcodeFormats(zxingcpp.BarcodeFormat.QRCode)
+    ):
         corners = result.position
         points = (corners.top_left, corners.top_right, corners.bottom_left, corners.bottom_right)
         x = sum(p.x for p in points) / 4 / dpi * MM_PER_INCH

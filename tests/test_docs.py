@@ -117,6 +117,7 @@ def test_readme_labels_section_names_real_stocks_commands_and_a_valid_stock_file
     import tomllib
 
     import typer
+    from typer.core import TyperGroup
 
     from tracker.cli import app
     from tracker.output.stocks import entries, load_stock
@@ -129,6 +130,9 @@ def test_readme_labels_section_names_real_stocks_commands_and_a_valid_stock_file
         assert load_stock(name, path).per_sheet > 1  # the example is a valid sheet stock
     named = set(re.findall(r"`([a-z0-9-]+)`", section)) & set(entries())
     assert named == set(entries())  # every preset is documented by its real name
-    labels_group = typer.main.get_command(app).commands["labels"]  # type: ignore[attr-defined]
+    cli = typer.main.get_command(app)
+    assert isinstance(cli, TyperGroup)
+    labels_group = cli.commands["labels"]
+    assert isinstance(labels_group, TyperGroup)
     for command in re.findall(r"^tracker labels ([a-z-]+)", _blocks(section, "bash")[0], re.M):
         assert command in labels_group.commands

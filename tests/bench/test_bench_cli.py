@@ -54,7 +54,7 @@ def test_a_small_run_prints_each_figure_with_its_floor_and_no_disagreement(tmp_p
         "--repeat",
         "1",
         "--only",
-        "reconcile,verify,signing,lookup,lineage",
+        "reconcile,verify,signing,audit,lookup,lineage",
         "--cache",
         str(tmp_path),
         as_json=True,
@@ -63,6 +63,7 @@ def test_a_small_run_prints_each_figure_with_its_floor_and_no_disagreement(tmp_p
     report = json.loads(result.stdout)
     figures = {f["key"]: f for f in report["figures"]}
     assert set(figures) >= {"reconcile", "verify", "verify_memory", "signing", "lookup", "lineage"}
+    assert {"audit", "audit_memory"} <= set(figures)  # the state audit beside its floor
     for figure in figures.values():
         assert figure["measured"] > 0 and figure["floor"] > 0, figure
         assert figure["problems"] == [], figure  # each floor computed the same answer

@@ -21,7 +21,7 @@ from tracker.bench.generate import Built, build
 from tracker.bench.shape import Shape, shape_for
 from tracker.db.database import open_database
 from tracker.domain.base import Base
-from tracker.services import ledger, reconcile
+from tracker.services import audit, ledger, reconcile
 from tracker.services.glance import read_glance
 from tracker.services.loan_rules import OverviewLine
 
@@ -96,6 +96,8 @@ def test_the_bulk_database_verifies_and_reconciles(both: tuple[Built, Built]) ->
     try:
         report = ledger.verify(bulk)
         assert report.ok and report.events == both[1].events
+        books = audit.audit(bulk)  # every row the bulk writer wrote is what its facts state
+        assert books.ok and books.coverage.complete and books.rows > 0
         lines = reconcile.reconcile(bulk)
         assert [line.model_dump() for line in lines] == [
             line.model_dump() for line in reconcile.reconcile(services)

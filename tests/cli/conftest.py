@@ -31,7 +31,7 @@ SQLITE_SUFFIXES = ("", "-wal", "-shm")
 
 
 def invoke(
-    *args: str, db: Path | None = None, actor: str | None = None, as_json: bool = False
+    *args: str, db: Path | str | None = None, actor: str | None = None, as_json: bool = False
 ) -> Result:
     """Run ``tracker [--db DB] [--as ACTOR] [--json] ARGS...``; global options come first."""
     argv: list[str] = []
@@ -51,7 +51,7 @@ def ok_json(result: Result) -> Any:
     return json.loads(result.stdout)
 
 
-def counts(path: Path) -> dict[str, int]:
+def counts(path: Path | str) -> dict[str, int]:
     """Row count of every table plus the ledger head, read through tracker's own opener."""
     db = open_database(path)
     try:
@@ -208,3 +208,13 @@ def demo_db(tmp_path_factory: pytest.TempPathFactory) -> Path:
 def demo(demo_db: Path, tmp_path: Path) -> Path:
     """A private copy of the demo database for a test that writes."""
     return copy_sqlite(demo_db, tmp_path / "demo.sqlite")
+
+
+# the lab with a row in every described table, for the audit's report tests (both backends)
+from tests.services.audit_lab import (  # noqa: E402
+    audited_lab_template,
+    books,
+    pg_audited_lab_template,
+)
+
+__all__ = ["audited_lab_template", "books", "pg_audited_lab_template"]

@@ -232,7 +232,8 @@ def reduced(result: Result) -> dict[str, Any]:
     """The reduction inside a write command's answer ({item, event_seq, event_hash})."""
     document = ok_json(result)
     assert document["event_seq"] > 0 and len(document["event_hash"]) == 64
-    return document["item"]  # type: ignore[no-any-return]
+    item: dict[str, Any] = document["item"]
+    return item
 
 
 def refused(result: Result, exit_code: int, field_name: str) -> str:

@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from pathlib import Path
+from typing import TypedDict
 
 import pytest
 
@@ -73,6 +75,16 @@ margin_top_mm = 2
 """
 
 
+class StockChange(TypedDict, total=False):
+    """What a test changes in the GOOD stock (the keywords of _stock)."""
+
+    name: str
+    w: float
+    columns: int
+    pitch: float
+    extra: str
+
+
 def _stock(
     tmp_path: Path,
     *,
@@ -106,9 +118,9 @@ def test_the_stocks_file_may_come_from_the_environment(
     assert load_stock("bench").per_sheet == 6
 
 
-def _refusal(call: object) -> InputError:
+def _refusal(call: Callable[[], object]) -> InputError:
     with pytest.raises(InputError) as caught:
-        call()  # type: ignore[operator]
+        call()
     message = caught.value.one_line()
     assert "\n" not in message
     return caught.value
@@ -129,9 +141,9 @@ def _refusal(call: object) -> InputError:
     ],
 )
 def test_a_bad_stock_is_refused_naming_stock_field_and_file(
-    tmp_path: Path, kwargs: dict[str, object], fragment: str
+    tmp_path: Path, kwargs: StockChange, fragment: str
 ) -> None:
-    path = _stock(tmp_path, **kwargs)  # type: ignore[arg-type]
+    path = _stock(tmp_path, **kwargs)
     error = _refusal(lambda: load_stock("bench", path))
     assert (error.field, error.value) == ("stock", "bench")
     assert fragment in error.reason and str(path) in error.reason

@@ -18,19 +18,12 @@ from xml.sax.saxutils import escape
 
 from PIL import Image
 
-SPECIMEN_TERMS = [
-    "catalogNumber",
-    "institutionCode",
-    "collectionCode",
-    "scientificName",
-    "preparations",
-    "locality",
-    "formation",
-    "earliestEpochOrLowestSeries",
-    "latestEpochOrHighestSeries",
-    "ageMinMa",
-    "ageMaxMa",
-]
+from tracker.services.manifest_check import OWN_FIELDS, TERM_FIELDS
+
+# The columns a specimen row keeps, as tracker names them: the file builders take the
+# product's list so a big lender list exercises every specimen column; what the tests
+# assert (memory, caps) does not come from it.
+SPECIMEN_TERMS = [*TERM_FIELDS, *OWN_FIELDS]
 # Other Darwin Core terms (TDWG) a lender's list may carry: kept as a specimen's extra terms.
 EXTRA_TERMS = [
     "country",
@@ -58,41 +51,60 @@ EXTRA_TERMS = [
 def lender_rows(rows: int, seed: int = 5) -> Iterator[list[str]]:
     """A header, then ``rows`` invented specimens: unique numbers, repeated taxa and places."""
     rng = random.Random(seed)
-    yield SPECIMEN_TERMS + EXTRA_TERMS
+    header = SPECIMEN_TERMS + EXTRA_TERMS
+    yield header
     for n in range(1, rows + 1):
-        young = round(rng.uniform(0.01, 60.0), 2)
-        yield [
-            f"SYN M {n:06d}",
-            "SM9999",
-            "SYN-P",
-            f"Synthetic taxon {rng.randint(1, 400):03d}",
-            rng.choice(["tooth", "bone", "shell"]),
-            f"Synthetic locality {rng.randint(1, 900):04d} (invented)",
-            f"Synthetic Formation {rng.randint(1, 60):02d}",
-            "Synthetic Lower Series",
-            "Synthetic Upper Series",
-            str(young),
-            str(round(young + rng.uniform(0, 5), 2)),
-            "Synthetica",
-            f"Province {rng.randint(1, 30)}",
-            f"County {rng.randint(1, 200)}",
-            f"Collector {rng.randint(1, 80)} (invented)",
-            f"SYN-F-{n:06d}",
-            f"synthetic remark {rng.randint(1, 10**9)} on wear and breakage",
-            "PreservedSpecimen",
-            "",
-            f"Identifier {rng.randint(1, 40)}",
-            f"19{rng.randint(50, 99)}-0{rng.randint(1, 9)}-1{rng.randint(0, 9)}",
-            f"Synthetidae {rng.randint(1, 20)}",
-            f"Synthetus {rng.randint(1, 50)}",
-            f"inventus{rng.randint(1, 90)}",
-            f"Member {rng.randint(1, 9)}",
-            f"Bed {rng.randint(1, 40)}",
-            f"{rng.randint(1, 99)} km from Synthetic Town (invented)",
-            str(rng.randint(0, 900)),
-            str(rng.randint(900, 2000)),
-            f"OLD-{rng.randint(1, 10**6)}",
-        ]
+        cells = _specimen_cells(rng, n) | _extra_cells(rng, n)
+        yield [cells[term] for term in header]  # a term without a value here fails loudly
+
+
+def _specimen_cells(rng: random.Random, n: int) -> dict[str, str]:
+    young = round(rng.uniform(0.01, 60.0), 2)
+    return {
+        "catalogNumber": f"SYN M {n:06d}",
+        "institutionCode": "SM9999",
+        "collectionCode": "SYN-P",
+        "scientificName": f"Synthetic taxon {rng.randint(1, 400):03d}",
+        "preparations": rng.choice(["tooth", "bone", "shell"]),
+        "locality": f"Synthetic locality {rng.randint(1, 900):04d} (invented)",
+        "formation": f"Synthetic Formation {rng.randint(1, 60):02d}",
+        "earliestEpochOrLowestSeries": "Synthetic Lower Series",
+        "latestEpochOrHighestSeries": "Synthetic Upper Series",
+        "ageMinMa": str(young),
+        "ageMaxMa": str(round(young + rng.uniform(0, 5), 2)),
+    }
+
+
+def _extra_cells(rng: random.Random, n: int) -> dict[str, str]:
+    return {
+        "country": "Synthetica",
+        "stateProvince": f"Province {rng.randint(1, 30)}",
+        "county": f"County {rng.randint(1, 200)}",
+        "recordedBy": f"Collector {rng.randint(1, 80)} (invented)",
+        "fieldNumber": f"SYN-F-{n:06d}",
+        "occurrenceRemarks": f"synthetic remark {rng.randint(1, 10**9)} on wear and breakage",
+        "basisOfRecord": "PreservedSpecimen",
+        "typeStatus": "",
+        "identifiedBy": f"Identifier {rng.randint(1, 40)}",
+        "dateIdentified": f"19{rng.randint(50, 99)}-0{rng.randint(1, 9)}-1{rng.randint(0, 9)}",
+        "family": f"Synthetidae {rng.randint(1, 20)}",
+        "genus": f"Synthetus {rng.randint(1, 50)}",
+        "specificEpithet": f"inventus{rng.randint(1, 90)}",
+        "member": f"Member {rng.randint(1, 9)}",
+        "bed": f"Bed {rng.randint(1, 40)}",
+        "verbatimLocality": f"{rng.randint(1, 99)} km from Synthetic Town (invented)",
+        "minimumElevationInMeters": str(rng.randint(0, 900)),
+        "maximumElevationInMeters": str(rng.randint(900, 2000)),
+        "otherCatalogNumbers": f"OLD-{rng.randint(1, 10**6)}",
+    }
+
+
+# The mapping profile that reads export_rows (``{fmt}`` is csv or xlsx).
+EXPORT_PROFILE = (
+    'format = "{fmt}"\n[columns]\nrun_order = "Run"\nsample_name = "Name"\n'
+    '[columns.ratios]\n"44/40" = "r4440"\n"48/44" = "r4844"\n'
+    '[columns.errors]\n"44/40" = "r4440 2SE"\n"48/44" = "r4844 2SE"\n'
+)
 
 
 def export_rows(rows: int) -> Iterator[list[str]]:

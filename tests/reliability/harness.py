@@ -115,14 +115,16 @@ def crash_rounds(
     job: str,
     args: dict[str, Any],
     folder: Path,
-    check: Callable[[], None],
+    check: Callable[[], object],
     *,
     kills: int,
     window: float,
     seed: int,
 ) -> CrashReport:
     """Fork the job, SIGKILL it at a random moment within ``window`` s of a call starting,
-    check the database, and again — ``kills`` times; then let one round run to the end."""
+    check the database, and again — ``kills`` times; then let one round run to the end.
+
+    ``check`` raises when the database is not whole; what it returns is not used."""
     rng = random.Random(seed)
     report = CrashReport()
     while report.kills < kills:

@@ -11,7 +11,7 @@ import io
 import random
 import struct
 import zipfile
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from pathlib import Path
 
 from openpyxl import Workbook
@@ -56,7 +56,7 @@ def random_bytes(n: int = 4096, seed: int = 8) -> bytes:
 # ---------------------------------------------------------------- workbooks
 
 
-def workbook(rows: list[list[object]], sheet: str = "Sheet1") -> bytes:
+def workbook(rows: Sequence[Sequence[object]], sheet: str = "Sheet1") -> bytes:
     book = Workbook()
     page = book.active
     assert page is not None

@@ -12,7 +12,6 @@ from __future__ import annotations
 
 import json
 import time
-from collections.abc import Iterator
 from pathlib import Path
 
 import pytest
@@ -20,6 +19,7 @@ from sqlalchemy import Engine, func, select
 from typer.testing import CliRunner, Result
 
 from tests import factories as make
+from tests import lab_files
 from tests.cli.conftest import CLEAN_ENV
 from tests.reliability.harness import Zygote, wait_for_files
 from tests.reliability.report import record
@@ -36,23 +36,6 @@ COLUMNS = 9000
 WAIT_S = 0.5
 IMPORT = '"enter batch sheet"'
 PLACE = "Annex (invented)"
-
-
-@pytest.fixture(scope="module")
-def zygote() -> Iterator[Zygote]:
-    started = Zygote()
-    yield started
-    started.close()
-
-
-def sheet() -> bytes:
-    lines = ["slot,kind,item,loaded,Ca"]
-    for slot in range(1, COLUMNS + 1):
-        if slot % 2:
-            lines.append(f"{slot},reference,RM-A,10 ug,{slot / 1000:.3f} ug")
-        else:
-            lines.append(f"{slot},blank,,,{slot / 1000:.3f} ug")
-    return ("\n".join(lines) + "\n").encode()
 
 
 def holder(engine: Engine) -> str:
@@ -84,7 +67,7 @@ def test_a_second_writer_during_a_long_import_is_told_who_and_writes_nothing(
     head = ledger.verify(db).head_seq
     db.close()
     path = tmp_path / "columns.csv"
-    path.write_bytes(sheet())
+    path.write_bytes(lab_files.batch_sheet(COLUMNS))
     engine = build_engine(resolve_url(db_url))
     done = tmp_path / "done.json"
     args = {"db": db_url, "sheets": [[batch, str(path)]], "actor": "tech"}

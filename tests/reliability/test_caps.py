@@ -8,7 +8,8 @@ code uses, imported here, so a test follows the cap if it is ever moved.
 
 from __future__ import annotations
 
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
+from functools import partial
 from pathlib import Path
 
 import pytest
@@ -16,6 +17,7 @@ from typer.testing import Result
 
 from tests.cli.conftest import Lab, counts, invoke, ok_json
 from tests.reliability import big_files as big
+from tests.reliability.bench import Bench, session_import
 from tests.reliability.report import record
 from tracker.domain.darwincore import MAX_EXTRA_CHARS, MAX_EXTRA_TERMS
 from tracker.domain.labels import MAX_PREVIEW_PIXELS
@@ -26,11 +28,12 @@ from tracker.services.batch_sheet import MAX_SLOT
 from tracker.services.instrument import MAX_SESSION_ROWS
 
 pytestmark = pytest.mark.slow
-PROFILE = (
-    'format = "csv"\n[columns]\nrun_order = "Run"\nsample_name = "Name"\n'
-    '[columns.ratios]\n"44/40" = "r4440"\n"48/44" = "r4844"\n'
-)
-SESSION = ["--name", "caps", "--instrument", "MC", "--element", "Ca", "--standard", "STD-X"]
+
+
+@pytest.fixture(scope="module")
+def bench_profile() -> str:
+    """The exports here carry two ratios and their errors."""
+    return big.EXPORT_PROFILE
 
 
 @pytest.fixture
@@ -39,8 +42,12 @@ def lab_db(lab: Lab) -> Path:
     return lab.path
 
 
-def _refused(result: Result, path: Path, *words: str) -> str:
-    """Exit 2, one line, no traceback, naming ``path``'s file and every word."""
+def _refused(db: Path, call: Callable[[], Result], path: Path, *words: str) -> str:
+    """Exit 2, one line, no traceback, naming ``path``'s file and every word; every table
+    of ``db`` as it was before the call."""
+    before = counts(db)
+    result = call()
+    assert counts(db) == before
     assert result.exit_code == 2, (result.exit_code, result.stdout, result.stderr)
     lines = result.stderr.strip().splitlines()
     assert len(lines) == 1 and lines[0].startswith("error: "), result.stderr
@@ -52,6 +59,11 @@ def _refused(result: Result, path: Path, *words: str) -> str:
 
 def _manifest(db: Path, path: Path, command: str = "import") -> Result:
     return invoke("manifest", command, "FH-77", str(path), db=db, actor="ysolde", as_json=True)
+
+
+def _refused_list(db: Path, path: Path, *words: str) -> str:
+    """The lender's list at ``path`` refused on import (see _refused)."""
+    return _refused(db, partial(_manifest, db, path), path, *words)
 
 
 def _cap(name: str, under: str, over: str, said: str) -> None:
@@ -75,10 +87,8 @@ def test_cells_in_a_file(lab_db: Path, tmp_path: Path) -> None:
     preview = ok_json(_manifest(lab_db, under, "preview"))
     assert (preview["create"], preview["problems"]) == (rows, 0)
     over = big.write_csv(tmp_path / "over.csv", _wide_rows(rows + 1, columns))
-    before = counts(lab_db)
     figure = f"{(rows + 2) * columns:,} cells"
-    said = _refused(_manifest(lab_db, over), over, figure, f"capped at {MAX_CELLS:,} cells")
-    assert counts(lab_db) == before
+    said = _refused_list(lab_db, over, figure, f"capped at {MAX_CELLS:,} cells")
     _cap("cells in one file", f"{MAX_CELLS:,} cells", figure, said)
 
 
@@ -89,11 +99,9 @@ def test_extra_terms_in_a_row(lab_db: Path, tmp_path: Path) -> None:
         return big.write_csv(tmp_path / f"extra-{filled}.csv", iter([header, row]))
 
     over = one_row(MAX_EXTRA_TERMS + 1)
-    before = counts(lab_db)
     figure = f"{MAX_EXTRA_TERMS + 1:,} filled"
     cap = f"capped at {MAX_EXTRA_TERMS:,} extra terms"
-    said = _refused(_manifest(lab_db, over), over, "row 2", figure, cap)
-    assert counts(lab_db) == before
+    said = _refused_list(lab_db, over, "row 2", figure, cap)
     assert len(ok_json(_manifest(lab_db, one_row(MAX_EXTRA_TERMS)))["created"]) == 1
     _cap("extra terms in a row", f"{MAX_EXTRA_TERMS}", f"{MAX_EXTRA_TERMS + 1}", said)
 
@@ -106,11 +114,9 @@ def test_characters_of_extra_terms_in_a_row(lab_db: Path, tmp_path: Path) -> Non
         return big.write_csv(tmp_path / f"remark-{size}.csv", iter([["catalogNumber", term], row]))
 
     over = remark(MAX_EXTRA_CHARS + 1)
-    before = counts(lab_db)
     figure = f"{MAX_EXTRA_CHARS + 1:,} characters"
     cap = f"capped at {MAX_EXTRA_CHARS:,} characters"
-    said = _refused(_manifest(lab_db, over), over, "row 2", figure, cap)
-    assert counts(lab_db) == before
+    said = _refused_list(lab_db, over, "row 2", figure, cap)
     assert len(ok_json(_manifest(lab_db, remark(MAX_EXTRA_CHARS)))["created"]) == 1
     _cap("characters of extra terms in a row", f"{MAX_EXTRA_CHARS:,}", "one more", said)
 
@@ -131,9 +137,7 @@ def test_shared_strings_in_a_workbook(lab_db: Path, tmp_path: Path) -> None:
         return path
 
     over = book(MAX_SHARED_STRINGS + 1)
-    before = counts(lab_db)
-    said = _refused(_manifest(lab_db, over), over, f"capped at {MAX_SHARED_STRINGS:,} shared")
-    assert counts(lab_db) == before
+    said = _refused_list(lab_db, over, f"capped at {MAX_SHARED_STRINGS:,} shared")
     assert len(ok_json(_manifest(lab_db, book(MAX_SHARED_STRINGS)))["created"]) == 1
     _cap("shared strings in a workbook", f"{MAX_SHARED_STRINGS:,}", "one more", said)
 
@@ -150,10 +154,8 @@ def test_characters_of_shared_strings_in_a_workbook(lab_db: Path, tmp_path: Path
         return path
 
     over = book(MAX_SHARED_CHARS + 1)
-    before = counts(lab_db)
     figure = f"{MAX_SHARED_CHARS + 1:,} characters"
-    said = _refused(_manifest(lab_db, over), over, figure, f"capped at {MAX_SHARED_CHARS:,}")
-    assert counts(lab_db) == before
+    said = _refused_list(lab_db, over, figure, f"capped at {MAX_SHARED_CHARS:,}")
     assert len(ok_json(_manifest(lab_db, book(MAX_SHARED_CHARS)))["created"]) == 1
     _cap("characters of shared strings in a workbook", f"{MAX_SHARED_CHARS:,}", "one more", said)
 
@@ -161,40 +163,25 @@ def test_characters_of_shared_strings_in_a_workbook(lab_db: Path, tmp_path: Path
 # ---------------------------------------------------------------- instrument sessions, batches
 
 
-def test_runs_in_a_session(lab: Lab, tmp_path: Path) -> None:
-    profile = tmp_path / "caps.toml"
-    profile.write_text(PROFILE, encoding="utf-8")
-    saved = invoke(
-        "profile", "save", "caps", str(profile), db=lab.path, actor=lab.technician, as_json=True
-    )
-    ok_json(saved)
-
+def test_runs_in_a_session(bench: Bench, tmp_path: Path) -> None:
     def export(rows: int) -> Path:
         return big.write_csv(tmp_path / f"runs-{rows}.csv", big.export_rows(rows))
 
     def session(path: Path) -> Result:
-        args = ("session", "import", str(path), "--profile", "caps", *SESSION)
-        return invoke(*args, db=lab.path, actor=lab.technician, as_json=True)
+        args = session_import(path, "csv")
+        return invoke(*args, db=bench.path, actor=bench.lab.technician, as_json=True)
 
     over = export(MAX_SESSION_ROWS + 1)
-    before = counts(lab.path)
-    said = _refused(session(over), over, f"capped at {MAX_SESSION_ROWS:,} runs")
-    assert counts(lab.path) == before
+    said = _refused(
+        bench.path, partial(session, over), over, f"capped at {MAX_SESSION_ROWS:,} runs"
+    )
     assert ok_json(session(export(MAX_SESSION_ROWS)))["item"]["measurements"] == MAX_SESSION_ROWS
     _cap("runs in an instrument session", f"{MAX_SESSION_ROWS:,}", "one more", said)
 
 
-def test_rows_of_a_batch_sheet(lab: Lab, tmp_path: Path) -> None:
+def test_rows_of_a_batch_sheet(bench: Bench, tmp_path: Path) -> None:
     """More rows than a batch may hold columns are refused as they are read; a sheet at the
     cap is read whole and goes on to the rows' own checks (here a column listed twice)."""
-    created = invoke(
-        *("batch", "create", "--name", "caps", "--date", "2026-01-05", "--element", "Ca"),
-        *("--resin", "DGA", "--scheme", "load; elute", "--cuts", "Ca"),
-        db=lab.path,
-        actor=lab.technician,
-        as_json=True,
-    )
-    batch = ok_json(created)["item"]["id"]
 
     def sheet(rows: int) -> Path:
         lines = ([str(n), "blank", "", "", "0.05 ug"] for n in [1, *range(1, rows)])
@@ -202,14 +189,14 @@ def test_rows_of_a_batch_sheet(lab: Lab, tmp_path: Path) -> None:
         return big.write_csv(tmp_path / f"sheet-{rows}.csv", iter([header, *lines]))
 
     def enter(path: Path) -> Result:
-        return invoke("batch", "sheet", batch, str(path), db=lab.path, actor=lab.technician)
+        args = ("batch", "sheet", bench.batch, str(path))
+        return invoke(*args, db=bench.path, actor=bench.lab.technician)
 
-    before = counts(lab.path)
     over = sheet(MAX_SLOT + 1)
-    said = _refused(enter(over), over, f"at most {MAX_SLOT:,} columns")
+    said = _refused(bench.path, partial(enter, over), over, f"at most {MAX_SLOT:,} columns")
     under = sheet(MAX_SLOT)
-    _refused(enter(under), under, "row 3", "listed on row 2 too")  # read whole, then checked
-    assert counts(lab.path) == before
+    words = ("row 3", "listed on row 2 too")  # read whole, then checked
+    _refused(bench.path, partial(enter, under), under, *words)
     _cap("rows of a batch sheet", f"{MAX_SLOT:,}, read whole", "one more", said)
 
 
@@ -242,18 +229,20 @@ def test_pixels_of_a_label_preview(lab: Lab, tmp_path: Path) -> None:
 
 
 def test_pixels_of_a_photograph(lab: Lab, tmp_path: Path) -> None:
-    def photo(width: int, height: int) -> tuple[Path, Result]:
+    def photo(width: int, height: int) -> Path:
         path = tmp_path / f"photo-{width}x{height}.jpg"
         path.write_bytes(big.jpeg_claiming(width, height))
-        args = ("specimen", "photo", lab.on_hand, str(path))
-        return path, invoke(*args, db=lab.path, actor=lab.technician, as_json=True)
+        return path
 
-    before = counts(lab.path)
-    path, result = photo(10_001, 8_000)
-    said = _refused(result, path, "80,008,000 pixels", f"capped at {MAX_PHOTO_PIXELS:,} pixels")
-    path, result = photo(16_000, 16_000)  # beyond Pillow's own limit: its error never shows
-    _refused(result, path, "more than", f"capped at {MAX_PHOTO_PIXELS:,} pixels")
-    assert counts(lab.path) == before
+    def attach(path: Path) -> Result:
+        args = ("specimen", "photo", lab.on_hand, str(path))
+        return invoke(*args, db=lab.path, actor=lab.technician, as_json=True)
+
+    cap = f"capped at {MAX_PHOTO_PIXELS:,} pixels"
+    over = photo(10_001, 8_000)
+    said = _refused(lab.path, partial(attach, over), over, "80,008,000 pixels", cap)
+    huge = photo(16_000, 16_000)  # beyond Pillow's own limit: its error never shows
+    _refused(lab.path, partial(attach, huge), huge, "more than", cap)
     assert MAX_PHOTO_PIXELS == 10_000 * 8_000
-    ok_json(photo(10_000, 8_000)[1])
+    ok_json(attach(photo(10_000, 8_000)))
     _cap("pixels of a photograph", f"{MAX_PHOTO_PIXELS:,}", "10,001 × 8,000", said)

@@ -16,7 +16,6 @@ from __future__ import annotations
 
 import json
 import time
-from collections.abc import Iterator
 from pathlib import Path
 from typing import Any
 
@@ -33,13 +32,6 @@ from tracker.services import ledger
 pytestmark = pytest.mark.slow
 WORKERS, ATTEMPTS, DRILL_MG = 8, 50, 0.25
 PER_SPECIMEN_MG, TOTAL_MG, SPECIMENS_ALLOWED = 2.0, 6.0, 3
-
-
-@pytest.fixture(scope="module")
-def zygote() -> Iterator[Zygote]:
-    started = Zygote()
-    yield started
-    started.close()
 
 
 def _lab(db: Database) -> list[str]:

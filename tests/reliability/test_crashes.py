@@ -23,6 +23,7 @@ from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
 from tests import factories as make
+from tests import lab_files
 from tests.reliability.harness import CrashReport, Zygote, crash_rounds
 from tests.reliability.report import record
 from tracker.db.database import Database, open_database
@@ -52,13 +53,6 @@ PROFILE = {
 }
 
 
-@pytest.fixture(scope="module")
-def zygote() -> Iterator[Zygote]:
-    started = Zygote()
-    yield started
-    started.close()
-
-
 def _export(seed: int) -> bytes:
     """Standards on odd runs, a reference material or an unmatched row between them."""
     rng = random.Random(seed)
@@ -66,18 +60,6 @@ def _export(seed: int) -> bytes:
     for run in range(1, EXPORT_ROWS + 1):
         name = "STD-X" if run % 2 else rng.choice(["RM-A", "tune solution", "wash"])
         lines.append(f"{run},{name},{2.1 + rng.random() / 1e3:.9f},{3.2 + rng.random() / 1e3:.9f}")
-    return ("\n".join(lines) + "\n").encode()
-
-
-def _sheet() -> bytes:
-    lines = ["slot,kind,item,loaded,Ca"]
-    for slot in range(1, SHEET_COLUMNS + 1):
-        reference = slot % 2 == 1
-        lines.append(
-            f"{slot},{'reference' if reference else 'blank'},"
-            f"{'RM-A' if reference else ''},{'10 ug' if reference else ''},"
-            f"{slot / 1000:.3f} ug"
-        )
     return ("\n".join(lines) + "\n").encode()
 
 
@@ -157,9 +139,9 @@ def _sessions_whole(url: str, most: int) -> int:
                 .outerjoin(Measurement)
                 .group_by(InstrumentSession.id)
             ).all()
-            events = session.scalar(
+            events = session.execute(
                 select(func.count()).where(CustodyEvent.action == "session.imported")
-            )
+            ).scalar_one()
         assert all(rows == EXPORT_ROWS for _, rows in sizes), sizes
         digests = [digest for digest, _ in sizes]
         assert len(set(digests)) == len(digests) == events <= most
@@ -177,7 +159,7 @@ def test_killed_batch_sheets_leave_whole_batches_or_empty_ones(
     batches = [make.batch(db) for _ in range(SHEETS)]
     db.close()
     path = tmp_path / "columns.csv"
-    path.write_bytes(_sheet())
+    path.write_bytes(lab_files.batch_sheet(SHEET_COLUMNS))
     sheets = [[batch, str(path)] for batch in batches]
     started = time.monotonic()
     args = {"db": db_url, "sheets": sheets, "actor": "tech"}
@@ -230,17 +212,6 @@ def _batches_whole(url: str) -> int:
         db.close()
 
 
-def _manifest(loan: int) -> bytes:
-    """A lender's list of invented specimens in Darwin Core terms (TDWG)."""
-    lines = ["catalogNumber,scientificName,preparations,locality,eventDate,decimalLatitude"]
-    lines += [
-        f"INV {loan}-{n},Lamniformes indet.,tooth,Pit {n % 40} (invented),1991-05-03,"
-        f"{-38.5 - n / 100_000:.5f}"
-        for n in range(MANIFEST_ROWS)
-    ]
-    return ("\n".join(lines) + "\n").encode()
-
-
 @pytest.mark.parametrize("db_url", BACKENDS, indirect=True)
 def test_killed_manifest_imports_leave_whole_lists_or_none(
     db_url: str, zygote: Zygote, tmp_path: Path
@@ -251,7 +222,7 @@ def test_killed_manifest_imports_leave_whole_lists_or_none(
     pairs = []
     for n, loan in enumerate(loans):
         path = tmp_path / f"list-{n}.csv"
-        path.write_bytes(_manifest(n))
+        path.write_bytes(lab_files.lender_list(MANIFEST_ROWS, f"{n}-"))
         pairs.append([loan, str(path)])
     started = time.monotonic()
     args = {"db": db_url, "manifests": pairs, "actor": "boss"}

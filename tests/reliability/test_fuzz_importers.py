@@ -12,9 +12,9 @@ import csv
 import io
 import math
 import shutil
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from pathlib import Path
-from typing import Any
+from typing import Any, TypeVar
 
 import pytest
 from hypothesis import HealthCheck, given, settings
@@ -97,7 +97,7 @@ CELL = st.one_of(
 
 
 @st.composite
-def maybe_spoiled(draw: Any, rows: list[list[str]]) -> list[list[str]]:
+def maybe_spoiled(draw: st.DrawFn, rows: list[list[str]]) -> list[list[str]]:
     """The rows as they are (half the time), or with one cell replaced by a nasty one."""
     if not rows or draw(st.booleans()):
         return rows
@@ -116,7 +116,7 @@ def csv_text(rows: list[list[str]], delimiter: str = ",") -> bytes:
 
 
 @st.composite
-def spoiled_tables(draw: Any) -> bytes:
+def spoiled_tables(draw: st.DrawFn) -> bytes:
     header = draw(
         st.lists(st.sampled_from(["Run", "Name", "r4440", "x", ""]), min_size=1, max_size=5)
     )
@@ -257,7 +257,10 @@ def bench(sqlite_template: Path, tmp_path: Path) -> Iterator[tuple[Database, str
     db.close()
 
 
-def _refused_or_done(db: Database, call: Any, importer: str) -> Any:
+Answer = TypeVar("Answer")
+
+
+def _refused_or_done(db: Database, call: Callable[[], Answer], importer: str) -> Answer | None:
     """The call's answer, or None after a refusal that wrote nothing."""
     before = snapshot_counts(db)
     try:
@@ -271,7 +274,7 @@ def _refused_or_done(db: Database, call: Any, importer: str) -> Any:
 
 
 @st.composite
-def sessions(draw: Any) -> list[list[str]]:
+def sessions(draw: st.DrawFn) -> list[list[str]]:
     """A bracketed run list (standard, target, standard, ...), then maybe one spoiled cell."""
     targets = draw(
         st.lists(
@@ -310,7 +313,7 @@ def test_instrument_import_refuses_or_keeps_every_row(
 
 
 @st.composite
-def sheets(draw: Any) -> list[list[str]]:
+def sheets(draw: st.DrawFn) -> list[list[str]]:
     """Columns 1..n (blanks and reference materials, the same on every sheet), spoiled or not."""
     rows = []
     for slot in range(1, draw(st.integers(1, 12)) + 1):
@@ -341,7 +344,7 @@ def test_batch_sheets_refuse_or_enter_exactly_their_rows(
 
 
 @st.composite
-def curves(draw: Any) -> list[list[str]]:
+def curves(draw: st.DrawFn) -> list[list[str]]:
     ages = sorted(set(draw(st.lists(st.floats(0, 600), min_size=2, max_size=10))))
     rows = [
         [repr(a), repr(draw(st.floats(0.70, 0.71))), repr(draw(st.floats(0, 0.001)))] for a in ages
@@ -385,7 +388,7 @@ TERMS = [
 
 
 @st.composite
-def manifests_(draw: Any) -> tuple[list[str], list[list[str]]]:
+def manifests_(draw: st.DrawFn) -> tuple[list[str], list[list[str]]]:
     """A lender's list in Darwin Core terms with plausible values, then maybe spoiled."""
     header = ["catalogNumber", *draw(st.lists(st.sampled_from(TERMS[1:]), unique=True))]
     values = {
@@ -436,23 +439,28 @@ HEADING = st.text(min_size=1, max_size=20).filter(lambda t: t.strip() == t and t
 
 
 @st.composite
-def profiles(draw: Any) -> dict[str, Any]:
+def profiles(draw: st.DrawFn) -> dict[str, Any]:
     """A valid profile (own headings, ratios, format), then maybe values replaced by any JSON."""
     ratios = draw(
         st.dictionaries(
             st.sampled_from(["44/40", "44/42", "87/86", "43/44"]), HEADING, min_size=1, max_size=3
         )
     )
-    profile = {
+    columns: dict[str, Any] = {
+        "run_order": draw(HEADING),
+        "sample_name": draw(HEADING),
+        "ratios": ratios,
+    }
+    profile: dict[str, Any] = {
         "format": draw(st.sampled_from(["csv", "tsv", "xlsx"])),
         "header_row": draw(st.integers(1, 100)),
-        "columns": {"run_order": draw(HEADING), "sample_name": draw(HEADING), "ratios": ratios},
+        "columns": columns,
     }
     for _ in range(draw(st.integers(0, 2))):
         where = draw(st.sampled_from(["format", "header_row", "sheet", "bogus", "columns"]))
         if where == "columns":
             key = draw(st.sampled_from(["run_order", "sample_name", "ratios", "errors", "x"]))
-            profile["columns"][key] = draw(JSONISH)
+            columns[key] = draw(JSONISH)
         else:
             profile[where] = draw(JSONISH)
     return profile

@@ -11,121 +11,25 @@ rather than be printed; each refusal must be exit 2, one stderr line naming the 
 from __future__ import annotations
 
 from collections.abc import Callable
-from dataclasses import dataclass
+from functools import partial
 from pathlib import Path
 
 import pytest
 
-from tests.cli.conftest import Lab, copy_sqlite, counts, invoke, ok_json
+from tests.cli.conftest import counts, invoke
 from tests.reliability import hostile_files as h
+from tests.reliability.bench import PROFILE, Bench, session_import
 from tests.reliability.report import record
 
-PROFILE = (
-    'format = "{fmt}"\n[columns]\nrun_order = "Run"\nsample_name = "Name"\n'
-    '[columns.ratios]\n"44/40" = "r4440"\n'
-)
 CURVE = "age_ma,87sr/86sr,u\n370,0.70820,0.00003\n380,0.70790,0.00003\n"
 SHEET = "slot,kind,item,loaded,Ca\n1,blank,,,0.05 ug\n"
 MANIFEST = "catalogNumber,locality\nINV 1,Pit (invented)\nINV 2,Pit (invented)\n"
 STOCK = "[stock.lid]\npage_width_mm = 50.0\npage_height_mm = 30.0\nlabel_width_mm = 48.0\n"
 
-
-@dataclass(frozen=True)
-class Bench:
-    path: Path
-    lab: Lab
-    batch: str
-
-
-@pytest.fixture(scope="module")
-def bench_template(lab_template: Lab, tmp_path_factory: pytest.TempPathFactory) -> Bench:
-    folder = tmp_path_factory.mktemp("hostile")
-    path = copy_sqlite(lab_template.path, folder / "lab.sqlite")
-    for fmt in ("csv", "xlsx"):
-        profile = folder / f"fz-{fmt}.toml"
-        profile.write_text(PROFILE.format(fmt=fmt), encoding="utf-8")
-        ok_json(
-            invoke(
-                "profile",
-                "save",
-                f"fz-{fmt}",
-                str(profile),
-                db=path,
-                actor=lab_template.technician,
-                as_json=True,
-            )
-        )
-    batch = ok_json(
-        invoke(
-            "batch",
-            "create",
-            "--name",
-            "hostile",
-            "--date",
-            "2026-01-05",
-            "--element",
-            "Ca",
-            "--resin",
-            "DGA",
-            "--scheme",
-            "load; rinse; elute",
-            "--cuts",
-            "matrix,Ca",
-            db=path,
-            actor=lab_template.technician,
-            as_json=True,
-        )
-    )["item"]["id"]
-    return Bench(path, lab_template, batch)
-
-
-@pytest.fixture
-def bench(bench_template: Bench, tmp_path: Path) -> Bench:
-    return Bench(
-        copy_sqlite(bench_template.path, tmp_path / "lab.sqlite"),
-        bench_template.lab,
-        bench_template.batch,
-    )
-
-
 Run = Callable[[Bench, Path], list[str]]
 IMPORTERS: dict[str, tuple[str, Run]] = {
-    "instrument export (CSV)": (
-        ".csv",
-        lambda b, p: [
-            "session",
-            "import",
-            str(p),
-            "--profile",
-            "fz-csv",
-            "--name",
-            "hostile",
-            "--instrument",
-            "MC",
-            "--element",
-            "Ca",
-            "--standard",
-            "STD-X",
-        ],
-    ),
-    "instrument export (XLSX)": (
-        ".xlsx",
-        lambda b, p: [
-            "session",
-            "import",
-            str(p),
-            "--profile",
-            "fz-xlsx",
-            "--name",
-            "hostile",
-            "--instrument",
-            "MC",
-            "--element",
-            "Ca",
-            "--standard",
-            "STD-X",
-        ],
-    ),
+    "instrument export (CSV)": (".csv", lambda b, p: session_import(p, "csv")),
+    "instrument export (XLSX)": (".xlsx", lambda b, p: session_import(p, "xlsx")),
     "batch sheet": (".csv", lambda b, p: ["batch", "sheet", b.batch, str(p)]),
     "lender manifest": (".csv", lambda b, p: ["manifest", "import", b.lab.loan, str(p)]),
     "lender manifest (XLSX)": (".xlsx", lambda b, p: ["manifest", "import", b.lab.loan, str(p)]),
@@ -157,34 +61,40 @@ TEXT = {  # a well-formed file of each text importer, to spoil
     "mapping profile (JSON)": '{\n  "format": "csv"\n}',
     "label stock file": STOCK,
 }
+
+
+def _unclosed_quote(header: str) -> bytes:
+    return f'{header}\n1,"STD-X,2.1\n2,b,3\n'.encode()
+
+
 # (importer, case, file bytes, words the one line must hold; "row" cases name row and column)
 CASES: list[tuple[str, str, Callable[[], bytes], tuple[str, ...]]] = []
 for name, text in TEXT.items():
     CASES += [
-        (name, "UTF-16 text", lambda t=text: h.utf16(t), ("UTF-16",)),
+        (name, "UTF-16 text", partial(h.utf16, text), ("UTF-16",)),
         (
             name,
             "Latin-1 bytes on row 2",
-            lambda t=text: h.latin1_on_row(t + "\n", 2),
+            partial(h.latin1_on_row, text + "\n", 2),
             ("row 2", "column", "not UTF-8"),
         ),
         (
             name,
             "a NUL byte on row 2",
-            lambda t=text: h.nul_on_row(t + "\n", 2),
+            partial(h.nul_on_row, text + "\n", 2),
             ("row 2", "column", "NUL"),
         ),
-        (name, "random binary", lambda: h.random_bytes(), ()),
+        (name, "random binary", h.random_bytes, ()),
     ]
 for name in ("instrument export (CSV)", "batch sheet", "lender manifest", "Sr reference curve"):
     header = TEXT[name].splitlines()[0]
     long_line = ("row 2", "column", "long") if name != "Sr reference curve" else ("files over",)
     CASES += [
-        (name, "a 100 MB line", lambda x=header: h.huge_line(x), long_line),
+        (name, "a 100 MB line", partial(h.huge_line, header), long_line),
         (
             name,
             "an unclosed quote",
-            lambda x=header: f'{x}\n1,"STD-X,2.1\n2,b,3\n'.encode(),
+            partial(_unclosed_quote, header),
             ("row 2", "column 2", "unexpected end of data"),
         ),
     ]

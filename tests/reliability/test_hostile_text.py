@@ -15,23 +15,20 @@ import io
 import json
 import sqlite3
 import unicodedata
-from dataclasses import dataclass
 from pathlib import Path
 
 import pytest
-from openpyxl import Workbook, load_workbook
+from openpyxl import load_workbook
 from typer.testing import Result
 
-from tests.cli.conftest import Lab, copy_sqlite, counts, invoke, ok_json
+from tests.cli.conftest import counts, invoke
+from tests.reliability import hostile_files as h
+from tests.reliability.bench import Bench, session_import
 from tests.reliability.report import record
 from tracker.cli import state
 
 pytestmark = pytest.mark.slow
 
-PROFILE = (
-    'format = "{fmt}"\n[columns]\nrun_order = "Run"\nsample_name = "Name"\n'
-    '[columns.ratios]\n"44/40" = "r4440"\n'
-)
 # One character of each class, and the general categories unicodedata must give it.
 CLASSES: dict[str, tuple[str, set[str]]] = {
     "C0 control (ESC)": ("\x1b", {"Cc"}),
@@ -53,60 +50,6 @@ CLASSES: dict[str, tuple[str, set[str]]] = {
 NOT_IN_XML = {"\x1b", "\t"}
 
 
-@dataclass(frozen=True)
-class Place:
-    path: Path
-    lab: Lab
-
-
-@pytest.fixture(scope="module")
-def place_template(lab_template: Lab, tmp_path_factory: pytest.TempPathFactory) -> Place:
-    folder = tmp_path_factory.mktemp("hostile-text")
-    path = copy_sqlite(lab_template.path, folder / "lab.sqlite")
-    for fmt in ("csv", "xlsx"):
-        profile = folder / f"mc-{fmt}.toml"
-        profile.write_text(PROFILE.format(fmt=fmt), encoding="utf-8")
-        ok_json(
-            invoke(
-                "profile", "save", f"mc-{fmt}", str(profile), db=path, actor="bram", as_json=True
-            )
-        )
-    return Place(path, lab_template)
-
-
-@pytest.fixture
-def place(place_template: Place, tmp_path: Path) -> Place:
-    return Place(copy_sqlite(place_template.path, tmp_path / "lab.sqlite"), place_template.lab)
-
-
-def xlsx(rows: list[list[str]]) -> bytes:
-    book = Workbook()
-    sheet = book.active
-    for row in rows:
-        sheet.append(row)
-    buffer = io.BytesIO()
-    book.save(buffer)
-    return buffer.getvalue()
-
-
-def session_args(path: Path, fmt: str) -> list[str]:
-    return [
-        "session",
-        "import",
-        str(path),
-        "--profile",
-        f"mc-{fmt}",
-        "--name",
-        "hostile",
-        "--instrument",
-        "MC",
-        "--element",
-        "Ca",
-        "--standard",
-        "STD-X",
-    ]
-
-
 def entry_paths(char: str, folder: Path, loan: str) -> dict[str, tuple[list[str], tuple[str, ...]]]:
     """Each way text gets in: the command line, and the words its one line must hold."""
     manifest = [["catalogNumber", "locality"], ["INV 1", "Pit"], [f"INV {char}2", "Pit"]]
@@ -121,18 +64,18 @@ def entry_paths(char: str, folder: Path, loan: str) -> dict[str, tuple[list[str]
     )
     (folder / "run.csv").write_text("\n".join(",".join(r) for r in export) + "\n", "utf-8")
     paths["instrument export (CSV)"] = (
-        session_args(folder / "run.csv", "csv"),
+        session_import(folder / "run.csv", "csv"),
         ("run.csv, row 3, column Name",),
     )
     if char not in NOT_IN_XML:
-        (folder / "list.xlsx").write_bytes(xlsx(manifest))
+        (folder / "list.xlsx").write_bytes(h.workbook(manifest))
         paths["manifest (XLSX)"] = (
             ["manifest", "import", loan, str(folder / "list.xlsx")],
             ("list.xlsx, row 3", "column catalogNumber"),
         )
-        (folder / "run.xlsx").write_bytes(xlsx(export))
+        (folder / "run.xlsx").write_bytes(h.workbook(export))
         paths["instrument export (XLSX)"] = (
-            session_args(folder / "run.xlsx", "xlsx"),
+            session_import(folder / "run.xlsx", "xlsx"),
             ("run.xlsx, row 3, column Name",),
         )
     paths["typed option"] = (
@@ -150,20 +93,20 @@ def one_line(result: Result) -> str:
 
 @pytest.mark.parametrize("name", list(CLASSES))
 def test_each_class_is_refused_on_every_way_in_with_nothing_written(
-    place: Place, tmp_path: Path, name: str
+    bench: Bench, tmp_path: Path, name: str
 ) -> None:
     char, categories = CLASSES[name]
     assert unicodedata.category(char) in categories  # the class, as Unicode files it
-    before = counts(place.path)
-    paths = entry_paths(char, tmp_path, place.lab.loan)
+    before = counts(bench.path)
+    paths = entry_paths(char, tmp_path, bench.lab.loan)
     for way, (args, words) in paths.items():
-        result = invoke(*args, db=place.path, actor="bram")
+        result = invoke(*args, db=bench.path, actor="bram")
         line = one_line(result)
         assert result.exit_code == 2, (way, line)
         for word in (*words, f"U+{ord(char):04X}"):
             assert word in line, (way, word, line)
         assert char not in line and "\x1b" not in result.stderr + result.stdout
-    assert counts(place.path) == before
+    assert counts(bench.path) == before
     record(
         f"invisible/control character: {name}",
         f"{len(paths)} ways in ({', '.join(paths)})",
@@ -182,13 +125,13 @@ MARKUP = "[red]x[/red][link=https://example.invalid]y[/link]:warning:"
 
 
 @pytest.fixture
-def stored(place: Place, monkeypatch: pytest.MonkeyPatch) -> Place:
+def stored(bench: Bench, monkeypatch: pytest.MonkeyPatch) -> Bench:
     """The lab with hostile names written straight into the file, as an older release could.
 
     The console is made wide, so no line is wrapped inside the text looked for.
     """
     monkeypatch.setattr(state.console, "width", 1000)
-    connection = sqlite3.connect(place.path)
+    connection = sqlite3.connect(bench.path)
     with connection:
         connection.execute(
             "UPDATE specimen SET catalog_number = ?, locality = ? WHERE catalog_number = ?",
@@ -199,7 +142,7 @@ def stored(place: Place, monkeypatch: pytest.MonkeyPatch) -> Place:
             "UPDATE loan SET title = ?, reference = ?", ("Teeth " + HOSTILE, "FH " + HOSTILE)
         )
     connection.close()
-    return place
+    return bench
 
 
 def strings(value: object) -> list[str]:
@@ -220,7 +163,7 @@ def assert_shown_not_obeyed(output: str) -> None:
     assert "<U+001B>" in output and "<U+202E>" in output and "<U+009B>" in output
 
 
-def test_stored_hostile_text_is_shown_visibly_by_every_printer(stored: Place) -> None:
+def test_stored_hostile_text_is_shown_visibly_by_every_printer(stored: Bench) -> None:
     lab = stored.lab
     for args in (
         ("show", lab.on_hand),
@@ -248,7 +191,7 @@ def test_stored_hostile_text_is_shown_visibly_by_every_printer(stored: Place) ->
 
 
 def test_stored_hostile_text_exports_to_xlsx_visibly_and_to_csv_exactly(
-    stored: Place, tmp_path: Path
+    stored: Bench, tmp_path: Path
 ) -> None:
     lab = stored.lab
     for suffix in ("xlsx", "csv"):
@@ -284,7 +227,7 @@ def test_stored_hostile_text_exports_to_xlsx_visibly_and_to_csv_exactly(
 
 
 async def test_the_interface_shows_stored_hostile_text_visibly(
-    stored: Place, tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+    stored: Bench, tmp_path: Path, monkeypatch: pytest.MonkeyPatch
 ) -> None:
     """Every screen a stored name reaches, as the terminal would get it (the SVG screenshot
     holds the characters of every cell drawn): nothing obeyed, everything visible."""

@@ -7,6 +7,7 @@ library's sqlite3, lets tracker open (back up and upgrade) a copy, and compares 
 
 from __future__ import annotations
 
+import json
 import shutil
 import sqlite3
 from pathlib import Path
@@ -90,10 +91,10 @@ def test_first_release_database_upgrades_with_every_row_and_event_intact(tmp_pat
     assert after["alembic_version"] == {(migrate.HEAD,): {"version_num": migrate.HEAD}}
     backup = tmp_path / f"lab.sqlite.bak-{FIRST_REVISION}"
     assert _tables(backup) == before and backup.stat().st_mode & 0o077 == 0
-    rows = sum(len(r) for r in before.values())
+    row_count = sum(len(r) for r in before.values())
     record(
         "upgrade from the first release (d02aa5d demo)",
-        f"{len(before)} tables, {rows} rows, {head_after.events} events",
+        f"{len(before)} tables, {row_count} rows, {head_after.events} events",
         f"{len(changed)} rows changed, ledger head kept (#{head_after.head_seq}), "
         f"{head_after.unsigned} events unsigned (recorded before signing)",
     )
@@ -127,3 +128,70 @@ def test_upgraded_first_release_database_takes_new_work(tmp_path: Path) -> None:
     assert late.exit_code == 1 and len(late.stderr.strip().splitlines()) == 1
     # no key of theirs is registered yet (said either way: a key file of theirs may be here)
     assert "has no registered signing key" in late.stderr or "is not registered" in late.stderr
+
+
+def test_an_upgraded_first_release_database_is_audited_as_far_as_its_events_say(
+    tmp_path: Path,
+) -> None:
+    """Events of the first release state no row facts: the audit says so, checks what their
+    payloads do state (a catalogue number, a drill's weighings), and checks everything for
+    events recorded after the upgrade."""
+    path = tmp_path / "lab.sqlite"
+    shutil.copyfile(FIXTURE, path)
+    path.chmod(0o600)
+    old = _tables(path)
+    clean = ok_json(invoke("ledger", "audit", db=path, as_json=True))
+    assert clean["ok"] and not clean["complete"] and clean["checked_from_event"] == 115
+    statement = clean["not_checked"]
+    assert "up to #114" in statement and "from event #115 on every row and field" in statement
+    assert clean["unchecked_rows"]["concentration"] == len(old["concentration"])
+    assert "status" in clean["unchecked_fields"]["powder"]  # no old payload states it
+
+    # what the old payloads do state is checked: a catalogue number and a drilled mass
+    specimen = old["specimen"][(3,)]
+    powder = old["powder"][(2,)]
+    with sqlite3.connect(path) as connection:
+        connection.execute("UPDATE specimen SET catalog_number = 'ALTERED' WHERE id = 3")
+        connection.execute("UPDATE powder SET mass_mg = 1.0 WHERE id = 2")
+    altered = invoke("ledger", "audit", db=path, as_json=True)
+    assert altered.exit_code == 1
+    found = {(d["table"], d["field"]): d for d in json.loads(altered.stdout)["discrepancies"]}
+    assert set(found) == {("specimen", "catalog_number"), ("powder", "mass_mg")}
+    assert found["specimen", "catalog_number"]["ledger"] == specimen["catalog_number"]
+    assert found["powder", "mass_mg"]["ledger"] == powder["mass_mg"]
+    record(
+        "audit of the first release's upgraded database",
+        f"{len(old['custody_event'])} events without facts",
+        "says what it could not check and from which event on it checks everything; "
+        "2 altered values the old payloads state named",
+    )
+
+
+def test_work_after_the_upgrade_is_checked_in_full(tmp_path: Path) -> None:
+    path = tmp_path / "lab.sqlite"
+    shutil.copyfile(FIXTURE, path)
+    path.chmod(0o600)
+    operators = _tables(path)["operator"].values()
+    manager = next(o["code"] for o in operators if o["role"] == "manager")
+    _register_first_key(tmp_path, path, manager)
+    made = ok_json(
+        invoke("location", "add", "building", "Annex Z", db=path, actor=manager, as_json=True)
+    )
+    with sqlite3.connect(path) as connection:
+        connection.execute("UPDATE location SET name = 'Annex Y' WHERE name = 'Annex Z'")
+    altered = invoke("ledger", "audit", db=path, as_json=True)
+    assert altered.exit_code == 1
+    (found,) = json.loads(altered.stdout)["discrepancies"]
+    assert (found["key"], found["field"], found["ledger"], found["stored"]) == (
+        made["item"]["id"],
+        "name",
+        "Annex Z",
+        "Annex Y",
+    )
+
+
+def _register_first_key(tmp_path: Path, path: Path, manager: str) -> None:
+    """The upgraded file's manager makes and registers the first signing key."""
+    public = tmp_path / "first.pub"
+    ok_json(invoke("key", "new", "--out", str(public), actor=manager, as_json=True))
+    ok_json(invoke("key", "register", manager, str(public), db=path, actor=manager, as_json=True))

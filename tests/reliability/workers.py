@@ -83,8 +83,8 @@ def drill_race(args: dict[str, Any]) -> dict[str, Any]:
         if attempt % 3 == 2:
             place = {"kind": "building", "name": f"race {args['worker']}-{attempt}"}
             try:
-                answer = setup.add_location(db, args["actor"], place)
-                done.append({"kind": "place", "seq": answer.event_seq, "hash": answer.event_hash})
+                placed = setup.add_location(db, args["actor"], place)
+                done.append({"kind": "place", "seq": placed.event_seq, "hash": placed.event_hash})
             except (TrackerError, DBAPIError) as problem:
                 errors.append(f"{type(problem).__name__}: {problem}")
     db.close()

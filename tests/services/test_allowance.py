@@ -4,19 +4,18 @@ from __future__ import annotations
 
 import hashlib
 import json
-from collections.abc import Callable
 
 import pytest
 from sqlalchemy import select
 
 from tests import factories as make
+from tests.conftest import Counts
 from tracker.db.database import Database
 from tracker.domain.errors import InputError, RuleViolation
 from tracker.domain.models import CustodyEvent, Document, Powder
 from tracker.services import amendments, drilling
+from tracker.services.inputs import Raw
 from tracker.services.ledger import verify
-
-Counts = Callable[[], dict[str, int]]
 
 
 def drill(db: Database, specimen: str, mg: str, actor: str = "tech", **extra: object) -> str:
@@ -65,7 +64,7 @@ def test_per_specimen_limit_refusal_states_the_numbers(db: Database, counts: Cou
 def test_each_limit_refuses(
     db: Database,
     counts: Counts,
-    terms: dict[str, object],
+    terms: Raw,
     setup_mg: str | None,
     request_mg: str,
     field: str,

@@ -19,6 +19,7 @@ from pypdf import PdfReader
 from sqlalchemy import select
 
 from tests import factories as make
+from tests.conftest import Counts
 from tests.reliability.report import record
 from tests.services.test_instrument import bench, do_import, session_of
 from tracker.db.database import Database
@@ -38,7 +39,6 @@ from tracker.services import (
 )
 from tracker.services.reconcile import reconcile
 
-Counts = Callable[[], dict[str, int]]
 BACKDATED = "backdated entry"
 FOUND: dict[str, list[str]] = {}  # backend -> what each found case did, for the reliability row
 
@@ -216,7 +216,10 @@ def test_the_window_is_a_lab_setting_only_managers_change(db: Database, counts: 
     done = set_it(db, "boss", {"window": "36 h"})
     assert (done.item.hours, done.item.said, done.item.default) == (36, "36 hours", False)
     (event,) = ledger.recent_events(db, 1)
-    assert event.payload == {"window_hours": 36, "previous_hours": 96}
+    payload = dict(event.payload)
+    facts = payload.pop("facts")
+    assert payload == {"window_hours": 36, "previous_hours": 96}
+    assert facts["created"]["lab_setting"]["backdating_window_hours"]["value"] == "36"
     assert settings.show_backdating_window(db).hours == 36
 
 

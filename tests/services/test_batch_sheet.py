@@ -2,16 +2,14 @@
 
 from __future__ import annotations
 
-from collections.abc import Callable
-
 import pytest
 
 from tests import factories as make
+from tests.conftest import Counts
 from tracker.db.database import Database
 from tracker.domain.errors import InputError, RuleViolation
 from tracker.services import batch_sheet, chemistry, columns, labels, ledger, lineage
 
-Counts = Callable[[], dict[str, int]]
 HEADER = "slot,kind,item,loaded,matrix,Ca,Ca u"
 
 

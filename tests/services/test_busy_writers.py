@@ -11,7 +11,7 @@ from __future__ import annotations
 import json
 import socket
 import sqlite3
-from collections.abc import Callable, Iterator
+from collections.abc import Iterator
 from contextlib import closing, contextmanager
 from datetime import timedelta
 from pathlib import Path
@@ -21,6 +21,7 @@ from sqlalchemy import create_engine, text
 from sqlalchemy.engine import make_url
 
 from tests.busy import held
+from tests.conftest import Counts
 from tracker.db.database import Database, open_database
 from tracker.db.engine import PG_WRITER_LOCK
 from tracker.db.writer_lock import note_path, read_note
@@ -28,7 +29,6 @@ from tracker.domain.errors import Busy, RuleViolation
 from tracker.services import setup
 from tracker.services.uow import unit_of_work
 
-Counts = Callable[[], dict[str, int]]
 WAIT_S = "0.3"
 SLACK = timedelta(seconds=1)  # PostgreSQL's clock is the server's: the same machine here
 

@@ -3,13 +3,13 @@
 from __future__ import annotations
 
 import math
-from collections.abc import Callable
 
 import pytest
 from sqlalchemy import select
 
 from tests import factories as make
 from tests import keys
+from tests.conftest import Counts
 from tests.services.test_instrument import STD, bench, delta_row, do_import, export
 from tracker.db.database import Database
 from tracker.domain.errors import InputError, RuleViolation
@@ -29,7 +29,6 @@ from tracker.services import (
     setup,
 )
 
-Counts = Callable[[], dict[str, int]]
 WHY = "gross read from the wrong line of the balance log"
 
 

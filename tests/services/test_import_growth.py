@@ -18,6 +18,7 @@ from itertools import count
 import pytest
 
 from tests import factories as make
+from tests import lab_files
 from tracker.db.database import Database
 from tracker.services import batch_sheet, chemistry, instrument, manifests, screening
 
@@ -56,16 +57,10 @@ def test_batch_sheets_grow_linearly(db: Database) -> None:
     chemistry.add_reference_material(db, "boss", {"name": "RM-A", "element": "Ca"})
 
     def run(columns: int) -> float:
-        lines = ["slot,kind,item,loaded,Ca"]
-        for slot in range(1, columns + 1):
-            if slot % 2:
-                lines.append(f"{slot},reference,RM-A,10 ug,{slot / 1000:.3f} ug")
-            else:
-                lines.append(f"{slot},blank,,,{slot / 1000:.3f} ug")
         request = {
             "batch": make.batch(db),
             "filename": "columns.csv",
-            "content": ("\n".join(lines) + "\n").encode(),
+            "content": lab_files.batch_sheet(columns),
         }
         return timed(lambda: batch_sheet.enter_sheet(db, "tech", request))
 
@@ -87,8 +82,8 @@ def export(rows: int, shift: int) -> bytes:
 
 def test_instrument_imports_grow_linearly(db: Database) -> None:
     chemistry.add_reference_material(db, "boss", {"name": "RM-A", "element": "Ca"})
-    profile = {"format": "csv", "columns": {"run_order": "Run", "sample_name": "Name"}}
-    profile["columns"]["ratios"] = RATIOS  # type: ignore[index]
+    columns = {"run_order": "Run", "sample_name": "Name", "ratios": RATIOS}
+    profile = {"format": "csv", "columns": columns}
     instrument.save_profile(db, "tech", {"name": "mc", "definition": profile})
 
     def run(rows: int) -> float:
@@ -109,13 +104,7 @@ def test_instrument_imports_grow_linearly(db: Database) -> None:
 
 def test_manifests_grow_linearly(db: Database) -> None:
     def run(rows: int) -> float:
-        lines = ["catalogNumber,scientificName,preparations,locality,eventDate,decimalLatitude"]
-        lines += [
-            f"INV {k},Lamniformes indet.,tooth,Pit {k % 40} (invented),1991-05-03,"
-            f"{-38.5 - k / 100_000:.5f}"
-            for k in range(rows)
-        ]
-        content = ("\n".join(lines) + "\n").encode()
+        content = lab_files.lender_list(rows)
         request = {"loan": make.loan(db), "filename": "list.csv", "content": content}
         return timed(lambda: manifests.import_manifest(db, "boss", request))
 
@@ -142,8 +131,8 @@ def test_mapping_profiles_grow_linearly(db: Database) -> None:
 
     def run(columns: int) -> float:
         ratios = {f"{1000 + k // 900}/{1 + k % 900}": f"col {k}" for k in range(columns)}
-        profile = {"format": "csv", "columns": {"run_order": "Run", "sample_name": "Name"}}
-        profile["columns"]["ratios"] = ratios  # type: ignore[index]
+        headings = {"run_order": "Run", "sample_name": "Name", "ratios": ratios}
+        profile = {"format": "csv", "columns": headings}
         mapping = {"columns": {f"term{k}": f"heading {k}" for k in range(columns)}}
         n = next(_unique)
         return timed(

@@ -3,18 +3,17 @@
 from __future__ import annotations
 
 import math
-from collections.abc import Callable
 from dataclasses import dataclass
 
 import pytest
 
 from tests import factories as make
+from tests.conftest import Counts
 from tracker.db.database import Database
 from tracker.domain.errors import InputError, RuleViolation
 from tracker.domain.isotopes import exponential_factor
 from tracker.services import chemistry, columns, instrument, reduction, results
 
-Counts = Callable[[], dict[str, int]]
 PROFILE = {
     "format": "csv",
     "columns": {
@@ -145,7 +144,10 @@ def test_reference_material_pass_and_fail(db: Database) -> None:
             "source": "invented for the test",
         },
     )
-    rm = lambda d: [delta_row(10, "RM-A", STD, d), delta_row(11, "STD-X", STD, 0.0)]  # noqa: E731
+
+    def rm(d: float) -> list[str]:
+        return [delta_row(10, "RM-A", STD, d), delta_row(11, "STD-X", STD, 0.0)]
+
     passing = do_import(db, session_of(b.cut, [0.5], rm(0.75)))
     good = reduction.reduce_session(db, "tech", {"session": passing}).item
     assert good.flags == []

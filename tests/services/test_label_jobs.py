@@ -7,13 +7,13 @@ import hashlib
 import json
 import os
 import stat
-from collections.abc import Callable
 from pathlib import Path
 
 import pytest
 from sqlalchemy import select
 
 from tests import factories as make
+from tests.conftest import Counts
 from tests.qr_reading import decode, pdfium_pages
 from tracker.db.database import Database
 from tracker.domain.errors import InputError, RuleViolation
@@ -22,7 +22,6 @@ from tracker.output import jobs
 from tracker.services import labels
 from tracker.services.ledger import verify
 
-Counts = Callable[[], dict[str, int]]
 DPI = 300
 
 

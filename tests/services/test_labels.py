@@ -13,13 +13,12 @@ from sqlalchemy import select
 from stdnum.iso7064 import mod_37_2
 
 from tests import factories as make
+from tests.conftest import Counts
 from tracker.db.database import Database
-from tracker.domain.errors import InputError, RuleViolation
+from tracker.domain.errors import InputError, RuleViolation, TrackerError
 from tracker.domain.models import CustodyEvent, Label, LabelStatus
 from tracker.services import chemistry, drilling, lab, labels, specimens
 from tracker.services.ledger import verify
-
-Counts = Callable[[], dict[str, int]]
 
 
 def _events(db: Database) -> list[CustodyEvent]:
@@ -116,10 +115,16 @@ def test_queue_by_hand_is_one_event_for_all_items(db: Database, counts: Counts) 
     assert answer.item.items == [spec, spec, powder, powder, reference, reference]
     event = _events(db)[-1]
     assert event.action == "labels.queued" and event.object_ref == ""  # several items
-    assert json.loads(event.payload) == {"items": [spec, powder, reference], "copies": 2}
+    payload = json.loads(event.payload)
+    facts = payload.pop("facts")
+    assert payload == {"items": [spec, powder, reference], "copies": 2}
     listed = labels.list_labels(db)
     assert [row.item for row in listed] == [spec, spec, powder, powder, reference, reference]
     assert all(row.queued_event == event.seq for row in listed)
+    # the six rows that name the event are among its facts, as they were stored
+    stated = facts["created"]["label"]
+    assert len(stated) == 6 and {row["queued_event_seq"] for row in stated.values()} == {event.seq}
+    assert sorted(row["item_ref"] for row in stated.values()) == sorted(answer.item.items)
 
 
 @pytest.mark.parametrize(
@@ -136,7 +141,7 @@ def test_queue_refusals_write_nothing(
     db: Database,
     counts: Counts,
     items: list[str],
-    error: type[Exception],
+    error: type[TrackerError],
     field: str,
     fragment: str,
 ) -> None:
@@ -153,7 +158,7 @@ def test_queue_refusals_write_nothing(
     before = counts()
     with pytest.raises(error) as caught:
         labels.queue_labels(db, "tech", {"items": filled})
-    assert caught.value.field == field and fragment in caught.value.reason  # type: ignore[attr-defined]
+    assert caught.value.field == field and fragment in caught.value.reason
     assert counts() == before
 
 
@@ -184,12 +189,17 @@ def test_the_link_prefix_is_a_manager_setting_recorded_in_the_ledger(
     labels.set_uri_prefix(db, "boss", {"uri_prefix": PREFIX})
     assert labels.label_settings(db).uri_prefix == PREFIX
     event = _events(db)[-1]
-    assert (event.action, json.loads(event.payload)) == (
+    payload = json.loads(event.payload)
+    facts = payload.pop("facts")
+    assert (event.action, payload) == (
         "labels.uri_prefix_set",
         {"uri_prefix": PREFIX, "previous": None},
     )
+    assert facts["created"]["lab_setting"]["uri_prefix"]["value"] == PREFIX
     labels.set_uri_prefix(db, "boss", {"uri_prefix": None})
     assert labels.label_settings(db).uri_prefix is None
+    gone = json.loads(_events(db)[-1].payload)["facts"]
+    assert gone == {"deleted": {"lab_setting": ["uri_prefix"]}}
     assert verify(db).ok
 
 

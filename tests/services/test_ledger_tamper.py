@@ -84,7 +84,7 @@ def test_deleted_and_renumbered_events_are_found(busy: Database) -> None:
     """A careful tamperer closes the gap; the previous-hash link still breaks."""
     with busy.engine.begin() as conn:
         conn.execute(text("DELETE FROM custody_event WHERE seq = 6"))
-        last = conn.execute(text("SELECT max(seq) FROM custody_event")).scalar()
+        last: int = conn.execute(text("SELECT max(seq) FROM custody_event")).scalar_one()
         for seq in range(7, last + 1):
             conn.execute(
                 text("UPDATE custody_event SET seq = :new WHERE seq = :old"),

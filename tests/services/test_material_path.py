@@ -3,19 +3,17 @@
 from __future__ import annotations
 
 import math
-from collections.abc import Callable
 
 import pytest
 from sqlalchemy import select
 
 from tests import factories as make
+from tests.conftest import Counts
 from tracker.db.database import Database
 from tracker.domain.errors import InputError, NotFound, RuleViolation
 from tracker.domain.models import ContainerStatus, CustodyEvent, Powder, SpecimenStatus
 from tracker.services import chemistry, custody, drilling, lab, lineage, specimens
 from tracker.services.ledger import verify
-
-Counts = Callable[[], dict[str, int]]
 
 
 def last_event(db: Database) -> CustodyEvent:

@@ -1,62 +1,77 @@
-"""The README's PostgreSQL GRANT lines, run on the test cluster: the application login works,
-and cannot change the ledger or the corrections, nor switch their triggers off."""
+"""The README's PostgreSQL set-up, run on the test cluster: the commands it shows give each
+person a login that does a day's work, and that login cannot change the ledger, the
+corrections or the terms, delete anything, nor switch the checks off."""
 
 from __future__ import annotations
 
 import re
+import shlex
 import uuid
 from collections.abc import Iterator
 from pathlib import Path
 
 import pytest
-from sqlalchemy import create_engine, text
+from sqlalchemy import select, text
 from sqlalchemy.engine import make_url
 
-from tests import factories as make
-from tests import keys
-from tracker.db.database import open_database
-from tracker.services import corrections, ledger, setup
+from tests.logins import Cluster, cli, ok
+from tracker.db.database import Database, open_database
+from tracker.domain.models import CustodyEvent
+from tracker.services import corrections, drilling, ledger, loans, specimens
 
 README = Path(__file__).resolve().parents[2] / "README.md"
 pytestmark = pytest.mark.postgresql
 
 
-def _grant_lines() -> str:
+def _setup_commands() -> list[list[str]]:
+    """The `tracker ...` lines of the Storage section's set-up block, as argument lists."""
     storage = re.search(
         r"^## Storage\n(.*?)(?=^## )", README.read_text(encoding="utf-8"), flags=re.S | re.M
     )
     assert storage is not None
-    (block,) = re.findall(r"```sql\n(.*?)```", storage.group(1), flags=re.S)
-    return block
+    blocks: list[str] = re.findall(r"```bash\n(.*?)```", storage.group(1), flags=re.S)
+    (block,) = [b for b in blocks if "db " in b]
+    return [shlex.split(line)[1:] for line in block.splitlines() if line.startswith("tracker ")]
 
 
 @pytest.fixture
-def cluster(pg_server: str) -> Iterator[dict[str, str]]:
-    """A database owned by a fresh owner role, and a fresh application role (both LOGIN)."""
+def names(pg_server: str) -> Iterator[dict[str, str]]:
+    """The README's role and database names, made unique on the shared test cluster."""
     tag = uuid.uuid4().hex[:8]
     names = {
-        "db": f"tracker_lab_{tag}",
-        "owner": f"tracker_owner_{tag}",
-        "app": f"tracker_app_{tag}",
+        "tracker_lab": f"tracker_lab_{tag}",
+        "tracker_owner": f"tracker_owner_{tag}",
+        "amira_h": f"amira_h_{tag}",
+        "tomas_h": f"tomas_h_{tag}",
+        "tracker_staff": f"tracker_staff_{tag}",
     }
-    admin = create_engine(
-        make_url(pg_server).set(database="postgres"), isolation_level="AUTOCOMMIT"
-    )
-    with admin.connect() as conn:
-        conn.execute(text(f"CREATE ROLE {names['owner']} LOGIN"))
-        conn.execute(text(f"CREATE ROLE {names['app']} LOGIN"))
-        conn.execute(text(f"CREATE DATABASE {names['db']} OWNER {names['owner']}"))
+    admin = Cluster(pg_server)
+    admin.admin(f"CREATE ROLE {names['tracker_owner']} LOGIN CREATEROLE")
+    admin.admin(f"CREATE DATABASE {names['tracker_lab']} OWNER {names['tracker_owner']}")
+    yield names
+    admin.admin(f"DROP DATABASE IF EXISTS {names['tracker_lab']} WITH (FORCE)")
+    for role in ("amira_h", "tomas_h", "tracker_staff", "tracker_owner"):
+        admin.admin(f"DROP ROLE IF EXISTS {names[role]}")
 
-    def as_role(role: str) -> str:
-        url = make_url(pg_server).set(username=names[role], database=names["db"])
-        return url.render_as_string(hide_password=False)
 
-    yield {**names, "owner_url": as_role("owner"), "app_url": as_role("app")}
-    with admin.connect() as conn:
-        conn.execute(text(f"DROP DATABASE IF EXISTS {names['db']} WITH (FORCE)"))
-        conn.execute(text(f"DROP ROLE IF EXISTS {names['app']}"))
-        conn.execute(text(f"DROP ROLE IF EXISTS {names['owner']}"))
-    admin.dispose()
+def _run_readme(pg_server: str, names: dict[str, str]) -> None:
+    server = make_url(pg_server)
+    for args in _setup_commands():
+        argv = []
+        for arg in args:
+            if arg.startswith("postgresql://"):
+                role = arg.split("//")[1].split("@")[0]
+                url = server.set(username=names[role], database=names["tracker_lab"])
+                arg = url.render_as_string(hide_password=False)
+            argv.append(names.get(arg, arg))
+        if argv[-1] in names.values() or "workstation-grants" in argv:  # add-login, grants
+            argv += ["--group", names["tracker_staff"]]
+        ok(cli(*argv))
+
+
+def _login(pg_server: str, names: dict[str, str], role: str) -> Database:
+    url = make_url(pg_server).set(username=names[role], database=names["tracker_lab"])
+    return open_database(url.render_as_string(hide_password=False))
 
 
 REFUSED = [
@@ -70,44 +85,44 @@ REFUSED = [
     "DELETE FROM event_ref",
     "UPDATE backdated_entry SET field = 'received_at'",
     "UPDATE alembic_version SET version_num = '0001_initial'",
+    "UPDATE loan_terms SET due_on = '2040-01-01'",
+    "DELETE FROM powder",
+    "DELETE FROM operator",
+    "UPDATE specimen SET catalog_number = 'X-1'",
+    "ALTER TABLE powder DISABLE TRIGGER powder_login_check_corrected",
+    "UPDATE concentration SET value_ug_per_g = 1",
 ]
 
 
-def test_the_readme_grants_let_the_app_work_but_never_edit_the_ledger(
-    cluster: dict[str, str],
+def test_the_readme_set_up_gives_each_person_a_login_that_works_but_edits_no_history(
+    pg_server: str, names: dict[str, str]
 ) -> None:
-    owner = setup.init_database(
-        cluster["owner_url"], {"code": "boss", "name": "Bea Oswald"}, signer=keys.signer("boss")
-    )
-    setup.add_operator(owner, "boss", keys.person("tech", "Teo Chandler"))
-    with owner.engine.begin() as conn:
-        sql = _grant_lines().replace("tracker_lab", cluster["db"])
-        sql = sql.replace("tracker_app", cluster["app"])
-        for statement in filter(str.strip, sql.split(";")):
-            conn.execute(text(statement))
-    owner.close()
-
-    app = open_database(cluster["app_url"])  # the workstations' login
+    _run_readme(pg_server, names)
+    amira, tomas = _login(pg_server, names, "amira_h"), _login(pg_server, names, "tomas_h")
     try:
-        powder = make.powder(app, make.specimen(app, make.loan(app)), "2.000")
-        corrections.correct_weighing(
-            app,
-            "tech",
-            {
-                "item": powder,
-                "tare": "1000.000 mg",
-                "gross": "1002.020 mg",
-                "reason": "misread",
-            },
-        )
-        assert ledger.verify(app).ok
+        lender = loans.add_lender(amira, "amira", {"name": "Invented Museum"}).item.id
+        terms = {"permitted_tissues": ["enamel"], "max_total_mass": "40 mg", "due_on": "2030-01-01"}
+        loan = {"lender": lender, "reference": "IM-1", "title": "Teeth", "borrower": "A. Haddad"}
+        loans.add_loan(amira, "amira", {**loan, "received_on": "2026-01-02", "terms": terms})
+        spec = specimens.add_specimen(tomas, "tomas", {"loan": "IM-1", "catalog_number": "T-1"})
+        specimens.check_in(tomas, "tomas", {"specimen": spec.item.id, "condition": "complete"})
+        drill = {"specimen": spec.item.id, "tissue": "enamel", "tare": "1000.000 mg"}
+        powder = drilling.drill(tomas, "tomas", {**drill, "gross": "1002.000 mg"}).item.id
+        fix = {"item": powder, "tare": "1000.000 mg", "gross": "1002.020 mg", "reason": "misread"}
+        corrections.correct_weighing(tomas, "tomas", fix)
+        with tomas.read_session() as session:
+            who = session.execute(select(CustodyEvent.action, CustodyEvent.operator)).all()
+        assert ("powder.corrected", "tomas") in who and ("loan.added", "amira") in who
+        assert ("operator.login_bound", "amira") in who
+        assert ledger.verify(tomas).ok
         refusals = []
         for statement in REFUSED:
-            with pytest.raises(Exception) as caught, app.engine.begin() as conn:
+            with pytest.raises(Exception) as caught, tomas.engine.begin() as conn:
                 conn.execute(text(statement))
             refusals.append(str(caught.value).lower())
         # refused by privilege or ownership, not merely by the triggers behind them
         assert all("permission denied" in r or "must be owner" in r for r in refusals), refusals
-        assert ledger.verify(app).ok
+        assert ledger.verify(tomas).ok
     finally:
-        app.close()
+        amira.close()
+        tomas.close()

@@ -9,7 +9,6 @@ from __future__ import annotations
 
 import hashlib
 import io
-from collections.abc import Callable
 from typing import Any
 
 import pytest
@@ -17,12 +16,12 @@ from openpyxl import Workbook
 from PIL import Image
 
 from tests import factories as make
+from tests.conftest import Counts
 from tracker.db.database import Database
 from tracker.domain.errors import InputError, RuleViolation
 from tracker.services import custody, ledger, manifests, reports, shipments, specimens
 from tracker.services.reconcile import reconcile
 
-Counts = Callable[[], dict[str, int]]
 HEAD = "catalogNumber,scientificName,preparations,locality,eventDate,decimalLatitude,ageMaxMa"
 ROWS = [
     "INV 1,Lamniformes indet.,tooth,Brackwater Pit (invented),1991-05-02,-38.5,15.0",

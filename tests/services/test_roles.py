@@ -14,6 +14,7 @@ import pytest
 
 from tests import factories as make
 from tests import keys
+from tests.conftest import Counts
 from tracker.db.database import Database
 from tracker.domain.errors import RuleViolation
 from tracker.services import (
@@ -28,7 +29,6 @@ from tracker.services import (
     specimens,
 )
 
-Counts = Callable[[], dict[str, int]]
 REASON = "the lender agreed by letter of 2026-01-04"
 
 

@@ -17,7 +17,7 @@ from tracker.services.labels import read_scan
 def counted(db: Database) -> Iterator[list[str]]:
     statements: list[str] = []
 
-    def seen(_conn, _cursor, statement, *_args) -> None:  # type: ignore[no-untyped-def]
+    def seen(_conn: object, _cursor: object, statement: str, *_args: object) -> None:
         statements.append(statement)
 
     event.listen(db.engine, "before_cursor_execute", seen)

@@ -2,16 +2,14 @@
 
 from __future__ import annotations
 
-from collections.abc import Callable
-
 import pytest
 
 from tests import factories as make
+from tests.conftest import Counts
 from tracker.db.database import Database
 from tracker.domain.errors import InputError, RuleViolation
 from tracker.services import loans, setup, specimens
-
-Counts = Callable[[], dict[str, int]]
+from tracker.services.inputs import Raw
 
 
 def test_only_managers_add_operators(db: Database, counts: Counts) -> None:
@@ -78,7 +76,7 @@ def test_loan_records_original_terms(db: Database) -> None:
     ],
 )
 def test_inconsistent_terms_are_refused(
-    db: Database, counts: Counts, terms: dict[str, object], field: str, fragment: str
+    db: Database, counts: Counts, terms: Raw, field: str, fragment: str
 ) -> None:
     before = counts()
     with pytest.raises(InputError) as caught:

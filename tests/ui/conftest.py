@@ -12,7 +12,7 @@ from collections.abc import Callable, Iterator
 from dataclasses import dataclass
 from datetime import UTC, datetime
 from pathlib import Path
-from typing import Any
+from typing import Any, TypeVar
 
 import pytest
 from sqlalchemy import func, select
@@ -20,6 +20,7 @@ from textual import events
 from textual._time import get_time
 from textual.keys import _character_to_key
 from textual.pilot import Pilot
+from textual.screen import Screen
 from textual.widgets import Static
 
 from tracker.db.database import Database, open_database
@@ -139,6 +140,16 @@ def query(lab: Lab, statement: Any) -> list[Any]:
             return list(session.scalars(statement))
     finally:
         db.close()
+
+
+ScreenKind = TypeVar("ScreenKind", bound=Screen[Any])
+
+
+def screen_as(pilot: Pilot[None], kind: type[ScreenKind]) -> ScreenKind:
+    """The screen on top, which must be a ``kind``: the check is part of the test."""
+    screen = pilot.app.screen
+    assert isinstance(screen, kind), type(screen).__name__
+    return screen
 
 
 def text_of(widget: Static) -> str:

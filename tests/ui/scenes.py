@@ -7,7 +7,7 @@ from collections.abc import Awaitable, Callable
 from dataclasses import dataclass
 
 from textual.pilot import Pilot
-from textual.widgets import Input
+from textual.widgets import Input, TabbedContent
 
 from tests.ui.conftest import scan, settle, until
 from tracker.ui.screens.drill import DrillScreen
@@ -76,7 +76,7 @@ async def _session(pilot: Pilot[None]) -> None:
 
 async def _drift(pilot: Pilot[None]) -> None:
     await _session(pilot)
-    pilot.app.screen.query_one("#session-tabs").active = "tab-drift"  # type: ignore[attr-defined]
+    pilot.app.screen.query_one("#session-tabs", TabbedContent).active = "tab-drift"
     await settle(pilot)
 
 

@@ -27,8 +27,13 @@ def test_demo_no_open_prints_the_overview(tmp_path: Path) -> None:
 
 def test_on_a_terminal_the_interface_opens(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
     opened: list[tuple[str, str | None]] = []
+
+    def run_tui(target: str, operator: str | None) -> int:
+        opened.append((target, operator))
+        return 0
+
     monkeypatch.setattr(cmd_inspect, "interactive", lambda ctx: True)
-    monkeypatch.setattr("tracker.ui.run_tui", lambda target, who: opened.append((target, who)) or 0)
+    monkeypatch.setattr("tracker.ui.run_tui", run_tui)
     result = invoke("demo", "--out", str(tmp_path / "d.sqlite"), actor="ines")
     assert result.exit_code == 0
     assert opened == [(str(tmp_path / "d.sqlite"), "ines")]

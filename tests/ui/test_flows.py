@@ -3,11 +3,12 @@ the rows the services wrote and the ledger events that record them."""
 
 from __future__ import annotations
 
+import sqlite3
 from pathlib import Path
-from typing import Any
 
 from sqlalchemy import select
-from textual.widgets import Input, Static
+from textual.widget import Widget
+from textual.widgets import DataTable, Input, ProgressBar, Static
 
 from tests.ui.conftest import (
     Lab,
@@ -15,6 +16,7 @@ from tests.ui.conftest import (
     head,
     query,
     scan,
+    screen_as,
     settle,
     text_of,
     type_slowly,
@@ -36,7 +38,7 @@ from tracker.domain.models import (
     Specimen,
     SpecimenStatus,
 )
-from tracker.services import ledger
+from tracker.services import audit, ledger
 from tracker.ui.screens.batch import BatchScreen
 from tracker.ui.screens.checkin import CheckInScreen
 from tracker.ui.screens.drill import DrillScreen
@@ -48,7 +50,7 @@ from tracker.ui.screens.session import SessionScreen
 LOAN_BOX = format_id(Kind.LOCATION, 6)  # "Loan box A" in the demo scenario
 
 
-def set_field(screen: Any, name: str, value: str) -> None:
+def set_field(screen: Widget, name: str, value: str) -> None:
     screen.query_one(f"#f-{name}", Input).value = value
 
 
@@ -58,8 +60,7 @@ async def test_check_in_by_scan(lab: Lab) -> None:
         await settle(pilot)
         await pilot.press("c")
         await settle(pilot)
-        form = pilot.app.screen
-        assert isinstance(form, CheckInScreen)
+        form = screen_as(pilot, CheckInScreen)
         await scan(pilot, "sp00011s")  # lower case, no hyphens: as some scanners send it
         assert form.query_one("#f-specimen", Input).value == "sp00011s"
         assert "✓ SP-00011-S" in text_of(form.query_one("#field-specimen .field-hint", Static))
@@ -87,14 +88,15 @@ async def test_check_in_by_scan(lab: Lab) -> None:
 
 async def test_a_scan_anywhere_jumps_and_a_misread_one_is_refused_visibly(lab: Lab) -> None:
     start = head(lab)
-    async with lab.app().run_test(size=(80, 24)) as pilot:
+    app = lab.app()
+    async with app.run_test(size=(80, 24)) as pilot:
         await settle(pilot)
         await scan(pilot, "PW-00007-U")
         assert isinstance(pilot.app.screen, ItemScreen)
         assert pilot.app.screen.item_id == "PW-00007-U"
         await scan(pilot, "PW-00007-V")  # one character misread
         assert pilot.app.screen.item_id == "PW-00007-U"  # stayed put
-        assert pilot.app.status_line.startswith("✗ scan 'PW-00007-V': check character")
+        assert app.status_line.startswith("✗ scan 'PW-00007-V': check character")
         await type_slowly(pilot, "cd")  # a person's keys are not a scan: bindings still work
         assert isinstance(pilot.app.screen, CheckInScreen | DrillScreen)
     assert events_after(lab, start) == []
@@ -112,8 +114,7 @@ async def test_drill_refused_over_the_allowance_then_accepted_within(lab: Lab) -
         await settle(pilot)
         await pilot.press("d")
         await settle(pilot)
-        form = pilot.app.screen
-        assert isinstance(form, DrillScreen)
+        form = screen_as(pilot, DrillScreen)
         assert form.query_one("#f-override-reason", Input).disabled  # tomas is no manager
         await scan(pilot, "SP-00010-U")
         set_field(form, "tare", "1200.000 mg")
@@ -164,8 +165,8 @@ async def test_a_batch_built_by_scanning(lab: Lab) -> None:
         set_field(form, "elution-scheme", "load 3 M HNO3; elute Ca in 0.05 M HNO3")
         await pilot.press("ctrl+s")
         await settle(pilot)
-        screen = pilot.app.screen
-        assert isinstance(screen, BatchScreen) and screen.batch_id is not None
+        screen = screen_as(pilot, BatchScreen)
+        assert screen.batch_id is not None
         assert pilot.app.focused is screen.query_one("#f-aliquot", Input)
         await scan(pilot, "AQ-00002-D")
         assert pilot.app.focused is screen.query_one("#f-aliquot", Input)  # ready for the next
@@ -192,7 +193,7 @@ async def test_a_batch_built_by_scanning(lab: Lab) -> None:
         assert pilot.app.screen is screen
         first = screen.summary.positions[0]
         assert "low yield" in first.flags
-        assert "low yield" in str(screen.query_one("#positions").get_row_at(0)[-1])
+        assert "low yield" in str(screen.query_one("#positions", DataTable).get_row_at(0)[-1])
     (batch,) = query(lab, select(ColumnBatch).where(ColumnBatch.name == "Ca 2026-12 test"))
     positions = query(
         lab,
@@ -242,18 +243,17 @@ async def test_a_session_imported_and_reduced(lab: Lab, tmp_path: Path) -> None:
         set_field(form, "bracketing-standard", "SRM 915a")
         await pilot.press("ctrl+s")
         await settle(pilot)
-        screen = pilot.app.screen
-        assert isinstance(screen, SessionScreen)
+        screen = screen_as(pilot, SessionScreen)
         assert "not reduced yet" in text_of(screen.query_one("#session-head", Static))
-        unmatched = screen.query_one("#unmatched")
+        unmatched = screen.query_one("#unmatched", DataTable)
         assert unmatched.row_count == 1
         assert "rinse acid check" in str(unmatched.get_row_at(0))
         await pilot.press("r")
         await settle(pilot)
         assert "✓ reduced" in text_of(screen.query_one("#outcome", Static))
-        results = screen.query_one("#results")
-        assert results.row_count == 4  # the sample and SRM 915b, each for two ratios
-        rows = [str(results.get_row_at(i)) for i in range(results.row_count)]
+        table = screen.query_one("#results", DataTable)
+        assert table.row_count == 4  # the sample and SRM 915b, each for two ratios
+        rows = [str(table.get_row_at(i)) for i in range(table.row_count)]
         assert any("SRM 915b" in r and ("✓ pass" in r or "✗ FAIL" in r) for r in rows)
     (session,) = query(
         lab, select(InstrumentSession).where(InstrumentSession.name == "Ca test run")
@@ -279,10 +279,10 @@ async def test_labels_previewed_and_printed(lab: Lab) -> None:
         await settle(pilot)
         await pilot.press("f5")
         await settle(pilot)
-        screen = pilot.app.screen
-        assert isinstance(screen, LabelsScreen)
-        assert screen.query_one("#queue").row_count == len(queued)
-        screen.query_one("#queue").focus()
+        screen = screen_as(pilot, LabelsScreen)
+        queue = screen.query_one("#queue", DataTable)
+        assert queue.row_count == len(queued)
+        queue.focus()
         await pilot.press("v")
         await settle(pilot)
         sheet = text_of(screen.query_one("#sheet", Static))
@@ -292,7 +292,7 @@ async def test_labels_previewed_and_printed(lab: Lab) -> None:
         await settle(pilot)
         outcome = text_of(screen.query_one("#outcome", Static))
         assert outcome.startswith(f"✓ printed {len(queued)} label(s)")
-        assert screen.query_one("#queue").row_count == 0
+        assert queue.row_count == 0
     (job,) = query(lab, select(LabelJob))
     (event,) = events_after(lab, start)
     assert (event.action, event.object_ref) == ("labels.printed", job.public_id)
@@ -310,9 +310,8 @@ async def test_ledger_verified_with_its_head_hash(lab: Lab) -> None:
         await settle(pilot)
         await pilot.press("f6")
         await settle(pilot)
-        screen = pilot.app.screen
-        assert isinstance(screen, LedgerScreen)
-        assert screen.query_one("#events").row_count == expected.events
+        screen = screen_as(pilot, LedgerScreen)
+        assert screen.query_one("#events", DataTable).row_count == expected.events
         await pilot.press("v")
         await settle(pilot)
         result = text_of(screen.query_one("#verify-result", Static))
@@ -320,19 +319,44 @@ async def test_ledger_verified_with_its_head_hash(lab: Lab) -> None:
             f"✓ ledger intact: {expected.events} events · {expected.events} signed, every "
             f"signature valid · head #{expected.head_seq} {expected.head_hash}"
         )
-        assert screen.query_one("#verify-progress").percentage == 1.0
+        assert screen.query_one("#verify-progress", ProgressBar).percentage == 1.0
+
+
+async def test_ledger_screen_audits_the_books_in_a_worker(lab: Lab) -> None:
+    """`a` replays the ledger and holds every row against it, with the progress bar; a value
+    changed behind the ledger's back is named."""
+    db = lab.open()
+    expected = audit.audit(db)
+    db.close()
+    assert expected.ok
+    with sqlite3.connect(lab.db_path) as raw:
+        raw.execute("UPDATE powder SET mass_mg = 1.0 WHERE id = 1")
+    async with lab.app().run_test(size=(100, 30)) as pilot:
+        await settle(pilot)
+        await pilot.press("f6")
+        await settle(pilot)
+        screen = pilot.app.screen
+        assert isinstance(screen, LedgerScreen)
+        await pilot.press("a")
+        await settle(pilot)
+        result = text_of(screen.query_one("#verify-result", Static))
+        assert result.startswith("✗ books DIFFER from the ledger in 1 place(s): powder PW-00001-5")
+        assert "mass_mg is 1.0" in result
+        assert screen.query_one("#verify-progress", ProgressBar).percentage == 1.0
 
 
 async def test_operator_chosen_at_start_and_remembered(lab: Lab) -> None:
-    async with lab.app(None).run_test(size=(80, 24)) as pilot:
+    first = lab.app(None)
+    async with first.run_test(size=(80, 24)) as pilot:
         await settle(pilot)
         assert type(pilot.app.screen).__name__ == "OperatorScreen"
         await pilot.press("down", "down", "enter")  # ines, priya, tomas (by code): tomas
         await settle(pilot)
-        assert pilot.app.operator == "tomas"
-        assert "operator: tomas" in pilot.app.operator_label
-    async with lab.app(None).run_test(size=(80, 24)) as pilot:
+        assert first.operator == "tomas"
+        assert "operator: tomas" in first.operator_label
+    again = lab.app(None)
+    async with again.run_test(size=(80, 24)) as pilot:
         await settle(pilot)
         await pilot.press("enter")  # the remembered one is highlighted
         await settle(pilot)
-        assert pilot.app.operator == "tomas"
+        assert again.operator == "tomas"

@@ -3,9 +3,9 @@ open loans first, all loans on ``a``. Each checked against what the database hol
 
 from __future__ import annotations
 
-from typing import Any
-
 import pytest
+from textual.app import App
+from textual.coordinate import Coordinate
 from textual.widgets import DataTable
 
 from tests.ui.conftest import Lab, settle, until
@@ -22,12 +22,15 @@ def _expected(lab: Lab, *, open_only: bool) -> list[str]:
         db.close()
 
 
-def _rows(app: Any) -> list[str]:
+def _rows(app: App[None]) -> list[str]:
     table = app.screen.query_one("#loans", DataTable)
-    return [str(table.coordinate_to_cell_key((n, 0)).row_key.value) for n in range(table.row_count)]
+    return [
+        str(table.coordinate_to_cell_key(Coordinate(n, 0)).row_key.value)
+        for n in range(table.row_count)
+    ]
 
 
-def _overview_filled(app: Any) -> bool:
+def _overview_filled(app: App[None]) -> bool:
     return isinstance(app.screen, OverviewScreen) and bool(
         app.screen.query_one("#loans", DataTable).row_count
     )
@@ -54,13 +57,14 @@ async def test_the_overview_is_drawn_before_the_database_opens(
 async def test_open_loans_first_and_all_loans_on_a(lab: Lab) -> None:
     open_loans, all_loans = (_expected(lab, open_only=flag) for flag in (True, False))
     assert len(open_loans) < len(all_loans)  # the demo has a returned loan
-    async with lab.app().run_test(size=(100, 30)) as pilot:
-        await until(pilot, lambda: pilot.app.db is not None and _overview_filled(pilot.app))
+    app = lab.app()
+    async with app.run_test(size=(100, 30)) as pilot:
+        await until(pilot, lambda: app.db is not None and _overview_filled(app))
         await settle(pilot)
-        assert _rows(pilot.app) == open_loans
+        assert _rows(app) == open_loans
         await pilot.press("a")
-        await until(pilot, lambda: len(_rows(pilot.app)) == len(all_loans))
-        assert _rows(pilot.app) == all_loans  # the returned loan after the open ones
+        await until(pilot, lambda: len(_rows(app)) == len(all_loans))
+        assert _rows(app) == all_loans  # the returned loan after the open ones
         await pilot.press("a")
-        await until(pilot, lambda: len(_rows(pilot.app)) == len(open_loans))
-        assert _rows(pilot.app) == open_loans
+        await until(pilot, lambda: len(_rows(app)) == len(open_loans))
+        assert _rows(app) == open_loans

@@ -14,7 +14,16 @@ from textual.pilot import Pilot
 from textual.widgets import DataTable, Input, Static
 
 from tests.busy import held
-from tests.ui.conftest import Lab, events_after, head, query, settle, text_of, until
+from tests.ui.conftest import (
+    Lab,
+    events_after,
+    head,
+    query,
+    screen_as,
+    settle,
+    text_of,
+    until,
+)
 from tracker.domain.models import Loan, Specimen
 from tracker.services import reconcile
 from tracker.ui.screens.loan import LoanScreen
@@ -38,16 +47,29 @@ async def open_loan(pilot: Pilot[None], key: str) -> None:
     await settle(pilot)
 
 
+async def open_report(pilot: Pilot[None]) -> ReportScreen:
+    """The loan's return report, drawn."""
+    await open_loan(pilot, "R")
+    screen = screen_as(pilot, ReportScreen)
+    await until(pilot, lambda: screen.report is not None)
+    return screen
+
+
+async def open_manifest(pilot: Pilot[None], path: Path) -> ManifestScreen:
+    """The loan's manifest import, with ``path`` in its file field."""
+    await open_loan(pilot, "I")
+    screen = screen_as(pilot, ManifestScreen)
+    screen.query_one("#f-file", Input).value = str(path)
+    return screen
+
+
 async def test_the_report_shows_every_specimen_then_writes_a_recorded_pdf(lab: Lab) -> None:
     start = head(lab)
     db = lab.open()
     (expected,) = reconcile.reconcile(db, LOAN)
     db.close()
     async with lab.app().run_test(size=(120, 40)) as pilot:
-        await open_loan(pilot, "R")
-        screen = pilot.app.screen
-        assert isinstance(screen, ReportScreen)
-        await until(pilot, lambda: screen.report is not None)
+        screen = await open_report(pilot)
         table = screen.query_one("#report-specimens", DataTable)
         assert sorted(str(k.value) for k in table.rows) == sorted(
             s.public_id for s in loan_specimens(lab)
@@ -72,10 +94,7 @@ async def test_a_report_that_cannot_be_written_records_nothing(lab: Lab) -> None
     start = head(lab)
     lab.out.rmdir()  # the output folder is gone: the file cannot be written
     async with lab.app().run_test(size=(120, 40)) as pilot:
-        await open_loan(pilot, "R")
-        screen = pilot.app.screen
-        assert isinstance(screen, ReportScreen)
-        await until(pilot, lambda: screen.report is not None)
+        screen = await open_report(pilot)
         await pilot.press("ctrl+s")
         outcome = screen.query_one("#outcome", Static)
         await until(pilot, lambda: "✗" in text_of(outcome))
@@ -92,10 +111,7 @@ async def test_a_typed_name_that_exists_is_refused_in_words_and_another_is_writt
     taken = lab.out / "for-the-lender.pdf"
     taken.write_bytes(b"an earlier report the lender already has")
     async with lab.app().run_test(size=(120, 40)) as pilot:
-        await open_loan(pilot, "R")
-        screen = pilot.app.screen
-        assert isinstance(screen, ReportScreen)
-        await until(pilot, lambda: screen.report is not None)
+        screen = await open_report(pilot)
         name = screen.query_one("#report-file", Input)
         name.value = taken.name
         await pilot.press("ctrl+s")
@@ -126,10 +142,7 @@ async def test_a_typed_name_that_exists_is_refused_in_words_and_another_is_writt
 async def test_two_reports_written_from_the_screen_get_two_names(lab: Lab) -> None:
     start = head(lab)
     async with lab.app().run_test(size=(120, 40)) as pilot:
-        await open_loan(pilot, "R")
-        screen = pilot.app.screen
-        assert isinstance(screen, ReportScreen)
-        await until(pilot, lambda: screen.report is not None)
+        screen = await open_report(pilot)
         outcome = screen.query_one("#outcome", Static)
         for _ in range(2):
             await pilot.press("ctrl+s")
@@ -155,10 +168,7 @@ async def test_a_manifest_is_previewed_row_by_row_then_imported(lab: Lab, tmp_pa
     path = tmp_path / "kf-list.csv"
     path.write_text(MANIFEST)
     async with lab.app().run_test(size=(120, 36)) as pilot:
-        await open_loan(pilot, "I")
-        screen = pilot.app.screen
-        assert isinstance(screen, ManifestScreen)
-        screen.query_one("#f-file", Input).value = str(path)
+        screen = await open_manifest(pilot, path)
         await pilot.press("enter")  # the path field has focus
         await until(pilot, lambda: screen.preview_view is not None)
         preview = screen.preview_view
@@ -185,10 +195,7 @@ async def test_a_manifest_with_a_problem_is_refused_whole(lab: Lab, tmp_path: Pa
     path = tmp_path / "kf-bad.csv"
     path.write_text(MANIFEST + ",KFMNH,Lamniformes indet.,Ollen Brook pit (invented),tooth\n")
     async with lab.app().run_test(size=(120, 36)) as pilot:
-        await open_loan(pilot, "I")
-        screen = pilot.app.screen
-        assert isinstance(screen, ManifestScreen)
-        screen.query_one("#f-file", Input).value = str(path)
+        screen = await open_manifest(pilot, path)
         await pilot.press("ctrl+s")
         outcome = screen.query_one("#outcome", Static)
         await until(pilot, lambda: "✗" in text_of(outcome))
@@ -205,10 +212,7 @@ async def test_a_manifest_import_kept_waiting_by_another_writer_says_who_and_wri
     path = tmp_path / "kf-list.csv"
     path.write_text(MANIFEST)
     async with lab.app().run_test(size=(160, 36)) as pilot:
-        await open_loan(pilot, "I")
-        screen = pilot.app.screen
-        assert isinstance(screen, ManifestScreen)
-        screen.query_one("#f-file", Input).value = str(path)
+        screen = await open_manifest(pilot, path)
         outcome = screen.query_one("#outcome", Static)
         with held(str(lab.db_path), "tomas", "enter batch sheet"):
             await pilot.press("ctrl+s")

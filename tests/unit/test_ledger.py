@@ -108,10 +108,10 @@ def test_event_hash_formats_datetimes_in_utc() -> None:
 
 @pytest.mark.parametrize("index", range(1, 8))
 def test_line_feed_in_any_field_refused(index: int) -> None:
-    args = list(ARGS)
-    args[index] = str(args[index]) + "\nforged"
+    texts = list(ARGS[1:])  # every field after seq is text
+    texts[index - 1] += "\nforged"
     with pytest.raises(ValueError, match="line feed"):
-        canonical_bytes(*args)
+        canonical_bytes(ARGS[0], *texts)
 
 
 # ---------------------------------------------------------------- chain verification
@@ -140,6 +140,26 @@ def build_chain(n: int) -> list[LedgerRow]:
         )
         prev = digest
     return rows
+
+
+def stored_at(row: LedgerRow) -> str:
+    """The chains built here store ``at`` as ledger text, as the database reads it back."""
+    assert isinstance(row.at, str)
+    return row.at
+
+
+def reference_row_hash(row: LedgerRow) -> str:
+    """reference_hash over a row's stored fields (its own ``hash`` aside)."""
+    return reference_hash(
+        row.seq,
+        stored_at(row),
+        row.operator,
+        row.action,
+        row.object_ref,
+        row.parent_ref,
+        row.prev_hash,
+        row.payload,
+    )
 
 
 def test_intact_chain() -> None:
@@ -201,17 +221,8 @@ def test_swapped_and_renumbered_events() -> None:
     rows = build_chain(5)
     second, third = rows[1], rows[2]
     for seq, source in ((2, third), (3, second)):
-        fields = (
-            seq,
-            source.at,
-            source.operator,
-            source.action,
-            source.object_ref,
-            source.parent_ref,
-            source.prev_hash,
-            source.payload,
-        )
-        rows[seq - 1] = replace(source, seq=seq, hash=reference_hash(*fields))
+        moved = replace(source, seq=seq)
+        rows[seq - 1] = replace(moved, hash=reference_row_hash(moved))
     report = verify_chain(rows)
     assert not report.ok
     assert report.broken_seq == 2
@@ -219,19 +230,8 @@ def test_swapped_and_renumbered_events() -> None:
 
 def test_wrong_prev_hash() -> None:
     rows = build_chain(5)
-    row = rows[3]
-    forged_prev = "f" * 64
-    fields = (
-        row.seq,
-        row.at,
-        row.operator,
-        row.action,
-        row.object_ref,
-        row.parent_ref,
-        forged_prev,
-        row.payload,
-    )
-    rows[3] = replace(row, prev_hash=forged_prev, hash=reference_hash(*fields))
+    forged = replace(rows[3], prev_hash="f" * 64)
+    rows[3] = replace(forged, hash=reference_row_hash(forged))
     report = verify_chain(rows)
     assert not report.ok
     assert report.broken_seq == 4
@@ -291,7 +291,7 @@ def test_a_line_feed_inside_a_field_counts_as_altered_even_when_its_hash_fits() 
         (
             "tracker-ledger/1",
             "3",
-            forged.at,
+            stored_at(forged),
             "tech\nboss",
             forged.action,
             forged.object_ref,

@@ -8,12 +8,7 @@ from typing import Any
 
 from tracker.bench.bulk_ctx import Ctx
 from tracker.bench.bulk_material import Handler, _put
-from tracker.domain.budget import (
-    Amount,
-    element_mass_ug,
-    is_significant,
-    remaining,
-)
+from tracker.domain.budget import is_significant, remaining
 from tracker.domain.errors import InputError, NotFound, RuleViolation
 from tracker.domain.ids import Kind, looks_like_id, parse_id
 from tracker.domain.models import (
@@ -23,12 +18,13 @@ from tracker.domain.models import (
     Concentration,
     ContainerStatus,
     Cut,
+    LabelStatus,
     Powder,
     ReferenceMaterial,
     Solution,
 )
-from tracker.services.chemistry import AddPosition, NewBatch
-from tracker.services.columns import RecordCut
+from tracker.services.chemistry import AddPosition, NewBatch, batch_payload, position_payload
+from tracker.services.columns import RecordCut, cut_payload
 from tracker.services.common import weigh
 from tracker.services.inputs import parse
 from tracker.services.lab import (
@@ -36,12 +32,17 @@ from tracker.services.lab import (
     RecordConcentration,
     TakeAliquot,
     aliquot_element,
+    aliquot_payload,
+    concentration_payload,
     dissolved,
+    dissolved_payload,
     drilled,
     on_column_after,
     portion_to_dissolve,
     require_aliquot_fits,
 )
+
+QUEUED = LabelStatus.QUEUED.value  # what a bench action's payload says of its new label
 
 
 def dissolve(ctx: Ctx, args: dict[str, Any]) -> Solution:
@@ -53,7 +54,7 @@ def dissolve(ctx: Ctx, args: dict[str, Any]) -> Solution:
     left, taken = portion_to_dissolve(powder, request)
     if not is_significant(remaining(left, [taken])):
         powder.status = ContainerStatus.CONSUMED
-        ctx.writer.changed(powder)
+        ctx.changed(powder)
     grams = solution_mass.amount(scale=1e-3)
     solution = ctx.new(
         Solution(
@@ -71,19 +72,7 @@ def dissolve(ctx: Ctx, args: dict[str, Any]) -> Solution:
     )
     solution.powder = powder
     _put(solution, ctx.place(request.location))
-    payload = {
-        "powder": powder.public_id,
-        "powder_mass_mg": taken.value,
-        "powder_mass_u_mg": taken.u,
-        "acid": request.acid,
-        "vial_tare_mg": float(request.vial_tare),
-        "vial_gross_mg": float(request.vial_gross),
-        "readability_mg": float(request.readability),
-        "solution_mass_g": solution.solution_mass_g,
-        "solution_mass_u_g": solution.solution_mass_u_g,
-        "powder_status": powder.status.value,
-        "label": "queued",
-    }
+    payload = dissolved_payload(powder, solution, request, QUEUED)
     ctx.record("solution.dissolved", solution, payload, parent=powder, label=solution)
     return solution
 
@@ -101,22 +90,10 @@ def record_concentration(ctx: Ctx, args: dict[str, Any]) -> None:
         supersedes_id=None,
         created_at=ctx.now,
     )
-    row.id = ctx.state.take_id(Concentration)
     row.solution_id = solution.id
     row.solution = solution
-    ctx.writer.add(row)
-    element = element_mass_ug(
-        Amount(solution.solution_mass_g, solution.solution_mass_u_g),
-        Amount(row.value_ug_per_g, row.u_ug_per_g),
-    )
-    payload = {
-        "element": row.element,
-        "value_ug_per_g": row.value_ug_per_g,
-        "u_ug_per_g": row.u_ug_per_g,
-        "method": row.method,
-        "element_ug": element.value,
-        "element_u_ug": element.u,
-    }
+    ctx.new(row)
+    _, payload = concentration_payload(solution, row)
     ctx.record("concentration.recorded", solution, payload)
 
 
@@ -139,19 +116,7 @@ def take_aliquot(ctx: Ctx, args: dict[str, Any]) -> Aliquot:
     )
     aliquot.solution = solution
     _put(aliquot, ctx.place(request.location))
-    element = aliquot_element(aliquot)
-    payload = {
-        "solution": solution.public_id,
-        "mass_g": aliquot.mass_g,
-        "mass_u_g": aliquot.mass_u_g,
-        "tare_mg": float(request.tare),
-        "gross_mg": float(request.gross),
-        "readability_mg": float(request.readability),
-        "purpose": aliquot.purpose.value,
-        "element": element[0] if element else None,
-        "element_ug": element[1] if element else None,
-        "label": "queued",
-    }
+    payload = aliquot_payload(aliquot, request, aliquot_element(aliquot), QUEUED)
     ctx.record("aliquot.taken", aliquot, payload, parent=solution, label=aliquot)
     return aliquot
 
@@ -163,7 +128,7 @@ def create_batch(ctx: Ctx, args: dict[str, Any]) -> ColumnBatch:
     batch = ctx.new(
         ColumnBatch(**request.model_dump(), operator=ctx.operator.code, created_at=ctx.now)
     )
-    ctx.record("batch.created", batch, request.model_dump(mode="json"))
+    ctx.record("batch.created", batch, batch_payload(request))
     return batch
 
 
@@ -184,7 +149,7 @@ def add_position(ctx: Ctx, args: dict[str, Any]) -> BatchPosition:
         position.aliquot, position.aliquot_id = aliquot, aliquot.id
         position.loaded_ug, position.loaded_u_ug = element[1], element[2]
         aliquot.status = ContainerStatus.CONSUMED
-        ctx.writer.changed(aliquot)
+        ctx.changed(aliquot)
         holds = aliquot.public_id
     if request.reference_material:
         material = _reference(ctx, request.reference_material)
@@ -193,15 +158,7 @@ def add_position(ctx: Ctx, args: dict[str, Any]) -> BatchPosition:
         holds = material.name
     ctx.new(position)
     position.batch = batch
-    payload = {
-        "batch": batch.public_id,
-        "slot": slot,
-        "kind": request.kind.value,
-        "holds": holds,
-        "loaded_ug": position.loaded_ug,
-        "loaded_u_ug": position.loaded_u_ug,
-        "label": "queued",
-    }
+    payload = position_payload(batch, position, request, holds, QUEUED)
     ctx.record("batch.position_added", position, payload, parent=batch, label=position)
     return position
 
@@ -240,14 +197,7 @@ def record_cut(ctx: Ctx, args: dict[str, Any]) -> Cut:
     )
     cut.position = position
     _put(cut, location)
-    payload = {
-        "position": position.public_id,
-        "batch": batch.public_id,
-        "cut": cut.name,
-        "recovered_ug": cut.recovered_ug,
-        "recovered_u_ug": cut.recovered_u_ug,
-        "label": "queued",
-    }
+    payload = cut_payload(position, cut, QUEUED)
     ctx.record("cut.recorded", cut, payload, parent=position, label=cut)
     return cut
 

@@ -21,6 +21,7 @@ from tracker.domain.models import (
     Aliquot,
     ContainerStatus,
     Cut,
+    LabelStatus,
     Loan,
     LoanStatus,
     Location,
@@ -37,10 +38,25 @@ from tracker.services.common import (
     returned_after,
     weigh,
 )
-from tracker.services.custody import Dispose, Move, residual_weighing
+from tracker.services.custody import (
+    Dispose,
+    Move,
+    disposed_payload,
+    final_status,
+    moved_payload,
+    require_here,
+    residual_weighing,
+)
 from tracker.services.drilling import Drill, drilled_payload, limits_of, recorded_on
 from tracker.services.inputs import parse
-from tracker.services.specimens import CheckIn, NewSpecimen, ReturnSpecimen
+from tracker.services.specimens import (
+    CheckIn,
+    NewSpecimen,
+    ReturnSpecimen,
+    added_payload,
+    checked_in_payload,
+    returned_payload,
+)
 
 Handler = Callable[[Ctx, dict[str, Any]], Any]
 MOVABLE = (Specimen, Powder, Solution, Aliquot, Cut)
@@ -60,7 +76,7 @@ def add_specimen(ctx: Ctx, args: dict[str, Any]) -> Specimen:
         Specimen(loan_id=loan.id, **fields, status=SpecimenStatus.EXPECTED, created_at=ctx.now)
     )
     specimen.loan = loan
-    ctx.record("specimen.added", specimen, {"loan": loan.public_id, **fields}, parent=loan)
+    ctx.record("specimen.added", specimen, added_payload(loan, fields), parent=loan)
     return specimen
 
 
@@ -78,14 +94,8 @@ def check_in(ctx: Ctx, args: dict[str, Any]) -> None:
     specimen.status = SpecimenStatus.ON_HAND
     specimen.condition_in = request.condition
     _put(specimen, location)
-    ctx.writer.changed(specimen)
-    payload = {
-        "condition": request.condition,
-        "location": location.public_id if location else None,
-        "location_path": location.path if location else None,
-        "received_at": specimen.received_at.isoformat(),
-        "label": "queued",
-    }
+    ctx.changed(specimen)
+    payload = checked_in_payload(specimen, request, location, LabelStatus.QUEUED.value)
     ctx.record("specimen.checked_in", specimen, payload, parent=specimen.loan, label=specimen)
 
 
@@ -100,54 +110,36 @@ def return_specimen(ctx: Ctx, args: dict[str, Any]) -> None:
     specimen.condition_out = request.condition
     previous = specimen.location.path if specimen.location else None
     _put(specimen, None)
-    ctx.writer.changed(specimen)
-    payload = {
-        "condition": request.condition,
-        "note": request.note,
-        "from": previous,
-        "returned_at": specimen.returned_at.isoformat(),
-        "shipment": None,
-    }
+    ctx.changed(specimen)
+    payload = returned_payload(specimen, request, previous, None)
     ctx.record("specimen.returned", specimen, payload, parent=specimen.loan)
 
 
 def move(ctx: Ctx, args: dict[str, Any]) -> None:
     request = parse(Move, args)
     item = ctx.state.get_any("item", request.item, MOVABLE)
-    _require_here(item)
+    require_here(item)
     target = ctx.state.get(Location, "to", request.to)
     if item.location_id == target.id:
         raise RuleViolation("to", target.public_id, f"{item.public_id} is already there")
     before = item.location.path if item.location else None
     _put(item, target)
-    ctx.writer.changed(item)
-    payload = {"from": before, "to": target.path, "to_id": target.public_id, "note": request.note}
-    ctx.record("item.moved", item, payload, parent=target)
+    ctx.changed(item)
+    ctx.record("item.moved", item, moved_payload(before, target, request), parent=target)
 
 
 def dispose(ctx: Ctx, args: dict[str, Any]) -> None:
     request = parse(Dispose, args)
     item = ctx.state.get_any("item", request.item, (Powder, Solution, Aliquot, Cut))
-    _require_here(item)
-    outcome = ContainerStatus(request.outcome)
-    if outcome is ContainerStatus.RETAINED and not request.permission:
-        raise RuleViolation(
-            "permission", None, "retaining lent material needs the lender's written permission"
-        )
+    require_here(item)
+    outcome = final_status(request)
     residual = residual_weighing(request, item, outcome)  # the service's own rule
     _no_shipment(request.shipment)
     before = item.location.path if item.location else None
     item.status = outcome
     _put(item, None)
-    ctx.writer.changed(item)
-    payload = {
-        "outcome": outcome.value,
-        "reason": request.reason,
-        "permission": request.permission,
-        "from": before,
-        "residual": residual,
-        "shipment": None,
-    }
+    ctx.changed(item)
+    payload = disposed_payload(request, outcome, before, residual, None)
     ctx.record(f"{type(item).__name__.lower()}.{outcome.value}", item, payload)
 
 
@@ -189,7 +181,7 @@ def drill(ctx: Ctx, args: dict[str, Any]) -> Powder:
     powder.specimen = specimen
     _put(powder, location)
     payload = drilled_payload(powder, specimen, material, terms.version, request, violations)
-    payload["label"] = "queued"
+    payload["label"] = LabelStatus.QUEUED.value
     ctx.record("powder.drilled", powder, payload, parent=specimen, label=powder)
     return powder
 
@@ -232,16 +224,6 @@ def _put(item: Any, location: Location | None) -> None:
 def _no_shipment(shipment: str | None) -> None:
     if shipment is not None:
         raise InputError("shipment", shipment, "the bulk executor carries no shipments")
-
-
-def _require_here(item: Any) -> None:
-    """Like ``custody._require_here``."""
-    if isinstance(item, Specimen):
-        if item.status is not SpecimenStatus.ON_HAND:
-            state = item.status.value.replace("_", " ")
-            raise RuleViolation("item", item.public_id, f"is {state}, not in the lab")
-    elif item.status not in (ContainerStatus.AVAILABLE, ContainerStatus.RETAINED):
-        raise RuleViolation("item", item.public_id, f"is {item.status.value}, not in the lab")
 
 
 HANDLERS: dict[str, Handler] = {

@@ -2,8 +2,9 @@
 
 The bulk executor keeps the lab as transient ORM objects (never added to a session), so it
 can use the same models, defaults and service helpers as the services. The writer turns
-them into rows — column by column, with the model's own defaults for what was never set —
-and writes them with SQLAlchemy Core ``insert()``/``update()`` executemany through the
+them into rows with :func:`tracker.domain.facts.values_of` — column by column, with the
+model's own defaults for what was never set, the values the event's facts state — and
+writes them with SQLAlchemy Core ``insert()``/``update()`` executemany through the
 models' own tables, so every value passes through the same column types (UTC timestamps,
 JSON, enums) as an ORM flush would send it.
 
@@ -14,8 +15,6 @@ database always holds exactly what the services would have written up to that st
 
 from __future__ import annotations
 
-from collections.abc import Callable
-from dataclasses import dataclass
 from typing import Any
 
 from sqlalchemy import Table, bindparam, insert, inspect, update
@@ -24,34 +23,7 @@ from sqlalchemy.engine import Connection
 from tracker.db.database import Database
 from tracker.db.engine import writer
 from tracker.domain.base import Base
-
-_UNSET = object()
-
-
-@dataclass(frozen=True)
-class _Column:
-    attr: str
-    key: str
-    default: Callable[[], Any] | None
-
-
-def _columns(model: type[Base]) -> tuple[Table, list[_Column]]:
-    mapper = inspect(model)
-    table = mapper.local_table
-    assert isinstance(table, Table)
-    found = []
-    for prop in mapper.column_attrs:
-        column = prop.columns[0]
-        default = column.default
-        make: Callable[[], Any] | None = None
-        if default is not None and default.is_callable:
-            arg = default.arg
-            make = lambda arg=arg: arg(None)  # noqa: E731
-        elif default is not None and default.is_scalar:
-            value = default.arg
-            make = lambda value=value: value  # noqa: E731
-        found.append(_Column(prop.key, column.key, make))
-    return table, found
+from tracker.domain.facts import values_of
 
 
 class BulkWriter:
@@ -59,30 +31,30 @@ class BulkWriter:
 
     def __init__(self, db: Database) -> None:
         self.db = db
-        self._layout: dict[type[Base], tuple[Table, list[_Column]]] = {}
+        self._tables: dict[type[Base], Table] = {}
         self._pending: dict[Table, list[Any]] = {}
         self._written: dict[Table, int] = {}  # highest id written per table
         self._dirty: dict[Table, dict[int, Base]] = {}
         self._order = list(Base.metadata.sorted_tables)  # parents before children
 
-    def _table(self, model: type[Base]) -> tuple[Table, list[_Column]]:
-        if model not in self._layout:
-            self._layout[model] = _columns(model)
-        return self._layout[model]
+    def _table(self, model: type[Base]) -> Table:
+        if model not in self._tables:
+            table = inspect(model).local_table
+            assert isinstance(table, Table)
+            self._tables[model] = table
+        return self._tables[model]
 
     def add(self, obj: Base) -> None:
         """A new row: written at the next flush with its values at that moment."""
-        table, _ = self._table(type(obj))
-        self._pending.setdefault(table, []).append(obj)
+        self._pending.setdefault(self._table(type(obj)), []).append(obj)
 
     def add_row(self, model: type[Base], row: dict[str, Any]) -> None:
         """A new row that never changes (ledger events, labels), given as column values."""
-        table, _ = self._table(model)
-        self._pending.setdefault(table, []).append(row)
+        self._pending.setdefault(self._table(model), []).append(row)
 
     def changed(self, obj: Base) -> None:
         """``obj`` changed; if its row is already written, rewrite it at the next flush."""
-        table, _ = self._table(type(obj))
+        table = self._table(type(obj))
         key = obj.id  # type: ignore[attr-defined]
         if key <= self._written.get(table, 0):
             self._dirty.setdefault(table, {})[key] = obj
@@ -104,17 +76,7 @@ class BulkWriter:
         self._dirty = {}
 
     def _row(self, obj: Any) -> dict[str, Any]:
-        if isinstance(obj, dict):
-            return obj
-        _, columns = self._table(type(obj))
-        state = obj.__dict__
-        row = {}
-        for column in columns:
-            value = state.get(column.attr, _UNSET)
-            if value is _UNSET:
-                value = column.default() if column.default else None
-            row[column.key] = value
-        return row
+        return obj if isinstance(obj, dict) else values_of(obj)
 
     def _insert(self, connection: Connection, table: Table, objs: list[Any]) -> None:
         rows = [self._row(obj) for obj in objs]

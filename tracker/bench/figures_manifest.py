@@ -2,13 +2,16 @@
 
 Both write into a working copy of the scale's database, each into a loan of its own made
 for the purpose. The floor reads the same CSV with the ``csv`` module and inserts the same
-column values with ``sqlite3`` ``executemany``: no checks, no preview, no event. Afterwards
+column values with ``sqlite3`` ``executemany``, and states them as one JSON document hashed
+with ``hashlib`` (the import's ledger event states every row it made): no checks, no
+preview, no chain. Afterwards
 the two loans must hold the same specimen rows, column for column.
 """
 
 from __future__ import annotations
 
 import csv
+import hashlib
 import io
 import json
 import random
@@ -81,11 +84,21 @@ def _floor(path: Path, loan_id: int, content: bytes, created: str) -> None:
             values.append((float(text) if text else None) if term.startswith("age") else text)
         extra = {EXTRA: record[EXTRA].strip()} if record[EXTRA].strip() else {}
         rows.append((*values, json.dumps(extra), "expected", created))
-    names = ", ".join(["loan_id", *COLUMNS.values(), "extra", "status", "created_at"])
+    columns = ["loan_id", *COLUMNS.values(), "extra", "status", "created_at"]
+    names = ", ".join(columns)
     marks = ", ".join("?" * (len(COLUMNS) + 4))
+    # the rows stated as one JSON document and hashed, as the import's ledger event states them
+    stated = json.dumps(
+        {n: dict(zip(columns, row, strict=True)) for n, row in enumerate(rows)},
+        sort_keys=True,
+        separators=(",", ":"),
+    )
+    digest = hashlib.sha256(stated.encode("utf-8")).hexdigest()
     connection = sqlite3.connect(path)
     with connection:
         connection.executemany(f"INSERT INTO specimen ({names}) VALUES ({marks})", rows)
+        connection.execute("CREATE TEMP TABLE IF NOT EXISTS stated (payload TEXT, hash TEXT)")
+        connection.execute("INSERT INTO stated VALUES (?, ?)", (stated, digest))
     connection.close()
 
 
@@ -123,7 +136,7 @@ def manifest_figure(cached: Path, workdir: Path, repeat: int) -> Figure:
         "s",
         best,
         bare,
-        "csv module + raw sqlite3 executemany",
+        "csv module + raw sqlite3 executemany + the rows as one hashed JSON document",
         Target(ratio_most=3.0),
     )
     _same_rows(figure, work, *made[0])

@@ -15,7 +15,13 @@ from dataclasses import asdict, dataclass, field
 from pathlib import Path
 from typing import Any, Literal
 
-from tracker.bench import figures_ledger, figures_manifest, figures_read, figures_ui
+from tracker.bench import (
+    figures_audit,
+    figures_ledger,
+    figures_manifest,
+    figures_read,
+    figures_ui,
+)
 from tracker.bench.generate import Built, cached_apart
 from tracker.bench.measure import Figure, machine, settle_writes
 from tracker.bench.plan import bench_keyring
@@ -29,6 +35,7 @@ SQLITE_FIGURES = (
     "reconcile",
     "verify",
     "signing",
+    "audit",
     "manifest",
     "lookup",
     "lineage",
@@ -157,6 +164,7 @@ def _sqlite(options: Options, scale: float, report: Report) -> None:
         "reconcile": lambda: [figures_read.reconcile_figure(db, options.repeat)],
         "verify": lambda: figures_ledger.verify_figures(built.target, options.repeat),
         "signing": lambda: [figures_ledger.signing_figure(db, options.repeat)],
+        "audit": lambda: figures_audit.audit_figures(built.target, options.repeat),
         "manifest": lambda: _manifest(built, options),
         "lookup": lambda: [figures_read.lookup_figure(db)],
         "lineage": lambda: [figures_read.lineage_figure(db)],

@@ -13,7 +13,7 @@ import random
 from dataclasses import dataclass
 from datetime import UTC, datetime, timedelta
 
-GENERATOR_VERSION = 1  # bump whenever the plan changes: cached databases are keyed by it
+GENERATOR_VERSION = 2  # bump whenever the plan or what it writes changes: caches are keyed by it
 SEED = 20_160_104
 START = datetime(2015, 1, 5, 8, 0, tzinfo=UTC)
 DECADE = timedelta(days=3652)

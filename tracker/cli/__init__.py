@@ -17,6 +17,7 @@ from tracker.cli import (
     cmd_labels,
     cmd_ledger,
     cmd_loans,
+    cmd_logins,
     cmd_reports,
     cmd_setup,
 )
@@ -127,6 +128,9 @@ def _register() -> None:
     app.add_typer(cmd_labels.labels_app, name="labels")
     app.add_typer(cmd_ledger.ledger_app, name="ledger")
     app.add_typer(cmd_correct.correct_app, name="correct")
+    db = cmd_setup.db_app.command
+    db("workstation-grants", epilog=cmd_logins.GRANTS_EPILOG)(cmd_logins.workstation_grants)
+    db("add-login", epilog=cmd_logins.ADD_LOGIN_EPILOG)(cmd_logins.add_login)
     app.add_typer(cmd_setup.db_app, name="db")
     bench = cmd_bench.bench_app.command
     bench("generate", epilog=cmd_bench.GENERATE_EPILOG)(cmd_bench.generate)

@@ -5,11 +5,17 @@ from pathlib import Path
 from typing import Annotated, Any
 
 import typer
+from rich.console import Group
+from rich.text import Text
 
+from tracker.cli.out_options import Despite
+from tracker.cli.progress import progress_bar
 from tracker.cli.render import done, plain_table, plan_table, reconcile_tables
-from tracker.cli.state import database, emit, perform, read_upload
+from tracker.cli.state import database, emit, errors, perform, read_upload, state
 from tracker.domain.models import Disposition, TermsKind
-from tracker.services import amendments, materials, planning, reconcile
+from tracker.services import amendments, audit, materials, planning, reconcile
+from tracker.services.audit import AuditReport
+from tracker.services.audit_scope import audit_loan
 
 Opt = typer.Option
 
@@ -185,11 +191,34 @@ PLAN_EPILOG = "Example: tracker plan KF-2026-014 --ug 2 --replicates 4 --yield 0
 def reconcile_command(
     ctx: typer.Context,
     loan: Annotated[str | None, Opt("--loan", help="Only this loan (ID or reference).")] = None,
+    despite: Despite = False,
 ) -> None:
-    """Per loan and specimen: permitted, drilled, dissolved, powder left, returned, flags."""
-    with database(ctx) as db:
+    """Per loan and specimen: permitted, drilled, dissolved, powder left, returned, flags.
+
+    The books are audited against the ledger first (the loan's rows with --loan, else the
+    whole lab's, which replays the whole ledger) and the verdict printed beside the
+    chain's; books that differ are refused unless --despite-discrepancies.
+    """
+    with database(ctx) as db, progress_bar(ctx, "auditing the books") as progress:
+        checked = audit_loan(db, loan) if loan else audit.audit(db, progress)
+        where = ("--loan", loan) if loan else ("--db", db.url)
+        found = checked.vouch(*where, despite=despite)
         lines = reconcile.reconcile(db, loan)
-    emit(ctx, lines, lambda: reconcile_tables(lines))
+    said = [_verdicts(checked), *(f"  {d.said}" for d in found)]
+    if state(ctx).as_json:  # the document stays the lines alone; the verdicts go to stderr
+        errors.print("\n".join(said), soft_wrap=True)
+    emit(ctx, lines, lambda: Group(reconcile_tables(lines), Text("\n".join(said))))
+
+
+def _verdicts(checked: AuditReport) -> str:
+    """The chain's verdict beside the books': "intact" only when both hold."""
+    chain = checked.chain
+    if not chain.ok:
+        return f"ledger BROKEN at event #{chain.broken_seq}: {chain.reason}"
+    head = f"{chain.events:,} events, head #{chain.head_seq}"
+    if checked.discrepancies:
+        return f"ledger hashes unbroken ({head}), but {checked.verdict()}"
+    return f"ledger intact: {head}; {checked.verdict()}"
 
 
 RECONCILE_EPILOG = "Example: tracker reconcile --loan MDGC/LN/0457"

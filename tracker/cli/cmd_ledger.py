@@ -9,11 +9,13 @@ from typing import Annotated, Any
 import typer
 
 from tracker.cli.out_options import Force, kept_as, kept_note
+from tracker.cli.progress import progress_bar
 from tracker.cli.render import history_table
 from tracker.cli.state import database, emit, errors, state, writing
 from tracker.domain.anchors import AnchorCheck
 from tracker.domain.ledger import VerifyReport
-from tracker.services import ledger
+from tracker.services import audit, ledger
+from tracker.services.audit import AuditReport
 
 ledger_app = typer.Typer(
     epilog="Example: tracker ledger verify --anchor head-2026-11-30.json",
@@ -95,6 +97,35 @@ def ledger_verify(
     emit(ctx, answer, lambda: _verify_text(report, check))
     if not report.ok or (check is not None and not check.ok):
         raise typer.Exit(1)
+
+
+@ledger_app.command("audit", epilog="Example: tracker ledger audit --json > audit.json")
+def ledger_audit(ctx: typer.Context) -> None:
+    """Replay the ledger and hold every row against it (exit 1 on any difference).
+
+    Names each value changed without an event, each row no event made and each row an
+    event made that is gone: table, ID, field, the ledger's value and the stored value.
+    For events recorded before events stated their rows' facts, says what could not be
+    checked and from which event on everything is.
+    """
+    with database(ctx) as db, progress_bar(ctx, "auditing the books") as progress:
+        report = audit.audit(db, progress)
+    emit(ctx, report.as_dict(), lambda: _audit_text(report))
+    if not report.ok:
+        raise typer.Exit(1)
+
+
+def _audit_text(report: AuditReport) -> str:
+    found = report.discrepancies
+    if found:
+        lines = [f"books DIFFER from the ledger in {len(found):,} place(s):"]
+        lines += [f"  {d.one_line()}" for d in found]
+    else:
+        lines = [report.verdict()]
+    statement = report.coverage.statement()
+    if statement is not None:
+        lines.append(f"not checked: {statement}")
+    return "\n".join(lines)
 
 
 @ledger_app.command(

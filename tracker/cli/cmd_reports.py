@@ -9,7 +9,7 @@ from typing import Annotated, Any
 
 import typer
 
-from tracker.cli.out_options import Force, kept_as, kept_note
+from tracker.cli.out_options import Despite, Force, kept_as, kept_note
 from tracker.cli.render import done, plain_table
 from tracker.cli.state import database, emit, errors, perform, read_upload, state, writing
 from tracker.db import outputs
@@ -57,13 +57,24 @@ def report_return(
         Opt("--out", help="New file to write; default <loan>-return-report-event-<n>.<format>."),
     ] = None,
     force: Force = False,
+    despite: Despite = False,
 ) -> None:
     """The lender's return report: terms, every specimen's account, results, ledger head.
 
-    Its anchor file is signed by your key, so the report is written by a manager."""
+    Refused when the loan's books differ from the ledger (`tracker ledger audit`);
+    --despite-discrepancies writes it anyway, every discrepancy listed on its first page.
+    Its anchor file is signed by your key, so the report is written by a manager.
+    """
     with writing(ctx) as db:
         written = report_files.write_return_report(
-            db, state(ctx).actor, loan, fmt, out, Path.cwd(), force=force
+            db,
+            state(ctx).actor,
+            loan,
+            fmt,
+            out,
+            Path.cwd(),
+            force=force,
+            despite_discrepancies=despite,
         )
     record = written.record
     emit(ctx, record, lambda: done(record, f"{written.target} (sha256 {written.sha256[:16]}…)"))
@@ -192,7 +203,7 @@ def _write_export(
 
 
 def _export_rows(
-    ctx: typer.Context, reader: Any, loan: str, out: Path, noun: str, force: bool
+    ctx: typer.Context, reader: Any, loan: str, out: Path, noun: str, force: bool, despite: bool
 ) -> None:
     """Read rows through one export service and write them as CSV or XLSX."""
     from tracker.output import tabular
@@ -200,7 +211,7 @@ def _export_rows(
     counted: list[int] = []
 
     def build(db: Any) -> bytes:
-        columns, rows = reader(db, loan)
+        columns, rows = reader(db, loan, despite)
         counted.append(len(rows))
         if out.suffix.lower() == ".xlsx":
             return tabular.xlsx_bytes(columns, rows, noun)
@@ -230,9 +241,11 @@ def export_specimens(
     loan: Annotated[str, Opt("--loan", help="Loan ID or reference.")],
     out: OutTable,
     force: Force = False,
+    despite: Despite = False,
 ) -> None:
-    """Specimens with Darwin Core headings."""
-    _export_rows(ctx, exports.specimen_rows, loan, out, "specimens", force)
+    """Specimens with Darwin Core headings (refused when the loan's books differ from the
+    ledger, unless --despite-discrepancies: then listing them first)."""
+    _export_rows(ctx, exports.specimen_rows, loan, out, "specimens", force, despite)
 
 
 @export_app.command(
@@ -244,9 +257,11 @@ def export_measurements(
     loan: Annotated[str, Opt("--loan", help="Loan ID or reference.")],
     out: OutTable,
     force: Force = False,
+    despite: Despite = False,
 ) -> None:
-    """Drilled masses and results as Darwin Core measurement rows."""
-    _export_rows(ctx, exports.measurement_rows, loan, out, "measurements", force)
+    """Drilled masses and results as Darwin Core measurement rows (refused when the loan's
+    books differ from the ledger, unless --despite-discrepancies: then listing them first)."""
+    _export_rows(ctx, exports.measurement_rows, loan, out, "measurements", force, despite)
 
 
 @export_app.command("loan", epilog="Example: tracker export loan KF-2026-014 --out loan.json")
@@ -255,11 +270,12 @@ def export_loan(
     loan: Annotated[str, typer.Argument(help="Loan ID or reference.")],
     out: Annotated[Path, Opt("--out", help="New JSON file.")],
     force: Force = False,
+    despite: Despite = False,
 ) -> None:
     """The whole loan as JSON: the return report's content and every specimen's lineage."""
 
     def build(db: Any) -> bytes:
-        document = exports.loan_document(db, loan)
+        document = exports.loan_document(db, loan, despite)
         return (json.dumps(document, indent=2, ensure_ascii=False) + "\n").encode()
 
     written = _write_export(ctx, out, force, build)

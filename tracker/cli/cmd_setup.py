@@ -28,7 +28,9 @@ location_app = typer.Typer(
     no_args_is_help=True,
 )
 db_app = typer.Typer(
-    epilog="Example: tracker db upgrade", help="Database schema maintenance.", no_args_is_help=True
+    epilog="Example: tracker db upgrade",
+    help="Database schema maintenance; logins on a shared database.",
+    no_args_is_help=True,
 )
 
 
@@ -149,9 +151,11 @@ def operator_list(ctx: typer.Context) -> None:
         rows = setup.list_operators(db)
 
     def table() -> Table:
-        t = plain_table("code", "name", "role", "active")
+        logins = any(o.login for o in rows)  # shared databases: each person's own login
+        t = plain_table("code", "name", "role", "active", *(["login"] if logins else []))
         for o in rows:
-            t.add_row(o.code, o.name, o.role, "yes" if o.active else "no")
+            login = [o.login or "none"] if logins else []
+            t.add_row(o.code, o.name, o.role, "yes" if o.active else "no", *login)
         return t
 
     emit(ctx, rows, table)

@@ -1,4 +1,5 @@
-"""What every command that writes a file shares: its ``--force`` option and what it says.
+"""What every command that writes a file shares: its ``--force`` option and what it says,
+and ``--despite-discrepancies`` for the reports and exports that vouch for a loan's books.
 
 The rules themselves (never the database, never over a file unless forced, published
 whole) live in :mod:`tracker.db.outputs`; this only spells them for the command line.
@@ -15,6 +16,16 @@ Force = Annotated[
         "--force",
         help="Replace an existing output file; the old one is kept beside it as "
         "<name>.replaced-<UTC time>. The database and its backups are never replaced.",
+    ),
+]
+
+
+Despite = Annotated[
+    bool,
+    typer.Option(
+        "--despite-discrepancies",
+        help="Write it even though the loan's books differ from the ledger "
+        "(`tracker ledger audit`); every discrepancy is then listed first in what is written.",
     ),
 ]
 

@@ -21,6 +21,7 @@ REVISIONS: tuple[str, ...] = (
     "0007_reliability",
     "0008_backdating",
     "0009_signing",
+    "0010_logins",
 )
 HEAD = REVISIONS[-1]
 MIGRATIONS_DIR = Path(__file__).with_name("migrations")

@@ -45,7 +45,7 @@ from __future__ import annotations
 
 import hashlib
 import json
-from collections.abc import Iterable
+from collections.abc import Callable, Iterable
 from dataclasses import dataclass
 from datetime import datetime
 from typing import Any
@@ -62,10 +62,19 @@ GENESIS_HASH = "0" * 64
 EMPTY = "the ledger holds no events, not even the first one `tracker init` records"
 
 
-def canonical_json(payload: Any) -> str:
-    """JSON with sorted keys and no insignificant white space; NaN and Infinity refused."""
+def canonical_json(payload: Any, default: Callable[[Any], Any] | None = None) -> str:
+    """JSON with sorted keys and no insignificant white space; NaN and Infinity refused.
+
+    ``default`` turns an object JSON has no form for into one it has (``facts.expanded``:
+    a row kept small until written); what it returns is written by the same rules.
+    """
     return json.dumps(
-        payload, sort_keys=True, separators=(",", ":"), ensure_ascii=False, allow_nan=False
+        payload,
+        sort_keys=True,
+        separators=(",", ":"),
+        ensure_ascii=False,
+        allow_nan=False,
+        default=default,
     )
 
 

@@ -200,28 +200,35 @@ def build_demo(out: Path, scenario: Path | None = None) -> int:
     """
     _refuse_existing(out)
     outputs.check_target(out, "out", forceable=False)
+    building = outputs.temp_path(out.parent, out.name)
+    try:
+        steps = run_scenario(building, scenario)
+        fold_log(building)  # the file alone must hold every row before it gets its name
+        outputs.publish(building, out, "out", forceable=False)
+        leave_key_files(demo_operators(load_scenario(scenario)))
+    finally:
+        outputs.discard(*(Path(f"{building}{suffix}") for suffix in ("", *outputs.SIDE_SUFFIXES)))
+    return steps
+
+
+def run_scenario(target: str | Path, scenario: Path | None = None) -> int:
+    """Open a new database at ``target`` (a file or an empty PostgreSQL database) and run
+    the scenario's steps through the services; returns the number of steps."""
     data = load_scenario(scenario)
     steps = sorted(data["steps"], key=lambda s: _aware(s["at"]))  # stable: file order on ties
-    building = outputs.temp_path(out.parent, out.name)
     founder = data["founder"]
     clock = StepClock(_aware(founder["at"]))
     first = {"code": founder["code"], "name": founder["name"]}
     keyring = demo_keyring(demo_operators(data))
+    db = setup.init_database(
+        target, first, clock, signer=demo_signer(founder["code"]), keyring=keyring
+    )
     try:
-        db = setup.init_database(
-            building, first, clock, signer=demo_signer(founder["code"]), keyring=keyring
-        )
-        try:
-            replay = Replay(db, clock, (scenario or scenario_path()).parent)
-            for number, step in enumerate(steps):
-                replay.run(number, step)
-        finally:
-            db.close()
-        fold_log(building)  # the file alone must hold every row before it gets its name
-        outputs.publish(building, out, "out", forceable=False)
-        leave_key_files(demo_operators(data))
+        replay = Replay(db, clock, (scenario or scenario_path()).parent)
+        for number, step in enumerate(steps):
+            replay.run(number, step)
     finally:
-        outputs.discard(*(Path(f"{building}{suffix}") for suffix in ("", *outputs.SIDE_SUFFIXES)))
+        db.close()
     return len(steps)
 
 

@@ -66,9 +66,10 @@ def render(report: reports.ReturnReport, photos: dict[str, bytes], fmt: str) -> 
 
         return render_pdf(report, photos)
     rows = report_tables.rows(report)
+    columns = report_tables.columns(report)
     if fmt == "csv":
-        return tabular.csv_bytes(report_tables.COLUMNS, rows)
-    return tabular.xlsx_bytes(report_tables.COLUMNS, rows, "return report")
+        return tabular.csv_bytes(columns, rows)
+    return tabular.xlsx_bytes(columns, rows, "return report")
 
 
 def anchor_bytes(db: Database, actor: str | None, report: reports.ReturnReport) -> bytes:
@@ -88,11 +89,14 @@ def write_return_report(
     folder: Path,
     *,
     force: bool = False,
+    despite_discrepancies: bool = False,
 ) -> WrittenReport:
     """Build, render, record and write the report; without ``target``, a new name in ``folder``.
 
     An existing ``target`` (or its anchor or a photo of another content) is refused before
     anything is recorded, unless ``force``: then each is kept as ``<name>.replaced-<time>``.
+    A loan whose books differ from the ledger is refused unless ``despite_discrepancies``:
+    the report then lists every discrepancy first, and its event records how many.
     """
     if fmt not in FORMATS:
         raise InputError("format", fmt, f"use one of {', '.join(FORMATS)}")
@@ -101,7 +105,8 @@ def write_return_report(
         folder = target.parent
     elif not folder.is_dir():
         raise InputError("out", str(folder), "the output folder does not exist")
-    report, photos = reports.attach_photos(db, reports.build_return_report(db, loan))
+    built = reports.build_return_report(db, loan, despite_discrepancies=despite_discrepancies)
+    report, photos = reports.attach_photos(db, built)
     data = render(report, photos, fmt)
     if target is not None:
         _check_companions(db, target, photos, force)
@@ -122,6 +127,7 @@ def write_return_report(
                 "files": {fmt: staged[0].sha256},
                 "head_seq": report.ledger.seq,
                 "head_hash": report.ledger.hash,
+                "despite_discrepancies": len(report.discrepancies),
             },
         )
         first = target or folder / default_name(report.loan["reference"], fmt, record.event_seq)

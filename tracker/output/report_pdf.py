@@ -114,7 +114,8 @@ def render_pdf(report: ReturnReport, photos: dict[str, bytes]) -> bytes:
     )
     header = f"Return report · {loan['reference']} · {report.lender['name']}"
     footer = f"ledger head #{report.ledger.seq} {report.ledger.hash[:16]}…"
-    story = [*_front(report, styles), *_terms(report, styles), *_totals(report, styles)]
+    story = [*_front(report, styles), *_discrepancies(report, styles)]
+    story += [*_terms(report, styles), *_totals(report, styles)]
     story += _backdated(report, styles)
     story += [Paragraph("Specimens", styles["h2"])]
     for entry in report.specimens:
@@ -173,6 +174,26 @@ def _front(report: ReturnReport, styles: dict[str, ParagraphStyle]) -> list[Flow
         Paragraph(f"Return report — {_esc(loan['reference'])}", styles["title"]),
         Spacer(1, 4 * mm),
         _table(rows, [0.28, 0.72], styles, header=False),
+    ]
+
+
+def _discrepancies(report: ReturnReport, styles: dict[str, ParagraphStyle]) -> list[Flowable]:
+    """On the first page: a report written despite the books differing from the ledger
+    lists every difference, before anything it says."""
+    found = report.discrepancies
+    if not found:
+        return []
+    note = (
+        f"<b>The books of this loan differ from its custody ledger in {len(found)} place(s).</b> "
+        "This report was written despite them: the values below are the stored ones, which "
+        f"no ledger event accounts for. Check them with <b>{_esc(report.ledger.audit_command)}"
+        "</b>."
+    )
+    rows = [["Discrepancy"]] + [[d.said] for d in found]
+    return [
+        Paragraph("Books differ from the ledger", styles["h2"]),
+        Paragraph(note, styles["body"]),
+        _table(rows, [1.0], styles),
     ]
 
 
@@ -456,12 +477,22 @@ def _timeline(report: ReturnReport, styles: dict[str, ParagraphStyle]) -> list[F
 
 
 def _ledger(report: ReturnReport, styles: dict[str, ParagraphStyle]) -> list[Flowable]:
-    state = "intact" if report.ledger.intact else "BROKEN — do not rely on this report"
+    head = report.ledger
+    if not head.intact:
+        state = "chain BROKEN — do not rely on this report"
+    elif not head.books_agree:
+        state = (
+            "chain of hashes unbroken, but the books DIFFER from it in "
+            f"{len(report.discrepancies)} place(s), listed on the first page"
+        )
+    else:
+        state = "chain intact; the loan's books agree with it"
     text = (
-        f"This report was made from ledger event #{report.ledger.seq}, head hash "
-        f"{report.ledger.hash} (chain {state}). To re-verify: "
-        f"<b>{_esc(report.ledger.verify_command)}</b> on the borrower's database, or run "
-        "the verification recipe in tracker's README over an exported ledger."
+        f"This report was made from ledger event #{head.seq}, head hash "
+        f"{head.hash} ({state}). To re-verify: "
+        f"<b>{_esc(head.verify_command)}</b> and <b>{_esc(head.audit_command)}</b> on the "
+        "borrower's database, or run the verification recipe in tracker's README over an "
+        "exported ledger."
     )
     return [Paragraph("Ledger", styles["h2"]), Paragraph(text, styles["body"])]
 

@@ -38,12 +38,22 @@ COLUMNS = [
 ]
 
 
+# A report written despite the books differing from the ledger: this column comes first,
+# and its first rows say every discrepancy, before any specimen.
+DISCREPANCY = "booksDifferFromLedger"
+
+
+def columns(report: ReturnReport) -> list[str]:
+    """The report's columns (one more, first, when it lists discrepancies)."""
+    return [DISCREPANCY, *COLUMNS] if report.discrepancies else COLUMNS
+
+
 def _fate_mass(entry: SpecimenEntry, status: str) -> float:
     return round(sum(p.left_mg for p in entry.powders if p.status == status), 6)
 
 
 def rows(report: ReturnReport) -> list[dict[str, Any]]:
-    lines = []
+    lines: list[dict[str, Any]] = [{DISCREPANCY: d.said} for d in report.discrepancies]
     for s in report.specimens:
         lines.append(
             {

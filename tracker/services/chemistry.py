@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from datetime import date
-from typing import Annotated
+from typing import Annotated, Any
 
 from pydantic import Field, field_validator, model_validator
 from sqlalchemy import func, select
@@ -119,9 +119,13 @@ def create_batch(db: Database, actor: str | None, data: NewBatch | Raw) -> Done[
             raise InputError("performed-on", request.performed_on.isoformat(), "is in the future")
         batch = ColumnBatch(**request.model_dump(), operator=uow.operator.code, created_at=uow.now)
         uow.session.add(batch)
-        return finish(
-            uow, "batch.created", batch, request.model_dump(mode="json"), lambda: _batch_view(batch)
-        )
+        view = lambda: _batch_view(batch)  # noqa: E731
+        return finish(uow, "batch.created", batch, batch_payload(request), view)
+
+
+def batch_payload(request: NewBatch) -> dict[str, Any]:
+    """What the ``batch.created`` event says (the bench's bulk writer uses it too)."""
+    return request.model_dump(mode="json")
 
 
 class PositionView(View):
@@ -165,15 +169,7 @@ def add_position(db: Database, actor: str | None, data: AddPosition | Raw) -> Do
         batch = get_by_id(uow.session, ColumnBatch, "batch", request.batch)
         slot = 1 + max((p.slot for p in batch.positions), default=0)
         position, holds = place(uow, batch, slot, request, holding(uow.session, request))
-        payload = {
-            "batch": batch.public_id,
-            "slot": slot,
-            "kind": request.kind.value,
-            "holds": holds,
-            "loaded_ug": position.loaded_ug,
-            "loaded_u_ug": position.loaded_u_ug,
-            "label": queue_label(uow, position),
-        }
+        payload = position_payload(batch, position, request, holds, queue_label(uow, position))
         return finish(
             uow,
             "batch.position_added",
@@ -190,6 +186,21 @@ def add_position(db: Database, actor: str | None, data: AddPosition | Raw) -> Do
             ),
             parent=batch,
         )
+
+
+def position_payload(
+    batch: ColumnBatch, position: BatchPosition, request: AddPosition, holds: str | None, label: str
+) -> dict[str, Any]:
+    """What the ``batch.position_added`` event says (the bench's bulk writer uses it too)."""
+    return {
+        "batch": batch.public_id,
+        "slot": position.slot,
+        "kind": request.kind.value,
+        "holds": holds,
+        "loaded_ug": position.loaded_ug,
+        "loaded_u_ug": position.loaded_u_ug,
+        "label": label,
+    }
 
 
 @dataclass(frozen=True)
@@ -220,8 +231,7 @@ def place(
     The caller looks up what it holds (``holding``, or a batch sheet's lookups of all its
     rows at once); the rules here only read those rows and what is loaded with them.
     """
-    position = BatchPosition(batch=batch, slot=slot, kind=request.kind, created_at=uow.now)
-    uow.session.add(position)
+    loaded: tuple[float | None, float | None] = (None, None)
     held = None
     if holds.aliquot is not None:
         aliquot = holds.aliquot
@@ -235,12 +245,24 @@ def place(
                 aliquot.public_id,
                 f"its solution has no {batch.element} concentration yet; record one first",
             )
-        position.aliquot = aliquot
-        position.loaded_ug, position.loaded_u_ug = element[1], element[2]
-        aliquot.status = ContainerStatus.CONSUMED
+        loaded = element[1], element[2]
         held = aliquot.public_id
     if holds.material is not None:
-        position.reference_material = holds.material
-        position.loaded_ug, position.loaded_u_ug = request.loaded_ug, request.loaded_u_ug
+        loaded = request.loaded_ug, request.loaded_u_ug
         held = holds.material.name
+    # Built whole, then added: one INSERT. What it loaded is a value derived from measurements,
+    # which a workstation login may not UPDATE afterwards outside a correction.
+    position = BatchPosition(
+        batch=batch,
+        slot=slot,
+        kind=request.kind,
+        aliquot=holds.aliquot,
+        reference_material=holds.material,
+        loaded_ug=loaded[0],
+        loaded_u_ug=loaded[1],
+        created_at=uow.now,
+    )
+    uow.session.add(position)
+    if holds.aliquot is not None:
+        holds.aliquot.status = ContainerStatus.CONSUMED
     return position, held

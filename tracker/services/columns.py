@@ -11,7 +11,7 @@ own δ is known.
 from __future__ import annotations
 
 import statistics
-from typing import Annotated
+from typing import Annotated, Any
 
 from pydantic import Field, model_validator
 from sqlalchemy import select
@@ -84,15 +84,20 @@ def record_cut(db: Database, actor: str | None, data: RecordCut | Raw) -> Done[C
         position = get_by_id(uow.session, BatchPosition, "position", request.position)
         cut = collect(uow, position, request)
         view = lambda: _cut_view(cut)  # noqa: E731
-        payload = {
-            "position": position.public_id,
-            "batch": position.batch.public_id,
-            "cut": cut.name,
-            "recovered_ug": cut.recovered_ug,
-            "recovered_u_ug": cut.recovered_u_ug,
-            "label": queue_label(uow, cut),
-        }
+        payload = cut_payload(position, cut, queue_label(uow, cut))
         return finish(uow, "cut.recorded", cut, payload, view, parent=position)
+
+
+def cut_payload(position: BatchPosition, cut: Cut, label: str) -> dict[str, Any]:
+    """What the ``cut.recorded`` event says (the bench's bulk writer uses it too)."""
+    return {
+        "position": position.public_id,
+        "batch": position.batch.public_id,
+        "cut": cut.name,
+        "recovered_ug": cut.recovered_ug,
+        "recovered_u_ug": cut.recovered_u_ug,
+        "label": label,
+    }
 
 
 def collect(uow: UnitOfWork, position: BatchPosition, request: RecordCut) -> Cut:

@@ -123,7 +123,7 @@ def finish_correction(
     """Record the correction row and its one event (the row names the event), commit."""
     value, reason = change
 
-    def add(event: CustodyEvent) -> None:
+    def add(seq: int) -> None:
         uow.session.add(
             Correction(
                 item_ref=entry.item.public_id,
@@ -136,13 +136,13 @@ def finish_correction(
                 entry_by=entry.author,
                 supersedes_id=entry.previous.id if entry.previous else None,
                 supersedes_event_seq=entry.event_seq,
-                event_seq=event.seq,
+                event_seq=seq,
                 recorded_by=uow.operator.code,
                 recorded_at=uow.now,
             )
         )
 
-    uow.after_record.append(add)
+    uow.naming_event.append(add)
     view = CorrectionView(
         item=entry.item.public_id,
         quantity=entry.quantity,

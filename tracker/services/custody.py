@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from datetime import date
-from typing import Annotated
+from typing import Annotated, Any
 
 from pydantic import Field
 from sqlalchemy import select
@@ -56,22 +56,23 @@ def move(db: Database, actor: str | None, data: Move | Raw) -> Done[ItemView]:
             raise InputError(
                 "item", request.item, "is not a specimen or a vial; it cannot be moved"
             )
-        _require_here(item)
+        require_here(item)
         target = get_by_id(uow.session, Location, "to", request.to)
         if item.location_id == target.id:
             raise RuleViolation("to", target.public_id, f"{item.public_id} is already there")
         before = item.location.path if item.location else None
         item.location = target
-        payload = {
-            "from": before,
-            "to": target.path,
-            "to_id": target.public_id,
-            "note": request.note,
-        }
+        payload = moved_payload(before, target, request)
         return finish(uow, "item.moved", item, payload, lambda: ItemView.of(item), parent=target)
 
 
-def _require_here(item: Specimen | Container) -> None:
+def moved_payload(before: str | None, target: Location, request: Move) -> dict[str, Any]:
+    """What the ``item.moved`` event says (the bench's bulk writer uses it too)."""
+    return {"from": before, "to": target.path, "to_id": target.public_id, "note": request.note}
+
+
+def require_here(item: Specimen | Container) -> None:
+    """Refuse to move or dispose of what is no longer in the lab."""
     if isinstance(item, Specimen):
         if item.status is not SpecimenStatus.ON_HAND:
             raise RuleViolation(
@@ -108,27 +109,44 @@ def dispose(db: Database, actor: str | None, data: Dispose | Raw) -> Done[ItemVi
         item = get_any(uow.session, "item", request.item)
         if not isinstance(item, Powder | Solution | Aliquot | Cut):
             raise InputError("item", request.item, "is not a powder, solution, aliquot or cut")
-        _require_here(item)
-        outcome = _FINAL[request.outcome]
-        if outcome is ContainerStatus.RETAINED and not request.permission:
-            raise RuleViolation(
-                "permission", None, "retaining lent material needs the lender's written permission"
-            )
+        require_here(item)
+        outcome = final_status(request)
         residual = residual_weighing(request, item, outcome)
         shipment = _shipment(uow, request, item, outcome)
         before = item.location.path if item.location else None
         item.status = outcome
         item.location = None
-        payload = {
-            "outcome": outcome.value,
-            "reason": request.reason,
-            "permission": request.permission,
-            "from": before,
-            "residual": residual,
-            "shipment": shipment,
-        }
+        payload = disposed_payload(request, outcome, before, residual, shipment)
         action = f"{type(item).__name__.lower()}.{outcome.value}"
         return finish(uow, action, item, payload, lambda: ItemView.of(item))
+
+
+def final_status(request: Dispose) -> ContainerStatus:
+    """Where a disposal leaves the vial; retaining lent material needs the lender's consent."""
+    outcome = _FINAL[request.outcome]
+    if outcome is ContainerStatus.RETAINED and not request.permission:
+        raise RuleViolation(
+            "permission", None, "retaining lent material needs the lender's written permission"
+        )
+    return outcome
+
+
+def disposed_payload(
+    request: Dispose,
+    outcome: ContainerStatus,
+    before: str | None,
+    residual: dict[str, float] | None,
+    shipment: str | None,
+) -> dict[str, Any]:
+    """What a disposal's event says (the bench's bulk writer uses it too)."""
+    return {
+        "outcome": outcome.value,
+        "reason": request.reason,
+        "permission": request.permission,
+        "from": before,
+        "residual": residual,
+        "shipment": shipment,
+    }
 
 
 def _shipment(

@@ -17,6 +17,7 @@ from sqlalchemy.orm import selectinload, undefer
 from tracker.db.database import Database
 from tracker.domain.darwincore import is_term
 from tracker.domain.models import Loan, Powder, Specimen, SpecimenStatus
+from tracker.services.audit_scope import audit_loan
 from tracker.services.lookup import get_loan
 from tracker.services.results import results
 
@@ -70,8 +71,31 @@ def _specimens(db: Database, loan: str) -> list[Specimen]:
         return found
 
 
-def specimen_rows(db: Database, loan: str) -> tuple[list[str], list[dict[str, Any]]]:
+# An export written despite the loan's books differing from the ledger: this column comes
+# first, and its first rows say every discrepancy (``audit_loan``), before any data row.
+DISCREPANCY = "booksDifferFromLedger"
+
+
+def _vouched(
+    db: Database, loan: str, despite: bool, table: tuple[list[str], list[dict[str, Any]]]
+) -> tuple[list[str], list[dict[str, Any]]]:
+    """The table, refused when the loan's books differ from the ledger, unless ``despite``
+    them: then with every discrepancy first."""
+    columns, rows = table
+    found = audit_loan(db, loan).vouch("loan", loan, despite=despite)
+    if not found:
+        return columns, rows
+    return [DISCREPANCY, *columns], [{DISCREPANCY: d.said} for d in found] + rows
+
+
+def specimen_rows(
+    db: Database, loan: str, despite_discrepancies: bool = False
+) -> tuple[list[str], list[dict[str, Any]]]:
     """(columns, rows): the lender's terms for each specimen, plus what tracker adds."""
+    return _vouched(db, loan, despite_discrepancies, _specimen_rows(db, loan))
+
+
+def _specimen_rows(db: Database, loan: str) -> tuple[list[str], list[dict[str, Any]]]:
     specimens = _specimens(db, loan)
     extra_terms = sorted(
         {k for s in specimens for k in s.extra if is_term(k)} - set(SPECIMEN_TERMS)
@@ -106,8 +130,14 @@ def specimen_rows(db: Database, loan: str) -> tuple[list[str], list[dict[str, An
     return SPECIMEN_TERMS + extra_terms, rows
 
 
-def measurement_rows(db: Database, loan: str) -> tuple[list[str], list[dict[str, Any]]]:
+def measurement_rows(
+    db: Database, loan: str, despite_discrepancies: bool = False
+) -> tuple[list[str], list[dict[str, Any]]]:
     """Drilled masses and isotope results, one Darwin Core measurement row each."""
+    return _vouched(db, loan, despite_discrepancies, _measurement_rows(db, loan))
+
+
+def _measurement_rows(db: Database, loan: str) -> tuple[list[str], list[dict[str, Any]]]:
     specimens = _specimens(db, loan)
     codes = {s.public_id: (s.institution_code, s.catalog_number) for s in specimens}
     rows = []
@@ -155,12 +185,14 @@ def measurement_rows(db: Database, loan: str) -> tuple[list[str], list[dict[str,
     return MEASUREMENT_TERMS, rows
 
 
-def loan_document(db: Database, loan: str) -> dict[str, Any]:
-    """The whole loan as one JSON document: the return report's content plus every lineage."""
+def loan_document(db: Database, loan: str, despite_discrepancies: bool = False) -> dict[str, Any]:
+    """The whole loan as one JSON document: the return report's content plus every lineage
+    (refused like the report when the books differ from the ledger; written despite them,
+    the report's ``discrepancies`` list every one)."""
     from tracker.services.lineage import show_item
     from tracker.services.reports import build_return_report
 
-    report = build_return_report(db, loan)
+    report = build_return_report(db, loan, despite_discrepancies=despite_discrepancies)
     with db.read_session() as session:
         ids = [
             s.public_id

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from typing import Annotated
+from typing import Annotated, Any
 
 from pydantic import Field, model_validator
 
@@ -101,19 +101,7 @@ def dissolve(db: Database, actor: str | None, data: Dissolve | Raw) -> Done[Solu
             created_at=uow.now,
         )
         uow.session.add(solution)
-        payload = {
-            "powder": powder.public_id,
-            "powder_mass_mg": taken.value,
-            "powder_mass_u_mg": taken.u,
-            "acid": request.acid,
-            "vial_tare_mg": float(request.vial_tare),
-            "vial_gross_mg": float(request.vial_gross),
-            "readability_mg": float(request.readability),
-            "solution_mass_g": solution.solution_mass_g,
-            "solution_mass_u_g": solution.solution_mass_u_g,
-            "powder_status": powder.status.value,
-            "label": queue_label(uow, solution),
-        }
+        payload = dissolved_payload(powder, solution, request, queue_label(uow, solution))
         return finish(
             uow,
             "solution.dissolved",
@@ -122,6 +110,25 @@ def dissolve(db: Database, actor: str | None, data: Dissolve | Raw) -> Done[Solu
             lambda: SolutionView.of(solution),
             parent=powder,
         )
+
+
+def dissolved_payload(
+    powder: Powder, solution: Solution, request: Dissolve, label: str
+) -> dict[str, Any]:
+    """What the ``solution.dissolved`` event says (the bench's bulk writer uses it too)."""
+    return {
+        "powder": powder.public_id,
+        "powder_mass_mg": solution.powder_mass_mg,
+        "powder_mass_u_mg": solution.powder_mass_u_mg,
+        "acid": request.acid,
+        "vial_tare_mg": float(request.vial_tare),
+        "vial_gross_mg": float(request.vial_gross),
+        "readability_mg": float(request.readability),
+        "solution_mass_g": solution.solution_mass_g,
+        "solution_mass_u_g": solution.solution_mass_u_g,
+        "powder_status": powder.status.value,
+        "label": label,
+    }
 
 
 def drilled(powder: Powder) -> Since:
@@ -260,18 +267,7 @@ def record_concentration(
         )
         uow.session.add(row)
         uow.session.flush()
-        element = element_mass_ug(
-            Amount(solution.solution_mass_g, solution.solution_mass_u_g),
-            Amount(row.value_ug_per_g, row.u_ug_per_g),
-        )
-        payload = {
-            "element": row.element,
-            "value_ug_per_g": row.value_ug_per_g,
-            "u_ug_per_g": row.u_ug_per_g,
-            "method": row.method,
-            "element_ug": element.value,
-            "element_u_ug": element.u,
-        }
+        element, payload = concentration_payload(solution, row)
         return finish(
             uow,
             "concentration.recorded",
@@ -279,6 +275,24 @@ def record_concentration(
             payload,
             lambda: ConcentrationView.of(row, element.value, element.u),
         )
+
+
+def concentration_payload(solution: Solution, row: Concentration) -> tuple[Amount, dict[str, Any]]:
+    """The element the solution holds by this concentration, and what the
+    ``concentration.recorded`` event says (the bench's bulk writer uses it too)."""
+    element = element_mass_ug(
+        Amount(solution.solution_mass_g, solution.solution_mass_u_g),
+        Amount(row.value_ug_per_g, row.u_ug_per_g),
+    )
+    payload = {
+        "element": row.element,
+        "value_ug_per_g": row.value_ug_per_g,
+        "u_ug_per_g": row.u_ug_per_g,
+        "method": row.method,
+        "element_ug": element.value,
+        "element_u_ug": element.u,
+    }
+    return element, payload
 
 
 class TakeAliquot(Request):
@@ -334,18 +348,7 @@ def take_aliquot(db: Database, actor: str | None, data: TakeAliquot | Raw) -> Do
         )
         uow.session.add(aliquot)
         element = aliquot_element(aliquot)
-        payload = {
-            "solution": solution.public_id,
-            "mass_g": aliquot.mass_g,
-            "mass_u_g": aliquot.mass_u_g,
-            "tare_mg": float(request.tare),
-            "gross_mg": float(request.gross),
-            "readability_mg": float(request.readability),
-            "purpose": aliquot.purpose.value,
-            "element": element[0] if element else None,
-            "element_ug": element[1] if element else None,
-            "label": queue_label(uow, aliquot),
-        }
+        payload = aliquot_payload(aliquot, request, element, queue_label(uow, aliquot))
         return finish(
             uow,
             "aliquot.taken",
@@ -354,6 +357,27 @@ def take_aliquot(db: Database, actor: str | None, data: TakeAliquot | Raw) -> Do
             lambda: AliquotView.of(aliquot, element),
             parent=solution,
         )
+
+
+def aliquot_payload(
+    aliquot: Aliquot,
+    request: TakeAliquot,
+    element: tuple[str, float, float] | None,
+    label: str,
+) -> dict[str, Any]:
+    """What the ``aliquot.taken`` event says (the bench's bulk writer uses it too)."""
+    return {
+        "solution": aliquot.solution.public_id,
+        "mass_g": aliquot.mass_g,
+        "mass_u_g": aliquot.mass_u_g,
+        "tare_mg": float(request.tare),
+        "gross_mg": float(request.gross),
+        "readability_mg": float(request.readability),
+        "purpose": aliquot.purpose.value,
+        "element": element[0] if element else None,
+        "element_ug": element[1] if element else None,
+        "label": label,
+    }
 
 
 def aliquot_element(

@@ -13,7 +13,7 @@ from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from tracker.domain.base import HasPublicId
-from tracker.domain.models import CustodyEvent, Label, LabelStatus
+from tracker.domain.models import Label, LabelStatus
 from tracker.services.uow import UnitOfWork
 
 
@@ -26,18 +26,19 @@ def queue_label(
 ) -> str:
     """Add ``copies`` labels of ``item`` as part of this unit's one custody event.
 
-    The rows are written when the event exists (they name it), in the same
-    transaction. The returned status goes into the event's payload, so the
-    ledger itself says that a label was queued (or, for a reprint, printed).
+    The rows are added when the event's number is known (they name it), just before the
+    event, so they are among the rows its facts state. The returned status goes into the
+    event's payload, so the ledger itself says that a label was queued (or, for a reprint,
+    printed).
     """
 
-    def add(event: CustodyEvent) -> None:
+    def add(seq: int) -> None:
         for _ in range(copies):
-            label = Label(item_ref=item.public_id, status=status, queued_event_seq=event.seq)
+            label = Label(item_ref=item.public_id, status=status, queued_event_seq=seq)
             label.queued_by, label.queued_at, label.job_id = uow.operator.code, uow.now, job_id
             uow.session.add(label)
 
-    uow.after_record.append(add)
+    uow.naming_event.append(add)
     return status.value
 
 

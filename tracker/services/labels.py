@@ -218,14 +218,10 @@ def set_uri_prefix(
         before = uri_prefix(uow.session)
         if before == request.uri_prefix:
             raise RuleViolation("uri-prefix", request.uri_prefix, "is already the lab's setting")
-        row = uow.session.get(LabSetting, URI_PREFIX_KEY)
-        if request.uri_prefix is None:
-            uow.session.delete(row)  # the setting differs from None, so the row exists
-        else:
-            row = row or LabSetting(key=URI_PREFIX_KEY)
-            row.value = request.uri_prefix
-            row.updated_by, row.updated_at = uow.operator.code, uow.now
-            uow.session.add(row)
+        row = uow.session.get(LabSetting, URI_PREFIX_KEY) or LabSetting(key=URI_PREFIX_KEY)
+        row.value = request.uri_prefix or ""  # cleared: kept empty (workstations delete nothing)
+        row.updated_by, row.updated_at = uow.operator.code, uow.now
+        uow.session.add(row)
         forget_uri_prefix(uow.session)
         payload = {"uri_prefix": request.uri_prefix, "previous": before}
         view = LabelSettings(uri_prefix=request.uri_prefix)

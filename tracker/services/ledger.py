@@ -15,9 +15,21 @@ from pathlib import Path
 from typing import Annotated, Any, BinaryIO, Literal, TextIO
 
 from pydantic import BaseModel, Field
-from sqlalchemy import ColumnElement, String, func, or_, select, type_coerce
+from sqlalchemy import (
+    ColumnElement,
+    Connection,
+    Select,
+    String,
+    Text,
+    cast,
+    func,
+    or_,
+    select,
+    type_coerce,
+)
+from sqlalchemy.dialects.postgresql import JSONB
 
-from tracker.db import outputs
+from tracker.db import outputs, stream
 from tracker.db.database import Database
 from tracker.domain.anchors import (
     MAX_ANCHOR_BYTES,
@@ -30,6 +42,7 @@ from tracker.domain.anchors import (
     signature_problem,
 )
 from tracker.domain.errors import InputError, RuleViolation
+from tracker.domain.facts import FACTS
 from tracker.domain.ledger import (
     LedgerTuple,
     VerifyReport,
@@ -62,7 +75,7 @@ _COLUMNS = (
 BATCH = 5000
 
 
-def _stamp_column(backend: str) -> ColumnElement[Any]:
+def stamp_column(backend: str) -> ColumnElement[Any]:
     """The event time as stored: SQLite's text as it is (the walk makes it ISO text, cheaper
     than a million datetimes), PostgreSQL's timestamps as datetimes."""
     if backend != "sqlite":
@@ -77,26 +90,21 @@ def _rows(db: Database) -> Iterator[LedgerTuple]:
 
 
 def _batches(db: Database) -> Iterator[list[LedgerTuple]]:
-    """Ledger rows in sequence order, a batch at a time.
-
-    The statement is built and compiled by SQLAlchemy, then read through the driver's own
-    cursor in batches (a server-side cursor on PostgreSQL): verifying a decade's ledger
-    is a million rows, and wrapping each in a result row would cost more than hashing it.
-    """
-    columns = (CustodyEvent.seq, _stamp_column(db.backend), *_COLUMNS[2:])
-    statement = select(*columns).order_by(CustodyEvent.seq)
+    """Ledger rows in sequence order, a batch at a time (see :mod:`tracker.db.stream`)."""
     with db.engine.connect() as connection:
-        sql = str(statement.compile(connection, compile_kwargs={"literal_binds": True}))
-        driver = connection.connection.driver_connection
-        assert driver is not None
-        named = {"name": "tracker_ledger_walk"} if db.backend == "postgresql" else {}
-        cursor = driver.cursor(**named)
-        try:
-            cursor.execute(sql)
-            while batch := cursor.fetchmany(BATCH):
-                yield batch
-        finally:
-            cursor.close()
+        yield from event_batches(connection)
+
+
+def event_batches(connection: Connection) -> Iterator[list[LedgerTuple]]:
+    """Ledger rows in sequence order, a batch at a time, read on ``connection``.
+
+    The statement is built by SQLAlchemy and read through the driver's own cursor
+    (a server-side cursor on PostgreSQL): verifying a decade's ledger is a million rows,
+    and wrapping each in a result row would cost more than hashing it.
+    """
+    columns = (CustodyEvent.seq, stamp_column(connection.dialect.name), *_COLUMNS[2:])
+    statement = select(*columns).order_by(CustodyEvent.seq)
+    yield from stream.batches(connection, statement, "tracker_ledger_walk", BATCH)
 
 
 Progress = Callable[[int, int], None]  # (events read, events in the ledger)
@@ -139,7 +147,7 @@ def recent_events(
     """Newest events first; optionally those whose action starts with ``action``, recorded by
     ``operator``, or naming ``item`` (a public ID, as the event's object or its parent)."""
     with db.read_session() as session:
-        query = select(CustodyEvent).order_by(CustodyEvent.seq.desc()).limit(limit)
+        query = listed(db.backend).order_by(CustodyEvent.seq.desc()).limit(limit)
         if action:
             query = query.where(CustodyEvent.action.startswith(action))
         if operator:
@@ -148,7 +156,32 @@ def recent_events(
             query = query.where(
                 or_(CustodyEvent.object_ref == item, CustodyEvent.parent_ref == item)
             )
-        return [EventView.of(e) for e in session.scalars(query)]
+        return [EventView.of(e) for e in session.execute(query)]
+
+
+def listed(backend: str) -> Select[Any]:
+    """Events as lists and histories show them (``EventView``): the payload's facts are
+    left out by the database itself — a manifest's one event states 20,000 rows, and a
+    list of events shows none of them."""
+    stored = CustodyEvent.payload
+    if backend == "sqlite":
+        own: ColumnElement[Any] = func.json_remove(stored, f"$.{FACTS}")
+        states = func.json_type(stored, f"$.{FACTS}").is_not(None)
+    else:
+        document = cast(stored, JSONB)
+        own = cast(document.op("-")(FACTS), Text)
+        states = document.has_key(FACTS)
+    return select(
+        CustodyEvent.seq,
+        CustodyEvent.at,
+        CustodyEvent.operator,
+        CustodyEvent.action,
+        CustodyEvent.object_ref,
+        CustodyEvent.parent_ref,
+        own.label("payload"),
+        CustodyEvent.hash,
+        states.label("states_facts"),
+    )
 
 
 class LedgerLine(BaseModel):

@@ -27,6 +27,7 @@ from tracker.domain.models import (
 )
 from tracker.services.columns import cut_yield
 from tracker.services.lab import powder_remaining, solution_element, solution_remaining_g
+from tracker.services.ledger import listed
 from tracker.services.lookup import get_any, get_loan, uri_prefix
 from tracker.services.views import DocumentView, EventView, TermsView, View
 
@@ -80,7 +81,7 @@ def _documents(session: Session, loan_id: int) -> list[DocumentView]:
 def history_of(session: Session, public_id: str) -> list[EventView]:
     mentioned = select(EventRef.seq).where(EventRef.ref == public_id)
     query = (
-        select(CustodyEvent)
+        listed(session.get_bind().dialect.name)
         .where(
             or_(
                 CustodyEvent.object_ref == public_id,
@@ -90,7 +91,7 @@ def history_of(session: Session, public_id: str) -> list[EventView]:
         )
         .order_by(CustodyEvent.seq)
     )
-    return [EventView.of(e) for e in session.scalars(query)]
+    return [EventView.of(e) for e in session.execute(query)]
 
 
 def ancestors_of(row: HasPublicId) -> list[HasPublicId]:

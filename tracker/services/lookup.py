@@ -72,7 +72,7 @@ def uri_prefix(session: Session) -> str | None:
             select(LabSetting.value).where(LabSetting.key == URI_PREFIX_KEY)
         )
     value = session.info[_CACHE_KEY]
-    return value if isinstance(value, str) else None
+    return value if isinstance(value, str) and value else None  # empty: cleared
 
 
 BACKDATING_WINDOW_KEY = "backdating_window_hours"

@@ -23,6 +23,7 @@ from sqlalchemy.orm import Session, undefer
 from tracker.db.database import Database
 from tracker.db.rows import insert_rows
 from tracker.domain.errors import InputError, NotFound, RuleViolation, at_cell
+from tracker.domain.facts import Stated, rows_facts
 from tracker.domain.ids import Kind, format_id
 from tracker.domain.models import Loan, LoanStatus, MappingProfile, Specimen, SpecimenStatus
 from tracker.domain.tables import Row, Table, TableError, read_table
@@ -42,12 +43,13 @@ from tracker.services.manifest_check import (
     unpacked,
 )
 from tracker.services.manifest_check import RowResult as RowResult
-from tracker.services.uow import unit_of_work
+from tracker.services.uow import UnitOfWork, unit_of_work
 from tracker.services.views import Done, View
 
 MAX_ROWS = 100_000
 # New specimens are inserted by the driver's executemany (no ORM object per row).
 _SPECIMEN = Specimen.metadata.tables[Specimen.__tablename__]
+PACKED = frozenset({"extra"})  # a checked row's columns held as JSON text (``unpacked``)
 
 
 class ManifestMapping(Request):
@@ -191,7 +193,7 @@ def _import(db: Database, actor: str | None, request: ManifestRequest) -> Manife
         loan = examined.loan
         if loan.status is not LoanStatus.OPEN:
             raise RuleViolation("loan", loan.reference, f"is {loan.status.value}")
-        created, updated = _write(uow.session, loan.id, examined, uow.now)
+        created, updated = _write(uow, loan.id, examined)
         if not created and not updated:
             return ManifestOutcome(preview=preview, created=[], updated=[], event_seq=None)
         uow.mention(*created, *updated)
@@ -367,9 +369,7 @@ def _examine(session: Session, request: ManifestRequest, reading: _Reading) -> _
     return _Examined(loan, preview, compared.updates, compared.fields, reading.slice_rows)
 
 
-def _write(
-    session: Session, loan_id: int, examined: _Examined, now: Any
-) -> tuple[list[str], list[str]]:
+def _write(uow: UnitOfWork, loan_id: int, examined: _Examined) -> tuple[list[str], list[str]]:
     """New specimens in one set-based insert; changed ones through their ORM rows."""
     new: list[Fields] = []
     updated: list[str] = []
@@ -386,26 +386,34 @@ def _write(
                     setattr(specimen, name, value)
             specimen.extra = extra
             updated.append(specimen.public_id)
-    return _insert(session, loan_id, new, examined.slice_rows, now), updated
+    return _insert(uow, loan_id, new, examined.slice_rows), updated
 
 
-def _insert(session: Session, loan_id: int, new: list[Fields], size: int, now: Any) -> list[str]:
+def _insert(uow: UnitOfWork, loan_id: int, new: list[Fields], size: int) -> list[str]:
     """Insert the new specimens and return their IDs, in file order.
 
     The rows go a slice at a time (as many as were checked together), each slice one
     driver executemany with its rows' extra terms unpacked only for it; what every new
     row shares (loan, status, creation time) is written into the statement once. The IDs
-    are then read back by catalogue number, which is unique within a loan.
+    are then read back by catalogue number, which is unique within a loan, and the rows
+    told to the unit of work's facts with them.
     """
     if not new:
         return []
-    shared = {"loan_id": loan_id, "status": SpecimenStatus.EXPECTED, "created_at": now}
+    session = uow.session
+    shared = {"loan_id": loan_id, "status": SpecimenStatus.EXPECTED, "created_at": uow.now}
+    stated: list[tuple[str, Stated]] = []  # each row's catalogue number and facts
     for start in range(0, len(new), size):
-        rows = [unpacked(fields) for fields in new[start : start + size]]
-        insert_rows(session.connection(), _SPECIMEN, rows, shared)
+        checked = new[start : start + size]
+        insert_rows(session.connection(), _SPECIMEN, [unpacked(f) for f in checked], shared)
+        catalog = (fields["catalog_number"] for fields in checked)
+        facts = rows_facts(_SPECIMEN.name, checked, shared, texts=PACKED)  # extra as checked
+        stated.extend(zip(catalog, facts, strict=True))
     ids = dict(
         session.execute(
             select(Specimen.catalog_number, Specimen.id).where(Specimen.loan_id == loan_id)
         ).all()
     )
-    return [format_id(Kind.SPECIMEN, ids[row["catalog_number"]]) for row in new]
+    made = [(format_id(Kind.SPECIMEN, ids[catalog]), facts) for catalog, facts in stated]
+    uow.written.created_facts(_SPECIMEN.name, made)
+    return [key for key, _ in made]

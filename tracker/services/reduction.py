@@ -19,7 +19,7 @@ from dataclasses import dataclass
 from datetime import datetime
 from itertools import combinations
 
-from sqlalchemy import delete, select
+from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from tracker.db.database import Database
@@ -38,6 +38,7 @@ from tracker.domain.models import (
     ReferenceValue,
     Result,
 )
+from tracker.domain.models.instrument import RECOMPUTED
 from tracker.services.columns import blank_ng, position_flags
 from tracker.services.common import finish
 from tracker.services.inputs import Raw, Request, parse
@@ -111,10 +112,9 @@ def recompute(sql: Session, session: InstrumentSession, now: datetime) -> Reduct
     flags = sorted(
         {f"reference material failed: {x.label} {x.ratio}" for x in lines if x.passed is False}
     )
-    sql.execute(delete(Result).where(Result.session_id == session.id))
     for line, row in zip(lines, rows, strict=True):
         row.flags = list(line.flags)
-        sql.add(row)
+    _store(sql, session, rows)
     session.flags = flags
     unmatched = sum(1 for m in session.measurements if m.role is MeasurementRole.UNMATCHED)
     return Reduction(
@@ -126,6 +126,36 @@ def recompute(sql: Session, session: InstrumentSession, now: datetime) -> Reduct
         flags=flags,
         unmatched=unmatched,
     )
+
+
+def _store(sql: Session, session: InstrumentSession, rows: list[Result]) -> None:
+    """Write the computed rows: a target's stored row again in place, a new target's added.
+
+    Results are never deleted (a workstation login may delete nothing). The runs of a
+    session never change, so a reduction computes the same targets every time.
+    """
+    stored = {
+        _target_of(row): row
+        for row in sql.scalars(select(Result).where(Result.session_id == session.id))
+    }
+    for row in rows:
+        kept = stored.pop(_target_of(row), None)
+        if kept is None:
+            sql.add(row)
+            continue
+        for column in RECOMPUTED:
+            setattr(kept, column, getattr(row, column))
+    if stored:
+        raise RuleViolation(
+            "session",
+            session.public_id,
+            f"{len(stored)} stored result(s) no longer have runs to be computed from; "
+            "nothing was changed",
+        )
+
+
+def _target_of(row: Result) -> tuple[int | None, int | None, int | None, str]:
+    return row.cut_id, row.reference_material_id, row.position_id, row.ratio
 
 
 def _replicates(

@@ -32,10 +32,11 @@ from tracker.domain.models import (
     SpecimenPhoto,
 )
 from tracker.domain.terms import terms_in_force
+from tracker.services.audit import AUDIT_COMMAND, DiscrepancyView
+from tracker.services.audit_scope import audit_loan
 from tracker.services.common import finish
 from tracker.services.inputs import Raw, Request, parse
 from tracker.services.lab import powder_remaining
-from tracker.services.ledger import verify
 from tracker.services.loan_rules import BACKDATED
 from tracker.services.lookup import get_loan
 from tracker.services.reconcile import LoanLine, reconcile
@@ -137,8 +138,15 @@ class TimelineEntry(View):
 class LedgerHead(View):
     seq: int
     hash: str
-    intact: bool
+    intact: bool  # the chain's hashes
     verify_command: str
+    books_agree: bool = True  # the loan's rows, held against the ledger (audit_loan)
+    audit_command: str = AUDIT_COMMAND
+
+    @property
+    def vouched(self) -> bool:
+        """Only a chain intact *and* books that agree with it are said to be intact."""
+        return self.intact and self.books_agree
 
 
 class ReturnReport(View):
@@ -157,17 +165,27 @@ class ReturnReport(View):
     ledger: LedgerHead
     notes: list[str] = Field(default_factory=list)
     backdated: list[BackdatedLine] = Field(default_factory=list)
+    # Written despite the books differing from the ledger: every difference, listed first.
+    discrepancies: list[DiscrepancyView] = Field(default_factory=list)
 
     def powder_left_mg(self, status: str) -> float:
         """Powder mass left in vials that ended ``status`` (destroyed, retained, consumed)."""
         return sum(p.left_mg for s in self.specimens for p in s.powders if p.status == status)
 
 
-def build_return_report(db: Database, loan_ref: str) -> ReturnReport:
-    """Everything the lender's account contains, read in one consistent pass."""
+def build_return_report(
+    db: Database, loan_ref: str, *, despite_discrepancies: bool = False
+) -> ReturnReport:
+    """Everything the lender's account contains, read in one consistent pass.
+
+    Refused when the loan's books differ from the ledger (``audit_loan``), unless written
+    despite the discrepancies: then the report lists every one of them.
+    """
     now = db.clock()
+    checked = audit_loan(db, loan_ref)
+    discrepancies = checked.vouch("loan", loan_ref, despite=despite_discrepancies)
+    head = checked.chain
     (totals,) = reconcile(db, loan_ref)
-    head = verify(db)
     by_specimen: dict[str, list[ResultEntry]] = defaultdict(list)
     for r in results(db, loan_ref):
         by_specimen[r.specimen].append(
@@ -225,7 +243,9 @@ def build_return_report(db: Database, loan_ref: str) -> ReturnReport:
                 hash=head.head_hash,
                 intact=head.ok,
                 verify_command="tracker ledger verify",
+                books_agree=not discrepancies,
             ),
+            discrepancies=discrepancies,
         )
 
 
@@ -437,6 +457,7 @@ class RecordReport(Request):
     files: dict[str, str]  # format -> SHA-256 of the file written
     head_seq: int
     head_hash: str
+    despite_discrepancies: int = 0  # written despite this many (listed in the files)
 
 
 class ReportRecord(View):
@@ -457,10 +478,12 @@ def record_report(db: Database, actor: str | None, data: RecordReport | Raw) -> 
             head_seq=request.head_seq,
             head_hash=request.head_hash,
         )
-        payload = {
+        payload: dict[str, Any] = {
             "format": FORMAT,
             "files": request.files,
             "head_seq": request.head_seq,
             "head_hash": request.head_hash,
         }
+        if request.despite_discrepancies:  # the books differed from the ledger
+            payload["despite_discrepancies"] = request.despite_discrepancies
         return finish(uow, "report.generated", loan, payload, lambda: view)

@@ -20,11 +20,13 @@ from tracker.db.database import Database, open_database
 from tracker.db.keyring import Keyring
 from tracker.domain.authority import key_payload
 from tracker.domain.errors import InputError, RuleViolation
+from tracker.domain.facts import FACTS, Written
 from tracker.domain.ledger import CURRENT_FORMAT
 from tracker.domain.models import Location, LocationKind, Operator, Role
 from tracker.domain.signing import Signer
 from tracker.domain.timeutil import Clock, utcnow
 from tracker.services import authority as signing
+from tracker.services.capture import capturing
 from tracker.services.common import finish
 from tracker.services.inputs import Name, Raw, Request, ShortCode, Text, parse
 from tracker.services.lookup import get_by_id
@@ -62,27 +64,34 @@ def init_database(
             db.close()
             raise RuleViolation("--db", db.url, "already initialised")
         now = clock()
-        operator = Operator(code=request.code, name=request.name, role=Role.MANAGER, created_at=now)
-        session.add(operator)
-        session.flush()
-        append_event(
-            session,
-            at=now,
-            operator=operator.code,
-            action="ledger.opened",
-            object_ref=operator.public_id,
-            parent_ref="",
-            payload={
+        written = Written()
+        with capturing(session, written) as capture:
+            operator = Operator(
+                code=request.code, name=request.name, role=Role.MANAGER, created_at=now
+            )
+            session.add(operator)
+            session.flush()
+            payload = {
                 "format": CURRENT_FORMAT,
                 "tracker": __version__,
                 "operator": operator.code,
                 "name": operator.name,
                 "role": Role.MANAGER.value,
                 "key": key_payload(operator.code, signer.public_hex),
-            },
-            signer=signer,
-            origin=signing.origin(session, db),
-        )
+                FACTS: written.facts(),
+            }
+            capture.seal()
+            append_event(
+                session,
+                at=now,
+                operator=operator.code,
+                action="ledger.opened",
+                object_ref=operator.public_id,
+                parent_ref="",
+                payload=payload,
+                signer=signer,
+                origin=signing.origin(session, db),
+            )
     return db
 
 

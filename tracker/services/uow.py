@@ -28,20 +28,24 @@ from datetime import datetime, timedelta
 from typing import Any
 
 from sqlalchemy import select
+from sqlalchemy.exc import DBAPIError
 from sqlalchemy.orm import Session
 
+from tracker.db import logins
 from tracker.db.database import Database
 from tracker.db.rows import insert_rows
 from tracker.db.writer_lock import WriterLock
 from tracker.domain.authority import FORMAT_2, Authority, manager_needed
 from tracker.domain.base import HasPublicId
 from tracker.domain.errors import InputError, RuleViolation
+from tracker.domain.facts import FACTS, Written, expanded
 from tracker.domain.ledger import GENESIS_HASH, Origin, canonical_json, seal
 from tracker.domain.models import BackdatedEntry, CustodyEvent, EventRef, Operator, Specimen
 from tracker.domain.signing import Signer
 from tracker.domain.timeutil import as_utc, iso_utc
 from tracker.domain.timing import describe_window, hours_of, show
 from tracker.services import authority as signing
+from tracker.services.capture import capturing
 
 Ref = HasPublicId | str | None
 # event_ref rows are written by the driver's executemany: an index, never ORM objects here
@@ -87,8 +91,9 @@ class UnitOfWork:
     events: list[CustodyEvent] = field(default_factory=list)
     committed: bool = False
     # Rows that must name this unit's event (a queued label names the event that queued
-    # it) are written by these hooks once the event exists, inside the same transaction.
-    after_record: list[Callable[[CustodyEvent], None]] = field(default_factory=list)
+    # it) are added by these hooks, given the event's number, just before the event is
+    # written: so they are among the rows its facts state.
+    naming_event: list[Callable[[int], None]] = field(default_factory=list)
     # Further items this unit's event concerns (a manifest's specimens, a print job's labels).
     mentions: set[str] = field(default_factory=set)
     # Set by ``common.action_time`` when the entry is dated beyond the lab's window: recording
@@ -99,9 +104,14 @@ class UnitOfWork:
     # Set when a service asked for a manager: the event must then say why, in a way the
     # verifier reads (``manager_needed``), or a technician's forged copy would pass it.
     manager_asked: str | None = None
+    # Every row this unit writes: the session's flushes tell it (services.capture), and so
+    # must whatever writes rows past the session (insert_rows).
+    written: Written = field(default_factory=Written)
+    sealed: Callable[[], None] = lambda: None  # no row may be written once facts are taken
 
     def mention(self, *refs: str) -> None:
-        """Make the event findable from each of these items' history."""
+        """Make the event findable from each of these items' history (every item whose rows
+        the unit writes is mentioned anyway: ``Written.names``)."""
         self.mentions.update(ref for ref in refs if ref)
 
     def require_manager(self, action: str) -> None:
@@ -124,7 +134,11 @@ class UnitOfWork:
     def record(
         self, action: str, obj: Ref, payload: dict[str, Any], parent: Ref = None
     ) -> CustodyEvent:
-        """Append this unit's one custody event, chained to the current head and signed."""
+        """Append this unit's one custody event, chained to the current head and signed.
+
+        Its payload states the facts of every row the unit wrote (``domain.facts``),
+        the rows that name the event (labels, corrections ...) and its mentions included.
+        """
         if self.events:
             raise RuntimeError("a service records exactly one custody event")
         if self.backdated is not None:  # last: refusals about the entry itself come first
@@ -142,36 +156,43 @@ class UnitOfWork:
         if self.signer is None:
             raise RuleViolation("--as", self.operator.code, signing.NO_KEYS_YET)
         self.session.flush()  # new rows get their IDs before the event names them
+        link = next_link(self.session)
+        object_ref, parent_ref = _ref(obj), _ref(parent)
+        if self.backdated is not None:
+            self.session.add(self._backdated_row(link[0], object_ref, self.backdated))
+        for hook in self.naming_event:
+            hook(link[0])
+        self.session.flush()
+        refs = sorted((self.mentions | self.written.names()) - {object_ref, parent_ref})
+        mentions = [{"seq": link[0], "ref": ref} for ref in refs]
+        self.written.created_rows(_EVENT_REF.name, mentions)
+        payload = {**payload, FACTS: self.written.facts()}
+        self.sealed()
         event = append_event(
             self.session,
             at=self.now,
             operator=self.operator.code,
             action=action,
-            object_ref=_ref(obj),
-            parent_ref=_ref(parent),
+            object_ref=object_ref,
+            parent_ref=parent_ref,
             payload=payload,
             signer=self.signer,
             origin=self.origin,
+            link=link,
         )
         self.events.append(event)
-        refs = sorted(self.mentions - {event.object_ref, event.parent_ref})
-        if refs:  # set-based: a manifest's one event can mention 100,000 specimens
-            rows = [{"seq": event.seq, "ref": ref} for ref in refs]
-            insert_rows(self.session.connection(), _EVENT_REF, rows)
-        if self.backdated is not None:
-            self.session.add(self._backdated_row(event, self.backdated))
-        for hook in self.after_record:
-            hook(event)
+        if mentions:  # set-based: a manifest's one event can mention 100,000 specimens
+            insert_rows(self.session.connection(), _EVENT_REF, mentions)
         return event
 
-    def _backdated_row(self, event: CustodyEvent, entry: Backdating) -> BackdatedEntry:
+    def _backdated_row(self, seq: int, item: str, entry: Backdating) -> BackdatedEntry:
         specimen = entry.specimen
         return BackdatedEntry(
-            event_seq=event.seq,
-            item_ref=event.object_ref,
+            event_seq=seq,
+            item_ref=item,
             field=entry.field,
             stated_at=entry.stated,
-            recorded_at=event.at,
+            recorded_at=self.now,
             window_hours=entry.window_hours,
             recorded_by=self.operator.code,
             loan_id=specimen.loan_id if specimen is not None else None,
@@ -204,13 +225,15 @@ def append_event(
     payload: dict[str, Any],
     signer: Signer,
     origin: Origin,
+    link: tuple[int, str] | None = None,
 ) -> CustodyEvent:
-    """Write the next ledger event, signed; the caller must hold the writer lock."""
-    head = session.execute(
-        select(CustodyEvent.seq, CustodyEvent.hash).order_by(CustodyEvent.seq.desc()).limit(1)
-    ).first()
-    seq, prev = (head.seq + 1, head.hash) if head else (1, GENESIS_HASH)
-    text = canonical_json(payload)
+    """Write the next ledger event, signed; the caller must hold the writer lock.
+
+    ``link`` is the event's number and the previous hash when the caller has read them
+    (:func:`next_link`) to name the event in rows written before it.
+    """
+    seq, prev = link or next_link(session)
+    text = canonical_json(payload, default=expanded)  # rows written set-based, row by row
     sealed = seal(seq, at, operator, origin, action, object_ref, parent_ref, prev, text, signer)
     event = CustodyEvent(
         seq=seq,
@@ -234,6 +257,14 @@ def append_event(
     return event
 
 
+def next_link(session: Session) -> tuple[int, str]:
+    """The next event's number and the hash it chains to (the caller holds the writer lock)."""
+    head = session.execute(
+        select(CustodyEvent.seq, CustodyEvent.hash).order_by(CustodyEvent.seq.desc()).limit(1)
+    ).first()
+    return (head.seq + 1, head.hash) if head else (1, GENESIS_HASH)
+
+
 @contextmanager
 def unit_of_work(db: Database, actor: str | None, doing: str = "") -> Iterator[UnitOfWork]:
     """Open a write transaction as ``actor``; roll back unless the service commits.
@@ -247,6 +278,8 @@ def unit_of_work(db: Database, actor: str | None, doing: str = "") -> Iterator[U
         session.begin()
         lock.take(session)  # waits for other writers; Busy, naming the holder, if in vain
         operator = find_operator(session, actor)
+        if db.backend == "postgresql":
+            agree_with_login(session, operator)
         authority = signing.current(session, db)
         uow = UnitOfWork(
             session,
@@ -257,10 +290,18 @@ def unit_of_work(db: Database, actor: str | None, doing: str = "") -> Iterator[U
             signing.origin(session, db),
             release=lock.release,
         )
-        yield uow
+        with capturing(session, uow.written) as capture:
+            uow.sealed = capture.seal
+            yield uow
         if not uow.committed:
             lock.release()
             session.rollback()
+    except DBAPIError as error:
+        lock.release()
+        session.rollback()
+        if getattr(error.orig, "sqlstate", None) != INSUFFICIENT_PRIVILEGE:
+            raise
+        raise _refused(error) from None
     except BaseException:
         lock.release()
         session.rollback()
@@ -275,6 +316,47 @@ def _calling_service() -> str:
     while frame.f_back is not None and frame.f_globals.get("__name__") in (__name__, "contextlib"):
         frame = frame.f_back
     return frame.f_code.co_name.strip("_").replace("_", " ") or "a write"
+
+
+# PostgreSQL's SQLSTATE for "permission denied", also raised by revision 0010's login checks.
+INSUFFICIENT_PRIVILEGE = "42501"
+
+
+def agree_with_login(session: Session, operator: Operator) -> None:
+    """On PostgreSQL a login writes as the operator bound to it, and as no one else.
+
+    The tables' owner (and a superuser) may write as any operator: it sets the database
+    up and could rewrite anything by SQL anyway. Any other login bound to no operator
+    writes nothing. The database holds every login to the same rule (revision 0010); this
+    check says it first, in a person's words.
+    """
+    who = logins.connected(session.connection())
+    if who.owner:
+        return
+    bound = session.scalar(select(Operator.code).where(Operator.login == who.login))
+    if bound is None:
+        raise RuleViolation(
+            "--db",
+            who.login,
+            "this database login is bound to no operator; a manager binds it with "
+            "`tracker db add-login OPERATOR LOGIN`",
+        )
+    if bound != operator.code:
+        raise RuleViolation(
+            "--as",
+            operator.code,
+            f"this database login ({who.login}) records as {bound} only; "
+            "each person connects with their own login",
+        )
+
+
+def _refused(error: DBAPIError) -> RuleViolation:
+    """The database refused a write for want of a privilege or by a login rule: one line."""
+    cause = str(error.orig).strip().splitlines()[0] if error.orig else "permission denied"
+    hint = ""
+    if cause.startswith("permission denied"):
+        hint = " (after an upgrade the owner runs `tracker db workstation-grants` again)"
+    return RuleViolation("--db", None, f"the database refused this: {cause}{hint}")
 
 
 def find_operator(session: Session, actor: str | None) -> Operator:

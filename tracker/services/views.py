@@ -15,7 +15,6 @@ from pydantic import BaseModel
 from tracker.domain.models import (
     Aliquot,
     Concentration,
-    CustodyEvent,
     Document,
     Lender,
     Loan,
@@ -38,11 +37,17 @@ class OperatorView(View):
     name: str
     role: str
     active: bool
+    login: str | None = None  # the PostgreSQL login bound to them (shared databases)
 
     @classmethod
     def of(cls, row: Operator) -> OperatorView:
         return cls(
-            id=row.public_id, code=row.code, name=row.name, role=row.role.value, active=row.active
+            id=row.public_id,
+            code=row.code,
+            name=row.name,
+            role=row.role.value,
+            active=row.active,
+            login=row.login,
         )
 
 
@@ -269,6 +274,9 @@ class AliquotView(View):
 
 
 class EventView(View):
+    """An event as lists and histories show it: its payload without the facts of its rows
+    (``ledger export`` and the audit have them), and whether it states them."""
+
     seq: int
     at: datetime
     operator: str
@@ -282,9 +290,11 @@ class EventView(View):
     host: str = ""
     db_user: str = ""
     key_id: str | None = None
+    states_facts: bool = False
 
     @classmethod
-    def of(cls, row: CustodyEvent) -> EventView:
+    def of(cls, row: Any) -> EventView:
+        """From a row of ``ledger.listed`` (the payload's facts left out by the database)."""
         return cls(
             seq=row.seq,
             at=row.at,
@@ -298,6 +308,7 @@ class EventView(View):
             host=row.host,
             db_user=row.db_user,
             key_id=row.key_id,
+            states_facts=bool(row.states_facts),
         )
 
 

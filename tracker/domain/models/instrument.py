@@ -64,7 +64,11 @@ class Measurement(Base):
 
 
 class Result(Base):
-    """A reduced δ value with replicate statistics, for a cut or a reference material."""
+    """A reduced δ value with replicate statistics, for a cut or a reference material.
+
+    One row per target and ratio of a session: a later reduction (or a correction of a value
+    it used) computes the row again in place, never deleting it (``RECOMPUTED`` columns).
+    """
 
     __tablename__ = "result"
 
@@ -83,6 +87,20 @@ class Result(Base):
     n: Mapped[int]
     flags: Mapped[list[str]] = mapped_column(default=list)
     created_at: Mapped[datetime]
+
+
+# What a reduction computes again in a stored result row; the rest names the row's target.
+RECOMPUTED = (
+    "delta_permil",
+    "sd_permil",
+    "two_se_permil",
+    "n",
+    "blank_corrected",
+    "flags",
+    "scale",
+    "kind",
+    "created_at",
+)
 
 
 class MappingProfile(Base):

@@ -17,7 +17,12 @@ if TYPE_CHECKING:
 
 
 class Operator(HasPublicId, Base):
-    """A person who records events. ``code`` is what they type after ``--as``."""
+    """A person who records events. ``code`` is what they type after ``--as``.
+
+    ``login`` is the PostgreSQL login bound to this person on a shared database: writes
+    made through that login record as this operator and no other (see tracker/db/logins.py).
+    SQLite files have no logins and leave it empty.
+    """
 
     __tablename__ = "operator"
     id_kind = Kind.OPERATOR
@@ -28,6 +33,7 @@ class Operator(HasPublicId, Base):
     role: Mapped[Role] = mapped_column(enum_type(Role))
     active: Mapped[bool] = mapped_column(default=True)
     created_at: Mapped[datetime]
+    login: Mapped[str | None] = mapped_column(String(63), unique=True)  # PostgreSQL role name
 
     @property
     def initials(self) -> str:

@@ -1,5 +1,5 @@
-"""The custody ledger: browse and filter events, verify the chain with a progress bar, and
-show the head hash a lender can check independently."""
+"""The custody ledger: browse and filter events, verify the chain and audit the books
+against it with a progress bar, and show the head hash a lender can check independently."""
 
 from __future__ import annotations
 
@@ -16,7 +16,8 @@ from textual.widgets import DataTable, Footer, Input, ProgressBar, Static
 
 from tracker.domain.errors import TrackerError
 from tracker.domain.ledger import VerifyReport
-from tracker.services import ledger
+from tracker.services import audit, ledger
+from tracker.services.audit import AuditReport
 from tracker.services.views import EventView
 from tracker.ui.context import database
 from tracker.ui.messages import Refused, refusal_text
@@ -29,6 +30,7 @@ LIMIT = 500
 class LedgerScreen(Screen[None]):
     BINDINGS: ClassVar[list[BindingType]] = [
         Binding("v", "verify", "Verify chain", id="ledger.verify"),
+        Binding("a", "audit", "Audit books", id="ledger.audit"),
         Binding("slash", "filter", "Filter", id="ledger.filter"),
         Binding("escape", "app.previous", "Back", id="ledger.back"),
     ]
@@ -48,6 +50,11 @@ class LedgerScreen(Screen[None]):
             super().__init__()
             self.report = report
 
+    class Audited(Message):
+        def __init__(self, report: AuditReport) -> None:
+            super().__init__()
+            self.report = report
+
     def compose(self) -> ComposeResult:
         yield OperatorBar("Custody ledger")
         with Horizontal(id="ledger-filters"):
@@ -57,7 +64,10 @@ class LedgerScreen(Screen[None]):
         yield DataTable(id="events", cursor_type="row", zebra_stripes=True)
         yield Static("", id="event-payload")
         yield ProgressBar(total=None, id="verify-progress", show_eta=False)
-        yield Static("press v to verify the whole chain", id="verify-result")
+        yield Static(
+            "press v to verify the whole chain, a to audit the books against it",
+            id="verify-result",
+        )
         yield Footer(compact=True)
 
     def on_mount(self) -> None:
@@ -110,7 +120,7 @@ class LedgerScreen(Screen[None]):
     def _show_payload(self, event: DataTable.RowHighlighted) -> None:
         chosen = getattr(self, "events", {}).get(str(event.row_key.value))
         if chosen is not None:
-            payload = json.dumps(chosen.payload, ensure_ascii=False)
+            payload = json.dumps(chosen.payload, ensure_ascii=False)[:300]
             where = f"{chosen.os_user}@{chosen.host}" + (
                 f" as {chosen.db_user}" if chosen.db_user else ""
             )
@@ -119,8 +129,13 @@ class LedgerScreen(Screen[None]):
                 if chosen.key_id
                 else "unsigned (recorded before signing)"
             )
+            rows = (
+                "states the facts of the rows it wrote"
+                if chosen.states_facts
+                else "states no row facts (recorded before they were kept)"
+            )
             self.query_one("#event-payload", Static).update(
-                shown(f"#{chosen.seq} {chosen.hash[:16]}… {signed}\n{payload[:300]}")
+                shown(f"#{chosen.seq} {chosen.hash[:16]}… {signed} · {rows}\n{payload}")
             )
 
     def action_verify(self) -> None:
@@ -138,6 +153,32 @@ class LedgerScreen(Screen[None]):
             self.post_message(Refused(error, "verify"))
             return
         self.post_message(self.Verified(report))
+
+    def action_audit(self) -> None:
+        self.query_one("#verify-result", Static).update("… replaying every event, then every row")
+        self.audit()
+
+    @work(thread=True, exclusive=True, group="verify")
+    def audit(self) -> None:
+        def progress(done: int, total: int) -> None:
+            self.post_message(self.Progress(done, total))
+
+        try:
+            report = audit.audit(database(self), progress, every=50)
+        except TrackerError as error:
+            self.post_message(Refused(error, "audit"))
+            return
+        self.post_message(self.Audited(report))
+
+    def on_ledger_screen_audited(self, event: Audited) -> None:
+        r = event.report
+        lines = [("✓ " if r.ok else "✗ ") + r.verdict()]
+        statement = r.coverage.statement()
+        if statement is not None:
+            lines.append(f"not checked: {statement}")
+        result = self.query_one("#verify-result", Static)
+        result.update(shown("\n".join(lines), style="green" if r.ok else "bold red"))
+        result.set_class(not r.ok, "-error")
 
     def on_ledger_screen_progress(self, event: Progress) -> None:
         self.query_one("#verify-progress", ProgressBar).update(

@@ -172,7 +172,7 @@ def _head(report: ReturnReport) -> Text:
     text.append(f" · returned {loan['returned_on']}\n" if loan["returned_on"] else "\n")
     terms = report.terms_in_force
     text.append(shown(f"terms v{terms.version}: {', '.join(terms.permitted_tissues)}\n"))
-    mark, style = ("✓ intact", "green") if report.ledger.intact else ("✗ BROKEN", "bold red")
+    mark, style = ("✓ intact", "green") if report.ledger.vouched else ("✗ BROKEN", "bold red")
     text.append(f"ledger {mark}", style=style)
     text.append(f" · head #{report.ledger.seq} {report.ledger.hash[:16]}…")
     return text
