@@ -126,7 +126,7 @@ def _head(db: Database) -> tuple[int, str]:
 
 def _write_first_revision_rows(db: Database) -> None:
     """The rows, and two events as the first release hashed them (format 1, unsigned)."""
-    from tracker.domain.ledger import GENESIS_HASH, canonical_json, event_hash
+    from tracker.domain.ledger import FORMAT, GENESIS_HASH, NO_ORIGIN, canonical_json, event_hash
 
     with db.write_session() as session, session.begin():
         now = db.clock()
@@ -135,7 +135,7 @@ def _write_first_revision_rows(db: Database) -> None:
         prev = GENESIS_HASH
         for seq, (action, facts) in enumerate(_FIRST_REVISION_EVENTS, start=1):
             payload = canonical_json(facts)
-            digest = event_hash(seq, now, "boss", action, "", "", prev, payload)
+            digest = event_hash(FORMAT, seq, now, "boss", NO_ORIGIN, action, "", "", prev, payload)
             session.execute(
                 text(
                     "INSERT INTO custody_event (seq, at, operator, action, object_ref, "

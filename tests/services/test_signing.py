@@ -297,12 +297,14 @@ def test_a_signature_removed_to_pass_as_an_old_event_is_found(db: Database) -> N
     make.loan(db)
     target = events(db)[-1]
     drop_append_only_triggers(db)
-    from tracker.domain.ledger import event_hash
+    from tracker.domain.ledger import FORMAT, NO_ORIGIN, event_hash
 
     digest = event_hash(
+        FORMAT,
         target.seq,
         target.at,
         target.operator,
+        NO_ORIGIN,
         target.action,
         target.object_ref,
         target.parent_ref,

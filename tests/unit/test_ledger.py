@@ -9,17 +9,23 @@ from dataclasses import replace
 from datetime import UTC, datetime, timedelta, timezone
 
 import pytest
+from cryptography.hazmat.primitives.asymmetric.ed25519 import Ed25519PublicKey
 from hypothesis import given
 from hypothesis import strategies as st
 
 from tracker.domain.ledger import (
     GENESIS_HASH,
+    NO_ORIGIN,
     LedgerRow,
+    Origin,
     canonical_bytes,
     canonical_json,
     event_hash,
+    seal,
+    stored_hash_holds,
     verify_chain,
 )
+from tracker.domain.signing import seeded_signer
 
 
 def reference_hash(
@@ -30,6 +36,25 @@ def reference_hash(
     assert not any("\n" in line for line in lines)
     data = "\n".join(lines).encode("utf-8")  # joined by LF, no trailing LF, UTF-8
     return hashlib.sha256(data).hexdigest()  # lower-case hex SHA-256 (hashlib)
+
+
+def reference_hash_2(
+    seq: int, at: str, op: str, origin: tuple[str, str, str], rest: tuple[str, ...]
+) -> str:
+    """Format 2, written from the module docstring: the origin's three fields follow the
+    operator; ``rest`` is action, object, parent, prev_hash and payload."""
+    lines = ["tracker-ledger/2", str(seq), at, op, *origin, *rest]
+    assert len(lines) == 12 and not any("\n" in line for line in lines)
+    return hashlib.sha256("\n".join(lines).encode("utf-8")).hexdigest()
+
+
+def bytes_1(seq: int, at: str, op: str, *rest: str) -> bytes:
+    """Format 1's canonical bytes (no origin), in reference_hash's argument order."""
+    return canonical_bytes("tracker-ledger/1", seq, at, op, NO_ORIGIN, *rest)
+
+
+def hash_1(seq: int, at: datetime | str, op: str, *rest: str) -> str:
+    return event_hash("tracker-ledger/1", seq, at, op, NO_ORIGIN, *rest)
 
 
 # ---------------------------------------------------------------- canonical JSON
@@ -53,7 +78,7 @@ def test_canonical_json_keeps_non_ascii_as_utf8() -> None:
     text = canonical_json({"unit": "µg", "delta": "δ44/40Ca ‰"})
     assert text == '{"delta":"δ44/40Ca ‰","unit":"µg"}'
     assert "\\u" not in text
-    data = canonical_bytes(1, "t", "op", "a", "", "", GENESIS_HASH, text)
+    data = bytes_1(1, "t", "op", "a", "", "", GENESIS_HASH, text)
     assert "µg".encode() in data  # UTF-8 bytes C2 B5 (Unicode standard)
 
 
@@ -61,7 +86,7 @@ def test_canonical_json_escapes_line_feeds() -> None:
     # RFC 8259 §7: control characters in strings are escaped, so the payload stays one line
     text = canonical_json({"note": "line one\nline two"})
     assert "\n" not in text
-    canonical_bytes(1, "t", "op", "a", "", "", GENESIS_HASH, text)  # accepted
+    bytes_1(1, "t", "op", "a", "", "", GENESIS_HASH, text)  # accepted
 
 
 # ---------------------------------------------------------------- canonical bytes
@@ -80,7 +105,7 @@ ARGS = (
 
 
 def test_canonical_bytes_layout() -> None:
-    data = canonical_bytes(*ARGS)
+    data = bytes_1(*ARGS)
     assert data.startswith(b"tracker-ledger/1\n7\n2026-03-04T09:15:00.000000Z\n")
     assert data.count(b"\n") == 8  # nine lines, eight separators
     assert not data.endswith(b"\n")
@@ -89,7 +114,7 @@ def test_canonical_bytes_layout() -> None:
 
 
 def test_event_hash_matches_reference() -> None:
-    digest = event_hash(*ARGS)
+    digest = hash_1(*ARGS)
     assert digest == reference_hash(*ARGS)
     assert len(digest) == 64
     assert digest == digest.lower()
@@ -100,10 +125,10 @@ def test_event_hash_formats_datetimes_in_utc() -> None:
     at_utc = datetime(2026, 3, 4, 9, 15, tzinfo=UTC)
     at_cet = datetime(2026, 3, 4, 10, 15, tzinfo=timezone(timedelta(hours=1)))
     expected = reference_hash(*ARGS)
-    assert event_hash(ARGS[0], at_utc, *ARGS[2:]) == expected
-    assert event_hash(ARGS[0], at_cet, *ARGS[2:]) == expected
+    assert hash_1(ARGS[0], at_utc, *ARGS[2:]) == expected
+    assert hash_1(ARGS[0], at_cet, *ARGS[2:]) == expected
     with pytest.raises(ValueError):
-        event_hash(ARGS[0], datetime(2026, 3, 4, 9, 15), *ARGS[2:])  # naive: zone unknown
+        hash_1(ARGS[0], datetime(2026, 3, 4, 9, 15), *ARGS[2:])  # naive: zone unknown
 
 
 @pytest.mark.parametrize("index", range(1, 8))
@@ -111,7 +136,71 @@ def test_line_feed_in_any_field_refused(index: int) -> None:
     texts = list(ARGS[1:])  # every field after seq is text
     texts[index - 1] += "\nforged"
     with pytest.raises(ValueError, match="line feed"):
-        canonical_bytes(ARGS[0], *texts)
+        bytes_1(ARGS[0], *texts)
+
+
+# ---------------------------------------------------------------- format 2: the one hash
+
+ORIGIN = Origin("ana", "bench-3", "ana_login")
+REST = ("powder.drilled", "PW-00003-K", "SP-00001-W", "cd" * 32, '{"mass_mg":2.15}')
+
+
+def test_format_2_hash_matches_the_docstring() -> None:
+    """The OS user, host and login come after the operator, each on its own line."""
+    digest = event_hash("tracker-ledger/2", 7, ARGS[1], "tech", ORIGIN, *REST)
+    assert digest == reference_hash_2(7, ARGS[1], "tech", ORIGIN, REST)
+    data = canonical_bytes("tracker-ledger/2", 7, ARGS[1], "tech", ORIGIN, *REST)
+    assert data.split(b"\n")[3:7] == [b"tech", b"ana", b"bench-3", b"ana_login"]
+    assert data.count(b"\n") == 11  # twelve lines, eleven separators
+
+
+def test_format_1_does_not_hash_the_origin() -> None:
+    """Events recorded before signing have no origin: whatever is passed, it is not hashed."""
+    assert event_hash("tracker-ledger/1", *ARGS[:3], ORIGIN, *ARGS[3:]) == reference_hash(*ARGS)
+
+
+def test_sqlite_stored_time_hashes_as_the_iso_form() -> None:
+    """SQLite gives ``at`` back as "YYYY-MM-DD HH:MM:SS.ffffff" (SQLAlchemy's text, UTC);
+    the ISO form differs by its "T" and "Z" only."""
+    stored = "2026-03-04 09:15:00.000000"
+    assert hash_1(7, stored, *ARGS[2:]) == reference_hash(*ARGS)
+    expected = reference_hash_2(7, ARGS[1], "tech", ORIGIN, REST)
+    assert event_hash("tracker-ledger/2", 7, stored, "tech", ORIGIN, *REST) == expected
+
+
+@pytest.mark.parametrize("field", ["os_user", "host", "db_user"])
+def test_a_line_feed_in_the_origin_is_refused(field: str) -> None:
+    origin = ORIGIN._replace(**{field: "x\ny"})
+    with pytest.raises(ValueError, match="line feed"):
+        event_hash("tracker-ledger/2", 7, ARGS[1], "tech", origin, *REST)
+
+
+def test_an_unknown_format_is_refused() -> None:
+    with pytest.raises(ValueError, match="unknown ledger format"):
+        event_hash("tracker-ledger/9", 7, ARGS[1], "tech", ORIGIN, *REST)
+
+
+def test_seal_hashes_by_format_2_and_signs_that_hash() -> None:
+    at = datetime(2026, 3, 4, 9, 15, tzinfo=UTC)
+    signer = seeded_signer("ledger unit test")  # an invented key from a public seed
+    sealed = seal(7, at, "tech", ORIGIN, *REST, signer=signer)
+    assert sealed.hash == reference_hash_2(7, ARGS[1], "tech", ORIGIN, REST)
+    assert sealed.key_id == signer.key_id
+    public = Ed25519PublicKey.from_public_bytes(bytes.fromhex(signer.public_hex))
+    public.verify(bytes.fromhex(sealed.signature), sealed.hash.encode("ascii"))  # cryptography
+
+
+def test_stored_hash_holds_by_each_events_own_format() -> None:
+    """What verification and the authority replay check of each stored event."""
+    digest = reference_hash_2(7, ARGS[1], "tech", ORIGIN, REST)
+    action, obj, parent, prev, payload = REST
+    row = (7, ARGS[1], "tech", action, obj, parent, payload, prev, digest, "tracker-ledger/2")
+    stored = (*row, *ORIGIN, None, None)
+    assert stored_hash_holds(stored)
+    assert not stored_hash_holds((*row, "ana", "bench-4", "ana_login", None, None))  # host
+    assert not stored_hash_holds((*row[:9], "tracker-ledger/1", *ORIGIN, None, None))
+    old = (7, ARGS[1], "tech", *ARGS[3:6], ARGS[7], ARGS[6], reference_hash(*ARGS))
+    assert stored_hash_holds((*old, "tracker-ledger/1", "", "", "", None, None))
 
 
 # ---------------------------------------------------------------- chain verification

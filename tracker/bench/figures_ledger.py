@@ -98,7 +98,7 @@ def signing_figure(db: Database, repeat: int) -> Figure:
     import hashlib
 
     from tracker.bench.plan import TECHNICIANS, bench_signer
-    from tracker.domain.ledger import GENESIS_HASH, canonical_bytes_2, seal
+    from tracker.domain.ledger import CURRENT_FORMAT, GENESIS_HASH, canonical_bytes, seal
     from tracker.services import authority as signing
 
     code, at = TECHNICIANS[0], db.clock()
@@ -122,8 +122,17 @@ def signing_figure(db: Database, repeat: int) -> Figure:
             stamp = iso_utc(at)
             started = perf_counter()
             for n in range(1, SIGNED_ACTIONS + 1):
-                data = canonical_bytes_2(
-                    n, stamp, code, origin, "powder.drilled", "PW", "SP", GENESIS_HASH, payload
+                data = canonical_bytes(
+                    CURRENT_FORMAT,
+                    n,
+                    stamp,
+                    code,
+                    origin,
+                    "powder.drilled",
+                    "PW",
+                    "SP",
+                    GENESIS_HASH,
+                    payload,
                 )
                 bare_key.sign(hashlib.sha256(data).hexdigest().encode("ascii"))
             return (perf_counter() - started) / SIGNED_ACTIONS

@@ -48,7 +48,7 @@ import json
 from collections.abc import Callable, Iterable
 from dataclasses import dataclass
 from datetime import datetime
-from typing import Any
+from typing import Any, NamedTuple
 
 from tracker.domain.authority import AUTHORITY_ACTIONS, FORMAT_1, FORMAT_2, Authority, Claim
 from tracker.domain.signing import Signer
@@ -78,41 +78,7 @@ def canonical_json(payload: Any, default: Callable[[Any], Any] | None = None) ->
     )
 
 
-def canonical_bytes(
-    seq: int,
-    at: str,
-    operator: str,
-    action: str,
-    object_ref: str,
-    parent_ref: str,
-    prev_hash: str,
-    payload: str,
-) -> bytes:
-    """The exact bytes that are hashed; ``at`` is already in the ledger's ISO form."""
-    fields = (FORMAT, str(seq), at, operator, action, object_ref, parent_ref, prev_hash, payload)
-    for value in fields:
-        if "\n" in value:
-            raise ValueError(f"ledger field contains a line feed: {value[:40]!r}")
-    return "\n".join(fields).encode("utf-8")
-
-
-def event_hash(
-    seq: int,
-    at: datetime | str,
-    operator: str,
-    action: str,
-    object_ref: str,
-    parent_ref: str,
-    prev_hash: str,
-    payload: str,
-) -> str:
-    stamp = at if isinstance(at, str) else iso_utc(at)
-    data = canonical_bytes(seq, stamp, operator, action, object_ref, parent_ref, prev_hash, payload)
-    return hashlib.sha256(data).hexdigest()
-
-
-@dataclass(frozen=True)
-class Origin:
+class Origin(NamedTuple):
     """Where an event comes from: the OS user and host that ran tracker, and the database
     login (PostgreSQL's ``session_user``, read from the server; empty on SQLite)."""
 
@@ -121,9 +87,30 @@ class Origin:
     db_user: str = ""
 
 
-def canonical_bytes_2(
+# Events of format 1 do not say where they came from: their origin is not hashed.
+NO_ORIGIN = Origin("", "")
+
+# How many line feeds each format's bytes hold: one per field after the first. A field with a
+# line feed of its own would shift the fields after it, so the count is the check.
+_LINE_FEEDS = {FORMAT_1: 8, FORMAT_2: 11}
+
+
+def ledger_stamp(at: datetime | str) -> str:
+    """An event's time in the ledger's ISO form, from a datetime, ISO text or SQLite's stored
+    text (``2026-03-04 09:15:00.000000``: SQLAlchemy's format, always with microseconds, UTC),
+    which differs from the ISO form only by its "T" and "Z". Text of any other shape is taken
+    as it stands (hashed so, it fails: tracker never writes it)."""
+    if not isinstance(at, str):
+        return iso_utc(at)
+    if len(at) == 26 and at[10] == " ":
+        return f"{at[:10]}T{at[11:]}Z"
+    return at
+
+
+def canonical_bytes(
+    fmt: str,
     seq: int,
-    at: str,
+    at: datetime | str,
     operator: str,
     origin: Origin,
     action: str,
@@ -132,25 +119,44 @@ def canonical_bytes_2(
     prev_hash: str,
     payload: str,
 ) -> bytes:
-    """The exact bytes hashed for a "tracker-ledger/2" event (see the module docstring)."""
-    fields = (
-        FORMAT_2,
-        str(seq),
-        at,
-        operator,
-        origin.os_user,
-        origin.host,
-        origin.db_user,
-        action,
-        object_ref,
-        parent_ref,
-        prev_hash,
-        payload,
+    """The exact bytes hashed for an event of format ``fmt`` (see the module docstring).
+
+    ``origin`` is hashed by format 2 only. A field holding a line feed, or a format this
+    module does not know, raises ValueError.
+    """
+    stamp = ledger_stamp(at)
+    fields: tuple[str, ...]
+    if fmt == FORMAT_2:
+        fields = (fmt, str(seq), stamp, operator, *origin, action, object_ref, parent_ref)
+    elif fmt == FORMAT_1:
+        fields = (fmt, str(seq), stamp, operator, action, object_ref, parent_ref)
+    else:
+        raise ValueError(f"unknown ledger format {fmt[:40]!r}")
+    text = "\n".join((*fields, prev_hash, payload))
+    if text.count("\n") != _LINE_FEEDS[fmt]:
+        value = next(v for v in (*fields, prev_hash, payload) if "\n" in v)
+        raise ValueError(f"ledger field contains a line feed: {value[:40]!r}")
+    return text.encode("utf-8")
+
+
+def event_hash(
+    fmt: str,
+    seq: int,
+    at: datetime | str,
+    operator: str,
+    origin: Origin,
+    action: str,
+    object_ref: str,
+    parent_ref: str,
+    prev_hash: str,
+    payload: str,
+) -> str:
+    """An event's hash, by its own format: what every writer (through :func:`seal`), the
+    verification, the audit and the benchmark compute, here and nowhere else."""
+    data = canonical_bytes(
+        fmt, seq, at, operator, origin, action, object_ref, parent_ref, prev_hash, payload
     )
-    for value in fields:
-        if "\n" in value:
-            raise ValueError(f"ledger field contains a line feed: {value[:40]!r}")
-    return "\n".join(fields).encode("utf-8")
+    return hashlib.sha256(data).hexdigest()
 
 
 @dataclass(frozen=True)
@@ -176,10 +182,9 @@ def seal(
 ) -> Sealed:
     """Hash a new event (format 2) and sign its hash: what every writer of events calls —
     the unit of work, ``tracker init`` and the benchmark's bulk writer alike."""
-    data = canonical_bytes_2(
-        seq, iso_utc(at), operator, origin, action, object_ref, parent_ref, prev_hash, payload
+    digest = event_hash(
+        FORMAT_2, seq, at, operator, origin, action, object_ref, parent_ref, prev_hash, payload
     )
-    digest = hashlib.sha256(data).hexdigest()
     return Sealed(digest, signer.key_id, signer.sign_hash(digest))
 
 
@@ -262,16 +267,6 @@ LedgerTuple = tuple[
 ]
 
 
-def ledger_stamp(at: datetime | str) -> str:
-    """An event's time in the ledger's ISO form, from a datetime, ISO text or SQLite's stored
-    text (see :func:`verify_batches`, which inlines the same steps)."""
-    if not isinstance(at, str):
-        return iso_utc(at)
-    if len(at) == 26 and at[10] == " ":
-        return f"{at[:10]}T{at[11:]}Z"
-    return at
-
-
 def verify_tuples(rows: Iterable[LedgerTuple]) -> VerifyReport:
     """Walk events in ``seq`` order; stop at the first broken link and say why."""
     return verify_batches((rows,))
@@ -282,44 +277,26 @@ def verify_batches(batches: Iterable[Iterable[LedgerTuple]]) -> VerifyReport:
 
     Checks, in order, for each event: the sequence continues without a gap, its
     ``prev_hash`` is the previous event's hash, its stored hash matches its recomputed
-    hash (by its own format), and — through :meth:`Authority.admit` — its signature, made
-    by a key valid for its operator at that point of the ledger, and a manager's wherever
-    one is needed. Streaming: memory does not grow with the ledger. The hashing is
-    inlined and the batches walked in this frame (this loop runs once per event of a
-    decade's ledger); it computes exactly :func:`event_hash` and :func:`canonical_bytes_2`,
-    and a field holding a line feed counts as altered. Events accepted so far are always
-    1..expected - 1. A ledger with no event 1 — empty, or starting later — is not intact.
-
-    ``at`` is a datetime, the ledger's ISO text, or the text SQLite stores
-    (``2026-03-04 09:15:00.000000``: SQLAlchemy's format, always with microseconds, UTC),
-    which differs from the ISO form only by its "T" and "Z". Text of any other shape is
-    hashed as it stands, so it fails: tracker never writes it.
+    hash (:func:`stored_hash_holds`, by its own format; a field holding a line feed counts
+    as altered), and — through :meth:`Authority.admit` — its signature, made by a key
+    valid for its operator at that point of the ledger, and a manager's wherever one is
+    needed. Streaming: memory does not grow with the ledger. Events accepted so far are
+    always 1..expected - 1. A ledger with no event 1 — empty, or starting later — is not
+    intact. ``at`` may be a datetime, the ledger's ISO text or SQLite's stored text
+    (:func:`ledger_stamp`).
     """
     expected, prev = 1, GENESIS_HASH
-    sha256, authority = hashlib.sha256, Authority()
+    authority = Authority()
     for batch in batches:
         for row in batch:
-            seq, at, operator, action, object_ref, parent_ref, payload, prev_hash, digest = row[:9]
-            fmt = row[9]
+            seq, prev_hash, digest = row[0], row[7], row[8]
             if seq != expected or prev_hash != prev:
                 problem = _link_problem(seq, expected, prev_hash, prev)
                 return _broken(authority, expected, prev, *problem)
-            if not isinstance(at, str):
-                stamp = iso_utc(at)
-            elif len(at) == 26 and at[10] == " ":  # SQLite's stored text (see above)
-                stamp = f"{at[:10]}T{at[11:]}Z"
-            else:
-                stamp = at
-            head: tuple[str, ...]
-            if fmt == FORMAT_2:
-                head, lines = (fmt, str(seq), stamp, operator, *row[10:13]), 11
-            else:
-                head, lines = (fmt, str(seq), stamp, operator), 8
-            text = "\n".join((*head, action, object_ref, parent_ref, prev_hash, payload))
-            if sha256(text.encode("utf-8")).hexdigest() != digest or text.count("\n") != lines:
+            if not stored_hash_holds(row):
                 reason = "stored hash does not match the event's contents (altered after writing)"
                 return _broken(authority, expected, prev, seq, reason)
-            claim = Claim(seq, operator, action, object_ref, payload, digest, fmt, *row[13:15])
+            claim = Claim(seq, row[2], row[3], row[4], row[6], digest, row[9], *row[13:15])
             problem_text = authority.admit(claim)
             if problem_text is not None:
                 return _broken(authority, expected, prev, seq, problem_text)
@@ -353,21 +330,15 @@ def _broken(authority: Authority, expected: int, prev: str, seq: int, reason: st
 
 def stored_hash_holds(row: LedgerTuple) -> bool:
     """Whether one stored event's hash is the hash of its stored fields (by its format)."""
-    seq, at, operator, action, object_ref, parent_ref, payload, prev_hash, digest = row[:9]
-    stamp = ledger_stamp(at)
+    seq, at, operator, action, object_ref, parent_ref, payload, prev_hash, digest, fmt = row[:10]
+    origin = Origin(row[10], row[11], row[12])
     try:
-        if row[9] == FORMAT_2:
-            origin = Origin(*row[10:13])
-            data = canonical_bytes_2(
-                seq, stamp, operator, origin, action, object_ref, parent_ref, prev_hash, payload
-            )
-        else:
-            data = canonical_bytes(
-                seq, stamp, operator, action, object_ref, parent_ref, prev_hash, payload
-            )
+        found = event_hash(
+            fmt, seq, at, operator, origin, action, object_ref, parent_ref, prev_hash, payload
+        )
     except ValueError:
         return False
-    return hashlib.sha256(data).hexdigest() == digest
+    return found == digest
 
 
 def replay_authority(rows: Iterable[LedgerTuple]) -> Authority:
