@@ -23,8 +23,8 @@ BACKDATED = "backdated entry"
 
 @dataclass(frozen=True, slots=True)
 class Totals:
-    """A loan's specimens summed: what its line shows, whether from the specimens' books in
-    Python or from one grouped statement (the overview's path)."""
+    """A loan's specimens summed: what its line shows (reconcile sums its specimens' books;
+    the start-up glance reads the same sums from one grouped statement)."""
 
     specimens: int
     on_hand: int  # specimens held

@@ -39,11 +39,9 @@ from tracker.services.bulk import collector_paused
 from tracker.services.loan_lines import LoanLine, SpecimenLine, loan_line
 from tracker.services.loan_rules import (
     BACKDATED,
-    NO_TOTALS,
     LoanFacts,
     Terms,
     Totals,
-    totals_from_row,
     urgency,
 )
 from tracker.services.lookup import get_loan, open_loan_ids
@@ -92,7 +90,8 @@ class _Scope:
 
 
 def _totals_of(books: list[_Books]) -> Totals:
-    """A loan's totals summed in Python from its specimens' books (the detailed path)."""
+    """A loan's totals: its specimens' books summed, so a loan's line always agrees with its
+    specimens' lines (every caller, with or without those lines, sums them here)."""
     drilled = variance = dissolved = on_hand = returned = most = 0.0
     holding = sampled = 0
     flags: set[str] = set()
@@ -128,9 +127,10 @@ def reconcile(
     """One line per loan (most urgent first), each with its specimens unless asked not to.
 
     Every specimen's books come from one aggregate statement over the powders, solutions
-    and aliquots, so reconciling the whole lab is one pass over its tables. With
-    ``open_only``, only open loans: the statement then reads only their rows (the overview
-    of a decade-old lab reads a tenth of the tables).
+    and aliquots, so reconciling the whole lab is one pass over its tables; a loan's totals
+    are its specimens' books summed. With ``open_only``, only open loans: the statement
+    then reads only their rows (the overview of a decade-old lab reads a tenth of the
+    tables). Without ``specimens`` the lines carry no specimen lines (the overview).
     """
     today = db.clock().date()
     with db.read_session() as session, collector_paused():  # 20,000 lines: no cycles to find
@@ -140,16 +140,10 @@ def reconcile(
         if open_only:
             query = query.where(Loan.status == LoanStatus.OPEN)
         loans = session.scalars(query).all()
-        scope = _Scope(loans[0].id if loan is not None and loans else None, open_only)
-        if specimens:
-            books = _books(session, scope)
-            lines = [
-                _loan_line(row, today, _totals_of(books.get(row.id, [])), books.get(row.id, []))
-                for row in loans
-            ]
-        else:
-            totals = _loan_totals(session, scope)
-            lines = [_loan_line(row, today, totals.get(row.id, NO_TOTALS)) for row in loans]
+        books = _books(
+            session, _Scope(loans[0].id if loan is not None and loans else None, open_only)
+        )
+        lines = [_loan_line(row, today, books.get(row.id, []), specimens) for row in loans]
     return sorted(lines, key=urgency)
 
 
@@ -271,16 +265,10 @@ def _books(session: Session, scope: _Scope) -> dict[int, list[_Books]]:
     return grouped
 
 
-def _loan_totals(session: Session, scope: _Scope) -> dict[int, Totals]:
-    """Every loan's totals in one grouped statement over the specimens' books: what the
-    overview needs, without turning 20,000 specimens into Python objects first."""
-    query = _totals_statement(scope)
-    return dict(totals_from_row(row) for row in session.connection().execute(query).all())
-
-
 def open_loan_totals_statement() -> Select[Any]:
-    """The open loans' totals statement, for the glance to run before SQLAlchemy loads
-    (compiled once into :mod:`tracker.services.glance_sql`; a test keeps the two equal)."""
+    """The open loans' totals statement: only the start-up glance runs it (compiled into
+    :mod:`tracker.services.glance_sql`); :func:`reconcile` sums the books in Python. It goes
+    with the glance, as do :func:`_totals_statement` and ``loan_rules.totals_from_row``."""
     return _totals_statement(_Scope(open_only=True))
 
 
@@ -404,10 +392,8 @@ def _books_of(row: Any) -> _Books:
     )
 
 
-def _loan_line(
-    loan: Loan, today: date, totals: Totals, books: list[_Books] | None = None
-) -> LoanLine:
-    """A loan's line from its totals; with its specimens' lines when their books are given."""
+def _loan_line(loan: Loan, today: date, books: list[_Books], with_specimens: bool) -> LoanLine:
+    """A loan's line from its specimens' books; with their lines when asked for."""
     terms = terms_in_force(loan.terms, today)
     facts = LoanFacts(
         id=loan.public_id,
@@ -426,10 +412,11 @@ def _loan_line(
         ),
     )
     permitted = terms.max_mass_per_specimen_mg
+    shown = books if with_specimens else []
     lines = _SPECIMEN_LINES.validate_python(
-        [_specimen_line(b, _specimen_flags(b, permitted), permitted) for b in books or []]
+        [_specimen_line(b, _specimen_flags(b, permitted), permitted) for b in shown]
     )
-    return loan_line(facts, today, totals, lines)
+    return loan_line(facts, today, _totals_of(books), lines)
 
 
 def _specimen_flags(books: _Books, permitted: float | None) -> frozenset[str]:
