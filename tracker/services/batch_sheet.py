@@ -38,7 +38,6 @@ from tracker.domain.models import (
 )
 from tracker.domain.tables import Row, TableError, read_table
 from tracker.domain.units import UnitError, mass_to_mg
-from tracker.services.bulk import collector_paused
 from tracker.services.chemistry import AddPosition, Holding, holding, place
 from tracker.services.columns import RecordCut, collect
 from tracker.services.common import finish
@@ -77,8 +76,7 @@ def enter_sheet(db: Database, actor: str | None, data: EnterSheet | Raw) -> Done
     inside it only what depends on the batch as it stands is checked and written.
     """
     request = parse(EnterSheet, data)
-    with collector_paused():  # resumed once the rows read and written are freed
-        return _enter(db, actor, request)
+    return _enter(db, actor, request)
 
 
 def _enter(db: Database, actor: str | None, request: EnterSheet) -> Done[SheetView]:

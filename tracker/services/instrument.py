@@ -32,7 +32,6 @@ from tracker.domain.models import (
 )
 from tracker.domain.tables import Row, TableError, read_table
 from tracker.domain.timing import Since, not_before
-from tracker.services.bulk import collector_paused
 from tracker.services.common import action_time, finish
 from tracker.services.inputs import (
     AwareDatetime,
@@ -168,16 +167,15 @@ def import_session(db: Database, actor: str | None, data: ImportSession | Raw) -
     lock is taken; inside it, rows are matched to what the database holds and written.
     """
     request = parse(ImportSession, data)
-    with collector_paused():  # resumed once the rows read and written are freed
-        with db.read_session() as session:
-            profile = _profile(session, request.profile)
-        rows = _checked_rows(request, profile)
-        with unit_of_work(db, actor, "import instrument session") as uow:
-            current = _profile(uow.session, request.profile)
-            if current != profile:  # saved anew meanwhile: read the export as it says now
-                profile, rows = current, _checked_rows(request, current)
-            with in_file(request.filename), uow.session.no_autoflush:
-                return _import(uow, request, profile, rows)
+    with db.read_session() as session:
+        profile = _profile(session, request.profile)
+    rows = _checked_rows(request, profile)
+    with unit_of_work(db, actor, "import instrument session") as uow:
+        current = _profile(uow.session, request.profile)
+        if current != profile:  # saved anew meanwhile: read the export as it says now
+            profile, rows = current, _checked_rows(request, current)
+        with in_file(request.filename), uow.session.no_autoflush:
+            return _import(uow, request, profile, rows)
 
 
 def _checked_rows(request: ImportSession, profile: ProfileDefinition) -> list[_Run]:

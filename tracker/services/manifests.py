@@ -27,7 +27,6 @@ from tracker.domain.facts import Stated, rows_facts
 from tracker.domain.ids import Kind, format_id
 from tracker.domain.models import Loan, LoanStatus, MappingProfile, Specimen, SpecimenStatus
 from tracker.domain.tables import Row, Table, TableError, read_table
-from tracker.services.bulk import collector_paused
 from tracker.services.common import finish
 from tracker.services.inputs import Name, Raw, Request, parse
 from tracker.services.lookup import get_loan
@@ -160,10 +159,9 @@ def save_mapping(db: Database, actor: str | None, data: NewMapping | Raw) -> Don
 def preview_manifest(db: Database, data: ManifestRequest | Raw) -> ManifestPreview:
     """Everything the import would do, and every problem, row by row. Writes nothing."""
     request = parse(ManifestRequest, data)
-    with collector_paused():
-        reading = _read_file(request, _saved_mapping(db, request))
-        with db.read_session() as session:
-            return _examine(session, request, reading).preview
+    reading = _read_file(request, _saved_mapping(db, request))
+    with db.read_session() as session:
+        return _examine(session, request, reading).preview
 
 
 def import_manifest(
@@ -175,8 +173,7 @@ def import_manifest(
     answers with is the pass whose validated rows are written.
     """
     request = parse(ManifestRequest, data)
-    with collector_paused():  # resumed once the rows checked and written are freed
-        return _import(db, actor, request)
+    return _import(db, actor, request)
 
 
 def _import(db: Database, actor: str | None, request: ManifestRequest) -> ManifestOutcome:

@@ -35,7 +35,6 @@ from tracker.domain.models import (
     SpecimenStatus,
 )
 from tracker.domain.terms import terms_in_force
-from tracker.services.bulk import collector_paused
 from tracker.services.loan_lines import LoanLine, SpecimenLine, loan_line
 from tracker.services.loan_rules import (
     BACKDATED,
@@ -133,7 +132,7 @@ def reconcile(
     tables). Without ``specimens`` the lines carry no specimen lines (the overview).
     """
     today = db.clock().date()
-    with db.read_session() as session, collector_paused():  # 20,000 lines: no cycles to find
+    with db.read_session() as session:
         query = select(Loan).options(selectinload(Loan.terms), selectinload(Loan.lender))
         if loan is not None:
             query = query.where(Loan.id == get_loan(session, "loan", loan).id)

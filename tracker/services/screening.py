@@ -20,7 +20,6 @@ from tracker.domain.errors import InputError, NotFound, RuleViolation, at_cell
 from tracker.domain.models import SrCurve
 from tracker.domain.srcurve import Curve, CurveError, CurvePoint, overlaps, parse_curve_csv
 from tracker.domain.textfiles import FileProblem, decode_text
-from tracker.services.bulk import collector_paused
 from tracker.services.common import finish
 from tracker.services.inputs import Name, Raw, Request, Text, parse
 from tracker.services.lookup import get_loan
@@ -52,8 +51,7 @@ class NewCurve(Request):
 def add_curve(db: Database, actor: str | None, data: NewCurve | Raw) -> Done[CurveView]:
     """Keep a reference curve (CSV: age_ma, 87sr/86sr, u — sorted by age, no gaps)."""
     request = parse(NewCurve, data)
-    with collector_paused():  # resumed once the points read and written are freed
-        return _add_curve(db, actor, request)
+    return _add_curve(db, actor, request)
 
 
 def _add_curve(db: Database, actor: str | None, request: NewCurve) -> Done[CurveView]:
