@@ -6,10 +6,13 @@ from __future__ import annotations
 from collections.abc import Iterator
 from contextlib import contextmanager
 
+import pytest
 from sqlalchemy import event
 
 from tests import factories as make
 from tracker.db.database import Database
+from tracker.domain.ids import PublicId, parse_id
+from tracker.services import labels, lineage_load, lookup
 from tracker.services.labels import read_scan
 
 
@@ -42,3 +45,22 @@ def test_a_scan_reads_a_fixed_handful_of_statements(db: Database) -> None:
     selects = [s for s in deep if s.lstrip().upper().startswith("SELECT")]
     assert len(selects) <= 3, selects  # the chain, the operators' initials, nothing per hop
     assert len(deep) <= len(shallow) + 1
+
+
+def test_a_scan_reads_the_id_once(db: Database, monkeypatch: pytest.MonkeyPatch) -> None:
+    """The scanned text is read into an ID once and the row found by that value: the
+    loading of its parents does not read the text again."""
+    spec = make.specimen(db, make.loan(db))
+    aliquot = make.aliquot(db, make.solution(db, make.powder(db, spec)), grams="0.0500")
+    read: list[str] = []
+
+    def reading(text: str, prefix: str | None = None) -> PublicId:
+        read.append(text)
+        return parse_id(text, prefix)
+
+    monkeypatch.setattr(lookup, "parse_id", reading)
+    for module in (lineage_load, labels):  # wherever a second reading used to hide
+        if hasattr(module, "parse_id"):
+            monkeypatch.setattr(module, "parse_id", reading)
+    answer = read_scan(db, aliquot.lower())
+    assert answer.id == aliquot and read == [aliquot.lower()]

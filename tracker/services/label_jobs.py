@@ -21,7 +21,7 @@ from tracker.domain.labels import PrintBatch, Rendered
 from tracker.domain.models import Label, LabelJob, LabelJobKind, LabelStatus
 from tracker.services.common import finish
 from tracker.services.inputs import Raw, Request, parse
-from tracker.services.label_facts import Labelled, facts_of, labelled_item, preload
+from tracker.services.label_facts import Labelled, facts_of, labelled_items
 from tracker.services.label_queue import queue_label
 from tracker.services.labels import MAX_ITEMS, id_list, resolve_items
 from tracker.services.uow import UnitOfWork, unit_of_work
@@ -88,8 +88,7 @@ def print_queue(
         labels = list(uow.session.scalars(query))
         if not labels:
             raise RuleViolation("queue", None, "no labels are queued; nothing to print")
-        preload(uow.session, (label.item_ref for label in labels))
-        items = [labelled_item(uow.session, "queue", label.item_ref) for label in labels]
+        items = labelled_items(uow.session, "queue", (label.item_ref for label in labels))
         job = _render_job(uow, request, LabelJobKind.PRINT, items, render)
         for label in labels:
             label.status, label.job = LabelStatus.PRINTED, job

@@ -26,16 +26,17 @@ from tracker.services.label_facts import (
     facts_of,
     label_lines,
     labelled_item,
-    preload,
+    labelled_items,
 )
 from tracker.services.label_queue import queue_label, queued_labels
 from tracker.services.lineage import ancestors_of, label_of
-from tracker.services.lineage_load import load_for_scan
+from tracker.services.lineage_load import scan_options
 from tracker.services.lookup import (
+    MODEL_BY_KIND,
     URI_PREFIX_KEY,
     forget_uri_prefix,
-    get_any,
-    prefix_for,
+    get_named,
+    read_public_id,
     uri_prefix,
 )
 from tracker.services.uow import unit_of_work
@@ -66,11 +67,9 @@ def id_list(value: object) -> list[str]:
 
 def resolve_items(session: Session, texts: list[str]) -> list[Labelled]:
     """The labelled rows the IDs name, each once (an ID typed twice in any form is refused)."""
-    preload(session, texts)
     rows: list[Labelled] = []
     seen: set[str] = set()
-    for text in texts:
-        row = labelled_item(session, "items", text)
+    for text, row in zip(texts, labelled_items(session, "items", texts), strict=True):
         if row.public_id in seen:
             raise InputError("items", text, f"names {row.public_id} a second time")
         seen.add(row.public_id)
@@ -175,10 +174,8 @@ def queued_facts(db: Database) -> list[LabelFacts]:
     with db.read_session() as session:
         query = select(Label).where(Label.status == LabelStatus.QUEUED).order_by(Label.id)
         queue = list(session.scalars(query))
-        preload(session, (label.item_ref for label in queue))
-        return [
-            facts_of(session, labelled_item(session, "queue", label.item_ref)) for label in queue
-        ]
+        items = labelled_items(session, "queue", (label.item_ref for label in queue))
+        return [facts_of(session, row) for row in items]
 
 
 def facts_for(db: Database, items: list[str]) -> list[LabelFacts]:
@@ -244,8 +241,9 @@ def read_scan(db: Database, scanned: str) -> ScanView:
     with db.read_session() as session:
         if not scanned.strip():
             raise InputError("scanned", scanned, "is empty; scan a label or type an ID")
-        load_for_scan(session, scanned, prefix_for(session, scanned))
-        row = get_any(session, "scanned", scanned)
+        public = read_public_id(session, "scanned", scanned)
+        options = scan_options(MODEL_BY_KIND[public.kind])
+        row = get_named(session, "scanned", scanned, public, options)
         status = getattr(row, "status", None)
         # a loan or an operator has an ID but wears no label
         lines = label_lines(session, row) if isinstance(row, LABELLED) else []

@@ -57,10 +57,10 @@ def show_item(db: Database, ref: str) -> ItemDetail:
     with db.read_session() as session:
         by_id = looks_like_id(ref, uri_prefix(session))
         row = get_any(session, "id", ref) if by_id else get_loan(session, "id", ref)
-        if isinstance(row, Specimen):
-            load_specimen_tree(session, row.id)  # one query per level instead of per node
+        if isinstance(row, Specimen):  # its tree: one query per level instead of per node
+            row = load_specimen_tree(session, row.id)
         elif isinstance(row, Loan):
-            load_loan_tree(session, row.id)
+            row = load_loan_tree(session, row.id)
         location = getattr(row, "location", None)
         loan_rows = row if isinstance(row, Loan) else None
         return ItemDetail(
@@ -250,7 +250,7 @@ def _solution_facts(row: Solution) -> dict[str, Any]:
     return facts
 
 
-def load_specimen_tree(session: Session, specimen_id: int) -> Specimen | None:
+def load_specimen_tree(session: Session, specimen_id: int) -> Specimen:
     """A specimen with its whole lineage loaded in a fixed number of queries (each column's
     batch and reference material and each cut's results included: the tree describes them)."""
     query = (
@@ -258,16 +258,16 @@ def load_specimen_tree(session: Session, specimen_id: int) -> Specimen | None:
         .where(Specimen.id == specimen_id)
         .options(*_lineage_options(Load(Specimen)))
     )
-    return session.scalars(query).one_or_none()
+    return session.scalars(query).one()
 
 
-def load_loan_tree(session: Session, loan_id: int) -> None:
+def load_loan_tree(session: Session, loan_id: int) -> Loan:
     """A loan's specimens with their lineages, in a fixed number of queries rather than one
     per specimen. Each specimen's extra terms stay in the database (they are deferred): the
     tree shows none of them, and a lender's wide list made them most of a loan's bytes."""
     specimens = selectinload(Loan.specimens)
     query = select(Loan).where(Loan.id == loan_id).options(*_lineage_options(specimens))
-    session.scalars(query).one()
+    return session.scalars(query).one()
 
 
 def _lineage_options(at: Any) -> list[Any]:

@@ -11,10 +11,8 @@ from __future__ import annotations
 
 from typing import Any
 
-from sqlalchemy import select
-from sqlalchemy.orm import Load, Session
+from sqlalchemy.orm import Load
 
-from tracker.domain.ids import BadId, parse_id
 from tracker.domain.models import (
     Aliquot,
     BatchPosition,
@@ -24,7 +22,6 @@ from tracker.domain.models import (
     Solution,
     Specimen,
 )
-from tracker.services.lookup import MODEL_BY_KIND
 
 
 def _specimen(at: Any) -> list[Any]:
@@ -66,29 +63,13 @@ _BELOW = {
 }
 
 
-def load_for_scan(session: Session, text: str, uri_prefix: str | None) -> None:
-    """Put the item ``text`` names, its ancestors and their collections in the session.
-
-    Reading errors are left to the caller, which reports them with the field it was given.
-    """
-    try:
-        public = parse_id(text, uri_prefix)
-    except BadId:
-        return
-    model = MODEL_BY_KIND[public.kind]
+def scan_options(model: type[Any]) -> list[Any]:
+    """Loader options that bring a scanned item of ``model`` with its chain of parents (and
+    its place) in the one query that reads it; none for an item without parents to show."""
     below = _BELOW.get(model)
-    if below is not None:
-        options = below(Load(model))
-        if hasattr(model, "location"):  # a column position has no place of its own
-            options.append(Load(model).joinedload(model.location))
-        query = select(model).where(model.id == public.number).options(*options)
-        keep(session, list(session.scalars(query).unique()))
-
-
-_KEPT = "tracker.preloaded"
-
-
-def keep(session: Session, rows: list[Any]) -> None:
-    """Hold preloaded rows for the session's life: its identity map holds rows only weakly,
-    so rows nobody refers to would be dropped and read again, one query each."""
-    session.info.setdefault(_KEPT, []).extend(rows)
+    if below is None:
+        return []
+    options = below(Load(model))
+    if hasattr(model, "location"):  # a column position has no place of its own
+        options.append(Load(model).joinedload(model.location))
+    return options

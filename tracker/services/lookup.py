@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from datetime import timedelta
 from typing import Any, TypeVar
 
@@ -103,46 +104,63 @@ def read_id(field: str, text: str, prefix: str | None = None) -> PublicId:
         raise InputError(field, text, str(exc)) from None
 
 
-def get_any(session: Session, field: str, text: str) -> HasPublicId:
-    """The row a public ID names, whatever its kind."""
-    public = read_id(field, text, prefix_for(session, text))
-    row = session.get(MODEL_BY_KIND[public.kind], public.number)
+def read_public_id(session: Session, field: str, text: str) -> PublicId:
+    """What ``text`` names, read once (the lab's link prefix looked up only for a link);
+    the rows are then found by the value read (:func:`get_named`), never by reading again."""
+    return read_id(field, text, prefix_for(session, text))
+
+
+def get_named(
+    session: Session, field: str, text: str, public: PublicId, options: Sequence[Any] = ()
+) -> HasPublicId:
+    """The row an ID already read names (``text``, as typed, for the refusal); ``options``
+    are loader options for what the caller reads of it."""
+    row = session.get(MODEL_BY_KIND[public.kind], public.number, options=options)
     if row is None:
-        raise NotFound(field, text, f"no {public.kind.name.lower().replace('_', ' ')} has this ID")
+        raise NotFound(field, text, f"no {_kind_name(public.kind)} has this ID")
     assert isinstance(row, HasPublicId)
     return row
 
 
+def get_any(session: Session, field: str, text: str) -> HasPublicId:
+    """The row a public ID names, whatever its kind."""
+    return get_named(session, field, text, read_public_id(session, field, text))
+
+
 def get_by_id(session: Session, model: type[T], field: str, text: str) -> T:
     """The row of a given kind; an ID of another kind is refused by name."""
-    public = read_id(field, text, prefix_for(session, text))
+    return _of_kind(session, model, field, text, read_public_id(session, field, text))
+
+
+def _of_kind(session: Session, model: type[T], field: str, text: str, public: PublicId) -> T:
     expected = model.id_kind  # type: ignore[attr-defined]
     if public.kind is not expected:
         raise InputError(
             field,
             text,
-            f"is a {public.kind.name.lower().replace('_', ' ')} ID; "
-            f"expected a {expected.name.lower().replace('_', ' ')} ID ({expected.value}-...)",
+            f"is a {_kind_name(public.kind)} ID; "
+            f"expected a {_kind_name(expected)} ID ({expected.value}-...)",
         )
     row = session.get(model, public.number)
     if row is None:
-        raise NotFound(field, text, f"no {expected.name.lower().replace('_', ' ')} has this ID")
+        raise NotFound(field, text, f"no {_kind_name(expected)} has this ID")
     return row
 
 
-def _kind_of(session: Session, text: str) -> Kind | None:
-    try:
-        return parse_id(text, prefix_for(session, text)).kind
-    except BadId:
-        return None
+def _kind_name(kind: Kind) -> str:
+    return kind.name.lower().replace("_", " ")
 
 
 def _by_id_or_label(
     session: Session, model: type[T], field: str, text: str, label: Any, what: str
 ) -> T:
     """A row by its public ID or, failing that, by a unique label column (case-insensitive)."""
-    if _kind_of(session, text) is model.id_kind:  # type: ignore[attr-defined]
-        return get_by_id(session, model, field, text)
+    try:
+        public: PublicId | None = parse_id(text, prefix_for(session, text))
+    except BadId:
+        public = None
+    if public is not None and public.kind is model.id_kind:  # type: ignore[attr-defined]
+        return _of_kind(session, model, field, text, public)
     matches = session.scalars(select(model).where(func.lower(label) == text.lower())).all()
     if len(matches) == 1:
         return matches[0]
