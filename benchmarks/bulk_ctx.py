@@ -20,8 +20,8 @@ from typing import Any, TypeVar
 
 from sqlalchemy.orm.attributes import set_committed_value
 
-from tracker.bench.bulk_state import State
-from tracker.bench.bulk_writer import BulkWriter
+from benchmarks.bulk_state import State
+from benchmarks.bulk_writer import BulkWriter
 from tracker.domain.authority import FORMAT_2
 from tracker.domain.base import Base, HasPublicId
 from tracker.domain.facts import (

@@ -6,8 +6,8 @@ from __future__ import annotations
 
 from typing import Any
 
-from tracker.bench.bulk_ctx import Ctx
-from tracker.bench.bulk_material import Handler, _put
+from benchmarks.bulk_ctx import Ctx
+from benchmarks.bulk_material import Handler, _put
 from tracker.domain.budget import is_significant, remaining
 from tracker.domain.errors import InputError, NotFound, RuleViolation
 from tracker.domain.ids import Kind, looks_like_id, parse_id

@@ -12,7 +12,7 @@ import math
 from collections.abc import Callable
 from typing import Any
 
-from tracker.bench.bulk_ctx import Ctx
+from benchmarks.bulk_ctx import Ctx
 from tracker.domain.allowance import Usage, check_drill
 from tracker.domain.budget import Amount
 from tracker.domain.errors import InputError, NotFound, RuleViolation

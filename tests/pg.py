@@ -1,9 +1,13 @@
-"""A private, throwaway PostgreSQL server (the test suite and the benchmark share it).
+"""A throwaway PostgreSQL server for the test session (and, when asked, for the benchmark).
 
-Where PostgreSQL's server binaries are installed, :func:`private_cluster` starts a cluster
-in a temporary directory, listening on 127.0.0.1 only, with ``fsync=off`` (nothing in it is
-meant to survive), and deletes it afterwards. ``initdb`` and ``pg_ctl`` refuse to run as
-root, so as root they run as the ``postgres`` user.
+Order of preference (tests/conftest.py): ``TRACKER_TEST_PG_URL`` (CI starts a cluster and
+exports it); else, where PostgreSQL's server binaries are installed, :func:`private_cluster`
+starts a cluster in a temporary directory, listening on 127.0.0.1 only, with ``fsync=off``
+(nothing in it is meant to survive), and deletes it afterwards; else the PostgreSQL tests are
+skipped with the reason printed — unless ``TRACKER_REQUIRE_PG=1`` (CI), which turns that into
+a failure. ``initdb`` and ``pg_ctl`` refuse to run as root, so as root they run as the
+``postgres`` user. tracker itself never starts a server: this lives with the tests, and the
+benchmark borrows it only for ``python -m benchmarks run --pg-cluster``.
 """
 
 from __future__ import annotations
