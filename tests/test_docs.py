@@ -9,6 +9,8 @@ import subprocess
 import sys
 from pathlib import Path
 
+import pytest
+
 from tests import factories as make
 from tests.conftest import TickingClock, seed
 from tracker.db.database import open_database
@@ -144,3 +146,33 @@ def test_labels_page_names_real_stocks_commands_and_a_valid_stock_file(
     assert isinstance(labels_group, TyperGroup)
     for command in re.findall(r"^tracker labels ([a-z-]+)", _blocks(section, "bash")[0], re.M):
         assert command in labels_group.commands
+
+
+def test_the_reliability_page_keeps_its_prose_when_a_run_writes_its_table(tmp_path: Path) -> None:
+    from tests.reliability import report
+
+    page = tmp_path / "reliability.md"
+    page.write_text(_page("reliability.md"), encoding="utf-8")
+    before = page.read_text(encoding="utf-8")
+    prose_before, _, rest = before.partition(report.BEGIN)
+    _, _, prose_after = rest.partition(report.END)
+    assert "--reliability-page docs/reliability.md" in prose_before  # the command, on top
+    assert "How the tests work" in prose_after
+
+    rows = dict(report.ROWS)
+    report.ROWS.clear()
+    try:
+        report.record("an invented test", "3 cases", "all refused")
+        report.write_page(page)
+    finally:
+        report.ROWS.clear()
+        report.ROWS.update(rows)
+    after = page.read_text(encoding="utf-8")
+    assert after == (
+        f"{prose_before}{report.BEGIN}\n| test | size | found |\n|---|---|---|\n"
+        f"| an invented test | 3 cases | all refused |\n{report.END}{prose_after}"
+    )
+
+    page.write_text("# a page without the markers\n", encoding="utf-8")
+    with pytest.raises(ValueError, match="no table between"):
+        report.write_page(page)
