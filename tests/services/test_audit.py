@@ -32,7 +32,7 @@ _KINDS = {
 
 
 def _key(table: Table, row: dict[str, Any]) -> str:
-    """A row's key as the README documents it: its public ID, else its primary key."""
+    """A row's key as docs/ledger.md documents it: its public ID, else its primary key."""
     kind: Kind | None = _KINDS.get(table.name)
     if kind is not None:
         return format_id(kind, row["id"])

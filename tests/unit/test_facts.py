@@ -1,4 +1,4 @@
-"""The facts of a row, in the form the README documents for a lender.
+"""The facts of a row, in the form docs/ledger.md documents for a lender.
 
 Expected values are written out by hand (times, days, digests computed with hashlib,
 check characters with python-stdnum's ISO/IEC 7064 MOD 37-2), never taken from tracker.
