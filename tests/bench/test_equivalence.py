@@ -17,8 +17,8 @@ import pytest
 from sqlalchemy import create_engine, select, text
 from sqlalchemy.engine import make_url
 
-from tracker.bench.generate import Built, build
-from tracker.bench.shape import Shape, shape_for
+from benchmarks.generate import Built, build
+from benchmarks.shape import Shape, shape_for
 from tracker.db.database import open_database
 from tracker.domain.base import Base
 from tracker.services import audit, ledger, reconcile
@@ -142,7 +142,7 @@ def test_open_loans_only_are_the_open_lines_of_the_whole_lab(both: tuple[Built, 
 
 
 def _shape_rows(shape: Shape) -> int:
-    from tracker.bench.plan import plan_steps
+    from benchmarks.plan import plan_steps
 
     return sum(
         step.args["content"].count(b"\n") - 1
@@ -156,8 +156,8 @@ def test_scale_one_is_a_busy_labs_decade() -> None:
     """The issue's numbers, counted from the plan itself (nothing is executed)."""
     from collections import Counter
 
-    from tracker.bench.plan import plan_steps
-    from tracker.bench.shape import SEED
+    from benchmarks.plan import plan_steps
+    from benchmarks.shape import SEED
 
     shape = shape_for(1.0)
     steps = Counter(step.do for step in plan_steps(shape, SEED))

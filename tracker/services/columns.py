@@ -20,12 +20,12 @@ from sqlalchemy.orm import selectinload
 from tracker.db.database import Database
 from tracker.domain.budget import Amount
 from tracker.domain.errors import RuleViolation
-from tracker.domain.models import BatchPosition, ColumnBatch, Cut, PositionKind
+from tracker.domain.models import BatchPosition, ColumnBatch, Cut, Location, PositionKind
 from tracker.services.common import finish, optional_location
 from tracker.services.inputs import FieldProblem, MassMg, Raw, Request, parse
 from tracker.services.label_queue import queue_label
 from tracker.services.lookup import get_by_id
-from tracker.services.uow import UnitOfWork, unit_of_work
+from tracker.services.uow import Acting, UnitOfWork, unit_of_work
 from tracker.services.views import Done, View
 
 
@@ -102,6 +102,14 @@ def cut_payload(position: BatchPosition, cut: Cut, label: str) -> dict[str, Any]
 
 def collect(uow: UnitOfWork, position: BatchPosition, request: RecordCut) -> Cut:
     """Add one cut to a column (part of a unit of work), refusing unknown or repeated cuts."""
+    check_cut(position, request)
+    cut = cut_row(uow, position, request, optional_location(uow, "location", request.location))
+    uow.session.add(cut)
+    return cut
+
+
+def check_cut(position: BatchPosition, request: RecordCut) -> None:
+    """A cut the batch collects and the column has not given yet."""
     batch = position.batch
     if request.cut not in batch.cut_names:
         raise RuleViolation(
@@ -109,17 +117,23 @@ def collect(uow: UnitOfWork, position: BatchPosition, request: RecordCut) -> Cut
         )
     if any(c.name == request.cut for c in position.cuts):
         raise RuleViolation("cut", request.cut, f"is already recorded for {position.public_id}")
+
+
+def cut_row(
+    who: Acting, position: BatchPosition, request: RecordCut, location: Location | None
+) -> Cut:
+    """The new cut's row: the service's, and the benchmark's bulk writer's."""
     amount = request.recovered_ug()
-    cut = Cut(
+    return Cut(
         position=position,
+        position_id=position.id,
         name=request.cut,
         recovered_ug=amount.value if amount else None,
         recovered_u_ug=amount.u if amount else None,
-        location=optional_location(uow, "location", request.location),
-        created_at=uow.now,
+        location=location,
+        location_id=location.id if location else None,
+        created_at=who.now,
     )
-    uow.session.add(cut)
-    return cut
 
 
 def _cut_view(cut: Cut) -> CutView:

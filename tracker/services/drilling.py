@@ -11,7 +11,7 @@ ledger, and every later reconciliation and report flags it.
 from __future__ import annotations
 
 import math
-from datetime import date
+from datetime import date, datetime
 from typing import Annotated, Any
 
 from pydantic import Field, field_validator
@@ -23,7 +23,7 @@ from tracker.domain.allowance import Limits, Recorded, Usage, Violation, check_d
 from tracker.domain.budget import Amount
 from tracker.domain.errors import InputError, RuleViolation
 from tracker.domain.materials import TISSUE_DEFAULTS
-from tracker.domain.models import LoanTerms, Powder, Specimen
+from tracker.domain.models import LoanTerms, Location, Powder, Specimen
 from tracker.domain.terms import terms_in_force
 from tracker.domain.timing import day_of
 from tracker.domain.units import format_value_u
@@ -40,7 +40,7 @@ from tracker.services.inputs import AwareDatetime, PositiveMassMg, Raw, Request,
 from tracker.services.label_queue import queue_label
 from tracker.services.lookup import get_by_id
 from tracker.services.materials import find_material
-from tracker.services.uow import UnitOfWork, unit_of_work
+from tracker.services.uow import Acting, UnitOfWork, unit_of_work
 from tracker.services.views import Done, PowderView, View
 
 
@@ -112,28 +112,45 @@ def drill(db: Database, actor: str | None, data: Drill | Raw) -> Done[PowderView
         material = request.material or TISSUE_DEFAULTS.get(request.tissue)
         if material is not None:
             material = find_material(uow.session, "material", material).name
-        powder = Powder(
-            specimen=specimen,
-            tissue=request.tissue,
-            site=request.site,
-            tare_mg=float(request.tare),
-            gross_mg=float(request.gross),
-            readability_mg=float(request.readability),
-            mass_mg=mass.value,
-            mass_u_mg=mass.u,
-            material=material,
-            drilled_at=when,
-            drilled_by=uow.operator.code,
-            override_reason=request.override_reason if violations else None,
-            location=optional_location(uow, "location", request.location),
-            created_at=uow.now,
-        )
+        location = optional_location(uow, "location", request.location)
+        powder = drilled_powder(uow, specimen, request, mass, material, when, violations, location)
         uow.session.add(powder)
         payload = drilled_payload(powder, specimen, material, terms.version, request, violations)
         payload["label"] = queue_label(uow, powder)
         return finish(
             uow, "powder.drilled", powder, payload, lambda: PowderView.of(powder), parent=specimen
         )
+
+
+def drilled_powder(
+    who: Acting,
+    specimen: Specimen,
+    request: Drill,
+    mass: Amount,
+    material: str | None,
+    when: datetime,
+    violations: list[Violation],
+    location: Location | None,
+) -> Powder:
+    """The drilled powder's row: the drill's, and the benchmark's bulk writer's."""
+    return Powder(
+        specimen=specimen,
+        specimen_id=specimen.id,
+        tissue=request.tissue,
+        site=request.site,
+        tare_mg=float(request.tare),
+        gross_mg=float(request.gross),
+        readability_mg=float(request.readability),
+        mass_mg=mass.value,
+        mass_u_mg=mass.u,
+        material=material,
+        drilled_at=when,
+        drilled_by=who.operator.code,
+        override_reason=request.override_reason if violations else None,
+        location=location,
+        location_id=location.id if location else None,
+        created_at=who.now,
+    )
 
 
 def _refuse_or_override(

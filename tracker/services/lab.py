@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from datetime import datetime
 from typing import Annotated, Any
 
 from pydantic import Field, model_validator
@@ -23,6 +24,7 @@ from tracker.domain.models import (
     ColumnBatch,
     Concentration,
     ContainerStatus,
+    Location,
     Powder,
     Solution,
 )
@@ -48,7 +50,7 @@ from tracker.services.inputs import (
 )
 from tracker.services.label_queue import queue_label
 from tracker.services.lookup import get_by_id
-from tracker.services.uow import unit_of_work
+from tracker.services.uow import Acting, unit_of_work
 from tracker.services.views import AliquotView, ConcentrationView, Done, SolutionView
 
 
@@ -70,6 +72,32 @@ class Dissolve(Request):
     location: str | None = None
 
 
+def dissolved_solution(
+    who: Acting,
+    powder: Powder,
+    request: Dissolve,
+    taken: Amount,
+    grams: Amount,
+    when: datetime,
+    location: Location | None,
+) -> Solution:
+    """The new solution's row: the dissolve service's, and the benchmark's bulk writer's."""
+    return Solution(
+        powder=powder,
+        powder_id=powder.id,
+        powder_mass_mg=taken.value,
+        powder_mass_u_mg=taken.u,
+        acid=request.acid,
+        solution_mass_g=grams.value,
+        solution_mass_u_g=grams.u,
+        dissolved_at=when,
+        dissolved_by=who.operator.code,
+        location=location,
+        location_id=location.id if location else None,
+        created_at=who.now,
+    )
+
+
 def dissolve(db: Database, actor: str | None, data: Dissolve | Raw) -> Done[SolutionView]:
     """Dissolve all or part of a powder; the solution is weighed by difference."""
     request = parse(Dissolve, data)
@@ -82,24 +110,11 @@ def dissolve(db: Database, actor: str | None, data: Dissolve | Raw) -> Done[Solu
         if not is_significant(remaining(left, [taken])):  # nothing measurable is left
             powder.status = ContainerStatus.CONSUMED
         grams = solution_mass.amount(scale=1e-3)
-        solution = Solution(
-            powder=powder,
-            powder_mass_mg=taken.value,
-            powder_mass_u_mg=taken.u,
-            acid=request.acid,
-            solution_mass_g=grams.value,
-            solution_mass_u_g=grams.u,
-            dissolved_at=action_time(
-                uow,
-                request.dissolved_at,
-                "dissolved-at",
-                [drilled(powder)],
-                books=powder.specimen,
-            ),
-            dissolved_by=uow.operator.code,
-            location=optional_location(uow, "location", request.location),
-            created_at=uow.now,
+        when = action_time(
+            uow, request.dissolved_at, "dissolved-at", [drilled(powder)], books=powder.specimen
         )
+        location = optional_location(uow, "location", request.location)
+        solution = dissolved_solution(uow, powder, request, taken, grams, when, location)
         uow.session.add(solution)
         payload = dissolved_payload(powder, solution, request, queue_label(uow, solution))
         return finish(
@@ -242,6 +257,23 @@ def solution_element(solution: Solution, element: str | None = None) -> tuple[st
     return concentration.element, amount
 
 
+def concentration_row(
+    who: Acting, solution: Solution, request: RecordConcentration, when: datetime
+) -> Concentration:
+    """A measured concentration's row: the service's, and the benchmark's bulk writer's."""
+    return Concentration(
+        solution=solution,
+        solution_id=solution.id,
+        element=request.element,
+        value_ug_per_g=float(request.value),
+        u_ug_per_g=request.standard_uncertainty(),
+        method=request.method,
+        measured_at=when,
+        recorded_by=who.operator.code,
+        created_at=who.now,
+    )
+
+
 def record_concentration(
     db: Database, actor: str | None, data: RecordConcentration | Raw
 ) -> Done[ConcentrationView]:
@@ -249,22 +281,14 @@ def record_concentration(
     request = parse(RecordConcentration, data)
     with unit_of_work(db, actor) as uow:
         solution = get_by_id(uow.session, Solution, "solution", request.solution)
-        row = Concentration(
-            solution=solution,
-            element=request.element,
-            value_ug_per_g=float(request.value),
-            u_ug_per_g=request.standard_uncertainty(),
-            method=request.method,
-            measured_at=action_time(
-                uow,
-                request.measured_at,
-                "measured-at",
-                [dissolved(solution)],
-                books=solution.powder.specimen,
-            ),
-            recorded_by=uow.operator.code,
-            created_at=uow.now,
+        when = action_time(
+            uow,
+            request.measured_at,
+            "measured-at",
+            [dissolved(solution)],
+            books=solution.powder.specimen,
         )
+        row = concentration_row(uow, solution, request, when)
         uow.session.add(row)
         uow.session.flush()
         element, payload = concentration_payload(solution, row)
@@ -323,6 +347,29 @@ def require_aliquot_fits(solution: Solution, wanted: Amount, request: TakeAliquo
         )
 
 
+def taken_aliquot(
+    who: Acting,
+    solution: Solution,
+    request: TakeAliquot,
+    wanted: Amount,
+    when: datetime,
+    location: Location | None,
+) -> Aliquot:
+    """The new aliquot's row: the service's, and the benchmark's bulk writer's."""
+    return Aliquot(
+        solution=solution,
+        solution_id=solution.id,
+        mass_g=wanted.value,
+        mass_u_g=wanted.u,
+        purpose=request.purpose,
+        taken_at=when,
+        taken_by=who.operator.code,
+        location=location,
+        location_id=location.id if location else None,
+        created_at=who.now,
+    )
+
+
 def take_aliquot(db: Database, actor: str | None, data: TakeAliquot | Raw) -> Done[AliquotView]:
     """Weigh out part of a solution; its element content follows from the concentration."""
     request = parse(TakeAliquot, data)
@@ -330,22 +377,11 @@ def take_aliquot(db: Database, actor: str | None, data: TakeAliquot | Raw) -> Do
     with unit_of_work(db, actor) as uow:
         solution = get_by_id(uow.session, Solution, "solution", request.solution)
         require_aliquot_fits(solution, wanted, request)
-        aliquot = Aliquot(
-            solution=solution,
-            mass_g=wanted.value,
-            mass_u_g=wanted.u,
-            purpose=request.purpose,
-            taken_at=action_time(
-                uow,
-                request.taken_at,
-                "taken-at",
-                [dissolved(solution)],
-                books=solution.powder.specimen,
-            ),
-            taken_by=uow.operator.code,
-            location=optional_location(uow, "location", request.location),
-            created_at=uow.now,
+        when = action_time(
+            uow, request.taken_at, "taken-at", [dissolved(solution)], books=solution.powder.specimen
         )
+        location = optional_location(uow, "location", request.location)
+        aliquot = taken_aliquot(uow, solution, request, wanted, when, location)
         uow.session.add(aliquot)
         element = aliquot_element(aliquot)
         payload = aliquot_payload(aliquot, request, element, queue_label(uow, aliquot))

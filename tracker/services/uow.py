@@ -21,11 +21,11 @@ says needs a manager is refused otherwise, here as in ``ledger verify``.
 from __future__ import annotations
 
 import sys
-from collections.abc import Callable, Iterator
+from collections.abc import Callable, Iterable, Iterator
 from contextlib import contextmanager
 from dataclasses import dataclass, field
 from datetime import datetime, timedelta
-from typing import Any
+from typing import Any, Protocol
 
 from sqlalchemy import select
 from sqlalchemy.exc import DBAPIError
@@ -75,6 +75,14 @@ class Backdating:
         """What the event's payload says of it, beside the event's own (recording) time."""
         stated = iso_utc(self.stated)
         return {"field": self.field, "stated_at": stated, "window_hours": self.window_hours}
+
+
+class Acting(Protocol):
+    """Who acts and when: what a row builder needs of a unit of work (and of the
+    benchmark's bulk step, which builds the same rows without a session)."""
+
+    operator: Operator
+    now: datetime
 
 
 @dataclass
@@ -163,8 +171,8 @@ class UnitOfWork:
         for hook in self.naming_event:
             hook(link[0])
         self.session.flush()
-        refs = sorted((self.mentions | self.written.names()) - {object_ref, parent_ref})
-        mentions = [{"seq": link[0], "ref": ref} for ref in refs]
+        names = self.mentions | self.written.names()
+        mentions = mention_rows(link[0], names, object_ref, parent_ref)
         self.written.created_rows(_EVENT_REF.name, mentions)
         payload = {**payload, FACTS: self.written.facts()}
         self.sealed()
@@ -233,9 +241,34 @@ def append_event(
     (:func:`next_link`) to name the event in rows written before it.
     """
     seq, prev = link or next_link(session)
+    event = sealed_event(
+        (seq, prev), at, operator, origin, action, object_ref, parent_ref, payload, signer
+    )
+    session.add(event)
+    session.flush()
+    return event
+
+
+def sealed_event(
+    link: tuple[int, str],
+    at: datetime,
+    operator: str,
+    origin: Origin,
+    action: str,
+    object_ref: str,
+    parent_ref: str,
+    payload: dict[str, Any],
+    signer: Signer,
+) -> CustodyEvent:
+    """The event row itself, its payload canonical and its hash signed, not yet added.
+
+    The one place an event row is built: the unit of work adds it to its session, the
+    benchmark's bulk writer (which keeps the head in memory) batches it.
+    """
+    seq, prev = link
     text = canonical_json(payload, default=expanded)  # rows written set-based, row by row
     sealed = seal(seq, at, operator, origin, action, object_ref, parent_ref, prev, text, signer)
-    event = CustodyEvent(
+    return CustodyEvent(
         seq=seq,
         at=at,
         operator=operator,
@@ -252,9 +285,13 @@ def append_event(
         key_id=sealed.key_id,
         signature=sealed.signature,
     )
-    session.add(event)
-    session.flush()
-    return event
+
+
+def mention_rows(
+    seq: int, names: Iterable[str], object_ref: str, parent_ref: str
+) -> list[dict[str, Any]]:
+    """The event's ``event_ref`` rows: every name its rows bear but its object and parent."""
+    return [{"seq": seq, "ref": ref} for ref in sorted(set(names) - {object_ref, parent_ref})]
 
 
 def next_link(session: Session) -> tuple[int, str]:

@@ -4,11 +4,12 @@
 round trip: the next sequence number and the previous hash come from memory, the rows the
 step made (:meth:`Ctx.new`) and changed (:meth:`Ctx.changed`, the columns told by each
 row's own attribute history, as a flush tells the services) become the payload's facts
-through the domain's own :class:`~tracker.domain.facts.Written`, the payload goes through
-:func:`canonical_json`, and the hash and its signature through its own :func:`seal` with
-the operator's key (chosen by the services' ``signer_for``), so the chain is the one the
-services would have written. A bench action's queued label is the same row
-``queue_label`` writes, naming the same event, and stated among its facts.
+through the domain's own :class:`~tracker.domain.facts.Written`, and the event row is the
+unit of work's own :func:`~tracker.services.uow.sealed_event` (canonical JSON, hash, the
+signature of the operator's key chosen by the services' ``signer_for``), its mentions
+:func:`~tracker.services.uow.mention_rows`, so the chain is the one the services would have
+written. A bench action's queued label is ``queue_label``'s own row
+(:func:`~tracker.services.label_queue.label_row`), naming the same event, among its facts.
 """
 
 from __future__ import annotations
@@ -20,21 +21,19 @@ from typing import Any, TypeVar
 
 from sqlalchemy.orm.attributes import set_committed_value
 
-from tracker.bench.bulk_state import State
-from tracker.bench.bulk_writer import BulkWriter
-from tracker.domain.authority import FORMAT_2
+from benchmarks.bulk_state import State
+from benchmarks.bulk_writer import BulkWriter
 from tracker.domain.base import Base, HasPublicId
 from tracker.domain.facts import (
     FACTS,
     Written,
     changed_columns,
-    expanded,
     layout,
     table_of,
     values_of,
 )
-from tracker.domain.ledger import Origin, canonical_json, seal
-from tracker.domain.models import CustodyEvent, EventRef, Label, LabelStatus, Location, Operator
+from tracker.domain.ledger import Origin
+from tracker.domain.models import EventRef, Label, Location, Operator
 from tracker.domain.signing import Signer
 from tracker.domain.timing import (
     CLOCK_SKEW,
@@ -44,6 +43,8 @@ from tracker.domain.timing import (
     not_before,
     stated_time,
 )
+from tracker.services.label_queue import label_row
+from tracker.services.uow import mention_rows, sealed_event
 
 T = TypeVar("T", bound=Base)
 
@@ -96,58 +97,36 @@ class Ctx:
         parent: HasPublicId | None = None,
         label: HasPublicId | None = None,
     ) -> None:
-        """Append this step's one custody event (and the label it queued), its facts stated."""
+        """Append this step's one custody event (and the label it queued), its facts stated:
+        the rows built by the services' own builders, only the head kept in memory."""
         state, code = self.state, self.operator.code
         seq, previous = state.head_seq + 1, state.head_hash
         object_ref, parent_ref = obj.public_id, parent.public_id if parent else ""
         if label is not None:
-            row = {
-                "id": state.take_id(Label),
-                "item_ref": label.public_id,
-                "status": LabelStatus.QUEUED,
-                "queued_event_seq": seq,
-                "queued_by": code,
-                "queued_at": self.now,
-                "job_id": None,
-            }
-            self.writer.add_row(Label, row)
-            self.written.created_rows(Label.__tablename__, [row])
+            row = label_row(label, seq, code, self.now)
+            row.id = state.take_id(Label)
+            self.writer.add(row)
+            self.written.created(row)
         for item in self.touched:
             self.written.changed(item, changed_columns(item))
-        mentions = [
-            {"seq": seq, "ref": ref}
-            for ref in sorted(self.written.names() - {object_ref, parent_ref})
-        ]
-        for row in mentions:
-            self.writer.add_row(EventRef, row)
+        mentions = mention_rows(seq, self.written.names(), object_ref, parent_ref)
+        for mention in mentions:
+            self.writer.add_row(EventRef, mention)
         self.written.created_rows(EventRef.__tablename__, mentions)
-        text = canonical_json({**payload, FACTS: self.written.facts()}, default=expanded)
+        event = sealed_event(
+            (seq, previous),
+            self.now,
+            code,
+            self.origin,
+            action,
+            object_ref,
+            parent_ref,
+            {**payload, FACTS: self.written.facts()},
+            self.signer,
+        )
         _settle(self.touched)
-        origin = self.origin
-        sealed = seal(
-            seq, self.now, code, origin, action, object_ref, parent_ref, previous, text, self.signer
-        )
-        self.writer.add_row(
-            CustodyEvent,
-            {
-                "seq": seq,
-                "at": self.now,
-                "operator": code,
-                "action": action,
-                "object_ref": object_ref,
-                "parent_ref": parent_ref,
-                "payload": text,
-                "prev_hash": previous,
-                "hash": sealed.hash,
-                "format": FORMAT_2,
-                "os_user": origin.os_user,
-                "host": origin.host,
-                "db_user": origin.db_user,
-                "key_id": sealed.key_id,
-                "signature": sealed.signature,
-            },
-        )
-        state.head_seq, state.head_hash = seq, sealed.hash
+        self.writer.add_event(event)
+        state.head_seq, state.head_hash = seq, event.hash
 
 
 def _settle(rows: list[Any]) -> None:

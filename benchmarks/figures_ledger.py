@@ -10,13 +10,13 @@ from __future__ import annotations
 
 import json
 import subprocess
-import sys
 import tempfile
 from dataclasses import dataclass
 from pathlib import Path
 from time import perf_counter
 
-from tracker.bench.measure import Figure, Target, best_of
+from benchmarks import children
+from benchmarks.measure import Figure, Target, best_of
 from tracker.db.database import Database
 from tracker.db.engine import sqlite_path
 from tracker.domain.timeutil import iso_utc
@@ -32,10 +32,11 @@ class ChildRun:
 
 
 def run_child(*args: str) -> ChildRun:
-    """Run ``python -m tracker.bench.probe ARGS``; its answer, with the peak memory it saw."""
+    """Run ``python -m benchmarks.probe ARGS``; its answer, with the peak memory it saw."""
     with tempfile.TemporaryFile() as errors:
         process = subprocess.run(
-            [sys.executable, "-m", "tracker.bench.probe", *args],
+            children.command("probe", *args),
+            env=children.environment(),
             stdout=subprocess.PIPE,
             stderr=errors,
             check=False,
@@ -97,7 +98,7 @@ def signing_figure(db: Database, repeat: int) -> Figure:
     ``hashlib`` over the same bytes and ``cryptography``'s bare Ed25519 sign of the hash."""
     import hashlib
 
-    from tracker.bench.plan import TECHNICIANS, bench_signer
+    from benchmarks.plan import TECHNICIANS, bench_signer
     from tracker.domain.ledger import GENESIS_HASH, canonical_bytes_2, seal
     from tracker.services import authority as signing
 

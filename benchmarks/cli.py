@@ -1,7 +1,8 @@
-"""``tracker bench``: build the synthetic lab of a given scale, and measure tracker on it.
+"""``python -m benchmarks``: build the synthetic lab of a given scale, and measure tracker on it.
 
-Thin commands: options are checked here and handed to :mod:`tracker.bench`, which is
-imported only when a bench command runs (it loads the benchmark's own machinery).
+Thin commands: options are checked here and handed to the benchmark's modules, imported only
+when a command runs. Refusals take tracker's own shape (one line naming the option and the
+value, exit 2): the app is a :class:`tracker.cli.state.TrackerGroup`.
 """
 
 from __future__ import annotations
@@ -14,19 +15,32 @@ import typer
 from rich.table import Table
 
 from tracker.cli.out_options import Force
-from tracker.cli.state import emit, errors
+from tracker.cli.state import State, TrackerGroup, emit, errors
 from tracker.db import outputs
 from tracker.domain.errors import InputError
 
-bench_app = typer.Typer(
-    help="Performance: a synthetic lab's decade, and every figure measured next to its floor.",
-    epilog="Example: tracker bench run --scale 1",
+app = typer.Typer(
+    cls=TrackerGroup,
+    help="Performance: a synthetic lab's decade, and every figure measured next to its floor. "
+    "Run from a checkout of tracker; the benchmark is not installed with it.",
+    epilog="Example: python -m benchmarks run --scale 1",
     no_args_is_help=True,
+    add_completion=False,
+    rich_markup_mode=None,
+    pretty_exceptions_enable=False,
 )
-
-GENERATE_EPILOG = "Example: tracker bench generate --scale 0.25"
-RUN_EPILOG = "Example: tracker bench run --scales 0.25,1,4 --backend sqlite"
 Opt = typer.Option
+
+
+@app.callback()
+def root(
+    ctx: typer.Context,
+    as_json: Annotated[
+        bool, Opt("--json", help="Print exactly one JSON document on stdout.")
+    ] = False,
+) -> None:
+    """Global options."""
+    ctx.obj = State(db=None, actor=None, as_json=as_json)
 
 
 def _cache(given: Path | None) -> Path:
@@ -53,6 +67,7 @@ def _say(message: str) -> None:
     errors.print(message, markup=False, highlight=False)
 
 
+@app.command(epilog="Example: python -m benchmarks generate --scale 0.25")
 def generate(
     ctx: typer.Context,
     scale: Annotated[str, Opt("--scale", help="1 = 300 loans, 1,000,000+ events.")] = "1",
@@ -67,7 +82,7 @@ def generate(
     rebuild: Annotated[bool, Opt("--rebuild", help="Build again even if cached.")] = False,
 ) -> None:
     """Build the synthetic database of a scale (deterministic; the cached copy is reused)."""
-    from tracker.bench import generate as gen
+    from benchmarks import generate as gen
 
     value = _scale(scale, "--scale")
     if executor not in ("bulk", "services"):
@@ -95,6 +110,7 @@ def generate(
     )
 
 
+@app.command(epilog="Example: python -m benchmarks run --scales 0.25,1,4 --backend sqlite")
 def run(
     ctx: typer.Context,
     scale: Annotated[str, Opt("--scale", help="One scale (1 = a busy lab's decade).")] = "1",
@@ -103,8 +119,16 @@ def run(
     ] = None,
     backend: Annotated[str, Opt("--backend", help="sqlite, postgresql or both.")] = "both",
     pg_url: Annotated[
-        str | None, Opt("--pg-url", help="PostgreSQL server (default: a private cluster).")
+        str | None, Opt("--pg-url", help="PostgreSQL server for the PostgreSQL figures.")
     ] = None,
+    pg_cluster: Annotated[
+        bool,
+        Opt(
+            "--pg-cluster",
+            help="Start a throwaway PostgreSQL cluster for them instead (initdb in a temporary "
+            "folder, as the postgres user when run as root; deleted afterwards).",
+        ),
+    ] = False,
     repeat: Annotated[int, Opt("--repeat", min=1, max=20, help="Runs per figure (best kept).")] = 3,
     cache: Annotated[Path | None, Opt("--cache", help="Folder of cached databases.")] = None,
     only: Annotated[
@@ -116,11 +140,17 @@ def run(
     force: Force = False,
 ) -> None:
     """Measure every figure next to its floor; exit 1 if a target is missed."""
-    from tracker.bench import run as bench
+    from benchmarks import run as bench
 
     chosen = [_scale(s, "--scales") for s in scales.split(",")] if scales else []
     if backend not in ("sqlite", "postgresql", "both"):
         raise InputError("--backend", backend, "is not sqlite, postgresql or both")
+    if pg_url and pg_cluster:
+        raise InputError("--pg-url", pg_url, "give --pg-url or --pg-cluster, not both")
+    if backend == "postgresql" and not (pg_url or pg_cluster):
+        from benchmarks.figures_pg import NO_SERVER
+
+        raise InputError("--backend", backend, NO_SERVER)
     keys = tuple(k.strip() for k in only.split(",")) if only else ()
     unknown = [k for k in keys if k not in (*bench.SQLITE_FIGURES, *bench.PG_FIGURES)]
     if unknown:
@@ -130,6 +160,7 @@ def run(
         scales=chosen or [_scale(scale, "--scale")],
         backend=backend,  # type: ignore[arg-type]
         pg_url=pg_url,
+        pg_cluster=pg_cluster,
         repeat=repeat,
         cache=_cache(cache),
         only=keys,
@@ -139,10 +170,12 @@ def run(
         outputs.check_target(markdown, "--markdown", force=force)
     report = bench.run(options)
     if markdown is not None:
-        from tracker.bench.markdown import markdown as as_markdown
+        from benchmarks.markdown import markdown as as_markdown
 
         scales_text = ",".join(f"{s:g}" for s in options.scales)
-        command = f"tracker bench run --scales {scales_text} --backend {backend} --repeat {repeat}"
+        command = (
+            f"python -m benchmarks run --scales {scales_text} --backend {backend} --repeat {repeat}"
+        )
         command += f" --only {only}" if only else ""
         text = as_markdown(report.as_dict(), command)
         written = outputs.write_new(markdown, text.encode(), "--markdown", force=force)
@@ -154,7 +187,7 @@ def run(
 
 
 def _tables(report: Any) -> Table:
-    table = Table(title="tracker bench", title_justify="left", show_lines=False)
+    table = Table(title="tracker benchmark", title_justify="left", show_lines=False)
     for heading in ("Figure", "Scale", "Measured", "Floor", "Ratio", "Target", "Met"):
         table.add_column(heading, justify="left" if heading in ("Figure", "Target") else "right")
     for f in report.figures:

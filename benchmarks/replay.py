@@ -11,8 +11,8 @@ from collections.abc import Iterable
 from pathlib import Path
 from typing import Any
 
-from tracker.bench.plan import FOUNDER, Step, bench_keyring, bench_signer
-from tracker.bench.shape import START
+from benchmarks.plan import FOUNDER, Step, bench_keyring, bench_signer
+from benchmarks.shape import START
 from tracker.db.database import Database
 from tracker.io.demo import SERVICES, StepClock
 from tracker.services import setup

@@ -12,14 +12,13 @@ import math
 from collections.abc import Callable
 from typing import Any
 
-from tracker.bench.bulk_ctx import Ctx
+from benchmarks.bulk_ctx import Ctx
 from tracker.domain.allowance import Usage, check_drill
 from tracker.domain.budget import Amount
 from tracker.domain.errors import InputError, NotFound, RuleViolation
 from tracker.domain.materials import PRESETS, TISSUE_DEFAULTS
 from tracker.domain.models import (
     Aliquot,
-    ContainerStatus,
     Cut,
     LabelStatus,
     Loan,
@@ -47,7 +46,13 @@ from tracker.services.custody import (
     require_here,
     residual_weighing,
 )
-from tracker.services.drilling import Drill, drilled_payload, limits_of, recorded_on
+from tracker.services.drilling import (
+    Drill,
+    drilled_payload,
+    drilled_powder,
+    limits_of,
+    recorded_on,
+)
 from tracker.services.inputs import parse
 from tracker.services.specimens import (
     CheckIn,
@@ -55,6 +60,7 @@ from tracker.services.specimens import (
     ReturnSpecimen,
     added_payload,
     checked_in_payload,
+    listed_specimen,
     returned_payload,
 )
 
@@ -72,10 +78,7 @@ def add_specimen(ctx: Ctx, args: dict[str, Any]) -> Specimen:
     if any(s.catalog_number == request.catalog_number for s in loan.specimens):
         raise RuleViolation("catalog-number", request.catalog_number, "is already on this loan")
     fields = request.model_dump(exclude={"loan"})
-    specimen = ctx.new(
-        Specimen(loan_id=loan.id, **fields, status=SpecimenStatus.EXPECTED, created_at=ctx.now)
-    )
-    specimen.loan = loan
+    specimen = ctx.new(listed_specimen(ctx, loan, fields))
     ctx.record("specimen.added", specimen, added_payload(loan, fields), parent=loan)
     return specimen
 
@@ -161,25 +164,8 @@ def drill(ctx: Ctx, args: dict[str, Any]) -> Powder:
     material = _preset(request.material or TISSUE_DEFAULTS.get(request.tissue))
     location = ctx.place(request.location)
     powder = ctx.new(
-        Powder(
-            specimen_id=specimen.id,
-            tissue=request.tissue,
-            site=request.site,
-            tare_mg=float(request.tare),
-            gross_mg=float(request.gross),
-            readability_mg=float(request.readability),
-            mass_mg=mass.value,
-            mass_u_mg=mass.u,
-            material=material,
-            drilled_at=when,
-            drilled_by=ctx.operator.code,
-            override_reason=request.override_reason if violations else None,
-            status=ContainerStatus.AVAILABLE,
-            created_at=ctx.now,
-        )
+        drilled_powder(ctx, specimen, request, mass, material, when, violations, location)
     )
-    powder.specimen = specimen
-    _put(powder, location)
     payload = drilled_payload(powder, specimen, material, terms.version, request, violations)
     payload["label"] = LabelStatus.QUEUED.value
     ctx.record("powder.drilled", powder, payload, parent=specimen, label=powder)

@@ -5,12 +5,12 @@ from __future__ import annotations
 
 import json
 import subprocess
-import sys
 import tempfile
 from dataclasses import dataclass
 from pathlib import Path
 
-from tracker.bench.measure import Figure, Target
+from benchmarks import children
+from benchmarks.measure import Figure, Target
 from tracker.db.engine import sqlite_path
 
 
@@ -27,10 +27,11 @@ class AuditRun:
 
 
 def run_child(what: str, path: Path) -> AuditRun:
-    """``python -m tracker.bench.audit_probe WHAT PATH``: its answer and peak memory."""
+    """``python -m benchmarks.audit_probe WHAT PATH``: its answer and peak memory."""
     with tempfile.TemporaryFile() as errors:
         process = subprocess.run(
-            [sys.executable, "-m", "tracker.bench.audit_probe", what, str(path)],
+            children.command("audit_probe", what, str(path)),
+            env=children.environment(),
             stdout=subprocess.PIPE,
             stderr=errors,
             check=False,

@@ -24,6 +24,7 @@ from tracker.db.database import Database
 from tracker.db.engine import writer
 from tracker.domain.base import Base
 from tracker.domain.facts import values_of
+from tracker.domain.models import CustodyEvent
 
 
 class BulkWriter:
@@ -49,8 +50,14 @@ class BulkWriter:
         self._pending.setdefault(self._table(type(obj)), []).append(obj)
 
     def add_row(self, model: type[Base], row: dict[str, Any]) -> None:
-        """A new row that never changes (ledger events, labels), given as column values."""
+        """A new row that never changes (ledger mentions), given as column values."""
         self._pending.setdefault(self._table(model), []).append(row)
+
+    def add_event(self, event: CustodyEvent) -> None:
+        """A ledger event, built whole by the services' ``sealed_event``: every column set."""
+        mapper = inspect(CustodyEvent)
+        row = {p.columns[0].name: getattr(event, p.key) for p in mapper.column_attrs}
+        self.add_row(CustodyEvent, row)
 
     def changed(self, obj: Base) -> None:
         """``obj`` changed; if its row is already written, rewrite it at the next flush."""

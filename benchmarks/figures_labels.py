@@ -8,8 +8,8 @@ symbols (the same payloads, the same error-correction level).
 
 from __future__ import annotations
 
-from tracker.bench.figures_read import raw_rows
-from tracker.bench.measure import Figure, Target, best_of, timed
+from benchmarks.figures_read import raw_rows
+from benchmarks.measure import Figure, Target, best_of, timed
 from tracker.db.database import Database
 from tracker.domain.labels import LabelFacts
 from tracker.output import qr

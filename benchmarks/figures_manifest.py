@@ -21,9 +21,9 @@ from functools import partial
 from pathlib import Path
 from typing import Any
 
-from tracker.bench.measure import Figure, Target, settle_writes, timed
-from tracker.bench.plan import FOUNDER, bench_keyring
-from tracker.bench.shape import END
+from benchmarks.measure import Figure, Target, settle_writes, timed
+from benchmarks.plan import FOUNDER, bench_keyring
+from benchmarks.shape import END
 from tracker.db.database import open_database
 from tracker.domain.ids import Kind, format_id
 from tracker.io.demo import StepClock

@@ -11,7 +11,7 @@ import random
 from functools import partial
 from typing import Any
 
-from tracker.bench.measure import Figure, Target, best_of, median, percentile, timed
+from benchmarks.measure import Figure, Target, best_of, median, percentile, timed
 from tracker.db.database import Database
 from tracker.domain.ids import Kind, format_id
 from tracker.services import labels, lineage, reconcile

@@ -19,7 +19,7 @@ from dataclasses import dataclass, field
 from datetime import datetime, timedelta
 from typing import Any
 
-from tracker.bench.shape import START, Shape
+from benchmarks.shape import START, Shape
 from tracker.db.keyring import Keyring
 from tracker.domain.ids import Kind, format_id
 from tracker.domain.signing import Signer, seeded_signer
@@ -183,7 +183,7 @@ def _places(clock: Clock, ids: Ids, world: World) -> Iterator[Step]:
 
 def plan_steps(shape: Shape, seed: int) -> Iterator[Step]:
     """The whole plan, in time order: setup, then each loan's window, returns merged in."""
-    from tracker.bench.plan_loan import LoanPlanner  # the planner imports this module
+    from benchmarks.plan_loan import LoanPlanner  # the planner imports this module
 
     ids, world = Ids(), World()
     yield from setup_steps(shape, ids, world)

@@ -19,10 +19,11 @@ from typing import Literal
 
 from sqlalchemy import func, select
 
-from tracker.bench.bulk import BulkExecutor
-from tracker.bench.plan import Step, plan_steps
-from tracker.bench.replay import new_database, run_services
-from tracker.bench.shape import GENERATOR_VERSION, SEED, START, Shape, shape_for
+from benchmarks import children
+from benchmarks.bulk import BulkExecutor
+from benchmarks.plan import Step, plan_steps
+from benchmarks.replay import new_database, run_services
+from benchmarks.shape import GENERATOR_VERSION, SEED, START, Shape, shape_for
 from tracker.db import migrate
 from tracker.db.database import Database
 from tracker.domain.models import CustodyEvent
@@ -121,8 +122,10 @@ def cached_apart(folder: Path, scale: float, progress: Progress | None = None) -
     path = cache_path(folder, scale)
     missing = not (path.exists() and path.with_name(path.name + ".json").exists())
     if missing:
-        command = [sys.executable, "-m", "tracker.bench.generate", str(folder), repr(scale)]
-        child = subprocess.Popen(command, stdout=subprocess.PIPE, text=True)
+        command = children.command("generate", str(folder), repr(scale))
+        child = subprocess.Popen(
+            command, stdout=subprocess.PIPE, text=True, env=children.environment()
+        )
         assert child.stdout is not None
         for line in child.stdout:  # one line per progress report: steps written so far
             if progress is not None and line.strip().isdigit():
@@ -136,7 +139,7 @@ def cached_apart(folder: Path, scale: float, progress: Progress | None = None) -
 
 
 def _main(argv: list[str]) -> int:
-    """``python -m tracker.bench.generate FOLDER SCALE``: build into the cache, report steps."""
+    """``python -m benchmarks.generate FOLDER SCALE``: build into the cache, report steps."""
     cached(Path(argv[1]), float(argv[2]), progress=lambda n: print(n, flush=True))
     return 0
 

@@ -1,9 +1,9 @@
 """Child process for the cold-start figure: a fresh interpreter, until the first screen is ready.
 
-``python -m tracker.bench.tui_probe app TARGET OPERATOR`` opens tracker's interface headless
+``python -m benchmarks.tui_probe app TARGET OPERATOR`` opens tracker's interface headless
 on the database, as the ``tracker`` command does, and prints ``ready`` once the loans
 overview table holds its rows;
-``python -m tracker.bench.tui_probe bare`` opens a Textual app with one static line and prints
+``python -m benchmarks.tui_probe bare`` opens a Textual app with one static line and prints
 ``ready`` once it is mounted. The parent times each from launch to that line.
 """
 

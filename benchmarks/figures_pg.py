@@ -1,7 +1,9 @@
 """PostgreSQL figures: reconcile at the scale's size, and drills per second with 8 clients.
 
-The database is built by the bulk executor into a fresh database on a private cluster
-(started here where PostgreSQL's server binaries are installed) or on the server a URL names.
+The database is built by the bulk executor into a fresh database on the server ``--pg-url``
+names, or, only when asked (``--pg-cluster``), on a throwaway cluster started with the test
+suite's own helper (``tests/pg.py``: ``initdb`` in a temporary folder, as the ``postgres`` user
+when run as root). Without either, the PostgreSQL figures are skipped with the reason.
 """
 
 from __future__ import annotations
@@ -17,13 +19,12 @@ from typing import Any
 from sqlalchemy import create_engine, inspect, text
 from sqlalchemy.engine import make_url
 
-from tracker.bench.figures_read import raw_rows, reconcile_figure
-from tracker.bench.generate import Built, Progress, build, ledger_head
-from tracker.bench.measure import Figure, Target
-from tracker.bench.pg_clients import drills, floor
-from tracker.bench.pgserver import private_cluster, server_binaries
-from tracker.bench.plan import bench_keyring
-from tracker.bench.shape import END
+from benchmarks.figures_read import raw_rows, reconcile_figure
+from benchmarks.generate import Built, Progress, build, ledger_head
+from benchmarks.measure import Figure, Target
+from benchmarks.pg_clients import drills, floor
+from benchmarks.plan import bench_keyring
+from benchmarks.shape import END
 from tracker.db.database import Database, open_database
 from tracker.domain.errors import InputError
 from tracker.domain.ids import Kind, format_id
@@ -31,15 +32,20 @@ from tracker.io.demo import StepClock
 
 CLIENTS = 8
 DRILLS_PER_CLIENT = 40
+NO_SERVER = "needs a server: give --pg-url, or --pg-cluster to start a throwaway one"
 SERVER_SETTINGS = ("shared_buffers=256MB", "work_mem=32MB", "max_connections=50")
 
 
 @contextmanager
-def server(url: str | None) -> Iterator[str]:
-    """The server to use: the one ``url`` names, else a private cluster started for this run."""
+def server(url: str | None, cluster: bool) -> Iterator[str]:
+    """The server to use: the one ``url`` names, else a throwaway cluster if asked for one."""
     if url:
         yield url
         return
+    if not cluster:
+        raise InputError("--backend", "postgresql", NO_SERVER)
+    from tests.pg import private_cluster, server_binaries  # run from a checkout, as is this
+
     binaries = server_binaries()
     if binaries is None:
         raise InputError(

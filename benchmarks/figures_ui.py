@@ -9,23 +9,22 @@ judges the open loans' books (the glance: their totals, terms and results missin
 
 from __future__ import annotations
 
-import os
 import subprocess
-import sys
 import tempfile
 import time
 
-from tracker.bench.measure import Figure, Target
-from tracker.bench.plan import FOUNDER
+from benchmarks import children
+from benchmarks.measure import Figure, Target
+from benchmarks.plan import FOUNDER
 
 
 def launch(*args: str) -> tuple[float, str]:
     """Seconds from launch until the child prints its ``ready`` line, and that line."""
     with tempfile.TemporaryDirectory() as config, tempfile.TemporaryFile() as trouble:
-        env = {**os.environ, "TRACKER_CONFIG_DIR": config}
+        env = children.environment(TRACKER_CONFIG_DIR=config)
         started = time.perf_counter()
         process = subprocess.Popen(
-            [sys.executable, "-m", "tracker.bench.tui_probe", *args],
+            children.command("tui_probe", *args),
             stdin=subprocess.DEVNULL,
             stdout=subprocess.PIPE,
             stderr=trouble,  # a file, not a pipe: a chatty child can never block on it

@@ -1,9 +1,10 @@
 """The benchmark run: every figure next to its floor, at one scale or several, on each backend.
 
 SQLite figures run on the cached database of each scale (built first when missing);
-PostgreSQL figures run on a database built for the run on a private cluster, or on the
-server ``--pg-url`` names. A figure that cannot run here (no PostgreSQL) is reported as
-skipped with the reason — never left out. Several scales add a growth table.
+PostgreSQL figures run on the server ``--pg-url`` names, or on a database built for the run
+on a throwaway cluster when ``--pg-cluster`` asks for one. A figure that cannot run here (no
+server named, no PostgreSQL) is reported as skipped with the reason — never left out.
+Several scales add a growth table.
 """
 
 from __future__ import annotations
@@ -15,17 +16,17 @@ from dataclasses import asdict, dataclass, field
 from pathlib import Path
 from typing import Any, Literal
 
-from tracker.bench import (
+from benchmarks import (
     figures_audit,
     figures_ledger,
     figures_manifest,
     figures_read,
     figures_ui,
 )
-from tracker.bench.generate import Built, cached_apart
-from tracker.bench.measure import Figure, machine, settle_writes
-from tracker.bench.plan import bench_keyring
-from tracker.bench.shape import END
+from benchmarks.generate import Built, cached_apart
+from benchmarks.measure import Figure, machine, settle_writes
+from benchmarks.plan import bench_keyring
+from benchmarks.shape import END
 from tracker.db.database import open_database
 from tracker.domain.errors import TrackerError
 from tracker.io.demo import StepClock
@@ -51,6 +52,7 @@ class Options:
     scales: list[float]
     backend: Backend = "both"
     pg_url: str | None = None
+    pg_cluster: bool = False
     repeat: int = 3
     cache: Path = Path()
     only: tuple[str, ...] = ()
@@ -188,17 +190,17 @@ def _manifest(built: Built, options: Options) -> list[Figure]:
 
 
 def _labels(db: Any, repeat: int) -> Figure:
-    from tracker.bench.figures_labels import labels_figure  # loads reportlab and qrcode
+    from benchmarks.figures_labels import labels_figure  # loads reportlab and qrcode
 
     return labels_figure(db, repeat)
 
 
 def _postgresql(options: Options, scale: float, report: Report) -> None:
-    from tracker.bench import figures_pg
+    from benchmarks import figures_pg
 
     options.say(f"scale {scale:g}: PostgreSQL")
     try:
-        with figures_pg.server(options.pg_url) as server:
+        with figures_pg.server(options.pg_url, options.pg_cluster) as server:
             url, built = figures_pg.built_database(
                 server,
                 scale,

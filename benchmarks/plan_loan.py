@@ -13,7 +13,7 @@ from dataclasses import dataclass, field
 from datetime import datetime, timedelta
 from typing import Any
 
-from tracker.bench.plan import (
+from benchmarks.plan import (
     MANAGERS,
     PROFILE,
     REFERENCES,
@@ -23,8 +23,8 @@ from tracker.bench.plan import (
     Step,
     World,
 )
-from tracker.bench.plan_session import Target, session_csv
-from tracker.bench.shape import (
+from benchmarks.plan_session import Target, session_csv
+from benchmarks.shape import (
     BATCHES_PER_SESSION,
     END,
     SAMPLES_PER_BATCH,

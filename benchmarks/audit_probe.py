@@ -1,7 +1,7 @@
 """Child processes for the state audit's figure: the audit and its floor, each fresh.
 
-``python -m tracker.bench.audit_probe audit TARGET`` times ``audit.audit`` (the whole lab:
-the ledger replayed, every row compared); ``python -m tracker.bench.audit_probe audit-floor
+``python -m benchmarks.audit_probe audit TARGET`` times ``audit.audit`` (the whole lab:
+the ledger replayed, every row compared); ``python -m benchmarks.audit_probe audit-floor
 FILE`` times the same answer computed by hand: the chain walked as its floor walks it
 (``probe.BareChain``: raw ``sqlite3`` rows, ``hashlib``, ``cryptography``), ``json``
 payloads, dictionaries, SQLite's own schema for the columns' types — nothing of tracker's
@@ -120,7 +120,7 @@ def bare_audit(path: str) -> dict[str, object]:
     facts into dictionaries, then compare every row by hand."""
     import sqlite3
 
-    from tracker.bench.probe import BareChain  # nothing of tracker's services imported
+    from benchmarks.probe import BareChain  # nothing of tracker's services imported
 
     connection = sqlite3.connect(f"file:{path}?mode=ro", uri=True)
     books: dict[str, dict[str, dict[str, Any]]] = {}
@@ -182,7 +182,7 @@ def tracker_audit(target: str) -> dict[str, object]:
 
 
 def main(argv: list[str]) -> int:
-    from tracker.bench.probe import peak_mb
+    from benchmarks.probe import peak_mb
 
     what, target = argv[1], argv[2]
     started = time.perf_counter()

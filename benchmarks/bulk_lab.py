@@ -6,16 +6,15 @@ from __future__ import annotations
 
 from typing import Any
 
-from tracker.bench.bulk_ctx import Ctx
-from tracker.bench.bulk_material import Handler, _put
+from benchmarks.bulk_ctx import Ctx
+from benchmarks.bulk_material import Handler
 from tracker.domain.budget import is_significant, remaining
-from tracker.domain.errors import InputError, NotFound, RuleViolation
+from tracker.domain.errors import NotFound, RuleViolation
 from tracker.domain.ids import Kind, looks_like_id, parse_id
 from tracker.domain.models import (
     Aliquot,
     BatchPosition,
     ColumnBatch,
-    Concentration,
     ContainerStatus,
     Cut,
     LabelStatus,
@@ -23,8 +22,14 @@ from tracker.domain.models import (
     ReferenceMaterial,
     Solution,
 )
-from tracker.services.chemistry import AddPosition, NewBatch, batch_payload, position_payload
-from tracker.services.columns import RecordCut, cut_payload
+from tracker.services.chemistry import (
+    AddPosition,
+    NewBatch,
+    batch_payload,
+    opened_batch,
+    position_payload,
+)
+from tracker.services.columns import RecordCut, check_cut, cut_payload, cut_row
 from tracker.services.common import weigh
 from tracker.services.inputs import parse
 from tracker.services.lab import (
@@ -34,12 +39,15 @@ from tracker.services.lab import (
     aliquot_element,
     aliquot_payload,
     concentration_payload,
+    concentration_row,
     dissolved,
     dissolved_payload,
+    dissolved_solution,
     drilled,
     on_column_after,
     portion_to_dissolve,
     require_aliquot_fits,
+    taken_aliquot,
 )
 
 QUEUED = LabelStatus.QUEUED.value  # what a bench action's payload says of its new label
@@ -56,22 +64,9 @@ def dissolve(ctx: Ctx, args: dict[str, Any]) -> Solution:
         powder.status = ContainerStatus.CONSUMED
         ctx.changed(powder)
     grams = solution_mass.amount(scale=1e-3)
-    solution = ctx.new(
-        Solution(
-            powder_id=powder.id,
-            powder_mass_mg=taken.value,
-            powder_mass_u_mg=taken.u,
-            acid=request.acid,
-            solution_mass_g=grams.value,
-            solution_mass_u_g=grams.u,
-            dissolved_at=ctx.when(request.dissolved_at, "dissolved-at", [drilled(powder)]),
-            dissolved_by=ctx.operator.code,
-            status=ContainerStatus.AVAILABLE,
-            created_at=ctx.now,
-        )
-    )
-    solution.powder = powder
-    _put(solution, ctx.place(request.location))
+    when = ctx.when(request.dissolved_at, "dissolved-at", [drilled(powder)])
+    location = ctx.place(request.location)
+    solution = ctx.new(dissolved_solution(ctx, powder, request, taken, grams, when, location))
     payload = dissolved_payload(powder, solution, request, QUEUED)
     ctx.record("solution.dissolved", solution, payload, parent=powder, label=solution)
     return solution
@@ -80,19 +75,8 @@ def dissolve(ctx: Ctx, args: dict[str, Any]) -> Solution:
 def record_concentration(ctx: Ctx, args: dict[str, Any]) -> None:
     request = parse(RecordConcentration, args)
     solution = ctx.state.get(Solution, "solution", request.solution)
-    row = Concentration(
-        element=request.element,
-        value_ug_per_g=float(request.value),
-        u_ug_per_g=request.standard_uncertainty(),
-        method=request.method,
-        measured_at=ctx.when(request.measured_at, "measured-at", [dissolved(solution)]),
-        recorded_by=ctx.operator.code,
-        supersedes_id=None,
-        created_at=ctx.now,
-    )
-    row.solution_id = solution.id
-    row.solution = solution
-    ctx.new(row)
+    when = ctx.when(request.measured_at, "measured-at", [dissolved(solution)])
+    row = ctx.new(concentration_row(ctx, solution, request, when))
     _, payload = concentration_payload(solution, row)
     ctx.record("concentration.recorded", solution, payload)
 
@@ -102,20 +86,9 @@ def take_aliquot(ctx: Ctx, args: dict[str, Any]) -> Aliquot:
     wanted = weigh(request.tare, request.gross, request.readability).amount(scale=1e-3)
     solution = ctx.state.get(Solution, "solution", request.solution)
     require_aliquot_fits(solution, wanted, request)
-    aliquot = ctx.new(
-        Aliquot(
-            solution_id=solution.id,
-            mass_g=wanted.value,
-            mass_u_g=wanted.u,
-            purpose=request.purpose,
-            taken_at=ctx.when(request.taken_at, "taken-at", [dissolved(solution)]),
-            taken_by=ctx.operator.code,
-            status=ContainerStatus.AVAILABLE,
-            created_at=ctx.now,
-        )
-    )
-    aliquot.solution = solution
-    _put(aliquot, ctx.place(request.location))
+    when = ctx.when(request.taken_at, "taken-at", [dissolved(solution)])
+    location = ctx.place(request.location)
+    aliquot = ctx.new(taken_aliquot(ctx, solution, request, wanted, when, location))
     payload = aliquot_payload(aliquot, request, aliquot_element(aliquot), QUEUED)
     ctx.record("aliquot.taken", aliquot, payload, parent=solution, label=aliquot)
     return aliquot
@@ -123,11 +96,7 @@ def take_aliquot(ctx: Ctx, args: dict[str, Any]) -> Aliquot:
 
 def create_batch(ctx: Ctx, args: dict[str, Any]) -> ColumnBatch:
     request = parse(NewBatch, args)
-    if request.performed_on > ctx.now.date():
-        raise InputError("performed-on", request.performed_on.isoformat(), "is in the future")
-    batch = ctx.new(
-        ColumnBatch(**request.model_dump(), operator=ctx.operator.code, created_at=ctx.now)
-    )
+    batch = ctx.new(opened_batch(ctx, request))
     ctx.record("batch.created", batch, batch_payload(request))
     return batch
 
@@ -178,25 +147,8 @@ def _reference(ctx: Ctx, text: str) -> ReferenceMaterial:
 def record_cut(ctx: Ctx, args: dict[str, Any]) -> Cut:
     request = parse(RecordCut, args)
     position = ctx.state.get(BatchPosition, "position", request.position)
-    batch = position.batch
-    if request.cut not in batch.cut_names:
-        raise RuleViolation("cut", request.cut, "is not one of the batch's cuts")
-    if any(c.name == request.cut for c in position.cuts):
-        raise RuleViolation("cut", request.cut, f"is already recorded for {position.public_id}")
-    amount = request.recovered_ug()
-    location = ctx.place(request.location)
-    cut = ctx.new(
-        Cut(
-            position_id=position.id,
-            name=request.cut,
-            recovered_ug=amount.value if amount else None,
-            recovered_u_ug=amount.u if amount else None,
-            status=ContainerStatus.AVAILABLE,
-            created_at=ctx.now,
-        )
-    )
-    cut.position = position
-    _put(cut, location)
+    check_cut(position, request)
+    cut = ctx.new(cut_row(ctx, position, request, ctx.place(request.location)))
     payload = cut_payload(position, cut, QUEUED)
     ctx.record("cut.recorded", cut, payload, parent=position, label=cut)
     return cut

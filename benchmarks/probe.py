@@ -1,7 +1,7 @@
 """Child processes for figures that need a fresh interpreter: ledger verification and its floor.
 
-``python -m tracker.bench.probe verify TARGET`` times ``ledger.verify``;
-``python -m tracker.bench.probe verify-floor FILE`` times the bare loop (raw ``sqlite3``,
+``python -m benchmarks.probe verify TARGET`` times ``ledger.verify``;
+``python -m benchmarks.probe verify-floor FILE`` times the bare loop (raw ``sqlite3``,
 ``hashlib`` and ``cryptography``'s Ed25519, nothing of tracker imported). Each prints one
 JSON line with its own peak resident memory (``VmHWM``). The child must say it: the
 kernel's ``ru_maxrss`` for a child also counts the parent's pages it carried between fork

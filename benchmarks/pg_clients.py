@@ -11,8 +11,8 @@ from __future__ import annotations
 import time
 from typing import Any
 
-from tracker.bench.plan import TECHNICIANS
-from tracker.bench.shape import END
+from benchmarks.plan import TECHNICIANS
+from benchmarks.shape import END
 
 TARE_MG = "1000.000 mg"
 GROSS_MG = "1000.100 mg"  # 0.1 mg of powder per drill: far inside every loan's allowance
@@ -20,7 +20,7 @@ GROSS_MG = "1000.100 mg"  # 0.1 mg of powder per drill: far inside every loan's 
 
 def drills(url: str, work: list[tuple[str, str]], who: int, start: Any, out: Any) -> None:
     """Drill each (specimen, tissue) once; put (started, finished, count) on ``out``."""
-    from tracker.bench.plan import bench_keyring
+    from benchmarks.plan import bench_keyring
     from tracker.db.database import open_database
     from tracker.io.demo import StepClock
     from tracker.services import drilling

@@ -11,7 +11,7 @@ from __future__ import annotations
 import random
 from dataclasses import dataclass
 
-from tracker.bench.plan import REFERENCES, STANDARD
+from benchmarks.plan import REFERENCES, STANDARD
 
 STANDARD_RATIO = 2.1208  # invented value for the synthetic standard's 44/40 ratio
 DRIFT_PER_RUN = 2e-7  # relative drift of the standard per run (invented)

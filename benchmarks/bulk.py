@@ -17,13 +17,13 @@ from time import perf_counter
 
 from sqlalchemy import func, select, text
 
-from tracker.bench.bulk_ctx import Ctx
-from tracker.bench.bulk_lab import HANDLERS as LAB
-from tracker.bench.bulk_material import HANDLERS as MATERIAL
-from tracker.bench.bulk_state import State
-from tracker.bench.bulk_writer import BulkWriter
-from tracker.bench.plan import Step
-from tracker.bench.replay import call_service, check_made, made_id
+from benchmarks.bulk_ctx import Ctx
+from benchmarks.bulk_lab import HANDLERS as LAB
+from benchmarks.bulk_material import HANDLERS as MATERIAL
+from benchmarks.bulk_state import State
+from benchmarks.bulk_writer import BulkWriter
+from benchmarks.plan import Step
+from benchmarks.replay import call_service, check_made, made_id
 from tracker.db.database import Database
 from tracker.domain.base import Base
 from tracker.domain.signing import Signer
