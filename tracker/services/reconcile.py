@@ -278,12 +278,6 @@ def _loan_totals(session: Session, scope: _Scope) -> dict[int, Totals]:
     return dict(totals_from_row(row) for row in session.connection().execute(query).all())
 
 
-def open_loan_totals_statement() -> Select[Any]:
-    """The open loans' totals statement, for the glance to run before SQLAlchemy loads
-    (compiled once into :mod:`tracker.services.glance_sql`; a test keeps the two equal)."""
-    return _totals_statement(_Scope(open_only=True))
-
-
 def _totals_statement(scope: _Scope) -> Select[Any]:
     """One row per loan in scope: the columns :func:`totals_from_row` reads, in its order."""
     ps = _per_specimen(scope).subquery()
