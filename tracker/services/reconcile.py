@@ -40,8 +40,6 @@ from tracker.services.loan_lines import LoanLine, SpecimenLine, loan_line
 from tracker.services.loan_rules import (
     BACKDATED,
     NO_TOTALS,
-    LoanFacts,
-    Terms,
     Totals,
     totals_from_row,
     urgency,
@@ -403,27 +401,11 @@ def _loan_line(
 ) -> LoanLine:
     """A loan's line from its totals; with its specimens' lines when their books are given."""
     terms = terms_in_force(loan.terms, today)
-    facts = LoanFacts(
-        id=loan.public_id,
-        reference=loan.reference,
-        status=loan.status,
-        lender=loan.lender.name,
-        lender_code=loan.lender.institution_code or loan.lender.name,
-        terms=Terms(
-            terms.version,
-            list(terms.permitted_tissues),
-            terms.max_mass_per_specimen_mg,
-            terms.max_total_mass_mg,
-            terms.max_specimens_sampled,
-            terms.due_on,
-            terms.powder_disposition,
-        ),
-    )
     permitted = terms.max_mass_per_specimen_mg
     lines = _SPECIMEN_LINES.validate_python(
         [_specimen_line(b, _specimen_flags(b, permitted), permitted) for b in books or []]
     )
-    return loan_line(facts, today, totals, lines)
+    return loan_line(loan, terms, today, totals, lines)
 
 
 def _specimen_flags(books: _Books, permitted: float | None) -> frozenset[str]:
