@@ -2,9 +2,10 @@
 
 Each run launches a fresh interpreter and times it from launch until the child says the
 first screen is ready: for tracker, the loans overview with every open loan in its table, as
-``tracker --db FILE --as OPERATOR`` opens it (``tracker.ui.make_app``); for the floor, one
-static line. Both include Python's start-up and Textual's import; tracker's also reads and
-judges the open loans' books (the glance: their totals, terms and results missing).
+``tracker --db FILE --as OPERATOR`` opens it (the command line loaded, then
+``tracker.ui.make_app``); for the floor, one static line. Both include Python's start-up and
+Textual's import; tracker's also loads the commands and the services, opens the database
+and reconciles the open loans (``reconcile.reconcile``, the CLI overview's own service).
 """
 
 from __future__ import annotations

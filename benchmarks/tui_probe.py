@@ -1,8 +1,8 @@
 """Child process for the cold-start figure: a fresh interpreter, until the first screen is ready.
 
 ``python -m benchmarks.tui_probe app TARGET OPERATOR`` opens tracker's interface headless
-on the database, as the ``tracker`` command does, and prints ``ready`` once the loans
-overview table holds its rows;
+on the database, as the ``tracker`` command does (the command line loaded first), and
+prints ``ready`` once the loans overview table holds the services' rows;
 ``python -m benchmarks.tui_probe bare`` opens a Textual app with one static line and prints
 ``ready`` once it is mounted. The parent times each from launch to that line.
 """
@@ -16,7 +16,10 @@ SIZE = (120, 40)
 
 
 async def _tracker(target: str, operator: str) -> None:
-    from tracker.ui import make_app  # what ``tracker --db TARGET --as OPERATOR`` runs
+    # What ``tracker --db TARGET --as OPERATOR`` loads and runs: the command line (Typer and
+    # every command) reads the options, then opens the interface on them.
+    import tracker.cli  # noqa: F401  (loaded for its cost, as the command loads it)
+    from tracker.ui import make_app
 
     app = make_app(target, operator)
     from textual.widgets import DataTable

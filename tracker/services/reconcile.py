@@ -40,8 +40,6 @@ from tracker.services.loan_lines import LoanLine, SpecimenLine, loan_line
 from tracker.services.loan_rules import (
     BACKDATED,
     NO_TOTALS,
-    LoanFacts,
-    Terms,
     Totals,
     totals_from_row,
     urgency,
@@ -278,12 +276,6 @@ def _loan_totals(session: Session, scope: _Scope) -> dict[int, Totals]:
     return dict(totals_from_row(row) for row in session.connection().execute(query).all())
 
 
-def open_loan_totals_statement() -> Select[Any]:
-    """The open loans' totals statement, for the glance to run before SQLAlchemy loads
-    (compiled once into :mod:`tracker.services.glance_sql`; a test keeps the two equal)."""
-    return _totals_statement(_Scope(open_only=True))
-
-
 def _totals_statement(scope: _Scope) -> Select[Any]:
     """One row per loan in scope: the columns :func:`totals_from_row` reads, in its order."""
     ps = _per_specimen(scope).subquery()
@@ -409,27 +401,11 @@ def _loan_line(
 ) -> LoanLine:
     """A loan's line from its totals; with its specimens' lines when their books are given."""
     terms = terms_in_force(loan.terms, today)
-    facts = LoanFacts(
-        id=loan.public_id,
-        reference=loan.reference,
-        status=loan.status,
-        lender=loan.lender.name,
-        lender_code=loan.lender.institution_code or loan.lender.name,
-        terms=Terms(
-            terms.version,
-            list(terms.permitted_tissues),
-            terms.max_mass_per_specimen_mg,
-            terms.max_total_mass_mg,
-            terms.max_specimens_sampled,
-            terms.due_on,
-            terms.powder_disposition,
-        ),
-    )
     permitted = terms.max_mass_per_specimen_mg
     lines = _SPECIMEN_LINES.validate_python(
         [_specimen_line(b, _specimen_flags(b, permitted), permitted) for b in books or []]
     )
-    return loan_line(facts, today, totals, lines)
+    return loan_line(loan, terms, today, totals, lines)
 
 
 def _specimen_flags(books: _Books, permitted: float | None) -> frozenset[str]:
