@@ -4,7 +4,7 @@ The glance's SQL for SQLite, compiled from the services' statements at the schem
 revision ``HEAD``; tests/services/test_glance.py keeps it equal to a fresh
 compilation."""
 
-HEAD = "0010_logins"
+HEAD = "0011_checks"
 
 LOANS = "SELECT loan.id, loan.reference, loan.status, lender.name, lender.institution_code \nFROM loan JOIN lender ON lender.id = loan.lender_id \nWHERE loan.status = 'open' ORDER BY loan.id"  # noqa: E501
 
