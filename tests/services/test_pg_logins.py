@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import copy
 from collections.abc import Callable, Iterable
+from decimal import Decimal
 from pathlib import Path
 from typing import Any
 
@@ -146,7 +147,7 @@ def test_corrections_and_reductions_work_as_each_persons_login(demo_lab: Lab) ->
             {
                 "item": powder.public_id,
                 "tare": tare,
-                "gross": f"{powder.gross_mg + 0.01:.3f} mg",
+                "gross": f"{powder.gross_mg + Decimal('0.01'):.3f} mg",
                 "reason": "misread the balance",
             },
         ),

@@ -8,6 +8,7 @@ from typing import Any
 
 from tracker.bench.bulk_ctx import Ctx
 from tracker.bench.bulk_material import Handler, _put
+from tracker.domain.base import decimal_from_float
 from tracker.domain.budget import is_significant, remaining
 from tracker.domain.errors import InputError, NotFound, RuleViolation
 from tracker.domain.ids import Kind, looks_like_id, parse_id
@@ -38,6 +39,7 @@ from tracker.services.lab import (
     dissolved_payload,
     drilled,
     on_column_after,
+    portion_taken_mg,
     portion_to_dissolve,
     require_aliquot_fits,
 )
@@ -55,15 +57,15 @@ def dissolve(ctx: Ctx, args: dict[str, Any]) -> Solution:
     if not is_significant(remaining(left, [taken])):
         powder.status = ContainerStatus.CONSUMED
         ctx.changed(powder)
-    grams = solution_mass.amount(scale=1e-3)
+    grams, grams_u = solution_mass.stored(shift=-3)
     solution = ctx.new(
         Solution(
             powder_id=powder.id,
-            powder_mass_mg=taken.value,
-            powder_mass_u_mg=taken.u,
+            powder_mass_mg=portion_taken_mg(powder, request),
+            powder_mass_u_mg=decimal_from_float(taken.u),
             acid=request.acid,
-            solution_mass_g=grams.value,
-            solution_mass_u_g=grams.u,
+            solution_mass_g=grams,
+            solution_mass_u_g=grams_u,
             dissolved_at=ctx.when(request.dissolved_at, "dissolved-at", [drilled(powder)]),
             dissolved_by=ctx.operator.code,
             status=ContainerStatus.AVAILABLE,
@@ -82,7 +84,7 @@ def record_concentration(ctx: Ctx, args: dict[str, Any]) -> None:
     solution = ctx.state.get(Solution, "solution", request.solution)
     row = Concentration(
         element=request.element,
-        value_ug_per_g=float(request.value),
+        value_ug_per_g=request.value,
         u_ug_per_g=request.standard_uncertainty(),
         method=request.method,
         measured_at=ctx.when(request.measured_at, "measured-at", [dissolved(solution)]),
@@ -99,14 +101,15 @@ def record_concentration(ctx: Ctx, args: dict[str, Any]) -> None:
 
 def take_aliquot(ctx: Ctx, args: dict[str, Any]) -> Aliquot:
     request = parse(TakeAliquot, args)
-    wanted = weigh(request.tare, request.gross, request.readability).amount(scale=1e-3)
+    weighing = weigh(request.tare, request.gross, request.readability)
+    wanted, (grams, grams_u) = weighing.amount(scale=1e-3), weighing.stored(shift=-3)
     solution = ctx.state.get(Solution, "solution", request.solution)
     require_aliquot_fits(solution, wanted, request)
     aliquot = ctx.new(
         Aliquot(
             solution_id=solution.id,
-            mass_g=wanted.value,
-            mass_u_g=wanted.u,
+            mass_g=grams,
+            mass_u_g=grams_u,
             purpose=request.purpose,
             taken_at=ctx.when(request.taken_at, "taken-at", [dissolved(solution)]),
             taken_by=ctx.operator.code,
@@ -189,8 +192,8 @@ def record_cut(ctx: Ctx, args: dict[str, Any]) -> Cut:
         Cut(
             position_id=position.id,
             name=request.cut,
-            recovered_ug=amount.value if amount else None,
-            recovered_u_ug=amount.u if amount else None,
+            recovered_ug=amount[0] if amount else None,
+            recovered_u_ug=amount[1] if amount else None,
             status=ContainerStatus.AVAILABLE,
             created_at=ctx.now,
         )

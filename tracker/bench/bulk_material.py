@@ -145,7 +145,8 @@ def dispose(ctx: Ctx, args: dict[str, Any]) -> None:
 
 def drill(ctx: Ctx, args: dict[str, Any]) -> Powder:
     request = parse(Drill, args)
-    mass = weigh(request.tare, request.gross, request.readability).amount()
+    weighing = weigh(request.tare, request.gross, request.readability)
+    mass, (net, net_u) = weighing.amount(), weighing.stored()
     specimen = ctx.state.get(Specimen, "specimen", request.specimen)
     require_on_hand(specimen)
     when = ctx.when(request.drilled_at, "drilled-at", [checked_in(specimen)])
@@ -165,11 +166,11 @@ def drill(ctx: Ctx, args: dict[str, Any]) -> Powder:
             specimen_id=specimen.id,
             tissue=request.tissue,
             site=request.site,
-            tare_mg=float(request.tare),
-            gross_mg=float(request.gross),
-            readability_mg=float(request.readability),
-            mass_mg=mass.value,
-            mass_u_mg=mass.u,
+            tare_mg=request.tare,
+            gross_mg=request.gross,
+            readability_mg=request.readability,
+            mass_mg=net,
+            mass_u_mg=net_u,
             material=material,
             drilled_at=when,
             drilled_by=ctx.operator.code,
@@ -194,11 +195,11 @@ def _usage(specimen: Specimen) -> Usage:
         if other.powders:
             sampled += 1
         for powder in other.powders:
-            total += powder.mass_mg
-            variance += powder.mass_u_mg * powder.mass_u_mg
+            total += float(powder.mass_mg)
+            variance += float(powder.mass_u_mg) ** 2
     for powder in specimen.powders:
-        own += powder.mass_mg
-        own_variance += powder.mass_u_mg * powder.mass_u_mg
+        own += float(powder.mass_mg)
+        own_variance += float(powder.mass_u_mg) ** 2
     return Usage(
         loan_drilled=Amount(total, math.sqrt(variance)),
         specimen_drilled=Amount(own, math.sqrt(own_variance)),

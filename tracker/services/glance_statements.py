@@ -20,6 +20,7 @@ from sqlalchemy import Select, select
 from sqlalchemy.dialects import sqlite
 
 from tracker.db.migrate import HEAD
+from tracker.domain.base import computed
 from tracker.domain.models import Lender, Loan, LoanStatus, LoanTerms
 from tracker.services import browse, reconcile
 from tracker.services.lookup import open_loan_ids
@@ -39,8 +40,8 @@ def statements() -> dict[str, Select[Any]]:
             LoanTerms.version,
             LoanTerms.effective_from,
             LoanTerms.permitted_tissues,
-            LoanTerms.max_mass_per_specimen_mg,
-            LoanTerms.max_total_mass_mg,
+            computed(LoanTerms.max_mass_per_specimen_mg),
+            computed(LoanTerms.max_total_mass_mg),
             LoanTerms.max_specimens_sampled,
             LoanTerms.due_on,
             LoanTerms.powder_disposition,

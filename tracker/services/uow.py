@@ -146,7 +146,7 @@ class UnitOfWork:
         if self.backdated is not None:  # last: refusals about the entry itself come first
             self.require_manager(self.backdated.action())
             payload = {**payload, "backdated": self.backdated.payload()}
-        text = canonical_json(payload)
+        text = canonical_json(payload, default=expanded)
         needed = manager_needed(action, self.operator.code, text)
         if needed is not None:  # the verifier's own rule: no service can forget it
             self.require_manager(needed)

@@ -4,6 +4,7 @@ reference materials) and the cuts collected from each position."""
 from __future__ import annotations
 
 from datetime import date, datetime
+from decimal import Decimal
 from typing import TYPE_CHECKING, Any
 
 from sqlalchemy import ForeignKey, String, Text, UniqueConstraint
@@ -104,8 +105,8 @@ class Cut(HasPublicId, Base):
     id: Mapped[int] = mapped_column(primary_key=True)
     position_id: Mapped[int] = mapped_column(ForeignKey("batch_position.id"), index=True)
     name: Mapped[str] = mapped_column(String(60))
-    recovered_ug: Mapped[float | None]
-    recovered_u_ug: Mapped[float | None]
+    recovered_ug: Mapped[Decimal | None]
+    recovered_u_ug: Mapped[Decimal | None]
     status: Mapped[ContainerStatus] = mapped_column(
         enum_type(ContainerStatus), default=ContainerStatus.AVAILABLE
     )

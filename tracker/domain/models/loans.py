@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from datetime import date, datetime
+from decimal import Decimal
 from typing import TYPE_CHECKING
 
 from sqlalchemy import ForeignKey, LargeBinary, String, Text, UniqueConstraint
@@ -74,8 +75,8 @@ class LoanTerms(Base):
     kind: Mapped[TermsKind] = mapped_column(enum_type(TermsKind))
     effective_from: Mapped[date]
     permitted_tissues: Mapped[list[str]]
-    max_mass_per_specimen_mg: Mapped[float | None]
-    max_total_mass_mg: Mapped[float | None]
+    max_mass_per_specimen_mg: Mapped[Decimal | None]
+    max_total_mass_mg: Mapped[Decimal | None]
     max_specimens_sampled: Mapped[int | None]
     due_on: Mapped[date]
     return_specimens: Mapped[bool] = mapped_column(default=True)

@@ -8,6 +8,7 @@ with its standard uncertainty (``*_u_*``, k = 1).
 from __future__ import annotations
 
 from datetime import datetime
+from decimal import Decimal
 from typing import TYPE_CHECKING, Any
 
 from sqlalchemy import ForeignKey, String, Text, UniqueConstraint
@@ -95,11 +96,11 @@ class Powder(HasPublicId, Base):
     specimen_id: Mapped[int] = mapped_column(ForeignKey("specimen.id"), index=True)
     tissue: Mapped[str] = mapped_column(String(60))  # enamel, enameloid, dentine, shell, ...
     site: Mapped[str | None] = mapped_column(String(200))  # where on the specimen
-    tare_mg: Mapped[float]
-    gross_mg: Mapped[float]
-    readability_mg: Mapped[float]
-    mass_mg: Mapped[float]
-    mass_u_mg: Mapped[float]
+    tare_mg: Mapped[Decimal]
+    gross_mg: Mapped[Decimal]
+    readability_mg: Mapped[Decimal]
+    mass_mg: Mapped[Decimal]
+    mass_u_mg: Mapped[Decimal]
     drilled_at: Mapped[datetime]
     drilled_by: Mapped[str] = mapped_column(String(32), ForeignKey("operator.code"), index=True)
     material: Mapped[str | None] = mapped_column(String(120))  # preset or user material name
@@ -108,8 +109,8 @@ class Powder(HasPublicId, Base):
         enum_type(ContainerStatus), default=ContainerStatus.AVAILABLE
     )
     # What was left in the vial when it left the lab (returned/destroyed/retained), weighed.
-    residual_mg: Mapped[float | None]
-    residual_u_mg: Mapped[float | None]
+    residual_mg: Mapped[Decimal | None]
+    residual_u_mg: Mapped[Decimal | None]
     return_shipment_id: Mapped[int | None] = mapped_column(ForeignKey("shipment.id"), index=True)
     location_id: Mapped[int | None] = mapped_column(ForeignKey("location.id"), index=True)
     created_at: Mapped[datetime]
@@ -137,18 +138,18 @@ class Solution(HasPublicId, Base):
 
     id: Mapped[int] = mapped_column(primary_key=True)
     powder_id: Mapped[int] = mapped_column(ForeignKey("powder.id"), index=True)
-    powder_mass_mg: Mapped[float]  # powder taken into this solution
-    powder_mass_u_mg: Mapped[float]
+    powder_mass_mg: Mapped[Decimal]  # powder taken into this solution
+    powder_mass_u_mg: Mapped[Decimal]
     acid: Mapped[str] = mapped_column(String(120))  # e.g. "2 M HNO3"
-    solution_mass_g: Mapped[float]
-    solution_mass_u_g: Mapped[float]
+    solution_mass_g: Mapped[Decimal]
+    solution_mass_u_g: Mapped[Decimal]
     dissolved_at: Mapped[datetime]
     dissolved_by: Mapped[str] = mapped_column(String(32), ForeignKey("operator.code"), index=True)
     status: Mapped[ContainerStatus] = mapped_column(
         enum_type(ContainerStatus), default=ContainerStatus.AVAILABLE
     )
-    residual_g: Mapped[float | None]  # solution left when the vial left the lab, weighed
-    residual_u_g: Mapped[float | None]
+    residual_g: Mapped[Decimal | None]  # solution left when the vial left the lab, weighed
+    residual_u_g: Mapped[Decimal | None]
     location_id: Mapped[int | None] = mapped_column(ForeignKey("location.id"), index=True)
     created_at: Mapped[datetime]
 
@@ -169,8 +170,8 @@ class Concentration(Base):
     id: Mapped[int] = mapped_column(primary_key=True)
     solution_id: Mapped[int] = mapped_column(ForeignKey("solution.id"), index=True)
     element: Mapped[str] = mapped_column(String(3))
-    value_ug_per_g: Mapped[float]
-    u_ug_per_g: Mapped[float]
+    value_ug_per_g: Mapped[Decimal]
+    u_ug_per_g: Mapped[Decimal]
     method: Mapped[str | None] = mapped_column(String(120))  # e.g. ICP-OES
     measured_at: Mapped[datetime]
     recorded_by: Mapped[str] = mapped_column(String(32), ForeignKey("operator.code"), index=True)
@@ -189,8 +190,8 @@ class Aliquot(HasPublicId, Base):
 
     id: Mapped[int] = mapped_column(primary_key=True)
     solution_id: Mapped[int] = mapped_column(ForeignKey("solution.id"), index=True)
-    mass_g: Mapped[float]
-    mass_u_g: Mapped[float]
+    mass_g: Mapped[Decimal]
+    mass_u_g: Mapped[Decimal]
     purpose: Mapped[AliquotPurpose] = mapped_column(enum_type(AliquotPurpose))
     taken_at: Mapped[datetime]
     taken_by: Mapped[str] = mapped_column(String(32), ForeignKey("operator.code"), index=True)

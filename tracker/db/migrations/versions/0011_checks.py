@@ -1,9 +1,18 @@
-"""What can never be true is refused by the schema; every foreign key has an index.
+"""What can never be true is refused by the schema; measured values are kept exactly; every
+foreign key has an index.
 
 * CHECK constraints on every value that can never be true (a mass at or below zero, a gross
   reading not above its tare, a negative uncertainty, a share beyond 0-1, a sequence number
   below 1 ...). ``tracker/domain/checks.py`` builds the same rules for the models and says
   each in words; this revision keeps their SQL as it was when it was written.
+* Measured values (``EXACT``: masses, tares, gross readings, readabilities, their
+  uncertainties, concentrations, recovered amounts, loan limits) become exact decimals:
+  NUMERIC on PostgreSQL, their digits as text on SQLite (``tracker.domain.base.Exact``).
+  Each stored float becomes its shortest round-trip text — Python's ``repr`` on SQLite,
+  read in Python before the rebuild (SQLite's own cast keeps only 15 digits), and
+  PostgreSQL's own float text (``::text``, shortest since PostgreSQL 12) there — so no
+  value changes, and events that stated these values as JSON floats still agree with the
+  rows (``domain.replay`` compares them through the same shortest text).
 * An index on every foreign key (the ones not led by an index, unique key or primary key).
 * Rows already breaking a rule stop the upgrade before anything is changed: one line naming
   the table, the row and its values (the whole upgrade is one transaction, rolled back).
@@ -18,6 +27,7 @@ Create Date: 2026-12-14 09:00:00
 """
 
 import re
+from decimal import Decimal
 from collections.abc import Iterator, Sequence
 from contextlib import contextmanager
 
@@ -148,6 +158,40 @@ CHECKS: dict[str, tuple[tuple[str, str], ...]] = {
         ("ck_result_two_se_permil_not_negative", "CAST(two_se_permil AS NUMERIC) >= 0"),
     ),
 }
+# Measured values kept exactly from this revision on: table -> columns.
+EXACT: dict[str, tuple[str, ...]] = {
+    "powder": (
+        "tare_mg",
+        "gross_mg",
+        "readability_mg",
+        "mass_mg",
+        "mass_u_mg",
+        "residual_mg",
+        "residual_u_mg",
+    ),
+    "solution": (
+        "powder_mass_mg",
+        "powder_mass_u_mg",
+        "solution_mass_g",
+        "solution_mass_u_g",
+        "residual_g",
+        "residual_u_g",
+    ),
+    "aliquot": ("mass_g", "mass_u_g"),
+    "concentration": ("value_ug_per_g", "u_ug_per_g"),
+    "cut": ("recovered_ug", "recovered_u_ug"),
+    "loan_terms": ("max_mass_per_specimen_mg", "max_total_mass_mg"),
+}
+NULLABLE = {
+    "residual_mg",
+    "residual_u_mg",
+    "residual_g",
+    "residual_u_g",
+    "recovered_ug",
+    "recovered_u_ug",
+    "max_mass_per_specimen_mg",
+    "max_total_mass_mg",
+}
 # Foreign keys that had no index leading with their column.
 INDEXES: tuple[tuple[str, str], ...] = (
     ("aliquot", "taken_by"),
@@ -185,10 +229,27 @@ def upgrade() -> None:
     bind = op.get_bind()
     for table, rules in CHECKS.items():
         _refuse_rows_breaking(bind, table, rules)
+    sqlite = bind.dialect.name == "sqlite"
     for table, rules in CHECKS.items():
+        exact = EXACT.get(table, ())
+        digits = _shortest_texts(bind, table, exact) if sqlite else []
         with _rebuilt(bind, table) as batch_op:
+            for column in exact:
+                batch_op.alter_column(
+                    column,
+                    existing_type=sa.Double(),
+                    existing_nullable=column in NULLABLE,
+                    type_=sa.String() if sqlite else sa.Numeric(),
+                    postgresql_using=f"{column}::text::numeric",
+                )
             for name, condition in rules:
                 batch_op.create_check_constraint(op.f(name), condition)
+        for column, rows in digits:
+            if not rows:
+                continue
+            bind.execute(
+                sa.text(f"UPDATE {table} SET {column} = :digits WHERE id = :id"), rows
+            )
     for table, column in INDEXES:
         op.create_index(op.f(f"ix_{table}_{column}"), table, [column], unique=False)
 
@@ -201,6 +262,13 @@ def downgrade() -> None:
         with _rebuilt(bind, table) as batch_op:
             for name, _ in rules:
                 batch_op.drop_constraint(op.f(name), type_="check")
+            for column in EXACT.get(table, ()):
+                batch_op.alter_column(
+                    column,
+                    existing_nullable=column in NULLABLE,
+                    type_=sa.Double(),
+                    postgresql_using=f"{column}::float8",
+                )
 
 
 def _refuse_rows_breaking(
@@ -231,11 +299,45 @@ def _refuse_rows_breaking(
         )
 
 
+def _shortest_texts(
+    bind: sa.Connection, table: str, columns: tuple[str, ...]
+) -> list[tuple[str, list[dict[str, object]]]]:
+    """Each stored float of ``columns`` as its shortest round-trip text (``repr``), by row,
+    read before the rebuild turns them into text by SQLite's 15-digit cast."""
+    found = []
+    for column in columns:
+        rows = bind.execute(
+            sa.text(f"SELECT id, {column} FROM {table} WHERE {column} IS NOT NULL")
+        ).all()
+        found.append((column, [{"id": id_, "digits": _digits(value)} for id_, value in rows]))
+    return found
+
+
+def _digits(value: object) -> str:
+    """A stored number's shortest text: a float's ``repr``, written without an exponent
+    (``1e-05`` is ``0.00001``), as ``base.decimal_text`` writes every exact value."""
+    return format(Decimal(repr(value) if isinstance(value, float) else str(value)), "f")
+
+
 @contextmanager
 def _rebuilt(bind: sa.Connection, table: str) -> Iterator[BatchOperations]:
     """``op.batch_alter_table`` for ``table``; on SQLite the table is rebuilt, and its
-    triggers and indexes are made again afterwards from their own stored text."""
+    triggers and indexes are made again afterwards from their own stored text (on
+    PostgreSQL the triggers of a table whose columns change type, likewise)."""
     kept: list[str] = []
+    if bind.dialect.name == "postgresql" and table in EXACT:
+        # a column a trigger names (revision 0010's checks of measured values) cannot
+        # change its type: the table's triggers are made again afterwards, as they were
+        found = bind.execute(
+            sa.text(
+                "SELECT tgname, pg_get_triggerdef(oid) FROM pg_trigger "
+                "WHERE tgrelid = CAST(:table AS regclass) AND NOT tgisinternal ORDER BY tgname"
+            ),
+            {"table": table},
+        ).all()
+        for name, sql in found:
+            op.execute(f'DROP TRIGGER "{name}" ON {table}')
+            kept.append(sql)
     if bind.dialect.name == "sqlite":
         found = bind.execute(
             sa.text(
