@@ -75,6 +75,8 @@ def _copy(table: Table, row: dict[str, Any], top: dict[str, Any]) -> dict[str, A
     for columns in unique:
         column = next((c for c in columns if isinstance(row[c.name], str)), columns[0])
         value = row[column.name]
+        if value is None:
+            continue  # NULLs never collide in a unique column (an operator's unbound login)
         if isinstance(value, int):
             copy[column.name] = top[column.name] + 1000
         else:

@@ -9,6 +9,7 @@ that clock; refusals compare ``snapshot_counts`` before and after.
 from __future__ import annotations
 
 import io
+import json
 from collections.abc import Callable
 from functools import partial
 from typing import Any
@@ -24,7 +25,7 @@ from tests.reliability.report import record
 from tests.services.test_instrument import bench, do_import, session_of
 from tracker.db.database import Database
 from tracker.domain.errors import InputError, RuleViolation
-from tracker.domain.models import BackdatedEntry
+from tracker.domain.models import BackdatedEntry, CustodyEvent
 from tracker.output.report_files import render
 from tracker.services import (
     chemistry,
@@ -215,8 +216,10 @@ def test_the_window_is_a_lab_setting_only_managers_change(db: Database, counts: 
     refused(counts, RuleViolation, "already", lambda: set_it(db, "boss", {"window": "96 hours"}))
     done = set_it(db, "boss", {"window": "36 h"})
     assert (done.item.hours, done.item.said, done.item.default) == (36, "36 hours", False)
-    (event,) = ledger.recent_events(db, 1)
-    payload = dict(event.payload)
+    with db.read_session() as session:  # the whole payload (event lists leave facts out)
+        stored = session.scalars(select(CustodyEvent).order_by(CustodyEvent.seq.desc())).first()
+    assert stored is not None
+    payload = json.loads(stored.payload)
     facts = payload.pop("facts")
     assert payload == {"window_hours": 36, "previous_hours": 96}
     assert facts["created"]["lab_setting"]["backdating_window_hours"]["value"] == "36"

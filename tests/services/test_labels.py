@@ -199,7 +199,9 @@ def test_the_link_prefix_is_a_manager_setting_recorded_in_the_ledger(
     labels.set_uri_prefix(db, "boss", {"uri_prefix": None})
     assert labels.label_settings(db).uri_prefix is None
     gone = json.loads(_events(db)[-1].payload)["facts"]
-    assert gone == {"deleted": {"lab_setting": ["uri_prefix"]}}
+    # a setting is cleared in place (no service deletes a row), so its value is stated empty
+    assert list(gone) == ["changed"]
+    assert gone["changed"]["lab_setting"]["uri_prefix"]["value"] == ""
     assert verify(db).ok
 
 

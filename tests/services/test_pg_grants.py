@@ -14,10 +14,11 @@ import pytest
 from sqlalchemy import select, text
 from sqlalchemy.engine import make_url
 
+from tests.keys import PASSPHRASE
 from tests.logins import Cluster, cli, ok
 from tracker.db.database import Database, open_database
 from tracker.domain.models import CustodyEvent
-from tracker.services import corrections, drilling, ledger, loans, specimens
+from tracker.services import corrections, drilling, keys, ledger, loans, specimens
 
 README = Path(__file__).resolve().parents[2] / "README.md"
 pytestmark = pytest.mark.postgresql
@@ -95,11 +96,16 @@ REFUSED = [
 
 
 def test_the_readme_set_up_gives_each_person_a_login_that_works_but_edits_no_history(
-    pg_server: str, names: dict[str, str]
+    pg_server: str, names: dict[str, str], tmp_path: Path, monkeypatch: pytest.MonkeyPatch
 ) -> None:
+    monkeypatch.chdir(tmp_path)  # where the README's `key new --out tomas.pub` writes
     _run_readme(pg_server, names)
     amira, tomas = _login(pg_server, names, "amira_h"), _login(pg_server, names, "tomas_h")
     try:
+        # Tomas unlocks the key he made with the README's `key new`, as a script would
+        made = keys.key_to_unlock(tomas, "tomas")
+        assert made is not None
+        keys.unlock_file(tomas, made, PASSPHRASE)
         lender = loans.add_lender(amira, "amira", {"name": "Invented Museum"}).item.id
         terms = {"permitted_tissues": ["enamel"], "max_total_mass": "40 mg", "due_on": "2030-01-01"}
         loan = {"lender": lender, "reference": "IM-1", "title": "Teeth", "borrower": "A. Haddad"}

@@ -2,10 +2,10 @@
 
 ``python -m tracker.bench.audit_probe audit TARGET`` times ``audit.audit`` (the whole lab:
 the ledger replayed, every row compared); ``python -m tracker.bench.audit_probe audit-floor
-FILE`` times the same answer computed by hand: raw ``sqlite3`` rows hashed with ``hashlib``
-as the chain's floor does, ``json`` payloads, dictionaries, SQLite's own schema for the
-columns' types — nothing of
-tracker imported. Both print one JSON line: events replayed, rows compared, discrepancies
+FILE`` times the same answer computed by hand: the chain walked as its floor walks it
+(``probe.BareChain``: raw ``sqlite3`` rows, ``hashlib``, ``cryptography``), ``json``
+payloads, dictionaries, SQLite's own schema for the columns' types — nothing of tracker's
+services imported. Both print one JSON line: events replayed, rows compared, discrepancies
 found, seconds and the process's peak resident memory (see ``probe.peak_mb``).
 """
 
@@ -116,25 +116,16 @@ def _readers(connection: Any, table: str) -> tuple[list[str], list[int], list[Re
 
 
 def bare_audit(path: str) -> dict[str, object]:
-    """Hash every event as the chain's floor does and replay its facts into dictionaries,
-    then compare every row by hand."""
-    import hashlib
+    """Walk the chain as the verification floor does (hashes and signatures), replay its
+    facts into dictionaries, then compare every row by hand."""
     import sqlite3
+
+    from tracker.bench.probe import BareChain  # nothing of tracker's services imported
 
     connection = sqlite3.connect(f"file:{path}?mode=ro", uri=True)
     books: dict[str, dict[str, dict[str, Any]]] = {}
-    events, previous = 0, "0" * 64
-    for seq, at, operator, action, obj, parent, prev_hash, payload, digest in connection.execute(
-        "SELECT seq, at, operator, action, object_ref, parent_ref, prev_hash, payload, hash "
-        "FROM custody_event ORDER BY seq"
-    ):
-        stamp = f"{at[:10]}T{at[11:]}Z"
-        data = "\n".join(
-            ("tracker-ledger/1", str(seq), stamp, operator, action, obj, parent, prev_hash, payload)
-        ).encode("utf-8")
-        if prev_hash != previous or hashlib.sha256(data).hexdigest() != digest:
-            break  # a broken chain: nothing after it is replayed (nor by tracker)
-        previous, events = digest, events + 1
+    chain = BareChain()
+    for _, payload in chain.events(connection):  # a broken chain: nothing after it replayed
         if '"facts":' not in payload:
             continue
         facts = json.loads(payload)["facts"]
@@ -171,7 +162,7 @@ def bare_audit(path: str) -> dict[str, object]:
                     found += 1
         found += len(held)
     connection.close()
-    return {"events": events, "rows": rows, "discrepancies": found}
+    return {"events": chain.count, "rows": rows, "discrepancies": found}
 
 
 def tracker_audit(target: str) -> dict[str, object]:

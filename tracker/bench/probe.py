@@ -13,57 +13,78 @@ from __future__ import annotations
 import json
 import sys
 import time
+from collections.abc import Iterator
+from typing import Any
 
 
 def bare_verify(path: str) -> dict[str, object]:
     """Read every event with the sqlite3 module, hash the canonical bytes it stores (by its
     format) and check each signature with the ``cryptography`` package against the key an
     earlier event registered to its operator (nothing of tracker imported)."""
-    import hashlib
-    import json
     import sqlite3
 
-    from cryptography.exceptions import InvalidSignature
-    from cryptography.hazmat.primitives.asymmetric.ed25519 import Ed25519PublicKey
-
     connection = sqlite3.connect(f"file:{path}?mode=ro", uri=True)
-    cursor = connection.execute(
-        "SELECT seq, at, operator, action, object_ref, parent_ref, prev_hash, payload, hash, "
-        "format, os_user, host, db_user, key_id, signature FROM custody_event ORDER BY seq"
-    )
-    keys: dict[str, tuple[str, Ed25519PublicKey]] = {}
-    registers = ("ledger.opened", "operator.added", "key.registered")
-    previous, count, ok = "0" * 64, 0, True
-    for row in cursor:
-        seq, at, operator, action, obj, parent, prev_hash, payload, digest = row[:9]
-        fmt, os_user, host, db_user, key_id, signature = row[9:]
-        stamp = f"{at[:10]}T{at[11:]}Z"  # stored "2016-01-05 08:00:00.000000" → ISO 8601 UTC
-        origin = (os_user, host, db_user) if fmt == "tracker-ledger/2" else ()
-        fields = (fmt, str(seq), stamp, operator, *origin, action, obj, parent, prev_hash, payload)
-        data = "\n".join(fields).encode("utf-8")
-        if prev_hash != previous or hashlib.sha256(data).hexdigest() != digest:
-            ok = False
-            break
-        if fmt == "tracker-ledger/2":
-            if action in registers or action == "key.revoked":
-                facts = json.loads(payload)
-                key = facts.get("key")
-                if action in registers and key:
-                    public = bytes.fromhex(key["public_key"])
-                    keys[key["id"]] = (key["operator"], Ed25519PublicKey.from_public_bytes(public))
-            owner, public_key = keys.get(key_id, ("", None))
-            try:
-                if public_key is None or owner != operator:
-                    raise InvalidSignature
-                public_key.verify(bytes.fromhex(signature), digest.encode("ascii"))
-            except InvalidSignature:
-                ok = False
-                break
-            if action == "key.revoked":
-                keys.pop(facts["key_id"], None)
-        previous, count = digest, count + 1
+    walk = BareChain()
+    for _ in walk.events(connection):
+        pass
     connection.close()
-    return {"events": count, "ok": ok, "head": previous}
+    return {"events": walk.count, "ok": walk.ok, "head": walk.previous}
+
+
+class BareChain:
+    """The floor's walk of the chain: raw rows hashed by their format, signatures checked
+    with ``cryptography``; stops at the first broken link, as ``ledger verify`` does. Both
+    floors (verification and the state audit) walk the chain through this one class."""
+
+    def __init__(self) -> None:
+        self.previous, self.count, self.ok = "0" * 64, 0, True
+
+    def events(self, connection: Any) -> Iterator[tuple[str, str]]:
+        """Each intact event's action and payload, in order."""
+        import hashlib
+        import json
+
+        from cryptography.exceptions import InvalidSignature
+        from cryptography.hazmat.primitives.asymmetric.ed25519 import Ed25519PublicKey
+
+        cursor = connection.execute(
+            "SELECT seq, at, operator, action, object_ref, parent_ref, prev_hash, payload, hash, "
+            "format, os_user, host, db_user, key_id, signature FROM custody_event ORDER BY seq"
+        )
+        keys: dict[str, tuple[str, Ed25519PublicKey]] = {}
+        registers = ("ledger.opened", "operator.added", "key.registered")
+        for row in cursor:
+            seq, at, operator, action, obj, parent, prev_hash, payload, digest = row[:9]
+            fmt, os_user, host, db_user, key_id, signature = row[9:]
+            stamp = f"{at[:10]}T{at[11:]}Z"  # stored "2016-01-05 08:00:00.000000" → ISO UTC
+            origin = (os_user, host, db_user) if fmt == "tracker-ledger/2" else ()
+            fields = (fmt, str(seq), stamp, operator, *origin, action, obj, parent, prev_hash)
+            data = "\n".join((*fields, payload)).encode("utf-8")
+            if prev_hash != self.previous or hashlib.sha256(data).hexdigest() != digest:
+                self.ok = False
+                return
+            if fmt == "tracker-ledger/2":
+                if action in registers or action == "key.revoked":
+                    facts = json.loads(payload)
+                    key = facts.get("key")
+                    if action in registers and key:
+                        public = bytes.fromhex(key["public_key"])
+                        keys[key["id"]] = (
+                            key["operator"],
+                            Ed25519PublicKey.from_public_bytes(public),
+                        )
+                owner, public_key = keys.get(key_id, ("", None))
+                try:
+                    if public_key is None or owner != operator:
+                        raise InvalidSignature
+                    public_key.verify(bytes.fromhex(signature), digest.encode("ascii"))
+                except InvalidSignature:
+                    self.ok = False
+                    return
+                if action == "key.revoked":
+                    keys.pop(facts["key_id"], None)
+            self.previous, self.count = digest, self.count + 1
+            yield action, payload
 
 
 def tracker_verify(target: str) -> dict[str, object]:

@@ -38,6 +38,7 @@ MANAGER_ACTIONS: dict[str, str] = {
     "operator.added": "adding an operator",
     "operator.role_changed": "changing an operator's role",
     "operator.deactivated": "deactivating an operator",
+    "operator.login_bound": "binding a database login to an operator",
     "key.registered": "registering a signing key",
     "key.revoked": "revoking a signing key",
     "loan.amended": "amending a loan",

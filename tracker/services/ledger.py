@@ -180,6 +180,10 @@ def listed(backend: str) -> Select[Any]:
         CustodyEvent.parent_ref,
         own.label("payload"),
         CustodyEvent.hash,
+        CustodyEvent.os_user,
+        CustodyEvent.host,
+        CustodyEvent.db_user,
+        CustodyEvent.key_id,
         states.label("states_facts"),
     )
 
