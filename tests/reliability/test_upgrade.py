@@ -191,7 +191,7 @@ def test_an_upgraded_first_release_database_is_audited_as_far_as_its_events_say(
     found = {(d["table"], d["field"]): d for d in json.loads(altered.stdout)["discrepancies"]}
     assert set(found) == {("specimen", "catalog_number"), ("powder", "mass_mg")}
     assert found["specimen", "catalog_number"]["ledger"] == specimen["catalog_number"]
-    assert found["powder", "mass_mg"]["ledger"] == powder["mass_mg"]
+    assert found["powder", "mass_mg"]["ledger"] == _shortest(powder["mass_mg"])  # its digits
     record(
         "audit of the first release's upgraded database",
         f"{len(old['custody_event'])} events without facts",

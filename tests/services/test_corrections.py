@@ -57,9 +57,11 @@ def test_powder_correction_keeps_the_original_and_totals_use_the_latest(db: Data
     history = lineage.show_item(db, powder).history
     drilled = next(e for e in history if e.action == "powder.drilled")
     corrected = next(e for e in history if e.action == "powder.corrected")
-    assert drilled.payload["mass_mg"] == pytest.approx(2.0)  # the original event, untouched
+    assert drilled.payload["mass_mg"] == "2.000"  # the original event, untouched
     assert corrected.payload["supersedes_event"] == drilled.seq
-    assert corrected.payload["reason"] == WHY and corrected.payload["value"]["gross_mg"] == 1002.5
+    assert (
+        corrected.payload["reason"] == WHY and corrected.payload["value"]["gross_mg"] == "1002.500"
+    )
     assert corrected.payload["effects"]["label"] == "queued"  # the vial's label shows its mass
     dissolved = lab.dissolve(
         db,
@@ -98,7 +100,7 @@ def test_a_second_correction_supersedes_the_first(db: Database) -> None:
     assert second.replaced["mass_mg"] == "2.300"
     listed = correcting.list_corrections(db, powder.lower().replace("-", ""))  # as scanned
     assert [c.event_seq for c in listed] == [first.event_seq, second.event_seq]
-    assert lineage.show_item(db, powder).item.facts["mass_mg"] == pytest.approx(2.03)
+    assert lineage.show_item(db, powder).item.facts["mass_mg"] == Decimal("2.030")
 
 
 def test_a_powder_cannot_be_corrected_below_what_was_dissolved(

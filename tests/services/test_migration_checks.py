@@ -8,7 +8,10 @@ the upgrade with one line, and the database stays exactly as it was.
 from __future__ import annotations
 
 import os
+import shutil
+import sqlite3
 from collections.abc import Iterator
+from decimal import Decimal
 from itertools import count
 from pathlib import Path
 
@@ -18,9 +21,10 @@ from sqlalchemy.engine import make_url
 
 from tests.conftest import _admin
 from tracker.db import migrate
-from tracker.db.database import upgrade_database
+from tracker.db.database import open_database, upgrade_database
 from tracker.db.engine import build_engine, create_private_file
 from tracker.domain.errors import RuleViolation
+from tracker.services.audit import audit
 
 BEFORE = "0010_logins"
 _names = count()
@@ -172,3 +176,65 @@ def test_a_stored_row_breaking_a_new_rule_stops_the_upgrade(empty_url: str) -> N
     if path:
         assert Path(path).read_bytes() == content
         assert Path(f"{path}.bak-{BEFORE}").exists()  # the copy made before trying
+
+
+FLOATS_FIXTURE = Path(__file__).resolve().parents[1] / "fixtures" / "demo-63f3ae0.sqlite"
+
+
+def _measured(path: Path) -> dict[tuple[str, int, str], object]:
+    """Every measured value of the file as stored, read without tracker's code."""
+    connection = sqlite3.connect(path)
+    try:
+        return {
+            (table, row_id, column): value
+            for table, columns in EXACT_COLUMNS.items()
+            for column in columns
+            for row_id, value in connection.execute(f"SELECT id, {column} FROM {table}")
+        }
+    finally:
+        connection.close()
+
+
+EXACT_COLUMNS = {
+    "powder": ("tare_mg", "gross_mg", "readability_mg", "mass_mg", "mass_u_mg", "residual_mg"),
+    "solution": ("powder_mass_mg", "powder_mass_u_mg", "solution_mass_g", "solution_mass_u_g"),
+    "aliquot": ("mass_g", "mass_u_g"),
+    "concentration": ("value_ug_per_g", "u_ug_per_g"),
+    "cut": ("recovered_ug", "recovered_u_ug"),
+    "loan_terms": ("max_mass_per_specimen_mg", "max_total_mass_mg"),
+}
+
+
+def test_an_older_database_whose_facts_state_floats_upgrades_and_audits_clean(
+    tmp_path: Path,
+) -> None:
+    """Floats become their shortest decimal text (Python's repr, no exponent); the audit
+    holds the older events' JSON numbers to those digits and finds the books complete."""
+    path = tmp_path / "lab.sqlite"
+    shutil.copyfile(FLOATS_FIXTURE, path)
+    path.chmod(0o600)
+    before = _measured(path)
+    assert any(isinstance(value, float) for value in before.values())
+    db = open_database(path)
+    try:
+        report = audit(db)
+    finally:
+        db.close()
+    after = _measured(path)
+    assert after.keys() == before.keys()
+    for where, value in before.items():
+        shortest = None if value is None else format(Decimal(repr(value)), "f")
+        assert after[where] == shortest, where
+    assert report.ok and report.coverage.complete and report.discrepancies == []
+    assert report.chain.ok
+
+    # a value changed behind the ledger's back is still named, with both sets of digits
+    with sqlite3.connect(path) as connection:
+        connection.execute("UPDATE powder SET mass_mg = '9.999' WHERE id = 1")
+    db = open_database(path)
+    try:
+        (found,) = audit(db).discrepancies
+    finally:
+        db.close()
+    assert (found.field, found.stored) == ("mass_mg", "9.999")
+    assert found.ledger == before[("powder", 1, "mass_mg")]  # the older event's JSON number
