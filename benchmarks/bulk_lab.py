@@ -63,7 +63,7 @@ def dissolve(ctx: Ctx, args: dict[str, Any]) -> Solution:
     if not is_significant(remaining(left, [taken])):
         powder.status = ContainerStatus.CONSUMED
         ctx.changed(powder)
-    grams = solution_mass.amount(scale=1e-3)
+    grams = solution_mass.stored(shift=-3)
     when = ctx.when(request.dissolved_at, "dissolved-at", [drilled(powder)])
     location = ctx.place(request.location)
     solution = ctx.new(dissolved_solution(ctx, powder, request, taken, grams, when, location))
@@ -83,12 +83,13 @@ def record_concentration(ctx: Ctx, args: dict[str, Any]) -> None:
 
 def take_aliquot(ctx: Ctx, args: dict[str, Any]) -> Aliquot:
     request = parse(TakeAliquot, args)
-    wanted = weigh(request.tare, request.gross, request.readability).amount(scale=1e-3)
+    weighing = weigh(request.tare, request.gross, request.readability)
+    wanted, (grams, grams_u) = weighing.amount(scale=1e-3), weighing.stored(shift=-3)
     solution = ctx.state.get(Solution, "solution", request.solution)
     require_aliquot_fits(solution, wanted, request)
     when = ctx.when(request.taken_at, "taken-at", [dissolved(solution)])
     location = ctx.place(request.location)
-    aliquot = ctx.new(taken_aliquot(ctx, solution, request, wanted, when, location))
+    aliquot = ctx.new(taken_aliquot(ctx, solution, request, (grams, grams_u), when, location))
     payload = aliquot_payload(aliquot, request, aliquot_element(aliquot), QUEUED)
     ctx.record("aliquot.taken", aliquot, payload, parent=solution, label=aliquot)
     return aliquot

@@ -180,11 +180,11 @@ def _usage(specimen: Specimen) -> Usage:
         if other.powders:
             sampled += 1
         for powder in other.powders:
-            total += powder.mass_mg
-            variance += powder.mass_u_mg * powder.mass_u_mg
+            total += float(powder.mass_mg)
+            variance += float(powder.mass_u_mg) ** 2
     for powder in specimen.powders:
-        own += powder.mass_mg
-        own_variance += powder.mass_u_mg * powder.mass_u_mg
+        own += float(powder.mass_mg)
+        own_variance += float(powder.mass_u_mg) ** 2
     return Usage(
         loan_drilled=Amount(total, math.sqrt(variance)),
         specimen_drilled=Amount(own, math.sqrt(own_variance)),

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import copy
 from collections.abc import Callable, Iterable
+from decimal import Decimal
 from pathlib import Path
 from typing import Any
 
@@ -146,7 +147,7 @@ def test_corrections_and_reductions_work_as_each_persons_login(demo_lab: Lab) ->
             {
                 "item": powder.public_id,
                 "tare": tare,
-                "gross": f"{powder.gross_mg + 0.01:.3f} mg",
+                "gross": f"{powder.gross_mg + Decimal('0.01'):.3f} mg",
                 "reason": "misread the balance",
             },
         ),
@@ -165,7 +166,7 @@ def test_corrections_and_reductions_work_as_each_persons_login(demo_lab: Lab) ->
             "priya",
             {
                 "solution": solution.public_id,
-                "powder_taken": f"{solution.powder_mass_mg - 0.01:.3f} mg",
+                "powder_taken": f"{solution.powder_mass_mg - Decimal('0.01'):.3f} mg",
                 "reason": "checked against the notebook",
             },
         ),
@@ -208,7 +209,7 @@ def test_corrections_and_reductions_work_as_each_persons_login(demo_lab: Lab) ->
         "tomas",
     ]
     assert lab.one(select(func.count()).select_from(Correction)) == 6
-    assert lab.one(select(Cut.recovered_ug).where(Cut.id == 2)) == pytest.approx(10.1)
+    assert float(lab.one(select(Cut.recovered_ug).where(Cut.id == 2))) == pytest.approx(10.1)
     after = {r.id: r.created_at for r in _results(lab)}
     assert after.keys() == before.keys()  # computed again in place, none deleted
     again = [r.id for r in _results(lab) if r.session_id == session.id]

@@ -20,7 +20,8 @@ from sqlalchemy.orm import Session
 
 from tracker.db.database import Database
 from tracker.domain.allowance import Limits, Recorded, Usage, Violation, check_drill
-from tracker.domain.budget import Amount
+from tracker.domain.base import computed
+from tracker.domain.budget import Amount, as_float
 from tracker.domain.errors import InputError, RuleViolation
 from tracker.domain.materials import TISSUE_DEFAULTS
 from tracker.domain.models import LoanTerms, Location, Powder, Specimen
@@ -132,17 +133,20 @@ def drilled_powder(
     violations: list[Violation],
     location: Location | None,
 ) -> Powder:
-    """The drilled powder's row: the drill's, and the benchmark's bulk writer's."""
+    """The drilled powder's row: the drill's, and the benchmark's bulk writer's. Its masses
+    are stored exactly: the weighings as typed, the net mass and its uncertainty as the
+    weighing states them (``mass`` is the same weighing, for the loan's rules)."""
+    net, net_u = weigh(request.tare, request.gross, request.readability).stored()
     return Powder(
         specimen=specimen,
         specimen_id=specimen.id,
         tissue=request.tissue,
         site=request.site,
-        tare_mg=float(request.tare),
-        gross_mg=float(request.gross),
-        readability_mg=float(request.readability),
-        mass_mg=mass.value,
-        mass_u_mg=mass.u,
+        tare_mg=request.tare,
+        gross_mg=request.gross,
+        readability_mg=request.readability,
+        mass_mg=net,
+        mass_u_mg=net_u,
         material=material,
         drilled_at=when,
         drilled_by=who.operator.code,
@@ -190,8 +194,8 @@ def recorded_on(versions: list[LoanTerms], day: date) -> Recorded:
 def limits_of(terms: LoanTerms) -> Limits:
     return Limits(
         permitted_tissues=tuple(terms.permitted_tissues),
-        max_mass_per_specimen_mg=terms.max_mass_per_specimen_mg,
-        max_total_mass_mg=terms.max_total_mass_mg,
+        max_mass_per_specimen_mg=as_float(terms.max_mass_per_specimen_mg),
+        max_total_mass_mg=as_float(terms.max_total_mass_mg),
         max_specimens_sampled=terms.max_specimens_sampled,
         due_on=terms.due_on,
         version=terms.version,
@@ -201,7 +205,11 @@ def limits_of(terms: LoanTerms) -> Limits:
 def usage_of(session: Session, specimen: Specimen) -> Usage:
     """What the specimen's loan has given so far: two aggregate queries, no row loads."""
     loan_rows = (
-        select(Powder.specimen_id, Powder.mass_mg, Powder.mass_u_mg)
+        select(
+            Powder.specimen_id,
+            computed(Powder.mass_mg).label("mass_mg"),
+            computed(Powder.mass_u_mg).label("mass_u_mg"),
+        )
         .join(Powder.specimen)
         .where(Specimen.loan_id == specimen.loan_id)
         .subquery()
@@ -215,8 +223,8 @@ def usage_of(session: Session, specimen: Specimen) -> Usage:
     ).one()
     own, own_variance, own_count = session.execute(
         select(
-            func.coalesce(func.sum(Powder.mass_mg), 0.0),
-            func.coalesce(func.sum(Powder.mass_u_mg * Powder.mass_u_mg), 0.0),
+            func.coalesce(func.sum(computed(Powder.mass_mg)), 0.0),
+            func.coalesce(func.sum(computed(Powder.mass_u_mg) * computed(Powder.mass_u_mg)), 0.0),
             func.count(Powder.id),
         ).where(Powder.specimen_id == specimen.id)
     ).one()

@@ -12,6 +12,7 @@ from dataclasses import dataclass
 from datetime import date
 from typing import Any, Protocol
 
+from tracker.domain.budget import as_float
 from tracker.domain.models import Disposition, LoanStatus, LoanTerms
 
 DUE_SOON_DAYS = 30
@@ -58,7 +59,8 @@ class Ranked(Protocol):
 
 def used_fraction(terms: LoanTerms, totals: Totals) -> float | None:
     """How much of the loan's total allowance is drilled (None: no total limit)."""
-    return totals.drilled / terms.max_total_mass_mg if terms.max_total_mass_mg else None
+    limit = as_float(terms.max_total_mass_mg)
+    return totals.drilled / limit if limit else None
 
 
 def loan_flags(
@@ -66,7 +68,7 @@ def loan_flags(
 ) -> list[str]:
     """The loan's flags: its specimens' closure flags plus the limits and the calendar."""
     flags = set(totals.flags)
-    permitted = terms.max_mass_per_specimen_mg
+    permitted = as_float(terms.max_mass_per_specimen_mg)
     if permitted is not None and totals.most_drilled > permitted:
         flags.add("over limit")  # a specimen over its own limit
     if used is not None and used > 1:

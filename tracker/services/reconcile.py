@@ -21,7 +21,8 @@ from sqlalchemy import Select, and_, case, func, select
 from sqlalchemy.orm import Session, selectinload
 
 from tracker.db.database import Database
-from tracker.domain.budget import COVERAGE_FACTOR, SQRT6
+from tracker.domain.base import computed
+from tracker.domain.budget import COVERAGE_FACTOR, SQRT6, as_float
 from tracker.domain.ids import Kind, format_id
 from tracker.domain.models import (
     Aliquot,
@@ -165,28 +166,28 @@ def _solution_books(scope: _Scope) -> Any:
     powders = scope.powders()
     aliquots = select(
         Aliquot.solution_id.label("sid"),
-        func.sum(Aliquot.mass_g).label("mass"),
-        func.sum(Aliquot.mass_u_g * Aliquot.mass_u_g).label("var"),
-        func.sum(Aliquot.mass_u_g).label("u_sum"),
+        func.sum(computed(Aliquot.mass_g)).label("mass"),
+        func.sum(computed(Aliquot.mass_u_g) * computed(Aliquot.mass_u_g)).label("var"),
+        func.sum(computed(Aliquot.mass_u_g)).label("u_sum"),
     )
     if powders is not None:
         solutions = select(Solution.id).where(Solution.powder_id.in_(powders))
         aliquots = aliquots.where(Aliquot.solution_id.in_(solutions))
     taken = aliquots.group_by(Aliquot.solution_id).subquery()
     gap = (
-        Solution.solution_mass_g
+        computed(Solution.solution_mass_g)
         - func.coalesce(taken.c.mass, 0.0)
-        - func.coalesce(Solution.residual_g, 0.0)
+        - func.coalesce(computed(Solution.residual_g), 0.0)
     )
     variance = (
-        Solution.solution_mass_u_g * Solution.solution_mass_u_g
+        computed(Solution.solution_mass_u_g) * computed(Solution.solution_mass_u_g)
         + func.coalesce(taken.c.var, 0.0)
-        + func.coalesce(Solution.residual_u_g * Solution.residual_u_g, 0.0)
+        + func.coalesce(computed(Solution.residual_u_g) * computed(Solution.residual_u_g), 0.0)
     )
     bound = SQRT6 * (
-        Solution.solution_mass_u_g
+        computed(Solution.solution_mass_u_g)
         + func.coalesce(taken.c.u_sum, 0.0)
-        + func.coalesce(Solution.residual_u_g, 0.0)
+        + func.coalesce(computed(Solution.residual_u_g), 0.0)
     )
     off = and_(
         Solution.status.in_(_CLOSED),
@@ -196,9 +197,11 @@ def _solution_books(scope: _Scope) -> Any:
     books = (
         select(
             Solution.powder_id.label("powder_id"),
-            func.sum(Solution.powder_mass_mg).label("mass"),
-            func.sum(Solution.powder_mass_u_mg * Solution.powder_mass_u_mg).label("var"),
-            func.sum(Solution.powder_mass_u_mg).label("u_sum"),
+            func.sum(computed(Solution.powder_mass_mg)).label("mass"),
+            func.sum(
+                computed(Solution.powder_mass_u_mg) * computed(Solution.powder_mass_u_mg)
+            ).label("var"),
+            func.sum(computed(Solution.powder_mass_u_mg)).label("u_sum"),
             func.sum(case((and_(off, Solution.residual_g.is_(None)), 1), else_=0)).label("lost"),
             func.sum(case((and_(off, Solution.residual_g.is_not(None)), 1), else_=0)).label("gap"),
         )
@@ -219,17 +222,17 @@ def _per_powder(scope: _Scope) -> Select[Any]:
     """
     taken = _solution_books(scope)
     dissolved = func.coalesce(taken.c.mass, 0.0)
-    residual = func.coalesce(Powder.residual_mg, 0.0)
-    gap = Powder.mass_mg - dissolved - residual
+    residual = func.coalesce(computed(Powder.residual_mg), 0.0)
+    gap = computed(Powder.mass_mg) - dissolved - residual
     variance = (
-        Powder.mass_u_mg * Powder.mass_u_mg
+        computed(Powder.mass_u_mg) * computed(Powder.mass_u_mg)
         + func.coalesce(taken.c.var, 0.0)
-        + func.coalesce(Powder.residual_u_mg * Powder.residual_u_mg, 0.0)
+        + func.coalesce(computed(Powder.residual_u_mg) * computed(Powder.residual_u_mg), 0.0)
     )
     bound = (
-        Powder.readability_mg
+        computed(Powder.readability_mg)
         + SQRT6 * func.coalesce(taken.c.u_sum, 0.0)
-        + SQRT6 * func.coalesce(Powder.residual_u_mg, 0.0)
+        + SQRT6 * func.coalesce(computed(Powder.residual_u_mg), 0.0)
     )
     closed = Powder.status.in_(_CLOSED)
     outside = and_(
@@ -242,12 +245,17 @@ def _per_powder(scope: _Scope) -> Select[Any]:
     )
     rows = select(
         Powder.specimen_id,
-        Powder.mass_mg,
-        Powder.mass_u_mg,
+        computed(Powder.mass_mg).label("mass_mg"),
+        computed(Powder.mass_u_mg).label("mass_u_mg"),
         dissolved.label("dissolved"),
-        case((Powder.status == _OPEN, Powder.mass_mg - dissolved), else_=0.0).label("on_hand"),
+        case((Powder.status == _OPEN, computed(Powder.mass_mg) - dissolved), else_=0.0).label(
+            "on_hand"
+        ),
         case(
-            (Powder.status == "returned", func.coalesce(Powder.residual_mg, gap + residual)),
+            (
+                Powder.status == "returned",
+                func.coalesce(computed(Powder.residual_mg), gap + residual),
+            ),
             else_=0.0,
         ).label("returned"),
         case((Powder.override_reason.is_not(None), 1), else_=0).label("override"),
@@ -401,7 +409,7 @@ def _loan_line(
 ) -> LoanLine:
     """A loan's line from its totals; with its specimens' lines when their books are given."""
     terms = terms_in_force(loan.terms, today)
-    permitted = terms.max_mass_per_specimen_mg
+    permitted = as_float(terms.max_mass_per_specimen_mg)
     lines = _SPECIMEN_LINES.validate_python(
         [_specimen_line(b, _specimen_flags(b, permitted), permitted) for b in books or []]
     )

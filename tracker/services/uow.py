@@ -20,6 +20,7 @@ says needs a manager is refused otherwise, here as in ``ledger verify``.
 
 from __future__ import annotations
 
+import re
 import sys
 from collections.abc import Callable, Iterable, Iterator
 from contextlib import contextmanager
@@ -28,13 +29,14 @@ from datetime import datetime, timedelta
 from typing import Any, Protocol
 
 from sqlalchemy import select
-from sqlalchemy.exc import DBAPIError
+from sqlalchemy.exc import DBAPIError, IntegrityError
 from sqlalchemy.orm import Session
 
 from tracker.db import logins
 from tracker.db.database import Database
 from tracker.db.rows import insert_rows
 from tracker.db.writer_lock import WriterLock
+from tracker.domain import checks
 from tracker.domain.authority import FORMAT_2, Authority, manager_needed
 from tracker.domain.base import HasPublicId
 from tracker.domain.errors import InputError, RuleViolation
@@ -152,7 +154,7 @@ class UnitOfWork:
         if self.backdated is not None:  # last: refusals about the entry itself come first
             self.require_manager(self.backdated.action())
             payload = {**payload, "backdated": self.backdated.payload()}
-        text = canonical_json(payload)
+        text = canonical_json(payload, default=expanded)
         needed = manager_needed(action, self.operator.code, text)
         if needed is not None:  # the verifier's own rule: no service can forget it
             self.require_manager(needed)
@@ -336,6 +338,9 @@ def unit_of_work(db: Database, actor: str | None, doing: str = "") -> Iterator[U
     except DBAPIError as error:
         lock.release()
         session.rollback()
+        broken = _check_broken(error)
+        if broken is not None:
+            raise broken from None
         if getattr(error.orig, "sqlstate", None) != INSUFFICIENT_PRIVILEGE:
             raise
         raise _refused(error) from None
@@ -385,6 +390,24 @@ def agree_with_login(session: Session, operator: Operator) -> None:
             f"this database login ({who.login}) records as {bound} only; "
             "each person connects with their own login",
         )
+
+
+def _check_broken(error: DBAPIError) -> RuleViolation | None:
+    """A value the schema refuses as never true (``domain.checks``), said in one line.
+
+    The services check every value first, so this is a service's missed rule; the
+    person still reads one line and nothing is written."""
+    if not isinstance(error, IntegrityError):
+        return None
+    diag = getattr(error.orig, "diag", None)  # PostgreSQL names the constraint
+    name = getattr(diag, "constraint_name", None)
+    if name is None:  # SQLite: "CHECK constraint failed: <name>"
+        found = re.search(r"CHECK constraint failed: (\w+)", str(error.orig))
+        name = found.group(1) if found else None
+    sentence = checks.said(name) if name else None
+    if sentence is None:
+        return None
+    return RuleViolation("--db", None, f"the database refused a value: {sentence}")
 
 
 def _refused(error: DBAPIError) -> RuleViolation:
