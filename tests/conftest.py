@@ -24,6 +24,7 @@ from sqlalchemy.engine import make_url
 
 from tests import keys
 from tests.pg import private_cluster, server_binaries
+from tests.reliability import report
 from tracker.db.database import Database, open_database
 from tracker.domain.base import Base
 from tracker.domain.models import CustodyEvent
@@ -188,3 +189,30 @@ Counts = Callable[[], dict[str, int]]  # the ``counts`` fixture: snapshot_counts
 @pytest.fixture
 def counts(db: Database) -> Counts:
     return lambda: snapshot_counts(db)
+
+
+def pytest_addoption(parser: pytest.Parser) -> None:
+    parser.addoption(
+        "--reliability-page",
+        metavar="PAGE",
+        type=Path,
+        help="after a run that passed, write its reliability table into PAGE "
+        "(docs/reliability.md), between the page's marker lines",
+    )
+
+
+def pytest_terminal_summary(terminalreporter: Any, exitstatus: int, config: pytest.Config) -> None:
+    """The reliability tests' sizes and findings (tests/reliability/report.py), printed;
+    written into the reliability page only by a run that passed."""
+    if not report.ROWS:
+        return
+    terminalreporter.section("reliability: sizes and findings of this run")
+    terminalreporter.write_line(report.table())
+    page: Path | None = config.getoption("--reliability-page")
+    if page is None:
+        return
+    if exitstatus != 0:
+        terminalreporter.write_line(f"{page} not written: this run did not pass")
+        return
+    report.write_page(page)
+    terminalreporter.write_line(f"{page}: its table now holds this run's {len(report.ROWS)} rows")

@@ -1,7 +1,7 @@
 """A shared PostgreSQL lab with one login per person, built on the suite's private cluster.
 
 Roles belong to the whole cluster, so every name carries a tag. The lab is set up the way
-the README says: an owner role owns the database and runs `tracker db workstation-grants`;
+docs/storage.md says: an owner role owns the database and runs `tracker db workstation-grants`;
 the founder's login is made and bound by `tracker db add-login` run as the owner (who may
 create roles); the others' logins are made by an administrator from the SQL that `--print`
 shows, and bound by the manager from her own login. The demo scenario is then replayed,

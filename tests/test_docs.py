@@ -1,4 +1,5 @@
-"""The README's promises hold: two Quick-start commands, CI runs the second, the recipe works."""
+"""The documents' promises hold: two Quick-start commands in the README, CI runs the second,
+the ledger page's verification recipes work, the labels page names real stocks and commands."""
 
 from __future__ import annotations
 
@@ -8,6 +9,8 @@ import subprocess
 import sys
 from pathlib import Path
 
+import pytest
+
 from tests import factories as make
 from tests.conftest import TickingClock, seed
 from tracker.db.database import open_database
@@ -15,6 +18,11 @@ from tracker.services import ledger
 
 ROOT = Path(__file__).resolve().parents[1]
 README = (ROOT / "README.md").read_text(encoding="utf-8")
+
+
+def _page(name: str) -> str:
+    """A page of docs/, whole."""
+    return (ROOT / "docs" / name).read_text(encoding="utf-8")
 
 
 def _section(title: str) -> str:
@@ -43,8 +51,8 @@ def test_ci_runs_the_readme_test_command_verbatim() -> None:
 
 
 def _recipe(tmp_path: Path, marker: str) -> Path:
-    """The ledger section's Python block that uses ``marker``, written out as a script."""
-    blocks = [b for b in _blocks(_section("The custody ledger"), "python") if marker in b]
+    """The ledger page's Python block that uses ``marker``, written out as a script."""
+    blocks = [b for b in _blocks(_page("ledger.md"), "python") if marker in b]
     assert len(blocks) == 1
     script = tmp_path / f"recipe-{len(list(tmp_path.glob('recipe-*')))}.py"
     script.write_text(blocks[0], encoding="utf-8")
@@ -70,7 +78,9 @@ def _run(script: Path, export: Path) -> subprocess.CompletedProcess[str]:
     )
 
 
-def test_readme_verification_recipe_accepts_an_export_and_rejects_tampering(tmp_path: Path) -> None:
+def test_ledger_page_verification_recipe_accepts_an_export_and_rejects_tampering(
+    tmp_path: Path,
+) -> None:
     script = _recipe(tmp_path, "hashlib")
     assert len(script.read_text(encoding="utf-8").splitlines()) <= 20
     export, count, head = _exported(tmp_path)
@@ -90,7 +100,7 @@ def test_readme_verification_recipe_accepts_an_export_and_rejects_tampering(tmp_
     assert empty.returncode != 0 and "no events" in empty.stderr
 
 
-def test_readme_signature_recipe_accepts_an_export_and_rejects_one_altered_signature(
+def test_ledger_page_signature_recipe_accepts_an_export_and_rejects_one_altered_signature(
     tmp_path: Path,
 ) -> None:
     script = _recipe(tmp_path, "Ed25519PublicKey")
@@ -111,7 +121,7 @@ def test_readme_signature_recipe_accepts_an_export_and_rejects_one_altered_signa
     assert f"event {record['seq']}: the signature does not match" in bad.stderr
 
 
-def test_readme_labels_section_names_real_stocks_commands_and_a_valid_stock_file(
+def test_labels_page_names_real_stocks_commands_and_a_valid_stock_file(
     tmp_path: Path,
 ) -> None:
     import tomllib
@@ -122,7 +132,7 @@ def test_readme_labels_section_names_real_stocks_commands_and_a_valid_stock_file
     from tracker.cli import app
     from tracker.output.stocks import entries, load_stock
 
-    section = _section("Labels")
+    section = _page("labels.md")
     (example,) = _blocks(section, "toml")
     path = tmp_path / "stocks.toml"
     path.write_text(example, encoding="utf-8")
@@ -136,3 +146,33 @@ def test_readme_labels_section_names_real_stocks_commands_and_a_valid_stock_file
     assert isinstance(labels_group, TyperGroup)
     for command in re.findall(r"^tracker labels ([a-z-]+)", _blocks(section, "bash")[0], re.M):
         assert command in labels_group.commands
+
+
+def test_the_reliability_page_keeps_its_prose_when_a_run_writes_its_table(tmp_path: Path) -> None:
+    from tests.reliability import report
+
+    page = tmp_path / "reliability.md"
+    page.write_text(_page("reliability.md"), encoding="utf-8")
+    before = page.read_text(encoding="utf-8")
+    prose_before, _, rest = before.partition(report.BEGIN)
+    _, _, prose_after = rest.partition(report.END)
+    assert "--reliability-page docs/reliability.md" in prose_before  # the command, on top
+    assert "How the tests work" in prose_after
+
+    rows = dict(report.ROWS)
+    report.ROWS.clear()
+    try:
+        report.record("an invented test", "3 cases", "all refused")
+        report.write_page(page)
+    finally:
+        report.ROWS.clear()
+        report.ROWS.update(rows)
+    after = page.read_text(encoding="utf-8")
+    assert after == (
+        f"{prose_before}{report.BEGIN}\n| test | size | found |\n|---|---|---|\n"
+        f"| an invented test | 3 cases | all refused |\n{report.END}{prose_after}"
+    )
+
+    page.write_text("# a page without the markers\n", encoding="utf-8")
+    with pytest.raises(ValueError, match="no table between"):
+        report.write_page(page)

@@ -1,5 +1,5 @@
 """Allow ``python -m tracker``."""
 
-from tracker.launch import main
+from tracker.cli import main
 
 main()

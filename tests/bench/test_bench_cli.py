@@ -1,34 +1,52 @@
-"""`tracker bench`: bad options are one line naming the option and write nothing; a small run
-prints every chosen figure next to its floor, and the floors agree with tracker's answers.
+"""`python -m benchmarks`: bad options are one line naming the option and write nothing; a
+small run prints every chosen figure next to its floor, and the floors agree with tracker's
+answers.
 
 Nothing here asserts a speed (the benchmark itself does, on the real scale): the run is tiny.
 """
 
 from __future__ import annotations
 
+import importlib.util
 import json
+import os
+import sqlite3
+import subprocess
+import sys
+from contextlib import closing
 from pathlib import Path
 
 import pytest
+from typer.testing import CliRunner, Result
 
-from tests.cli.conftest import invoke
+from benchmarks.children import CHECKOUT
+from benchmarks.cli import app
+from tests.cli.conftest import CLEAN_ENV, invoke
+
+
+def bench(*args: str, as_json: bool = False) -> Result:
+    """Run ``python -m benchmarks [--json] ARGS...`` in this process."""
+    argv = ["--json", *args] if as_json else list(args)
+    return CliRunner().invoke(app, argv, env=CLEAN_ENV, catch_exceptions=False)
 
 
 @pytest.mark.parametrize(
     ("args", "field_name", "value"),
     [
-        (("bench", "run", "--scale", "lots"), "--scale", "lots"),
-        (("bench", "run", "--scale", "0"), "--scale", "0"),
-        (("bench", "run", "--scales", "0.25,x"), "--scales", "x"),
-        (("bench", "run", "--backend", "oracle"), "--backend", "oracle"),
-        (("bench", "run", "--only", "reconcile,speed"), "--only", "speed"),
-        (("bench", "generate", "--executor", "magic"), "--executor", "magic"),
+        (("run", "--scale", "lots"), "--scale", "lots"),
+        (("run", "--scale", "0"), "--scale", "0"),
+        (("run", "--scales", "0.25,x"), "--scales", "x"),
+        (("run", "--backend", "oracle"), "--backend", "oracle"),
+        (("run", "--only", "reconcile,speed"), "--only", "speed"),
+        (("generate", "--executor", "magic"), "--executor", "magic"),
+        (("run", "--backend", "postgresql"), "--backend", "postgresql"),  # no server named
+        (("run", "--pg-url", "postgresql://x/y", "--pg-cluster"), "--pg-url", "postgresql://x/y"),
     ],
 )
 def test_bad_options_are_one_line_naming_the_option(
     args: tuple[str, ...], field_name: str, value: str, tmp_path: Path
 ) -> None:
-    result = invoke(*args, "--cache", str(tmp_path))
+    result = bench(*args, "--cache", str(tmp_path))
     assert result.exit_code == 2
     lines = result.stderr.strip().splitlines()
     assert len(lines) == 1 and field_name in lines[0] and repr(value) in lines[0], lines
@@ -38,14 +56,13 @@ def test_bad_options_are_one_line_naming_the_option(
 def test_generate_refuses_an_existing_file(tmp_path: Path) -> None:
     there = tmp_path / "there.sqlite"
     there.write_bytes(b"keep me")
-    result = invoke("bench", "generate", "--scale", "0.002", "--out", str(there))
+    result = bench("generate", "--scale", "0.002", "--out", str(there))
     assert result.exit_code == 2 and "--out" in result.stderr
     assert there.read_bytes() == b"keep me"
 
 
 def test_a_small_run_prints_each_figure_with_its_floor_and_no_disagreement(tmp_path: Path) -> None:
-    result = invoke(
-        "bench",
+    result = bench(
         "run",
         "--scale",
         "0.002",
@@ -72,8 +89,7 @@ def test_a_small_run_prints_each_figure_with_its_floor_and_no_disagreement(tmp_p
 
 def test_markdown_holds_the_same_figures_as_the_json(tmp_path: Path) -> None:
     out = tmp_path / "perf.md"
-    result = invoke(
-        "bench",
+    result = bench(
         "run",
         "--scales",
         "0.002,0.004",
@@ -103,8 +119,7 @@ def test_markdown_holds_the_same_figures_as_the_json(tmp_path: Path) -> None:
 
 
 def test_markdown_into_a_missing_folder_is_refused_before_running(tmp_path: Path) -> None:
-    result = invoke(
-        "bench",
+    result = bench(
         "run",
         "--scale",
         "0.002",
@@ -115,3 +130,41 @@ def test_markdown_into_a_missing_folder_is_refused_before_running(tmp_path: Path
     )
     assert result.exit_code == 2 and "--markdown" in result.stderr
     assert not list(tmp_path.iterdir())
+
+
+def test_markdown_aimed_at_a_database_is_refused_even_forced(tmp_path: Path) -> None:
+    lab = tmp_path / "lab.sqlite"
+    with closing(sqlite3.connect(lab)) as connection:
+        connection.execute("CREATE TABLE custody_event(seq)")
+        connection.commit()
+    before = lab.read_bytes()
+    cache = tmp_path / "cache"
+    cache.mkdir()
+    result = bench(
+        "run", "--scale", "0.002", "--cache", str(cache), "--markdown", str(lab), "--force"
+    )
+    assert result.exit_code == 2 and "--markdown" in result.stderr, result.stderr
+    assert lab.read_bytes() == before
+    assert not list(cache.iterdir())  # refused before anything was built
+
+
+def test_runs_from_a_checkout_as_a_module() -> None:
+    """``python -m benchmarks`` from the checkout's folder: no installation, no PYTHONPATH."""
+    env = {k: v for k, v in os.environ.items() if k != "PYTHONPATH"}
+    done = subprocess.run(
+        [sys.executable, "-m", "benchmarks", "--help"],
+        cwd=CHECKOUT,
+        env=env,
+        capture_output=True,
+        text=True,
+        check=False,
+    )
+    assert done.returncode == 0, done.stderr
+    assert "generate" in done.stdout and "run" in done.stdout
+
+
+def test_tracker_holds_no_benchmark() -> None:
+    """The product ships without it: no ``tracker.bench`` package, no ``tracker bench``."""
+    assert importlib.util.find_spec("tracker.bench") is None
+    result = invoke("bench", "--help")
+    assert result.exit_code == 2 and "bench" in result.stderr, result.stderr

@@ -26,7 +26,7 @@ from tracker.domain.ids import Kind, format_id
 POWDER = format_id(Kind.POWDER, 1)
 
 
-def _tamper(books: Books) -> tuple[str, float]:
+def _tamper(books: Books) -> tuple[str, object]:
     """Powder 1's mass set to 1.0 mg without an event: its loan, and the mass it had."""
     ((old, loan),) = books.raw(
         "SELECT powder.mass_mg, loan.reference FROM powder "
@@ -37,8 +37,10 @@ def _tamper(books: Books) -> tuple[str, float]:
     return loan, old
 
 
-def _said(old: float) -> str:
-    return f"powder {POWDER}: mass_mg is 1.0 but the ledger says {old!r}"
+def _said(old: object) -> str:
+    """The audit's line; a mass is shown as its stored digits (text on SQLite, NUMERIC on
+    PostgreSQL)."""
+    return f"powder {POWDER}: mass_mg is 1.0 but the ledger says {old}"
 
 
 def _other_loan(books: Books, loan: str) -> str:

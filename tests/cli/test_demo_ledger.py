@@ -7,6 +7,7 @@ import re
 import sqlite3
 import tomllib
 from collections import defaultdict
+from decimal import Decimal
 from pathlib import Path
 from typing import Any
 
@@ -88,16 +89,19 @@ def test_show_gives_lineage_down_to_aliquots(demo_db: Path) -> None:
         assert {n["id"] for n in item["children"]} == children[specimen]
         for powder in item["children"]:
             facts = powder["facts"]
-            taken = sum(s["facts"]["powder_mass_mg"] for s in powder["children"])
-            assert facts["remaining_mg"] == pytest.approx(facts["mass_mg"] - taken, abs=1e-9)
+            # measured values are their digits: exact sums, by hand
+            taken = sum(Decimal(s["facts"]["powder_mass_mg"]) for s in powder["children"])
+            left = Decimal(facts["mass_mg"]) - taken
+            assert facts["remaining_mg"] == pytest.approx(float(left), abs=1e-9)
             assert {n["id"] for n in powder["children"]} == children[powder["id"]]
             for solution in powder["children"]:
                 facts = solution["facts"]
-                used = sum(a["facts"]["mass_g"] for a in solution["children"])
-                assert facts["remaining_g"] == pytest.approx(facts["solution_mass_g"] - used)
+                used = sum(Decimal(a["facts"]["mass_g"]) for a in solution["children"])
+                left = Decimal(facts["solution_mass_g"]) - used
+                assert facts["remaining_g"] == pytest.approx(float(left))
                 assert {n["id"] for n in solution["children"]} == children[solution["id"]]
                 for aliquot in solution["children"]:
-                    assert aliquot["kind"] == "aliquot" and aliquot["facts"]["mass_g"] > 0
+                    assert aliquot["kind"] == "aliquot" and Decimal(aliquot["facts"]["mass_g"]) > 0
                     aliquots_seen += 1
     assert aliquots_seen == sum(len(v) for k, v in children.items() if k.startswith("SO-"))
     assert aliquots_seen > 0
@@ -135,7 +139,7 @@ def test_one_flipped_byte_in_the_file_is_found(demo_db: Path, tmp_path: Path) ->
     data = db.read_bytes()
     needle = payload.encode("utf-8")
     assert data.count(needle) == 1, "the payload must occur exactly once in the file"
-    key = '"gross_mg":'
+    key = '"gross_mg":"'  # a measured value: its digits, as a string
     offset = data.index(needle) + len(payload[: payload.index(key) + len(key)].encode("utf-8"))
     digit = data[offset : offset + 1]
     assert digit.isdigit()

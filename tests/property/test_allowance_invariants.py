@@ -82,12 +82,13 @@ def test_limits_hold_unless_overridden(sequence: list[tuple[int, Decimal, bool]]
         with db.read_session() as session:
             powders = session.scalars(select(Powder)).all()
             overridden = any(p.override_reason for p in powders)
-            per_specimen: dict[int, float] = {}
-            for p in powders:
-                per_specimen[p.specimen_id] = per_specimen.get(p.specimen_id, 0.0) + p.mass_mg
+            per_specimen: dict[int, Decimal] = {}
+            for p in powders:  # exact masses: exact sums
+                held = per_specimen.get(p.specimen_id, Decimal(0))
+                per_specimen[p.specimen_id] = held + p.mass_mg
         if not overridden:
-            assert sum(per_specimen.values()) <= 6.0 + 1e-9
-            assert all(total <= 3.0 + 1e-9 for total in per_specimen.values())
+            assert sum(per_specimen.values()) <= 6
+            assert all(total <= 3 for total in per_specimen.values())
             assert len(per_specimen) <= 2
         flagged = "override used" in reconcile(db, loan)[0].flags
         assert flagged == overridden

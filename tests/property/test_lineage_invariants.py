@@ -182,13 +182,13 @@ class LabBench(RuleBasedStateMachine):
         with self.db.read_session() as session:
             for powder in session.scalars(select(Powder)):
                 given = total(
-                    Amount(s.powder_mass_mg, s.powder_mass_u_mg) for s in powder.solutions
+                    Amount.of(s.powder_mass_mg, s.powder_mass_u_mg) for s in powder.solutions
                 )
-                gap = given - Amount(powder.mass_mg, powder.mass_u_mg)
+                gap = given - Amount.of(powder.mass_mg, powder.mass_u_mg)
                 assert gap.value <= COVERAGE_FACTOR * gap.u + 1e-12, powder.public_id
             for solution in session.scalars(select(Solution)):
-                given = total(Amount(a.mass_g, a.mass_u_g) for a in solution.aliquots)
-                gap = given - Amount(solution.solution_mass_g, solution.solution_mass_u_g)
+                given = total(Amount.of(a.mass_g, a.mass_u_g) for a in solution.aliquots)
+                gap = given - Amount.of(solution.solution_mass_g, solution.solution_mass_u_g)
                 assert gap.value <= COVERAGE_FACTOR * gap.u + 1e-12, solution.public_id
 
     @invariant()

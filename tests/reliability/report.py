@@ -1,15 +1,21 @@
 """What the reliability tests measured in this run, printed as one table at the end.
 
 Each heavy test calls :func:`record` with its size (processes, attempts, kills, fuzz cases)
-and what it found; ``tests/reliability/conftest.py`` prints the rows after the run, so the
-README's reliability table is copied from a real run rather than written by hand.
+and what it found; the suite prints the rows after the run (``tests/conftest.py``), and a
+run that passed writes them into docs/reliability.md when asked to (``--reliability-page``),
+so the page's table is always a real run's rather than written by hand.
 """
 
 from __future__ import annotations
 
 from dataclasses import dataclass
+from pathlib import Path
 
 ROWS: dict[str, Row] = {}
+
+# The page's table sits between these two lines; the writer replaces only what is between.
+BEGIN = "<!-- reliability table: written by the test run, do not edit by hand -->"
+END = "<!-- end of the reliability table -->"
 
 
 @dataclass(frozen=True)
@@ -32,3 +38,19 @@ def table() -> str:
 
 def _order(row: Row) -> str:
     return row.test
+
+
+def with_table(page: str, new_table: str) -> str:
+    """The page with the table between its two marker lines replaced; the prose around it
+    (how the tests work, the caps) is kept as written."""
+    before, begin, rest = page.partition(BEGIN + "\n")
+    _, end, after = rest.partition(END)
+    if not begin or not end:
+        raise ValueError(f"the page has no table between {BEGIN!r} and {END!r}")
+    return f"{before}{BEGIN}\n{new_table}\n{END}{after}"
+
+
+def write_page(path: Path) -> None:
+    """Write this run's table into the page at ``path``."""
+    page = path.read_text(encoding="utf-8")
+    path.write_text(with_table(page, table()), encoding="utf-8")

@@ -50,7 +50,7 @@ def _within(
 
 
 def _imports(*modules: str) -> float:
-    return baseline("tracker.launch", *modules)
+    return baseline(*modules)
 
 
 # ---------------------------------------------------------------- lender manifests

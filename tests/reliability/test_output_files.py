@@ -105,7 +105,6 @@ def unforced(books: Books, out: Path) -> dict[str, tuple[str, list[str]]]:
     o = str(out)
     found = {
         "demo": ("--out", ["demo", "--out", o, "--no-open"]),
-        "bench run --markdown": ("--markdown", ["bench", "run", "--markdown", o]),
     }
     if books.path is not None:
         found["backup"] = ("PATH", ["backup", o])

@@ -14,6 +14,7 @@ import shutil
 from collections.abc import Iterator
 from dataclasses import dataclass
 from datetime import timedelta
+from decimal import Decimal
 from pathlib import Path
 from typing import Any
 
@@ -61,7 +62,7 @@ def add_the_rest(target: str, out: Path) -> None:
         labels.set_uri_prefix(db, MANAGER, {"uri_prefix": "HTTPS://LAB.EXAMPLE/T/"})
         settings.set_backdating_window(db, MANAGER, {"window": "36 h"})
         for extra in ("0.01", "0.02"):  # an aliquot's mass: its column and session follow
-            gross = f"{2000 + grams * 1000 + float(extra):.2f} mg"
+            gross = f"{2000 + grams * 1000 + Decimal(extra):.2f} mg"
             corrections.correct_weighing(
                 db,
                 MANAGER,

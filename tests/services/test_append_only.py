@@ -205,7 +205,7 @@ def test_no_service_sends_an_update_or_delete_to_append_only_tables(
     assert any("custody_event" in s for s in writes)
     assert [s for s in statements if EDIT.match(s)] == []
     assert [s for s in statements if OVERWRITE.match(s)] == []
-    # no service deletes any row (a workstation login on PostgreSQL may not: README, Storage)
+    # no service deletes any row (a workstation login on PostgreSQL may not: docs/storage.md)
     assert [s for s in writes if re.match(r"^\s*DELETE", s, re.I)] == []
 
 

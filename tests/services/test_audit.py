@@ -11,6 +11,7 @@ are read from the database with raw SQL before the tamper, never from tracker's 
 from __future__ import annotations
 
 import json
+from decimal import Decimal
 from typing import Any
 
 import pytest
@@ -19,7 +20,7 @@ from sqlalchemy import Enum, Float, Integer, String, Table, UniqueConstraint
 from tests.cli.conftest import invoke
 from tests.services.audit_lab import Books
 from tracker.db.database import open_database
-from tracker.domain.base import Base
+from tracker.domain.base import Base, Exact, decimal_text
 from tracker.domain.ids import Kind, format_id
 from tracker.services.audit import audit
 
@@ -32,7 +33,7 @@ _KINDS = {
 
 
 def _key(table: Table, row: dict[str, Any]) -> str:
-    """A row's key as the README documents it: its public ID, else its primary key."""
+    """A row's key as docs/ledger.md documents it: its public ID, else its primary key."""
     kind: Kind | None = _KINDS.get(table.name)
     if kind is not None:
         return format_id(kind, row["id"])
@@ -40,23 +41,27 @@ def _key(table: Table, row: dict[str, Any]) -> str:
 
 
 def _tamperable(table: Table, row: dict[str, Any]) -> str:
-    """A plain column of ``row`` with a value: a float first, then text, then a count."""
+    """A plain column of ``row`` with a value: a number first, then text, then a count."""
     plain = [
         c
         for c in table.columns
         if not c.primary_key and not c.foreign_keys and row[c.name] is not None
     ]
-    for kind in (Float, String, Integer):
+    for kind in (Float, Exact, String, Integer):
         for column in plain:
             if isinstance(column.type, kind) and not isinstance(column.type, Enum):
                 return column.name
     return ""  # every column is the key's (a ledger mention): the key itself is changed
 
 
-def _changed(value: Any) -> Any:
-    """Another value of the same type and length."""
+def _changed(value: Any, exact: bool = False) -> Any:
+    """Another value of the same type and length (a number halved: every rule of the
+    schema still holds, as a tamperer's value must to be stored)."""
+    if exact:  # NUMERIC on PostgreSQL, its digits on SQLite
+        half = Decimal(str(value)) / 2
+        return half if isinstance(value, Decimal) else decimal_text(half)
     if isinstance(value, float):
-        return value + 1.5
+        return value / 2 if value else 0.5
     if isinstance(value, int):
         return value + 1000
     return value[:-1] + ("X" if value[-1:] != "X" else "Y")
@@ -98,7 +103,8 @@ def test_every_kind_of_tamper_is_named_exactly(books: Books, name: str) -> None:
     first, last = rows[0], rows[-1]
     column = _tamperable(table, first)
     key_column = "ref" if not column else None  # event_ref: seq and ref are all it holds
-    old, new = (first[column or "ref"], _changed(first[column or "ref"]))
+    exact = bool(column) and isinstance(table.c[column].type, Exact)
+    old, new = (first[column or "ref"], _changed(first[column or "ref"], exact))
     where = " AND ".join(f"{c.name} = :k_{c.name}" for c in table.primary_key.columns)
 
     def keys(row: dict[str, Any]) -> dict[str, Any]:
@@ -139,11 +145,16 @@ def test_every_kind_of_tamper_is_named_exactly(books: Books, name: str) -> None:
         return
     assert set(found) == expected | {("changed", name, _key(table, first), column)}
     changed = found[("changed", name, _key(table, first), column)]
-    assert (changed.ledger, changed.stored) == (old, new)
+    assert (changed.ledger, changed.stored) == (_fact(old, exact), _fact(new, exact))
     unrecorded = found[("unrecorded", name, _key(table, copy), None)]
-    assert unrecorded.ledger is None and unrecorded.stored[column] == copy[column]
+    assert unrecorded.ledger is None and unrecorded.stored[column] == _fact(copy[column], exact)
     missing = found[("missing", name, _key(table, last), None)]
-    assert missing.stored is None and missing.ledger[column] == last[column]
+    assert missing.stored is None and missing.ledger[column] == _fact(last[column], exact)
+
+
+def _fact(value: Any, exact: bool) -> Any:
+    """A stored value as the facts state it: an exact value as its digits."""
+    return decimal_text(Decimal(str(value))) if exact else value
 
 
 def _bound(table: Table, row: dict[str, Any]) -> dict[str, Any]:
@@ -187,8 +198,8 @@ def test_the_cli_names_each_discrepancy_and_exits_1(books: Books) -> None:
             "table": "powder",
             "key": format_id(Kind.POWDER, 1),
             "field": "mass_mg",
-            "ledger": old,
-            "stored": 1.0,
+            "ledger": _fact(old, exact=True),  # measured values: their digits
+            "stored": "1.0",
         }
     ]
     human = invoke("ledger", "audit", db=books.target)

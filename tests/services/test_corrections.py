@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+from decimal import Decimal
 
 import pytest
 from sqlalchemy import select
@@ -47,18 +48,20 @@ def test_powder_correction_keeps_the_original_and_totals_use_the_latest(db: Data
         db, "tech", {"item": powder, "tare": "1000.000 mg", "gross": "1002.500 mg", "reason": WHY}
     ).item
     # by hand: 1002.500 − 1000.000 = 2.500 mg, u = 0.001 mg/√6 (GUM F.2.2.1, two readings)
-    assert answer.value["mass_mg"] == pytest.approx(2.5)
-    assert answer.value["mass_u_mg"] == pytest.approx(0.001 / math.sqrt(6))
-    assert answer.replaced["mass_mg"] == pytest.approx(2.0) and answer.entry_by == "tech"
+    assert answer.value["mass_mg"] == "2.500"  # the digits of the readings' difference
+    assert float(answer.value["mass_u_mg"]) == pytest.approx(0.001 / math.sqrt(6))
+    assert answer.replaced["mass_mg"] == "2.000" and answer.entry_by == "tech"
 
     (line,) = reconcile.reconcile(db, loan)
     assert line.drilled_mg == pytest.approx(2.5) and line.powder_on_hand_mg == pytest.approx(2.5)
     history = lineage.show_item(db, powder).history
     drilled = next(e for e in history if e.action == "powder.drilled")
     corrected = next(e for e in history if e.action == "powder.corrected")
-    assert drilled.payload["mass_mg"] == pytest.approx(2.0)  # the original event, untouched
+    assert drilled.payload["mass_mg"] == "2.000"  # the original event, untouched
     assert corrected.payload["supersedes_event"] == drilled.seq
-    assert corrected.payload["reason"] == WHY and corrected.payload["value"]["gross_mg"] == 1002.5
+    assert (
+        corrected.payload["reason"] == WHY and corrected.payload["value"]["gross_mg"] == "1002.500"
+    )
     assert corrected.payload["effects"]["label"] == "queued"  # the vial's label shows its mass
     dissolved = lab.dissolve(
         db,
@@ -94,10 +97,10 @@ def test_a_second_correction_supersedes_the_first(db: Database) -> None:
     first = weigh_again(db, "tech", powder, "1000.000 mg", "1002.300 mg")
     second = weigh_again(db, "tech", powder, "1000.000 mg", "1002.030 mg")
     assert second.supersedes_id == first.id and second.supersedes_event_seq == first.event_seq
-    assert second.replaced["mass_mg"] == pytest.approx(2.3)
+    assert second.replaced["mass_mg"] == "2.300"
     listed = correcting.list_corrections(db, powder.lower().replace("-", ""))  # as scanned
     assert [c.event_seq for c in listed] == [first.event_seq, second.event_seq]
-    assert lineage.show_item(db, powder).item.facts["mass_mg"] == pytest.approx(2.03)
+    assert lineage.show_item(db, powder).item.facts["mass_mg"] == Decimal("2.030")
 
 
 def test_a_powder_cannot_be_corrected_below_what_was_dissolved(
@@ -232,7 +235,7 @@ def test_a_solution_cannot_be_corrected_below_its_aliquots(db: Database, counts:
         weigh_again(db, "tech", solution, "5.0000 g", "5.3000 g")
     assert counts() == before
     row = weigh_again(db, "tech", solution, "5.0000 g", "5.9000 g")
-    assert row.value["mass_g"] == pytest.approx(0.9)
+    assert Decimal(row.value["mass_g"]) == Decimal("0.9")  # its digits, in g
 
 
 def test_the_powder_portion_of_a_solution_is_corrected_within_the_powder(

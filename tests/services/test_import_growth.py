@@ -11,6 +11,7 @@ instrument import's bracketing check, which scanned the standards once per sampl
 
 from __future__ import annotations
 
+import gc
 import time
 from collections.abc import Callable
 from itertools import count
@@ -47,10 +48,19 @@ def assert_linear(run: Callable[[int], float], sizes: tuple[int, int, int]) -> N
 
 def timed(call: Callable[[], object]) -> float:
     """The CPU time of this process for the call: what other processes on a shared machine
-    do does not count (SQLite works inside this process; PostgreSQL's server does not)."""
-    started = time.process_time()
-    call()
-    return time.process_time() - started
+    do does not count (SQLite works inside this process; PostgreSQL's server does not).
+
+    The objects the test run already holds (every earlier test's) are frozen out of the
+    collector first: a command's own process holds none of them, and one full collection
+    walking them would land in whichever call it happens to fall on."""
+    gc.collect()
+    gc.freeze()
+    try:
+        started = time.process_time()
+        call()
+        return time.process_time() - started
+    finally:
+        gc.unfreeze()
 
 
 def test_batch_sheets_grow_linearly(db: Database) -> None:

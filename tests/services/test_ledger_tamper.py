@@ -96,9 +96,9 @@ def test_deleted_and_renumbered_events_are_found(busy: Database) -> None:
 
 def test_swapped_events_are_found(busy: Database) -> None:
     with busy.engine.begin() as conn:
-        conn.execute(text("UPDATE custody_event SET seq = -1 WHERE seq = 4"))
+        conn.execute(text("UPDATE custody_event SET seq = 1000000 WHERE seq = 4"))
         conn.execute(text("UPDATE custody_event SET seq = 4 WHERE seq = 5"))
-        conn.execute(text("UPDATE custody_event SET seq = 5 WHERE seq = -1"))
+        conn.execute(text("UPDATE custody_event SET seq = 5 WHERE seq = 1000000"))
     report = verify(busy)
     assert not report.ok and report.broken_seq == 4
 

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import uuid
+from decimal import Decimal
 from pathlib import Path
 
 import pytest
@@ -69,7 +70,7 @@ def test_old_sqlite_file_is_backed_up_and_upgraded_on_open(tmp_path: Path) -> No
         upgraded = verify(reopened)
         assert upgraded.ok and (upgraded.head_seq, upgraded.head_hash) == head_before
         specimen = lineage.show_item(reopened, "SP-00001-" + check_character("SP00001")).item
-        assert specimen.children[0].facts["mass_mg"] == pytest.approx(2.15)
+        assert specimen.children[0].facts["mass_mg"] == Decimal("2.15")  # the float, exactly
         assert (upgraded.unsigned, upgraded.signed) == (3, 0)  # never "valid"
         # the upgraded file takes new writes through today's services, once a manager has
         # registered the first key (it signs its own registration)

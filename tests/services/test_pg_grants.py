@@ -1,5 +1,5 @@
-"""The README's PostgreSQL set-up, run on the test cluster: the commands it shows give each
-person a login that does a day's work, and that login cannot change the ledger, the
+"""The PostgreSQL set-up of docs/storage.md, run on the test cluster: the commands it shows
+give each person a login that does a day's work, and that login cannot change the ledger, the
 corrections or the terms, delete anything, nor switch the checks off."""
 
 from __future__ import annotations
@@ -20,24 +20,21 @@ from tracker.db.database import Database, open_database
 from tracker.domain.models import CustodyEvent
 from tracker.services import corrections, drilling, keys, ledger, loans, specimens
 
-README = Path(__file__).resolve().parents[2] / "README.md"
+STORAGE = Path(__file__).resolve().parents[2] / "docs" / "storage.md"
 pytestmark = pytest.mark.postgresql
 
 
 def _setup_commands() -> list[list[str]]:
-    """The `tracker ...` lines of the Storage section's set-up block, as argument lists."""
-    storage = re.search(
-        r"^## Storage\n(.*?)(?=^## )", README.read_text(encoding="utf-8"), flags=re.S | re.M
-    )
-    assert storage is not None
-    blocks: list[str] = re.findall(r"```bash\n(.*?)```", storage.group(1), flags=re.S)
+    """The `tracker ...` lines of the storage page's set-up block, as argument lists."""
+    storage = STORAGE.read_text(encoding="utf-8")
+    blocks: list[str] = re.findall(r"```bash\n(.*?)```", storage, flags=re.S)
     (block,) = [b for b in blocks if "db " in b]
     return [shlex.split(line)[1:] for line in block.splitlines() if line.startswith("tracker ")]
 
 
 @pytest.fixture
 def names(pg_server: str) -> Iterator[dict[str, str]]:
-    """The README's role and database names, made unique on the shared test cluster."""
+    """The storage page's role and database names, made unique on the shared test cluster."""
     tag = uuid.uuid4().hex[:8]
     names = {
         "tracker_lab": f"tracker_lab_{tag}",
@@ -98,11 +95,11 @@ REFUSED = [
 def test_the_readme_set_up_gives_each_person_a_login_that_works_but_edits_no_history(
     pg_server: str, names: dict[str, str], tmp_path: Path, monkeypatch: pytest.MonkeyPatch
 ) -> None:
-    monkeypatch.chdir(tmp_path)  # where the README's `key new --out tomas.pub` writes
+    monkeypatch.chdir(tmp_path)  # where the storage page's `key new --out tomas.pub` writes
     _run_readme(pg_server, names)
     amira, tomas = _login(pg_server, names, "amira_h"), _login(pg_server, names, "tomas_h")
     try:
-        # Tomas unlocks the key he made with the README's `key new`, as a script would
+        # Tomas unlocks the key he made with the storage page's `key new`, as a script would
         made = keys.key_to_unlock(tomas, "tomas")
         assert made is not None
         keys.unlock_file(tomas, made, PASSPHRASE)

@@ -110,7 +110,7 @@ TECHNICIAN_SQL = {
     "change an aliquot's mass": ["UPDATE aliquot SET mass_g = 9 WHERE id = 2"],
     "change a recovery": ["UPDATE cut SET recovered_ug = 1 WHERE id = 2"],
     "change what a column loaded": ["UPDATE batch_position SET loaded_ug = 1"],
-    "change a result": ["UPDATE result SET delta_permil = 0"],
+    "change a result": ["UPDATE result SET delta_permil = 0.5"],  # possible: the schema allows it
     "clear a session's flags": ["UPDATE instrument_session SET flags = '[]'"],
     "change a blank's delta": ["UPDATE column_batch SET blank_deltas = '{}'"],
     "change a residual": ["UPDATE powder SET residual_mg = 0 WHERE residual_mg IS NOT NULL"],

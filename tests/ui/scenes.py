@@ -1,5 +1,6 @@
 """The main screens as a person sees them on the demo. The snapshot tests check them and the
-README shows the committed snapshots, so its pictures are exactly what the tests check."""
+interface page (docs/interface.md) shows the committed snapshots, so its pictures are
+exactly what the tests check."""
 
 from __future__ import annotations
 

@@ -6,9 +6,10 @@ from __future__ import annotations
 from pathlib import Path
 
 import pytest
+from typer.testing import CliRunner
 
 from tests.cli.conftest import invoke
-from tracker.cli import cmd_inspect
+from tracker.cli import app, cmd_inspect
 from tracker.ui.scan import BurstDetector
 
 
@@ -37,6 +38,45 @@ def test_on_a_terminal_the_interface_opens(tmp_path: Path, monkeypatch: pytest.M
     result = invoke("demo", "--out", str(tmp_path / "d.sqlite"), actor="ines")
     assert result.exit_code == 0
     assert opened == [(str(tmp_path / "d.sqlite"), "ines")]
+
+
+@pytest.mark.parametrize(
+    ("argv", "env", "expected"),
+    [
+        (["--db", "lab.sqlite", "--as", "ines"], {}, ("lab.sqlite", "ines")),
+        (["--as=ines", "--db=lab.sqlite"], {}, ("lab.sqlite", "ines")),
+        ([], {"TRACKER_DB": "env.sqlite", "TRACKER_OPERATOR": "priya"}, ("env.sqlite", "priya")),
+        (["--db", "lab.sqlite"], {"TRACKER_OPERATOR": "priya"}, ("lab.sqlite", "priya")),
+        (["--db", "postgresql://lab@db/tracker"], {}, ("postgresql://lab@db/tracker", None)),
+    ],
+)
+def test_tracker_alone_opens_the_interface_with_the_options_the_command_line_read(
+    argv: list[str],
+    env: dict[str, str],
+    expected: tuple[str, str | None],
+    monkeypatch: pytest.MonkeyPatch,
+) -> None:
+    """One reading of --db/--as (Typer's, with TRACKER_DB/TRACKER_OPERATOR): the interface
+    gets what the commands would have got."""
+    opened: list[tuple[str, str | None]] = []
+
+    def run_tui(target: str, operator: str | None) -> int:
+        opened.append((target, operator))
+        return 0
+
+    monkeypatch.setattr(cmd_inspect, "interactive", lambda ctx: True)
+    monkeypatch.setattr("tracker.ui.run_tui", run_tui)
+    clean: dict[str, str | None] = {"TRACKER_DB": None, "TRACKER_OPERATOR": None, **env}
+    result = CliRunner().invoke(app, argv, env=clean, catch_exceptions=False)
+    assert result.exit_code == 0, result.stdout
+    assert opened == [expected]
+
+
+def test_a_mistyped_global_option_is_refused_not_opened(monkeypatch: pytest.MonkeyPatch) -> None:
+    monkeypatch.setattr(cmd_inspect, "interactive", lambda ctx: True)
+    monkeypatch.setattr("tracker.ui.run_tui", lambda target, operator: pytest.fail("opened"))
+    result = CliRunner().invoke(app, ["--operator", "ines"])
+    assert result.exit_code == 2 and "--operator" in result.output
 
 
 def test_bursts_are_scans_and_typing_is_not() -> None:

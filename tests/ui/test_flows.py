@@ -4,6 +4,7 @@ the rows the services wrote and the ledger events that record them."""
 from __future__ import annotations
 
 import sqlite3
+from decimal import Decimal
 from pathlib import Path
 
 from sqlalchemy import select
@@ -139,7 +140,7 @@ async def test_drill_refused_over_the_allowance_then_accepted_within(lab: Lab) -
         assert isinstance(pilot.app.screen, ItemScreen)
     powders = query(lab, select(Powder).where(Powder.specimen_id == 10).order_by(Powder.id))
     assert len(powders) == 2
-    assert abs(powders[-1].mass_mg - 0.5) < 1e-9
+    assert powders[-1].mass_mg == Decimal("0.5")  # exactly the readings' difference
     assert powders[-1].drilled_by == "tomas" and powders[-1].override_reason is None
     (event,) = events_after(lab, start)
     assert (event.action, event.parent_ref, event.operator) == (
@@ -204,7 +205,7 @@ async def test_a_batch_built_by_scanning(lab: Lab) -> None:
     assert [p.kind.value for p in positions] == ["sample", "blank", "reference"]
     assert positions[0].aliquot_id == 2
     (cut,) = query(lab, select(Cut).where(Cut.position_id == positions[0].id))
-    assert cut.name == "Ca" and abs(cut.recovered_ug - round(loaded * 0.8, 3)) < 1e-9
+    assert cut.name == "Ca" and abs(float(cut.recovered_ug) - round(loaded * 0.8, 3)) < 1e-9
     actions = [e.action for e in events_after(lab, start)]
     assert actions == ["batch.created", *["batch.position_added"] * 3, "cut.recorded"]
 

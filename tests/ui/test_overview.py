@@ -1,15 +1,17 @@
-"""The loans overview: drawn from the glance before the database opens, then by the services;
-open loans first, all loans on ``a``. Each checked against what the database holds."""
+"""The loans overview: the services' lines (the CLI overview's), never lines the services have
+not given; open loans first, all loans on ``a``. Each checked against what the database holds."""
 
 from __future__ import annotations
 
 import pytest
+from rich.text import Text
 from textual.app import App
 from textual.coordinate import Coordinate
-from textual.widgets import DataTable
+from textual.widgets import DataTable, Static
 
+from tests.cli.conftest import invoke, ok_json
 from tests.ui.conftest import Lab, settle, until
-from tracker.services import reconcile
+from tracker.services import browse, reconcile
 from tracker.ui.app import TrackerApp
 from tracker.ui.screens.overview import OverviewScreen
 
@@ -36,22 +38,73 @@ def _overview_filled(app: App[None]) -> bool:
     )
 
 
-async def test_the_overview_is_drawn_before_the_database_opens(
+async def test_before_the_database_opens_the_overview_shows_no_lines_but_says_so(
     lab: Lab, monkeypatch: pytest.MonkeyPatch
 ) -> None:
-    opening = TrackerApp.open_database  # the worker that loads SQLAlchemy and the services
+    opening = TrackerApp.open_database  # the worker that opens the database
     held: list[TrackerApp] = []
     monkeypatch.setattr(TrackerApp, "open_database", lambda self: held.append(self))
     expected = _expected(lab, open_only=True)
     app = lab.app()
     async with app.run_test(size=(100, 30)) as pilot:
-        await until(pilot, lambda: _overview_filled(app))
-        assert app.db is None and held == [app]  # asked to open, not opened yet
-        assert _rows(app) == expected and len(expected) == 2  # the demo's open loans
-        opening(app)  # now let the database open: the services read the overview again
-        await until(pilot, lambda: app.db is not None and app.operator == "ines")
+        await until(pilot, lambda: isinstance(app.screen, OverviewScreen))
         await settle(pilot)
-        assert _rows(app) == expected
+        assert app.db is None and held == [app]  # asked to open, not opened yet
+        assert _rows(app) == []  # nothing is drawn that the services have not said
+        assert "reading the open loans" in _hint(app)
+        opening(app)  # now let the database open: the services read the overview
+        await until(pilot, lambda: app.db is not None and _overview_filled(app))
+        await settle(pilot)
+        assert _rows(app) == expected and len(expected) == 2  # the demo's open loans
+        assert "reading" not in _hint(app)
+
+
+async def test_the_first_screen_shows_the_command_lines_overview(lab: Lab) -> None:
+    """The interface and ``tracker --json overview`` ask the same service: the same loans in
+    the same order, with the same numbers (both on today's clock)."""
+    printed = ok_json(invoke("overview", db=lab.db_path, as_json=True))
+    open_lines = [line for line in printed if line["status"] == "open"]
+    db = lab.open()
+    try:
+        missing = browse.results_missing_counts(db)
+    finally:
+        db.close()
+    app = TrackerApp(str(lab.db_path), "ines", out_dir=lab.out)  # today's clock, as the CLI's
+    async with app.run_test(size=(120, 36)) as pilot:
+        await until(pilot, lambda: app.db is not None and _overview_filled(app))
+        await settle(pilot)
+        assert _rows(app) == [line["id"] for line in open_lines] and len(open_lines) == 2
+        table = app.screen.query_one("#loans", DataTable)
+        for n, line in enumerate(open_lines):
+            loan, used, due, specimens, flags = (_plain(cell) for cell in table.get_row_at(n))
+            assert loan.split("\n") == [line["reference"], line["lender_code"]]
+            assert used.startswith(f"{line['drilled_mg']:.3f}/")
+            assert due.split("\n") == [line["due_on"], f"{line['days_left']} d left"]
+            assert specimens.split("\n") == [
+                f"{line['sampled']}/{line['specimens']} sampled",
+                f"{line['on_hand']} on hand",
+            ]
+            said = line["flags"] + (["results missing"] if missing.get(line["id"]) else [])
+            assert _flags_shown(flags) == len(said)
+            for shown_flag in flags.split("\n"):  # a mark, a flag (maybe cut short), maybe +N
+                start = shown_flag.split(" ", 1)[1].split(" +")[0].removesuffix("…").strip()
+                assert any(flag.startswith(start) for flag in said), (shown_flag, said)
+        assert _hint(app).startswith("2 open loans")
+
+
+def _flags_shown(cell: str) -> int:
+    """How many flags a cell stands for: its lines, and the "+N" more it could not fit."""
+    lines = cell.split("\n")
+    more = lines[-1].rsplit(" +", 1)
+    return len(lines) + (int(more[1]) if len(more) == 2 and more[1].isdigit() else 0)
+
+
+def _plain(cell: object) -> str:
+    return cell.plain if isinstance(cell, Text) else str(cell)
+
+
+def _hint(app: App[None]) -> str:
+    return str(app.screen.query_one("#loan-hint", Static).render())
 
 
 async def test_open_loans_first_and_all_loans_on_a(lab: Lab) -> None:

@@ -6,6 +6,7 @@ from __future__ import annotations
 
 import pytest
 from sqlalchemy import text
+from textual.app import App
 from textual.widgets import Input, Static
 
 from tests.ui.conftest import Lab, clock, events_after, head, scan, settle, text_of, until
@@ -21,12 +22,17 @@ from tracker.ui.settings import LOCK_AFTER_ENV, lock_after
 TOMAS = demo_signer("tomas").key_id
 
 
+def _asking(app: App[None]) -> bool:
+    """The passphrase screen is on top and composed (pushed is not yet drawn)."""
+    return isinstance(app.screen, PassphraseScreen) and bool(app.screen.query("#passphrase"))
+
+
 async def test_the_passphrase_is_asked_once_and_again_after_the_idle_time(lab: Lab) -> None:
     leave_key_files(demo_operators())  # in this test's config folder
     PROCESS.forget()
     app = TrackerApp(str(lab.db_path), "tomas", clock=clock, out_dir=lab.out, lock_after=1.5)
     async with app.run_test(size=(100, 30)) as pilot:
-        await until(pilot, lambda: isinstance(pilot.app.screen, PassphraseScreen))
+        await until(pilot, lambda: _asking(pilot.app))
         field = pilot.app.screen.query_one("#passphrase", Input)
         assert field.password  # typed characters are not shown
         field.value = "not the passphrase at all"
@@ -43,7 +49,7 @@ async def test_the_passphrase_is_asked_once_and_again_after_the_idle_time(lab: L
             await pilot.pause(0.3)
             assert not isinstance(pilot.app.screen, PassphraseScreen)
         assert isinstance(pilot.app.screen, LedgerScreen)
-        await until(pilot, lambda: isinstance(pilot.app.screen, PassphraseScreen), seconds=10)
+        await until(pilot, lambda: _asking(pilot.app), seconds=10)
         assert PROCESS.get(TOMAS) is None  # forgotten: the key is locked again
         assert "Locked after" in text_of(pilot.app.screen.query_one(".intro", Static))
 

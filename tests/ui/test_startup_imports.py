@@ -3,8 +3,7 @@
 Every start pays for what it imports before the overview fills: numpy (through
 ``uncertainties``), the label services, the drawing libraries and the other screens are
 loaded when a person first uses them. A fresh interpreter opens the app on the demo
-database until the overview holds its rows, then names what it had loaded. The first
-screen itself (the app, the overview and its glance) loads neither SQLAlchemy nor pydantic.
+database until the overview holds its rows, then names what it had loaded.
 """
 
 from __future__ import annotations
@@ -77,29 +76,3 @@ def test_the_overview_opens_without_numpy_labels_or_other_screens(lab: Lab) -> N
     assert tops.isdisjoint(HEAVY), sorted(tops & set(HEAVY))
     early = sorted(m for m in modules if m.startswith(LATER))
     assert early == []
-
-
-_FIRST_SCREEN = """
-import sys
-from datetime import date
-from pathlib import Path
-import tracker.ui, tracker.ui.app, tracker.ui.screens.overview
-from tracker.services.glance import read_glance
-glance = read_glance(Path(sys.argv[1]), date(2026, 12, 1))
-print(len(glance.lines) if glance else 0)
-print(" ".join(sorted(sys.modules)))
-"""
-
-
-def test_the_first_screen_and_its_glance_load_no_sqlalchemy_or_pydantic(lab: Lab) -> None:
-    result = subprocess.run(
-        [sys.executable, "-c", _FIRST_SCREEN, str(lab.db_path)],
-        capture_output=True,
-        text=True,
-        check=True,
-        timeout=120,
-    )
-    lines, modules = result.stdout.strip().splitlines()[-2:]
-    assert int(lines) == 2  # the demo's two open loans, read by the glance
-    tops = {name.split(".")[0] for name in modules.split()}
-    assert "textual" in tops and tops.isdisjoint({"sqlalchemy", "pydantic", "typer"})

@@ -1,4 +1,4 @@
-"""The facts of a row, in the form the README documents for a lender.
+"""The facts of a row, in the form docs/ledger.md documents for a lender.
 
 Expected values are written out by hand (times, days, digests computed with hashlib,
 check characters with python-stdnum's ISO/IEC 7064 MOD 37-2), never taken from tracker.
@@ -37,11 +37,11 @@ def _powder(**changes: object) -> Powder:
         "id": 7,
         "specimen_id": 42,
         "tissue": "enamel",
-        "tare_mg": 812.341,
-        "gross_mg": 815.853,
-        "readability_mg": 0.001,
-        "mass_mg": 3.512,
-        "mass_u_mg": 0.0004,
+        "tare_mg": Decimal("812.341"),
+        "gross_mg": Decimal("815.853"),
+        "readability_mg": Decimal("0.001"),
+        "mass_mg": Decimal("3.512"),
+        "mass_u_mg": Decimal("0.0004"),
         "drilled_at": datetime(2026, 3, 4, 10, 15, 30, 250, tzinfo=timezone(timedelta(hours=2))),
         "drilled_by": "tomas",
         "location_id": 3,
@@ -61,7 +61,7 @@ def test_a_rows_facts_read_as_the_readme_says() -> None:
     assert facts["location_id"] == _public("LC", 3)
     assert facts["drilled_by"] == "tomas"  # operators by their code
     assert facts["drilled_at"] == "2026-03-04T08:15:30.000250Z"  # UTC, microseconds, Z
-    assert facts["mass_mg"] == 3.512 and isinstance(facts["mass_mg"], float)
+    assert facts["mass_mg"] == "3.512"  # an exact measured value: its digits
     assert facts["status"] == "available"  # the model's default, as a flush writes it
     assert facts["residual_mg"] is None and facts["site"] is None
     assert len(facts) == len(Powder.__table__.columns) - 1
@@ -70,6 +70,8 @@ def test_a_rows_facts_read_as_the_readme_says() -> None:
 def test_exact_decimals_days_flags_and_file_contents() -> None:
     exact = row_facts(layout("powder"), values_of(_powder(mass_mg=Decimal("6.0200"))))
     assert exact["mass_mg"] == "6.0200"  # the digits typed, never 6.0200000000000005
+    tiny = row_facts(layout("powder"), values_of(_powder(mass_u_mg=Decimal("1E-7"))))
+    assert tiny["mass_u_mg"] == "0.0000001"  # never in exponent form
     terms = LoanTerms(
         id=2,
         loan_id=5,

@@ -7,7 +7,6 @@ import typer
 from tracker import __version__
 from tracker.cli import (
     cmd_backup,
-    cmd_bench,
     cmd_budget,
     cmd_correct,
     cmd_inspect,
@@ -132,10 +131,6 @@ def _register() -> None:
     db("workstation-grants", epilog=cmd_logins.GRANTS_EPILOG)(cmd_logins.workstation_grants)
     db("add-login", epilog=cmd_logins.ADD_LOGIN_EPILOG)(cmd_logins.add_login)
     app.add_typer(cmd_setup.db_app, name="db")
-    bench = cmd_bench.bench_app.command
-    bench("generate", epilog=cmd_bench.GENERATE_EPILOG)(cmd_bench.generate)
-    bench("run", epilog=cmd_bench.RUN_EPILOG)(cmd_bench.run)
-    app.add_typer(cmd_bench.bench_app, name="bench")
 
 
 _register()

@@ -11,7 +11,7 @@ from tracker.services import backups, ledger
 
 BACKUP_EPILOG = (
     "Example: tracker --db lab.sqlite backup /mnt/backup/lab-2026-11-30.sqlite. "
-    "PostgreSQL: use pg_dump (see README, Backups)."
+    "PostgreSQL: use pg_dump (see docs/backups.md)."
 )
 RESTORE_EPILOG = (
     "Example: tracker --db lab.sqlite --as amira restore /mnt/backup/lab-2026-11-30.sqlite "

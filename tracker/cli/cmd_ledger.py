@@ -189,7 +189,7 @@ def ledger_export(
     ] = None,
     force: Force = False,
 ) -> None:
-    """Write the ledger as JSON Lines, each field exactly as hashed (see README)."""
+    """Write the ledger as JSON Lines, each field exactly as hashed (see docs/ledger.md)."""
     with database(ctx) as db:
         if out is None:  # the JSON Lines themselves are the output
             count = ledger.export_jsonl(db, sys.stdout)

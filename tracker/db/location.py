@@ -1,7 +1,5 @@
 """Where a person's files live: the default database (when no ``--db`` or TRACKER_DB names
 one) and the config folder (the interface's memory, private key files).
-
-Kept free of SQLAlchemy: the console script asks for it before deciding what to load.
 """
 
 from __future__ import annotations

@@ -130,7 +130,7 @@ def group_statements(database: str, schema: str, group: str, tables: Iterable[st
 
 
 def login_statements(login: str, group: str) -> list[str]:
-    """A person's login, a member of the workstation group (no password: see the README)."""
+    """A person's login, a member of the workstation group (no password: see docs/storage.md)."""
     return [_create_role(login, "LOGIN"), f"GRANT {_quoted(group)} TO {_quoted(login)}"]
 
 

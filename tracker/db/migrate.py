@@ -22,6 +22,7 @@ REVISIONS: tuple[str, ...] = (
     "0008_backdating",
     "0009_signing",
     "0010_logins",
+    "0011_checks",
 )
 HEAD = REVISIONS[-1]
 MIGRATIONS_DIR = Path(__file__).with_name("migrations")

@@ -15,6 +15,17 @@ from __future__ import annotations
 import math
 from collections.abc import Iterable
 from dataclasses import dataclass
+from decimal import Decimal
+
+# A stored measured value (exact, Decimal) or a computed one (float). Budgets propagate
+# uncertainties in floats: a stored value becomes a float here, at the computation's edge.
+Measured = Decimal | float
+
+
+def as_float(value: Measured | None) -> float | None:
+    """A stored value (or nothing) for computing with."""
+    return None if value is None else float(value)
+
 
 COVERAGE_FACTOR = 2.0  # k = 2, about 95 % for a normal distribution (GUM 6.2)
 
@@ -37,18 +48,24 @@ class Amount:
             self.value - other.value, math.hypot(self.u, other.u), self.bound + other.bound
         )
 
+    @classmethod
+    def of(cls, value: Measured, u: Measured) -> Amount:
+        """A stored value and its standard uncertainty, for computing with."""
+        return cls(float(value), float(u))
+
 
 SQRT6 = math.sqrt(6.0)
 
 
-def by_difference(value: float, readability: float) -> Amount:
+def by_difference(value: Measured, readability: Measured) -> Amount:
     """A mass from two readings: u = d/√6 (GUM F.2.2.1), rounding error at most ±d."""
-    return Amount(value, readability / SQRT6, readability)
+    d = float(readability)
+    return Amount(float(value), d / SQRT6, d)
 
 
-def weighed(value: float, u: float) -> Amount:
+def weighed(value: Measured, u: Measured) -> Amount:
     """A stored mass by difference whose only uncertainty is rounding: its bound is √6·u."""
-    return Amount(value, u, SQRT6 * u)
+    return Amount(float(value), float(u), SQRT6 * float(u))
 
 
 ZERO = Amount(0.0, 0.0)

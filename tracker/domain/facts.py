@@ -58,7 +58,7 @@ from sqlalchemy import (
 from sqlalchemy import Enum as EnumType
 from sqlalchemy.orm import Mapper
 
-from tracker.domain.base import Base, UTCDateTime
+from tracker.domain.base import Base, Exact, UTCDateTime, as_decimal, decimal_text
 from tracker.domain.ids import Kind, format_id
 from tracker.domain.ledger import ledger_stamp
 
@@ -119,9 +119,10 @@ def _number(value: Any) -> Any:
 
 
 def _exact(value: Any) -> Any:
+    # a Decimal (PostgreSQL's NUMERIC, an ORM row) or the digits SQLite stores
     if value is None:
         return None
-    return str(value) if isinstance(value, Decimal) else float(value)
+    return decimal_text(value if isinstance(value, Decimal) else as_decimal(value))
 
 
 def _whole(value: Any) -> Any:
@@ -164,6 +165,7 @@ _SHAPES: tuple[tuple[type[Any], str, Convert], ...] = (
     (Date, "day", _day),
     (Boolean, "flag", _flag),
     (Float, "number", _number),
+    (Exact, "exact", _exact),
     (Numeric, "exact", _exact),
     (Integer, "whole", _whole),
     (LargeBinary, "digest", _digest),
@@ -431,9 +433,12 @@ class Stated:
 
 
 def expanded(value: Any) -> Any:
-    """``json.dumps``'s ``default``: a ``Stated`` row written out as its facts."""
+    """``json.dumps``'s ``default``: a ``Stated`` row written out as its facts; an exact
+    value (a payload's typed mass) as its digits, the way the facts state it."""
     if isinstance(value, Stated):
         return value.as_dict()
+    if isinstance(value, Decimal):
+        return decimal_text(value)
     raise TypeError(f"{type(value).__name__} is not a row's facts")
 
 

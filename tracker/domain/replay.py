@@ -21,11 +21,13 @@ import json
 from collections.abc import Iterable, Iterator
 from dataclasses import dataclass, field
 from datetime import datetime
+from decimal import Decimal, InvalidOperation
 from sys import intern
 from typing import Any, Literal
 
 from tracker.domain import legacy
-from tracker.domain.facts import FACTS, Layout, described_tables, layout, references
+from tracker.domain.base import decimal_from_float
+from tracker.domain.facts import FACTS, Column, Layout, described_tables, layout, references
 from tracker.domain.ids import Kind, looks_like_id, parse_id
 
 Problem = Literal["changed", "unrecorded", "missing"]
@@ -52,13 +54,14 @@ class Discrepancy:
     field: str | None  # the column, for a changed value
     ledger: Any  # the value the ledger states (a row's facts for a missing row)
     stored: Any  # the value stored (a row's facts for an unrecorded row)
+    exact: bool = False  # a measured value: its digits are shown as a number is
 
     def one_line(self) -> str:
         """The discrepancy in words, for a person."""
         if self.kind == "changed":
             return (
-                f"{self.table} {self.key}: {self.field} is {_shown(self.stored)} "
-                f"but the ledger says {_shown(self.ledger)} (changed without an event)"
+                f"{self.table} {self.key}: {self.field} is {_shown(self.stored, self.exact)} "
+                f"but the ledger says {_shown(self.ledger, self.exact)} (changed without an event)"
             )
         if self.kind == "unrecorded":
             return f"{self.table} {self.key}: a row no event made"
@@ -75,7 +78,9 @@ class Discrepancy:
         }
 
 
-def _shown(value: Any) -> str:
+def _shown(value: Any, exact: bool = False) -> str:
+    if exact and isinstance(value, str):
+        return value  # an exact value's digits (the facts' form), shown as the number it is
     return json.dumps(value, ensure_ascii=False, sort_keys=True)
 
 
@@ -278,8 +283,9 @@ class Books:
             value = facts[column.name]
             if said is UNKNOWN:
                 self.coverage.unchecked_fields.setdefault(rules.table, set()).add(column.name)
-            elif said != value:
-                yield Discrepancy("changed", rules.table, key, column.name, said, value)
+            elif said != value and not _same_exact(column, said, value):
+                exact = column.shape == "exact"
+                yield Discrepancy("changed", rules.table, key, column.name, said, value, exact)
 
     def _before_facts(self, rules: Layout, key: str) -> bool:
         """Could this row have been made by an event that states no facts?"""
@@ -288,6 +294,23 @@ class Books:
         number = _number(rules, key)
         horizon = self.horizon.get(rules.table)
         return number is None or horizon is None or number < horizon
+
+
+def _same_exact(column: Column, said: Any, stored: Any) -> bool:
+    """An exact value the ledger stated as a JSON float, and the digits stored for it.
+
+    Events recorded before measured values were kept exactly (and old payloads read by
+    ``legacy``) state them as floats; the upgrade (revision 0011) stored each float as its
+    shortest round-trip text. So the float's shortest text (``repr``, as
+    ``base.decimal_from_float`` writes it) is compared with the stored digits as numbers:
+    ``1000.0`` and ``1000`` (PostgreSQL's text of the same float) agree; ``6.02`` and
+    ``6.0200000000000005`` do not."""
+    if column.shape != "exact" or type(said) not in (float, int) or not isinstance(stored, str):
+        return False
+    try:
+        return decimal_from_float(said) == Decimal(stored)
+    except InvalidOperation:
+        return False
 
 
 def _kept(value: Any) -> Any:

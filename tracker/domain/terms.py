@@ -4,23 +4,11 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 from datetime import date
-from typing import Protocol, TypeVar
+
+from tracker.domain.models import LoanTerms
 
 
-class Versioned(Protocol):
-    """A version of a loan's terms, as stored (an ORM row) or as read by the glance."""
-
-    @property
-    def version(self) -> int: ...
-
-    @property
-    def effective_from(self) -> date: ...
-
-
-T = TypeVar("T", bound=Versioned)
-
-
-def terms_in_force(versions: Sequence[T], on: date) -> T:
+def terms_in_force(versions: Sequence[LoanTerms], on: date) -> LoanTerms:
     """The newest version effective on or before ``on`` (the original if ``on`` precedes all)."""
     if not versions:
         raise ValueError("a loan always has at least its original terms")

@@ -114,21 +114,26 @@ def decimals_for(u: float, significant: int = 2, most: int = 6) -> int:
     return min(most, places)
 
 
-def format_value_u(value: float, u: float | None, unit: str) -> str:
-    """Value and uncertainty rounded to the uncertainty's last digit: 2.56100 ± 0.00041 mg."""
+def format_value_u(value: float | Decimal, u: float | Decimal | None, unit: str) -> str:
+    """Value and uncertainty rounded to the uncertainty's last digit: 2.56100 ± 0.00041 mg
+    (a stored exact value is rounded as a decimal, never through a float)."""
     if u is None:
         return f"{value:.3f} {unit}"
+    u = float(u)
     places = decimals_for(u)
     shown = max(places, 0)
     return f"{round(value, places):.{shown}f} ± {round(u, places):.{shown}f} {unit}"
 
 
-def format_mass_mg(mg: float, u_mg: float | None = None) -> str:
-    """Format a mass given in mg, choosing µg or g when that reads better."""
-    if mg != 0 and abs(mg) < 0.1:
-        unit, scale = "µg", 1000.0
-    elif abs(mg) >= 10000:
-        unit, scale = "g", 0.001
+def format_mass_mg(mg: float | Decimal, u_mg: float | Decimal | None = None) -> str:
+    """Format a mass given in mg, choosing µg or g when that reads better (a stored exact
+    mass moves its decimal point, so no binary artefact is shown)."""
+    size = abs(float(mg))
+    if size != 0 and size < 0.1:
+        unit, shift = "µg", 3
+    elif size >= 10000:
+        unit, shift = "g", -3
     else:
-        unit, scale = "mg", 1.0
-    return format_value_u(mg * scale, None if u_mg is None else u_mg * scale, unit)
+        unit, shift = "mg", 0
+    value = mg.scaleb(shift) if isinstance(mg, Decimal) else mg * 10.0**shift
+    return format_value_u(value, None if u_mg is None else float(u_mg) * 10.0**shift, unit)

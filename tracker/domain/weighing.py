@@ -14,7 +14,8 @@ from dataclasses import dataclass
 from decimal import Decimal
 from typing import TYPE_CHECKING
 
-from tracker.domain.budget import Amount, by_difference
+from tracker.domain.base import decimal_from_float
+from tracker.domain.budget import SQRT6, Amount, by_difference
 
 if TYPE_CHECKING:
     from uncertainties.core import Variable
@@ -36,6 +37,13 @@ class MassByDifference:
     @property
     def net(self) -> Decimal:
         return self.gross - self.tare
+
+    def stored(self, shift: int = 0) -> tuple[Decimal, Decimal]:
+        """The net mass and its standard uncertainty as the columns keep them: the net
+        exactly as the readings give it (``shift`` moves the decimal point: -3 turns mg
+        into g), the uncertainty as the shortest decimal of its computed float."""
+        u = float(self.readability.scaleb(shift)) / SQRT6
+        return self.net.scaleb(shift), decimal_from_float(u)
 
     def amount(self, scale: float = 1.0) -> Amount:
         """The net mass as a budget Amount, optionally rescaled (1e-3 turns mg into g)."""

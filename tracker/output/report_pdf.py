@@ -491,8 +491,8 @@ def _ledger(report: ReturnReport, styles: dict[str, ParagraphStyle]) -> list[Flo
         f"This report was made from ledger event #{head.seq}, head hash "
         f"{head.hash} ({state}). To re-verify: "
         f"<b>{_esc(head.verify_command)}</b> and <b>{_esc(head.audit_command)}</b> on the "
-        "borrower's database, or run the verification recipe in tracker's README over an "
-        "exported ledger."
+        "borrower's database, or run the verification recipe of tracker's docs/ledger.md over "
+        "an exported ledger."
     )
     return [Paragraph("Ledger", styles["h2"]), Paragraph(text, styles["body"])]
 

@@ -20,8 +20,10 @@ import csv
 import io
 import re
 from collections.abc import Sequence
+from decimal import Decimal
 from typing import Any
 
+from tracker.domain.base import decimal_text
 from tracker.domain.spreadsheet import neutralise
 from tracker.domain.text_rules import marker
 
@@ -35,9 +37,15 @@ def _cell(value: Any) -> Any:
         return ""
     if isinstance(value, bool):
         return "yes" if value else "no"
-    if isinstance(value, int | float):
+    if isinstance(value, int | float | Decimal):
         return value
     return neutralise(str(value))
+
+
+def _csv_cell(value: Any) -> Any:
+    """A CSV cell: an exact value as its digits (``str`` would write ``1E-7``)."""
+    cell = _cell(value)
+    return decimal_text(cell) if isinstance(cell, Decimal) else cell
 
 
 def csv_bytes(columns: Sequence[str], rows: Sequence[dict[str, Any]]) -> bytes:
@@ -46,7 +54,7 @@ def csv_bytes(columns: Sequence[str], rows: Sequence[dict[str, Any]]) -> bytes:
     writer = csv.writer(buffer, lineterminator="\r\n")
     writer.writerow(columns)
     for row in rows:
-        writer.writerow([_cell(row.get(c)) for c in columns])
+        writer.writerow([_csv_cell(row.get(c)) for c in columns])
     return ("\ufeff" + buffer.getvalue()).encode("utf-8")
 
 

@@ -11,6 +11,7 @@ from __future__ import annotations
 import hashlib
 import mimetypes
 from datetime import date, datetime
+from decimal import Decimal
 from typing import Annotated, Any
 
 from pydantic import Field
@@ -18,6 +19,7 @@ from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from tracker.db.database import Database
+from tracker.domain.base import decimal_text
 from tracker.domain.errors import InputError, RuleViolation
 from tracker.domain.models import (
     Disposition,
@@ -180,8 +182,8 @@ def _merge(current: LoanTerms, request: Amend | None) -> dict[str, Any]:
     return base
 
 
-def _mg(value: float | None) -> str | None:
-    return None if value is None else f"{value!r} mg"
+def _mg(value: Decimal | None) -> str | None:
+    return None if value is None else f"{decimal_text(value)} mg"
 
 
 def _link(uow: UnitOfWork, loan_id: int, document: Document, role: str) -> None:

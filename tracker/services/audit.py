@@ -26,7 +26,7 @@ from tracker.domain.ledger import LedgerTuple, VerifyReport, verify_batches
 from tracker.domain.models import CustodyEvent
 from tracker.domain.replay import Books, Coverage, Discrepancy
 from tracker.services.ledger import event_batches
-from tracker.services.view_base import View
+from tracker.services.views import View
 
 Progress = Callable[[int, int], None]  # (events and rows read, events and rows in all)
 SHOWN = 3  # discrepancies named in a one-line verdict

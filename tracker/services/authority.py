@@ -107,7 +107,9 @@ def signer_for(authority: Authority, code: str, keyring: Keyring) -> Signer | No
 def why_no_signer(authority: Authority, code: str, registered: bool) -> InputError | RuleViolation:
     """Why ``code`` cannot sign now, said for a person."""
     person = authority.people.get(code)
-    if person is not None and not person.active:
+    if person is None:  # the ledger never added anyone of this code
+        return InputError("--as", code, "no such operator; see `tracker operator list`")
+    if not person.active:
         return RuleViolation(
             "--as", code, f"was deactivated at event #{person.deactivated_seq}; signs nothing more"
         )

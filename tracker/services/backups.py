@@ -41,7 +41,7 @@ from tracker.services.common import finish
 from tracker.services.uow import unit_of_work
 from tracker.services.views import Done, View
 
-PG_HINT = "for PostgreSQL use pg_dump and pg_restore (README, Backups)"
+PG_HINT = "for PostgreSQL use pg_dump and pg_restore (docs/backups.md)"
 
 
 class BackupView(View):

@@ -15,7 +15,6 @@ that disagrees with what is entered is refused: fix that with a correction.
 from __future__ import annotations
 
 import hashlib
-import math
 from collections.abc import Iterator
 from contextlib import contextmanager, suppress
 from dataclasses import dataclass
@@ -395,12 +394,8 @@ def _same_position(position: BatchPosition, kind: PositionKind, item: str) -> No
 
 def _same_cut(cut: Cut, request: RecordCut) -> None:
     amount = request.recovered_ug()
-    wanted = None if amount is None else amount.value
-    same = (wanted is None and cut.recovered_ug is None) or (
-        wanted is not None
-        and cut.recovered_ug is not None
-        and math.isclose(wanted, cut.recovered_ug, rel_tol=1e-12, abs_tol=1e-12)
-    )
+    wanted = None if amount is None else amount[0]
+    same = wanted == cut.recovered_ug  # exact values: the same typed amount, or none
     if not same:
         raise RuleViolation(
             "cut",

@@ -145,13 +145,13 @@ def results_missing_counts(db: Database, *, open_only: bool = False) -> dict[str
     ID (thousands of rows at a busy lab) would be read and formatted on each start.
     With ``open_only``, only the open loans' specimens are looked at.
     """
-    query = results_missing_statement(open_only=open_only)
+    query = _results_missing_statement(open_only=open_only)
     with db.read_session() as session:
         return {format_id(Kind.LOAN, loan): int(n) for loan, n in session.execute(query)}
 
 
-def results_missing_statement(*, open_only: bool) -> Select[int, int]:
-    """(loan id, sampled specimens with no result yet) per loan; the glance runs it too."""
+def _results_missing_statement(*, open_only: bool) -> Select[int, int]:
+    """(loan id, sampled specimens with no result yet) per loan."""
     drilled = select(Powder.id).where(Powder.specimen_id == Specimen.id)
     measured = (
         select(Result.id)

@@ -25,7 +25,7 @@ from tracker.services.inputs import Element, FieldProblem, Name, Raw, Request, T
 from tracker.services.lab import aliquot_element, on_column_after
 from tracker.services.label_queue import queue_label
 from tracker.services.lookup import get_by_id, get_reference_material
-from tracker.services.uow import UnitOfWork, unit_of_work
+from tracker.services.uow import Acting, UnitOfWork, unit_of_work
 from tracker.services.views import Done, View
 
 
@@ -111,13 +111,18 @@ def _batch_view(batch: ColumnBatch) -> BatchView:
     )
 
 
+def opened_batch(who: Acting, request: NewBatch) -> ColumnBatch:
+    """The new batch's row, never dated ahead: the service's, and the bulk writer's."""
+    if request.performed_on > who.now.date():
+        raise InputError("performed-on", request.performed_on.isoformat(), "is in the future")
+    return ColumnBatch(**request.model_dump(), operator=who.operator.code, created_at=who.now)
+
+
 def create_batch(db: Database, actor: str | None, data: NewBatch | Raw) -> Done[BatchView]:
     """Open a column batch: resin, elution scheme and the cuts it will collect."""
     request = parse(NewBatch, data)
     with unit_of_work(db, actor) as uow:
-        if request.performed_on > uow.now.date():
-            raise InputError("performed-on", request.performed_on.isoformat(), "is in the future")
-        batch = ColumnBatch(**request.model_dump(), operator=uow.operator.code, created_at=uow.now)
+        batch = opened_batch(uow, request)
         uow.session.add(batch)
         view = lambda: _batch_view(batch)  # noqa: E731
         return finish(uow, "batch.created", batch, batch_payload(request), view)

@@ -11,6 +11,7 @@ own δ is known.
 from __future__ import annotations
 
 import statistics
+from decimal import Decimal
 from typing import Annotated, Any
 
 from pydantic import Field, model_validator
@@ -18,14 +19,15 @@ from sqlalchemy import select
 from sqlalchemy.orm import selectinload
 
 from tracker.db.database import Database
+from tracker.domain.base import decimal_from_float
 from tracker.domain.budget import Amount
 from tracker.domain.errors import RuleViolation
-from tracker.domain.models import BatchPosition, ColumnBatch, Cut, PositionKind
+from tracker.domain.models import BatchPosition, ColumnBatch, Cut, Location, PositionKind
 from tracker.services.common import finish, optional_location
 from tracker.services.inputs import FieldProblem, MassMg, Raw, Request, parse
 from tracker.services.label_queue import queue_label
 from tracker.services.lookup import get_by_id
-from tracker.services.uow import UnitOfWork, unit_of_work
+from tracker.services.uow import Acting, UnitOfWork, unit_of_work
 from tracker.services.views import Done, View
 
 
@@ -59,13 +61,21 @@ class RecordCut(Request):
             )
         return self
 
-    def recovered_ug(self) -> Amount | None:
+    def recovered_ug(self) -> tuple[Decimal, Decimal] | None:
         if self.recovered is None:
             return None
-        value = float(self.recovered) * 1000
-        if self.uncertainty is not None:
-            return Amount(value, float(self.uncertainty) * 1000)
-        return Amount(value, value * (self.relative_uncertainty_percent or 0.0) / 100)
+        return recovered_in_ug(self.recovered, self.uncertainty, self.relative_uncertainty_percent)
+
+
+def recovered_in_ug(
+    recovered: Decimal, uncertainty: Decimal | None, percent: float | None
+) -> tuple[Decimal, Decimal]:
+    """A cut's recovered element as stored (µg, exactly as typed in mg or µg) and its
+    uncertainty: as typed, else the typed percentage of the value, else none."""
+    value = recovered.scaleb(3)
+    if uncertainty is not None:
+        return value, uncertainty.scaleb(3)
+    return value, value * decimal_from_float(percent or 0.0) / 100
 
 
 def column_yield(recovered: Amount, loaded: Amount) -> Amount:
@@ -102,6 +112,14 @@ def cut_payload(position: BatchPosition, cut: Cut, label: str) -> dict[str, Any]
 
 def collect(uow: UnitOfWork, position: BatchPosition, request: RecordCut) -> Cut:
     """Add one cut to a column (part of a unit of work), refusing unknown or repeated cuts."""
+    check_cut(position, request)
+    cut = cut_row(uow, position, request, optional_location(uow, "location", request.location))
+    uow.session.add(cut)
+    return cut
+
+
+def check_cut(position: BatchPosition, request: RecordCut) -> None:
+    """A cut the batch collects and the column has not given yet."""
     batch = position.batch
     if request.cut not in batch.cut_names:
         raise RuleViolation(
@@ -109,17 +127,23 @@ def collect(uow: UnitOfWork, position: BatchPosition, request: RecordCut) -> Cut
         )
     if any(c.name == request.cut for c in position.cuts):
         raise RuleViolation("cut", request.cut, f"is already recorded for {position.public_id}")
+
+
+def cut_row(
+    who: Acting, position: BatchPosition, request: RecordCut, location: Location | None
+) -> Cut:
+    """The new cut's row: the service's, and the benchmark's bulk writer's."""
     amount = request.recovered_ug()
-    cut = Cut(
+    return Cut(
         position=position,
+        position_id=position.id,
         name=request.cut,
-        recovered_ug=amount.value if amount else None,
-        recovered_u_ug=amount.u if amount else None,
-        location=optional_location(uow, "location", request.location),
-        created_at=uow.now,
+        recovered_ug=amount[0] if amount else None,
+        recovered_u_ug=amount[1] if amount else None,
+        location=location,
+        location_id=location.id if location else None,
+        created_at=who.now,
     )
-    uow.session.add(cut)
-    return cut
 
 
 def _cut_view(cut: Cut) -> CutView:
@@ -140,7 +164,7 @@ def cut_yield(cut: Cut) -> Amount | None:
     if cut.recovered_ug is None or not position.loaded_ug or position.kind is PositionKind.BLANK:
         return None
     loaded = Amount(position.loaded_ug, position.loaded_u_ug or 0.0)
-    return column_yield(Amount(cut.recovered_ug, cut.recovered_u_ug or 0.0), loaded)
+    return column_yield(Amount.of(cut.recovered_ug, cut.recovered_u_ug or 0), loaded)
 
 
 class BlankDelta(Request):
@@ -196,7 +220,7 @@ def element_cut(position: BatchPosition) -> Cut | None:
 def blank_ng(batch: ColumnBatch) -> tuple[float | None, float | None, int]:
     """Mean and SD of the batch's procedural blanks, in ng of the element."""
     values = [
-        c.recovered_ug * 1000
+        float(c.recovered_ug) * 1000
         for p in batch.positions
         if p.kind is PositionKind.BLANK
         for c in [element_cut(p)]

@@ -10,13 +10,14 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from datetime import datetime
+from decimal import Decimal
 from typing import Any
 
 from sqlalchemy import or_, select
 from sqlalchemy.orm import Session
 
 from tracker.db.database import Database
-from tracker.domain.base import HasPublicId
+from tracker.domain.base import HasPublicId, decimal_text
 from tracker.domain.errors import InputError
 from tracker.domain.models import Concentration, Correction, CustodyEvent, EventRef
 from tracker.services.common import finish
@@ -113,6 +114,12 @@ def require_change(entry: Entry, value: dict[str, Any], field: str, shown: str) 
         raise InputError(field, shown, f"is what {entry.item.public_id} already holds")
 
 
+def stated(values: dict[str, Any]) -> dict[str, Any]:
+    """Values as a correction keeps them (its row's JSON, its event): an exact measured
+    value as its digits, the way the facts state it."""
+    return {k: decimal_text(v) if isinstance(v, Decimal) else v for k, v in values.items()}
+
+
 def finish_correction(
     uow: UnitOfWork,
     action: str,
@@ -121,7 +128,8 @@ def finish_correction(
     effects: dict[str, Any],
 ) -> Done[CorrectionView]:
     """Record the correction row and its one event (the row names the event), commit."""
-    value, reason = change
+    value, reason = stated(change[0]), change[1]
+    replaced = stated(entry.values)
 
     def add(seq: int) -> None:
         uow.session.add(
@@ -130,7 +138,7 @@ def finish_correction(
                 quantity=entry.quantity,
                 entry_table=entry.table,
                 entry_id=entry.row_id,
-                replaced=entry.values,
+                replaced=replaced,
                 value=value,
                 reason=reason,
                 entry_by=entry.author,
@@ -146,7 +154,7 @@ def finish_correction(
     view = CorrectionView(
         item=entry.item.public_id,
         quantity=entry.quantity,
-        replaced=entry.values,
+        replaced=replaced,
         value=value,
         reason=reason,
         entry_by=entry.author,

@@ -8,13 +8,13 @@ what every correction records.
 
 from __future__ import annotations
 
-from decimal import Decimal
 from typing import Annotated, Any
 
 from pydantic import Field
 
 from tracker.db.database import Database
 from tracker.domain.allowance import check_drill
+from tracker.domain.base import decimal_from_float
 from tracker.domain.budget import Amount, by_difference, overdraws, total, weighed
 from tracker.domain.errors import InputError, RuleViolation
 from tracker.domain.models import Aliquot, ContainerStatus, Powder, Solution
@@ -70,8 +70,9 @@ def _label_if_here(uow: UnitOfWork, item: Powder | Solution | Aliquot) -> str | 
 
 
 def _powder_mass(uow: UnitOfWork, powder: Powder, request: CorrectWeighing) -> Done[CorrectionView]:
-    readability = request.readability or Decimal(str(powder.readability_mg))
-    mass = weigh(request.tare, request.gross, readability).amount()
+    readability = request.readability or powder.readability_mg
+    weighing = weigh(request.tare, request.gross, readability)
+    mass, (net, net_u) = weighing.amount(), weighing.stored()
     entry = entry_of(
         uow.session,
         powder,
@@ -89,18 +90,18 @@ def _powder_mass(uow: UnitOfWork, powder: Powder, request: CorrectWeighing) -> D
     )
     authorise(uow, entry)
     value = {
-        "tare_mg": float(request.tare),
-        "gross_mg": float(request.gross),
-        "readability_mg": float(readability),
-        "mass_mg": mass.value,
-        "mass_u_mg": mass.u,
+        "tare_mg": request.tare,
+        "gross_mg": request.gross,
+        "readability_mg": readability,
+        "mass_mg": net,
+        "mass_u_mg": net_u,
     }
     require_change(entry, value, "gross", f"{request.gross} mg")
     taken = [weighed(s.powder_mass_mg, s.powder_mass_u_mg) for s in powder.solutions]
     _refuse_overdraw(
         "gross",
         f"{request.gross} mg",
-        by_difference(mass.value, float(readability)),
+        by_difference(net, readability),
         taken,
         f"already dissolved from {powder.public_id}",
         [s.public_id for s in powder.solutions],
@@ -110,11 +111,7 @@ def _powder_mass(uow: UnitOfWork, powder: Powder, request: CorrectWeighing) -> D
         uow.require_manager("a correction that takes the loan over a limit")
         powder.override_reason = powder.override_reason or f"correction: {request.reason}"
     powder.tare_mg, powder.gross_mg = value["tare_mg"], value["gross_mg"]
-    powder.readability_mg, powder.mass_mg, powder.mass_u_mg = (
-        value["readability_mg"],
-        mass.value,
-        mass.u,
-    )
+    powder.readability_mg, powder.mass_mg, powder.mass_u_mg = readability, net, net_u
     effects = {"limits": limits, "label": _label_if_here(uow, powder)}
     return finish_correction(uow, "powder.corrected", entry, (value, request.reason), effects)
 
@@ -122,7 +119,7 @@ def _powder_mass(uow: UnitOfWork, powder: Powder, request: CorrectWeighing) -> D
 def _limits_passed(uow: UnitOfWork, powder: Powder, mass: Amount) -> list[str]:
     """The loan's mass limits the corrected powder would exceed (with the others as they are)."""
     usage = usage_of(uow.session, powder.specimen)
-    without = Amount(-powder.mass_mg, powder.mass_u_mg)
+    without = Amount.of(-powder.mass_mg, powder.mass_u_mg)
     usage = type(usage)(
         usage.loan_drilled + without,
         usage.specimen_drilled + without,
@@ -138,7 +135,8 @@ def _liquid_mass(
     uow: UnitOfWork, item: Solution | Aliquot, request: CorrectWeighing
 ) -> Done[CorrectionView]:
     readability = request.readability or ANALYTICAL_BALANCE_MG
-    grams = weigh(request.tare, request.gross, readability).amount(scale=1e-3)
+    weighing = weigh(request.tare, request.gross, readability)
+    grams, stored = weighing.amount(scale=1e-3), weighing.stored(shift=-3)
     if isinstance(item, Solution):
         old, old_u, author = item.solution_mass_g, item.solution_mass_u_g, item.dissolved_by
         parts = [weighed(a.mass_g, a.mass_u_g) for a in item.aliquots]
@@ -172,13 +170,13 @@ def _liquid_mass(
         (author, _first_seq(uow, item)),
     )
     authorise(uow, entry)
-    value = {"mass_g": grams.value, "mass_u_g": grams.u}
+    value = {"mass_g": stored[0], "mass_u_g": stored[1]}
     require_change(entry, value, "gross", f"{request.gross} mg")
     effects: dict[str, Any] = {"label": _label_if_here(uow, item)}
     if isinstance(item, Solution):
-        item.solution_mass_g, item.solution_mass_u_g = grams.value, grams.u
+        item.solution_mass_g, item.solution_mass_u_g = stored
     else:
-        item.mass_g, item.mass_u_g = grams.value, grams.u
+        item.mass_g, item.mass_u_g = stored
         changes, batches = refresh_loaded([item])
         effects |= {"loaded": changes, "sessions_reduced": rereduce(uow, batches)}
     return finish_correction(uow, f"{kind}.corrected", entry, (value, request.reason), effects)
@@ -222,7 +220,8 @@ def correct_powder_taken(
         )
     with unit_of_work(db, actor) as uow:
         solution = get_by_id(uow.session, Solution, "solution", request.solution)
-        taken = by_difference(float(request.powder_taken), float(request.readability))
+        taken = by_difference(request.powder_taken, request.readability)
+        taken_u = decimal_from_float(taken.u)
         powder = solution.powder
         others = [s for s in powder.solutions if s is not solution]
         portions = [weighed(s.powder_mass_mg, s.powder_mass_u_mg) for s in others] + [taken]
@@ -247,8 +246,8 @@ def correct_powder_taken(
             (solution.dissolved_by, _first_seq(uow, solution)),
         )
         authorise(uow, entry)
-        value = {"powder_mass_mg": taken.value, "powder_mass_u_mg": taken.u}
+        value = {"powder_mass_mg": request.powder_taken, "powder_mass_u_mg": taken_u}
         require_change(entry, value, "powder-taken", f"{request.powder_taken} mg")
-        solution.powder_mass_mg, solution.powder_mass_u_mg = taken.value, taken.u
+        solution.powder_mass_mg, solution.powder_mass_u_mg = request.powder_taken, taken_u
         change = (value, request.reason)
         return finish_correction(uow, "solution.corrected", entry, change, {})

@@ -9,6 +9,7 @@ reduced results of sessions that measured the batch — inside the same unit of 
 
 from __future__ import annotations
 
+from decimal import Decimal
 from typing import Annotated
 
 from pydantic import Field, model_validator
@@ -17,6 +18,7 @@ from sqlalchemy.orm import Session
 from tracker.db.database import Database
 from tracker.domain.errors import RuleViolation
 from tracker.domain.models import Concentration, Cut, Solution
+from tracker.services.columns import recovered_in_ug
 from tracker.services.correcting import (
     CorrectionView,
     Entry,
@@ -62,7 +64,7 @@ def correct_concentration(
         row = Concentration(
             solution=solution,
             element=current.element,
-            value_ug_per_g=float(request.value),
+            value_ug_per_g=request.value,
             u_ug_per_g=request.standard_uncertainty(),
             method=request.method or current.method,
             measured_at=current.measured_at,
@@ -117,11 +119,8 @@ class CorrectRecovery(Request):
             )
         return self
 
-    def amounts_ug(self) -> tuple[float, float]:
-        value = float(self.recovered) * 1000
-        if self.uncertainty is not None:
-            return value, float(self.uncertainty) * 1000
-        return value, value * (self.relative_uncertainty_percent or 0.0) / 100
+    def amounts_ug(self) -> tuple[Decimal, Decimal]:
+        return recovered_in_ug(self.recovered, self.uncertainty, self.relative_uncertainty_percent)
 
 
 def correct_recovery(

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from datetime import date
+from decimal import Decimal
 from typing import Annotated, Any
 
 from pydantic import Field
@@ -135,7 +136,7 @@ def disposed_payload(
     request: Dispose,
     outcome: ContainerStatus,
     before: str | None,
-    residual: dict[str, float] | None,
+    residual: dict[str, Decimal | None] | None,
     shipment: str | None,
 ) -> dict[str, Any]:
     """What a disposal's event says (the bench's bulk writer uses it too)."""
@@ -166,7 +167,7 @@ def _shipment(
 
 def residual_weighing(
     request: Dispose, item: Container, outcome: ContainerStatus
-) -> dict[str, float] | None:
+) -> dict[str, Decimal | None] | None:
     """Weigh what leaves the lab; store it on powders (mg) and solutions (g)."""
     given = (request.residual_tare, request.residual_gross)
     if all(v is None for v in given):
@@ -181,16 +182,16 @@ def residual_weighing(
         )
     default = MICROBALANCE_MG if isinstance(item, Powder) else ANALYTICAL_BALANCE_MG
     assert request.residual_tare is not None and request.residual_gross is not None
-    mass = weigh(
+    weighing = weigh(
         request.residual_tare,
         request.residual_gross,
         request.readability or default,
         ("residual-tare", "residual-gross"),
-    ).amount()
+    )
     if isinstance(item, Powder):
-        item.residual_mg, item.residual_u_mg = mass.value, mass.u
-        return {"residual_mg": mass.value, "residual_u_mg": mass.u}
-    item.residual_g, item.residual_u_g = mass.value / 1000, mass.u / 1000
+        item.residual_mg, item.residual_u_mg = weighing.stored()
+        return {"residual_mg": item.residual_mg, "residual_u_mg": item.residual_u_mg}
+    item.residual_g, item.residual_u_g = weighing.stored(shift=-3)
     return {"residual_g": item.residual_g, "residual_u_g": item.residual_u_g}
 
 

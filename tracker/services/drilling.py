@@ -11,7 +11,7 @@ ledger, and every later reconciliation and report flags it.
 from __future__ import annotations
 
 import math
-from datetime import date
+from datetime import date, datetime
 from typing import Annotated, Any
 
 from pydantic import Field, field_validator
@@ -20,10 +20,11 @@ from sqlalchemy.orm import Session
 
 from tracker.db.database import Database
 from tracker.domain.allowance import Limits, Recorded, Usage, Violation, check_drill
-from tracker.domain.budget import Amount
+from tracker.domain.base import computed
+from tracker.domain.budget import Amount, as_float
 from tracker.domain.errors import InputError, RuleViolation
 from tracker.domain.materials import TISSUE_DEFAULTS
-from tracker.domain.models import LoanTerms, Powder, Specimen
+from tracker.domain.models import LoanTerms, Location, Powder, Specimen
 from tracker.domain.terms import terms_in_force
 from tracker.domain.timing import day_of
 from tracker.domain.units import format_value_u
@@ -40,7 +41,7 @@ from tracker.services.inputs import AwareDatetime, PositiveMassMg, Raw, Request,
 from tracker.services.label_queue import queue_label
 from tracker.services.lookup import get_by_id
 from tracker.services.materials import find_material
-from tracker.services.uow import UnitOfWork, unit_of_work
+from tracker.services.uow import Acting, UnitOfWork, unit_of_work
 from tracker.services.views import Done, PowderView, View
 
 
@@ -112,28 +113,48 @@ def drill(db: Database, actor: str | None, data: Drill | Raw) -> Done[PowderView
         material = request.material or TISSUE_DEFAULTS.get(request.tissue)
         if material is not None:
             material = find_material(uow.session, "material", material).name
-        powder = Powder(
-            specimen=specimen,
-            tissue=request.tissue,
-            site=request.site,
-            tare_mg=float(request.tare),
-            gross_mg=float(request.gross),
-            readability_mg=float(request.readability),
-            mass_mg=mass.value,
-            mass_u_mg=mass.u,
-            material=material,
-            drilled_at=when,
-            drilled_by=uow.operator.code,
-            override_reason=request.override_reason if violations else None,
-            location=optional_location(uow, "location", request.location),
-            created_at=uow.now,
-        )
+        location = optional_location(uow, "location", request.location)
+        powder = drilled_powder(uow, specimen, request, mass, material, when, violations, location)
         uow.session.add(powder)
         payload = drilled_payload(powder, specimen, material, terms.version, request, violations)
         payload["label"] = queue_label(uow, powder)
         return finish(
             uow, "powder.drilled", powder, payload, lambda: PowderView.of(powder), parent=specimen
         )
+
+
+def drilled_powder(
+    who: Acting,
+    specimen: Specimen,
+    request: Drill,
+    mass: Amount,
+    material: str | None,
+    when: datetime,
+    violations: list[Violation],
+    location: Location | None,
+) -> Powder:
+    """The drilled powder's row: the drill's, and the benchmark's bulk writer's. Its masses
+    are stored exactly: the weighings as typed, the net mass and its uncertainty as the
+    weighing states them (``mass`` is the same weighing, for the loan's rules)."""
+    net, net_u = weigh(request.tare, request.gross, request.readability).stored()
+    return Powder(
+        specimen=specimen,
+        specimen_id=specimen.id,
+        tissue=request.tissue,
+        site=request.site,
+        tare_mg=request.tare,
+        gross_mg=request.gross,
+        readability_mg=request.readability,
+        mass_mg=net,
+        mass_u_mg=net_u,
+        material=material,
+        drilled_at=when,
+        drilled_by=who.operator.code,
+        override_reason=request.override_reason if violations else None,
+        location=location,
+        location_id=location.id if location else None,
+        created_at=who.now,
+    )
 
 
 def _refuse_or_override(
@@ -173,8 +194,8 @@ def recorded_on(versions: list[LoanTerms], day: date) -> Recorded:
 def limits_of(terms: LoanTerms) -> Limits:
     return Limits(
         permitted_tissues=tuple(terms.permitted_tissues),
-        max_mass_per_specimen_mg=terms.max_mass_per_specimen_mg,
-        max_total_mass_mg=terms.max_total_mass_mg,
+        max_mass_per_specimen_mg=as_float(terms.max_mass_per_specimen_mg),
+        max_total_mass_mg=as_float(terms.max_total_mass_mg),
         max_specimens_sampled=terms.max_specimens_sampled,
         due_on=terms.due_on,
         version=terms.version,
@@ -184,7 +205,11 @@ def limits_of(terms: LoanTerms) -> Limits:
 def usage_of(session: Session, specimen: Specimen) -> Usage:
     """What the specimen's loan has given so far: two aggregate queries, no row loads."""
     loan_rows = (
-        select(Powder.specimen_id, Powder.mass_mg, Powder.mass_u_mg)
+        select(
+            Powder.specimen_id,
+            computed(Powder.mass_mg).label("mass_mg"),
+            computed(Powder.mass_u_mg).label("mass_u_mg"),
+        )
         .join(Powder.specimen)
         .where(Specimen.loan_id == specimen.loan_id)
         .subquery()
@@ -198,8 +223,8 @@ def usage_of(session: Session, specimen: Specimen) -> Usage:
     ).one()
     own, own_variance, own_count = session.execute(
         select(
-            func.coalesce(func.sum(Powder.mass_mg), 0.0),
-            func.coalesce(func.sum(Powder.mass_u_mg * Powder.mass_u_mg), 0.0),
+            func.coalesce(func.sum(computed(Powder.mass_mg)), 0.0),
+            func.coalesce(func.sum(computed(Powder.mass_u_mg) * computed(Powder.mass_u_mg)), 0.0),
             func.count(Powder.id),
         ).where(Powder.specimen_id == specimen.id)
     ).one()

@@ -9,6 +9,7 @@ attached to their record without knowing anything about tracker.
 from __future__ import annotations
 
 import json
+from decimal import Decimal
 from typing import Any
 
 from sqlalchemy import select
@@ -117,7 +118,7 @@ def _specimen_rows(db: Database, loan: str) -> tuple[list[str], list[dict[str, A
                 {
                     "trackerId": s.public_id,
                     "sampled": bool(s.powders),
-                    "drilledMg": round(sum(p.mass_mg for p in s.powders), 6),
+                    "drilledMg": float(sum((p.mass_mg for p in s.powders), Decimal(0))),
                     "ageMinMa": s.age_min_ma,
                     "ageMaxMa": s.age_max_ma,
                     **{k: v for k, v in s.extra.items() if not is_term(k)},
@@ -140,7 +141,7 @@ def measurement_rows(
 def _measurement_rows(db: Database, loan: str) -> tuple[list[str], list[dict[str, Any]]]:
     specimens = _specimens(db, loan)
     codes = {s.public_id: (s.institution_code, s.catalog_number) for s in specimens}
-    rows = []
+    rows: list[dict[str, Any]] = []
     for s in specimens:
         for p in s.powders:
             rows.append(
@@ -149,7 +150,7 @@ def _measurement_rows(db: Database, loan: str) -> tuple[list[str], list[dict[str
                     "catalogNumber": s.catalog_number,
                     "measurementID": p.public_id,
                     "measurementType": f"mass of {p.tissue} removed by drilling",
-                    "measurementValue": round(p.mass_mg, 6),
+                    "measurementValue": p.mass_mg,  # as weighed: exact
                     "measurementAccuracy": f"{p.mass_u_mg:.2g} (standard uncertainty)",
                     "measurementUnit": "mg",
                     "measurementDeterminedDate": p.drilled_at.date().isoformat(),

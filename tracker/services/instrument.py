@@ -388,7 +388,9 @@ def _run_order(row: Row, column: str) -> int:
         ) from None
     if not value.is_integer():
         raise InputError(f"row {row.number}, column {column}", text, "is not a whole number")
-    if abs(value) > MAX_RUN:
+    if value < 0:
+        raise InputError(f"row {row.number}, column {column}", text, "is below zero")
+    if value > MAX_RUN:
         raise InputError(f"row {row.number}, column {column}", text, f"is beyond {MAX_RUN:,} runs")
     return int(value)
 

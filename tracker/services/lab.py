@@ -2,11 +2,14 @@
 
 from __future__ import annotations
 
+from datetime import datetime
+from decimal import Decimal
 from typing import Annotated, Any
 
 from pydantic import Field, model_validator
 
 from tracker.db.database import Database
+from tracker.domain.base import decimal_from_float
 from tracker.domain.budget import (
     Amount,
     by_difference,
@@ -23,6 +26,7 @@ from tracker.domain.models import (
     ColumnBatch,
     Concentration,
     ContainerStatus,
+    Location,
     Powder,
     Solution,
 )
@@ -48,7 +52,7 @@ from tracker.services.inputs import (
 )
 from tracker.services.label_queue import queue_label
 from tracker.services.lookup import get_by_id
-from tracker.services.uow import unit_of_work
+from tracker.services.uow import Acting, unit_of_work
 from tracker.services.views import AliquotView, ConcentrationView, Done, SolutionView
 
 
@@ -70,6 +74,35 @@ class Dissolve(Request):
     location: str | None = None
 
 
+def dissolved_solution(
+    who: Acting,
+    powder: Powder,
+    request: Dissolve,
+    taken: Amount,
+    grams: tuple[Decimal, Decimal],
+    when: datetime,
+    location: Location | None,
+) -> Solution:
+    """The new solution's row: the dissolve service's, and the benchmark's bulk writer's.
+
+    Stored exactly: the powder taken as weighed (or all that remains), the solution's mass
+    and its uncertainty as its weighing states them (``grams``)."""
+    return Solution(
+        powder=powder,
+        powder_id=powder.id,
+        powder_mass_mg=portion_taken_mg(powder, request),
+        powder_mass_u_mg=decimal_from_float(taken.u),
+        acid=request.acid,
+        solution_mass_g=grams[0],
+        solution_mass_u_g=grams[1],
+        dissolved_at=when,
+        dissolved_by=who.operator.code,
+        location=location,
+        location_id=location.id if location else None,
+        created_at=who.now,
+    )
+
+
 def dissolve(db: Database, actor: str | None, data: Dissolve | Raw) -> Done[SolutionView]:
     """Dissolve all or part of a powder; the solution is weighed by difference."""
     request = parse(Dissolve, data)
@@ -81,25 +114,12 @@ def dissolve(db: Database, actor: str | None, data: Dissolve | Raw) -> Done[Solu
         left, taken = portion_to_dissolve(powder, request)
         if not is_significant(remaining(left, [taken])):  # nothing measurable is left
             powder.status = ContainerStatus.CONSUMED
-        grams = solution_mass.amount(scale=1e-3)
-        solution = Solution(
-            powder=powder,
-            powder_mass_mg=taken.value,
-            powder_mass_u_mg=taken.u,
-            acid=request.acid,
-            solution_mass_g=grams.value,
-            solution_mass_u_g=grams.u,
-            dissolved_at=action_time(
-                uow,
-                request.dissolved_at,
-                "dissolved-at",
-                [drilled(powder)],
-                books=powder.specimen,
-            ),
-            dissolved_by=uow.operator.code,
-            location=optional_location(uow, "location", request.location),
-            created_at=uow.now,
+        grams = solution_mass.stored(shift=-3)
+        when = action_time(
+            uow, request.dissolved_at, "dissolved-at", [drilled(powder)], books=powder.specimen
         )
+        location = optional_location(uow, "location", request.location)
+        solution = dissolved_solution(uow, powder, request, taken, grams, when, location)
         uow.session.add(solution)
         payload = dissolved_payload(powder, solution, request, queue_label(uow, solution))
         return finish(
@@ -121,9 +141,9 @@ def dissolved_payload(
         "powder_mass_mg": solution.powder_mass_mg,
         "powder_mass_u_mg": solution.powder_mass_u_mg,
         "acid": request.acid,
-        "vial_tare_mg": float(request.vial_tare),
-        "vial_gross_mg": float(request.vial_gross),
-        "readability_mg": float(request.readability),
+        "vial_tare_mg": request.vial_tare,
+        "vial_gross_mg": request.vial_gross,
+        "readability_mg": request.readability,
         "solution_mass_g": solution.solution_mass_g,
         "solution_mass_u_g": solution.solution_mass_u_g,
         "powder_status": powder.status.value,
@@ -158,6 +178,14 @@ def portion_to_dissolve(powder: Powder, request: Dissolve) -> tuple[Amount, Amou
             f"is more than remains of {powder.public_id} ({format_mass_mg(left.value, left.u)})",
         )
     return left, taken
+
+
+def portion_taken_mg(powder: Powder, request: Dissolve) -> Decimal:
+    """The powder a dissolution takes, exactly: as weighed, or all that remains (the drilled
+    mass less every portion dissolved before)."""
+    if request.powder_taken is not None:
+        return request.powder_taken
+    return powder.mass_mg - sum((s.powder_mass_mg for s in powder.solutions), Decimal(0))
 
 
 def powder_portion(request: Dissolve, left: Amount) -> Amount:
@@ -205,11 +233,12 @@ class ConcentrationValue(Request):
             raise FieldProblem("value", f"{self.value} ug/g", "must be greater than zero")
         return self
 
-    def standard_uncertainty(self) -> float:
+    def standard_uncertainty(self) -> Decimal:
+        """As typed, or the value's typed share (the percentage's shortest decimal)."""
         if self.uncertainty is not None:
-            return float(self.uncertainty)
+            return self.uncertainty
         assert self.relative_uncertainty_percent is not None
-        return float(self.value) * self.relative_uncertainty_percent / 100
+        return self.value * decimal_from_float(self.relative_uncertainty_percent) / 100
 
 
 class RecordConcentration(ConcentrationValue):
@@ -236,10 +265,27 @@ def solution_element(solution: Solution, element: str | None = None) -> tuple[st
     if concentration is None:
         return None
     amount = element_mass_ug(
-        Amount(solution.solution_mass_g, solution.solution_mass_u_g),
-        Amount(concentration.value_ug_per_g, concentration.u_ug_per_g),
+        Amount.of(solution.solution_mass_g, solution.solution_mass_u_g),
+        Amount.of(concentration.value_ug_per_g, concentration.u_ug_per_g),
     )
     return concentration.element, amount
+
+
+def concentration_row(
+    who: Acting, solution: Solution, request: RecordConcentration, when: datetime
+) -> Concentration:
+    """A measured concentration's row: the service's, and the benchmark's bulk writer's."""
+    return Concentration(
+        solution=solution,
+        solution_id=solution.id,
+        element=request.element,
+        value_ug_per_g=request.value,
+        u_ug_per_g=request.standard_uncertainty(),
+        method=request.method,
+        measured_at=when,
+        recorded_by=who.operator.code,
+        created_at=who.now,
+    )
 
 
 def record_concentration(
@@ -249,22 +295,14 @@ def record_concentration(
     request = parse(RecordConcentration, data)
     with unit_of_work(db, actor) as uow:
         solution = get_by_id(uow.session, Solution, "solution", request.solution)
-        row = Concentration(
-            solution=solution,
-            element=request.element,
-            value_ug_per_g=float(request.value),
-            u_ug_per_g=request.standard_uncertainty(),
-            method=request.method,
-            measured_at=action_time(
-                uow,
-                request.measured_at,
-                "measured-at",
-                [dissolved(solution)],
-                books=solution.powder.specimen,
-            ),
-            recorded_by=uow.operator.code,
-            created_at=uow.now,
+        when = action_time(
+            uow,
+            request.measured_at,
+            "measured-at",
+            [dissolved(solution)],
+            books=solution.powder.specimen,
         )
+        row = concentration_row(uow, solution, request, when)
         uow.session.add(row)
         uow.session.flush()
         element, payload = concentration_payload(solution, row)
@@ -281,8 +319,8 @@ def concentration_payload(solution: Solution, row: Concentration) -> tuple[Amoun
     """The element the solution holds by this concentration, and what the
     ``concentration.recorded`` event says (the bench's bulk writer uses it too)."""
     element = element_mass_ug(
-        Amount(solution.solution_mass_g, solution.solution_mass_u_g),
-        Amount(row.value_ug_per_g, row.u_ug_per_g),
+        Amount.of(solution.solution_mass_g, solution.solution_mass_u_g),
+        Amount.of(row.value_ug_per_g, row.u_ug_per_g),
     )
     payload = {
         "element": row.element,
@@ -323,29 +361,43 @@ def require_aliquot_fits(solution: Solution, wanted: Amount, request: TakeAliquo
         )
 
 
+def taken_aliquot(
+    who: Acting,
+    solution: Solution,
+    request: TakeAliquot,
+    grams: tuple[Decimal, Decimal],
+    when: datetime,
+    location: Location | None,
+) -> Aliquot:
+    """The new aliquot's row: the service's, and the benchmark's bulk writer's; its mass
+    and uncertainty exactly as its weighing states them (``grams``)."""
+    return Aliquot(
+        solution=solution,
+        solution_id=solution.id,
+        mass_g=grams[0],
+        mass_u_g=grams[1],
+        purpose=request.purpose,
+        taken_at=when,
+        taken_by=who.operator.code,
+        location=location,
+        location_id=location.id if location else None,
+        created_at=who.now,
+    )
+
+
 def take_aliquot(db: Database, actor: str | None, data: TakeAliquot | Raw) -> Done[AliquotView]:
     """Weigh out part of a solution; its element content follows from the concentration."""
     request = parse(TakeAliquot, data)
-    wanted = weigh(request.tare, request.gross, request.readability).amount(scale=1e-3)
+    weighing = weigh(request.tare, request.gross, request.readability)
+    wanted, (grams, grams_u) = weighing.amount(scale=1e-3), weighing.stored(shift=-3)
     with unit_of_work(db, actor) as uow:
         solution = get_by_id(uow.session, Solution, "solution", request.solution)
         require_aliquot_fits(solution, wanted, request)
-        aliquot = Aliquot(
-            solution=solution,
-            mass_g=wanted.value,
-            mass_u_g=wanted.u,
-            purpose=request.purpose,
-            taken_at=action_time(
-                uow,
-                request.taken_at,
-                "taken-at",
-                [dissolved(solution)],
-                books=solution.powder.specimen,
-            ),
-            taken_by=uow.operator.code,
-            location=optional_location(uow, "location", request.location),
-            created_at=uow.now,
+        when = action_time(
+            uow, request.taken_at, "taken-at", [dissolved(solution)], books=solution.powder.specimen
         )
+        location = optional_location(uow, "location", request.location)
+        aliquot = taken_aliquot(uow, solution, request, (grams, grams_u), when, location)
         uow.session.add(aliquot)
         element = aliquot_element(aliquot)
         payload = aliquot_payload(aliquot, request, element, queue_label(uow, aliquot))
@@ -370,9 +422,9 @@ def aliquot_payload(
         "solution": aliquot.solution.public_id,
         "mass_g": aliquot.mass_g,
         "mass_u_g": aliquot.mass_u_g,
-        "tare_mg": float(request.tare),
-        "gross_mg": float(request.gross),
-        "readability_mg": float(request.readability),
+        "tare_mg": request.tare,
+        "gross_mg": request.gross,
+        "readability_mg": request.readability,
         "purpose": aliquot.purpose.value,
         "element": element[0] if element else None,
         "element_ug": element[1] if element else None,
@@ -388,7 +440,7 @@ def aliquot_element(
     if concentration is None:
         return None
     amount = element_mass_ug(
-        Amount(aliquot.mass_g, aliquot.mass_u_g),
-        Amount(concentration.value_ug_per_g, concentration.u_ug_per_g),
+        Amount.of(aliquot.mass_g, aliquot.mass_u_g),
+        Amount.of(concentration.value_ug_per_g, concentration.u_ug_per_g),
     )
     return concentration.element, amount.value, amount.u

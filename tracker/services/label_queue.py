@@ -9,6 +9,8 @@ use it.
 
 from __future__ import annotations
 
+from datetime import datetime
+
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
@@ -34,12 +36,27 @@ def queue_label(
 
     def add(seq: int) -> None:
         for _ in range(copies):
-            label = Label(item_ref=item.public_id, status=status, queued_event_seq=seq)
-            label.queued_by, label.queued_at, label.job_id = uow.operator.code, uow.now, job_id
-            uow.session.add(label)
+            uow.session.add(
+                label_row(item, seq, uow.operator.code, uow.now, status=status, job_id=job_id)
+            )
 
     uow.naming_event.append(add)
     return status.value
+
+
+def label_row(
+    item: HasPublicId,
+    seq: int,
+    by: str,
+    at: datetime,
+    status: LabelStatus = LabelStatus.QUEUED,
+    job_id: int | None = None,
+) -> Label:
+    """One label of ``item``, naming event ``seq`` that queued it (the one builder of the
+    row: ``queue_label``'s hook, and the benchmark's bulk writer)."""
+    label = Label(item_ref=item.public_id, status=status, queued_event_seq=seq)
+    label.queued_by, label.queued_at, label.job_id = by, at, job_id
+    return label
 
 
 def queued_labels(session: Session, item: str) -> list[Label]:

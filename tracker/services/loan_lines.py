@@ -6,13 +6,13 @@ Its flags and its place in the order come from :mod:`tracker.services.loan_rules
 from __future__ import annotations
 
 import math
-from dataclasses import asdict
 from datetime import date
 
 from pydantic import Field
 
-from tracker.services.loan_rules import LoanFacts, Totals, overview_line
-from tracker.services.view_base import View
+from tracker.domain.models import Loan, LoanTerms
+from tracker.services.loan_rules import Totals, loan_flags, used_fraction
+from tracker.services.views import View
 
 
 class SpecimenLine(View):
@@ -56,25 +56,37 @@ class LoanLine(View):
 
 
 def loan_line(
-    loan: LoanFacts,
+    loan: Loan,
+    terms: LoanTerms,
     today: date,
     totals: Totals,
     specimen_lines: list[SpecimenLine] | None = None,
 ) -> LoanLine:
-    """A loan's line from its totals (and its specimens' lines, when they were read): what the
-    overview shows of it (:func:`overview_line`), its terms and its masses in full."""
-    shown = asdict(overview_line(loan, today, totals))
-    terms = loan.terms
+    """A loan's line judged on ``today`` by the ``terms`` in force, from its totals (and its
+    specimens' lines, when they were read)."""
+    used = used_fraction(terms, totals)
     return LoanLine(
-        **shown,
-        lender=loan.lender,
+        id=loan.public_id,
+        reference=loan.reference,
+        lender=loan.lender.name,
+        lender_code=loan.lender.institution_code or loan.lender.name,
+        status=loan.status.value,
         terms_version=terms.version,
         permitted_tissues=list(terms.permitted_tissues),
         max_mass_per_specimen_mg=terms.max_mass_per_specimen_mg,
+        max_total_mass_mg=terms.max_total_mass_mg,
         max_specimens_sampled=terms.max_specimens_sampled,
+        specimens=totals.specimens,
+        on_hand=totals.on_hand,
+        sampled=totals.sampled,
+        drilled_mg=totals.drilled,
         drilled_u_mg=math.sqrt(totals.variance),
+        used_fraction=used,
         dissolved_mg=totals.dissolved,
         powder_on_hand_mg=totals.powder_on_hand,
         powder_returned_mg=totals.returned,
+        due_on=terms.due_on,
+        days_left=(terms.due_on - today).days,
+        flags=loan_flags(loan.status, terms, today, totals, used),
         specimen_lines=specimen_lines or [],
     )

@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 from datetime import date
-from decimal import Decimal
 from typing import Annotated
 
 from pydantic import Field, field_validator, model_validator
@@ -11,6 +10,7 @@ from sqlalchemy import select
 from sqlalchemy.orm import selectinload
 
 from tracker.db.database import Database
+from tracker.domain.base import decimal_text
 from tracker.domain.errors import InputError, RuleViolation
 from tracker.domain.models import Disposition, Lender, Loan, LoanTerms, TermsKind
 from tracker.services.common import finish
@@ -155,8 +155,8 @@ def terms_row(
         kind=kind,
         effective_from=effective_from,
         permitted_tissues=terms.permitted_tissues,
-        max_mass_per_specimen_mg=_float(terms.max_mass_per_specimen),
-        max_total_mass_mg=_float(terms.max_total_mass),
+        max_mass_per_specimen_mg=terms.max_mass_per_specimen,
+        max_total_mass_mg=terms.max_total_mass,
         max_specimens_sampled=terms.max_specimens_sampled,
         due_on=terms.due_on,
         return_specimens=terms.return_specimens,
@@ -172,13 +172,10 @@ def terms_row(
 def terms_payload(terms: TermsInput) -> dict[str, object]:
     data = terms.model_dump(mode="json")
     for key in ("max_mass_per_specimen", "max_total_mass"):
-        value = data.pop(key)
-        data[f"{key}_mg"] = None if value is None else float(Decimal(value))
+        data.pop(key)
+        value = getattr(terms, key)  # in mg, exactly as typed: its digits, as facts say it
+        data[f"{key}_mg"] = None if value is None else decimal_text(value)
     return data
-
-
-def _float(value: Decimal | None) -> float | None:
-    return None if value is None else float(value)
 
 
 def list_loans(db: Database) -> list[LoanView]:

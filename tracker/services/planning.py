@@ -17,6 +17,7 @@ from typing import Annotated
 from pydantic import Field
 
 from tracker.db.database import Database
+from tracker.domain.budget import as_float
 from tracker.domain.errors import InputError, RuleViolation
 from tracker.domain.ids import Kind, looks_like_id, parse_id
 from tracker.domain.materials import TISSUE_DEFAULTS
@@ -101,10 +102,12 @@ def plan(db: Database, data: PlanRequest | Raw) -> Plan:
         powder_mg = max(
             needed_ug / 1000 / span[0] * (1 + request.margin_percent / 100), request.min_powder_mg
         )
-        drilled_total = sum(p.mass_mg for s in loan.specimens for p in s.powders)
+        drilled_total = sum(float(p.mass_mg) for s in loan.specimens for p in s.powders)
         sampled = sum(1 for s in loan.specimens if s.powders)
         budget = _Budget(
-            None if terms.max_total_mass_mg is None else terms.max_total_mass_mg - drilled_total,
+            None
+            if terms.max_total_mass_mg is None
+            else float(terms.max_total_mass_mg) - drilled_total,
             None if terms.max_specimens_sampled is None else terms.max_specimens_sampled - sampled,
         )
         before = budget.total_left
@@ -113,7 +116,7 @@ def plan(db: Database, data: PlanRequest | Raw) -> Plan:
             needed_ug,
             span,
             powder_mg,
-            terms.max_mass_per_specimen_mg,
+            as_float(terms.max_mass_per_specimen_mg),
             tissue,
             list(terms.permitted_tissues),
             budget,
@@ -157,7 +160,7 @@ def _on_hand_mg(specimen: Specimen, element: str, fraction_low: float) -> float:
         for solution in p.solutions:
             amount = solution_element(solution, element)
             if solution.status is ContainerStatus.AVAILABLE and amount is not None:
-                share = solution_remaining_g(solution).value / solution.solution_mass_g
+                share = solution_remaining_g(solution).value / float(solution.solution_mass_g)
                 dissolved_ug += amount[1].value * max(share, 0.0)
     return powder + dissolved_ug / 1000 / fraction_low
 
@@ -202,7 +205,7 @@ class _Walk:
         """Empty when the drill fits every term; else the first term it breaks, in words."""
         if to_drill == 0:
             return ""
-        drilled = sum(p.mass_mg for p in specimen.powders)
+        drilled = sum(float(p.mass_mg) for p in specimen.powders)
         budget, per_specimen = self.budget, self.per_specimen
         if self.tissue not in self.permitted:
             return f"the loan does not permit {self.tissue}"

@@ -21,7 +21,8 @@ from sqlalchemy import Select, and_, case, func, select
 from sqlalchemy.orm import Session, selectinload
 
 from tracker.db.database import Database
-from tracker.domain.budget import COVERAGE_FACTOR, SQRT6
+from tracker.domain.base import computed
+from tracker.domain.budget import COVERAGE_FACTOR, SQRT6, as_float
 from tracker.domain.ids import Kind, format_id
 from tracker.domain.models import (
     Aliquot,
@@ -38,8 +39,6 @@ from tracker.domain.terms import terms_in_force
 from tracker.services.loan_lines import LoanLine, SpecimenLine, loan_line
 from tracker.services.loan_rules import (
     BACKDATED,
-    LoanFacts,
-    Terms,
     Totals,
     urgency,
 )
@@ -160,28 +159,28 @@ def _solution_books(scope: _Scope) -> Any:
     powders = scope.powders()
     aliquots = select(
         Aliquot.solution_id.label("sid"),
-        func.sum(Aliquot.mass_g).label("mass"),
-        func.sum(Aliquot.mass_u_g * Aliquot.mass_u_g).label("var"),
-        func.sum(Aliquot.mass_u_g).label("u_sum"),
+        func.sum(computed(Aliquot.mass_g)).label("mass"),
+        func.sum(computed(Aliquot.mass_u_g) * computed(Aliquot.mass_u_g)).label("var"),
+        func.sum(computed(Aliquot.mass_u_g)).label("u_sum"),
     )
     if powders is not None:
         solutions = select(Solution.id).where(Solution.powder_id.in_(powders))
         aliquots = aliquots.where(Aliquot.solution_id.in_(solutions))
     taken = aliquots.group_by(Aliquot.solution_id).subquery()
     gap = (
-        Solution.solution_mass_g
+        computed(Solution.solution_mass_g)
         - func.coalesce(taken.c.mass, 0.0)
-        - func.coalesce(Solution.residual_g, 0.0)
+        - func.coalesce(computed(Solution.residual_g), 0.0)
     )
     variance = (
-        Solution.solution_mass_u_g * Solution.solution_mass_u_g
+        computed(Solution.solution_mass_u_g) * computed(Solution.solution_mass_u_g)
         + func.coalesce(taken.c.var, 0.0)
-        + func.coalesce(Solution.residual_u_g * Solution.residual_u_g, 0.0)
+        + func.coalesce(computed(Solution.residual_u_g) * computed(Solution.residual_u_g), 0.0)
     )
     bound = SQRT6 * (
-        Solution.solution_mass_u_g
+        computed(Solution.solution_mass_u_g)
         + func.coalesce(taken.c.u_sum, 0.0)
-        + func.coalesce(Solution.residual_u_g, 0.0)
+        + func.coalesce(computed(Solution.residual_u_g), 0.0)
     )
     off = and_(
         Solution.status.in_(_CLOSED),
@@ -191,9 +190,11 @@ def _solution_books(scope: _Scope) -> Any:
     books = (
         select(
             Solution.powder_id.label("powder_id"),
-            func.sum(Solution.powder_mass_mg).label("mass"),
-            func.sum(Solution.powder_mass_u_mg * Solution.powder_mass_u_mg).label("var"),
-            func.sum(Solution.powder_mass_u_mg).label("u_sum"),
+            func.sum(computed(Solution.powder_mass_mg)).label("mass"),
+            func.sum(
+                computed(Solution.powder_mass_u_mg) * computed(Solution.powder_mass_u_mg)
+            ).label("var"),
+            func.sum(computed(Solution.powder_mass_u_mg)).label("u_sum"),
             func.sum(case((and_(off, Solution.residual_g.is_(None)), 1), else_=0)).label("lost"),
             func.sum(case((and_(off, Solution.residual_g.is_not(None)), 1), else_=0)).label("gap"),
         )
@@ -214,17 +215,17 @@ def _per_powder(scope: _Scope) -> Select[Any]:
     """
     taken = _solution_books(scope)
     dissolved = func.coalesce(taken.c.mass, 0.0)
-    residual = func.coalesce(Powder.residual_mg, 0.0)
-    gap = Powder.mass_mg - dissolved - residual
+    residual = func.coalesce(computed(Powder.residual_mg), 0.0)
+    gap = computed(Powder.mass_mg) - dissolved - residual
     variance = (
-        Powder.mass_u_mg * Powder.mass_u_mg
+        computed(Powder.mass_u_mg) * computed(Powder.mass_u_mg)
         + func.coalesce(taken.c.var, 0.0)
-        + func.coalesce(Powder.residual_u_mg * Powder.residual_u_mg, 0.0)
+        + func.coalesce(computed(Powder.residual_u_mg) * computed(Powder.residual_u_mg), 0.0)
     )
     bound = (
-        Powder.readability_mg
+        computed(Powder.readability_mg)
         + SQRT6 * func.coalesce(taken.c.u_sum, 0.0)
-        + SQRT6 * func.coalesce(Powder.residual_u_mg, 0.0)
+        + SQRT6 * func.coalesce(computed(Powder.residual_u_mg), 0.0)
     )
     closed = Powder.status.in_(_CLOSED)
     outside = and_(
@@ -237,12 +238,17 @@ def _per_powder(scope: _Scope) -> Select[Any]:
     )
     rows = select(
         Powder.specimen_id,
-        Powder.mass_mg,
-        Powder.mass_u_mg,
+        computed(Powder.mass_mg).label("mass_mg"),
+        computed(Powder.mass_u_mg).label("mass_u_mg"),
         dissolved.label("dissolved"),
-        case((Powder.status == _OPEN, Powder.mass_mg - dissolved), else_=0.0).label("on_hand"),
+        case((Powder.status == _OPEN, computed(Powder.mass_mg) - dissolved), else_=0.0).label(
+            "on_hand"
+        ),
         case(
-            (Powder.status == "returned", func.coalesce(Powder.residual_mg, gap + residual)),
+            (
+                Powder.status == "returned",
+                func.coalesce(computed(Powder.residual_mg), gap + residual),
+            ),
             else_=0.0,
         ).label("returned"),
         case((Powder.override_reason.is_not(None), 1), else_=0).label("override"),
@@ -262,40 +268,6 @@ def _books(session: Session, scope: _Scope) -> dict[int, list[_Books]]:
     for row in session.connection().execute(query).all():  # fetchall: one call, not one per row
         grouped[row[1]].append(_books_of(row))
     return grouped
-
-
-def open_loan_totals_statement() -> Select[Any]:
-    """The open loans' totals statement: only the start-up glance runs it (compiled into
-    :mod:`tracker.services.glance_sql`); :func:`reconcile` sums the books in Python. It goes
-    with the glance, as do :func:`_totals_statement` and ``loan_rules.totals_from_row``."""
-    return _totals_statement(_Scope(open_only=True))
-
-
-def _totals_statement(scope: _Scope) -> Select[Any]:
-    """One row per loan in scope: the columns :func:`totals_from_row` reads, in its order."""
-    ps = _per_specimen(scope).subquery()
-    query = select(
-        ps.c.loan_id,
-        func.count(),
-        _count(ps.c.status == SpecimenStatus.ON_HAND),
-        _count(ps.c.powders > 0),
-        *(
-            func.sum(func.coalesce(ps.c[name], 0.0))
-            for name in ("mass", "var", "dissolved", "on_hand", "returned")
-        ),
-        func.max(func.coalesce(ps.c.mass, 0.0)),
-        _count(ps.c.override > 0),
-        _count((ps.c.unaccounted > 0) | (ps.c.gap > 0)),
-        _count((ps.c.unweighed > 0) | (ps.c.lost > 0)),
-        _count(ps.c.on_hand > 0),
-        _count(ps.c.backdated > 0),
-    ).group_by(ps.c.loan_id)
-    return query
-
-
-def _count(condition: Any) -> Any:
-    """SQL: how many rows of the group meet ``condition``."""
-    return func.sum(case((condition, 1), else_=0))
 
 
 def _per_specimen(scope: _Scope) -> Select[Any]:
@@ -394,28 +366,12 @@ def _books_of(row: Any) -> _Books:
 def _loan_line(loan: Loan, today: date, books: list[_Books], with_specimens: bool) -> LoanLine:
     """A loan's line from its specimens' books; with their lines when asked for."""
     terms = terms_in_force(loan.terms, today)
-    facts = LoanFacts(
-        id=loan.public_id,
-        reference=loan.reference,
-        status=loan.status,
-        lender=loan.lender.name,
-        lender_code=loan.lender.institution_code or loan.lender.name,
-        terms=Terms(
-            terms.version,
-            list(terms.permitted_tissues),
-            terms.max_mass_per_specimen_mg,
-            terms.max_total_mass_mg,
-            terms.max_specimens_sampled,
-            terms.due_on,
-            terms.powder_disposition,
-        ),
-    )
-    permitted = terms.max_mass_per_specimen_mg
+    permitted = as_float(terms.max_mass_per_specimen_mg)
     shown = books if with_specimens else []
     lines = _SPECIMEN_LINES.validate_python(
         [_specimen_line(b, _specimen_flags(b, permitted), permitted) for b in shown]
     )
-    return loan_line(facts, today, _totals_of(books), lines)
+    return loan_line(loan, terms, today, _totals_of(books), lines)
 
 
 def _specimen_flags(books: _Books, permitted: float | None) -> frozenset[str]:

@@ -284,7 +284,7 @@ def _blank_correct(cut: Cut, ratio: str, value: float) -> tuple[float, bool]:
     blank, _, _ = blank_ng(batch)
     if ratio not in batch.blank_deltas or blank is None or not cut.recovered_ug:
         return value, False
-    sample_ng = cut.recovered_ug * 1000 - blank
+    sample_ng = float(cut.recovered_ug) * 1000 - blank
     return blank_corrected(value, sample_ng, float(batch.blank_deltas[ratio]), blank), True
 
 

@@ -11,7 +11,7 @@ from __future__ import annotations
 from datetime import date
 from typing import Annotated, Literal
 
-from pydantic import Field
+from pydantic import Field, model_validator
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
@@ -31,7 +31,7 @@ from tracker.domain.models import (
     Specimen,
 )
 from tracker.services.common import finish
-from tracker.services.inputs import Name, Raw, Request, parse
+from tracker.services.inputs import FieldProblem, Name, Raw, Request, parse
 from tracker.services.lookup import get_loan, get_reference_material
 from tracker.services.uow import unit_of_work
 from tracker.services.views import Done, View
@@ -158,6 +158,12 @@ class NewReferenceValue(Request):
     two_sd: Annotated[float, Field(gt=0)]
     kind: Literal["delta", "ratio"] = "delta"
     source: Annotated[str, Field(min_length=3, max_length=500)]
+
+    @model_validator(mode="after")
+    def _ratio_above_zero(self) -> NewReferenceValue:
+        if self.kind == "ratio" and self.value <= 0:
+            raise FieldProblem("value", self.value, "an isotope ratio must be above zero")
+        return self
 
 
 class ReferenceValueView(View):

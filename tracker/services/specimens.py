@@ -32,7 +32,7 @@ from tracker.services.inputs import (
 )
 from tracker.services.label_queue import queue_label
 from tracker.services.lookup import get_by_id, get_loan
-from tracker.services.uow import unit_of_work
+from tracker.services.uow import Acting, unit_of_work
 from tracker.services.views import Done, SpecimenView
 
 Short = Annotated[str, Field(max_length=120)]
@@ -62,6 +62,11 @@ class NewSpecimen(Request):
         return self
 
 
+def listed_specimen(who: Acting, loan: Loan, fields: dict[str, Any]) -> Specimen:
+    """A specimen the lender listed, not yet here: the service's row, and the bulk writer's."""
+    return Specimen(loan=loan, loan_id=loan.id, **fields, created_at=who.now)
+
+
 def add_specimen(db: Database, actor: str | None, data: NewSpecimen | Raw) -> Done[SpecimenView]:
     """List a specimen on a loan (status: expected until it is checked in)."""
     request = parse(NewSpecimen, data)
@@ -77,7 +82,7 @@ def add_specimen(db: Database, actor: str | None, data: NewSpecimen | Raw) -> Do
         if uow.session.scalar(clash) is not None:
             raise RuleViolation("catalog-number", request.catalog_number, "is already on this loan")
         fields = request.model_dump(exclude={"loan"})
-        specimen = Specimen(loan=loan, **fields, created_at=uow.now)
+        specimen = listed_specimen(uow, loan, fields)
         uow.session.add(specimen)
         return finish(
             uow,

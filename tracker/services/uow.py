@@ -20,21 +20,23 @@ says needs a manager is refused otherwise, here as in ``ledger verify``.
 
 from __future__ import annotations
 
+import re
 import sys
-from collections.abc import Callable, Iterator
+from collections.abc import Callable, Iterable, Iterator
 from contextlib import contextmanager
 from dataclasses import dataclass, field
 from datetime import datetime, timedelta
-from typing import Any
+from typing import Any, Protocol
 
 from sqlalchemy import select
-from sqlalchemy.exc import DBAPIError
+from sqlalchemy.exc import DBAPIError, IntegrityError
 from sqlalchemy.orm import Session
 
 from tracker.db import logins
 from tracker.db.database import Database
 from tracker.db.rows import insert_rows
 from tracker.db.writer_lock import WriterLock
+from tracker.domain import checks
 from tracker.domain.authority import FORMAT_2, Authority, manager_needed
 from tracker.domain.base import HasPublicId
 from tracker.domain.errors import InputError, RuleViolation
@@ -75,6 +77,14 @@ class Backdating:
         """What the event's payload says of it, beside the event's own (recording) time."""
         stated = iso_utc(self.stated)
         return {"field": self.field, "stated_at": stated, "window_hours": self.window_hours}
+
+
+class Acting(Protocol):
+    """Who acts and when: what a row builder needs of a unit of work (and of the
+    benchmark's bulk step, which builds the same rows without a session)."""
+
+    operator: Operator
+    now: datetime
 
 
 @dataclass
@@ -144,7 +154,7 @@ class UnitOfWork:
         if self.backdated is not None:  # last: refusals about the entry itself come first
             self.require_manager(self.backdated.action())
             payload = {**payload, "backdated": self.backdated.payload()}
-        text = canonical_json(payload)
+        text = canonical_json(payload, default=expanded)
         needed = manager_needed(action, self.operator.code, text)
         if needed is not None:  # the verifier's own rule: no service can forget it
             self.require_manager(needed)
@@ -163,8 +173,8 @@ class UnitOfWork:
         for hook in self.naming_event:
             hook(link[0])
         self.session.flush()
-        refs = sorted((self.mentions | self.written.names()) - {object_ref, parent_ref})
-        mentions = [{"seq": link[0], "ref": ref} for ref in refs]
+        names = self.mentions | self.written.names()
+        mentions = mention_rows(link[0], names, object_ref, parent_ref)
         self.written.created_rows(_EVENT_REF.name, mentions)
         payload = {**payload, FACTS: self.written.facts()}
         self.sealed()
@@ -233,9 +243,34 @@ def append_event(
     (:func:`next_link`) to name the event in rows written before it.
     """
     seq, prev = link or next_link(session)
+    event = sealed_event(
+        (seq, prev), at, operator, origin, action, object_ref, parent_ref, payload, signer
+    )
+    session.add(event)
+    session.flush()
+    return event
+
+
+def sealed_event(
+    link: tuple[int, str],
+    at: datetime,
+    operator: str,
+    origin: Origin,
+    action: str,
+    object_ref: str,
+    parent_ref: str,
+    payload: dict[str, Any],
+    signer: Signer,
+) -> CustodyEvent:
+    """The event row itself, its payload canonical and its hash signed, not yet added.
+
+    The one place an event row is built: the unit of work adds it to its session, the
+    benchmark's bulk writer (which keeps the head in memory) batches it.
+    """
+    seq, prev = link
     text = canonical_json(payload, default=expanded)  # rows written set-based, row by row
     sealed = seal(seq, at, operator, origin, action, object_ref, parent_ref, prev, text, signer)
-    event = CustodyEvent(
+    return CustodyEvent(
         seq=seq,
         at=at,
         operator=operator,
@@ -252,9 +287,13 @@ def append_event(
         key_id=sealed.key_id,
         signature=sealed.signature,
     )
-    session.add(event)
-    session.flush()
-    return event
+
+
+def mention_rows(
+    seq: int, names: Iterable[str], object_ref: str, parent_ref: str
+) -> list[dict[str, Any]]:
+    """The event's ``event_ref`` rows: every name its rows bear but its object and parent."""
+    return [{"seq": seq, "ref": ref} for ref in sorted(set(names) - {object_ref, parent_ref})]
 
 
 def next_link(session: Session) -> tuple[int, str]:
@@ -299,6 +338,9 @@ def unit_of_work(db: Database, actor: str | None, doing: str = "") -> Iterator[U
     except DBAPIError as error:
         lock.release()
         session.rollback()
+        broken = _check_broken(error)
+        if broken is not None:
+            raise broken from None
         if getattr(error.orig, "sqlstate", None) != INSUFFICIENT_PRIVILEGE:
             raise
         raise _refused(error) from None
@@ -348,6 +390,24 @@ def agree_with_login(session: Session, operator: Operator) -> None:
             f"this database login ({who.login}) records as {bound} only; "
             "each person connects with their own login",
         )
+
+
+def _check_broken(error: DBAPIError) -> RuleViolation | None:
+    """A value the schema refuses as never true (``domain.checks``), said in one line.
+
+    The services check every value first, so this is a service's missed rule; the
+    person still reads one line and nothing is written."""
+    if not isinstance(error, IntegrityError):
+        return None
+    diag = getattr(error.orig, "diag", None)  # PostgreSQL names the constraint
+    name = getattr(diag, "constraint_name", None)
+    if name is None:  # SQLite: "CHECK constraint failed: <name>"
+        found = re.search(r"CHECK constraint failed: (\w+)", str(error.orig))
+        name = found.group(1) if found else None
+    sentence = checks.said(name) if name else None
+    if sentence is None:
+        return None
+    return RuleViolation("--db", None, f"the database refused a value: {sentence}")
 
 
 def _refused(error: DBAPIError) -> RuleViolation:

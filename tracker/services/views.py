@@ -10,7 +10,7 @@ import json
 from datetime import date, datetime
 from typing import Any, Generic, TypeVar
 
-from pydantic import BaseModel
+from pydantic import BaseModel, ConfigDict
 
 from tracker.domain.models import (
     Aliquot,
@@ -26,7 +26,11 @@ from tracker.domain.models import (
     Specimen,
 )
 from tracker.domain.terms import terms_in_force
-from tracker.services.view_base import View as View
+
+
+class View(BaseModel):
+    model_config = ConfigDict(frozen=True)
+
 
 V = TypeVar("V", bound=BaseModel)
 

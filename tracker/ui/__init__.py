@@ -7,7 +7,6 @@ from pathlib import Path
 from typing import TYPE_CHECKING
 
 from tracker.domain.timeutil import Clock, utcnow
-from tracker.services.glance import start_glance
 
 if TYPE_CHECKING:
     from tracker.ui.app import TrackerApp
@@ -16,16 +15,10 @@ if TYPE_CHECKING:
 def make_app(
     target: str, operator: str | None, *, clock: Clock = utcnow, out_dir: Path | None = None
 ) -> TrackerApp:
-    """The app on ``target``, its overview's glance already being read.
-
-    The glance starts before Textual is imported, so the database file is read while
-    Textual loads (sqlite3 lets go of the interpreter while it reads). Only with an
-    operator named: without one, the first screen is the operator's choice.
-    """
-    glancer = start_glance(target, clock().date()) if operator else None
+    """The app on ``target`` (what ``tracker --db TARGET --as OPERATOR`` opens)."""
     from tracker.ui.app import TrackerApp
 
-    return TrackerApp(target, operator, clock=clock, out_dir=out_dir, glancer=glancer)
+    return TrackerApp(target, operator, clock=clock, out_dir=out_dir)
 
 
 def run_tui(target: str, operator: str | None) -> int:

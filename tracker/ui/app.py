@@ -4,10 +4,9 @@ Database work happens only in thread workers, which post typed messages back; th
 only draws. A barcode scanner (a burst of keys ended by Enter) is recognised here, before
 any widget sees the keys: it fills the focused ID field or jumps to the scanned item.
 
-Start-up draws before it loads: this module imports neither SQLAlchemy nor the services.
-With an operator named (``--as``) on a SQLite file, the open loans' glance
-(:mod:`tracker.services.glance`) fills the overview while a worker opens the database
-through the services, which then read the overview again.
+Start-up: a worker opens the database; with an operator named (``--as``) the loans
+overview is drawn at once and says it is reading the open loans until the services have
+given them (the same :func:`tracker.services.reconcile.reconcile` the CLI's overview calls).
 
 Signing: when an operator is chosen the app asks, once, for the passphrase of their key
 (:class:`~tracker.ui.screens.passphrase.PassphraseScreen`); the unlocked key stays in this
@@ -37,7 +36,6 @@ from tracker.domain.errors import InputError, TrackerError
 from tracker.domain.ids import BadId, Kind, parse_id
 from tracker.domain.text_rules import visible
 from tracker.domain.timeutil import Clock, utcnow
-from tracker.services.glance import Glance, Glancer, start_glance
 from tracker.ui import settings
 from tracker.ui.messages import ScanFailed, ScanResolved
 from tracker.ui.plain import VisibleCharacters, shown
@@ -54,14 +52,6 @@ class DatabaseOpened(Message):
     def __init__(self, db: Database, operators: list[OperatorView]) -> None:
         super().__init__()
         self.db, self.operators = db, operators
-
-
-class GlanceRead(Message):
-    """The open loans' glance is read (None: there is none to draw); the database is next."""
-
-    def __init__(self, glance: Glance | None) -> None:
-        super().__init__()
-        self.glance = glance
 
 
 class KeyNeeded(Message):
@@ -121,7 +111,6 @@ class TrackerApp(App[None]):
         *,
         clock: Clock = utcnow,
         out_dir: Path | None = None,
-        glancer: Glancer | None = None,
         lock_after: float | None = None,
     ) -> None:
         super().__init__()
@@ -138,8 +127,6 @@ class TrackerApp(App[None]):
         self._held: list[events.Key] = []
         self._held_timer: Timer | None = None
         self._typed_before: tuple[Input, str] | None = None
-        # only with an operator named: otherwise the first screen is the operator's choice
-        self._glancer = glancer or (start_glance(target, clock().date()) if operator else None)
         self._visible = VisibleCharacters()
 
     def get_line_filters(self) -> Sequence[LineFilter]:
@@ -154,21 +141,11 @@ class TrackerApp(App[None]):
     def on_mount(self) -> None:
         self.set_interval(min(self.lock_after / 3, 5.0), self._lock_when_idle)
         self.status_line = "opening the database …"
-        if self._glancer is None:
-            self.open_database()
-        else:  # the glance first: loading SQLAlchemy alongside would only slow both down
-            self.wait_for_glance(self._glancer)
-
-    @work(thread=True, exclusive=True, group="glance")
-    def wait_for_glance(self, glancer: Glancer) -> None:
-        self.post_message(GlanceRead(glancer.result()))
-
-    def on_glance_read(self, event: GlanceRead) -> None:
-        if event.glance is not None and self.operator is None and len(self.screen_stack) == 1:
+        if self.preselected:  # the first screen at once; it fills when the services have read it
             from tracker.ui.screens.overview import OverviewScreen
 
-            self.push_screen(OverviewScreen(event.glance))
-        self.call_after_refresh(self.open_database)  # once the overview has been drawn
+            self.push_screen(OverviewScreen())
+        self.open_database()
 
     @work(thread=True, exclusive=True, group="open")
     def open_database(self) -> None:
@@ -227,7 +204,7 @@ class TrackerApp(App[None]):
         from tracker.ui.screens.overview import OverviewScreen
 
         shown = [s for s in self.screen_stack if isinstance(s, OverviewScreen)]
-        if shown:  # drawn from the glance: read it again, now through the services
+        if shown:  # drawn before the database was open: read it now
             shown[0].action_refresh()
         else:
             self.push_screen(OverviewScreen())

@@ -4,11 +4,13 @@ reference materials) and the cuts collected from each position."""
 from __future__ import annotations
 
 from datetime import date, datetime
+from decimal import Decimal
 from typing import TYPE_CHECKING, Any
 
 from sqlalchemy import ForeignKey, String, Text, UniqueConstraint
 from sqlalchemy.orm import Mapped, mapped_column, relationship
 
+from tracker.domain import checks
 from tracker.domain.base import Base, HasPublicId
 from tracker.domain.ids import Kind
 from tracker.domain.models.enums import ContainerStatus, PositionKind, enum_type
@@ -37,12 +39,13 @@ class ColumnBatch(HasPublicId, Base):
     """One run of ion-exchange columns: resin, elution scheme, named cuts, flag thresholds."""
 
     __tablename__ = "column_batch"
+    __table_args__ = (checks.share("yield_threshold"), checks.share("blank_limit"))
     id_kind = Kind.COLUMN_BATCH
 
     id: Mapped[int] = mapped_column(primary_key=True)
     name: Mapped[str] = mapped_column(String(120))
     performed_on: Mapped[date]
-    operator: Mapped[str] = mapped_column(String(32), ForeignKey("operator.code"))
+    operator: Mapped[str] = mapped_column(String(32), ForeignKey("operator.code"), index=True)
     element: Mapped[str] = mapped_column(String(3))
     resin: Mapped[str] = mapped_column(String(120))
     elution_scheme: Mapped[str] = mapped_column(Text)
@@ -62,7 +65,12 @@ class BatchPosition(HasPublicId, Base):
     """One column of a batch: a sample aliquot, a procedural blank or a reference material."""
 
     __tablename__ = "batch_position"
-    __table_args__ = (UniqueConstraint("batch_id", "slot"),)
+    __table_args__ = (
+        UniqueConstraint("batch_id", "slot"),
+        checks.counted_from_one("slot"),
+        checks.not_negative("loaded_ug"),
+        checks.not_negative("loaded_u_ug"),
+    )
     id_kind = Kind.POSITION
 
     id: Mapped[int] = mapped_column(primary_key=True)
@@ -70,7 +78,9 @@ class BatchPosition(HasPublicId, Base):
     slot: Mapped[int]
     kind: Mapped[PositionKind] = mapped_column(enum_type(PositionKind))
     aliquot_id: Mapped[int | None] = mapped_column(ForeignKey("aliquot.id"), index=True)
-    reference_material_id: Mapped[int | None] = mapped_column(ForeignKey("reference_material.id"))
+    reference_material_id: Mapped[int | None] = mapped_column(
+        ForeignKey("reference_material.id"), index=True
+    )
     loaded_ug: Mapped[float | None]  # element loaded on the column
     loaded_u_ug: Mapped[float | None]
     created_at: Mapped[datetime]
@@ -85,14 +95,18 @@ class Cut(HasPublicId, Base):
     """An eluted fraction collected from one position (e.g. the Ca cut)."""
 
     __tablename__ = "cut"
-    __table_args__ = (UniqueConstraint("position_id", "name"),)
+    __table_args__ = (
+        UniqueConstraint("position_id", "name"),
+        checks.not_negative("recovered_ug"),
+        checks.not_negative("recovered_u_ug"),
+    )
     id_kind = Kind.CUT
 
     id: Mapped[int] = mapped_column(primary_key=True)
     position_id: Mapped[int] = mapped_column(ForeignKey("batch_position.id"), index=True)
     name: Mapped[str] = mapped_column(String(60))
-    recovered_ug: Mapped[float | None]
-    recovered_u_ug: Mapped[float | None]
+    recovered_ug: Mapped[Decimal | None]
+    recovered_u_ug: Mapped[Decimal | None]
     status: Mapped[ContainerStatus] = mapped_column(
         enum_type(ContainerStatus), default=ContainerStatus.AVAILABLE
     )

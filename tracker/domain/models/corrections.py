@@ -22,11 +22,17 @@ from typing import Any
 from sqlalchemy import ForeignKey, String, Text
 from sqlalchemy.orm import Mapped, mapped_column
 
+from tracker.domain import checks
 from tracker.domain.base import Base
 
 
 class Correction(Base):
     __tablename__ = "correction"
+    __table_args__ = (
+        checks.counted_from_one("entry_id"),
+        checks.counted_from_one("supersedes_event_seq"),
+        checks.counted_from_one("event_seq"),
+    )
 
     id: Mapped[int] = mapped_column(primary_key=True)
     item_ref: Mapped[str] = mapped_column(String(40), index=True)  # PW-, SO-, AQ-, CT- ID
@@ -36,10 +42,10 @@ class Correction(Base):
     replaced: Mapped[dict[str, Any]]  # the values as they stood
     value: Mapped[dict[str, Any]]  # the values in force from now on
     reason: Mapped[str] = mapped_column(Text)
-    entry_by: Mapped[str] = mapped_column(String(32), ForeignKey("operator.code"))
-    supersedes_id: Mapped[int | None] = mapped_column(ForeignKey("correction.id"))
+    entry_by: Mapped[str] = mapped_column(String(32), ForeignKey("operator.code"), index=True)
+    supersedes_id: Mapped[int | None] = mapped_column(ForeignKey("correction.id"), index=True)
     # The ledger event that recorded the replaced values (None when it cannot be told).
     supersedes_event_seq: Mapped[int | None]
     event_seq: Mapped[int]  # this correction's own ledger event
-    recorded_by: Mapped[str] = mapped_column(String(32), ForeignKey("operator.code"))
+    recorded_by: Mapped[str] = mapped_column(String(32), ForeignKey("operator.code"), index=True)
     recorded_at: Mapped[datetime]

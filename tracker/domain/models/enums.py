@@ -1,4 +1,4 @@
-"""Closed vocabularies of the domain (in :mod:`tracker.domain.vocab`), and how they are stored."""
+"""Closed vocabularies of the domain, stored as their string values."""
 
 from __future__ import annotations
 
@@ -7,38 +7,97 @@ from typing import Any
 
 from sqlalchemy import Enum
 
-from tracker.domain.vocab import (
-    AliquotPurpose,
-    ContainerStatus,
-    Disposition,
-    LabelJobKind,
-    LabelStatus,
-    LoanStatus,
-    LocationKind,
-    MeasurementRole,
-    PositionKind,
-    Role,
-    ShipmentDirection,
-    SpecimenStatus,
-    TermsKind,
-)
 
-__all__ = [
-    "AliquotPurpose",
-    "ContainerStatus",
-    "Disposition",
-    "LabelJobKind",
-    "LabelStatus",
-    "LoanStatus",
-    "LocationKind",
-    "MeasurementRole",
-    "PositionKind",
-    "Role",
-    "ShipmentDirection",
-    "SpecimenStatus",
-    "TermsKind",
-    "enum_type",
-]
+class Role(StrEnum):
+    TECHNICIAN = "technician"
+    MANAGER = "manager"
+
+
+class LocationKind(StrEnum):
+    BUILDING = "building"
+    ROOM = "room"
+    CABINET = "cabinet"
+    FREEZER = "freezer"
+    SHELF = "shelf"
+    BOX = "box"
+    POSITION = "position"
+
+
+class LoanStatus(StrEnum):
+    OPEN = "open"
+    RETURNED = "returned"  # the material has gone back; obligations (reports) may remain
+    CLOSED = "closed"
+
+
+class SpecimenStatus(StrEnum):
+    EXPECTED = "expected"  # on the lender's manifest, not yet received
+    ON_HAND = "on_hand"
+    RETURNED = "returned"
+
+
+class ContainerStatus(StrEnum):
+    """State of a vial of derived material (powder, solution, aliquot, cut)."""
+
+    AVAILABLE = "available"
+    CONSUMED = "consumed"
+    RETURNED = "returned"
+    RETAINED = "retained"  # kept after the loan's return, with the lender's permission
+    DESTROYED = "destroyed"
+
+
+class Disposition(StrEnum):
+    """What a loan requires for leftover powder or solutions."""
+
+    RETURN = "return"
+    DESTROY = "destroy"
+    RETAIN = "retain"
+
+
+class TermsKind(StrEnum):
+    ORIGINAL = "original"
+    EXTENSION = "extension"
+    ALLOWANCE = "allowance"
+    SPECIMENS = "specimens"
+    OTHER = "other"
+
+
+class AliquotPurpose(StrEnum):
+    ISOTOPES = "isotopes"
+    CONCENTRATION = "concentration"
+    ARCHIVE = "archive"
+    OTHER = "other"
+
+
+class PositionKind(StrEnum):
+    SAMPLE = "sample"
+    BLANK = "blank"
+    REFERENCE = "reference"
+
+
+class MeasurementRole(StrEnum):
+    STANDARD = "standard"
+    SAMPLE = "sample"
+    REFERENCE = "reference"
+    BLANK = "blank"
+    UNMATCHED = "unmatched"
+
+
+class ShipmentDirection(StrEnum):
+    INCOMING = "incoming"
+    OUTGOING = "outgoing"
+
+
+class LabelStatus(StrEnum):
+    """Where a label is in the print queue."""
+
+    QUEUED = "queued"
+    PRINTED = "printed"
+    CANCELLED = "cancelled"
+
+
+class LabelJobKind(StrEnum):
+    PRINT = "print"  # the queue, printed
+    REPRINT = "reprint"  # named items printed again, with a reason
 
 
 def enum_type(enum: type[StrEnum]) -> Enum:

@@ -8,6 +8,7 @@ from typing import Any
 from sqlalchemy import ForeignKey, String, UniqueConstraint
 from sqlalchemy.orm import Mapped, mapped_column, relationship
 
+from tracker.domain import checks
 from tracker.domain.base import Base, HasPublicId
 from tracker.domain.ids import Kind
 from tracker.domain.models.enums import MeasurementRole, enum_type
@@ -24,7 +25,7 @@ class InstrumentSession(HasPublicId, Base):
     instrument: Mapped[str] = mapped_column(String(120))
     element: Mapped[str] = mapped_column(String(3))
     started_at: Mapped[datetime]
-    operator: Mapped[str] = mapped_column(String(32), ForeignKey("operator.code"))
+    operator: Mapped[str] = mapped_column(String(32), ForeignKey("operator.code"), index=True)
     bracketing_standard: Mapped[str] = mapped_column(String(120))
     mode: Mapped[str] = mapped_column(String(10), default="delta")  # delta or ratio
     ratio_names: Mapped[list[str]] = mapped_column(default=list)
@@ -45,7 +46,7 @@ class Measurement(Base):
     """One row of an instrument export, matched (or not) to what it measured."""
 
     __tablename__ = "measurement"
-    __table_args__ = (UniqueConstraint("session_id", "run_order"),)
+    __table_args__ = (UniqueConstraint("session_id", "run_order"), checks.count("run_order"))
 
     id: Mapped[int] = mapped_column(primary_key=True)
     session_id: Mapped[int] = mapped_column(ForeignKey("instrument_session.id"), index=True)
@@ -53,8 +54,12 @@ class Measurement(Base):
     sample_name: Mapped[str] = mapped_column(String(200))
     role: Mapped[MeasurementRole] = mapped_column(enum_type(MeasurementRole))
     cut_id: Mapped[int | None] = mapped_column(ForeignKey("cut.id"), index=True)
-    reference_material_id: Mapped[int | None] = mapped_column(ForeignKey("reference_material.id"))
-    position_id: Mapped[int | None] = mapped_column(ForeignKey("batch_position.id"))  # blanks
+    reference_material_id: Mapped[int | None] = mapped_column(
+        ForeignKey("reference_material.id"), index=True
+    )
+    position_id: Mapped[int | None] = mapped_column(
+        ForeignKey("batch_position.id"), index=True
+    )  # blanks
     ratios: Mapped[dict[str, Any]]  # {"44/40": 2.1318, ...}
     errors: Mapped[dict[str, Any]] = mapped_column(default=dict)  # internal 2SE per ratio
     excluded_reason: Mapped[str | None] = mapped_column(String(300))
@@ -71,12 +76,20 @@ class Result(Base):
     """
 
     __tablename__ = "result"
+    __table_args__ = (
+        checks.ratio_positive("delta_permil", "kind"),
+        checks.not_negative("sd_permil"),
+        checks.not_negative("two_se_permil"),
+        checks.counted_from_one("n"),
+    )
 
     id: Mapped[int] = mapped_column(primary_key=True)
     session_id: Mapped[int] = mapped_column(ForeignKey("instrument_session.id"), index=True)
     cut_id: Mapped[int | None] = mapped_column(ForeignKey("cut.id"), index=True)
-    reference_material_id: Mapped[int | None] = mapped_column(ForeignKey("reference_material.id"))
-    position_id: Mapped[int | None] = mapped_column(ForeignKey("batch_position.id"))
+    reference_material_id: Mapped[int | None] = mapped_column(
+        ForeignKey("reference_material.id"), index=True
+    )
+    position_id: Mapped[int | None] = mapped_column(ForeignKey("batch_position.id"), index=True)
     ratio: Mapped[str] = mapped_column(String(20))
     scale: Mapped[str] = mapped_column(String(120))  # the reference scale, e.g. a standard's name
     kind: Mapped[str] = mapped_column(String(10), default="delta")  # delta (‰) or ratio
@@ -119,6 +132,7 @@ class ReferenceValue(Base):
     """An accepted value of a reference material on a scale; the newest row is in force."""
 
     __tablename__ = "reference_value"
+    __table_args__ = (checks.ratio_positive("value", "kind"), checks.above_zero("two_sd"))
 
     id: Mapped[int] = mapped_column(primary_key=True)
     reference_material_id: Mapped[int] = mapped_column(
@@ -130,7 +144,7 @@ class ReferenceValue(Base):
     value: Mapped[float]
     two_sd: Mapped[float]  # tolerance: 2SD of the lab's long-term record
     source: Mapped[str] = mapped_column(String(500))
-    recorded_by: Mapped[str] = mapped_column(String(32), ForeignKey("operator.code"))
+    recorded_by: Mapped[str] = mapped_column(String(32), ForeignKey("operator.code"), index=True)
     created_at: Mapped[datetime]
 
 

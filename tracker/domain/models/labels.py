@@ -13,6 +13,7 @@ from datetime import datetime
 from sqlalchemy import ForeignKey, String, Text
 from sqlalchemy.orm import Mapped, mapped_column, relationship
 
+from tracker.domain import checks
 from tracker.domain.base import Base, HasPublicId
 from tracker.domain.ids import Kind
 from tracker.domain.models.enums import LabelJobKind, LabelStatus, enum_type
@@ -22,6 +23,11 @@ class LabelJob(HasPublicId, Base):
     """One rendered PDF: which stock, from which position, and the SHA-256 of the file."""
 
     __tablename__ = "label_job"
+    __table_args__ = (
+        checks.counted_from_one("start"),
+        checks.count("labels"),
+        checks.count("pages"),
+    )
     id_kind = Kind.PRINT_JOB
 
     id: Mapped[int] = mapped_column(primary_key=True)
@@ -33,7 +39,7 @@ class LabelJob(HasPublicId, Base):
     sha256: Mapped[str] = mapped_column(String(64))
     printer: Mapped[str | None] = mapped_column(String(120))
     reason: Mapped[str | None] = mapped_column(Text)  # reprints say why
-    operator: Mapped[str] = mapped_column(String(32), ForeignKey("operator.code"))
+    operator: Mapped[str] = mapped_column(String(32), ForeignKey("operator.code"), index=True)
     created_at: Mapped[datetime]
 
     @property
@@ -46,6 +52,7 @@ class Label(Base):
     """One label of one item, from the queue to the sheet."""
 
     __tablename__ = "label"
+    __table_args__ = (checks.counted_from_one("queued_event_seq"),)
 
     id: Mapped[int] = mapped_column(primary_key=True)
     item_ref: Mapped[str] = mapped_column(String(40), index=True)  # the item's public ID
@@ -53,7 +60,7 @@ class Label(Base):
     # The custody event that queued it, by number: the ledger is append-only and verified
     # on its own, so no foreign key ties it to this mutable table (tamper tests delete events).
     queued_event_seq: Mapped[int]
-    queued_by: Mapped[str] = mapped_column(String(32), ForeignKey("operator.code"))
+    queued_by: Mapped[str] = mapped_column(String(32), ForeignKey("operator.code"), index=True)
     queued_at: Mapped[datetime]
     job_id: Mapped[int | None] = mapped_column(ForeignKey("label_job.id"), index=True)
 

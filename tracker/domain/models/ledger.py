@@ -7,6 +7,7 @@ from datetime import datetime
 from sqlalchemy import ForeignKey, Index, String, Text, text
 from sqlalchemy.orm import Mapped, mapped_column
 
+from tracker.domain import checks
 from tracker.domain.authority import AUTHORITY_SQL, FORMAT_1
 from tracker.domain.base import Base
 
@@ -27,11 +28,12 @@ class CustodyEvent(Base):
             sqlite_where=text(AUTHORITY_SQL),
             postgresql_where=text(AUTHORITY_SQL),
         ),
+        checks.counted_from_one("seq"),
     )
 
     seq: Mapped[int] = mapped_column(primary_key=True, autoincrement=False)
     at: Mapped[datetime]
-    operator: Mapped[str] = mapped_column(String(32), ForeignKey("operator.code"))
+    operator: Mapped[str] = mapped_column(String(32), ForeignKey("operator.code"), index=True)
     action: Mapped[str] = mapped_column(String(60))
     object_ref: Mapped[str] = mapped_column(String(40))
     parent_ref: Mapped[str] = mapped_column(String(40), default="")
@@ -56,6 +58,7 @@ class EventRef(Base):
     """
 
     __tablename__ = "event_ref"
+    __table_args__ = (checks.counted_from_one("seq"),)
 
     seq: Mapped[int] = mapped_column(ForeignKey("custody_event.seq"), primary_key=True)
     ref: Mapped[str] = mapped_column(String(40), primary_key=True, index=True)
@@ -71,6 +74,7 @@ class BackdatedEntry(Base):
     """
 
     __tablename__ = "backdated_entry"
+    __table_args__ = (checks.counted_from_one("event_seq"), checks.count("window_hours"))
 
     id: Mapped[int] = mapped_column(primary_key=True)
     event_seq: Mapped[int] = mapped_column(unique=True)  # the entry's own ledger event
@@ -79,6 +83,6 @@ class BackdatedEntry(Base):
     stated_at: Mapped[datetime]
     recorded_at: Mapped[datetime]
     window_hours: Mapped[int]  # the lab's window when it was recorded
-    recorded_by: Mapped[str] = mapped_column(String(32), ForeignKey("operator.code"))
+    recorded_by: Mapped[str] = mapped_column(String(32), ForeignKey("operator.code"), index=True)
     loan_id: Mapped[int | None] = mapped_column(ForeignKey("loan.id"), index=True)
     specimen_id: Mapped[int | None] = mapped_column(ForeignKey("specimen.id"), index=True)

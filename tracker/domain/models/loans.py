@@ -3,11 +3,13 @@
 from __future__ import annotations
 
 from datetime import date, datetime
+from decimal import Decimal
 from typing import TYPE_CHECKING
 
 from sqlalchemy import ForeignKey, LargeBinary, String, Text, UniqueConstraint
 from sqlalchemy.orm import Mapped, mapped_column, relationship
 
+from tracker.domain import checks
 from tracker.domain.base import Base, HasPublicId
 from tracker.domain.ids import Kind
 from tracker.domain.models.enums import (
@@ -38,7 +40,9 @@ class Loan(HasPublicId, Base):
     received_on: Mapped[date | None]
     status: Mapped[LoanStatus] = mapped_column(enum_type(LoanStatus), default=LoanStatus.OPEN)
     returned_on: Mapped[date | None]
-    sr_curve_id: Mapped[int | None] = mapped_column(ForeignKey("sr_curve.id"))  # age screening
+    sr_curve_id: Mapped[int | None] = mapped_column(
+        ForeignKey("sr_curve.id"), index=True
+    )  # age screening
     created_at: Mapped[datetime]
 
     lender: Mapped[Lender] = relationship(back_populates="loans")
@@ -57,7 +61,13 @@ class LoanTerms(Base):
     """
 
     __tablename__ = "loan_terms"
-    __table_args__ = (UniqueConstraint("loan_id", "version"),)
+    __table_args__ = (
+        UniqueConstraint("loan_id", "version"),
+        checks.counted_from_one("version"),
+        checks.above_zero("max_mass_per_specimen_mg"),
+        checks.above_zero("max_total_mass_mg"),
+        checks.counted_from_one("max_specimens_sampled"),
+    )
 
     id: Mapped[int] = mapped_column(primary_key=True)
     loan_id: Mapped[int] = mapped_column(ForeignKey("loan.id"), index=True)
@@ -65,8 +75,8 @@ class LoanTerms(Base):
     kind: Mapped[TermsKind] = mapped_column(enum_type(TermsKind))
     effective_from: Mapped[date]
     permitted_tissues: Mapped[list[str]]
-    max_mass_per_specimen_mg: Mapped[float | None]
-    max_total_mass_mg: Mapped[float | None]
+    max_mass_per_specimen_mg: Mapped[Decimal | None]
+    max_total_mass_mg: Mapped[Decimal | None]
     max_specimens_sampled: Mapped[int | None]
     due_on: Mapped[date]
     return_specimens: Mapped[bool] = mapped_column(default=True)
@@ -75,8 +85,8 @@ class LoanTerms(Base):
     report_data: Mapped[bool] = mapped_column(default=True)
     acknowledgement: Mapped[bool] = mapped_column(default=True)
     notes: Mapped[str | None] = mapped_column(Text)
-    document_id: Mapped[int | None] = mapped_column(ForeignKey("document.id"))
-    recorded_by: Mapped[str] = mapped_column(String(32), ForeignKey("operator.code"))
+    document_id: Mapped[int | None] = mapped_column(ForeignKey("document.id"), index=True)
+    recorded_by: Mapped[str] = mapped_column(String(32), ForeignKey("operator.code"), index=True)
     recorded_at: Mapped[datetime]
 
     loan: Mapped[Loan] = relationship(back_populates="terms")
@@ -87,6 +97,7 @@ class Document(HasPublicId, Base):
     """A file kept by content: loan agreements, amendments, condition photos."""
 
     __tablename__ = "document"
+    __table_args__ = (checks.count("size_bytes"),)
     id_kind = Kind.DOCUMENT
 
     id: Mapped[int] = mapped_column(primary_key=True)
@@ -106,7 +117,7 @@ class LoanDocument(Base):
 
     id: Mapped[int] = mapped_column(primary_key=True)
     loan_id: Mapped[int] = mapped_column(ForeignKey("loan.id"), index=True)
-    document_id: Mapped[int] = mapped_column(ForeignKey("document.id"))
+    document_id: Mapped[int] = mapped_column(ForeignKey("document.id"), index=True)
     role: Mapped[str] = mapped_column(String(40))
 
     document: Mapped[Document] = relationship()
@@ -132,6 +143,11 @@ class UserMaterial(HasPublicId, Base):
     """A material the lab defines: a formula, or a measured range of one element's fraction."""
 
     __tablename__ = "user_material"
+    __table_args__ = (
+        checks.share("fraction_low"),
+        checks.share("fraction_high"),
+        checks.ordered("fraction_low", "fraction_high"),
+    )
     id_kind = Kind.MATERIAL
 
     id: Mapped[int] = mapped_column(primary_key=True)

@@ -20,5 +20,5 @@ class LabSetting(Base):
 
     key: Mapped[str] = mapped_column(String(40), primary_key=True)
     value: Mapped[str] = mapped_column(Text)
-    updated_by: Mapped[str] = mapped_column(String(32), ForeignKey("operator.code"))
+    updated_by: Mapped[str] = mapped_column(String(32), ForeignKey("operator.code"), index=True)
     updated_at: Mapped[datetime]

@@ -1,14 +1,14 @@
 """Overview: open loans, most urgent first — allowance used, due date, flags. Enter opens one.
 
 ``a`` shows all loans, returned and closed ones after the open; ``a`` again, the open ones.
-At start-up it may be drawn from the glance (read before the database is open); the
-services read it again as soon as the database is.
+At start-up it may be drawn before the database is open: it then says it is reading the
+open loans, and fills when the services have read them.
 """
 
 from __future__ import annotations
 
 from collections.abc import Sequence
-from typing import TYPE_CHECKING, ClassVar, TypeAlias
+from typing import ClassVar
 
 from rich.text import Text
 from textual import on, work
@@ -19,19 +19,13 @@ from textual.screen import Screen
 from textual.widgets import DataTable, Footer, Static
 
 from tracker.domain.errors import TrackerError
-from tracker.services.glance import Glance
-from tracker.services.loan_rules import OverviewLine
+from tracker.services.loan_lines import LoanLine
 from tracker.ui.context import database, tracker_app
 from tracker.ui.messages import Refused, refusal_text
 from tracker.ui.plain import shown
 from tracker.ui.widgets.bars import flag_cell, usage_bar
 from tracker.ui.widgets.operator_bar import OperatorBar
 
-if TYPE_CHECKING:
-    from tracker.services.loan_lines import LoanLine
-
-# A line as the overview draws it: the services' LoanLine, or the glance's OverviewLine before.
-Shown: TypeAlias = "LoanLine | OverviewLine"
 FLAGS_WIDTH = 17  # the whole table fits 80 columns; wider terminals show more of each flag
 
 
@@ -42,10 +36,9 @@ class OverviewScreen(Screen[None]):
         Binding("a", "toggle_all", "All loans", id="overview.all"),
     ]
 
-    def __init__(self, glance: Glance | None = None) -> None:
+    def __init__(self) -> None:
         super().__init__()
         self.every_loan = False  # the open loans only, until asked for every loan
-        self.glance = glance
 
     class Loaded(Message):
         def __init__(self, lines: list[LoanLine], missing: dict[str, int]) -> None:
@@ -69,8 +62,8 @@ class OverviewScreen(Screen[None]):
             ("Flags", "flags", FLAGS_WIDTH),
         ):
             table.add_column(label, key=key, width=width)
-        if self.glance is not None:
-            self._show(self.glance.lines, self.glance.missing)
+        if tracker_app(self).db is None:
+            self.query_one("#loan-hint", Static).update("reading the open loans …")
         self.action_refresh()
 
     def on_screen_resume(self) -> None:
@@ -103,7 +96,7 @@ class OverviewScreen(Screen[None]):
     def on_overview_screen_loaded(self, event: Loaded) -> None:
         self._show(event.lines, event.missing)
 
-    def _show(self, lines: Sequence[Shown], missing: dict[str, int]) -> None:
+    def _show(self, lines: Sequence[LoanLine], missing: dict[str, int]) -> None:
         table = self.query_one("#loans", DataTable)
         keep = table.cursor_row
         table.clear()

@@ -1,0 +1,257 @@
+"""Read figures: reconcile every loan, look up scanned IDs, show a specimen's lineage.
+
+Floors run hand-written SQL on the driver's own connection (``sqlite3`` or psycopg), with
+no ORM, no models and no rules, and fetch the same numbers or rows the service works from.
+"""
+
+from __future__ import annotations
+
+import math
+import random
+from functools import partial
+from typing import Any
+
+from benchmarks.measure import Figure, Target, best_of, median, percentile, timed
+from tracker.db.database import Database
+from tracker.domain.ids import Kind, format_id
+from tracker.services import labels, lineage, reconcile
+
+# One hand-written statement computing what reconcile reports per specimen: drilled mass and
+# its variance, dissolved, on hand, returned, and how many powders and solutions fail to
+# close. Closure as in tracker.services.reconcile: a gap counts when gap² exceeds both
+# (k·u)² with k = 2 and the balances' rounding bound², with 1e-9 relative slack for float
+# noise; √6 = 2.449489742783178 scales a sum of standard uncertainties to a rounding bound.
+RECONCILE_SQL = """
+WITH taken AS (
+  SELECT solution_id, SUM(mass_g) AS mass, SUM(mass_u_g * mass_u_g) AS var,
+         SUM(mass_u_g) AS u_sum
+  FROM aliquot GROUP BY solution_id),
+sol AS (
+  SELECT so.powder_id, so.status, so.residual_g,
+         so.solution_mass_g - COALESCE(t.mass, 0) - COALESCE(so.residual_g, 0) AS gap,
+         so.solution_mass_u_g * so.solution_mass_u_g + COALESCE(t.var, 0)
+           + COALESCE(so.residual_u_g * so.residual_u_g, 0) AS var,
+         2.449489742783178 * (so.solution_mass_u_g + COALESCE(t.u_sum, 0)
+           + COALESCE(so.residual_u_g, 0)) AS bound,
+         so.powder_mass_mg, so.powder_mass_u_mg
+  FROM solution so LEFT JOIN taken t ON t.solution_id = so.id),
+books AS (
+  SELECT powder_id, SUM(powder_mass_mg) AS dissolved,
+         SUM(powder_mass_u_mg * powder_mass_u_mg) AS var, SUM(powder_mass_u_mg) AS u_sum,
+         SUM(CASE WHEN status <> 'available' AND gap * gap > 4 * var * (1 + 1e-9) + 1e-18
+             AND gap * gap > bound * bound * (1 + 1e-9) + 1e-18 THEN 1 ELSE 0 END) AS gaps
+  FROM sol GROUP BY powder_id),
+pw AS (
+  SELECT p.specimen_id, p.status, p.mass_mg, p.mass_u_mg, p.residual_mg, p.override_reason,
+         COALESCE(b.dissolved, 0) AS dissolved, COALESCE(b.gaps, 0) AS gaps,
+         p.mass_mg - COALESCE(b.dissolved, 0) - COALESCE(p.residual_mg, 0) AS gap,
+         p.mass_u_mg * p.mass_u_mg + COALESCE(b.var, 0)
+           + COALESCE(p.residual_u_mg * p.residual_u_mg, 0) AS var,
+         p.readability_mg + 2.449489742783178 * COALESCE(b.u_sum, 0)
+           + 2.449489742783178 * COALESCE(p.residual_u_mg, 0) AS bound
+  FROM powder p LEFT JOIN books b ON b.powder_id = p.id),
+per_specimen AS (
+  SELECT specimen_id, COUNT(*) AS powders, SUM(mass_mg) AS drilled,
+         SUM(mass_u_mg * mass_u_mg) AS variance, SUM(dissolved) AS dissolved,
+         SUM(CASE WHEN status = 'available' THEN mass_mg - dissolved ELSE 0 END) AS on_hand,
+         SUM(CASE WHEN status = 'returned' THEN COALESCE(residual_mg, gap) ELSE 0 END)
+           AS returned,
+         SUM(gaps + CASE WHEN status <> 'available'
+             AND gap * gap > 4 * var * (1 + 1e-9) + 1e-18
+             AND gap * gap > bound * bound * (1 + 1e-9) + 1e-18 THEN 1 ELSE 0 END) AS open_books,
+         SUM(CASE WHEN override_reason IS NOT NULL THEN 1 ELSE 0 END) AS overrides
+  FROM pw GROUP BY specimen_id)
+SELECT s.loan_id, s.id, s.catalog_number, s.status, l.reference,
+       COALESCE(ps.powders, 0), COALESCE(ps.drilled, 0), COALESCE(ps.variance, 0),
+       COALESCE(ps.dissolved, 0), COALESCE(ps.on_hand, 0), COALESCE(ps.returned, 0),
+       COALESCE(ps.open_books, 0), COALESCE(ps.overrides, 0)
+FROM specimen s JOIN loan l ON l.id = s.loan_id
+LEFT JOIN per_specimen ps ON ps.specimen_id = s.id
+ORDER BY s.loan_id, s.id
+"""
+
+
+def raw_rows(db: Database, sql: str, params: tuple[Any, ...] = ()) -> list[Any]:
+    """Rows from the driver's own cursor (sqlite3 or psycopg), bypassing SQLAlchemy."""
+    connection = db.engine.raw_connection()
+    try:
+        cursor = connection.cursor()
+        cursor.execute(sql.replace("?", "%s") if db.backend == "postgresql" else sql, params)
+        rows = list(cursor.fetchall())
+        cursor.close()
+        return rows
+    finally:
+        connection.close()
+
+
+def reconcile_figure(db: Database, repeat: int, key: str = "reconcile") -> Figure:
+    kept: dict[str, Any] = {}
+
+    def measured() -> float:
+        return timed(lambda: kept.update(lines=reconcile.reconcile(db)))
+
+    def floor() -> float:
+        return timed(lambda: kept.update(rows=raw_rows(db, RECONCILE_SQL)))
+
+    took, bare = best_of(repeat, measured, floor)
+    lines: list[reconcile.LoanLine] = kept["lines"]
+    floor_name = "one hand-written SQL aggregate: the same sums and closure tests"
+    target = Target(most=0.5, ratio_most=2.0)
+    title = f"reconcile all {len(lines)} loans"
+    figure = Figure(key, title, "s", took, bare, floor_name, target)
+    _cross_check(figure, lines, kept["rows"])
+    return figure
+
+
+def _cross_check(figure: Figure, lines: list[reconcile.LoanLine], rows: list[Any]) -> None:
+    """The floor must have computed the same thing: per specimen the drilled mass, and
+    which specimens have books that do not close (unaccounted material or a missing
+    weighing) or an override."""
+    ours = {s.id: s for line in lines for s in line.specimen_lines}
+    disagree = []
+    for row in rows:
+        mine = ours.get(format_id(Kind.SPECIMEN, row[1]))
+        open_books = (
+            bool({"unaccounted material", "missing weighing"} & set(mine.flags)) if mine else None
+        )
+        if (
+            mine is None
+            or not math.isclose(mine.drilled_mg, float(row[6]), rel_tol=1e-9, abs_tol=1e-12)
+            or open_books != bool(row[11])
+            or ("override used" in mine.flags) != bool(row[12])
+        ):
+            disagree.append(row[2])
+    if disagree or len(rows) != len(ours):
+        figure.problems.append(
+            f"floor disagrees on {len(disagree)} specimens (e.g. {disagree[:3]}); "
+            f"{len(rows)} rows vs {len(ours)} lines"
+        )
+    drilled = sum(line.drilled_mg for line in lines)
+    flagged = sum(bool(row[11]) for row in rows)
+    figure.notes.append(
+        f"{len(rows)} specimens, {drilled:.1f} mg drilled in all, {flagged} with open books"
+    )
+
+
+_SCANNED_KINDS = {
+    Kind.SPECIMEN: "specimen",
+    Kind.POWDER: "powder",
+    Kind.SOLUTION: "solution",
+    Kind.ALIQUOT: "aliquot",
+    Kind.CUT: "cut",
+}
+
+
+def sample_ids(db: Database, count: int, seed: int = 7) -> list[tuple[Kind, int]]:
+    """Random labelled items across the kinds a scanner meets at the bench."""
+    rng = random.Random(seed)
+    tops = {
+        kind: int(raw_rows(db, f"SELECT MAX(id) FROM {table}")[0][0] or 0)
+        for kind, table in _SCANNED_KINDS.items()
+    }
+    kinds = [kind for kind, top in tops.items() if top]
+    return [
+        (kind, rng.randint(1, tops[kind])) for kind in (rng.choice(kinds) for _ in range(count))
+    ]
+
+
+def scanned(kind: Kind, number: int, variant: int) -> str:
+    """The ID as a scanner or a person might type it: as printed, lower case, no hyphens."""
+    text = format_id(kind, number)
+    return [text, text.lower(), text.replace("-", "")][variant % 3]
+
+
+def lookup_figure(db: Database, count: int = 1000, warm: int = 20) -> Figure:
+    picks = sample_ids(db, count + warm)
+    for kind, number in picks[:warm]:
+        labels.read_scan(db, format_id(kind, number))
+    took: list[float] = []
+    bare: list[float] = []
+    for n, (kind, number) in enumerate(picks[warm:]):
+        text = scanned(kind, number, n)
+        took.append(timed(partial(labels.read_scan, db, text)))
+        sql = f"SELECT * FROM {_SCANNED_KINDS[kind]} WHERE id = ?"
+        bare.append(timed(partial(raw_rows, db, sql, (number,))))
+    figure = Figure(
+        "lookup",
+        f"scanned-ID lookup, p99 of {count}",
+        "ms",
+        percentile(took, 0.99) * 1000,
+        percentile(bare, 0.99) * 1000,
+        "the row by primary key, raw driver",
+        Target(most=5.0),
+    )
+    figure.notes.append(f"p50 {median(took) * 1000:.2f} ms (floor {median(bare) * 1000:.2f} ms)")
+    return figure
+
+
+def showcase_specimen(db: Database) -> tuple[str, int]:
+    """The first specimen with 50 descendants (powders, solutions, aliquots, columns, cuts)."""
+    rows = raw_rows(
+        db,
+        """
+        SELECT p.specimen_id, COUNT(DISTINCT p.id) + COUNT(DISTINCT so.id)
+               + COUNT(DISTINCT a.id) + COUNT(DISTINCT bp.id) + COUNT(DISTINCT c.id)
+        FROM powder p LEFT JOIN solution so ON so.powder_id = p.id
+        LEFT JOIN aliquot a ON a.solution_id = so.id
+        LEFT JOIN batch_position bp ON bp.aliquot_id = a.id
+        LEFT JOIN cut c ON c.position_id = bp.id
+        WHERE p.specimen_id IN (SELECT specimen_id FROM powder GROUP BY specimen_id
+                                HAVING COUNT(*) >= 4)
+        GROUP BY p.specimen_id ORDER BY p.specimen_id""",
+    )
+    for specimen, count in rows:
+        if count == 50:
+            return format_id(Kind.SPECIMEN, specimen), count
+    best = max(rows, key=lambda r: r[1]) if rows else (1, 0)
+    return format_id(Kind.SPECIMEN, best[0]), int(best[1])
+
+
+def _descendants(node: lineage.Node) -> int:
+    return sum(1 + _descendants(child) for child in node.children)
+
+
+_LINEAGE_FLOOR = [
+    "SELECT * FROM specimen WHERE id = ?",
+    "SELECT * FROM powder WHERE specimen_id = ?",
+    "SELECT so.* FROM solution so JOIN powder p ON p.id = so.powder_id WHERE p.specimen_id = ?",
+    "SELECT c.* FROM concentration c JOIN solution so ON so.id = c.solution_id "
+    "JOIN powder p ON p.id = so.powder_id WHERE p.specimen_id = ?",
+    "SELECT a.* FROM aliquot a JOIN solution so ON so.id = a.solution_id "
+    "JOIN powder p ON p.id = so.powder_id WHERE p.specimen_id = ?",
+    "SELECT bp.*, c.* FROM batch_position bp JOIN cut c ON c.position_id = bp.id "
+    "JOIN aliquot a ON a.id = bp.aliquot_id JOIN solution so ON so.id = a.solution_id "
+    "JOIN powder p ON p.id = so.powder_id WHERE p.specimen_id = ?",
+]
+
+
+def lineage_figure(db: Database, runs: int = 20) -> Figure:
+    ref, count = showcase_specimen(db)
+    number = int(ref.split("-")[1])
+    shown = lineage.show_item(db, ref)
+
+    def floor() -> None:
+        for sql in _LINEAGE_FLOOR:
+            raw_rows(db, sql, (number,))
+        raw_rows(
+            db,
+            "SELECT * FROM custody_event WHERE object_ref = ? OR parent_ref = ? ORDER BY seq",
+            (ref, ref),
+        )
+
+    took = [timed(lambda: lineage.show_item(db, ref)) for _ in range(runs)]
+    bare = [timed(floor) for _ in range(runs)]
+    figure = Figure(
+        "lineage",
+        f"lineage of a specimen with {count} descendants (median)",
+        "ms",
+        median(took) * 1000,
+        median(bare) * 1000,
+        "its rows level by level and its history, raw driver",
+        Target(most=50.0),
+    )
+    found = _descendants(shown.item)
+    if found != count:
+        figure.problems.append(f"the tree shows {found} descendants, the SQL counts {count}")
+    figure.notes.append(f"{ref}: {found} descendants, {len(shown.history)} events in its history")
+    return figure
