@@ -28,21 +28,11 @@ from tracker.db.database import open_database
 from tracker.domain.ids import Kind, format_id
 from tracker.io.demo import StepClock
 from tracker.services import loans, manifests
+from tracker.services.manifest_check import OWN_FIELDS, TERM_FIELDS
 
 ROWS = 20_000
-COLUMNS = {  # Darwin Core term -> specimen column (TDWG terms, as tracker reads them)
-    "catalogNumber": "catalog_number",
-    "institutionCode": "institution_code",
-    "collectionCode": "collection_code",
-    "scientificName": "scientific_name",
-    "preparations": "skeletal_element",
-    "locality": "locality",
-    "formation": "formation",
-    "earliestEpochOrLowestSeries": "earliest_epoch",
-    "latestEpochOrHighestSeries": "latest_epoch",
-    "ageMinMa": "age_min_ma",
-    "ageMaxMa": "age_max_ma",
-}
+# Darwin Core term -> specimen column, as tracker reads them (the floor writes the same)
+COLUMNS = {**TERM_FIELDS, **OWN_FIELDS}
 EXTRA = "fieldNumber"  # another Darwin Core term: kept with the specimen as an extra
 
 

@@ -23,26 +23,10 @@ from tracker.domain.authority import AUTHORITY_SQL, Authority
 from tracker.domain.errors import InputError, RuleViolation
 from tracker.domain.ledger import Origin, replay_authority
 from tracker.domain.models import CustodyEvent
+from tracker.domain.models.ledger import LEDGER_COLUMNS
 from tracker.domain.signing import Signer
 
 _MEMO = "authority"
-_EVENT_COLUMNS = (
-    CustodyEvent.seq,
-    CustodyEvent.at,
-    CustodyEvent.operator,
-    CustodyEvent.action,
-    CustodyEvent.object_ref,
-    CustodyEvent.parent_ref,
-    CustodyEvent.payload,
-    CustodyEvent.prev_hash,
-    CustodyEvent.hash,
-    CustodyEvent.format,
-    CustodyEvent.os_user,
-    CustodyEvent.host,
-    CustodyEvent.db_user,
-    CustodyEvent.key_id,
-    CustodyEvent.signature,
-)
 
 
 def current(session: Session, db: Database) -> Authority:
@@ -56,7 +40,7 @@ def current(session: Session, db: Database) -> Authority:
     kept: tuple[tuple[Any, ...], Authority] | None = db.memo.get(_MEMO)
     if kept is not None and kept[0] == marker:
         return kept[1]
-    rows = session.execute(select(*_EVENT_COLUMNS).where(where).order_by(CustodyEvent.seq))
+    rows = session.execute(select(*LEDGER_COLUMNS).where(where).order_by(CustodyEvent.seq))
     authority = replay_authority(tuple(row) for row in rows)
     db.memo[_MEMO] = (marker, authority)
     return authority
@@ -67,7 +51,7 @@ def upto(db: Database, seq: int) -> Authority:
     where = text(AUTHORITY_SQL)
     with db.read_session() as session:
         rows = session.execute(
-            select(*_EVENT_COLUMNS).where(where, CustodyEvent.seq <= seq).order_by(CustodyEvent.seq)
+            select(*LEDGER_COLUMNS).where(where, CustodyEvent.seq <= seq).order_by(CustodyEvent.seq)
         )
         return replay_authority(tuple(row) for row in rows)
 

@@ -51,27 +51,11 @@ from tracker.domain.ledger import (
     verify_tuples,
 )
 from tracker.domain.models import CustodyEvent
+from tracker.domain.models.ledger import LEDGER_COLUMNS
 from tracker.domain.text_rules import json_visible
 from tracker.services import authority as signing
 from tracker.services.views import EventView
 
-_COLUMNS = (
-    CustodyEvent.seq,
-    CustodyEvent.at,
-    CustodyEvent.operator,
-    CustodyEvent.action,
-    CustodyEvent.object_ref,
-    CustodyEvent.parent_ref,
-    CustodyEvent.payload,
-    CustodyEvent.prev_hash,
-    CustodyEvent.hash,
-    CustodyEvent.format,
-    CustodyEvent.os_user,
-    CustodyEvent.host,
-    CustodyEvent.db_user,
-    CustodyEvent.key_id,
-    CustodyEvent.signature,
-)
 BATCH = 5000
 
 
@@ -102,7 +86,7 @@ def event_batches(connection: Connection) -> Iterator[list[LedgerTuple]]:
     (a server-side cursor on PostgreSQL): verifying a decade's ledger is a million rows,
     and wrapping each in a result row would cost more than hashing it.
     """
-    columns = (CustodyEvent.seq, stamp_column(connection.dialect.name), *_COLUMNS[2:])
+    columns = (CustodyEvent.seq, stamp_column(connection.dialect.name), *LEDGER_COLUMNS[2:])
     statement = select(*columns).order_by(CustodyEvent.seq)
     yield from stream.batches(connection, statement, "tracker_ledger_walk", BATCH)
 

@@ -49,6 +49,27 @@ class CustodyEvent(Base):
     signature: Mapped[str | None] = mapped_column(String(128))  # Ed25519 over the hash
 
 
+# Every stored column of an event, in the order of a ledger tuple
+# (:data:`tracker.domain.ledger.LedgerTuple`): what verifying and replaying read.
+LEDGER_COLUMNS = (
+    CustodyEvent.seq,
+    CustodyEvent.at,
+    CustodyEvent.operator,
+    CustodyEvent.action,
+    CustodyEvent.object_ref,
+    CustodyEvent.parent_ref,
+    CustodyEvent.payload,
+    CustodyEvent.prev_hash,
+    CustodyEvent.hash,
+    CustodyEvent.format,
+    CustodyEvent.os_user,
+    CustodyEvent.host,
+    CustodyEvent.db_user,
+    CustodyEvent.key_id,
+    CustodyEvent.signature,
+)
+
+
 class EventRef(Base):
     """Every further item an event concerns, beyond its object and parent (derived index).
 
