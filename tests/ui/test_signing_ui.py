@@ -23,8 +23,12 @@ TOMAS = demo_signer("tomas").key_id
 
 
 def _asking(app: App[None]) -> bool:
-    """The passphrase screen is on top and composed (pushed is not yet drawn)."""
-    return isinstance(app.screen, PassphraseScreen) and bool(app.screen.query("#passphrase"))
+    """The passphrase screen is on top, composed (pushed is not yet drawn) and its field has
+    the focus, so what a person types and Enter go to it."""
+    if not isinstance(app.screen, PassphraseScreen):
+        return False
+    fields = app.screen.query("#passphrase")
+    return bool(fields) and app.focused is fields.first()
 
 
 async def test_the_passphrase_is_asked_once_and_again_after_the_idle_time(lab: Lab) -> None:
