@@ -13,7 +13,6 @@ from __future__ import annotations
 
 import json
 import sys
-import time
 from collections.abc import Callable
 from typing import Any
 
@@ -182,15 +181,12 @@ def tracker_audit(target: str) -> dict[str, object]:
 
 
 def main(argv: list[str]) -> int:
-    from benchmarks.probe import peak_mb
+    from benchmarks.children import print_timed
 
     what, target = argv[1], argv[2]
-    started = time.perf_counter()
-    answer = bare_audit(target) if what == "audit-floor" else tracker_audit(target)
-    answer["seconds"] = time.perf_counter() - started
-    answer["peak_mb"] = peak_mb()
-    print(json.dumps(answer), flush=True)
-    return 0
+    return print_timed(
+        lambda: bare_audit(target) if what == "audit-floor" else tracker_audit(target)
+    )
 
 
 if __name__ == "__main__":

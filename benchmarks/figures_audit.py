@@ -3,9 +3,6 @@ memory, each in a fresh process beside a floor that computes the same answer by 
 
 from __future__ import annotations
 
-import json
-import subprocess
-import tempfile
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -28,19 +25,7 @@ class AuditRun:
 
 def run_child(what: str, path: Path) -> AuditRun:
     """``python -m benchmarks.audit_probe WHAT PATH``: its answer and peak memory."""
-    with tempfile.TemporaryFile() as errors:
-        process = subprocess.run(
-            children.command("audit_probe", what, str(path)),
-            env=children.environment(),
-            stdout=subprocess.PIPE,
-            stderr=errors,
-            check=False,
-        )
-        if process.returncode:
-            errors.seek(0)
-            last = errors.read().decode("utf-8", "replace").strip().splitlines()[-1:]
-            raise RuntimeError(f"audit probe {what} failed: {last}")
-    answer = json.loads(process.stdout.decode("utf-8").strip().splitlines()[-1])
+    answer = children.probe_answer("audit_probe", what, str(path))
     return AuditRun(
         answer["seconds"],
         answer["peak_mb"],

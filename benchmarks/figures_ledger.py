@@ -8,9 +8,6 @@ other's caches, and so the operating system can say how much memory each needed 
 
 from __future__ import annotations
 
-import json
-import subprocess
-import tempfile
 from dataclasses import dataclass
 from pathlib import Path
 from time import perf_counter
@@ -33,19 +30,7 @@ class ChildRun:
 
 def run_child(*args: str) -> ChildRun:
     """Run ``python -m benchmarks.probe ARGS``; its answer, with the peak memory it saw."""
-    with tempfile.TemporaryFile() as errors:
-        process = subprocess.run(
-            children.command("probe", *args),
-            env=children.environment(),
-            stdout=subprocess.PIPE,
-            stderr=errors,
-            check=False,
-        )
-        if process.returncode:
-            errors.seek(0)
-            last = errors.read().decode("utf-8", "replace").strip().splitlines()[-1:]
-            raise RuntimeError(f"probe {args[0]} failed: {last}")
-    answer = json.loads(process.stdout.decode("utf-8").strip().splitlines()[-1])
+    answer = children.probe_answer("probe", *args)
     return ChildRun(
         answer["seconds"], answer["peak_mb"], answer["events"], answer["ok"], answer["head"]
     )

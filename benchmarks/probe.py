@@ -12,7 +12,6 @@ from __future__ import annotations
 
 import json
 import sys
-import time
 from collections.abc import Iterator
 from typing import Any
 
@@ -42,7 +41,6 @@ class BareChain:
     def events(self, connection: Any) -> Iterator[tuple[str, str]]:
         """Each intact event's action and payload, in order."""
         import hashlib
-        import json
 
         from cryptography.exceptions import InvalidSignature
         from cryptography.hazmat.primitives.asymmetric.ed25519 import Ed25519PublicKey
@@ -115,13 +113,12 @@ def peak_mb() -> float:
 
 
 def main(argv: list[str]) -> int:
+    from benchmarks.children import print_timed
+
     what, target = argv[1], argv[2]
-    started = time.perf_counter()
-    answer = bare_verify(target) if what == "verify-floor" else tracker_verify(target)
-    answer["seconds"] = time.perf_counter() - started
-    answer["peak_mb"] = peak_mb()
-    print(json.dumps(answer), flush=True)
-    return 0
+    return print_timed(
+        lambda: bare_verify(target) if what == "verify-floor" else tracker_verify(target)
+    )
 
 
 if __name__ == "__main__":
