@@ -166,7 +166,7 @@ def bare_audit(path: str) -> dict[str, object]:
 
 def tracker_audit(target: str) -> dict[str, object]:
     from tracker.db.database import open_database
-    from tracker.services import audit
+    from tracker.services.ledger import audit
 
     db = open_database(target, upgrade=False)
     try:

@@ -25,11 +25,11 @@ from benchmarks.bulk_writer import BulkWriter
 from benchmarks.plan import Step
 from benchmarks.replay import call_service, check_made, made_id
 from tracker.db.database import Database
+from tracker.demo import StepClock
 from tracker.domain.base import Base
 from tracker.domain.signing import Signer
 from tracker.domain.timeutil import as_utc
-from tracker.io.demo import StepClock
-from tracker.services import authority as signing
+from tracker.services.core import authority as signing
 
 HANDLERS = {**MATERIAL, **LAB}
 FLUSH_ROWS = 50_000

@@ -1,15 +1,15 @@
 """One bulk step's context: who, when, and the ledger append exactly as the services make it.
 
-:meth:`Ctx.record` is :meth:`tracker.services.uow.UnitOfWork.record` without a database
+:meth:`Ctx.record` is :meth:`tracker.services.core.uow.UnitOfWork.record` without a database
 round trip: the next sequence number and the previous hash come from memory, the rows the
 step made (:meth:`Ctx.new`) and changed (:meth:`Ctx.changed`, the columns told by each
 row's own attribute history, as a flush tells the services) become the payload's facts
 through the domain's own :class:`~tracker.domain.facts.Written`, and the event row is the
-unit of work's own :func:`~tracker.services.uow.sealed_event` (canonical JSON, hash, the
+unit of work's own :func:`~tracker.services.core.uow.sealed_event` (canonical JSON, hash, the
 signature of the operator's key chosen by the services' ``signer_for``), its mentions
-:func:`~tracker.services.uow.mention_rows`, so the chain is the one the services would have
+:func:`~tracker.services.core.uow.mention_rows`, so the chain is the one the services would have
 written. A bench action's queued label is ``queue_label``'s own row
-(:func:`~tracker.services.label_queue.label_row`), naming the same event, among its facts.
+(:func:`~tracker.services.core.label_queue.label_row`), naming the same event, among its facts.
 """
 
 from __future__ import annotations
@@ -43,8 +43,8 @@ from tracker.domain.timing import (
     not_before,
     stated_time,
 )
-from tracker.services.label_queue import label_row
-from tracker.services.uow import mention_rows, sealed_event
+from tracker.services.core.label_queue import label_row
+from tracker.services.core.uow import mention_rows, sealed_event
 
 T = TypeVar("T", bound=Base)
 

@@ -22,17 +22,15 @@ from tracker.domain.models import (
     ReferenceMaterial,
     Solution,
 )
-from tracker.services.chemistry import (
+from tracker.services.bench.chemistry import (
     AddPosition,
     NewBatch,
     batch_payload,
     opened_batch,
     position_payload,
 )
-from tracker.services.columns import RecordCut, check_cut, cut_payload, cut_row
-from tracker.services.common import weigh
-from tracker.services.inputs import parse
-from tracker.services.lab import (
+from tracker.services.bench.columns import RecordCut, check_cut, cut_payload, cut_row
+from tracker.services.bench.solutions import (
     Dissolve,
     RecordConcentration,
     TakeAliquot,
@@ -49,6 +47,8 @@ from tracker.services.lab import (
     require_aliquot_fits,
     taken_aliquot,
 )
+from tracker.services.core.common import weigh
+from tracker.services.core.inputs import parse
 
 QUEUED = LabelStatus.QUEUED.value  # what a bench action's payload says of its new label
 

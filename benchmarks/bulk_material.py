@@ -30,14 +30,7 @@ from tracker.domain.models import (
     SpecimenStatus,
 )
 from tracker.domain.terms import terms_in_force
-from tracker.services.common import (
-    checked_in,
-    loan_began,
-    require_on_hand,
-    returned_after,
-    weigh,
-)
-from tracker.services.custody import (
+from tracker.services.bench.custody import (
     Dispose,
     Move,
     disposed_payload,
@@ -46,15 +39,22 @@ from tracker.services.custody import (
     require_here,
     residual_weighing,
 )
-from tracker.services.drilling import (
+from tracker.services.bench.drilling import (
     Drill,
     drilled_payload,
     drilled_powder,
     limits_of,
     recorded_on,
 )
-from tracker.services.inputs import parse
-from tracker.services.specimens import (
+from tracker.services.core.common import (
+    checked_in,
+    loan_began,
+    require_on_hand,
+    returned_after,
+    weigh,
+)
+from tracker.services.core.inputs import parse
+from tracker.services.loans.specimens import (
     CheckIn,
     NewSpecimen,
     ReturnSpecimen,

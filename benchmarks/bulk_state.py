@@ -37,11 +37,11 @@ from tracker.domain.models import (
     Specimen,
     TermsKind,
 )
-from tracker.services.chemistry import NewReferenceMaterial
-from tracker.services.inputs import parse
-from tracker.services.loans import NewLoan, terms_row
-from tracker.services.lookup import read_id
-from tracker.services.setup import NewLocation, NewOperator
+from tracker.services.admin.setup import NewLocation, NewOperator
+from tracker.services.bench.chemistry import NewReferenceMaterial
+from tracker.services.core.inputs import parse
+from tracker.services.core.lookup import read_id
+from tracker.services.loans.lending import NewLoan, terms_row
 
 T = TypeVar("T", bound=Base)
 ID_KIND: dict[type[Base], Kind] = {

@@ -16,7 +16,7 @@ from tracker.output import qr
 from tracker.output.layout import lay_out
 from tracker.output.pdf import render_pdf
 from tracker.output.stocks import load_stock
-from tracker.services import labels
+from tracker.services.labels import handling
 
 COUNT = 1000
 STOCK = "a4-65"
@@ -30,14 +30,14 @@ def labels_figure(db: Database, repeat: int) -> Figure:
 
     def measured() -> float:
         def run() -> None:
-            facts = labels.facts_for(db, items)
+            facts = handling.facts_for(db, items)
             pages = lay_out(stock, facts)
             kept["pdf"] = render_pdf(stock, pages, "tracker labels, benchmark")
             kept["facts"] = facts
 
         return timed(run)
 
-    payloads = [f.payload for f in labels.facts_for(db, items)]
+    payloads = [f.payload for f in handling.facts_for(db, items)]
 
     def floor() -> float:
         return timed(lambda: [qr.encode(p, stock.error_correction) for p in payloads])

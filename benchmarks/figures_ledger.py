@@ -85,7 +85,7 @@ def signing_figure(db: Database, repeat: int) -> Figure:
 
     from benchmarks.plan import TECHNICIANS, bench_signer
     from tracker.domain.ledger import CURRENT_FORMAT, GENESIS_HASH, canonical_bytes, seal
-    from tracker.services import authority as signing
+    from tracker.services.core import authority as signing
 
     code, at = TECHNICIANS[0], db.clock()
     payload = '{"mass_mg":2.15,"specimen":"SP-00001-W","tissue":"enamel"}'

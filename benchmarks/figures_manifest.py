@@ -25,10 +25,10 @@ from benchmarks.measure import Figure, Target, settle_writes, timed
 from benchmarks.plan import FOUNDER, bench_keyring
 from benchmarks.shape import END
 from tracker.db.database import open_database
+from tracker.demo import StepClock
 from tracker.domain.ids import Kind, format_id
-from tracker.io.demo import StepClock
-from tracker.services import loans, manifests
-from tracker.services.manifest_check import OWN_FIELDS, TERM_FIELDS
+from tracker.services.loans import lending, manifests
+from tracker.services.loans.manifest_rows import OWN_FIELDS, TERM_FIELDS
 
 ROWS = 20_000
 # Darwin Core term -> specimen column, as tracker reads them (the floor writes the same)
@@ -137,7 +137,7 @@ def manifest_figure(cached: Path, workdir: Path, repeat: int) -> Figure:
 
 def _new_loan(db: Any, reference: str) -> int:
     terms = {"permitted_tissues": "enamel", "due_on": "2030-01-01"}
-    done = loans.add_loan(
+    done = lending.add_loan(
         db,
         FOUNDER["code"],
         {

@@ -26,9 +26,9 @@ from benchmarks.pg_clients import drills, floor
 from benchmarks.plan import bench_keyring
 from benchmarks.shape import END
 from tracker.db.database import Database, open_database
+from tracker.demo import StepClock
 from tracker.domain.errors import InputError
 from tracker.domain.ids import Kind, format_id
-from tracker.io.demo import StepClock
 
 CLIENTS = 8
 DRILLS_PER_CLIENT = 40

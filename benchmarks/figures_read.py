@@ -14,11 +14,12 @@ from typing import Any
 from benchmarks.measure import Figure, Target, best_of, median, percentile, timed
 from tracker.db.database import Database
 from tracker.domain.ids import Kind, format_id
-from tracker.services import labels, lineage, reconcile
+from tracker.services.labels import handling
+from tracker.services.read import lineage, reconcile
 
 # One hand-written statement computing what reconcile reports per specimen: drilled mass and
 # its variance, dissolved, on hand, returned, and how many powders and solutions fail to
-# close. Closure as in tracker.services.reconcile: a gap counts when gap² exceeds both
+# close. Closure as in tracker.services.read.reconcile: a gap counts when gap² exceeds both
 # (k·u)² with k = 2 and the balances' rounding bound², with 1e-9 relative slack for float
 # noise; √6 = 2.449489742783178 scales a sum of standard uncertainties to a rounding bound.
 RECONCILE_SQL = """
@@ -164,12 +165,12 @@ def scanned(kind: Kind, number: int, variant: int) -> str:
 def lookup_figure(db: Database, count: int = 1000, warm: int = 20) -> Figure:
     picks = sample_ids(db, count + warm)
     for kind, number in picks[:warm]:
-        labels.read_scan(db, format_id(kind, number))
+        handling.read_scan(db, format_id(kind, number))
     took: list[float] = []
     bare: list[float] = []
     for n, (kind, number) in enumerate(picks[warm:]):
         text = scanned(kind, number, n)
-        took.append(timed(partial(labels.read_scan, db, text)))
+        took.append(timed(partial(handling.read_scan, db, text)))
         sql = f"SELECT * FROM {_SCANNED_KINDS[kind]} WHERE id = ?"
         bare.append(timed(partial(raw_rows, db, sql, (number,))))
     figure = Figure(

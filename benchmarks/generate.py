@@ -26,8 +26,8 @@ from benchmarks.replay import new_database, run_services
 from benchmarks.shape import GENERATOR_VERSION, SEED, START, Shape, shape_for
 from tracker.db import migrate
 from tracker.db.database import Database
+from tracker.demo import StepClock
 from tracker.domain.models import CustodyEvent
-from tracker.io.demo import StepClock
 
 Executor = Literal["bulk", "services"]
 Progress = Callable[[int], None]  # steps done so far

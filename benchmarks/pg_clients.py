@@ -22,8 +22,8 @@ def drills(url: str, work: list[tuple[str, str]], who: int, start: Any, out: Any
     """Drill each (specimen, tissue) once; put (started, finished, count) on ``out``."""
     from benchmarks.plan import bench_keyring
     from tracker.db.database import open_database
-    from tracker.io.demo import StepClock
-    from tracker.services import drilling
+    from tracker.demo import StepClock
+    from tracker.services.bench import drilling
 
     db = open_database(url, clock=StepClock(END), upgrade=False)
     db.keyring = bench_keyring()  # the synthetic operators sign

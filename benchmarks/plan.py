@@ -1,6 +1,6 @@
 """The plan: a deterministic stream of service requests that builds a synthetic lab.
 
-Every step names a service action (the keys of :data:`tracker.io.demo.SERVICES`), who does
+Every step names a service action (the keys of :data:`tracker.demo.SERVICES`), who does
 it, when, the raw request a person would type, and — when it makes something — the public
 ID it will get. Both executors (the services one call per action, and the bulk executor)
 consume the same stream, so their databases can be compared row for row.

@@ -87,11 +87,11 @@ class BareChain:
 
 def tracker_verify(target: str) -> dict[str, object]:
     from tracker.db.database import open_database
-    from tracker.services import ledger
+    from tracker.services.ledger import chain
 
     db = open_database(target, upgrade=False)
     try:
-        report = ledger.verify(db)
+        report = chain.verify(db)
     finally:
         db.close()
     return {"events": report.events, "ok": report.ok, "head": report.head_hash}

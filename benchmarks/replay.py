@@ -14,8 +14,8 @@ from typing import Any
 from benchmarks.plan import FOUNDER, Step, bench_keyring, bench_signer
 from benchmarks.shape import START
 from tracker.db.database import Database
-from tracker.io.demo import SERVICES, StepClock
-from tracker.services import setup
+from tracker.demo import SERVICES, StepClock
+from tracker.services.admin import setup
 
 
 def new_database(target: str | Path, clock: StepClock) -> Database:

@@ -28,8 +28,8 @@ from benchmarks.measure import Figure, machine, settle_writes
 from benchmarks.plan import bench_keyring
 from benchmarks.shape import END
 from tracker.db.database import open_database
+from tracker.demo import StepClock
 from tracker.domain.errors import TrackerError
-from tracker.io.demo import StepClock
 
 Backend = Literal["sqlite", "postgresql", "both"]
 SQLITE_FIGURES = (

@@ -9,7 +9,7 @@ from dataclasses import dataclass
 from datetime import UTC, datetime
 
 from tracker.db.database import open_database
-from tracker.services.uow import unit_of_work
+from tracker.services.core.uow import unit_of_work
 
 
 @dataclass

@@ -28,7 +28,7 @@ from tests.reliability import report
 from tracker.db.database import Database, open_database
 from tracker.domain.base import Base
 from tracker.domain.models import CustodyEvent
-from tracker.services import setup
+from tracker.services.admin import setup
 
 # The shared-database lab with one login per person (PostgreSQL tests that ask for it).
 pytest_plugins = ("tests.logins",)
@@ -199,6 +199,20 @@ def pytest_addoption(parser: pytest.Parser) -> None:
         help="after a run that passed, write its reliability table into PAGE "
         "(docs/reliability.md), between the page's marker lines",
     )
+    parser.addoption(
+        "--reliability-rows",
+        metavar="FILE",
+        type=Path,
+        help="start from the rows an earlier run kept in FILE, and keep this run's rows there "
+        "(CI: the everyday suite keeps them, the slow suite writes the page from both)",
+    )
+
+
+def pytest_sessionstart(session: pytest.Session) -> None:
+    """Rows kept by an earlier run (``--reliability-rows``) join this run's table."""
+    kept: Path | None = session.config.getoption("--reliability-rows")
+    if kept is not None:
+        report.load_rows(kept)
 
 
 def pytest_terminal_summary(terminalreporter: Any, exitstatus: int, config: pytest.Config) -> None:
@@ -206,6 +220,9 @@ def pytest_terminal_summary(terminalreporter: Any, exitstatus: int, config: pyte
     written into the reliability page only by a run that passed."""
     if not report.ROWS:
         return
+    kept: Path | None = config.getoption("--reliability-rows")
+    if kept is not None and exitstatus == 0:
+        report.save_rows(kept)
     terminalreporter.section("reliability: sizes and findings of this run")
     terminalreporter.write_line(report.table())
     page: Path | None = config.getoption("--reliability-page")

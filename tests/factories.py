@@ -6,7 +6,9 @@ import itertools
 from typing import Any
 
 from tracker.db.database import Database
-from tracker.services import chemistry, drilling, lab, loans, setup, specimens
+from tracker.services.admin import setup
+from tracker.services.bench import chemistry, drilling, solutions
+from tracker.services.loans import lending, specimens
 
 _n = itertools.count(1)
 
@@ -24,7 +26,7 @@ def location(db: Database) -> str:
 def loan(db: Database, received_on: str = "2026-01-02", **terms: Any) -> str:
     """A lender and a loan; ``terms`` override the defaults. Returns the loan reference."""
     n = next(_n)
-    lender = loans.add_lender(
+    lender = lending.add_lender(
         db, "boss", {"name": f"Fictional Museum {n}", "institution_code": f"FM{n}"}
     )
     defaults: dict[str, Any] = {
@@ -42,7 +44,7 @@ def loan(db: Database, received_on: str = "2026-01-02", **terms: Any) -> str:
         "received_on": received_on,
         "terms": defaults | terms,
     }
-    return loans.add_loan(db, "boss", request).item.reference
+    return lending.add_loan(db, "boss", request).item.reference
 
 
 def specimen(
@@ -90,11 +92,11 @@ def solution(db: Database, powder_id: str, grams: str = "1.0000", taken: str | N
     }
     if taken is not None:
         request["powder_taken"] = taken
-    return lab.dissolve(db, "tech", request).item.id
+    return solutions.dissolve(db, "tech", request).item.id
 
 
 def concentration(db: Database, solution_id: str, value: str = "800 ug/g") -> None:
-    lab.record_concentration(
+    solutions.record_concentration(
         db,
         "tech",
         {
@@ -107,7 +109,7 @@ def concentration(db: Database, solution_id: str, value: str = "800 ug/g") -> No
 
 
 def aliquot(db: Database, solution_id: str, grams: str = "0.1000") -> str:
-    return lab.take_aliquot(
+    return solutions.take_aliquot(
         db,
         "tech",
         {"solution": solution_id, "tare": "2.0000 g", "gross": f"{2 + float(grams):.4f} g"},

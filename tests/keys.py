@@ -11,8 +11,8 @@ from __future__ import annotations
 
 from tracker.db import keyfiles
 from tracker.db.keyring import PROCESS
+from tracker.demo import DEMO_PASSPHRASE, demo_operators, demo_signer
 from tracker.domain.signing import Signer, seeded_signer
-from tracker.io.demo import DEMO_PASSPHRASE, demo_operators, demo_signer
 
 PASSPHRASE = DEMO_PASSPHRASE  # one passphrase for every invented key of the session
 SEEDED = ("boss", "tech")

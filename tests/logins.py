@@ -25,10 +25,10 @@ from typer.testing import CliRunner, Result
 from tests.cli.conftest import CLEAN_ENV
 from tracker.cli import app
 from tracker.db.database import Database, open_database
+from tracker.demo import Replay, StepClock, demo_signer, load_scenario, scenario_path
 from tracker.domain.base import Base
 from tracker.domain.models import Powder
-from tracker.io.demo import Replay, StepClock, demo_signer, load_scenario, scenario_path
-from tracker.services import setup
+from tracker.services.admin import setup
 
 PEOPLE = ("ines", "tomas", "priya")  # the demo's manager and technicians
 

@@ -14,7 +14,7 @@ import pytest
 from tests import factories as make
 from tests.conftest import TickingClock, seed
 from tracker.db.database import open_database
-from tracker.services import ledger
+from tracker.services.ledger import chain
 
 ROOT = Path(__file__).resolve().parents[1]
 README = (ROOT / "README.md").read_text(encoding="utf-8")
@@ -66,8 +66,8 @@ def _exported(tmp_path: Path) -> tuple[Path, int, str]:
     make.powder(db, make.specimen(db, make.loan(db)), mg="1.500")
     export = tmp_path / "ledger.jsonl"
     with export.open("w", encoding="utf-8") as handle:
-        count = ledger.export_jsonl(db, handle)
-    head = ledger.verify(db).head_hash
+        count = chain.export_jsonl(db, handle)
+    head = chain.verify(db).head_hash
     db.close()
     return export, count, head
 

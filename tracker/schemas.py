@@ -15,21 +15,21 @@ from typing import Any
 from pydantic import TypeAdapter
 
 from tracker.output.stocks import Stock
-from tracker.services.backups import BackupView
-from tracker.services.batch_sheet import SheetView
-from tracker.services.columns import BatchSummary
-from tracker.services.correcting import CorrectionView
-from tracker.services.instrument import ProfileDefinition, SessionView
-from tracker.services.ledger import AnchorFile, LedgerLine
-from tracker.services.lineage import ItemDetail
-from tracker.services.manifests import ManifestMapping, ManifestPreview, ManifestRecord
-from tracker.services.planning import Plan
-from tracker.services.reconcile import LoanLine
-from tracker.services.reduction import Reduction
-from tracker.services.reports import ReturnReport
-from tracker.services.results import SpecimenResult
-from tracker.services.screening import Screening
-from tracker.services.views import Done
+from tracker.services.admin.backups import BackupView
+from tracker.services.bench.batch_sheet import SheetView
+from tracker.services.bench.columns import BatchSummary
+from tracker.services.core.views import Done
+from tracker.services.corrections.correcting import CorrectionView
+from tracker.services.instrument.reduction import Reduction
+from tracker.services.instrument.results import SpecimenResult
+from tracker.services.instrument.screening import Screening
+from tracker.services.instrument.sessions import ProfileDefinition, SessionView
+from tracker.services.ledger.chain import AnchorFile, LedgerLine
+from tracker.services.loans.manifests import ManifestMapping, ManifestPreview, ManifestRecord
+from tracker.services.loans.planning import Plan
+from tracker.services.read.lineage import ItemDetail
+from tracker.services.read.reconcile import LoanLine
+from tracker.services.read.reports import ReturnReport
 
 SCHEMA_DIALECT = "https://json-schema.org/draft/2020-12/schema"
 

@@ -21,7 +21,8 @@ from benchmarks.generate import Built, build
 from benchmarks.shape import Shape, shape_for
 from tracker.db.database import open_database
 from tracker.domain.base import Base
-from tracker.services import audit, ledger, reconcile
+from tracker.services.ledger import audit, chain
+from tracker.services.read import reconcile
 
 SHAPE = shape_for(0.002, loans=3)
 
@@ -92,7 +93,7 @@ def test_the_bulk_database_verifies_and_reconciles(both: tuple[Built, Built]) ->
     bulk = open_database(both[1].target)
     services = open_database(both[0].target)
     try:
-        report = ledger.verify(bulk)
+        report = chain.verify(bulk)
         assert report.ok and report.events == both[1].events
         books = audit.audit(bulk)  # every row the bulk writer wrote is what its facts state
         assert books.ok and books.coverage.complete and books.rows > 0
@@ -181,7 +182,7 @@ def test_the_bulk_executor_writes_the_same_chain_on_postgresql(
         assert built.events == both[0].events
         db = open_database(urls[1])
         try:
-            assert ledger.verify(db).ok
+            assert chain.verify(db).ok
         finally:
             db.close()
     finally:

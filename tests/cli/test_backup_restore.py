@@ -15,7 +15,8 @@ from tests.cli.conftest import Lab, counts, invoke, ok_json
 from tracker.db.database import Database
 from tracker.db.sqlite_files import read_only
 from tracker.domain.errors import InputError
-from tracker.services import backups, ledger
+from tracker.services.admin import backups
+from tracker.services.ledger import chain
 
 
 def _mode(path: Path) -> int:
@@ -25,7 +26,7 @@ def _mode(path: Path) -> int:
 def _head(path: Path) -> tuple[int, str]:
     db = read_only(path)
     try:
-        report = ledger.verify(db)
+        report = chain.verify(db)
     finally:
         db.close()
     assert report.ok
@@ -176,7 +177,8 @@ def test_restore_refusals_are_one_line_and_change_nothing(
 WRITER = """
 import os, sys
 from tracker.db.database import open_database
-from tracker.services import keys, setup
+from tracker.services.admin import setup
+from tracker.services.admin import keys
 db = open_database(sys.argv[1])
 key_file = keys.key_to_unlock(db, sys.argv[3])  # a script unlocks its key like the CLI
 if key_file is not None:

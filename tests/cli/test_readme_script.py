@@ -20,7 +20,7 @@ import pytest
 from tests.cli.conftest import CLEAN_ENV, counts
 from tracker.cli import app
 from tracker.db.database import open_database
-from tracker.services import ledger
+from tracker.services.ledger import chain
 
 ROOT = Path(__file__).resolve().parents[2]
 
@@ -100,6 +100,6 @@ def test_the_readme_script_runs_on_a_fresh_database(
     assert rows["result"] >= 1  # the reduced session's δ values for the one cut
     db = open_database(database)
     try:
-        assert ledger.verify(db).ok
+        assert chain.verify(db).ok
     finally:
         db.close()

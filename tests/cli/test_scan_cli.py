@@ -12,7 +12,7 @@ from stdnum.iso7064 import mod_37_2  # independent ISO/IEC 7064 implementation
 from tests.cli.conftest import invoke, ok_json
 from tracker.db.database import open_database
 from tracker.domain.ids import BadId, parse_id
-from tracker.services.lookup import MODEL_BY_KIND
+from tracker.services.core.lookup import MODEL_BY_KIND
 
 ALPHABET = "0123456789ABCDEFGHIJKLMNOPQRSTUVWXYZ*"  # ISO/IEC 7064 MOD 37-2 (python-stdnum docs)
 

@@ -28,8 +28,8 @@ from tests.conftest import TickingClock, seed
 from tracker.db.database import Database, open_database
 from tracker.domain.errors import TrackerError
 from tracker.domain.models import Powder
-from tracker.services import custody, drilling
-from tracker.services.reconcile import reconcile
+from tracker.services.bench import custody, drilling
+from tracker.services.read.reconcile import reconcile
 
 _TEMPLATE: Path | None = None
 SETTINGS = settings(max_examples=30, deadline=None, suppress_health_check=[HealthCheck.too_slow])

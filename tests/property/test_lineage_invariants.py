@@ -28,10 +28,12 @@ from tracker.db.database import open_database
 from tracker.domain.budget import COVERAGE_FACTOR, Amount, total
 from tracker.domain.errors import TrackerError
 from tracker.domain.models import CustodyEvent, Powder, Solution
-from tracker.services import corrections, custody, drilling, lab, setup
-from tracker.services.audit import audit
-from tracker.services.audit_scope import audit_loan
-from tracker.services.ledger import verify
+from tracker.services.admin import setup
+from tracker.services.bench import custody, drilling, solutions
+from tracker.services.corrections import weighings
+from tracker.services.ledger.audit import audit
+from tracker.services.ledger.chain import verify
+from tracker.services.ledger.loan_audit import audit_loan
 
 _TEMPLATE: Path | None = None
 
@@ -125,14 +127,14 @@ class LabBench(RuleBasedStateMachine):
         }
         if portion is not None:
             request["powder_taken"] = f"{portion} mg"
-        return self._attempt(lambda: lab.dissolve(self.db, "tech", request))
+        return self._attempt(lambda: solutions.dissolve(self.db, "tech", request))
 
     @rule(solution=solutions, mass=grams)
     def aliquot(self, solution: str | None, mass: Decimal) -> None:
         if solution is None:
             return
         self._attempt(
-            lambda: lab.take_aliquot(
+            lambda: solutions.take_aliquot(
                 self.db,
                 "tech",
                 {
@@ -149,7 +151,7 @@ class LabBench(RuleBasedStateMachine):
             return
         request = {"solution": solution, "element": "Ca", "value": f"{value} ug/g"}
         request["relative_uncertainty_percent"] = "1.5"
-        self._attempt(lambda: lab.record_concentration(self.db, "tech", request))
+        self._attempt(lambda: solutions.record_concentration(self.db, "tech", request))
 
     @rule(powder=powders, mass=masses_mg)
     def correct(self, powder: str | None, mass: Decimal) -> None:
@@ -161,7 +163,7 @@ class LabBench(RuleBasedStateMachine):
             "gross": f"{Decimal('1000.000') + mass} mg",
             "reason": "re-weighed on the calibrated balance",
         }
-        self._attempt(lambda: corrections.correct_weighing(self.db, "tech", request))
+        self._attempt(lambda: weighings.correct_weighing(self.db, "tech", request))
 
     @rule(powder=powders, outcome=st.sampled_from(["destroyed", "consumed"]))
     def dispose(self, powder: str | None, outcome: str) -> None:

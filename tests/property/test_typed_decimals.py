@@ -23,7 +23,8 @@ from tests.property.test_allowance_invariants import SETTINGS, fresh_database
 from tracker.domain.facts import FACTS
 from tracker.domain.models import CustodyEvent
 from tracker.output.tabular import csv_bytes
-from tracker.services import drilling, exports, lineage
+from tracker.services.bench import drilling
+from tracker.services.read import exports, lineage
 
 # Readings of a vial on a microbalance (mg), written with exactly three decimals (its
 # readability), trailing zeros included: what a person types from the display.

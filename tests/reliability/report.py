@@ -8,7 +8,9 @@ so the page's table is always a real run's rather than written by hand.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+import json
+import subprocess
+from dataclasses import asdict, dataclass
 from pathlib import Path
 
 ROWS: dict[str, Row] = {}
@@ -50,7 +52,30 @@ def with_table(page: str, new_table: str) -> str:
     return f"{before}{BEGIN}\n{new_table}\n{END}{after}"
 
 
+def measured_code() -> str:
+    """Which code the rows measured: the checkout's commit, and whether it had changes."""
+    git = ["git", "-C", str(Path(__file__).resolve().parent)]
+    head = subprocess.run([*git, "rev-parse", "--short", "HEAD"], capture_output=True, text=True)
+    if head.returncode != 0:
+        return "Measured outside a git checkout."
+    changed = subprocess.run([*git, "status", "--porcelain"], capture_output=True, text=True)
+    dirty = " with uncommitted changes" if changed.stdout.strip() else ""
+    return f"Measured by the tests of commit {head.stdout.strip()}{dirty}."
+
+
 def write_page(path: Path) -> None:
-    """Write this run's table into the page at ``path``."""
+    """Write this run's table, and the commit it measured, into the page at ``path``."""
     page = path.read_text(encoding="utf-8")
-    path.write_text(with_table(page, table()), encoding="utf-8")
+    path.write_text(with_table(page, f"{measured_code()}\n\n{table()}"), encoding="utf-8")
+
+
+def save_rows(path: Path) -> None:
+    """Keep this run's rows for a later run (the everyday suite's, for the slow suite's page)."""
+    path.write_text(json.dumps([asdict(row) for row in ROWS.values()]), encoding="utf-8")
+
+
+def load_rows(path: Path) -> None:
+    """Take the rows an earlier run kept; this run's own rows of the same test replace them."""
+    if path.exists():
+        for row in json.loads(path.read_text(encoding="utf-8")):
+            ROWS.setdefault(row["test"], Row(**row))

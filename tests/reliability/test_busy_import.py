@@ -28,7 +28,8 @@ from tracker.db.database import open_database
 from tracker.db.engine import build_engine, resolve_url
 from tracker.db.writer_lock import who_holds
 from tracker.domain.models import BatchPosition, CustodyEvent, Cut, Location
-from tracker.services import chemistry, ledger
+from tracker.services.bench import chemistry
+from tracker.services.ledger import chain
 
 pytestmark = pytest.mark.slow
 BACKENDS = ["sqlite", pytest.param("postgresql", marks=pytest.mark.postgresql)]
@@ -64,7 +65,7 @@ def test_a_second_writer_during_a_long_import_is_told_who_and_writes_nothing(
     db = open_database(db_url)
     chemistry.add_reference_material(db, "boss", {"name": "RM-A", "element": "Ca"})
     batch = make.batch(db)
-    head = ledger.verify(db).head_seq
+    head = chain.verify(db).head_seq
     db.close()
     path = tmp_path / "columns.csv"
     path.write_bytes(lab_files.batch_sheet(COLUMNS))
@@ -97,7 +98,7 @@ def test_a_second_writer_during_a_long_import_is_told_who_and_writes_nothing(
 
     check = open_database(db_url)
     try:
-        report = ledger.verify(check)
+        report = chain.verify(check)
         assert report.ok and report.head_seq == head + 1  # the import's event, nothing else
         with check.read_session() as session:
             assert session.scalar(select(func.count()).where(Location.name == PLACE)) == 0

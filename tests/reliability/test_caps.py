@@ -22,10 +22,10 @@ from tests.reliability.report import record
 from tracker.domain.darwincore import MAX_EXTRA_CHARS, MAX_EXTRA_TERMS
 from tracker.domain.labels import MAX_PREVIEW_PIXELS
 from tracker.domain.photos import MAX_PHOTO_PIXELS
-from tracker.domain.tables import MAX_CELLS
+from tracker.domain.spreadsheets import MAX_CELLS
 from tracker.domain.workbooks import MAX_SHARED_CHARS, MAX_SHARED_STRINGS
-from tracker.services.batch_sheet import MAX_SLOT
-from tracker.services.instrument import MAX_SESSION_ROWS
+from tracker.services.bench.batch_sheet import MAX_SLOT
+from tracker.services.instrument.sessions import MAX_SESSION_ROWS
 
 pytestmark = pytest.mark.slow
 

@@ -27,7 +27,7 @@ from tests.reliability.harness import Zygote, wait_for_files
 from tests.reliability.report import record
 from tracker.db.database import Database, open_database
 from tracker.domain.models import CustodyEvent, Powder, Specimen
-from tracker.services import ledger
+from tracker.services.ledger import chain
 
 pytestmark = pytest.mark.slow
 WORKERS, ATTEMPTS, DRILL_MG = 8, 50, 0.25
@@ -81,7 +81,7 @@ def test_eight_processes_never_exceed_the_allowance_nor_lose_or_fork_events(
     db = open_database(db_url)
     try:
         specimens = _lab(db)
-        head_before = ledger.verify(db).head_seq
+        head_before = chain.verify(db).head_seq
         started = time.monotonic()
         results = _race(zygote, db_url, specimens, tmp_path)
         seconds = time.monotonic() - started
@@ -126,4 +126,4 @@ def _check(db: Database, results: list[dict[str, Any]], head_before: int) -> Non
     assert len({d["seq"] for d in done}) == len(done)
     assert max(events) == len(events) == head_before + len(done)
     assert forks == []
-    assert ledger.verify(db).ok
+    assert chain.verify(db).ok

@@ -38,7 +38,9 @@ from tracker.domain.models import (
     Measurement,
     Specimen,
 )
-from tracker.services import chemistry, instrument, ledger
+from tracker.services.bench import chemistry
+from tracker.services.instrument import sessions
+from tracker.services.ledger import chain
 
 pytestmark = pytest.mark.slow
 BACKENDS = ["sqlite", pytest.param("postgresql", marks=pytest.mark.postgresql)]
@@ -79,7 +81,7 @@ def test_killed_session_imports_leave_whole_sessions_or_none(
 ) -> None:
     db = open_database(db_url)
     chemistry.add_reference_material(db, "boss", {"name": "RM-A", "element": "Ca"})
-    instrument.save_profile(db, "tech", {"name": "mc", "definition": PROFILE})
+    sessions.save_profile(db, "tech", {"name": "mc", "definition": PROFILE})
     files = []
     for n in range(FILES):
         path = tmp_path / f"run-{n:02d}.csv"
@@ -132,7 +134,7 @@ def _sessions_whole(url: str, most: int) -> int:
     """Every session has all its rows and exactly one import event; returns how many."""
     db = open_database(url)
     try:
-        assert ledger.verify(db).ok
+        assert chain.verify(db).ok
         with _one_snapshot(db) as session:
             sizes = session.execute(
                 select(InstrumentSession.source_sha256, func.count(Measurement.id))
@@ -184,7 +186,7 @@ def _batches_whole(url: str) -> int:
     """Each batch has every column and cut of its sheet, or none; returns the full ones."""
     db = open_database(url)
     try:
-        assert ledger.verify(db).ok
+        assert chain.verify(db).ok
         with _one_snapshot(db) as session:
             positions = Counter(
                 dict(
@@ -247,7 +249,7 @@ def _lists_whole(url: str) -> int:
     """Each loan has every specimen of its list or none, and one import event per full list."""
     db = open_database(url)
     try:
-        assert ledger.verify(db).ok
+        assert chain.verify(db).ok
         with _one_snapshot(db) as session:
             sizes = session.execute(
                 select(Specimen.loan_id, func.count(Specimen.id)).group_by(Specimen.loan_id)

@@ -27,13 +27,15 @@ from tests.reliability.report import record
 from tracker.db.database import Database, open_database
 from tracker.domain.anchors import AnchorError, parse_anchor
 from tracker.domain.errors import InputError, TrackerError
+from tracker.domain.formula_cells import looks_like_formula
 from tracker.domain.models import SrCurve
-from tracker.domain.spreadsheet import looks_like_formula
+from tracker.domain.spreadsheets import TableError, read_table
 from tracker.domain.srcurve import Curve, CurvePoint
-from tracker.domain.tables import TableError, read_table
 from tracker.domain.textfiles import FileProblem, load_settings
 from tracker.output.stocks import StockEntry, validate
-from tracker.services import batch_sheet, chemistry, instrument, manifests, screening
+from tracker.services.bench import batch_sheet, chemistry
+from tracker.services.instrument import screening, sessions
+from tracker.services.loans import manifests
 
 pytestmark = pytest.mark.slow
 FAST = settings(max_examples=600, deadline=None)
@@ -252,7 +254,7 @@ def bench(sqlite_template: Path, tmp_path: Path) -> Iterator[tuple[Database, str
         "format": "csv",
         "columns": {"run_order": "Run", "sample_name": "Name", "ratios": {"44/40": "r4440"}},
     }
-    instrument.save_profile(db, "tech", {"name": "p", "definition": profile})
+    sessions.save_profile(db, "tech", {"name": "p", "definition": profile})
     yield db, batch, aliquot
     db.close()
 
@@ -274,7 +276,7 @@ def _refused_or_done(db: Database, call: Callable[[], Answer], importer: str) ->
 
 
 @st.composite
-def sessions(draw: st.DrawFn) -> list[list[str]]:
+def session_rows(draw: st.DrawFn) -> list[list[str]]:
     """A bracketed run list (standard, target, standard, ...), then maybe one spoiled cell."""
     targets = draw(
         st.lists(
@@ -290,7 +292,7 @@ def sessions(draw: st.DrawFn) -> list[list[str]]:
 
 
 @SERVICE
-@given(rows=sessions())
+@given(rows=session_rows())
 def test_instrument_import_refuses_or_keeps_every_row(
     bench: tuple[Database, str, str], rows: list[list[str]]
 ) -> None:
@@ -306,7 +308,7 @@ def test_instrument_import_refuses_or_keeps_every_row(
         "element": "Ca",
         "bracketing_standard": "STD-X",
     }
-    call = lambda: instrument.import_session(db, "tech", request)  # noqa: E731
+    call = lambda: sessions.import_session(db, "tech", request)  # noqa: E731
     answer = _refused_or_done(db, call, "instrument")
     if answer is not None:
         assert answer.item.measurements == len(rows)  # nothing dropped
@@ -477,6 +479,6 @@ def test_mapping_profiles_refuse_or_save(
     db, _, _ = bench
     _count("mapping profile (service)")
     request = {"name": "fuzzed", "definition": definition}
-    answer = _refused_or_done(db, lambda: instrument.save_profile(db, "tech", request), "profile")
+    answer = _refused_or_done(db, lambda: sessions.save_profile(db, "tech", request), "profile")
     if answer is not None:
         assert answer.item.definition["columns"]["ratios"]

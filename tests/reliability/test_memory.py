@@ -73,7 +73,7 @@ def _stated_mib(path: Path) -> float:
 def test_a_lender_list_costs_a_small_multiple_of_its_csv(bench: Bench, tmp_path: Path) -> None:
     rows = 40_000
     path = big.write_csv(tmp_path / "lender.csv", big.lender_rows(rows))
-    base = _imports("tracker.services.manifests")
+    base = _imports("tracker.services.loans.manifests")
     done = measure(tracker(bench.path, "manifest", "import", "FH-77", str(path), actor="ysolde"))
     assert done.exit_code == 0, done.stderr
     size = f"{rows:,} rows × {len(big.SPECIMEN_TERMS + big.EXTRA_TERMS)} columns, imported"
@@ -86,7 +86,7 @@ def test_a_lender_list_costs_a_small_multiple_of_its_workbook(bench: Bench, tmp_
     path = big.write_workbook(tmp_path / "lender.xlsx", big.lender_rows(rows))
     with zipfile.ZipFile(path) as book:  # what openpyxl reads: the parts, unpacked
         unpacked = sum(part.file_size for part in book.infolist()) / 1024**2
-    base = _imports("tracker.services.manifests", "openpyxl", "tracker.domain.workbooks")
+    base = _imports("tracker.services.loans.manifests", "openpyxl", "tracker.domain.workbooks")
     done = measure(tracker(bench.path, "manifest", "import", "FH-77", str(path), actor="ysolde"))
     assert done.exit_code == 0, done.stderr
     size = f"{rows:,} rows, {file_mib(path):.1f} MB workbook unpacking to {unpacked:.0f} MB"
@@ -105,7 +105,7 @@ def test_a_list_over_the_cell_cap_is_refused_before_it_is_read_whole(
         [f"SYN W {n}", *(f"v{n % 97}-{i}" for i in range(len(header) - 1))] for n in range(1, 4_001)
     )
     big.write_csv(path, iter([header, *rows]))
-    base = _imports("tracker.services.manifests")
+    base = _imports("tracker.services.loans.manifests")
     done = measure(tracker(bench.path, "manifest", "preview", "FH-77", str(path)))
     assert done.exit_code == 2 and "capped at 2,000,000 cells" in done.stderr, done.stderr
     size = "4,000 rows × 1,000 columns (4 million cells), refused at 2,000,000"
@@ -116,10 +116,10 @@ def test_a_list_over_the_cell_cap_is_refused_before_it_is_read_whole(
 
 
 def test_a_session_at_its_run_cap_costs_a_fixed_bound(bench: Bench, tmp_path: Path) -> None:
-    from tracker.services.instrument import MAX_SESSION_ROWS
+    from tracker.services.instrument.sessions import MAX_SESSION_ROWS
 
     path = big.write_csv(tmp_path / "export.csv", big.export_rows(MAX_SESSION_ROWS))
-    base = _imports("tracker.services.instrument")
+    base = _imports("tracker.services.instrument.sessions")
     argv = session_import(path, "csv")
     done = measure(tracker(bench.path, *argv, actor=bench.lab.technician))
     assert done.exit_code == 0, done.stderr
@@ -143,7 +143,9 @@ def test_an_export_beyond_the_run_cap_costs_a_fraction_of_the_file(
         big.write_csv(path, big.export_rows(rows))
     else:
         big.write_workbook(path, big.export_rows(rows))
-    base = _imports("tracker.services.instrument", *(["openpyxl"] if fmt == "xlsx" else []))
+    base = _imports(
+        "tracker.services.instrument.sessions", *(["openpyxl"] if fmt == "xlsx" else [])
+    )
     argv = session_import(path, fmt)
     done = measure(tracker(bench.path, *argv, actor=bench.lab.technician))
     assert done.exit_code == 2 and "capped at 20,000 runs" in done.stderr, done.stderr
@@ -162,7 +164,7 @@ def test_a_batch_sheet_beyond_any_batch_costs_a_fraction_of_the_file(
     path = big.write_csv(
         tmp_path / "sheet.csv", iter([["slot", "kind", "item", "loaded", "Ca"], *rows])
     )
-    base = _imports("tracker.services.batch_sheet")
+    base = _imports("tracker.services.bench.batch_sheet")
     done = measure(tracker(bench.path, "batch", "sheet", bench.batch, str(path), actor="bram"))
     assert done.exit_code == 2 and "at most 10,000 columns" in done.stderr, done.stderr
     size = f"300,000 rows, {file_mib(path):.1f} MB, refused at the 10,000-column batch"
@@ -177,7 +179,7 @@ def test_a_reference_curve_costs_a_small_multiple_of_its_file(bench: Bench, tmp_
         [f"{n / 1000:.3f}", f"0.70{n % 9000 + 1000:04d}", "0.00003"] for n in range(1, points + 1)
     )
     path = big.write_csv(tmp_path / "curve.csv", iter([["age_ma", "87sr/86sr", "u"], *rows]))
-    base = _imports("tracker.services.screening")
+    base = _imports("tracker.services.instrument.screening")
     done = measure(tracker(bench.path, "curve", "add", "memory", str(path), actor="ysolde"))
     assert done.exit_code == 0, done.stderr
     cost = done.peak_mib - base

@@ -315,7 +315,7 @@ KILLED_EXPORT = textwrap.dedent(
     import os, sys, time
     from typer.testing import CliRunner
     from tracker.cli import app
-    from tracker.services import ledger
+    from tracker.services.ledger import chain as ledger
 
     real = ledger.export_jsonl
 

@@ -18,7 +18,7 @@ from tests.cli.conftest import invoke, ok_json
 from tests.reliability.report import record
 from tracker.db import migrate
 from tracker.db.database import open_database
-from tracker.services import ledger
+from tracker.services.ledger import chain
 
 FIXTURE = Path(__file__).resolve().parents[1] / "fixtures" / "demo-d02aa5d.sqlite"
 FIRST_REVISION = "0002_append_only_ledger"
@@ -71,7 +71,7 @@ def test_first_release_database_upgrades_with_every_row_and_event_intact(tmp_pat
 
     db = open_database(path)  # backs the file up, then upgrades it
     try:
-        head_after = ledger.verify(db)
+        head_after = chain.verify(db)
     finally:
         db.close()
     after = _tables(path)

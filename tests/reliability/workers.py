@@ -31,7 +31,10 @@ from sqlalchemy.orm import Session
 
 from tracker.db.database import open_database
 from tracker.domain.errors import RuleViolation, TrackerError
-from tracker.services import batch_sheet, drilling, instrument, manifests, setup
+from tracker.services.admin import setup
+from tracker.services.bench import batch_sheet, drilling
+from tracker.services.instrument import sessions
+from tracker.services.loans import manifests
 
 Job = Callable[[dict[str, Any]], dict[str, Any]]
 
@@ -139,7 +142,7 @@ def import_files(args: dict[str, Any]) -> dict[str, Any]:
             "element": "Ca",
             "bracketing_standard": "STD-X",
         }
-        return lambda db: instrument.import_session(db, args["actor"], request)
+        return lambda db: sessions.import_session(db, args["actor"], request)
 
     _repeat_until_done(args, [importer(p) for p in args["files"]])
     return {}

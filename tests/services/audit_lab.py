@@ -24,6 +24,7 @@ from sqlalchemy.engine import Connection, Engine, make_url
 
 from tests.conftest import TickingClock, _admin
 from tracker.db.database import open_database
+from tracker.demo import run_scenario, scenario_path
 from tracker.domain.models import (
     Aliquot,
     ContainerStatus,
@@ -32,9 +33,13 @@ from tracker.domain.models import (
     LoanStatus,
     Solution,
 )
-from tracker.io.demo import run_scenario, scenario_path
 from tracker.output import jobs
-from tracker.services import corrections, lab, labels, materials, screening, settings, shipments
+from tracker.services.admin import backdating, materials
+from tracker.services.bench import solutions
+from tracker.services.corrections import weighings
+from tracker.services.instrument import screening
+from tracker.services.labels import handling
+from tracker.services.loans import shipments
 
 MANAGER = "ines"  # the demo's founder
 
@@ -59,11 +64,11 @@ def add_the_rest(target: str, out: Path) -> None:
         for n in (1, 2):
             material = {"name": f"Invented carbonate {n}", "formula": "CaCO3"}
             materials.add_material(db, MANAGER, material)
-        labels.set_uri_prefix(db, MANAGER, {"uri_prefix": "HTTPS://LAB.EXAMPLE/T/"})
-        settings.set_backdating_window(db, MANAGER, {"window": "36 h"})
+        handling.set_uri_prefix(db, MANAGER, {"uri_prefix": "HTTPS://LAB.EXAMPLE/T/"})
+        backdating.set_backdating_window(db, MANAGER, {"window": "36 h"})
         for extra in ("0.01", "0.02"):  # an aliquot's mass: its column and session follow
             gross = f"{2000 + grams * 1000 + Decimal(extra):.2f} mg"
-            corrections.correct_weighing(
+            weighings.correct_weighing(
                 db,
                 MANAGER,
                 {
@@ -76,7 +81,7 @@ def add_the_rest(target: str, out: Path) -> None:
             )
         for days in (3, 4):  # dated back beyond the window: a manager's, flagged
             stated = (clock.now - timedelta(days=days)).isoformat()
-            lab.record_concentration(
+            solutions.record_concentration(
                 db,
                 MANAGER,
                 {
@@ -88,7 +93,7 @@ def add_the_rest(target: str, out: Path) -> None:
                 },
             )
         jobs.print_queue(db, MANAGER, stock="a4-65", out=out / "labels-1.pdf")  # the demo's
-        labels.queue_labels(db, MANAGER, {"items": [solution_id], "copies": 1})
+        handling.queue_labels(db, MANAGER, {"items": [solution_id], "copies": 1})
         jobs.print_queue(db, MANAGER, stock="a4-65", out=out / "labels-2.pdf")
         day = clock.now.date().isoformat()
         shipments.add_shipment(

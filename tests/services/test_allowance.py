@@ -13,9 +13,10 @@ from tests.conftest import Counts
 from tracker.db.database import Database
 from tracker.domain.errors import InputError, RuleViolation
 from tracker.domain.models import CustodyEvent, Document, Powder
-from tracker.services import amendments, drilling
-from tracker.services.inputs import Raw
-from tracker.services.ledger import verify
+from tracker.services.bench import drilling
+from tracker.services.core.inputs import Raw
+from tracker.services.ledger.chain import verify
+from tracker.services.loans import amendments
 
 
 def drill(db: Database, specimen: str, mg: str, actor: str = "tech", **extra: object) -> str:

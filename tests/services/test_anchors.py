@@ -11,8 +11,10 @@ from tests import factories as make
 from tests import keys
 from tracker.db.database import Database
 from tracker.domain.errors import InputError
-from tracker.services import authority, ledger, setup
-from tracker.services.uow import append_event
+from tracker.services.admin import setup
+from tracker.services.core import authority
+from tracker.services.core.uow import append_event
+from tracker.services.ledger import chain
 
 
 def _drop_append_only_triggers(db: Database) -> None:
@@ -32,9 +34,9 @@ def _delete_events_after(db: Database, seq: int) -> None:
 
 
 def test_anchor_holds_while_the_ledger_grows(db: Database, tmp_path: Path) -> None:
-    kept = ledger.write_anchor(db, "boss", tmp_path / "head.json").anchor
+    kept = chain.write_anchor(db, "boss", tmp_path / "head.json").anchor
     make.specimen(db, make.loan(db))
-    report = ledger.verify_against(db, ledger.read_anchor(tmp_path / "head.json"))
+    report = chain.verify_against(db, chain.read_anchor(tmp_path / "head.json"))
     assert report.ok and report.chain.head_seq > kept.seq
 
 
@@ -42,14 +44,14 @@ def test_deleting_the_newest_events_passes_the_chain_but_fails_the_anchor(
     db: Database, tmp_path: Path
 ) -> None:
     make.loan(db)
-    cut_at = ledger.verify(db).head_seq
+    cut_at = chain.verify(db).head_seq
     make.specimen(db, make.loan(db))
-    anchor = ledger.write_anchor(db, "boss", tmp_path / "head.json").anchor
+    anchor = chain.write_anchor(db, "boss", tmp_path / "head.json").anchor
     _drop_append_only_triggers(db)
     _delete_events_after(db, cut_at)
 
-    assert ledger.verify(db).ok  # a shorter chain is still a valid chain
-    report = ledger.verify_against(db, anchor)
+    assert chain.verify(db).ok  # a shorter chain is still a valid chain
+    report = chain.verify_against(db, anchor)
     assert not report.ok and report.chain.ok
     gone = anchor.seq - cut_at
     assert f"{gone} newest event(s) are gone" in (report.anchor.problem or "")
@@ -60,7 +62,7 @@ def test_events_cut_and_re_appended_with_valid_hashes_fail_the_anchor(
 ) -> None:
     """A careful tamperer rebuilds the tail with valid hashes: the chain passes, the anchor not."""
     make.specimen(db, make.loan(db))
-    anchor = ledger.write_anchor(db, "boss", tmp_path / "head.json").anchor
+    anchor = chain.write_anchor(db, "boss", tmp_path / "head.json").anchor
     _drop_append_only_triggers(db)
     _delete_events_after(db, anchor.seq - 2)
     with db.write_session() as session, session.begin():
@@ -76,8 +78,8 @@ def test_events_cut_and_re_appended_with_valid_hashes_fail_the_anchor(
                 signer=keys.signer("boss"),
                 origin=authority.origin(session, db),
             )
-    assert ledger.verify(db).ok
-    report = ledger.verify_against(db, anchor)
+    assert chain.verify(db).ok
+    report = chain.verify_against(db, anchor)
     assert not report.ok and "rewritten" in (report.anchor.problem or "")
 
 
@@ -85,10 +87,10 @@ def test_an_anchor_from_another_database_is_recognised(db: Database, tmp_path: P
     first = {"code": "x", "name": "Xan Other"}
     other = setup.init_database(tmp_path / "other.sqlite", first, signer=keys.signer("x"))
     try:
-        foreign = ledger.current_anchor(other, "x")
+        foreign = chain.current_anchor(other, "x")
     finally:
         other.close()
-    report = ledger.verify_against(db, foreign)
+    report = chain.verify_against(db, foreign)
     assert not report.ok and "another ledger" in (report.anchor.problem or "")
 
 
@@ -97,7 +99,7 @@ def test_unreadable_anchor_files_are_refused_with_the_file_named(tmp_path: Path)
         path = tmp_path / name
         path.write_bytes(content)
         with pytest.raises(InputError) as caught:
-            ledger.read_anchor(path)
+            chain.read_anchor(path)
         assert caught.value.field == "--anchor" and caught.value.value == str(path)
     with pytest.raises(InputError, match="cannot be read"):
-        ledger.read_anchor(tmp_path / "missing.json")
+        chain.read_anchor(tmp_path / "missing.json")

@@ -20,11 +20,15 @@ from tests.conftest import snapshot_counts
 from tests.reliability.report import record
 from tracker.cli import app
 from tracker.db.database import Database, open_database
+from tracker.demo import build_demo
 from tracker.domain.base import Base
 from tracker.domain.errors import RuleViolation
 from tracker.domain.ids import check_character
-from tracker.io.demo import build_demo
-from tracker.services import backups, corrections, drilling, ledger, setup, shipments, specimens
+from tracker.services.admin import backups, setup
+from tracker.services.bench import drilling
+from tracker.services.corrections import weighings
+from tracker.services.ledger import chain
+from tracker.services.loans import shipments, specimens
 
 APPEND_ONLY = ("custody_event", "correction", "event_ref", "backdated_entry")
 EDIT = re.compile(
@@ -48,7 +52,7 @@ def _one_row_in_each(db: Database) -> None:
     """A correction, an event mentioning a further item (event_ref) and a backdated entry."""
     loan = make.loan(db, received_on="2025-12-20")
     powder = make.powder(db, make.specimen(db, loan), "2.000")
-    corrections.correct_weighing(
+    weighings.correct_weighing(
         db,
         "tech",
         {"item": powder, "tare": "1000.000 mg", "gross": "1002.010 mg", "reason": "misread"},
@@ -79,7 +83,7 @@ def test_the_database_refuses_edits_of_append_only_tables(
     with pytest.raises(Exception, match="append-only"), db.engine.begin() as conn:
         conn.execute(text(verb.format(t=table, c=CHANGED[table])))
     assert _rows(db, table) == before
-    assert ledger.verify(db).ok
+    assert chain.verify(db).ok
 
 
 def _rows(db: Database, table: str) -> list[tuple[Any, ...]]:
@@ -144,7 +148,7 @@ def test_inserts_over_a_stored_row_are_refused_and_the_row_is_unchanged(
             assert _rows(db, table) == before, (key, how)
             assert snapshot_counts(db) == counts
             tried += 1
-    assert ledger.verify(db).ok
+    assert chain.verify(db).ok
     SEEN.setdefault(db.backend, set()).add(f"{table}×{tried}")
     record(
         "INSERT OR REPLACE",
@@ -158,7 +162,7 @@ def test_inserts_over_a_stored_row_are_refused_and_the_row_is_unchanged(
 def test_a_plain_insert_of_a_forged_event_is_possible_but_verify_finds_it(db: Database) -> None:
     """Appending is what the table is for; the hash chain, not the database, catches a forgery."""
     make.loan(db)
-    head = ledger.verify(db)
+    head = chain.verify(db)
     assert head.ok
     with db.engine.begin() as conn:
         conn.execute(
@@ -169,7 +173,7 @@ def test_a_plain_insert_of_a_forged_event_is_possible_but_verify_finds_it(db: Da
             ),
             {"forged": "f" * 64, "head": head.head_seq},
         )
-    report = ledger.verify(db)
+    report = chain.verify(db)
     assert not report.ok and report.broken_seq == head.head_seq + 1
     assert report.reason is not None and "altered" in report.reason
 
@@ -212,7 +216,7 @@ def test_no_service_sends_an_update_or_delete_to_append_only_tables(
 def _one_row_in_each_demo(db: Database) -> None:
     """The demo's first powder (2.015 mg, all dissolved) re-weighed a little heavier."""
     powder = "PW-00001-" + check_character("PW00001")
-    corrections.correct_weighing(
+    weighings.correct_weighing(
         db,
         "ines",
         {"item": powder, "tare": "812.341 mg", "gross": "815.863 mg", "reason": "misread"},
@@ -232,7 +236,7 @@ def _verify_line(db: Database) -> tuple[int, list[str]]:
 
 @pytest.mark.parametrize("cut", ["every event", "event 1"])
 def test_a_ledger_without_its_first_event_is_not_intact(db: Database, cut: str) -> None:
-    assert ledger.verify(db).ok and _verify_line(db)[0] == 0
+    assert chain.verify(db).ok and _verify_line(db)[0] == 0
     with db.engine.begin() as conn:  # as a tamperer would: the guard dropped, rows deleted
         if db.backend == "sqlite":
             conn.execute(text("DROP TRIGGER custody_event_no_delete"))
@@ -241,7 +245,7 @@ def test_a_ledger_without_its_first_event_is_not_intact(db: Database, cut: str) 
         conn.execute(
             text("DELETE FROM custody_event" + (" WHERE seq = 1" if cut == "event 1" else ""))
         )
-    report = ledger.verify(db)
+    report = chain.verify(db)
     assert not report.ok and report.broken_seq == 1 and report.events == 0
     code, lines = _verify_line(db)
     assert code == 1 and len(lines) == 1 and lines[0].startswith("ledger BROKEN at event #1: ")
@@ -265,7 +269,7 @@ def test_a_fresh_database_verifies_and_an_uninitialised_one_is_not_restored(
         tmp_path / "fresh.sqlite", {"code": "amy", "name": "Amy Test"}, signer=keys.signer("amy")
     )
     try:
-        report = ledger.verify(fresh)
+        report = chain.verify(fresh)
         assert report.ok and report.events == 1
         copy = backups.backup(fresh, tmp_path / "fresh-copy.sqlite")
         assert copy.ledger_ok and copy.events == 1
@@ -273,7 +277,7 @@ def test_a_fresh_database_verifies_and_an_uninitialised_one_is_not_restored(
         fresh.close()
     bare = open_database(tmp_path / "bare.sqlite", create=True)  # the schema, no first event
     try:
-        assert not ledger.verify(bare).ok
+        assert not chain.verify(bare).ok
         copy = backups.backup(bare, tmp_path / "bare-copy.sqlite")
         assert not copy.ledger_ok and copy.problem is not None and "no events" in copy.problem
     finally:

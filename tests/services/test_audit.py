@@ -22,7 +22,7 @@ from tests.services.audit_lab import Books
 from tracker.db.database import open_database
 from tracker.domain.base import Base, Exact, decimal_text
 from tracker.domain.ids import Kind, format_id
-from tracker.services.audit import audit
+from tracker.services.ledger.audit import audit
 
 DESCRIBED = [t.name for t in Base.metadata.sorted_tables if t.name != "custody_event"]
 _KINDS = {

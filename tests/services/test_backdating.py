@@ -27,18 +27,12 @@ from tracker.db.database import Database
 from tracker.domain.errors import InputError, RuleViolation
 from tracker.domain.models import BackdatedEntry, CustodyEvent
 from tracker.output.report_files import render
-from tracker.services import (
-    chemistry,
-    custody,
-    drilling,
-    lab,
-    ledger,
-    reports,
-    settings,
-    shipments,
-    specimens,
-)
-from tracker.services.reconcile import reconcile
+from tracker.services.admin import backdating
+from tracker.services.bench import chemistry, custody, drilling, solutions
+from tracker.services.ledger import chain
+from tracker.services.loans import shipments, specimens
+from tracker.services.read import reports
+from tracker.services.read.reconcile import reconcile
 
 BACKDATED = "backdated entry"
 FOUND: dict[str, list[str]] = {}  # backend -> what each found case did, for the reliability row
@@ -149,7 +143,7 @@ def test_a_backdated_entry_needs_a_manager_keeps_both_times_and_is_flagged(
     spec = make.specimen(db, loan, received_at="2026-01-02T10:00:00Z")  # 71 h back: < 4 days
     other = make.specimen(db, loan)
     assert BACKDATED not in reconcile(db, loan)[0].flags
-    settings.set_backdating_window(db, "boss", {"window": "1 day"})
+    backdating.set_backdating_window(db, "boss", {"window": "1 day"})
     stated = "2026-01-03T10:00:00Z"  # 47 h before the clock: beyond one day
     line = refused(
         counts, RuleViolation, "manager role", lambda: drill(db, spec, drilled_at=stated)
@@ -158,7 +152,7 @@ def test_a_backdated_entry_needs_a_manager_keeps_both_times_and_is_flagged(
     assert "more than 1 day back" in line and "ask a manager (boss)" in line
 
     done = drill(db, spec, "boss", drilled_at=stated)
-    (event,) = ledger.recent_events(db, 1)
+    (event,) = chain.recent_events(db, 1)
     assert event.seq == done.event_seq and event.action == "powder.drilled"
     assert event.at.isoformat().startswith("2026-01-05T09:")  # the recording time
     assert event.payload["drilled_at"] == "2026-01-03T10:00:00+00:00"
@@ -188,7 +182,7 @@ def test_a_backdated_entry_needs_a_manager_keeps_both_times_and_is_flagged(
     text = " ".join(page.extract_text() for page in PdfReader(io.BytesIO(pdf(report))).pages)
     assert "Entries dated back" in text and "2026-01-03 10:00 UTC" in text
     assert f"#{event.seq}" in text and BACKDATED in text
-    assert ledger.verify(db).ok
+    assert chain.verify(db).ok
     note(db, "a manager's drill dated 47 h back (window 1 day): accepted, flagged, both times kept")
 
 
@@ -207,9 +201,9 @@ def test_the_window_binds_every_dated_entry(db: Database, counts: Counts) -> Non
 
 
 def test_the_window_is_a_lab_setting_only_managers_change(db: Database, counts: Counts) -> None:
-    shown = settings.show_backdating_window(db)
+    shown = backdating.show_backdating_window(db)
     assert (shown.hours, shown.said, shown.default) == (96, "4 days", True)
-    set_it = settings.set_backdating_window
+    set_it = backdating.set_backdating_window
     refused(counts, RuleViolation, "manager role", lambda: set_it(db, "tech", {"window": "2 days"}))
     for bad in ("4", "four days", "0 h", "91 days"):
         refused(counts, InputError, "window", partial(set_it, db, "boss", {"window": bad}))
@@ -223,7 +217,7 @@ def test_the_window_is_a_lab_setting_only_managers_change(db: Database, counts: 
     facts = payload.pop("facts")
     assert payload == {"window_hours": 36, "previous_hours": 96}
     assert facts["created"]["lab_setting"]["backdating_window_hours"]["value"] == "36"
-    assert settings.show_backdating_window(db).hours == 36
+    assert backdating.show_backdating_window(db).hours == 36
 
 
 # ---------------------------------------------------------------- what each entry depends on
@@ -284,7 +278,9 @@ def test_a_dissolution_is_not_older_than_its_drill(db: Database, counts: Counts)
         "vial_gross": "6.0000 g",
         "dissolved_at": "2026-01-04T14:59:00Z",
     }
-    line = refused(counts, RuleViolation, "was drilled", lambda: lab.dissolve(db, "tech", request))
+    line = refused(
+        counts, RuleViolation, "was drilled", lambda: solutions.dissolve(db, "tech", request)
+    )
     assert line == (
         f"dissolved-at: '2026-01-04T14:59:00.000000Z': is before {powder} was drilled "
         "(2026-01-04T15:00:00.000000Z)"
@@ -302,7 +298,7 @@ def test_concentrations_and_aliquots_are_not_older_than_their_solution(
         counts,
         RuleViolation,
         f"measured-at: .*{solution} was dissolved",
-        lambda: lab.record_concentration(db, "tech", value | {"measured_at": early}),
+        lambda: solutions.record_concentration(db, "tech", value | {"measured_at": early}),
     )
     make.concentration(db, solution)
     take = {"solution": solution, "tare": "2.0000 g", "gross": "2.1000 g", "taken_at": early}
@@ -310,7 +306,7 @@ def test_concentrations_and_aliquots_are_not_older_than_their_solution(
         counts,
         RuleViolation,
         f"taken-at: .*{solution} was dissolved",
-        lambda: lab.take_aliquot(db, "tech", take),
+        lambda: solutions.take_aliquot(db, "tech", take),
     )
     note(db, "depends: concentration and aliquot")
 

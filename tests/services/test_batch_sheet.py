@@ -8,7 +8,10 @@ from tests import factories as make
 from tests.conftest import Counts
 from tracker.db.database import Database
 from tracker.domain.errors import InputError, RuleViolation
-from tracker.services import batch_sheet, chemistry, columns, labels, ledger, lineage
+from tracker.services.bench import batch_sheet, chemistry, columns
+from tracker.services.labels import handling
+from tracker.services.ledger import chain
+from tracker.services.read import lineage
 
 HEADER = "slot,kind,item,loaded,matrix,Ca,Ca u"
 
@@ -46,16 +49,16 @@ def test_a_sheet_enters_every_column_and_cut_in_one_event(
     db: Database, bench: tuple[str, str]
 ) -> None:
     batch, aliquot = bench
-    head = ledger.verify(db).head_seq
+    head = chain.verify(db).head_seq
     answer = enter(db, batch, full(aliquot))
     assert (len(answer.positions_added), len(answer.cuts_added)) == (3, 3)
-    assert ledger.verify(db).head_seq == head + 1
+    assert chain.verify(db).head_seq == head + 1
     summary = columns.summarize_batch(db, batch)
     sample = next(p for p in summary.positions if p.kind == "sample")
     # by hand: 0.0200 g × 500 µg/g = 10 µg loaded; 9.000 / 10 = 90 %
     assert sample.loaded_ug == pytest.approx(10.0) and sample.yield_fraction == pytest.approx(0.9)
     assert summary.blank_ng == pytest.approx(50.0)
-    queued = {label.item for label in labels.list_labels(db)}
+    queued = {label.item for label in handling.list_labels(db)}
     assert set(answer.positions_added + answer.cuts_added) <= queued
     history = lineage.show_item(db, answer.cuts_added[0]).history
     assert [e.action for e in history] == ["batch.sheet_entered"]  # found through event_ref

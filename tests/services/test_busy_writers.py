@@ -26,8 +26,8 @@ from tracker.db.database import Database, open_database
 from tracker.db.engine import PG_WRITER_LOCK
 from tracker.db.writer_lock import note_path, read_note
 from tracker.domain.errors import Busy, RuleViolation
-from tracker.services import setup
-from tracker.services.uow import unit_of_work
+from tracker.services.admin import setup
+from tracker.services.core.uow import unit_of_work
 
 WAIT_S = "0.3"
 SLACK = timedelta(seconds=1)  # PostgreSQL's clock is the server's: the same machine here

@@ -17,7 +17,7 @@ from sqlalchemy import update
 
 from tracker.db.database import Database
 from tracker.domain.models import Location, LocationKind, Operator
-from tracker.services.uow import unit_of_work
+from tracker.services.core.uow import unit_of_work
 
 
 def _place(name: str) -> Location:

@@ -16,25 +16,18 @@ from tracker.db.database import Database
 from tracker.domain.errors import InputError, RuleViolation
 from tracker.domain.ids import parse_id
 from tracker.domain.models import Correction, Result
-from tracker.services import (
-    columns,
-    correcting,
-    corrections,
-    corrections_values,
-    lab,
-    ledger,
-    lineage,
-    reconcile,
-    reduction,
-    results,
-    setup,
-)
+from tracker.services.admin import setup
+from tracker.services.bench import columns, solutions
+from tracker.services.corrections import correcting, measured_values, weighings
+from tracker.services.instrument import reduction, results
+from tracker.services.ledger import chain
+from tracker.services.read import lineage, reconcile
 
 WHY = "gross read from the wrong line of the balance log"
 
 
 def weigh_again(db: Database, actor: str, item: str, tare: str, gross: str) -> Correction:
-    corrections.correct_weighing(
+    weighings.correct_weighing(
         db, actor, {"item": item, "tare": tare, "gross": gross, "reason": WHY}
     )
     with db.read_session() as session:
@@ -44,7 +37,7 @@ def weigh_again(db: Database, actor: str, item: str, tare: str, gross: str) -> C
 def test_powder_correction_keeps_the_original_and_totals_use_the_latest(db: Database) -> None:
     loan = make.loan(db)
     powder = make.powder(db, make.specimen(db, loan), "2.000")
-    answer = corrections.correct_weighing(
+    answer = weighings.correct_weighing(
         db, "tech", {"item": powder, "tare": "1000.000 mg", "gross": "1002.500 mg", "reason": WHY}
     ).item
     # by hand: 1002.500 − 1000.000 = 2.500 mg, u = 0.001 mg/√6 (GUM F.2.2.1, two readings)
@@ -63,13 +56,13 @@ def test_powder_correction_keeps_the_original_and_totals_use_the_latest(db: Data
         corrected.payload["reason"] == WHY and corrected.payload["value"]["gross_mg"] == "1002.500"
     )
     assert corrected.payload["effects"]["label"] == "queued"  # the vial's label shows its mass
-    dissolved = lab.dissolve(
+    dissolved = solutions.dissolve(
         db,
         "tech",
         {"powder": powder, "acid": "2 M HNO3", "vial_tare": "5.0000 g", "vial_gross": "6.0000 g"},
     ).item
     assert dissolved.powder_mass_mg == pytest.approx(2.5)  # "all that remains" is the latest
-    assert ledger.verify(db).ok
+    assert chain.verify(db).ok
 
 
 def test_another_operators_entry_needs_a_manager_and_the_refusal_says_so(
@@ -160,7 +153,7 @@ def test_a_concentration_correction_reaches_loads_yields_and_results(db: Databas
     sample = next(p for p in columns.summarize_batch(db, b.batch).positions if p.kind == "sample")
     solution = lineage.show_item(db, sample.holds or "").ancestors[-1].id
 
-    answer = corrections_values.correct_concentration(
+    answer = measured_values.correct_concentration(
         db,
         "tech",
         {
@@ -182,7 +175,7 @@ def test_a_concentration_correction_reaches_loads_yields_and_results(db: Databas
     assert facts["elements"]["Ca"]["ug"] == pytest.approx(1.0 * 450)  # 1.0000 g × 450 µg/g
     # a later measurement still takes precedence over the corrected earlier one
     later = {"value": "470 ug/g", "relative_uncertainty_percent": 2}
-    lab.record_concentration(db, "tech", {"solution": solution, "element": "Ca", **later})
+    solutions.record_concentration(db, "tech", {"solution": solution, "element": "Ca", **later})
     facts = lineage.show_item(db, solution).item.facts
     assert facts["elements"]["Ca"]["ug"] == pytest.approx(470.0)
 
@@ -203,7 +196,7 @@ def test_a_blank_recovery_correction_redoes_the_blank_correction(db: Database) -
     blank_cut = next(
         n.id for n in lineage.show_item(db, b.blank_position).item.children if n.kind == "cut"
     )
-    corrections_values.correct_recovery(
+    measured_values.correct_recovery(
         db,
         "tech",
         {"cut": blank_cut, "recovered": "0.100 ug", "reason": "blank read at 2x dilution"},
@@ -217,7 +210,7 @@ def test_an_aliquot_correction_moves_its_load_and_the_solution_books(db: Databas
     b = bench(db)
     sample = next(p for p in columns.summarize_batch(db, b.batch).positions if p.kind == "sample")
     aliquot = sample.holds or ""
-    answer = corrections.correct_weighing(
+    answer = weighings.correct_weighing(
         db, "tech", {"item": aliquot, "tare": "2.0000 g", "gross": "2.0180 g", "reason": WHY}
     ).item
     # by hand: 0.0180 g × 500 µg/g = 9.000 µg
@@ -245,11 +238,11 @@ def test_the_powder_portion_of_a_solution_is_corrected_within_the_powder(
     solution = make.solution(db, powder, taken="1.200 mg")
     before = counts()
     with pytest.raises(RuleViolation, match=r"less than the 2.100 mg taken"):
-        corrections.correct_powder_taken(
+        weighings.correct_powder_taken(
             db, "tech", {"solution": solution, "powder_taken": "2.100 mg", "reason": WHY}
         )
     assert counts() == before
-    corrections.correct_powder_taken(
+    weighings.correct_powder_taken(
         db, "tech", {"solution": solution, "powder_taken": "1.020 mg", "reason": WHY}
     )
     facts = lineage.show_item(db, powder).item.facts

@@ -21,7 +21,9 @@ import pytest
 from tests import factories as make
 from tests import lab_files
 from tracker.db.database import Database
-from tracker.services import batch_sheet, chemistry, instrument, manifests, screening
+from tracker.services.bench import batch_sheet, chemistry
+from tracker.services.instrument import screening, sessions
+from tracker.services.loans import manifests
 
 pytestmark = pytest.mark.slow
 SIZES = (1000, 4000, 16_000)
@@ -94,7 +96,7 @@ def test_instrument_imports_grow_linearly(db: Database) -> None:
     chemistry.add_reference_material(db, "boss", {"name": "RM-A", "element": "Ca"})
     columns = {"run_order": "Run", "sample_name": "Name", "ratios": RATIOS}
     profile = {"format": "csv", "columns": columns}
-    instrument.save_profile(db, "tech", {"name": "mc", "definition": profile})
+    sessions.save_profile(db, "tech", {"name": "mc", "definition": profile})
 
     def run(rows: int) -> float:
         n = next(_unique)
@@ -107,7 +109,7 @@ def test_instrument_imports_grow_linearly(db: Database) -> None:
             "element": "Ca",
             "bracketing_standard": "STD-X",
         }
-        return timed(lambda: instrument.import_session(db, "tech", request))
+        return timed(lambda: sessions.import_session(db, "tech", request))
 
     assert_linear(run, SIZES)
 
@@ -146,7 +148,7 @@ def test_mapping_profiles_grow_linearly(db: Database) -> None:
         mapping = {"columns": {f"term{k}": f"heading {k}" for k in range(columns)}}
         n = next(_unique)
         return timed(
-            lambda: instrument.save_profile(db, "tech", {"name": f"p{n}", "definition": profile})
+            lambda: sessions.save_profile(db, "tech", {"name": f"p{n}", "definition": profile})
         ) + timed(
             lambda: manifests.save_mapping(db, "tech", {"name": f"m{n}", "definition": mapping})
         )

@@ -12,7 +12,8 @@ from tests.conftest import Counts
 from tracker.db.database import Database
 from tracker.domain.errors import InputError, RuleViolation
 from tracker.domain.isotopes import exponential_factor
-from tracker.services import chemistry, columns, instrument, reduction, results
+from tracker.services.bench import chemistry, columns
+from tracker.services.instrument import reduction, results, sessions
 
 PROFILE = {
     "format": "csv",
@@ -53,7 +54,7 @@ def bench(db: Database) -> Bench:
         db, "tech", {"position": sample, "cut": "Ca", "recovered": "9.000 ug"}
     ).item.id
     columns.record_cut(db, "tech", {"position": reference, "cut": "Ca", "recovered": "9.9 ug"})
-    instrument.save_profile(db, "tech", {"name": "p1", "definition": PROFILE})
+    sessions.save_profile(db, "tech", {"name": "p1", "definition": PROFILE})
     return Bench(cut, blank, batch)
 
 
@@ -90,7 +91,7 @@ def do_import(db: Database, content: bytes, **extra: object) -> str:
         "element": "Ca",
         "bracketing_standard": "STD-X",
     } | extra
-    return instrument.import_session(db, "tech", request).item.id
+    return sessions.import_session(db, "tech", request).item.id
 
 
 def test_yield_and_blank_fraction(db: Database) -> None:
@@ -207,7 +208,7 @@ def test_blank_correction_when_the_blank_delta_is_known(db: Database) -> None:
 def test_unmatched_rows_are_kept_and_listed(db: Database) -> None:
     b = bench(db)
     extra = ["20,tune solution,0.0221,3.216", "21,CU-99999-0,0.0221,3.216"]
-    answer = instrument.import_session(
+    answer = sessions.import_session(
         db,
         "tech",
         {
@@ -261,7 +262,7 @@ def test_bad_exports_import_nothing(
 
 def test_profile_must_match_the_file(db: Database, counts: Counts) -> None:
     bench(db)
-    instrument.save_profile(
+    sessions.save_profile(
         db,
         "tech",
         {

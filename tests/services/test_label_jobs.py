@@ -19,8 +19,8 @@ from tracker.db.database import Database
 from tracker.domain.errors import InputError, RuleViolation
 from tracker.domain.models import CustodyEvent
 from tracker.output import jobs
-from tracker.services import labels
-from tracker.services.ledger import verify
+from tracker.services.labels import handling
+from tracker.services.ledger.chain import verify
 
 DPI = 300
 
@@ -68,8 +68,8 @@ def test_printing_the_queue_is_one_event_with_the_pdfs_hash(
     assert payload["sha256"] == outcome.job.sha256 == digest
     assert (payload["start"], payload["pages"], outcome.job.labels) == (3, 1, 4)
     assert _decoded(out) == sorted(items)
-    assert labels.list_labels(db) == []  # nothing left in the queue
-    printed = labels.list_labels(db, everything=True)
+    assert handling.list_labels(db) == []  # nothing left in the queue
+    printed = handling.list_labels(db, everything=True)
     assert {r.job for r in printed} == {outcome.job.id} and {r.status for r in printed} == {
         "printed"
     }
@@ -122,7 +122,7 @@ def test_bad_print_requests_are_refused_and_write_nothing(
 ) -> None:
     _lab(db)
     if options.get("prefix"):  # a long link: version 4 symbols do not fit a 15 mm dot
-        labels.set_uri_prefix(db, "boss", {"uri_prefix": "HTTPS://" + "A" * 40 + ".EXAMPLE/T/"})
+        handling.set_uri_prefix(db, "boss", {"uri_prefix": "HTTPS://" + "A" * 40 + ".EXAMPLE/T/"})
     before = counts()
     folder = tmp_path / "out"
     folder.mkdir()
@@ -139,7 +139,7 @@ def test_bad_print_requests_are_refused_and_write_nothing(
     assert "\n" not in caught.value.one_line()
     assert counts() == before
     assert list(folder.iterdir()) == []  # not even a staged partial file
-    assert len(labels.list_labels(db)) == 4  # still queued
+    assert len(handling.list_labels(db)) == 4  # still queued
 
 
 def test_reprint_is_one_event_and_leaves_the_queue_alone(
@@ -147,7 +147,7 @@ def test_reprint_is_one_event_and_leaves_the_queue_alone(
 ) -> None:
     spec, powder, *_ = _lab(db)
     jobs.print_queue(db, "tech", stock="a4-65", out=tmp_path / "first.pdf")
-    labels.queue_labels(db, "tech", {"items": [spec]})
+    handling.queue_labels(db, "tech", {"items": [spec]})
     before = counts()
     out = tmp_path / "again.pdf"
     outcome = jobs.reprint(
@@ -167,8 +167,8 @@ def test_reprint_is_one_event_and_leaves_the_queue_alone(
     assert payload["sha256"] == hashlib.sha256(out.read_bytes()).hexdigest()
     assert payload["pages"] == 2  # a roll stock: one label per page
     assert _decoded(out) == sorted([powder, spec])
-    assert [r.item for r in labels.list_labels(db)] == [spec]  # the queued label is still there
-    reprinted = [r for r in labels.list_labels(db, everything=True) if r.job == outcome.job.id]
+    assert [r.item for r in handling.list_labels(db)] == [spec]  # the queued label is still there
+    reprinted = [r for r in handling.list_labels(db, everything=True) if r.job == outcome.job.id]
     assert {r.queued_event for r in reprinted} == {event.seq}
     assert verify(db).ok
 

@@ -17,8 +17,10 @@ from tests.conftest import Counts
 from tracker.db.database import Database
 from tracker.domain.errors import InputError, RuleViolation, TrackerError
 from tracker.domain.models import CustodyEvent, Label, LabelStatus
-from tracker.services import chemistry, drilling, lab, labels, specimens
-from tracker.services.ledger import verify
+from tracker.services.bench import chemistry, drilling, solutions
+from tracker.services.labels import handling
+from tracker.services.ledger.chain import verify
+from tracker.services.loans import specimens
 
 
 def _events(db: Database) -> list[CustodyEvent]:
@@ -70,13 +72,13 @@ def test_each_bench_action_queues_its_label_inside_its_own_event(
         "vial_gross": "6.0000 g",
     }
     _queued_by_one_event(
-        db, lambda: lab.dissolve(db, "tech", dissolve), lambda a: a.item.id, counts
+        db, lambda: solutions.dissolve(db, "tech", dissolve), lambda a: a.item.id, counts
     )
     solution = _labels(db)[-1].item_ref
     make.concentration(db, solution)
     take = {"solution": solution, "tare": "2.0000 g", "gross": "2.1000 g"}
     _queued_by_one_event(
-        db, lambda: lab.take_aliquot(db, "tech", take), lambda a: a.item.id, counts
+        db, lambda: solutions.take_aliquot(db, "tech", take), lambda a: a.item.id, counts
     )
     batch = make.batch(db)
     blank = {"batch": batch, "kind": "blank"}
@@ -103,11 +105,11 @@ def test_queue_by_hand_is_one_event_for_all_items(db: Database, counts: Counts) 
     spec = make.specimen(db, make.loan(db))
     powder = make.powder(db, spec)
     for label_id in (spec, powder):  # clear what the bench actions queued
-        labels.cancel_labels(db, "tech", {"items": [label_id], "reason": "test set-up"})
+        handling.cancel_labels(db, "tech", {"items": [label_id], "reason": "test set-up"})
     material = {"name": "Invented carbonate", "element": "Ca"}
     reference = chemistry.add_reference_material(db, "boss", material).item.id
     before = counts()
-    answer = labels.queue_labels(
+    answer = handling.queue_labels(
         db, "tech", {"items": [spec, powder.lower(), reference], "copies": 2}
     )
     assert counts()["ledger_head"] == before["ledger_head"] + 1
@@ -118,7 +120,7 @@ def test_queue_by_hand_is_one_event_for_all_items(db: Database, counts: Counts) 
     payload = json.loads(event.payload)
     facts = payload.pop("facts")
     assert payload == {"items": [spec, powder, reference], "copies": 2}
-    listed = labels.list_labels(db)
+    listed = handling.list_labels(db)
     assert [row.item for row in listed] == [spec, spec, powder, powder, reference, reference]
     assert all(row.queued_event == event.seq for row in listed)
     # the six rows that name the event are among its facts, as they were stored
@@ -148,7 +150,7 @@ def test_queue_refusals_write_nothing(
     loan = make.loan(db)
     spec = make.specimen(db, loan)  # checked in: its label is queued
     with db.read_session() as session:
-        from tracker.services.lookup import get_loan
+        from tracker.services.core.lookup import get_loan
 
         loan_id = get_loan(session, "loan", loan).public_id
     filled = [
@@ -157,7 +159,7 @@ def test_queue_refusals_write_nothing(
     ]
     before = counts()
     with pytest.raises(error) as caught:
-        labels.queue_labels(db, "tech", {"items": filled})
+        handling.queue_labels(db, "tech", {"items": filled})
     assert caught.value.field == field and fragment in caught.value.reason
     assert counts() == before
 
@@ -165,13 +167,13 @@ def test_queue_refusals_write_nothing(
 def test_cancel_takes_labels_off_the_queue_with_one_event(db: Database, counts: Counts) -> None:
     spec = make.specimen(db, make.loan(db))
     before = counts()
-    answer = labels.cancel_labels(db, "tech", {"items": [spec], "reason": "returned unopened"})
+    answer = handling.cancel_labels(db, "tech", {"items": [spec], "reason": "returned unopened"})
     assert answer.item.items == [spec]
     assert counts()["ledger_head"] == before["ledger_head"] + 1
-    assert labels.list_labels(db) == []
-    assert [r.status for r in labels.list_labels(db, everything=True)] == ["cancelled"]
+    assert handling.list_labels(db) == []
+    assert [r.status for r in handling.list_labels(db, everything=True)] == ["cancelled"]
     with pytest.raises(RuleViolation, match="no label in the queue"):
-        labels.cancel_labels(db, "tech", {"items": [spec], "reason": "again"})
+        handling.cancel_labels(db, "tech", {"items": [spec], "reason": "again"})
 
 
 PREFIX = "HTTPS://LAB.EXAMPLE/T/"  # invented
@@ -182,12 +184,12 @@ def test_the_link_prefix_is_a_manager_setting_recorded_in_the_ledger(
 ) -> None:
     before = counts()
     with pytest.raises(RuleViolation, match="manager"):
-        labels.set_uri_prefix(db, "tech", {"uri_prefix": PREFIX})
+        handling.set_uri_prefix(db, "tech", {"uri_prefix": PREFIX})
     with pytest.raises(InputError, match="not a URI prefix"):
-        labels.set_uri_prefix(db, "boss", {"uri_prefix": "lab example t"})
+        handling.set_uri_prefix(db, "boss", {"uri_prefix": "lab example t"})
     assert counts() == before
-    labels.set_uri_prefix(db, "boss", {"uri_prefix": PREFIX})
-    assert labels.label_settings(db).uri_prefix == PREFIX
+    handling.set_uri_prefix(db, "boss", {"uri_prefix": PREFIX})
+    assert handling.label_settings(db).uri_prefix == PREFIX
     event = _events(db)[-1]
     payload = json.loads(event.payload)
     facts = payload.pop("facts")
@@ -196,8 +198,8 @@ def test_the_link_prefix_is_a_manager_setting_recorded_in_the_ledger(
         {"uri_prefix": PREFIX, "previous": None},
     )
     assert facts["created"]["lab_setting"]["uri_prefix"]["value"] == PREFIX
-    labels.set_uri_prefix(db, "boss", {"uri_prefix": None})
-    assert labels.label_settings(db).uri_prefix is None
+    handling.set_uri_prefix(db, "boss", {"uri_prefix": None})
+    assert handling.label_settings(db).uri_prefix is None
     gone = json.loads(_events(db)[-1].payload)["facts"]
     # a setting is cleared in place (no service deletes a row), so its value is stated empty
     assert list(gone) == ["changed"]
@@ -206,7 +208,7 @@ def test_the_link_prefix_is_a_manager_setting_recorded_in_the_ledger(
 
 
 def test_a_scanned_link_is_accepted_wherever_an_id_is(db: Database) -> None:
-    labels.set_uri_prefix(db, "boss", {"uri_prefix": PREFIX})
+    handling.set_uri_prefix(db, "boss", {"uri_prefix": PREFIX})
     spec = make.specimen(db, make.loan(db))
     powder = drilling.drill(
         db,
@@ -218,23 +220,23 @@ def test_a_scanned_link_is_accepted_wherever_an_id_is(db: Database) -> None:
             "gross": "2.000 mg",
         },
     ).item.id
-    assert labels.read_scan(db, PREFIX + powder).id == powder
-    assert labels.facts_for(db, [spec])[0].payload == PREFIX + spec
+    assert handling.read_scan(db, PREFIX + powder).id == powder
+    assert handling.facts_for(db, [spec])[0].payload == PREFIX + spec
     with pytest.raises(InputError, match="not to this lab's labels") as caught:
-        labels.read_scan(db, "HTTPS://OTHER-LAB.EXAMPLE/T/" + powder)
+        handling.read_scan(db, "HTTPS://OTHER-LAB.EXAMPLE/T/" + powder)
     assert caught.value.field == "scanned"
 
 
 def test_a_link_is_refused_when_the_lab_prints_none(db: Database) -> None:
     spec = make.specimen(db, make.loan(db))
     with pytest.raises(InputError, match="prints no link prefix"):
-        labels.read_scan(db, PREFIX + spec)
+        handling.read_scan(db, PREFIX + spec)
 
 
 def test_a_scan_says_what_the_label_names(db: Database) -> None:
     spec = make.specimen(db, make.loan(db))
     powder = make.powder(db, spec, mg="2.150")
-    found = labels.read_scan(db, powder.lower().replace("-", ""))
+    found = handling.read_scan(db, powder.lower().replace("-", ""))
     assert (found.id, found.kind, found.status) == (powder, "powder", "available")
     assert found.label[1] == "enamel · 2.150 mg"
     assert [a.split()[0] for a in found.ancestors][-1] == spec
@@ -246,6 +248,6 @@ def test_a_wrong_check_character_names_expected_and_typed(db: Database) -> None:
     wrong = "0" if right != "0" else "1"
     expected = mod_37_2.calc_check_digit(spec[:8].replace("-", ""))  # python-stdnum
     with pytest.raises(InputError) as caught:
-        labels.read_scan(db, spec[:-1] + wrong)
+        handling.read_scan(db, spec[:-1] + wrong)
     reason = caught.value.reason
     assert f"check character '{wrong}'" in reason and f"would end in '{expected}'" in reason

@@ -10,7 +10,7 @@ from sqlalchemy import text
 
 from tests import factories as make
 from tracker.db.database import Database
-from tracker.services.ledger import verify
+from tracker.services.ledger.chain import verify
 
 
 @pytest.fixture

@@ -13,8 +13,10 @@ from tests.conftest import Counts
 from tracker.db.database import Database
 from tracker.domain.errors import InputError, NotFound, RuleViolation
 from tracker.domain.models import ContainerStatus, CustodyEvent, Powder, SpecimenStatus
-from tracker.services import chemistry, custody, drilling, lab, lineage, specimens
-from tracker.services.ledger import verify
+from tracker.services.bench import chemistry, custody, drilling, solutions
+from tracker.services.ledger.chain import verify
+from tracker.services.loans import specimens
+from tracker.services.read import lineage
 
 
 def last_event(db: Database) -> CustodyEvent:
@@ -137,7 +139,7 @@ def test_future_action_time_is_refused(db: Database, counts: Counts) -> None:
 
 def test_dissolving_part_then_the_rest_consumes_the_powder(db: Database) -> None:
     powder = make.powder(db, make.specimen(db, make.loan(db)), mg="2.000")
-    first = lab.dissolve(
+    first = solutions.dissolve(
         db,
         "tech",
         {
@@ -162,7 +164,7 @@ def test_child_larger_than_parent_is_refused(db: Database, counts: Counts) -> No
     powder = make.powder(db, make.specimen(db, make.loan(db)), mg="2.000")
     before = counts()
     with pytest.raises(RuleViolation, match="more than remains"):
-        lab.dissolve(
+        solutions.dissolve(
             db,
             "tech",
             {
@@ -190,7 +192,7 @@ def test_rounding_at_the_last_digit_is_not_an_overdraw(db: Database) -> None:
 
 def test_element_amounts_follow_the_concentration(db: Database) -> None:
     solution = make.solution(db, make.powder(db, make.specimen(db, make.loan(db))), grams="2.0000")
-    answer = lab.record_concentration(
+    answer = solutions.record_concentration(
         db,
         "tech",
         {"solution": solution, "element": "Ca", "value": "0.5 mg/g", "uncertainty": "5 ug/g"},
@@ -202,7 +204,7 @@ def test_element_amounts_follow_the_concentration(db: Database) -> None:
     expected_u = 1000 * math.hypot(u_mass / 2.0, 5 / 500)
     assert answer.item.element_ug == pytest.approx(1000)
     assert answer.item.element_u_ug == pytest.approx(expected_u, rel=1e-9)
-    aliquot = lab.take_aliquot(
+    aliquot = solutions.take_aliquot(
         db, "tech", {"solution": solution, "tare": "2.0000 g", "gross": "2.2000 g"}
     )
     assert aliquot.item.element_ug == pytest.approx(100)
@@ -218,7 +220,9 @@ def test_concentration_needs_unit_and_one_uncertainty(db: Database, counts: Coun
         {"value": "800 ug/g", "element": "CA", "uncertainty": "1 ug/g"},
     ):
         with pytest.raises(InputError):
-            lab.record_concentration(db, "tech", {"solution": solution, "element": "Ca"} | request)
+            solutions.record_concentration(
+                db, "tech", {"solution": solution, "element": "Ca"} | request
+            )
     assert counts() == before
 
 

@@ -24,7 +24,7 @@ from tracker.db import migrate
 from tracker.db.database import open_database, upgrade_database
 from tracker.db.engine import build_engine, create_private_file
 from tracker.domain.errors import RuleViolation
-from tracker.services.audit import audit
+from tracker.services.ledger.audit import audit
 
 BEFORE = "0010_logins"
 _names = count()

@@ -23,9 +23,10 @@ from tracker.db.engine import build_engine, create_private_file
 from tracker.domain.base import Base
 from tracker.domain.errors import RuleViolation
 from tracker.domain.ids import check_character
-from tracker.services import keys as keys_service
-from tracker.services import lineage, setup
-from tracker.services.ledger import verify
+from tracker.services.admin import keys as keys_service
+from tracker.services.admin import setup
+from tracker.services.ledger.chain import verify
+from tracker.services.read import lineage
 
 
 def test_revision_list_matches_the_migration_scripts() -> None:

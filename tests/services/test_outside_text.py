@@ -17,7 +17,10 @@ from tests import factories, keys
 from tests.conftest import snapshot_counts
 from tracker.db.database import Database
 from tracker.domain.errors import InputError, RuleViolation
-from tracker.services import custody, instrument, loans, manifests, setup, specimens
+from tracker.services.admin import setup
+from tracker.services.bench import custody
+from tracker.services.instrument import sessions
+from tracker.services.loans import lending, manifests, specimens
 
 # One character of each class the rule refuses, with the Unicode category that says so.
 HIDDEN = {
@@ -66,7 +69,7 @@ def test_names_are_one_line_and_notes_keep_their_lines(db: Database) -> None:
     before = snapshot_counts(db)
     for char in ("\n", "\t", "\r"):
         with pytest.raises(InputError) as caught:
-            loans.add_lender(db, "boss", {"name": f"Two{char}lines Museum"})
+            lending.add_lender(db, "boss", {"name": f"Two{char}lines Museum"})
         assert caught.value.field == "name"
     assert snapshot_counts(db) == before
     loan = factories.loan(db)
@@ -82,7 +85,7 @@ def test_names_are_one_line_and_notes_keep_their_lines(db: Database) -> None:
 
 
 def test_text_inside_a_nested_request_is_named_by_its_path(db: Database) -> None:
-    lender = loans.add_lender(db, "boss", {"name": "Fictional Museum"}).item.id
+    lender = lending.add_lender(db, "boss", {"name": "Fictional Museum"}).item.id
     before = snapshot_counts(db)
     request = {
         "lender": lender,
@@ -93,7 +96,7 @@ def test_text_inside_a_nested_request_is_named_by_its_path(db: Database) -> None
         "terms": {"permitted_tissues": ["enamel\u200b"], "due_on": "2027-12-31"},
     }
     with pytest.raises(InputError) as caught:
-        loans.add_loan(db, "boss", request)
+        lending.add_loan(db, "boss", request)
     assert caught.value.field == "terms.permitted-tissues"
     assert snapshot_counts(db) == before
 
@@ -181,7 +184,7 @@ PROFILE: dict[str, Any] = {
 
 def test_an_instrument_row_kept_as_text_is_judged_at_its_row_and_column(db: Database) -> None:
     setup.add_operator(db, "boss", keys.person("ana", "Ana Lyst"))
-    instrument.save_profile(db, "boss", {"name": "mc", "definition": PROFILE})
+    sessions.save_profile(db, "boss", {"name": "mc", "definition": PROFILE})
     before = snapshot_counts(db)
     export = "Run,Name,r4440\n1,STD-X,2.1\n2,unknown\u202evial,2.2\n3,STD-X,2.1\n"
     request = {
@@ -194,7 +197,7 @@ def test_an_instrument_row_kept_as_text_is_judged_at_its_row_and_column(db: Data
         "bracketing_standard": "STD-X",
     }
     with pytest.raises(InputError) as caught:
-        instrument.import_session(db, "ana", request)
+        sessions.import_session(db, "ana", request)
     assert caught.value.field == "run.csv, row 3, column Name"
     assert "<U+202E>" in str(caught.value.value)
     assert snapshot_counts(db) == before
@@ -204,6 +207,6 @@ def test_a_saved_profile_names_the_key_with_the_hidden_character(db: Database) -
     before = snapshot_counts(db)
     spoiled = {**PROFILE, "columns": {**PROFILE["columns"], "sample_name": "Na\x1bme"}}
     with pytest.raises(InputError) as caught:
-        instrument.save_profile(db, "boss", {"name": "mc", "definition": spoiled})
+        sessions.save_profile(db, "boss", {"name": "mc", "definition": spoiled})
     assert caught.value.field == "definition.columns.sample-name"
     assert snapshot_counts(db) == before

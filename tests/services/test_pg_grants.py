@@ -18,7 +18,11 @@ from tests.keys import PASSPHRASE
 from tests.logins import Cluster, cli, ok
 from tracker.db.database import Database, open_database
 from tracker.domain.models import CustodyEvent
-from tracker.services import corrections, drilling, keys, ledger, loans, specimens
+from tracker.services.admin import keys
+from tracker.services.bench import drilling
+from tracker.services.corrections import weighings
+from tracker.services.ledger import chain
+from tracker.services.loans import lending, specimens
 
 STORAGE = Path(__file__).resolve().parents[2] / "docs" / "storage.md"
 pytestmark = pytest.mark.postgresql
@@ -103,21 +107,21 @@ def test_the_readme_set_up_gives_each_person_a_login_that_works_but_edits_no_his
         made = keys.key_to_unlock(tomas, "tomas")
         assert made is not None
         keys.unlock_file(tomas, made, PASSPHRASE)
-        lender = loans.add_lender(amira, "amira", {"name": "Invented Museum"}).item.id
+        lender = lending.add_lender(amira, "amira", {"name": "Invented Museum"}).item.id
         terms = {"permitted_tissues": ["enamel"], "max_total_mass": "40 mg", "due_on": "2030-01-01"}
         loan = {"lender": lender, "reference": "IM-1", "title": "Teeth", "borrower": "A. Haddad"}
-        loans.add_loan(amira, "amira", {**loan, "received_on": "2026-01-02", "terms": terms})
+        lending.add_loan(amira, "amira", {**loan, "received_on": "2026-01-02", "terms": terms})
         spec = specimens.add_specimen(tomas, "tomas", {"loan": "IM-1", "catalog_number": "T-1"})
         specimens.check_in(tomas, "tomas", {"specimen": spec.item.id, "condition": "complete"})
         drill = {"specimen": spec.item.id, "tissue": "enamel", "tare": "1000.000 mg"}
         powder = drilling.drill(tomas, "tomas", {**drill, "gross": "1002.000 mg"}).item.id
         fix = {"item": powder, "tare": "1000.000 mg", "gross": "1002.020 mg", "reason": "misread"}
-        corrections.correct_weighing(tomas, "tomas", fix)
+        weighings.correct_weighing(tomas, "tomas", fix)
         with tomas.read_session() as session:
             who = session.execute(select(CustodyEvent.action, CustodyEvent.operator)).all()
         assert ("powder.corrected", "tomas") in who and ("loan.added", "amira") in who
         assert ("operator.login_bound", "amira") in who
-        assert ledger.verify(tomas).ok
+        assert chain.verify(tomas).ok
         refusals = []
         for statement in REFUSED:
             with pytest.raises(Exception) as caught, tomas.engine.begin() as conn:
@@ -125,7 +129,7 @@ def test_the_readme_set_up_gives_each_person_a_login_that_works_but_edits_no_his
             refusals.append(str(caught.value).lower())
         # refused by privilege or ownership, not merely by the triggers behind them
         assert all("permission denied" in r or "must be owner" in r for r in refusals), refusals
-        assert ledger.verify(tomas).ok
+        assert chain.verify(tomas).ok
     finally:
         amira.close()
         tomas.close()

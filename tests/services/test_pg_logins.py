@@ -28,6 +28,7 @@ from tests.logins import (
     drop_database,
     new_database,
 )
+from tracker.demo import Replay
 from tracker.domain.errors import RuleViolation
 from tracker.domain.ids import Kind, format_id
 from tracker.domain.models import (
@@ -42,23 +43,15 @@ from tracker.domain.models import (
     Result,
     Solution,
 )
-from tracker.io.demo import Replay
 from tracker.output import jobs
-from tracker.services import (
-    amendments,
-    batch_sheet,
-    chemistry,
-    corrections,
-    corrections_values,
-    drilling,
-    labels,
-    ledger,
-    manifests,
-    reduction,
-    settings,
-    specimens,
-)
-from tracker.services.views import Done
+from tracker.services.admin import backdating
+from tracker.services.bench import batch_sheet, chemistry, drilling
+from tracker.services.core.views import Done
+from tracker.services.corrections import measured_values, weighings
+from tracker.services.instrument import reduction
+from tracker.services.labels import handling
+from tracker.services.ledger import chain
+from tracker.services.loans import amendments, manifests, specimens
 
 pytestmark = pytest.mark.postgresql
 
@@ -141,7 +134,7 @@ def test_corrections_and_reductions_work_as_each_persons_login(demo_lab: Lab) ->
     loaded = lab.one(select(BatchPosition.loaded_ug).where(BatchPosition.aliquot_id == aliquot.id))
     tare = f"{powder.tare_mg:.3f} mg"
     done: list[Done[Any]] = [
-        corrections.correct_weighing(
+        weighings.correct_weighing(
             lab.db("tomas"),
             "tomas",
             {
@@ -151,7 +144,7 @@ def test_corrections_and_reductions_work_as_each_persons_login(demo_lab: Lab) ->
                 "reason": "misread the balance",
             },
         ),
-        corrections.correct_weighing(
+        weighings.correct_weighing(
             lab.db("priya"),
             "priya",
             {
@@ -161,7 +154,7 @@ def test_corrections_and_reductions_work_as_each_persons_login(demo_lab: Lab) ->
                 "reason": "tare of another vial",
             },
         ),
-        corrections.correct_powder_taken(
+        weighings.correct_powder_taken(
             lab.db("priya"),
             "priya",
             {
@@ -170,7 +163,7 @@ def test_corrections_and_reductions_work_as_each_persons_login(demo_lab: Lab) ->
                 "reason": "checked against the notebook",
             },
         ),
-        corrections.correct_weighing(
+        weighings.correct_weighing(
             lab.db("priya"),
             "priya",
             {
@@ -180,7 +173,7 @@ def test_corrections_and_reductions_work_as_each_persons_login(demo_lab: Lab) ->
                 "reason": "a drop more",
             },
         ),
-        corrections_values.correct_concentration(
+        measured_values.correct_concentration(
             lab.db("priya"),
             "priya",
             {
@@ -191,7 +184,7 @@ def test_corrections_and_reductions_work_as_each_persons_login(demo_lab: Lab) ->
                 "reason": "recalibrated",
             },
         ),
-        corrections_values.correct_recovery(
+        measured_values.correct_recovery(
             lab.db("ines"),
             "ines",  # a manager corrects another's entry from her own login
             {"cut": cut.public_id, "recovered": "0.0101 mg", "reason": "re-measured"},
@@ -216,7 +209,7 @@ def test_corrections_and_reductions_work_as_each_persons_login(demo_lab: Lab) ->
     assert again and all(after[key] > before[key] for key in again)
     now = lab.one(select(BatchPosition.loaded_ug).where(BatchPosition.aliquot_id == aliquot.id))
     assert now != loaded  # the aliquot's mass and its solution's concentration changed it
-    assert ledger.verify(lab.db("tomas")).ok
+    assert chain.verify(lab.db("tomas")).ok
 
 
 def _results(lab: Lab) -> list[Result]:
@@ -230,9 +223,9 @@ def test_what_the_demo_does_not_do_works_as_each_persons_login(
     """Settings, a corrected manifest, a batch sheet and printing labels, by own logins."""
     lab = demo_lab
     done: list[Done[Any]] = [
-        settings.set_backdating_window(lab.db("ines"), "ines", {"window": "5 days"}),
-        labels.set_uri_prefix(lab.db("ines"), "ines", {"uri_prefix": "https://lab.invalid/i/"}),
-        labels.set_uri_prefix(lab.db("ines"), "ines", {"uri_prefix": None}),
+        backdating.set_backdating_window(lab.db("ines"), "ines", {"window": "5 days"}),
+        handling.set_uri_prefix(lab.db("ines"), "ines", {"uri_prefix": "https://lab.invalid/i/"}),
+        handling.set_uri_prefix(lab.db("ines"), "ines", {"uri_prefix": None}),
     ]
     fixed = b"catalogNumber,locality\nKFMNH P 20311,Invented Quarry 2\n"
     manifest = {"loan": "KF-2026-014", "filename": "list.csv", "content": fixed}
@@ -261,8 +254,8 @@ def test_what_the_demo_does_not_do_works_as_each_persons_login(
         made = dict(session.execute(select(CustodyEvent.seq, CustodyEvent.operator)).all())
     seqs = [d.event_seq for d in done] + [imported.event_seq, printed.event_seq]
     assert [made[seq] for seq in seqs] == ["ines"] * 3 + ["priya"] * 2 + ["ines", "tomas"]
-    assert labels.label_settings(lab.db("tomas")).uri_prefix is None
-    assert ledger.verify(lab.db("tomas")).ok
+    assert handling.label_settings(lab.db("tomas")).uri_prefix is None
+    assert chain.verify(lab.db("tomas")).ok
 
 
 def test_a_managers_own_login_does_a_managers_work(demo_lab: Lab) -> None:
@@ -340,4 +333,4 @@ def _check_the_days_work(lab: Lab, tried: Iterable[str], out: Path) -> None:
     work = [who for action, who in events if action != "operator.login_bound"]
     assert work == ["ines"] + [step["by"] for step in demo_steps()] + ["ines"]
     assert events[-1].action == "report.generated"
-    assert ledger.verify(lab.db("tomas")).ok
+    assert chain.verify(lab.db("tomas")).ok

@@ -10,8 +10,9 @@ from tests import factories as make
 from tracker.db.database import Database
 from tracker.domain.errors import InputError
 from tracker.domain.formula import mass_fraction
-from tracker.services import custody, drilling, lab, planning
-from tracker.services.reconcile import LoanLine, reconcile
+from tracker.services.bench import custody, drilling, solutions
+from tracker.services.loans import planning
+from tracker.services.read.reconcile import LoanLine, reconcile
 
 
 def drill(db: Database, specimen: str, mg: str) -> str:
@@ -167,7 +168,7 @@ def test_plan_counts_material_already_on_hand(db: Database) -> None:
     loan = make.loan(db)
     spec = make.specimen(db, loan)
     solution = make.solution(db, drill(db, spec, "1.000"), grams="1.0000")
-    lab.record_concentration(
+    solutions.record_concentration(
         db,
         "tech",
         {"solution": solution, "element": "Ca", "value": "400 ug/g", "uncertainty": "4 ug/g"},

@@ -19,8 +19,11 @@ from tests import factories as make
 from tests.conftest import Counts
 from tracker.db.database import Database
 from tracker.domain.errors import InputError, RuleViolation
-from tracker.services import custody, ledger, manifests, reports, shipments, specimens
-from tracker.services.reconcile import reconcile
+from tracker.services.bench import custody
+from tracker.services.ledger import chain
+from tracker.services.loans import manifests, shipments, specimens
+from tracker.services.read import reports
+from tracker.services.read.reconcile import reconcile
 
 HEAD = "catalogNumber,scientificName,preparations,locality,eventDate,decimalLatitude,ageMaxMa"
 ROWS = [
@@ -80,7 +83,7 @@ def test_manifest_imports_once_then_updates_only_the_changed_cell(
     after = counts()
     assert after["specimen"] == before["specimen"]
     assert after["custody_event"] == before["custody_event"] + 1
-    (event,) = ledger.recent_events(db, 1)
+    (event,) = chain.recent_events(db, 1)
     assert event.action == "manifest.imported" and event.seq == outcome.event_seq
     assert event.payload["sha256"] == hashlib.sha256(csv_bytes(ROWS[0], edited)).hexdigest()
 
@@ -158,7 +161,7 @@ def test_report_totals_are_reconcile_totals(db: Database, counts: Counts) -> Non
         assert sum(p.dissolved_mg for p in entry.powders) == pytest.approx(expected.dissolved_mg)
         held = sum(p.left_mg for p in entry.powders if p.status == "available")
         assert held == pytest.approx(expected.powder_on_hand_mg, abs=1e-9)
-    head = ledger.verify(db)
+    head = chain.verify(db)
     assert (report.ledger.seq, report.ledger.hash, report.ledger.intact) == (
         head.head_seq,
         head.head_hash,
@@ -181,7 +184,7 @@ def test_report_totals_are_reconcile_totals(db: Database, counts: Counts) -> Non
         "custody_event": 1,
         "ledger_head": 1,
     }
-    assert recorded.item.files == {"pdf": digest} and ledger.verify(db).ok
+    assert recorded.item.files == {"pdf": digest} and chain.verify(db).ok
 
 
 # ---------------------------------------------------------------- shipments and photos

@@ -17,17 +17,12 @@ from tests import keys
 from tests.conftest import Counts
 from tracker.db.database import Database
 from tracker.domain.errors import RuleViolation
-from tracker.services import (
-    amendments,
-    chemistry,
-    corrections,
-    custody,
-    drilling,
-    labels,
-    results,
-    setup,
-    specimens,
-)
+from tracker.services.admin import setup
+from tracker.services.bench import chemistry, custody, drilling
+from tracker.services.corrections import weighings
+from tracker.services.instrument import results
+from tracker.services.labels import handling
+from tracker.services.loans import amendments, specimens
 
 REASON = "the lender agreed by letter of 2026-01-04"
 
@@ -101,7 +96,7 @@ MANAGER_ONLY: dict[str, tuple[str, Setup, Act]] = {
     "correcting another operator's entry": (
         "correcting powder mass recorded by tova",
         _others_powder,
-        lambda db, who, powder: corrections.correct_weighing(
+        lambda db, who, powder: weighings.correct_weighing(
             db,
             who,
             {"item": powder, "tare": "1000.000 mg", "gross": "1002.100 mg", "reason": REASON},
@@ -126,7 +121,9 @@ MANAGER_ONLY: dict[str, tuple[str, Setup, Act]] = {
     "setting the label URI prefix": (
         "setting the label URI prefix",
         lambda db: None,
-        lambda db, who, _: labels.set_uri_prefix(db, who, {"uri_prefix": "HTTPS://LAB.EXAMPLE/T/"}),
+        lambda db, who, _: handling.set_uri_prefix(
+            db, who, {"uri_prefix": "HTTPS://LAB.EXAMPLE/T/"}
+        ),
     ),
 }
 

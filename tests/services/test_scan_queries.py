@@ -12,8 +12,10 @@ from sqlalchemy import event
 from tests import factories as make
 from tracker.db.database import Database
 from tracker.domain.ids import PublicId, parse_id
-from tracker.services import labels, lineage_load, lookup
-from tracker.services.labels import read_scan
+from tracker.services.core import lookup
+from tracker.services.labels import handling
+from tracker.services.labels.handling import read_scan
+from tracker.services.read import lineage
 
 
 @contextmanager
@@ -59,7 +61,7 @@ def test_a_scan_reads_the_id_once(db: Database, monkeypatch: pytest.MonkeyPatch)
         return parse_id(text, prefix)
 
     monkeypatch.setattr(lookup, "parse_id", reading)
-    for module in (lineage_load, labels):  # wherever a second reading used to hide
+    for module in (lineage, handling):  # wherever a second reading used to hide
         if hasattr(module, "parse_id"):
             monkeypatch.setattr(module, "parse_id", reading)
     answer = read_scan(db, aliquot.lower())

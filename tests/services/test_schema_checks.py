@@ -27,8 +27,8 @@ from tests.services.audit_lab import Books
 from tracker.db.database import Database
 from tracker.domain.base import Base
 from tracker.domain.errors import RuleViolation
-from tracker.services import drilling
-from tracker.services.drilling import Drill
+from tracker.services.bench import drilling
+from tracker.services.bench.drilling import Drill
 
 APPEND_ONLY = {"custody_event", "correction", "backdated_entry", "event_ref"}
 

@@ -8,8 +8,9 @@ from tests import factories as make
 from tests.conftest import Counts
 from tracker.db.database import Database
 from tracker.domain.errors import InputError, RuleViolation
-from tracker.services import loans, setup, specimens
-from tracker.services.inputs import Raw
+from tracker.services.admin import setup
+from tracker.services.core.inputs import Raw
+from tracker.services.loans import lending, specimens
 
 
 def test_only_managers_add_operators(db: Database, counts: Counts) -> None:
@@ -30,7 +31,7 @@ def test_every_write_needs_a_known_operator(
 ) -> None:
     before = counts()
     with pytest.raises(InputError) as caught:
-        loans.add_lender(db, actor, {"name": "Nowhere Museum"})
+        lending.add_lender(db, actor, {"name": "Nowhere Museum"})
     assert caught.value.field == "--as"
     assert counts() == before
 
@@ -54,7 +55,7 @@ def test_location_tree_rules(db: Database, counts: Counts) -> None:
 
 def test_loan_records_original_terms(db: Database) -> None:
     ref = make.loan(db, permitted_tissues="Enameloid, enamel ,", max_total_mass="0.015 g")
-    loan = next(v for v in loans.list_loans(db) if v.reference == ref)
+    loan = next(v for v in lending.list_loans(db) if v.reference == ref)
     assert loan.terms.version == 1 and loan.terms.kind == "original"
     assert loan.terms.permitted_tissues == ["enamel", "enameloid"]
     assert loan.terms.max_total_mass_mg == pytest.approx(15.0)

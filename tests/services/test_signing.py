@@ -28,8 +28,11 @@ from tracker.domain.errors import InputError, RuleViolation
 from tracker.domain.ledger import canonical_json, seal
 from tracker.domain.models import CustodyEvent
 from tracker.domain.signing import Signer
-from tracker.services import amendments, authority, ledger, setup, specimens
-from tracker.services import keys as key_service
+from tracker.services.admin import keys as key_service
+from tracker.services.admin import setup
+from tracker.services.core import authority
+from tracker.services.ledger import chain
+from tracker.services.loans import amendments, specimens
 
 Counts = Callable[[], dict[str, int]]
 
@@ -118,7 +121,7 @@ def test_every_event_is_signed_and_says_where_it_came_from(db: Database) -> None
         assert event.key_id == signer.key_id
         public = Ed25519PublicKey.from_public_bytes(bytes.fromhex(signer.public_hex))
         public.verify(bytes.fromhex(event.signature or ""), event.hash.encode("ascii"))
-    report = ledger.verify(db)
+    report = chain.verify(db)
     assert report.ok and report.signed == report.events == len(stored)
     assert report.unsigned == 0 and report.signing_since == 1
 
@@ -172,7 +175,7 @@ def test_a_revoked_key_signs_nothing_more(db: Database, counts: Counts) -> None:
     PROCESS.add(new)
     key_service.register_key(db, "boss", {"operator": "tech", "public_key": new.public_hex})
     specimens.check_in(db, "tech", {"specimen": waiting, "condition": "complete"})
-    report = ledger.verify(db)
+    report = chain.verify(db)
     assert report.ok and report.signed == report.events
     assert events(db)[-1].key_id == new.key_id
 
@@ -188,7 +191,7 @@ def test_a_deactivated_operator_signs_nothing_more(db: Database, counts: Counts)
     assert counts() == before
     # an event inserted by hand, signed with tech's (still unrevoked) key, is caught
     seq = insert_event(db, keys.signer("tech"), "tech", "item.moved", loan, {"to": "LC-00001-X"})
-    report = ledger.verify(db)
+    report = chain.verify(db)
     assert not report.ok and report.broken_seq == seq
     assert f"tech was deactivated at event #{done.event_seq}" in (report.reason or "")
 
@@ -231,7 +234,7 @@ def test_a_raw_insert_of_a_manager_action_signed_by_a_technician_is_found(db: Da
     with db.engine.begin() as conn:
         conn.execute(text("UPDATE operator SET role = 'manager' WHERE code = 'tech'"))
     seq = insert_event(db, keys.signer("tech"), "tech", "loan.amended", loan, {"kind": "allowance"})
-    report = ledger.verify(db)
+    report = chain.verify(db)
     assert not report.ok and report.broken_seq == seq
     assert report.reason == ("amending a loan needs a manager's signature; tech is a technician")
 
@@ -253,7 +256,7 @@ def test_a_forged_role_change_confers_nothing_and_verify_names_it(
     with pytest.raises(RuleViolation, match=r"\(tech is a technician\)"):
         setup.add_operator(db, "tech", keys.person("eve", "Eve Intruder"))
     assert counts() == before
-    report = ledger.verify(db)
+    report = chain.verify(db)
     assert not report.ok and report.broken_seq == seq
     assert "changing an operator's role needs a manager's signature" in (report.reason or "")
 
@@ -265,7 +268,7 @@ def test_a_forged_key_registration_under_a_managers_name_is_found(db: Database) 
         "key": {"id": intruder.key_id, "operator": "tech", "public_key": intruder.public_hex}
     }
     seq = insert_event(db, intruder, "boss", "key.registered", operator_id(db, "tech"), payload)
-    report = ledger.verify(db)
+    report = chain.verify(db)
     assert not report.ok and report.broken_seq == seq
     assert "which no earlier event registered" in (report.reason or "")
 
@@ -286,7 +289,7 @@ def test_an_altered_signature_or_key_is_found(db: Database, column: str) -> None
             text(f"UPDATE custody_event SET {column} = :v WHERE seq = :s"),
             {"v": new, "s": target.seq},
         )
-    report = ledger.verify(db)
+    report = chain.verify(db)
     assert not report.ok and report.broken_seq == target.seq
     assert "signature" in (report.reason or "") or "registered to" in (report.reason or "")
 
@@ -319,7 +322,7 @@ def test_a_signature_removed_to_pass_as_an_old_event_is_found(db: Database) -> N
             ),
             {"h": digest, "s": target.seq},
         )
-    report = ledger.verify(db)
+    report = chain.verify(db)
     assert not report.ok and report.broken_seq == target.seq
     assert "unsigned event recorded after signing began" in (report.reason or "")
 
@@ -341,7 +344,7 @@ def test_roles_change_by_signed_events_and_the_last_manager_stays_one(
     )
     assert promoted.item.role == "manager"
     amend(db, "tech", make.loan(db))  # now a manager's action by tech is signed by a manager
-    assert ledger.verify(db).ok
+    assert chain.verify(db).ok
 
 
 @pytest.mark.parametrize(

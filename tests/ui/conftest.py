@@ -25,8 +25,8 @@ from textual.widgets import Static
 from textual.worker import WorkerCancelled
 
 from tracker.db.database import Database, open_database
+from tracker.demo import build_demo
 from tracker.domain.models import CustodyEvent
-from tracker.io.demo import build_demo
 from tracker.ui.app import TrackerApp
 
 NOW = datetime(2026, 12, 1, 12, 0, tzinfo=UTC)

@@ -39,7 +39,7 @@ from tracker.domain.models import (
     Specimen,
     SpecimenStatus,
 )
-from tracker.services import audit, ledger
+from tracker.services.ledger import audit, chain
 from tracker.ui.screens.batch import BatchScreen
 from tracker.ui.screens.checkin import CheckInScreen
 from tracker.ui.screens.drill import DrillScreen
@@ -305,7 +305,7 @@ async def test_labels_previewed_and_printed(lab: Lab) -> None:
 
 async def test_ledger_verified_with_its_head_hash(lab: Lab) -> None:
     db = lab.open()
-    expected = ledger.verify(db)
+    expected = chain.verify(db)
     db.close()
     async with lab.app().run_test(size=(80, 24)) as pilot:
         await settle(pilot)

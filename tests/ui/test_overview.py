@@ -11,7 +11,7 @@ from textual.widgets import DataTable, Static
 
 from tests.cli.conftest import invoke, ok_json
 from tests.ui.conftest import Lab, settle, until
-from tracker.services import browse, reconcile
+from tracker.services.read import browse, reconcile
 from tracker.ui.app import TrackerApp
 from tracker.ui.screens.overview import OverviewScreen
 

@@ -19,7 +19,7 @@ from tracker.domain.models import (
     Solution,
     Specimen,
 )
-from tracker.services import browse
+from tracker.services.read import browse
 
 
 def _missing_one_by_one(lab: Lab) -> tuple[dict[str, int], int]:

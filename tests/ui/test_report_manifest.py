@@ -25,7 +25,7 @@ from tests.ui.conftest import (
     until,
 )
 from tracker.domain.models import Loan, Specimen
-from tracker.services import reconcile
+from tracker.services.read import reconcile
 from tracker.ui.screens.loan import LoanScreen
 from tracker.ui.screens.manifest import ManifestScreen
 from tracker.ui.screens.report import ReportScreen

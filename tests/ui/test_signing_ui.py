@@ -11,8 +11,8 @@ from textual.widgets import Input, Static
 
 from tests.ui.conftest import Lab, clock, events_after, head, scan, settle, text_of, until
 from tracker.db.keyring import PROCESS
+from tracker.demo import DEMO_PASSPHRASE, demo_operators, demo_signer, leave_key_files
 from tracker.domain.errors import InputError
-from tracker.io.demo import DEMO_PASSPHRASE, demo_operators, demo_signer, leave_key_files
 from tracker.ui.app import TrackerApp
 from tracker.ui.screens.drill import DrillScreen
 from tracker.ui.screens.ledger import LedgerScreen

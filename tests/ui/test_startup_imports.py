@@ -40,11 +40,11 @@ asyncio.run(main(sys.argv[1]))
 # Loaded on first use, never to show the overview.
 HEAVY = ("numpy", "uncertainties", "reportlab", "qrcode", "PIL", "matplotlib", "alembic")
 LATER = (
-    "tracker.services.labels",
-    "tracker.services.lineage",
-    "tracker.services.label_facts",
+    "tracker.services.labels.handling",
+    "tracker.services.read.lineage",
+    "tracker.services.labels.wording",
     "tracker.output",
-    "tracker.io",
+    "tracker.demo",
     "tracker.ui.screens.loan",
     "tracker.ui.screens.batch",
     "tracker.ui.screens.labels",

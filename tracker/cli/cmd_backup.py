@@ -7,7 +7,8 @@ import typer
 
 from tracker.cli.render import done
 from tracker.cli.state import cli_fields, database, emit, errors, state, unlock
-from tracker.services import backups, ledger
+from tracker.services.admin import backups
+from tracker.services.ledger import chain
 
 BACKUP_EPILOG = (
     "Example: tracker --db lab.sqlite backup /mnt/backup/lab-2026-11-30.sqlite. "
@@ -67,7 +68,7 @@ def restore(
     replaced file is kept beside it (<file>.replaced-<time>), and the restore is
     recorded in the restored ledger.
     """
-    kept = ledger.read_anchor(anchor) if anchor is not None else None
+    kept = chain.read_anchor(anchor) if anchor is not None else None
     settings = state(ctx)
     with cli_fields(ctx):
         restored = backups.open_backup(path)  # the restore is signed in the backup's ledger

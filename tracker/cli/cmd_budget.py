@@ -13,9 +13,12 @@ from tracker.cli.progress import progress_bar
 from tracker.cli.render import done, plain_table, plan_table, reconcile_tables
 from tracker.cli.state import database, emit, errors, perform, read_upload, state
 from tracker.domain.models import Disposition, TermsKind
-from tracker.services import amendments, audit, materials, planning, reconcile
-from tracker.services.audit import AuditReport
-from tracker.services.audit_scope import audit_loan
+from tracker.services.admin import materials
+from tracker.services.ledger import audit
+from tracker.services.ledger.audit import AuditReport
+from tracker.services.ledger.loan_audit import audit_loan
+from tracker.services.loans import amendments, planning
+from tracker.services.read import reconcile
 
 Opt = typer.Option
 

@@ -7,7 +7,7 @@ from rich.table import Table
 
 from tracker.cli.render import done, plain_table
 from tracker.cli.state import database, emit, perform
-from tracker.services import correcting, corrections, corrections_values
+from tracker.services.corrections import correcting, measured_values, weighings
 
 Opt = typer.Option
 Reason = Annotated[str, Opt("--reason", help="Why the recorded value is wrong (kept forever).")]
@@ -50,7 +50,7 @@ def weighing(
         "readability": readability,
         "reason": reason,
     }
-    _answer(ctx, perform(ctx, corrections.correct_weighing, request))
+    _answer(ctx, perform(ctx, weighings.correct_weighing, request))
 
 
 @correct_app.command(
@@ -72,7 +72,7 @@ def powder_taken(
         "readability": readability,
         "reason": reason,
     }
-    _answer(ctx, perform(ctx, corrections.correct_powder_taken, request))
+    _answer(ctx, perform(ctx, weighings.correct_powder_taken, request))
 
 
 @correct_app.command(
@@ -100,7 +100,7 @@ def concentration(
         "method": method,
         "reason": reason,
     }
-    _answer(ctx, perform(ctx, corrections_values.correct_concentration, request))
+    _answer(ctx, perform(ctx, measured_values.correct_concentration, request))
 
 
 @correct_app.command(
@@ -124,7 +124,7 @@ def recovery(
         "relative_uncertainty_percent": rel_u,
         "reason": reason,
     }
-    _answer(ctx, perform(ctx, corrections_values.correct_recovery, request))
+    _answer(ctx, perform(ctx, measured_values.correct_recovery, request))
 
 
 @correct_app.command("list", epilog="Example: tracker correct list PW-00001-5")

@@ -35,7 +35,7 @@ def demo(
     "demo passphrase, invented" (README, Quick start).
     """
     from tracker.db.keyring import PROCESS
-    from tracker.io.demo import build_demo, demo_operators, demo_signer, free_demo_path
+    from tracker.demo import build_demo, demo_operators, demo_signer, free_demo_path
 
     with cli_fields(ctx):
         out = out or free_demo_path(Path.cwd(), DEMO_FILE)

@@ -7,7 +7,7 @@ import typer
 
 from tracker.cli.render import item_detail, overview_table
 from tracker.cli.state import database, emit, state
-from tracker.services import lineage, reconcile
+from tracker.services.read import lineage, reconcile
 
 
 def show_overview(ctx: typer.Context) -> None:

@@ -15,8 +15,9 @@ from tracker.cli.state import database, emit, errors, perform, read_upload
 from tracker.db import outputs
 from tracker.domain.errors import InputError, TrackerError, at_cell
 from tracker.domain.textfiles import MAX_SETTINGS_BYTES, FileProblem, load_settings
-from tracker.services import batch_sheet as batch_sheet_service
-from tracker.services import columns, instrument, reduction, results, screening
+from tracker.services.bench import batch_sheet as batch_sheet_service
+from tracker.services.bench import columns
+from tracker.services.instrument import reduction, results, screening, sessions
 
 Opt = typer.Option
 
@@ -150,7 +151,7 @@ def profile_save(
     """Save a column mapping profile (replaces one of the same name)."""
     with named_file(file):
         answer = perform(
-            ctx, instrument.save_profile, {"name": name, "definition": definition_file(file)}
+            ctx, sessions.save_profile, {"name": name, "definition": definition_file(file)}
         )
     emit(ctx, answer, lambda: done(answer, f"profile {name}"))
 
@@ -159,7 +160,7 @@ def profile_save(
 def profile_list(ctx: typer.Context) -> None:
     """List saved profiles."""
     with database(ctx) as db:
-        rows = instrument.list_profiles(db)
+        rows = sessions.list_profiles(db)
     emit(
         ctx,
         rows,
@@ -217,7 +218,7 @@ def session_import(
         "standard_values": _pairs(standard_value or []),
         "started_at": started,
     }
-    answer = perform(ctx, instrument.import_session, request)
+    answer = perform(ctx, sessions.import_session, request)
     item = answer.item
 
     def human() -> str:
@@ -257,7 +258,7 @@ def session_plot(
 
     with database(ctx) as db:
         outputs.check_target(out, "--out", force=force, database=db.path)
-        series = instrument.standard_drift(db, session)
+        series = sessions.standard_drift(db, session)
         written = outputs.write_new(
             out, drift_png(series), "--out", force=force, database=db.path, clock=db.clock
         )

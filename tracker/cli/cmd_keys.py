@@ -44,7 +44,7 @@ def key_new(
     """
     from tracker.db import outputs
     from tracker.domain.signing import public_pem
-    from tracker.services import keys
+    from tracker.services.admin import keys
 
     code = state(ctx).actor
     if not code:
@@ -85,7 +85,7 @@ def key_register(
     registers their own key; that registration is signed by the key it registers.
     """
     from tracker.domain.signing import key_id
-    from tracker.services import keys
+    from tracker.services.admin import keys
 
     upload = read_upload(public_key_file, "PUBLIC_KEY_FILE", limit=64 * 1024)
     assert upload is not None
@@ -110,7 +110,7 @@ def key_revoke(
 ) -> None:
     """Revoke an operator's key (managers): from now on it signs nothing. A forgotten
     passphrase: revoke the key, and register the new one the person makes."""
-    from tracker.services import keys
+    from tracker.services.admin import keys
 
     request = {"operator": operator, "key": key, "reason": reason}
     answer = perform(ctx, keys.revoke_key, request)
@@ -121,7 +121,7 @@ def key_revoke(
 def key_list(ctx: typer.Context) -> None:
     """Every key the ledger registered: whose, when, revoked or not, and whether its
     private key file is on this machine."""
-    from tracker.services import keys
+    from tracker.services.admin import keys
 
     with database(ctx) as db:
         rows = keys.list_keys(db)

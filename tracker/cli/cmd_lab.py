@@ -9,7 +9,7 @@ from tracker.cli.render import done
 from tracker.cli.state import emit, perform
 from tracker.domain.models import AliquotPurpose, PositionKind
 from tracker.domain.units import format_mass_mg
-from tracker.services import chemistry, custody, drilling, lab
+from tracker.services.bench import chemistry, custody, drilling, solutions
 
 Opt = typer.Option
 At = Annotated[str | None, Opt("--at", help="When it happened, ISO 8601 with zone; default now.")]
@@ -103,7 +103,7 @@ def dissolve(
         "dissolved_at": at,
         "location": to,
     }
-    answer = perform(ctx, lab.dissolve, request)
+    answer = perform(ctx, solutions.dissolve, request)
     item = answer.item
     emit(
         ctx,
@@ -141,7 +141,7 @@ def concentration(
         "method": method,
         "measured_at": at,
     }
-    answer = perform(ctx, lab.record_concentration, request)
+    answer = perform(ctx, solutions.record_concentration, request)
     item = answer.item
     emit(
         ctx,
@@ -182,7 +182,7 @@ def aliquot(
         "taken_at": at,
         "location": to,
     }
-    answer = perform(ctx, lab.take_aliquot, request)
+    answer = perform(ctx, solutions.take_aliquot, request)
     item = answer.item
     amount = f", {item.element} {item.element_ug:.2f} µg" if item.element_ug is not None else ""
     emit(ctx, answer, lambda: done(answer, f"{item.id} {item.mass_g:.4f} g{amount}"))

@@ -15,7 +15,7 @@ from tracker.cli.out_options import Force, kept_note
 from tracker.cli.render import done, plain_table
 from tracker.cli.state import cli_fields, database, emit, perform, state, writing
 from tracker.domain.text_rules import visible
-from tracker.services import labels
+from tracker.services.labels import handling
 
 Opt = typer.Option
 Arg = typer.Argument
@@ -50,7 +50,7 @@ def queue(
     copies: Annotated[int, Opt("--copies", help="Labels per item.")] = 1,
 ) -> None:
     """Queue labels by hand (drills, dissolutions, aliquots, check-ins queue their own)."""
-    answer = perform(ctx, labels.queue_labels, {"items": items, "copies": copies})
+    answer = perform(ctx, handling.queue_labels, {"items": items, "copies": copies})
     count = len(answer.item.items)
     emit(ctx, answer, lambda: done(answer, f"{count} label(s) queued"))
 
@@ -64,7 +64,7 @@ def cancel(
     reason: Annotated[str, Opt("--reason", help="Why these labels are not wanted.")],
 ) -> None:
     """Take items' queued labels off the queue."""
-    answer = perform(ctx, labels.cancel_labels, {"items": items, "reason": reason})
+    answer = perform(ctx, handling.cancel_labels, {"items": items, "reason": reason})
     count = len(answer.item.items)
     emit(ctx, answer, lambda: done(answer, f"{count} queued label(s) cancelled"))
 
@@ -79,7 +79,7 @@ def list_command(
 ) -> None:
     """List the queued labels (what `tracker labels print` would print), in queue order."""
     with database(ctx) as db:
-        rows = labels.list_labels(db, everything, limit)
+        rows = handling.list_labels(db, everything, limit)
 
     def table() -> Table | Text:
         if not rows:
@@ -279,11 +279,11 @@ def uri_prefix_command(
     """Show or set (managers) the link prefix printed in front of IDs in QR codes."""
     if uri_prefix is None and not clear:
         with database(ctx) as db:
-            settings = labels.label_settings(db)
+            settings = handling.label_settings(db)
         shown = settings.uri_prefix or "none: QR codes carry the bare ID"
         emit(ctx, settings, lambda: f"label URI prefix: {shown}")
         return
-    answer = perform(ctx, labels.set_uri_prefix, {"uri_prefix": None if clear else uri_prefix})
+    answer = perform(ctx, handling.set_uri_prefix, {"uri_prefix": None if clear else uri_prefix})
     value = answer.item.uri_prefix or "none"
     emit(ctx, answer, lambda: done(answer, f"label URI prefix: {value}"))
 
@@ -294,7 +294,7 @@ def lookup(
 ) -> None:
     """Say what a scanned label (or a typed ID) names: the item, its label, where it is."""
     with database(ctx) as db:
-        found = labels.read_scan(db, scanned)
+        found = handling.read_scan(db, scanned)
 
     def human() -> Text:
         text = Text.assemble((found.id, "bold"), visible(f"  {found.kind}  {found.what}"))

@@ -14,8 +14,8 @@ from tracker.cli.render import history_table
 from tracker.cli.state import database, emit, errors, state, writing
 from tracker.domain.anchors import AnchorCheck
 from tracker.domain.ledger import VerifyReport
-from tracker.services import audit, ledger
-from tracker.services.audit import AuditReport
+from tracker.services.ledger import audit, chain
+from tracker.services.ledger.audit import AuditReport
 
 ledger_app = typer.Typer(
     epilog="Example: tracker ledger verify --anchor head-2026-11-30.json",
@@ -50,7 +50,7 @@ def _signatures(report: VerifyReport) -> str:
 
 
 @contextmanager
-def _progress(ctx: typer.Context) -> Iterator[ledger.Progress | None]:
+def _progress(ctx: typer.Context) -> Iterator[chain.Progress | None]:
     """A progress bar on stderr when it is a terminal (never with --json): hashes and
     signatures of a decade's ledger take a while."""
     if state(ctx).as_json or not errors.is_terminal:
@@ -85,12 +85,12 @@ def ledger_verify(
     anchor must be signed by a manager's key: a ledger whose newest events were deleted,
     an old copy put back, or an anchor forged for a rewritten ledger fails.
     """
-    kept = ledger.read_anchor(anchor) if anchor is not None else None
+    kept = chain.read_anchor(anchor) if anchor is not None else None
     with database(ctx) as db, _progress(ctx) as progress:
         if kept is None:
-            report, check = ledger.verify(db, progress), None
+            report, check = chain.verify(db, progress), None
         else:
-            both = ledger.verify_against(db, kept, progress)
+            both = chain.verify_against(db, kept, progress)
             report, check = both.chain, both.anchor
     answer: dict[str, Any] = dict(report.__dict__)
     answer["anchor"] = None if check is None else dict(check.__dict__)
@@ -148,9 +148,9 @@ def ledger_anchor(
     actor = state(ctx).actor
     with writing(ctx) as db:
         if out is None:
-            typer.echo(ledger.current_anchor(db, actor).to_text(), nl=False)
+            typer.echo(chain.current_anchor(db, actor).to_text(), nl=False)
             return
-        written = ledger.write_anchor(db, actor, out, force=force)
+        written = chain.write_anchor(db, actor, out, force=force)
     kept = written.anchor
     emit(
         ctx,
@@ -177,7 +177,7 @@ def ledger_list(
 ) -> None:
     """List recent custody events."""
     with database(ctx) as db:
-        events = ledger.recent_events(db, limit, action)
+        events = chain.recent_events(db, limit, action)
     emit(ctx, events, lambda: history_table(events))
 
 
@@ -192,10 +192,10 @@ def ledger_export(
     """Write the ledger as JSON Lines, each field exactly as hashed (see docs/ledger.md)."""
     with database(ctx) as db:
         if out is None:  # the JSON Lines themselves are the output
-            count = ledger.export_jsonl(db, sys.stdout)
+            count = chain.export_jsonl(db, sys.stdout)
             errors.print(f"exported {count} events")
             return
-        count, written = ledger.export_file(db, out, force=force)
+        count, written = chain.export_file(db, out, force=force)
     emit(
         ctx,
         {"events": count, "out": str(out), "replaced_kept_as": kept_as(written.replaced)},

@@ -9,7 +9,8 @@ from rich.table import Table
 from tracker.cli.render import done, plain_table
 from tracker.cli.state import database, emit, perform
 from tracker.domain.models import Disposition
-from tracker.services import custody, loans, specimens
+from tracker.services.bench import custody
+from tracker.services.loans import lending, specimens
 
 lender_app = typer.Typer(
     epilog="Example: tracker lender list",
@@ -45,7 +46,7 @@ def lender_add(
         "contact_name": contact,
         "contact_email": email,
     }
-    answer = perform(ctx, loans.add_lender, request)
+    answer = perform(ctx, lending.add_lender, request)
     emit(ctx, answer, lambda: done(answer, f"{answer.item.id} {name}"))
 
 
@@ -53,7 +54,7 @@ def lender_add(
 def lender_list(ctx: typer.Context) -> None:
     """List lenders."""
     with database(ctx) as db:
-        rows = loans.list_lenders(db)
+        rows = lending.list_lenders(db)
 
     def table() -> Table:
         t = plain_table("id", "name", "code", "contact")
@@ -112,7 +113,7 @@ def loan_add(
             "solution_disposition": solutions,
         },
     }
-    answer = perform(ctx, loans.add_loan, request)
+    answer = perform(ctx, lending.add_loan, request)
     emit(ctx, answer, lambda: done(answer, f"{answer.item.id} {reference}"))
 
 
@@ -120,7 +121,7 @@ def loan_add(
 def loan_list(ctx: typer.Context) -> None:
     """List loans with their current terms."""
     with database(ctx) as db:
-        rows = loans.list_loans(db)
+        rows = lending.list_loans(db)
 
     def table() -> Table:
         t = plain_table("id", "reference", "lender", "status", "tissues", "due")

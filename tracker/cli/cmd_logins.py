@@ -7,7 +7,7 @@ import typer
 from tracker.cli.render import done
 from tracker.cli.state import database, emit, state
 from tracker.db.logins import DEFAULT_GROUP
-from tracker.services import logins
+from tracker.services.admin import logins
 
 GRANTS_EPILOG = (
     "Example: tracker --db postgresql://tracker_owner@db.lab/tracker_lab db workstation-grants"

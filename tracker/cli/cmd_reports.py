@@ -17,7 +17,8 @@ from tracker.domain.errors import InputError
 from tracker.domain.models import ShipmentDirection
 from tracker.domain.text_rules import visible
 from tracker.output import report_files
-from tracker.services import exports, manifests, shipments
+from tracker.services.loans import manifests, shipments
+from tracker.services.read import exports
 
 Opt = typer.Option
 

@@ -17,7 +17,7 @@ from tracker.cli.state import (
     state,
 )
 from tracker.domain.models import LocationKind, Role
-from tracker.services import settings, setup
+from tracker.services.admin import backdating, setup
 
 operator_app = typer.Typer(
     epilog="Example: tracker operator list", help="People who record events.", no_args_is_help=True
@@ -47,8 +47,8 @@ def init(
     """
     from tracker.db.keyfiles import write_key
     from tracker.domain.signing import new_signer
-    from tracker.services.inputs import parse
-    from tracker.services.setup import init_database
+    from tracker.services.admin.setup import init_database
+    from tracker.services.core.inputs import parse
 
     with cli_fields(ctx):
         parse(setup.NewOperator, {"code": code, "name": name})  # before any question
@@ -106,7 +106,7 @@ def operator_add(
 
 
 def _public_key(ctx: typer.Context, path: Path, option: str) -> str:
-    from tracker.services.keys import public_key_from
+    from tracker.services.admin.keys import public_key_from
 
     upload = read_upload(path, option, limit=64 * 1024)
     assert upload is not None
@@ -218,9 +218,9 @@ def backdating_window(
     """
     if window is None:
         with database(ctx) as db:
-            shown = settings.show_backdating_window(db)
+            shown = backdating.show_backdating_window(db)
         note = " (tracker's default)" if shown.default else ""
         emit(ctx, shown, lambda: f"backdating window: {shown.said}{note}")
         return
-    answer = perform(ctx, settings.set_backdating_window, {"window": window})
+    answer = perform(ctx, backdating.set_backdating_window, {"window": window})
     emit(ctx, answer, lambda: done(answer, f"backdating window: {answer.item.said}"))

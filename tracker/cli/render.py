@@ -16,10 +16,10 @@ from rich.tree import Tree
 
 from tracker.domain.text_rules import visible
 from tracker.domain.units import format_mass_mg, format_value_u
-from tracker.services.lineage import ItemDetail, Node
-from tracker.services.planning import Plan
-from tracker.services.reconcile import LoanLine
-from tracker.services.views import Done, EventView
+from tracker.services.core.views import Done, EventView
+from tracker.services.loans.planning import Plan
+from tracker.services.read.lineage import ItemDetail, Node
+from tracker.services.read.reconcile import LoanLine
 
 BAR_WIDTH = 8
 

@@ -5,10 +5,10 @@ from rich.text import Text
 
 from tracker.cli.render import plain_table
 from tracker.domain.text_rules import visible
-from tracker.services.columns import BatchSummary
-from tracker.services.reduction import Reduction, ResultLine
-from tracker.services.results import SpecimenResult
-from tracker.services.screening import Screening
+from tracker.services.bench.columns import BatchSummary
+from tracker.services.instrument.reduction import Reduction, ResultLine
+from tracker.services.instrument.results import SpecimenResult
+from tracker.services.instrument.screening import Screening
 
 
 def _flags(flags: list[str]) -> str:

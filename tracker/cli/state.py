@@ -214,7 +214,7 @@ def unlock(db: Any, actor: str | None, *, first_key: str | None = None) -> None:
     unlocked already; a key that may not sign is refused in one line before any work."""
     if not actor:
         return  # the service says an operator is needed
-    from tracker.services import keys
+    from tracker.services.admin import keys
 
     key_file = keys.key_to_unlock(db, actor, first_key=first_key)
     if key_file is not None:

@@ -26,7 +26,7 @@ UTF-8 bytes of these lines joined by a line feed, no trailing line feed::
 
 Whoever rewrites a ledger can compute a matching unsigned anchor for it; a signed anchor
 needs a manager's private key, and ``ledger verify --anchor`` checks that key against the
-ledger (:func:`tracker.services.ledger.verify_against`).
+ledger (:func:`tracker.services.ledger.chain.verify_against`).
 """
 
 from __future__ import annotations

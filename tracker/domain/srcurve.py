@@ -17,7 +17,7 @@ from dataclasses import dataclass
 from functools import cached_property
 from itertools import pairwise
 
-from tracker.domain.tables import TableError, csv_records
+from tracker.domain.spreadsheets import TableError, csv_records
 
 COVERAGE = 2.0
 MAX_POINTS = 100_000  # screening walks 64 steps per segment: this bounds the work

@@ -18,7 +18,7 @@ from datetime import date, datetime, time
 from typing import IO
 from xml.parsers import expat
 
-from tracker.domain.tables import TableError
+from tracker.domain.spreadsheets import TableError
 from tracker.domain.textfiles import MAX_TABLE_BYTES, FileProblem, check_size
 
 MAX_WORKBOOK_MEMBERS = 1_000

@@ -26,9 +26,9 @@ from tracker.output.pdf import render_pdf
 from tracker.output.png import page_pixels, render_png
 from tracker.output.printer import PrinterReport, send
 from tracker.output.stocks import Stock, check_start, load_stock
-from tracker.services import label_jobs, labels
-from tracker.services.label_jobs import JobView
-from tracker.services.views import Done
+from tracker.services.core.views import Done
+from tracker.services.labels import handling, printing
+from tracker.services.labels.printing import JobView
 
 MIN_DPI, MAX_DPI = 72, 1200
 
@@ -74,7 +74,7 @@ def print_queue(
     """
     request = {"stock": stock, "start": start, "printer": printer}
     target = Target(out, folder, force)
-    return _run(db, actor, label_jobs.print_queue, request, target, stocks_file)
+    return _run(db, actor, printing.print_queue, request, target, stocks_file)
 
 
 def reprint(
@@ -92,7 +92,7 @@ def reprint(
 ) -> PrintOutcome:
     """Named items' labels again, with the reason, recorded as one reprint job."""
     request = {"items": items, "reason": reason, "stock": stock, "start": start, "printer": printer}
-    return _run(db, actor, label_jobs.reprint, request, Target(out, None, force), stocks_file)
+    return _run(db, actor, printing.reprint, request, Target(out, None, force), stocks_file)
 
 
 Service = Callable[..., Done[JobView]]
@@ -177,7 +177,7 @@ def preview(
         raise InputError("dpi", dpi, f"must be between {MIN_DPI} and {MAX_DPI}")
     _check_pixels(chosen, dpi)
     outputs.check_target(out, "out", force=force, database=db.path)
-    facts = labels.facts_for(db, items) if items else labels.queued_facts(db)
+    facts = handling.facts_for(db, items) if items else handling.queued_facts(db)
     if not facts:
         raise InputError("items", None, "no labels are queued; name the IDs to preview")
     pages = lay_out(chosen, facts, start)

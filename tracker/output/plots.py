@@ -9,8 +9,8 @@ from __future__ import annotations
 import io
 from typing import Any
 
-from tracker.services.instrument import DriftSeries
-from tracker.services.results import SpecimenResult
+from tracker.services.instrument.results import SpecimenResult
+from tracker.services.instrument.sessions import DriftSeries
 
 WIDTH_IN, HEIGHT_IN, DPI = 7.0, 4.0, 150
 

@@ -20,8 +20,9 @@ from pathlib import Path
 from tracker.db import outputs
 from tracker.db.database import Database
 from tracker.domain.errors import InputError
-from tracker.services import ledger, reports
-from tracker.services.views import Done
+from tracker.services.core.views import Done
+from tracker.services.ledger import chain
+from tracker.services.read import reports
 
 FORMATS = ("pdf", "csv", "xlsx", "json")
 
@@ -76,7 +77,7 @@ def anchor_bytes(db: Database, actor: str | None, report: reports.ReturnReport) 
     """The ledger head the report shows, checked against the ledger and signed by ``actor``
     (a manager), as an anchor file for `tracker ledger verify --anchor` later."""
     label = f"return report {report.loan['reference']}"
-    anchor = ledger.anchor_for(db, actor, report.ledger.seq, report.ledger.hash, label)
+    anchor = chain.anchor_for(db, actor, report.ledger.seq, report.ledger.hash, label)
     return anchor.to_text().encode()
 
 

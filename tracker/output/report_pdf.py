@@ -34,7 +34,7 @@ from reportlab.platypus import (
     TableStyle,
 )
 
-from tracker.services.reports import PowderLine, ReturnReport, SpecimenEntry
+from tracker.services.read.reports import PowderLine, ReturnReport, SpecimenEntry
 
 FACE, BOLD = "TrackerReport", "TrackerReport-Bold"
 MARGIN = 18 * mm

@@ -5,7 +5,7 @@ from __future__ import annotations
 from typing import Any
 
 from tracker.domain.timeutil import iso_utc
-from tracker.services.reports import ReturnReport, SpecimenEntry
+from tracker.services.read.reports import ReturnReport, SpecimenEntry
 
 COLUMNS = [
     "loanReference",

@@ -1,6 +1,6 @@
 """CSV and XLSX writers that never hand a spreadsheet a formula to run.
 
-Every text cell passes through :func:`tracker.domain.spreadsheet.neutralise`; numbers
+Every text cell passes through :func:`tracker.domain.formula_cells.neutralise`; numbers
 stay numbers. XLSX cells are written as explicit strings or numbers, never as formulas.
 
 Stored text can hold characters an older release let in (an ESC, a bidi override).
@@ -24,7 +24,7 @@ from decimal import Decimal
 from typing import Any
 
 from tracker.domain.base import decimal_text
-from tracker.domain.spreadsheet import neutralise
+from tracker.domain.formula_cells import neutralise
 from tracker.domain.text_rules import marker
 
 # Characters outside XML 1.0's Char production (XML 1.0 Fifth Edition §2.2, from memory:

@@ -6,7 +6,7 @@ any widget sees the keys: it fills the focused ID field or jumps to the scanned 
 
 Start-up: a worker opens the database; with an operator named (``--as``) the loans
 overview is drawn at once and says it is reading the open loans until the services have
-given them (the same :func:`tracker.services.reconcile.reconcile` the CLI's overview calls).
+given them (the same :func:`tracker.services.read.reconcile.reconcile` the CLI's overview calls).
 
 Signing: when an operator is chosen the app asks, once, for the passphrase of their key
 (:class:`~tracker.ui.screens.passphrase.PassphraseScreen`); the unlocked key stays in this
@@ -45,7 +45,7 @@ from tracker.ui.widgets.id_field import IdInput
 if TYPE_CHECKING:  # loaded by the workers that open the database, after the first screen
     from tracker.db.database import Database
     from tracker.db.keyfiles import KeyFile
-    from tracker.services.views import OperatorView
+    from tracker.services.core.views import OperatorView
 
 
 class DatabaseOpened(Message):
@@ -150,7 +150,7 @@ class TrackerApp(App[None]):
     @work(thread=True, exclusive=True, group="open")
     def open_database(self) -> None:
         from tracker.db.database import open_database
-        from tracker.services import setup
+        from tracker.services.admin import setup
 
         try:
             db = open_database(self.target, clock=self.clock)
@@ -213,7 +213,7 @@ class TrackerApp(App[None]):
     @work(thread=True, exclusive=True, group="key")
     def find_key(self, code: str, why: str = "") -> None:
         """Which key file to unlock for ``code`` (none: unlocked already), or why none can."""
-        from tracker.services import keys
+        from tracker.services.admin import keys
 
         if self.db is None:
             return
@@ -253,7 +253,7 @@ class TrackerApp(App[None]):
     @work(thread=True, exclusive=True, group="key")
     def lock_key(self, code: str) -> None:
         """Forget the operator's unlocked keys, then ask for the passphrase again."""
-        from tracker.services import keys
+        from tracker.services.admin import keys
 
         if self.db is None:
             return
@@ -447,12 +447,13 @@ class TrackerApp(App[None]):
 
     @work(thread=True, exclusive=True, group="scan")
     def scan_lookup(self, text: str) -> None:
-        from tracker.services import browse, labels  # heavy: not on start-up
+        from tracker.services.labels import handling
+        from tracker.services.read import browse
 
         if self.db is None:
             return
         try:
-            view = labels.read_scan(self.db, text)
+            view = handling.read_scan(self.db, text)
             batch = (
                 browse.batch_of_position(self.db, view.id) if view.kind == "batchposition" else None
             )

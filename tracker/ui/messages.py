@@ -13,7 +13,7 @@ from tracker.domain.text_rules import visible
 from tracker.ui.plain import shown
 
 if TYPE_CHECKING:  # the label services are heavy; only the scan worker needs them loaded
-    from tracker.services.labels import ScanView
+    from tracker.services.labels.handling import ScanView
 
 
 class Refused(Message):

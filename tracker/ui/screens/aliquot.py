@@ -5,8 +5,8 @@ from __future__ import annotations
 from typing import Any, ClassVar
 
 from tracker.db.database import Database
-from tracker.services import lab
-from tracker.services.views import Done
+from tracker.services.bench import solutions
+from tracker.services.core.views import Done
 from tracker.ui.screens.form import Field, FormScreen
 
 
@@ -24,4 +24,4 @@ class AliquotScreen(FormScreen):
 
     @staticmethod
     def service(db: Database, actor: str | None, values: dict[str, Any]) -> Done[Any]:
-        return lab.take_aliquot(db, actor, values)
+        return solutions.take_aliquot(db, actor, values)

@@ -14,10 +14,11 @@ from textual.screen import Screen
 from textual.widgets import DataTable, Footer, Input, Static
 
 from tracker.domain.errors import TrackerError
-from tracker.services import browse, chemistry, columns
-from tracker.services.browse import BatchLine
-from tracker.services.columns import BatchSummary
-from tracker.services.views import Done
+from tracker.services.bench import chemistry, columns
+from tracker.services.bench.columns import BatchSummary
+from tracker.services.core.views import Done
+from tracker.services.read import browse
+from tracker.services.read.browse import BatchLine
 from tracker.ui.context import database, operator, tracker_app
 from tracker.ui.messages import Refused, refusal_text
 from tracker.ui.plain import shown

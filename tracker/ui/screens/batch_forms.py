@@ -6,8 +6,8 @@ from datetime import date
 from typing import Any, ClassVar
 
 from tracker.db.database import Database
-from tracker.services import chemistry, columns
-from tracker.services.views import Done
+from tracker.services.bench import chemistry, columns
+from tracker.services.core.views import Done
 from tracker.ui.context import tracker_app
 from tracker.ui.screens.form import Field, FormScreen
 

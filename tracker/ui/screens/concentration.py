@@ -5,8 +5,8 @@ from __future__ import annotations
 from typing import Any, ClassVar
 
 from tracker.db.database import Database
-from tracker.services import lab
-from tracker.services.views import Done
+from tracker.services.bench import solutions
+from tracker.services.core.views import Done
 from tracker.ui.screens.form import Field, FormScreen
 
 
@@ -23,7 +23,7 @@ class ConcentrationScreen(FormScreen):
 
     @staticmethod
     def service(db: Database, actor: str | None, values: dict[str, Any]) -> Done[Any]:
-        return lab.record_concentration(db, actor, values)
+        return solutions.record_concentration(db, actor, values)
 
     def after_save(self, done: Done[Any]) -> None:
         from tracker.ui.context import tracker_app

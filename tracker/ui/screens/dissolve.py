@@ -5,8 +5,8 @@ from __future__ import annotations
 from typing import Any, ClassVar
 
 from tracker.db.database import Database
-from tracker.services import lab
-from tracker.services.views import Done
+from tracker.services.bench import solutions
+from tracker.services.core.views import Done
 from tracker.ui.screens.form import Field, FormScreen
 
 
@@ -29,4 +29,4 @@ class DissolveScreen(FormScreen):
 
     @staticmethod
     def service(db: Database, actor: str | None, values: dict[str, Any]) -> Done[Any]:
-        return lab.dissolve(db, actor, values)
+        return solutions.dissolve(db, actor, values)

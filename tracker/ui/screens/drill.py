@@ -17,9 +17,9 @@ from textual.widgets import Input, Static
 
 from tracker.db.database import Database
 from tracker.domain.errors import TrackerError
-from tracker.services import drilling
-from tracker.services.drilling import DrillPreview, LimitLine
-from tracker.services.views import Done
+from tracker.services.bench import drilling
+from tracker.services.bench.drilling import DrillPreview, LimitLine
+from tracker.services.core.views import Done
 from tracker.ui.context import database
 from tracker.ui.messages import Refused
 from tracker.ui.plain import shown

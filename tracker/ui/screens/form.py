@@ -22,7 +22,7 @@ from textual.widgets import Footer, Input, Static
 
 from tracker.db.database import Database
 from tracker.domain.errors import TrackerError
-from tracker.services.views import Done
+from tracker.services.core.views import Done
 from tracker.ui.context import database, operator, tracker_app
 from tracker.ui.messages import Refused, refusal_text
 from tracker.ui.widgets.id_field import IdField, IdInput

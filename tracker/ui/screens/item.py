@@ -15,9 +15,10 @@ from textual.widgets import DataTable, Footer, Static, TabbedContent, TabPane, T
 from textual.widgets.tree import TreeNode
 
 from tracker.domain.errors import TrackerError
-from tracker.services import labels, lineage
-from tracker.services.lineage import ItemDetail, Node
-from tracker.services.views import Done
+from tracker.services.core.views import Done
+from tracker.services.labels import handling
+from tracker.services.read import lineage
+from tracker.services.read.lineage import ItemDetail, Node
 from tracker.ui.context import database, operator, tracker_app
 from tracker.ui.messages import Refused, refusal_text
 from tracker.ui.plain import shown
@@ -138,7 +139,7 @@ class ItemScreen(Screen[None]):
     @work(thread=True, exclusive=True, group="save")
     def queue_label(self) -> None:
         try:
-            done = labels.queue_labels(database(self), operator(self), {"items": [self.item_id]})
+            done = handling.queue_labels(database(self), operator(self), {"items": [self.item_id]})
         except TrackerError as error:
             self.post_message(Refused(error, "label"))
             return

@@ -14,9 +14,9 @@ from textual.screen import Screen
 from textual.widgets import DataTable, Footer, Input, Select, Static, TabbedContent, TabPane
 
 from tracker.domain.errors import TrackerError
-from tracker.services import labels
-from tracker.services.labels import LabelView
-from tracker.services.views import Done
+from tracker.services.core.views import Done
+from tracker.services.labels import handling
+from tracker.services.labels.handling import LabelView
 from tracker.ui.context import database, operator, tracker_app
 from tracker.ui.messages import Refused, refusal_text
 from tracker.ui.plain import shown
@@ -90,7 +90,7 @@ class LabelsScreen(Screen[None]):
         from tracker.output.stocks import entries
 
         try:
-            queue = labels.list_labels(database(self))
+            queue = handling.list_labels(database(self))
             stocks = sorted(entries())
         except TrackerError as error:
             self.post_message(Refused(error, "load"))
@@ -137,7 +137,7 @@ class LabelsScreen(Screen[None]):
                 raise InputError("start", start_text, "is not a whole number")
             start = int(start_text)
             stock = load_stock(stock_name)
-            pages = lay_out(stock, labels.queued_facts(database(self)), start)
+            pages = lay_out(stock, handling.queued_facts(database(self)), start)
         except TrackerError as error:
             self.post_message(Refused(error, "preview"))
             return
@@ -197,7 +197,7 @@ class LabelsScreen(Screen[None]):
     @work(thread=True, exclusive=True, group="save")
     def queue_item(self, item: str) -> None:
         try:
-            done = labels.queue_labels(database(self), operator(self), {"items": [item]})
+            done = handling.queue_labels(database(self), operator(self), {"items": [item]})
         except TrackerError as error:
             self.post_message(Refused(error, "queue"))
             return

@@ -16,9 +16,9 @@ from textual.widgets import DataTable, Footer, Input, ProgressBar, Static
 
 from tracker.domain.errors import TrackerError
 from tracker.domain.ledger import VerifyReport
-from tracker.services import audit, ledger
-from tracker.services.audit import AuditReport
-from tracker.services.views import EventView
+from tracker.services.core.views import EventView
+from tracker.services.ledger import audit, chain
+from tracker.services.ledger.audit import AuditReport
 from tracker.ui.context import database
 from tracker.ui.messages import Refused, refusal_text
 from tracker.ui.plain import shown
@@ -93,7 +93,7 @@ class LedgerScreen(Screen[None]):
     @work(thread=True, exclusive=True, group="load")
     def load(self, action: str, who: str, item: str) -> None:
         try:
-            events = ledger.recent_events(
+            events = chain.recent_events(
                 database(self), LIMIT, action or None, operator=who or None, item=item or None
             )
         except TrackerError as error:
@@ -148,7 +148,7 @@ class LedgerScreen(Screen[None]):
             self.post_message(self.Progress(done, total))
 
         try:
-            report = ledger.verify(database(self), progress, every=50)
+            report = chain.verify(database(self), progress, every=50)
         except TrackerError as error:
             self.post_message(Refused(error, "verify"))
             return

@@ -15,10 +15,11 @@ from textual.screen import Screen
 from textual.widgets import DataTable, Footer, Input, Static, TabbedContent, TabPane
 
 from tracker.domain.errors import TrackerError
-from tracker.services import lineage, planning, reconcile
-from tracker.services.lineage import ItemDetail
-from tracker.services.planning import Plan
-from tracker.services.reconcile import LoanLine
+from tracker.services.loans import planning
+from tracker.services.loans.planning import Plan
+from tracker.services.read import lineage, reconcile
+from tracker.services.read.lineage import ItemDetail
+from tracker.services.read.reconcile import LoanLine
 from tracker.ui.context import database, tracker_app
 from tracker.ui.messages import Refused, refusal_text
 from tracker.ui.plain import shown

@@ -20,8 +20,8 @@ from textual.screen import Screen
 from textual.widgets import DataTable, Footer, Input, Static
 
 from tracker.domain.errors import InputError, TrackerError
-from tracker.services import manifests
-from tracker.services.manifests import ManifestOutcome, ManifestPreview, RowResult
+from tracker.services.loans import manifests
+from tracker.services.loans.manifests import ManifestOutcome, ManifestPreview, RowResult
 from tracker.ui.context import database, operator, tracker_app
 from tracker.ui.messages import Refused, refusal_text
 from tracker.ui.plain import shown

@@ -12,7 +12,7 @@ from textual.screen import ModalScreen
 from textual.widgets import Footer, OptionList, Static
 from textual.widgets.option_list import Option
 
-from tracker.services.views import OperatorView
+from tracker.services.core.views import OperatorView
 from tracker.ui.plain import shown
 
 

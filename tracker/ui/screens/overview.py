@@ -19,7 +19,7 @@ from textual.screen import Screen
 from textual.widgets import DataTable, Footer, Static
 
 from tracker.domain.errors import TrackerError
-from tracker.services.loan_lines import LoanLine
+from tracker.services.read.loan_lines import LoanLine
 from tracker.ui.context import database, tracker_app
 from tracker.ui.messages import Refused, refusal_text
 from tracker.ui.plain import shown
@@ -82,7 +82,7 @@ class OverviewScreen(Screen[None]):
 
     @work(thread=True, exclusive=True, group="load")
     def load(self, every_loan: bool) -> None:
-        from tracker.services import browse, reconcile
+        from tracker.services.read import browse, reconcile
 
         try:
             db = database(self)

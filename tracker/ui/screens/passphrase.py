@@ -1,7 +1,7 @@
 """The passphrase, asked once when an operator is chosen (and again after the idle lock).
 
 What is typed is hidden; a worker opens the key file with it through the same service the
-command line uses (:func:`tracker.services.keys.unlock_file`), and a wrong passphrase is
+command line uses (:func:`tracker.services.admin.keys.unlock_file`), and a wrong passphrase is
 said under the field so it can be typed again. Escape goes on without the key: screens
 that only read still work, and anything that records is refused in one line until the key
 is unlocked (Ctrl+O chooses the operator again, which asks again).
@@ -68,7 +68,7 @@ class PassphraseScreen(ModalScreen[bool]):
 
     @work(thread=True, exclusive=True, group="unlock")
     def unlock(self, passphrase: str) -> None:
-        from tracker.services import keys
+        from tracker.services.admin import keys
 
         try:
             keys.unlock_file(self.db, self.key_file, passphrase)

@@ -26,8 +26,8 @@ from tracker.db.outputs import TargetExists
 from tracker.domain.errors import InputError, TrackerError
 from tracker.output import report_files
 from tracker.output.report_files import WrittenReport
-from tracker.services import reports
-from tracker.services.reports import ReturnReport, SpecimenEntry
+from tracker.services.read import reports
+from tracker.services.read.reports import ReturnReport, SpecimenEntry
 from tracker.ui.context import database, operator, tracker_app
 from tracker.ui.messages import Refused, refusal_text
 from tracker.ui.plain import shown

@@ -5,8 +5,8 @@ from __future__ import annotations
 from typing import Any, ClassVar
 
 from tracker.db.database import Database
-from tracker.services import specimens
-from tracker.services.views import Done
+from tracker.services.core.views import Done
+from tracker.services.loans import specimens
 from tracker.ui.screens.form import Field, FormScreen
 
 

@@ -14,11 +14,12 @@ from textual.screen import Screen
 from textual.widgets import DataTable, Footer, Static, TabbedContent, TabPane
 
 from tracker.domain.errors import TrackerError
-from tracker.services import browse, instrument, reduction
-from tracker.services.browse import SessionLine
-from tracker.services.instrument import DriftSeries
-from tracker.services.reduction import ResultLine, SessionDetail
-from tracker.services.views import Done
+from tracker.services.core.views import Done
+from tracker.services.instrument import reduction, sessions
+from tracker.services.instrument.reduction import ResultLine, SessionDetail
+from tracker.services.instrument.sessions import DriftSeries
+from tracker.services.read import browse
+from tracker.services.read.browse import SessionLine
 from tracker.ui.context import database, operator
 from tracker.ui.messages import Refused, refusal_text
 from tracker.ui.plain import shown
@@ -107,7 +108,7 @@ class SessionScreen(Screen[None]):
         try:
             db = database(self)
             detail = reduction.session_detail(db, session)
-            drift = instrument.standard_drift(db, session)
+            drift = sessions.standard_drift(db, session)
         except TrackerError as error:
             self.post_message(Refused(error, "load"))
             return

@@ -11,9 +11,9 @@ from textual.widgets import Static
 
 from tracker.db.database import Database
 from tracker.domain.errors import InputError
-from tracker.services import instrument
-from tracker.services.instrument import ProfileView
-from tracker.services.views import Done
+from tracker.services.core.views import Done
+from tracker.services.instrument import sessions
+from tracker.services.instrument.sessions import ProfileView
 from tracker.ui.context import database
 from tracker.ui.plain import shown
 from tracker.ui.screens.form import Field, FormScreen
@@ -42,7 +42,7 @@ class ImportSessionScreen(FormScreen):
 
     @work(thread=True, exclusive=True, group="load")
     def list_profiles(self) -> None:
-        self.post_message(self.Profiles(instrument.list_profiles(database(self))))
+        self.post_message(self.Profiles(sessions.list_profiles(database(self))))
 
     def on_import_session_screen_profiles(self, event: Profiles) -> None:
         names = ", ".join(p.name for p in event.profiles) or "none saved yet"
@@ -57,4 +57,4 @@ class ImportSessionScreen(FormScreen):
         except OSError as error:
             raise InputError("file", str(path), f"cannot be read ({error.strerror})") from None
         request |= {"filename": path.name, "content": content}
-        return instrument.import_session(db, actor, request)
+        return sessions.import_session(db, actor, request)

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from textual_plotext import PlotextPlot
 
-from tracker.services.instrument import DriftSeries
+from tracker.services.instrument.sessions import DriftSeries
 
 
 class DriftPlot(PlotextPlot):

@@ -21,7 +21,7 @@ from tracker.ui.context import database
 from tracker.ui.plain import shown
 
 if TYPE_CHECKING:  # the label services load lineage and label facts: only a lookup needs them
-    from tracker.services.labels import ScanView
+    from tracker.services.labels.handling import ScanView
 
 LOOKUP_DELAY = 0.25  # seconds of quiet typing before the hint looks the ID up
 
@@ -126,10 +126,10 @@ class IdField(Vertical):
 
     @work(thread=True, exclusive=True, group="id-lookup")
     def _lookup(self, text: str, seq: int) -> None:
-        from tracker.services import labels
+        from tracker.services.labels import handling
 
         try:
-            view = labels.read_scan(database(self), text)
+            view = handling.read_scan(database(self), text)
         except TrackerError as error:
             self.post_message(self.Resolved(self, None, error, seq))
             return

@@ -1,1 +1,0 @@
-"""Importers and builders that feed the services from files (manifests, the demo scenario)."""

@@ -1,0 +1,1 @@
+"""Bench work on the material: drilling, solutions, column chemistry, moves and disposals."""

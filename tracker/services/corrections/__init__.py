@@ -1,0 +1,1 @@
+"""Corrections of recorded values, each with a reason, and what they change downstream."""

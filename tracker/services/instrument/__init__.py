@@ -1,0 +1,1 @@
+"""Instrument sessions: importing exports, matching rows, reduction, results, screening."""

@@ -1,0 +1,450 @@
+"""Reducing an instrument session: bracketed δ per run, replicate statistics, QC flags.
+
+Each sample, reference-material and blank run is divided by the mean of the bracketing
+standard runs just before and after it (δ mode) or scaled to the standard's accepted
+ratio (ratio mode, e.g. ⁸⁷Sr/⁸⁶Sr normalised to the standard). Runs of one target are
+then averaged: mean, SD, 2SD, 2SE, n. Reference materials are checked against their
+accepted value within the lab's long-term 2SD; a failure flags the whole session.
+Where two ratios share an isotope (44/40 and 44/42), every target is checked for
+mass-dependent consistency under the exponential law.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+from collections import defaultdict
+from collections.abc import Iterable
+from dataclasses import dataclass
+from datetime import datetime
+from itertools import combinations
+
+from sqlalchemy import select
+from sqlalchemy.orm import Session
+
+from tracker.db.database import Database
+from tracker.domain.delta import Replicates, blank_corrected, bracketed_delta, replicate_stats
+from tracker.domain.errors import RuleViolation
+from tracker.domain.ids import Kind, format_id
+from tracker.domain.isotopes import exponential_factor, parse_ratio, predicted_delta
+from tracker.domain.models import (
+    ColumnBatch,
+    CustodyEvent,
+    Cut,
+    InstrumentSession,
+    Measurement,
+    MeasurementRole,
+    ReferenceMaterial,
+    ReferenceValue,
+    Result,
+)
+from tracker.domain.models.instrument import RECOMPUTED
+from tracker.services.bench.columns import blank_ng, position_flags
+from tracker.services.core.common import finish
+from tracker.services.core.inputs import Raw, Request, parse
+from tracker.services.core.lookup import get_by_id
+from tracker.services.core.uow import unit_of_work
+from tracker.services.core.views import Done, View
+
+Target = tuple[str, int]  # ("cut" | "reference" | "blank", row id)
+
+
+class ResultLine(View):
+    target: str  # cut, reference or blank position ID
+    kind: str  # sample, reference, blank
+    label: str
+    ratio: str
+    value: float
+    sd: float | None
+    two_sd: float | None
+    two_se: float | None
+    n: int
+    accepted: float | None = None
+    accepted_two_sd: float | None = None
+    passed: bool | None = None
+    blank_corrected: bool = False
+    flags: list[str]
+
+
+class Reduction(View):
+    session: str
+    name: str
+    mode: str
+    scale: str
+    results: list[ResultLine]
+    flags: list[str]
+    unmatched: int
+
+
+class Reduce(Request):
+    session: str
+
+
+def reduce_session(db: Database, actor: str | None, data: Reduce | Raw) -> Done[Reduction]:
+    """Compute (again) every result of a session; earlier results of it are replaced."""
+    request = parse(Reduce, data)
+    with unit_of_work(db, actor) as uow:
+        session = get_by_id(uow.session, InstrumentSession, "session", request.session)
+        answer = recompute(uow.session, session, uow.now)
+        payload = {
+            "results": len(answer.results),
+            "flags": answer.flags,
+            "failed": [f"{x.label} {x.ratio}" for x in answer.results if x.passed is False],
+        }
+        return finish(uow, "session.reduced", session, payload, lambda: answer)
+
+
+def recompute(sql: Session, session: InstrumentSession, now: datetime) -> Reduction:
+    """Replace a session's results with ones computed from the values now in force.
+
+    Part of a unit of work (a reduction, or a correction of a value results depend on);
+    the caller records the one custody event.
+    """
+    runs = [m for m in session.measurements if m.excluded_reason is None]
+    lines: list[ResultLine] = []
+    rows: list[Result] = []
+    for ratio in session.ratio_names:
+        for target, stats in _replicates(session, runs, ratio).items():
+            line, row = _result(sql, session, ratio, target, stats, now)
+            lines.append(line)
+            rows.append(row)
+    _mass_dependence(session, lines)
+    flags = sorted(
+        {f"reference material failed: {x.label} {x.ratio}" for x in lines if x.passed is False}
+    )
+    for line, row in zip(lines, rows, strict=True):
+        row.flags = list(line.flags)
+    _store(sql, session, rows)
+    session.flags = flags
+    unmatched = sum(1 for m in session.measurements if m.role is MeasurementRole.UNMATCHED)
+    return Reduction(
+        session=session.public_id,
+        name=session.name,
+        mode=session.mode,
+        scale=session.bracketing_standard,
+        results=lines,
+        flags=flags,
+        unmatched=unmatched,
+    )
+
+
+def _store(sql: Session, session: InstrumentSession, rows: list[Result]) -> None:
+    """Write the computed rows: a target's stored row again in place, a new target's added.
+
+    Results are never deleted (a workstation login may delete nothing). The runs of a
+    session never change, so a reduction computes the same targets every time.
+    """
+    stored = {
+        _target_of(row): row
+        for row in sql.scalars(select(Result).where(Result.session_id == session.id))
+    }
+    for row in rows:
+        kept = stored.pop(_target_of(row), None)
+        if kept is None:
+            sql.add(row)
+            continue
+        for column in RECOMPUTED:
+            setattr(kept, column, getattr(row, column))
+    if stored:
+        raise RuleViolation(
+            "session",
+            session.public_id,
+            f"{len(stored)} stored result(s) no longer have runs to be computed from; "
+            "nothing was changed",
+        )
+
+
+def _target_of(row: Result) -> tuple[int | None, int | None, int | None, str]:
+    return row.cut_id, row.reference_material_id, row.position_id, row.ratio
+
+
+def _replicates(
+    session: InstrumentSession, runs: list[Measurement], ratio: str
+) -> dict[Target, tuple[Replicates, list[int]]]:
+    standards = sorted(
+        (m.run_order, m.ratios[ratio]) for m in runs if m.role is MeasurementRole.STANDARD
+    )
+    values: dict[Target, list[float]] = defaultdict(list)
+    orders: dict[Target, list[int]] = defaultdict(list)
+    for m in runs:
+        target = _target(m)
+        if target is None:
+            continue
+        before = [v for run, v in standards if run < m.run_order]
+        after = [v for run, v in standards if run > m.run_order]
+        if not before or not after:
+            raise RuleViolation(
+                "session",
+                session.public_id,
+                f"run {m.run_order} ({m.sample_name}) lost its bracketing "
+                "standard (an excluded standard run?)",
+            )
+        values[target].append(_value(session, ratio, m.ratios[ratio], before[-1], after[0]))
+        orders[target].append(m.run_order)
+    return {t: (replicate_stats(v), orders[t]) for t, v in values.items()}
+
+
+def _value(
+    session: InstrumentSession, ratio: str, sample: float, before: float, after: float
+) -> float:
+    if session.mode == "ratio":
+        return sample / ((before + after) / 2) * float(session.standard_values[ratio])
+    return bracketed_delta(sample, before, after)
+
+
+def _target(m: Measurement) -> Target | None:
+    if m.role is MeasurementRole.SAMPLE and m.cut_id is not None:
+        return "cut", m.cut_id
+    if m.role is MeasurementRole.REFERENCE and m.reference_material_id is not None:
+        return "reference", m.reference_material_id
+    if m.role is MeasurementRole.BLANK and m.position_id is not None:
+        return "blank", m.position_id
+    return None
+
+
+def _result(
+    sql: Session,
+    session: InstrumentSession,
+    ratio: str,
+    target: Target,
+    data: tuple[Replicates, list[int]],
+    now: datetime,
+) -> tuple[ResultLine, Result]:
+    stats, _ = data
+    kind, key = target
+    value, corrected, flags = stats.mean, False, []
+    row = Result(
+        session_id=session.id,
+        ratio=ratio,
+        scale=session.bracketing_standard,
+        kind=session.mode,
+        n=stats.n,
+        sd_permil=stats.sd,
+        two_se_permil=stats.two_se,
+        delta_permil=value,
+        flags=[],
+        created_at=now,
+    )
+    accepted: ReferenceValue | None = None
+    if kind == "cut":
+        cut = sql.get_one(Cut, key)
+        row.cut_id, label = key, _cut_label(cut)
+        value, corrected = _blank_correct(cut, ratio, value)
+        flags = position_flags(cut.position)
+    elif kind == "reference":
+        material = sql.get_one(ReferenceMaterial, key)
+        row.reference_material_id, label = key, material.name
+        accepted = _accepted(sql, key, ratio, session)
+    else:
+        row.position_id, label = key, f"procedural blank {key}"
+    if stats.n == 1:
+        flags.append("single run")
+    row.delta_permil, row.blank_corrected = value, corrected
+    passed = None if accepted is None else abs(value - accepted.value) <= accepted.two_sd
+    line = ResultLine(
+        target=_public(kind, key),
+        kind=_KINDS[kind],
+        label=label,
+        ratio=ratio,
+        value=value,
+        sd=stats.sd,
+        two_sd=stats.two_sd,
+        two_se=stats.two_se,
+        n=stats.n,
+        accepted=accepted.value if accepted else None,
+        accepted_two_sd=accepted.two_sd if accepted else None,
+        passed=passed,
+        blank_corrected=corrected,
+        flags=flags + (["failed acceptance"] if passed is False else []),
+    )
+    return line, row
+
+
+_KINDS = {"cut": "sample", "reference": "reference", "blank": "blank"}
+
+
+def _public(kind: str, key: int) -> str:
+    return format_id(_ID_KINDS[kind], key)
+
+
+_ID_KINDS = {"cut": Kind.CUT, "reference": Kind.REFERENCE_MATERIAL, "blank": Kind.POSITION}
+
+
+def _cut_label(cut: Cut) -> str:
+    aliquot = cut.position.aliquot
+    if aliquot is None:
+        return cut.public_id
+    specimen = aliquot.solution.powder.specimen
+    return f"{specimen.catalog_number} ({specimen.public_id})"
+
+
+def _blank_correct(cut: Cut, ratio: str, value: float) -> tuple[float, bool]:
+    """Mass-balance blank correction when the batch knows its blank's δ for this ratio."""
+    batch: ColumnBatch = cut.position.batch
+    blank, _, _ = blank_ng(batch)
+    if ratio not in batch.blank_deltas or blank is None or not cut.recovered_ug:
+        return value, False
+    sample_ng = float(cut.recovered_ug) * 1000 - blank
+    return blank_corrected(value, sample_ng, float(batch.blank_deltas[ratio]), blank), True
+
+
+def _accepted(
+    sql: Session, material_id: int, ratio: str, session: InstrumentSession
+) -> ReferenceValue | None:
+    query = (
+        select(ReferenceValue)
+        .where(
+            ReferenceValue.reference_material_id == material_id,
+            ReferenceValue.ratio == ratio,
+            ReferenceValue.scale == session.bracketing_standard,
+            ReferenceValue.kind == session.mode,
+        )
+        .order_by(ReferenceValue.id.desc())
+        .limit(1)
+    )
+    return sql.scalars(query).first()
+
+
+@dataclass(frozen=True)
+class _Pair:
+    a: str
+    b: str
+    k: float
+
+
+def _pairs(element: str, ratios: Iterable[str]) -> list[_Pair]:
+    found = []
+    for a, b in combinations(ratios, 2):
+        if set(parse_ratio(a)) & set(parse_ratio(b)):
+            k = exponential_factor(element, a, b)
+            found.append(_Pair(a, b, k) if abs(k) >= 1 else _Pair(b, a, 1 / k))
+    return found
+
+
+def _mass_dependence(session: InstrumentSession, lines: list[ResultLine]) -> None:
+    """Flag targets whose two ratios disagree with mass-dependent fractionation."""
+    if session.mode != "delta":
+        return
+    by_target: dict[str, dict[str, ResultLine]] = defaultdict(dict)
+    for line in lines:
+        by_target[line.target][line.ratio] = line
+    for pair in _pairs(session.element, session.ratio_names):
+        for pairs in by_target.values():
+            a, b = pairs.get(pair.a), pairs.get(pair.b)
+            if a is None or b is None or a.sd is None or b.sd is None:
+                continue
+            residual = a.value - predicted_delta(b.value, pair.k)
+            se = math.hypot(a.sd / math.sqrt(a.n), pair.k * b.sd / math.sqrt(b.n))
+            if abs(residual) > 2 * se:
+                for line in (a, b):
+                    line.flags.append(f"mass-dependence off ({pair.a} vs {pair.b})")
+
+
+class UnmatchedLine(View):
+    run_order: int
+    sample_name: str
+    reason: str
+
+
+class SessionDetail(View):
+    """One instrument session as stored: what was read, what matched, its latest results."""
+
+    id: str
+    name: str
+    instrument: str
+    element: str
+    mode: str
+    standard: str
+    started_at: datetime
+    source_filename: str | None
+    profile: str | None
+    ratios: list[str]
+    measurements: int
+    standards: int
+    unmatched: list[UnmatchedLine]
+    results: list[ResultLine]
+    flags: list[str]
+    reduced: bool
+
+
+def session_detail(db: Database, ref: str) -> SessionDetail:
+    """Read-only: the session's runs, its unmatched rows (with the import's reasons) and the
+    results its last reduction stored, reference materials judged as the reduction judged them."""
+    with db.read_session() as sql:
+        session = get_by_id(sql, InstrumentSession, "session", ref)
+        reasons = _import_reasons(sql, session.public_id)
+        unmatched = [
+            UnmatchedLine(
+                run_order=m.run_order,
+                sample_name=m.sample_name,
+                reason=reasons.get(m.run_order, "not matched"),
+            )
+            for m in sorted(session.measurements, key=lambda m: m.run_order)
+            if m.role is MeasurementRole.UNMATCHED
+        ]
+        rows = sql.scalars(
+            select(Result).where(Result.session_id == session.id).order_by(Result.id)
+        )
+        lines = [_stored_line(sql, session, row) for row in rows]
+        return SessionDetail(
+            id=session.public_id,
+            name=session.name,
+            instrument=session.instrument,
+            element=session.element,
+            mode=session.mode,
+            standard=session.bracketing_standard,
+            started_at=session.started_at,
+            source_filename=session.source_filename,
+            profile=session.profile_name,
+            ratios=list(session.ratio_names),
+            measurements=len(session.measurements),
+            standards=sum(m.role is MeasurementRole.STANDARD for m in session.measurements),
+            unmatched=unmatched,
+            results=lines,
+            flags=list(session.flags),
+            reduced=bool(lines),
+        )
+
+
+def _import_reasons(sql: Session, public_id: str) -> dict[int, str]:
+    event = sql.scalars(
+        select(CustodyEvent)
+        .where(CustodyEvent.object_ref == public_id, CustodyEvent.action == "session.imported")
+        .order_by(CustodyEvent.seq.desc())
+        .limit(1)
+    ).first()
+    if event is None:
+        return {}
+    payload = json.loads(event.payload)
+    return {int(u["run_order"]): str(u["reason"]) for u in payload.get("unmatched", [])}
+
+
+def _stored_line(sql: Session, session: InstrumentSession, row: Result) -> ResultLine:
+    accepted: ReferenceValue | None = None
+    if row.cut_id is not None:
+        kind, key, label = "cut", row.cut_id, _cut_label(sql.get_one(Cut, row.cut_id))
+    elif row.reference_material_id is not None:
+        material = sql.get_one(ReferenceMaterial, row.reference_material_id)
+        kind, key, label = "reference", material.id, material.name
+        accepted = _accepted(sql, material.id, row.ratio, session)
+    else:
+        key = row.position_id or 0
+        kind, label = "blank", f"procedural blank {key}"
+    passed = None if accepted is None else abs(row.delta_permil - accepted.value) <= accepted.two_sd
+    sd = row.sd_permil
+    return ResultLine(
+        target=_public(kind, key),
+        kind=_KINDS[kind],
+        label=label,
+        ratio=row.ratio,
+        value=row.delta_permil,
+        sd=sd,
+        two_sd=None if sd is None else 2 * sd,
+        two_se=row.two_se_permil,
+        n=row.n,
+        accepted=accepted.value if accepted else None,
+        accepted_two_sd=accepted.two_sd if accepted else None,
+        passed=passed,
+        blank_corrected=row.blank_corrected,
+        flags=list(row.flags),
+    )

@@ -1,0 +1,202 @@
+"""Results tied back to specimens, accepted reference values, and changes of scale.
+
+A result belongs to a column cut; the cut to its column position, aliquot, solution,
+powder and finally the lender's specimen — so results can be listed per loan. Values
+are reported on the session's scale (its bracketing standard) or converted exactly to
+another scale through the accepted δ of that scale's reference on the session's scale.
+"""
+
+from __future__ import annotations
+
+from datetime import date
+from typing import Annotated, Literal
+
+from pydantic import Field, model_validator
+from sqlalchemy import select
+from sqlalchemy.orm import Session
+
+from tracker.db.database import Database
+from tracker.domain.delta import change_scale, invert
+from tracker.domain.errors import NotFound, RuleViolation
+from tracker.domain.models import (
+    Aliquot,
+    BatchPosition,
+    Cut,
+    InstrumentSession,
+    Loan,
+    Powder,
+    ReferenceValue,
+    Result,
+    Solution,
+    Specimen,
+)
+from tracker.services.core.common import finish
+from tracker.services.core.inputs import FieldProblem, Name, Raw, Request, parse
+from tracker.services.core.lookup import get_loan, get_reference_material
+from tracker.services.core.uow import unit_of_work
+from tracker.services.core.views import Done, View
+
+
+class SpecimenResult(View):
+    specimen: str
+    catalog_number: str
+    loan: str
+    cut: str
+    session: str
+    ratio: str
+    kind: str
+    value: float
+    two_sd: float | None
+    two_se: float | None
+    n: int
+    scale: str
+    age_min_ma: float | None
+    age_max_ma: float | None
+    determined_on: date  # the instrument session's day
+    determined_by: str  # the operator who ran it
+    flags: list[str]
+
+
+def results(
+    db: Database, loan: str | None = None, scale: str | None = None
+) -> list[SpecimenResult]:
+    """Every sample result, with its specimen, optionally converted to another scale."""
+    with db.read_session() as session:
+        query = (
+            select(Result, Cut, Specimen, Loan, InstrumentSession)
+            .join(Cut, Result.cut_id == Cut.id)
+            .join(BatchPosition, Cut.position_id == BatchPosition.id)
+            .join(Aliquot, BatchPosition.aliquot_id == Aliquot.id)
+            .join(Solution, Aliquot.solution_id == Solution.id)
+            .join(Powder, Solution.powder_id == Powder.id)
+            .join(Specimen, Powder.specimen_id == Specimen.id)
+            .join(Loan, Specimen.loan_id == Loan.id)
+            .join(InstrumentSession, Result.session_id == InstrumentSession.id)
+            .order_by(Loan.id, Specimen.id, Result.ratio, Result.id)
+        )
+        if loan is not None:
+            query = query.where(Loan.id == get_loan(session, "loan", loan).id)
+        if scale is not None:
+            _require_reference(session, scale)
+        lines = []
+        for result, cut, specimen, loan_row, run in session.execute(query):
+            value, on, factor = _on_scale(session, result, scale)
+            sd = None if result.sd_permil is None else result.sd_permil * factor
+            lines.append(
+                SpecimenResult(
+                    specimen=specimen.public_id,
+                    catalog_number=specimen.catalog_number,
+                    loan=loan_row.reference,
+                    cut=cut.public_id,
+                    session=run.public_id,
+                    ratio=result.ratio,
+                    kind=result.kind,
+                    value=value,
+                    two_sd=None if sd is None else 2 * sd,
+                    two_se=None if result.two_se_permil is None else result.two_se_permil * factor,
+                    n=result.n,
+                    scale=on,
+                    age_min_ma=specimen.age_min_ma,
+                    age_max_ma=specimen.age_max_ma,
+                    determined_on=run.started_at.date(),
+                    determined_by=run.operator,
+                    flags=list(result.flags),
+                )
+            )
+        return lines
+
+
+def _require_reference(session: Session, scale: str) -> None:
+    try:
+        get_reference_material(session, "--scale", scale)
+    except NotFound:
+        raise NotFound("--scale", scale, "no reference material has this name") from None
+
+
+def _on_scale(session: Session, result: Result, scale: str | None) -> tuple[float, str, float]:
+    """The value on the asked scale, that scale, and the factor spreads scale by.
+
+    δ_new = (1 + δ/1000)/(1 + a/1000) − 1, so spreads scale by 1/(1 + a/1000) exactly.
+    """
+    if scale is None or scale.lower() == result.scale.lower() or result.kind != "delta":
+        return result.delta_permil, result.scale, 1.0
+    anchor = accepted_value(session, scale, result.ratio, result.scale, "delta")
+    if anchor is None:
+        raise RuleViolation(
+            "--scale",
+            scale,
+            f"no accepted δ{result.ratio} of {scale} on the {result.scale} scale; "
+            "record one with `tracker reference value`",
+        )
+    factor = 1 / (1 + anchor.value / 1000)
+    return change_scale(result.delta_permil, invert(anchor.value)), scale, factor
+
+
+def accepted_value(
+    session: Session, material: str, ratio: str, scale: str, kind: str
+) -> ReferenceValue | None:
+    """The newest accepted value of a named material for a ratio on a scale."""
+    rm = get_reference_material(session, "reference", material)
+    return session.scalars(
+        select(ReferenceValue)
+        .where(
+            ReferenceValue.reference_material_id == rm.id,
+            ReferenceValue.ratio == ratio,
+            ReferenceValue.scale == scale,
+            ReferenceValue.kind == kind,
+        )
+        .order_by(ReferenceValue.id.desc())
+        .limit(1)
+    ).first()
+
+
+class NewReferenceValue(Request):
+    reference: Name
+    ratio: Annotated[str, Field(pattern=r"^\d{1,3}/\d{1,3}$")]
+    scale: Name
+    value: float
+    two_sd: Annotated[float, Field(gt=0)]
+    kind: Literal["delta", "ratio"] = "delta"
+    source: Annotated[str, Field(min_length=3, max_length=500)]
+
+    @model_validator(mode="after")
+    def _ratio_above_zero(self) -> NewReferenceValue:
+        if self.kind == "ratio" and self.value <= 0:
+            raise FieldProblem("value", self.value, "an isotope ratio must be above zero")
+        return self
+
+
+class ReferenceValueView(View):
+    reference: str
+    ratio: str
+    scale: str
+    kind: str
+    value: float
+    two_sd: float
+    source: str
+
+
+def set_reference_value(
+    db: Database, actor: str | None, data: NewReferenceValue | Raw
+) -> Done[ReferenceValueView]:
+    """Record the accepted value (and tolerance) of a reference material; managers only."""
+    request = parse(NewReferenceValue, data)
+    with unit_of_work(db, actor) as uow:
+        uow.require_manager("setting an accepted reference value")
+        material = get_reference_material(uow.session, "reference", request.reference)
+        row = ReferenceValue(
+            reference_material_id=material.id,
+            ratio=request.ratio,
+            scale=request.scale,
+            kind=request.kind,
+            value=request.value,
+            two_sd=request.two_sd,
+            source=request.source,
+            recorded_by=uow.operator.code,
+            created_at=uow.now,
+        )
+        uow.session.add(row)
+        view = ReferenceValueView(
+            reference=material.name, **request.model_dump(exclude={"reference"})
+        )
+        return finish(uow, "reference.value_set", material, request.model_dump(), lambda: view)

@@ -1,0 +1,1 @@
+"""Vial labels: queued inside actions, worded, printed, and read back when scanned."""

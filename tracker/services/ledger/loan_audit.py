@@ -1,0 +1,170 @@
+"""The books of one loan against the ledger: what a return report or an export vouches for.
+
+A report of one loan must not replay a decade of the whole lab each time. Every event
+names (as its object, its parent or a mention) each item whose rows it wrote —
+``UnitOfWork.record`` mentions them all (``Written.names``) — so the events that wrote the
+loan's rows are found through the ledger's indexes: the loan, its specimens, powders,
+solutions, aliquots, the columns that hold them and their cuts, its shipments (the
+*roots*), and its lender and documents (*keys*). Only those events are replayed, only the
+rows in scope kept (``domain.replay.Scope``), and only the loan's stored rows compared.
+
+A row an event made for the loan that the stored rows no longer hold (a deleted
+specimen) widens the scope, and the events are read again until nothing new turns up, so
+rows deleted together with their children are still missed. The hashes of the whole chain
+are verified as before; what the scoped audit does not check is the rest of the lab
+(`tracker ledger audit` does).
+"""
+
+from __future__ import annotations
+
+from collections import defaultdict
+from collections.abc import Iterator
+from typing import Any
+
+from sqlalchemy import ColumnElement, Connection, or_, select
+
+from tracker.db import stream
+from tracker.db.database import Database
+from tracker.domain.base import Base
+from tracker.domain.facts import ITEM_COLUMNS, described_tables, layout
+from tracker.domain.ids import Kind, format_id, parse_id
+from tracker.domain.models import CustodyEvent, EventRef
+from tracker.domain.replay import Books, Discrepancy, Scope
+from tracker.services.core.lookup import get_loan
+from tracker.services.ledger.audit import AuditReport, stored
+from tracker.services.ledger.chain import stamp_column, verify
+
+# Items a loan's rows name that are in its report without being part of its tree.
+KEYS = (Kind.LENDER, Kind.DOCUMENT)
+MAX_PASSES = 10  # each pass adds a generation of deleted rows; a loan's tree is a few deep
+
+
+def audit_loan(db: Database, loan: str) -> AuditReport:
+    """The loan's rows against the ledger (see the module); the whole chain's hashes too."""
+    with db.read_session() as session:
+        row = get_loan(session, "loan", loan)
+        number, reference = row.id, row.reference
+    chain = verify(db)
+    if not chain.ok:  # facts the chain no longer proves are not held against anything
+        return AuditReport(chain, [], Books().coverage, 0, f"loan {reference}")
+    with stream.snapshot(db.engine) as connection:
+        scope = _scope(connection, number)
+        for _ in range(MAX_PASSES):
+            known = set(scope.roots)
+            books = _replay(connection, scope)  # rows made for the loan widen the scope
+            if scope.roots <= known:
+                break
+        rows, found = 0, list[Discrepancy]()
+        for name in described_tables():
+            mine = list(_stored_in_scope(connection, name, scope))
+            rows += len(mine)
+            found.extend(books.compare(name, mine))
+    return AuditReport(chain, found, books.coverage, rows, f"loan {reference}")
+
+
+def _replay(connection: Connection, scope: Scope) -> Books:
+    books = Books(scope)
+    for seq, at, operator, action, object_ref, parent_ref, payload in _events(connection, scope):
+        books.apply(seq, at, operator, action, object_ref, parent_ref, payload)
+    return books
+
+
+# seq, at, operator, action, object, parent, payload
+Event = tuple[int, str, str, str, str, str, str]
+
+
+def _events(connection: Connection, scope: Scope) -> Iterator[Event]:
+    """The events naming any item in scope (object, parent or mention), in ledger order."""
+    names = sorted(scope.names())
+    mentioned = select(EventRef.seq).where(EventRef.ref.in_(names))
+    statement = (
+        select(
+            CustodyEvent.seq,
+            stamp_column(connection.dialect.name),
+            CustodyEvent.operator,
+            CustodyEvent.action,
+            CustodyEvent.object_ref,
+            CustodyEvent.parent_ref,
+            CustodyEvent.payload,
+        )
+        .where(
+            or_(
+                CustodyEvent.object_ref.in_(names),
+                CustodyEvent.parent_ref.in_(names),
+                CustodyEvent.seq.in_(mentioned),
+            )
+        )
+        .order_by(CustodyEvent.seq)
+    )
+    for batch in stream.batches(connection, statement, "tracker_audit_loan_events"):
+        yield from batch
+
+
+def _scope(connection: Connection, loan_id: int) -> Scope:
+    """The loan's tree as stored (every row that refers, level by level, to the loan), and
+    the lender and documents its rows name."""
+    roots = {format_id(Kind.LOAN, loan_id)}
+    tables = [name for name in described_tables() if layout(name).kind is not None]
+    for _ in range(2):  # parents come first in table order; a second pass catches the rest
+        for name in tables:
+            rules = layout(name)
+            table = Base.metadata.tables[name]
+            wanted = _referring(name, roots)
+            if wanted is None:
+                continue
+            for (number,) in connection.execute(select(table.c.id).where(wanted)):
+                roots.add(format_id(rules.kind, number))  # type: ignore[arg-type]
+    keys: set[str] = set()
+    scope = Scope(roots, keys)
+    for name in described_tables():
+        rules = layout(name)
+        named = [c for c in rules.columns if c.refers in KEYS]
+        if not named:
+            continue
+        for _, facts in _stored_in_scope(connection, name, scope):
+            keys.update(str(facts[c.name]) for c in named if facts.get(c.name))
+    return scope
+
+
+def _by_kind(names: set[str]) -> dict[Kind, list[int]]:
+    numbers: dict[Kind, list[int]] = defaultdict(list)
+    for name in names:
+        found = parse_id(name)
+        numbers[found.kind].append(found.number)
+    return numbers
+
+
+def _referring(name: str, roots: set[str]) -> ColumnElement[bool] | None:
+    """Rows of ``name`` that refer to a root (by a reference or an item column)."""
+    rules = layout(name)
+    table = Base.metadata.tables[name]
+    numbers = _by_kind(roots)
+    wanted: list[ColumnElement[bool]] = []
+    for column in rules.columns:
+        if column.refers is not None and numbers.get(column.refers):
+            wanted.append(table.c[column.name].in_(numbers[column.refers]))
+        elif column.name in ITEM_COLUMNS:
+            wanted.append(table.c[column.name].in_(sorted(roots)))
+    return or_(*wanted) if wanted else None
+
+
+def _stored_in_scope(
+    connection: Connection, name: str, scope: Scope
+) -> Iterator[tuple[str, dict[str, Any]]]:
+    """The stored rows of ``name`` in scope: the roots and keys themselves, and every row
+    that refers to a root — the same rule the replay keeps rows by (``Scope.admits``)."""
+    rules = layout(name)
+    table = Base.metadata.tables[name]
+    wanted: list[ColumnElement[bool]] = []
+    if rules.kind is not None:
+        mine = _by_kind(scope.names()).get(rules.kind)
+        if mine:
+            wanted.append(table.c.id.in_(mine))
+    referring = _referring(name, scope.roots)
+    if referring is not None:
+        wanted.append(referring)
+    if not wanted:
+        return
+    for key, facts in stored(connection, name, select(table).where(or_(*wanted))):
+        if scope.admits(rules, key, facts):
+            yield key, facts

@@ -1,0 +1,1 @@
+"""Loans from the lender's side: terms, amendments, manifests, specimens, shipments, plans."""

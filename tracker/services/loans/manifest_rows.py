@@ -1,0 +1,435 @@
+"""Checking a lender's manifest row by row, in one pass that both previews and prepares.
+
+The preview a person reads and the rows an import writes come from the same pass: each
+row is checked once, and a clean row's specimen columns are validated once (a slice of
+rows in one call, by the same model `specimen add` uses) and kept for the write. Rows
+arrive as the file is read and are let go once checked, so memory follows what a write
+needs, not the file's cells. Nothing here touches the database: :func:`check_file` needs
+only the file (an import runs it before taking the writer lock); :func:`compare` is handed
+a way to find the loan's specimens that a slice of rows names.
+"""
+
+from __future__ import annotations
+
+import json
+import re
+from collections.abc import Callable, Iterable, Iterator, Mapping
+from dataclasses import dataclass
+from datetime import date
+from itertools import islice
+from typing import Any, Literal, TypeVar
+
+from pydantic import Field, TypeAdapter, ValidationError
+
+from tracker.domain.darwincore import extra_terms_problem
+from tracker.domain.formula_cells import FORMULA_TRIGGERS, looks_like_formula
+from tracker.domain.models import Specimen
+from tracker.domain.spreadsheets import Row
+from tracker.domain.text_rules import TextProblem, accept, nfc
+from tracker.services.core.inputs import TextRefused
+from tracker.services.core.views import View
+from tracker.services.loans.specimens import NewSpecimen
+
+# Darwin Core terms (TDWG standard) that become specimen columns; the rest go to `extra`.
+TERM_FIELDS = {
+    "catalogNumber": "catalog_number",
+    "institutionCode": "institution_code",
+    "collectionCode": "collection_code",
+    "scientificName": "scientific_name",
+    "preparations": "skeletal_element",
+    "locality": "locality",
+    "formation": "formation",
+    "earliestEpochOrLowestSeries": "earliest_epoch",
+    "latestEpochOrHighestSeries": "latest_epoch",
+}
+# tracker's own headings for what Darwin Core does not define (numeric ages in Ma)
+OWN_FIELDS = {"ageMinMa": "age_min_ma", "ageMaxMa": "age_max_ma"}
+DATE_TERMS = ("eventDate", "dateIdentified", "georeferencedDate")
+NUMBER_TERMS = ("decimalLatitude", "decimalLongitude", "ageMinMa", "ageMaxMa")
+REQUIRED = "catalogNumber"
+# A refusal of a specimen field's text names the file's column it came from.
+_COLUMN_OF_FIELD = {
+    field.replace("_", "-"): term for term, field in {**TERM_FIELDS, **OWN_FIELDS}.items()
+}
+
+# All clean rows validated in one call instead of one call (and one error path) per row.
+_SPECIMENS = TypeAdapter(list[NewSpecimen])
+# A row's specimen columns, validated, in the file's column order; "extra" packed (`unpacked`).
+Fields = dict[str, Any]
+
+
+class RowResult(View):
+    row: int
+    catalog_number: str | None
+    action: Literal["create", "update", "unchanged", "error"]
+    problems: list[str]
+    changes: dict[str, list[Any]] = Field(default_factory=dict)
+
+
+def header_problems(header: list[str]) -> list[str]:
+    """Problems with the file as a whole, repeated on every row so no row looks clean."""
+    found = [
+        f"heading {h[:30]!r} looks like a spreadsheet formula"
+        for h in header
+        if looks_like_formula(h)
+    ]
+    seen: set[str] = set()
+    for heading in header:
+        try:
+            kept = accept(heading)
+        except TextProblem as problem:
+            found.append(f"heading {problem.shown!r} {problem.reason}")
+            continue
+        if kept in seen:
+            found.append(f"heading {kept!r} is written twice (composed two ways, NFC)")
+        seen.add(kept)
+    if REQUIRED not in header:
+        found.append(f"no {REQUIRED} column (Darwin Core term); headings are: {', '.join(header)}")
+    return found
+
+
+T = TypeVar("T")
+# Rows are checked a slice at a time, each slice as a whole (the bulk checks below), and
+# then let go: a slice holds about this many cells, whatever the file's width.
+SLICE_CELLS = 50_000
+Find = Callable[[list[str]], Mapping[str, Specimen]]  # catalogue numbers -> the loan's specimens
+
+
+@dataclass(frozen=True)
+class CheckedRow:
+    """One row checked on its own: its problems, or its validated specimen columns."""
+
+    number: int
+    catalog: str
+    problems: list[str]
+    fields: Fields | None  # None for a row with problems
+
+
+@dataclass(frozen=True)
+class Compared:
+    """The checked rows held against the loan: the preview's results and what a write needs."""
+
+    results: list[RowResult]
+    fields: dict[int, Fields]  # row number -> validated columns, for rows that write
+    updates: dict[str, Specimen]  # catalogue number -> the loan's specimen a row changes
+
+
+def check_file(header: list[str], rows: Iterable[Row], file_problem: list[str]) -> list[CheckedRow]:
+    """Every row checked against the file alone (no database): run before any lock.
+
+    Rows are taken a slice at a time; a clean row's specimen columns are validated with
+    its slice in one call, by the model `specimen add` uses, and only they are kept.
+    :func:`compare` then says what each clean row changes.
+    """
+    columns = _Columns.of(header)
+    seen: dict[str, int] = {}
+    checked: list[CheckedRow] = []
+    for chunk in slices(rows, rows_per_slice(len(header))):
+        checked += _check_slice(chunk, columns, seen, file_problem)
+    return checked
+
+
+def rows_per_slice(columns: int) -> int:
+    """How many rows of this width make a slice of about SLICE_CELLS cells (at least one)."""
+    return max(1, SLICE_CELLS // max(1, columns))
+
+
+def slices(items: Iterable[T], size: int) -> Iterator[list[T]]:
+    """``items`` in lists of ``size`` (the last one shorter), read as they are used."""
+    iterator = iter(items)
+    while chunk := list(islice(iterator, size)):
+        yield chunk
+
+
+def _check_slice(
+    rows: list[Row], columns: _Columns, seen: dict[str, int], file_problem: list[str]
+) -> list[CheckedRow]:
+    """One slice of rows checked together; each clean row keeps its validated columns."""
+    if file_problem or not _cells_all_read(rows, columns.typed):
+        found = [_first_checks(row, seen, file_problem, columns.typed) for row in rows]
+    else:  # the common case: only a catalogue number can still be wrong
+        found = [_catalog_problems(row, seen, []) for row in rows]
+    clean = [n for n, problems in enumerate(found) if not problems]
+    validated = _validate(columns, [rows[n] for n in clean])
+    fields: dict[int, Fields] = {}
+    for n, (values, problem) in zip(clean, validated, strict=True):
+        if problem is None:
+            fields[n] = values
+        else:
+            found[n].append(problem)
+    return [
+        CheckedRow(row.number, nfc(row.cells.get(REQUIRED, "").strip()), problems, fields.get(n))
+        for n, (row, problems) in enumerate(zip(rows, found, strict=True))
+    ]
+
+
+def compare(checked: list[CheckedRow], find: Find, size: int) -> Compared:
+    """Every row's result for the preview, against the loan's specimens as they stand.
+
+    ``find`` gives the loan's specimens among a slice's catalogue numbers, so only those
+    are ever loaded; rows with problems or nothing to change have no ``fields``.
+    """
+    compared = Compared([], {}, {})
+    for chunk in slices(checked, size):
+        existing = find([row.catalog for row in chunk if row.fields is not None])
+        results = []
+        for row in chunk:
+            result = _result(row.number, row.catalog, row.problems, row.fields, existing)
+            if result["action"] in ("create", "update") and row.fields is not None:
+                compared.fields[row.number] = row.fields
+            if result["action"] == "update":
+                compared.updates[row.catalog] = existing[row.catalog]
+            results.append(result)
+        compared.results.extend(_ROW_RESULTS.validate_python(results))
+    return compared
+
+
+@dataclass(frozen=True)
+class _Columns:
+    """How a file's columns are read, worked out once: every row has the same ones.
+
+    Cells arrive stripped (`read_table` strips every cell), so none is stripped again.
+    """
+
+    typed: list[tuple[str, bool]]  # (term, is a date) for dates and numbers, in file order
+    texts: list[tuple[str, str]]  # Darwin Core term -> specimen column
+    ages: list[tuple[str, str]]  # tracker's numeric age heading -> specimen column
+    extras: list[str]  # any other heading: kept with the specimen when not blank
+    keys: list[str]  # the specimen columns the file has: "extra", then in file order
+
+    @classmethod
+    def of(cls, terms: list[str]) -> _Columns:
+        return cls(
+            typed=[(t, t in DATE_TERMS) for t in terms if t in DATE_TERMS or t in NUMBER_TERMS],
+            texts=[(t, TERM_FIELDS[t]) for t in terms if t in TERM_FIELDS],
+            ages=[(t, OWN_FIELDS[t]) for t in terms if t in OWN_FIELDS],
+            extras=[t for t in terms if t not in TERM_FIELDS and t not in OWN_FIELDS],
+            keys=[
+                "extra",
+                *(
+                    TERM_FIELDS.get(t) or OWN_FIELDS[t]
+                    for t in terms
+                    if t in TERM_FIELDS or t in OWN_FIELDS
+                ),
+            ],
+        )
+
+
+# A cell after the first that starts like a formula, in cells joined by NUL (a literal
+# first character lets the regular expression engine skip ahead at C speed).
+_AFTER_NUL = re.compile("\x00[" + re.escape("".join(FORMULA_TRIGGERS)) + "]")
+
+
+def _formula_start(joined: str) -> bool:
+    """Whether any of some cells joined by NUL starts like a spreadsheet formula.
+
+    (Text files with NUL bytes are refused before parsing; a NUL inside a cell could
+    only raise a false alarm, which the exact cell-by-cell check then settles.)
+    """
+    return joined.startswith(FORMULA_TRIGGERS) or _AFTER_NUL.search(joined) is not None
+
+
+def _first_checks(
+    row: Row, seen: dict[str, int], file_problem: list[str], typed: list[tuple[str, bool]]
+) -> list[str]:
+    """The problems a row's cells show before its columns are validated as a specimen.
+
+    Only a row in which some cell starts like a formula needs every cell looked at;
+    in any other row only the dates and numbers can be wrong, and only a date or
+    number that does not read is looked at again to say why.
+    """
+    problems = list(file_problem)
+    cells = row.cells
+    if _formula_start("\x00".join(cells.values())):
+        for term, value in cells.items():
+            problems += _cell_problems(term, value)
+    else:
+        for term, is_date in typed:
+            value = cells[term]
+            if value and not _reads(value, is_date):
+                problems += _cell_problems(term, value)
+    return _catalog_problems(row, seen, problems)
+
+
+def _catalog_problems(row: Row, seen: dict[str, int], problems: list[str]) -> list[str]:
+    """``problems`` with the row's catalogue number's own added: empty, or seen before.
+
+    Numbers are compared in NFC, as they are kept: the same letters composed differently
+    are the same number.
+    """
+    catalog = nfc(row.cells.get(REQUIRED, "").strip())
+    if REQUIRED in row.cells and not catalog:
+        problems.append(f"{REQUIRED} is empty")
+    elif catalog and catalog in seen:
+        problems.append(f"{REQUIRED} {catalog!r} repeats row {seen[catalog]}")
+    elif catalog:
+        seen[catalog] = row.number
+    return problems
+
+
+def _cells_all_read(rows: list[Row], typed: list[tuple[str, bool]]) -> bool:
+    """True when no cell in the file starts like a formula and every date and number reads.
+
+    Checked column by column over the whole file, so that a clean file (the usual one)
+    needs no cell-by-cell look; a file where this is False is checked row by row.
+    """
+    every_cell = "\x00".join(["\x00".join(row.cells.values()) for row in rows])
+    if _formula_start(every_cell):
+        return False
+    return all(_column_reads([row.cells[term] for row in rows], is_date) for term, is_date in typed)
+
+
+def _column_reads(values: list[str], is_date: bool) -> bool:
+    """Whether every filled cell of a date or number column reads as one."""
+    filled = [value for value in values if value]
+    try:
+        if is_date:
+            [date.fromisoformat(value[:10]) for value in filled]
+        else:
+            list(map(float, filled))
+    except ValueError:
+        return False
+    return True
+
+
+def _reads(value: str, is_date: bool) -> bool:
+    """Whether a (stripped) cell reads as the date or number its column holds."""
+    try:
+        date.fromisoformat(value[:10]) if is_date else float(value)
+    except ValueError:
+        return False
+    return True
+
+
+def _cell_problems(term: str, value: str) -> list[str]:
+    where = f"column {term}"
+    if looks_like_formula(value):
+        return [f"{where}: {value[:30]!r} looks like a spreadsheet formula"]
+    if term in DATE_TERMS and value.strip():
+        try:
+            date.fromisoformat(value.strip()[:10])
+        except ValueError:
+            return [f"{where}: {value!r} is not an ISO 8601 date (YYYY-MM-DD)"]
+    if term in NUMBER_TERMS and value.strip():
+        try:
+            float(value)
+        except ValueError:
+            return [f"{where}: {value!r} is not a number"]
+    return []
+
+
+def _validate(columns: _Columns, rows: list[Row]) -> list[tuple[Fields, str | None]]:
+    """Each row's specimen columns validated like `specimen add`, or the row's first problem.
+
+    Columns the file does not have are left out (an update never blanks them); other
+    headings become extra terms, kept with the specimen within the caps on extra terms.
+    All rows go to pydantic in one call; only when some row fails are the others
+    validated again, without it.
+    """
+    present = [_present(columns, row.cells) for row in rows]
+    said: dict[int, str] = {}
+    for n, candidate in enumerate(present):
+        problem = extra_terms_problem(candidate["extra"])
+        if problem is not None:
+            said[n] = f"extra terms: {problem}"
+    keep = [n for n in range(len(present)) if n not in said]
+    try:
+        specimens = _SPECIMENS.validate_python([present[n] for n in keep])
+    except ValidationError as exc:
+        for error in exc.errors(include_url=False):
+            said.setdefault(keep[int(error["loc"][0])], _said(error))  # (row in the list, field)
+        keep = [n for n in keep if n not in said]
+        specimens = _SPECIMENS.validate_python([present[n] for n in keep])
+    good = dict(zip(keep, specimens, strict=True))
+    return [
+        (_fields(columns.keys, good[n]), None) if n in good else ({}, said[n])
+        for n in range(len(present))
+    ]
+
+
+def _present(columns: _Columns, cells: dict[str, str]) -> dict[str, Any]:
+    """A row as `specimen add` takes it (the loan is not checked here: it is known)."""
+    present: dict[str, Any] = {term: cells[heading] or None for heading, term in columns.texts}
+    for heading, term in columns.ages:
+        value = cells[heading]
+        present[term] = float(value) if value else None
+    present["extra"] = {term: cells[term] for term in columns.extras if cells[term]}
+    present["loan"] = "-"
+    return present
+
+
+def _fields(keys: list[str], specimen: NewSpecimen) -> Fields:
+    """The validated columns the file has, in its order, the extra terms packed as JSON text.
+
+    A pydantic model keeps its field values in ``__dict__``; they are read there
+    rather than through one getattr per column of each of 20,000 rows. A row's extra
+    terms are most of a wide list's cells: kept as one text until they are compared
+    (an update) or written, they cost about their characters rather than a dictionary
+    entry and a string each.
+    """
+    values = vars(specimen)
+    fields = {key: values[key] for key in keys}
+    fields["extra"] = json.dumps(fields["extra"], ensure_ascii=False, separators=(",", ":"))
+    return fields
+
+
+def unpacked(fields: Fields) -> Fields:
+    """A checked row's columns as a specimen takes them: its extra terms a mapping again."""
+    return {**fields, "extra": json.loads(fields["extra"])}
+
+
+def _said(error: Any) -> str:
+    """A validation error as the preview says it: the field (or who is blamed) and why."""
+    blamed = error.get("ctx", {}).get("error")
+    if isinstance(blamed, TextRefused):  # said at the cell, as the other cell problems are
+        column = _COLUMN_OF_FIELD.get(blamed.field) or blamed.field.removeprefix("extra.")
+        return f"column {column}: {blamed.value!r} {blamed.reason}"
+    reason = getattr(blamed, "reason", None) or error["msg"]
+    where = getattr(blamed, "field", None) or ".".join(str(p) for p in error["loc"][1:])
+    return f"{where}: {reason}"
+
+
+# The preview's rows are validated in one call (a list adapter), not one call per row.
+_ROW_RESULTS = TypeAdapter(list[RowResult])
+
+
+def _result(
+    number: int,
+    catalog: str,
+    problems: list[str],
+    fields: Fields | None,
+    existing: Mapping[str, Specimen],
+) -> dict[str, Any]:
+    """A row's result, as the fields of its RowResult."""
+    if problems or fields is None:
+        return {
+            "row": number,
+            "catalog_number": catalog or None,
+            "action": "error",
+            "problems": problems,
+        }
+    current = existing.get(catalog)
+    if current is None:
+        return {"row": number, "catalog_number": catalog, "action": "create", "problems": []}
+    changes = _changes(current, fields)
+    action = "update" if changes else "unchanged"
+    return {
+        "row": number,
+        "catalog_number": catalog,
+        "action": action,
+        "problems": [],
+        "changes": changes,
+    }
+
+
+def _changes(current: Specimen, fields: Fields) -> dict[str, list[Any]]:
+    """Only what the file says differently: columns it lacks leave the specimen alone."""
+    changes = {
+        k: [getattr(current, k), v]
+        for k, v in fields.items()
+        if k != "extra" and getattr(current, k) != v
+    }
+    for term, value in json.loads(fields["extra"]).items():
+        if current.extra.get(term) != value:
+            changes[f"extra.{term}"] = [current.extra.get(term), value]
+    return changes

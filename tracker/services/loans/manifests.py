@@ -1,0 +1,416 @@
+"""Lender manifests: the list of specimens a loan brings, read from CSV, TSV or XLSX.
+
+Columns named with Darwin Core terms (TDWG) are understood as they are; any other
+headings are read through a saved mapping. Every row is checked and the whole file is
+previewed row by row — what would be created, updated or left unchanged, and every
+problem with its row number — before anything is written. A clean import is one
+transaction and one ledger event; importing the same file again changes nothing.
+"""
+
+from __future__ import annotations
+
+import hashlib
+from collections import Counter
+from collections.abc import Iterator
+from contextlib import contextmanager
+from dataclasses import dataclass
+from typing import Annotated, Any, Literal
+
+from pydantic import BaseModel, ConfigDict, Field
+from sqlalchemy import select
+from sqlalchemy.orm import Session, undefer
+
+from tracker.db.database import Database
+from tracker.db.rows import insert_rows
+from tracker.domain.errors import InputError, NotFound, RuleViolation, at_cell
+from tracker.domain.facts import Stated, rows_facts
+from tracker.domain.ids import Kind, format_id
+from tracker.domain.models import Loan, LoanStatus, MappingProfile, Specimen, SpecimenStatus
+from tracker.domain.spreadsheets import Row, Table, TableError, read_table
+from tracker.services.core.common import finish
+from tracker.services.core.inputs import Name, Raw, Request, parse
+from tracker.services.core.lookup import get_loan
+from tracker.services.core.uow import UnitOfWork, unit_of_work
+from tracker.services.core.views import Done, View
+from tracker.services.loans.manifest_rows import (
+    OWN_FIELDS,
+    TERM_FIELDS,
+    CheckedRow,
+    Fields,
+    check_file,
+    compare,
+    header_problems,
+    rows_per_slice,
+    unpacked,
+)
+from tracker.services.loans.manifest_rows import RowResult as RowResult
+
+MAX_ROWS = 100_000
+# New specimens are inserted by the driver's executemany (no ORM object per row).
+_SPECIMEN = Specimen.metadata.tables[Specimen.__tablename__]
+PACKED = frozenset({"extra"})  # a checked row's columns held as JSON text (``unpacked``)
+
+
+class ManifestMapping(Request):
+    """How to read a lender's list whose headings are not Darwin Core terms."""
+
+    format: Literal["csv", "tsv", "xlsx"] = "csv"
+    sheet: str | None = None
+    header_row: Annotated[int, Field(ge=1, le=100)] = 1
+    columns: dict[str, str] = Field(default_factory=dict)  # term -> heading in the file
+
+
+Term = Annotated[str, Field(max_length=4000)]
+
+
+class ManifestRecord(BaseModel):
+    """One row of a lender's list, as Darwin Core terms (TDWG) plus tracker's numeric ages.
+
+    Any other Darwin Core term may appear too; it is kept with the specimen. This model
+    documents the row for the schema in schemas/; rows are checked by `manifest_rows`.
+    """
+
+    model_config = ConfigDict(extra="allow")
+
+    catalogNumber: Annotated[str, Field(min_length=1, max_length=80)]  # noqa: N815
+    institutionCode: Term | None = None  # noqa: N815
+    collectionCode: Term | None = None  # noqa: N815
+    scientificName: Term | None = None  # noqa: N815
+    preparations: Term | None = None
+    locality: Term | None = None
+    formation: Term | None = None
+    earliestEpochOrLowestSeries: Term | None = None  # noqa: N815
+    latestEpochOrHighestSeries: Term | None = None  # noqa: N815
+    eventDate: Annotated[str, Field(pattern=r"^\d{4}-\d{2}-\d{2}")] | None = None  # noqa: N815
+    decimalLatitude: Annotated[float, Field(ge=-90, le=90)] | None = None  # noqa: N815
+    decimalLongitude: Annotated[float, Field(ge=-180, le=180)] | None = None  # noqa: N815
+    ageMinMa: Annotated[float, Field(ge=0, le=4600)] | None = None  # noqa: N815
+    ageMaxMa: Annotated[float, Field(ge=0, le=4600)] | None = None  # noqa: N815
+
+
+class ManifestPreview(View):
+    loan: str
+    file: str
+    sha256: str
+    rows: list[RowResult]
+    create: int
+    update: int
+    unchanged: int
+    problems: int
+    kept_as_extra: list[str]  # headings that are not specimen columns: stored, never dropped
+
+    @property
+    def clean(self) -> bool:
+        return self.problems == 0
+
+
+class ManifestRequest(Request):
+    loan: str
+    filename: Annotated[str, Field(min_length=1, max_length=255)]
+    content: Annotated[bytes, Field(min_length=1)]
+    mapping: Name | None = None
+
+
+class ManifestOutcome(View):
+    preview: ManifestPreview
+    created: list[str]
+    updated: list[str]
+    event_seq: int | None  # None when the file changed nothing
+
+
+class MappingView(View):
+    name: str
+    definition: dict[str, Any]
+
+
+class NewMapping(Request):
+    name: Name
+    definition: ManifestMapping
+
+
+def save_mapping(db: Database, actor: str | None, data: NewMapping | Raw) -> Done[MappingView]:
+    """Save (or replace) a manifest column mapping by name."""
+    request = parse(NewMapping, data)
+    with unit_of_work(db, actor) as uow:
+        row = uow.session.scalars(
+            select(MappingProfile).where(MappingProfile.name == request.name)
+        ).one_or_none()
+        definition = request.definition.model_dump(mode="json")
+        if row is not None and row.kind != "manifest":
+            raise RuleViolation("name", request.name, "is already an instrument profile's name")
+        if row is None:
+            uow.session.add(
+                MappingProfile(
+                    name=request.name, kind="manifest", definition=definition, created_at=uow.now
+                )
+            )
+        else:
+            row.definition = definition
+        view = MappingView(name=request.name, definition=definition)
+        return finish(
+            uow,
+            "manifest_mapping.saved",
+            "",
+            {"name": request.name, "definition": definition},
+            lambda: view,
+        )
+
+
+def preview_manifest(db: Database, data: ManifestRequest | Raw) -> ManifestPreview:
+    """Everything the import would do, and every problem, row by row. Writes nothing."""
+    request = parse(ManifestRequest, data)
+    reading = _read_file(request, _saved_mapping(db, request))
+    with db.read_session() as session:
+        return _examine(session, request, reading).preview
+
+
+def import_manifest(
+    db: Database, actor: str | None, data: ManifestRequest | Raw
+) -> ManifestOutcome:
+    """Create and update the loan's specimens from a clean manifest, in one transaction.
+
+    The file is read and checked once, before the writer lock is taken: the preview it
+    answers with is the pass whose validated rows are written.
+    """
+    request = parse(ManifestRequest, data)
+    return _import(db, actor, request)
+
+
+def _import(db: Database, actor: str | None, request: ManifestRequest) -> ManifestOutcome:
+    mapping = _saved_mapping(db, request)
+    reading = _read_file(request, mapping)  # the whole file, before the lock
+    with unit_of_work(db, actor, "import lender manifest") as uow:
+        current = _mapping(uow.session, request.mapping)
+        if current != mapping:  # saved anew meanwhile: read the file as it says now
+            reading = _read_file(request, current)
+        examined = _examine(uow.session, request, reading)
+        preview = examined.preview
+        if not preview.clean:
+            raise _first_problem(request.filename, preview, reading.header_problems)
+        loan = examined.loan
+        if loan.status is not LoanStatus.OPEN:
+            raise RuleViolation("loan", loan.reference, f"is {loan.status.value}")
+        created, updated = _write(uow, loan.id, examined)
+        if not created and not updated:
+            return ManifestOutcome(preview=preview, created=[], updated=[], event_seq=None)
+        uow.mention(*created, *updated)
+        payload = {
+            "file": request.filename,
+            "sha256": preview.sha256,
+            "created": created,
+            "updated": {r.catalog_number: r.changes for r in preview.rows if r.action == "update"},
+            "unchanged": preview.unchanged,
+        }
+        done = finish(uow, "manifest.imported", loan, payload, lambda: preview)
+    return ManifestOutcome(
+        preview=preview, created=created, updated=updated, event_seq=done.event_seq
+    )
+
+
+def _saved_mapping(db: Database, request: ManifestRequest) -> ManifestMapping:
+    """The mapping the file is read through; the loan is looked up too, to refuse a typo early."""
+    with db.read_session() as session:
+        get_loan(session, "loan", request.loan)
+        return _mapping(session, request.mapping)
+
+
+def _first_problem(filename: str, preview: ManifestPreview, of_headings: list[str]) -> InputError:
+    """The refusal of a file with problems: where the first is, what it is, how many in all.
+
+    A problem of the headings is said at the header; a row's at that row.
+    """
+    first = next((r for r in preview.rows if r.problems), None)
+    if of_headings or first is None:
+        where, said = f"{filename}, header", of_headings[:1]
+    else:
+        where, said = f"{filename}, row {first.row}", first.problems[:1]
+    return InputError(
+        where,
+        None,
+        "; ".join(
+            [
+                *said,
+                f"the file has {preview.problems} problem(s); see the preview, "
+                "fix the file and import again (nothing was written)",
+            ]
+        ),
+    )
+
+
+def _mapping(session: Session, name: str | None) -> ManifestMapping:
+    if name is None:
+        return ManifestMapping()
+    row = session.scalars(
+        select(MappingProfile).where(MappingProfile.name == name, MappingProfile.kind == "manifest")
+    ).one_or_none()
+    if row is None:
+        raise NotFound("mapping", name, "no saved manifest mapping has this name")
+    mapping: ManifestMapping = ManifestMapping.model_validate(row.definition)
+    return mapping
+
+
+def _table(request: ManifestRequest, mapping: ManifestMapping) -> Table:
+    """The file's headings (as terms, through the mapping) and its rows, read as they are used."""
+    fmt = mapping.format if request.mapping else _format_of(request.filename)
+    rename = {heading: term for term, heading in mapping.columns.items()}
+    with _as_input(request.filename):
+        header, rows = read_table(
+            request.content,
+            fmt,
+            header_row=mapping.header_row,
+            sheet=mapping.sheet,
+            comment_prefix=None,
+            keep_formulas=True,  # flagged row by row in the preview instead
+        )
+    return Table([rename.get(h, h) for h in header], _renamed(request.filename, rows, rename))
+
+
+def _renamed(filename: str, rows: Iterator[Row], rename: dict[str, str]) -> Iterator[Row]:
+    """The rows under their terms, at most MAX_ROWS of them; a reading problem named in the file."""
+    with _as_input(filename):
+        for count, row in enumerate(rows, start=1):
+            if count > MAX_ROWS:
+                raise InputError(
+                    "file",
+                    filename,
+                    f"has more than {MAX_ROWS:,} rows; split it into files of at most {MAX_ROWS:,}",
+                )
+            if rename:
+                row = Row(row.number, {rename.get(k, k): v for k, v in row.cells.items()})
+            yield row
+
+
+@contextmanager
+def _as_input(filename: str) -> Iterator[None]:
+    """A problem reading the table, said as a refusal of the file (or of its row and column)."""
+    try:
+        yield
+    except TableError as exc:
+        if exc.column == "file":
+            raise InputError("file", filename, exc.reason) from None
+        where = at_cell(filename, exc.row, exc.column)
+        raise InputError(where, None, exc.reason) from None
+
+
+def _format_of(filename: str) -> str:
+    lower = filename.lower()
+    return (
+        "xlsx" if lower.endswith(".xlsx") else "tsv" if lower.endswith((".tsv", ".tab")) else "csv"
+    )
+
+
+@dataclass(frozen=True)
+class _Reading:
+    """A manifest read and every row checked, without the database (before the lock)."""
+
+    header: list[str]
+    header_problems: list[str]
+    rows: list[CheckedRow]
+    sha256: str
+
+    @property
+    def slice_rows(self) -> int:
+        """Rows held against the loan together, and written together."""
+        return rows_per_slice(len(self.header))
+
+
+def _read_file(request: ManifestRequest, mapping: ManifestMapping) -> _Reading:
+    header, rows = _table(request, mapping)
+    problems = header_problems(header)
+    digest = hashlib.sha256(request.content).hexdigest()
+    return _Reading(header, problems, check_file(header, rows, problems), digest)
+
+
+@dataclass(frozen=True)
+class _Examined:
+    """One reading of a manifest: the preview, and what an import of it would write."""
+
+    loan: Loan
+    preview: ManifestPreview
+    updates: dict[str, Specimen]  # the loan's specimens the file changes, by catalogue number
+    fields: dict[int, Fields]  # row number -> validated columns, for rows that write
+    slice_rows: int  # rows written together
+
+
+def _examine(session: Session, request: ManifestRequest, reading: _Reading) -> _Examined:
+    """The checked rows against the loan's specimens as they stand: the preview."""
+    loan = get_loan(session, "loan", request.loan)
+
+    def find(catalogs: list[str]) -> dict[str, Specimen]:
+        """The loan's specimens among these, with their extra terms (a row may change them)."""
+        query = (
+            select(Specimen)
+            .where(Specimen.loan_id == loan.id, Specimen.catalog_number.in_(catalogs))
+            .options(undefer(Specimen.extra))
+        )
+        return {s.catalog_number: s for s in session.scalars(query)} if catalogs else {}
+
+    compared = compare(reading.rows, find, reading.slice_rows)
+    results = compared.results
+    header = reading.header
+    extra = sorted(h for h in header if h not in TERM_FIELDS and h not in OWN_FIELDS)
+    problems = sum(len(r.problems) for r in results)
+    problems += len(reading.header_problems) if not reading.rows else 0
+    tally = Counter(r.action for r in results)
+    preview = ManifestPreview(
+        loan=loan.reference,
+        file=request.filename,
+        sha256=reading.sha256,
+        rows=results,
+        create=tally["create"],
+        update=tally["update"],
+        unchanged=tally["unchanged"],
+        problems=problems,
+        kept_as_extra=extra,
+    )
+    return _Examined(loan, preview, compared.updates, compared.fields, reading.slice_rows)
+
+
+def _write(uow: UnitOfWork, loan_id: int, examined: _Examined) -> tuple[list[str], list[str]]:
+    """New specimens in one set-based insert; changed ones through their ORM rows."""
+    new: list[Fields] = []
+    updated: list[str] = []
+    for result in examined.preview.rows:
+        if result.action == "create":
+            new.append(examined.fields[result.row])
+        elif result.action == "update":
+            specimen = examined.updates[result.catalog_number or ""]
+            extra = dict(specimen.extra)
+            for name, (_, value) in result.changes.items():
+                if name.startswith("extra."):
+                    extra[name.removeprefix("extra.")] = value
+                else:
+                    setattr(specimen, name, value)
+            specimen.extra = extra
+            updated.append(specimen.public_id)
+    return _insert(uow, loan_id, new, examined.slice_rows), updated
+
+
+def _insert(uow: UnitOfWork, loan_id: int, new: list[Fields], size: int) -> list[str]:
+    """Insert the new specimens and return their IDs, in file order.
+
+    The rows go a slice at a time (as many as were checked together), each slice one
+    driver executemany with its rows' extra terms unpacked only for it; what every new
+    row shares (loan, status, creation time) is written into the statement once. The IDs
+    are then read back by catalogue number, which is unique within a loan, and the rows
+    told to the unit of work's facts with them.
+    """
+    if not new:
+        return []
+    session = uow.session
+    shared = {"loan_id": loan_id, "status": SpecimenStatus.EXPECTED, "created_at": uow.now}
+    stated: list[tuple[str, Stated]] = []  # each row's catalogue number and facts
+    for start in range(0, len(new), size):
+        checked = new[start : start + size]
+        insert_rows(session.connection(), _SPECIMEN, [unpacked(f) for f in checked], shared)
+        catalog = (fields["catalog_number"] for fields in checked)
+        facts = rows_facts(_SPECIMEN.name, checked, shared, texts=PACKED)  # extra as checked
+        stated.extend(zip(catalog, facts, strict=True))
+    ids = dict(
+        session.execute(
+            select(Specimen.catalog_number, Specimen.id).where(Specimen.loan_id == loan_id)
+        ).all()
+    )
+    made = [(format_id(Kind.SPECIMEN, ids[catalog]), facts) for catalog, facts in stated]
+    uow.written.created_facts(_SPECIMEN.name, made)
+    return [key for key, _ in made]

@@ -1,0 +1,1 @@
+"""The read side: reconciliation, lineage, listings, return reports and exports."""

@@ -1,0 +1,352 @@
+"""Read side: an item, the tree of what came from it, where it came from, and its history."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from pydantic import Field
+from sqlalchemy import or_, select
+from sqlalchemy.orm import Load, Session, selectinload
+
+from tracker.db.database import Database
+from tracker.domain.base import HasPublicId
+from tracker.domain.ids import Kind, format_id, looks_like_id
+from tracker.domain.models import (
+    Aliquot,
+    BatchPosition,
+    ColumnBatch,
+    CustodyEvent,
+    Cut,
+    EventRef,
+    Lender,
+    Loan,
+    LoanDocument,
+    Powder,
+    Solution,
+    Specimen,
+)
+from tracker.services.bench.columns import cut_yield
+from tracker.services.bench.solutions import (
+    powder_remaining,
+    solution_element,
+    solution_remaining_g,
+)
+from tracker.services.core.lookup import get_any, get_loan, uri_prefix
+from tracker.services.core.views import DocumentView, EventView, TermsView, View
+from tracker.services.ledger.chain import listed
+
+
+class Node(View):
+    """One item in a lineage tree; ``facts`` holds its masses and amounts with units in the keys."""
+
+    id: str
+    kind: str
+    label: str
+    status: str | None = None
+    facts: dict[str, Any] = Field(default_factory=dict)
+    children: list[Node] = Field(default_factory=list)
+
+
+class ItemDetail(View):
+    item: Node
+    ancestors: list[Node]
+    location: str | None
+    history: list[EventView]
+    terms: list[TermsView] = Field(default_factory=list)  # loans: every version, oldest first
+    documents: list[DocumentView] = Field(default_factory=list)  # loans: kept by SHA-256
+
+
+def show_item(db: Database, ref: str) -> ItemDetail:
+    """Everything about one ID: its lineage below, its ancestors above, its custody history."""
+    with db.read_session() as session:
+        by_id = looks_like_id(ref, uri_prefix(session))
+        row = get_any(session, "id", ref) if by_id else get_loan(session, "id", ref)
+        if isinstance(row, Specimen):  # its tree: one query per level instead of per node
+            row = load_specimen_tree(session, row.id)
+        elif isinstance(row, Loan):
+            row = load_loan_tree(session, row.id)
+        location = getattr(row, "location", None)
+        loan_rows = row if isinstance(row, Loan) else None
+        return ItemDetail(
+            terms=[TermsView.of(t) for t in loan_rows.terms] if loan_rows else [],
+            documents=_documents(session, loan_rows.id) if loan_rows else [],
+            item=node_of(row),
+            ancestors=[node_of(a, with_children=False) for a in ancestors_of(row)],
+            location=location.path if location is not None else None,
+            history=history_of(session, row.public_id),
+        )
+
+
+def _documents(session: Session, loan_id: int) -> list[DocumentView]:
+    links = session.scalars(select(LoanDocument).where(LoanDocument.loan_id == loan_id))
+    return [DocumentView.of(link.document, link.role) for link in links]
+
+
+def history_of(session: Session, public_id: str) -> list[EventView]:
+    mentioned = select(EventRef.seq).where(EventRef.ref == public_id)
+    query = (
+        listed(session.get_bind().dialect.name)
+        .where(
+            or_(
+                CustodyEvent.object_ref == public_id,
+                CustodyEvent.parent_ref == public_id,
+                CustodyEvent.seq.in_(mentioned),
+            )
+        )
+        .order_by(CustodyEvent.seq)
+    )
+    return [EventView.of(e) for e in session.execute(query)]
+
+
+def ancestors_of(row: HasPublicId) -> list[HasPublicId]:
+    """From the loan down to the item's parent, in that order."""
+    chain: list[HasPublicId] = []
+    parent = _parent(row)
+    while parent is not None:
+        chain.append(parent)
+        parent = _parent(parent)
+    return list(reversed(chain))
+
+
+def _parent(row: HasPublicId) -> HasPublicId | None:
+    match row:
+        case Loan():
+            return row.lender
+        case Specimen():
+            return row.loan
+        case Powder():
+            return row.specimen
+        case Solution():
+            return row.powder
+        case Aliquot():
+            return row.solution
+        case BatchPosition():
+            return row.aliquot if row.aliquot is not None else row.batch
+        case Cut():
+            return row.position
+    return None
+
+
+def node_of(row: HasPublicId, *, with_children: bool = True) -> Node:
+    kind = type(row).__name__.lower()
+    label, facts = _describe(row)
+    status = getattr(row, "status", None)
+    children = [node_of(c) for c in _children(row)] if with_children else []
+    return Node(
+        id=row.public_id,
+        kind=kind,
+        label=label,
+        status=status.value if status is not None else None,
+        facts=facts,
+        children=children,
+    )
+
+
+def _children(row: HasPublicId) -> list[HasPublicId]:
+    match row:
+        case Lender():
+            return list(row.loans)
+        case Loan():
+            return list(row.specimens)
+        case Specimen():
+            return list(row.powders)
+        case Powder():
+            return list(row.solutions)
+        case Solution():
+            return list(row.aliquots)
+        case Aliquot():
+            return list(row.positions)
+        case ColumnBatch():
+            return list(row.positions)
+        case BatchPosition():
+            return list(row.cuts)
+    return []
+
+
+def label_of(row: HasPublicId) -> str:
+    """The words that name an item in a tree or a scan; unlike its facts, they read none of
+    its children (a scan shows labels only, and loads no collections for them)."""
+    match row:
+        case Lender():
+            return row.name
+        case Loan():
+            return f"{row.reference}: {row.title}"
+        case Specimen():
+            taxon = row.scientific_name or "unnamed taxon"
+            return f"{row.catalog_number} {taxon} ({row.skeletal_element or 'element ?'})"
+        case Powder():
+            return f"{row.tissue} powder{f' from {row.site}' if row.site else ''}"
+        case Solution():
+            return f"solution in {row.acid}"
+        case Aliquot():
+            return f"{row.purpose.value} aliquot"
+        case BatchPosition():
+            what = row.reference_material.name if row.reference_material else row.kind.value
+            return f"column {row.slot} of {row.batch.name}: {what}"
+        case Cut():
+            return f"{row.name} cut"
+    name = getattr(row, "name", None) or getattr(row, "code", None) or row.public_id
+    return str(name)
+
+
+def _describe(row: HasPublicId) -> tuple[str, dict[str, Any]]:
+    return label_of(row), _facts(row)
+
+
+def _facts(row: HasPublicId) -> dict[str, Any]:
+    match row:
+        case Loan():
+            return {"lender": row.lender.name}
+        case Powder():
+            left = powder_remaining(row)
+            return {
+                "mass_mg": row.mass_mg,
+                "mass_u_mg": row.mass_u_mg,
+                "remaining_mg": left.value,
+                "remaining_u_mg": left.u,
+            }
+        case Solution():
+            return _solution_facts(row)
+        case Aliquot():
+            return {"mass_g": row.mass_g, "mass_u_g": row.mass_u_g}
+        case BatchPosition():
+            return {"loaded_ug": row.loaded_ug, "loaded_u_ug": row.loaded_u_ug}
+        case Cut():
+            return _cut_facts(row)
+    return {}
+
+
+def _cut_facts(row: Cut) -> dict[str, Any]:
+    facts: dict[str, Any] = {"recovered_ug": row.recovered_ug, "recovered_u_ug": row.recovered_u_ug}
+    ratio = cut_yield(row)
+    if ratio is not None:
+        facts |= {"yield": ratio.value, "yield_u": ratio.u}
+    facts["results"] = [
+        {
+            "session": format_id(Kind.INSTRUMENT_SESSION, r.session_id),
+            "ratio": r.ratio,
+            "kind": r.kind,
+            "value": r.delta_permil,
+            "scale": r.scale,
+            "n": r.n,
+            "two_sd": None if r.sd_permil is None else 2 * r.sd_permil,
+            "flags": list(r.flags),
+        }
+        for r in row.results
+    ]
+    return facts
+
+
+def _solution_facts(row: Solution) -> dict[str, Any]:
+    left = solution_remaining_g(row)
+    facts: dict[str, Any] = {
+        "powder_mass_mg": row.powder_mass_mg,
+        "solution_mass_g": row.solution_mass_g,
+        "solution_mass_u_g": row.solution_mass_u_g,
+        "remaining_g": left.value,
+        "remaining_u_g": left.u,
+    }
+    facts["elements"] = {}  # every element measured in it: µg in the whole solution
+    for symbol in dict.fromkeys(c.element for c in row.concentrations):
+        amount = solution_element(row, symbol)
+        if amount is not None:
+            facts["elements"][symbol] = {"ug": amount[1].value, "u_ug": amount[1].u}
+    return facts
+
+
+def load_specimen_tree(session: Session, specimen_id: int) -> Specimen:
+    """A specimen with its whole lineage loaded in a fixed number of queries (each column's
+    batch and reference material and each cut's results included: the tree describes them)."""
+    query = (
+        select(Specimen)
+        .where(Specimen.id == specimen_id)
+        .options(*_lineage_options(Load(Specimen)))
+    )
+    return session.scalars(query).one()
+
+
+def load_loan_tree(session: Session, loan_id: int) -> Loan:
+    """A loan's specimens with their lineages, in a fixed number of queries rather than one
+    per specimen. Each specimen's extra terms stay in the database (they are deferred): the
+    tree shows none of them, and a lender's wide list made them most of a loan's bytes."""
+    specimens = selectinload(Loan.specimens)
+    query = select(Loan).where(Loan.id == loan_id).options(*_lineage_options(specimens))
+    return session.scalars(query).one()
+
+
+def _lineage_options(at: Any) -> list[Any]:
+    """Loader options below a path that points at specimens: everything the tree describes."""
+    positions = (
+        at.selectinload(Specimen.powders)
+        .selectinload(Powder.solutions)
+        .selectinload(Solution.aliquots)
+        .selectinload(Aliquot.positions)
+    )
+    return [
+        positions.selectinload(BatchPosition.cuts).selectinload(Cut.results),
+        positions.joinedload(BatchPosition.batch),
+        positions.joinedload(BatchPosition.reference_material),
+        at.selectinload(Specimen.powders)
+        .selectinload(Powder.solutions)
+        .selectinload(Solution.concentrations),
+    ]
+
+
+# Loading one item with what its lineage line needs, in a few queries rather than one per hop.
+#
+# A scanned label is answered with the item, its label text, where it is and every ancestor up
+# to the lender, each named by its label (no collections: masses and remainders belong to the
+# lineage view). Lazily that is a dozen round trips for a cut; with these loader options it is
+# one query joining the chain of parents, so a scanner's lookup stays within a few
+# milliseconds however large the ledger grows.
+
+
+def _specimen(at: Any) -> list[Any]:
+    """Options below a loader path that points at a specimen: its loan and lender."""
+    return [at.joinedload(Specimen.loan).joinedload(Loan.lender)]
+
+
+def _powder(at: Any) -> list[Any]:
+    return _specimen(at.joinedload(Powder.specimen))
+
+
+def _solution(at: Any) -> list[Any]:
+    return _powder(at.joinedload(Solution.powder))
+
+
+def _aliquot(at: Any) -> list[Any]:
+    return _solution(at.joinedload(Aliquot.solution))
+
+
+def _position(at: Any) -> list[Any]:
+    return [
+        at.joinedload(BatchPosition.batch),
+        at.joinedload(BatchPosition.reference_material),
+        *_aliquot(at.joinedload(BatchPosition.aliquot)),
+    ]
+
+
+def _cut(at: Any) -> list[Any]:
+    return _position(at.joinedload(Cut.position))
+
+
+_BELOW = {
+    Specimen: _specimen,
+    Powder: _powder,
+    Solution: _solution,
+    Aliquot: _aliquot,
+    BatchPosition: _position,
+    Cut: _cut,
+}
+
+
+def scan_options(model: type[Any]) -> list[Any]:
+    """Loader options that bring a scanned item of ``model`` with its chain of parents (and
+    its place) in the one query that reads it; none for an item without parents to show."""
+    below = _BELOW.get(model)
+    if below is None:
+        return []
+    options = below(Load(model))
+    if hasattr(model, "location"):  # a column position has no place of its own
+        options.append(Load(model).joinedload(model.location))
+    return options
