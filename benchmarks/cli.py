@@ -134,8 +134,13 @@ def run(
     only: Annotated[
         str | None, Opt("--only", help="Some figures: reconcile,verify,manifest,lookup,...")
     ] = None,
-    markdown: Annotated[
-        Path | None, Opt("--markdown", help="Also write the tables as Markdown to a new file.")
+    page: Annotated[
+        Path | None,
+        Opt(
+            "--page",
+            help="Also write the whole performance page (docs/performance.md): a page an earlier "
+            "run wrote is replaced, and its figures are compared with this run's.",
+        ),
     ] = None,
     force: Force = False,
 ) -> None:
@@ -166,24 +171,41 @@ def run(
         only=keys,
         say=_say,
     )
-    if markdown is not None:
-        outputs.check_target(markdown, "--markdown", force=force)
+    previous = _page_to_replace(page, force)
     report = bench.run(options)
-    if markdown is not None:
-        from benchmarks.markdown import markdown as as_markdown
+    if page is not None:
+        from benchmarks.page import page as whole_page
 
         scales_text = ",".join(f"{s:g}" for s in options.scales)
         command = (
             f"python -m benchmarks run --scales {scales_text} --backend {backend} --repeat {repeat}"
         )
+        command += " --pg-cluster" if pg_cluster else " --pg-url URL" if pg_url else ""
         command += f" --only {only}" if only else ""
-        text = as_markdown(report.as_dict(), command)
-        written = outputs.write_new(markdown, text.encode(), "--markdown", force=force)
-        if written.replaced is not None:
-            _say(f"kept the replaced file as {written.replaced}")
+        command += f" --page {page}"
+        text = whole_page(report.as_dict(), command, previous)
+        written = outputs.write_new(page, text.encode(), "--page", force=True)
+        if written.replaced is not None:  # the page replaced is in git's history
+            written.replaced.unlink()
     emit(ctx, report.as_dict(), lambda: _tables(report))
     if not report.all_met:
         raise typer.Exit(1)
+
+
+def _page_to_replace(page: Path | None, force: bool) -> str | None:
+    """The page a run will replace (checked before running): a page an earlier run wrote, or
+    any file with --force; its text, so the new page can say what got slower."""
+    if page is None:
+        return None
+    from benchmarks.page import written_by_us
+
+    outputs.check_target(page, "--page", force=True)  # a folder, a database: refused anyway
+    if not page.is_file():
+        return None
+    text = page.read_bytes().decode("utf-8", errors="replace")
+    if not written_by_us(text):
+        outputs.check_target(page, "--page", force=force)
+    return text
 
 
 def _tables(report: Any) -> Table:
@@ -222,7 +244,8 @@ def _tables(report: Any) -> Table:
     m = report.machine
     table.caption = (
         f"{m['cores']} cores, {m['cpu']}, {m['ram_gb']} GB RAM, Python {m['python']}, "
-        f"SQLite {m['sqlite']}, load {m['load']}; best of the runs, ratio = measured / floor"
+        f"SQLite {m['sqlite']}, load {m['load']} at the start, {m.get('load_end')} at the end; "
+        "best of the runs, ratio = measured / floor"
     )
     return table
 

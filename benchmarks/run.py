@@ -138,6 +138,7 @@ def run(options: Options) -> Report:
             _sqlite(options, scale, report)
     for scale in _pg_scales(options):
         _postgresql(options, scale, report)
+    report.machine["load_end"] = machine()["load"]  # the start's is read with the machine
     return report
 
 

@@ -15,10 +15,12 @@ import subprocess
 import sys
 from contextlib import closing
 from pathlib import Path
+from typing import Any
 
 import pytest
 from typer.testing import CliRunner, Result
 
+from benchmarks import page
 from benchmarks.children import CHECKOUT
 from benchmarks.cli import app
 from tests.cli.conftest import CLEAN_ENV, invoke
@@ -87,7 +89,7 @@ def test_a_small_run_prints_each_figure_with_its_floor_and_no_disagreement(tmp_p
     assert any(tmp_path.glob("bench-scale0.002-*.sqlite"))  # cached for the next run
 
 
-def test_markdown_holds_the_same_figures_as_the_json(tmp_path: Path) -> None:
+def test_the_page_holds_the_same_figures_as_the_json_and_the_commit(tmp_path: Path) -> None:
     out = tmp_path / "perf.md"
     result = bench(
         "run",
@@ -101,7 +103,7 @@ def test_markdown_holds_the_same_figures_as_the_json(tmp_path: Path) -> None:
         "reconcile,lineage",
         "--cache",
         str(tmp_path),
-        "--markdown",
+        "--page",
         str(out),
         as_json=True,
     )
@@ -115,24 +117,90 @@ def test_markdown_holds_the_same_figures_as_the_json(tmp_path: Path) -> None:
         assert f"| {figure['ratio']:.2f} |" in text
     assert {g["key"] for g in report["growth"]} == {"reconcile", "lineage"}
     assert "| growth of | scale 0.002 | scale 0.004 | exponent | verdict |" in text
-    assert "--scales 0.002,0.004 --backend sqlite --repeat 1 --only reconcile,lineage`" in text
+    assert "--scales 0.002,0.004 --backend sqlite --repeat 1 --only reconcile,lineage" in text
+    assert f"on the code of {page.commit()}." in text
+    kept = page.figures_of(text)
+    assert kept is not None and set(kept["figures"]) == {
+        f"{f['key']}@{f['scale']:g}" for f in report["figures"]
+    }
+    assert "Figures slower than" not in text  # nothing to compare the first page with
 
 
-def test_markdown_into_a_missing_folder_is_refused_before_running(tmp_path: Path) -> None:
+def test_a_second_run_replaces_its_page_and_names_what_got_slower(tmp_path: Path) -> None:
+    out = tmp_path / "perf.md"
+    args = ("run", "--scale", "0.002", "--backend", "sqlite", "--repeat", "1", "--only")
+    first = bench(*args, "reconcile", "--cache", str(tmp_path), "--page", str(out))
+    assert first.exit_code in (0, 1), first.stderr
+    kept = page.figures_of(out.read_text(encoding="utf-8"))
+    assert kept is not None
+    kept["figures"]["reconcile@0.002"]["measured"] = 1e-9  # as if it had been far faster
+    out.write_text(f"{page.DATA_BEGIN}{json.dumps(kept)}{page.DATA_END}\n", encoding="utf-8")
+    second = bench(*args, "reconcile", "--cache", str(tmp_path), "--page", str(out))
+    assert second.exit_code in (0, 1), second.stderr  # replaced without --force: its own page
+    text = out.read_text(encoding="utf-8")
+    assert f"Figures slower than on the page before (the run of {kept['commit']})" in text
+    assert "| 0.000 s (ratio" in text  # the old value beside the new one
+    assert [p.name for p in tmp_path.glob("perf.md*")] == ["perf.md"]  # no copy left behind
+
+
+def test_slower_figures_carry_their_reason_and_faster_ones_are_not_listed() -> None:
+    def figure(key: str, measured: float, higher: bool = False) -> dict[str, Any]:
+        return {
+            "key": key,
+            "scale": 1.0,
+            "title": key,
+            "unit": "s",
+            "measured": measured,
+            "ratio": 2.0,
+            "higher_is_better": higher,
+        }
+
+    before = {
+        "commit": "commit abc1234",
+        "figures": page._kept(
+            [figure("verify", 1.0), figure("lookup", 1.0), figure("pg_drills", 100.0, True)]
+        ),
+    }
+    now = [figure("verify", 1.2), figure("lookup", 0.5), figure("pg_drills", 50.0, True)]
+    text = page._slower(before, now, {"verify": "signatures are checked"})
+    assert (
+        "| verify | 1 | 1.000 s (ratio 2.00) | 1.200 s (ratio 2.00) | signatures are checked |"
+        in text
+    )
+    assert "| pg_drills | 1 |" in text and "no reason recorded yet" in text  # fewer per second
+    assert "| lookup |" not in text  # faster is not slower
+    assert page._slower(before, [figure("verify", 1.05)], {}).endswith(": none.")  # within 10 %
+
+
+def test_every_recorded_reason_names_a_figure_the_benchmark_measures() -> None:
+    from benchmarks.run import PG_FIGURES, SQLITE_FIGURES
+
+    keys = {
+        *SQLITE_FIGURES,
+        *PG_FIGURES,
+        "verify_memory",
+        "audit_memory",
+        "pg_reconcile",
+        "pg_drills",
+    }
+    assert set(page.reasons()) <= keys
+
+
+def test_a_page_into_a_missing_folder_is_refused_before_running(tmp_path: Path) -> None:
     result = bench(
         "run",
         "--scale",
         "0.002",
         "--cache",
         str(tmp_path),
-        "--markdown",
+        "--page",
         str(tmp_path / "nowhere" / "perf.md"),
     )
-    assert result.exit_code == 2 and "--markdown" in result.stderr
+    assert result.exit_code == 2 and "--page" in result.stderr
     assert not list(tmp_path.iterdir())
 
 
-def test_markdown_aimed_at_a_database_is_refused_even_forced(tmp_path: Path) -> None:
+def test_a_page_aimed_at_a_database_is_refused_even_forced(tmp_path: Path) -> None:
     lab = tmp_path / "lab.sqlite"
     with closing(sqlite3.connect(lab)) as connection:
         connection.execute("CREATE TABLE custody_event(seq)")
@@ -140,10 +208,8 @@ def test_markdown_aimed_at_a_database_is_refused_even_forced(tmp_path: Path) -> 
     before = lab.read_bytes()
     cache = tmp_path / "cache"
     cache.mkdir()
-    result = bench(
-        "run", "--scale", "0.002", "--cache", str(cache), "--markdown", str(lab), "--force"
-    )
-    assert result.exit_code == 2 and "--markdown" in result.stderr, result.stderr
+    result = bench("run", "--scale", "0.002", "--cache", str(cache), "--page", str(lab), "--force")
+    assert result.exit_code == 2 and "--page" in result.stderr, result.stderr
     assert lab.read_bytes() == before
     assert not list(cache.iterdir())  # refused before anything was built
 
@@ -168,3 +234,14 @@ def test_tracker_holds_no_benchmark() -> None:
     assert importlib.util.find_spec("tracker.bench") is None
     result = invoke("bench", "--help")
     assert result.exit_code == 2 and "bench" in result.stderr, result.stderr
+
+
+def test_a_page_over_a_file_the_benchmark_did_not_write_needs_force(tmp_path: Path) -> None:
+    notes = tmp_path / "notes.md"
+    notes.write_text("my own notes\n", encoding="utf-8")
+    cache = tmp_path / "cache"
+    cache.mkdir()
+    result = bench("run", "--scale", "0.002", "--cache", str(cache), "--page", str(notes))
+    assert result.exit_code == 2 and "--page" in result.stderr, result.stderr
+    assert notes.read_text(encoding="utf-8") == "my own notes\n"
+    assert not list(cache.iterdir())  # refused before anything was built
