@@ -22,7 +22,7 @@ from tests import factories as make
 from tests import lab_files
 from tracker.db.database import Database
 from tracker.services.bench import batch_sheet, chemistry
-from tracker.services.instrument import screening, sessions
+from tracker.services.instrument import reduction, screening, sessions
 from tracker.services.loans import manifests
 
 pytestmark = pytest.mark.slow
@@ -110,6 +110,32 @@ def test_instrument_imports_grow_linearly(db: Database) -> None:
             "bracketing_standard": "STD-X",
         }
         return timed(lambda: sessions.import_session(db, "tech", request))
+
+    assert_linear(run, SIZES)
+
+
+def test_session_reductions_grow_linearly(db: Database) -> None:
+    """Reducing a session finds each run's neighbouring standards by search: the reduction
+    that scanned every standard for every run grew with the square of the session."""
+    chemistry.add_reference_material(db, "boss", {"name": "RM-A", "element": "Ca"})
+    columns = {"run_order": "Run", "sample_name": "Name", "ratios": RATIOS}
+    sessions.save_profile(
+        db, "tech", {"name": "mc", "definition": {"format": "csv", "columns": columns}}
+    )
+
+    def run(rows: int) -> float:
+        n = next(_unique)
+        request = {
+            "profile": "mc",
+            "filename": f"run-{n}.csv",
+            "content": export(rows, n),
+            "name": f"session {n}",
+            "instrument": "MC-ICP-MS (invented)",
+            "element": "Ca",
+            "bracketing_standard": "STD-X",
+        }
+        session = sessions.import_session(db, "tech", request).item.id
+        return timed(lambda: reduction.reduce_session(db, "tech", {"session": session}))
 
     assert_linear(run, SIZES)
 

@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import json
 import math
+from bisect import bisect_left, bisect_right
 from collections import defaultdict
 from collections.abc import Iterable
 from dataclasses import dataclass
@@ -20,7 +21,7 @@ from datetime import datetime
 from itertools import combinations
 
 from sqlalchemy import select
-from sqlalchemy.orm import Session
+from sqlalchemy.orm import Session, joinedload
 
 from tracker.db.database import Database
 from tracker.domain.delta import Replicates, blank_corrected, bracketed_delta, replicate_stats
@@ -28,15 +29,19 @@ from tracker.domain.errors import RuleViolation
 from tracker.domain.ids import Kind, format_id
 from tracker.domain.isotopes import exponential_factor, parse_ratio, predicted_delta
 from tracker.domain.models import (
+    Aliquot,
+    BatchPosition,
     ColumnBatch,
     CustodyEvent,
     Cut,
     InstrumentSession,
     Measurement,
     MeasurementRole,
+    Powder,
     ReferenceMaterial,
     ReferenceValue,
     Result,
+    Solution,
 )
 from tracker.domain.models.instrument import RECOMPUTED
 from tracker.services.bench.columns import blank_ng, position_flags
@@ -101,11 +106,17 @@ def recompute(sql: Session, session: InstrumentSession, now: datetime) -> Reduct
     the caller records the one custody event.
     """
     runs = [m for m in session.measurements if m.excluded_reason is None]
+    accepted = _load_targets(
+        sql,
+        session,
+        {m.cut_id for m in runs if m.role is MeasurementRole.SAMPLE and m.cut_id},
+        {m.reference_material_id for m in runs if m.reference_material_id},
+    )
     lines: list[ResultLine] = []
     rows: list[Result] = []
     for ratio in session.ratio_names:
         for target, stats in _replicates(session, runs, ratio).items():
-            line, row = _result(sql, session, ratio, target, stats, now)
+            line, row = _result(sql, session, ratio, target, stats, now, accepted)
             lines.append(line)
             rows.append(row)
     _mass_dependence(session, lines)
@@ -164,22 +175,23 @@ def _replicates(
     standards = sorted(
         (m.run_order, m.ratios[ratio]) for m in runs if m.role is MeasurementRole.STANDARD
     )
+    order = [run for run, _ in standards]  # searched, never scanned, for each run's neighbours
     values: dict[Target, list[float]] = defaultdict(list)
     orders: dict[Target, list[int]] = defaultdict(list)
     for m in runs:
         target = _target(m)
         if target is None:
             continue
-        before = [v for run, v in standards if run < m.run_order]
-        after = [v for run, v in standards if run > m.run_order]
-        if not before or not after:
+        before, after = bisect_left(order, m.run_order), bisect_right(order, m.run_order)
+        if before == 0 or after == len(order):
             raise RuleViolation(
                 "session",
                 session.public_id,
                 f"run {m.run_order} ({m.sample_name}) lost its bracketing "
                 "standard (an excluded standard run?)",
             )
-        values[target].append(_value(session, ratio, m.ratios[ratio], before[-1], after[0]))
+        neighbours = standards[before - 1][1], standards[after][1]
+        values[target].append(_value(session, ratio, m.ratios[ratio], *neighbours))
         orders[target].append(m.run_order)
     return {t: (replicate_stats(v), orders[t]) for t, v in values.items()}
 
@@ -209,6 +221,7 @@ def _result(
     target: Target,
     data: tuple[Replicates, list[int]],
     now: datetime,
+    accepted_values: dict[tuple[int, str], ReferenceValue],
 ) -> tuple[ResultLine, Result]:
     stats, _ = data
     kind, key = target
@@ -234,7 +247,7 @@ def _result(
     elif kind == "reference":
         material = sql.get_one(ReferenceMaterial, key)
         row.reference_material_id, label = key, material.name
-        accepted = _accepted(sql, key, ratio, session)
+        accepted = accepted_values.get((key, ratio))
     else:
         row.position_id, label = key, f"procedural blank {key}"
     if stats.n == 1:
@@ -288,21 +301,43 @@ def _blank_correct(cut: Cut, ratio: str, value: float) -> tuple[float, bool]:
     return blank_corrected(value, sample_ng, float(batch.blank_deltas[ratio]), blank), True
 
 
-def _accepted(
-    sql: Session, material_id: int, ratio: str, session: InstrumentSession
-) -> ReferenceValue | None:
-    query = (
-        select(ReferenceValue)
-        .where(
-            ReferenceValue.reference_material_id == material_id,
-            ReferenceValue.ratio == ratio,
+def _load_targets(
+    sql: Session, session: InstrumentSession, cut_ids: set[int], material_ids: set[int]
+) -> dict[tuple[int, str], ReferenceValue]:
+    """Load what the results read, in a fixed number of statements however many runs.
+
+    Every cut measured comes with its column, its batch's positions and cuts (the blank and
+    the batch's flags) and the specimen it came from; every reference material with the
+    accepted value in force on the session's scale, per ratio (the latest recorded).
+    """
+    batch = joinedload(Cut.position).joinedload(BatchPosition.batch)
+    specimen = (
+        joinedload(Cut.position)
+        .joinedload(BatchPosition.aliquot)
+        .joinedload(Aliquot.solution)
+        .joinedload(Solution.powder)
+        .joinedload(Powder.specimen)
+    )
+    for chunk in _chunks(sorted(cut_ids)):
+        query = select(Cut).where(Cut.id.in_(chunk))
+        siblings = batch.selectinload(ColumnBatch.positions).selectinload(BatchPosition.cuts)
+        sql.scalars(query.options(siblings, specimen)).unique().all()
+    accepted: dict[tuple[int, str], ReferenceValue] = {}
+    for chunk in _chunks(sorted(material_ids)):
+        sql.scalars(select(ReferenceMaterial).where(ReferenceMaterial.id.in_(chunk))).all()
+        values = select(ReferenceValue).where(
+            ReferenceValue.reference_material_id.in_(chunk),
             ReferenceValue.scale == session.bracketing_standard,
             ReferenceValue.kind == session.mode,
         )
-        .order_by(ReferenceValue.id.desc())
-        .limit(1)
-    )
-    return sql.scalars(query).first()
+        for value in sql.scalars(values.order_by(ReferenceValue.id)):
+            accepted[(value.reference_material_id, value.ratio)] = value  # the latest wins
+    return accepted
+
+
+def _chunks(ids: list[int], size: int = 500) -> list[list[int]]:
+    """IDs in lists short enough for every backend's limit on parameters."""
+    return [ids[start : start + size] for start in range(0, len(ids), size)]
 
 
 @dataclass(frozen=True)
@@ -384,8 +419,14 @@ def session_detail(db: Database, ref: str) -> SessionDetail:
         ]
         rows = sql.scalars(
             select(Result).where(Result.session_id == session.id).order_by(Result.id)
+        ).all()
+        accepted = _load_targets(
+            sql,
+            session,
+            {row.cut_id for row in rows if row.cut_id is not None},
+            {row.reference_material_id for row in rows if row.reference_material_id is not None},
         )
-        lines = [_stored_line(sql, session, row) for row in rows]
+        lines = [_stored_line(sql, row, accepted) for row in rows]
         return SessionDetail(
             id=session.public_id,
             name=session.name,
@@ -419,14 +460,16 @@ def _import_reasons(sql: Session, public_id: str) -> dict[int, str]:
     return {int(u["run_order"]): str(u["reason"]) for u in payload.get("unmatched", [])}
 
 
-def _stored_line(sql: Session, session: InstrumentSession, row: Result) -> ResultLine:
+def _stored_line(
+    sql: Session, row: Result, accepted_values: dict[tuple[int, str], ReferenceValue]
+) -> ResultLine:
     accepted: ReferenceValue | None = None
     if row.cut_id is not None:
         kind, key, label = "cut", row.cut_id, _cut_label(sql.get_one(Cut, row.cut_id))
     elif row.reference_material_id is not None:
         material = sql.get_one(ReferenceMaterial, row.reference_material_id)
         kind, key, label = "reference", material.id, material.name
-        accepted = _accepted(sql, material.id, row.ratio, session)
+        accepted = accepted_values.get((material.id, row.ratio))
     else:
         key = row.position_id or 0
         kind, label = "blank", f"procedural blank {key}"
