@@ -11,7 +11,8 @@ from tracker.db.database import Database
 from tracker.services.bench import chemistry, columns
 from tracker.services.instrument import reduction, results
 
-ACCEPTED = {"ratio": "44/40", "scale": "STD-X", "value": 0.70, "two_sd": 0.10}
+RM_DELTA = 0.70  # the reference material measured at its accepted value
+ACCEPTED = {"ratio": "44/40", "scale": "STD-X", "value": RM_DELTA, "two_sd": 0.10}
 
 
 def _more_cuts(db: Database, batch: str, count: int) -> list[str]:
@@ -33,9 +34,9 @@ def _session(db: Database, cuts: list[str], name: str) -> str:
     """Each cut measured twice and the reference material once, every run bracketed."""
     rows, run = [delta_row(1, "STD-X", STD, 0.0)], 1
     for index, target in enumerate([*cuts, *cuts, "RM-A"]):
-        delta = ACCEPTED["value"] if target == "RM-A" else 0.4 + index / 100
+        delta = RM_DELTA if target == "RM-A" else 0.4 + index / 100
         rows += [
-            delta_row(run + 1, target, STD, float(delta)),
+            delta_row(run + 1, target, STD, delta),
             delta_row(run + 2, "STD-X", STD, 0.0),
         ]
         run += 2
