@@ -61,6 +61,7 @@ def _signing_keys(tmp_path_factory: pytest.TempPathFactory) -> Iterator[None]:
     passphrase that unlocks them where a command runs in a child process."""
     with pytest.MonkeyPatch.context() as patch:
         patch.setenv("TRACKER_CONFIG_DIR", str(tmp_path_factory.mktemp("config")))
+        patch.setenv("TRACKER_CHECKPOINT_DIR", str(tmp_path_factory.mktemp("checkpoints")))
         patch.setenv("TRACKER_PASSPHRASE", keys.PASSPHRASE)
         patch.delenv("TRACKER_PASSPHRASE_FILE", raising=False)
         keys.write_key_files()

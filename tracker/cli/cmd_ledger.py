@@ -14,7 +14,7 @@ from tracker.cli.render import history_table
 from tracker.cli.state import database, emit, errors, state, writing
 from tracker.domain.anchors import AnchorCheck
 from tracker.domain.ledger import VerifyReport
-from tracker.services.ledger import audit, chain
+from tracker.services.ledger import audit, chain, checkpoints
 from tracker.services.ledger.audit import AuditReport
 
 ledger_app = typer.Typer(
@@ -88,7 +88,7 @@ def ledger_verify(
     kept = chain.read_anchor(anchor) if anchor is not None else None
     with database(ctx) as db, _progress(ctx) as progress:
         if kept is None:
-            report, check = chain.verify(db, progress), None
+            report, check = checkpoints.verify_and_keep(db, progress), None
         else:
             both = chain.verify_against(db, kept, progress)
             report, check = both.chain, both.anchor

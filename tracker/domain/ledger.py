@@ -212,7 +212,7 @@ class LedgerRow:
 @dataclass(frozen=True)
 class VerifyReport:
     ok: bool
-    events: int
+    events: int  # events walked by this verification
     head_seq: int
     head_hash: str
     broken_seq: int | None = None
@@ -220,6 +220,18 @@ class VerifyReport:
     signed: int = 0  # events whose signature was checked and held
     unsigned: int = 0  # events recorded before signing began (format 1): never "valid"
     signing_since: int | None = None  # the first signed event
+    verified_from: int = 1  # the first event walked; earlier ones rest on a checkpoint
+
+
+@dataclass(frozen=True)
+class Since:
+    """Where a walk starts when events 1..``seq`` were verified before (a checkpoint kept
+    outside the database): the hash event ``seq`` had then, and the authority as it stood
+    there (replayed from the authority events up to it)."""
+
+    seq: int
+    hash: str
+    authority: Authority
 
 
 def verify_chain(rows: Iterable[LedgerRow]) -> VerifyReport:
@@ -272,7 +284,9 @@ def verify_tuples(rows: Iterable[LedgerTuple]) -> VerifyReport:
     return verify_batches((rows,))
 
 
-def verify_batches(batches: Iterable[Iterable[LedgerTuple]]) -> VerifyReport:
+def verify_batches(
+    batches: Iterable[Iterable[LedgerTuple]], since: Since | None = None
+) -> VerifyReport:
     """Walk events in ``seq`` order, batch after batch; stop at the first broken link.
 
     Checks, in order, for each event: the sequence continues without a gap, its
@@ -284,48 +298,61 @@ def verify_batches(batches: Iterable[Iterable[LedgerTuple]]) -> VerifyReport:
     always 1..expected - 1. A ledger with no event 1 — empty, or starting later — is not
     intact. ``at`` may be a datetime, the ledger's ISO text or SQLite's stored text
     (:func:`ledger_stamp`).
+
+    ``since`` starts the walk after a point verified before: the batches then hold the
+    events after ``since.seq`` only, the first of which must link to ``since.hash``.
     """
-    expected, prev = 1, GENESIS_HASH
-    authority = Authority()
+    start = 1 if since is None else since.seq + 1
+    expected, prev = start, GENESIS_HASH if since is None else since.hash
+    authority = Authority() if since is None else since.authority
+    walk = _Walk(authority, start)
     for batch in batches:
         for row in batch:
             seq, prev_hash, digest = row[0], row[7], row[8]
             if seq != expected or prev_hash != prev:
                 problem = _link_problem(seq, expected, prev_hash, prev)
-                return _broken(authority, expected, prev, *problem)
+                return walk.broken(expected, prev, *problem)
             if not stored_hash_holds(row):
                 reason = "stored hash does not match the event's contents (altered after writing)"
-                return _broken(authority, expected, prev, seq, reason)
+                return walk.broken(expected, prev, seq, reason)
             claim = Claim(seq, row[2], row[3], row[4], row[6], digest, row[9], *row[13:15])
             problem_text = authority.admit(claim)
             if problem_text is not None:
-                return _broken(authority, expected, prev, seq, problem_text)
+                return walk.broken(expected, prev, seq, problem_text)
             expected, prev = seq + 1, digest
     if expected == 1:  # not one event: a ledger always has its first (`tracker init`)
         return VerifyReport(False, 0, 0, prev, 1, EMPTY)
-    return VerifyReport(
-        True,
-        expected - 1,
-        expected - 1,
-        prev,
-        signed=authority.signed,
-        unsigned=authority.unsigned,
-        signing_since=authority.signing_since,
-    )
+    return walk.report(True, expected, prev)
 
 
-def _broken(authority: Authority, expected: int, prev: str, seq: int, reason: str) -> VerifyReport:
-    return VerifyReport(
-        False,
-        expected - 1,
-        expected - 1,
-        prev,
-        seq,
-        reason,
-        authority.signed,
-        authority.unsigned,
-        authority.signing_since,
-    )
+@dataclass
+class _Walk:
+    """A walk's verdict, counting only the events it walked (signed and unsigned alike)."""
+
+    authority: Authority
+    start: int
+
+    def __post_init__(self) -> None:
+        self.signed, self.unsigned = self.authority.signed, self.authority.unsigned
+
+    def report(
+        self, ok: bool, expected: int, prev: str, seq: int | None = None, reason: str | None = None
+    ) -> VerifyReport:
+        return VerifyReport(
+            ok,
+            expected - self.start,
+            expected - 1,
+            prev,
+            seq,
+            reason,
+            self.authority.signed - self.signed,
+            self.authority.unsigned - self.unsigned,
+            self.authority.signing_since,
+            self.start,
+        )
+
+    def broken(self, expected: int, prev: str, seq: int, reason: str) -> VerifyReport:
+        return self.report(False, expected, prev, seq, reason)
 
 
 def stored_hash_holds(row: LedgerTuple) -> bool:

@@ -489,7 +489,7 @@ def _ledger(report: ReturnReport, styles: dict[str, ParagraphStyle]) -> list[Flo
         state = "chain intact; the loan's books agree with it"
     text = (
         f"This report was made from ledger event #{head.seq}, head hash "
-        f"{head.hash} ({state}). To re-verify: "
+        f"{head.hash} ({state}; {_esc(head.verification)}). To re-verify the whole chain: "
         f"<b>{_esc(head.verify_command)}</b> and <b>{_esc(head.audit_command)}</b> on the "
         "borrower's database, or run the verification recipe of tracker's docs/ledger.md over "
         "an exported ledger."

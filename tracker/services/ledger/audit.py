@@ -13,6 +13,7 @@ from __future__ import annotations
 
 from collections.abc import Callable, Iterable, Iterator, Sequence
 from dataclasses import dataclass
+from datetime import datetime
 from typing import Any
 
 from sqlalchemy import Connection, Select, Table, func, select
@@ -27,6 +28,7 @@ from tracker.domain.models import CustodyEvent
 from tracker.domain.replay import Books, Coverage, Discrepancy
 from tracker.services.core.views import View
 from tracker.services.ledger.chain import event_batches
+from tracker.services.ledger.checkpoints import keep
 
 Progress = Callable[[int, int], None]  # (events and rows read, events and rows in all)
 SHOWN = 3  # discrepancies named in a one-line verdict
@@ -58,6 +60,9 @@ class AuditReport:
     coverage: Coverage
     rows: int  # stored rows compared
     scope: str = ""  # what was audited when not the whole lab ("loan KF-2026-014")
+    # the events up to this one were verified before (this computer's checkpoint), and when
+    checkpoint: tuple[int, datetime] | None = None
+    note: str | None = None  # a checkpoint found and not trusted, and why
 
     @property
     def ok(self) -> bool:
@@ -137,6 +142,7 @@ def audit(db: Database, progress: Progress | None = None, every: int = 500) -> A
         chain = verify_batches(_replayed(event_batches(connection), books, counted))
         if not chain.ok:
             return AuditReport(chain, [], books.coverage, 0)
+        keep(db, chain, db.clock())  # a whole chain verified: this computer's checkpoint
         found: list[Discrepancy] = []
         for name in described_tables():
             stored = counted.rows(_stored_all(connection, name))

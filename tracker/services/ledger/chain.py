@@ -79,15 +79,16 @@ def _batches(db: Database) -> Iterator[list[LedgerTuple]]:
         yield from event_batches(connection)
 
 
-def event_batches(connection: Connection) -> Iterator[list[LedgerTuple]]:
-    """Ledger rows in sequence order, a batch at a time, read on ``connection``.
+def event_batches(connection: Connection, after: int = 0) -> Iterator[list[LedgerTuple]]:
+    """Ledger rows in sequence order (those after event ``after``), a batch at a time, read
+    on ``connection``.
 
     The statement is built by SQLAlchemy and read through the driver's own cursor
     (a server-side cursor on PostgreSQL): verifying a decade's ledger is a million rows,
     and wrapping each in a result row would cost more than hashing it.
     """
     columns = (CustodyEvent.seq, stamp_column(connection.dialect.name), *LEDGER_COLUMNS[2:])
-    statement = select(*columns).order_by(CustodyEvent.seq)
+    statement = select(*columns).where(CustodyEvent.seq > after).order_by(CustodyEvent.seq)
     yield from stream.batches(connection, statement, "tracker_ledger_walk", BATCH)
 
 

@@ -10,9 +10,10 @@ rows in scope kept (``domain.replay.Scope``), and only the loan's stored rows co
 
 A row an event made for the loan that the stored rows no longer hold (a deleted
 specimen) widens the scope, and the events are read again until nothing new turns up, so
-rows deleted together with their children are still missed. The hashes of the whole chain
-are verified as before; what the scoped audit does not check is the rest of the lab
-(`tracker ledger audit` does).
+rows deleted together with their children are still missed. The chain's hashes and
+signatures are verified from this computer's last checkpoint of the ledger
+(:mod:`~tracker.services.ledger.checkpoints`), or in full where there is none; what the
+scoped audit does not check is the rest of the lab (`tracker ledger audit` does).
 """
 
 from __future__ import annotations
@@ -32,7 +33,8 @@ from tracker.domain.models import CustodyEvent, EventRef
 from tracker.domain.replay import Books, Discrepancy, Scope
 from tracker.services.core.lookup import get_loan
 from tracker.services.ledger.audit import AuditReport, stored
-from tracker.services.ledger.chain import stamp_column, verify
+from tracker.services.ledger.chain import stamp_column
+from tracker.services.ledger.checkpoints import verify_since_checkpoint
 
 # Items a loan's rows name that are in its report without being part of its tree.
 KEYS = (Kind.LENDER, Kind.DOCUMENT)
@@ -44,9 +46,12 @@ def audit_loan(db: Database, loan: str) -> AuditReport:
     with db.read_session() as session:
         row = get_loan(session, "loan", loan)
         number, reference = row.id, row.reference
-    chain = verify(db)
+    verified = verify_since_checkpoint(db)
+    chain, scope_name = verified.chain, f"loan {reference}"
+    rested = verified.checkpoint
+    checkpoint = None if rested is None else (rested.seq, rested.verified_at)
     if not chain.ok:  # facts the chain no longer proves are not held against anything
-        return AuditReport(chain, [], Books().coverage, 0, f"loan {reference}")
+        return AuditReport(chain, [], Books().coverage, 0, scope_name, checkpoint, verified.note)
     with stream.snapshot(db.engine) as connection:
         scope = _scope(connection, number)
         for _ in range(MAX_PASSES):
@@ -59,7 +64,7 @@ def audit_loan(db: Database, loan: str) -> AuditReport:
             mine = list(_stored_in_scope(connection, name, scope))
             rows += len(mine)
             found.extend(books.compare(name, mine))
-    return AuditReport(chain, found, books.coverage, rows, f"loan {reference}")
+    return AuditReport(chain, found, books.coverage, rows, scope_name, checkpoint, verified.note)
 
 
 def _replay(connection: Connection, scope: Scope) -> Books:

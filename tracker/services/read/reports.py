@@ -40,7 +40,7 @@ from tracker.services.core.lookup import get_loan
 from tracker.services.core.uow import unit_of_work
 from tracker.services.core.views import DocumentView, Done, TermsView, View
 from tracker.services.instrument.results import results
-from tracker.services.ledger.audit import AUDIT_COMMAND, DiscrepancyView
+from tracker.services.ledger.audit import AUDIT_COMMAND, AuditReport, DiscrepancyView
 from tracker.services.ledger.loan_audit import audit_loan
 from tracker.services.read.reconcile import LoanLine, reconcile
 
@@ -142,11 +142,38 @@ class LedgerHead(View):
     verify_command: str
     books_agree: bool = True  # the loan's rows, held against the ledger (audit_loan)
     audit_command: str = AUDIT_COMMAND
+    # how the chain was verified for this report: in full, or from this computer's checkpoint
+    verified_from: int = 1
+    checkpoint_at: datetime | None = None  # when the events before verified_from were
+    verification: str = ""  # the statement, in words
 
     @property
     def vouched(self) -> bool:
         """Only a chain intact *and* books that agree with it are said to be intact."""
         return self.intact and self.books_agree
+
+
+def verification_statement(checked: AuditReport) -> str:
+    """What the report's word on the chain rests on: the events verified for it, and
+    those a checkpoint of this computer vouches for (with its date), or a checkpoint found
+    and not trusted."""
+    chain = checked.chain
+    if not chain.ok:
+        return f"verification stopped at event #{chain.broken_seq}: {chain.reason}"
+    if checked.checkpoint is None:
+        said = f"all {chain.head_seq:,} events verified for this report"
+    else:
+        seq, at = checked.checkpoint
+        now = (
+            f"events #{seq + 1:,}–#{chain.head_seq:,} verified for this report"
+            if chain.head_seq > seq
+            else "no event since"
+        )
+        said = (
+            f"events #1–#{seq:,} verified in full on {at:%Y-%m-%d %H:%M} UTC (this computer's "
+            f"checkpoint); {now}"
+        )
+    return f"{said}; {checked.note}" if checked.note else said
 
 
 class ReturnReport(View):
@@ -244,6 +271,9 @@ def build_return_report(
                 intact=head.ok,
                 verify_command="tracker ledger verify",
                 books_agree=not discrepancies,
+                verified_from=head.verified_from,
+                checkpoint_at=None if checked.checkpoint is None else checked.checkpoint[1],
+                verification=verification_statement(checked),
             ),
             discrepancies=discrepancies,
         )

@@ -17,7 +17,7 @@ from textual.widgets import DataTable, Footer, Input, ProgressBar, Static
 from tracker.domain.errors import TrackerError
 from tracker.domain.ledger import VerifyReport
 from tracker.services.core.views import EventView
-from tracker.services.ledger import audit, chain
+from tracker.services.ledger import audit, chain, checkpoints
 from tracker.services.ledger.audit import AuditReport
 from tracker.ui.context import database
 from tracker.ui.messages import Refused, refusal_text
@@ -148,7 +148,7 @@ class LedgerScreen(Screen[None]):
             self.post_message(self.Progress(done, total))
 
         try:
-            report = chain.verify(database(self), progress, every=50)
+            report = checkpoints.verify_and_keep(database(self), progress, every=50)
         except TrackerError as error:
             self.post_message(Refused(error, "verify"))
             return

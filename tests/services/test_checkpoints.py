@@ -1,0 +1,105 @@
+"""A return report verifies the events after this computer's checkpoint, not a decade of
+history each time, and says what its word on the chain rests on; a checkpoint the ledger no
+longer matches is never trusted, and tampering after it is still found (both backends)."""
+
+from __future__ import annotations
+
+from collections.abc import Iterator
+from pathlib import Path
+
+import pytest
+from sqlalchemy import text
+
+from tests import factories as make
+from tracker.db.database import Database
+from tracker.db.location import checkpoint_dir
+from tracker.services.ledger import checkpoints
+from tracker.services.ledger.chain import verify
+from tracker.services.read import reports
+
+
+@pytest.fixture
+def own_folder(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> Iterator[Path]:
+    """This test's own checkpoint folder, so nothing another test verified counts."""
+    folder = tmp_path / "checkpoints"
+    monkeypatch.setenv("TRACKER_CHECKPOINT_DIR", str(folder))
+    yield folder
+
+
+def _unlock_ledger(db: Database) -> None:
+    """Drop the append-only triggers, as someone editing the database by hand would."""
+    with db.engine.begin() as conn:
+        if db.backend == "sqlite":
+            conn.execute(text("DROP TRIGGER custody_event_no_update"))
+        else:
+            conn.execute(text("DROP TRIGGER custody_event_append_only ON custody_event"))
+
+
+def test_the_first_report_verifies_everything_and_the_next_only_what_is_new(
+    db: Database, own_folder: Path
+) -> None:
+    loan = make.loan(db)
+    make.powder(db, make.specimen(db, loan))
+    first = reports.build_return_report(db, loan).ledger
+    assert first.intact and first.verified_from == 1 and first.checkpoint_at is None
+    assert first.verification == f"all {first.seq:,} events verified for this report"
+    assert len(list(own_folder.glob("*.json"))) == 1  # kept outside the database
+    make.powder(db, make.specimen(db, loan))  # new events after the checkpoint
+    second = reports.build_return_report(db, loan).ledger
+    assert second.intact and second.verified_from == first.seq + 1
+    assert second.checkpoint_at is not None and second.seq > first.seq
+    assert second.verification.startswith(f"events #1–#{first.seq:,} verified in full on ")
+    assert f"events #{first.seq + 1:,}–#{second.seq:,} verified for this report" in (
+        second.verification
+    )
+    walked = checkpoints.verify_since_checkpoint(db).chain  # nothing new since the report
+    assert walked.ok and walked.events == 0 and walked.head_seq == verify(db).head_seq
+
+
+def test_an_event_altered_after_the_checkpoint_is_found(db: Database, own_folder: Path) -> None:
+    loan = make.loan(db)
+    reports.build_return_report(db, loan)  # the checkpoint
+    make.powder(db, make.specimen(db, loan))
+    _unlock_ledger(db)
+    with db.engine.begin() as conn:
+        conn.execute(
+            text(
+                "UPDATE custody_event SET payload = replace(payload, 'enamel', 'enamal') "
+                "WHERE action = 'powder.drilled'"
+            )
+        )
+    head = reports.build_return_report(db, loan, despite_discrepancies=True).ledger
+    assert not head.intact and head.verification.startswith("verification stopped at event #")
+
+
+def test_a_checkpoint_the_ledger_no_longer_matches_is_not_trusted(
+    db: Database, own_folder: Path
+) -> None:
+    loan = make.loan(db)
+    reports.build_return_report(db, loan)
+    (kept,) = own_folder.glob("*.json")
+    checkpoint = checkpoints.Checkpoint.model_validate_json(kept.read_bytes())
+    spoiled = checkpoint.model_copy(update={"hash": "0" * 64})  # as if another ledger's
+    kept.write_text(spoiled.model_dump_json(), encoding="utf-8")
+    head = reports.build_return_report(db, loan).ledger
+    assert head.intact and head.verified_from == 1 and head.checkpoint_at is None
+    assert "does not match: the ledger holds another hash for event" in head.verification
+    assert "verified in full instead" in head.verification
+    moved_on = checkpoints.Checkpoint.model_validate_json(kept.read_bytes())
+    assert moved_on.hash == head.hash  # the full verification kept a new checkpoint
+
+
+def test_a_spoiled_or_unwritable_checkpoint_folder_costs_only_a_full_verification(
+    db: Database, own_folder: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    loan = make.loan(db)
+    reports.build_return_report(db, loan)
+    (kept,) = own_folder.glob("*.json")
+    kept.write_bytes(b"\x00not a checkpoint")
+    assert reports.build_return_report(db, loan).ledger.verified_from == 1
+    blocked = own_folder / "a file where the folder should be"
+    blocked.write_text("", encoding="utf-8")
+    monkeypatch.setenv("TRACKER_CHECKPOINT_DIR", str(blocked))
+    assert checkpoint_dir() == blocked
+    head = reports.build_return_report(db, loan).ledger  # nothing kept, nothing refused
+    assert head.intact and head.verified_from == 1
