@@ -48,7 +48,7 @@ def test_the_first_report_verifies_everything_and_the_next_only_what_is_new(
     second = reports.build_return_report(db, loan).ledger
     assert second.intact and second.verified_from == first.seq + 1
     assert second.checkpoint_at is not None and second.seq > first.seq
-    assert second.verification.startswith(f"events #1–#{first.seq:,} verified in full on ")
+    assert second.verification.startswith(f"events #1–#{first.seq:,} verified earlier on ")
     assert f"events #{first.seq + 1:,}–#{second.seq:,} verified for this report" in (
         second.verification
     )

@@ -164,14 +164,17 @@ def verification_statement(checked: AuditReport) -> str:
         said = f"all {chain.head_seq:,} events verified for this report"
     else:
         seq, at = checked.checkpoint
+        head = chain.head_seq
         now = (
-            f"events #{seq + 1:,}–#{chain.head_seq:,} verified for this report"
-            if chain.head_seq > seq
-            else "no event since"
+            "no event since"
+            if head == seq
+            else f"event #{head:,} verified for this report"
+            if head == seq + 1
+            else f"events #{seq + 1:,}–#{head:,} verified for this report"
         )
         said = (
-            f"events #1–#{seq:,} verified in full on {at:%Y-%m-%d %H:%M} UTC (this computer's "
-            f"checkpoint); {now}"
+            f"events #1–#{seq:,} verified earlier on this computer (its checkpoint of "
+            f"{at:%Y-%m-%d %H:%M} UTC); {now}"
         )
     return f"{said}; {checked.note}" if checked.note else said
 
