@@ -56,7 +56,8 @@ def test_reduction_and_detail_read_a_fixed_number_of_statements(db: Database) ->
     small, large = _session(db, few, "few"), _session(db, many, "many")
     reads: dict[str, list[int]] = {"reduce": [], "detail": []}
     for session in (small, large):
-        with counted(db) as statements:
+        reduction.reduce_session(db, "tech", {"session": session})  # the pool's connections made
+        with counted(db) as statements:  # reduced again: the same results, written in place
             answer = reduction.reduce_session(db, "tech", {"session": session}).item
         reads["reduce"].append(_selects(statements))
         with counted(db) as statements:
@@ -68,3 +69,21 @@ def test_reduction_and_detail_read_a_fixed_number_of_statements(db: Database) ->
         assert judged == [True]  # its accepted value was found for the detail too
     assert reads["reduce"][0] == reads["reduce"][1], reads  # nothing read per target
     assert reads["detail"][0] == reads["detail"][1], reads
+
+
+def test_results_on_another_scale_read_a_fixed_number_of_statements(db: Database) -> None:
+    lab = bench(db)
+    for ratio in ("44/40", "44/42"):  # RM-A's accepted δ on the session's scale
+        on_std = {"ratio": ratio, "scale": "STD-X", "value": 0.7, "two_sd": 0.1}
+        results.set_reference_value(db, "boss", on_std | {"reference": "RM-A", "source": "made up"})
+    cuts = [lab.cut, *_more_cuts(db, lab.batch, 6)]
+    reads, counts = [], []
+    for name, measured in (("few", cuts[:2]), ("many", cuts)):
+        reduction.reduce_session(db, "tech", {"session": _session(db, measured, name)})
+        results.results(db, scale="RM-A")  # the pool's connections made
+        with counted(db) as statements:
+            converted = results.results(db, scale="RM-A")
+        reads.append(_selects(statements))
+        counts.append(len(converted))
+        assert {line.scale for line in converted} == {"RM-A"}
+    assert counts[1] > counts[0] and reads[0] == reads[1], (counts, reads)

@@ -76,11 +76,10 @@ def results(
         )
         if loan is not None:
             query = query.where(Loan.id == get_loan(session, "loan", loan).id)
-        if scale is not None:
-            _require_reference(session, scale)
+        anchors = {} if scale is None else _anchors(session, scale)
         lines = []
         for result, cut, specimen, loan_row, run in session.execute(query):
-            value, on, factor = _on_scale(session, result, scale)
+            value, on, factor = _on_scale(result, scale, anchors)
             sd = None if result.sd_permil is None else result.sd_permil * factor
             lines.append(
                 SpecimenResult(
@@ -106,21 +105,32 @@ def results(
         return lines
 
 
-def _require_reference(session: Session, scale: str) -> None:
+def _anchors(session: Session, scale: str) -> dict[tuple[str, str], ReferenceValue]:
+    """Every accepted δ of the scale's reference material, by (ratio, scale it is on): read
+    once, so converting a loan's results costs one statement however many there are."""
     try:
-        get_reference_material(session, "--scale", scale)
+        rm = get_reference_material(session, "--scale", scale)
     except NotFound:
         raise NotFound("--scale", scale, "no reference material has this name") from None
+    query = select(ReferenceValue).where(
+        ReferenceValue.reference_material_id == rm.id, ReferenceValue.kind == "delta"
+    )
+    latest: dict[tuple[str, str], ReferenceValue] = {}
+    for value in session.scalars(query.order_by(ReferenceValue.id)):
+        latest[(value.ratio, value.scale)] = value  # the newest wins
+    return latest
 
 
-def _on_scale(session: Session, result: Result, scale: str | None) -> tuple[float, str, float]:
+def _on_scale(
+    result: Result, scale: str | None, anchors: dict[tuple[str, str], ReferenceValue]
+) -> tuple[float, str, float]:
     """The value on the asked scale, that scale, and the factor spreads scale by.
 
     δ_new = (1 + δ/1000)/(1 + a/1000) − 1, so spreads scale by 1/(1 + a/1000) exactly.
     """
     if scale is None or scale.lower() == result.scale.lower() or result.kind != "delta":
         return result.delta_permil, result.scale, 1.0
-    anchor = accepted_value(session, scale, result.ratio, result.scale, "delta")
+    anchor = anchors.get((result.ratio, result.scale))
     if anchor is None:
         raise RuleViolation(
             "--scale",
@@ -130,24 +140,6 @@ def _on_scale(session: Session, result: Result, scale: str | None) -> tuple[floa
         )
     factor = 1 / (1 + anchor.value / 1000)
     return change_scale(result.delta_permil, invert(anchor.value)), scale, factor
-
-
-def accepted_value(
-    session: Session, material: str, ratio: str, scale: str, kind: str
-) -> ReferenceValue | None:
-    """The newest accepted value of a named material for a ratio on a scale."""
-    rm = get_reference_material(session, "reference", material)
-    return session.scalars(
-        select(ReferenceValue)
-        .where(
-            ReferenceValue.reference_material_id == rm.id,
-            ReferenceValue.ratio == ratio,
-            ReferenceValue.scale == scale,
-            ReferenceValue.kind == kind,
-        )
-        .order_by(ReferenceValue.id.desc())
-        .limit(1)
-    ).first()
 
 
 class NewReferenceValue(Request):
