@@ -27,7 +27,7 @@ from benchmarks.generate import Built, cached_apart
 from benchmarks.measure import Figure, machine, settle_writes
 from benchmarks.plan import bench_keyring
 from benchmarks.shape import END
-from tracker.db.database import open_database
+from tracker.db.database import Database, open_database
 from tracker.demo import StepClock
 from tracker.domain.errors import TrackerError
 
@@ -42,6 +42,7 @@ SQLITE_FIGURES = (
     "lineage",
     "labels",
     "tui",
+    "cold",
 )
 PG_FIGURES = ("pg",)
 LINEAR = 1.15  # growth exponents up to this count as linear (timings on a busy 2-core machine)
@@ -173,6 +174,7 @@ def _sqlite(options: Options, scale: float, report: Report) -> None:
         "lineage": lambda: [figures_read.lineage_figure(db)],
         "labels": lambda: [_labels(db, options.repeat)],
         "tui": lambda: [figures_ui.cold_start_figure(built.target, options.repeat)],
+        "cold": lambda: _cold(db, built, options),
     }
     try:
         for key in SQLITE_FIGURES:
@@ -188,6 +190,13 @@ def _sqlite(options: Options, scale: float, report: Report) -> None:
 def _manifest(built: Built, options: Options) -> list[Figure]:
     with tempfile.TemporaryDirectory(prefix="tracker-bench-") as work:
         return [figures_manifest.manifest_figure(Path(built.target), Path(work), options.repeat)]
+
+
+def _cold(db: Database, built: Built, options: Options) -> list[Figure]:
+    from benchmarks.figures_cold import cold_figures
+
+    with tempfile.TemporaryDirectory(prefix="tracker-bench-cold-") as work:
+        return cold_figures(db, built.target, Path(work), options.repeat)
 
 
 def _labels(db: Any, repeat: int) -> Figure:

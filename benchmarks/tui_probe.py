@@ -22,16 +22,21 @@ async def _tracker(target: str, operator: str) -> None:
     from tracker.ui import make_app
 
     app = make_app(target, operator)
-    from textual.widgets import DataTable
+    from textual.widgets import DataTable, Static
 
     async with app.run_test(headless=True, size=SIZE):
-        rows = 0
-        while not rows:
+        while True:
             await asyncio.sleep(0.002)  # not pilot.pause: it would wait for workers' messages
-            if type(app.screen).__name__ == "OverviewScreen":  # pushed; maybe not composed yet
-                tables = list(app.screen.query("#loans").results(DataTable))
-                rows = tables[0].row_count if tables else 0
-        print(f"ready {rows}", flush=True)
+            if type(app.screen).__name__ != "OverviewScreen":  # pushed; maybe not composed yet
+                continue
+            tables = list(app.screen.query("#loans").results(DataTable))
+            hints = list(app.screen.query("#loan-hint").results(Static))
+            said = str(hints[0].render()) if hints else ""
+            # ready when the services have answered: their lines in the table, or a lab with
+            # no open loan said so (the hint counts the loans it read)
+            if tables and (tables[0].row_count or said[:1].isdigit()):
+                print(f"ready {tables[0].row_count}", flush=True)
+                return
 
 
 async def _bare() -> None:

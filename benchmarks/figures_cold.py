@@ -1,0 +1,376 @@
+"""Everyday commands timed as a person meets them: whole processes, from a cold start.
+
+Each figure starts ``tracker`` afresh (the installed command, a new interpreter, nothing
+warmed) on the scale's database and times it to exit, next to a *whole-process floor*: a
+fresh interpreter doing the same job with the standard library on the same database
+(``cold_floor``). Runs alternate, tracker then floor, and the best of each is kept; CPU time
+and peak memory are the command's own (``process``). Every figure holds tracker's printed
+answer against the floor's (the IDs, references and counts both must show), or says why it
+cannot. Commands that write (a return report, a session's reduction) run on a copy.
+"""
+
+from __future__ import annotations
+
+import random
+import sqlite3
+import sys
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from benchmarks import children
+from benchmarks.figures_read import showcase_specimen
+from benchmarks.measure import Figure, Target
+from benchmarks.plan import FOUNDER, PROFILE, STANDARD, TECHNICIANS, bench_keyring, bench_signer
+from benchmarks.plan_session import Target as SessionTarget
+from benchmarks.plan_session import session_csv
+from benchmarks.process import ProcessRun, run_process
+from tracker import __version__
+from tracker.db.database import Database, open_database
+from tracker.domain.ids import Kind, format_id, parse_id
+
+PASSPHRASE = "synthetic benchmark passphrase"  # invented; the keys prove nothing
+PRINT_FILE = "import sys; sys.stdout.write(open(sys.argv[1]).read())"
+SESSION_ROWS = (1000, 2000, 4000)
+Check = Callable[[ProcessRun, dict[str, Any]], list[str]]
+
+
+@dataclass
+class Cold:
+    """One everyday command and its floor."""
+
+    key: str
+    title: str
+    tracker: list[str]  # what follows ``tracker``
+    floor: list[str]  # the floor's whole command line
+    target: Target
+    check: Check
+    compared: str  # what the check holds against the floor, for the notes
+    notes: list[str] = field(default_factory=list)
+
+
+def cold_figures(db: Database, target: str, work: Path, repeat: int) -> list[Figure]:
+    """Every everyday command's whole-process figure on ``target`` (a SQLite file)."""
+    env = _environment(work)
+    copy = work / "writes.sqlite"
+    _copy(Path(target), copy)
+    figures = [_measure(cold, env, repeat) for cold in _commands(db, target, copy, work)]
+    figures.append(_reduce_figure(copy, env, repeat))
+    return figures
+
+
+def _environment(work: Path) -> dict[str, str]:
+    """A config folder holding the synthetic manager's and a technician's key files."""
+    import os
+
+    from tracker.db import keyfiles
+
+    config = work / "config"
+    os.environ["TRACKER_CONFIG_DIR"], kept = str(config), os.environ.get("TRACKER_CONFIG_DIR")
+    try:
+        for code in (FOUNDER["code"], TECHNICIANS[0]):
+            keyfiles.write_key(code, bench_signer(code), PASSPHRASE)
+    finally:
+        if kept is None:
+            del os.environ["TRACKER_CONFIG_DIR"]
+        else:
+            os.environ["TRACKER_CONFIG_DIR"] = kept
+    env = children.environment(
+        TRACKER_CONFIG_DIR=str(config),
+        TRACKER_PASSPHRASE=PASSPHRASE,
+        TRACKER_CHECKPOINT_DIR=str(work / "checkpoints"),
+        COLUMNS="120",
+    )
+    for name in ("TRACKER_DB", "TRACKER_OPERATOR", "TRACKER_PASSPHRASE_FILE"):
+        env.pop(name, None)
+    return env
+
+
+def _copy(source: Path, copy: Path) -> None:
+    with sqlite3.connect(source) as original, sqlite3.connect(copy) as target:
+        original.backup(target)
+
+
+def _tracker() -> list[str]:
+    """The installed ``tracker`` command beside this interpreter, else ``python -m tracker``."""
+    script = Path(sys.executable).with_name("tracker")
+    return [str(script)] if script.exists() else [sys.executable, "-m", "tracker"]
+
+
+def _floor(*args: str) -> list[str]:
+    return children.command("cold_floor", *args)
+
+
+def _commands(db: Database, target: str, copy: Path, work: Path) -> list[Cold]:
+    picks = _picks(target)
+    specimen, descendants = showcase_specimen(db)
+    on = ["--db", target]
+    manager = ["--db", str(copy), "--as", FOUNDER["code"]]
+    report = str(work / "report.pdf")
+    same_text = "the same text"
+    return [
+        Cold(
+            "cold_version",
+            "tracker --version",
+            ["--version"],
+            [sys.executable, "-c", f"print('tracker {__version__}')"],
+            Target(most=0.15),
+            _same_output,
+            same_text,
+        ),
+        Cold(
+            "cold_help",
+            "tracker --help",
+            ["--help"],
+            [sys.executable, "-c", PRINT_FILE, str(_help_text(work))],
+            Target(most=0.15),
+            lambda run, answer: [] if run.stdout.strip() else ["no help printed"],
+            "not compared: the floor prints tracker's own help text",
+        ),
+        Cold(
+            "cold_lookup",
+            f"tracker lookup of a scanned aliquot ({format_id(Kind.ALIQUOT, picks['aliquot'])})",
+            [*on, "lookup", format_id(Kind.ALIQUOT, picks["aliquot"])],
+            _floor("lookup", target, "aliquot", str(picks["aliquot"])),
+            Target(most=0.4),
+            _tokens,
+            "the specimen's catalogue number and the loan",
+        ),
+        Cold(
+            "cold_show",
+            f"tracker show of a specimen with {descendants} descendants",
+            [*on, "show", specimen],
+            _floor("show", target, str(parse_id(specimen).number), specimen),
+            Target(most=0.4),
+            _descendant_ids,
+            "every powder, solution and aliquot ID",
+        ),
+        Cold(
+            "cold_overview",
+            "tracker overview (the open loans)",
+            [*on, "overview"],
+            _floor("reconcile", target, "", "open"),
+            Target(most=0.4),
+            lambda run, answer: _missing(run, [str(t) for t in answer.get("tokens", [])]),
+            "every open loan's reference (a lab may have none open)",
+        ),
+        Cold(
+            "cold_reconcile_loan",
+            f"tracker reconcile --loan {picks['open_loan']}",
+            [*on, "reconcile", "--loan", picks["open_loan"]],
+            _floor("reconcile", target, picks["open_loan"]),
+            Target(most=0.4),
+            _specimen_ids,
+            "every specimen ID of the loan",
+        ),
+        Cold(
+            "cold_reconcile",
+            f"tracker reconcile of all {picks['loans']} loans, as text",
+            [*on, "reconcile"],
+            _floor("reconcile", target),
+            Target(most=1.5),
+            _tokens,
+            "every loan's reference",
+        ),
+        Cold(
+            "cold_report",
+            f"tracker report return (PDF) of a loan of {picks['report_specimens']} specimens",
+            [*manager, "report", "return", picks["report_loan"], "--out", report, "--force"],
+            _floor("report", str(copy), picks["report_loan"], str(work / "floor-report.txt")),
+            Target(most=1.5),
+            lambda run, answer: _pdf_written(report),
+            "not compared: a PDF against the floor's text; the PDF is checked to be written",
+            ["this computer's checkpoint of the ledger kept by a report before the timed runs"],
+        ),
+    ]
+
+
+def _picks(target: str) -> dict[str, Any]:
+    """The items the figures ask about: an aliquot in the middle, the loan nearest 100
+    specimens (for the report), an open loan (any loan when none is open)."""
+    with sqlite3.connect(f"file:{target}?mode=ro", uri=True) as connection:
+        (aliquots,) = connection.execute("SELECT COUNT(*) FROM aliquot").fetchone()
+        (aliquot,) = connection.execute(
+            "SELECT id FROM aliquot ORDER BY id LIMIT 1 OFFSET ?", (aliquots // 2,)
+        ).fetchone()
+        report_loan, count = connection.execute(
+            "SELECT l.reference, COUNT(*) AS n FROM specimen s JOIN loan l ON l.id = s.loan_id "
+            "GROUP BY l.id ORDER BY ABS(COUNT(*) - 100), l.id LIMIT 1"
+        ).fetchone()
+        open_loan = connection.execute(
+            "SELECT reference FROM loan ORDER BY status <> 'open', id LIMIT 1"
+        ).fetchone()[0]
+        (loans,) = connection.execute("SELECT COUNT(*) FROM loan").fetchone()
+    return {
+        "aliquot": aliquot,
+        "report_loan": report_loan,
+        "report_specimens": count,
+        "open_loan": open_loan,
+        "loans": loans,
+    }
+
+
+def _help_text(work: Path) -> Path:
+    """tracker's own help, for the floor to print (written once, untimed)."""
+    from typer.testing import CliRunner
+
+    from tracker.cli import app
+
+    path = work / "help.txt"
+    path.write_text(CliRunner().invoke(app, ["--help"]).stdout, encoding="utf-8")
+    return path
+
+
+def _measure(cold: Cold, env: dict[str, str], repeat: int) -> Figure:
+    if cold.key == "cold_report":  # the checkpoint a workstation keeps, made before timing
+        run_process([*_tracker(), *cold.tracker], env)
+    runs: list[ProcessRun] = []
+    floors: list[ProcessRun] = []
+    for _ in range(max(repeat, 1)):
+        runs.append(run_process([*_tracker(), *cold.tracker], env))
+        floors.append(run_process(cold.floor, env))
+    return _figure(cold, runs, floors)
+
+
+def _figure(cold: Cold, runs: list[ProcessRun], floors: list[ProcessRun]) -> Figure:
+    best = min(runs, key=lambda r: r.wall if r.answered else float("inf"))
+    bare = min(floors, key=lambda r: r.wall if r.answered else float("inf"))
+    figure = Figure(
+        cold.key, cold.title, "s", best.wall, bare.wall, "a fresh interpreter, standard library"
+    )
+    figure.target = cold.target
+    figure.notes.append(
+        f"CPU {best.cpu:.2f} s (floor {bare.cpu:.2f} s); peak memory {best.peak_mb:.0f} MB "
+        f"(floor {bare.peak_mb:.0f} MB); answer: {cold.compared}"
+    )
+    figure.notes.extend(cold.notes)
+    for run in (best, bare):
+        if not run.answered:
+            figure.problems.append("no answer: the process ran past its timeout and was killed")
+        elif run.code:
+            last = (run.stderr.strip().splitlines() or ["(nothing on stderr)"])[-1]
+            figure.problems.append(f"exit code {run.code}: {last}")
+    if not figure.problems:
+        figure.problems.extend(cold.check(best, _answer(bare)))
+    return figure
+
+
+def _answer(run: ProcessRun) -> dict[str, Any]:
+    import json
+
+    lines = run.stdout.strip().splitlines()
+    if not lines or not lines[-1].startswith("{"):
+        return {}
+    answer: dict[str, Any] = json.loads(lines[-1])
+    return answer
+
+
+def _same_output(run: ProcessRun, answer: dict[str, Any]) -> list[str]:
+    return [] if run.stdout.strip() == f"tracker {__version__}" else ["another version printed"]
+
+
+def _missing(run: ProcessRun, wanted: list[str]) -> list[str]:
+    absent = [w for w in wanted if w not in run.stdout]
+    return (
+        [f"tracker's output lacks {len(absent)} of {len(wanted)}: {absent[:3]}"] if absent else []
+    )
+
+
+def _tokens(run: ProcessRun, answer: dict[str, Any]) -> list[str]:
+    return _missing(run, [str(t) for t in answer.get("tokens", [])]) or _empty(answer, "tokens")
+
+
+def _descendant_ids(run: ProcessRun, answer: dict[str, Any]) -> list[str]:
+    kinds = {"powder": Kind.POWDER, "solution": Kind.SOLUTION, "aliquot": Kind.ALIQUOT}
+    wanted = [
+        format_id(kinds[name], number)
+        for name, numbers in answer.get("ids", {}).items()
+        for number in numbers
+    ]
+    return _missing(run, wanted) or _empty({"ids": wanted}, "ids")
+
+
+def _specimen_ids(run: ProcessRun, answer: dict[str, Any]) -> list[str]:
+    wanted = [format_id(Kind.SPECIMEN, n) for n in answer.get("specimens", [])]
+    return _missing(run, wanted) or _empty({"specimens": wanted}, "specimens")
+
+
+def _empty(answer: dict[str, Any], key: str) -> list[str]:
+    return [] if answer.get(key) else [f"the floor found no {key} to compare"]
+
+
+def _pdf_written(path: str) -> list[str]:
+    written = Path(path)
+    ok = written.exists() and written.read_bytes()[:5] == b"%PDF-"
+    return [] if ok else ["no PDF written"]
+
+
+def _reduce_figure(copy: Path, env: dict[str, str], repeat: int) -> Figure:
+    """``session reduce`` of sessions of 1,000, 2,000 and 4,000 runs: the figure is the
+    largest, and the notes say how the time grows with the rows."""
+    sessions = _import_sessions(copy)
+    figures = []
+    for rows, session in zip(SESSION_ROWS, sessions, strict=True):
+        cold = Cold(
+            "cold_reduce",
+            f"tracker session reduce of {rows:,} runs",
+            ["--db", str(copy), "--as", TECHNICIANS[0], "session", "reduce", session],
+            _floor("reduce", str(copy), str(parse_id(session).number)),
+            Target(most=1.0),
+            _reduced_cuts,
+            "every cut the floor reduced",
+        )
+        figures.append(_measure(cold, env, repeat))
+    largest = figures[-1]
+    pairs = zip(SESSION_ROWS, figures, strict=True)
+    grown = ", ".join(f"{rows:,}: {figure.measured:.2f} s" for rows, figure in pairs)
+    largest.notes.append(f"{grown} (linear doubles per step)")
+    for figure in figures[:-1]:
+        largest.problems.extend(f"at fewer rows: {p}" for p in figure.problems)
+    return largest
+
+
+def _reduced_cuts(run: ProcessRun, answer: dict[str, Any]) -> list[str]:
+    wanted = [format_id(Kind.CUT, n) for n in answer.get("cuts", [])]
+    return _missing(run, wanted) or _empty({"cuts": wanted}, "cuts")
+
+
+def _import_sessions(copy: Path) -> list[str]:
+    """Sessions of 1,000, 2,000 and 4,000 runs over the copy's Ca sample cuts (untimed)."""
+    from benchmarks.shape import END
+    from tracker.demo import StepClock
+    from tracker.services.instrument import sessions
+
+    with sqlite3.connect(copy) as connection:
+        cuts = [
+            format_id(Kind.CUT, row[0])
+            for row in connection.execute(
+                "SELECT c.id FROM cut c JOIN batch_position p ON p.id = c.position_id "
+                "JOIN column_batch b ON b.id = p.batch_id WHERE b.element = 'Ca' "
+                "AND p.kind = 'sample' AND c.name = 'Ca' ORDER BY c.id LIMIT 1000"
+            )
+        ]
+    db = open_database(copy, clock=StepClock(END), upgrade=False)
+    db.keyring = bench_keyring()
+    made = []
+    try:
+        for rows in SESSION_ROWS:
+            targets = max(1, min(len(cuts), (rows - 2) // 4))
+            picked = [SessionTarget(cut, "sample") for cut in cuts[:targets]]
+            duplicates = targets - 1
+            extra = max(0, rows - (1 + 2 * targets + 2 * duplicates))
+            content = session_csv(picked, duplicates, extra, random.Random(rows))
+            request = {
+                "profile": PROFILE,
+                "filename": f"cold-{rows}.csv",
+                "content": content,
+                "name": f"Synthetic cold session of {rows} runs",
+                "instrument": "Synthetic MC-ICP-MS",
+                "element": "Ca",
+                "bracketing_standard": STANDARD,
+            }
+            made.append(sessions.import_session(db, TECHNICIANS[0], request).item.id)
+    finally:
+        db.close()
+    return made
