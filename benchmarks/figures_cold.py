@@ -241,8 +241,9 @@ def _figure(cold: Cold, runs: list[ProcessRun], floors: list[ProcessRun]) -> Fig
     figure.target = cold.target
     figure.notes.append(
         f"CPU {best.cpu:.2f} s (floor {bare.cpu:.2f} s); peak memory {best.peak_mb:.0f} MB "
-        f"(floor {bare.peak_mb:.0f} MB); answer: {cold.compared}"
+        f"(floor {bare.peak_mb:.0f} MB)"
     )
+    figure.compared = cold.compared
     figure.notes.extend(cold.notes)
     for run in (best, bare):
         if not run.answered:

@@ -70,6 +70,7 @@ def verify_figures(target: str, repeat: int) -> list[Figure]:
             timing.problems.append(f"verdicts differ: {run}")
             break
     timing.notes.append(f"head {best.head[:16]}…, intact: {best.ok}")
+    timing.compared = memory.compared = "the same head and verdict"
     return [timing, memory]
 
 
@@ -134,4 +135,5 @@ def signing_figure(db: Database, repeat: int) -> Figure:
         Target(most=0.001),
     )
     figure.notes.append(f"mean of {SIGNED_ACTIONS:,} actions by {code}")
+    figure.compared = "not compared: the floor signs a bare hash"
     return figure

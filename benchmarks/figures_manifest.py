@@ -129,6 +129,7 @@ def manifest_figure(cached: Path, workdir: Path, repeat: int) -> Figure:
         "csv module + raw sqlite3 executemany + the rows as one hashed JSON document",
         Target(ratio_most=3.0),
     )
+    figure.compared = "the same rows written"
     _same_rows(figure, work, *made[0])
     for suffix in ("", "-wal", "-shm"):
         Path(str(work) + suffix).unlink(missing_ok=True)

@@ -72,6 +72,18 @@ def cold_start_figure(target: str, repeat: int) -> Figure:
     )
     if trouble:
         figure.problems.append(trouble)
+    figure.compared = "the overview's rows against the open loans counted by SQL"
     if line:
-        figure.notes.append(f"overview rows: {line.split()[-1]}")
+        shown, open_loans = int(line.split()[-1]), _open_loans(target)
+        figure.notes.append(f"overview rows: {shown}")
+        if shown != open_loans:
+            figure.problems.append(f"the overview shows {shown} loans; {open_loans} are open")
     return figure
+
+
+def _open_loans(target: str) -> int:
+    import sqlite3
+
+    with sqlite3.connect(f"file:{target}?mode=ro", uri=True) as connection:
+        (count,) = connection.execute("SELECT COUNT(*) FROM loan WHERE status = 'open'").fetchone()
+    return int(count)

@@ -48,6 +48,7 @@ class Figure:
     scale: float | None = None
     notes: list[str] = field(default_factory=list)
     problems: list[str] = field(default_factory=list)  # a cross-check that failed
+    compared: str = ""  # what tracker's answer is held against the floor's, or why it is not
 
     @property
     def ratio(self) -> float:

@@ -100,18 +100,19 @@ def _value(value: float, unit: str) -> str:
 
 def _figures(report: dict[str, Any]) -> str:
     rows = [
-        "| figure | scale | measured | floor | ratio | target | met |",
-        "|---|---|---|---|---|---|---|",
+        "| figure | scale | measured | floor | ratio | target | met | answer checked |",
+        "|---|---|---|---|---|---|---|---|",
     ]
     for f in report["figures"]:
         problems = "".join(f"; ✗ {p}" for p in f["problems"])
         rows.append(
             f"| {f['title']} (floor: {f['floor_title']}) | {f['scale']:g} | "
             f"{_value(f['measured'], f['unit'])} | {_value(f['floor'], f['unit'])} | "
-            f"{f['ratio']:.2f} | {f['target']} | {MET[f['met']]}{problems} |"
+            f"{f['ratio']:.2f} | {f['target']} | {MET[f['met']]}{problems} | "
+            f"{f.get('compared') or 'not said'} |"
         )
     for s in report["skipped"]:
-        rows.append(f"| {s['key']}: skipped, {s['reason']} | {s['scale']:g} | | | | | skipped |")
+        rows.append(f"| {s['key']}: skipped, {s['reason']} | {s['scale']:g} | | | | | skipped | |")
     notes = [f"- {f['title']}: {n}" for f in report["figures"] for n in f["notes"]]
     return "\n".join(rows) + ("\n\n" + "\n".join(notes) if notes else "")
 

@@ -86,6 +86,7 @@ def test_a_small_run_prints_each_figure_with_its_floor_and_no_disagreement(tmp_p
     for figure in figures.values():
         assert figure["measured"] > 0 and figure["floor"] > 0, figure
         assert figure["problems"] == [], figure  # each floor computed the same answer
+        assert figure["compared"], figure  # and every figure says what was compared, or why not
     assert any(tmp_path.glob("bench-scale0.002-*.sqlite"))  # cached for the next run
 
 

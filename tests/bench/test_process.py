@@ -64,3 +64,4 @@ def test_every_cold_command_runs_beside_its_floor_and_agrees(tmp_path: object) -
     for figure in figures.values():
         assert figure["problems"] == [], figure
         assert "CPU" in figure["notes"][0] and "peak memory" in figure["notes"][0]
+        assert figure["compared"]
