@@ -13,7 +13,9 @@ from sqlalchemy import text
 from tests import factories as make
 from tracker.db.database import Database
 from tracker.db.location import checkpoint_dir
-from tracker.services.ledger import checkpoints
+from tracker.domain.ids import Kind, format_id, parse_id
+from tracker.services.ledger import checkpoints, loan_audit
+from tracker.services.ledger.audit import audit
 from tracker.services.ledger.chain import verify
 from tracker.services.read import reports
 
@@ -103,3 +105,45 @@ def test_a_spoiled_or_unwritable_checkpoint_folder_costs_only_a_full_verificatio
     assert checkpoint_dir() == blocked
     head = reports.build_return_report(db, loan).ledger  # nothing kept, nothing refused
     assert head.intact and head.verified_from == 1
+
+
+def _tamper(db: Database, statement: str) -> None:
+    """A stored value changed by hand, with no event (as the database's owner could)."""
+    with db.engine.begin() as conn:
+        conn.execute(text(statement))
+
+
+def test_reconcile_s_audit_covers_the_loans_changed_since_the_last_whole_audit(
+    db: Database, own_folder: Path
+) -> None:
+    changing, quiet = make.loan(db), make.loan(db)
+    make.powder(db, make.specimen(db, changing))
+    untouched = parse_id(make.powder(db, make.specimen(db, quiet))).number
+    first = loan_audit.audit_changes(db)  # no mark yet: the whole lab
+    whole = first.rows
+    assert first.ok and first.scope == ""
+    mark = checkpoints.kept_for(db)
+    assert mark is not None and mark.audited_seq == first.chain.head_seq
+    drilled = parse_id(make.powder(db, make.specimen(db, changing))).number
+    second = loan_audit.audit_changes(db)
+    assert second.ok and second.scope == f"the loans changed since event #{mark.audited_seq:,}"
+    assert 0 < second.rows < whole  # the changed loan's rows, not the quiet one's
+    moved = checkpoints.kept_for(db)
+    assert moved is not None and moved.audited_seq == second.chain.head_seq
+
+    _tamper(db, f"UPDATE powder SET mass_mg = 1.0 WHERE id = {untouched}")
+    assert loan_audit.audit_changes(db).ok  # the limit, said in its docstring: no event since
+    make.powder(db, make.specimen(db, changing))
+    _tamper(db, f"UPDATE powder SET mass_mg = 1.5 WHERE id = {drilled}")
+    changed = loan_audit.audit_changes(db)
+    assert [(d.table, d.field) for d in changed.discrepancies] == [("powder", "mass_mg")]
+    assert changed.discrepancies[0].key == format_id(Kind.POWDER, drilled)
+
+    full = audit(db)  # the whole lab finds both, and drops the mark
+    assert {d.key for d in full.discrepancies} == {
+        format_id(Kind.POWDER, drilled),
+        format_id(Kind.POWDER, untouched),
+    }
+    dropped = checkpoints.kept_for(db)
+    assert dropped is not None and dropped.audited_seq is None
+    assert len(loan_audit.audit_changes(db).discrepancies) == 2  # no mark: the whole lab again

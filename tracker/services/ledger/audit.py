@@ -142,13 +142,14 @@ def audit(db: Database, progress: Progress | None = None, every: int = 500) -> A
         chain = verify_batches(_replayed(event_batches(connection), books, counted))
         if not chain.ok:
             return AuditReport(chain, [], books.coverage, 0)
-        keep(db, chain, db.clock())  # a whole chain verified: this computer's checkpoint
         found: list[Discrepancy] = []
         for name in described_tables():
             stored = counted.rows(_stored_all(connection, name))
             found.extend(books.compare(name, stored))
         counted.finish()
-        return AuditReport(chain, found, books.coverage, counted.rows_seen)
+    # the whole chain verified, and the books agreeing with it: this computer's checkpoint
+    keep(db, chain, db.clock(), audit="dropped" if found else "now")
+    return AuditReport(chain, found, books.coverage, counted.rows_seen)
 
 
 @dataclass

@@ -37,6 +37,7 @@ from tracker.services.core import authority as signing
 from tracker.services.ledger.chain import Progress, event_batches, verify
 
 FORMAT: Literal["tracker-checkpoint/1"] = "tracker-checkpoint/1"
+AuditMark = Literal["now", "kept", "dropped"]
 
 
 class Checkpoint(BaseModel):
@@ -48,6 +49,9 @@ class Checkpoint(BaseModel):
     seq: int
     hash: str
     verified_at: datetime
+    # the event up to which a whole-lab audit found the books agreeing with the ledger
+    audited_seq: int | None = None
+    audited_at: datetime | None = None
 
 
 @dataclass(frozen=True)
@@ -62,9 +66,7 @@ class Verified:
 
 def verify_since_checkpoint(db: Database) -> Verified:
     """Verify the events after this computer's checkpoint of the ledger, or all of them."""
-    first, kept = _first_hash(db), None
-    if first is not None:
-        kept = _read(_file(db, first))
+    kept = kept_for(db)
     if kept is None:
         return Verified(verify_and_keep(db))
     stored = _hash_at(db, kept.seq)
@@ -75,7 +77,7 @@ def verify_since_checkpoint(db: Database) -> Verified:
             f"ledger {seen} event #{kept.seq} (the database was replaced by another or an "
             "older copy, or rewritten since); the chain was verified in full instead"
         )
-        return Verified(verify_and_keep(db), note=note)
+        return Verified(verify_and_keep(db, audit="dropped"), note=note)
     since = Since(kept.seq, kept.hash, signing.upto(db, kept.seq))
     with db.engine.connect() as connection:
         chain = verify_batches(event_batches(connection, after=kept.seq), since)
@@ -85,22 +87,27 @@ def verify_since_checkpoint(db: Database) -> Verified:
 
 
 def verify_and_keep(
-    db: Database, progress: Progress | None = None, every: int = 500
+    db: Database, progress: Progress | None = None, every: int = 500, audit: AuditMark = "kept"
 ) -> VerifyReport:
     """A full verification (see :func:`~tracker.services.ledger.chain.verify`); when it
     holds, its head becomes this computer's checkpoint."""
     chain = verify(db, progress, every)
     if chain.ok:
-        keep(db, chain, db.clock())
+        keep(db, chain, db.clock(), audit=audit)
     return chain
 
 
-def keep(db: Database, chain: VerifyReport, at: datetime) -> None:
-    """Keep the head a verification that held reached. A checkpoint that cannot be written
-    (a read-only home folder) is not kept: the next verification walks the whole chain."""
+def keep(db: Database, chain: VerifyReport, at: datetime, *, audit: AuditMark = "kept") -> None:
+    """Keep the head a verification that held reached, and the audit's mark: ``"now"``
+    when an audit found the books agreeing up to this head, ``"kept"`` for an earlier
+    audit's mark, ``"dropped"`` when the earlier checkpoint was not this ledger's.
+    A checkpoint that cannot be written (a read-only home folder) is not kept: the next
+    verification walks the whole chain."""
     first = _first_hash(db)
     if first is None or not chain.ok:
         return
+    path = _file(db, first)
+    earlier = _read(path)
     point = Checkpoint(
         database=_where(db),
         first_hash=first,
@@ -108,7 +115,15 @@ def keep(db: Database, chain: VerifyReport, at: datetime) -> None:
         hash=chain.head_hash,
         verified_at=at,
     )
-    path = _file(db, first)
+    if audit == "now":
+        point.audited_seq, point.audited_at = chain.head_seq, at
+    elif (
+        audit == "kept"
+        and earlier is not None
+        and earlier.audited_seq is not None
+        and earlier.audited_seq <= chain.head_seq
+    ):
+        point.audited_seq, point.audited_at = earlier.audited_seq, earlier.audited_at
     try:
         path.parent.mkdir(parents=True, exist_ok=True)
         with tempfile.NamedTemporaryFile("w", dir=path.parent, delete=False) as out:
@@ -116,6 +131,12 @@ def keep(db: Database, chain: VerifyReport, at: datetime) -> None:
         Path(out.name).replace(path)
     except OSError:
         return
+
+
+def kept_for(db: Database) -> Checkpoint | None:
+    """This computer's checkpoint of the ledger, if it keeps one."""
+    first = _first_hash(db)
+    return None if first is None else _read(_file(db, first))
 
 
 def _read(path: Path) -> Checkpoint | None:

@@ -19,22 +19,34 @@ scoped audit does not check is the rest of the lab (`tracker ledger audit` does)
 from __future__ import annotations
 
 from collections import defaultdict
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from typing import Any
 
-from sqlalchemy import ColumnElement, Connection, or_, select
+from sqlalchemy import ColumnElement, Connection, Select, or_, select
 
 from tracker.db import stream
 from tracker.db.database import Database
 from tracker.domain.base import Base
 from tracker.domain.facts import ITEM_COLUMNS, described_tables, layout
-from tracker.domain.ids import Kind, format_id, parse_id
-from tracker.domain.models import CustodyEvent, EventRef
+from tracker.domain.ids import BadId, Kind, format_id, looks_like_id, parse_id
+from tracker.domain.models import (
+    Aliquot,
+    BatchPosition,
+    CustodyEvent,
+    Cut,
+    EventRef,
+    Loan,
+    LoanDocument,
+    Powder,
+    Shipment,
+    Solution,
+    Specimen,
+)
 from tracker.domain.replay import Books, Discrepancy, Scope
 from tracker.services.core.lookup import get_loan
-from tracker.services.ledger.audit import AuditReport, stored
+from tracker.services.ledger.audit import AuditReport, audit, stored
 from tracker.services.ledger.chain import stamp_column
-from tracker.services.ledger.checkpoints import verify_since_checkpoint
+from tracker.services.ledger.checkpoints import keep, kept_for, verify_since_checkpoint
 
 # Items a loan's rows name that are in its report without being part of its tree.
 KEYS = (Kind.LENDER, Kind.DOCUMENT)
@@ -53,18 +65,80 @@ def audit_loan(db: Database, loan: str) -> AuditReport:
     if not chain.ok:  # facts the chain no longer proves are not held against anything
         return AuditReport(chain, [], Books().coverage, 0, scope_name, checkpoint, verified.note)
     with stream.snapshot(db.engine) as connection:
-        scope = _scope(connection, number)
-        for _ in range(MAX_PASSES):
-            known = set(scope.roots)
-            books = _replay(connection, scope)  # rows made for the loan widen the scope
-            if scope.roots <= known:
-                break
-        rows, found = 0, list[Discrepancy]()
-        for name in described_tables():
-            mine = list(_stored_in_scope(connection, name, scope))
-            rows += len(mine)
-            found.extend(books.compare(name, mine))
+        books, rows, found = _audited(connection, _scope(connection, {number}))
     return AuditReport(chain, found, books.coverage, rows, scope_name, checkpoint, verified.note)
+
+
+def audit_changes(db: Database) -> AuditReport:
+    """Every loan's books as far as they changed since this computer's last whole-lab audit.
+
+    A whole-lab audit that found the books agreeing with the ledger marks its head on this
+    computer's checkpoint (:mod:`~tracker.services.ledger.checkpoints`). Then only the
+    loans that events after it name — through any item of their trees, their shipments,
+    documents or lender — are audited again, each as a report of it would be, and the mark
+    moves on when they agree. Without a mark (or with a checkpoint the ledger no longer
+    matches) the whole lab is audited. What this cannot see is a loan's row changed after
+    the mark without any event naming the loan since; ``ledger audit`` of the whole lab
+    does, and it is what sets the mark.
+    """
+    kept = kept_for(db)
+    if kept is None or kept.audited_seq is None or kept.audited_at is None:
+        return audit(db)
+    verified = verify_since_checkpoint(db)
+    if verified.note is not None:  # the checkpoint is not this ledger's any more
+        return audit(db)
+    since = (kept.audited_seq, kept.audited_at)
+    scope_name = f"the loans changed since event #{kept.audited_seq:,}"
+    if not verified.chain.ok:
+        return AuditReport(verified.chain, [], Books().coverage, 0, scope_name, since)
+    with stream.snapshot(db.engine) as connection:
+        loans = _loans_named(connection, _names_since(connection, kept.audited_seq))
+        books, rows, found = _audited(connection, _scope(connection, loans))
+    report = AuditReport(verified.chain, found, books.coverage, rows, scope_name, since)
+    if not found:
+        keep(db, verified.chain, db.clock(), audit="now")
+    return report
+
+
+def _audited(connection: Connection, scope: Scope) -> tuple[Books, int, list[Discrepancy]]:
+    """The scope's events replayed and its stored rows compared: the books, how many rows
+    were compared, and every discrepancy."""
+    for _ in range(MAX_PASSES):
+        known = set(scope.roots)
+        books = _replay(connection, scope)  # rows made for the loan widen the scope
+        if scope.roots <= known:
+            break
+    rows, found = 0, list[Discrepancy]()
+    for name in described_tables():
+        mine = list(_stored_in_scope(connection, name, scope))
+        rows += len(mine)
+        found.extend(books.compare(name, mine))
+    return books, rows, found
+
+
+def _names_since(connection: Connection, seq: int) -> set[str]:
+    """Every item an event after ``seq`` names: its object, its parent, its mentions."""
+    names: set[str] = set()
+    events = select(CustodyEvent.object_ref, CustodyEvent.parent_ref).where(CustodyEvent.seq > seq)
+    for object_ref, parent_ref in connection.execute(events):
+        names.update((object_ref, parent_ref))
+    mentions = select(EventRef.ref).where(EventRef.seq > seq)
+    names.update(ref for (ref,) in connection.execute(mentions))
+    return {name for name in names if name and looks_like_id(name)}
+
+
+def _loans_named(connection: Connection, names: set[str]) -> set[int]:
+    """The loans whose books hold any of ``names``: up each item's chain to its loan."""
+    loans: set[int] = set()
+    for kind, numbers in _by_kind(names).items():
+        path = _UP_TO_LOAN.get(kind)
+        if path is None:
+            continue
+        for start in range(0, len(numbers), CHUNK):
+            chunk = numbers[start : start + CHUNK]
+            statement = path(chunk)
+            loans.update(loan for (loan,) in connection.execute(statement))
+    return loans
 
 
 def _replay(connection: Connection, scope: Scope) -> Books:
@@ -105,10 +179,10 @@ def _events(connection: Connection, scope: Scope) -> Iterator[Event]:
         yield from batch
 
 
-def _scope(connection: Connection, loan_id: int) -> Scope:
-    """The loan's tree as stored (every row that refers, level by level, to the loan), and
-    the lender and documents its rows name."""
-    roots = {format_id(Kind.LOAN, loan_id)}
+def _scope(connection: Connection, loan_ids: set[int]) -> Scope:
+    """The loans' trees as stored (every row that refers, level by level, to a loan), and
+    the lender and documents their rows name."""
+    roots = {format_id(Kind.LOAN, loan_id) for loan_id in loan_ids}
     tables = [name for name in described_tables() if layout(name).kind is not None]
     for _ in range(2):  # parents come first in table order; a second pass catches the rest
         for name in tables:
@@ -134,9 +208,65 @@ def _scope(connection: Connection, loan_id: int) -> Scope:
 def _by_kind(names: set[str]) -> dict[Kind, list[int]]:
     numbers: dict[Kind, list[int]] = defaultdict(list)
     for name in names:
-        found = parse_id(name)
+        try:
+            found = parse_id(name)
+        except BadId:  # looks like an ID, names none (a check character that fails)
+            continue
         numbers[found.kind].append(found.number)
-    return numbers
+    return {kind: sorted(found) for kind, found in numbers.items()}
+
+
+CHUNK = 500  # IDs per IN (...) list: well inside every backend's limit on parameters
+
+
+def _up(*joins: tuple[Any, Any], last: Any) -> Callable[[list[int]], Select[Any]]:
+    """A statement from an item's rows up to its loan: ``joins`` from the specimen down."""
+
+    def statement(numbers: list[int]) -> Select[Any]:
+        query = select(Specimen.loan_id)
+        for table, on in joins:
+            query = query.join(table, on)
+        return query.where(last.in_(numbers))
+
+    return statement
+
+
+_UP_TO_LOAN: dict[Kind, Callable[[list[int]], Select[Any]]] = {
+    Kind.LOAN: lambda numbers: select(Loan.id).where(Loan.id.in_(numbers)),
+    Kind.LENDER: lambda numbers: select(Loan.id).where(Loan.lender_id.in_(numbers)),
+    Kind.SHIPMENT: lambda numbers: select(Shipment.loan_id).where(Shipment.id.in_(numbers)),
+    Kind.DOCUMENT: lambda numbers: select(LoanDocument.loan_id).where(
+        LoanDocument.document_id.in_(numbers)
+    ),
+    Kind.SPECIMEN: _up(last=Specimen.id),
+    Kind.POWDER: _up((Powder, Powder.specimen_id == Specimen.id), last=Powder.id),
+    Kind.SOLUTION: _up(
+        (Powder, Powder.specimen_id == Specimen.id),
+        (Solution, Solution.powder_id == Powder.id),
+        last=Solution.id,
+    ),
+    Kind.ALIQUOT: _up(
+        (Powder, Powder.specimen_id == Specimen.id),
+        (Solution, Solution.powder_id == Powder.id),
+        (Aliquot, Aliquot.solution_id == Solution.id),
+        last=Aliquot.id,
+    ),
+    Kind.POSITION: _up(
+        (Powder, Powder.specimen_id == Specimen.id),
+        (Solution, Solution.powder_id == Powder.id),
+        (Aliquot, Aliquot.solution_id == Solution.id),
+        (BatchPosition, BatchPosition.aliquot_id == Aliquot.id),
+        last=BatchPosition.id,
+    ),
+    Kind.CUT: _up(
+        (Powder, Powder.specimen_id == Specimen.id),
+        (Solution, Solution.powder_id == Powder.id),
+        (Aliquot, Aliquot.solution_id == Solution.id),
+        (BatchPosition, BatchPosition.aliquot_id == Aliquot.id),
+        (Cut, Cut.position_id == BatchPosition.id),
+        last=Cut.id,
+    ),
+}
 
 
 def _referring(name: str, roots: set[str]) -> ColumnElement[bool] | None:
