@@ -169,10 +169,34 @@ def test_the_reliability_page_keeps_its_prose_when_a_run_writes_its_table(tmp_pa
         report.ROWS.update(rows)
     after = page.read_text(encoding="utf-8")
     assert after == (
-        f"{prose_before}{report.BEGIN}\n| test | size | found |\n|---|---|---|\n"
+        f"{prose_before}{report.BEGIN}\n{report.measured_code()}\n\n"
+        "| test | size | found |\n|---|---|---|\n"
         f"| an invented test | 3 cases | all refused |\n{report.END}{prose_after}"
     )
+    assert report.measured_code().startswith("Measured by the tests of commit ")
 
     page.write_text("# a page without the markers\n", encoding="utf-8")
     with pytest.raises(ValueError, match="no table between"):
         report.write_page(page)
+
+
+def test_reliability_rows_kept_by_one_run_join_the_next_run_s_table(tmp_path: Path) -> None:
+    """CI's everyday suite keeps its rows; the slow suite adds its own and writes the page."""
+    from tests.reliability import report
+
+    kept = tmp_path / "rows.json"
+    rows = dict(report.ROWS)
+    report.ROWS.clear()
+    try:
+        report.record("an everyday test", "2 cases", "both refused")
+        report.save_rows(kept)
+        report.ROWS.clear()
+        report.record("a slow test", "9 kills", "nothing half-written")
+        report.load_rows(kept)
+        assert report.table().splitlines()[2:] == [
+            "| a slow test | 9 kills | nothing half-written |",
+            "| an everyday test | 2 cases | both refused |",
+        ]
+    finally:
+        report.ROWS.clear()
+        report.ROWS.update(rows)
