@@ -31,7 +31,7 @@ from tracker.domain.models import (
     Solution,
     Specimen,
 )
-from tracker.domain.units import format_mass_mg
+from tracker.domain.precision import mass_mg
 from tracker.services.core.lookup import MODEL_BY_KIND, get_named, read_public_id, uri_prefix
 
 Labelled = (
@@ -165,7 +165,7 @@ def _specimen(row: Specimen) -> list[str]:
 def _powder(session: Session, row: Powder) -> list[str]:
     return [
         row.specimen.catalog_number,
-        _join(row.tissue, format_mass_mg(row.mass_mg)),
+        _join(row.tissue, mass_mg(row.mass_mg)),
         _join(_day(row.drilled_at), _initials(session, row)),
     ]
 
