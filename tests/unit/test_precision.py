@@ -64,7 +64,7 @@ def test_an_exact_decimal_without_uncertainty_keeps_its_digits(value: Decimal) -
     )
 
 
-@given(value=finite.filter(lambda x: x != 0))
+@given(value=finite.filter(lambda x: abs(x) > 1e-200))  # no underflow below
 def test_a_small_value_is_never_shown_as_zero(value: float) -> None:
     shown = value_u(value / 1e12, None, "g")
     assert Decimal(shown.split()[0]) != 0
@@ -155,6 +155,12 @@ def test_a_typed_mass_keeps_its_trailing_zeros() -> None:
     assert precision.limit_mg(Decimal("6.020")) == "6.020 mg"
     assert precision.limit_mg(50.0) == "50 mg"  # a float has only its shortest text
     assert precision.limit_mg(None) == "no limit"
+
+
+def test_a_computed_percentage_is_rounded_and_a_typed_one_kept() -> None:
+    assert precision.percent(0.0019035057722384910, places=2) == "0.19 %"
+    assert precision.percent(0.981, 0.0213) == "98.1 ± 2.1 %"
+    assert precision.percent(Decimal("0.9500")) == "95.00 %"
 
 
 def test_absent_values_are_a_dash() -> None:

@@ -224,18 +224,16 @@ def concentration(ug_per_g: Number | None, u: Number | None = None) -> str:
     return value_u(ug_per_g, u, "µg/g", default_places=CONCENTRATION_PLACES)
 
 
-def percent(fraction: Number | None, u: Number | None = None) -> str:
-    """A fraction (a yield, a share of a limit) as a percentage: 95.0 ± 2.0 %."""
-    if fraction is None:
+def percent(fraction: Number | None, u: Number | None = None, places: int = PERCENT_PLACES) -> str:
+    """A fraction (a yield, a share of a limit) as a percentage: 95.0 ± 2.0 %; ``places``
+    for one without an uncertainty (a blank's share of a column: 0.19 %)."""
+    amount = None if fraction is None else exact(fraction)
+    if fraction is None or amount is None:
         return ABSENT
-    amount = exact(fraction)
     spread = None if u is None else exact(u)
-    return value_u(
-        None if amount is None else amount * 100,
-        None if spread is None else spread * 100,
-        "%",
-        default_places=PERCENT_PLACES,
-    )
+    computed = not isinstance(fraction, Decimal)  # a float stays a computed value (rule 3)
+    shown = float(amount.scaleb(2)) if computed else amount.scaleb(2)
+    return value_u(shown, None if spread is None else spread.scaleb(2), "%", default_places=places)
 
 
 def as_given(value: Number | None) -> str:

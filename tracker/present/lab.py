@@ -18,6 +18,8 @@ from tracker.services.instrument.reduction import Reduction, ResultLine
 from tracker.services.instrument.results import SpecimenResult
 from tracker.services.instrument.screening import Screening
 
+BLANK_SHARE_PLACES = 2  # a blank is a small share of a column: 0.19 %, not 0.2 %
+
 
 def limits_text(summary: BatchSummary) -> str:
     """A batch's acceptance limits and its procedural blank, in words."""
@@ -38,7 +40,7 @@ def position_cells(line: PositionLine) -> tuple[str, str, str, str]:
         precision.micrograms(line.loaded_ug),
         precision.micrograms(line.recovered_ug),
         precision.percent(line.yield_fraction, line.yield_u),
-        precision.percent(line.blank_fraction),
+        precision.percent(line.blank_fraction, places=BLANK_SHARE_PLACES),
     )
 
 
@@ -106,10 +108,12 @@ def _value_cell(line: ResultLine | None, mode: str) -> str:
 
 
 def accepted_text(line: ResultLine, mode: str) -> str:
-    """A reference material's accepted value, written as its results are."""
+    """A reference material's accepted value and its 2SD, written as its results are."""
     if line.accepted is None:
         return precision.ABSENT
-    return precision.result(mode, line.accepted, line.accepted_two_sd, None)
+    if mode == "delta":
+        return precision.delta(line.accepted, line.accepted_two_sd)
+    return precision.ratio(line.accepted, line.accepted_two_sd)
 
 
 def result_cells(kind: str, value: float, two_sd: float | None) -> tuple[str, str]:

@@ -85,8 +85,8 @@ class ReportScreen(Screen[None]):
             ("Specimen", 10),
             ("Catalogue no.", 14),
             ("Status", 9),
-            ("Drilled mg", 18),
-            ("Returned mg", 11),
+            ("Drilled", 18),
+            ("Returned", 11),
             ("Results", 7),
             ("Flags", None),
         ):

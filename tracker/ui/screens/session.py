@@ -205,7 +205,7 @@ def result_cells(line: ResultLine, mode: str) -> tuple[Any, ...]:
     flags = [f for f in line.flags if f != "failed acceptance"]
     text = Text("✓ pass" if line.passed else "", style="green")
     if line.passed is False:
-        text = Text(f"✗ FAIL (accepted {accepted_text(line, mode)})", style="bold red")
+        text = Text(f"✗ FAIL (accepted {accepted_text(line, mode)}, 2SD)", style="bold red")
     if flags:
         if text.plain:
             text.append(" · ")
