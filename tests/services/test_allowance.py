@@ -37,11 +37,12 @@ def test_per_specimen_limit_refusal_states_the_numbers(db: Database, counts: Cou
     with pytest.raises(RuleViolation) as caught:
         drill(db, spec, "0.600")
     message = caught.value.one_line()
-    assert caught.value.field == "drilled-mass" and "0.60000 ± 0.00041 mg" in message
+    # u = 0.001 mg / √6 = 0.00041 mg (GUM F.2.2.1): leading digits 408 keep one digit
+    assert caught.value.field == "drilled-mass" and "0.6000 ± 0.0004 mg" in message
     for part in (
         "per-specimen limit 3 mg",
-        "already drilled 2.50000 ± 0.00041 mg",
-        "remaining 0.50000 ± 0.00041 mg",
+        "already drilled 2.5000 ± 0.0004 mg",
+        "remaining 0.5000 ± 0.0004 mg",
         "manager may override",
     ):
         assert part in message

@@ -22,6 +22,7 @@ from tracker.services.corrections import correcting, measured_values, weighings
 from tracker.services.instrument import reduction, results
 from tracker.services.ledger import chain
 from tracker.services.read import lineage, reconcile
+from tracker.services.read.item_facts import PowderFacts, SolutionFacts
 
 WHY = "gross read from the wrong line of the balance log"
 
@@ -93,7 +94,8 @@ def test_a_second_correction_supersedes_the_first(db: Database) -> None:
     assert second.replaced["mass_mg"] == "2.300"
     listed = correcting.list_corrections(db, powder.lower().replace("-", ""))  # as scanned
     assert [c.event_seq for c in listed] == [first.event_seq, second.event_seq]
-    assert lineage.show_item(db, powder).item.facts["mass_mg"] == Decimal("2.030")
+    facts = lineage.show_item(db, powder).item.facts
+    assert isinstance(facts, PowderFacts) and facts.mass_mg == Decimal("2.030")
 
 
 def test_a_powder_cannot_be_corrected_below_what_was_dissolved(
@@ -172,12 +174,13 @@ def test_a_concentration_correction_reaches_loads_yields_and_results(db: Databas
     stored = reduction_rows(db, session)
     assert stored and not any("low yield" in flags for flags in stored)
     facts = lineage.show_item(db, solution).item.facts
-    assert facts["elements"]["Ca"]["ug"] == pytest.approx(1.0 * 450)  # 1.0000 g × 450 µg/g
+    assert isinstance(facts, SolutionFacts)
+    assert facts.elements["Ca"].ug == pytest.approx(1.0 * 450)  # 1.0000 g × 450 µg/g
     # a later measurement still takes precedence over the corrected earlier one
     later = {"value": "470 ug/g", "relative_uncertainty_percent": 2}
     solutions.record_concentration(db, "tech", {"solution": solution, "element": "Ca", **later})
     facts = lineage.show_item(db, solution).item.facts
-    assert facts["elements"]["Ca"]["ug"] == pytest.approx(470.0)
+    assert isinstance(facts, SolutionFacts) and facts.elements["Ca"].ug == pytest.approx(470.0)
 
 
 def reduction_rows(db: Database, session: str) -> list[list[str]]:
@@ -217,7 +220,7 @@ def test_an_aliquot_correction_moves_its_load_and_the_solution_books(db: Databas
     assert answer.effects["loaded"][0]["loaded_ug"][1] == pytest.approx(9.0)
     solution = lineage.show_item(db, aliquot).ancestors[-1].id
     facts = lineage.show_item(db, solution).item.facts
-    assert facts["remaining_g"] == pytest.approx(1.0 - 0.018)
+    assert isinstance(facts, SolutionFacts) and facts.remaining_g == pytest.approx(1.0 - 0.018)
 
 
 def test_a_solution_cannot_be_corrected_below_its_aliquots(db: Database, counts: Counts) -> None:
@@ -246,4 +249,4 @@ def test_the_powder_portion_of_a_solution_is_corrected_within_the_powder(
         db, "tech", {"solution": solution, "powder_taken": "1.020 mg", "reason": WHY}
     )
     facts = lineage.show_item(db, powder).item.facts
-    assert facts["remaining_mg"] == pytest.approx(2.0 - 1.02)
+    assert isinstance(facts, PowderFacts) and facts.remaining_mg == pytest.approx(2.0 - 1.02)

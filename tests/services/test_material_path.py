@@ -17,6 +17,7 @@ from tracker.services.bench import chemistry, custody, drilling, solutions
 from tracker.services.ledger.chain import verify
 from tracker.services.loans import specimens
 from tracker.services.read import lineage
+from tracker.services.read.item_facts import SolutionFacts
 
 
 def last_event(db: Database) -> CustodyEvent:
@@ -157,7 +158,9 @@ def test_dissolving_part_then_the_rest_consumes_the_powder(db: Database) -> None
         assert row.status is ContainerStatus.CONSUMED
     detail = lineage.show_item(db, powder)
     assert [c.id for c in detail.item.children] == [first.item.id, second]
-    assert detail.item.children[1].facts["powder_mass_mg"] == Decimal("0.8")  # 2.0 - 1.2
+    solution = detail.item.children[1].facts
+    assert isinstance(solution, SolutionFacts)
+    assert solution.powder_mass_mg == Decimal("0.8")  # 2.0 - 1.2
 
 
 def test_child_larger_than_parent_is_refused(db: Database, counts: Counts) -> None:

@@ -27,6 +27,7 @@ from tracker.services.admin import keys as keys_service
 from tracker.services.admin import setup
 from tracker.services.ledger.chain import verify
 from tracker.services.read import lineage
+from tracker.services.read.item_facts import PowderFacts
 
 
 def test_revision_list_matches_the_migration_scripts() -> None:
@@ -71,7 +72,9 @@ def test_old_sqlite_file_is_backed_up_and_upgraded_on_open(tmp_path: Path) -> No
         upgraded = verify(reopened)
         assert upgraded.ok and (upgraded.head_seq, upgraded.head_hash) == head_before
         specimen = lineage.show_item(reopened, "SP-00001-" + check_character("SP00001")).item
-        assert specimen.children[0].facts["mass_mg"] == Decimal("2.15")  # the float, exactly
+        powder = specimen.children[0].facts
+        assert isinstance(powder, PowderFacts)
+        assert powder.mass_mg == Decimal("2.15")  # the float, exactly
         assert (upgraded.unsigned, upgraded.signed) == (3, 0)  # never "valid"
         # the upgraded file takes new writes through today's services, once a manager has
         # registered the first key (it signs its own registration)

@@ -75,7 +75,10 @@ async def test_the_report_shows_every_specimen_then_writes_a_recorded_pdf(lab: L
             s.public_id for s in loan_specimens(lab)
         )
         totals = text_of(screen.query_one("#report-totals", Static))
-        assert f"drilled {expected.drilled_mg:.3f} (u {expected.drilled_u_mg:.1g}) mg" in totals
+        # premise: a u of 0.00100 to 0.00354 mg keeps two significant digits, 4 decimals
+        assert 0.00100 <= expected.drilled_u_mg < 0.00355
+        mg, u_mg = expected.drilled_mg, expected.drilled_u_mg
+        assert f"drilled {mg:.4f} ± {u_mg:.4f} mg" in totals
         assert events_after(lab, start) == []  # looking writes nothing
         await pilot.press("ctrl+s")
         await until(pilot, lambda: "✓ wrote" in text_of(screen.query_one("#outcome", Static)))

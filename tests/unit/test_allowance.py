@@ -35,12 +35,13 @@ def test_per_specimen_message_states_limit_used_requested_remaining() -> None:
     found = check_drill(LIMITS, used, "enamel", by_difference(0.6, 0.001), TODAY)
     assert [v.limit for v in found] == ["per-specimen limit"]
     text = found[0].message
-    # remaining = 3 − 2.5 = 0.5 mg; every amount is written with its uncertainty
+    # remaining = 3 − 2.5 = 0.5 mg; every amount is written with its uncertainty, which
+    # (0.00040, 0.00041: leading digits 400, 408) keeps one significant digit
     for part in (
         "per-specimen limit 3 mg",
-        "already drilled 2.50000 ± 0.00040 mg",
-        "requested 0.60000 ± 0.00041 mg",
-        "remaining 0.50000 ± 0.00040 mg",
+        "already drilled 2.5000 ± 0.0004 mg",
+        "requested 0.6000 ± 0.0004 mg",
+        "remaining 0.5000 ± 0.0004 mg",
     ):
         assert part in text
 

@@ -1,4 +1,4 @@
-"""Quantities with units: exact parsing, refusals, GUM rounding of value ± u."""
+"""Quantities with units: exact parsing and refusals (their text: test_precision.py)."""
 
 from __future__ import annotations
 
@@ -11,7 +11,6 @@ from hypothesis import strategies as st
 from tracker.domain.units import (
     UnitError,
     decimals_below,
-    format_value_u,
     mass_fraction_to_ug_per_g,
     mass_to_mg,
 )
@@ -147,38 +146,3 @@ def test_decimals_below_needs_positive_step(step: str) -> None:
 def test_decimals_below_huge_value() -> None:
     # 10^30 is a whole multiple of 0.001 (arithmetic)
     assert decimals_below(Decimal("1e30"), Decimal("0.001")) is False
-
-
-@pytest.mark.parametrize(
-    ("value", "u", "expected"),
-    [
-        # GUM JCGM 100:2008 §7.2.6: u with at most two significant digits, the value rounded
-        # to the same decimal place; expected strings worked by hand
-        (2.561, 0.000412, "2.56100 ± 0.00041 mg"),
-        (795.5, 21.51, "796 ± 22 mg"),  # check-values.md worked example, element mass
-        (
-            79.5512,
-            2.157,
-            "79.6 ± 2.2 mg",
-        ),  # aliquot example (79.55 itself is a binary half-way case)
-        (0.87304, 0.01910, "0.873 ± 0.019 mg"),  # check-values.md, bracketing example
-        (1.2345678, 0.0123, "1.235 ± 0.012 mg"),
-        (-3.14159, 0.25, "-3.14 ± 0.25 mg"),
-        pytest.param(
-            12.3456,
-            0.0996,
-            "12.35 ± 0.10 mg",
-        ),
-        pytest.param(
-            5.0,
-            0.996,
-            "5.0 ± 1.0 mg",
-        ),
-    ],
-)
-def test_format_value_u(value: float, u: float, expected: str) -> None:
-    assert format_value_u(value, u, "mg") == expected
-
-
-def test_format_value_without_u() -> None:
-    assert format_value_u(2.15, None, "mg") == "2.150 mg"

@@ -5,8 +5,8 @@ from typing import Annotated
 
 import typer
 
-from tracker.cli.render import done
 from tracker.cli.state import cli_fields, database, emit, errors, state, unlock
+from tracker.present.text import done
 from tracker.services.admin import backups
 from tracker.services.ledger import chain
 

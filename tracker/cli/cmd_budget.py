@@ -10,9 +10,10 @@ from rich.text import Text
 
 from tracker.cli.out_options import Despite
 from tracker.cli.progress import progress_bar
-from tracker.cli.render import done, plain_table, plan_table, reconcile_tables
 from tracker.cli.state import database, emit, errors, perform, read_upload, state
 from tracker.domain.models import Disposition, TermsKind
+from tracker.present.loans import plan_table, reconcile_tables
+from tracker.present.text import done, plain_table
 from tracker.services.admin import materials
 from tracker.services.ledger import audit
 from tracker.services.ledger.audit import AuditReport

@@ -5,8 +5,8 @@ from typing import Annotated, Any
 import typer
 from rich.table import Table
 
-from tracker.cli.render import done, plain_table
 from tracker.cli.state import database, emit, perform
+from tracker.present.text import done, plain_table
 from tracker.services.corrections import correcting, measured_values, weighings
 
 Opt = typer.Option

@@ -5,8 +5,9 @@ from typing import Annotated
 
 import typer
 
-from tracker.cli.render import item_detail, overview_table
 from tracker.cli.state import database, emit, state
+from tracker.present.items import item_detail
+from tracker.present.loans import overview_table
 from tracker.services.read import lineage, reconcile
 
 

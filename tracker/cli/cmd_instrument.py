@@ -9,12 +9,13 @@ from typing import Annotated, Any
 import typer
 
 from tracker.cli.out_options import Force, kept_as, kept_note
-from tracker.cli.render import done
-from tracker.cli.render_lab import batch_table, reduction_table, results_table, screen_table
 from tracker.cli.state import database, emit, errors, perform, read_upload
 from tracker.db import outputs
 from tracker.domain.errors import InputError, TrackerError, at_cell
 from tracker.domain.textfiles import MAX_SETTINGS_BYTES, FileProblem, load_settings
+from tracker.present import text as words
+from tracker.present.lab import batch_table, reduction_table, results_table, screen_table
+from tracker.present.text import done
 from tracker.services.bench import batch_sheet as batch_sheet_service
 from tracker.services.bench import columns
 from tracker.services.instrument import reduction, results, screening, sessions
@@ -60,8 +61,7 @@ def batch_cut(
     }
     answer = perform(ctx, columns.record_cut, request)
     item = answer.item
-    yield_text = f", yield {item.yield_fraction * 100:.1f} %" if item.yield_fraction else ""
-    emit(ctx, answer, lambda: done(answer, f"{item.id} {item.name} cut{yield_text}"))
+    emit(ctx, answer, lambda: done(answer, words.cut_recorded(item)))
 
 
 BATCH_CUT_EPILOG = "Example: tracker batch cut CP-00002-6 --cut Ca --recovered '10.2 ug' --rel-u 1"
@@ -116,7 +116,7 @@ def batch_blank_delta(
     answer = perform(
         ctx, columns.set_blank_delta, {"batch": batch, "ratio": ratio, "delta_permil": delta}
     )
-    emit(ctx, answer, lambda: done(answer, f"blank δ{ratio} = {delta:+.3f} ‰ for {batch}"))
+    emit(ctx, answer, lambda: done(answer, words.blank_delta_set(ratio, delta, batch)))
 
 
 def definition_file(path: Path) -> dict[str, Any]:

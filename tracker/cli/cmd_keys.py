@@ -7,7 +7,6 @@ import typer
 from rich.table import Table
 
 from tracker.cli.out_options import Force, kept_note
-from tracker.cli.render import done, plain_table
 from tracker.cli.state import (
     cli_fields,
     database,
@@ -19,6 +18,7 @@ from tracker.cli.state import (
     writing,
 )
 from tracker.domain.errors import InputError
+from tracker.present.text import done, plain_table
 
 key_app = typer.Typer(
     epilog="Example: tracker --as tomas key new",

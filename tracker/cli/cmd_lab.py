@@ -5,10 +5,10 @@ from typing import Annotated
 
 import typer
 
-from tracker.cli.render import done
 from tracker.cli.state import emit, perform
 from tracker.domain.models import AliquotPurpose, PositionKind
-from tracker.domain.units import format_mass_mg
+from tracker.present import text as words
+from tracker.present.text import done
 from tracker.services.bench import chemistry, custody, drilling, solutions
 
 Opt = typer.Option
@@ -67,9 +67,7 @@ def drill(
     emit(
         ctx,
         answer,
-        lambda: done(
-            answer, f"{item.id} {format_mass_mg(item.mass_mg, item.mass_u_mg)} {item.tissue}"
-        ),
+        lambda: done(answer, words.drilled(item)),
     )
 
 
@@ -108,10 +106,7 @@ def dissolve(
     emit(
         ctx,
         answer,
-        lambda: done(
-            answer,
-            f"{item.id} {item.solution_mass_g:.4f} g from {format_mass_mg(item.powder_mass_mg)}",
-        ),
+        lambda: done(answer, words.dissolved(item)),
     )
 
 
@@ -146,11 +141,7 @@ def concentration(
     emit(
         ctx,
         answer,
-        lambda: done(
-            answer,
-            f"{item.element} {item.value_ug_per_g:g} µg/g → {item.element_ug:.2f} ± "
-            f"{item.element_u_ug:.2f} µg in {item.solution}",
-        ),
+        lambda: done(answer, words.concentration_recorded(item)),
     )
 
 
@@ -184,8 +175,7 @@ def aliquot(
     }
     answer = perform(ctx, solutions.take_aliquot, request)
     item = answer.item
-    amount = f", {item.element} {item.element_ug:.2f} µg" if item.element_ug is not None else ""
-    emit(ctx, answer, lambda: done(answer, f"{item.id} {item.mass_g:.4f} g{amount}"))
+    emit(ctx, answer, lambda: done(answer, words.aliquot_taken(item)))
 
 
 ALIQUOT_EPILOG = "Example: tracker aliquot SO-00001-M --tare '2.0000 g' --gross '2.1000 g'"

@@ -12,9 +12,9 @@ from rich.table import Table
 from rich.text import Text
 
 from tracker.cli.out_options import Force, kept_note
-from tracker.cli.render import done, plain_table
 from tracker.cli.state import cli_fields, database, emit, perform, state, writing
 from tracker.domain.text_rules import visible
+from tracker.present.text import done, plain_table
 from tracker.services.labels import handling
 
 Opt = typer.Option

@@ -10,10 +10,10 @@ import typer
 
 from tracker.cli.out_options import Force, kept_as, kept_note
 from tracker.cli.progress import progress_bar
-from tracker.cli.render import history_table
 from tracker.cli.state import database, emit, errors, state, writing
 from tracker.domain.anchors import AnchorCheck
 from tracker.domain.ledger import VerifyReport
+from tracker.present.items import history_table
 from tracker.services.ledger import audit, chain, checkpoints
 from tracker.services.ledger.audit import AuditReport
 

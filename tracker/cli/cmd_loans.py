@@ -6,9 +6,9 @@ from typing import Annotated
 import typer
 from rich.table import Table
 
-from tracker.cli.render import done, plain_table
 from tracker.cli.state import database, emit, perform
 from tracker.domain.models import Disposition
+from tracker.present.text import done, plain_table
 from tracker.services.bench import custody
 from tracker.services.loans import lending, specimens
 

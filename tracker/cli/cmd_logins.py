@@ -4,9 +4,9 @@ from typing import Annotated
 
 import typer
 
-from tracker.cli.render import done
 from tracker.cli.state import database, emit, state
 from tracker.db.logins import DEFAULT_GROUP
+from tracker.present.text import done
 from tracker.services.admin import logins
 
 GRANTS_EPILOG = (

@@ -10,13 +10,13 @@ from typing import Annotated, Any
 import typer
 
 from tracker.cli.out_options import Despite, Force, kept_as, kept_note
-from tracker.cli.render import done, plain_table
 from tracker.cli.state import database, emit, errors, perform, read_upload, state, writing
 from tracker.db import outputs
 from tracker.domain.errors import InputError
 from tracker.domain.models import ShipmentDirection
 from tracker.domain.text_rules import visible
 from tracker.output import report_files
+from tracker.present.text import done, plain_table
 from tracker.services.loans import manifests, shipments
 from tracker.services.read import exports
 

@@ -6,7 +6,6 @@ from typing import Annotated
 import typer
 from rich.table import Table
 
-from tracker.cli.render import done, plain_table
 from tracker.cli.state import (
     cli_fields,
     database,
@@ -17,6 +16,7 @@ from tracker.cli.state import (
     state,
 )
 from tracker.domain.models import LocationKind, Role
+from tracker.present.text import done, plain_table
 from tracker.services.admin import backdating, setup
 
 operator_app = typer.Typer(

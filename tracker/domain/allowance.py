@@ -12,7 +12,7 @@ from dataclasses import dataclass
 from datetime import date
 
 from tracker.domain.budget import Amount
-from tracker.domain.units import format_value_u
+from tracker.domain.precision import value_u
 
 
 @dataclass(frozen=True)
@@ -57,7 +57,7 @@ class Violation:
 
 
 def _mg(amount: Amount) -> str:
-    return format_value_u(amount.value, amount.u, "mg")
+    return value_u(amount.value, amount.u, "mg")
 
 
 def _overdue(limits: Limits, on: date, recorded: Recorded | None) -> Violation | None:

@@ -9,7 +9,6 @@ kept — the balance's readability check needs it.
 
 from __future__ import annotations
 
-import math
 import re
 from decimal import Decimal, InvalidOperation, localcontext
 
@@ -97,43 +96,3 @@ def decimals_below(value: Decimal, step: Decimal) -> bool:
     with localcontext() as context:
         context.prec = 80  # exact for any value a person can type (the remainder is exact)
         return value % step != 0
-
-
-def decimals_for(u: float, significant: int = 2, most: int = 6) -> int:
-    """Decimal places showing an uncertainty with ``significant`` digits (GUM 7.2.6).
-
-    Negative for large uncertainties (-2 rounds to hundreds). Decided after
-    rounding, so 0.0996 becomes 0.10, not 0.100.
-    """
-    if u <= 0 or not math.isfinite(u):
-        return 3
-    places = significant - 1 - math.floor(math.log10(u))
-    rounded = round(u, places)
-    if rounded > 0:
-        places = significant - 1 - math.floor(math.log10(rounded))
-    return min(most, places)
-
-
-def format_value_u(value: float | Decimal, u: float | Decimal | None, unit: str) -> str:
-    """Value and uncertainty rounded to the uncertainty's last digit: 2.56100 ± 0.00041 mg
-    (a stored exact value is rounded as a decimal, never through a float)."""
-    if u is None:
-        return f"{value:.3f} {unit}"
-    u = float(u)
-    places = decimals_for(u)
-    shown = max(places, 0)
-    return f"{round(value, places):.{shown}f} ± {round(u, places):.{shown}f} {unit}"
-
-
-def format_mass_mg(mg: float | Decimal, u_mg: float | Decimal | None = None) -> str:
-    """Format a mass given in mg, choosing µg or g when that reads better (a stored exact
-    mass moves its decimal point, so no binary artefact is shown)."""
-    size = abs(float(mg))
-    if size != 0 and size < 0.1:
-        unit, shift = "µg", 3
-    elif size >= 10000:
-        unit, shift = "g", -3
-    else:
-        unit, shift = "mg", 0
-    value = mg.scaleb(shift) if isinstance(mg, Decimal) else mg * 10.0**shift
-    return format_value_u(value, None if u_mg is None else float(u_mg) * 10.0**shift, unit)

@@ -34,6 +34,7 @@ from reportlab.platypus import (
     TableStyle,
 )
 
+from tracker.domain import precision
 from tracker.services.read.reports import PowderLine, ReturnReport, SpecimenEntry
 
 FACE, BOLD = "TrackerReport", "TrackerReport-Bold"
@@ -201,8 +202,8 @@ def _terms(report: ReturnReport, styles: dict[str, ParagraphStyle]) -> list[Flow
     t = report.terms_in_force
     rows = [
         ["Permitted tissues", ", ".join(t.permitted_tissues)],
-        ["Mass per specimen", _mg_limit(t.max_mass_per_specimen_mg)],
-        ["Total mass", _mg_limit(t.max_total_mass_mg)],
+        ["Mass per specimen", precision.limit_mg(t.max_mass_per_specimen_mg)],
+        ["Total mass", precision.limit_mg(t.max_total_mass_mg)],
         ["Specimens that may be sampled", _esc(t.max_specimens_sampled)],
         [
             "Unused powder / residual solutions",
@@ -237,20 +238,23 @@ def _terms(report: ReturnReport, styles: dict[str, ParagraphStyle]) -> list[Flow
     return flow
 
 
-def _mg_limit(value: float | None) -> str:
-    return "no limit" if value is None else f"{value:g} mg"
+def _left(report: ReturnReport, fate: str) -> str:
+    return precision.milligrams(report.powder_left_mg(fate))
 
 
 def _totals(report: ReturnReport, styles: dict[str, ParagraphStyle]) -> list[Flowable]:
     t = report.totals
-    drilled = _mass(t.drilled_mg, t.drilled_u_mg)
+    drilled = precision.milligrams(t.drilled_mg, t.drilled_u_mg)
     rows = [
         ["Specimens listed / sampled", f"{t.specimens} / {t.sampled}"],
-        ["Mass removed (all specimens)", f"{drilled} of {_mg_limit(t.max_total_mass_mg)}"],
-        ["Powder dissolved", f"{t.dissolved_mg:.3f} mg"],
-        ["Powder returned", f"{t.powder_returned_mg:.3f} mg"],
-        *[[f"Powder {label}", f"{report.powder_left_mg(fate):.3f} mg"] for fate, label in _FATES],
-        ["Powder still held by the borrower", f"{t.powder_on_hand_mg:.3f} mg"],
+        ["Mass removed (all specimens)", f"{drilled} of {precision.limit_mg(t.max_total_mass_mg)}"],
+        ["Powder dissolved", precision.milligrams(t.dissolved_mg)],
+        ["Powder returned", precision.milligrams(t.powder_returned_mg)],
+        *[
+            [f"Powder {label}", precision.milligrams(report.powder_left_mg(fate))]
+            for fate, label in _FATES
+        ],
+        ["Powder still held by the borrower", precision.milligrams(t.powder_on_hand_mg)],
         ["Flags", ", ".join(report.flags) or "none"],
     ]
     return [Paragraph("Totals", styles["h2"]), _table(rows, [0.38, 0.62], styles, header=False)]
@@ -300,7 +304,8 @@ def _specimen(
         f"({_esc(entry.skeletal_element)}) · {entry.id}",
         styles["h3"],
     )
-    removed = f"{_mass(entry.drilled_mg, entry.drilled_u_mg)} / {_mg_limit(entry.permitted_mg)}"
+    drilled = precision.milligrams(entry.drilled_mg, entry.drilled_u_mg)
+    removed = f"{drilled} / {precision.limit_mg(entry.permitted_mg)}"
     if "over limit" in entry.flags:
         removed += " — OVER the permitted mass (see overrides below)"
     rows: list[list[Any]] = [
@@ -328,7 +333,8 @@ def _specimen(
             Paragraph(
                 "Residual solutions: "
                 + "; ".join(
-                    f"{x.id} {x.status}" + (f" ({x.residual_g:.4f} g)" if x.residual_g else "")
+                    f"{x.id} {x.status}"
+                    + (f" ({precision.grams(x.residual_g)})" if x.residual_g else "")
                     for x in entry.solutions
                 ),
                 styles["small"],
@@ -339,8 +345,7 @@ def _specimen(
         result_rows += [
             [
                 r.ratio,
-                _value(r.kind, r.value),
-                _spread(r.kind, r.two_sd),
+                *_result_cells(r.kind, r.value, r.two_sd),
                 r.n,
                 r.scale,
                 r.session,
@@ -363,19 +368,14 @@ def _returned(entry: SpecimenEntry) -> str:
     return f"{entry.returned_at:%Y-%m-%d}{parcel}"
 
 
-def _mass(value: float, u: float) -> str:
-    """A weighed mass as a person reads it: the balance's digits, then its uncertainty."""
-    return f"{value:.3f} mg (u = {u:.1g} mg)"
-
-
 def _powder_row(p: PowderLine) -> list[Any]:
     return [
         p.id,
         p.site,
         p.drilled_at.date(),
-        _mass(p.mass_mg, p.mass_u_mg),
-        f"{p.dissolved_mg:.3f} mg",
-        f"{p.left_mg:.3f} mg",
+        precision.milligrams(p.mass_mg, p.mass_u_mg),
+        precision.milligrams(p.dissolved_mg),
+        precision.milligrams(p.left_mg),
         _fate(p.status, p.shipment, p.permission, p.override_reason),
     ]
 
@@ -386,16 +386,14 @@ def _fate(status: str, shipment: str | None, permission: str | None, override: s
     return text + ("; drilled under an override" if override else "")
 
 
-def _value(kind: str, value: float | None) -> str:
-    if value is None:
-        return "—"
-    return f"δ {value:+.3f} ‰" if kind == "delta" else f"{value:.6f}"
-
-
-def _spread(kind: str, value: float | None) -> str:
-    if value is None:
-        return "—"
-    return f"{value:.3f} ‰" if kind == "delta" else f"{value:.6f}"
+def _result_cells(kind: str, value: float, two_sd: float | None) -> list[str]:
+    """A result's value and 2SD at the place the 2SD decides (``domain/precision.py``)."""
+    shown, spread = precision.result_pair(kind, value, two_sd)
+    unit = " ‰" if kind == "delta" else ""
+    return [
+        f"δ {shown}{unit}" if kind == "delta" else shown,
+        precision.ABSENT if spread is None else f"{spread}{unit}",
+    ]
 
 
 def _thumbnails(

@@ -4,8 +4,9 @@ from __future__ import annotations
 
 from typing import Any
 
+from tracker.domain import precision
 from tracker.domain.timeutil import iso_utc
-from tracker.services.read.reports import ReturnReport, SpecimenEntry
+from tracker.services.read.reports import ResultEntry, ReturnReport, SpecimenEntry
 
 COLUMNS = [
     "loanReference",
@@ -52,6 +53,11 @@ def _fate_mass(entry: SpecimenEntry, status: str) -> float:
     return round(sum(p.left_mg for p in entry.powders if p.status == status), 6)
 
 
+def _result(r: ResultEntry) -> str:
+    """``87/86 0.707880 ± 0.000019 (2SD, n=3) on <scale>``: written by the precision rules."""
+    return f"{r.ratio} {precision.result(r.kind, r.value, r.two_sd, r.n)} on {r.scale}"
+
+
 def rows(report: ReturnReport) -> list[dict[str, Any]]:
     lines: list[dict[str, Any]] = [{DISCREPANCY: d.said} for d in report.discrepancies]
     for s in report.specimens:
@@ -79,10 +85,7 @@ def rows(report: ReturnReport) -> list[dict[str, Any]]:
                 "conditionAtReturn": s.condition_out,
                 "returnedAt": iso_utc(s.returned_at) if s.returned_at else None,
                 "returnShipment": s.return_shipment,
-                "results": "; ".join(
-                    f"{r.ratio} {r.value:.6g} ±{r.two_sd or 0:.3g} (2SD, n={r.n}, {r.scale})"
-                    for r in s.results
-                ),
+                "results": "; ".join(_result(r) for r in s.results),
                 "overrides": "; ".join(p.override_reason for p in s.powders if p.override_reason),
                 "flags": "; ".join(s.flags),
                 "ledgerHeadSeq": report.ledger.seq,

@@ -25,9 +25,9 @@ from tracker.domain.budget import Amount, as_float
 from tracker.domain.errors import InputError, RuleViolation
 from tracker.domain.materials import TISSUE_DEFAULTS
 from tracker.domain.models import LoanTerms, Location, Powder, Specimen
+from tracker.domain.precision import value_u
 from tracker.domain.terms import terms_in_force
 from tracker.domain.timing import day_of
-from tracker.domain.units import format_value_u
 from tracker.services.admin.materials import find_material
 from tracker.services.core.common import (
     MICROBALANCE_MG,
@@ -183,7 +183,7 @@ def _field_of(violation: Violation, request: Drill, mass: Amount, day: date) -> 
         return "drilled-at", day.isoformat()
     if violation.limit == "specimen count":
         return "specimen", request.specimen
-    return "drilled-mass", format_value_u(mass.value, mass.u, "mg")
+    return "drilled-mass", value_u(mass.value, mass.u, "mg")
 
 
 def recorded_on(versions: list[LoanTerms], day: date) -> Recorded:

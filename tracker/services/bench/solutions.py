@@ -30,8 +30,9 @@ from tracker.domain.models import (
     Powder,
     Solution,
 )
+from tracker.domain.precision import grams, mass_mg
 from tracker.domain.timing import Since, not_before
-from tracker.domain.units import decimals_below, format_mass_mg, format_value_u
+from tracker.domain.units import decimals_below
 from tracker.services.core.common import (
     ANALYTICAL_BALANCE_MG,
     MICROBALANCE_MG,
@@ -174,8 +175,8 @@ def portion_to_dissolve(powder: Powder, request: Dissolve) -> tuple[Amount, Amou
     if overdraws(left, taken):
         raise RuleViolation(
             "powder-taken",
-            format_mass_mg(taken.value),
-            f"is more than remains of {powder.public_id} ({format_mass_mg(left.value, left.u)})",
+            mass_mg(taken.value),
+            f"is more than remains of {powder.public_id} ({mass_mg(left.value, left.u)})",
         )
     return left, taken
 
@@ -357,7 +358,7 @@ def require_aliquot_fits(solution: Solution, wanted: Amount, request: TakeAliquo
             "gross",
             f"{(request.gross / 1000).normalize()} g",
             f"gives an aliquot of {wanted.value:.5f} g, more than remains of "
-            f"{solution.public_id} ({format_value_u(left.value, left.u, 'g')})",
+            f"{solution.public_id} ({grams(left.value, left.u)})",
         )
 
 

@@ -18,8 +18,9 @@ from tracker.domain.base import decimal_from_float
 from tracker.domain.budget import Amount, by_difference, overdraws, total, weighed
 from tracker.domain.errors import InputError, RuleViolation
 from tracker.domain.models import Aliquot, ContainerStatus, Powder, Solution
+from tracker.domain.precision import mass_mg
 from tracker.domain.terms import terms_in_force
-from tracker.domain.units import decimals_below, format_mass_mg
+from tracker.domain.units import decimals_below
 from tracker.services.bench.drilling import limits_of, usage_of
 from tracker.services.core.common import ANALYTICAL_BALANCE_MG, MICROBALANCE_MG, weigh
 from tracker.services.core.inputs import PositiveMassMg, Raw, Request, parse
@@ -189,8 +190,8 @@ def _refuse_overdraw(
         raise RuleViolation(
             field,
             shown,
-            f"gives {format_mass_mg(parent.value)}, less than the "
-            f"{format_mass_mg(total(children).value)} {what} ({', '.join(ids)}); "
+            f"gives {mass_mg(parent.value)}, less than the "
+            f"{mass_mg(total(children).value)} {what} ({', '.join(ids)}); "
             "correct those first",
         )
 

@@ -31,7 +31,7 @@ from tracker.domain.models import (
     Solution,
     Specimen,
 )
-from tracker.domain.units import format_mass_mg
+from tracker.domain.precision import grams, mass_mg
 from tracker.services.core.lookup import MODEL_BY_KIND, get_named, read_public_id, uri_prefix
 
 Labelled = (
@@ -165,7 +165,7 @@ def _specimen(row: Specimen) -> list[str]:
 def _powder(session: Session, row: Powder) -> list[str]:
     return [
         row.specimen.catalog_number,
-        _join(row.tissue, format_mass_mg(row.mass_mg)),
+        _join(row.tissue, mass_mg(row.mass_mg)),
         _join(_day(row.drilled_at), _initials(session, row)),
     ]
 
@@ -173,7 +173,7 @@ def _powder(session: Session, row: Powder) -> list[str]:
 def _solution(session: Session, row: Solution) -> list[str]:
     return [
         f"from {row.powder.public_id}",
-        _join(row.acid, f"{row.solution_mass_g:.4f} g"),
+        _join(row.acid, grams(row.solution_mass_g)),
         _join(_day(row.dissolved_at), _initials(session, row)),
     ]
 
@@ -181,7 +181,7 @@ def _solution(session: Session, row: Solution) -> list[str]:
 def _aliquot(session: Session, row: Aliquot) -> list[str]:
     return [
         f"from {row.solution.public_id}",
-        _join(row.purpose.value, f"{row.mass_g:.4f} g"),
+        _join(row.purpose.value, grams(row.mass_g)),
         _join(_day(row.taken_at), _initials(session, row)),
     ]
 

@@ -10,7 +10,7 @@ from sqlalchemy.orm import Load, Session, selectinload
 
 from tracker.db.database import Database
 from tracker.domain.base import HasPublicId
-from tracker.domain.ids import Kind, format_id, looks_like_id
+from tracker.domain.ids import looks_like_id
 from tracker.domain.models import (
     Aliquot,
     BatchPosition,
@@ -25,25 +25,21 @@ from tracker.domain.models import (
     Solution,
     Specimen,
 )
-from tracker.services.bench.columns import cut_yield
-from tracker.services.bench.solutions import (
-    powder_remaining,
-    solution_element,
-    solution_remaining_g,
-)
 from tracker.services.core.lookup import get_any, get_loan, uri_prefix
 from tracker.services.core.views import DocumentView, EventView, TermsView, View
 from tracker.services.ledger.chain import listed
+from tracker.services.read.item_facts import ItemFacts, facts_of
 
 
 class Node(View):
-    """One item in a lineage tree; ``facts`` holds its masses and amounts with units in the keys."""
+    """One item in a lineage tree; ``facts`` are its masses and amounts, typed by its kind
+    (``item_facts``; none for a kind whose label says all there is)."""
 
     id: str
     kind: str
     label: str
     status: str | None = None
-    facts: dict[str, Any] = Field(default_factory=dict)
+    facts: ItemFacts | None = None
     children: list[Node] = Field(default_factory=list)
 
 
@@ -129,15 +125,14 @@ def _parent(row: HasPublicId) -> HasPublicId | None:
 
 def node_of(row: HasPublicId, *, with_children: bool = True) -> Node:
     kind = type(row).__name__.lower()
-    label, facts = _describe(row)
     status = getattr(row, "status", None)
     children = [node_of(c) for c in _children(row)] if with_children else []
     return Node(
         id=row.public_id,
         kind=kind,
-        label=label,
+        label=label_of(row),
         status=status.value if status is not None else None,
-        facts=facts,
+        facts=facts_of(row),
         children=children,
     )
 
@@ -187,71 +182,6 @@ def label_of(row: HasPublicId) -> str:
             return f"{row.name} cut"
     name = getattr(row, "name", None) or getattr(row, "code", None) or row.public_id
     return str(name)
-
-
-def _describe(row: HasPublicId) -> tuple[str, dict[str, Any]]:
-    return label_of(row), _facts(row)
-
-
-def _facts(row: HasPublicId) -> dict[str, Any]:
-    match row:
-        case Loan():
-            return {"lender": row.lender.name}
-        case Powder():
-            left = powder_remaining(row)
-            return {
-                "mass_mg": row.mass_mg,
-                "mass_u_mg": row.mass_u_mg,
-                "remaining_mg": left.value,
-                "remaining_u_mg": left.u,
-            }
-        case Solution():
-            return _solution_facts(row)
-        case Aliquot():
-            return {"mass_g": row.mass_g, "mass_u_g": row.mass_u_g}
-        case BatchPosition():
-            return {"loaded_ug": row.loaded_ug, "loaded_u_ug": row.loaded_u_ug}
-        case Cut():
-            return _cut_facts(row)
-    return {}
-
-
-def _cut_facts(row: Cut) -> dict[str, Any]:
-    facts: dict[str, Any] = {"recovered_ug": row.recovered_ug, "recovered_u_ug": row.recovered_u_ug}
-    ratio = cut_yield(row)
-    if ratio is not None:
-        facts |= {"yield": ratio.value, "yield_u": ratio.u}
-    facts["results"] = [
-        {
-            "session": format_id(Kind.INSTRUMENT_SESSION, r.session_id),
-            "ratio": r.ratio,
-            "kind": r.kind,
-            "value": r.delta_permil,
-            "scale": r.scale,
-            "n": r.n,
-            "two_sd": None if r.sd_permil is None else 2 * r.sd_permil,
-            "flags": list(r.flags),
-        }
-        for r in row.results
-    ]
-    return facts
-
-
-def _solution_facts(row: Solution) -> dict[str, Any]:
-    left = solution_remaining_g(row)
-    facts: dict[str, Any] = {
-        "powder_mass_mg": row.powder_mass_mg,
-        "solution_mass_g": row.solution_mass_g,
-        "solution_mass_u_g": row.solution_mass_u_g,
-        "remaining_g": left.value,
-        "remaining_u_g": left.u,
-    }
-    facts["elements"] = {}  # every element measured in it: µg in the whole solution
-    for symbol in dict.fromkeys(c.element for c in row.concentrations):
-        amount = solution_element(row, symbol)
-        if amount is not None:
-            facts["elements"][symbol] = {"ug": amount[1].value, "u_ug": amount[1].u}
-    return facts
 
 
 def load_specimen_tree(session: Session, specimen_id: int) -> Specimen:

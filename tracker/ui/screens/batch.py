@@ -13,7 +13,10 @@ from textual.message import Message
 from textual.screen import Screen
 from textual.widgets import DataTable, Footer, Input, Static
 
+from tracker.domain import precision
 from tracker.domain.errors import TrackerError
+from tracker.present import lab
+from tracker.present.bars import flag_text
 from tracker.services.bench import chemistry, columns
 from tracker.services.bench.columns import BatchSummary
 from tracker.services.core.views import Done
@@ -23,7 +26,6 @@ from tracker.ui.context import database, operator, tracker_app
 from tracker.ui.messages import Refused, refusal_text
 from tracker.ui.plain import shown
 from tracker.ui.screens.batch_forms import CutScreen, NewBatchScreen, ReferencePositionScreen
-from tracker.ui.widgets.bars import flag_text
 from tracker.ui.widgets.id_field import IdField
 from tracker.ui.widgets.operator_bar import OperatorBar
 
@@ -82,8 +84,8 @@ class BatchScreen(Screen[None]):
             "Column",
             "Kind",
             "Holds",
-            "Loaded µg",
-            "Rec. µg",
+            "Loaded",
+            "Recovered",
             "Yield",
             "Blank",
             "Flags",
@@ -141,9 +143,7 @@ class BatchScreen(Screen[None]):
         self.batch_id = s.id
         head = Text()
         head.append(shown(f"{s.id} {s.name} · {s.element}", style="bold"))
-        head.append(f" · yield ≥ {s.yield_threshold * 100:g} % · blank ≤ {s.blank_limit * 100:g} %")
-        blank = "no blank measured" if s.blank_ng is None else f"{s.blank_ng:.1f} ng (n={s.blanks})"
-        head.append(f"\nprocedural blank: {blank} · ")
+        head.append(f"\n{lab.limits_text(s)} · ")
         head.append_text(flag_text(s.flags))
         self.query_one("#batch-head", Static).update(head)
         table = self.query_one("#positions", DataTable)
@@ -155,10 +155,7 @@ class BatchScreen(Screen[None]):
                 p.id,
                 p.kind,
                 shown(p.holds or "—"),
-                _num(p.loaded_ug, 2),
-                _num(p.recovered_ug, 3),
-                _pct(p.yield_fraction, 1),
-                _pct(p.blank_fraction, 2),
+                *lab.position_cells(p),
                 flag_text(p.flags),
                 key=p.id,
             )
@@ -197,7 +194,7 @@ class BatchScreen(Screen[None]):
 
     def on_batch_screen_added(self, event: Added) -> None:
         p = event.done.item
-        loaded = f" · loaded {p.loaded_ug:.2f} µg" if p.loaded_ug else ""
+        loaded = f" · loaded {precision.micrograms(p.loaded_ug)}" if p.loaded_ug else ""
         self._outcome(
             f"✓ column {p.slot} ({p.id}): {p.kind} {p.holds or ''}{loaded} · label "
             f"queued · event #{event.done.event_seq}",
@@ -242,11 +239,3 @@ class BatchScreen(Screen[None]):
                 if self.summary
                 else CutScreen()
             )
-
-
-def _num(value: float | None, places: int) -> str:
-    return "—" if value is None else f"{value:.{places}f}"
-
-
-def _pct(value: float | None, places: int) -> str:
-    return "—" if value is None else f"{value * 100:.{places}f} %"

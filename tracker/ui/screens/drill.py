@@ -16,7 +16,9 @@ from textual.timer import Timer
 from textual.widgets import Input, Static
 
 from tracker.db.database import Database
+from tracker.domain import precision
 from tracker.domain.errors import TrackerError
+from tracker.present.bars import usage_bar
 from tracker.services.bench import drilling
 from tracker.services.bench.drilling import DrillPreview, LimitLine
 from tracker.services.core.views import Done
@@ -24,7 +26,6 @@ from tracker.ui.context import database
 from tracker.ui.messages import Refused
 from tracker.ui.plain import shown
 from tracker.ui.screens.form import Field, FormScreen
-from tracker.ui.widgets.bars import usage_bar
 from tracker.ui.widgets.id_field import IdField
 
 PREVIEW_DELAY = 0.15
@@ -131,7 +132,7 @@ def render_preview(view: DrillPreview) -> Text:
     text.append(shown(f"{view.catalog_number} ({view.status.replace('_', ' ')})\n"))
     text.append(f"  permitted: {', '.join(view.permitted_tissues)} · due {view.due_on}\n")
     if view.mass_mg is not None:
-        text.append(f"  this drill: {view.mass_mg:.3f} ± {view.mass_u_mg or 0:.3f} mg\n")
+        text.append(f"  this drill: {precision.mass_mg(view.mass_mg, view.mass_u_mg)}\n")
     for line in (view.per_specimen, view.loan_total):
         text.append_text(_limit(line, view.mass_mg))
     if view.max_specimens_sampled is not None:
@@ -159,8 +160,10 @@ def _limit(line: LimitLine, mass: float | None) -> Text:
         return text
     after = line.used_mg + (mass or 0.0)
     text.append_text(usage_bar(after / line.limit_mg, 8))
-    text.append(f"  {line.limit_mg:g} mg, left {line.left_before_mg:.3f}")
+    text.append(
+        f"  {precision.limit_mg(line.limit_mg)}, left {precision.mass_mg(line.left_before_mg)}"
+    )
     if line.left_after_mg is not None:
-        text.append(f" → after {line.left_after_mg:.3f} mg")
+        text.append(f" → after {precision.mass_mg(line.left_after_mg)}")
     text.append("\n")
     return text

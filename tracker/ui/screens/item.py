@@ -15,6 +15,7 @@ from textual.widgets import DataTable, Footer, Static, TabbedContent, TabPane, T
 from textual.widgets.tree import TreeNode
 
 from tracker.domain.errors import TrackerError
+from tracker.present.items import node_text
 from tracker.services.core.views import Done
 from tracker.services.labels import handling
 from tracker.services.read import lineage
@@ -157,48 +158,3 @@ def _grow(parent: TreeNode[str], node: Node) -> None:
         _grow(branch, child)
     if not node.children:
         parent.allow_expand = False
-
-
-def node_text(node: Node) -> Text:
-    """One lineage node: ID, what it is, status in words, and its amounts with units."""
-    text = Text()
-    text.append(node.id, style="bold")
-    text.append(shown(f" {node.label}"))
-    if node.status:
-        text.append(f" · {node.status.replace('_', ' ')}", style="dim")
-    facts = facts_text(node.kind, node.facts)
-    if facts:
-        text.append(f" · {facts}")
-    return text
-
-
-def _pm(value: Any, u: Any, unit: str, places: int = 3) -> str:
-    if value is None:
-        return "—"
-    return f"{value:.{places}f} ± {u or 0:.{places}f} {unit}"
-
-
-def facts_text(kind: str, facts: dict[str, Any]) -> str:
-    parts: list[str] = []
-    if kind == "powder":
-        parts.append(_pm(facts.get("mass_mg"), facts.get("mass_u_mg"), "mg"))
-        parts.append(f"left {facts.get('remaining_mg', 0):.3f} mg")
-    elif kind == "solution":
-        parts.append(f"{facts.get('powder_mass_mg', 0):.3f} mg powder")
-        parts.append(_pm(facts.get("solution_mass_g"), facts.get("solution_mass_u_g"), "g", 4))
-        for symbol, amount in (facts.get("elements") or {}).items():
-            parts.append(f"{symbol} {_pm(amount['ug'], amount['u_ug'], 'µg', 2)}")
-    elif kind == "aliquot":
-        parts.append(_pm(facts.get("mass_g"), facts.get("mass_u_g"), "g", 5))
-    elif kind == "batchposition" and facts.get("loaded_ug") is not None:
-        parts.append(f"loaded {_pm(facts['loaded_ug'], facts.get('loaded_u_ug'), 'µg', 2)}")
-    elif kind == "cut":
-        if facts.get("recovered_ug") is not None:
-            parts.append(f"recovered {facts['recovered_ug']:.2f} µg")
-        if facts.get("yield") is not None:
-            parts.append(f"yield {facts['yield'] * 100:.1f} %")
-        for r in facts.get("results") or []:
-            two_sd = f" ± {r['two_sd']:.2f}" if r.get("two_sd") is not None else ""
-            unit = "‰" if r.get("kind") == "delta" else ""
-            parts.append(f"δ{r['ratio']} {r['value']:.2f}{two_sd}{unit} (n={r['n']})")
-    return " · ".join(parts)

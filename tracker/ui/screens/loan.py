@@ -14,7 +14,9 @@ from textual.message import Message
 from textual.screen import Screen
 from textual.widgets import DataTable, Footer, Input, Static, TabbedContent, TabPane
 
+from tracker.domain import precision
 from tracker.domain.errors import TrackerError
+from tracker.present.bars import flag_cell, flag_text, usage_bar
 from tracker.services.loans import planning
 from tracker.services.loans.planning import Plan
 from tracker.services.read import lineage, reconcile
@@ -23,7 +25,6 @@ from tracker.services.read.reconcile import LoanLine
 from tracker.ui.context import database, tracker_app
 from tracker.ui.messages import Refused, refusal_text
 from tracker.ui.plain import shown
-from tracker.ui.widgets.bars import flag_cell, flag_text, usage_bar
 from tracker.ui.widgets.operator_bar import OperatorBar
 
 
@@ -117,7 +118,7 @@ class LoanScreen(Screen[None]):
         for s in line.specimen_lines:
             used = s.drilled_mg / s.permitted_mg if s.permitted_mg else None
             bar = Text.assemble(
-                f"{s.drilled_mg:.3f}/{s.permitted_mg or 0:g} mg ", usage_bar(used, 6)
+                precision.used_of_limit(s.drilled_mg, s.permitted_mg), " ", usage_bar(used, 6)
             )
             table.add_row(
                 s.id,
@@ -205,10 +206,15 @@ class LoanScreen(Screen[None]):
             f"{plan.material} · {plan.tissue} · terms v{plan.terms_version}\n", style="bold"
         )
         before, after = plan.loan_remaining_before_mg, plan.loan_remaining_after_mg
-        text.append(f"loan allows {before if before is None else f'{before:.3f}'} mg more; ")
-        text.append(f"after this plan {after if after is None else f'{after:.3f}'} mg\n")
+        text.append(f"loan allows {_more(before)} more; after this plan {_more(after)}\n")
         for s in plan.specimens:
             mark = "✓" if s.feasible else "✗"
-            line = f"{mark} {s.id} {s.catalog_number}: drill {s.to_drill_mg:.3f} mg — {s.reason}\n"
+            drill = precision.mass_mg(s.to_drill_mg)
+            line = f"{mark} {s.id} {s.catalog_number}: drill {drill} — {s.reason}\n"
             text.append(shown(line, style="" if s.feasible else "red"))
         self.query_one("#plan", Static).update(text)
+
+
+def _more(mg: float | None) -> str:
+    """What a loan's total still allows: ``no limit`` when it has none."""
+    return "no limit" if mg is None else precision.mass_mg(mg)

@@ -18,12 +18,13 @@ from textual.message import Message
 from textual.screen import Screen
 from textual.widgets import DataTable, Footer, Static
 
+from tracker.domain import precision
 from tracker.domain.errors import TrackerError
+from tracker.present.bars import flag_cell, usage_bar
 from tracker.services.read.loan_lines import LoanLine
 from tracker.ui.context import database, tracker_app
 from tracker.ui.messages import Refused, refusal_text
 from tracker.ui.plain import shown
-from tracker.ui.widgets.bars import flag_cell, usage_bar
 from tracker.ui.widgets.operator_bar import OperatorBar
 
 FLAGS_WIDTH = 17  # the whole table fits 80 columns; wider terminals show more of each flag
@@ -112,7 +113,8 @@ class OverviewScreen(Screen[None]):
             table.add_row(
                 shown(f"{line.reference}\n{line.lender_code}", style="bold"),
                 Text.assemble(
-                    f"{line.drilled_mg:.3f}/{line.max_total_mass_mg or 0:g} mg\n",
+                    precision.used_of_limit(line.drilled_mg, line.max_total_mass_mg),
+                    "\n",
                     usage_bar(line.used_fraction, 8),
                 ),
                 due,

@@ -23,15 +23,16 @@ from textual.screen import Screen
 from textual.widgets import DataTable, Footer, Input, Select, Static
 
 from tracker.db.outputs import TargetExists
+from tracker.domain import precision
 from tracker.domain.errors import InputError, TrackerError
 from tracker.output import report_files
 from tracker.output.report_files import WrittenReport
+from tracker.present.bars import flag_cell, flag_text
 from tracker.services.read import reports
 from tracker.services.read.reports import ReturnReport, SpecimenEntry
 from tracker.ui.context import database, operator, tracker_app
 from tracker.ui.messages import Refused, refusal_text
 from tracker.ui.plain import shown
-from tracker.ui.widgets.bars import flag_cell, flag_text
 from tracker.ui.widgets.operator_bar import OperatorBar
 from tracker.ui.widgets.outcome import show_outcome
 
@@ -84,8 +85,8 @@ class ReportScreen(Screen[None]):
             ("Specimen", 10),
             ("Catalogue no.", 14),
             ("Status", 9),
-            ("Drilled mg", 18),
-            ("Returned mg", 11),
+            ("Drilled", 18),
+            ("Returned", 11),
             ("Results", 7),
             ("Flags", None),
         ):
@@ -179,33 +180,29 @@ def _head(report: ReturnReport) -> Text:
 
 
 def _row(entry: SpecimenEntry) -> tuple[str | Text, ...]:
-    drilled = _mass(entry.drilled_mg, entry.drilled_u_mg) if entry.sampled else "—"
+    drilled = precision.milligrams(entry.drilled_mg, entry.drilled_u_mg) if entry.sampled else "—"
     returned = sum(p.left_mg for p in entry.powders if p.status == "returned")
     return (
         entry.id,
         shown(entry.catalog_number),
         entry.status.replace("_", " "),
         drilled,
-        f"{returned:.3f}" if entry.powders else "—",
+        precision.milligrams(returned) if entry.powders else "—",
         str(len(entry.results)),
         flag_cell(entry.flags, 30),
     )
 
 
-def _mass(mg: float, u_mg: float) -> str:
-    """``3.512 (u 0.0004)``: the balance's standard uncertainty to one significant figure."""
-    return f"{mg:.3f} (u {u_mg:.1g})" if u_mg else f"{mg:.3f}"
-
-
 def _totals(report: ReturnReport) -> Text:
     t = report.totals
-    limit = "no limit" if t.max_total_mass_mg is None else f"{t.max_total_mass_mg:g} mg"
+    limit = precision.limit_mg(t.max_total_mass_mg)
     text = Text()
     text.append(f"{t.specimens} specimens, {t.sampled} sampled · drilled ", style="bold")
-    text.append(f"{_mass(t.drilled_mg, t.drilled_u_mg)} mg of {limit}\n", style="bold")
-    text.append(f"powder dissolved {t.dissolved_mg:.3f} mg · returned ")
-    text.append(f"{t.powder_returned_mg:.3f} mg · ")
-    text.append(" · ".join(f"{label} {report.powder_left_mg(s):.3f} mg" for s, label in FATES))
-    text.append(f" · still held {t.powder_on_hand_mg:.3f} mg\n")
+    text.append(f"{precision.milligrams(t.drilled_mg, t.drilled_u_mg)} of {limit}\n", style="bold")
+    text.append(f"powder dissolved {precision.milligrams(t.dissolved_mg)} · returned ")
+    text.append(f"{precision.milligrams(t.powder_returned_mg)} · ")
+    left = (f"{label} {precision.milligrams(report.powder_left_mg(s))}" for s, label in FATES)
+    text.append(" · ".join(left))
+    text.append(f" · still held {precision.milligrams(t.powder_on_hand_mg)}\n")
     text.append_text(flag_text(report.flags))
     return text

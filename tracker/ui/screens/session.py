@@ -14,6 +14,9 @@ from textual.screen import Screen
 from textual.widgets import DataTable, Footer, Static, TabbedContent, TabPane
 
 from tracker.domain.errors import TrackerError
+from tracker.present import lab
+from tracker.present.bars import flag_text
+from tracker.present.lab import accepted_text
 from tracker.services.core.views import Done
 from tracker.services.instrument import reduction, sessions
 from tracker.services.instrument.reduction import ResultLine, SessionDetail
@@ -24,7 +27,6 @@ from tracker.ui.context import database, operator
 from tracker.ui.messages import Refused, refusal_text
 from tracker.ui.plain import shown
 from tracker.ui.screens.session_import import ImportSessionScreen
-from tracker.ui.widgets.bars import flag_text
 from tracker.ui.widgets.drift_plot import DriftPlot
 from tracker.ui.widgets.operator_bar import OperatorBar
 
@@ -200,28 +202,13 @@ class SessionScreen(Screen[None]):
 
 
 def result_cells(line: ResultLine, mode: str) -> tuple[Any, ...]:
-    unit = " ‰" if mode == "delta" else ""
-    two_sd = "—" if line.two_sd is None else f"{line.two_sd:.3f}"
-    qc: list[str] = []
-    if line.passed is True:
-        qc.append("pass")
-    elif line.passed is False:
-        qc.append("failed acceptance")
     flags = [f for f in line.flags if f != "failed acceptance"]
     text = Text("✓ pass" if line.passed else "", style="green")
     if line.passed is False:
-        text = Text(
-            f"✗ FAIL (accepted {line.accepted:.2f} ± {line.accepted_two_sd:.2f})", style="bold red"
-        )
+        text = Text(f"✗ FAIL (accepted {accepted_text(line, mode)}, 2SD)", style="bold red")
     if flags:
         if text.plain:
             text.append(" · ")
         text.append_text(flag_text(flags))
-    return (
-        shown(line.label),
-        shown(line.ratio),
-        f"{line.value:.3f}{unit}",
-        two_sd,
-        str(line.n),
-        text,
-    )
+    value, two_sd = lab.result_cells(mode, line.value, line.two_sd)
+    return (shown(line.label), shown(line.ratio), value, two_sd, str(line.n), text)

@@ -1,9 +1,12 @@
-"""Text bars for allowances and yields: the number is always written beside the bar, and an
-excess is marked with a symbol, so no meaning rests on colour."""
+"""Text bars for allowances and yields, and flags: the number is always written beside the
+bar, an excess and every flag are marked with a symbol and words, so no meaning rests on
+colour. Shared by the CLI's tables and the interface's screens."""
 
 from __future__ import annotations
 
 from rich.text import Text
+
+from tracker.domain.precision import number
 
 FULL, EMPTY = "█", "░"
 
@@ -18,7 +21,7 @@ def usage_bar(fraction: float | None, width: int = 10) -> Text:
     text = Text(FULL * filled, style=style)
     text.append(EMPTY * (width - filled), style="dim")
     mark = " ✗" if fraction > 1 else " ⚠" if fraction >= 0.9 else "  "
-    text.append(f"{fraction * 100:4.0f} %{mark}")
+    text.append(f"{number(fraction * 100, 0):>4} %{mark}")
     return text
 
 
@@ -60,6 +63,11 @@ def flag_text(flags: list[str]) -> Text:
             text.append(" · ", style="dim")
         text.append(f"{symbol} {flag}", style=style)
     return text
+
+
+def flag_lines(flags: list[str]) -> str:
+    """Flags one per line in words, or ``ok`` (plain: the CLI's wide tables)."""
+    return "\n".join(flags) or "ok"
 
 
 def _severity(flag: str) -> int:

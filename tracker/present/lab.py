@@ -1,0 +1,165 @@
+"""The lab's work as people see it: column batches, session reductions, results, Sr screening.
+
+A result's value and 2SD are written by ``domain/precision.py`` (the 2SD decides the places),
+in the CLI's tables and the interface's session screen alike (:func:`result_cells`).
+"""
+
+from __future__ import annotations
+
+from rich.console import Group, RenderableType
+from rich.text import Text
+
+from tracker.domain import precision
+from tracker.domain.text_rules import visible
+from tracker.present.bars import flag_lines
+from tracker.present.text import plain_table
+from tracker.services.bench.columns import BatchSummary, PositionLine
+from tracker.services.instrument.reduction import Reduction, ResultLine
+from tracker.services.instrument.results import SpecimenResult
+from tracker.services.instrument.screening import Screening
+
+BLANK_SHARE_PLACES = 2  # a blank is a small share of a column: 0.19 %, not 0.2 %
+
+
+def limits_text(summary: BatchSummary) -> str:
+    """A batch's acceptance limits and its procedural blank, in words."""
+    if summary.blank_ng is None:
+        blank = "no blank measured"
+    else:
+        spread = f", SD {precision.nanograms(summary.blank_sd_ng)}" if summary.blank_sd_ng else ""
+        blank = f"blank {precision.nanograms(summary.blank_ng)} (n = {summary.blanks}{spread})"
+    return (
+        f"yield ≥ {precision.as_given(summary.yield_threshold * 100)} %, blank ≤ "
+        f"{precision.as_given(summary.blank_limit * 100)} %; {blank}"
+    )
+
+
+def position_cells(line: PositionLine) -> tuple[str, str, str, str]:
+    """Loaded, recovered, yield and blank share of one column position, with units."""
+    return (
+        precision.micrograms(line.loaded_ug),
+        precision.micrograms(line.recovered_ug),
+        precision.percent(line.yield_fraction, line.yield_u),
+        precision.percent(line.blank_fraction, places=BLANK_SHARE_PLACES),
+    )
+
+
+def batch_table(summary: BatchSummary) -> RenderableType:
+    head = Text.assemble(
+        (visible(summary.name), "bold"),
+        f"  {summary.id}  {summary.element}; {limits_text(summary)}",
+    )
+    table = plain_table("column", "holds", "loaded → recovered", "yield", "blank", "flags")
+    table.columns[1].no_wrap = True
+    for line in summary.positions:
+        loaded, recovered, yield_text, share = position_cells(line)
+        table.add_row(
+            Text.assemble(f"{line.slot}. {line.id}\n", (f"{line.kind}", "dim")),
+            line.holds or "",
+            f"{loaded} → {recovered}",
+            yield_text,
+            share,
+            flag_lines(line.flags),
+        )
+    return Group(head, table)
+
+
+def result_value(kind: str, value: float, two_sd: float | None, n: int | None = None) -> str:
+    """One result in the house notation (``+0.88 ± 0.15 ‰ (2SD, n=4)``)."""
+    return precision.result(kind, value, two_sd, n)
+
+
+def reduction_table(reduction: Reduction) -> RenderableType:
+    """One row per target, one column per ratio: value ± 2SD (n); checks and flags merged."""
+    head = Text.assemble(
+        (visible(reduction.name), "bold"),
+        f"  {reduction.session}  on the {reduction.scale} scale; "
+        f"{reduction.unmatched} unmatched rows\n",
+        (
+            "session flags: " + (", ".join(reduction.flags) or "none"),
+            "bold red" if reduction.flags else "green",
+        ),
+    )
+    ratios = list(dict.fromkeys(r.ratio for r in reduction.results))
+    table = plain_table("target", *ratios, "check", "flags")
+    rows: dict[str, dict[str, ResultLine]] = {}
+    for line in reduction.results:
+        rows.setdefault(line.target, {})[line.ratio] = line
+    for target, by_ratio in rows.items():
+        first = next(iter(by_ratio.values()))
+        cells = [_value_cell(by_ratio.get(r), reduction.mode) for r in ratios]
+        checks = [
+            f"{r} {'pass' if x.passed else 'FAIL'}"
+            for r, x in by_ratio.items()
+            if x.passed is not None
+        ]
+        flags = sorted({f for x in by_ratio.values() for f in x.flags})
+        table.add_row(
+            Text.assemble(f"{target}\n", (visible(first.label), "dim")),
+            *cells,
+            "\n".join(checks) or precision.ABSENT,
+            flag_lines(flags),
+        )
+    return Group(head, table)
+
+
+def _value_cell(line: ResultLine | None, mode: str) -> str:
+    return precision.ABSENT if line is None else result_value(mode, line.value, line.two_sd, line.n)
+
+
+def accepted_text(line: ResultLine, mode: str) -> str:
+    """A reference material's accepted value and its 2SD, written as its results are."""
+    if line.accepted is None:
+        return precision.ABSENT
+    if mode == "delta":
+        return precision.delta(line.accepted, line.accepted_two_sd)
+    return precision.ratio(line.accepted, line.accepted_two_sd)
+
+
+def result_cells(kind: str, value: float, two_sd: float | None) -> tuple[str, str]:
+    """A result's value (with ‰ for a δ) and its 2SD as two table cells, at one place."""
+    shown, spread = precision.result_pair(kind, value, two_sd)
+    unit = " ‰" if kind == "delta" else ""
+    return shown + unit, precision.ABSENT if spread is None else spread
+
+
+def results_table(rows: list[SpecimenResult]) -> RenderableType:
+    if not rows:
+        return Text("No results yet: import and reduce an instrument session.")
+    table = plain_table("specimen", "ratio", "value", "2SD", "n", "scale", "flags")
+    for r in rows:
+        table.add_row(
+            Text.assemble(f"{r.specimen}\n", (visible(r.catalog_number), "dim")),
+            r.ratio,
+            *result_cells(r.kind, r.value, r.two_sd),
+            str(r.n),
+            r.scale,
+            flag_lines(r.flags),
+        )
+    return table
+
+
+def screen_table(lines: list[Screening]) -> RenderableType:
+    if not lines:
+        return Text("No ⁸⁷Sr/⁸⁶Sr results for this loan yet.")
+    table = plain_table("specimen", "87Sr/86Sr", "curve allows (Ma)", "strata (Ma)", "verdict")
+    for s in lines:
+        allowed = (
+            "; ".join(
+                f"{precision.number(a, 2)}–{precision.number(b, 2)}" for a, b in s.intervals_ma
+            )
+            or "none"
+        )
+        strata = (
+            precision.ABSENT
+            if s.age_min_ma is None
+            else f"{precision.as_given(s.age_min_ma)}–{precision.as_given(s.age_max_ma)}"
+        )
+        table.add_row(
+            Text.assemble(f"{s.specimen}\n", (visible(s.catalog_number), "dim")),
+            precision.ratio(s.ratio),  # the verdict needs the width; `results` has the 2SD
+            allowed,
+            strata,
+            s.verdict,
+        )
+    return table
