@@ -12,7 +12,7 @@ from tracker.services.corrections import correcting, measured_values, weighings
 Opt = typer.Option
 Reason = Annotated[str, Opt("--reason", help="Why the recorded value is wrong (kept forever).")]
 
-correct_app = typer.Typer(
+app = typer.Typer(
     help="Correct a recorded value: the original stays in the history, the correction rules.",
     epilog="Example: tracker correct weighing PW-00001-5 --tare '1234.567 mg' "
     "--gross '1236.771 mg' --reason 'gross read off the wrong line of the balance log'",
@@ -27,7 +27,7 @@ def _answer(ctx: typer.Context, answer: Any) -> None:
     emit(ctx, answer, lambda: done(answer, f"{item.item} {item.quantity} corrected{again}"))
 
 
-@correct_app.command(
+@app.command(
     "weighing",
     epilog="Example: tracker correct weighing AQ-00003-B --tare '2.0000 g' "
     "--gross '2.1012 g' --reason 'tare of the wrong vial'",
@@ -53,7 +53,7 @@ def weighing(
     _answer(ctx, perform(ctx, weighings.correct_weighing, request))
 
 
-@correct_app.command(
+@app.command(
     "powder-taken",
     epilog="Example: tracker correct powder-taken SO-00001-M --mass '1.502 mg' "
     "--reason 'transcribed 1.205 for 1.502'",
@@ -75,7 +75,7 @@ def powder_taken(
     _answer(ctx, perform(ctx, weighings.correct_powder_taken, request))
 
 
-@correct_app.command(
+@app.command(
     "concentration",
     epilog="Example: tracker correct concentration SO-00001-M --element Ca "
     "--value '821 ug/g' --rel-u 2 --reason 'dilution factor 10 was applied twice'",
@@ -103,7 +103,7 @@ def concentration(
     _answer(ctx, perform(ctx, measured_values.correct_concentration, request))
 
 
-@correct_app.command(
+@app.command(
     "recovery",
     epilog="Example: tracker correct recovery CU-00004-F --recovered '9.91 ug' --rel-u 1.5 "
     "--reason 'ICP-OES sequence row swapped with the blank'",
@@ -127,7 +127,7 @@ def recovery(
     _answer(ctx, perform(ctx, measured_values.correct_recovery, request))
 
 
-@correct_app.command("list", epilog="Example: tracker correct list PW-00001-5")
+@app.command("list", epilog="Example: tracker correct list PW-00001-5")
 def correct_list(
     ctx: typer.Context,
     item: Annotated[str | None, typer.Argument(help="Only this item's corrections.")] = None,

@@ -20,14 +20,14 @@ from tracker.cli.state import (
 )
 from tracker.domain.errors import InputError
 
-key_app = typer.Typer(
+app = typer.Typer(
     epilog="Example: tracker --as tomas key new",
     help="Personal signing keys: every event is signed by its operator's key.",
     no_args_is_help=True,
 )
 
 
-@key_app.command("new", epilog="Example: tracker --as tomas key new --out tomas.pub")
+@app.command("new", epilog="Example: tracker --as tomas key new --out tomas.pub")
 def key_new(
     ctx: typer.Context,
     out: Annotated[
@@ -71,7 +71,7 @@ def key_new(
     )
 
 
-@key_app.command("register", epilog="Example: tracker --as ines key register tomas tomas.pub")
+@app.command("register", epilog="Example: tracker --as ines key register tomas tomas.pub")
 def key_register(
     ctx: typer.Context,
     operator: Annotated[str, typer.Argument(help="Whose key it is.", metavar="OPERATOR")],
@@ -97,7 +97,7 @@ def key_register(
     emit(ctx, answer, lambda: done(answer, f"key {answer.item.key_id} registered for {operator}"))
 
 
-@key_app.command(
+@app.command(
     "revoke", epilog="Example: tracker --as ines key revoke tomas --reason 'laptop stolen'"
 )
 def key_revoke(
@@ -117,7 +117,7 @@ def key_revoke(
     emit(ctx, answer, lambda: done(answer, f"key {answer.item.key_id} of {operator} revoked"))
 
 
-@key_app.command("list", epilog="Example: tracker key list")
+@app.command("list", epilog="Example: tracker key list")
 def key_list(ctx: typer.Context) -> None:
     """Every key the ledger registered: whose, when, revoked or not, and whether its
     private key file is on this machine."""

@@ -1,30 +1,74 @@
-"""Bench commands: drill, dissolve, concentration, aliquot, move, dispose, columns."""
+"""Top-level bench commands: receiving and returning specimens, moves, drilling,
+dissolving, concentrations, aliquots, disposal."""
 
-from datetime import datetime
 from typing import Annotated
 
 import typer
 
 from tracker.cli.render import done
 from tracker.cli.state import emit, perform
-from tracker.domain.models import AliquotPurpose, PositionKind
+from tracker.domain.models import AliquotPurpose
 from tracker.domain.units import format_mass_mg
-from tracker.services.bench import chemistry, custody, drilling, solutions
+from tracker.services.bench import custody, drilling, solutions
+from tracker.services.loans import specimens
 
 Opt = typer.Option
 At = Annotated[str | None, Opt("--at", help="When it happened, ISO 8601 with zone; default now.")]
 To = Annotated[str | None, Opt("--to", help="Location ID where the new vial goes.")]
 
-reference_app = typer.Typer(
-    epilog="Example: tracker reference add 'SRM 915b' --element Ca",
-    help="Reference materials and bracketing standards.",
-    no_args_is_help=True,
-)
-batch_app = typer.Typer(
-    epilog="Example: tracker batch add CB-00001-G --blank",
-    help="Ion-exchange column batches.",
-    no_args_is_help=True,
-)
+app = typer.Typer()  # its commands join the top level (see tracker/cli/__init__.py)
+
+
+CHECKIN_EPILOG = "Example: tracker checkin SP-00001-W --condition 'complete' --to LC-00005-B"
+
+
+@app.command("checkin", epilog=CHECKIN_EPILOG)
+def checkin(
+    ctx: typer.Context,
+    specimen: Annotated[str, typer.Argument(help="Specimen ID (typed or scanned).")],
+    condition: Annotated[str, Opt("--condition", help="Condition on receipt.")],
+    to: Annotated[str | None, Opt("--to", help="Location ID where it is put.")] = None,
+    at: Annotated[str | None, Opt("--at", help="When it arrived, ISO 8601 with zone.")] = None,
+) -> None:
+    """Receive a listed specimen: note its condition and where it goes."""
+    request = {"specimen": specimen, "condition": condition, "location": to, "received_at": at}
+    answer = perform(ctx, specimens.check_in, request)
+    emit(ctx, answer, lambda: done(answer, f"{answer.item.id} checked in"))
+
+
+RETURN_EPILOG = "Example: tracker return SP-00001-W --condition 'as received, drill pit at tip'"
+
+
+@app.command("return", epilog=RETURN_EPILOG)
+def return_specimen(
+    ctx: typer.Context,
+    specimen: Annotated[str, typer.Argument(help="Specimen ID.")],
+    condition: Annotated[str, Opt("--condition", help="Condition at return.")],
+    note: Annotated[str | None, Opt("--note", help="Any note.")] = None,
+    shipment: Annotated[
+        str | None, Opt("--shipment", help="Outgoing shipment ID (SH-...).")
+    ] = None,
+) -> None:
+    """Send a specimen back to its lender, recording its condition."""
+    request = {"specimen": specimen, "condition": condition, "note": note, "shipment": shipment}
+    answer = perform(ctx, specimens.return_specimen, request)
+    emit(ctx, answer, lambda: done(answer, f"{answer.item.id} returned"))
+
+
+MOVE_EPILOG = "Example: tracker move PW-00001-5 --to LC-00007-3"
+
+
+@app.command("move", epilog=MOVE_EPILOG)
+def move(
+    ctx: typer.Context,
+    item: Annotated[str, typer.Argument(help="Specimen or vial ID (typed or scanned).")],
+    to: Annotated[str, Opt("--to", help="Destination location ID.")],
+    note: Annotated[str | None, Opt("--note", help="Why.")] = None,
+) -> None:
+    """Move a specimen or vial to another location."""
+    answer = perform(ctx, custody.move, {"item": item, "to": to, "note": note})
+    emit(ctx, answer, lambda: done(answer, f"{answer.item.id} → {answer.item.location}"))
+
 
 SAFETY = (
     "Drilling makes fine dust and digestion uses concentrated acids: follow your "
@@ -32,6 +76,13 @@ SAFETY = (
 )
 
 
+DRILL_EPILOG = (
+    "Example: tracker --as tomas drill SP-00001-W --tissue enameloid "
+    "--tare '1234.567 mg' --gross '1236.717 mg' --site 'crown tip'. " + SAFETY
+)
+
+
+@app.command("drill", epilog=DRILL_EPILOG)
 def drill(
     ctx: typer.Context,
     specimen: Annotated[str, typer.Argument(help="Specimen ID (typed or scanned).")],
@@ -73,12 +124,13 @@ def drill(
     )
 
 
-DRILL_EPILOG = (
-    "Example: tracker --as tomas drill SP-00001-W --tissue enameloid "
-    "--tare '1234.567 mg' --gross '1236.717 mg' --site 'crown tip'. " + SAFETY
+DISSOLVE_EPILOG = (
+    "Example: tracker dissolve PW-00001-5 --acid '2 M HNO3' --vial-tare '5.1234 g' "
+    "--vial-gross '6.1234 g'. " + SAFETY
 )
 
 
+@app.command("dissolve", epilog=DISSOLVE_EPILOG)
 def dissolve(
     ctx: typer.Context,
     powder: Annotated[str, typer.Argument(help="Powder ID.")],
@@ -115,12 +167,13 @@ def dissolve(
     )
 
 
-DISSOLVE_EPILOG = (
-    "Example: tracker dissolve PW-00001-5 --acid '2 M HNO3' --vial-tare '5.1234 g' "
-    "--vial-gross '6.1234 g'. " + SAFETY
+CONCENTRATION_EPILOG = (
+    "Example: tracker concentration SO-00001-M --element Ca "
+    "--value '812 ug/g' --rel-u 2 --method ICP-OES"
 )
 
 
+@app.command("concentration", epilog=CONCENTRATION_EPILOG)
 def concentration(
     ctx: typer.Context,
     solution: Annotated[str, typer.Argument(help="Solution ID.")],
@@ -154,12 +207,10 @@ def concentration(
     )
 
 
-CONCENTRATION_EPILOG = (
-    "Example: tracker concentration SO-00001-M --element Ca "
-    "--value '812 ug/g' --rel-u 2 --method ICP-OES"
-)
+ALIQUOT_EPILOG = "Example: tracker aliquot SO-00001-M --tare '2.0000 g' --gross '2.1000 g'"
 
 
+@app.command("aliquot", epilog=ALIQUOT_EPILOG)
 def aliquot(
     ctx: typer.Context,
     solution: Annotated[str, typer.Argument(help="Solution ID.")],
@@ -188,23 +239,14 @@ def aliquot(
     emit(ctx, answer, lambda: done(answer, f"{item.id} {item.mass_g:.4f} g{amount}"))
 
 
-ALIQUOT_EPILOG = "Example: tracker aliquot SO-00001-M --tare '2.0000 g' --gross '2.1000 g'"
+DISPOSE_EPILOG = (
+    "Example: tracker dispose PW-00003-1 --outcome returned "
+    "--reason 'unused powder returned with the specimen' "
+    "--residual-tare '512.004 mg' --residual-gross '513.022 mg'"
+)
 
 
-def move(
-    ctx: typer.Context,
-    item: Annotated[str, typer.Argument(help="Specimen or vial ID (typed or scanned).")],
-    to: Annotated[str, Opt("--to", help="Destination location ID.")],
-    note: Annotated[str | None, Opt("--note", help="Why.")] = None,
-) -> None:
-    """Move a specimen or vial to another location."""
-    answer = perform(ctx, custody.move, {"item": item, "to": to, "note": note})
-    emit(ctx, answer, lambda: done(answer, f"{answer.item.id} → {answer.item.location}"))
-
-
-MOVE_EPILOG = "Example: tracker move PW-00001-5 --to LC-00007-3"
-
-
+@app.command("dispose", epilog=DISPOSE_EPILOG)
 def dispose(
     ctx: typer.Context,
     item: Annotated[str, typer.Argument(help="Powder, solution, aliquot or cut ID.")],
@@ -239,90 +281,3 @@ def dispose(
     }
     answer = perform(ctx, custody.dispose, request)
     emit(ctx, answer, lambda: done(answer, f"{answer.item.id} {answer.item.status}"))
-
-
-DISPOSE_EPILOG = (
-    "Example: tracker dispose PW-00003-1 --outcome returned "
-    "--reason 'unused powder returned with the specimen' "
-    "--residual-tare '512.004 mg' --residual-gross '513.022 mg'"
-)
-
-
-@reference_app.command(
-    "add",
-    epilog="Example: tracker reference add 'SRM 915b' --element Ca --matrix 'calcium carbonate'",
-)
-def reference_add(
-    ctx: typer.Context,
-    name: Annotated[str, typer.Argument(help="Name as the lab writes it.")],
-    element: Annotated[str, Opt("--element", help="Element symbol.")],
-    matrix: Annotated[str | None, Opt("--matrix", help="Matrix, e.g. carbonate.")] = None,
-) -> None:
-    """Register a reference material or bracketing standard."""
-    request = {"name": name, "element": element, "matrix": matrix}
-    answer = perform(ctx, chemistry.add_reference_material, request)
-    emit(ctx, answer, lambda: done(answer, f"{answer.item.id} {name}"))
-
-
-@batch_app.command(
-    "create",
-    epilog="Example: tracker batch create --name 'Ca 2026-11 A' "
-    "--date 2026-11-20 --element Ca --resin 'DGA, 100-150 um' "
-    "--scheme 'load 3 M HNO3; matrix off; Ca in 0.05 M HNO3' --cuts matrix,Ca",
-)
-def batch_create(
-    ctx: typer.Context,
-    name: Annotated[str, Opt("--name", help="Batch name.")],
-    date: Annotated[datetime, Opt("--date", formats=["%Y-%m-%d"], help="Day of the run.")],
-    element: Annotated[str, Opt("--element", help="Element separated.")],
-    resin: Annotated[str, Opt("--resin", help="Resin and mesh.")],
-    scheme: Annotated[str, Opt("--scheme", help="Elution scheme, free text.")],
-    cuts: Annotated[str, Opt("--cuts", help="Named cuts, comma-separated.")],
-) -> None:
-    """Open a column batch."""
-    request = {
-        "name": name,
-        "performed_on": date.date(),
-        "element": element,
-        "resin": resin,
-        "elution_scheme": scheme,
-        "cut_names": cuts,
-    }
-    answer = perform(ctx, chemistry.create_batch, request)
-    emit(ctx, answer, lambda: done(answer, f"{answer.item.id} {name}"))
-
-
-@batch_app.command("add", epilog="Example: tracker batch add CB-00001-G --sample AQ-00001-F")
-def batch_add(
-    ctx: typer.Context,
-    batch: Annotated[str, typer.Argument(help="Batch ID.")],
-    sample: Annotated[str | None, Opt("--sample", help="Aliquot ID to load.")] = None,
-    blank: Annotated[bool, Opt("--blank", help="Add a procedural blank.")] = False,
-    reference: Annotated[
-        str | None, Opt("--reference", help="Reference material name or ID.")
-    ] = None,
-    loaded: Annotated[
-        float | None, Opt("--loaded-ug", help="Element loaded (reference), µg.")
-    ] = None,
-) -> None:
-    """Add the next column: a sample aliquot, a procedural blank or a reference material."""
-    kind = (
-        PositionKind.SAMPLE
-        if sample
-        else PositionKind.REFERENCE
-        if reference
-        else PositionKind.BLANK
-        if blank
-        else None
-    )
-    if kind is None:
-        raise typer.BadParameter("give one of --sample, --blank or --reference")
-    request = {
-        "batch": batch,
-        "kind": kind,
-        "aliquot": sample,
-        "reference_material": reference,
-        "loaded_ug": loaded,
-    }
-    answer = perform(ctx, chemistry.add_position, request)
-    emit(ctx, answer, lambda: done(answer, f"{answer.item.id} column {answer.item.slot}"))
