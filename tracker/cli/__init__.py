@@ -11,7 +11,7 @@ import typer
 
 from tracker import __version__
 from tracker.cli.groups import inspecting
-from tracker.cli.state import State, TrackerGroup
+from tracker.cli.state import CommandGroup, State, TrackerGroup
 
 app = typer.Typer(
     cls=TrackerGroup,
@@ -91,7 +91,7 @@ COMMANDS: tuple[tuple[str | None, str], ...] = (
 def _register() -> None:
     for name, module in COMMANDS:
         group = importlib.import_module(f"tracker.cli.groups.{module}").app
-        app.add_typer(group, name=name)
+        app.add_typer(group, name=name, cls=CommandGroup)
 
 
 _register()

@@ -33,18 +33,18 @@ PLAN_EPILOG = "Example: tracker plan KF-2026-014 --ug 2 --replicates 4 --yield 0
 def plan(
     ctx: typer.Context,
     target: Annotated[str, typer.Argument(help="Specimen ID, or loan ID or reference.")],
-    ug: Annotated[float, Opt("--ug", help="Element per analysis, µg.")],
+    ug_per_analysis: Annotated[float, Opt("--ug", help="Element per analysis, µg.")],
     replicates: Annotated[int, Opt("--replicates", help="Analyses per specimen.")] = 1,
     element: Annotated[str, Opt("--element", help="Element analysed.")] = "Ca",
-    column_yield: Annotated[float, Opt("--yield", help="Expected column yield, 0-1.")] = 0.95,
+    expected_yield: Annotated[float, Opt("--yield", help="Expected column yield, 0-1.")] = 0.95,
     material: Annotated[str | None, Opt("--material", help="Default: from the tissue.")] = None,
     tissue: Annotated[str | None, Opt("--tissue", help="Default: the loan's first tissue.")] = None,
-    margin: Annotated[float, Opt("--margin", help="Safety margin, %.")] = 20.0,
+    margin_percent: Annotated[float, Opt("--margin", help="Safety margin, %.")] = 20.0,
     aliquot_share: Annotated[
         float,
         Opt("--aliquot-share", help="Share of each solution for concentration and archive, 0-1."),
     ] = 0.10,
-    min_powder: Annotated[
+    min_powder_mg: Annotated[
         float, Opt("--min-powder", help="Smallest powder worth drilling, mg.")
     ] = 0.5,
 ) -> None:
@@ -53,15 +53,15 @@ def plan(
         "target": target,
         "material": material,
         "tissue": tissue,
-        "margin_percent": margin,
+        "margin_percent": margin_percent,
         "aliquot_share": aliquot_share,
-        "min_powder_mg": min_powder,
+        "min_powder_mg": min_powder_mg,
         "analyses": [
             {
                 "element": element,
-                "ug_per_analysis": ug,
+                "ug_per_analysis": ug_per_analysis,
                 "replicates": replicates,
-                "expected_yield": column_yield,
+                "expected_yield": expected_yield,
             }
         ],
     }
@@ -87,7 +87,7 @@ def reconcile_command(
     """
     with database(ctx) as db, progress_bar(ctx, "auditing the books") as progress:
         checked = audit_loan(db, loan) if loan else audit.audit(db, progress)
-        where = ("--loan", loan) if loan else ("--db", db.url)
+        where = ("loan", loan) if loan else ("database", db.url)
         found = checked.vouch(*where, despite=despite)
         lines = reconcile.reconcile(db, loan)
     said = [_verdicts(checked), *(f"  {d.said}" for d in found)]
@@ -137,7 +137,7 @@ def _write_plot(db: Any, rows: Any, ratio: str, plot: Path, force: bool) -> None
     try:
         picture = delta_vs_age_png(rows, ratio)
     except ValueError as error:
-        raise InputError("--ratio", ratio, str(error)) from None
+        raise InputError("ratio", ratio, str(error)) from None
     written = outputs.write_new(
         plot, picture, "--plot", force=force, database=db.path, clock=db.clock
     )

@@ -6,6 +6,7 @@ from typing import Annotated
 
 import typer
 
+from tracker.cli.fields import Fills
 from tracker.cli.render import done
 from tracker.cli.render_lab import batch_table
 from tracker.cli.state import database, emit, perform, read_upload
@@ -31,20 +32,20 @@ app = typer.Typer(
 def batch_create(
     ctx: typer.Context,
     name: Annotated[str, Opt("--name", help="Batch name.")],
-    date: Annotated[datetime, Opt("--date", formats=["%Y-%m-%d"], help="Day of the run.")],
+    performed_on: Annotated[datetime, Opt("--date", formats=["%Y-%m-%d"], help="Day of the run.")],
     element: Annotated[str, Opt("--element", help="Element separated.")],
     resin: Annotated[str, Opt("--resin", help="Resin and mesh.")],
-    scheme: Annotated[str, Opt("--scheme", help="Elution scheme, free text.")],
-    cuts: Annotated[str, Opt("--cuts", help="Named cuts, comma-separated.")],
+    elution_scheme: Annotated[str, Opt("--scheme", help="Elution scheme, free text.")],
+    cut_names: Annotated[str, Opt("--cuts", help="Named cuts, comma-separated.")],
 ) -> None:
     """Open a column batch."""
     request = {
         "name": name,
-        "performed_on": date.date(),
+        "performed_on": performed_on.date(),
         "element": element,
         "resin": resin,
-        "elution_scheme": scheme,
-        "cut_names": cuts,
+        "elution_scheme": elution_scheme,
+        "cut_names": cut_names,
     }
     answer = perform(ctx, chemistry.create_batch, request)
     emit(ctx, answer, lambda: done(answer, f"{answer.item.id} {name}"))
@@ -54,21 +55,21 @@ def batch_create(
 def batch_add(
     ctx: typer.Context,
     batch: Annotated[str, typer.Argument(help="Batch ID.")],
-    sample: Annotated[str | None, Opt("--sample", help="Aliquot ID to load.")] = None,
-    blank: Annotated[bool, Opt("--blank", help="Add a procedural blank.")] = False,
-    reference: Annotated[
+    aliquot: Annotated[str | None, Opt("--sample", help="Aliquot ID to load.")] = None,
+    blank: Annotated[bool, Opt("--blank", help="Add a procedural blank."), Fills("kind")] = False,
+    reference_material: Annotated[
         str | None, Opt("--reference", help="Reference material name or ID.")
     ] = None,
-    loaded: Annotated[
+    loaded_ug: Annotated[
         float | None, Opt("--loaded-ug", help="Element loaded (reference), µg.")
     ] = None,
 ) -> None:
     """Add the next column: a sample aliquot, a procedural blank or a reference material."""
     kind = (
         PositionKind.SAMPLE
-        if sample
+        if aliquot
         else PositionKind.REFERENCE
-        if reference
+        if reference_material
         else PositionKind.BLANK
         if blank
         else None
@@ -78,9 +79,9 @@ def batch_add(
     request = {
         "batch": batch,
         "kind": kind,
-        "aliquot": sample,
-        "reference_material": reference,
-        "loaded_ug": loaded,
+        "aliquot": aliquot,
+        "reference_material": reference_material,
+        "loaded_ug": loaded_ug,
     }
     answer = perform(ctx, chemistry.add_position, request)
     emit(ctx, answer, lambda: done(answer, f"{answer.item.id} column {answer.item.slot}"))
@@ -97,18 +98,22 @@ def batch_cut(
     recovered: Annotated[
         str | None, Opt("--recovered", help="Element recovered, e.g. '9.87 ug'.")
     ] = None,
-    u: Annotated[str | None, Opt("--u", help="Its standard uncertainty, with unit.")] = None,
-    rel_u: Annotated[float | None, Opt("--rel-u", help="Or relative uncertainty, %.")] = None,
-    to: Annotated[str | None, Opt("--to", help="Location of the cut's vial.")] = None,
+    uncertainty: Annotated[
+        str | None, Opt("--u", help="Its standard uncertainty, with unit.")
+    ] = None,
+    relative_uncertainty_percent: Annotated[
+        float | None, Opt("--rel-u", help="Or relative uncertainty, %.")
+    ] = None,
+    location: Annotated[str | None, Opt("--to", help="Location of the cut's vial.")] = None,
 ) -> None:
     """Record a collected cut of a column and what element it recovered."""
     request = {
         "position": position,
         "cut": cut,
         "recovered": recovered,
-        "uncertainty": u,
-        "relative_uncertainty_percent": rel_u,
-        "location": to,
+        "uncertainty": uncertainty,
+        "relative_uncertainty_percent": relative_uncertainty_percent,
+        "location": location,
     }
     answer = perform(ctx, columns.record_cut, request)
     item = answer.item
@@ -134,7 +139,11 @@ BATCH_SHEET_EPILOG = "Example: tracker batch sheet CB-00001-G columns-2026-11-20
 def batch_sheet(
     ctx: typer.Context,
     batch: Annotated[str, typer.Argument(help="Batch ID (CB-...).")],
-    file: Annotated[Path, typer.Argument(help="Sheet: CSV, TSV or XLSX, one row per column.")],
+    file: Annotated[
+        Path,
+        typer.Argument(help="Sheet: CSV, TSV or XLSX, one row per column."),
+        Fills("content", "filename"),
+    ],
 ) -> None:
     """Enter a batch's columns and cuts from a sheet, all at once; safe to repeat.
 
@@ -164,10 +173,10 @@ def batch_blank_delta(
     ctx: typer.Context,
     batch: Annotated[str, typer.Argument(help="Batch ID.")],
     ratio: Annotated[str, Opt("--ratio", help="e.g. 44/40.")],
-    delta: Annotated[float, Opt("--delta", help="The blank's δ, ‰, on the session scale.")],
+    delta_permil: Annotated[float, Opt("--delta", help="The blank's δ, ‰, on the session scale.")],
 ) -> None:
     """Record the procedural blank's δ so results get the blank mixing correction."""
     answer = perform(
-        ctx, columns.set_blank_delta, {"batch": batch, "ratio": ratio, "delta_permil": delta}
+        ctx, columns.set_blank_delta, {"batch": batch, "ratio": ratio, "delta_permil": delta_permil}
     )
-    emit(ctx, answer, lambda: done(answer, f"blank δ{ratio} = {delta:+.3f} ‰ for {batch}"))
+    emit(ctx, answer, lambda: done(answer, f"blank δ{ratio} = {delta_permil:+.3f} ‰ for {batch}"))

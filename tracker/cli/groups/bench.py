@@ -27,11 +27,18 @@ def checkin(
     ctx: typer.Context,
     specimen: Annotated[str, typer.Argument(help="Specimen ID (typed or scanned).")],
     condition: Annotated[str, Opt("--condition", help="Condition on receipt.")],
-    to: Annotated[str | None, Opt("--to", help="Location ID where it is put.")] = None,
-    at: Annotated[str | None, Opt("--at", help="When it arrived, ISO 8601 with zone.")] = None,
+    location: Annotated[str | None, Opt("--to", help="Location ID where it is put.")] = None,
+    received_at: Annotated[
+        str | None, Opt("--at", help="When it arrived, ISO 8601 with zone.")
+    ] = None,
 ) -> None:
     """Receive a listed specimen: note its condition and where it goes."""
-    request = {"specimen": specimen, "condition": condition, "location": to, "received_at": at}
+    request = {
+        "specimen": specimen,
+        "condition": condition,
+        "location": location,
+        "received_at": received_at,
+    }
     answer = perform(ctx, specimens.check_in, request)
     emit(ctx, answer, lambda: done(answer, f"{answer.item.id} checked in"))
 
@@ -94,11 +101,11 @@ def drill(
     material: Annotated[
         str | None, Opt("--material", help="e.g. calcite; default follows the tissue.")
     ] = None,
-    override: Annotated[
+    override_reason: Annotated[
         str | None, Opt("--override", help="Manager only: the written reason to exceed a limit.")
     ] = None,
-    at: At = None,
-    to: To = None,
+    drilled_at: At = None,
+    location: To = None,
 ) -> None:
     """Drill powder from a specimen within the loan's terms; mass by difference with its u."""
     request = {
@@ -109,9 +116,9 @@ def drill(
         "readability": readability,
         "site": site,
         "material": material,
-        "override_reason": override,
-        "drilled_at": at,
-        "location": to,
+        "override_reason": override_reason,
+        "drilled_at": drilled_at,
+        "location": location,
     }
     answer = perform(ctx, drilling.drill, request)
     item = answer.item
@@ -141,8 +148,8 @@ def dissolve(
     powder_taken: Annotated[
         str | None, Opt("--powder-taken", help="Weighed portion; default all that remains.")
     ] = None,
-    at: At = None,
-    to: To = None,
+    dissolved_at: At = None,
+    location: To = None,
 ) -> None:
     """Dissolve all or part of a powder; the solution mass is weighed by difference."""
     request = {
@@ -152,8 +159,8 @@ def dissolve(
         "vial_gross": vial_gross,
         "readability": readability,
         "powder_taken": powder_taken,
-        "dissolved_at": at,
-        "location": to,
+        "dissolved_at": dissolved_at,
+        "location": location,
     }
     answer = perform(ctx, solutions.dissolve, request)
     item = answer.item
@@ -179,20 +186,22 @@ def concentration(
     solution: Annotated[str, typer.Argument(help="Solution ID.")],
     element: Annotated[str, Opt("--element", help="Element symbol, e.g. Ca.")],
     value: Annotated[str, Opt("--value", help="Mass fraction with unit, e.g. '812 ug/g'.")],
-    u: Annotated[str | None, Opt("--u", help="Standard uncertainty with unit.")] = None,
-    rel_u: Annotated[float | None, Opt("--rel-u", help="Or relative uncertainty, %.")] = None,
+    uncertainty: Annotated[str | None, Opt("--u", help="Standard uncertainty with unit.")] = None,
+    relative_uncertainty_percent: Annotated[
+        float | None, Opt("--rel-u", help="Or relative uncertainty, %.")
+    ] = None,
     method: Annotated[str | None, Opt("--method", help="e.g. ICP-OES.")] = None,
-    at: At = None,
+    measured_at: At = None,
 ) -> None:
     """Record an element concentration measured in a solution."""
     request = {
         "solution": solution,
         "element": element,
         "value": value,
-        "uncertainty": u,
-        "relative_uncertainty_percent": rel_u,
+        "uncertainty": uncertainty,
+        "relative_uncertainty_percent": relative_uncertainty_percent,
         "method": method,
-        "measured_at": at,
+        "measured_at": measured_at,
     }
     answer = perform(ctx, solutions.record_concentration, request)
     item = answer.item
@@ -220,8 +229,8 @@ def aliquot(
     purpose: Annotated[
         AliquotPurpose, Opt("--purpose", help="What it is for.")
     ] = AliquotPurpose.ISOTOPES,
-    at: At = None,
-    to: To = None,
+    taken_at: At = None,
+    location: To = None,
 ) -> None:
     """Weigh out an aliquot of a solution."""
     request = {
@@ -230,8 +239,8 @@ def aliquot(
         "gross": gross,
         "readability": readability,
         "purpose": purpose,
-        "taken_at": at,
-        "location": to,
+        "taken_at": taken_at,
+        "location": location,
     }
     answer = perform(ctx, solutions.take_aliquot, request)
     item = answer.item

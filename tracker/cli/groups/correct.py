@@ -61,14 +61,14 @@ def weighing(
 def powder_taken(
     ctx: typer.Context,
     solution: Annotated[str, typer.Argument(help="Solution ID.")],
-    mass: Annotated[str, Opt("--mass", help="Powder that went into it, with unit.")],
+    powder_taken: Annotated[str, Opt("--mass", help="Powder that went into it, with unit.")],
     reason: Reason,
     readability: Annotated[str, Opt("--readability", help="Balance readability.")] = "0.001 mg",
 ) -> None:
     """Correct how much powder went into a solution."""
     request = {
         "solution": solution,
-        "powder_taken": mass,
+        "powder_taken": powder_taken,
         "readability": readability,
         "reason": reason,
     }
@@ -86,8 +86,10 @@ def concentration(
     element: Annotated[str, Opt("--element", help="Element whose value is wrong.")],
     value: Annotated[str, Opt("--value", help="The right mass fraction, with unit.")],
     reason: Reason,
-    u: Annotated[str | None, Opt("--u", help="Standard uncertainty with unit.")] = None,
-    rel_u: Annotated[float | None, Opt("--rel-u", help="Or relative uncertainty, %.")] = None,
+    uncertainty: Annotated[str | None, Opt("--u", help="Standard uncertainty with unit.")] = None,
+    relative_uncertainty_percent: Annotated[
+        float | None, Opt("--rel-u", help="Or relative uncertainty, %.")
+    ] = None,
     method: Annotated[str | None, Opt("--method", help="Default: as recorded.")] = None,
 ) -> None:
     """Correct the concentration in force; aliquot loads and reduced results follow."""
@@ -95,8 +97,8 @@ def concentration(
         "solution": solution,
         "element": element,
         "value": value,
-        "uncertainty": u,
-        "relative_uncertainty_percent": rel_u,
+        "uncertainty": uncertainty,
+        "relative_uncertainty_percent": relative_uncertainty_percent,
         "method": method,
         "reason": reason,
     }
@@ -113,15 +115,17 @@ def recovery(
     cut: Annotated[str, typer.Argument(help="Cut ID.")],
     recovered: Annotated[str, Opt("--recovered", help="Element recovered, with unit.")],
     reason: Reason,
-    u: Annotated[str | None, Opt("--u", help="Standard uncertainty with unit.")] = None,
-    rel_u: Annotated[float | None, Opt("--rel-u", help="Or relative uncertainty, %.")] = None,
+    uncertainty: Annotated[str | None, Opt("--u", help="Standard uncertainty with unit.")] = None,
+    relative_uncertainty_percent: Annotated[
+        float | None, Opt("--rel-u", help="Or relative uncertainty, %.")
+    ] = None,
 ) -> None:
     """Correct a cut's recovered element; yields, blank shares and results follow."""
     request = {
         "cut": cut,
         "recovered": recovered,
-        "uncertainty": u,
-        "relative_uncertainty_percent": rel_u,
+        "uncertainty": uncertainty,
+        "relative_uncertainty_percent": relative_uncertainty_percent,
         "reason": reason,
     }
     _answer(ctx, perform(ctx, measured_values.correct_recovery, request))

@@ -5,6 +5,7 @@ from typing import Annotated
 
 import typer
 
+from tracker.cli.fields import Fills
 from tracker.cli.render import done
 from tracker.cli.state import emit, perform, read_upload
 from tracker.services.instrument import screening
@@ -22,7 +23,11 @@ app = typer.Typer(
 def curve_add(
     ctx: typer.Context,
     name: Annotated[str, typer.Argument(help="Name of the curve.")],
-    file: Annotated[Path, typer.Argument(help="CSV: age_ma, 87sr/86sr, u; sorted by age.")],
+    file: Annotated[
+        Path,
+        typer.Argument(help="CSV: age_ma, 87sr/86sr, u; sorted by age."),
+        Fills("content", "filename"),
+    ],
     note: Annotated[str | None, Opt("--note", help="Where the curve comes from.")] = None,
 ) -> None:
     """Store a ⁸⁷Sr/⁸⁶Sr reference curve for age screening."""

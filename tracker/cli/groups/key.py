@@ -9,7 +9,6 @@ from rich.table import Table
 from tracker.cli.out_options import Force, kept_note
 from tracker.cli.render import done, plain_table
 from tracker.cli.state import (
-    cli_fields,
     database,
     emit,
     passphrase,
@@ -49,10 +48,9 @@ def key_new(
     code = state(ctx).actor
     if not code:
         raise InputError("--as", None, "say whose key this is: pass --as YOUR-CODE")
-    with cli_fields(ctx):
-        made = keys.make_key(code, passphrase(f"your new key ({code})", new=True))
-        target = out or Path.cwd() / f"{code}-{made.key_id}.pub"
-        written = outputs.write_new(target, public_pem(made.public_hex), "out", force=force)
+    made = keys.make_key(code, passphrase(f"your new key ({code})", new=True))
+    target = out or Path.cwd() / f"{code}-{made.key_id}.pub"
+    written = outputs.write_new(target, public_pem(made.public_hex), "out", force=force)
     answer = {
         "operator": code,
         "key_id": made.key_id,
@@ -87,12 +85,11 @@ def key_register(
     from tracker.domain.signing import key_id
     from tracker.services.admin import keys
 
-    upload = read_upload(public_key_file, "PUBLIC_KEY_FILE", limit=64 * 1024)
+    upload = read_upload(public_key_file, "public key file", limit=64 * 1024)
     assert upload is not None
-    with cli_fields(ctx):
-        public_hex = keys.public_key_from(upload["content"], "PUBLIC_KEY_FILE")
+    public_hex = keys.public_key_from(upload["content"], "public key file")
     request = {"operator": operator, "public_key": public_hex}
-    with writing(ctx, first_key=key_id(public_hex)) as db, cli_fields(ctx):
+    with writing(ctx, first_key=key_id(public_hex)) as db:
         answer = keys.register_key(db, state(ctx).actor, request)
     emit(ctx, answer, lambda: done(answer, f"key {answer.item.key_id} registered for {operator}"))
 

@@ -13,7 +13,7 @@ from rich.text import Text
 
 from tracker.cli.out_options import Force, kept_note
 from tracker.cli.render import done, plain_table
-from tracker.cli.state import cli_fields, database, emit, perform, state, writing
+from tracker.cli.state import database, emit, perform, state, writing
 from tracker.domain.text_rules import visible
 from tracker.services.labels import handling
 
@@ -222,28 +222,27 @@ def stocks_command(ctx: typer.Context, stocks: StocksFile = None) -> None:
     from tracker.domain.errors import InputError
     from tracker.output.stocks import entries, validate
 
-    with cli_fields(ctx):
-        rows: list[dict[str, Any]] = []
-        for name, entry in sorted(entries(stocks).items()):
-            try:
-                stock = validate(entry)
-            except InputError as problem:
-                rows.append(
-                    {"name": name, "source": entry.source, "ok": False, "problem": problem.reason}
-                )
-                continue
+    rows: list[dict[str, Any]] = []
+    for name, entry in sorted(entries(stocks).items()):
+        try:
+            stock = validate(entry)
+        except InputError as problem:
             rows.append(
-                {
-                    "name": name,
-                    "source": entry.source,
-                    "ok": True,
-                    "problem": None,
-                    "label_mm": [stock.label_width_mm, stock.label_height_mm],
-                    "grid": [stock.columns, stock.rows],
-                    "page_mm": [stock.page_width_mm, stock.page_height_mm],
-                    "description": stock.description,
-                }
+                {"name": name, "source": entry.source, "ok": False, "problem": problem.reason}
             )
+            continue
+        rows.append(
+            {
+                "name": name,
+                "source": entry.source,
+                "ok": True,
+                "problem": None,
+                "label_mm": [stock.label_width_mm, stock.label_height_mm],
+                "grid": [stock.columns, stock.rows],
+                "page_mm": [stock.page_width_mm, stock.page_height_mm],
+                "description": stock.description,
+            }
+        )
 
     def table() -> Table:
         t = plain_table("stock", "label", "per page", "page", "for")

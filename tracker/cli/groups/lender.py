@@ -22,16 +22,18 @@ app = typer.Typer(
 def lender_add(
     ctx: typer.Context,
     name: Annotated[str, typer.Argument(help="The institution's name.")],
-    code: Annotated[str | None, Opt("--code", help="Darwin Core institutionCode.")] = None,
-    contact: Annotated[str | None, Opt("--contact", help="Contact person.")] = None,
-    email: Annotated[str | None, Opt("--email", help="Contact e-mail.")] = None,
+    institution_code: Annotated[
+        str | None, Opt("--code", help="Darwin Core institutionCode.")
+    ] = None,
+    contact_name: Annotated[str | None, Opt("--contact", help="Contact person.")] = None,
+    contact_email: Annotated[str | None, Opt("--email", help="Contact e-mail.")] = None,
 ) -> None:
     """Register a lending institution."""
     request = {
         "name": name,
-        "institution_code": code,
-        "contact_name": contact,
-        "contact_email": email,
+        "institution_code": institution_code,
+        "contact_name": contact_name,
+        "contact_email": contact_email,
     }
     answer = perform(ctx, lending.add_lender, request)
     emit(ctx, answer, lambda: done(answer, f"{answer.item.id} {name}"))

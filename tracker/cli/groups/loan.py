@@ -35,22 +35,24 @@ def loan_add(
     reference: Annotated[str, Opt("--reference", help="The lender's loan number.")],
     title: Annotated[str, Opt("--title", help="What the loan is for.")],
     borrower: Annotated[str, Opt("--borrower", help="Responsible scientist.")],
-    tissues: Annotated[str, Opt("--tissues", help="Permitted tissues, comma-separated.")],
-    due: Annotated[datetime, Opt("--due", formats=["%Y-%m-%d"], help="Due date.")],
-    received: Annotated[
+    permitted_tissues: Annotated[str, Opt("--tissues", help="Permitted tissues, comma-separated.")],
+    due_on: Annotated[datetime, Opt("--due", formats=["%Y-%m-%d"], help="Due date.")],
+    received_on: Annotated[
         datetime | None, Opt("--received", formats=["%Y-%m-%d"], help="Date received.")
     ] = None,
-    max_per_specimen: Annotated[
+    max_mass_per_specimen: Annotated[
         str | None, Opt("--max-per-specimen", help="Mass limit per specimen, e.g. '3 mg'.")
     ] = None,
-    max_total: Annotated[str | None, Opt("--max-total", help="Mass limit for the loan.")] = None,
-    max_specimens: Annotated[
+    max_total_mass: Annotated[
+        str | None, Opt("--max-total", help="Mass limit for the loan.")
+    ] = None,
+    max_specimens_sampled: Annotated[
         int | None, Opt("--max-specimens", help="How many specimens may be sampled.")
     ] = None,
-    powder: Annotated[
+    powder_disposition: Annotated[
         Disposition, Opt("--powder", help="Unused powder: return, destroy or retain.")
     ] = Disposition.RETURN,
-    solutions: Annotated[
+    solution_disposition: Annotated[
         Disposition, Opt("--solutions", help="Residual solutions.")
     ] = Disposition.DESTROY,
 ) -> None:
@@ -60,15 +62,15 @@ def loan_add(
         "reference": reference,
         "title": title,
         "borrower": borrower,
-        "received_on": received.date() if received else None,
+        "received_on": received_on.date() if received_on else None,
         "terms": {
-            "permitted_tissues": tissues,
-            "max_mass_per_specimen": max_per_specimen,
-            "max_total_mass": max_total,
-            "max_specimens_sampled": max_specimens,
-            "due_on": due.date(),
-            "powder_disposition": powder,
-            "solution_disposition": solutions,
+            "permitted_tissues": permitted_tissues,
+            "max_mass_per_specimen": max_mass_per_specimen,
+            "max_total_mass": max_total_mass,
+            "max_specimens_sampled": max_specimens_sampled,
+            "due_on": due_on.date(),
+            "powder_disposition": powder_disposition,
+            "solution_disposition": solution_disposition,
         },
     }
     answer = perform(ctx, lending.add_loan, request)
@@ -101,11 +103,15 @@ def loan_list(ctx: typer.Context) -> None:
 def loan_mark_returned(
     ctx: typer.Context,
     loan: Annotated[str, typer.Argument(help="Loan ID or reference.")],
-    on: Annotated[datetime | None, Opt("--on", formats=["%Y-%m-%d"], help="Return date.")] = None,
+    returned_on: Annotated[
+        datetime | None, Opt("--on", formats=["%Y-%m-%d"], help="Return date.")
+    ] = None,
 ) -> None:
     """Mark a loan's material as returned once every specimen and powder is dealt with."""
     answer = perform(
-        ctx, custody.mark_loan_returned, {"loan": loan, "returned_on": on.date() if on else None}
+        ctx,
+        custody.mark_loan_returned,
+        {"loan": loan, "returned_on": returned_on.date() if returned_on else None},
     )
     emit(ctx, answer, lambda: done(answer, f"{answer.item.reference} returned"))
 
@@ -136,39 +142,47 @@ def amend(
     ctx: typer.Context,
     loan: Annotated[str, typer.Argument(help="Loan ID or reference.")],
     kind: Annotated[TermsKind, Opt("--kind", help="extension, allowance, specimens or other.")],
-    effective: Annotated[
+    effective_from: Annotated[
         datetime, Opt("--effective", formats=["%Y-%m-%d"], help="Day the new terms take effect.")
     ],
     reason: Annotated[str, Opt("--reason", help="What the lender agreed and why.")],
     document: Annotated[
         Path | None, Opt("--document", help="The letter or e-mail, kept by SHA-256.")
     ] = None,
-    due: Annotated[
+    due_on: Annotated[
         datetime | None, Opt("--due", formats=["%Y-%m-%d"], help="New due date.")
     ] = None,
-    tissues: Annotated[str | None, Opt("--tissues", help="New permitted tissues.")] = None,
-    max_per_specimen: Annotated[
+    permitted_tissues: Annotated[
+        str | None, Opt("--tissues", help="New permitted tissues.")
+    ] = None,
+    max_mass_per_specimen: Annotated[
         str | None, Opt("--max-per-specimen", help="New per-specimen limit, e.g. '4 mg'.")
     ] = None,
-    max_total: Annotated[str | None, Opt("--max-total", help="New loan total.")] = None,
-    max_specimens: Annotated[int | None, Opt("--max-specimens", help="New specimen count.")] = None,
-    powder: Annotated[Disposition | None, Opt("--powder", help="Unused powder.")] = None,
-    solutions: Annotated[Disposition | None, Opt("--solutions", help="Residual solutions.")] = None,
+    max_total_mass: Annotated[str | None, Opt("--max-total", help="New loan total.")] = None,
+    max_specimens_sampled: Annotated[
+        int | None, Opt("--max-specimens", help="New specimen count.")
+    ] = None,
+    powder_disposition: Annotated[
+        Disposition | None, Opt("--powder", help="Unused powder.")
+    ] = None,
+    solution_disposition: Annotated[
+        Disposition | None, Opt("--solutions", help="Residual solutions.")
+    ] = None,
 ) -> None:
     """Record an amendment to a loan's terms (managers only); it applies from --effective on."""
     request = {
         "loan": loan,
         "kind": kind,
-        "effective_from": effective.date(),
+        "effective_from": effective_from.date(),
         "reason": reason,
-        "document": read_upload(document, "--document"),
-        "due_on": due.date() if due else None,
-        "permitted_tissues": tissues,
-        "max_mass_per_specimen": max_per_specimen,
-        "max_total_mass": max_total,
-        "max_specimens_sampled": max_specimens,
-        "powder_disposition": powder,
-        "solution_disposition": solutions,
+        "document": read_upload(document, "document"),
+        "due_on": due_on.date() if due_on else None,
+        "permitted_tissues": permitted_tissues,
+        "max_mass_per_specimen": max_mass_per_specimen,
+        "max_total_mass": max_total_mass,
+        "max_specimens_sampled": max_specimens_sampled,
+        "powder_disposition": powder_disposition,
+        "solution_disposition": solution_disposition,
     }
     answer = perform(ctx, amendments.amend_loan, request)
     emit(
@@ -185,13 +199,13 @@ ATTACH_EPILOG = "Example: tracker loan attach KF-2026-014 agreement.pdf --role a
 def attach(
     ctx: typer.Context,
     loan: Annotated[str, typer.Argument(help="Loan ID or reference.")],
-    file: Annotated[Path, typer.Argument(help="The file to keep.")],
+    document: Annotated[Path, typer.Argument(help="The file to keep.", metavar="file")],
     role: Annotated[
         str, Opt("--role", help="agreement, amendment, correspondence, photo, other.")
     ] = "agreement",
 ) -> None:
     """Keep a loan document (agreement, letter, photo), identified by its SHA-256."""
-    request = {"loan": loan, "role": role, "document": read_upload(file, "FILE")}
+    request = {"loan": loan, "role": role, "document": read_upload(document, "document")}
     answer = perform(ctx, amendments.attach_document, request)
     emit(ctx, answer, lambda: done(answer, f"{answer.item.filename} sha256 {answer.item.sha256}"))
 

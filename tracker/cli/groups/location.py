@@ -26,10 +26,10 @@ def location_add(
     ctx: typer.Context,
     kind: Annotated[LocationKind, typer.Argument(help="What kind of place.")],
     name: Annotated[str, typer.Argument(help="Its name, e.g. 'Box 7' or '2.14'.")],
-    inside: Annotated[str | None, typer.Option("--in", help="The enclosing location's ID.")] = None,
+    parent: Annotated[str | None, typer.Option("--in", help="The enclosing location's ID.")] = None,
 ) -> None:
     """Add a place to the location tree."""
-    answer = perform(ctx, setup.add_location, {"kind": kind, "name": name, "parent": inside})
+    answer = perform(ctx, setup.add_location, {"kind": kind, "name": name, "parent": parent})
     emit(ctx, answer, lambda: done(answer, f"{answer.item.id} {answer.item.path}"))
 
 

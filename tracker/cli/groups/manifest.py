@@ -5,6 +5,7 @@ from typing import Annotated, Any
 
 import typer
 
+from tracker.cli.fields import Fills
 from tracker.cli.render import done, plain_table
 from tracker.cli.settings_files import definition_file, named_file
 from tracker.cli.state import database, emit, perform, read_upload
@@ -65,7 +66,7 @@ def _preview_table(preview: manifests.ManifestPreview) -> Any:
 def manifest_preview(
     ctx: typer.Context,
     loan: Annotated[str, typer.Argument(help="Loan ID or reference.")],
-    file: Annotated[Path, typer.Argument(help="CSV, TSV or XLSX.")],
+    file: Annotated[Path, typer.Argument(help="CSV, TSV or XLSX."), Fills("content", "filename")],
     mapping: Annotated[
         str | None, Opt("--mapping", help="Saved mapping for non-Darwin-Core headings.")
     ] = None,
@@ -82,7 +83,7 @@ def manifest_preview(
 def manifest_import(
     ctx: typer.Context,
     loan: Annotated[str, typer.Argument(help="Loan ID or reference.")],
-    file: Annotated[Path, typer.Argument(help="CSV, TSV or XLSX.")],
+    file: Annotated[Path, typer.Argument(help="CSV, TSV or XLSX."), Fills("content", "filename")],
     mapping: Annotated[str | None, Opt("--mapping", help="Saved mapping.")] = None,
 ) -> None:
     """Create and update the loan's specimens from a clean list (one transaction)."""
@@ -109,6 +110,7 @@ def manifest_mapping(
     file: Annotated[
         Path,
         typer.Argument(help="TOML or JSON: format, sheet, header_row, columns {term = heading}."),
+        Fills("definition"),
     ],
 ) -> None:
     """Save a column mapping for lists whose headings are not Darwin Core terms."""

@@ -52,16 +52,20 @@ def material_add(
     name: Annotated[str, typer.Argument(help="Name of the material.")],
     formula: Annotated[str | None, Opt("--formula", help="Chemical formula, e.g. CaCO3.")] = None,
     element: Annotated[str | None, Opt("--element", help="Element of a measured range.")] = None,
-    low: Annotated[float | None, Opt("--low", help="Lowest measured mass fraction.")] = None,
-    high: Annotated[float | None, Opt("--high", help="Highest measured mass fraction.")] = None,
+    fraction_low: Annotated[
+        float | None, Opt("--low", help="Lowest measured mass fraction.")
+    ] = None,
+    fraction_high: Annotated[
+        float | None, Opt("--high", help="Highest measured mass fraction.")
+    ] = None,
 ) -> None:
     """Define a material by its formula, or by a measured mass-fraction range of one element."""
     request = {
         "name": name,
         "formula": formula,
         "element": element,
-        "fraction_low": low,
-        "fraction_high": high,
+        "fraction_low": fraction_low,
+        "fraction_high": fraction_high,
     }
     answer = perform(ctx, materials.add_material, request)
     emit(ctx, answer, lambda: done(answer, f"material {name}"))

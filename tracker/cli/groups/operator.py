@@ -8,7 +8,6 @@ from rich.table import Table
 
 from tracker.cli.render import done, plain_table
 from tracker.cli.state import (
-    cli_fields,
     database,
     emit,
     perform,
@@ -32,15 +31,15 @@ def operator_add(
     code: Annotated[str, typer.Argument(help="Short code typed after --as.")],
     name: Annotated[str, typer.Option("--name", help="Full name.")],
     role: Annotated[Role, typer.Option("--role", help="technician or manager.")] = Role.TECHNICIAN,
-    key: Annotated[
+    public_key: Annotated[
         Path | None,
         typer.Option("--key", help="Their public key file (from `tracker key new`), if made."),
     ] = None,
 ) -> None:
     """Register an operator, and their public signing key if given (managers only)."""
     request: dict[str, object] = {"code": code, "name": name, "role": role}
-    if key is not None:
-        request["public_key"] = _public_key(ctx, key, "--key")
+    if public_key is not None:
+        request["public_key"] = _public_key(ctx, public_key, "public key")
     answer = perform(ctx, setup.add_operator, request)
     emit(ctx, answer, lambda: done(answer, f"operator {code} ({role.value})"))
 
@@ -50,8 +49,7 @@ def _public_key(ctx: typer.Context, path: Path, option: str) -> str:
 
     upload = read_upload(path, option, limit=64 * 1024)
     assert upload is not None
-    with cli_fields(ctx):
-        return public_key_from(upload["content"], option)
+    return public_key_from(upload["content"], option)
 
 
 @app.command(
@@ -60,12 +58,14 @@ def _public_key(ctx: typer.Context, path: Path, option: str) -> str:
 )
 def operator_deactivate(
     ctx: typer.Context,
-    code: Annotated[str, typer.Argument(help="The operator to deactivate.", metavar="OPERATOR")],
+    operator: Annotated[
+        str, typer.Argument(help="The operator to deactivate.", metavar="OPERATOR")
+    ],
     reason: Annotated[str, typer.Option("--reason", help="Why, for the ledger.")],
 ) -> None:
     """Stop an operator from recording anything; their keys sign nothing more (managers)."""
-    answer = perform(ctx, setup.deactivate_operator, {"operator": code, "reason": reason})
-    emit(ctx, answer, lambda: done(answer, f"operator {code} deactivated"))
+    answer = perform(ctx, setup.deactivate_operator, {"operator": operator, "reason": reason})
+    emit(ctx, answer, lambda: done(answer, f"operator {operator} deactivated"))
 
 
 @app.command(
@@ -74,14 +74,14 @@ def operator_deactivate(
 )
 def operator_role(
     ctx: typer.Context,
-    code: Annotated[str, typer.Argument(help="The operator.", metavar="OPERATOR")],
+    operator: Annotated[str, typer.Argument(help="The operator.", metavar="OPERATOR")],
     role: Annotated[Role, typer.Argument(help="technician or manager.")],
     reason: Annotated[str, typer.Option("--reason", help="Why, for the ledger.")],
 ) -> None:
     """Make an operator a manager or a technician (managers; the last manager stays one)."""
-    request = {"operator": code, "role": role, "reason": reason}
+    request = {"operator": operator, "role": role, "reason": reason}
     answer = perform(ctx, setup.change_role, request)
-    emit(ctx, answer, lambda: done(answer, f"operator {code} is now a {role.value}"))
+    emit(ctx, answer, lambda: done(answer, f"operator {operator} is now a {role.value}"))
 
 
 @app.command("list", epilog="Example: tracker operator list")

@@ -6,6 +6,7 @@ from typing import Annotated
 
 import typer
 
+from tracker.cli.fields import Fills
 from tracker.cli.render import done
 from tracker.cli.settings_files import definition_file, named_file
 from tracker.cli.state import database, emit, perform
@@ -24,7 +25,9 @@ app = typer.Typer(
 def profile_save(
     ctx: typer.Context,
     name: Annotated[str, typer.Argument(help="Name to save it under.")],
-    file: Annotated[Path, typer.Argument(help="TOML or JSON file (see schemas/profile).")],
+    file: Annotated[
+        Path, typer.Argument(help="TOML or JSON file (see schemas/profile)."), Fills("definition")
+    ],
 ) -> None:
     """Save a column mapping profile (replaces one of the same name)."""
     with named_file(file):

@@ -43,7 +43,9 @@ REFERENCE_VALUE_EPILOG = (
 @app.command("value", epilog=REFERENCE_VALUE_EPILOG)
 def reference_value(
     ctx: typer.Context,
-    name: Annotated[str, typer.Argument(help="Reference material name or ID.")],
+    reference: Annotated[
+        str, typer.Argument(help="Reference material name or ID.", metavar="name")
+    ],
     ratio: Annotated[str, Opt("--ratio", help="e.g. 44/40.")],
     scale: Annotated[str, Opt("--scale", help="Scale the value is on, e.g. 'SRM 915a'.")],
     value: Annotated[float, Opt("--value", help="Accepted δ (‰) or ratio.")],
@@ -53,7 +55,7 @@ def reference_value(
 ) -> None:
     """Record an accepted value for a reference material (managers only)."""
     request = {
-        "reference": name,
+        "reference": reference,
         "ratio": ratio,
         "scale": scale,
         "value": value,
@@ -62,4 +64,4 @@ def reference_value(
         "kind": kind,
     }
     answer = perform(ctx, results.set_reference_value, request)
-    emit(ctx, answer, lambda: done(answer, f"{name} δ{ratio} = {value} ± {two_sd} on {scale}"))
+    emit(ctx, answer, lambda: done(answer, f"{reference} δ{ratio} = {value} ± {two_sd} on {scale}"))

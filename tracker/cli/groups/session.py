@@ -5,6 +5,7 @@ from typing import Annotated
 
 import typer
 
+from tracker.cli.fields import Fills
 from tracker.cli.out_options import Force, kept_as, kept_note
 from tracker.cli.render_lab import reduction_table
 from tracker.cli.state import database, emit, perform, read_upload
@@ -29,7 +30,7 @@ def _pairs(values: list[str]) -> dict[str, float]:
             parsed[ratio.strip()] = float(number)
         except ValueError:
             raise InputError(
-                "--standard-value", item, "write RATIO=VALUE, e.g. 87/86=0.710248"
+                "standard_values", item, "write RATIO=VALUE, e.g. 87/86=0.710248"
             ) from None
     return parsed
 
@@ -42,18 +43,24 @@ def _pairs(values: list[str]) -> dict[str, float]:
 )
 def session_import(
     ctx: typer.Context,
-    file: Annotated[Path, typer.Argument(help="The instrument's export (CSV, TSV or XLSX).")],
+    file: Annotated[
+        Path,
+        typer.Argument(help="The instrument's export (CSV, TSV or XLSX)."),
+        Fills("content", "filename"),
+    ],
     profile: Annotated[str, Opt("--profile", help="Saved mapping profile.")],
     name: Annotated[str, Opt("--name", help="Session name.")],
-    instrument_name: Annotated[str, Opt("--instrument", help="Which instrument.")],
+    instrument: Annotated[str, Opt("--instrument", help="Which instrument.")],
     element: Annotated[str, Opt("--element", help="Element measured.")],
-    standard: Annotated[str, Opt("--standard", help="Bracketing standard as named in the file.")],
+    bracketing_standard: Annotated[
+        str, Opt("--standard", help="Bracketing standard as named in the file.")
+    ],
     mode: Annotated[str, Opt("--mode", help="delta (‰) or ratio (normalised ratios).")] = "delta",
-    standard_value: Annotated[
+    standard_values: Annotated[
         list[str] | None,
         Opt("--standard-value", help="Ratio mode: RATIO=VALUE accepted for the standard."),
     ] = None,
-    started: Annotated[str | None, Opt("--started", help="Start, ISO 8601 with zone.")] = None,
+    started_at: Annotated[str | None, Opt("--started", help="Start, ISO 8601 with zone.")] = None,
 ) -> None:
     """Import an instrument export through a saved profile; unmatched rows are listed."""
     upload = read_upload(file, "FILE") or {}
@@ -62,12 +69,12 @@ def session_import(
         "filename": upload.get("filename"),
         "content": upload.get("content"),
         "name": name,
-        "instrument": instrument_name,
+        "instrument": instrument,
         "element": element,
-        "bracketing_standard": standard,
+        "bracketing_standard": bracketing_standard,
         "mode": mode,
-        "standard_values": _pairs(standard_value or []),
-        "started_at": started,
+        "standard_values": _pairs(standard_values or []),
+        "started_at": started_at,
     }
     answer = perform(ctx, sessions.import_session, request)
     item = answer.item

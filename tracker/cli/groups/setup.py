@@ -9,7 +9,6 @@ import typer
 from tracker.cli.groups import inspecting
 from tracker.cli.render import done
 from tracker.cli.state import (
-    cli_fields,
     database,
     emit,
     errors,
@@ -45,15 +44,14 @@ def init(
     from tracker.services.admin.setup import init_database
     from tracker.services.core.inputs import parse
 
-    with cli_fields(ctx):
-        parse(setup.NewOperator, {"code": code, "name": name})  # before any question
-        signer = new_signer()
-        key_file = write_key(code, signer, passphrase(f"your new key ({code})", new=True))
-        try:
-            db = init_database(state(ctx).target, {"code": code, "name": name}, signer=signer)
-        except BaseException:
-            key_file.path.unlink(missing_ok=True)  # the key of a ledger that was not opened
-            raise
+    parse(setup.NewOperator, {"code": code, "name": name})  # before any question
+    signer = new_signer()
+    key_file = write_key(code, signer, passphrase(f"your new key ({code})", new=True))
+    try:
+        db = init_database(state(ctx).target, {"code": code, "name": name}, signer=signer)
+    except BaseException:
+        key_file.path.unlink(missing_ok=True)  # the key of a ledger that was not opened
+        raise
     try:
         answer = {
             "database": db.url,
@@ -135,9 +133,8 @@ def demo(
     from tracker.db.keyring import PROCESS
     from tracker.demo import build_demo, demo_operators, demo_signer, free_demo_path
 
-    with cli_fields(ctx):
-        out = out or free_demo_path(Path.cwd(), DEMO_FILE)
-        steps = build_demo(out)
+    out = out or free_demo_path(Path.cwd(), DEMO_FILE)
+    steps = build_demo(out)
     for code in demo_operators():  # invented, public keys: the demo opens without asking
         PROCESS.add(demo_signer(code))
     errors.print(
@@ -217,12 +214,11 @@ def restore(
     """
     kept = chain.read_anchor(anchor) if anchor is not None else None
     settings = state(ctx)
-    with cli_fields(ctx):
-        restored = backups.open_backup(path)  # the restore is signed in the backup's ledger
-        try:
-            unlock(restored, settings.actor)
-        finally:
-            restored.close()
+    restored = backups.open_backup(path)  # the restore is signed in the backup's ledger
+    try:
+        unlock(restored, settings.actor)
+    finally:
+        restored.close()
     answer = backups.restore(
         settings.target, settings.actor, path, accept_loss=accept_loss, anchor=kept
     )

@@ -28,7 +28,7 @@ def shipment_add(
     ctx: typer.Context,
     loan: Annotated[str, typer.Argument(help="Loan ID or reference.")],
     direction: Annotated[ShipmentDirection, Opt("--direction", help="incoming or outgoing.")],
-    date: Annotated[datetime, Opt("--date", formats=["%Y-%m-%d"], help="Day it was sent.")],
+    shipped_on: Annotated[datetime, Opt("--date", formats=["%Y-%m-%d"], help="Day it was sent.")],
     carrier: Annotated[str | None, Opt("--carrier", help="Carrier.")] = None,
     tracking: Annotated[str | None, Opt("--tracking", help="Tracking number.")] = None,
 ) -> None:
@@ -36,7 +36,7 @@ def shipment_add(
     request = {
         "loan": loan,
         "direction": direction,
-        "shipped_on": date.date(),
+        "shipped_on": shipped_on.date(),
         "carrier": carrier,
         "tracking": tracking,
     }

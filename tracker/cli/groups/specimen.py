@@ -29,27 +29,29 @@ app = typer.Typer(
 def specimen_add(
     ctx: typer.Context,
     loan: Annotated[str, Opt("--loan", help="Loan ID or reference.")],
-    catalog: Annotated[str, Opt("--catalog", help="Catalogue number (dwc:catalogNumber).")],
-    taxon: Annotated[str | None, Opt("--taxon", help="dwc:scientificName.")] = None,
-    element: Annotated[str | None, Opt("--element", help="Skeletal element, e.g. tooth.")] = None,
+    catalog_number: Annotated[str, Opt("--catalog", help="Catalogue number (dwc:catalogNumber).")],
+    scientific_name: Annotated[str | None, Opt("--taxon", help="dwc:scientificName.")] = None,
+    skeletal_element: Annotated[
+        str | None, Opt("--element", help="Skeletal element, e.g. tooth.")
+    ] = None,
     locality: Annotated[str | None, Opt("--locality", help="dwc:locality.")] = None,
     formation: Annotated[str | None, Opt("--formation", help="dwc:formation.")] = None,
-    age_max: Annotated[float | None, Opt("--age-max", help="Oldest age, Ma.")] = None,
-    age_min: Annotated[float | None, Opt("--age-min", help="Youngest age, Ma.")] = None,
+    age_max_ma: Annotated[float | None, Opt("--age-max", help="Oldest age, Ma.")] = None,
+    age_min_ma: Annotated[float | None, Opt("--age-min", help="Youngest age, Ma.")] = None,
 ) -> None:
     """List a specimen on a loan (expected until checked in)."""
     request = {
         "loan": loan,
-        "catalog_number": catalog,
-        "scientific_name": taxon,
-        "skeletal_element": element,
+        "catalog_number": catalog_number,
+        "scientific_name": scientific_name,
+        "skeletal_element": skeletal_element,
         "locality": locality,
         "formation": formation,
-        "age_max_ma": age_max,
-        "age_min_ma": age_min,
+        "age_max_ma": age_max_ma,
+        "age_min_ma": age_min_ma,
     }
     answer = perform(ctx, specimens.add_specimen, request)
-    emit(ctx, answer, lambda: done(answer, f"{answer.item.id} {catalog}"))
+    emit(ctx, answer, lambda: done(answer, f"{answer.item.id} {catalog_number}"))
 
 
 @app.command("list", epilog="Example: tracker specimen list --loan KF-2026-014")
@@ -84,14 +86,14 @@ PHOTO_EPILOG = "Example: tracker specimen photo SP-00001-W front.jpg --stage rec
 def specimen_photo(
     ctx: typer.Context,
     specimen: Annotated[str, typer.Argument(help="Specimen ID.")],
-    file: Annotated[Path, typer.Argument(help="JPEG, PNG, TIFF or WebP.")],
+    photo: Annotated[Path, typer.Argument(help="JPEG, PNG, TIFF or WebP.", metavar="file")],
     stage: Annotated[str, Opt("--stage", help="receipt, return or other.")] = "receipt",
     caption: Annotated[str | None, Opt("--caption", help="What it shows.")] = None,
 ) -> None:
     """Keep a photograph of a specimen's condition (by SHA-256)."""
-    upload = read_upload(file, "FILE") or {}
-    if mimetypes.guess_type(file.name)[0] is None:
-        raise InputError("FILE", str(file), "has no image file extension")
+    upload = read_upload(photo, "photo") or {}
+    if mimetypes.guess_type(photo.name)[0] is None:
+        raise InputError("photo", str(photo), "has no image file extension")
     answer = perform(
         ctx,
         shipments.add_photo,
