@@ -31,14 +31,31 @@ class Fills:
 # The global options, by the field they fill.
 GLOBAL_OPTIONS = {"operator": "--as", "database": "--db"}
 
-# What the command line adds to a refusal, after its reason: (field, reason's start, hint).
+# What the command line adds after a refusal's reason: (its field, or None for any field;
+# words of the reason; the hint). The services say what is wrong in the domain's words.
 HINTS = (
     ("operator", "no operator given", "pass --as CODE or set TRACKER_OPERATOR"),
     ("operator", "no such operator", "see `tracker operator list`"),
     ("operator", "has no registered signing key", "`tracker key new` makes one"),
-    ("operator", "this database has no signing keys yet", "`tracker key new`, `key register`"),
-    ("database", "this database login is bound to no operator", "`tracker db add-login`"),
-    ("database", "the database refused this: permission", "`tracker db workstation-grants`"),
+    ("operator", "has no signing keys yet", "`tracker key new`, then `tracker key register`"),
+    (
+        "public key file",
+        "then register it for yourself",
+        "`tracker key new`, `tracker key register`",
+    ),
+    ("database", "no database here", "run `tracker init` first"),
+    ("database", "not a tracker database", "run `tracker init` first"),
+    ("database", "schema is older", "run `tracker db upgrade`"),
+    ("database", "older schema", "`tracker db upgrade`"),
+    ("database", "is bound to no operator", "`tracker db add-login OPERATOR LOGIN`"),
+    ("database", "privileges again", "`tracker db workstation-grants`"),
+    ("database", "print the SQL", "--print prints it"),
+    ("login", "its SQL can be printed", "`tracker db add-login OPERATOR LOGIN --print`"),
+    ("loan", "mark it returned first", "`tracker loan mark-returned`"),
+    ("cut", "recovery changes it", "`tracker correct recovery`"),
+    ("element", "no concentration of it", "`tracker concentration`"),
+    ("scale", "accepted value first", "`tracker reference value`"),
+    (None, "the audit of the books lists them", "`tracker ledger audit`; --despite-discrepancies"),
 )
 
 
@@ -66,7 +83,7 @@ def typed_name(param: Any) -> str:
     """How a person typed a parameter: its long option, or its argument's name in capitals."""
     if param.param_type_name == "option":
         long = [opt for opt in param.opts if opt.startswith("--")]
-        return (long or param.opts)[0]
+        return str((long or param.opts)[0])
     return (param.metavar or param.name or "").upper()
 
 
@@ -100,16 +117,17 @@ def option_for(command: Any, field: str, error_value: Any, actor: Any) -> str:
 
 def in_words(field: str) -> str:
     """A field no option fills, said in words (``terms.max-total-mass`` → ``terms, max
-    total mass``); places in files (``list.csv, row 3, column x``) stay as they are."""
-    if "," in field:
+    total mass``); places in files (``list.csv, row 3, column x``) and names a person
+    typed as they are (``TRACKER_BUSY_WAIT``) stay as they are."""
+    if "," in field or field != field.lower():
         return field
     return ", ".join(part.replace("-", " ").replace("_", " ") for part in field.split("."))
 
 
 def with_hint(error: TrackerError) -> str:
     """The command line's hint for a refusal, if it has one (added after its reason)."""
-    for field, start, hint in HINTS:
-        if error.field == field and error.reason.startswith(start):
+    for field, words, hint in HINTS:
+        if field in (None, error.field) and words in error.reason:
             return hint
     return ""
 

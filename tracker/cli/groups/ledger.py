@@ -8,6 +8,7 @@ from typing import Annotated, Any
 
 import typer
 
+from tracker.cli.fields import Fills
 from tracker.cli.out_options import Force, kept_as, kept_note
 from tracker.cli.progress import progress_bar
 from tracker.cli.render import history_table
@@ -73,6 +74,7 @@ def ledger_verify(
     anchor: Annotated[
         Path | None,
         typer.Option("--anchor", help="Also require the head kept in this anchor file."),
+        Fills("anchor file"),
     ] = None,
 ) -> None:
     """Re-hash every event and check every signature; print the head (exit 0) or the first

@@ -6,6 +6,7 @@ from typing import Annotated
 
 import typer
 
+from tracker.cli.fields import Fills
 from tracker.cli.groups import inspecting
 from tracker.cli.render import done
 from tracker.cli.state import (
@@ -159,7 +160,9 @@ BACKUP_EPILOG = (
 @app.command("backup", epilog=BACKUP_EPILOG)
 def backup(
     ctx: typer.Context,
-    path: Annotated[Path, typer.Argument(help="New file to write (never overwritten).")],
+    path: Annotated[
+        Path, typer.Argument(help="New file to write (never overwritten)."), Fills("backup file")
+    ],
 ) -> None:
     """Copy the database while others may be writing; verify the copy's ledger.
 
@@ -194,10 +197,13 @@ RESTORE_EPILOG = (
 @app.command("restore", epilog=RESTORE_EPILOG)
 def restore(
     ctx: typer.Context,
-    path: Annotated[Path, typer.Argument(help="Backup file made by `tracker backup`.")],
+    path: Annotated[
+        Path, typer.Argument(help="Backup file made by `tracker backup`."), Fills("backup file")
+    ],
     anchor: Annotated[
         Path | None,
         typer.Option("--anchor", help="Also require the backup to hold this anchored head."),
+        Fills("anchor file"),
     ] = None,
     accept_loss: Annotated[
         bool,

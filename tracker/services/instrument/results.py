@@ -108,9 +108,9 @@ def results(
 
 def _require_reference(session: Session, scale: str) -> None:
     try:
-        get_reference_material(session, "--scale", scale)
+        get_reference_material(session, "scale", scale)
     except NotFound:
-        raise NotFound("--scale", scale, "no reference material has this name") from None
+        raise NotFound("scale", scale, "no reference material has this name") from None
 
 
 def _on_scale(session: Session, result: Result, scale: str | None) -> tuple[float, str, float]:
@@ -123,10 +123,10 @@ def _on_scale(session: Session, result: Result, scale: str | None) -> tuple[floa
     anchor = accepted_value(session, scale, result.ratio, result.scale, "delta")
     if anchor is None:
         raise RuleViolation(
-            "--scale",
+            "scale",
             scale,
             f"no accepted δ{result.ratio} of {scale} on the {result.scale} scale; "
-            "record one with `tracker reference value`",
+            "record that accepted value first",
         )
     factor = 1 / (1 + anchor.value / 1000)
     return change_scale(result.delta_permil, invert(anchor.value)), scale, factor
