@@ -22,7 +22,7 @@ from pydantic import BaseModel
 
 from tests.cli.conftest import Lab, counts, invoke
 from tracker.cli import app
-from tracker.cli.fields import GLOBAL_OPTIONS, option_for, parameter_for
+from tracker.cli.fields import GLOBAL_OPTIONS, declared_fills, option_for, parameter_for
 from tracker.domain.errors import InputError
 
 
@@ -134,6 +134,19 @@ def test_every_field_a_command_fills_names_one_of_its_options(path: str, command
     assert not unnamed, f"tracker {path}: no option fills {sorted(unnamed)}"
     for field in filled:
         assert parameter_for(command, field) in command.params
+
+
+def test_every_declared_field_names_the_option_declaring_it() -> None:
+    """A field declared with Fills (``anchor file`` on --anchor) finds that option."""
+    declaring = [(path, command) for path, command in LEAVES if declared_fills(command)]
+    assert {"restore", "ledger verify", "session import"} <= {path for path, _ in declaring}
+    for path, command in declaring:
+        for field, name in declared_fills(command).items():
+            for spelled in (field, field.replace("_", " "), field.replace("_", "-")):
+                param = parameter_for(command, spelled)
+                assert param is not None and param.name == name, (path, spelled)
+    verify = dict(LEAVES)["ledger verify"]
+    assert option_for(verify, "anchor file", "head.json", None) == "--anchor"
 
 
 def test_global_fields_name_the_global_options() -> None:

@@ -75,7 +75,7 @@ def declared_fills(command: Any) -> dict[str, str]:
     for name, hint in hints.items():
         for extra in getattr(hint, "__metadata__", ()):
             if isinstance(extra, Fills):
-                declared.update(dict.fromkeys(extra.fields, name))
+                declared.update(dict.fromkeys(map(python_name, extra.fields), name))
     return declared
 
 
