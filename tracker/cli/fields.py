@@ -20,7 +20,7 @@ from tracker.domain.errors import TrackerError
 @dataclass(frozen=True)
 class Fills:
     """Declared beside an option: the service fields it fills besides its own name's
-    (``Annotated[str, Opt("--max-per-specimen"), Fills("terms")]``)."""
+    (``Annotated[Path, typer.Argument(...), Fills("content", "filename")]``)."""
 
     fields: tuple[str, ...]
 
