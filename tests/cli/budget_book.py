@@ -46,7 +46,7 @@ def refused(result: Result, exit_code: int, field_name: str | None) -> str:
     assert result.exit_code == exit_code, (result.exit_code, result.stdout, result.stderr)
     lines = result.stderr.splitlines()
     assert len(lines) == 1, result.stderr
-    assert re.fullmatch(r"error: [^:\s]+: [^:]+: .+", lines[0]), lines[0]
+    assert re.fullmatch(r"error: [^:]+: [^:]+: .+", lines[0]), lines[0]
     if field_name is not None:
         assert lines[0].startswith(f"error: {field_name}: "), lines[0]
     return lines[0]

@@ -51,8 +51,9 @@ def test_drill_past_the_specimen_limit_is_refused_then_overridden(demo: Path) ->
     specimen = specimen_id(demo, KF, "KFMNH P 20311")
     before = counts(demo)
 
-    # the field is "mass" today (not an option a person typed; see the report)
+    # the drilled mass is no option a person typed: its field is said in words
     line = refused(invoke("drill", specimen, *OVER_DRILL, db=demo, actor="tomas"), 1, None)
+    assert line.startswith("error: drilled mass: ")
     assert f"per-specimen limit {limit:g} mg" in line
     for label, value in (
         ("already drilled", used),

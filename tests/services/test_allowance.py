@@ -89,7 +89,7 @@ def test_override_needs_a_manager_and_is_recorded(db: Database, counts: Counts) 
     before = counts()
     with pytest.raises(RuleViolation, match="manager role") as caught:
         drill(db, spec, "1.500", override_reason=reason)
-    assert caught.value.field == "--as"
+    assert caught.value.field == "operator"
     assert counts() == before
     powder = drill(db, spec, "1.500", actor="boss", override_reason=reason)
     with db.read_session() as session:

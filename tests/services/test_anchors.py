@@ -100,6 +100,6 @@ def test_unreadable_anchor_files_are_refused_with_the_file_named(tmp_path: Path)
         path.write_bytes(content)
         with pytest.raises(InputError) as caught:
             chain.read_anchor(path)
-        assert caught.value.field == "--anchor" and caught.value.value == str(path)
+        assert caught.value.field == "anchor file" and caught.value.value == str(path)
     with pytest.raises(InputError, match="cannot be read"):
         chain.read_anchor(tmp_path / "missing.json")

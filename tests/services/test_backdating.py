@@ -148,7 +148,7 @@ def test_a_backdated_entry_needs_a_manager_keeps_both_times_and_is_flagged(
     line = refused(
         counts, RuleViolation, "manager role", lambda: drill(db, spec, drilled_at=stated)
     )
-    assert line.startswith("--as: 'tech': dating an entry 2026-01-03T10:00:00.000000Z")
+    assert line.startswith("operator: 'tech': dating an entry 2026-01-03T10:00:00.000000Z")
     assert "more than 1 day back" in line and "ask a manager (boss)" in line
 
     done = drill(db, spec, "boss", drilled_at=stated)

@@ -121,7 +121,7 @@ def test_a_sheet_that_disagrees_with_the_batch_is_refused(
     before = counts()
     with pytest.raises(RuleViolation, match="already holds blank"):
         enter(db, batch, sheet("1,reference,RM-A,10 ug,,,"))
-    with pytest.raises(RuleViolation, match="tracker correct recovery CU-"):
+    with pytest.raises(RuleViolation, match=r"a correction of CU-\S+ recovery changes it"):
         enter(db, batch, sheet("1,blank,,,,0.060 ug,0.002 ug"))
     with pytest.raises(InputError, match="not a batch sheet column") as caught:
         enter(db, batch, b"slot,kind,Sr\n1,blank,1 ug\n")

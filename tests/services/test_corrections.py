@@ -74,7 +74,7 @@ def test_another_operators_entry_needs_a_manager_and_the_refusal_says_so(
     before = counts()
     with pytest.raises(RuleViolation) as caught:
         weigh_again(db, "tova", powder, "1000.000 mg", "1002.100 mg")
-    assert caught.value.field == "--as" and caught.value.value == "tova"
+    assert caught.value.field == "operator" and caught.value.value == "tova"
     assert caught.value.reason == (
         "correcting powder mass recorded by tech needs an operator with the manager role "
         "(tova is a technician); ask a manager (boss) to do it"

@@ -69,7 +69,7 @@ def test_as_naming_another_person_is_refused(demo_lab: Lab, login: str, actor: s
     before = demo_lab.rows()
     with pytest.raises(RuleViolation) as caught:
         _drill(demo_lab, login, actor)
-    assert caught.value.field == "--as" and caught.value.value == actor
+    assert caught.value.field == "operator" and caught.value.value == actor
     assert f"records as {login} only" in caught.value.one_line()
     assert demo_lab.rows() == before
     assert _drill(demo_lab, login, login).item.id  # their own name: recorded
@@ -79,7 +79,7 @@ def test_a_login_bound_to_no_one_is_told_so(demo_lab: Lab) -> None:
     before = demo_lab.rows()
     with pytest.raises(RuleViolation, match="bound to no operator") as caught:
         _drill(demo_lab, "stranger", "tomas")
-    assert caught.value.field == "--db"
+    assert caught.value.field == "database"
     assert demo_lab.rows() == before
 
 
@@ -91,8 +91,10 @@ def test_a_privilege_the_grants_lack_is_one_line_naming_the_fix(demo_lab: Lab) -
     with pytest.raises(RuleViolation) as caught:
         specimens.check_in(lab.db("tomas"), "tomas", {"specimen": "SP-00011-S", "condition": "ok"})
     said = caught.value.one_line()
-    assert said.startswith("--db: the database refused this: permission denied for table specimen")
-    assert "tracker db workstation-grants" in said and "\n" not in said
+    assert said.startswith(
+        "database: the database refused this: permission denied for table specimen"
+    )
+    assert "grants the workstation group its privileges again" in said and "\n" not in said
     assert lab.rows() == before
 
 
@@ -296,7 +298,7 @@ def test_a_days_work_as_each_persons_own_login(login_cluster: Cluster, tmp_path:
         replay.db = lab.db(other)
         with pytest.raises(RuleViolation) as caught:
             replay.run(number, copy.deepcopy(step))  # resolving a step's files takes them out
-        assert (caught.value.field, caught.value.value) == ("--as", step["by"])
+        assert (caught.value.field, caught.value.value) == ("operator", step["by"])
         assert lab.rows() == before
         tried[step["do"]] = other
 

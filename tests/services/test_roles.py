@@ -137,7 +137,7 @@ def test_manager_only_actions_refuse_a_technician_and_say_who_can(
     before = counts()
     with pytest.raises(RuleViolation) as caught:
         act(db, "tech", target)
-    assert (caught.value.field, caught.value.value) == ("--as", "tech")
+    assert (caught.value.field, caught.value.value) == ("operator", "tech")
     assert caught.value.reason == (
         f"{words} needs an operator with the manager role (tech is a technician); "
         "ask a manager (boss) to do it"

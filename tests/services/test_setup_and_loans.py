@@ -17,7 +17,7 @@ def test_only_managers_add_operators(db: Database, counts: Counts) -> None:
     before = counts()
     with pytest.raises(RuleViolation, match="manager role") as caught:
         setup.add_operator(db, "tech", {"code": "newbie", "name": "New Person"})
-    assert caught.value.field == "--as" and caught.value.value == "tech"
+    assert caught.value.field == "operator" and caught.value.value == "tech"
     assert counts() == before
     setup.add_operator(db, "boss", {"code": "newbie", "name": "New Person"})
     with pytest.raises(RuleViolation, match="already exists"):
@@ -32,7 +32,7 @@ def test_every_write_needs_a_known_operator(
     before = counts()
     with pytest.raises(InputError) as caught:
         lending.add_lender(db, actor, {"name": "Nowhere Museum"})
-    assert caught.value.field == "--as"
+    assert caught.value.field == "operator"
     assert counts() == before
 
 

@@ -152,7 +152,7 @@ def test_a_technicians_manager_action_is_refused_even_after_editing_the_role_col
     with pytest.raises(RuleViolation) as edited:
         amend(db, "tech", loan)
     for caught in (plain, edited):
-        assert caught.value.field == "--as" and caught.value.value == "tech"
+        assert caught.value.field == "operator" and caught.value.value == "tech"
         assert "amending a loan needs an operator with the manager role (tech is a technician)" in (
             caught.value.reason
         )
@@ -167,7 +167,7 @@ def test_a_revoked_key_signs_nothing_more(db: Database, counts: Counts) -> None:
     before = counts()
     with pytest.raises(RuleViolation) as caught:
         specimens.check_in(db, "tech", {"specimen": waiting, "condition": "complete"})
-    assert caught.value.field == "--as" and caught.value.value == "tech"
+    assert caught.value.field == "operator" and caught.value.value == "tech"
     assert f"was revoked at event #{revoked.event_seq} (laptop lost)" in caught.value.reason
     assert counts() == before
     # a manager registers a new key; the old events still verify under the old key

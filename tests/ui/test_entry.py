@@ -9,7 +9,8 @@ import pytest
 from typer.testing import CliRunner
 
 from tests.cli.conftest import invoke
-from tracker.cli import app, cmd_inspect
+from tracker.cli import app
+from tracker.cli.groups import inspecting
 from tracker.ui.scan import BurstDetector
 
 
@@ -33,7 +34,7 @@ def test_on_a_terminal_the_interface_opens(tmp_path: Path, monkeypatch: pytest.M
         opened.append((target, operator))
         return 0
 
-    monkeypatch.setattr(cmd_inspect, "interactive", lambda ctx: True)
+    monkeypatch.setattr(inspecting, "interactive", lambda ctx: True)
     monkeypatch.setattr("tracker.ui.run_tui", run_tui)
     result = invoke("demo", "--out", str(tmp_path / "d.sqlite"), actor="ines")
     assert result.exit_code == 0
@@ -64,7 +65,7 @@ def test_tracker_alone_opens_the_interface_with_the_options_the_command_line_rea
         opened.append((target, operator))
         return 0
 
-    monkeypatch.setattr(cmd_inspect, "interactive", lambda ctx: True)
+    monkeypatch.setattr(inspecting, "interactive", lambda ctx: True)
     monkeypatch.setattr("tracker.ui.run_tui", run_tui)
     clean: dict[str, str | None] = {"TRACKER_DB": None, "TRACKER_OPERATOR": None, **env}
     result = CliRunner().invoke(app, argv, env=clean, catch_exceptions=False)
@@ -73,7 +74,7 @@ def test_tracker_alone_opens_the_interface_with_the_options_the_command_line_rea
 
 
 def test_a_mistyped_global_option_is_refused_not_opened(monkeypatch: pytest.MonkeyPatch) -> None:
-    monkeypatch.setattr(cmd_inspect, "interactive", lambda ctx: True)
+    monkeypatch.setattr(inspecting, "interactive", lambda ctx: True)
     monkeypatch.setattr("tracker.ui.run_tui", lambda target, operator: pytest.fail("opened"))
     result = CliRunner().invoke(app, ["--operator", "ines"])
     assert result.exit_code == 2 and "--operator" in result.output

@@ -37,7 +37,7 @@ async def test_a_technicians_login_cannot_override_as_a_manager_in_the_interface
         await pilot.press("ctrl+s")
         await settle(pilot)
         outcome = text_of(form.query_one("#outcome", Static))
-        assert outcome.startswith("✗ refused: --as: 'ines':"), outcome
+        assert outcome.startswith("✗ refused: operator: 'ines':"), outcome
         assert "records as tomas only" in outcome
         assert pilot.app.screen is form
     assert demo_lab.rows() == before

@@ -1,27 +1,17 @@
-"""The ``tracker`` command: global options, and every command registered in one place."""
+"""The ``tracker`` command: its global options, and the table of its command modules.
 
+Each group of commands is one module of :mod:`tracker.cli.groups` holding its Typer app
+and every command of it; this module only adds them (``COMMANDS``).
+"""
+
+import importlib
 from typing import Annotated
 
 import typer
 
 from tracker import __version__
-from tracker.cli import (
-    cmd_backup,
-    cmd_budget,
-    cmd_correct,
-    cmd_inspect,
-    cmd_instrument,
-    cmd_keys,
-    cmd_lab,
-    cmd_labels,
-    cmd_ledger,
-    cmd_loans,
-    cmd_logins,
-    cmd_reports,
-    cmd_setup,
-)
-from tracker.cli.cmd_demo import DEMO_EPILOG, demo
-from tracker.cli.state import State, TrackerGroup
+from tracker.cli.groups import inspecting
+from tracker.cli.state import CommandGroup, State, TrackerGroup
 
 app = typer.Typer(
     cls=TrackerGroup,
@@ -64,73 +54,44 @@ def root(
     """Global options; with no command, open the terminal interface or show the overview."""
     ctx.obj = State(db=db, actor=actor, as_json=as_json)
     if ctx.invoked_subcommand is None:
-        cmd_inspect.open_or_overview(ctx)
+        inspecting.open_or_overview(ctx)
+
+
+# Every command module, in the order `tracker --help` lists them: a group's name and its
+# module, or None for a module whose commands stand at the top level. Each module defines
+# its `app` and every command of it; nothing else registers commands.
+COMMANDS: tuple[tuple[str | None, str], ...] = (
+    (None, "setup"),
+    (None, "inspecting"),
+    (None, "bench"),
+    (None, "accounts"),
+    ("operator", "operator"),
+    ("key", "key"),
+    ("location", "location"),
+    ("lender", "lender"),
+    ("loan", "loan"),
+    ("specimen", "specimen"),
+    ("reference", "reference"),
+    ("material", "material"),
+    ("profile", "profile"),
+    ("session", "session"),
+    ("curve", "curve"),
+    ("report", "report"),
+    ("manifest", "manifest"),
+    ("export", "export"),
+    ("shipment", "shipment"),
+    ("batch", "batch"),
+    ("labels", "labels"),
+    ("ledger", "ledger"),
+    ("correct", "correct"),
+    ("db", "db"),
+)
 
 
 def _register() -> None:
-    command = app.command
-    command("init", epilog=cmd_setup.INIT_EPILOG)(cmd_setup.init)
-    command("backdating-window", epilog=cmd_setup.BACKDATING_EPILOG)(cmd_setup.backdating_window)
-    command("demo", epilog=DEMO_EPILOG)(demo)
-    command("backup", epilog=cmd_backup.BACKUP_EPILOG)(cmd_backup.backup)
-    command("restore", epilog=cmd_backup.RESTORE_EPILOG)(cmd_backup.restore)
-    command("overview", epilog=cmd_inspect.OVERVIEW_EPILOG)(cmd_inspect.show_overview)
-    command("show", epilog=cmd_inspect.SHOW_EPILOG)(cmd_inspect.show)
-    command("checkin", epilog=cmd_loans.CHECKIN_EPILOG)(cmd_loans.checkin)
-    command("return", epilog=cmd_loans.RETURN_EPILOG)(cmd_loans.return_specimen)
-    command("move", epilog=cmd_lab.MOVE_EPILOG)(cmd_lab.move)
-    command("drill", epilog=cmd_lab.DRILL_EPILOG)(cmd_lab.drill)
-    command("dissolve", epilog=cmd_lab.DISSOLVE_EPILOG)(cmd_lab.dissolve)
-    command("concentration", epilog=cmd_lab.CONCENTRATION_EPILOG)(cmd_lab.concentration)
-    command("aliquot", epilog=cmd_lab.ALIQUOT_EPILOG)(cmd_lab.aliquot)
-    command("dispose", epilog=cmd_lab.DISPOSE_EPILOG)(cmd_lab.dispose)
-    command("lookup", epilog=cmd_labels.LOOKUP_EPILOG)(cmd_labels.lookup)
-    command("plan", epilog=cmd_budget.PLAN_EPILOG)(cmd_budget.plan)
-    command("reconcile", epilog=cmd_budget.RECONCILE_EPILOG)(cmd_budget.reconcile_command)
-    loan = cmd_loans.loan_app.command
-    loan("amend", epilog=cmd_budget.AMEND_EPILOG)(cmd_budget.amend)
-    loan("attach", epilog=cmd_budget.ATTACH_EPILOG)(cmd_budget.attach)
-    instrument = cmd_instrument
-    loan("curve", epilog=instrument.LOAN_CURVE_EPILOG)(instrument.loan_curve)
-    command("results", epilog=instrument.RESULTS_EPILOG)(instrument.results_command)
-    command("screen", epilog=instrument.SCREEN_EPILOG)(instrument.screen_command)
-    batch = cmd_lab.batch_app.command
-    batch("cut", epilog=instrument.BATCH_CUT_EPILOG)(instrument.batch_cut)
-    batch("show", epilog="Example: tracker batch show CB-00001-G")(instrument.batch_show)
-    batch("sheet", epilog=instrument.BATCH_SHEET_EPILOG)(instrument.batch_sheet)
-    batch(
-        "blank-delta",
-        epilog="Example: tracker batch blank-delta CB-00001-G --ratio 44/40 --delta -0.8",
-    )(instrument.batch_blank_delta)
-    cmd_lab.reference_app.command("value", epilog=instrument.REFERENCE_VALUE_EPILOG)(
-        instrument.reference_value
-    )
-    app.add_typer(cmd_setup.operator_app, name="operator")
-    app.add_typer(cmd_keys.key_app, name="key")
-    app.add_typer(cmd_setup.location_app, name="location")
-    app.add_typer(cmd_loans.lender_app, name="lender")
-    app.add_typer(cmd_loans.loan_app, name="loan")
-    app.add_typer(cmd_loans.specimen_app, name="specimen")
-    app.add_typer(cmd_lab.reference_app, name="reference")
-    app.add_typer(cmd_budget.material_app, name="material")
-    app.add_typer(cmd_instrument.profile_app, name="profile")
-    app.add_typer(cmd_instrument.session_app, name="session")
-    app.add_typer(cmd_instrument.curve_app, name="curve")
-    app.add_typer(cmd_reports.report_app, name="report")
-    app.add_typer(cmd_reports.manifest_app, name="manifest")
-    app.add_typer(cmd_reports.export_app, name="export")
-    app.add_typer(cmd_reports.shipment_app, name="shipment")
-    cmd_loans.specimen_app.command("photo", epilog=cmd_reports.PHOTO_EPILOG)(
-        cmd_reports.specimen_photo
-    )
-    app.add_typer(cmd_lab.batch_app, name="batch")
-    app.add_typer(cmd_labels.labels_app, name="labels")
-    app.add_typer(cmd_ledger.ledger_app, name="ledger")
-    app.add_typer(cmd_correct.correct_app, name="correct")
-    db = cmd_setup.db_app.command
-    db("workstation-grants", epilog=cmd_logins.GRANTS_EPILOG)(cmd_logins.workstation_grants)
-    db("add-login", epilog=cmd_logins.ADD_LOGIN_EPILOG)(cmd_logins.add_login)
-    app.add_typer(cmd_setup.db_app, name="db")
+    for name, module in COMMANDS:
+        group = importlib.import_module(f"tracker.cli.groups.{module}").app
+        app.add_typer(group, name=name, cls=CommandGroup)
 
 
 _register()

@@ -21,6 +21,7 @@ from rich.console import Console, ConsoleOptions, RenderableType, RenderResult
 from rich.segment import Segment
 from typer.core import TyperGroup
 
+from tracker.cli.fields import name_for_cli
 from tracker.db.location import default_database
 from tracker.domain.errors import InputError, TrackerError
 from tracker.domain.text_rules import json_visible, visible
@@ -86,85 +87,16 @@ def state(ctx: typer.Context) -> State:
     return root.obj
 
 
-# Service field names that the CLI spells differently (the option a person actually typed).
-FIELD_OPTIONS = {
-    "parent": "--in",
-    "location": "--to",
-    "aliquot": "--sample",
-    "reference-material": "--reference",
-    "catalog-number": "--catalog",
-    "scientific-name": "--taxon",
-    "received-on": "--received",
-    "due-on": "--due",
-    "returned-on": "--on",
-    "performed-on": "--date",
-    "cut-names": "--cuts",
-    "elution-scheme": "--scheme",
-    "uncertainty": "--u",
-    "relative-uncertainty-percent": "--rel-u",
-    "terms.permitted-tissues": "--tissues",
-    "terms.max-mass-per-specimen": "--max-per-specimen",
-    "terms.max-total-mass": "--max-total",
-    "terms.max-specimens-sampled": "--max-specimens",
-    "terms": "--max-per-specimen/--max-total",
-    "max-mass-per-specimen": "--max-per-specimen",
-    "max-total-mass": "--max-total",
-    "max-specimens-sampled": "--max-specimens",
-    "permitted-tissues": "--tissues",
-    "fraction-low": "--low",
-    "fraction-high": "--high",
-    "effective-from": "--effective",
-    "override-reason": "--override",
-    "standard-values": "--standard-value",
-    "shipped-on": "--date",
-    "photo": "FILE",
-    "age-min-ma": "--age-min",
-    "age-max-ma": "--age-max",
-    "powder-taken": "--mass",
-}
-
-
-def cli_field(ctx: typer.Context, field: str) -> str:
-    """The name a person typed for a service field: its option, or its argument in capitals."""
-    if field.startswith("-"):
-        return field
-    options = {opt for param in ctx.command.params for opt in param.opts if opt.startswith("--")}
-    arguments = {param.name for param in ctx.command.params if not param.opts[0].startswith("-")}
-    if f"--{field}" in options:
-        return f"--{field}"
-    if field.endswith("-at") and "--at" in options:
-        return "--at"
-    wanted = FIELD_OPTIONS.get(field)
-    if wanted in options or field == "terms":
-        return FIELD_OPTIONS[field]
-    if wanted is not None and wanted.lower() in arguments:
-        return wanted
-    if field.replace("-", "_") in arguments or field == "id":
-        return (field if field != "id" else "ITEM").upper().replace("-", "_")
-    return field
-
-
-@contextmanager
-def cli_fields(ctx: typer.Context) -> Iterator[None]:
-    """Refusals raised inside name the option or argument a person typed."""
-    try:
-        yield
-    except TrackerError as error:
-        error.field = cli_field(ctx, error.field)
-        raise
-
-
 @contextmanager
 def database(ctx: typer.Context) -> Iterator[Any]:
-    """Open the selected database for one command; refusals name the CLI's own fields."""
+    """Open the selected database for one command."""
     from tracker.db.database import open_database
 
-    with cli_fields(ctx):
-        db = open_database(state(ctx).target)
-        try:
-            yield db
-        finally:
-            db.close()
+    db = open_database(state(ctx).target)
+    try:
+        yield db
+    finally:
+        db.close()
 
 
 @contextmanager
@@ -172,8 +104,7 @@ def writing(ctx: typer.Context, *, first_key: str | None = None) -> Iterator[Any
     """The selected database for a command that records, with the selected operator's key
     unlocked (:func:`unlock`) before any work."""
     with database(ctx) as db:
-        with cli_fields(ctx):
-            unlock(db, state(ctx).actor, first_key=first_key)
+        unlock(db, state(ctx).actor, first_key=first_key)
         yield db
 
 
@@ -276,20 +207,36 @@ class UsageProblem(TrackerError):
     exit_code = 2
 
 
-class TrackerGroup(TyperGroup):
+# Where the command being run is kept (Click shares ``meta`` among nested contexts).
+RUNNING = "tracker.command"
+
+
+class CommandGroup(TyperGroup):
+    """Every group of the CLI: it notes the command it runs, so a refusal can name that
+    command's options (:mod:`tracker.cli.fields`)."""
+
+    def resolve_command(self, ctx: Any, args: list[str]) -> Any:
+        name, command, rest = super().resolve_command(ctx, args)
+        ctx.meta[RUNNING] = command
+        return name, command, rest
+
+
+class TrackerGroup(CommandGroup):
     """Gives every refusal the same shape: one line naming field and value, exit 1 or 2.
 
-    Service refusals arrive as TrackerError from ``invoke``; the parser's own
-    complaints (a date that is not one, a missing option) are caught in ``main``
-    and reshaped the same way instead of Click's multi-line usage text.
+    Service refusals arrive as TrackerError from ``invoke`` and are reworded once, here,
+    for the command that ran (the option a person typed, the command line's hint); the
+    parser's own complaints (a date that is not one, a missing option) are caught in
+    ``main`` and reshaped the same way instead of Click's multi-line usage text.
     """
 
     def invoke(self, ctx: Any) -> Any:
         try:
             return super().invoke(ctx)
         except TrackerError as error:
-            as_json = isinstance(ctx.obj, State) and ctx.obj.as_json
-            raise typer.Exit(refuse(error, as_json)) from None
+            settings = ctx.obj if isinstance(ctx.obj, State) else None
+            name_for_cli(error, ctx.meta.get(RUNNING), settings and settings.actor)
+            raise typer.Exit(refuse(error, settings is not None and settings.as_json)) from None
 
     def main(
         self,

@@ -77,7 +77,7 @@ def open_database(
     path = sqlite_path(url)
     if path is not None and not path.exists():
         if not create:
-            raise InputError("--db", str(path), "no database here; run `tracker init` first")
+            raise InputError("database", str(path), "no database here")
         create_private_file(path)
     db = Database(url, build_engine(url), clock)
     try:  # an upgrade waits for the writer lock like any writer: Busy if in vain
@@ -99,7 +99,7 @@ def unreachable_as_refusal(url: str) -> Iterator[None]:
             raise
         shown = make_url(url).render_as_string(hide_password=True)
         cause = str(error.orig).strip().splitlines()[0] if error.orig else str(error)
-        raise InputError("--db", shown, f"cannot be opened: {cause}") from None
+        raise InputError("database", shown, f"cannot be opened: {cause}") from None
 
 
 def _bring_to_head(db: Database, *, create: bool, upgrade: bool) -> None:
@@ -109,20 +109,20 @@ def _bring_to_head(db: Database, *, create: bool, upgrade: bool) -> None:
         return
     if revision is None:
         if not create:
-            raise InputError("--db", db.url, "not a tracker database; run `tracker init` first")
+            raise InputError("database", db.url, "not a tracker database")
         migrate.upgrade(db.engine)
         return
     if not migrate.is_known(revision):
         raise RuleViolation(
-            "--db", revision, "database schema is newer than this tracker; upgrade tracker"
+            "database", revision, "database schema is newer than this tracker; upgrade tracker"
         )
     if not upgrade:
-        raise RuleViolation("--db", revision, "schema is older; run `tracker db upgrade`")
+        raise RuleViolation("database", revision, "schema is older")
     if db.path is None:
         raise RuleViolation(
-            "--db",
+            "database",
             revision,
-            "shared database has an older schema: back it up (pg_dump), then `tracker db upgrade`",
+            "shared database has an older schema: back it up (pg_dump), then upgrade it",
         )
     backup_sqlite(db.path, db.path.with_name(f"{db.path.name}.bak-{revision}"))
     migrate.upgrade(db.engine)
@@ -152,13 +152,13 @@ def upgrade_database(target: str | Path) -> tuple[str | None, str]:
     url = resolve_url(target)
     path = sqlite_path(url)
     if path is not None and not path.exists():
-        raise InputError("--db", str(path), "no database here; run `tracker init` first")
+        raise InputError("database", str(path), "no database here")
     engine = build_engine(url)
     try:
         with unreachable_as_refusal(url), engine.connect() as connection:
             old = migrate.current_revision(connection)
         if old is not None and not migrate.is_known(old):
-            raise RuleViolation("--db", old, "database schema is newer than this tracker")
+            raise RuleViolation("database", old, "database schema is newer than this tracker")
         if old != migrate.HEAD:
             if path is not None and old is not None:
                 backup_sqlite(path, path.with_name(f"{path.name}.bak-{old}"))

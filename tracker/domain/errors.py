@@ -27,7 +27,7 @@ class TrackerError(Exception):
         super().__init__(self.one_line())
 
     def __str__(self) -> str:
-        return self.one_line()  # follows a field renamed on the way out (see cli_fields)
+        return self.one_line()  # follows a field renamed on the way out (see tracker.cli.fields)
 
     def one_line(self) -> str:
         shown = _show(self.value)

@@ -59,7 +59,7 @@ CURRENT_FORMAT = FORMAT_2  # every event recorded now
 GENESIS_HASH = "0" * 64
 # An empty ledger proves nothing: every database opens its ledger with a first event, so a
 # ledger without one has lost it (or never was one) and is not intact.
-EMPTY = "the ledger holds no events, not even the first one `tracker init` records"
+EMPTY = "the ledger holds no events, not even the first one, recorded when it was made"
 
 
 def canonical_json(payload: Any, default: Callable[[Any], Any] | None = None) -> str:

@@ -40,12 +40,20 @@ class ScanFailed(Message):
         self.text, self.error = text, error
 
 
+# Where the interface chooses the operator, said after a refusal about the operator.
+OPERATOR_HINT = "Ctrl+O chooses the operator"
+
+
 def refusal_text(error: TrackerError) -> Text:
     """How every refusal reads on screen: a cross, then the service's own one line (which
-    quotes values from outside: shown with hidden characters visible, never as markup).
+    quotes values from outside: shown with hidden characters visible, never as markup),
+    and for a refusal about the operator, where the interface chooses another.
 
     A busy database is no refusal of the request: its line (who holds the database,
     since when, try again) stands alone, word for word as the command line prints it.
     """
     line = visible(error.one_line(), keep_lines=False)
-    return shown(f"✗ {line}" if isinstance(error, Busy) else f"✗ refused: {line}")
+    if isinstance(error, Busy):
+        return shown(f"✗ {line}")
+    hint = f" ({OPERATOR_HINT})" if error.field == "operator" else ""
+    return shown(f"✗ refused: {line}{hint}")

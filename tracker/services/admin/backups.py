@@ -59,7 +59,7 @@ class BackupView(View):
 def _file_path(url: str, action: str) -> Path:
     path = sqlite_path(url)
     if path is None:
-        raise InputError("--db", url, f"{action} works on SQLite files; {PG_HINT}")
+        raise InputError("database", url, f"{action} works on SQLite files; {PG_HINT}")
     return path
 
 
@@ -86,13 +86,13 @@ def backup(db: Database, destination: Path) -> BackupView:
     whole (:mod:`tracker.db.outputs`), so a crash never leaves half a backup under its name.
     """
     source = _file_path(db.url, "backup")
-    outputs.check_target(destination, "PATH", database=source, forceable=False)
+    outputs.check_target(destination, "backup file", database=source, forceable=False)
     building = outputs.temp_path(destination.parent, destination.name)
     try:
         copy_live(source, building)
         view = _checked_copy(building, destination)
         fold_log(building)  # reading may leave an empty log beside it: the file alone is whole
-        outputs.publish(building, destination, "PATH", database=source, forceable=False)
+        outputs.publish(building, destination, "backup file", database=source, forceable=False)
     finally:
         outputs.discard(*(Path(f"{building}{suffix}") for suffix in ("", *outputs.SIDE_SUFFIXES)))
     return view
@@ -186,19 +186,19 @@ def _check_backup(
 ) -> VerifyReport:
     """Everything that must hold before a byte of the database is touched."""
     if not looks_like_sqlite(source):
-        raise InputError("PATH", str(source), "is not an SQLite database file")
+        raise InputError("backup file", str(source), "is not an SQLite database file")
     if target.exists() and source.resolve() == target.resolve():
-        raise InputError("PATH", str(source), "is the database itself")
+        raise InputError("backup file", str(source), "is the database itself")
     revision = schema_revision(source)
     if revision is None or not migrate.is_known(revision):
         why = "is not a tracker database" if revision is None else "was made by a newer tracker"
-        raise InputError("PATH", str(source), why)
+        raise InputError("backup file", str(source), why)
     backup_db = read_only(source)
     try:
         report = chain.verify(backup_db)
         if not report.ok:
             raise RuleViolation(
-                "PATH",
+                "backup file",
                 str(source),
                 f"its ledger is broken at event #{report.broken_seq} ({report.reason}); "
                 "nothing was replaced",
@@ -206,7 +206,9 @@ def _check_backup(
         if anchor is not None:
             check = chain.verify_against(backup_db, anchor).anchor
             if not check.ok:
-                raise RuleViolation("--anchor", anchor.hash[:12], f"{check.problem}; not restored")
+                raise RuleViolation(
+                    "anchor file", anchor.hash[:12], f"{check.problem}; not restored"
+                )
         _require_operator(backup_db, actor)
     finally:
         backup_db.close()
@@ -216,17 +218,17 @@ def _check_backup(
 def _require_operator(backup_db: Database, actor: str | None) -> None:
     """The restore is recorded in the restored ledger, so its operator must exist there."""
     if not actor:
-        raise InputError("--as", None, "no operator given; a restore is recorded in the ledger")
+        raise InputError("operator", None, "no operator given; a restore is recorded in the ledger")
     with backup_db.read_session() as session:
         found = session.scalar(select(Operator.active).where(Operator.code == actor))
     if not found:
-        raise InputError("--as", actor, "is not an active operator in the backup")
+        raise InputError("operator", actor, "is not an active operator in the backup")
 
 
 def open_backup(source: Path) -> Database:
     """A backup opened read-only (to unlock the key its ledger knows, before a restore)."""
     if not looks_like_sqlite(source):
-        raise InputError("PATH", str(source), "is not an SQLite database file")
+        raise InputError("backup file", str(source), "is not an SQLite database file")
     return read_only(source)
 
 
@@ -241,7 +243,7 @@ def _require_signer(source: Path, actor: str | None, lost: int, keyring: Keyring
     assert actor is not None  # _check_backup asked for one
     if not authority.keys:
         raise RuleViolation(
-            "PATH",
+            "backup file",
             str(source),
             "was kept before signing began, so its ledger cannot record the restore; "
             "copy the file back by hand (after a backup of the database) and register a key",
@@ -250,7 +252,7 @@ def _require_signer(source: Path, actor: str | None, lost: int, keyring: Keyring
     if lost and not authority.is_manager(actor):
         role = authority.role(actor) or "stranger to this ledger"
         raise RuleViolation(
-            "--as",
+            "operator",
             actor,
             f"a restore that loses {lost} event(s) needs an operator with the manager role "
             f"({actor} is a {role}); ask a manager ({', '.join(authority.managers())}) to do it",
@@ -297,9 +299,9 @@ def _events_lost(current: _Current | None, backup: VerifyReport, accept_loss: bo
             f"({lost} of its events are not in the backup)"
         )
         raise RuleViolation(
-            "--accept-loss",
+            "accept-loss",
             None,
-            f"the database {what}; restoring loses them — pass --accept-loss to restore "
-            "anyway (the replaced file is kept beside it)",
+            f"the database {what}; restoring loses them, so it restores only when the loss "
+            "is accepted (the replaced file is kept beside it)",
         )
     return lost

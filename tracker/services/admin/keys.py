@@ -85,21 +85,21 @@ def register_key(db: Database, actor: str | None, data: Registration | Raw) -> D
         if first:  # the ledger's first key: a manager's own, unlocked to sign itself
             if request.operator != uow.operator.code:
                 raise RuleViolation(
-                    "OPERATOR", request.operator, f"the first key is a manager's own: {_FIRST}"
+                    "operator", request.operator, f"the first key is a manager's own: {_FIRST}"
                 )
             uow.signer = db.keyring.get(new_id)
             if uow.signer is None:
-                raise InputError("PUBLIC_KEY_FILE", new_id, f"is not unlocked here: {_FIRST}")
+                raise InputError("public key file", new_id, f"is not unlocked here: {_FIRST}")
         uow.require_manager("registering a signing key")
         owner = uow.session.scalars(
             select(Operator).where(Operator.code == request.operator)
         ).one_or_none()
         if owner is None or request.operator not in uow.authority.people:
-            raise InputError("OPERATOR", request.operator, "no such operator")
+            raise InputError("operator", request.operator, "no such operator")
         if new_id in uow.authority.keys:
             known = uow.authority.keys[new_id]
             raise RuleViolation(
-                "PUBLIC_KEY_FILE",
+                "public key file",
                 new_id,
                 f"is already registered to {known.operator} (event #{known.registered_seq})",
             )
@@ -122,10 +122,7 @@ def register_key(db: Database, actor: str | None, data: Registration | Raw) -> D
         return finish(uow, "key.registered", owner, payload, registered)
 
 
-_FIRST = (
-    "make it with `tracker key new` on this machine, then register it with "
-    "`tracker key register YOUR-CODE FILE`"
-)
+_FIRST = "make it on this machine, then register it for yourself"
 
 
 class Revocation(Request):
@@ -143,7 +140,7 @@ def revoke_key(db: Database, actor: str | None, data: Revocation | Raw) -> Done[
             select(Operator).where(Operator.code == request.operator)
         ).one_or_none()
         if owner is None:
-            raise InputError("OPERATOR", request.operator, "no such operator")
+            raise InputError("operator", request.operator, "no such operator")
         record = _key_to_revoke(uow.authority, request)
         payload = {"operator": record.operator, "key_id": record.key_id, "reason": request.reason}
         view = _view(record, uow.authority)
@@ -164,15 +161,15 @@ def _key_to_revoke(authority: Authority, request: Revocation) -> KeyRecord:
     if request.key is not None:
         found = authority.keys.get(request.key)
         if found is None or found.operator != request.operator:
-            raise InputError("--key", request.key, f"is not one of {request.operator}'s keys")
+            raise InputError("key", request.key, f"is not one of {request.operator}'s keys")
         if found.revoked_seq is not None:
-            raise RuleViolation("--key", request.key, f"was revoked at event #{found.revoked_seq}")
+            raise RuleViolation("key", request.key, f"was revoked at event #{found.revoked_seq}")
         return found
     if not valid:
-        raise RuleViolation("OPERATOR", request.operator, "has no key to revoke")
+        raise RuleViolation("operator", request.operator, "has no key to revoke")
     if len(valid) > 1:
         ids = ", ".join(k.key_id for k in valid)
-        raise InputError("--key", None, f"{request.operator} has several keys ({ids}): name one")
+        raise InputError("key", None, f"{request.operator} has several keys ({ids}): name one")
     return valid[0]
 
 
@@ -222,10 +219,10 @@ def key_to_unlock(db: Database, operator: str, *, first_key: str | None = None) 
     if files:  # keys on this machine, none of which may sign
         found = files[-1]
         problem = authority.key_problem(operator, found.key_id)
-        raise RuleViolation("--as", operator, f"{problem} (key file {found.path})")
+        raise RuleViolation("operator", operator, f"{problem} (key file {found.path})")
     if valid:
         raise InputError(
-            "--as",
+            "operator",
             operator,
             f"no key file on this machine for key {sorted(valid)[0]} "
             f"(looked in {keyfiles.keys_dir()})",
@@ -239,10 +236,10 @@ def _first_key_file(operator: str, first_key: str | None) -> KeyFile | None:
     found = keyfiles.file_for(first_key)
     if found is None:
         raise InputError(
-            "PUBLIC_KEY_FILE", first_key, f"no key file for it on this machine: {_FIRST}"
+            "public key file", first_key, f"no key file for it on this machine: {_FIRST}"
         )
     if found.operator != operator:
-        raise InputError("PUBLIC_KEY_FILE", first_key, f"was made for {found.operator}")
+        raise InputError("public key file", first_key, f"was made for {found.operator}")
     return found
 
 

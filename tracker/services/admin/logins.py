@@ -54,7 +54,7 @@ class GroupSetup(Request):
 def _shared_only(db: Database) -> None:
     if db.backend != "postgresql":
         raise InputError(
-            "--db",
+            "database",
             db.url,
             "logins belong to a shared PostgreSQL database; a SQLite file has none",
         )
@@ -79,10 +79,10 @@ def grant_group(db: Database, data: GroupSetup | Raw) -> list[str]:
         who = logins.connected(connection)
         if not who.owner:
             raise RuleViolation(
-                "--db",
+                "database",
                 who.login,
                 "only the owner of the tables grants the workstation group its privileges; "
-                "connect as the owner, or print the SQL with --print",
+                "connect as the owner, or print the SQL for the owner to run",
             )
         for statement in statements:
             connection.execute(text(statement))
@@ -114,10 +114,10 @@ def create_login(db: Database, data: LoginSetup | Raw) -> list[str]:
         ).scalar()
         if not allowed:
             raise RuleViolation(
-                "--db",
+                "database",
                 logins.connected(connection).login,
-                "this login may not create logins; print the SQL with --print and have the "
-                "database's administrator run it",
+                "this login may not create logins; print the SQL for the database's "
+                "administrator to run",
             )
         for statement in statements:
             connection.execute(text(statement))
@@ -147,8 +147,8 @@ def bind_login(db: Database, actor: str | None, data: BindLogin | Raw) -> Done[O
             raise RuleViolation(
                 "login",
                 request.login,
-                "no login of this name on the server; create it first "
-                "(`tracker db add-login OPERATOR LOGIN --print` shows the SQL)",
+                "no login of this name on the server; create it first (its SQL can be "
+                "printed for whoever may create logins)",
             )
         if facts.owner:
             raise _trusted(request.login)

@@ -62,7 +62,7 @@ def init_database(
     with db.write_session() as session, session.begin():
         if session.scalar(select(func.count()).select_from(Operator)):
             db.close()
-            raise RuleViolation("--db", db.url, "already initialised")
+            raise RuleViolation("database", db.url, "already initialised")
         now = clock()
         written = Written()
         with capturing(session, written) as capture:
@@ -182,7 +182,7 @@ def _operator(uow: UnitOfWork, code: str) -> Operator:
     """An operator the ledger knows (a row without its event is no operator)."""
     found = uow.session.scalars(select(Operator).where(Operator.code == code)).one_or_none()
     if found is None or code not in uow.authority.people:
-        raise InputError("OPERATOR", code, "no such operator; see `tracker operator list`")
+        raise InputError("operator", code, "no such operator")
     return found
 
 

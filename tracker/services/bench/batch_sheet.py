@@ -401,5 +401,5 @@ def _same_cut(cut: Cut, request: RecordCut) -> None:
             "cut",
             request.cut,
             f"of column {cut.position.slot} is recorded as {cut.recovered_ug} µg; "
-            f"fix it with `tracker correct recovery {cut.public_id}`",
+            f"a correction of {cut.public_id}'s recovery changes it",
         )

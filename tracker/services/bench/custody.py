@@ -271,7 +271,7 @@ def close_loan(db: Database, actor: str | None, data: CloseLoan | Raw) -> Done[L
             raise RuleViolation(
                 "loan",
                 loan.reference,
-                "has not been returned yet; `tracker loan mark-returned` it first",
+                "has not been returned yet; mark it returned first",
             )
         left = _material_left(uow.session, loan.id)
         if left:

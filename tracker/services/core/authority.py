@@ -92,30 +92,31 @@ def why_no_signer(authority: Authority, code: str, registered: bool) -> InputErr
     """Why ``code`` cannot sign now, said for a person."""
     person = authority.people.get(code)
     if person is None:  # the ledger never added anyone of this code
-        return InputError("--as", code, "no such operator; see `tracker operator list`")
+        return InputError("operator", code, "no such operator")
     if not person.active:
         return RuleViolation(
-            "--as", code, f"was deactivated at event #{person.deactivated_seq}; signs nothing more"
+            "operator",
+            code,
+            f"was deactivated at event #{person.deactivated_seq}; signs nothing more",
         )
     if registered:
         key = authority.valid_keys(code)[0].key_id
-        return InputError("--as", code, f"key {key} is not unlocked (its passphrase unlocks it)")
+        return InputError(
+            "operator", code, f"key {key} is not unlocked (its passphrase unlocks it)"
+        )
     revoked = [k for k in authority.keys.values() if k.operator == code]
     if revoked:
         last = max(revoked, key=lambda k: k.registered_seq)
         problem = authority.key_problem(code, last.key_id)
-        return RuleViolation(
-            "--as", code, f"{problem}; a manager registers a new key (`tracker key register`)"
-        )
+        return RuleViolation("operator", code, f"{problem}; a manager registers a new key for them")
     return RuleViolation(
-        "--as",
+        "operator",
         code,
-        "has no registered signing key; make one with `tracker key new` and ask a manager "
-        "to register it",
+        "has no registered signing key; make one on this machine and ask a manager to register it",
     )
 
 
 NO_KEYS_YET = (
-    "this database has no signing keys yet: a manager makes one (`tracker key new`) and "
-    "registers it for themselves (`tracker key register`) before anything else is recorded"
+    "this database has no signing keys yet: a manager makes one and registers it for "
+    "themselves before anything else is recorded"
 )

@@ -136,7 +136,7 @@ class UnitOfWork:
         who = f"; ask a manager ({', '.join(managers)}) to do it" if managers else ""
         role = self.authority.role(code) or self.operator.role.value
         raise RuleViolation(
-            "--as",
+            "operator",
             code,
             f"{action} needs an operator with the manager role ({code} is a {role}){who}",
         )
@@ -164,7 +164,7 @@ class UnitOfWork:
                 "tell so from the event: extend tracker.domain.authority.manager_needed"
             )
         if self.signer is None:
-            raise RuleViolation("--as", self.operator.code, signing.NO_KEYS_YET)
+            raise RuleViolation("operator", self.operator.code, signing.NO_KEYS_YET)
         self.session.flush()  # new rows get their IDs before the event names them
         link = next_link(self.session)
         object_ref, parent_ref = _ref(obj), _ref(parent)
@@ -378,14 +378,13 @@ def agree_with_login(session: Session, operator: Operator) -> None:
     bound = session.scalar(select(Operator.code).where(Operator.login == who.login))
     if bound is None:
         raise RuleViolation(
-            "--db",
+            "database",
             who.login,
-            "this database login is bound to no operator; a manager binds it with "
-            "`tracker db add-login OPERATOR LOGIN`",
+            "this database login is bound to no operator; a manager binds it to one",
         )
     if bound != operator.code:
         raise RuleViolation(
-            "--as",
+            "operator",
             operator.code,
             f"this database login ({who.login}) records as {bound} only; "
             "each person connects with their own login",
@@ -407,7 +406,7 @@ def _check_broken(error: DBAPIError) -> RuleViolation | None:
     sentence = checks.said(name) if name else None
     if sentence is None:
         return None
-    return RuleViolation("--db", None, f"the database refused a value: {sentence}")
+    return RuleViolation("database", None, f"the database refused a value: {sentence}")
 
 
 def _refused(error: DBAPIError) -> RuleViolation:
@@ -415,16 +414,16 @@ def _refused(error: DBAPIError) -> RuleViolation:
     cause = str(error.orig).strip().splitlines()[0] if error.orig else "permission denied"
     hint = ""
     if cause.startswith("permission denied"):
-        hint = " (after an upgrade the owner runs `tracker db workstation-grants` again)"
-    return RuleViolation("--db", None, f"the database refused this: {cause}{hint}")
+        hint = " (after an upgrade the owner grants the workstation group its privileges again)"
+    return RuleViolation("database", None, f"the database refused this: {cause}{hint}")
 
 
 def find_operator(session: Session, actor: str | None) -> Operator:
     if not actor:
-        raise InputError("--as", None, "no operator given; pass --as CODE or set TRACKER_OPERATOR")
+        raise InputError("operator", None, "no operator given")
     operator = session.scalars(select(Operator).where(Operator.code == actor)).one_or_none()
     if operator is None:
-        raise InputError("--as", actor, "no such operator; see `tracker operator list`")
+        raise InputError("operator", actor, "no such operator")
     if not operator.active:
-        raise RuleViolation("--as", actor, "this operator has been deactivated")
+        raise RuleViolation("operator", actor, "this operator has been deactivated")
     return operator

@@ -56,8 +56,7 @@ def correct_concentration(
             raise RuleViolation(
                 "element",
                 request.element,
-                f"no concentration of it is recorded for {solution.public_id}; "
-                "record one with `tracker concentration`",
+                f"no concentration of it is recorded for {solution.public_id}; record one first",
             )
         entry = _concentration_entry(uow.session, solution, current)
         authorise(uow, entry)

@@ -109,9 +109,9 @@ def _anchors(session: Session, scale: str) -> dict[tuple[str, str], ReferenceVal
     """Every accepted δ of the scale's reference material, by (ratio, scale it is on): read
     once, so converting a loan's results costs one statement however many there are."""
     try:
-        rm = get_reference_material(session, "--scale", scale)
+        rm = get_reference_material(session, "scale", scale)
     except NotFound:
-        raise NotFound("--scale", scale, "no reference material has this name") from None
+        raise NotFound("scale", scale, "no reference material has this name") from None
     query = select(ReferenceValue).where(
         ReferenceValue.reference_material_id == rm.id, ReferenceValue.kind == "delta"
     )
@@ -133,10 +133,10 @@ def _on_scale(
     anchor = anchors.get((result.ratio, result.scale))
     if anchor is None:
         raise RuleViolation(
-            "--scale",
+            "scale",
             scale,
             f"no accepted δ{result.ratio} of {scale} on the {result.scale} scale; "
-            "record one with `tracker reference value`",
+            "record that accepted value first",
         )
     factor = 1 / (1 + anchor.value / 1000)
     return change_scale(result.delta_permil, invert(anchor.value)), scale, factor

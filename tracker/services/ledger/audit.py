@@ -106,8 +106,8 @@ class AuditReport:
             raise RuleViolation(
                 field,
                 value,
-                f"{self.verdict()}; refused — see `{AUDIT_COMMAND}`; made despite the "
-                "discrepancies (--despite-discrepancies), it lists every one",
+                f"{self.verdict()}; refused — the audit of the books lists them; made despite "
+                "the discrepancies, it lists every one",
             )
         return self.views()
 

@@ -267,14 +267,14 @@ def _signed(db: Database, actor: str | None, anchor: Anchor) -> Anchor:
     if not authority.keys:
         return anchor
     if not actor:
-        raise InputError("--as", None, "no operator given; an anchor is signed by a manager")
+        raise InputError("operator", None, "no operator given; an anchor is signed by a manager")
     signer = signing.signer_for(authority, actor, db.keyring)
     assert signer is not None  # the ledger has keys
     if not authority.is_manager(actor):
         role = authority.role(actor) or "stranger to this ledger"
         managers = ", ".join(authority.managers())
         raise RuleViolation(
-            "--as",
+            "operator",
             actor,
             f"signing an anchor needs an operator with the manager role ({actor} is a {role}); "
             f"ask a manager ({managers}) to do it",
@@ -291,7 +291,7 @@ def current_anchor(db: Database, actor: str | None, label: str | None = None) ->
         ).first()
         first = session.scalar(select(CustodyEvent.hash).where(CustodyEvent.seq == 1))
     if head is None or first is None:
-        raise RuleViolation("--db", db.url, "the ledger has no events to anchor")
+        raise RuleViolation("database", db.url, "the ledger has no events to anchor")
     return _signed(db, actor, make_anchor(head.seq, head.hash, first, db.clock(), label))
 
 
@@ -301,7 +301,7 @@ def anchor_for(
     """An anchor of an event a document shows (a report's head), checked against the ledger
     and signed by ``actor`` (a manager)."""
     if _hash_of(db, seq) != head_hash:
-        raise RuleViolation("--db", db.url, f"the ledger holds no event #{seq} with that hash")
+        raise RuleViolation("database", db.url, f"the ledger holds no event #{seq} with that hash")
     first = _hash_of(db, 1)
     assert first is not None  # event #seq exists, so event 1 does
     return _signed(db, actor, make_anchor(seq, head_hash, first, db.clock(), label))
@@ -338,15 +338,15 @@ def read_anchor(path: Path) -> Anchor:
         with path.open("rb") as handle:
             content = handle.read(MAX_ANCHOR_BYTES + 1)
     except OSError as error:
-        raise InputError("--anchor", str(path), f"cannot be read ({error.strerror})") from None
+        raise InputError("anchor file", str(path), f"cannot be read ({error.strerror})") from None
     if len(content) > MAX_ANCHOR_BYTES:
-        raise InputError("--anchor", str(path), "is too large to be an anchor file")
+        raise InputError("anchor file", str(path), "is too large to be an anchor file")
     try:
         return parse_anchor(content.decode("utf-8"))
     except UnicodeDecodeError:
-        raise InputError("--anchor", str(path), "is not UTF-8 text") from None
+        raise InputError("anchor file", str(path), "is not UTF-8 text") from None
     except AnchorError as error:
-        raise InputError("--anchor", str(path), str(error)) from None
+        raise InputError("anchor file", str(path), str(error)) from None
 
 
 @dataclass(frozen=True)

@@ -212,5 +212,5 @@ def list_specimens(db: Database, loan: str | None = None) -> list[SpecimenView]:
             .order_by(Specimen.id)
         )
         if loan:
-            query = query.where(Specimen.loan_id == get_loan(session, "--loan", loan).id)
+            query = query.where(Specimen.loan_id == get_loan(session, "loan", loan).id)
         return [SpecimenView.of(s) for s in session.scalars(query)]

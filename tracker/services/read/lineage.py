@@ -56,7 +56,7 @@ def show_item(db: Database, ref: str) -> ItemDetail:
     """Everything about one ID: its lineage below, its ancestors above, its custody history."""
     with db.read_session() as session:
         by_id = looks_like_id(ref, uri_prefix(session))
-        row = get_any(session, "id", ref) if by_id else get_loan(session, "id", ref)
+        row = get_any(session, "item", ref) if by_id else get_loan(session, "item", ref)
         if isinstance(row, Specimen):  # its tree: one query per level instead of per node
             row = load_specimen_tree(session, row.id)
         elif isinstance(row, Loan):

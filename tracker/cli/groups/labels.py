@@ -12,7 +12,7 @@ from rich.table import Table
 from rich.text import Text
 
 from tracker.cli.out_options import Force, kept_note
-from tracker.cli.state import cli_fields, database, emit, perform, state, writing
+from tracker.cli.state import database, emit, perform, state, writing
 from tracker.domain.text_rules import visible
 from tracker.present.text import done, plain_table
 from tracker.services.labels import handling
@@ -20,7 +20,7 @@ from tracker.services.labels import handling
 Opt = typer.Option
 Arg = typer.Argument
 
-labels_app = typer.Typer(
+app = typer.Typer(
     epilog="Example: tracker labels print --stock a4-65 --out labels.pdf",
     help="Labels: the print queue, printing on label stocks (PDF), previews (PNG).",
     no_args_is_help=True,
@@ -43,7 +43,7 @@ StocksFile = Annotated[
 ]
 
 
-@labels_app.command("queue", epilog="Example: tracker labels queue PW-00001-5 SO-00002-K")
+@app.command("queue", epilog="Example: tracker labels queue PW-00001-5 SO-00002-K")
 def queue(
     ctx: typer.Context,
     items: Items,
@@ -55,7 +55,7 @@ def queue(
     emit(ctx, answer, lambda: done(answer, f"{count} label(s) queued"))
 
 
-@labels_app.command(
+@app.command(
     "cancel", epilog="Example: tracker labels cancel SP-00003-8 --reason 'returned unopened'"
 )
 def cancel(
@@ -69,7 +69,7 @@ def cancel(
     emit(ctx, answer, lambda: done(answer, f"{count} queued label(s) cancelled"))
 
 
-@labels_app.command("list", epilog="Example: tracker labels list --all --limit 50")
+@app.command("list", epilog="Example: tracker labels list --all --limit 50")
 def list_command(
     ctx: typer.Context,
     everything: Annotated[
@@ -94,7 +94,7 @@ def list_command(
     emit(ctx, rows, table)
 
 
-@labels_app.command("print", epilog="Example: tracker labels print --stock a4-65 --start 14")
+@app.command("print", epilog="Example: tracker labels print --stock a4-65 --start 14")
 def print_command(
     ctx: typer.Context,
     stock: StockOpt,
@@ -121,7 +121,7 @@ def print_command(
     emit(ctx, outcome, lambda: _job_text(outcome))
 
 
-@labels_app.command(
+@app.command(
     "reprint",
     epilog="Example: tracker labels reprint PW-00001-5 --reason 'label smudged by acid' "
     "--stock cryovial-wrap",
@@ -172,9 +172,7 @@ def _job_text(outcome: Any) -> Text:
     return text
 
 
-@labels_app.command(
-    "preview", epilog="Example: tracker labels preview --stock a4-65 --out sheet.png"
-)
+@app.command("preview", epilog="Example: tracker labels preview --stock a4-65 --out sheet.png")
 def preview(
     ctx: typer.Context,
     stock: StockOpt,
@@ -218,34 +216,33 @@ def _kept(replaced: str | None) -> str:
     return kept_note(None if replaced is None else Path(replaced))
 
 
-@labels_app.command("stocks", epilog="Example: tracker labels stocks --stocks lab-stocks.toml")
+@app.command("stocks", epilog="Example: tracker labels stocks --stocks lab-stocks.toml")
 def stocks_command(ctx: typer.Context, stocks: StocksFile = None) -> None:
     """List the label stocks: presets and the lab's own, each checked."""
     from tracker.domain.errors import InputError
     from tracker.output.stocks import entries, validate
 
-    with cli_fields(ctx):
-        rows: list[dict[str, Any]] = []
-        for name, entry in sorted(entries(stocks).items()):
-            try:
-                stock = validate(entry)
-            except InputError as problem:
-                rows.append(
-                    {"name": name, "source": entry.source, "ok": False, "problem": problem.reason}
-                )
-                continue
+    rows: list[dict[str, Any]] = []
+    for name, entry in sorted(entries(stocks).items()):
+        try:
+            stock = validate(entry)
+        except InputError as problem:
             rows.append(
-                {
-                    "name": name,
-                    "source": entry.source,
-                    "ok": True,
-                    "problem": None,
-                    "label_mm": [stock.label_width_mm, stock.label_height_mm],
-                    "grid": [stock.columns, stock.rows],
-                    "page_mm": [stock.page_width_mm, stock.page_height_mm],
-                    "description": stock.description,
-                }
+                {"name": name, "source": entry.source, "ok": False, "problem": problem.reason}
             )
+            continue
+        rows.append(
+            {
+                "name": name,
+                "source": entry.source,
+                "ok": True,
+                "problem": None,
+                "label_mm": [stock.label_width_mm, stock.label_height_mm],
+                "grid": [stock.columns, stock.rows],
+                "page_mm": [stock.page_width_mm, stock.page_height_mm],
+                "description": stock.description,
+            }
+        )
 
     def table() -> Table:
         t = plain_table("stock", "label", "per page", "page", "for")
@@ -266,9 +263,7 @@ def stocks_command(ctx: typer.Context, stocks: StocksFile = None) -> None:
     emit(ctx, rows, table)
 
 
-@labels_app.command(
-    "uri-prefix", epilog="Example: tracker labels uri-prefix HTTPS://LAB.EXAMPLE/T/"
-)
+@app.command("uri-prefix", epilog="Example: tracker labels uri-prefix HTTPS://LAB.EXAMPLE/T/")
 def uri_prefix_command(
     ctx: typer.Context,
     uri_prefix: Annotated[
@@ -286,28 +281,3 @@ def uri_prefix_command(
     answer = perform(ctx, handling.set_uri_prefix, {"uri_prefix": None if clear else uri_prefix})
     value = answer.item.uri_prefix or "none"
     emit(ctx, answer, lambda: done(answer, f"label URI prefix: {value}"))
-
-
-def lookup(
-    ctx: typer.Context,
-    scanned: Annotated[str, Arg(help="What the scanner typed: an ID or the lab's link.")],
-) -> None:
-    """Say what a scanned label (or a typed ID) names: the item, its label, where it is."""
-    with database(ctx) as db:
-        found = handling.read_scan(db, scanned)
-
-    def human() -> Text:
-        text = Text.assemble((found.id, "bold"), visible(f"  {found.kind}  {found.what}"))
-        if found.status:
-            text.append(f"  [{found.status}]")
-        if found.label:
-            text.append(visible("\nlabel: " + " / ".join(found.label)))
-        text.append(visible(f"\nlocation: {found.location or 'not recorded'}"))
-        for ancestor in found.ancestors:
-            text.append(visible(f"\nfrom: {ancestor}"))
-        return text
-
-    emit(ctx, found, human)
-
-
-LOOKUP_EPILOG = "Example: tracker lookup HTTPS://LAB.EXAMPLE/T/PW-00001-5"

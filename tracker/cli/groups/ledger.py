@@ -8,6 +8,7 @@ from typing import Annotated, Any
 
 import typer
 
+from tracker.cli.fields import Fills
 from tracker.cli.out_options import Force, kept_as, kept_note
 from tracker.cli.progress import progress_bar
 from tracker.cli.state import database, emit, errors, state, writing
@@ -17,7 +18,7 @@ from tracker.present.items import history_table
 from tracker.services.ledger import audit, chain, checkpoints
 from tracker.services.ledger.audit import AuditReport
 
-ledger_app = typer.Typer(
+app = typer.Typer(
     epilog="Example: tracker ledger verify --anchor head-2026-11-30.json",
     help="The hash-chained custody ledger.",
     no_args_is_help=True,
@@ -64,7 +65,7 @@ def _progress(ctx: typer.Context) -> Iterator[chain.Progress | None]:
         yield lambda done, total: bar.update(task, completed=done, total=total)
 
 
-@ledger_app.command(
+@app.command(
     "verify",
     epilog="Example: tracker ledger verify --anchor head.json",
 )
@@ -73,6 +74,7 @@ def ledger_verify(
     anchor: Annotated[
         Path | None,
         typer.Option("--anchor", help="Also require the head kept in this anchor file."),
+        Fills("anchor file"),
     ] = None,
 ) -> None:
     """Re-hash every event and check every signature; print the head (exit 0) or the first
@@ -99,7 +101,7 @@ def ledger_verify(
         raise typer.Exit(1)
 
 
-@ledger_app.command("audit", epilog="Example: tracker ledger audit --json > audit.json")
+@app.command("audit", epilog="Example: tracker ledger audit --json > audit.json")
 def ledger_audit(ctx: typer.Context) -> None:
     """Replay the ledger and hold every row against it (exit 1 on any difference).
 
@@ -128,9 +130,7 @@ def _audit_text(report: AuditReport) -> str:
     return "\n".join(lines)
 
 
-@ledger_app.command(
-    "anchor", epilog="Example: tracker ledger anchor --out anchors/head-2026-11-30.json"
-)
+@app.command("anchor", epilog="Example: tracker ledger anchor --out anchors/head-2026-11-30.json")
 def ledger_anchor(
     ctx: typer.Context,
     out: Annotated[
@@ -167,7 +167,7 @@ def ledger_anchor(
     )
 
 
-@ledger_app.command("list", epilog="Example: tracker ledger list --limit 20 --action powder")
+@app.command("list", epilog="Example: tracker ledger list --limit 20 --action powder")
 def ledger_list(
     ctx: typer.Context,
     limit: Annotated[int, typer.Option("--limit", min=1, help="How many, newest first.")] = 30,
@@ -181,7 +181,7 @@ def ledger_list(
     emit(ctx, events, lambda: history_table(events))
 
 
-@ledger_app.command("export", epilog="Example: tracker ledger export --out ledger.jsonl")
+@app.command("export", epilog="Example: tracker ledger export --out ledger.jsonl")
 def ledger_export(
     ctx: typer.Context,
     out: Annotated[

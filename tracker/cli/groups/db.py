@@ -1,4 +1,4 @@
-"""One login per person on a shared PostgreSQL database: the group's grants, a person's login."""
+"""``tracker db``: schema upgrades, and one login per person on a shared PostgreSQL database."""
 
 from typing import Annotated
 
@@ -9,24 +9,38 @@ from tracker.db.logins import DEFAULT_GROUP
 from tracker.present.text import done
 from tracker.services.admin import logins
 
-GRANTS_EPILOG = (
-    "Example: tracker --db postgresql://tracker_owner@db.lab/tracker_lab db workstation-grants"
-)
-ADD_LOGIN_EPILOG = (
-    "Example: tracker --db postgresql://tracker_owner@db.lab/tracker_lab --as amira "
-    "db add-login tomas tomas_h"
-)
-
 Group = Annotated[
     str, typer.Option("--group", help="The group role every workstation login is a member of.")
 ]
 Show = Annotated[bool, typer.Option("--print", help="Print the SQL instead of running it.")]
+
+app = typer.Typer(
+    epilog="Example: tracker db upgrade",
+    help="Database schema maintenance; logins on a shared database.",
+    no_args_is_help=True,
+)
+
+
+@app.command("upgrade", epilog="Example: tracker --db lab.sqlite db upgrade")
+def db_upgrade(ctx: typer.Context) -> None:
+    """Bring the database schema to this version (SQLite files are backed up first)."""
+    from tracker.db.database import upgrade_database
+
+    old, new = upgrade_database(state(ctx).target)
+    answer = {"from": old, "to": new, "changed": old != new}
+    emit(ctx, answer, lambda: f"schema {old} → {new}" if old != new else f"schema already at {new}")
 
 
 def _sql(statements: list[str], *notes: str) -> str:
     return "\n".join([*(f"{statement};" for statement in statements), *notes])
 
 
+GRANTS_EPILOG = (
+    "Example: tracker --db postgresql://tracker_owner@db.lab/tracker_lab db workstation-grants"
+)
+
+
+@app.command("workstation-grants", epilog=GRANTS_EPILOG)
 def workstation_grants(
     ctx: typer.Context, group: Group = DEFAULT_GROUP, show: Show = False
 ) -> None:
@@ -49,6 +63,13 @@ def workstation_grants(
     )
 
 
+ADD_LOGIN_EPILOG = (
+    "Example: tracker --db postgresql://tracker_owner@db.lab/tracker_lab --as amira "
+    "db add-login tomas tomas_h"
+)
+
+
+@app.command("add-login", epilog=ADD_LOGIN_EPILOG)
 def add_login(
     ctx: typer.Context,
     operator: Annotated[str, typer.Argument(help="The person's operator code.")],

@@ -8,7 +8,6 @@ from rich.table import Table
 
 from tracker.cli.out_options import Force, kept_note
 from tracker.cli.state import (
-    cli_fields,
     database,
     emit,
     passphrase,
@@ -20,14 +19,14 @@ from tracker.cli.state import (
 from tracker.domain.errors import InputError
 from tracker.present.text import done, plain_table
 
-key_app = typer.Typer(
+app = typer.Typer(
     epilog="Example: tracker --as tomas key new",
     help="Personal signing keys: every event is signed by its operator's key.",
     no_args_is_help=True,
 )
 
 
-@key_app.command("new", epilog="Example: tracker --as tomas key new --out tomas.pub")
+@app.command("new", epilog="Example: tracker --as tomas key new --out tomas.pub")
 def key_new(
     ctx: typer.Context,
     out: Annotated[
@@ -49,10 +48,9 @@ def key_new(
     code = state(ctx).actor
     if not code:
         raise InputError("--as", None, "say whose key this is: pass --as YOUR-CODE")
-    with cli_fields(ctx):
-        made = keys.make_key(code, passphrase(f"your new key ({code})", new=True))
-        target = out or Path.cwd() / f"{code}-{made.key_id}.pub"
-        written = outputs.write_new(target, public_pem(made.public_hex), "out", force=force)
+    made = keys.make_key(code, passphrase(f"your new key ({code})", new=True))
+    target = out or Path.cwd() / f"{code}-{made.key_id}.pub"
+    written = outputs.write_new(target, public_pem(made.public_hex), "out", force=force)
     answer = {
         "operator": code,
         "key_id": made.key_id,
@@ -71,7 +69,7 @@ def key_new(
     )
 
 
-@key_app.command("register", epilog="Example: tracker --as ines key register tomas tomas.pub")
+@app.command("register", epilog="Example: tracker --as ines key register tomas tomas.pub")
 def key_register(
     ctx: typer.Context,
     operator: Annotated[str, typer.Argument(help="Whose key it is.", metavar="OPERATOR")],
@@ -87,17 +85,16 @@ def key_register(
     from tracker.domain.signing import key_id
     from tracker.services.admin import keys
 
-    upload = read_upload(public_key_file, "PUBLIC_KEY_FILE", limit=64 * 1024)
+    upload = read_upload(public_key_file, "public key file", limit=64 * 1024)
     assert upload is not None
-    with cli_fields(ctx):
-        public_hex = keys.public_key_from(upload["content"], "PUBLIC_KEY_FILE")
+    public_hex = keys.public_key_from(upload["content"], "public key file")
     request = {"operator": operator, "public_key": public_hex}
-    with writing(ctx, first_key=key_id(public_hex)) as db, cli_fields(ctx):
+    with writing(ctx, first_key=key_id(public_hex)) as db:
         answer = keys.register_key(db, state(ctx).actor, request)
     emit(ctx, answer, lambda: done(answer, f"key {answer.item.key_id} registered for {operator}"))
 
 
-@key_app.command(
+@app.command(
     "revoke", epilog="Example: tracker --as ines key revoke tomas --reason 'laptop stolen'"
 )
 def key_revoke(
@@ -117,7 +114,7 @@ def key_revoke(
     emit(ctx, answer, lambda: done(answer, f"key {answer.item.key_id} of {operator} revoked"))
 
 
-@key_app.command("list", epilog="Example: tracker key list")
+@app.command("list", epilog="Example: tracker key list")
 def key_list(ctx: typer.Context) -> None:
     """Every key the ledger registered: whose, when, revoked or not, and whether its
     private key file is on this machine."""

@@ -12,7 +12,7 @@ from tracker.services.corrections import correcting, measured_values, weighings
 Opt = typer.Option
 Reason = Annotated[str, Opt("--reason", help="Why the recorded value is wrong (kept forever).")]
 
-correct_app = typer.Typer(
+app = typer.Typer(
     help="Correct a recorded value: the original stays in the history, the correction rules.",
     epilog="Example: tracker correct weighing PW-00001-5 --tare '1234.567 mg' "
     "--gross '1236.771 mg' --reason 'gross read off the wrong line of the balance log'",
@@ -27,7 +27,7 @@ def _answer(ctx: typer.Context, answer: Any) -> None:
     emit(ctx, answer, lambda: done(answer, f"{item.item} {item.quantity} corrected{again}"))
 
 
-@correct_app.command(
+@app.command(
     "weighing",
     epilog="Example: tracker correct weighing AQ-00003-B --tare '2.0000 g' "
     "--gross '2.1012 g' --reason 'tare of the wrong vial'",
@@ -53,7 +53,7 @@ def weighing(
     _answer(ctx, perform(ctx, weighings.correct_weighing, request))
 
 
-@correct_app.command(
+@app.command(
     "powder-taken",
     epilog="Example: tracker correct powder-taken SO-00001-M --mass '1.502 mg' "
     "--reason 'transcribed 1.205 for 1.502'",
@@ -61,21 +61,21 @@ def weighing(
 def powder_taken(
     ctx: typer.Context,
     solution: Annotated[str, typer.Argument(help="Solution ID.")],
-    mass: Annotated[str, Opt("--mass", help="Powder that went into it, with unit.")],
+    powder_taken: Annotated[str, Opt("--mass", help="Powder that went into it, with unit.")],
     reason: Reason,
     readability: Annotated[str, Opt("--readability", help="Balance readability.")] = "0.001 mg",
 ) -> None:
     """Correct how much powder went into a solution."""
     request = {
         "solution": solution,
-        "powder_taken": mass,
+        "powder_taken": powder_taken,
         "readability": readability,
         "reason": reason,
     }
     _answer(ctx, perform(ctx, weighings.correct_powder_taken, request))
 
 
-@correct_app.command(
+@app.command(
     "concentration",
     epilog="Example: tracker correct concentration SO-00001-M --element Ca "
     "--value '821 ug/g' --rel-u 2 --reason 'dilution factor 10 was applied twice'",
@@ -86,8 +86,10 @@ def concentration(
     element: Annotated[str, Opt("--element", help="Element whose value is wrong.")],
     value: Annotated[str, Opt("--value", help="The right mass fraction, with unit.")],
     reason: Reason,
-    u: Annotated[str | None, Opt("--u", help="Standard uncertainty with unit.")] = None,
-    rel_u: Annotated[float | None, Opt("--rel-u", help="Or relative uncertainty, %.")] = None,
+    uncertainty: Annotated[str | None, Opt("--u", help="Standard uncertainty with unit.")] = None,
+    relative_uncertainty_percent: Annotated[
+        float | None, Opt("--rel-u", help="Or relative uncertainty, %.")
+    ] = None,
     method: Annotated[str | None, Opt("--method", help="Default: as recorded.")] = None,
 ) -> None:
     """Correct the concentration in force; aliquot loads and reduced results follow."""
@@ -95,15 +97,15 @@ def concentration(
         "solution": solution,
         "element": element,
         "value": value,
-        "uncertainty": u,
-        "relative_uncertainty_percent": rel_u,
+        "uncertainty": uncertainty,
+        "relative_uncertainty_percent": relative_uncertainty_percent,
         "method": method,
         "reason": reason,
     }
     _answer(ctx, perform(ctx, measured_values.correct_concentration, request))
 
 
-@correct_app.command(
+@app.command(
     "recovery",
     epilog="Example: tracker correct recovery CU-00004-F --recovered '9.91 ug' --rel-u 1.5 "
     "--reason 'ICP-OES sequence row swapped with the blank'",
@@ -113,21 +115,23 @@ def recovery(
     cut: Annotated[str, typer.Argument(help="Cut ID.")],
     recovered: Annotated[str, Opt("--recovered", help="Element recovered, with unit.")],
     reason: Reason,
-    u: Annotated[str | None, Opt("--u", help="Standard uncertainty with unit.")] = None,
-    rel_u: Annotated[float | None, Opt("--rel-u", help="Or relative uncertainty, %.")] = None,
+    uncertainty: Annotated[str | None, Opt("--u", help="Standard uncertainty with unit.")] = None,
+    relative_uncertainty_percent: Annotated[
+        float | None, Opt("--rel-u", help="Or relative uncertainty, %.")
+    ] = None,
 ) -> None:
     """Correct a cut's recovered element; yields, blank shares and results follow."""
     request = {
         "cut": cut,
         "recovered": recovered,
-        "uncertainty": u,
-        "relative_uncertainty_percent": rel_u,
+        "uncertainty": uncertainty,
+        "relative_uncertainty_percent": relative_uncertainty_percent,
         "reason": reason,
     }
     _answer(ctx, perform(ctx, measured_values.correct_recovery, request))
 
 
-@correct_app.command("list", epilog="Example: tracker correct list PW-00001-5")
+@app.command("list", epilog="Example: tracker correct list PW-00001-5")
 def correct_list(
     ctx: typer.Context,
     item: Annotated[str | None, typer.Argument(help="Only this item's corrections.")] = None,

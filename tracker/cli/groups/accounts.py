@@ -1,0 +1,159 @@
+"""Top-level commands that account for a loan: plans, reconciliation, results, screening."""
+
+from pathlib import Path
+from typing import Annotated, Any
+
+import typer
+from rich.console import Group
+from rich.text import Text
+
+from tracker.cli.out_options import Despite, Force
+from tracker.cli.progress import progress_bar
+from tracker.cli.state import database, emit, errors, state
+from tracker.db import outputs
+from tracker.domain.errors import InputError
+from tracker.present.lab import results_table, screen_table
+from tracker.present.loans import plan_table, reconcile_tables
+from tracker.services.instrument import results, screening
+from tracker.services.ledger import audit
+from tracker.services.ledger.audit import AuditReport
+from tracker.services.ledger.loan_audit import audit_loan
+from tracker.services.loans import planning
+from tracker.services.read import reconcile
+
+Opt = typer.Option
+
+app = typer.Typer()  # its commands join the top level (see tracker/cli/__init__.py)
+
+
+PLAN_EPILOG = "Example: tracker plan KF-2026-014 --ug 2 --replicates 4 --yield 0.95"
+
+
+@app.command("plan", epilog=PLAN_EPILOG)
+def plan(
+    ctx: typer.Context,
+    target: Annotated[str, typer.Argument(help="Specimen ID, or loan ID or reference.")],
+    ug_per_analysis: Annotated[float, Opt("--ug", help="Element per analysis, µg.")],
+    replicates: Annotated[int, Opt("--replicates", help="Analyses per specimen.")] = 1,
+    element: Annotated[str, Opt("--element", help="Element analysed.")] = "Ca",
+    expected_yield: Annotated[float, Opt("--yield", help="Expected column yield, 0-1.")] = 0.95,
+    material: Annotated[str | None, Opt("--material", help="Default: from the tissue.")] = None,
+    tissue: Annotated[str | None, Opt("--tissue", help="Default: the loan's first tissue.")] = None,
+    margin_percent: Annotated[float, Opt("--margin", help="Safety margin, %.")] = 20.0,
+    aliquot_share: Annotated[
+        float,
+        Opt("--aliquot-share", help="Share of each solution for concentration and archive, 0-1."),
+    ] = 0.10,
+    min_powder_mg: Annotated[
+        float, Opt("--min-powder", help="Smallest powder worth drilling, mg.")
+    ] = 0.5,
+) -> None:
+    """How much powder to drill for the planned analyses, checked against the loan's terms."""
+    request = {
+        "target": target,
+        "material": material,
+        "tissue": tissue,
+        "margin_percent": margin_percent,
+        "aliquot_share": aliquot_share,
+        "min_powder_mg": min_powder_mg,
+        "analyses": [
+            {
+                "element": element,
+                "ug_per_analysis": ug_per_analysis,
+                "replicates": replicates,
+                "expected_yield": expected_yield,
+            }
+        ],
+    }
+    with database(ctx) as db:
+        answer = planning.plan(db, request)
+    emit(ctx, answer, lambda: plan_table(answer))
+
+
+RECONCILE_EPILOG = "Example: tracker reconcile --loan MDGC/LN/0457"
+
+
+@app.command("reconcile", epilog=RECONCILE_EPILOG)
+def reconcile_command(
+    ctx: typer.Context,
+    loan: Annotated[str | None, Opt("--loan", help="Only this loan (ID or reference).")] = None,
+    despite: Despite = False,
+) -> None:
+    """Per loan and specimen: permitted, drilled, dissolved, powder left, returned, flags.
+
+    The books are audited against the ledger first (the loan's rows with --loan, else the
+    whole lab's, which replays the whole ledger) and the verdict printed beside the
+    chain's; books that differ are refused unless --despite-discrepancies.
+    """
+    with database(ctx) as db, progress_bar(ctx, "auditing the books") as progress:
+        checked = audit_loan(db, loan) if loan else audit.audit(db, progress)
+        where = ("loan", loan) if loan else ("database", db.url)
+        found = checked.vouch(*where, despite=despite)
+        lines = reconcile.reconcile(db, loan)
+    said = [_verdicts(checked), *(f"  {d.said}" for d in found)]
+    if state(ctx).as_json:  # the document stays the lines alone; the verdicts go to stderr
+        errors.print("\n".join(said), soft_wrap=True)
+    emit(ctx, lines, lambda: Group(reconcile_tables(lines), Text("\n".join(said))))
+
+
+def _verdicts(checked: AuditReport) -> str:
+    """The chain's verdict beside the books': "intact" only when both hold."""
+    chain = checked.chain
+    if not chain.ok:
+        return f"ledger BROKEN at event #{chain.broken_seq}: {chain.reason}"
+    head = f"{chain.events:,} events, head #{chain.head_seq}"
+    if checked.discrepancies:
+        return f"ledger hashes unbroken ({head}), but {checked.verdict()}"
+    return f"ledger intact: {head}; {checked.verdict()}"
+
+
+RESULTS_EPILOG = "Example: tracker results --loan KF-2026-014 --scale 'Seawater in-house'"
+
+
+@app.command("results", epilog=RESULTS_EPILOG)
+def results_command(
+    ctx: typer.Context,
+    loan: Annotated[str | None, Opt("--loan", help="Only this loan.")] = None,
+    scale: Annotated[str | None, Opt("--scale", help="Report on this reference's scale.")] = None,
+    plot: Annotated[
+        Path | None, Opt("--plot", help="Also write δ against age to a new PNG file.")
+    ] = None,
+    ratio: Annotated[str, Opt("--ratio", help="Ratio to plot.")] = "44/40",
+    force: Force = False,
+) -> None:
+    """Results per specimen (δ with 2SD and n), optionally on another reference scale."""
+    with database(ctx) as db:
+        if plot is not None:
+            outputs.check_target(plot, "--plot", force=force, database=db.path)
+        rows = results.results(db, loan, scale)
+        if plot is not None:
+            _write_plot(db, rows, ratio, plot, force)
+    emit(ctx, rows, lambda: results_table(rows))
+
+
+def _write_plot(db: Any, rows: Any, ratio: str, plot: Path, force: bool) -> None:
+    from tracker.output.plots import delta_vs_age_png
+
+    try:
+        picture = delta_vs_age_png(rows, ratio)
+    except ValueError as error:
+        raise InputError("ratio", ratio, str(error)) from None
+    written = outputs.write_new(
+        plot, picture, "--plot", force=force, database=db.path, clock=db.clock
+    )
+    if written.replaced is not None:
+        errors.print(f"kept the replaced file as {written.replaced}", markup=False, soft_wrap=True)
+
+
+SCREEN_EPILOG = "Example: tracker screen MDGC/LN/0457"
+
+
+@app.command("screen", epilog=SCREEN_EPILOG)
+def screen_command(
+    ctx: typer.Context,
+    loan: Annotated[str, typer.Argument(help="Loan ID or reference.")],
+) -> None:
+    """Ages each specimen's ⁸⁷Sr/⁸⁶Sr allows on the loan's curve, and whether they fit."""
+    with database(ctx) as db:
+        lines = screening.screen(db, loan)
+    emit(ctx, lines, lambda: screen_table(lines))
