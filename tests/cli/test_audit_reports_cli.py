@@ -131,6 +131,14 @@ def test_reconcile_prints_both_verdicts_and_refuses_altered_books(books: Books) 
     flat = " ".join(clean.stdout.split())
     assert "ledger intact:" in flat and "books agree with the ledger" in flat
     loan, old = _tamper(books)
+    # every loan's reconcile audits what changed since the whole-lab audit it just made; a
+    # value changed by hand with no event since is not among those changes (the limit its
+    # verdict states): the loan's own reconcile, and any whole-lab audit, find it
+    unseen = invoke("reconcile", db=books.target)
+    assert unseen.exit_code == 0
+    assert "loans changed since event #" in " ".join(unseen.stdout.split())
+    assert "in this computer's audit of" in " ".join(unseen.stdout.split())
+    assert invoke("ledger", "audit", db=books.target).exit_code == 1  # and drops the mark
     for scope in ((), ("--loan", loan)):
         refused = invoke("reconcile", *scope, db=books.target)
         assert refused.exit_code == 1 and _said(old) in refused.stderr

@@ -15,9 +15,8 @@ from tracker.domain.errors import InputError
 from tracker.present.lab import results_table, screen_table
 from tracker.present.loans import plan_table, reconcile_tables
 from tracker.services.instrument import results, screening
-from tracker.services.ledger import audit
 from tracker.services.ledger.audit import AuditReport
-from tracker.services.ledger.loan_audit import audit_loan
+from tracker.services.ledger.loan_audit import audit_changes, audit_loan
 from tracker.services.loans import planning
 from tracker.services.read import reconcile
 
@@ -81,12 +80,13 @@ def reconcile_command(
 ) -> None:
     """Per loan and specimen: permitted, drilled, dissolved, powder left, returned, flags.
 
-    The books are audited against the ledger first (the loan's rows with --loan, else the
-    whole lab's, which replays the whole ledger) and the verdict printed beside the
-    chain's; books that differ are refused unless --despite-discrepancies.
+    The books are audited against the ledger first (the loan's rows with --loan; else the
+    loans changed since this computer's last whole-lab audit, or the whole lab when there is
+    none) and the verdict printed beside the chain's; books that differ are refused unless
+    --despite-discrepancies.
     """
     with database(ctx) as db, progress_bar(ctx, "auditing the books") as progress:
-        checked = audit_loan(db, loan) if loan else audit.audit(db, progress)
+        checked = audit_loan(db, loan) if loan else audit_changes(db, progress)
         where = ("loan", loan) if loan else ("database", db.url)
         found = checked.vouch(*where, despite=despite)
         lines = reconcile.reconcile(db, loan)
@@ -101,7 +101,7 @@ def _verdicts(checked: AuditReport) -> str:
     chain = checked.chain
     if not chain.ok:
         return f"ledger BROKEN at event #{chain.broken_seq}: {chain.reason}"
-    head = f"{chain.events:,} events, head #{chain.head_seq}"
+    head = f"head #{chain.head_seq:,}, {chain.events:,} events verified now"
     if checked.discrepancies:
         return f"ledger hashes unbroken ({head}), but {checked.verdict()}"
     return f"ledger intact: {head}; {checked.verdict()}"

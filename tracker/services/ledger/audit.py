@@ -63,6 +63,9 @@ class AuditReport:
     # the events up to this one were verified before (this computer's checkpoint), and when
     checkpoint: tuple[int, datetime] | None = None
     note: str | None = None  # a checkpoint found and not trusted, and why
+    # the books up to this event agreed in a whole-lab audit on this computer, and when: only
+    # what changed since was audited (reconcile of every loan)
+    audited_to: tuple[int, datetime] | None = None
 
     @property
     def ok(self) -> bool:
@@ -81,6 +84,12 @@ class AuditReport:
                 f"{books} agree with the ledger: {self.rows:,} rows, "
                 f"{self.coverage.events:,} events replayed"
             )
+            if self.audited_to is not None:
+                seq, at = self.audited_to
+                agree += (
+                    f" (the whole lab's agreed up to event #{seq:,} in this computer's audit "
+                    f"of {at:%Y-%m-%d %H:%M} UTC)"
+                )
             if self.coverage.complete:
                 return agree
             return (

@@ -44,7 +44,7 @@ from tracker.domain.models import (
 )
 from tracker.domain.replay import Books, Discrepancy, Scope
 from tracker.services.core.lookup import get_loan
-from tracker.services.ledger.audit import AuditReport, audit, stored
+from tracker.services.ledger.audit import AuditReport, Progress, audit, stored
 from tracker.services.ledger.chain import stamp_column
 from tracker.services.ledger.checkpoints import keep, kept_for, verify_since_checkpoint
 
@@ -69,7 +69,7 @@ def audit_loan(db: Database, loan: str) -> AuditReport:
     return AuditReport(chain, found, books.coverage, rows, scope_name, checkpoint, verified.note)
 
 
-def audit_changes(db: Database) -> AuditReport:
+def audit_changes(db: Database, progress: Progress | None = None) -> AuditReport:
     """Every loan's books as far as they changed since this computer's last whole-lab audit.
 
     A whole-lab audit that found the books agreeing with the ledger marks its head on this
@@ -83,18 +83,24 @@ def audit_changes(db: Database) -> AuditReport:
     """
     kept = kept_for(db)
     if kept is None or kept.audited_seq is None or kept.audited_at is None:
-        return audit(db)
+        return audit(db, progress)
     verified = verify_since_checkpoint(db)
     if verified.note is not None:  # the checkpoint is not this ledger's any more
-        return audit(db)
-    since = (kept.audited_seq, kept.audited_at)
+        return audit(db, progress)
+    rested = verified.checkpoint
+    checkpoint = None if rested is None else (rested.seq, rested.verified_at)
+    audited_to = (kept.audited_seq, kept.audited_at)
     scope_name = f"the loans changed since event #{kept.audited_seq:,}"
     if not verified.chain.ok:
-        return AuditReport(verified.chain, [], Books().coverage, 0, scope_name, since)
+        return AuditReport(
+            verified.chain, [], Books().coverage, 0, scope_name, checkpoint, audited_to=audited_to
+        )
     with stream.snapshot(db.engine) as connection:
         loans = _loans_named(connection, _names_since(connection, kept.audited_seq))
         books, rows, found = _audited(connection, _scope(connection, loans))
-    report = AuditReport(verified.chain, found, books.coverage, rows, scope_name, since)
+    report = AuditReport(
+        verified.chain, found, books.coverage, rows, scope_name, checkpoint, audited_to=audited_to
+    )
     if not found:
         keep(db, verified.chain, db.clock(), audit="now")
     return report
