@@ -129,6 +129,7 @@ def test_labels_page_names_real_stocks_commands_and_a_valid_stock_file(
     import typer
     from typer.core import TyperGroup
 
+    from tests.cli.conftest import subcommands
     from tracker.cli import app
     from tracker.output.stocks import entries, load_stock
 
@@ -142,10 +143,10 @@ def test_labels_page_names_real_stocks_commands_and_a_valid_stock_file(
     assert named == set(entries())  # every preset is documented by its real name
     cli = typer.main.get_command(app)
     assert isinstance(cli, TyperGroup)
-    labels_group = cli.commands["labels"]
+    labels_group = subcommands(cli)["labels"]
     assert isinstance(labels_group, TyperGroup)
     for command in re.findall(r"^tracker labels ([a-z-]+)", _blocks(section, "bash")[0], re.M):
-        assert command in labels_group.commands
+        assert command in subcommands(labels_group)
 
 
 def test_the_reliability_page_keeps_its_prose_when_a_run_writes_its_table(tmp_path: Path) -> None:

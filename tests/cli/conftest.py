@@ -16,6 +16,7 @@ from pathlib import Path
 from typing import Any
 
 import pytest
+import typer
 from typer.testing import CliRunner, Result
 
 from tests.conftest import snapshot_counts
@@ -28,6 +29,15 @@ CLEAN_ENV: dict[str, str | None] = {
     "TRACKER_LABEL_STOCKS": None,
 }
 SQLITE_SUFFIXES = ("", "-wal", "-shm")
+
+
+def subcommands(command: Any) -> dict[str, Any]:
+    """A group's commands by name, through Click's own API: `tracker` loads each command's
+    module only when it is asked for, so the groups hold no ready-made dict of them."""
+    if not hasattr(command, "list_commands"):
+        return {}
+    ctx = typer.Context(command)
+    return {name: command.get_command(ctx, name) for name in command.list_commands(ctx)}
 
 
 def invoke(

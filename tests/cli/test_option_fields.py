@@ -20,17 +20,17 @@ import pytest
 import typer
 from pydantic import BaseModel
 
-from tests.cli.conftest import Lab, counts, invoke
+from tests.cli.conftest import Lab, counts, invoke, subcommands
 from tracker.cli import app
 from tracker.cli.fields import GLOBAL_OPTIONS, declared_fills, option_for, parameter_for
 from tracker.domain.errors import InputError
 
 
 def _leaves(command: Any, path: tuple[str, ...] = ()) -> Iterator[tuple[str, Any]]:
-    subs = getattr(command, "commands", None)
+    subs = subcommands(command)
     if not subs:
         yield " ".join(path), command
-    for name, sub in sorted((subs or {}).items()):
+    for name, sub in sorted(subs.items()):
         yield from _leaves(sub, (*path, name))
 
 
