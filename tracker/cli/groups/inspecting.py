@@ -1,5 +1,10 @@
 """Top-level commands that read one thing: the overview (or the terminal interface),
-an item's detail, a scanned label."""
+an item's detail, a scanned label.
+
+Each command imports the services and renderers it uses when it runs: these are the
+commands a person runs most, each for one quick answer, and none should pay for loading
+what the others need.
+"""
 
 import sys
 from typing import Annotated
@@ -9,10 +14,6 @@ from rich.text import Text
 
 from tracker.cli.state import database, emit, state
 from tracker.domain.text_rules import visible
-from tracker.present.items import item_detail
-from tracker.present.loans import overview_table
-from tracker.services.labels import handling
-from tracker.services.read import lineage, reconcile
 
 Arg = typer.Argument
 
@@ -25,6 +26,9 @@ OVERVIEW_EPILOG = "Example: tracker --db tracker-demo.sqlite overview"
 @app.command("overview", epilog=OVERVIEW_EPILOG)
 def show_overview(ctx: typer.Context) -> None:
     """Open loans, allowance used, due dates and flags, most urgent first."""
+    from tracker.present.loans import overview_table
+    from tracker.services.read import reconcile
+
     with database(ctx) as db:
         lines = reconcile.reconcile(db, specimens=False)
     emit(ctx, lines, lambda: overview_table(lines))
@@ -56,6 +60,9 @@ def show(
     item: Annotated[str, typer.Argument(help="Any ID: specimen, powder, solution, loan, ...")],
 ) -> None:
     """Show an item, the lineage of everything made from it, and its custody history."""
+    from tracker.present.items import item_detail
+    from tracker.services.read import lineage
+
     with database(ctx) as db:
         detail = lineage.show_item(db, item)
     emit(ctx, detail, lambda: item_detail(detail))
@@ -70,6 +77,8 @@ def lookup(
     scanned: Annotated[str, Arg(help="What the scanner typed: an ID or the lab's link.")],
 ) -> None:
     """Say what a scanned label (or a typed ID) names: the item, its label, where it is."""
+    from tracker.services.labels import handling
+
     with database(ctx) as db:
         found = handling.read_scan(db, scanned)
 

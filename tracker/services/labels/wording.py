@@ -62,23 +62,26 @@ LABELLED_KINDS = (
 )
 
 
-# What each label's text reads beyond the item itself, loaded for many labels at once.
-_PARENTS: dict[type[Any], list[Any]] = {
-    Specimen: [selectinload(Specimen.loan)],
-    Powder: [selectinload(Powder.specimen)],
-    Solution: [selectinload(Solution.powder)],
-    Aliquot: [selectinload(Aliquot.solution)],
-    BatchPosition: [
-        selectinload(BatchPosition.batch),
-        selectinload(BatchPosition.aliquot),
-        selectinload(BatchPosition.reference_material),
-    ],
-    Cut: [
-        selectinload(Cut.position).selectinload(BatchPosition.batch),
-        selectinload(Cut.position).selectinload(BatchPosition.aliquot),
-        selectinload(Cut.position).selectinload(BatchPosition.reference_material),
-    ],
-}
+def _parents(model: type[Any]) -> list[Any]:
+    """What each label's text reads beyond the item itself, loaded for many labels at once
+    (built when asked for: loader options configure the mappers, which no import may do)."""
+    options: dict[type[Any], list[Any]] = {
+        Specimen: [selectinload(Specimen.loan)],
+        Powder: [selectinload(Powder.specimen)],
+        Solution: [selectinload(Solution.powder)],
+        Aliquot: [selectinload(Aliquot.solution)],
+        BatchPosition: [
+            selectinload(BatchPosition.batch),
+            selectinload(BatchPosition.aliquot),
+            selectinload(BatchPosition.reference_material),
+        ],
+        Cut: [
+            selectinload(Cut.position).selectinload(BatchPosition.batch),
+            selectinload(Cut.position).selectinload(BatchPosition.aliquot),
+            selectinload(Cut.position).selectinload(BatchPosition.reference_material),
+        ],
+    }
+    return options.get(model, [])
 
 
 def labelled_items(session: Session, field: str, refs: Iterable[str]) -> list[Labelled]:
@@ -97,7 +100,7 @@ def labelled_items(session: Session, field: str, refs: Iterable[str]) -> list[La
         ordered = sorted(numbers)
         for start in range(0, len(ordered), _CHUNK):
             query = select(model).where(model.id.in_(ordered[start : start + _CHUNK]))
-            for row in session.scalars(query.options(*_PARENTS.get(model, []))):
+            for row in session.scalars(query.options(*_parents(model))):
                 found[model, row.id] = row
     rows: list[Labelled] = []
     for ref, public in named:
