@@ -63,6 +63,7 @@ def test_generate_refuses_an_existing_file(tmp_path: Path) -> None:
     assert there.read_bytes() == b"keep me"
 
 
+@pytest.mark.slow
 def test_a_small_run_prints_each_figure_with_its_floor_and_no_disagreement(tmp_path: Path) -> None:
     result = bench(
         "run",
@@ -90,6 +91,7 @@ def test_a_small_run_prints_each_figure_with_its_floor_and_no_disagreement(tmp_p
     assert any(tmp_path.glob("bench-scale0.002-*.sqlite"))  # cached for the next run
 
 
+@pytest.mark.slow
 def test_the_page_holds_the_same_figures_as_the_json_and_the_commit(tmp_path: Path) -> None:
     out = tmp_path / "perf.md"
     result = bench(
@@ -127,6 +129,7 @@ def test_the_page_holds_the_same_figures_as_the_json_and_the_commit(tmp_path: Pa
     assert "Figures slower than" not in text  # nothing to compare the first page with
 
 
+@pytest.mark.slow
 def test_a_second_run_replaces_its_page_and_names_what_got_slower(tmp_path: Path) -> None:
     out = tmp_path / "perf.md"
     args = ("run", "--scale", "0.002", "--backend", "sqlite", "--repeat", "1", "--only")

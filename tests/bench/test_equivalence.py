@@ -24,6 +24,8 @@ from tracker.domain.base import Base
 from tracker.services.ledger import audit, chain
 from tracker.services.read import reconcile
 
+pytestmark = pytest.mark.slow  # builds and compares whole chains on both backends
+
 SHAPE = shape_for(0.002, loans=3)
 
 

@@ -15,6 +15,7 @@ import json
 from pathlib import Path
 from typing import Any
 
+import pytest
 from openpyxl import Workbook, load_workbook
 
 from tests.cli.budget_book import NMFI, refused, validate
@@ -126,6 +127,7 @@ def test_a_missing_column_is_one_problem_per_row(lab: Lab, tmp_path: Path) -> No
     assert [len(r["problems"]) for r in answer["rows"]] == [1, 1]
 
 
+@pytest.mark.slow
 def test_unreadable_and_oversized_files_are_refused_whole(lab: Lab, tmp_path: Path) -> None:
     legacy = "catalogNumber,locality\nFNHC M-301,Café quarry\n".encode("cp1252")
     # "catalogNumber,locality\n" is 23 bytes, "FNHC M-301,Caf" 14 more: the é is byte 37

@@ -16,6 +16,7 @@ from collections.abc import Callable
 from decimal import Decimal
 from pathlib import Path
 
+import pytest
 from hypothesis import HealthCheck, settings
 from hypothesis import strategies as st
 from hypothesis.stateful import Bundle, RuleBasedStateMachine, invariant, rule
@@ -205,4 +206,4 @@ LabBench.TestCase.settings = settings(
     deadline=None,
     suppress_health_check=[HealthCheck.too_slow],
 )
-TestLabBench = LabBench.TestCase
+TestLabBench = pytest.mark.slow(LabBench.TestCase)

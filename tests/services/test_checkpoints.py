@@ -147,3 +147,32 @@ def test_reconcile_s_audit_covers_the_loans_changed_since_the_last_whole_audit(
     dropped = checkpoints.kept_for(db)
     assert dropped is not None and dropped.audited_seq is None
     assert len(loan_audit.audit_changes(db).discrepancies) == 2  # no mark: the whole lab again
+
+
+def test_an_event_naming_only_a_cut_brings_its_loan_into_the_changes_audited(
+    db: Database, own_folder: Path
+) -> None:
+    """The loan of an item deep in its tree (a column's cut) is found through every level
+    above it: an event naming only the cut brings the whole loan into the audit."""
+    from tests.services.test_instrument import bench
+    from tracker.services.corrections import measured_values
+
+    lab = bench(db)
+    assert loan_audit.audit_changes(db).ok  # the whole lab, and the mark
+    (specimen,) = [a for a in reports_ancestors(db, lab.cut) if a.startswith("SP-")]
+    _tamper(
+        db, f"UPDATE specimen SET catalog_number = 'CAT X' WHERE id = {parse_id(specimen).number}"
+    )
+    correction = {"cut": lab.cut, "recovered": "9.100 ug", "reason": "read again"}
+    measured_values.correct_recovery(db, "tech", correction)  # names the cut, not the loan
+    found = loan_audit.audit_changes(db)
+    assert [(d.table, d.key, d.field) for d in found.discrepancies] == [
+        ("specimen", specimen, "catalog_number")
+    ]
+
+
+def reports_ancestors(db: Database, item: str) -> list[str]:
+    """The IDs above an item, as a scan reads them."""
+    from tracker.services.labels.handling import read_scan
+
+    return [line.split()[0] for line in read_scan(db, item).ancestors]

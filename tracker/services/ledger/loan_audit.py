@@ -19,7 +19,7 @@ scoped audit does not check is the rest of the lab (`tracker ledger audit` does)
 from __future__ import annotations
 
 from collections import defaultdict
-from collections.abc import Callable, Iterator
+from collections.abc import Iterator
 from typing import Any
 
 from sqlalchemy import ColumnElement, Connection, Select, or_, select
@@ -137,12 +137,10 @@ def _loans_named(connection: Connection, names: set[str]) -> set[int]:
     """The loans whose books hold any of ``names``: up each item's chain to its loan."""
     loans: set[int] = set()
     for kind, numbers in _by_kind(names).items():
-        path = _UP_TO_LOAN.get(kind)
-        if path is None:
-            continue
         for start in range(0, len(numbers), CHUNK):
-            chunk = numbers[start : start + CHUNK]
-            statement = path(chunk)
+            statement = _to_loan(kind, numbers[start : start + CHUNK])
+            if statement is None:
+                break
             loans.update(loan for (loan,) in connection.execute(statement))
     return loans
 
@@ -225,54 +223,34 @@ def _by_kind(names: set[str]) -> dict[Kind, list[int]]:
 CHUNK = 500  # IDs per IN (...) list: well inside every backend's limit on parameters
 
 
-def _up(*joins: tuple[Any, Any], last: Any) -> Callable[[list[int]], Select[Any]]:
-    """A statement from an item's rows up to its loan: ``joins`` from the specimen down."""
-
-    def statement(numbers: list[int]) -> Select[Any]:
-        query = select(Specimen.loan_id)
-        for table, on in joins:
-            query = query.join(table, on)
-        return query.where(last.in_(numbers))
-
-    return statement
-
-
-_UP_TO_LOAN: dict[Kind, Callable[[list[int]], Select[Any]]] = {
-    Kind.LOAN: lambda numbers: select(Loan.id).where(Loan.id.in_(numbers)),
-    Kind.LENDER: lambda numbers: select(Loan.id).where(Loan.lender_id.in_(numbers)),
-    Kind.SHIPMENT: lambda numbers: select(Shipment.loan_id).where(Shipment.id.in_(numbers)),
-    Kind.DOCUMENT: lambda numbers: select(LoanDocument.loan_id).where(
-        LoanDocument.document_id.in_(numbers)
-    ),
-    Kind.SPECIMEN: _up(last=Specimen.id),
-    Kind.POWDER: _up((Powder, Powder.specimen_id == Specimen.id), last=Powder.id),
-    Kind.SOLUTION: _up(
-        (Powder, Powder.specimen_id == Specimen.id),
-        (Solution, Solution.powder_id == Powder.id),
-        last=Solution.id,
-    ),
-    Kind.ALIQUOT: _up(
-        (Powder, Powder.specimen_id == Specimen.id),
-        (Solution, Solution.powder_id == Powder.id),
-        (Aliquot, Aliquot.solution_id == Solution.id),
-        last=Aliquot.id,
-    ),
-    Kind.POSITION: _up(
-        (Powder, Powder.specimen_id == Specimen.id),
-        (Solution, Solution.powder_id == Powder.id),
-        (Aliquot, Aliquot.solution_id == Solution.id),
-        (BatchPosition, BatchPosition.aliquot_id == Aliquot.id),
-        last=BatchPosition.id,
-    ),
-    Kind.CUT: _up(
-        (Powder, Powder.specimen_id == Specimen.id),
-        (Solution, Solution.powder_id == Powder.id),
-        (Aliquot, Aliquot.solution_id == Solution.id),
-        (BatchPosition, BatchPosition.aliquot_id == Aliquot.id),
-        (Cut, Cut.position_id == BatchPosition.id),
-        last=Cut.id,
-    ),
-}
+def _to_loan(kind: Kind, numbers: list[int]) -> Select[Any] | None:
+    """The loans of the items of ``kind`` numbered ``numbers``, or None for a kind no loan's
+    books hold. Built when asked for (no statement is built at import)."""
+    direct = {
+        Kind.LOAN: (Loan.id, Loan.id),
+        Kind.LENDER: (Loan.id, Loan.lender_id),
+        Kind.SHIPMENT: (Shipment.loan_id, Shipment.id),
+        Kind.DOCUMENT: (LoanDocument.loan_id, LoanDocument.document_id),
+    }
+    if kind in direct:
+        loan, key = direct[kind]
+        return select(loan).where(key.in_(numbers))
+    # a specimen's tree, level by level: each level reaches its loan through those above it
+    tree = [
+        (Kind.SPECIMEN, None, Specimen.id),
+        (Kind.POWDER, (Powder, Powder.specimen_id == Specimen.id), Powder.id),
+        (Kind.SOLUTION, (Solution, Solution.powder_id == Powder.id), Solution.id),
+        (Kind.ALIQUOT, (Aliquot, Aliquot.solution_id == Solution.id), Aliquot.id),
+        (Kind.POSITION, (BatchPosition, BatchPosition.aliquot_id == Aliquot.id), BatchPosition.id),
+        (Kind.CUT, (Cut, Cut.position_id == BatchPosition.id), Cut.id),
+    ]
+    query = select(Specimen.loan_id)
+    for level, join, key in tree:
+        if join is not None:
+            query = query.join(*join)
+        if level is kind:
+            return query.where(key.in_(numbers))
+    return None
 
 
 def _referring(name: str, roots: set[str]) -> ColumnElement[bool] | None:
