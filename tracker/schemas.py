@@ -29,7 +29,7 @@ from tracker.services.loans.manifests import ManifestMapping, ManifestPreview, M
 from tracker.services.loans.planning import Plan
 from tracker.services.read.lineage import ItemDetail
 from tracker.services.read.reconcile import LoanLine
-from tracker.services.read.reports import ReturnReport
+from tracker.services.read.report_views import ReturnReport
 
 SCHEMA_DIALECT = "https://json-schema.org/draft/2020-12/schema"
 

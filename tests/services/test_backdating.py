@@ -33,6 +33,7 @@ from tracker.services.ledger import chain
 from tracker.services.loans import shipments, specimens
 from tracker.services.read import reports
 from tracker.services.read.reconcile import reconcile
+from tracker.services.read.report_views import ReturnReport
 
 BACKDATED = "backdated entry"
 FOUND: dict[str, list[str]] = {}  # backend -> what each found case did, for the reliability row
@@ -186,7 +187,7 @@ def test_a_backdated_entry_needs_a_manager_keeps_both_times_and_is_flagged(
     note(db, "a manager's drill dated 47 h back (window 1 day): accepted, flagged, both times kept")
 
 
-def pdf(report: reports.ReturnReport) -> bytes:
+def pdf(report: ReturnReport) -> bytes:
     return render(report, {}, "pdf")
 
 

@@ -9,7 +9,7 @@ from tests.services.test_instrument import STD, bench, delta_row, do_import, exp
 from tests.services.test_scan_queries import counted
 from tracker.db.database import Database
 from tracker.services.bench import chemistry, columns
-from tracker.services.instrument import reduction, results
+from tracker.services.instrument import reduction, results, session_detail
 
 RM_DELTA = 0.70  # the reference material measured at its accepted value
 ACCEPTED = {"ratio": "44/40", "scale": "STD-X", "value": RM_DELTA, "two_sd": 0.10}
@@ -61,7 +61,7 @@ def test_reduction_and_detail_read_a_fixed_number_of_statements(db: Database) ->
             answer = reduction.reduce_session(db, "tech", {"session": session}).item
         reads["reduce"].append(_selects(statements))
         with counted(db) as statements:
-            detail = reduction.session_detail(db, session)
+            detail = session_detail.session_detail(db, session)
         reads["detail"].append(_selects(statements))
         targets = {line.target for line in answer.results if line.kind == "sample"}
         assert targets == set(few if session == small else many)

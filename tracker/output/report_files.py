@@ -23,6 +23,7 @@ from tracker.domain.errors import InputError
 from tracker.services.core.views import Done
 from tracker.services.ledger import chain
 from tracker.services.read import reports
+from tracker.services.read.report_views import ReturnReport
 
 FORMATS = ("pdf", "csv", "xlsx", "json")
 
@@ -56,7 +57,7 @@ def photo_folder(target: Path) -> Path:
     return target.with_name(f"{target.stem}-attachments")
 
 
-def render(report: reports.ReturnReport, photos: dict[str, bytes], fmt: str) -> bytes:
+def render(report: ReturnReport, photos: dict[str, bytes], fmt: str) -> bytes:
     """The report in one format (the PDF embeds the photos; the tables list them)."""
     from tracker.output import report_tables, tabular
 
@@ -73,7 +74,7 @@ def render(report: reports.ReturnReport, photos: dict[str, bytes], fmt: str) -> 
     return tabular.xlsx_bytes(columns, rows, "return report")
 
 
-def anchor_bytes(db: Database, actor: str | None, report: reports.ReturnReport) -> bytes:
+def anchor_bytes(db: Database, actor: str | None, report: ReturnReport) -> bytes:
     """The ledger head the report shows, checked against the ledger and signed by ``actor``
     (a manager), as an anchor file for `tracker ledger verify --anchor` later."""
     label = f"return report {report.loan['reference']}"

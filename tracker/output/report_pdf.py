@@ -35,7 +35,7 @@ from reportlab.platypus import (
 )
 
 from tracker.domain import precision
-from tracker.services.read.reports import PowderLine, ReturnReport, SpecimenEntry
+from tracker.services.read.report_views import PowderLine, ReturnReport, SpecimenEntry
 
 FACE, BOLD = "TrackerReport", "TrackerReport-Bold"
 MARGIN = 18 * mm

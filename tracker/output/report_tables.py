@@ -6,7 +6,7 @@ from typing import Any
 
 from tracker.domain import precision
 from tracker.domain.timeutil import iso_utc
-from tracker.services.read.reports import ResultEntry, ReturnReport, SpecimenEntry
+from tracker.services.read.report_views import ResultEntry, ReturnReport, SpecimenEntry
 
 COLUMNS = [
     "loanReference",

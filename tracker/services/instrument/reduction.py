@@ -11,7 +11,6 @@ mass-dependent consistency under the exponential law.
 
 from __future__ import annotations
 
-import json
 import math
 from bisect import bisect_left, bisect_right
 from collections import defaultdict
@@ -32,7 +31,6 @@ from tracker.domain.models import (
     Aliquot,
     BatchPosition,
     ColumnBatch,
-    CustodyEvent,
     Cut,
     InstrumentSession,
     Measurement,
@@ -106,7 +104,7 @@ def recompute(sql: Session, session: InstrumentSession, now: datetime) -> Reduct
     the caller records the one custody event.
     """
     runs = [m for m in session.measurements if m.excluded_reason is None]
-    accepted = _load_targets(
+    accepted = load_targets(
         sql,
         session,
         {m.cut_id for m in runs if m.role is MeasurementRole.SAMPLE and m.cut_id},
@@ -241,7 +239,7 @@ def _result(
     accepted: ReferenceValue | None = None
     if kind == "cut":
         cut = sql.get_one(Cut, key)
-        row.cut_id, label = key, _cut_label(cut)
+        row.cut_id, label = key, cut_label(cut)
         value, corrected = _blank_correct(cut, ratio, value)
         flags = position_flags(cut.position)
     elif kind == "reference":
@@ -255,8 +253,8 @@ def _result(
     row.delta_permil, row.blank_corrected = value, corrected
     passed = None if accepted is None else abs(value - accepted.value) <= accepted.two_sd
     line = ResultLine(
-        target=_public(kind, key),
-        kind=_KINDS[kind],
+        target=public_target(kind, key),
+        kind=TARGET_KINDS[kind],
         label=label,
         ratio=ratio,
         value=value,
@@ -273,17 +271,19 @@ def _result(
     return line, row
 
 
-_KINDS = {"cut": "sample", "reference": "reference", "blank": "blank"}
+TARGET_KINDS = {"cut": "sample", "reference": "reference", "blank": "blank"}
 
 
-def _public(kind: str, key: int) -> str:
-    return format_id(_ID_KINDS[kind], key)
+def public_target(kind: str, key: int) -> str:
+    """The public ID of a reduced target (a cut, a reference material, a blank's column)."""
+    return format_id(_IDTARGET_KINDS[kind], key)
 
 
-_ID_KINDS = {"cut": Kind.CUT, "reference": Kind.REFERENCE_MATERIAL, "blank": Kind.POSITION}
+_IDTARGET_KINDS = {"cut": Kind.CUT, "reference": Kind.REFERENCE_MATERIAL, "blank": Kind.POSITION}
 
 
-def _cut_label(cut: Cut) -> str:
+def cut_label(cut: Cut) -> str:
+    """How a result names its cut: the specimen's catalogue number and ID."""
     aliquot = cut.position.aliquot
     if aliquot is None:
         return cut.public_id
@@ -301,7 +301,7 @@ def _blank_correct(cut: Cut, ratio: str, value: float) -> tuple[float, bool]:
     return blank_corrected(value, sample_ng, float(batch.blank_deltas[ratio]), blank), True
 
 
-def _load_targets(
+def load_targets(
     sql: Session, session: InstrumentSession, cut_ids: set[int], material_ids: set[int]
 ) -> dict[tuple[int, str], ReferenceValue]:
     """Load what the results read, in a fixed number of statements however many runs.
@@ -373,121 +373,3 @@ def _mass_dependence(session: InstrumentSession, lines: list[ResultLine]) -> Non
             if abs(residual) > 2 * se:
                 for line in (a, b):
                     line.flags.append(f"mass-dependence off ({pair.a} vs {pair.b})")
-
-
-class UnmatchedLine(View):
-    run_order: int
-    sample_name: str
-    reason: str
-
-
-class SessionDetail(View):
-    """One instrument session as stored: what was read, what matched, its latest results."""
-
-    id: str
-    name: str
-    instrument: str
-    element: str
-    mode: str
-    standard: str
-    started_at: datetime
-    source_filename: str | None
-    profile: str | None
-    ratios: list[str]
-    measurements: int
-    standards: int
-    unmatched: list[UnmatchedLine]
-    results: list[ResultLine]
-    flags: list[str]
-    reduced: bool
-
-
-def session_detail(db: Database, ref: str) -> SessionDetail:
-    """Read-only: the session's runs, its unmatched rows (with the import's reasons) and the
-    results its last reduction stored, reference materials judged as the reduction judged them."""
-    with db.read_session() as sql:
-        session = get_by_id(sql, InstrumentSession, "session", ref)
-        reasons = _import_reasons(sql, session.public_id)
-        unmatched = [
-            UnmatchedLine(
-                run_order=m.run_order,
-                sample_name=m.sample_name,
-                reason=reasons.get(m.run_order, "not matched"),
-            )
-            for m in sorted(session.measurements, key=lambda m: m.run_order)
-            if m.role is MeasurementRole.UNMATCHED
-        ]
-        rows = sql.scalars(
-            select(Result).where(Result.session_id == session.id).order_by(Result.id)
-        ).all()
-        accepted = _load_targets(
-            sql,
-            session,
-            {row.cut_id for row in rows if row.cut_id is not None},
-            {row.reference_material_id for row in rows if row.reference_material_id is not None},
-        )
-        lines = [_stored_line(sql, row, accepted) for row in rows]
-        return SessionDetail(
-            id=session.public_id,
-            name=session.name,
-            instrument=session.instrument,
-            element=session.element,
-            mode=session.mode,
-            standard=session.bracketing_standard,
-            started_at=session.started_at,
-            source_filename=session.source_filename,
-            profile=session.profile_name,
-            ratios=list(session.ratio_names),
-            measurements=len(session.measurements),
-            standards=sum(m.role is MeasurementRole.STANDARD for m in session.measurements),
-            unmatched=unmatched,
-            results=lines,
-            flags=list(session.flags),
-            reduced=bool(lines),
-        )
-
-
-def _import_reasons(sql: Session, public_id: str) -> dict[int, str]:
-    event = sql.scalars(
-        select(CustodyEvent)
-        .where(CustodyEvent.object_ref == public_id, CustodyEvent.action == "session.imported")
-        .order_by(CustodyEvent.seq.desc())
-        .limit(1)
-    ).first()
-    if event is None:
-        return {}
-    payload = json.loads(event.payload)
-    return {int(u["run_order"]): str(u["reason"]) for u in payload.get("unmatched", [])}
-
-
-def _stored_line(
-    sql: Session, row: Result, accepted_values: dict[tuple[int, str], ReferenceValue]
-) -> ResultLine:
-    accepted: ReferenceValue | None = None
-    if row.cut_id is not None:
-        kind, key, label = "cut", row.cut_id, _cut_label(sql.get_one(Cut, row.cut_id))
-    elif row.reference_material_id is not None:
-        material = sql.get_one(ReferenceMaterial, row.reference_material_id)
-        kind, key, label = "reference", material.id, material.name
-        accepted = accepted_values.get((material.id, row.ratio))
-    else:
-        key = row.position_id or 0
-        kind, label = "blank", f"procedural blank {key}"
-    passed = None if accepted is None else abs(row.delta_permil - accepted.value) <= accepted.two_sd
-    sd = row.sd_permil
-    return ResultLine(
-        target=_public(kind, key),
-        kind=_KINDS[kind],
-        label=label,
-        ratio=row.ratio,
-        value=row.delta_permil,
-        sd=sd,
-        two_sd=None if sd is None else 2 * sd,
-        two_se=row.two_se_permil,
-        n=row.n,
-        accepted=accepted.value if accepted else None,
-        accepted_two_sd=accepted.two_sd if accepted else None,
-        passed=passed,
-        blank_corrected=row.blank_corrected,
-        flags=list(row.flags),
-    )

@@ -29,7 +29,7 @@ from tracker.output import report_files
 from tracker.output.report_files import WrittenReport
 from tracker.present.bars import flag_cell, flag_text
 from tracker.services.read import reports
-from tracker.services.read.reports import ReturnReport, SpecimenEntry
+from tracker.services.read.report_views import ReturnReport, SpecimenEntry
 from tracker.ui.context import database, operator, tracker_app
 from tracker.ui.messages import Refused, refusal_text
 from tracker.ui.plain import shown

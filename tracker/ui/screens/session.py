@@ -18,8 +18,9 @@ from tracker.present import lab
 from tracker.present.bars import flag_text
 from tracker.present.lab import accepted_text
 from tracker.services.core.views import Done
-from tracker.services.instrument import reduction, sessions
-from tracker.services.instrument.reduction import ResultLine, SessionDetail
+from tracker.services.instrument import reduction, session_detail, sessions
+from tracker.services.instrument.reduction import ResultLine
+from tracker.services.instrument.session_detail import SessionDetail
 from tracker.services.instrument.sessions import DriftSeries
 from tracker.services.read import browse
 from tracker.services.read.browse import SessionLine
@@ -109,7 +110,7 @@ class SessionScreen(Screen[None]):
     def load(self, session: str) -> None:
         try:
             db = database(self)
-            detail = reduction.session_detail(db, session)
+            detail = session_detail.session_detail(db, session)
             drift = sessions.standard_drift(db, session)
         except TrackerError as error:
             self.post_message(Refused(error, "load"))
