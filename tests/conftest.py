@@ -198,7 +198,8 @@ def pytest_addoption(parser: pytest.Parser) -> None:
         metavar="PAGE",
         type=Path,
         help="after a run that passed, write its reliability table into PAGE "
-        "(docs/reliability.md), between the page's marker lines",
+        "(--reliability-page=docs/reliability.md: with '=', or the path is read as tests to run), "
+        "between the page's marker lines",
     )
     parser.addoption(
         "--reliability-rows",

@@ -157,7 +157,7 @@ def test_the_reliability_page_keeps_its_prose_when_a_run_writes_its_table(tmp_pa
     before = page.read_text(encoding="utf-8")
     prose_before, _, rest = before.partition(report.BEGIN)
     _, _, prose_after = rest.partition(report.END)
-    assert "--reliability-page docs/reliability.md" in prose_before  # the command, on top
+    assert "--reliability-page=docs/reliability.md" in prose_before  # the command, on top
     assert "How the tests work" in prose_after
 
     rows = dict(report.ROWS)
