@@ -56,11 +56,8 @@ def show_item(db: Database, ref: str) -> ItemDetail:
     """Everything about one ID: its lineage below, its ancestors above, its custody history."""
     with db.read_session() as session:
         by_id = looks_like_id(ref, uri_prefix(session))
-        row = get_any(session, "item", ref) if by_id else get_loan(session, "item", ref)
-        if isinstance(row, Specimen):  # its tree: one query per level instead of per node
-            row = load_specimen_tree(session, row.id)
-        elif isinstance(row, Loan):
-            row = load_loan_tree(session, row.id)
+        found = get_any(session, "item", ref) if by_id else get_loan(session, "item", ref)
+        row = load_tree(session, found)
         location = getattr(row, "location", None)
         loan_rows = row if isinstance(row, Loan) else None
         return ItemDetail(
@@ -184,42 +181,49 @@ def label_of(row: HasPublicId) -> str:
     return str(name)
 
 
-def load_specimen_tree(session: Session, specimen_id: int) -> Specimen:
-    """A specimen with its whole lineage loaded in a fixed number of queries (each column's
-    batch and reference material and each cut's results included: the tree describes them)."""
-    query = (
-        select(Specimen)
-        .where(Specimen.id == specimen_id)
-        .options(*_lineage_options(Load(Specimen)))
-    )
-    return session.scalars(query).one()
+def load_tree(session: Session, row: HasPublicId) -> HasPublicId:
+    """The item again, with everything its view shows loaded in a fixed number of queries
+    however large its tree: what came from it (one query per level, not per node), the
+    chain of its parents up to the lender, and its place."""
+    model: Any = type(row)  # a mapped class with an ``id`` column
+    query = select(model).where(model.id == row.id)
+    options = [*_subtree(Load(model), model), *scan_options(model)]
+    if model is Loan:
+        options += [selectinload(Loan.terms), Load(Loan).joinedload(Loan.lender)]
+    loaded: HasPublicId = session.scalars(query.options(*options)).unique().one()
+    return loaded
 
 
-def load_loan_tree(session: Session, loan_id: int) -> Loan:
-    """A loan's specimens with their lineages, in a fixed number of queries rather than one
-    per specimen. Each specimen's extra terms stay in the database (they are deferred): the
+def _subtree(at: Any, model: type[Any]) -> list[Any]:
+    """Loader options below ``at`` (a path to items of ``model``): every child the tree
+    shows, and what each child's line reads (a solution's concentrations, a column's batch
+    and reference material, a cut's results). A specimen's extra terms stay deferred: the
     tree shows none of them, and a lender's wide list made them most of a loan's bytes."""
-    specimens = selectinload(Loan.specimens)
-    query = select(Loan).where(Loan.id == loan_id).options(*_lineage_options(specimens))
-    return session.scalars(query).one()
-
-
-def _lineage_options(at: Any) -> list[Any]:
-    """Loader options below a path that points at specimens: everything the tree describes."""
-    positions = (
-        at.selectinload(Specimen.powders)
-        .selectinload(Powder.solutions)
-        .selectinload(Solution.aliquots)
-        .selectinload(Aliquot.positions)
-    )
-    return [
-        positions.selectinload(BatchPosition.cuts).selectinload(Cut.results),
-        positions.joinedload(BatchPosition.batch),
-        positions.joinedload(BatchPosition.reference_material),
-        at.selectinload(Specimen.powders)
-        .selectinload(Powder.solutions)
-        .selectinload(Solution.concentrations),
-    ]
+    children = {
+        Lender: Lender.loans,
+        Loan: Loan.specimens,
+        Specimen: Specimen.powders,
+        Powder: Powder.solutions,
+        Solution: Solution.aliquots,
+        Aliquot: Aliquot.positions,
+        ColumnBatch: ColumnBatch.positions,
+        BatchPosition: BatchPosition.cuts,
+    }
+    options: list[Any] = []
+    if model is Solution:
+        options.append(at.selectinload(Solution.concentrations))
+    if model is BatchPosition:
+        options += [
+            at.joinedload(BatchPosition.batch),
+            at.joinedload(BatchPosition.reference_material),
+        ]
+    if model is Cut:
+        options.append(at.selectinload(Cut.results))
+    child = children.get(model)
+    if child is not None:
+        below = at.selectinload(child)
+        options += [below, *_subtree(below, child.property.mapper.class_)]
+    return options
 
 
 # Loading one item with what its lineage line needs, in a few queries rather than one per hop.
@@ -260,7 +264,7 @@ def _cut(at: Any) -> list[Any]:
     return _position(at.joinedload(Cut.position))
 
 
-_BELOW = {
+_PARENTS = {
     Specimen: _specimen,
     Powder: _powder,
     Solution: _solution,
@@ -273,10 +277,10 @@ _BELOW = {
 def scan_options(model: type[Any]) -> list[Any]:
     """Loader options that bring a scanned item of ``model`` with its chain of parents (and
     its place) in the one query that reads it; none for an item without parents to show."""
-    below = _BELOW.get(model)
-    if below is None:
+    parents = _PARENTS.get(model)
+    if parents is None:
         return []
-    options = below(Load(model))
+    options = parents(Load(model))
     if hasattr(model, "location"):  # a column position has no place of its own
         options.append(Load(model).joinedload(model.location))
     return options
