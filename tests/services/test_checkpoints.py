@@ -11,6 +11,7 @@ import pytest
 from sqlalchemy import text
 
 from tests import factories as make
+from tests.services.test_signing import drop_append_only_triggers
 from tracker.db.database import Database
 from tracker.db.location import checkpoint_dir
 from tracker.domain.ids import Kind, format_id, parse_id
@@ -26,15 +27,6 @@ def own_folder(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> Iterator[Path
     folder = tmp_path / "checkpoints"
     monkeypatch.setenv("TRACKER_CHECKPOINT_DIR", str(folder))
     yield folder
-
-
-def _unlock_ledger(db: Database) -> None:
-    """Drop the append-only triggers, as someone editing the database by hand would."""
-    with db.engine.begin() as conn:
-        if db.backend == "sqlite":
-            conn.execute(text("DROP TRIGGER custody_event_no_update"))
-        else:
-            conn.execute(text("DROP TRIGGER custody_event_append_only ON custody_event"))
 
 
 def test_the_first_report_verifies_everything_and_the_next_only_what_is_new(
@@ -62,7 +54,7 @@ def test_an_event_altered_after_the_checkpoint_is_found(db: Database, own_folder
     loan = make.loan(db)
     reports.build_return_report(db, loan)  # the checkpoint
     make.powder(db, make.specimen(db, loan))
-    _unlock_ledger(db)
+    drop_append_only_triggers(db)  # as someone editing the database by hand would
     with db.engine.begin() as conn:
         conn.execute(
             text(
