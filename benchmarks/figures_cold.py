@@ -15,7 +15,7 @@ import random
 import sqlite3
 import sys
 from collections.abc import Callable
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
@@ -46,8 +46,7 @@ class Cold:
     floor: list[str]  # the floor's whole command line
     target: Target
     check: Check
-    compared: str  # what the check holds against the floor, for the notes
-    notes: list[str] = field(default_factory=list)
+    compared: str  # what the check holds against the floor, or why it cannot
 
 
 def cold_figures(db: Database, target: str, work: Path, repeat: int) -> list[Figure]:
@@ -244,7 +243,6 @@ def _figure(cold: Cold, runs: list[ProcessRun], floors: list[ProcessRun]) -> Fig
         f"(floor {bare.peak_mb:.0f} MB)"
     )
     figure.compared = cold.compared
-    figure.notes.extend(cold.notes)
     for run in (best, bare):
         if not run.answered:
             figure.problems.append("no answer: the process ran past its timeout and was killed")

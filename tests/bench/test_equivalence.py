@@ -140,7 +140,6 @@ def _shape_rows(shape: Shape) -> int:
     )
 
 
-@pytest.mark.slow
 def test_scale_one_is_a_busy_labs_decade() -> None:
     """The issue's numbers, counted from the plan itself (nothing is executed)."""
     from collections import Counter

@@ -122,11 +122,7 @@ def drill(
     }
     answer = perform(ctx, drilling.drill, request)
     item = answer.item
-    emit(
-        ctx,
-        answer,
-        lambda: done(answer, words.drilled(item)),
-    )
+    emit(ctx, answer, lambda: done(answer, words.drilled(item)))
 
 
 DISSOLVE_EPILOG = (
@@ -162,11 +158,7 @@ def dissolve(
     }
     answer = perform(ctx, solutions.dissolve, request)
     item = answer.item
-    emit(
-        ctx,
-        answer,
-        lambda: done(answer, words.dissolved(item)),
-    )
+    emit(ctx, answer, lambda: done(answer, words.dissolved(item)))
 
 
 CONCENTRATION_EPILOG = (
@@ -200,11 +192,7 @@ def concentration(
     }
     answer = perform(ctx, solutions.record_concentration, request)
     item = answer.item
-    emit(
-        ctx,
-        answer,
-        lambda: done(answer, words.concentration_recorded(item)),
-    )
+    emit(ctx, answer, lambda: done(answer, words.concentration_recorded(item)))
 
 
 ALIQUOT_EPILOG = "Example: tracker aliquot SO-00001-M --tare '2.0000 g' --gross '2.1000 g'"
