@@ -8,6 +8,7 @@ Sans (shipped inside matplotlib), which has δ, ‰, ± and µ.
 
 from __future__ import annotations
 
+import importlib.util
 import io
 import warnings
 from functools import cache
@@ -46,12 +47,19 @@ THUMB_PIXELS = 600  # 38 mm at 400 dpi: sharp in print
 
 @cache
 def _fonts() -> None:
-    import matplotlib
-
-    folder = Path(matplotlib.get_data_path()) / "fonts" / "ttf"
+    folder = _matplotlib_data() / "fonts" / "ttf"
     pdfmetrics.registerFont(TTFont(FACE, str(folder / "DejaVuSans.ttf")))
     pdfmetrics.registerFont(TTFont(BOLD, str(folder / "DejaVuSans-Bold.ttf")))
     registerFontFamily(FACE, normal=FACE, bold=BOLD, italic=FACE, boldItalic=BOLD)
+
+
+def _matplotlib_data() -> Path:
+    """matplotlib's data folder, found without importing matplotlib (a fifth of a second a
+    report does not need): the folder ``matplotlib.get_data_path()`` names, beside its code."""
+    spec = importlib.util.find_spec("matplotlib")
+    if spec is None or spec.origin is None:
+        raise RuntimeError("matplotlib, which holds the report's font, is not installed")
+    return Path(spec.origin).with_name("mpl-data")
 
 
 def _styles() -> dict[str, ParagraphStyle]:
@@ -82,12 +90,14 @@ def _table(
     header: bool = True,
 ) -> Table:
     """A table whose every cell wraps (no overflow) and whose header repeats on new pages."""
+    columns = [w * WIDTH for w in widths]
     cells = [
-        [c if isinstance(c, Flowable) else Paragraph(_esc(c), styles["small"]) for c in row]
-        for row in rows
+        [_cell(c, width, styles) for c, width in zip(row, columns, strict=True)] for row in rows
     ]
-    table = Table(cells, colWidths=[w * WIDTH for w in widths], repeatRows=1 if header else 0)
+    table = Table(cells, colWidths=columns, repeatRows=1 if header else 0)
+    small = styles["small"]
     commands: list[Any] = [
+        ("FONT", (0, 0), (-1, -1), small.fontName, small.fontSize, small.leading),
         ("VALIGN", (0, 0), (-1, -1), "TOP"),
         ("GRID", (0, 0), (-1, -1), 0.25, colors.grey),
     ]
@@ -95,6 +105,23 @@ def _table(
         commands.append(("BACKGROUND", (0, 0), (-1, 0), colors.Color(0.9, 0.9, 0.9)))
     table.setStyle(TableStyle(commands))
     return table
+
+
+CELL_PADDING = 12  # points: a table cell's default left and right padding together
+
+
+def _cell(value: object, width: float, styles: dict[str, ParagraphStyle]) -> Flowable | str:
+    """A cell's content: text that fits its column on one line is drawn as it is (in the
+    table's font); longer text becomes a paragraph that wraps. Laying out a paragraph costs
+    a report of a hundred specimens most of its time, and few cells need one."""
+    if isinstance(value, Flowable):
+        return value
+    text = "—" if value is None or value == "" else str(value)
+    small = styles["small"]
+    fits = pdfmetrics.stringWidth(text, small.fontName, small.fontSize) <= width - CELL_PADDING
+    if fits and "\n" not in text:
+        return text
+    return Paragraph(_esc(text), small)
 
 
 def render_pdf(report: ReturnReport, photos: dict[str, bytes]) -> bytes:
