@@ -109,3 +109,27 @@ def test_returned_loan_with_weighed_out_vials_has_nothing_unaccounted(demo_db: P
     for flags in [line["flags"], *(s["flags"] for s in line["specimen_lines"])]:
         assert "unaccounted material" not in flags
         assert "missing weighing" not in flags
+
+
+# ---------------------------------------------------------------- c. text: summary or detail
+
+
+def test_reconcile_of_every_loan_is_a_summary_and_specimens_come_on_request(
+    demo_db: Path,
+) -> None:
+    """Without --loan a line block per loan, its totals as the document has them; the
+    specimens' rows only with --specimens (or --loan); --json always holds them."""
+    document = ok_json(invoke("reconcile", db=demo_db, as_json=True))
+    summary = invoke("reconcile", db=demo_db)
+    detail = invoke("reconcile", "--specimens", db=demo_db)
+    assert summary.exit_code == detail.exit_code == 0, summary.stderr + detail.stderr
+    specimens = [s["id"] for line in document for s in line["specimen_lines"]]
+    assert specimens  # the premise: the demo's loans hold specimens
+    for line in document:
+        assert line["reference"] in summary.stdout and line["id"] in summary.stdout
+        assert f"{line['sampled']}/" in summary.stdout
+    assert not [s for s in specimens if s in summary.stdout]
+    assert not [s for s in specimens if s not in detail.stdout]
+    one = document[0]
+    single = invoke("reconcile", "--loan", one["reference"], db=demo_db)
+    assert all(s["id"] in single.stdout for s in one["specimen_lines"])

@@ -190,7 +190,7 @@ COMMANDS: tuple[Entry, ...] = (
     Entry(
         "reconcile",
         "accounts",
-        "Per loan and specimen: permitted, drilled, dissolved, powder left, returned, flags.",
+        "Each loan's books: permitted, drilled, dissolved, powder left, returned, flags.",
         group=False,
     ),
     Entry(

@@ -94,8 +94,7 @@ def _add_children(tree: Tree, node: Node) -> None:
 
 
 def history_table(events: list[EventView]) -> RenderableType:
-    table = plain_table("#", "when (UTC)", "who", "action", "item")
-    table.title, table.title_justify = "Custody history", "left"
+    table = plain_table("#", "when (UTC)", "who", "action", "item", title="Custody history")
     for event in events:
         table.add_row(
             str(event.seq),

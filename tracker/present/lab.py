@@ -49,8 +49,7 @@ def batch_table(summary: BatchSummary) -> RenderableType:
         (visible(summary.name), "bold"),
         f"  {summary.id}  {summary.element}; {limits_text(summary)}",
     )
-    table = plain_table("column", "holds", "loaded → recovered", "yield", "blank", "flags")
-    table.columns[1].no_wrap = True
+    table = plain_table("column", "holds", "loaded → recovered", "yield", "blank", "flags", whole=2)
     for line in summary.positions:
         loaded, recovered, yield_text, share = position_cells(line)
         table.add_row(

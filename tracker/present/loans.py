@@ -55,6 +55,27 @@ def _mg(value: float) -> str:
     return precision.milligrams(value)
 
 
+def reconcile_summary(lines: list[LoanLine]) -> RenderableType:
+    """Every loan's books in a few short lines (80 columns): drilled of its limit, specimens
+    sampled, the powder dissolved, on hand and returned, and its flags. A whole lab's
+    specimens run to tens of thousands of rows, more than anyone reads at once; a loan's
+    rows are ``reconcile_tables``' job."""
+    if not lines:
+        return Text("No loans.")
+    table = plain_table("loan", "drilled / limit", "powder", "flags")
+    for line in lines:
+        due = f"due {line.due_on.isoformat()}" if line.status == "open" else line.status
+        sampled = f"{line.sampled}/{line.max_specimens_sampled or '-'} sampled"
+        table.add_row(
+            Text.assemble(visible(line.reference), (f"\n{line.lender_code}\n{line.id}", "dim")),
+            f"{precision.used_of_limit(line.drilled_mg, line.max_total_mass_mg)}\n{sampled}\n{due}",
+            f"dissolved {_mg(line.dissolved_mg)}\non hand {_mg(line.powder_on_hand_mg)}\n"
+            f"returned {_mg(line.powder_returned_mg)}",
+            flag_lines(line.flags),
+        )
+    return table
+
+
 def reconcile_tables(lines: list[LoanLine]) -> RenderableType:
     """One block per loan: its totals and terms, then a row per specimen."""
     if not lines:

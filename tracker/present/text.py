@@ -4,12 +4,11 @@ from __future__ import annotations
 
 from typing import Any
 
-from rich import box
-from rich.table import Table
 from rich.text import Text
 
 from tracker.domain import precision
 from tracker.domain.text_rules import visible
+from tracker.present.aligned import AlignedTable
 from tracker.services.bench.columns import CutView
 from tracker.services.core.views import (
     AliquotView,
@@ -27,12 +26,10 @@ def done(answer: Done[Any], what: str) -> Text:
     )
 
 
-def plain_table(*headers: str) -> Table:
-    """The house style for lists: a header rule, no cell borders, fits 80 columns."""
-    table = Table(box=box.SIMPLE_HEAD, padding=(0, 1))
-    for number, header in enumerate(headers):
-        table.add_column(header, no_wrap=number == 0)  # IDs in the first column stay whole
-    return table
+def plain_table(*headers: str, whole: int = 1, title: str | None = None) -> AlignedTable:
+    """The house style for lists: a header rule, no cell borders, aligned plain text (long
+    lists print quickly); the first ``whole`` columns (an ID) stay whole."""
+    return AlignedTable(headers, whole, title)
 
 
 def days_left(days: int) -> str:

@@ -13,7 +13,7 @@ from tracker.cli.state import database, emit, errors, state
 from tracker.db import outputs
 from tracker.domain.errors import InputError
 from tracker.present.lab import results_table, screen_table
-from tracker.present.loans import plan_table, reconcile_tables
+from tracker.present.loans import plan_table, reconcile_summary, reconcile_tables
 from tracker.services.instrument import results, screening
 from tracker.services.ledger.audit import AuditReport
 from tracker.services.ledger.loan_audit import audit_changes, audit_loan
@@ -76,9 +76,15 @@ RECONCILE_EPILOG = "Example: tracker reconcile --loan MDGC/LN/0457"
 def reconcile_command(
     ctx: typer.Context,
     loan: Annotated[str | None, Opt("--loan", help="Only this loan (ID or reference).")] = None,
+    specimens: Annotated[
+        bool,
+        Opt("--specimens", help="Every loan's specimens too, a row each (long for a whole lab)."),
+    ] = False,
     despite: Despite = False,
 ) -> None:
-    """Per loan and specimen: permitted, drilled, dissolved, powder left, returned, flags.
+    """Each loan's books: permitted, drilled, dissolved, powder left, returned, flags.
+
+    With --loan or --specimens, a row per specimen as well; --json always holds them all.
 
     The books are audited against the ledger first (the loan's rows with --loan; else the
     loans changed since this computer's last whole-lab audit, or the whole lab when there is
@@ -93,7 +99,8 @@ def reconcile_command(
     said = [_verdicts(checked), *(f"  {d.said}" for d in found)]
     if state(ctx).as_json:  # the document stays the lines alone; the verdicts go to stderr
         errors.print("\n".join(said), soft_wrap=True)
-    emit(ctx, lines, lambda: Group(reconcile_tables(lines), Text("\n".join(said))))
+    shown = reconcile_tables if loan or specimens else reconcile_summary
+    emit(ctx, lines, lambda: Group(shown(lines), Text("\n".join(said))))
 
 
 def _verdicts(checked: AuditReport) -> str:

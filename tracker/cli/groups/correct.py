@@ -3,9 +3,9 @@
 from typing import Annotated, Any
 
 import typer
-from rich.table import Table
 
 from tracker.cli.state import database, emit, perform
+from tracker.present.aligned import AlignedTable
 from tracker.present.text import done, plain_table
 from tracker.services.corrections import correcting, measured_values, weighings
 
@@ -140,7 +140,7 @@ def correct_list(
     with database(ctx) as db:
         rows = correcting.list_corrections(db, item)
 
-    def table() -> Table:
+    def table() -> AlignedTable:
         t = plain_table("event", "item", "quantity", "was → now", "by", "entry by", "why")
         for r in rows:
             t.add_row(

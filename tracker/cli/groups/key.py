@@ -4,7 +4,6 @@ from pathlib import Path
 from typing import Annotated
 
 import typer
-from rich.table import Table
 
 from tracker.cli.out_options import Force, kept_note
 from tracker.cli.state import (
@@ -17,6 +16,7 @@ from tracker.cli.state import (
     writing,
 )
 from tracker.domain.errors import InputError
+from tracker.present.aligned import AlignedTable
 from tracker.present.text import done, plain_table
 
 app = typer.Typer(
@@ -123,7 +123,7 @@ def key_list(ctx: typer.Context) -> None:
     with database(ctx) as db:
         rows = keys.list_keys(db)
 
-    def table() -> Table:
+    def table() -> AlignedTable:
         t = plain_table("key", "operator", "registered", "revoked", "here")
         for k in rows:
             revoked = (

@@ -8,12 +8,12 @@ from pathlib import Path
 from typing import Annotated, Any
 
 import typer
-from rich.table import Table
 from rich.text import Text
 
 from tracker.cli.out_options import Force, kept_note
 from tracker.cli.state import database, emit, perform, state, writing
 from tracker.domain.text_rules import visible
+from tracker.present.aligned import AlignedTable
 from tracker.present.text import done, plain_table
 from tracker.services.labels import handling
 
@@ -81,7 +81,7 @@ def list_command(
     with database(ctx) as db:
         rows = handling.list_labels(db, everything, limit)
 
-    def table() -> Table | Text:
+    def table() -> AlignedTable | Text:
         if not rows:
             return Text("No labels are queued." if not everything else "No labels yet.")
         headers = ["item", "label text", "queued", "event"]
@@ -244,7 +244,7 @@ def stocks_command(ctx: typer.Context, stocks: StocksFile = None) -> None:
             }
         )
 
-    def table() -> Table:
+    def table() -> AlignedTable:
         t = plain_table("stock", "label", "per page", "page", "for")
         for r in rows:
             origin = "" if r["source"] == "preset" else f" (from {r['source']})"

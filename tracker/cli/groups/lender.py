@@ -3,9 +3,9 @@
 from typing import Annotated
 
 import typer
-from rich.table import Table
 
 from tracker.cli.state import database, emit, perform
+from tracker.present.aligned import AlignedTable
 from tracker.present.text import done, plain_table
 from tracker.services.loans import lending
 
@@ -45,7 +45,7 @@ def lender_list(ctx: typer.Context) -> None:
     with database(ctx) as db:
         rows = lending.list_lenders(db)
 
-    def table() -> Table:
+    def table() -> AlignedTable:
         t = plain_table("id", "name", "code", "contact")
         for r in rows:
             t.add_row(r.id, r.name, r.institution_code or "", r.contact_name or "")

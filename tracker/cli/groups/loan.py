@@ -5,10 +5,10 @@ from pathlib import Path
 from typing import Annotated
 
 import typer
-from rich.table import Table
 
 from tracker.cli.state import database, emit, perform, read_upload
 from tracker.domain.models import Disposition, TermsKind
+from tracker.present.aligned import AlignedTable
 from tracker.present.text import done, plain_table
 from tracker.services.bench import custody
 from tracker.services.instrument import screening
@@ -83,7 +83,7 @@ def loan_list(ctx: typer.Context) -> None:
     with database(ctx) as db:
         rows = lending.list_loans(db)
 
-    def table() -> Table:
+    def table() -> AlignedTable:
         t = plain_table("id", "reference", "lender", "status", "tissues", "due")
         for r in rows:
             t.add_row(

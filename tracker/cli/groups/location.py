@@ -3,7 +3,6 @@
 from typing import Annotated
 
 import typer
-from rich.table import Table
 
 from tracker.cli.state import (
     database,
@@ -11,6 +10,7 @@ from tracker.cli.state import (
     perform,
 )
 from tracker.domain.models import LocationKind
+from tracker.present.aligned import AlignedTable
 from tracker.present.text import done, plain_table
 from tracker.services.admin import setup
 
@@ -39,7 +39,7 @@ def location_list(ctx: typer.Context) -> None:
     with database(ctx) as db:
         rows = setup.list_locations(db)
 
-    def table() -> Table:
+    def table() -> AlignedTable:
         t = plain_table("id", "kind", "path")
         for loc in rows:
             t.add_row(loc.id, loc.kind, loc.path)

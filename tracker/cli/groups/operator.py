@@ -4,7 +4,6 @@ from pathlib import Path
 from typing import Annotated
 
 import typer
-from rich.table import Table
 
 from tracker.cli.state import (
     database,
@@ -13,6 +12,7 @@ from tracker.cli.state import (
     read_upload,
 )
 from tracker.domain.models import Role
+from tracker.present.aligned import AlignedTable
 from tracker.present.text import done, plain_table
 from tracker.services.admin import setup
 
@@ -90,7 +90,7 @@ def operator_list(ctx: typer.Context) -> None:
     with database(ctx) as db:
         rows = setup.list_operators(db)
 
-    def table() -> Table:
+    def table() -> AlignedTable:
         logins = any(o.login for o in rows)  # shared databases: each person's own login
         t = plain_table("code", "name", "role", "active", *(["login"] if logins else []))
         for o in rows:

@@ -5,10 +5,10 @@ from pathlib import Path
 from typing import Annotated
 
 import typer
-from rich.table import Table
 
 from tracker.cli.state import database, emit, perform, read_upload
 from tracker.domain.errors import InputError
+from tracker.present.aligned import AlignedTable
 from tracker.present.text import done, plain_table
 from tracker.services.loans import shipments, specimens
 
@@ -63,7 +63,7 @@ def specimen_list(
     with database(ctx) as db:
         rows = specimens.list_specimens(db, loan)
 
-    def table() -> Table:
+    def table() -> AlignedTable:
         t = plain_table("id", "loan", "catalogue no.", "taxon", "status", "location")
         for r in rows:
             t.add_row(
