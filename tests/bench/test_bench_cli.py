@@ -43,6 +43,12 @@ def bench(*args: str, as_json: bool = False) -> Result:
         (("generate", "--executor", "magic"), "--executor", "magic"),
         (("run", "--backend", "postgresql"), "--backend", "postgresql"),  # no server named
         (("run", "--pg-url", "postgresql://x/y", "--pg-cluster"), "--pg-url", "postgresql://x/y"),
+        (
+            ("run", "--backend", "postgresql", "--pg-cluster", "--only", "verify"),
+            "--only",
+            "verify",
+        ),
+        (("run", "--backend", "sqlite", "--only", "pg"), "--only", "pg"),
     ],
 )
 def test_bad_options_are_one_line_naming_the_option(
