@@ -212,7 +212,8 @@ def _postgresql(options: Options, scale: float, report: Report) -> None:
     from benchmarks import figures_pg
 
     steps = {"pg": figures_pg.postgresql_figures, "cold": figures_pg.cold_figures}
-    step = "pg"  # named in the skipped line when the server or the build fails
+    wanted = [key for key in PG_FIGURES if _wanted(options, key)]
+    done = 0
     options.say(f"scale {scale:g}: PostgreSQL")
     try:
         with figures_pg.server(options.pg_url, options.pg_cluster) as server:
@@ -224,11 +225,13 @@ def _postgresql(options: Options, scale: float, report: Report) -> None:
             )
             if built is not None:
                 report.builds.append(built)
-            for step in (key for key in PG_FIGURES if _wanted(options, key)):
+            for step in wanted:
                 options.say(f"scale {scale:g}: PostgreSQL {step}")
                 for figure in steps[step](url, scale, options.repeat):
                     figure.scale = scale
                     report.figures.append(figure)
+                done += 1
     except (TrackerError, ImportError) as error:
         reason = error.one_line() if isinstance(error, TrackerError) else str(error)
-        report.skipped.append(Skipped("pg" if step == "pg" else f"pg {step}", scale, reason))
+        for step in wanted[done:]:  # every step the failure left unmeasured, with its reason
+            report.skipped.append(Skipped("pg" if step == "pg" else f"pg_{step}", scale, reason))

@@ -182,6 +182,23 @@ def test_slower_figures_carry_their_reason_and_faster_ones_are_not_listed() -> N
     assert page._slower(before, [figure("verify", 1.05)], {}).endswith(": none.")  # within 10 %
 
 
+@pytest.mark.parametrize(
+    ("only", "skipped"), [(("cold",), ["pg_cold"]), ((), ["pg", "pg_cold"]), (("pg",), ["pg"])]
+)
+def test_postgresql_figures_without_a_server_are_each_reported_skipped(
+    only: tuple[str, ...], skipped: list[str]
+) -> None:
+    from benchmarks import run
+
+    report = run.Report(machine={}, scales=[0.002])
+    options = run.Options(scales=[0.002], backend="both", only=only)
+    for scale in run._pg_scales(options):
+        run._postgresql(options, scale, report)
+    assert report.figures == []
+    assert [s.key for s in report.skipped] == skipped
+    assert all("--pg-url" in s.reason for s in report.skipped)  # the reason names the way out
+
+
 def test_every_recorded_reason_names_a_figure_the_benchmark_measures() -> None:
     from benchmarks.run import PG_FIGURES, SQLITE_FIGURES
 
