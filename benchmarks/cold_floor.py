@@ -5,6 +5,10 @@ only the standard library (``sqlite3``, ``json``, ``statistics``) and this packa
 the same database as the ``tracker`` command it stands beside, does the same job by hand and
 prints what a person would read. Its last line is a JSON answer the benchmark holds tracker's
 output against (the IDs, references and counts both must show).
+
+DATABASE is a SQLite file, or a PostgreSQL URL: then the floor talks to the server with the
+raw driver tracker uses (psycopg, imported only then) and runs the same SQL text, its ``?``
+marks written as psycopg's ``%s`` (:class:`_Psycopg`), so both backends' floors do one job.
 """
 
 from __future__ import annotations
@@ -14,14 +18,88 @@ import sqlite3
 import statistics
 import sys
 from collections import defaultdict
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from pathlib import Path
+from types import TracebackType
+from typing import Any, Protocol
 
 from benchmarks.floor_sql import LINEAGE_FLOOR, RECONCILE_SQL
 
 
-def _connect(path: str) -> sqlite3.Connection:
-    return sqlite3.connect(f"file:{path}?mode=ro", uri=True)
+class Rows(Protocol):
+    def fetchone(self) -> Any: ...
+
+    def fetchall(self) -> list[Any]: ...
+
+
+class Connection(Protocol):
+    """What the floors ask of a connection: ``sqlite3``'s, or psycopg's through ``_Psycopg``."""
+
+    def execute(self, sql: str, parameters: Sequence[Any] = ..., /) -> Rows: ...
+
+    def executemany(self, sql: str, rows: Sequence[Sequence[Any]], /) -> object: ...
+
+    def commit(self) -> None: ...
+
+    def close(self) -> None: ...
+
+    def __enter__(self) -> Connection: ...
+
+    def __exit__(
+        self,
+        kind: type[BaseException] | None,
+        error: BaseException | None,
+        tb: TracebackType | None,
+        /,
+    ) -> object: ...
+
+
+class _Psycopg:
+    """A psycopg connection taking the floors' SQL as written for ``sqlite3``: each ``?``
+    becomes ``%s`` (the SQL holds no other ``?`` and no ``%``). A job that only reads runs
+    read-only transactions, as the SQLite floor opens its file read-only."""
+
+    def __init__(self, url: str, writes: bool) -> None:
+        import psycopg
+
+        self.connection = psycopg.connect(url.replace("postgresql+psycopg:", "postgresql:", 1))
+        self.connection.read_only = not writes
+
+    def execute(self, sql: str, parameters: Sequence[Any] = (), /) -> Rows:
+        return self.connection.execute(sql.replace("?", "%s"), parameters or None)
+
+    def executemany(self, sql: str, rows: Sequence[Sequence[Any]], /) -> object:
+        with self.connection.cursor() as cursor:
+            cursor.executemany(sql.replace("?", "%s"), rows)
+        return None
+
+    def commit(self) -> None:
+        self.connection.commit()
+
+    def close(self) -> None:
+        self.connection.close()
+
+    def __enter__(self) -> _Psycopg:
+        return self
+
+    def __exit__(
+        self,
+        kind: type[BaseException] | None,
+        error: BaseException | None,
+        tb: TracebackType | None,
+        /,
+    ) -> None:
+        self.connection.__exit__(kind, error, tb)  # commit (rollback on error), then close
+
+
+def _connect(database: str, writes: bool = False) -> Connection:
+    """The database's own driver: psycopg for a PostgreSQL URL, else ``sqlite3`` on the file
+    (read-only unless the job writes)."""
+    if database.startswith("postgresql"):
+        return _Psycopg(database, writes)
+    if writes:
+        return sqlite3.connect(database)
+    return sqlite3.connect(f"file:{database}?mode=ro", uri=True)
 
 
 def lookup(path: str, table: str, number: str) -> dict[str, object]:
@@ -122,9 +200,9 @@ def reduce(path: str, session: str) -> dict[str, object]:
     replicates averaged per target, and the results written with ``executemany``."""
     from bisect import bisect_left, bisect_right
 
-    connection = sqlite3.connect(path)
+    connection = _connect(path, writes=True)
     runs = connection.execute(
-        "SELECT run_order, role, cut_id, ratios FROM measurement "
+        "SELECT run_order, role, cut_id, CAST(ratios AS TEXT) FROM measurement "
         "WHERE session_id = ? AND excluded_reason IS NULL ORDER BY run_order",
         (int(session),),
     ).fetchall()
@@ -142,7 +220,10 @@ def reduce(path: str, session: str) -> dict[str, object]:
         (cut, ratio, statistics.fmean(v), statistics.stdev(v) if len(v) > 1 else None, len(v))
         for (cut, ratio), v in values.items()
     ]
-    connection.execute("CREATE TEMP TABLE floor_result (cut, ratio, delta, sd, n)")
+    connection.execute(
+        "CREATE TEMP TABLE floor_result (cut INTEGER, ratio TEXT, delta DOUBLE PRECISION, "
+        "sd DOUBLE PRECISION, n INTEGER)"
+    )
     connection.executemany("INSERT INTO floor_result VALUES (?, ?, ?, ?, ?)", rows)
     connection.commit()
     connection.close()

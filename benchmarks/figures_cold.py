@@ -7,6 +7,11 @@ fresh interpreter doing the same job with the standard library on the same datab
 and peak memory are the command's own (``process``). Every figure holds tracker's printed
 answer against the floor's (the IDs, references and counts both must show), or says why it
 cannot. Commands that write (a return report, a session's reduction) run on a copy.
+
+One table of commands serves both backends: the database is a SQLite file or a PostgreSQL
+URL (``tracker --db URL``; the floor then uses psycopg), and the caller makes the copy
+(:func:`sqlite_copy`, or ``figures_pg``'s copy on the server). ``--version`` and ``--help``
+open no database, so they are timed with the SQLite table only.
 """
 
 from __future__ import annotations
@@ -20,7 +25,7 @@ from pathlib import Path
 from typing import Any
 
 from benchmarks import children
-from benchmarks.figures_read import showcase_specimen
+from benchmarks.figures_read import raw_rows, showcase_specimen
 from benchmarks.measure import Figure, Target
 from benchmarks.plan import FOUNDER, PROFILE, STANDARD, TECHNICIANS, bench_keyring, bench_signer
 from benchmarks.plan_session import Target as SessionTarget
@@ -33,6 +38,10 @@ from tracker.domain.ids import Kind, format_id, parse_id
 PASSPHRASE = "synthetic benchmark passphrase"  # invented; the keys prove nothing
 PRINT_FILE = "import sys; sys.stdout.write(open(sys.argv[1]).read())"
 SESSION_ROWS = (1000, 2000, 4000)
+FLOORS = {
+    "sqlite": "a fresh interpreter, standard library",
+    "postgresql": "a fresh interpreter, psycopg",
+}
 Check = Callable[[ProcessRun, dict[str, Any]], list[str]]
 
 
@@ -49,16 +58,29 @@ class Cold:
     compared: str  # what the check holds against the floor, or why it cannot
 
 
-def cold_figures(db: Database, target: str, work: Path, repeat: int) -> list[Figure]:
-    """Every everyday command's whole-process figure on ``target`` (a SQLite file)."""
+def cold_figures(db: Database, target: str, copy: str, work: Path, repeat: int) -> list[Figure]:
+    """Every everyday command's whole-process figure on ``target`` (``db``'s SQLite file or
+    PostgreSQL URL); the commands that write run on ``copy``, the caller's copy of it."""
     env = _environment(work)
-    copy = work / "writes.sqlite"
-    _copy(Path(target), copy)
-    for database in (target, str(copy)):  # the checkpoint a workstation keeps (untimed)
-        run_process([*_tracker(), "--db", database, "ledger", "verify"], env)
-    figures = [_measure(cold, env, repeat) for cold in _commands(db, target, copy, work)]
+    trouble = [_checkpoint(database, env) for database in (target, copy)]
+    commands = _starts(work) if db.backend == "sqlite" else []
+    commands += _commands(db, target, copy, work)
+    figures = [_measure(cold, env, repeat) for cold in commands]
     figures.append(_reduce_figure(copy, env, repeat))
+    for figure in figures:
+        figure.floor_title = FLOORS[db.backend]
+        figure.problems.extend(problem for problem in trouble if problem)
     return figures
+
+
+def _checkpoint(database: str, env: dict[str, str]) -> str:
+    """Keep this computer's checkpoint of the ledger, as a workstation in use has one
+    (untimed); what went wrong, if anything."""
+    run = run_process([*_tracker(), "--db", database, "ledger", "verify"], env)
+    if run.code == 0:
+        return ""
+    last = (run.stderr.strip().splitlines() or ["no answer"])[-1]
+    return f"the untimed ledger verify before the runs failed: {last}"
 
 
 def _environment(work: Path) -> dict[str, str]:
@@ -88,9 +110,11 @@ def _environment(work: Path) -> dict[str, str]:
     return env
 
 
-def _copy(source: Path, copy: Path) -> None:
+def sqlite_copy(source: str, copy: Path) -> str:
+    """A copy of the SQLite file ``source`` for the commands that write; its path."""
     with sqlite3.connect(source) as original, sqlite3.connect(copy) as target:
         original.backup(target)
+    return str(copy)
 
 
 def _tracker() -> list[str]:
@@ -103,13 +127,8 @@ def _floor(*args: str) -> list[str]:
     return children.command("cold_floor", *args)
 
 
-def _commands(db: Database, target: str, copy: Path, work: Path) -> list[Cold]:
-    picks = _picks(target)
-    specimen, descendants = showcase_specimen(db)
-    on = ["--db", target]
-    manager = ["--db", str(copy), "--as", FOUNDER["code"]]
-    report = str(work / "report.pdf")
-    same_text = "the same text"
+def _starts(work: Path) -> list[Cold]:
+    """The commands that open no database: the interpreter's and the command line's start."""
     return [
         Cold(
             "cold_version",
@@ -118,7 +137,7 @@ def _commands(db: Database, target: str, copy: Path, work: Path) -> list[Cold]:
             [sys.executable, "-c", f"print('tracker {__version__}')"],
             Target(most=0.15),
             _same_output,
-            same_text,
+            "the same text",
         ),
         Cold(
             "cold_help",
@@ -129,6 +148,16 @@ def _commands(db: Database, target: str, copy: Path, work: Path) -> list[Cold]:
             lambda run, answer: [] if run.stdout.strip() else ["no help printed"],
             "not compared: the floor prints tracker's own help text",
         ),
+    ]
+
+
+def _commands(db: Database, target: str, copy: str, work: Path) -> list[Cold]:
+    picks = _picks(db)
+    specimen, descendants = showcase_specimen(db)
+    on = ["--db", target]
+    manager = ["--db", copy, "--as", FOUNDER["code"]]
+    report = str(work / "report.pdf")
+    return [
         Cold(
             "cold_lookup",
             f"tracker lookup of a scanned aliquot ({format_id(Kind.ALIQUOT, picks['aliquot'])})",
@@ -178,7 +207,7 @@ def _commands(db: Database, target: str, copy: Path, work: Path) -> list[Cold]:
             "cold_report",
             f"tracker report return (PDF) of a loan of {picks['report_specimens']} specimens",
             [*manager, "report", "return", picks["report_loan"], "--out", report, "--force"],
-            _floor("report", str(copy), picks["report_loan"], str(work / "floor-report.txt")),
+            _floor("report", copy, picks["report_loan"], str(work / "floor-report.txt")),
             Target(most=1.5),
             lambda run, answer: _pdf_written(report),
             "not compared: a PDF against the floor's text; the PDF is checked to be written",
@@ -186,22 +215,22 @@ def _commands(db: Database, target: str, copy: Path, work: Path) -> list[Cold]:
     ]
 
 
-def _picks(target: str) -> dict[str, Any]:
+def _picks(db: Database) -> dict[str, Any]:
     """The items the figures ask about: an aliquot in the middle, the loan nearest 100
     specimens (for the report), an open loan (any loan when none is open)."""
-    with sqlite3.connect(f"file:{target}?mode=ro", uri=True) as connection:
-        (aliquots,) = connection.execute("SELECT COUNT(*) FROM aliquot").fetchone()
-        (aliquot,) = connection.execute(
-            "SELECT id FROM aliquot ORDER BY id LIMIT 1 OFFSET ?", (aliquots // 2,)
-        ).fetchone()
-        report_loan, count = connection.execute(
-            "SELECT l.reference, COUNT(*) AS n FROM specimen s JOIN loan l ON l.id = s.loan_id "
-            "GROUP BY l.id ORDER BY ABS(COUNT(*) - 100), l.id LIMIT 1"
-        ).fetchone()
-        open_loan = connection.execute(
-            "SELECT reference FROM loan ORDER BY status <> 'open', id LIMIT 1"
-        ).fetchone()[0]
-        (loans,) = connection.execute("SELECT COUNT(*) FROM loan").fetchone()
+    ((aliquots,),) = raw_rows(db, "SELECT COUNT(*) FROM aliquot")
+    ((aliquot,),) = raw_rows(
+        db, "SELECT id FROM aliquot ORDER BY id LIMIT 1 OFFSET ?", (aliquots // 2,)
+    )
+    ((report_loan, count),) = raw_rows(
+        db,
+        "SELECT l.reference, COUNT(*) AS n FROM specimen s JOIN loan l ON l.id = s.loan_id "
+        "GROUP BY l.id ORDER BY ABS(COUNT(*) - 100), l.id LIMIT 1",
+    )
+    ((open_loan,),) = raw_rows(
+        db, "SELECT reference FROM loan ORDER BY status <> 'open', id LIMIT 1"
+    )
+    ((loans,),) = raw_rows(db, "SELECT COUNT(*) FROM loan")
     return {
         "aliquot": aliquot,
         "report_loan": report_loan,
@@ -234,9 +263,7 @@ def _measure(cold: Cold, env: dict[str, str], repeat: int) -> Figure:
 def _figure(cold: Cold, runs: list[ProcessRun], floors: list[ProcessRun]) -> Figure:
     best = min(runs, key=lambda r: r.wall if r.answered else float("inf"))
     bare = min(floors, key=lambda r: r.wall if r.answered else float("inf"))
-    figure = Figure(
-        cold.key, cold.title, "s", best.wall, bare.wall, "a fresh interpreter, standard library"
-    )
+    figure = Figure(cold.key, cold.title, "s", best.wall, bare.wall, "")  # floor: see FLOORS
     figure.target = cold.target
     figure.notes.append(
         f"CPU {best.cpu:.2f} s (floor {bare.cpu:.2f} s); peak memory {best.peak_mb:.0f} MB "
@@ -304,7 +331,7 @@ def _pdf_written(path: str) -> list[str]:
     return [] if ok else ["no PDF written"]
 
 
-def _reduce_figure(copy: Path, env: dict[str, str], repeat: int) -> Figure:
+def _reduce_figure(copy: str, env: dict[str, str], repeat: int) -> Figure:
     """``session reduce`` of sessions of 1,000, 2,000 and 4,000 runs: the figure is the
     largest, and the notes say how the time grows with the rows."""
     sessions = _import_sessions(copy)
@@ -313,8 +340,8 @@ def _reduce_figure(copy: Path, env: dict[str, str], repeat: int) -> Figure:
         cold = Cold(
             "cold_reduce",
             f"tracker session reduce of {rows:,} runs",
-            ["--db", str(copy), "--as", TECHNICIANS[0], "session", "reduce", session],
-            _floor("reduce", str(copy), str(parse_id(session).number)),
+            ["--db", copy, "--as", TECHNICIANS[0], "session", "reduce", session],
+            _floor("reduce", copy, str(parse_id(session).number)),
             Target(most=1.0),
             _reduced_cuts,
             "every cut the floor reduced",
@@ -334,25 +361,25 @@ def _reduced_cuts(run: ProcessRun, answer: dict[str, Any]) -> list[str]:
     return _missing(run, wanted) or _empty({"cuts": wanted}, "cuts")
 
 
-def _import_sessions(copy: Path) -> list[str]:
+def _import_sessions(copy: str) -> list[str]:
     """Sessions of 1,000, 2,000 and 4,000 runs over the copy's Ca sample cuts (untimed)."""
     from benchmarks.shape import END
     from tracker.demo import StepClock
     from tracker.services.instrument import sessions
 
-    with sqlite3.connect(copy) as connection:
-        cuts = [
-            format_id(Kind.CUT, row[0])
-            for row in connection.execute(
-                "SELECT c.id FROM cut c JOIN batch_position p ON p.id = c.position_id "
-                "JOIN column_batch b ON b.id = p.batch_id WHERE b.element = 'Ca' "
-                "AND p.kind = 'sample' AND c.name = 'Ca' ORDER BY c.id LIMIT 1000"
-            )
-        ]
     db = open_database(copy, clock=StepClock(END), upgrade=False)
     db.keyring = bench_keyring()
     made = []
     try:
+        cuts = [
+            format_id(Kind.CUT, row[0])
+            for row in raw_rows(
+                db,
+                "SELECT c.id FROM cut c JOIN batch_position p ON p.id = c.position_id "
+                "JOIN column_batch b ON b.id = p.batch_id WHERE b.element = 'Ca' "
+                "AND p.kind = 'sample' AND c.name = 'Ca' ORDER BY c.id LIMIT 1000",
+            )
+        ]
         for rows in SESSION_ROWS:
             targets = max(1, min(len(cuts), (rows - 2) // 4))
             picked = [SessionTarget(cut, "sample") for cut in cuts[:targets]]

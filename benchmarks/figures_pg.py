@@ -1,4 +1,5 @@
-"""PostgreSQL figures: reconcile at the scale's size, and drills per second with 8 clients.
+"""PostgreSQL figures: reconcile at the scale's size, drills per second with 8 clients, and
+the everyday commands as whole processes (``figures_cold``'s table, on the server).
 
 The database is built by the bulk executor into a fresh database on the server ``--pg-url``
 names, or, only when asked (``--pg-cluster``), on a throwaway cluster started with the test
@@ -11,13 +12,16 @@ from __future__ import annotations
 import itertools
 import json
 import multiprocessing
+import tempfile
 from collections import defaultdict
 from collections.abc import Iterator
 from contextlib import contextmanager
+from pathlib import Path
 from typing import Any
 
 from sqlalchemy import create_engine, inspect, text
 from sqlalchemy.engine import make_url
+from sqlalchemy.exc import DBAPIError
 
 from benchmarks.figures_read import raw_rows, reconcile_figure
 from benchmarks.generate import Built, Progress, build, ledger_head
@@ -27,7 +31,7 @@ from benchmarks.plan import bench_keyring
 from benchmarks.shape import END
 from tracker.db.database import Database, open_database
 from tracker.demo import StepClock
-from tracker.domain.errors import InputError
+from tracker.domain.errors import InputError, RuleViolation
 from tracker.domain.ids import Kind, format_id
 
 CLIENTS = 8
@@ -57,18 +61,33 @@ def server(url: str | None, cluster: bool) -> Iterator[str]:
         yield started
 
 
-def fresh_database(server_url: str, name: str) -> str:
-    """An empty database ``name`` on the server (dropped first if it exists)."""
+def fresh_database(server_url: str, name: str, template: str | None = None) -> str:
+    """An empty database ``name`` on the server (dropped first if it exists), or with
+    ``template`` a copy of that database."""
+    copied = f' TEMPLATE "{template}"' if template else ""
+    _as_admin(
+        server_url,
+        f'DROP DATABASE IF EXISTS "{name}" WITH (FORCE)',
+        f'CREATE DATABASE "{name}"{copied}',
+    )
+    return make_url(server_url).set(database=name).render_as_string(hide_password=False)
+
+
+def drop_database(url: str) -> None:
+    _as_admin(url, f'DROP DATABASE IF EXISTS "{make_url(url).database}" WITH (FORCE)')
+
+
+def _as_admin(server_url: str, *statements: str) -> None:
+    """Run ``statements`` from the server's maintenance database, outside a transaction."""
     admin = create_engine(
         make_url(server_url).set(database="postgres"), isolation_level="AUTOCOMMIT"
     )
     try:
         with admin.connect() as connection:
-            connection.execute(text(f'DROP DATABASE IF EXISTS "{name}" WITH (FORCE)'))
-            connection.execute(text(f'CREATE DATABASE "{name}"'))
+            for statement in statements:
+                connection.execute(text(statement))
     finally:
         admin.dispose()
-    return make_url(server_url).set(database=name).render_as_string(hide_password=False)
 
 
 def built_database(
@@ -92,13 +111,55 @@ def postgresql_figures(url: str, scale: float, repeat: int) -> list[Figure]:
     db = open_database(url, clock=StepClock(END), upgrade=False)
     db.keyring = bench_keyring()  # the synthetic operators sign
     try:
-        figure = reconcile_figure(db, repeat, key="pg_reconcile")
-        figure.title = f"PostgreSQL: {figure.title}"
+        figure = on_postgresql(reconcile_figure(db, repeat))
         figure.scale = scale
         rate = drills_figure(db, url)
     finally:
         db.close()
     return [figure, rate]
+
+
+def on_postgresql(figure: Figure) -> Figure:
+    """A figure measured on PostgreSQL, told apart from its SQLite twin by key and title."""
+    figure.key, figure.title = f"pg_{figure.key}", f"PostgreSQL: {figure.title}"
+    return figure
+
+
+def cold_figures(url: str, scale: float, repeat: int) -> list[Figure]:
+    """The everyday commands as whole processes on the server (``figures_cold``'s table).
+
+    The commands that write run on a copy made by ``CREATE DATABASE ... TEMPLATE`` of the
+    built database: the server copies its files, so the copy holds the same rows and the
+    same ledger in seconds, where building a second database would take as long as the
+    first build (most of a scale-1 run) for the same content. The server copies a template
+    only while no other session is connected to it, so the copy is made before this
+    function opens the database; it is dropped afterwards.
+    """
+    from benchmarks.figures_cold import cold_figures as commands
+
+    copy = _writable_copy(url)
+    db = open_database(url, clock=StepClock(END), upgrade=False)
+    db.keyring = bench_keyring()  # the synthetic operators sign
+    try:
+        with tempfile.TemporaryDirectory(prefix="tracker-bench-pg-cold-") as work:
+            figures = commands(db, url, copy, Path(work), repeat)
+    finally:
+        db.close()
+        drop_database(copy)
+    for figure in figures:
+        on_postgresql(figure).scale = scale
+    return figures
+
+
+def _writable_copy(url: str) -> str:
+    built = make_url(url).database or "postgres"
+    try:
+        return fresh_database(url, f"{built}_writes", template=built)
+    except DBAPIError as error:  # another session on it, or no right to create databases
+        said = str(error.orig).strip().splitlines()[0] if error.orig else type(error).__name__
+        raise RuleViolation(
+            "PostgreSQL", None, f"no copy of the database for the commands that write: {said}"
+        ) from None
 
 
 def _work(db: Database) -> list[tuple[str, str]]:

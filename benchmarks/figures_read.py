@@ -33,7 +33,7 @@ def raw_rows(db: Database, sql: str, params: tuple[Any, ...] = ()) -> list[Any]:
         connection.close()
 
 
-def reconcile_figure(db: Database, repeat: int, key: str = "reconcile") -> Figure:
+def reconcile_figure(db: Database, repeat: int) -> Figure:
     kept: dict[str, Any] = {}
 
     def measured() -> float:
@@ -47,7 +47,7 @@ def reconcile_figure(db: Database, repeat: int, key: str = "reconcile") -> Figur
     floor_name = "one hand-written SQL aggregate: the same sums and closure tests"
     target = Target(most=0.5, ratio_most=2.0)
     title = f"reconcile all {len(lines)} loans"
-    figure = Figure(key, title, "s", took, bare, floor_name, target)
+    figure = Figure("reconcile", title, "s", took, bare, floor_name, target)
     figure.compared = "each specimen's drilled mass, open books and overrides"
     _cross_check(figure, lines, kept["rows"])
     return figure

@@ -1,5 +1,6 @@
 """The floors' hand-written SQL, shared by the in-process figures and the whole-process
-floors (``cold_floor``), which import nothing but the standard library and this module."""
+floors (``cold_floor``), which import nothing but the standard library, this module and, on
+PostgreSQL, psycopg. Every statement runs unchanged on SQLite and PostgreSQL."""
 
 # One hand-written statement computing what reconcile reports per specimen: drilled mass and
 # its variance, dissolved, on hand, returned, and how many powders and solutions fail to

@@ -99,11 +99,27 @@ def _value(value: float, unit: str) -> str:
 
 
 def _figures(report: dict[str, Any]) -> str:
+    """One table per backend, SQLite's first: a PostgreSQL figure's key starts ``pg_`` (a
+    skipped PostgreSQL step's with ``pg``), and its title says so too."""
+    tables = []
+    for heading, on_postgresql in (("", False), ("On PostgreSQL:", True)):
+        figures = [f for f in report["figures"] if _postgresql(f) == on_postgresql]
+        skipped = [s for s in report["skipped"] if _postgresql(s) == on_postgresql]
+        if figures or skipped:
+            tables.append("\n\n".join(filter(None, (heading, _table(figures, skipped)))))
+    return "\n\n".join(tables)
+
+
+def _postgresql(figure: dict[str, Any]) -> bool:
+    return str(figure["key"]).startswith("pg")
+
+
+def _table(figures: list[dict[str, Any]], skipped: list[dict[str, Any]]) -> str:
     rows = [
         "| figure | scale | measured | floor | ratio | target | met | answer checked |",
         "|---|---|---|---|---|---|---|---|",
     ]
-    for f in report["figures"]:
+    for f in figures:
         problems = "".join(f"; ✗ {p}" for p in f["problems"])
         rows.append(
             f"| {f['title']} (floor: {f['floor_title']}) | {f['scale']:g} | "
@@ -111,9 +127,9 @@ def _figures(report: dict[str, Any]) -> str:
             f"{f['ratio']:.2f} | {f['target']} | {MET[f['met']]}{problems} | "
             f"{f.get('compared') or 'not said'} |"
         )
-    for s in report["skipped"]:
+    for s in skipped:
         rows.append(f"| {s['key']}: skipped, {s['reason']} | {s['scale']:g} | | | | | skipped | |")
-    notes = [f"- {f['title']}: {n}" for f in report["figures"] for n in f["notes"]]
+    notes = [f"- {f['title']}: {n}" for f in figures for n in f["notes"]]
     return "\n".join(rows) + ("\n\n" + "\n".join(notes) if notes else "")
 
 

@@ -44,7 +44,7 @@ SQLITE_FIGURES = (
     "tui",
     "cold",
 )
-PG_FIGURES = ("pg",)
+PG_FIGURES = ("pg", "cold")  # "pg": reconcile and drills; "cold": the whole-command table
 LINEAR = 1.15  # growth exponents up to this count as linear (timings on a busy 2-core machine)
 
 
@@ -144,9 +144,11 @@ def run(options: Options) -> Report:
 
 
 def _pg_scales(options: Options) -> list[float]:
+    if not any(_wanted(options, key) for key in PG_FIGURES):
+        return []
     if options.backend == "postgresql":
         return options.scales
-    if options.backend == "both" and _wanted(options, "pg"):
+    if options.backend == "both":
         return [1.0] if 1.0 in options.scales else options.scales[-1:]
     return []
 
@@ -193,10 +195,11 @@ def _manifest(built: Built, options: Options) -> list[Figure]:
 
 
 def _cold(db: Database, built: Built, options: Options) -> list[Figure]:
-    from benchmarks.figures_cold import cold_figures
+    from benchmarks.figures_cold import cold_figures, sqlite_copy
 
     with tempfile.TemporaryDirectory(prefix="tracker-bench-cold-") as work:
-        return cold_figures(db, built.target, Path(work), options.repeat)
+        copy = sqlite_copy(built.target, Path(work, "writes.sqlite"))
+        return cold_figures(db, built.target, copy, Path(work), options.repeat)
 
 
 def _labels(db: Any, repeat: int) -> Figure:
@@ -208,6 +211,9 @@ def _labels(db: Any, repeat: int) -> Figure:
 def _postgresql(options: Options, scale: float, report: Report) -> None:
     from benchmarks import figures_pg
 
+    steps = {"pg": figures_pg.postgresql_figures, "cold": figures_pg.cold_figures}
+    wanted = [key for key in PG_FIGURES if _wanted(options, key)]
+    done = 0
     options.say(f"scale {scale:g}: PostgreSQL")
     try:
         with figures_pg.server(options.pg_url, options.pg_cluster) as server:
@@ -219,9 +225,13 @@ def _postgresql(options: Options, scale: float, report: Report) -> None:
             )
             if built is not None:
                 report.builds.append(built)
-            for figure in figures_pg.postgresql_figures(url, scale, options.repeat):
-                figure.scale = scale
-                report.figures.append(figure)
+            for step in wanted:
+                options.say(f"scale {scale:g}: PostgreSQL {step}")
+                for figure in steps[step](url, scale, options.repeat):
+                    figure.scale = scale
+                    report.figures.append(figure)
+                done += 1
     except (TrackerError, ImportError) as error:
         reason = error.one_line() if isinstance(error, TrackerError) else str(error)
-        report.skipped.append(Skipped("pg", scale, reason))
+        for step in wanted[done:]:  # every step the failure left unmeasured, with its reason
+            report.skipped.append(Skipped("pg" if step == "pg" else f"pg_{step}", scale, reason))

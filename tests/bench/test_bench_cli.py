@@ -43,6 +43,12 @@ def bench(*args: str, as_json: bool = False) -> Result:
         (("generate", "--executor", "magic"), "--executor", "magic"),
         (("run", "--backend", "postgresql"), "--backend", "postgresql"),  # no server named
         (("run", "--pg-url", "postgresql://x/y", "--pg-cluster"), "--pg-url", "postgresql://x/y"),
+        (
+            ("run", "--backend", "postgresql", "--pg-cluster", "--only", "verify"),
+            "--only",
+            "verify",
+        ),
+        (("run", "--backend", "sqlite", "--only", "pg"), "--only", "pg"),
     ],
 )
 def test_bad_options_are_one_line_naming_the_option(
@@ -174,6 +180,23 @@ def test_slower_figures_carry_their_reason_and_faster_ones_are_not_listed() -> N
     assert "| pg_drills | 1 |" in text and "no reason recorded yet" in text  # fewer per second
     assert "| lookup |" not in text  # faster is not slower
     assert page._slower(before, [figure("verify", 1.05)], {}).endswith(": none.")  # within 10 %
+
+
+@pytest.mark.parametrize(
+    ("only", "skipped"), [(("cold",), ["pg_cold"]), ((), ["pg", "pg_cold"]), (("pg",), ["pg"])]
+)
+def test_postgresql_figures_without_a_server_are_each_reported_skipped(
+    only: tuple[str, ...], skipped: list[str]
+) -> None:
+    from benchmarks import run
+
+    report = run.Report(machine={}, scales=[0.002])
+    options = run.Options(scales=[0.002], backend="both", only=only)
+    for scale in run._pg_scales(options):
+        run._postgresql(options, scale, report)
+    assert report.figures == []
+    assert [s.key for s in report.skipped] == skipped
+    assert all("--pg-url" in s.reason for s in report.skipped)  # the reason names the way out
 
 
 def test_every_recorded_reason_names_a_figure_the_benchmark_measures() -> None:
