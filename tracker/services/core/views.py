@@ -29,7 +29,7 @@ from tracker.domain.terms import terms_in_force
 
 
 class View(BaseModel):
-    model_config = ConfigDict(frozen=True)
+    model_config = ConfigDict(frozen=True, defer_build=True)
 
 
 V = TypeVar("V", bound=BaseModel)
