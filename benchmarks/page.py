@@ -36,6 +36,7 @@ def page(report: dict[str, Any], command: str, previous: str | None) -> str:
         _figures(report),
         _growth(report),
         _machine(report),
+        _missed(report["figures"], reasons("missed.toml")),
         _slower(figures_of(previous), report["figures"], reasons()),
         DATA_BEGIN + json.dumps(kept, sort_keys=True) + DATA_END,
     ]
@@ -71,9 +72,10 @@ def figures_of(text: str | None) -> dict[str, Any] | None:
     return kept
 
 
-def reasons() -> dict[str, str]:
-    """Why each figure got slower, as a person wrote it in ``reasons.toml``."""
-    with (HERE / "reasons.toml").open("rb") as file:
+def reasons(name: str = "reasons.toml") -> dict[str, str]:
+    """The reasons a person wrote, per figure key: why a figure got slower
+    (``reasons.toml``), or why the plain design misses its target (``missed.toml``)."""
+    with (HERE / name).open("rb") as file:
         return {key: entry["reason"] for key, entry in tomllib.load(file).items()}
 
 
@@ -179,6 +181,29 @@ def _slower(
         return f"{head}: none."
     table = ["| figure | scale | before | now | why |", "|---|---|---|---|---|", *rows]
     return f"{head}, each with the reason:\n\n" + "\n".join(table)
+
+
+def _missed(figures: list[dict[str, Any]], why: dict[str, str]) -> str:
+    """Every target this run missed, with the design reason a person gave for it."""
+    rows = [
+        f"| {f['title']} | {f['scale']:g} | {_value(f['measured'], f['unit'])} | {f['target']} "
+        f"| {_reason(why, f['key'])} |"
+        for f in figures
+        if f["met"] is False
+    ]
+    if not rows:
+        return "Targets missed: none."
+    table = ["| figure | scale | measured | target | why the plain design misses it |"]
+    return "Targets missed, each with its reason:\n\n" + "\n".join(
+        [*table, "|---|---|---|---|---|", *rows]
+    )
+
+
+def _reason(why: dict[str, str], key: str) -> str:
+    """The reason for ``key``; a PostgreSQL figure (``pg_…``) without its own shares its
+    SQLite twin's, the same command on the other backend."""
+    found = why.get(key) or why.get(key.removeprefix("pg_"))
+    return found or "no reason recorded yet (benchmarks/missed.toml)"
 
 
 def _with_ratio(measured: float, ratio: float | None, figure: dict[str, Any]) -> str:

@@ -272,3 +272,43 @@ def test_a_page_over_a_file_the_benchmark_did_not_write_needs_force(tmp_path: Pa
     assert result.exit_code == 2 and "--page" in result.stderr, result.stderr
     assert notes.read_text(encoding="utf-8") == "my own notes\n"
     assert not list(cache.iterdir())  # refused before anything was built
+
+
+def test_missed_targets_are_listed_with_their_design_reason() -> None:
+    def figure(key: str, met: bool | None) -> dict[str, Any]:
+        return {
+            "key": key,
+            "scale": 1.0,
+            "title": f"title of {key}",
+            "unit": "s",
+            "measured": 0.5,
+            "target": "≤ 0.4 s",
+            "met": met,
+        }
+
+    why = {"cold_lookup": "imports before the first row"}
+    figures = [
+        figure("cold_lookup", False),
+        figure("pg_cold_lookup", False),
+        figure("cold_show", True),
+        figure("labels", None),
+        figure("tui", False),
+    ]
+    text = page._missed(figures, why)
+    assert "| title of cold_lookup | 1 | 0.500 s | ≤ 0.4 s | imports before the first row |" in text
+    assert "| title of pg_cold_lookup | 1 | 0.500 s | ≤ 0.4 s | imports before the first row |" in (
+        text
+    )  # a PostgreSQL figure shares its SQLite twin's reason
+    assert "| title of tui |" in text and "no reason recorded yet" in text
+    assert "cold_show" not in text and "labels" not in text  # met, or no target
+    assert page._missed([figure("cold_show", True)], why) == "Targets missed: none."
+
+
+def test_every_reason_for_a_missed_target_names_a_figure_the_benchmark_measures() -> None:
+    from benchmarks import figures_cold
+    from benchmarks.run import PG_FIGURES, SQLITE_FIGURES
+
+    cold = Path(figures_cold.__file__).read_text(encoding="utf-8")
+    for key in page.reasons("missed.toml"):
+        plain = key.removeprefix("pg_")
+        assert plain in {*SQLITE_FIGURES, *PG_FIGURES} or f'"{plain}"' in cold, key
