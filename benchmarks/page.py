@@ -34,6 +34,7 @@ def page(report: dict[str, Any], command: str, previous: str | None) -> str:
         intro,
         measured,
         _figures(report),
+        _side_by_side(report["figures"]),
         _growth(report),
         _machine(report),
         _missed(report["figures"], reasons("missed.toml")),
@@ -181,6 +182,31 @@ def _slower(
         return f"{head}: none."
     table = ["| figure | scale | before | now | why |", "|---|---|---|---|---|", *rows]
     return f"{head}, each with the reason:\n\n" + "\n".join(table)
+
+
+# The same job timed two ways: a warm service call in a running process, and the whole command
+# a person types (a fresh interpreter that imports, opens the database, answers and exits).
+WARM_AND_COLD = (
+    ("lookup", "cold_lookup", "scanned-ID lookup"),
+    ("lineage", "cold_show", "a specimen with 50 descendants: lineage / `tracker show`"),
+    ("reconcile", "cold_reconcile", "every loan reconciled / `tracker reconcile` as text"),
+)
+
+
+def _side_by_side(figures: list[dict[str, Any]]) -> str:
+    """Warm and cold figures of the same jobs next to each other, at each scale measured."""
+    found = {(f["key"], f["scale"]): f for f in figures}
+    rows = [
+        f"| {job} | {scale:g} | {_value(warm['measured'], warm['unit'])} "
+        f"| {_value(cold['measured'], cold['unit'])} |"
+        for warm_key, cold_key, job in WARM_AND_COLD
+        for (key, scale), warm in found.items()
+        if key == warm_key and (cold := found.get((cold_key, scale))) is not None
+    ]
+    if not rows:
+        return ""
+    head = "| job | scale | warm: in a running process | cold: the whole command |"
+    return "The same jobs warm and cold:\n\n" + "\n".join([head, "|---|---|---|---|", *rows])
 
 
 def _missed(figures: list[dict[str, Any]], why: dict[str, str]) -> str:

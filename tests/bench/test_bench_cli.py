@@ -312,3 +312,19 @@ def test_every_reason_for_a_missed_target_names_a_figure_the_benchmark_measures(
     for key in page.reasons("missed.toml"):
         plain = key.removeprefix("pg_")
         assert plain in {*SQLITE_FIGURES, *PG_FIGURES} or f'"{plain}"' in cold, key
+
+
+def test_warm_and_cold_figures_of_one_job_stand_side_by_side() -> None:
+    def figure(key: str, scale: float, measured: float, unit: str) -> dict[str, Any]:
+        return {"key": key, "scale": scale, "measured": measured, "unit": unit}
+
+    figures = [
+        figure("lookup", 1.0, 1.25, "ms"),
+        figure("cold_lookup", 1.0, 0.52, "s"),
+        figure("lookup", 4.0, 1.5, "ms"),  # no cold figure at this scale: no row
+        figure("lineage", 1.0, 5.5, "ms"),
+    ]
+    text = page._side_by_side(figures)
+    assert "| scanned-ID lookup | 1 | 1.250 ms | 0.520 s |" in text
+    assert "| 4 |" not in text and "lineage" not in text
+    assert page._side_by_side([figure("lookup", 1.0, 1.0, "ms")]) == ""
