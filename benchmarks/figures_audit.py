@@ -7,7 +7,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from benchmarks import children
-from benchmarks.measure import Figure, Target
+from benchmarks.measure import Figure, Target, alternated
 from tracker.db.engine import sqlite_path
 
 
@@ -39,11 +39,12 @@ def audit_figures(target: str, repeat: int) -> list[Figure]:
     path = sqlite_path(target) if "://" in target else Path(target)
     if path is None:
         raise ValueError("the audit floor reads a SQLite file")
-    runs: list[AuditRun] = []
-    floors: list[AuditRun] = []
-    for _ in range(max(repeat, 1)):
-        runs.append(run_child("audit", path))
-        floors.append(run_child("audit-floor", path))
+    runs, floors = alternated(
+        repeat,
+        lambda: run_child("audit", path),
+        lambda: run_child("audit-floor", path),
+        lambda run: run.seconds,
+    )
     best, bare = min(runs, key=lambda r: r.seconds), min(floors, key=lambda r: r.seconds)
     timing = Figure(
         "audit",

@@ -26,7 +26,7 @@ from typing import Any
 
 from benchmarks import children
 from benchmarks.figures_read import raw_rows, showcase_specimen
-from benchmarks.measure import Figure, Target
+from benchmarks.measure import Figure, Target, alternated
 from benchmarks.plan import FOUNDER, PROFILE, STANDARD, TECHNICIANS, bench_keyring, bench_signer
 from benchmarks.plan_session import Target as SessionTarget
 from benchmarks.plan_session import session_csv
@@ -62,7 +62,7 @@ def cold_figures(db: Database, target: str, copy: str, work: Path, repeat: int) 
     """Every everyday command's whole-process figure on ``target`` (``db``'s SQLite file or
     PostgreSQL URL); the commands that write run on ``copy``, the caller's copy of it."""
     env = _environment(work)
-    trouble = [_checkpoint(database, env) for database in (target, copy)]
+    trouble = [_settled(target, env, AUDITED), _settled(copy, env, VERIFIED)]
     commands = _starts(work) if db.backend == "sqlite" else []
     commands += _commands(db, target, copy, work)
     figures = [_measure(cold, env, repeat) for cold in commands]
@@ -73,14 +73,21 @@ def cold_figures(db: Database, target: str, copy: str, work: Path, repeat: int) 
     return figures
 
 
-def _checkpoint(database: str, env: dict[str, str]) -> str:
-    """Keep this computer's checkpoint of the ledger, as a workstation in use has one
-    (untimed); what went wrong, if anything."""
-    run = run_process([*_tracker(), "--db", database, "ledger", "verify"], env)
-    if run.code == 0:
-        return ""
-    last = (run.stderr.strip().splitlines() or ["no answer"])[-1]
-    return f"the untimed ledger verify before the runs failed: {last}"
+# Untimed, before the runs, what a workstation in use has done before: a verification of the
+# ledger (its checkpoint), and on the database reconcile reads, a whole-lab audit (its mark),
+# so that reconcile audits only what changed since, as it does day to day.
+VERIFIED = (("ledger", "verify"),)
+AUDITED = (*VERIFIED, ("reconcile",))
+
+
+def _settled(database: str, env: dict[str, str], steps: tuple[tuple[str, ...], ...]) -> str:
+    """Run ``steps`` on ``database`` untimed; what went wrong, if anything."""
+    for step in steps:
+        run = run_process([*_tracker(), "--db", database, *step], env)
+        if run.code != 0:
+            last = (run.stderr.strip().splitlines() or ["no answer"])[-1]
+            return f"the untimed {' '.join(step)} before the runs failed: {last}"
+    return ""
 
 
 def _environment(work: Path) -> dict[str, str]:
@@ -252,11 +259,12 @@ def _help_text(work: Path) -> Path:
 
 
 def _measure(cold: Cold, env: dict[str, str], repeat: int) -> Figure:
-    runs: list[ProcessRun] = []
-    floors: list[ProcessRun] = []
-    for _ in range(max(repeat, 1)):
-        runs.append(run_process([*_tracker(), *cold.tracker], env))
-        floors.append(run_process(cold.floor, env))
+    runs, floors = alternated(
+        repeat,
+        lambda: run_process([*_tracker(), *cold.tracker], env),
+        lambda: run_process(cold.floor, env),
+        lambda run: run.wall,
+    )
     return _figure(cold, runs, floors)
 
 

@@ -13,7 +13,7 @@ from pathlib import Path
 from time import perf_counter
 
 from benchmarks import children
-from benchmarks.measure import Figure, Target, best_of
+from benchmarks.measure import Figure, Target, alternated, best_of
 from tracker.db.database import Database
 from tracker.db.engine import sqlite_path
 from tracker.domain.timeutil import iso_utc
@@ -40,11 +40,12 @@ def verify_figures(target: str, repeat: int) -> list[Figure]:
     path = sqlite_path(target) if "://" in target else Path(target)
     if path is None:
         raise ValueError("the verify floor reads a SQLite file")
-    runs: list[ChildRun] = []
-    floors: list[ChildRun] = []
-    for _ in range(max(repeat, 1)):
-        runs.append(run_child("verify", str(path)))
-        floors.append(run_child("verify-floor", str(path)))
+    runs, floors = alternated(
+        repeat,
+        lambda: run_child("verify", str(path)),
+        lambda: run_child("verify-floor", str(path)),
+        lambda run: run.seconds,
+    )
     best, bare = min(runs, key=lambda r: r.seconds), min(floors, key=lambda r: r.seconds)
     events = best.events
     timing = Figure(

@@ -16,7 +16,7 @@ import time
 from collections.abc import Callable
 from dataclasses import asdict, dataclass, field
 from pathlib import Path
-from typing import Any
+from typing import Any, TypeVar
 
 
 @dataclass(frozen=True)
@@ -73,6 +73,31 @@ class Figure:
         data["target"] = self.target.text(self.unit)
         data |= {"ratio": self.ratio, "met": self.met}
         return data
+
+
+LONG_RUN_S = 20.0  # a run this long is timed once: its own length averages out the noise
+Ours = TypeVar("Ours")
+Bare = TypeVar("Bare")
+
+
+def alternated(
+    repeat: int,
+    ours: Callable[[], Ours],
+    floor: Callable[[], Bare],
+    seconds: Callable[[Ours], float],
+) -> tuple[list[Ours], list[Bare]]:
+    """A figure's runs and its floor's, alternating, ``repeat`` times each; only once when
+    the first of ours took over ``LONG_RUN_S``. A best of three guards a short figure against
+    a moment's noise; a verification of four million signatures lasts minutes, noise averages
+    out within it, and three more pairs would add a quarter of an hour to learn little."""
+    runs: list[Ours] = []
+    floors: list[Bare] = []
+    for _ in range(max(repeat, 1)):
+        runs.append(ours())
+        floors.append(floor())
+        if seconds(runs[0]) > LONG_RUN_S:
+            break
+    return runs, floors
 
 
 def best_of(repeat: int, *runs: Callable[[], float]) -> list[float]:

@@ -328,3 +328,23 @@ def test_warm_and_cold_figures_of_one_job_stand_side_by_side() -> None:
     assert "| scanned-ID lookup | 1 | 1.250 ms | 0.520 s |" in text
     assert "| 4 |" not in text and "lineage" not in text
     assert page._side_by_side([figure("lookup", 1.0, 1.0, "ms")]) == ""
+
+
+def test_a_figure_is_run_repeat_times_unless_its_first_run_is_long() -> None:
+    from benchmarks.measure import LONG_RUN_S, alternated
+
+    calls: list[str] = []
+
+    def ours(seconds: float) -> float:
+        calls.append("ours")
+        return seconds
+
+    def floor() -> float:
+        calls.append("floor")
+        return 0.0
+
+    runs, floors = alternated(3, lambda: ours(1.0), floor, lambda run: run)
+    assert (len(runs), len(floors)) == (3, 3)
+    assert calls == ["ours", "floor"] * 3  # alternating
+    runs, floors = alternated(3, lambda: ours(LONG_RUN_S + 1), floor, lambda run: run)
+    assert (len(runs), len(floors)) == (1, 1)

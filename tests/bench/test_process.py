@@ -32,14 +32,14 @@ def test_a_command_past_its_timeout_is_killed_and_gives_no_answer() -> None:
     assert 1.0 <= run.wall < 10
 
 
-def test_a_failed_checkpoint_before_the_runs_is_a_problem_naming_tracker_s_refusal(
+def test_a_failed_untimed_step_before_the_runs_is_a_problem_naming_tracker_s_refusal(
     tmp_path: Path,
 ) -> None:
     from benchmarks import children, figures_cold
 
     missing = tmp_path / "missing.sqlite"
     env = children.environment(TRACKER_CHECKPOINT_DIR=str(tmp_path / "checkpoints"))
-    problem = figures_cold._checkpoint(str(missing), env)
+    problem = figures_cold._settled(str(missing), env, figures_cold.AUDITED)
     assert problem.startswith("the untimed ledger verify before the runs failed: ")
     assert "--db" in problem and missing.name in problem  # tracker's own line, its last
     assert not missing.exists()
