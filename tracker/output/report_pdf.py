@@ -34,6 +34,7 @@ from reportlab.platypus import (
     Table,
     TableStyle,
 )
+from reportlab.platypus.tables import CellStyle
 
 from tracker.domain import precision
 from tracker.services.read.report_views import PowderLine, ReturnReport, SpecimenEntry
@@ -78,9 +79,13 @@ def _styles() -> dict[str, ParagraphStyle]:
     }
 
 
+def _shown(value: object) -> str:
+    """A value as the report prints it: a dash for nothing."""
+    return "—" if value is None or value == "" else str(value)
+
+
 def _esc(value: object) -> str:
-    text = "—" if value is None or value == "" else str(value)
-    return text.replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;")
+    return _shown(value).replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;")
 
 
 def _table(
@@ -107,7 +112,8 @@ def _table(
     return table
 
 
-CELL_PADDING = 12  # points: a table cell's default left and right padding together
+# points a table cell keeps free beside its text: reportlab's default left and right padding
+CELL_PADDING = CellStyle("cell").leftPadding + CellStyle("cell").rightPadding
 
 
 def _cell(value: object, width: float, styles: dict[str, ParagraphStyle]) -> Flowable | str:
@@ -116,7 +122,7 @@ def _cell(value: object, width: float, styles: dict[str, ParagraphStyle]) -> Flo
     a report of a hundred specimens most of its time, and few cells need one."""
     if isinstance(value, Flowable):
         return value
-    text = "—" if value is None or value == "" else str(value)
+    text = _shown(value)
     small = styles["small"]
     fits = pdfmetrics.stringWidth(text, small.fontName, small.fontSize) <= width - CELL_PADDING
     if fits and "\n" not in text:

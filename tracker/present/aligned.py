@@ -57,10 +57,6 @@ class AlignedTable:
                 self.widths[number] = width
         self.rows.append(row)
 
-    @property
-    def row_count(self) -> int:
-        return len(self.rows)
-
     def __rich_measure__(self, console: Console, options: ConsoleOptions) -> Measurement:
         widest = _frame(len(self.headers)) + sum(self.widths)
         return Measurement(min(widest, options.max_width), widest)
