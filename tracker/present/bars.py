@@ -4,6 +4,8 @@ colour. Shared by the CLI's tables and the interface's screens."""
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+
 from rich.text import Text
 
 from tracker.domain.precision import number
@@ -51,7 +53,7 @@ def symbol_of(flag: str) -> str:
     return next((s for name, s in FLAG_SYMBOLS.items() if flag.startswith(name)), "•")
 
 
-def flag_text(flags: list[str]) -> Text:
+def flag_text(flags: Sequence[str]) -> Text:
     """Flags as symbol + words (``✗ over limit · ↩ powder to return``), or ``✓ ok``."""
     if not flags:
         return Text("✓ ok", style="green")
@@ -65,7 +67,7 @@ def flag_text(flags: list[str]) -> Text:
     return text
 
 
-def flag_lines(flags: list[str]) -> str:
+def flag_lines(flags: Sequence[str]) -> str:
     """Flags one per line in words, or ``ok`` (plain: the CLI's wide tables)."""
     return "\n".join(flags) or "ok"
 
@@ -74,7 +76,7 @@ def _severity(flag: str) -> int:
     return "✗⚠↩?•".index(symbol_of(flag))
 
 
-def flag_cell(flags: list[str], width: int, lines: int = 1) -> Text:
+def flag_cell(flags: Sequence[str], width: int, lines: int = 1) -> Text:
     """Flags for a narrow table cell, most serious first, one per line; ``+n`` counts the rest."""
     if not flags:
         return Text("✓ ok", style="green")

@@ -26,7 +26,7 @@ class SpecimenLine(View):
     dissolved_mg: float
     powder_on_hand_mg: float
     powder_returned_mg: float
-    flags: list[str]
+    flags: tuple[str, ...]  # a tuple, so the collector can stop tracking a decade's lines
 
 
 class LoanLine(View):
