@@ -53,8 +53,11 @@ class Case:
 
 
 def names(lab: Lab) -> dict[str, object]:
+    empty = lab.path.with_name("empty.csv")
+    empty.touch()
     return {
         **lab.__dict__,
+        "empty": str(empty),
         "unknown_specimen": valid_id("SP", 9999),
         "unknown_location": valid_id("LC", 9999),
         "bad_check": wrong_check(lab.on_hand),
@@ -66,6 +69,7 @@ def drill(*extra: str, specimen: str = "{on_hand}") -> tuple[str, ...]:
 
 
 T = "{technician}"
+M = "{manager}"
 FUTURE = "2099-01-01"
 BAD_INPUT = [
     Case(
@@ -94,6 +98,65 @@ BAD_INPUT = [
         re.escape("2.000 mg"),
     ),
     Case("unknown unit", drill("--tare", "2 kgz", "--gross", "2.000 mg"), T, 2, "--tare", "2 kgz"),
+    Case(
+        "decimal comma",
+        drill("--tare", "1,000 mg", "--gross", "2.000 mg"),
+        T,
+        2,
+        "--tare",
+        "1,000 mg",
+    ),
+    # An empty file, for every command that reads one: named by the file, never its bytes.
+    Case(
+        "empty instrument export",
+        (
+            "session",
+            "import",
+            "{empty}",
+            "--profile",
+            "none-saved",
+            "--name",
+            "run",
+            "--instrument",
+            "MC-ICP-MS",
+            "--element",
+            "Ca",
+            "--standard",
+            "SRM 915b",
+        ),
+        T,
+        2,
+        "FILE",
+        ".*empty.csv",
+    ),
+    Case(
+        "empty manifest", ("manifest", "import", "{loan}", "{empty}"), M, 2, "FILE", ".*empty.csv"
+    ),
+    Case(
+        "empty column sheet",
+        ("batch", "sheet", "CB-00001-G", "{empty}"),
+        T,
+        2,
+        "FILE",
+        ".*empty.csv",
+    ),
+    Case("empty curve", ("curve", "add", "flat", "{empty}"), M, 2, "FILE", ".*empty.csv"),
+    Case(
+        "empty loan document",
+        ("loan", "attach", "{loan}", "{empty}", "--role", "agreement"),
+        M,
+        2,
+        "FILE",
+        ".*empty.csv",
+    ),
+    Case(
+        "empty photo",
+        ("specimen", "photo", "{on_hand}", "{empty}", "--stage", "receipt"),
+        T,
+        2,
+        "FILE",
+        ".*empty.csv",
+    ),
     Case(
         "text for a number",
         drill("--tare", "heavy", "--gross", "2.000 mg"),
@@ -338,3 +401,37 @@ def test_drilling_beyond_the_per_specimen_limit_is_refused(lab: Lab) -> None:
     assert json.loads(result.stdout)["exit_code"] == 1
     one_error_line(result.stderr)
     assert counts(lab.path) == before
+
+
+GLOBAL_AFTER = [
+    Case(
+        "--as after the command",
+        (*drill(*GOOD_DRILL[2:]), "--as", "{technician}"),
+        T,
+        2,
+        "--as",
+        "{technician}",
+    ),
+    Case(
+        "--db after the command",
+        ("lookup", "{on_hand}", "--db", "other.sqlite"),
+        T,
+        2,
+        "--db",
+        "other.sqlite",
+    ),
+]
+
+
+@pytest.mark.parametrize("case", GLOBAL_AFTER, ids=[c.name for c in GLOBAL_AFTER])
+def test_a_global_option_after_the_command_says_where_it_goes(case: Case, lab: Lab) -> None:
+    check_refusal(case, lab)
+    line = one_error_line(invoke(*case.argv(lab), db=lab.path, actor=case.who(lab)).stderr)
+    assert "goes before the command: tracker " + case.field in line, line
+
+
+def test_json_after_the_command_is_answered_in_json_with_where_it_goes(lab: Lab) -> None:
+    result = invoke("loan", "list", "--json", db=lab.path)
+    assert result.exit_code == 2
+    doc = json.loads(result.stdout)  # asked for JSON: the refusal is one
+    assert doc["field"] == "--json" and "goes before the command: tracker --json" in doc["reason"]

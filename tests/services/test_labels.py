@@ -242,12 +242,15 @@ def test_a_scan_says_what_the_label_names(db: Database) -> None:
     assert [a.split()[0] for a in found.ancestors][-1] == spec
 
 
-def test_a_wrong_check_character_names_expected_and_typed(db: Database) -> None:
+def test_a_wrong_check_character_asks_for_a_rescan_without_naming_the_right_one(
+    db: Database,
+) -> None:
     spec = make.specimen(db, make.loan(db))
-    right = spec[-1]
-    wrong = "0" if right != "0" else "1"
     expected = mod_37_2.calc_check_digit(spec[:8].replace("-", ""))  # python-stdnum
+    assert spec[-1] == expected
+    wrong = "0" if expected != "0" else "1"
     with pytest.raises(InputError) as caught:
         handling.read_scan(db, spec[:-1] + wrong)
     reason = caught.value.reason
-    assert f"check character '{wrong}'" in reason and f"would end in '{expected}'" in reason
+    assert f"check character '{wrong}'" in reason and "scan the label again" in reason
+    assert f"'{expected}'" not in reason  # naming it would invite "fixing" the last character

@@ -19,17 +19,18 @@ from tracker.domain.labels import qr_payload, uri_prefix_problem
 PREFIX = "HTTPS://LAB.EXAMPLE/T/"  # invented
 
 
-def test_stdnum_docstring_vector_in_the_refusal_message() -> None:
+def test_stdnum_docstring_vector_and_the_refusal_message() -> None:
     # python-stdnum docs, stdnum.iso7064.mod_37_2: calc_check_digit('G123489654321') == 'Y';
-    # the same arithmetic on our IDs: the message names the typed and the expected character
+    # the same arithmetic on our IDs; a wrong one is refused with a request to re-scan
     assert mod_37_2.calc_check_digit("G123489654321") == "Y"
     expected = mod_37_2.calc_check_digit("SP00042")
+    assert parse_id(f"SP-00042-{expected}") == PublicId(Kind.SPECIMEN, 42)
     typed = "Y" if expected != "Y" else "Z"
     with pytest.raises(BadId) as caught:
         parse_id(f"SP-00042-{typed}")
-    assert str(caught.value).startswith(
-        f"check character {typed!r} does not match SP-00042, which would end in {expected!r}"
-    )
+    said = str(caught.value)
+    assert said.startswith(f"check character {typed!r} does not fit SP-00042: ")
+    assert "scan the label again" in said and repr(expected) not in said
 
 
 @pytest.mark.parametrize(

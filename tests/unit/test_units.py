@@ -53,11 +53,28 @@ def test_mass_scaling_is_exact(value: Decimal) -> None:
     assert mass_to_mg(f"{value} ng") == value.scaleb(-6)
 
 
-@pytest.mark.parametrize(
-    "text", ["2.15 lb", "2.15 oz", "2.15 mL", "2.15 mg/L", "2,15 mg", "2.15 mgx"]
-)
+@pytest.mark.parametrize("text", ["2.15 lb", "2.15 oz", "2.15 mL", "2.15 mg/L", "2.15 mgx"])
 def test_unknown_mass_unit(text: str) -> None:
     with pytest.raises(UnitError, match="unknown mass unit"):
+        mass_to_mg(text)
+
+
+@pytest.mark.parametrize(
+    ("text", "meant"),
+    [("1236,717 mg", "'1236.717 mg'"), ("2,15mg", "'2.15mg'"), (" 0,5 g ", "'0.5 g'")],
+)
+def test_a_decimal_comma_is_refused_with_the_point_form(text: str, meant: str) -> None:
+    # Refused rather than guessed: "1,236 mg" reads two ways (decimal comma or thousands)
+    with pytest.raises(UnitError, match="comma") as caught:
+        mass_to_mg(text)
+    assert str(caught.value).endswith(meant) and "unit" not in str(caught.value)
+    with pytest.raises(UnitError, match="comma"):
+        mass_fraction_to_ug_per_g(text.replace("mg", "ug/g").replace(" g", " ug/g"))
+
+
+@pytest.mark.parametrize("text", ["1,236.7 mg", "1,236,717 ug", "1.236,7 mg"])
+def test_separators_in_a_number_are_refused(text: str) -> None:
+    with pytest.raises(UnitError, match="no thousands separators"):
         mass_to_mg(text)
 
 

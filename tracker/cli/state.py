@@ -8,6 +8,7 @@ exactly one JSON document for scripts (``--json``).
 import json
 import os
 import re
+import shutil
 import sys
 from collections.abc import Callable, Iterator, Sequence
 from contextlib import contextmanager
@@ -153,6 +154,19 @@ def unlock(db: Any, actor: str | None, *, first_key: str | None = None) -> None:
         keys.unlock_file(db, key_file, passphrase(said))
 
 
+def program() -> str:
+    """How to type tracker again, for a hint: ``tracker`` when the shell finds this very
+    program by that name, else the path it was started by (``.venv/bin/tracker`` before the
+    virtualenv is activated)."""
+    typed = sys.argv[0] if sys.argv else ""
+    if Path(typed).name != "tracker":
+        return "tracker"  # python -m tracker, or a test runner
+    found = shutil.which("tracker")
+    if found is not None and Path(found).resolve() == Path(typed).resolve():
+        return "tracker"
+    return typed
+
+
 # Bigger than any file a service accepts, so the service's own limit names the problem;
 # only a file far beyond it is refused here, before it is read into memory at all.
 MAX_UPLOAD_BYTES = 256 * 1024 * 1024
@@ -278,15 +292,39 @@ def _usage_problem(problem: Any, argv: list[str]) -> UsageProblem:
     value = _typed_value(argv, param.opts) if param is not None and param.opts else None
     context = getattr(problem, "ctx", None)
     command = context.command_path if context is not None else "tracker"
+    misplaced = _global_option(problem, context)
+    if misplaced is not None:
+        name = misplaced.opts[0]
+        typed = None if misplaced.is_flag else _typed_value(argv[::-1], [name], after=False)
+        return UsageProblem(name, typed, _put_first(name, command))
     return UsageProblem(field, value, f"{message} (see `{command} --help`)")
 
 
-def _typed_value(argv: list[str], options: list[str]) -> str | None:
-    """What followed the option on the command line (``--x v`` or ``--x=v``), if anything."""
+def _global_option(problem: Any, context: Any) -> Any:
+    """The option of ``tracker`` itself (``--db``, ``--as`` …) typed after a command, if
+    that is what the parser could not place; None otherwise."""
+    name = getattr(problem, "option_name", None)
+    if not name or context is None:
+        return None
+    root = context.find_root().command
+    return next((p for p in root.params if name in p.opts), None)
+
+
+def _put_first(option: str, command: str) -> str:
+    after = " ".join(command.split()[1:]) or "<command>"
+    return (
+        f"is an option of tracker itself and goes before the command: tracker {option} … {after} …"
+    )
+
+
+def _typed_value(argv: list[str], options: list[str], *, after: bool = True) -> str | None:
+    """What followed the option on the command line (``--x v`` or ``--x=v``), if anything;
+    ``after=False`` reads a reversed command line (the last time the option was typed)."""
+    step = 1 if after else -1
     for index, token in enumerate(argv):
         for option in options:
-            if token == option and index + 1 < len(argv):
-                return argv[index + 1]
+            if token == option and 0 <= index + step < len(argv):
+                return argv[index + step]
             if token.startswith(option + "="):
                 return token.split("=", 1)[1]
     return None

@@ -12,7 +12,7 @@ rebuilds every table the events describe (format "tracker-facts/1")::
 
 Sections with nothing in them are left out (``"facts": {}``: the event wrote no row).
 
-A row's **key** is its public ID where its table has one (``PW-00042-7``); otherwise its
+A row's **key** is its public ID where its table has one (``PW-00042-O``); otherwise its
 primary key as text (``"17"``; a two-column key joined by ``/``: ``event_ref`` rows are
 ``"<seq>/<ref>"``). The key's columns are not repeated among the facts. A **value** is:
 

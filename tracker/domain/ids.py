@@ -156,11 +156,13 @@ def parse_id(text: str, uri_prefix: str | None = None) -> PublicId:
     if kind is None:
         known = ", ".join(sorted(_BY_PREFIX))
         raise BadId(f"unknown ID prefix {prefix!r}; known prefixes are {known}")
-    expected = check_character(prefix + digits)
-    if expected != check:
+    if check_character(prefix + digits) != check:
+        # The right character is not named: the mistake may be anywhere in the ID, and
+        # "fixing" the last character would name another item.
         raise BadId(
-            f"check character {check!r} does not match {prefix}-{digits}, which would end in "
-            f"{expected!r}: a character was mistyped or misread; read the whole ID again"
+            f"check character {check!r} does not fit {prefix}-{digits}: a character was "
+            "mistyped or misread somewhere in the ID; scan the label again, or read the "
+            "whole ID again"
         )
     return PublicId(kind, int(digits))
 
@@ -178,3 +180,13 @@ def looks_like_id(text: str, uri_prefix: str | None = None) -> bool:
         return True
     match = _SHAPE.match(_CLEAN.sub("", text).upper())
     return match is not None and match.group(1) in _BY_PREFIX
+
+
+_ID_START = re.compile(r"^\s*([A-Za-z]{2})[\s\-_./]?\d")
+
+
+def meant_as_id(text: str) -> bool:
+    """Was ``text`` meant as an ID, even a broken one (``SP-12-??``)? A known prefix then a
+    digit; used to word the refusal of something that names nothing."""
+    match = _ID_START.match(text)
+    return looks_like_id(text) or (match is not None and match.group(1).upper() in _BY_PREFIX)

@@ -49,8 +49,28 @@ def _normalise_unit(unit: str) -> str:
     return unit.strip().replace("µ", "u").replace("μ", "u").replace(" ", "").lower()
 
 
+_COMMA_IN_NUMBER = re.compile(r"\d,\d")
+
+
+def _refuse_commas(text: str) -> None:
+    """A comma inside a number is refused, never guessed: "1,236 mg" is 1.236 mg with a
+    decimal comma and 1236 mg with a thousands separator."""
+    if not _COMMA_IN_NUMBER.search(text):
+        return
+    if text.count(",") == 1 and "." not in text:
+        raise UnitError(
+            f"has a comma in its number; tracker reads a decimal point only: if you meant a "
+            f"decimal comma, write {text.strip().replace(',', '.')!r}"
+        )
+    raise UnitError(
+        "has a comma among its digits; write the number with one decimal point and no "
+        "thousands separators, e.g. '1236.717 mg'"
+    )
+
+
 def split_quantity(text: str) -> tuple[Decimal, str]:
     """Split "2.15 mg" into (Decimal("2.15"), "mg"); the unit is normalised."""
+    _refuse_commas(text)
     match = _QUANTITY.match(text)
     if not match:
         raise UnitError("is not a number followed by a unit, e.g. '2.15 mg'")

@@ -19,7 +19,7 @@ To = Annotated[str | None, Opt("--to", help="Location ID where the new vial goes
 app = typer.Typer()  # its commands join the top level (see tracker/cli/__init__.py)
 
 
-CHECKIN_EPILOG = "Example: tracker checkin SP-00001-W --condition 'complete' --to LC-00005-B"
+CHECKIN_EPILOG = "Example: tracker checkin SP-00001-W --condition 'complete' --to LC-00005-D"
 
 
 @app.command("checkin", epilog=CHECKIN_EPILOG)
@@ -62,7 +62,7 @@ def return_specimen(
     emit(ctx, answer, lambda: done(answer, f"{answer.item.id} returned"))
 
 
-MOVE_EPILOG = "Example: tracker move PW-00001-5 --to LC-00007-3"
+MOVE_EPILOG = "Example: tracker move PW-00001-5 --to LC-00007-9"
 
 
 @app.command("move", epilog=MOVE_EPILOG)

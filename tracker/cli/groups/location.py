@@ -21,7 +21,7 @@ app = typer.Typer(
 )
 
 
-@app.command("add", epilog="Example: tracker location add box 'Box 7' --in LC-00004-X")
+@app.command("add", epilog="Example: tracker location add box 'Box 7' --in LC-00004-F")
 def location_add(
     ctx: typer.Context,
     kind: Annotated[LocationKind, typer.Argument(help="What kind of place.")],

@@ -18,7 +18,7 @@ Opt = typer.Option
 app = typer.Typer(
     help="Instrument sessions: import, reduce, plot.",
     no_args_is_help=True,
-    epilog="Example: tracker session reduce IS-00001-P",
+    epilog="Example: tracker session reduce IS-00001-A",
 )
 
 
@@ -94,7 +94,7 @@ def session_import(
     emit(ctx, answer, human)
 
 
-@app.command("reduce", epilog="Example: tracker --json session reduce IS-00001-P")
+@app.command("reduce", epilog="Example: tracker --json session reduce IS-00001-A")
 def session_reduce(
     ctx: typer.Context,
     session: Annotated[str, typer.Argument(help="Session ID (IS-...).")],
@@ -104,7 +104,7 @@ def session_reduce(
     emit(ctx, answer, lambda: reduction_table(answer.item))
 
 
-@app.command("plot", epilog="Example: tracker session plot IS-00001-P --out drift.png")
+@app.command("plot", epilog="Example: tracker session plot IS-00001-A --out drift.png")
 def session_plot(
     ctx: typer.Context,
     session: Annotated[str, typer.Argument(help="Session ID.")],

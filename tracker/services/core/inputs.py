@@ -219,11 +219,31 @@ def parse(model: type[R], data: R | Raw) -> R:
             value = None if blamed.value is None else str(blamed.value)
             raise InputError(_blamed_field(blamed, first["loc"]), value, blamed.reason) from None
         field = ".".join(str(part) for part in first["loc"]) or model.__name__
-        value = first.get("input")
-        if isinstance(value, dict):
-            value = None
+        given: Any = first.get("input")
+        if isinstance(given, bytes):  # a file's content: name the file, never show its bytes
+            field, given = _file_field(field), _file_name(data, first["loc"])
+        if isinstance(given, dict):
+            given = None
         reason = _PLAIN_REASONS.get(first["type"], first["msg"].removeprefix("Value error, "))
-        raise InputError(field.replace("_", "-"), value, reason) from None
+        if first["type"] == "bytes_too_long":
+            reason = f"is larger than {first.get('ctx', {}).get('max_length', 0):,} bytes: refused"
+        raise InputError(field.replace("_", "-"), given, reason) from None
+
+
+def _file_name(data: object, loc: tuple[int | str, ...]) -> str | None:
+    """The name of the file whose content is at ``loc`` (the ``filename`` beside it)."""
+    holder = data
+    for part in loc[:-1]:
+        holder = holder.get(part) if isinstance(holder, Mapping) else None
+    named = holder.get("filename") if isinstance(holder, Mapping) else None
+    return named if isinstance(named, str) else None
+
+
+def _file_field(field: str) -> str:
+    """A file's content is named as the file (``content`` -> ``file``, ``document.content``
+    -> ``document``): the person chose a file, not a field called content."""
+    parent, _, last = field.rpartition(".")
+    return (parent or "file") if last == "content" else field
 
 
 def _blamed_field(blamed: FieldProblem, loc: tuple[int | str, ...]) -> str:
@@ -246,6 +266,7 @@ _PLAIN_REASONS = {
     "decimal_parsing": "is not a number",
     "missing": "is required",
     "extra_forbidden": "is not a field this action takes",
+    "bytes_too_short": "is empty: there is nothing in it to read",
 }
 
 
