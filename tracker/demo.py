@@ -25,6 +25,7 @@ from typing import Any
 
 from tracker.db import keyfiles, outputs
 from tracker.db.database import Database
+from tracker.db.engine import resolve_url, sqlite_path
 from tracker.db.keyring import Keyring
 from tracker.db.sqlite_files import fold_log
 from tracker.domain.errors import InputError
@@ -228,17 +229,30 @@ def free_demo_path(folder: Path, name: str = "tracker-demo.sqlite") -> Path:
     raise InputError("out", str(folder / name), "no free file name; give one with --out")
 
 
+def demo_file(database: str) -> Path:
+    """The new SQLite file a database named for the demo (``--db``, ``TRACKER_DB``) is:
+    the demo is built there, never over an existing file and never in a shared server's
+    database."""
+    path = sqlite_path(resolve_url(database))
+    if path is None:
+        raise InputError(
+            "database", database, "is not a file; the demo is built in a new SQLite file"
+        )
+    _refuse_existing(path, "database")
+    return path
+
+
 def _taken(path: Path) -> bool:
     return path.exists() or path.is_symlink()
 
 
-def _refuse_existing(out: Path) -> None:
+def _refuse_existing(out: Path, field: str = "out") -> None:
     """One line for an existing file (or a database's leftover log beside the name)."""
     for suffix in ("", *outputs.SIDE_SUFFIXES):
         taken = Path(f"{out}{suffix}")
         if _taken(taken):
             raise InputError(
-                "out",
+                field,
                 str(taken),
                 "already exists; the demo never replaces a file — choose another path",
             )

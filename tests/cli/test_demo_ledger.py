@@ -12,8 +12,10 @@ from pathlib import Path
 from typing import Any
 
 import pytest
+from typer.testing import CliRunner
 
-from tests.cli.conftest import checkpoint, copy_sqlite, invoke, ok_json
+from tests.cli.conftest import CLEAN_ENV, checkpoint, copy_sqlite, invoke, ok_json
+from tracker.cli import app, state
 
 SCENARIO = Path(__file__).resolve().parents[2] / "demo_db" / "scenario.toml"
 
@@ -205,3 +207,59 @@ def test_the_demo_run_again_without_out_builds_a_second_file_beside_the_first(
     assert "tracker-demo-2.sqlite" in " ".join(second.stderr.split())
     assert built.read_bytes() == before  # the first demo is never replaced
     assert verify_json(tmp_path / "tracker-demo-2.sqlite")[0] == 0
+
+
+def test_the_demo_is_built_in_the_database_named_by_db_or_tracker_db(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    monkeypatch.chdir(tmp_path)
+    named = tmp_path / "named.sqlite"
+    built = invoke("demo", "--no-open", db=named)
+    assert built.exit_code == 0, built.stderr
+    assert verify_json(named)[0] == 0
+    assert not (tmp_path / "tracker-demo.sqlite").exists()  # not beside it as well
+
+    from_env = tmp_path / "from-env.sqlite"
+    env = {**CLEAN_ENV, "TRACKER_DB": str(from_env)}
+    result = CliRunner().invoke(app, ["demo", "--no-open"], env=env, catch_exceptions=False)
+    assert result.exit_code == 0, result.stderr
+    assert verify_json(from_env)[0] == 0 and not (tmp_path / "tracker-demo.sqlite").exists()
+
+
+@pytest.mark.parametrize("kind", ["existing file", "server database"])
+def test_the_demo_refuses_a_db_it_would_replace_or_cannot_build(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch, kind: str
+) -> None:
+    monkeypatch.chdir(tmp_path)
+    lab = tmp_path / "lab.sqlite"
+    lab.write_bytes(b"a lab's database")
+    named = str(lab) if kind == "existing file" else "postgresql://lab@db.example/tracker"
+    result = invoke("demo", "--no-open", db=named)
+    assert result.exit_code == 2
+    (line,) = result.stderr.strip().splitlines()
+    assert line.startswith("error: --db: "), line
+    refusal = json.loads(invoke("demo", "--no-open", db=named, as_json=True).stdout)
+    assert (refusal["field"], refusal["value"]) == ("--db", named)
+    assert lab.read_bytes() == b"a lab's database"
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["lab.sqlite"]  # nothing written
+
+
+@pytest.mark.parametrize(
+    ("argv0", "on_path", "said"),
+    [
+        (".venv/bin/tracker", False, ".venv/bin/tracker"),  # the virtualenv not activated
+        ("tracker", True, "tracker"),
+        ("/usr/lib/python3/tracker/__main__.py", False, "tracker"),  # python -m tracker
+    ],
+)
+def test_the_hint_says_tracker_as_the_shell_will_find_it(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch, argv0: str, on_path: bool, said: str
+) -> None:
+    program = tmp_path / ".venv" / "bin" / "tracker"
+    program.parent.mkdir(parents=True)
+    program.write_text("#!/bin/sh\n")
+    program.chmod(0o755)
+    monkeypatch.chdir(tmp_path)
+    monkeypatch.setenv("PATH", str(program.parent) if on_path else str(tmp_path / "nowhere"))
+    monkeypatch.setattr("sys.argv", [str(program) if on_path else argv0])
+    assert state.program() == said  # the demo's "explore it: … --db …" hint starts so

@@ -14,6 +14,7 @@ from tracker.cli.state import (
     errors,
     passphrase,
     perform,
+    program,
     state,
     unlock,
 )
@@ -116,7 +117,8 @@ def demo(
         typer.Option(
             "--out",
             help=f"New file for the demo database (an existing file is refused); default "
-            f"{DEMO_FILE} here, or tracker-demo-2.sqlite … when that is taken.",
+            f"the new file named by --db or TRACKER_DB, else {DEMO_FILE} here, or "
+            "tracker-demo-2.sqlite … when that is taken.",
         ),
     ] = None,
     no_open: Annotated[
@@ -132,9 +134,10 @@ def demo(
     "demo passphrase, invented" (README, Quick start).
     """
     from tracker.db.keyring import PROCESS
-    from tracker.demo import build_demo, demo_operators, demo_signer, free_demo_path
+    from tracker.demo import build_demo, demo_file, demo_operators, demo_signer, free_demo_path
 
-    out = out or free_demo_path(Path.cwd(), DEMO_FILE)
+    named = state(ctx).db  # --db or TRACKER_DB: the demo is built there
+    out = out or (demo_file(named) if named else free_demo_path(Path.cwd(), DEMO_FILE))
     steps = build_demo(out)
     for code in demo_operators():  # invented, public keys: the demo opens without asking
         PROCESS.add(demo_signer(code))
@@ -143,7 +146,9 @@ def demo(
         markup=False,
         soft_wrap=True,
     )
-    errors.print(f"explore it: tracker --db {out} show KF-2026-014", markup=False, soft_wrap=True)
+    errors.print(
+        f"explore it: {program()} --db {out} show KF-2026-014", markup=False, soft_wrap=True
+    )
     state(ctx).db = str(out)
     if no_open:
         inspecting.show_overview(ctx)
