@@ -11,7 +11,7 @@ from sqlalchemy.orm import Session
 
 from tracker.domain.base import Base, HasPublicId
 from tracker.domain.errors import InputError, NotFound
-from tracker.domain.ids import BadId, Kind, PublicId, is_link, parse_id
+from tracker.domain.ids import BadId, Kind, PublicId, is_link, looks_like_id, meant_as_id, parse_id
 from tracker.domain.models import (
     Aliquot,
     BatchPosition,
@@ -128,8 +128,76 @@ def get_any(session: Session, field: str, text: str) -> HasPublicId:
 
 
 def get_by_id(session: Session, model: type[T], field: str, text: str) -> T:
-    """The row of a given kind; an ID of another kind is refused by name."""
-    return _of_kind(session, model, field, text, read_public_id(session, field, text))
+    """The row of a given kind; an ID of another kind is refused by name. A kind people
+    know by a name (a specimen's catalogue number, a loan's reference, a location's name)
+    is found by that name too, when it names exactly one."""
+    named = model in _NAMED_BY
+    if named and not looks_like_id(text, prefix_for(session, text)):
+        return _by_name(session, model, field, text)
+    try:
+        public = read_public_id(session, field, text)
+    except InputError:
+        found = _named(session, model, text) if named else []
+        if len(found) == 1:  # a loan reference shaped like an ID (LN-2026-014)
+            return found[0]
+        raise
+    return _of_kind(session, model, field, text, public)
+
+
+# The column holding the name people know an item by, and what the name is called.
+_NAMED_BY: dict[type[Any], tuple[str, str]] = {
+    Specimen: ("catalog_number", "catalogue number"),
+    Loan: ("reference", "reference"),
+    Lender: ("name", "name"),
+    Location: ("name", "name"),
+    ReferenceMaterial: ("name", "name"),
+}
+_SHOWN_MATCHES = 5
+
+
+def _by_name(session: Session, model: type[T], field: str, text: str) -> T:
+    """The one row whose name is ``text`` (any case, spaces as typed); several are refused
+    with their IDs to choose from, none with the ID's own complaint if ``text`` was meant as
+    an ID (``SP-12-??``)."""
+    called = _NAMED_BY[model][1]
+    what = _kind_name(model.id_kind)  # type: ignore[attr-defined]
+    matches = _named(session, model, text)
+    if len(matches) == 1:
+        return matches[0]
+    if matches:
+        ids = ", ".join(m.public_id for m in matches[:_SHOWN_MATCHES])  # type: ignore[attr-defined]
+        more = ", …" if len(matches) > _SHOWN_MATCHES else ""
+        raise InputError(
+            field, text, f"is the {called} of several: {ids}{more}; scan or type the {what}'s ID"
+        )
+    if meant_as_id(text):
+        read_public_id(session, field, text)  # refused as the ID it was meant to be
+    raise NotFound(field, text, f"no {what} has this ID or {called}")
+
+
+def _named(session: Session, model: type[T], text: str) -> list[T]:
+    """The rows (a few at most) whose name is ``text``, in any case."""
+    wanted = func.lower(getattr(model, _NAMED_BY[model][0])) == text.strip().lower()
+    return list(session.scalars(select(model).where(wanted).limit(_SHOWN_MATCHES + 1)))
+
+
+def find_item(session: Session, field: str, text: str) -> HasPublicId:
+    """Anything by its ID, or else by the name people know it by — a specimen's catalogue
+    number, a loan's reference, a location's name: what a person scans or types to find it."""
+    if looks_like_id(text, prefix_for(session, text)):
+        return get_any(session, field, text)
+    for model in (Specimen, Loan, Location):
+        try:
+            found = _by_name(session, model, field, text)
+        except NotFound:
+            continue
+        assert isinstance(found, HasPublicId)
+        return found
+    raise NotFound(
+        field,
+        text,
+        "names nothing: no ID, specimen catalogue number, loan reference or location name",
+    )
 
 
 def _of_kind(session: Session, model: type[T], field: str, text: str, public: PublicId) -> T:
@@ -151,39 +219,19 @@ def _kind_name(kind: Kind) -> str:
     return kind.name.lower().replace("_", " ")
 
 
-def _by_id_or_label(
-    session: Session, model: type[T], field: str, text: str, label: Any, what: str
-) -> T:
-    """A row by its public ID or, failing that, by a unique label column (case-insensitive)."""
-    try:
-        public: PublicId | None = parse_id(text, prefix_for(session, text))
-    except BadId:
-        public = None
-    if public is not None and public.kind is model.id_kind:  # type: ignore[attr-defined]
-        return _of_kind(session, model, field, text, public)
-    matches = session.scalars(select(model).where(func.lower(label) == text.lower())).all()
-    if len(matches) == 1:
-        return matches[0]
-    if matches:
-        raise InputError(field, text, f"matches several; give the {what}'s ID instead")
-    raise NotFound(field, text, f"no {what} has this ID or name")
-
-
 def get_loan(session: Session, field: str, text: str) -> Loan:
     """A loan by its public ID (LN-...) or by the lender's own loan reference."""
-    return _by_id_or_label(session, Loan, field, text, Loan.reference, "loan")
+    return get_by_id(session, Loan, field, text)
 
 
 def get_lender(session: Session, field: str, text: str) -> Lender:
     """A lender by its public ID (LE-...) or its name."""
-    return _by_id_or_label(session, Lender, field, text, Lender.name, "lender")
+    return get_by_id(session, Lender, field, text)
 
 
 def get_reference_material(session: Session, field: str, text: str) -> ReferenceMaterial:
     """A reference material by its public ID (RM-...) or its name."""
-    return _by_id_or_label(
-        session, ReferenceMaterial, field, text, ReferenceMaterial.name, "reference material"
-    )
+    return get_by_id(session, ReferenceMaterial, field, text)
 
 
 def open_loan_ids() -> Select[int]:

@@ -16,6 +16,7 @@ from sqlalchemy.orm import Session
 
 from tracker.db.database import Database
 from tracker.domain.errors import InputError, RuleViolation
+from tracker.domain.ids import looks_like_id
 from tracker.domain.labels import LabelFacts, uri_prefix_problem
 from tracker.domain.models import Label, LabelStatus, LabSetting
 from tracker.services.core.common import finish
@@ -24,8 +25,10 @@ from tracker.services.core.label_queue import queue_label, queued_labels
 from tracker.services.core.lookup import (
     MODEL_BY_KIND,
     URI_PREFIX_KEY,
+    find_item,
     forget_uri_prefix,
     get_named,
+    prefix_for,
     read_public_id,
     uri_prefix,
 )
@@ -240,9 +243,12 @@ def read_scan(db: Database, scanned: str) -> ScanView:
     with db.read_session() as session:
         if not scanned.strip():
             raise InputError("scanned", scanned, "is empty; scan a label or type an ID")
-        public = read_public_id(session, "scanned", scanned)
-        options = scan_options(MODEL_BY_KIND[public.kind])
-        row = get_named(session, "scanned", scanned, public, options)
+        if looks_like_id(scanned, prefix_for(session, scanned)):
+            public = read_public_id(session, "scanned", scanned)
+            options = scan_options(MODEL_BY_KIND[public.kind])
+            row = get_named(session, "scanned", scanned, public, options)
+        else:  # typed: a specimen's catalogue number, a loan's reference
+            row = find_item(session, "scanned", scanned)
         status = getattr(row, "status", None)
         # a loan or an operator has an ID but wears no label
         lines = label_lines(session, row) if isinstance(row, LABELLED) else []

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from datetime import date
 from typing import Any
 
 from pydantic import Field
@@ -10,7 +11,6 @@ from sqlalchemy.orm import Load, Session, selectinload
 
 from tracker.db.database import Database
 from tracker.domain.base import HasPublicId
-from tracker.domain.ids import looks_like_id
 from tracker.domain.models import (
     Aliquot,
     BatchPosition,
@@ -25,7 +25,7 @@ from tracker.domain.models import (
     Solution,
     Specimen,
 )
-from tracker.services.core.lookup import get_any, get_loan, uri_prefix
+from tracker.services.core.lookup import find_item
 from tracker.services.core.views import DocumentView, EventView, TermsView, View
 from tracker.services.ledger.chain import listed
 from tracker.services.read.item_facts import ItemFacts, facts_of
@@ -43,6 +43,17 @@ class Node(View):
     children: list[Node] = Field(default_factory=list)
 
 
+class OverrideView(View):
+    """A drill a manager let past the loan's limits, with the reason they gave."""
+
+    powder: str
+    catalog_number: str
+    mass_mg: float
+    drilled_on: date
+    by: str
+    reason: str
+
+
 class ItemDetail(View):
     item: Node
     ancestors: list[Node]
@@ -50,19 +61,19 @@ class ItemDetail(View):
     history: list[EventView]
     terms: list[TermsView] = Field(default_factory=list)  # loans: every version, oldest first
     documents: list[DocumentView] = Field(default_factory=list)  # loans: kept by SHA-256
+    overrides: list[OverrideView] = Field(default_factory=list)  # loans: drills past a limit
 
 
 def show_item(db: Database, ref: str) -> ItemDetail:
     """Everything about one ID: its lineage below, its ancestors above, its custody history."""
     with db.read_session() as session:
-        by_id = looks_like_id(ref, uri_prefix(session))
-        found = get_any(session, "item", ref) if by_id else get_loan(session, "item", ref)
-        row = load_tree(session, found)
+        row = load_tree(session, find_item(session, "item", ref))
         location = getattr(row, "location", None)
         loan_rows = row if isinstance(row, Loan) else None
         return ItemDetail(
             terms=[TermsView.of(t) for t in loan_rows.terms] if loan_rows else [],
             documents=_documents(session, loan_rows.id) if loan_rows else [],
+            overrides=_overrides(session, loan_rows.id) if loan_rows else [],
             item=node_of(row),
             ancestors=[node_of(a, with_children=False) for a in ancestors_of(row)],
             location=location.path if location is not None else None,
@@ -73,6 +84,26 @@ def show_item(db: Database, ref: str) -> ItemDetail:
 def _documents(session: Session, loan_id: int) -> list[DocumentView]:
     links = session.scalars(select(LoanDocument).where(LoanDocument.loan_id == loan_id))
     return [DocumentView.of(link.document, link.role) for link in links]
+
+
+def _overrides(session: Session, loan_id: int) -> list[OverrideView]:
+    query = (
+        select(Powder, Specimen.catalog_number)
+        .join(Specimen, Powder.specimen_id == Specimen.id)
+        .where(Specimen.loan_id == loan_id, Powder.override_reason.is_not(None))
+        .order_by(Powder.drilled_at, Powder.id)
+    )
+    return [
+        OverrideView(
+            powder=powder.public_id,
+            catalog_number=catalog,
+            mass_mg=float(powder.mass_mg),
+            drilled_on=powder.drilled_at.date(),
+            by=powder.drilled_by,
+            reason=powder.override_reason or "",
+        )
+        for powder, catalog in session.execute(query)
+    ]
 
 
 def history_of(session: Session, public_id: str) -> list[EventView]:
