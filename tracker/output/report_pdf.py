@@ -498,7 +498,7 @@ def thumbnail(data: bytes) -> tuple[bytes, tuple[int, int]] | None:
 
 def _timeline(report: ReturnReport, styles: dict[str, ParagraphStyle]) -> list[Flowable]:
     rows = [["Custody action", "Events", "First", "Last"]] + [
-        [t.action, t.count, t.first.strftime("%Y-%m-%d"), t.last.strftime("%Y-%m-%d")]
+        [t.said, t.count, t.first.strftime("%Y-%m-%d"), t.last.strftime("%Y-%m-%d")]
         for t in report.timeline
     ]
     return [

@@ -62,7 +62,8 @@ def flag_text(flags: Sequence[str]) -> Text:
         symbol = symbol_of(flag)
         style = "bold red" if symbol == "✗" else "yellow" if symbol in "⚠?" else ""
         if index:
-            text.append(" · ", style="dim")
+            text.append(" ")  # unstyled: a styled span's leading space is not drawn on screen
+            text.append("· ", style="dim")
         text.append(f"{symbol} {flag}", style=style)
     return text
 

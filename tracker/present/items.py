@@ -24,7 +24,7 @@ from tracker.services.read.item_facts import (
     PowderFacts,
     SolutionFacts,
 )
-from tracker.services.read.lineage import ItemDetail, Node
+from tracker.services.read.lineage import ItemDetail, Node, OverrideView
 
 SEPARATOR = " · "
 
@@ -100,10 +100,18 @@ def history_table(events: list[EventView]) -> RenderableType:
             str(event.seq),
             event.at.strftime("%Y-%m-%d %H:%M"),
             event.operator,
-            event.action,
+            event.said,
             event.object,
         )
     return table
+
+
+def override_text(o: OverrideView) -> str:
+    """A drill let past the loan's limits, said the same way on every screen."""
+    return (
+        f"override {o.drilled_on} {o.powder} ({o.catalog_number}) "
+        f"{precision.milligrams(o.mass_mg)} by {o.by}: {o.reason}"
+    )
 
 
 def item_detail(detail: ItemDetail) -> RenderableType:
@@ -114,5 +122,6 @@ def item_detail(detail: ItemDetail) -> RenderableType:
     if detail.location:
         parts.append(Text(visible(f"location: {detail.location}")))
     parts.append(lineage_tree(detail.item))
+    parts.extend(Text(visible(override_text(o)), style="bold red") for o in detail.overrides)
     parts.append(history_table(detail.history))
     return Group(*parts)

@@ -44,6 +44,13 @@ def position_cells(line: PositionLine) -> tuple[str, str, str, str]:
     )
 
 
+def holds_text(holds: str | None, catalog_number: str | None) -> str:
+    """What a column holds, with the specimen a sample came from: ``AQ-00001-F (KFM P 1001)``."""
+    if not holds:
+        return "—"
+    return f"{holds} ({catalog_number})" if catalog_number else holds
+
+
 def batch_table(summary: BatchSummary) -> RenderableType:
     head = Text.assemble(
         (visible(summary.name), "bold"),
@@ -54,7 +61,7 @@ def batch_table(summary: BatchSummary) -> RenderableType:
         loaded, recovered, yield_text, share = position_cells(line)
         table.add_row(
             Text.assemble(f"{line.slot}. {line.id}\n", (f"{line.kind}", "dim")),
-            line.holds or "",
+            visible(holds_text(line.holds, line.catalog_number)),
             f"{loaded} → {recovered}",
             yield_text,
             share,

@@ -35,7 +35,7 @@ def overview_table(lines: list[LoanLine]) -> RenderableType:
             if line.status == "open"
             else line.status
         )
-        sampled = f"{line.sampled}/{line.max_specimens_sampled or '-'} sampled"
+        sampled = sampled_of(line.sampled, line.specimens, line.max_specimens_sampled)
         table.add_row(
             Text.assemble(visible(line.reference), "\n", (f"{line.lender_code} {line.id}", "dim")),
             f"{sampled}\n{line.on_hand}/{line.specimens} on hand",
@@ -48,6 +48,12 @@ def overview_table(lines: list[LoanLine]) -> RenderableType:
             flag_lines(line.flags),
         )
     return table
+
+
+def sampled_of(sampled: int, specimens: int, limit: int | None = None) -> str:
+    """Specimens sampled, said one way on every screen: of the specimens listed on the loan,
+    then the loan's limit when it has one (``3/12 sampled (max 6)``)."""
+    return f"{sampled}/{specimens} sampled" + (f" (max {limit})" if limit else "")
 
 
 def _mg(value: float) -> str:
@@ -65,7 +71,7 @@ def reconcile_summary(lines: list[LoanLine]) -> RenderableType:
     table = plain_table("loan", "drilled / limit", "powder", "flags")
     for line in lines:
         due = f"due {line.due_on.isoformat()}" if line.status == "open" else line.status
-        sampled = f"{line.sampled}/{line.max_specimens_sampled or '-'} sampled"
+        sampled = sampled_of(line.sampled, line.specimens, line.max_specimens_sampled)
         table.add_row(
             Text.assemble(visible(line.reference), (f"\n{line.lender_code}\n{line.id}", "dim")),
             f"{precision.used_of_limit(line.drilled_mg, line.max_total_mass_mg)}\n{sampled}\n{due}",
@@ -96,7 +102,7 @@ def reconcile_tables(lines: list[LoanLine]) -> RenderableType:
             (visible(line.reference), "bold"),
             f"  {line.lender_code}  {line.id}  terms v{line.terms_version}  {due}\n",
             f"drilled {precision.milligrams(line.drilled_mg, line.drilled_u_mg)} of {limit}; "
-            f"{line.sampled}/{line.max_specimens_sampled or '-'} specimens sampled; "
+            f"{sampled_of(line.sampled, line.specimens, line.max_specimens_sampled)}; "
             f"dissolved {_mg(line.dissolved_mg)}; powder on hand "
             f"{_mg(line.powder_on_hand_mg)}; returned {_mg(line.powder_returned_mg)}\n",
             ("flags: " + (", ".join(line.flags) or "none"), "bold red" if line.flags else "green"),

@@ -20,6 +20,7 @@ from tracker.domain.models import (
     PositionKind,
     ReferenceMaterial,
 )
+from tracker.services.bench.columns import specimen_of
 from tracker.services.bench.solutions import aliquot_element, on_column_after
 from tracker.services.core.common import finish
 from tracker.services.core.inputs import Element, FieldProblem, Name, Raw, Request, Text, parse
@@ -138,7 +139,8 @@ class PositionView(View):
     batch: str
     slot: int
     kind: str
-    holds: str | None
+    holds: str | None  # the aliquot's ID, or the reference material's name
+    catalog_number: str | None  # a sample's specimen, as people know it
     loaded_ug: float | None
     loaded_u_ug: float | None
 
@@ -186,6 +188,7 @@ def add_position(db: Database, actor: str | None, data: AddPosition | Raw) -> Do
                 slot=slot,
                 kind=request.kind.value,
                 holds=holds,
+                catalog_number=specimen_of(position),
                 loaded_ug=position.loaded_ug,
                 loaded_u_ug=position.loaded_u_ug,
             ),

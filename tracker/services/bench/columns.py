@@ -187,7 +187,8 @@ class PositionLine(View):
     id: str
     slot: int
     kind: str
-    holds: str | None
+    holds: str | None  # the aliquot's ID, or the reference material's name
+    catalog_number: str | None  # a sample's specimen, as people know it
     loaded_ug: float | None
     recovered_ug: float | None
     yield_fraction: float | None
@@ -271,6 +272,12 @@ def position_flags(position: BatchPosition) -> list[str]:
     return _position_line(position, position.batch, blank).flags
 
 
+def specimen_of(position: BatchPosition) -> str | None:
+    """The catalogue number of the specimen a sample column's aliquot came from."""
+    aliquot = position.aliquot
+    return aliquot.solution.powder.specimen.catalog_number if aliquot is not None else None
+
+
 def _position_line(
     position: BatchPosition, batch: ColumnBatch, blank: float | None
 ) -> PositionLine:
@@ -298,6 +305,7 @@ def _position_line(
         slot=position.slot,
         kind=position.kind.value,
         holds=holds,
+        catalog_number=specimen_of(position),
         loaded_ug=position.loaded_ug,
         recovered_ug=cut.recovered_ug if cut else None,
         yield_fraction=ratio.value if ratio else None,

@@ -12,6 +12,7 @@ from typing import Any, Generic, TypeVar
 
 from pydantic import BaseModel, ConfigDict
 
+from tracker.domain.actions import action_words
 from tracker.domain.models import (
     Aliquot,
     Concentration,
@@ -284,7 +285,8 @@ class EventView(View):
     seq: int
     at: datetime
     operator: str
-    action: str
+    action: str  # the ledger's name for it, as hashed and signed
+    said: str  # the action in words, for people
     object: str
     parent: str
     payload: dict[str, Any]
@@ -304,6 +306,7 @@ class EventView(View):
             at=row.at,
             operator=row.operator,
             action=row.action,
+            said=action_words(row.action),
             object=row.object_ref,
             parent=row.parent_ref,
             payload=json.loads(row.payload),

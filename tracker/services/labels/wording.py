@@ -65,19 +65,21 @@ LABELLED_KINDS = (
 def _parents(model: type[Any]) -> list[Any]:
     """What each label's text reads beyond the item itself, loaded for many labels at once
     (built when asked for: loader options configure the mappers, which no import may do)."""
+    to_specimen = selectinload(Aliquot.solution).selectinload(Solution.powder)
+    to_specimen = to_specimen.selectinload(Powder.specimen)
     options: dict[type[Any], list[Any]] = {
         Specimen: [selectinload(Specimen.loan)],
         Powder: [selectinload(Powder.specimen)],
-        Solution: [selectinload(Solution.powder)],
-        Aliquot: [selectinload(Aliquot.solution)],
+        Solution: [selectinload(Solution.powder).selectinload(Powder.specimen)],
+        Aliquot: [to_specimen],
         BatchPosition: [
             selectinload(BatchPosition.batch),
-            selectinload(BatchPosition.aliquot),
+            selectinload(BatchPosition.aliquot).options(to_specimen),
             selectinload(BatchPosition.reference_material),
         ],
         Cut: [
             selectinload(Cut.position).selectinload(BatchPosition.batch),
-            selectinload(Cut.position).selectinload(BatchPosition.aliquot),
+            selectinload(Cut.position).selectinload(BatchPosition.aliquot).options(to_specimen),
             selectinload(Cut.position).selectinload(BatchPosition.reference_material),
         ],
     }
@@ -150,7 +152,8 @@ def _lines(session: Session, row: Labelled) -> list[str]:
         case BatchPosition():
             return _position(row)
         case Cut():
-            return [*_position(row.position)[:1], f"{row.name} cut"]
+            where, holds = _position(row.position)
+            return [where, _join(f"{row.name} cut", holds)]
         case ReferenceMaterial():
             return [row.name, _join(row.element, row.matrix)]
         case Shipment():
@@ -173,19 +176,23 @@ def _powder(session: Session, row: Powder) -> list[str]:
     ]
 
 
+# Every label below the specimen starts with the specimen's catalogue number: the name
+# people know the material by (the line kept when a small label drops the rest).
+
+
 def _solution(session: Session, row: Solution) -> list[str]:
     return [
-        f"from {row.powder.public_id}",
+        row.powder.specimen.catalog_number,
         _join(row.acid, grams(row.solution_mass_g)),
-        _join(_day(row.dissolved_at), _initials(session, row)),
+        _join(_day(row.dissolved_at), _initials(session, row), f"from {row.powder.public_id}"),
     ]
 
 
 def _aliquot(session: Session, row: Aliquot) -> list[str]:
     return [
-        f"from {row.solution.public_id}",
+        row.solution.powder.specimen.catalog_number,
         _join(row.purpose.value, grams(row.mass_g)),
-        _join(_day(row.taken_at), _initials(session, row)),
+        _join(_day(row.taken_at), _initials(session, row), f"from {row.solution.public_id}"),
     ]
 
 
@@ -195,8 +202,12 @@ def _position(row: BatchPosition) -> list[str]:
         return [where, "procedural blank"]
     if row.reference_material is not None:
         return [where, f"reference {row.reference_material.name}"]
-    holds = row.aliquot.public_id if row.aliquot is not None else "sample"
-    return [where, f"sample {holds}"]
+    if row.aliquot is None:
+        return [where, "sample"]
+    return [
+        where,
+        _join(row.aliquot.solution.powder.specimen.catalog_number, row.aliquot.public_id),
+    ]
 
 
 def _shipment(session: Session, row: Shipment) -> list[str]:

@@ -96,7 +96,8 @@ class BackdatedLine(View):
 
 
 class TimelineEntry(View):
-    action: str
+    action: str  # the ledger's name
+    said: str  # in words, for the lender
     count: int
     first: datetime
     last: datetime

@@ -17,6 +17,7 @@ from sqlalchemy import func, or_, select
 from sqlalchemy.orm import Session, selectinload
 
 from tracker.db.database import Database
+from tracker.domain.actions import action_words
 from tracker.domain.ids import Kind, format_id
 from tracker.domain.loan_flags import BACKDATED
 from tracker.domain.models import (
@@ -304,7 +305,7 @@ def _timeline(session: Session, loan: Loan) -> list[TimelineEntry]:
         .order_by(func.min(CustodyEvent.at))
     )
     return [
-        TimelineEntry(action=a, count=n, first=first, last=last)
+        TimelineEntry(action=a, said=action_words(a), count=n, first=first, last=last)
         for a, n, first, last in session.execute(query)
     ]
 
