@@ -249,3 +249,39 @@ def test_the_uri_prefix_is_shown_set_and_cleared(demo: Path) -> None:
     assert found["id"] == queued
     assert invoke("labels", "uri-prefix", "--clear", db=demo, actor="ines").exit_code == 0
     assert "none" in invoke("labels", "uri-prefix", db=demo).stdout
+
+
+def test_chosen_items_print_and_the_rest_stay_queued(demo: Path, tmp_path: Path) -> None:
+    queued = _queued(demo)
+    chosen = [queued[0], queued[-1].lower().replace("-", "")]  # as typed or scanned
+    out = tmp_path / "two.pdf"
+    job = ok_json(
+        invoke(
+            "labels",
+            "print",
+            "--stock",
+            "a4-65",
+            "--item",
+            chosen[0],
+            "--item",
+            chosen[1],
+            "--out",
+            str(out),
+            db=demo,
+            actor="ines",
+            as_json=True,
+        )
+    )
+    assert job["job"]["items"] == [queued[0], queued[-1]]
+    pdf = out.read_bytes()
+    found = [d.text for page in pdfium_pages(pdf, DPI) for d in decode(page, DPI)]
+    assert sorted(found) == sorted([queued[0], queued[-1]])
+    assert _queued(demo) == queued[1:-1]
+    before = counts(demo)
+    refused = invoke(
+        "labels", "print", "--stock", "a4-65", "--item", queued[0], db=demo, actor="ines"
+    )
+    assert refused.exit_code == 1  # printed already: not queued any more
+    (line,) = refused.stderr.strip().splitlines()
+    assert queued[0] in line and "has no queued label" in line
+    assert counts(demo) == before

@@ -66,13 +66,15 @@ def print_queue(
     stocks_file: Path | None = None,
     folder: Path | None = None,
     force: bool = False,
+    items: list[str] | None = None,
 ) -> PrintOutcome:
-    """Every queued label to a PDF, recorded as one print job.
+    """Every queued label (or only the named ``items``' labels) to a PDF, recorded as one
+    print job.
 
     Without ``out`` the PDF is named after its job and event, in ``folder`` (default: the
     current one); an existing ``out`` is replaced only with ``force`` (and kept beside it).
     """
-    request = {"stock": stock, "start": start, "printer": printer}
+    request = {"stock": stock, "start": start, "printer": printer, "items": items}
     target = Target(out, folder, force)
     return _run(db, actor, printing.print_queue, request, target, stocks_file)
 

@@ -56,7 +56,7 @@ def queue(
 
 
 @app.command(
-    "cancel", epilog="Example: tracker labels cancel SP-00003-8 --reason 'returned unopened'"
+    "cancel", epilog="Example: tracker labels cancel SP-00003-S --reason 'returned unopened'"
 )
 def cancel(
     ctx: typer.Context,
@@ -103,8 +103,12 @@ def print_command(
     printer: Printer = None,
     stocks: StocksFile = None,
     force: Force = False,
+    items: Annotated[
+        list[str] | None,
+        Opt("--item", help="Only this item's queued label (repeat for more); default: all."),
+    ] = None,
 ) -> None:
-    """Print every queued label to a vector PDF and record the job (one ledger event)."""
+    """Print queued labels to a vector PDF and record the job (one ledger event)."""
     from tracker.output import jobs
 
     with writing(ctx) as db:
@@ -117,6 +121,7 @@ def print_command(
             printer=printer,
             stocks_file=stocks,
             force=force,
+            items=items or None,
         )
     emit(ctx, outcome, lambda: _job_text(outcome))
 

@@ -14,6 +14,7 @@ from typing import Annotated, Any
 
 from pydantic import Field, field_validator
 from sqlalchemy import select
+from sqlalchemy.orm import Session
 
 from tracker.db.database import Database
 from tracker.domain.errors import RuleViolation
@@ -66,6 +67,13 @@ class PrintQueue(Request):
     stock: StockName
     start: Annotated[int, Field(ge=1)] = 1
     printer: PrinterName | None = None
+    # Only these items' queued labels (the rest stay queued); None: the whole queue
+    items: Annotated[list[str], Field(max_length=MAX_ITEMS)] | None = None
+
+    @field_validator("items", mode="before")
+    @classmethod
+    def _some(cls, value: object) -> list[str] | None:
+        return None if value is None else id_list(value)
 
 
 class Reprint(PrintQueue):
@@ -88,11 +96,24 @@ def print_queue(
         labels = list(uow.session.scalars(query))
         if not labels:
             raise RuleViolation("queue", None, "no labels are queued; nothing to print")
+        if request.items is not None:
+            labels = _chosen(uow.session, labels, request.items)
         items = labelled_items(uow.session, "queue", (label.item_ref for label in labels))
         job = _render_job(uow, request, LabelJobKind.PRINT, items, render)
         for label in labels:
             label.status, label.job = LabelStatus.PRINTED, job
         return _finish_job(uow, job, items, request)
+
+
+def _chosen(session: Session, queued: list[Label], items: list[str]) -> list[Label]:
+    """The queued labels of the items named, in queue order; an item with no queued label
+    is refused by name (nothing is printed)."""
+    wanted = {row.public_id for row in resolve_items(session, items)}
+    chosen = [label for label in queued if label.item_ref in wanted]
+    missing = sorted(wanted - {label.item_ref for label in chosen})
+    if missing:
+        raise RuleViolation("items", ", ".join(missing), "has no queued label to print")
+    return chosen
 
 
 def reprint(
