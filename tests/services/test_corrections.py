@@ -250,3 +250,31 @@ def test_the_powder_portion_of_a_solution_is_corrected_within_the_powder(
     )
     facts = lineage.show_item(db, powder).item.facts
     assert isinstance(facts, PowderFacts) and facts.remaining_mg == pytest.approx(2.0 - 1.02)
+
+
+def test_a_weighing_correction_reads_the_balance_the_item_was_weighed_on(db: Database) -> None:
+    solution = make.solution(db, make.powder(db, make.specimen(db, make.loan(db))))
+    aliquot = solutions.take_aliquot(
+        db,
+        "tech",
+        {"solution": solution, "tare": "2.00000 g", "gross": "2.02500 g", "readability": "0.01 mg"},
+    ).item.id
+    row = weigh_again(db, "tech", aliquot, "2.00000 g", "2.02405 g")  # finer than 0.1 mg
+    # by difference of two readings on a 0.01 mg balance: u = d / sqrt(6) (GUM F.2.2.1, each
+    # reading's rounding a rectangular distribution of half-width d/2, common practice)
+    assert float(row.value["mass_u_g"]) == pytest.approx(0.01e-3 / math.sqrt(6), rel=1e-6)
+    told = weighings.correct_weighing(
+        db,
+        "tech",
+        {
+            "item": aliquot,
+            "tare": "2.0000 g",
+            "gross": "2.0230 g",
+            "readability": "0.1 mg",
+            "reason": WHY,
+        },
+    ).item
+    assert told is not None  # a readability given is used as given
+    with db.read_session() as session:
+        latest = session.scalars(select(Correction).order_by(Correction.id.desc()).limit(1)).one()
+    assert float(latest.value["mass_u_g"]) == pytest.approx(0.1e-3 / math.sqrt(6), rel=1e-6)

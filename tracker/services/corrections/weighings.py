@@ -8,6 +8,8 @@ what every correction records.
 
 from __future__ import annotations
 
+import json
+from decimal import Decimal
 from typing import Annotated, Any
 
 from pydantic import Field
@@ -135,7 +137,7 @@ def _limits_passed(uow: UnitOfWork, powder: Powder, mass: Amount) -> list[str]:
 def _liquid_mass(
     uow: UnitOfWork, item: Solution | Aliquot, request: CorrectWeighing
 ) -> Done[CorrectionView]:
-    readability = request.readability or ANALYTICAL_BALANCE_MG
+    readability = request.readability or _recorded_readability(uow, item)
     weighing = weigh(request.tare, request.gross, readability)
     grams, stored = weighing.amount(scale=1e-3), weighing.stored(shift=-3)
     if isinstance(item, Solution):
@@ -194,6 +196,15 @@ def _refuse_overdraw(
             f"{mass_mg(total(children).value)} {what} ({', '.join(ids)}); "
             "correct those first",
         )
+
+
+def _recorded_readability(uow: UnitOfWork, item: Solution | Aliquot) -> Decimal:
+    """The readability of the balance the item was weighed on, as the event that made it
+    states it: a correction reads the same balance unless told otherwise (a vial weighed
+    to 0.01 mg is not re-weighed to the 0.1 mg default)."""
+    event = first_event(uow.session, item.public_id)
+    stated = json.loads(event.payload).get("readability_mg") if event is not None else None
+    return Decimal(str(stated)) if stated is not None else ANALYTICAL_BALANCE_MG
 
 
 def _first_seq(uow: UnitOfWork, item: Powder | Solution | Aliquot) -> int | None:
