@@ -21,13 +21,14 @@ from textual._time import get_time
 from textual.keys import _character_to_key
 from textual.pilot import Pilot
 from textual.screen import Screen
-from textual.widgets import Static
+from textual.widgets import Input, Static
 from textual.worker import WorkerCancelled
 
 from tracker.db.database import Database, open_database
 from tracker.demo import build_demo
 from tracker.domain.models import CustodyEvent
 from tracker.ui.app import TrackerApp
+from tracker.ui.keys import KeyRouting
 
 NOW = datetime(2026, 12, 1, 12, 0, tzinfo=UTC)
 
@@ -75,6 +76,8 @@ async def settle(pilot: Pilot[None], rounds: int = 4) -> None:
     next keystroke) has finished too: that is how the interface drops stale work."""
     for _ in range(rounds):
         await pilot.pause()
+        while isinstance(pilot.app, KeyRouting) and pilot.app.keys_pending:
+            await pilot.pause(0.05)  # a lone key waits to be told from typing (ui/keys.py)
         try:
             await pilot.app.workers.wait_for_complete()
         except WorkerCancelled:
@@ -113,12 +116,23 @@ async def type_slowly(pilot: Pilot[None], text: str, gap: float = 0.25) -> None:
 
 async def _keys_then_enter(pilot: Pilot[None], text: str, gap: float) -> None:
     """The characters of ``text`` then Enter, stamped ``gap`` seconds apart."""
+    await _keys(pilot, [*(_key(c) for c in text), events.Key("enter", "\r")], gap)
+
+
+async def _keys(pilot: Pilot[None], keys: list[events.Key], gap: float) -> None:
     start = get_time()
-    keys = [_key(c) for c in text] + [events.Key("enter", "\r")]
     for index, key in enumerate(keys):
         key.time = start + index * gap
         pilot.app.post_message(key)
     await settle(pilot)
+
+
+async def type_into(pilot: Pilot[None], field: str, text: str, gap: float = 0.12) -> None:
+    """A person clicks into the field ``#f-<field>`` of the form on screen and types ``text``
+    at a typist's pace (no Enter)."""
+    pilot.app.screen.query_one(f"#f-{field}", Input).focus()
+    await settle(pilot, rounds=1)
+    await _keys(pilot, [_key(c) for c in text], gap)
 
 
 def events_after(lab: Lab, seq: int) -> list[CustodyEvent]:

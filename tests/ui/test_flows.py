@@ -42,6 +42,7 @@ from tracker.domain.models import (
 from tracker.services.ledger import audit, chain
 from tracker.ui.screens.batch import BatchScreen
 from tracker.ui.screens.checkin import CheckInScreen
+from tracker.ui.screens.confirm import ConfirmScreen
 from tracker.ui.screens.drill import DrillScreen
 from tracker.ui.screens.item import ItemScreen
 from tracker.ui.screens.labels import LabelsScreen
@@ -98,9 +99,37 @@ async def test_a_scan_anywhere_jumps_and_a_misread_one_is_refused_visibly(lab: L
         await scan(pilot, "PW-00007-V")  # one character misread
         assert pilot.app.screen.item_id == "PW-00007-U"  # stayed put
         assert app.status_line.startswith("✗ scan 'PW-00007-V': check character")
-        await type_slowly(pilot, "cd")  # a person's keys are not a scan: bindings still work
-        assert isinstance(pilot.app.screen, CheckInScreen | DrillScreen)
+        await type_slowly(pilot, "cd")  # typed by a person: text to find, never shortcuts
+        assert pilot.app.screen.item_id == "PW-00007-U"
+        assert "names nothing" in app.status_line
+        await pilot.press("d")  # one key alone is a shortcut
+        await settle(pilot)
+        assert isinstance(pilot.app.screen, DrillScreen)
     assert events_after(lab, start) == []
+
+
+async def test_typing_outside_a_field_opens_no_forms_and_enter_finds_the_text(lab: Lab) -> None:
+    app = lab.app()
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        overview, stacked = pilot.app.screen, len(pilot.app.screen_stack)
+        # a path typed with the focus on the loans table: c, d, s, k, a and m are shortcuts
+        await type_slowly(pilot, "/home/dmacks/data/scans", gap=0.18)
+        assert pilot.app.screen is overview and len(pilot.app.screen_stack) == stacked
+        await type_slowly(pilot, "kfmnh p 20311", gap=0.2)  # a catalogue number, then Enter
+        await until(pilot, lambda: isinstance(pilot.app.screen, ItemScreen))
+        assert isinstance(pilot.app.screen, ItemScreen)
+        detail = pilot.app.screen
+        assert detail.item_id.startswith("SP-")
+        db = lab.open()
+        try:
+            with db.read_session() as session:
+                found = session.scalars(
+                    select(Specimen).where(Specimen.catalog_number == "KFMNH P 20311")
+                ).one()
+                assert detail.item_id == found.public_id
+        finally:
+            db.close()
 
 
 def previewed(form: DrillScreen, mass_mg: float) -> bool:
@@ -290,6 +319,11 @@ async def test_labels_previewed_and_printed(lab: Lab) -> None:
         assert sheet.startswith("a4-65: 5 × 13 labels")
         assert queued[0].item_ref in sheet
         await pilot.press("p")
+        await settle(pilot)
+        assert isinstance(pilot.app.screen, ConfirmScreen)  # the whole queue: asked first
+        question = text_of(pilot.app.screen.query_one("#confirm-question", Static))
+        assert f"Print all {len(queued)} queued labels" in question
+        await pilot.press("y")
         await settle(pilot)
         outcome = text_of(screen.query_one("#outcome", Static))
         assert outcome.startswith(f"✓ printed {len(queued)} label(s)")

@@ -1,8 +1,9 @@
 """The terminal interface: one app, a screen per task, every write through tracker.services.
 
 Database work happens only in thread workers, which post typed messages back; the UI thread
-only draws. A barcode scanner (a burst of keys ended by Enter) is recognised here, before
-any widget sees the keys: it fills the focused ID field or jumps to the scanned item.
+only draws. Keys pass :mod:`tracker.ui.keys` before any widget sees them: a barcode scan
+fills the focused ID field or jumps to the scanned item, and text typed outside a field is
+found on Enter instead of firing shortcuts.
 
 Start-up: a worker opens the database; with an operator named (``--as``) the loans
 overview is drawn at once and says it is reading the open loans until the services have
@@ -21,26 +22,22 @@ from collections.abc import Iterable, Sequence
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, ClassVar
 
-from textual import events, work
-from textual.app import App, SystemCommand
+from textual import work
+from textual.app import SystemCommand
 from textual.binding import Binding, BindingType
-from textual.command import CommandPalette
 from textual.filter import LineFilter
 from textual.message import Message
 from textual.reactive import reactive
 from textual.screen import Screen
-from textual.timer import Timer
-from textual.widgets import Input
 
 from tracker.domain.errors import InputError, TrackerError
 from tracker.domain.ids import BadId, Kind, parse_id
 from tracker.domain.text_rules import visible
 from tracker.domain.timeutil import Clock, utcnow
 from tracker.ui import settings
+from tracker.ui.keys import KeyRouting
 from tracker.ui.messages import ScanFailed, ScanResolved
 from tracker.ui.plain import VisibleCharacters, shown
-from tracker.ui.scan import BurstDetector
-from tracker.ui.widgets.id_field import IdInput
 
 if TYPE_CHECKING:  # loaded by the workers that open the database, after the first screen
     from tracker.db.database import Database
@@ -76,7 +73,7 @@ class DatabaseFailed(Message):
         self.error = error
 
 
-class TrackerApp(App[None]):
+class TrackerApp(KeyRouting):
     """``tracker`` with no command, on a terminal."""
 
     CSS_PATH = "tracker.tcss"
@@ -102,7 +99,6 @@ class TrackerApp(App[None]):
     ]
 
     operator_label: reactive[str] = reactive("no operator yet")
-    status_line: reactive[str] = reactive("")
 
     def __init__(
         self,
@@ -117,16 +113,11 @@ class TrackerApp(App[None]):
         self.target, self.preselected, self.clock = target, operator, clock
         # seconds without input before the signing key is locked again (TRACKER_LOCK_AFTER)
         self.lock_after = lock_after if lock_after is not None else settings.lock_after()
-        self._last_input = time.monotonic()
         self.signing = False  # the operator's key is unlocked (as far as this app knows)
         self.out_dir = out_dir or Path.cwd()  # where printed label PDFs are written
         self.db: Database | None = None
         self.operator: str | None = None
         self.operators: list[OperatorView] = []
-        self._burst = BurstDetector()
-        self._held: list[events.Key] = []
-        self._held_timer: Timer | None = None
-        self._typed_before: tuple[Input, str] | None = None
         self._visible = VisibleCharacters()
 
     def get_line_filters(self) -> Sequence[LineFilter]:
@@ -333,16 +324,26 @@ class TrackerApp(App[None]):
 
         self._go(LabelsScreen())
 
-    def action_ledger(self) -> None:
+    def action_ledger(self, then: str = "") -> None:
+        """The ledger screen; ``then`` one of its actions (export, anchor, verify, audit)."""
         from tracker.ui.screens.ledger import LedgerScreen
 
-        self._go(LedgerScreen())
+        screen = LedgerScreen()
+        self._go(screen)
+        if then:
+            self.call_after_refresh(screen.run_action, then)
 
     def action_help(self) -> None:
         from tracker.ui.screens.help import HelpScreen
 
         if not isinstance(self.screen, HelpScreen):
             self.push_screen(HelpScreen())
+
+    def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
+        """A bench form never opens on top of another form: finish it or leave it first."""
+        from tracker.ui.screens.form import FormScreen
+
+        return not (action == "bench" and isinstance(self.screen, FormScreen))
 
     def action_bench(self, form: str, **values: str) -> None:
         self.push_screen(bench_form(form, **values))
@@ -371,78 +372,10 @@ class TrackerApp(App[None]):
             yield SystemCommand(title, help_text, lambda a=action: self.run_action(a))
 
     # ------------------------------------------------------------------ scanning
-    async def on_event(self, event: events.Event) -> None:
-        if isinstance(event, events.Key | events.MouseDown):
-            self._last_input = time.monotonic()  # the idle lock counts from here
-        if (
-            isinstance(event, events.Key)
-            and not event.is_forwarded
-            and self.operator is not None
-            and not isinstance(self.screen, CommandPalette)
-            and await self._scan_key(event)
-        ):
-            return
-        await super().on_event(event)
+    def routes_keys(self) -> bool:
+        return self.operator is not None  # the operator picker takes keys as they come
 
-    async def _scan_key(self, event: events.Key) -> bool:
-        """True when the key was taken by the scanner logic (held back or a scan's Enter)."""
-        focused = self.focused
-        typing = isinstance(focused, Input)
-        char = event.character
-        if event.is_printable and char is not None and len(char) == 1 and event.key != "space":
-            continues = self._burst.feed(char, event.time)
-            if typing:
-                assert isinstance(focused, Input)
-                if not continues:
-                    self._typed_before = (focused, focused.value)
-                return False
-            self._held.append(event)
-            if self._held_timer is not None:
-                self._held_timer.stop()
-            self._held_timer = self.set_timer(self._burst.gap * 2, self._release_held)
-            return True
-        if event.key == "enter":
-            text = self._burst.enter(event.time)
-            held, self._held = self._held, []
-            if self._held_timer is not None:
-                self._held_timer.stop()
-            if text is not None:
-                self._scanned(text, focused)
-                return True
-            await self._replay(held)
-            return False
-        self._burst.reset()
-        await self._release_held()
-        return False
-
-    async def _release_held(self) -> None:
-        held, self._held = self._held, []
-        if held:
-            self._burst.reset()
-        await self._replay(held)
-
-    async def _replay(self, keys: list[events.Key]) -> None:
-        for key in keys:
-            await super().on_event(key)
-
-    def _scanned(self, text: str, focused: object) -> None:
-        if isinstance(focused, Input):
-            # The text box still has the scanned keys in its queue: act after it took them.
-            focused.call_later(self._finish_scan, text, focused)
-            return
-        self._finish_scan(text, focused)
-
-    def _finish_scan(self, text: str, focused: object) -> None:
-        if self._typed_before is not None and isinstance(focused, Input):
-            field, before = self._typed_before
-            if field is focused:
-                field.value = before  # the scan's characters do not stay in a text box
-        self._typed_before = None
-        if isinstance(focused, IdInput):
-            focused.fill_from_scan(text)
-            self.status_line = f"scanned {text.strip()} into the field"
-            return
-        self.status_line = f"scanned {text.strip()} …"
+    def find_text(self, text: str) -> None:
         self.scan_lookup(text)
 
     @work(thread=True, exclusive=True, group="scan")
@@ -481,12 +414,19 @@ def bench_form(form: str, **values: str) -> Screen[None]:
     from tracker.ui.screens.aliquot import AliquotScreen
     from tracker.ui.screens.checkin import CheckInScreen
     from tracker.ui.screens.concentration import ConcentrationScreen
+    from tracker.ui.screens.correct_weighing import CorrectWeighingScreen
+    from tracker.ui.screens.dispose import DisposeScreen
     from tracker.ui.screens.dissolve import DissolveScreen
     from tracker.ui.screens.drill import DrillScreen
+    from tracker.ui.screens.labels_cancel import CancelLabelsScreen
+    from tracker.ui.screens.loan_amend import AmendLoanScreen
+    from tracker.ui.screens.loan_close import CloseLoanScreen
+    from tracker.ui.screens.loan_returned import MarkReturnedScreen
     from tracker.ui.screens.move import MoveScreen
     from tracker.ui.screens.return_specimen import ReturnSpecimenScreen
+    from tracker.ui.screens.shipment import ShipmentScreen
 
-    forms = {
+    forms: dict[str, type[Screen[None]]] = {
         "checkin": CheckInScreen,
         "drill": DrillScreen,
         "dissolve": DissolveScreen,
@@ -494,6 +434,13 @@ def bench_form(form: str, **values: str) -> Screen[None]:
         "aliquot": AliquotScreen,
         "move": MoveScreen,
         "return": ReturnSpecimenScreen,
+        "correct_weighing": CorrectWeighingScreen,
+        "dispose": DisposeScreen,
+        "shipment": ShipmentScreen,
+        "loan_returned": MarkReturnedScreen,
+        "loan_close": CloseLoanScreen,
+        "loan_amend": AmendLoanScreen,
+        "labels_cancel": CancelLabelsScreen,
     }
     if form not in forms:
         raise InputError("form", form, f"is not one of {', '.join(forms)}")
@@ -521,11 +468,40 @@ PALETTE: list[tuple[str, str, str]] = [
     ("Take an aliquot", "Weigh out part of a solution (key a)", "bench('aliquot')"),
     ("Move an item", "Scan an item and its new place (key m)", "bench('move')"),
     ("Return a specimen", "Send a specimen back to its lender", "bench('return')"),
+    (
+        "Correct a weighing",
+        "A powder, solution or aliquot weighed again, with the reason",
+        "bench('correct_weighing')",
+    ),
+    (
+        "Return or dispose of a vial",
+        "Powder or solution returned, destroyed, retained or used up",
+        "bench('dispose')",
+    ),
+    ("Record a shipment", "A parcel to or from a lender", "bench('shipment')"),
+    ("Mark a loan returned", "Every specimen has gone back", "bench('loan_returned')"),
+    ("Amend a loan's terms", "Managers: extension, allowance, tissues", "bench('loan_amend')"),
+    ("Close a loan", "Managers: the lab's obligations are met", "bench('loan_close')"),
     ("Loans overview", "Open loans by urgency (F2)", "loans"),
     ("Column batches", "Build a batch by scanning aliquots; recoveries and yields (F3)", "batches"),
     ("Instrument sessions", "Import an export, reduce, see QC and drift (F4)", "sessions"),
-    ("Labels", "Queue, preview on a stock, print (F5)", "labels"),
+    ("Labels", "Queue, choose, preview on a stock, print (F5)", "labels"),
+    (
+        "Cancel queued labels",
+        "Labels that will not be printed, with the reason",
+        "bench('labels_cancel')",
+    ),
     ("Ledger", "Browse, filter, verify the chain (F6)", "ledger"),
+    (
+        "Export the ledger",
+        "Every event as JSON Lines, in a new file (F6, then e)",
+        "ledger('export')",
+    ),
+    (
+        "Anchor the ledger",
+        "Its head, signed, in a new file to keep (F6, then h)",
+        "ledger('anchor')",
+    ),
     ("Switch operator", "Who is recording (Ctrl+O)", "choose_operator"),
     ("Help", "Keys and a walk through every task (F1)", "help"),
     ("Return report", "Open a loan, then R: the report for its lender", "return_report"),

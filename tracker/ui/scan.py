@@ -9,6 +9,9 @@ from __future__ import annotations
 
 import os
 from dataclasses import dataclass, field
+from typing import Generic, TypeVar
+
+K = TypeVar("K")
 
 # Scanners type a character every 1-15 ms; a fast typist leaves 60 ms or more between keys.
 DEFAULT_GAP_MS = 40.0
@@ -56,3 +59,44 @@ class BurstDetector:
     @property
     def pending(self) -> int:
         return len(self.chars)
+
+
+# A person typing a word leaves well under this between keys (about 0.2-0.3 s at 40 words a
+# minute, from memory); a shortcut is a key with nothing after it for this long.
+TYPING_GAP = 0.4
+
+
+@dataclass
+class TypedRun(Generic[K]):
+    """Printable keys typed while no field has the focus, held until it is clear whether they
+    are one shortcut or text (two or more keys, each within ``gap`` of the last)."""
+
+    gap: float = TYPING_GAP
+    keys: list[K] = field(default_factory=list)
+    chars: list[str] = field(default_factory=list)
+    last: float | None = None
+
+    def continues(self, at: float) -> bool:
+        """Does a key at ``at`` belong to this run? Text goes on until Enter or Esc, however
+        slowly it is typed; a lone key is a run of its own once ``gap`` has passed."""
+        if not self.keys or self.is_text:
+            return True
+        return self.last is not None and at - self.last <= self.gap
+
+    def add(self, key: K, char: str, at: float) -> None:
+        self.keys.append(key)
+        self.chars.append(char)
+        self.last = at
+
+    @property
+    def is_text(self) -> bool:
+        return len(self.keys) > 1
+
+    @property
+    def text(self) -> str:
+        return "".join(self.chars)
+
+    def clear(self) -> list[K]:
+        """Empty the run; returns the keys it held."""
+        keys, self.keys, self.chars, self.last = self.keys, [], [], None
+        return keys

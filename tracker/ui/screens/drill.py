@@ -40,13 +40,13 @@ class DrillScreen(FormScreen):
         "and protection as your institution's rules require."
     )
     FIELDS: ClassVar[list[Field]] = [
-        Field("specimen", "Specimen", kind="id", placeholder="scan the specimen, SP-"),
-        Field("tissue", "Tissue", placeholder="as the loan permits, e.g. enameloid"),
-        Field("site", "Site on the specimen (optional)", placeholder="labial face, mid-crown"),
-        Field("tare", "Vial tare", placeholder="1203.557 mg"),
-        Field("gross", "Vial gross (with powder)", placeholder="1206.118 mg"),
+        Field("specimen", "Specimen", kind="id", hint="scan the specimen, SP-"),
+        Field("tissue", "Tissue", hint="as the loan permits, e.g. enameloid"),
+        Field("site", "Site on the specimen (optional)", hint="e.g. labial face, mid-crown"),
+        Field("tare", "Vial tare", hint="e.g. 1203.557 mg"),
+        Field("gross", "Vial gross (with powder)", hint="e.g. 1206.118 mg"),
         Field("readability", "Balance readability", value="0.001 mg"),
-        Field("location", "Put the powder in (optional)", kind="id", placeholder="LC-"),
+        Field("location", "Put the powder in (optional)", kind="id", hint="scan a location LC-"),
         Field("override-reason", "Override reason (over a limit)", manager_only=True),
     ]
 
@@ -68,6 +68,16 @@ class DrillScreen(FormScreen):
     def on_mount(self) -> None:
         super().on_mount()
         self.schedule_preview()
+
+    def confirm_first(self, values: dict[str, Any]) -> tuple[str, str] | None:
+        reason = values.get("override_reason")
+        if not reason:
+            return None
+        return (
+            "Drill past the loan's limits?",
+            f"The override and its reason ({reason}) are recorded in the ledger under your "
+            "name and shown to the lender in the return report.",
+        )
 
     @on(Input.Changed)
     def _typed(self, event: Input.Changed) -> None:
@@ -101,14 +111,16 @@ class DrillScreen(FormScreen):
         self.post_message(self.Previewed(view, seq))
 
     def on_refused(self, event: Refused) -> None:
-        if event.purpose.startswith("preview"):
-            event.stop()
-            if event.purpose != f"preview {self._seq}":
-                return
-            self.preview_view = None
-            self.show_preview(shown(f"✗ {event.error.one_line()}"))
+        """A preview's refusal belongs to the preview, never to the form's outcome line
+        (the form's own handler, called after this one, says a save's refusal)."""
+        if not event.purpose.startswith("preview"):
             return
-        super().on_refused(event)
+        event.prevent_default()
+        event.stop()
+        if event.purpose != f"preview {self._seq}":
+            return
+        self.preview_view = None
+        self.show_preview(shown(f"✗ {event.error.one_line()}"))
 
     def on_drill_screen_previewed(self, event: DrillScreen.Previewed) -> None:
         event.stop()
@@ -117,7 +129,7 @@ class DrillScreen(FormScreen):
         self.preview_view = event.preview
         tissue = self.query_one("#f-tissue", Input)
         if not tissue.value and len(event.preview.permitted_tissues) == 1:
-            tissue.value = event.preview.tissue  # the loan permits only this one
+            self.auto_fill(tissue, event.preview.tissue)  # the loan permits only this one
         self.show_preview(render_preview(event.preview))
 
     def show_preview(self, content: Text) -> None:
@@ -138,7 +150,8 @@ def render_preview(view: DrillPreview) -> Text:
     if view.max_specimens_sampled is not None:
         more = "" if view.already_sampled else " (+1 with this one)"
         text.append(
-            f"  specimens: {view.sampled_specimens} of {view.max_specimens_sampled} sampled{more}\n"
+            f"  specimens sampled: {view.sampled_specimens} "
+            f"(max {view.max_specimens_sampled}){more}\n"
         )
     if view.problem:
         text.append(shown(f"✗ {view.problem}\n", style="bold red"))

@@ -25,6 +25,8 @@ from tracker.domain.errors import TrackerError
 from tracker.services.core.views import Done
 from tracker.ui.context import database, operator, tracker_app
 from tracker.ui.messages import Refused, refusal_text
+from tracker.ui.screens.confirm import ConfirmScreen
+from tracker.ui.widgets.field_label import FieldLabel
 from tracker.ui.widgets.id_field import IdField, IdInput
 from tracker.ui.widgets.operator_bar import OperatorBar
 from tracker.ui.widgets.outcome import show_outcome
@@ -39,7 +41,7 @@ class Field:
     name: str
     label: str
     kind: str = "text"  # "id" for scannable IDs
-    placeholder: str = ""
+    hint: str = ""  # an example or how to fill it, shown beside the label (never in the field)
     value: str = ""
     manager_only: bool = False
 
@@ -83,23 +85,14 @@ class FormScreen(Screen[None]):
     def compose_field(self, spec: Field) -> ComposeResult:
         value = self.initial.get(spec.name, spec.value)
         if spec.kind == "id":
-            yield IdField(spec.label, name=spec.name, value=value, placeholder=spec.placeholder)
+            yield IdField(spec.label, name=spec.name, value=value, hint=spec.hint)
             return
         locked = spec.manager_only and not tracker_app(self).is_manager
-        yield Static(
-            spec.label + ("  🔒 managers only" if spec.manager_only else ""), classes="field-label"
-        )
-        yield Input(
-            value,
-            placeholder=(
-                f"locked: {tracker_app(self).operator} is not a manager"
-                if locked
-                else spec.placeholder
-            ),
-            id=f"f-{spec.name}",
-            disabled=locked,
-            classes="field",
-        )
+        note = "🔒 managers only" if spec.manager_only else ""
+        if locked:
+            note = f"🔒 locked: {tracker_app(self).operator} is not a manager"
+        yield FieldLabel(spec.label, "" if locked else spec.hint, note)
+        yield Input(value, id=f"f-{spec.name}", disabled=locked, classes="field")
 
     def on_mount(self) -> None:
         first_empty = next((i for i in self.query(Input) if not i.value and not i.disabled), None)
@@ -115,8 +108,28 @@ class FormScreen(Screen[None]):
         return typed
 
     def action_save(self) -> None:
+        values = self.values()
+        question = self.confirm_first(values)
+        if question is None:
+            self._start_save(values)
+            return
+
+        def answered(yes: bool | None) -> None:
+            if yes:
+                self._start_save(values)
+            else:
+                self.show_outcome("nothing saved", error=False)
+
+        tracker_app(self).push_screen(ConfirmScreen(*question), answered)
+
+    def confirm_first(self, values: dict[str, Any]) -> tuple[str, str] | None:
+        """A question to ask before saving these values, for a step that cannot be taken
+        back (its question and detail); None saves at once."""
+        return None
+
+    def _start_save(self, values: dict[str, Any]) -> None:
         self.show_outcome("… saving", error=False)
-        self.save(self.values())
+        self.save(values)
 
     @work(thread=True, exclusive=True, group="save")
     def save(self, values: dict[str, Any]) -> None:
@@ -141,10 +154,9 @@ class FormScreen(Screen[None]):
         event.stop()
         self.last_done = event.done
         item = getattr(event.done.item, "id", None)
-        self.show_outcome(
-            f"✓ saved {item or ''} · ledger event #{event.done.event_seq}", error=False
-        )
-        tracker_app(self).tell(f"✓ {self.TITLE}: saved {item or ''}", title="Saved")
+        what = f"✓ saved {item}" if item else "✓ saved"
+        self.show_outcome(f"{what} · ledger event #{event.done.event_seq}", error=False)
+        tracker_app(self).tell(f"{what}: {self.TITLE.lower()}", title="Saved")
         self.after_save(event.done)
 
     def after_save(self, done: Done[Any]) -> None:
@@ -156,18 +168,36 @@ class FormScreen(Screen[None]):
     def show_outcome(self, text: str | Text, *, error: bool) -> None:
         show_outcome(self.query_one("#outcome", Static), text, error=error)
 
+    def on_input_changed(self, event: Input.Changed) -> None:
+        """A refusal speaks of what was typed then: once a field changes it is cleared,
+        so that nothing on screen speaks of a state that has passed."""
+        outcome = self.query_one("#outcome", Static)
+        if outcome.has_class("-error"):
+            show_outcome(outcome, "", error=False)
+
     def on_id_field_scanned(self, event: IdField.Scanned) -> None:
         """A scan into this form's ID field moves on to the next field to fill."""
         event.stop()
+        self.focus_after(event.field.input)
+
+    def focus_after(self, field: Input) -> None:
+        """Focus the first empty field after ``field`` (a person types on where they look)."""
         inputs = [i for i in self.query(Input) if not i.disabled]
         try:
-            index = inputs.index(event.field.input)
+            index = inputs.index(field)
         except ValueError:
             return
         for following in inputs[index + 1 :]:
             if not following.value:
                 following.focus()
                 return
+
+    def auto_fill(self, field: Input, value: str) -> None:
+        """Fill ``field`` for the person; if the cursor waits in it, move it on to the next
+        empty field, so that the next keystroke never lands after the filled-in text."""
+        field.value = value
+        if field.has_focus:
+            self.focus_after(field)
 
     def id_input(self, name: str) -> IdInput:
         return self.query_one(f"#f-{name}", IdInput)

@@ -23,6 +23,7 @@ from tracker.services.read.lineage import ItemDetail, Node
 from tracker.ui.context import database, operator, tracker_app
 from tracker.ui.messages import Refused, refusal_text
 from tracker.ui.plain import shown
+from tracker.ui.screens.tabs import TabKeys, tab_keys
 from tracker.ui.widgets.operator_bar import OperatorBar
 
 # Which field of each bench form the item on screen fills.
@@ -37,7 +38,7 @@ PREFILL = {
 }
 
 
-class ItemScreen(Screen[None]):
+class ItemScreen(TabKeys, Screen[None]):
     BINDINGS: ClassVar[list[BindingType]] = [
         Binding("d", "act('drill')", "Drill", id="item.drill"),
         Binding("s", "act('dissolve')", "Dissolve", id="item.dissolve"),
@@ -48,6 +49,7 @@ class ItemScreen(Screen[None]):
         Binding("r", "act('return')", "Return", id="item.return"),
         Binding("l", "queue_label", "Label", id="item.label"),
         Binding("escape", "app.previous", "Back", id="item.back"),
+        *tab_keys(("tab-lineage", "Lineage"), ("tab-history", "History")),
     ]
 
     class Loaded(Message):
@@ -116,7 +118,7 @@ class ItemScreen(Screen[None]):
                 str(e.seq),
                 e.at.strftime("%Y-%m-%d %H:%M"),
                 shown(e.operator),
-                shown(e.action),
+                shown(e.said),
                 shown(e.object),
                 shown(e.parent),
             )

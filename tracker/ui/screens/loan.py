@@ -17,6 +17,7 @@ from textual.widgets import DataTable, Footer, Input, Static, TabbedContent, Tab
 from tracker.domain import precision
 from tracker.domain.errors import TrackerError
 from tracker.present.bars import flag_cell, flag_text, usage_bar
+from tracker.present.items import override_text
 from tracker.services.loans import planning
 from tracker.services.loans.planning import Plan
 from tracker.services.read import lineage, reconcile
@@ -25,10 +26,11 @@ from tracker.services.read.reconcile import LoanLine
 from tracker.ui.context import database, tracker_app
 from tracker.ui.messages import Refused, refusal_text
 from tracker.ui.plain import shown
+from tracker.ui.screens.tabs import TabKeys, tab_keys
 from tracker.ui.widgets.operator_bar import OperatorBar
 
 
-class LoanScreen(Screen[None]):
+class LoanScreen(TabKeys, Screen[None]):
     BINDINGS: ClassVar[list[BindingType]] = [
         Binding("enter", "open_specimen", "Open", id="loan.open"),
         Binding("c", "act('checkin')", "Check in", id="loan.checkin"),
@@ -37,6 +39,7 @@ class LoanScreen(Screen[None]):
         Binding("R", "report", "Return report", id="loan.report"),
         Binding("I", "manifest", "Manifest", id="loan.manifest"),
         Binding("escape", "app.previous", "Back", id="loan.back"),
+        *tab_keys(("tab-specimens", "Specimens"), ("tab-terms", "Terms"), ("tab-plan", "Plan")),
     ]
 
     class Loaded(Message):
@@ -138,6 +141,8 @@ class LoanScreen(Screen[None]):
                     f"due {t.due_on}; powder: {t.powder_disposition}\n"
                 )
             )
+        for o in detail.overrides:
+            terms.append_text(shown(override_text(o) + "\n", style="bold red"))
         for d in detail.documents:
             terms.append(
                 shown(f"document {d.filename} ({d.role or 'attached'}) sha256 {d.sha256[:16]}…\n")
@@ -149,7 +154,7 @@ class LoanScreen(Screen[None]):
         outcome.update(refusal_text(event.error))
         outcome.set_class(True, "-error")
 
-    def _selected(self) -> str | None:
+    def selected_specimen(self) -> str | None:
         table = self.query_one("#specimens", DataTable)
         if not table.row_count:
             return None
@@ -162,12 +167,12 @@ class LoanScreen(Screen[None]):
             tracker_app(self).open_id(str(event.row_key.value))
 
     def action_open_specimen(self) -> None:
-        chosen = self._selected()
+        chosen = self.selected_specimen()
         if chosen:
             tracker_app(self).open_id(chosen)
 
     def action_act(self, form: str) -> None:
-        chosen = self._selected()
+        chosen = self.selected_specimen()
         tracker_app(self).action_bench(form, **({"specimen": chosen} if chosen else {}))
 
     def action_report(self) -> None:

@@ -28,16 +28,20 @@ from tracker.ui.context import database, operator
 from tracker.ui.messages import Refused, refusal_text
 from tracker.ui.plain import shown
 from tracker.ui.screens.session_import import ImportSessionScreen
+from tracker.ui.screens.tabs import TabKeys, tab_keys
 from tracker.ui.widgets.drift_plot import DriftPlot
 from tracker.ui.widgets.operator_bar import OperatorBar
 
 
-class SessionScreen(Screen[None]):
+class SessionScreen(TabKeys, Screen[None]):
     BINDINGS: ClassVar[list[BindingType]] = [
         Binding("i", "import_session", "Import", id="session.import"),
         Binding("r", "reduce", "Reduce", id="session.reduce"),
         Binding("o", "other_session", "Other session", id="session.other"),
         Binding("escape", "app.previous", "Back", id="session.back"),
+        *tab_keys(
+            ("tab-results", "Results"), ("tab-unmatched", "Unmatched"), ("tab-drift", "Drift")
+        ),
     ]
 
     class Listed(Message):

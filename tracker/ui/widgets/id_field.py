@@ -19,6 +19,7 @@ from textual.widgets import Input, Static
 from tracker.domain.errors import TrackerError
 from tracker.ui.context import database
 from tracker.ui.plain import shown
+from tracker.ui.widgets.field_label import FieldLabel
 
 if TYPE_CHECKING:  # the label services load lineage and label facts: only a lookup needs them
     from tracker.services.labels.handling import ScanView
@@ -66,18 +67,18 @@ class IdField(Vertical):
             return self.field
 
     def __init__(
-        self, label: str, *, name: str, value: str = "", placeholder: str = "scan or type an ID"
+        self, label: str, *, name: str, value: str = "", hint: str = "scan or type an ID"
     ) -> None:
         super().__init__(classes="field id-field", id=f"field-{name}")
         self.label, self.field_name = label, name
-        self._value, self._placeholder = value, placeholder
+        self._value, self._hint_text = value, hint
         self._timer: Timer | None = None
         self._seq = 0  # only the newest lookup's answer is shown
         self.view: ScanView | None = None
 
     def compose(self) -> ComposeResult:
-        yield Static(self.label, classes="field-label")
-        yield IdInput(self._value, placeholder=self._placeholder, id=f"f-{self.field_name}")
+        yield FieldLabel(self.label, self._hint_text)
+        yield IdInput(self._value, id=f"f-{self.field_name}")
         yield Static("", classes="field-hint")
 
     def on_mount(self) -> None:
@@ -97,7 +98,7 @@ class IdField(Vertical):
         self.lookup(text)
 
     def on_input_changed(self, event: Input.Changed) -> None:
-        event.stop()
+        # not stopped: the form hears every change too (it clears a refusal that has passed)
         if self._timer is not None:
             self._timer.stop()
         text = event.value.strip()
