@@ -104,6 +104,25 @@ async def _report(pilot: Pilot[None]) -> None:
     await settle(pilot)
 
 
+async def _terms(pilot: Pilot[None]) -> None:
+    await _loan(pilot)
+    await pilot.press("2")  # the terms tab: versions, overrides, documents
+    await settle(pilot)
+
+
+async def _override_asked(pilot: Pilot[None]) -> None:
+    await _drill(pilot)  # ines, a manager: the override field is open to her
+    pilot.app.screen.query_one("#f-override-reason", Input).value = "lender agreed by phone"
+    await pilot.press("ctrl+s")
+    await settle(pilot)
+
+
+async def _dispose(pilot: Pilot[None]) -> None:
+    await settle(pilot)
+    await pilot.app.run_action("bench('dispose')")
+    await settle(pilot)
+
+
 async def _help(pilot: Pilot[None]) -> None:
     await settle(pilot)
     await pilot.press("f1")
@@ -124,4 +143,14 @@ SCENES = [
     Scene("ledger-120x36", (120, 36), _ledger),
     Scene("report-120x36", (120, 36), _report),
     Scene("help-80x24", (80, 24), _help),
+    # every screen at 80×24 too: nothing that matters may be cut off on a small terminal
+    Scene("terms-80x24", (80, 24), _terms),
+    Scene("batch-80x24", (80, 24), _batch),
+    Scene("session-80x24", (80, 24), _session),
+    Scene("drift-80x24", (80, 24), _drift),
+    Scene("labels-80x24", (80, 24), _labels),
+    Scene("ledger-80x24", (80, 24), _ledger),
+    Scene("report-80x24", (80, 24), _report),
+    Scene("override-asked-80x24", (80, 24), _override_asked),
+    Scene("dispose-80x24", (80, 24), _dispose),
 ]

@@ -36,6 +36,8 @@ async def test_a_technicians_login_cannot_override_as_a_manager_in_the_interface
         await until(pilot, lambda: previewed(form, 1.5))
         await pilot.press("ctrl+s")
         await settle(pilot)
+        await pilot.press("y")  # an override is confirmed first
+        await settle(pilot)
         outcome = text_of(form.query_one("#outcome", Static))
         assert outcome.startswith("✗ refused: operator: 'ines':"), outcome
         assert "records as tomas only" in outcome

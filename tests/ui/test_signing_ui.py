@@ -81,6 +81,8 @@ async def test_a_technician_cannot_override_from_the_interface_even_as_a_manager
         form.query_one("#f-gross", Input).value = "1201.500 mg"  # over the specimen's limit
         override.value = "forced into the disabled field"  # what a determined person could do
         await pilot.press("ctrl+s")
+        await settle(pilot)
+        await pilot.press("y")  # an override is confirmed first
         await until(pilot, lambda: "refused" in text_of(form.query_one("#outcome", Static)))
         outcome = text_of(form.query_one("#outcome", Static))
         assert "overriding a loan limit needs an operator with the manager role" in outcome

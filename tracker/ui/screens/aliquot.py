@@ -14,12 +14,12 @@ class AliquotScreen(FormScreen):
     TITLE = "Take an aliquot"
     INTRO = "Weigh the aliquot vial empty (tare) and filled (gross), with units."
     FIELDS: ClassVar[list[Field]] = [
-        Field("solution", "Solution", kind="id", placeholder="scan the solution, SO-"),
-        Field("tare", "Vial tare", placeholder="2.00000 g"),
-        Field("gross", "Vial gross", placeholder="2.02500 g"),
+        Field("solution", "Solution", kind="id", hint="scan the solution, SO-"),
+        Field("tare", "Vial tare", hint="e.g. 2.00000 g"),
+        Field("gross", "Vial gross", hint="e.g. 2.02500 g"),
         Field("readability", "Balance readability", value="0.01 mg"),
-        Field("purpose", "Purpose", value="isotopes", placeholder="isotopes or archive"),
-        Field("location", "Put it in (optional)", kind="id", placeholder="scan a location LC-"),
+        Field("purpose", "Purpose", value="isotopes", hint="isotopes or archive"),
+        Field("location", "Put it in (optional)", kind="id", hint="scan a location LC-"),
     ]
 
     @staticmethod

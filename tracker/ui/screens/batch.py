@@ -67,7 +67,7 @@ class BatchScreen(Screen[None]):
         yield IdField(
             "Scan an aliquot to put it on the next column",
             name="aliquot",
-            placeholder="scan an aliquot AQ- (Enter adds it)",
+            hint="scan an aliquot AQ- (Enter adds it)",
         )
         yield DataTable(id="batches", cursor_type="row", zebra_stripes=True)
         yield DataTable(id="positions", cursor_type="row", zebra_stripes=True)
@@ -154,7 +154,7 @@ class BatchScreen(Screen[None]):
                 str(p.slot),
                 p.id,
                 p.kind,
-                shown(p.holds or "—"),
+                shown(lab.holds_text(p.holds, p.catalog_number)),
                 *lab.position_cells(p),
                 flag_text(p.flags),
                 key=p.id,
@@ -195,8 +195,9 @@ class BatchScreen(Screen[None]):
     def on_batch_screen_added(self, event: Added) -> None:
         p = event.done.item
         loaded = f" · loaded {precision.micrograms(p.loaded_ug)}" if p.loaded_ug else ""
+        holds = lab.holds_text(p.holds, p.catalog_number)
         self._outcome(
-            f"✓ column {p.slot} ({p.id}): {p.kind} {p.holds or ''}{loaded} · label "
+            f"✓ column {p.slot} ({p.id}): {p.kind} {holds}{loaded} · label "
             f"queued · event #{event.done.event_seq}",
             error=False,
         )

@@ -16,11 +16,11 @@ class NewBatchScreen(FormScreen):
     TITLE = "Open a column batch"
     INTRO = "Cut names in elution order, separated by commas; the element's cut is named like it."
     FIELDS: ClassVar[list[Field]] = [
-        Field("name", "Batch name", placeholder="Ca 2026-12 A"),
+        Field("name", "Batch name", hint="e.g. Ca 2026-12 A"),
         Field("performed-on", "Performed on", value=date.today().isoformat()),
         Field("element", "Element", value="Ca"),
-        Field("resin", "Resin", placeholder="DGA resin, 50-100 um, 0.25 mL"),
-        Field("elution-scheme", "Elution scheme", placeholder="load 3 M HNO3; elute Ca 0.05 M"),
+        Field("resin", "Resin", hint="e.g. DGA resin, 50-100 um, 0.25 mL"),
+        Field("elution-scheme", "Elution scheme", hint="e.g. load 3 M HNO3; elute Ca 0.05 M"),
         Field("cut-names", "Cuts", value="matrix,Ca"),
     ]
 
@@ -34,9 +34,9 @@ class ReferencePositionScreen(FormScreen):
     INTRO = "The reference material by name (or RM- ID) and the element loaded on the column."
     FIELDS: ClassVar[list[Field]] = [
         Field("batch", "Batch", kind="id"),
-        Field("reference-material", "Reference material", placeholder="SRM 915b"),
-        Field("loaded-ug", "Element loaded (µg)", placeholder="10.0"),
-        Field("loaded-u-ug", "Its uncertainty (µg)", placeholder="0.05"),
+        Field("reference-material", "Reference material", hint="e.g. SRM 915b"),
+        Field("loaded-ug", "Element loaded (µg)", hint="e.g. 10.0"),
+        Field("loaded-u-ug", "Its uncertainty (µg)", hint="e.g. 0.05"),
     ]
 
     def values(self) -> dict[str, Any]:
@@ -57,9 +57,9 @@ class CutScreen(FormScreen):
         "are computed and flagged against the batch's limits."
     )
     FIELDS: ClassVar[list[Field]] = [
-        Field("position", "Column position", kind="id", placeholder="CP-"),
-        Field("cut", "Cut", placeholder="Ca"),
-        Field("recovered", "Recovered element", placeholder="10.31 ug"),
+        Field("position", "Column position", kind="id", hint="scan the column position CP-"),
+        Field("cut", "Cut", hint="e.g. Ca"),
+        Field("recovered", "Recovered element", hint="e.g. 10.31 ug"),
         Field("relative-uncertainty-percent", "Relative uncertainty (%)", value="1.5"),
     ]
 

@@ -17,9 +17,9 @@ class CheckInScreen(FormScreen):
         "scan the box or shelf it goes to, then press Ctrl+S. Its label is queued."
     )
     FIELDS: ClassVar[list[Field]] = [
-        Field("specimen", "Specimen", kind="id", placeholder="scan the specimen, e.g. SP-00011-S"),
-        Field("condition", "Condition as received", placeholder="complete; crown tip chipped"),
-        Field("location", "Put it in (optional)", kind="id", placeholder="scan a location LC-"),
+        Field("specimen", "Specimen", kind="id", hint="scan the specimen, e.g. SP-00011-S"),
+        Field("condition", "Condition as received", hint="e.g. complete; crown tip chipped"),
+        Field("location", "Put it in (optional)", kind="id", hint="scan a location LC-"),
     ]
 
     @staticmethod

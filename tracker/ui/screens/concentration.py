@@ -14,11 +14,11 @@ class ConcentrationScreen(FormScreen):
     TITLE = "Record a concentration"
     INTRO = "The element's mass fraction in the solution, with its unit (ug/g, ppm, ng/g ...)."
     FIELDS: ClassVar[list[Field]] = [
-        Field("solution", "Solution", kind="id", placeholder="scan the solution, SO-"),
-        Field("element", "Element", placeholder="Ca"),
-        Field("value", "Mass fraction", placeholder="812 ug/g"),
-        Field("relative-uncertainty-percent", "Relative uncertainty (%)", placeholder="2"),
-        Field("method", "Method (optional)", placeholder="ICP-OES"),
+        Field("solution", "Solution", kind="id", hint="scan the solution, SO-"),
+        Field("element", "Element", hint="e.g. Ca"),
+        Field("value", "Mass fraction", hint="e.g. 812 ug/g"),
+        Field("relative-uncertainty-percent", "Relative uncertainty (%)", hint="e.g. 2"),
+        Field("method", "Method (optional)", hint="e.g. ICP-OES"),
     ]
 
     @staticmethod

@@ -18,13 +18,13 @@ class DissolveScreen(FormScreen):
         "plan; tracker records the work, it is not a safety authority."
     )
     FIELDS: ClassVar[list[Field]] = [
-        Field("powder", "Powder", kind="id", placeholder="scan the powder vial, PW-"),
-        Field("acid", "Acid", placeholder="2 M HNO3"),
-        Field("vial-tare", "Vial tare", placeholder="5.1234 g"),
-        Field("vial-gross", "Vial gross (with solution)", placeholder="6.1234 g"),
+        Field("powder", "Powder", kind="id", hint="scan the powder vial, PW-"),
+        Field("acid", "Acid", hint="e.g. 2 M HNO3"),
+        Field("vial-tare", "Vial tare", hint="e.g. 5.1234 g"),
+        Field("vial-gross", "Vial gross (with solution)", hint="e.g. 6.1234 g"),
         Field("readability", "Balance readability", value="0.1 mg"),
-        Field("powder-taken", "Powder taken (empty: all)", placeholder="2.015 mg"),
-        Field("location", "Put it in (optional)", kind="id", placeholder="scan a location LC-"),
+        Field("powder-taken", "Powder taken (empty: all)", hint="e.g. 2.015 mg"),
+        Field("location", "Put it in (optional)", kind="id", hint="scan a location LC-"),
     ]
 
     @staticmethod

@@ -18,12 +18,19 @@ HELP = """\
 **Scanning.** Point the scanner at any label, anywhere: tracker jumps to the item. When an ID
 field is focused (a form, the batch builder, the label queue) the scan fills that field
 instead. IDs may be typed too, in any case, with or without hyphens. A misread ID (wrong
-check character) shows a ✗ line and names what is wrong.
+check character) shows a ✗ line and asks for a re-scan.
+
+**Typing.** With no field focused, one key alone is its shortcut; two or more in a row are
+text, and Enter finds it: an ID, a specimen's catalogue number (`KFMNH P 20311` on the demo),
+a loan's reference or a location's name. Shortcuts never fire while you type.
 
 **Keys everywhere** — F1 help · F2 loans · F3 column batches · F4 instrument sessions ·
 F5 labels · F6 ledger · Ctrl+O switch operator · Ctrl+P all actions (command palette) ·
 Esc back · Ctrl+Q quit. Bench forms: **c** check in · **d** drill · **s** dissolve ·
-**k** concentration · **a** aliquot · **m** move. In a form, **Ctrl+S** saves.
+**k** concentration · **a** aliquot · **m** move. In a form, **Ctrl+S** saves. Number keys
+open a screen's tabs. Corrections, returning or disposing of vials, shipments, amending,
+returning and closing a loan: Ctrl+P. An override, printing the whole queue and closing a
+loan are asked first (**y** yes, **n** no).
 
 Status is always written in words and symbols: ✓ ok/pass · ⚠ warning · ✗ refused, over a
 limit or failed · ↩ powder to return · ? results or recovery missing.
@@ -37,7 +44,7 @@ passphrase is `demo passphrase, invented`.
 
 1. **Check in a specimen by scanning.** Press **c**. Scan the specimen's label (on the demo:
    type `SP-00011-S` quickly, or type it and press Enter). Type its condition, scan or type a
-   location (`LC-00006-A` is *Loan box A*), press **Ctrl+S**. Its lineage opens; its label is
+   location (`LC-00006-B` is *Loan box A*), press **Ctrl+S**. Its lineage opens; its label is
    queued.
 2. **Drill within the allowance.** Press **d**, scan `SP-00010-U`. Type the tare
    (`1200.000 mg`) and gross: the allowance under the form updates as you type. A gross of
@@ -55,17 +62,19 @@ passphrase is `demo passphrase, invented`.
    results with 2SD and n, reference materials ✓ pass or ✗ FAIL, and the standard's drift
    plotted on its own tab.
 5. **Print labels.** Press **F5**. Choose the stock, the first free position, **v** draws the
-   sheet, **p** prints the whole queue to a PDF (and to a printer if you name one).
+   sheet; **space** chooses labels, **p** prints the chosen ones (or, asked first, the whole
+   queue) to a PDF (and to a printer if you name one); **x** cancels labels with a reason.
 6. **Return report.** On a loan (F2, Enter), **R** opens the return report: every
    specimen's account, the flags and the ledger head; **Ctrl+S** writes it (PDF, CSV, XLSX
    or JSON) with its anchor file, signed by a manager's key and recorded in the ledger first.
 7. **The ledger.** Press **F6**: filter by action, operator or item; **v** verifies every
-   hash and signature and shows the head hash to give the lender.
+   hash and signature and shows the head hash to give the lender; **e** exports the ledger
+   and **h** writes its signed head (an anchor) to a new file.
 
 ## On a loan (F2, Enter)
 Enter opens a specimen · **c** check in · **d** drill the selected specimen · **p** plan what
-each specimen still needs · **R** return report · **I** manifest import · tabs: specimens
-with consumption bars, terms and amendments, plan.
+each specimen still needs · **R** return report · **I** manifest import · tabs (**1 2 3**):
+specimens with consumption bars, terms with amendments and overrides, plan.
 
 ## On an item
 Its lineage (specimen → powders → solutions → aliquots → columns → cuts and results) with
@@ -74,8 +83,8 @@ open the bench forms with this item filled in; **l** queues its label again.
 
 ## Managers
 Overriding a loan limit needs a manager and a written reason (the drill form's last field,
-locked for technicians). Amendments and accepted reference values are also for managers
-(`tracker loan amend`, `tracker reference value`).
+locked for technicians). Amending and closing a loan (Ctrl+P) and accepted reference values
+(`tracker reference value`) are also for managers.
 
 > **Safety.** Drilling makes fine dust; digestion uses concentrated acids (sometimes HF).
 > tracker records the work; it is not a safety authority. Follow your institution's

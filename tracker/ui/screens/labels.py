@@ -20,18 +20,23 @@ from tracker.services.labels.handling import LabelView
 from tracker.ui.context import database, operator, tracker_app
 from tracker.ui.messages import Refused, refusal_text
 from tracker.ui.plain import shown
+from tracker.ui.screens.confirm import ConfirmScreen
+from tracker.ui.screens.tabs import TabKeys, tab_keys
 from tracker.ui.widgets.id_field import IdField
 from tracker.ui.widgets.operator_bar import OperatorBar
 
 DEFAULT_STOCK = "a4-65"
 
 
-class LabelsScreen(Screen[None]):
+class LabelsScreen(TabKeys, Screen[None]):
     BINDINGS: ClassVar[list[BindingType]] = [
-        Binding("p", "print_queue", "Print queue", id="labels.print"),
+        Binding("space", "choose", "Choose", id="labels.choose"),
+        Binding("p", "print_queue", "Print", id="labels.print"),
+        Binding("x", "cancel_labels", "Cancel labels", id="labels.cancel"),
         Binding("v", "preview", "Preview sheet", id="labels.preview"),
         Binding("r", "refresh", "Refresh", id="labels.refresh"),
         Binding("escape", "app.previous", "Back", id="labels.back"),
+        *tab_keys(("tab-queue", "Queue"), ("tab-sheet", "Sheet")),
     ]
 
     class Loaded(Message):
@@ -54,6 +59,10 @@ class LabelsScreen(Screen[None]):
             super().__init__()
             self.done = done
 
+    def __init__(self) -> None:
+        super().__init__()
+        self.chosen: list[str] = []  # items whose queued labels are picked, in queue order
+
     def compose(self) -> ComposeResult:
         yield OperatorBar("Labels")
         with Horizontal(id="label-options"):
@@ -65,7 +74,7 @@ class LabelsScreen(Screen[None]):
         yield IdField(
             "Scan an item to queue its label",
             name="queue-item",
-            placeholder="scan any vial or specimen",
+            hint="scan any vial or specimen",
         )
         with TabbedContent(id="label-tabs"):
             with TabPane("Queue", id="tab-queue"):
@@ -78,12 +87,16 @@ class LabelsScreen(Screen[None]):
 
     def on_mount(self) -> None:
         table = self.query_one("#queue", DataTable)
+        table.add_column("✓", key="chosen")
         for label in ("Item", "Kind", "Label text", "Queued by"):
             table.add_column(label)
         self.action_refresh()
 
     def action_refresh(self) -> None:
         self.load()
+
+    def on_screen_resume(self) -> None:
+        self.load()  # back from a form (labels cancelled): the queue as it is now
 
     @work(thread=True, exclusive=True, group="load")
     def load(self) -> None:
@@ -104,13 +117,42 @@ class LabelsScreen(Screen[None]):
         select.value = current if current in event.stocks else event.stocks[0]
         table = self.query_one("#queue", DataTable)
         table.clear()
+        queued = [label.item for label in event.queue]
+        self.chosen = [item for item in self.chosen if item in queued]
         for label in event.queue:
             table.add_row(
-                label.item, label.kind, shown(" / ".join(label.lines[:2])), shown(label.queued_by)
+                "✓" if label.item in self.chosen else "",
+                label.item,
+                label.kind,
+                shown(" / ".join(label.lines[:2])),
+                shown(label.queued_by),
+                key=label.item,
             )
         self.query_one("#label-hint", Static).update(
-            f"{len(event.queue)} label(s) queued · p prints them all · v draws the sheet"
+            f"{len(event.queue)} label(s) queued · space chooses some · p prints the chosen "
+            "(or all) · x cancels · v draws the sheet"
         )
+
+    def action_choose(self) -> None:
+        """Pick or unpick the highlighted label for the next print (or cancel)."""
+        table = self.query_one("#queue", DataTable)
+        if not table.row_count:
+            return
+        item = str(table.coordinate_to_cell_key(table.cursor_coordinate).row_key.value)
+        if item in self.chosen:
+            self.chosen.remove(item)
+        else:
+            self.chosen.append(item)
+        table.update_cell(item, "chosen", "✓" if item in self.chosen else "")
+        table.move_cursor(row=min(table.cursor_row + 1, table.row_count - 1))
+
+    def action_cancel_labels(self) -> None:
+        """The cancel form, with the chosen labels (or the highlighted one) filled in."""
+        table = self.query_one("#queue", DataTable)
+        items = list(self.chosen)
+        if not items and table.row_count:
+            items = [str(table.coordinate_to_cell_key(table.cursor_coordinate).row_key.value)]
+        tracker_app(self).action_bench("labels_cancel", items=", ".join(items))
 
     def _options(self) -> tuple[str, str, str]:
         stock = str(self.query_one("#stock", Select).value)
@@ -149,12 +191,31 @@ class LabelsScreen(Screen[None]):
         self.query_one("#sheet", Static).update(event.sheet)
 
     def action_print_queue(self) -> None:
+        """Print the chosen labels at once; the whole queue only after asking."""
         stock, start, printer = self._options()
-        self._outcome("… printing", error=False)
-        self.print_queue(stock, start, printer)
+        if self.chosen:
+            self._outcome("… printing", error=False)
+            self.print_queue(stock, start, printer, list(self.chosen))
+            return
+        queued = self.query_one("#queue", DataTable).row_count
+        where = f"to the printer {printer}" if printer else "to a PDF"
+
+        def answered(yes: bool | None) -> None:
+            if yes:
+                self._outcome("… printing", error=False)
+                self.print_queue(stock, start, printer, None)
+
+        tracker_app(self).push_screen(
+            ConfirmScreen(
+                f"Print all {queued} queued labels {where}?",
+                f"on {stock}, from position {start}; printed labels leave the queue "
+                "(space chooses some instead)",
+            ),
+            answered,
+        )
 
     @work(thread=True, exclusive=True, group="save")
-    def print_queue(self, stock: str, start: str, printer: str) -> None:
+    def print_queue(self, stock: str, start: str, printer: str, items: list[str] | None) -> None:
         from tracker.domain.errors import InputError
         from tracker.output import jobs
 
@@ -168,6 +229,7 @@ class LabelsScreen(Screen[None]):
                 start=int(start),
                 printer=printer or None,
                 folder=tracker_app(self).out_dir,
+                items=items,
             )
         except TrackerError as error:
             self.post_message(Refused(error, "print"))
@@ -182,6 +244,7 @@ class LabelsScreen(Screen[None]):
             f"{event.outcome.out}{sent} · event #{event.outcome.event_seq}",
             error=False,
         )
+        self.chosen = []
         self.load()
 
     @on(IdField.Scanned)

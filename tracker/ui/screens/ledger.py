@@ -4,6 +4,7 @@ against it with a progress bar, and show the head hash a lender can check indepe
 from __future__ import annotations
 
 import json
+from pathlib import Path
 from typing import ClassVar
 
 from textual import on, work
@@ -19,7 +20,7 @@ from tracker.domain.ledger import VerifyReport
 from tracker.services.core.views import EventView
 from tracker.services.ledger import audit, chain, checkpoints
 from tracker.services.ledger.audit import AuditReport
-from tracker.ui.context import database
+from tracker.ui.context import database, operator, tracker_app
 from tracker.ui.messages import Refused, refusal_text
 from tracker.ui.plain import shown
 from tracker.ui.widgets.operator_bar import OperatorBar
@@ -32,6 +33,8 @@ class LedgerScreen(Screen[None]):
         Binding("v", "verify", "Verify chain", id="ledger.verify"),
         Binding("a", "audit", "Audit books", id="ledger.audit"),
         Binding("slash", "filter", "Filter", id="ledger.filter"),
+        Binding("e", "export", "Export", id="ledger.export"),
+        Binding("h", "anchor", "Anchor head", id="ledger.anchor"),
         Binding("escape", "app.previous", "Back", id="ledger.back"),
     ]
 
@@ -49,6 +52,11 @@ class LedgerScreen(Screen[None]):
         def __init__(self, report: VerifyReport) -> None:
             super().__init__()
             self.report = report
+
+    class Written(Message):
+        def __init__(self, said: str) -> None:
+            super().__init__()
+            self.said = said
 
     class Audited(Message):
         def __init__(self, report: AuditReport) -> None:
@@ -110,7 +118,7 @@ class LedgerScreen(Screen[None]):
                 str(e.seq),
                 e.at.strftime("%Y-%m-%d %H:%M"),
                 shown(e.operator),
-                shown(e.action),
+                shown(e.said),
                 shown(e.object),
                 shown(e.parent),
                 key=str(e.seq),
@@ -202,6 +210,43 @@ class LedgerScreen(Screen[None]):
             )
         result.update(shown(line, style="green" if r.ok else "bold red"))
         result.set_class(not r.ok, "-error")
+
+    def action_export(self) -> None:
+        """The whole ledger as JSON Lines in a new file in the output folder."""
+        self.query_one("#verify-result", Static).update("… exporting the ledger")
+        self.export_ledger(self._new_file("ledger", "jsonl"))
+
+    @work(thread=True, exclusive=True, group="verify")
+    def export_ledger(self, path: Path) -> None:
+        try:
+            count, _ = chain.export_file(database(self), path)
+        except TrackerError as error:
+            self.post_message(Refused(error, "export"))
+            return
+        self.post_message(self.Written(f"✓ exported {count} events to {path}"))
+
+    def action_anchor(self) -> None:
+        """The ledger's head, signed, in a new file to keep outside the database."""
+        self.query_one("#verify-result", Static).update("… writing the anchor")
+        self.write_anchor(self._new_file("ledger-anchor", "json"))
+
+    @work(thread=True, exclusive=True, group="verify")
+    def write_anchor(self, path: Path) -> None:
+        try:
+            kept = chain.write_anchor(database(self), operator(self), path).anchor
+        except TrackerError as error:
+            self.post_message(Refused(error, "anchor"))
+            return
+        self.post_message(self.Written(f"✓ anchor of event #{kept.seq} written to {path}"))
+
+    def _new_file(self, stem: str, suffix: str) -> Path:
+        """A file in the output folder named after the moment (never an existing one:
+        writing refuses to replace a file)."""
+        app = tracker_app(self)
+        return app.out_dir / f"{stem}-{app.clock():%Y%m%dT%H%M%SZ}.{suffix}"
+
+    def on_ledger_screen_written(self, event: Written) -> None:
+        self.query_one("#verify-result", Static).update(shown(event.said))
 
     def on_refused(self, event: Refused) -> None:
         self.query_one("#verify-result", Static).update(refusal_text(event.error))

@@ -25,6 +25,7 @@ from tracker.services.loans.manifests import ManifestOutcome, ManifestPreview, R
 from tracker.ui.context import database, operator, tracker_app
 from tracker.ui.messages import Refused, refusal_text
 from tracker.ui.plain import shown
+from tracker.ui.widgets.field_label import FieldLabel
 from tracker.ui.widgets.operator_bar import OperatorBar
 from tracker.ui.widgets.outcome import show_outcome
 
@@ -64,12 +65,10 @@ class ManifestScreen(Screen[None]):
             "saved mapping). Enter previews every row; Ctrl+S imports the whole file.",
             classes="intro",
         )
-        yield Static("File (path)", classes="field-label")
-        yield Input(placeholder="~/loans/specimen-list.csv", id="f-file", classes="field")
-        yield Static("Saved mapping (optional)", classes="field-label")
-        yield Input(
-            placeholder="leave empty for Darwin Core headings", id="f-mapping", classes="field"
-        )
+        yield FieldLabel("File (path)", "e.g. ~/loans/specimen-list.csv")
+        yield Input(id="f-file", classes="field")
+        yield FieldLabel("Saved mapping (optional)", "empty: Darwin Core headings")
+        yield Input(id="f-mapping", classes="field")
         yield Static("", id="manifest-summary")
         yield DataTable(id="manifest-rows", cursor_type="row", zebra_stripes=True)
         yield Static("", id="outcome")

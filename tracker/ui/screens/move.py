@@ -14,8 +14,8 @@ class MoveScreen(FormScreen):
     TITLE = "Move an item"
     INTRO = "Scan the item, then the place it goes to."
     FIELDS: ClassVar[list[Field]] = [
-        Field("item", "Item", kind="id", placeholder="scan a specimen or vial"),
-        Field("to", "Move to", kind="id", placeholder="scan a location LC-"),
+        Field("item", "Item", kind="id", hint="scan a specimen or vial"),
+        Field("to", "Move to", kind="id", hint="scan a location LC-"),
         Field("note", "Note (optional)"),
     ]
 

@@ -21,6 +21,7 @@ from textual.widgets import DataTable, Footer, Static
 from tracker.domain import precision
 from tracker.domain.errors import TrackerError
 from tracker.present.bars import flag_cell, usage_bar
+from tracker.present.loans import sampled_of
 from tracker.services.read.loan_lines import LoanLine
 from tracker.ui.context import database, tracker_app
 from tracker.ui.messages import Refused, refusal_text
@@ -118,7 +119,7 @@ class OverviewScreen(Screen[None]):
                     usage_bar(line.used_fraction, 8),
                 ),
                 due,
-                f"{line.sampled}/{line.specimens} sampled\n{line.on_hand} on hand",
+                f"{sampled_of(line.sampled, line.specimens)}\n{line.on_hand} on hand",
                 flag_cell(flags, FLAGS_WIDTH, 2),
                 height=2,
                 key=line.id,

@@ -14,9 +14,9 @@ class ReturnSpecimenScreen(FormScreen):
     TITLE = "Return a specimen"
     INTRO = "The specimen goes back to the lender: scan it and describe its condition."
     FIELDS: ClassVar[list[Field]] = [
-        Field("specimen", "Specimen", kind="id", placeholder="scan the specimen, SP-"),
-        Field("condition", "Condition at return", placeholder="as received; drill pit at core"),
-        Field("note", "Note (optional)", placeholder="courier parcel 1 of 1"),
+        Field("specimen", "Specimen", kind="id", hint="scan the specimen, SP-"),
+        Field("condition", "Condition at return", hint="e.g. as received; drill pit at core"),
+        Field("note", "Note (optional)", hint="e.g. courier parcel 1 of 1"),
     ]
 
     @staticmethod

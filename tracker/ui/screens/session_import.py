@@ -23,12 +23,12 @@ class ImportSessionScreen(FormScreen):
     TITLE = "Import an instrument session"
     INTRO = "The export file (CSV, TSV or XLSX) is read through a saved profile."
     FIELDS: ClassVar[list[Field]] = [
-        Field("file", "Export file (path)", placeholder="/data/run-2026-12-01.csv"),
-        Field("profile", "Mapping profile", placeholder="mc-ca"),
-        Field("name", "Session name", placeholder="Ca 2026-12-01"),
-        Field("instrument", "Instrument", placeholder="MC-ICP-MS 2"),
+        Field("file", "Export file (path)", hint="e.g. /data/run-2026-12-01.csv"),
+        Field("profile", "Mapping profile", hint="e.g. mc-ca"),
+        Field("name", "Session name", hint="e.g. Ca 2026-12-01"),
+        Field("instrument", "Instrument", hint="e.g. MC-ICP-MS 2"),
         Field("element", "Element", value="Ca"),
-        Field("bracketing-standard", "Bracketing standard", placeholder="SRM 915a"),
+        Field("bracketing-standard", "Bracketing standard", hint="e.g. SRM 915a"),
     ]
 
     class Profiles(Message):
