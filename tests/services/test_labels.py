@@ -137,6 +137,7 @@ def test_queue_by_hand_is_one_event_for_all_items(db: Database, counts: Counts) 
         (["{spec}"], RuleViolation, "items", "already has a label in the queue"),
         (["SP-99999-" + mod_37_2.calc_check_digit("SP99999")], InputError, "items", "no specimen"),
         ([], InputError, "items", "at least one"),
+        ([" , ,"], InputError, "items", "at least one"),
     ],
 )
 def test_queue_refusals_write_nothing(
@@ -174,6 +175,19 @@ def test_cancel_takes_labels_off_the_queue_with_one_event(db: Database, counts: 
     assert [r.status for r in handling.list_labels(db, everything=True)] == ["cancelled"]
     with pytest.raises(RuleViolation, match="no label in the queue"):
         handling.cancel_labels(db, "tech", {"items": [spec], "reason": "again"})
+
+
+def test_ids_typed_in_one_text_are_separated_by_commas(db: Database, counts: Counts) -> None:
+    loan = make.loan(db)
+    spec = make.specimen(db, loan)
+    other = make.specimen(db, loan)
+    before = counts()
+    answer = handling.cancel_labels(
+        db, "tech", {"items": f" {spec} ,, {other},", "reason": "mis-scan"}
+    )
+    assert answer.item.items == [spec, other]
+    assert counts()["ledger_head"] == before["ledger_head"] + 1
+    assert handling.list_labels(db) == []
 
 
 PREFIX = "HTTPS://LAB.EXAMPLE/T/"  # invented

@@ -60,11 +60,13 @@ class LabelView(View):
 
 
 def id_list(value: object) -> list[str]:
-    """One ID or several, as typed; at least one."""
-    items = [value] if isinstance(value, str) else list(value)  # type: ignore[call-overload]
-    if not items:
+    """One ID or several, as typed: a list, or one text with the IDs separated by commas
+    (as typed into a form); blanks between commas are ignored; at least one."""
+    given = [value] if isinstance(value, str) else list(value)  # type: ignore[call-overload]
+    items = [part.strip() for item in given for part in str(item).split(",")]
+    if not any(items):
         raise ValueError("name at least one ID")
-    return [str(item) for item in items]
+    return [item for item in items if item]
 
 
 def resolve_items(session: Session, texts: list[str]) -> list[Labelled]:

@@ -20,8 +20,7 @@ class CancelLabelsScreen(FormScreen):
 
     @staticmethod
     def service(db: Database, actor: str | None, values: dict[str, Any]) -> Done[Any]:
-        items = [part.strip() for part in str(values.get("items", "")).split(",")]
-        return handling.cancel_labels(db, actor, {**values, "items": [i for i in items if i]})
+        return handling.cancel_labels(db, actor, values)
 
     def after_save(self, done: Done[Any]) -> None:
         self.app.pop_screen()  # back to the queue, which reloads
