@@ -77,3 +77,32 @@ def test_an_item_s_view_reads_a_fixed_number_of_statements(db: Database, kind: s
     if kind not in ("aliquot", "position", "cut"):  # one column, one cut each here
         assert sizes[1] > sizes[0], sizes  # the larger tree really is larger
     assert reads[0] == reads[1], (kind, reads, sizes)
+
+
+def test_a_cut_s_origins_are_named_as_people_know_them(db: Database) -> None:
+    """Each step above a cut says the name a person knows it by beside its ID: the lender's
+    institution code, the loan's reference, the specimen's catalogue number, what each vial
+    holds; and the item screen and ``tracker show`` say it the same way."""
+    from tracker.present.items import ancestry
+    from tracker.services.loans import lending, specimens
+
+    tree = _grown(db, 1)
+    (lender,) = [v for v in lending.list_lenders(db) if v.id == tree.lender]
+    (loan,) = [v for v in lending.list_loans(db) if v.id == tree.loan]
+    (specimen,) = [v for v in specimens.list_specimens(db) if v.id == tree.specimen]
+    cut = lineage.show_item(db, tree.cut)
+    assert [a.id for a in cut.ancestors] == [
+        tree.lender,
+        tree.loan,
+        tree.specimen,
+        tree.powder,
+        tree.solution,
+        tree.aliquot,
+        tree.position,
+    ]
+    names = [a.name for a in cut.ancestors]
+    assert names[0] == (lender.institution_code or lender.name)
+    assert names[1:3] == [loan.reference, specimen.catalog_number]
+    assert names[3].endswith("powder") and names[4] == "solution"
+    assert names[5].endswith("aliquot") and names[6].startswith("column ")
+    assert ancestry(cut.ancestors).split(" › ")[2] == f"{names[2]} {tree.specimen}"

@@ -114,11 +114,16 @@ def override_text(o: OverrideView) -> str:
     )
 
 
+def ancestry(ancestors: list[Node]) -> str:
+    """Where an item came from, lender first, each step by its ID and the name people know
+    it by (``KFMNH LE-00001-4 › KF-2026-014 LN-00002-I``), or a dash for a lender."""
+    return " › ".join(f"{a.name} {a.id}" for a in ancestors) or "—"
+
+
 def item_detail(detail: ItemDetail) -> RenderableType:
     parts: list[RenderableType] = []
     if detail.ancestors:
-        path = " › ".join(f"{a.id} {a.label}" for a in detail.ancestors)
-        parts.append(Text(visible(f"from: {path}"), style="dim"))
+        parts.append(Text(visible(f"from: {ancestry(detail.ancestors)}"), style="dim"))
     if detail.location:
         parts.append(Text(visible(f"location: {detail.location}")))
     parts.append(lineage_tree(detail.item))

@@ -38,6 +38,7 @@ class Node(View):
     id: str
     kind: str
     label: str
+    name: str = ""  # the short name people know it by (``name_of``)
     status: str | None = None
     facts: ItemFacts | None = None
     children: list[Node] = Field(default_factory=list)
@@ -159,6 +160,7 @@ def node_of(row: HasPublicId, *, with_children: bool = True) -> Node:
         id=row.public_id,
         kind=kind,
         label=label_of(row),
+        name=name_of(row),
         status=status.value if status is not None else None,
         facts=facts_of(row),
         children=children,
@@ -210,6 +212,27 @@ def label_of(row: HasPublicId) -> str:
             return f"{row.name} cut"
     name = getattr(row, "name", None) or getattr(row, "code", None) or row.public_id
     return str(name)
+
+
+def name_of(row: HasPublicId) -> str:
+    """The few words people know an item by, said beside its ID in a chain of origins: a
+    lender's code, a loan's reference, a specimen's catalogue number, what a vial holds."""
+    match row:
+        case Lender():
+            return row.institution_code or row.name
+        case Loan():
+            return row.reference
+        case Specimen():
+            return row.catalog_number
+        case Powder():
+            return f"{row.tissue} powder"
+        case Solution():
+            return "solution"
+        case Aliquot():
+            return f"{row.purpose.value} aliquot"
+        case BatchPosition():
+            return f"column {row.slot} of {row.batch.name}"
+    return label_of(row)
 
 
 def load_tree(session: Session, row: HasPublicId) -> HasPublicId:

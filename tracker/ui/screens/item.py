@@ -15,7 +15,7 @@ from textual.widgets import DataTable, Footer, Static, TabbedContent, TabPane, T
 from textual.widgets.tree import TreeNode
 
 from tracker.domain.errors import TrackerError
-from tracker.present.items import node_text
+from tracker.present.items import ancestry, node_text
 from tracker.services.core.views import Done
 from tracker.services.labels import handling
 from tracker.services.read import lineage
@@ -98,12 +98,11 @@ class ItemScreen(TabKeys, Screen[None]):
     def on_item_screen_loaded(self, event: Loaded) -> None:
         detail = event.detail
         self.item_id = detail.item.id
-        path = " › ".join(f"{a.id}" for a in detail.ancestors)
         head = Text()
         head.append(shown(f"{detail.item.id}  {detail.item.label}", style="bold"))
         if detail.item.status:
             head.append(f"  · {detail.item.status.replace('_', ' ')}")
-        head.append(shown(f"\nfrom: {path or '—'}\nwhere: {detail.location or '—'}"))
+        head.append(shown(f"\nfrom: {ancestry(detail.ancestors)}\nwhere: {detail.location or '—'}"))
         self.query_one("#item-head", Static).update(head)
         tree: Tree[str] = self.query_one("#lineage", Tree)
         tree.clear()
