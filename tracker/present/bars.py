@@ -77,23 +77,40 @@ def _severity(flag: str) -> int:
     return "✗⚠↩?•".index(symbol_of(flag))
 
 
-def flag_cell(flags: Sequence[str], width: int, lines: int = 1) -> Text:
-    """Flags for a narrow table cell, most serious first, one per line; ``+n`` counts the rest."""
+def flag_cell(flags: Sequence[str], width: int) -> Text:
+    """Every flag for a narrow table cell, most serious first, one per line; a flag wider
+    than the cell is wrapped at a space (indented under its words), never cut, so the row
+    is as tall as ``cell_height`` says."""
     if not flags:
         return Text("✓ ok", style="green")
-    ordered = sorted(flags, key=_severity)
-    shown = ordered[:lines]
-    rest = len(ordered) - len(shown)
     text = Text()
-    for index, flag in enumerate(shown):
+    for index, flag in enumerate(sorted(flags, key=_severity)):
         symbol = symbol_of(flag)
         style = "bold red" if symbol == "✗" else "yellow" if symbol in "⚠?" else ""
-        more = f" +{rest}" if rest and index == len(shown) - 1 else ""
-        entry = f"{symbol} {flag}"
-        if len(entry) + len(more) > width:
-            entry = entry[: width - len(more) - 1] + "…"
         if index:
             text.append("\n")
-        text.append(entry, style=style)
-        text.append(more, style="bold")
+        text.append("\n  ".join(_wrapped(f"{symbol} {flag}", width)), style=style)
     return text
+
+
+def cell_height(cell: Text | str) -> int:
+    """How many lines a table cell needs."""
+    plain = cell.plain if isinstance(cell, Text) else cell
+    return plain.count("\n") + 1
+
+
+def _wrapped(entry: str, width: int) -> list[str]:
+    """``entry`` in lines of at most ``width`` characters, continuation lines two narrower
+    (they are indented); a word longer than a line is split."""
+    lines: list[str] = []
+    rest = entry
+    room = max(width, 4)
+    while len(rest) > room:
+        cut = rest.rfind(" ", 0, room + 1)
+        if cut <= 2:  # no space to break at past the mark: the word is split
+            cut = room
+        lines.append(rest[:cut].rstrip())
+        rest = rest[cut:].lstrip()
+        room = max(width - 2, 2)
+    lines.append(rest)
+    return lines

@@ -16,18 +16,22 @@ from textual.widgets import DataTable, Footer, Input, Static, TabbedContent, Tab
 
 from tracker.domain import precision
 from tracker.domain.errors import TrackerError
-from tracker.present.bars import flag_cell, flag_text, usage_bar
+from tracker.present.bars import flag_text, usage_bar
 from tracker.present.items import override_text
 from tracker.services.loans import planning
 from tracker.services.loans.planning import Plan
 from tracker.services.read import lineage, reconcile
 from tracker.services.read.lineage import ItemDetail
-from tracker.services.read.reconcile import LoanLine
+from tracker.services.read.reconcile import LoanLine, SpecimenLine
 from tracker.ui.context import database, tracker_app
 from tracker.ui.messages import Refused, refusal_text
 from tracker.ui.plain import shown
 from tracker.ui.screens.tabs import TabKeys, tab_keys
+from tracker.ui.widgets import flagged_rows
+from tracker.ui.widgets.flagged_rows import FlaggedRow
 from tracker.ui.widgets.operator_bar import OperatorBar
+
+SPECIMEN_COLUMNS = ("Specimen", "Catalogue no.", "Status", "Drilled / permitted")
 
 
 class LoanScreen(TabKeys, Screen[None]):
@@ -55,6 +59,7 @@ class LoanScreen(TabKeys, Screen[None]):
     def __init__(self, loan: str) -> None:
         super().__init__()
         self.loan = loan
+        self.flagged: list[FlaggedRow] = []  # the specimens' rows, refitted on a resize
 
     def compose(self) -> ComposeResult:
         yield OperatorBar(f"Loan {self.loan}")
@@ -74,16 +79,12 @@ class LoanScreen(TabKeys, Screen[None]):
         yield Static("", id="outcome")
         yield Footer(compact=True)
 
-    def on_mount(self) -> None:
+    def on_resize(self) -> None:
+        """Fill the table; the flags take the width the terminal leaves them."""
         table = self.query_one("#specimens", DataTable)
-        for label, width in (
-            ("Specimen", 10),
-            ("Catalogue no.", 13),
-            ("Status", 8),
-            ("Drilled / permitted", 24),
-            ("Flags", None),
-        ):
-            table.add_column(label, width=width)
+        flagged_rows.fill(table, SPECIMEN_COLUMNS, self.flagged, self.size.width)
+
+    def on_mount(self) -> None:
         self.load()
 
     def on_screen_resume(self) -> None:
@@ -116,21 +117,9 @@ class LoanScreen(TabKeys, Screen[None]):
         head.append("  ")
         head.append_text(flag_text(line.flags))
         self.query_one("#loan-head", Static).update(head)
-        table = self.query_one("#specimens", DataTable)
-        table.clear()
-        for s in line.specimen_lines:
-            used = s.drilled_mg / s.permitted_mg if s.permitted_mg else None
-            bar = Text.assemble(
-                precision.used_of_limit(s.drilled_mg, s.permitted_mg), " ", usage_bar(used, 6)
-            )
-            table.add_row(
-                s.id,
-                shown(s.catalog_number),
-                s.status.replace("_", " "),
-                bar,
-                flag_cell(s.flags, 14),
-                key=s.id,
-            )
+        rows = [FlaggedRow(s.id, _specimen_cells(s), s.flags) for s in line.specimen_lines]
+        self.flagged = rows
+        self.on_resize()  # fills the table
         terms = Text()
         for t in detail.terms:
             terms.append(f"v{t.version} {t.kind} from {t.effective_from}: ", style="bold")
@@ -223,3 +212,12 @@ class LoanScreen(TabKeys, Screen[None]):
 def _more(mg: float | None) -> str:
     """What a loan's total still allows: ``no limit`` when it has none."""
     return "no limit" if mg is None else precision.mass_mg(mg)
+
+
+def _specimen_cells(s: SpecimenLine) -> tuple[str | Text, ...]:
+    """A specimen's ID, catalogue number, status, and what it used of its allowance."""
+    used = s.drilled_mg / s.permitted_mg if s.permitted_mg else None
+    bar = Text.assemble(
+        precision.used_of_limit(s.drilled_mg, s.permitted_mg), " ", usage_bar(used, 6)
+    )
+    return (s.id, shown(s.catalog_number), s.status.replace("_", " "), bar)

@@ -20,15 +20,17 @@ from textual.widgets import DataTable, Footer, Static
 
 from tracker.domain import precision
 from tracker.domain.errors import TrackerError
-from tracker.present.bars import flag_cell, usage_bar
+from tracker.present.bars import usage_bar
 from tracker.present.loans import sampled_of
 from tracker.services.read.loan_lines import LoanLine
 from tracker.ui.context import database, tracker_app
 from tracker.ui.messages import Refused, refusal_text
 from tracker.ui.plain import shown
+from tracker.ui.widgets import flagged_rows
+from tracker.ui.widgets.flagged_rows import FlaggedRow
 from tracker.ui.widgets.operator_bar import OperatorBar
 
-FLAGS_WIDTH = 17  # the whole table fits 80 columns; wider terminals show more of each flag
+COLUMNS = ("Loan", "Allowance used", "Due", "Specimens")
 
 
 class OverviewScreen(Screen[None]):
@@ -41,6 +43,7 @@ class OverviewScreen(Screen[None]):
     def __init__(self) -> None:
         super().__init__()
         self.every_loan = False  # the open loans only, until asked for every loan
+        self.shown_lines: tuple[Sequence[LoanLine], dict[str, int]] = ((), {})
 
     class Loaded(Message):
         def __init__(self, lines: list[LoanLine], missing: dict[str, int]) -> None:
@@ -55,15 +58,7 @@ class OverviewScreen(Screen[None]):
         yield Footer(compact=True)
 
     def on_mount(self) -> None:
-        table = self.query_one("#loans", DataTable)
-        for label, key, width in (
-            ("Loan", "loan", 12),
-            ("Allowance used", "used", 17),
-            ("Due", "due", 10),
-            ("Specimens", "specimens", 11),
-            ("Flags", "flags", FLAGS_WIDTH),
-        ):
-            table.add_column(label, key=key, width=width)
+        flagged_rows.fill(self.query_one("#loans", DataTable), COLUMNS, [], self.size.width)
         if tracker_app(self).db is None:
             self.query_one("#loan-hint", Static).update("reading the open loans …")
         self.action_refresh()
@@ -96,34 +91,18 @@ class OverviewScreen(Screen[None]):
         self.post_message(self.Loaded(lines, missing))
 
     def on_overview_screen_loaded(self, event: Loaded) -> None:
+        self.shown_lines = (event.lines, event.missing)
         self._show(event.lines, event.missing)
+
+    def on_resize(self) -> None:
+        if self.shown_lines[0]:  # the flags' width follows the terminal's
+            self._show(*self.shown_lines)
 
     def _show(self, lines: Sequence[LoanLine], missing: dict[str, int]) -> None:
         table = self.query_one("#loans", DataTable)
         keep = table.cursor_row
-        table.clear()
-        for line in lines:
-            flags = list(line.flags)
-            if line.status == "open" and missing.get(line.id):
-                flags.append(f"results missing: {missing[line.id]}")
-            due = (
-                f"{line.due_on}\n{line.days_left} d left"
-                if line.status == "open"
-                else f"{line.due_on}\n{line.status}"
-            )
-            table.add_row(
-                shown(f"{line.reference}\n{line.lender_code}", style="bold"),
-                Text.assemble(
-                    precision.used_of_limit(line.drilled_mg, line.max_total_mass_mg),
-                    "\n",
-                    usage_bar(line.used_fraction, 8),
-                ),
-                due,
-                f"{sampled_of(line.sampled, line.specimens)}\n{line.on_hand} on hand",
-                flag_cell(flags, FLAGS_WIDTH, 2),
-                height=2,
-                key=line.id,
-            )
+        rows = [FlaggedRow(line.id, _cells(line), _flags(line, missing)) for line in lines]
+        flagged_rows.fill(table, COLUMNS, rows, self.size.width, least_height=2)
         if table.row_count:
             table.move_cursor(row=min(keep, table.row_count - 1))
         which = "loans · a: open loans only" if self.every_loan else "open loans · a: all loans"
@@ -145,3 +124,30 @@ class OverviewScreen(Screen[None]):
             key = table.coordinate_to_cell_key(table.cursor_coordinate).row_key.value
             if key:
                 tracker_app(self).open_id(key)
+
+
+def _cells(line: LoanLine) -> tuple[Text | str, ...]:
+    """A loan's reference and lender, allowance used, due date and specimens, two lines each."""
+    due = (
+        f"{line.due_on}\n{line.days_left} d left"
+        if line.status == "open"
+        else f"{line.due_on}\n{line.status}"
+    )
+    return (
+        shown(f"{line.reference}\n{line.lender_code}", style="bold"),
+        Text.assemble(
+            precision.used_of_limit(line.drilled_mg, line.max_total_mass_mg),
+            "\n",
+            usage_bar(line.used_fraction, 8),
+        ),
+        due,
+        f"{sampled_of(line.sampled, line.specimens)}\n{line.on_hand} on hand",
+    )
+
+
+def _flags(line: LoanLine, missing: dict[str, int]) -> list[str]:
+    """The loan's flags, and how many of its drilled specimens still have no result."""
+    flags = list(line.flags)
+    if line.status == "open" and missing.get(line.id):
+        flags.append(f"results missing: {missing[line.id]}")
+    return flags

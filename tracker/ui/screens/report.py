@@ -27,16 +27,21 @@ from tracker.domain import precision
 from tracker.domain.errors import InputError, TrackerError
 from tracker.output import report_files
 from tracker.output.report_files import WrittenReport
-from tracker.present.bars import flag_cell, flag_text
+from tracker.present.bars import flag_text
 from tracker.services.read import reports
 from tracker.services.read.report_views import ReturnReport, SpecimenEntry
 from tracker.ui.context import database, operator, tracker_app
 from tracker.ui.messages import Refused, refusal_text
 from tracker.ui.plain import shown
+from tracker.ui.widgets import flagged_rows
+from tracker.ui.widgets.flagged_rows import FlaggedRow
 from tracker.ui.widgets.operator_bar import OperatorBar
 from tracker.ui.widgets.outcome import show_outcome
 
 FATES = (("destroyed", "destroyed"), ("retained", "retained"), ("consumed", "used up"))
+
+
+REPORT_COLUMNS = ("Specimen", "Status", "Drilled · returned")
 
 
 class ReportScreen(Screen[None]):
@@ -59,6 +64,7 @@ class ReportScreen(Screen[None]):
     def __init__(self, loan: str) -> None:
         super().__init__()
         self.loan = loan
+        self.flagged: list[FlaggedRow] = []  # the specimens' rows, refitted on a resize
         self.report: ReturnReport | None = None
 
     def compose(self) -> ComposeResult:
@@ -79,18 +85,12 @@ class ReportScreen(Screen[None]):
         yield Static("", id="outcome")
         yield Footer(compact=True)
 
-    def on_mount(self) -> None:
+    def on_resize(self) -> None:
+        """Fill the table; the flags take the width the terminal leaves them."""
         table = self.query_one("#report-specimens", DataTable)
-        for label, width in (
-            ("Specimen", 10),
-            ("Catalogue no.", 14),
-            ("Status", 9),
-            ("Drilled", 18),
-            ("Returned", 11),
-            ("Results", 7),
-            ("Flags", None),
-        ):
-            table.add_column(label, width=width)
+        flagged_rows.fill(table, REPORT_COLUMNS, self.flagged, self.size.width)
+
+    def on_mount(self) -> None:
         self.build()
 
     def action_reload(self) -> None:
@@ -110,10 +110,9 @@ class ReportScreen(Screen[None]):
         title = f"Return report {event.report.loan['reference']}"
         self.query_one(".bar-title", Static).update(shown(title))
         self.query_one("#report-head", Static).update(_head(event.report))
-        table = self.query_one("#report-specimens", DataTable)
-        table.clear()
-        for entry in event.report.specimens:
-            table.add_row(*_row(entry), key=entry.id)
+        rows = [FlaggedRow(e.id, _row(e), e.flags) for e in event.report.specimens]
+        self.flagged = rows
+        self.on_resize()  # fills the table
         self.query_one("#report-totals", Static).update(_totals(event.report))
 
     def action_write(self) -> None:
@@ -180,16 +179,15 @@ def _head(report: ReturnReport) -> Text:
 
 
 def _row(entry: SpecimenEntry) -> tuple[str | Text, ...]:
+    """Two lines a cell, so the flags keep room at 80 columns: the specimen and its catalogue
+    number, its status and results, powder drilled and returned."""
     drilled = precision.milligrams(entry.drilled_mg, entry.drilled_u_mg) if entry.sampled else "—"
     returned = sum(p.left_mg for p in entry.powders if p.status == "returned")
+    back = precision.milligrams(returned) if entry.powders else "—"
     return (
-        entry.id,
-        shown(entry.catalog_number),
-        entry.status.replace("_", " "),
-        drilled,
-        precision.milligrams(returned) if entry.powders else "—",
-        str(len(entry.results)),
-        flag_cell(entry.flags, 30),
+        shown(f"{entry.id}\n{entry.catalog_number}"),
+        f"{entry.status.replace('_', ' ')}\n{len(entry.results)} result(s)",
+        f"{drilled}\n{back} back",
     )
 
 

@@ -1,0 +1,54 @@
+"""Table rows whose last column holds flags: the flags get whatever width the other columns
+leave, and wrap to more lines rather than being cut, at 80 columns as on a wide terminal."""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+from rich.cells import cell_len
+from rich.text import Text
+from textual.widgets import DataTable
+
+from tracker.present.bars import cell_height, flag_cell
+
+LEAST_FLAGS_WIDTH = 13  # "⚠ near limit": narrower still, a flag wraps at every word
+SCROLL_BAR = 1  # the tables' vertical scroll bar (tracker.tcss)
+
+
+@dataclass(frozen=True)
+class FlaggedRow:
+    """A row's key, its cells before the flags, and its flags."""
+
+    key: str
+    cells: Sequence[Text | str]
+    flags: Sequence[str]
+
+
+def fill(
+    table: DataTable[Text | str],
+    labels: Sequence[str],
+    rows: Sequence[FlaggedRow],
+    width: int,
+    least_height: int = 1,
+) -> None:
+    """Replace ``table``'s columns and rows: every column as wide as its widest cell, and the
+    last ("Flags") column the rest of ``width``, its flags wrapped to fit."""
+    widths = [
+        max([len(label), *(_width(row.cells[n]) for row in rows)]) for n, label in enumerate(labels)
+    ]
+    room = width - sum(w + 2 * table.cell_padding for w in widths) - 2 * table.cell_padding
+    flags_width = max(LEAST_FLAGS_WIDTH, room - SCROLL_BAR)
+    table.clear(columns=True)
+    for label, column_width in zip(labels, widths, strict=True):
+        table.add_column(label, width=column_width)
+    table.add_column("Flags", width=flags_width)
+    for row in rows:
+        flags = flag_cell(row.flags, flags_width)
+        height = max(least_height, cell_height(flags), *(cell_height(c) for c in row.cells))
+        table.add_row(*row.cells, flags, height=height, key=row.key)
+
+
+def _width(cell: Text | str) -> int:
+    plain = cell.plain if isinstance(cell, Text) else cell
+    return max(cell_len(line) for line in plain.split("\n"))
