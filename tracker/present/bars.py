@@ -89,8 +89,13 @@ def flag_cell(flags: Sequence[str], width: int) -> Text:
         style = "bold red" if symbol == "✗" else "yellow" if symbol in "⚠?" else ""
         if index:
             text.append("\n")
-        text.append("\n  ".join(_wrapped(f"{symbol} {flag}", width)), style=style)
+        text.append("\n  ".join(wrapped(f"{symbol} {flag}", width)), style=style)
     return text
+
+
+def words_cell(words: Sequence[str], width: int) -> Text:
+    """Words for a narrow table cell, one entry per line, wrapped at a space, never cut."""
+    return Text("\n".join("\n  ".join(wrapped(entry, width)) for entry in words))
 
 
 def cell_height(cell: Text | str) -> int:
@@ -99,7 +104,7 @@ def cell_height(cell: Text | str) -> int:
     return plain.count("\n") + 1
 
 
-def _wrapped(entry: str, width: int) -> list[str]:
+def wrapped(entry: str, width: int) -> list[str]:
     """``entry`` in lines of at most ``width`` characters, continuation lines two narrower
     (they are indented); a word longer than a line is split."""
     lines: list[str] = []

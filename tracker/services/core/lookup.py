@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Callable, Iterable, Sequence
 from datetime import timedelta
 from typing import Any, TypeVar
 
@@ -108,6 +108,30 @@ def read_public_id(session: Session, field: str, text: str) -> PublicId:
     """What ``text`` names, read once (the lab's link prefix looked up only for a link);
     the rows are then found by the value read (:func:`get_named`), never by reading again."""
     return read_id(field, text, prefix_for(session, text))
+
+
+def rows_named(
+    session: Session,
+    publics: Iterable[PublicId],
+    options: Callable[[type[Any]], Sequence[Any]] = lambda model: (),
+) -> dict[PublicId, Any]:
+    """The rows many IDs name, a few queries for all of them (one per kind and 500 IDs, with
+    ``options(model)`` loading what the caller reads of each); an ID naming nothing is absent."""
+    wanted: dict[Kind, set[int]] = {}
+    for public in publics:
+        wanted.setdefault(public.kind, set()).add(public.number)
+    found: dict[PublicId, Any] = {}
+    for kind, numbers in wanted.items():
+        model = MODEL_BY_KIND[kind]
+        ordered = sorted(numbers)
+        for start in range(0, len(ordered), _CHUNK):
+            query = select(model).where(model.id.in_(ordered[start : start + _CHUNK]))
+            for row in session.scalars(query.options(*options(model))):
+                found[PublicId(kind, row.id)] = row
+    return found
+
+
+_CHUNK = 500  # IDs per IN list: well under every backend's limit on bound parameters
 
 
 def get_named(

@@ -32,7 +32,7 @@ from tracker.domain.models import (
     Specimen,
 )
 from tracker.domain.precision import grams, mass_mg
-from tracker.services.core.lookup import MODEL_BY_KIND, get_named, read_public_id, uri_prefix
+from tracker.services.core.lookup import get_named, read_public_id, rows_named, uri_prefix
 
 Labelled = (
     Specimen
@@ -94,28 +94,16 @@ def labelled_items(session: Session, field: str, refs: Iterable[str]) -> list[La
     wears no label is refused with ``field``.
     """
     named = [(ref, read_public_id(session, field, ref)) for ref in refs]
-    wanted: dict[type[Any], set[int]] = {}
-    for _, public in named:
-        wanted.setdefault(MODEL_BY_KIND[public.kind], set()).add(public.number)
-    found: dict[tuple[type[Any], int], Any] = {}
-    for model, numbers in wanted.items():
-        ordered = sorted(numbers)
-        for start in range(0, len(ordered), _CHUNK):
-            query = select(model).where(model.id.in_(ordered[start : start + _CHUNK]))
-            for row in session.scalars(query.options(*_parents(model))):
-                found[model, row.id] = row
+    found = rows_named(session, (public for _, public in named), _parents)
     rows: list[Labelled] = []
     for ref, public in named:
-        row = found.get((MODEL_BY_KIND[public.kind], public.number))
+        row = found.get(public)
         if row is None:  # no such row: refused the way every lookup refuses it
             row = get_named(session, field, ref, public)
         if not isinstance(row, LABELLED):
             raise InputError(field, ref, f"has no label; labels are printed for {LABELLED_KINDS}")
         rows.append(row)
     return rows
-
-
-_CHUNK = 500  # IDs per IN list: well under every backend's limit on bound parameters
 
 
 def labelled_item(session: Session, field: str, text: str) -> Labelled:

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from collections.abc import Iterable
+from contextlib import suppress
 from datetime import date
 from typing import Any
 
@@ -11,6 +13,7 @@ from sqlalchemy.orm import Load, Session, selectinload
 
 from tracker.db.database import Database
 from tracker.domain.base import HasPublicId
+from tracker.domain.ids import BadId, PublicId, parse_id
 from tracker.domain.models import (
     Aliquot,
     BatchPosition,
@@ -25,7 +28,7 @@ from tracker.domain.models import (
     Solution,
     Specimen,
 )
-from tracker.services.core.lookup import find_item
+from tracker.services.core.lookup import find_item, rows_named
 from tracker.services.core.views import DocumentView, EventView, TermsView, View
 from tracker.services.ledger.chain import listed
 from tracker.services.read.item_facts import ItemFacts, facts_of
@@ -233,6 +236,24 @@ def name_of(row: HasPublicId) -> str:
         case BatchPosition():
             return f"column {row.slot} of {row.batch.name}"
     return label_of(row)
+
+
+def names_of(db: Database, refs: Iterable[str]) -> dict[str, str]:
+    """The name people know each item by (``name_of``), for lists of IDs such as the
+    ledger's: read in a few queries for all of them. A text that is no ID (an event about
+    the lab as a whole names none) or names nothing has no entry."""
+    publics: dict[str, PublicId] = {}
+    for ref in refs:
+        with suppress(BadId):
+            publics[ref] = parse_id(ref)
+    with db.read_session() as session:
+        rows = rows_named(session, publics.values(), _named_with)
+        return {ref: name_of(rows[p]) for ref, p in publics.items() if p in rows}
+
+
+def _named_with(model: type[Any]) -> list[Any]:
+    """What ``name_of`` reads beyond the row itself."""
+    return [selectinload(BatchPosition.batch)] if model is BatchPosition else []
 
 
 def load_tree(session: Session, row: HasPublicId) -> HasPublicId:

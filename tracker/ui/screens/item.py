@@ -24,6 +24,7 @@ from tracker.ui.context import database, operator, tracker_app
 from tracker.ui.messages import Refused, refusal_text
 from tracker.ui.plain import shown
 from tracker.ui.screens.tabs import TabKeys, tab_keys
+from tracker.ui.widgets import event_rows
 from tracker.ui.widgets.operator_bar import OperatorBar
 
 # Which field of each bench form the item on screen fills.
@@ -53,9 +54,9 @@ class ItemScreen(TabKeys, Screen[None]):
     ]
 
     class Loaded(Message):
-        def __init__(self, detail: ItemDetail) -> None:
+        def __init__(self, detail: ItemDetail, names: dict[str, str]) -> None:
             super().__init__()
-            self.detail = detail
+            self.detail, self.names = detail, names
 
     class LabelQueued(Message):
         def __init__(self, done: Done[Any]) -> None:
@@ -65,6 +66,7 @@ class ItemScreen(TabKeys, Screen[None]):
     def __init__(self, item_id: str) -> None:
         super().__init__()
         self.item_id = item_id
+        self.shown: ItemScreen.Loaded | None = None  # what the screen shows, kept for a resize
 
     def compose(self) -> ComposeResult:
         yield OperatorBar(f"Item {self.item_id}")
@@ -78,10 +80,12 @@ class ItemScreen(TabKeys, Screen[None]):
         yield Footer(compact=True)
 
     def on_mount(self) -> None:
-        history = self.query_one("#history", DataTable)
-        for label in ("#", "when (UTC)", "who", "action", "item", "parent"):
-            history.add_column(label)
         self.load()
+
+    def on_resize(self) -> None:
+        """The history's action column takes the width the terminal leaves it."""
+        if self.shown is not None:
+            self._history(self.shown)
 
     def on_screen_resume(self) -> None:
         self.load()
@@ -89,11 +93,14 @@ class ItemScreen(TabKeys, Screen[None]):
     @work(thread=True, exclusive=True, group="load")
     def load(self) -> None:
         try:
-            detail = lineage.show_item(database(self), self.item_id)
+            db = database(self)
+            detail = lineage.show_item(db, self.item_id)
+            refs = {r for e in detail.history for r in (e.object, e.parent) if r}
+            names = lineage.names_of(db, refs)
         except TrackerError as error:
             self.post_message(Refused(error, "load"))
             return
-        self.post_message(self.Loaded(detail))
+        self.post_message(self.Loaded(detail, names))
 
     def on_item_screen_loaded(self, event: Loaded) -> None:
         detail = event.detail
@@ -110,17 +117,12 @@ class ItemScreen(TabKeys, Screen[None]):
         tree.root.data = detail.item.id
         _grow(tree.root, detail.item)
         tree.root.expand_all()
-        history = self.query_one("#history", DataTable)
-        history.clear()
-        for e in reversed(detail.history):
-            history.add_row(
-                str(e.seq),
-                e.at.strftime("%Y-%m-%d %H:%M"),
-                shown(e.operator),
-                shown(e.said),
-                shown(e.object),
-                shown(e.parent),
-            )
+        self.shown = event
+        self._history(event)
+
+    def _history(self, loaded: Loaded) -> None:
+        table = self.query_one("#history", DataTable)
+        event_rows.fill(table, loaded.detail.history[::-1], loaded.names, self.size.width)
 
     def on_refused(self, event: Refused) -> None:
         outcome = self.query_one("#outcome", Static)

@@ -20,9 +20,12 @@ from tracker.domain.ledger import VerifyReport
 from tracker.services.core.views import EventView
 from tracker.services.ledger import audit, chain, checkpoints
 from tracker.services.ledger.audit import AuditReport
+from tracker.services.read import lineage
 from tracker.ui.context import database, operator, tracker_app
 from tracker.ui.messages import Refused, refusal_text
 from tracker.ui.plain import shown
+from tracker.ui.widgets import event_rows
+from tracker.ui.widgets.event_rows import named
 from tracker.ui.widgets.operator_bar import OperatorBar
 
 LIMIT = 500
@@ -39,9 +42,9 @@ class LedgerScreen(Screen[None]):
     ]
 
     class Listed(Message):
-        def __init__(self, events: list[EventView]) -> None:
+        def __init__(self, events: list[EventView], names: dict[str, str]) -> None:
             super().__init__()
-            self.events = events
+            self.events, self.names = events, names
 
     class Progress(Message):
         def __init__(self, done: int, total: int) -> None:
@@ -79,11 +82,15 @@ class LedgerScreen(Screen[None]):
         yield Footer(compact=True)
 
     def on_mount(self) -> None:
-        table = self.query_one("#events", DataTable)
-        for label in ("#", "when (UTC)", "who", "action", "item", "parent"):
-            table.add_column(label)
+        self.listed = LedgerScreen.Listed([], {})  # the events shown, and their items' names
+        self.events: dict[str, EventView] = {}  # the same, by row key
         self.load("", "", "")
-        table.focus()
+        self.query_one("#events", DataTable).focus()
+
+    def on_resize(self) -> None:
+        """The action column takes the width the terminal leaves it."""
+        if self.listed.events:
+            self.on_ledger_screen_listed(self.listed)
 
     def action_filter(self) -> None:
         self.query_one("#filter-action", Input).focus()
@@ -101,32 +108,28 @@ class LedgerScreen(Screen[None]):
     @work(thread=True, exclusive=True, group="load")
     def load(self, action: str, who: str, item: str) -> None:
         try:
+            db = database(self)
             events = chain.recent_events(
-                database(self), LIMIT, action or None, operator=who or None, item=item or None
+                db, LIMIT, action or None, operator=who or None, item=item or None
             )
+            names = lineage.names_of(db, {r for e in events for r in (e.object, e.parent) if r})
         except TrackerError as error:
             self.post_message(Refused(error, "load"))
             return
-        self.post_message(self.Listed(events))
+        self.post_message(self.Listed(events, names))
 
     def on_ledger_screen_listed(self, event: Listed) -> None:
-        table = self.query_one("#events", DataTable)
-        table.clear()
+        self.listed = event
         self.events = {str(e.seq): e for e in event.events}
-        for e in event.events:
-            table.add_row(
-                str(e.seq),
-                e.at.strftime("%Y-%m-%d %H:%M"),
-                shown(e.operator),
-                shown(e.said),
-                shown(e.object),
-                shown(e.parent),
-                key=str(e.seq),
-            )
+        table = self.query_one("#events", DataTable)
+        keep = table.cursor_row
+        event_rows.fill(table, event.events, event.names, self.size.width)
+        if table.row_count:
+            table.move_cursor(row=min(keep, table.row_count - 1))
 
     @on(DataTable.RowHighlighted, "#events")
     def _show_payload(self, event: DataTable.RowHighlighted) -> None:
-        chosen = getattr(self, "events", {}).get(str(event.row_key.value))
+        chosen = self.events.get(str(event.row_key.value))
         if chosen is not None:
             payload = json.dumps(chosen.payload, ensure_ascii=False)[:300]
             where = f"{chosen.os_user}@{chosen.host}" + (
@@ -142,8 +145,11 @@ class LedgerScreen(Screen[None]):
                 if chosen.states_facts
                 else "states no row facts (recorded before they were kept)"
             )
+            about = named(chosen.object, self.listed.names) if chosen.object else "the lab"
+            if chosen.parent:
+                about += f" · from {named(chosen.parent, self.listed.names)}"
             self.query_one("#event-payload", Static).update(
-                shown(f"#{chosen.seq} {chosen.hash[:16]}… {signed} · {rows}\n{payload}")
+                shown(f"#{chosen.seq} {about} · {chosen.hash[:16]}… {signed} · {rows}\n{payload}")
             )
 
     def action_verify(self) -> None:
