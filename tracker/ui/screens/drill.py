@@ -35,9 +35,8 @@ PREVIEWED_FIELDS = ("specimen", "tissue", "tare", "gross", "readability")
 class DrillScreen(FormScreen):
     TITLE = "Drill a specimen"
     INTRO = (
-        "Weigh the empty powder vial (tare), drill, weigh it again (gross). The allowance "
-        "below follows every keystroke. Caution: drilling makes fine dust — use extraction "
-        "and protection as your institution's rules require."
+        "Tare the empty vial, drill, weigh it again (gross). Caution: drilling makes fine "
+        "dust — use extraction and protection as your institution's rules require."
     )
     FIELDS: ClassVar[list[Field]] = [
         Field("specimen", "Specimen", kind="id", hint="scan the specimen, SP-"),
@@ -60,6 +59,7 @@ class DrillScreen(FormScreen):
         self._timer: Timer | None = None
         self._seq = 0  # answers to older drafts arrive late sometimes: only the newest counts
         self.preview_view: DrillPreview | None = None
+        self.refused = False  # a save's refusal is on screen under the form
 
     @staticmethod
     def service(db: Database, actor: str | None, values: dict[str, Any]) -> Done[Any]:
@@ -81,6 +81,9 @@ class DrillScreen(FormScreen):
 
     @on(Input.Changed)
     def _typed(self, event: Input.Changed) -> None:
+        if self.refused and self.preview_view is not None:  # the refusal is cleared: say it here
+            self.show_preview(render_preview(self.preview_view))
+        self.refused = False
         if event.input.id and event.input.id.removeprefix("f-") in PREVIEWED_FIELDS:
             self.schedule_preview()
 
@@ -114,6 +117,13 @@ class DrillScreen(FormScreen):
         """A preview's refusal belongs to the preview, never to the form's outcome line
         (the form's own handler, called after this one, says a save's refusal)."""
         if not event.purpose.startswith("preview"):
+            self.refused = True  # the outcome line says the limits whole: the preview need not
+            if self.preview_view is not None:
+                self.show_preview(render_preview(self.preview_view, violations=False))
+                over = self.preview_view.violations
+                reason = self.query_one("#f-override-reason", Input)
+                if over and not reason.disabled:  # a manager may go on: the reason is next
+                    reason.focus()
             return
         event.prevent_default()
         event.stop()
@@ -130,7 +140,7 @@ class DrillScreen(FormScreen):
         tissue = self.query_one("#f-tissue", Input)
         if not tissue.value and len(event.preview.permitted_tissues) == 1:
             self.auto_fill(tissue, event.preview.tissue)  # the loan permits only this one
-        self.show_preview(render_preview(event.preview))
+        self.show_preview(render_preview(event.preview, violations=not self.refused))
 
     def show_preview(self, content: Text) -> None:
         preview = self.query_one("#preview", Static)
@@ -138,31 +148,38 @@ class DrillScreen(FormScreen):
         preview.set_class(True, "-shown")
 
 
-def render_preview(view: DrillPreview) -> Text:
+def render_preview(view: DrillPreview, violations: bool = True) -> Text:
+    """The allowance as the drill would leave it; ``violations`` off while a refusal under
+    the form already says each exceeded limit in full (the form keeps its room at 80×24)."""
     text = Text()
     text.append(f"Allowance · {view.loan} terms v{view.terms_version} · ", style="bold")
     text.append(shown(f"{view.catalog_number} ({view.status.replace('_', ' ')})\n"))
     text.append(f"  permitted: {', '.join(view.permitted_tissues)} · due {view.due_on}\n")
-    if view.mass_mg is not None:
-        text.append(f"  this drill: {precision.mass_mg(view.mass_mg, view.mass_u_mg)}\n")
     for line in (view.per_specimen, view.loan_total):
         text.append_text(_limit(line, view.mass_mg))
+    counts = []  # one line for the drill and the specimen count: the form keeps its room
+    if view.mass_mg is not None:
+        counts.append(f"this drill {precision.mass_mg(view.mass_mg, view.mass_u_mg)}")
     if view.max_specimens_sampled is not None:
-        more = "" if view.already_sampled else " (+1 with this one)"
-        text.append(
-            f"  specimens sampled: {view.sampled_specimens} "
-            f"(max {view.max_specimens_sampled}){more}\n"
+        more = "" if view.already_sampled else " +1 with this one"
+        counts.append(
+            f"specimens sampled {view.sampled_specimens} (max {view.max_specimens_sampled}){more}"
         )
+    if counts:
+        text.append(f"  {' · '.join(counts)}\n")
     if view.problem:
         text.append(shown(f"✗ {view.problem}\n", style="bold red"))
-    for violation in view.violations:
+    for violation in view.violations if violations else ():
         text.append(f"✗ over: {violation}\n", style="bold red")
-    if view.violations:
+    if view.violations and not violations:
+        text.append(f"✗ over {len(view.violations)} limit(s): see below\n", style="bold red")
+    elif view.violations:
         text.append("Ctrl+S will be refused unless a manager gives an override reason.\n")
     elif view.within:
         text.append("✓ within the loan's terms\n", style="green")
     else:
         text.append("… type tare and gross to check the drill\n", style="dim")
+    text.rstrip()
     return text
 
 

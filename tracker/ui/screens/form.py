@@ -15,7 +15,7 @@ from rich.text import Text
 from textual import work
 from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
-from textual.containers import VerticalScroll
+from textual.containers import Horizontal, VerticalScroll
 from textual.message import Message
 from textual.screen import Screen
 from textual.widgets import Footer, Input, Static
@@ -91,8 +91,9 @@ class FormScreen(Screen[None]):
         note = "🔒 managers only" if spec.manager_only else ""
         if locked:
             note = f"🔒 locked: {tracker_app(self).operator} is not a manager"
-        yield FieldLabel(spec.label, "" if locked else spec.hint, note)
-        yield Input(value, id=f"f-{spec.name}", disabled=locked, classes="field")
+        with Horizontal(classes="field-row"):
+            yield FieldLabel(spec.label, "" if locked else spec.hint, note)
+            yield Input(value, id=f"f-{spec.name}", disabled=locked, classes="field", compact=True)
 
     def on_mount(self) -> None:
         first_empty = next((i for i in self.query(Input) if not i.value and not i.disabled), None)

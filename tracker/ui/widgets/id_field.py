@@ -11,7 +11,7 @@ from typing import TYPE_CHECKING
 
 from textual import work
 from textual.app import ComposeResult
-from textual.containers import Vertical
+from textual.containers import Horizontal, Vertical
 from textual.message import Message
 from textual.timer import Timer
 from textual.widgets import Input, Static
@@ -77,8 +77,9 @@ class IdField(Vertical):
         self.view: ScanView | None = None
 
     def compose(self) -> ComposeResult:
-        yield FieldLabel(self.label, self._hint_text)
-        yield IdInput(self._value, id=f"f-{self.field_name}")
+        with Horizontal(classes="field-row"):
+            yield FieldLabel(self.label, self._hint_text)
+            yield IdInput(self._value, id=f"f-{self.field_name}", compact=True)
         yield Static("", classes="field-hint")
 
     def on_mount(self) -> None:
