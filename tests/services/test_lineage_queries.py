@@ -106,3 +106,17 @@ def test_a_cut_s_origins_are_named_as_people_know_them(db: Database) -> None:
     assert names[3].endswith("powder") and names[4] == "solution"
     assert names[5].endswith("aliquot") and names[6].startswith("column ")
     assert ancestry(cut.ancestors).split(" › ")[2] == f"{names[2]} {tree.specimen}"
+
+
+def test_names_of_many_ids_in_a_few_queries(db: Database) -> None:
+    """The ledger names the items of hundreds of events at once: a few statements for all,
+    a text that is no ID (an event about the lab) or names nothing is left out, not refused."""
+    from tracker.domain.ids import Kind, format_id
+
+    tree = _grown(db, 2)
+    chain = lineage.show_item(db, tree.cut).ancestors
+    refs = [a.id for a in chain] + [tree.cut, "", "settings", format_id(Kind.SPECIMEN, 99999)]
+    with counted(db) as statements:
+        names = lineage.names_of(db, refs)
+    assert names == {a.id: a.name for a in chain} | {tree.cut: "Ca cut"}
+    assert len(statements) <= len(chain) + 3  # one per kind, the position's batch, the prefix

@@ -357,6 +357,26 @@ async def test_ledger_verified_with_its_head_hash(lab: Lab) -> None:
         assert screen.query_one("#verify-progress", ProgressBar).percentage == 1.0
 
 
+async def test_ledger_rows_name_their_items_and_fit_the_bench_screen(lab: Lab) -> None:
+    """Each event's action is said in words with the name of its item (a specimen by its
+    catalogue number), and the table is no wider than 80 columns."""
+    specimens = {s.public_id: s.catalog_number for s in query(lab, select(Specimen))}
+    async with lab.app().run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        await pilot.press("f6")
+        await settle(pilot)
+        table = screen_as(pilot, LedgerScreen).query_one("#events", DataTable)
+        assert table.virtual_size.width <= table.scrollable_content_region.width
+        about_specimens = 0
+        for n in range(table.row_count):
+            *_, item, action = (str(cell) for cell in table.get_row_at(n))
+            if item in specimens:
+                about_specimens += 1
+                words = " ".join(line.strip() for line in action.split("\n"))
+                assert words.endswith(f" · {specimens[item]}"), (item, words)
+        assert about_specimens >= len(specimens)  # each was at least added to its loan
+
+
 async def test_ledger_screen_audits_the_books_in_a_worker(lab: Lab) -> None:
     """`a` replays the ledger and holds every row against it, with the progress bar; a value
     changed behind the ledger's back is named."""
