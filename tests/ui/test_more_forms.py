@@ -28,8 +28,10 @@ from tracker.domain.models import (
     LabelStatus,
     Loan,
     LoanStatus,
+    Location,
     Powder,
     Shipment,
+    Specimen,
 )
 from tracker.ui.app import PALETTE, bench_form
 from tracker.ui.screens.confirm import ConfirmScreen
@@ -202,3 +204,27 @@ async def test_chosen_labels_print_and_one_is_cancelled_with_its_reason(lab: Lab
     assert {label.item_ref for label in printed} >= set(queued[:2])
     still = query(lab, select(Label).where(Label.status == LabelStatus.QUEUED).order_by(Label.id))
     assert [label.item_ref for label in still] == queued[3:]
+
+
+async def test_a_place_is_picked_by_typing_the_start_of_its_name(lab: Lab) -> None:
+    """A location field offers the lab's places by name as the person types; → takes the
+    offer, and the move is recorded to that place."""
+    (place,) = query(lab, select(Location).where(Location.name == "Desiccator 3"))
+    start = head(lab)
+    async with lab.app("priya").run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        await pilot.app.run_action("bench('move')")
+        await settle(pilot)
+        form = screen_as(pilot, FormScreen)
+        await type_into(pilot, "item", "SP-00004-Q")
+        await type_into(pilot, "to", "desic")
+        await settle(pilot)
+        await pilot.press("right")  # take the name offered
+        assert form.query_one("#f-to", Input).value == "Desiccator 3"
+        await pilot.press("ctrl+s")
+        await settle(pilot)
+    (event,) = events_after(lab, start)
+    assert event.action == "item.moved"
+    assert json.loads(event.payload)["to"].endswith(" / Desiccator 3")  # the place's path
+    (specimen,) = query(lab, select(Specimen).where(Specimen.catalog_number == "KFMNH P 20311"))
+    assert specimen.location_id == place.id

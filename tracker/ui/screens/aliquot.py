@@ -19,7 +19,7 @@ class AliquotScreen(FormScreen):
         Field("gross", "Vial gross", hint="e.g. 2.02500 g"),
         Field("readability", "Balance readability", value="0.01 mg"),
         Field("purpose", "Purpose", value="isotopes", hint="isotopes or archive"),
-        Field("location", "Put it in (optional)", kind="id", hint="scan a location LC-"),
+        Field("location", "Put it in (optional)", kind="location"),
     ]
 
     @staticmethod

@@ -19,7 +19,7 @@ class CheckInScreen(FormScreen):
     FIELDS: ClassVar[list[Field]] = [
         Field("specimen", "Specimen", kind="id", hint="scan the specimen, e.g. SP-00011-S"),
         Field("condition", "Condition as received", hint="e.g. complete; crown tip chipped"),
-        Field("location", "Put it in (optional)", kind="id", hint="scan a location LC-"),
+        Field("location", "Put it in (optional)", kind="location"),
     ]
 
     @staticmethod

@@ -24,7 +24,7 @@ class DissolveScreen(FormScreen):
         Field("vial-gross", "Vial gross (with solution)", hint="e.g. 6.1234 g"),
         Field("readability", "Balance readability", value="0.1 mg"),
         Field("powder-taken", "Powder taken (empty: all)", hint="e.g. 2.015 mg"),
-        Field("location", "Put it in (optional)", kind="id", hint="scan a location LC-"),
+        Field("location", "Put it in (optional)", kind="location"),
     ]
 
     @staticmethod

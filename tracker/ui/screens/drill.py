@@ -45,7 +45,7 @@ class DrillScreen(FormScreen):
         Field("tare", "Vial tare", hint="e.g. 1203.557 mg"),
         Field("gross", "Vial gross (with powder)", hint="e.g. 1206.118 mg"),
         Field("readability", "Balance readability", value="0.001 mg"),
-        Field("location", "Put the powder in (optional)", kind="id", hint="scan a location LC-"),
+        Field("location", "Put the powder in (optional)", kind="location"),
         Field("override-reason", "Override reason (over a limit)", manager_only=True),
     ]
 

@@ -40,7 +40,7 @@ class Field:
 
     name: str
     label: str
-    kind: str = "text"  # "id" for scannable IDs
+    kind: str = "text"  # "id" for scannable IDs, "location" for a place scanned or named
     hint: str = ""  # an example or how to fill it, shown beside the label (never in the field)
     value: str = ""
     manager_only: bool = False
@@ -84,8 +84,14 @@ class FormScreen(Screen[None]):
 
     def compose_field(self, spec: Field) -> ComposeResult:
         value = self.initial.get(spec.name, spec.value)
-        if spec.kind == "id":
-            yield IdField(spec.label, name=spec.name, value=value, hint=spec.hint)
+        if spec.kind in ("id", "location"):
+            yield IdField(
+                spec.label,
+                name=spec.name,
+                value=value,
+                hint=spec.hint or ("scan it, or type its name" if spec.kind == "location" else ""),
+                offers_locations=spec.kind == "location",
+            )
             return
         locked = spec.manager_only and not tracker_app(self).is_manager
         note = "🔒 managers only" if spec.manager_only else ""

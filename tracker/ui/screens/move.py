@@ -15,7 +15,7 @@ class MoveScreen(FormScreen):
     INTRO = "Scan the item, then the place it goes to."
     FIELDS: ClassVar[list[Field]] = [
         Field("item", "Item", kind="id", hint="scan a specimen or vial"),
-        Field("to", "Move to", kind="id", hint="scan a location LC-"),
+        Field("to", "Move to", kind="location"),
         Field("note", "Note (optional)"),
     ]
 

@@ -13,6 +13,7 @@ from textual import work
 from textual.app import ComposeResult
 from textual.containers import Horizontal, Vertical
 from textual.message import Message
+from textual.suggester import SuggestFromList
 from textual.timer import Timer
 from textual.widgets import Input, Static
 
@@ -67,9 +68,16 @@ class IdField(Vertical):
             return self.field
 
     def __init__(
-        self, label: str, *, name: str, value: str = "", hint: str = "scan or type an ID"
+        self,
+        label: str,
+        *,
+        name: str,
+        value: str = "",
+        hint: str = "scan or type an ID",
+        offers_locations: bool = False,
     ) -> None:
         super().__init__(classes="field id-field", id=f"field-{name}")
+        self.offers_locations = offers_locations  # typing a place's name completes it
         self.label, self.field_name = label, name
         self._value, self._hint_text = value, hint
         self._timer: Timer | None = None
@@ -85,6 +93,22 @@ class IdField(Vertical):
     def on_mount(self) -> None:
         if self._value:
             self.lookup(self._value)
+        if self.offers_locations:
+            self._offer_locations()
+
+    @work(thread=True, group="id-places")
+    def _offer_locations(self) -> None:
+        """The lab's places by name, offered as the person types (→ takes the offer)."""
+        from tracker.services.admin import setup
+
+        try:
+            names = sorted({place.name for place in setup.list_locations(database(self))})
+        except TrackerError:
+            return  # no offers; the field still takes an ID or a name
+        self.app.call_from_thread(self._suggest, names)
+
+    def _suggest(self, names: list[str]) -> None:
+        self.input.suggester = SuggestFromList(names, case_sensitive=False)
 
     @property
     def input(self) -> IdInput:
