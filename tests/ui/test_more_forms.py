@@ -23,6 +23,7 @@ from tests.ui.conftest import (
     until,
 )
 from tracker.domain.models import (
+    ContainerStatus,
     Correction,
     Label,
     LabelStatus,
@@ -228,3 +229,54 @@ async def test_a_place_is_picked_by_typing_the_start_of_its_name(lab: Lab) -> No
     assert json.loads(event.payload)["to"].endswith(" / Desiccator 3")  # the place's path
     (specimen,) = query(lab, select(Specimen).where(Specimen.catalog_number == "KFMNH P 20311"))
     assert specimen.location_id == place.id
+
+
+async def test_a_powder_kept_by_the_lab_with_the_lender_s_consent(lab: Lab) -> None:
+    (powder,) = query(
+        lab,
+        select(Powder)
+        .where(Powder.status == ContainerStatus.AVAILABLE)
+        .order_by(Powder.id)
+        .limit(1),
+    )
+    start = head(lab)
+    said = await fill_and_save(
+        lab,
+        "priya",
+        "dispose",
+        {
+            "item": powder.public_id,
+            "outcome": "retained",
+            "reason": "kept for a repeat run",
+            "permission": "letter of 2026-11-02",
+        },
+    )
+    assert "refused" not in said, said
+    (after,) = query(lab, select(Powder).where(Powder.id == powder.id))
+    assert after.status is ContainerStatus.RETAINED
+    (event,) = events_after(lab, start)
+    assert event.object_ref == powder.public_id and event.operator == "priya"
+    assert json.loads(event.payload)["reason"] == "kept for a repeat run"
+
+
+async def test_a_loan_with_specimens_on_hand_is_not_marked_returned(lab: Lab) -> None:
+    start = head(lab)
+    said = await fill_and_save(lab, "ines", "loan_returned", {"loan": KESTREL})
+    assert said.startswith("✗ refused: "), said
+    (loan,) = query(lab, select(Loan).where(Loan.reference == KESTREL))
+    assert loan.status is LoanStatus.OPEN
+    assert events_after(lab, start) == []
+
+
+async def test_a_returned_loan_closed_by_a_manager(lab: Lab) -> None:
+    start = head(lab)
+    said = await fill_and_save(
+        lab,
+        "ines",
+        "loan_close",
+        {"loan": "NMFI-25-033", "reason": "results reported to the lender on 2027-04-02"},
+    )
+    assert "refused" not in said, said
+    (loan,) = query(lab, select(Loan).where(Loan.reference == "NMFI-25-033"))
+    assert loan.status is LoanStatus.CLOSED
+    assert [e.action for e in events_after(lab, start)] == ["loan.closed"]

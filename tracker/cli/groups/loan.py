@@ -118,7 +118,7 @@ def loan_mark_returned(
 
 @app.command(
     "close",
-    epilog="Example: tracker --as amira loan close NMFI-25-033 "
+    epilog="Example: tracker --as ines loan close NMFI-25-033 "
     "--reason 'results reported to the lender on 2027-04-02'",
 )
 def loan_close(
