@@ -188,6 +188,51 @@ def run(
         raise typer.Exit(1)
 
 
+@app.command(
+    "page",
+    epilog="Example: python -m benchmarks page docs/performance.md --report report.json",
+)
+def rewrite_page(
+    ctx: typer.Context,
+    page: Annotated[Path, typer.Argument(help="The page a run wrote (docs/performance.md).")],
+    report: Annotated[
+        Path, Opt("--report", help="That run's report: `python -m benchmarks --json run …`.")
+    ],
+    previous: Annotated[
+        Path | None,
+        Opt("--previous", help="The page that run replaced, for a page that does not keep it."),
+    ] = None,
+) -> None:
+    """Write a performance page again from its run's saved report, with the reasons for
+    slower or missed figures recorded since; the figures, command and commit stay the run's."""
+    import json
+
+    from benchmarks.page import rewritten
+
+    text = _read(page, "page")
+    try:
+        data = json.loads(_read(report, "--report"))
+    except json.JSONDecodeError:
+        raise InputError("--report", str(report), "is not a run's JSON report") from None
+    try:
+        new = rewritten(text, data, _read(previous, "--previous") if previous else None)
+    except (KeyError, TypeError, IndexError):
+        raise InputError("--report", str(report), "is not a run's JSON report") from None
+    except ValueError as error:
+        raise InputError("page", str(page), str(error)) from None
+    written = outputs.write_new(page, new.encode(), "page", force=True)
+    if written.replaced is not None:  # the page replaced is in git's history
+        written.replaced.unlink()
+    emit(ctx, {"page": str(page)}, lambda: f"wrote {page} again, with today's reasons")
+
+
+def _read(path: Path, field: str) -> str:
+    try:
+        return path.read_text(encoding="utf-8")
+    except OSError as error:
+        raise InputError(field, str(path), f"cannot be read ({error.strerror})") from None
+
+
 def _only(only: str | None, backend: str) -> tuple[str, ...]:
     """The figures ``--only`` names (all when none): each a figure, one at least measured on
     the backend chosen ("cold" is measured on both)."""

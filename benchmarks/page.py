@@ -24,12 +24,18 @@ DATA_END = " -->"
 SLOWER = 1.10  # a figure 10 % or more worse than the previous page's counts as slower
 
 
-def page(report: dict[str, Any], command: str, previous: str | None) -> str:
+def page(
+    report: dict[str, Any], command: str, previous: str | None, measured_on: str | None = None
+) -> str:
     """The whole page: prose, this run's tables, what got slower since ``previous`` (the
-    page it replaces, if any), and this run's figures as data for the next run."""
+    page it replaces, if any), and this run's figures as data for the next run. The code
+    measured is the checkout's, unless ``measured_on`` names it (a page written again from
+    a run's saved report)."""
     intro = (HERE / "page_intro.md").read_text(encoding="utf-8").rstrip()
-    measured = f"Measured by `{command}` on the code of {commit()}."
-    kept = {"commit": commit(), "figures": _kept(report["figures"])}
+    code = measured_on or commit()
+    measured = f"Measured by `{command}` on the code of {code}."
+    before = figures_of(previous)
+    kept = {"commit": code, "figures": _kept(report["figures"]), "before": before}
     parts = [
         intro,
         measured,
@@ -38,7 +44,7 @@ def page(report: dict[str, Any], command: str, previous: str | None) -> str:
         _growth(report),
         _machine(report),
         _missed(report["figures"], reasons("missed.toml")),
-        _slower(figures_of(previous), report["figures"], reasons()),
+        _slower(before, report["figures"], reasons()),
         DATA_BEGIN + json.dumps(kept, sort_keys=True) + DATA_END,
     ]
     return "\n\n".join(p for p in parts if p) + "\n"
@@ -71,6 +77,22 @@ def figures_of(text: str | None) -> dict[str, Any] | None:
     data = text.rsplit(DATA_BEGIN, 1)[1].split(DATA_END, 1)[0]
     kept: dict[str, Any] = json.loads(data)
     return kept
+
+
+def rewritten(text: str, report: dict[str, Any], previous: str | None) -> str:
+    """``text`` (a page a run wrote) written again from that run's saved ``report``, with
+    the reasons recorded since: the figures, the command and the commit stay the run's. The
+    page it replaced is the one it kept (or ``previous``, for pages from before that)."""
+    kept = figures_of(text)
+    if kept is None:
+        raise ValueError("was not written by a benchmark run")
+    if _kept(report["figures"]) != kept["figures"]:
+        raise ValueError("holds other figures than the report: it was written by another run")
+    line = text.split("Measured by `", 1)[1].split("\n", 1)[0]
+    command, code = line.split("` on the code of ", 1)
+    before = kept.get("before")
+    earlier = DATA_BEGIN + json.dumps(before) + DATA_END if before else previous
+    return page(report, command, earlier, measured_on=code.removesuffix("."))
 
 
 def reasons(name: str = "reasons.toml") -> dict[str, str]:

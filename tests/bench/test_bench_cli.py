@@ -344,3 +344,42 @@ def test_a_figure_is_run_repeat_times_unless_its_first_run_is_long() -> None:
     assert calls == ["ours", "floor"] * 3  # alternating
     runs, floors = alternated(3, lambda: ours(LONG_RUN_S + 1), floor, lambda run: run)
     assert (len(runs), len(floors)) == (1, 1)
+
+
+@pytest.mark.slow
+def test_a_page_written_again_from_its_run_s_report_gains_the_reasons_given_since(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    out, saved, before = (tmp_path / n for n in ("perf.md", "report.json", "before.md"))
+    args = ("run", "--scale", "0.002", "--backend", "sqlite", "--repeat", "1", "--only")
+    run = bench(*args, "reconcile", "--cache", str(tmp_path), "--page", str(out), as_json=True)
+    assert run.exit_code in (0, 1), run.stderr
+    saved.write_text(run.stdout, encoding="utf-8")
+    first = out.read_text(encoding="utf-8")
+    kept = page.figures_of(first)
+    assert kept is not None
+    kept["figures"]["reconcile@0.002"]["measured"] = 1e-9  # the run before was far faster
+    before.write_text(f"{page.DATA_BEGIN}{json.dumps(kept)}{page.DATA_END}\n", encoding="utf-8")
+    told = {"reconcile": "a reason a person wrote after the run"}
+    recorded = page.reasons
+    monkeypatch.setattr(
+        page,
+        "reasons",
+        lambda name="reasons.toml": told if name == "reasons.toml" else recorded(name),
+    )
+    again = bench("page", str(out), "--report", str(saved), "--previous", str(before))
+    assert again.exit_code == 0, again.stderr
+    text = out.read_text(encoding="utf-8")
+    assert "| a reason a person wrote after the run |" in text
+    measured_line = next(line for line in first.splitlines() if line.startswith("Measured by"))
+    assert measured_line in text  # the run's command and commit, not today's checkout
+    tables = first.split(page.DATA_BEGIN, 1)[0].rstrip()  # nothing slower on the first page
+    assert text.startswith(tables)  # the run's figures, unchanged
+    # the page now keeps the run it replaced: written again, it needs no --previous
+    assert bench("page", str(out), "--report", str(saved)).exit_code == 0
+    assert "| a reason a person wrote after the run |" in out.read_text(encoding="utf-8")
+    other = json.loads(run.stdout)
+    other["figures"][0]["measured"] *= 2  # a report of another run
+    saved.write_text(json.dumps(other), encoding="utf-8")
+    refused = bench("page", str(out), "--report", str(saved))
+    assert refused.exit_code == 2 and "another run" in refused.stderr, refused.stderr
