@@ -11,7 +11,7 @@ from tests.conftest import snapshot_counts
 from tests.ui.conftest import Lab, events_after, head, query, screen_as, settle, text_of, type_into
 from tracker.domain.models import Aliquot, BatchPosition, Label, LabelStatus
 from tracker.services.bench import chemistry
-from tracker.ui.app import PALETTE, bench_form
+from tracker.ui.app import PALETTE, TrackerApp, bench_form
 from tracker.ui.screens.batch import BatchScreen
 from tracker.ui.screens.batch_forms import RemovePositionScreen
 from tracker.ui.screens.confirm import ConfirmScreen
@@ -33,7 +33,9 @@ def _load_spare(lab: Lab) -> str:
 
 async def _remove_highlighted(pilot: Pilot[None], position: str, reason: str) -> BatchScreen:
     """On the batch screen: highlight ``position``, Ctrl+D, type the reason, save, say yes."""
-    pilot.app.open_id(BATCH)
+    app = pilot.app
+    assert isinstance(app, TrackerApp)
+    app.open_id(BATCH)
     await settle(pilot)
     screen = screen_as(pilot, BatchScreen)
     table = screen.query_one("#positions", DataTable)

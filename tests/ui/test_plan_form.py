@@ -35,9 +35,7 @@ BY_HAND: dict[str, Any] = {
     "margin_percent": 35,
     "aliquot_share": 0.2,
     "min_powder_mg": 0.8,
-    "analyses": [
-        {"element": "Ca", "ug_per_analysis": 30, "replicates": 2, "expected_yield": 0.8}
-    ],
+    "analyses": [{"element": "Ca", "ug_per_analysis": 30, "replicates": 2, "expected_yield": 0.8}],
 }
 
 
@@ -74,9 +72,7 @@ async def test_a_plan_with_every_option_typed_matches_the_service(lab: Lab) -> N
     db = lab.open()
     try:
         answer = planning.plan(db, BY_HAND)
-        by_default = planning.plan(
-            db, {"target": KESTREL, "analyses": [{"ug_per_analysis": 30}]}
-        )
+        by_default = planning.plan(db, {"target": KESTREL, "analyses": [{"ug_per_analysis": 30}]})
     finally:
         db.close()
     assert shown == plan_text(answer).plain
