@@ -26,6 +26,8 @@ from tracker.services.bench.chemistry import (
     AddPosition,
     NewBatch,
     batch_payload,
+    check_loadable,
+    next_slot,
     opened_batch,
     position_payload,
 )
@@ -105,13 +107,13 @@ def create_batch(ctx: Ctx, args: dict[str, Any]) -> ColumnBatch:
 def add_position(ctx: Ctx, args: dict[str, Any]) -> BatchPosition:
     request = parse(AddPosition, args)
     batch = ctx.state.get(ColumnBatch, "batch", request.batch)
-    slot = 1 + max((p.slot for p in batch.positions), default=0)
-    position = BatchPosition(batch_id=batch.id, slot=slot, kind=request.kind, created_at=ctx.now)
+    position = BatchPosition(
+        batch_id=batch.id, slot=next_slot(batch), kind=request.kind, created_at=ctx.now
+    )
     holds = None
     if request.aliquot:
         aliquot = ctx.state.get(Aliquot, "aliquot", request.aliquot)
-        if aliquot.status is not ContainerStatus.AVAILABLE or aliquot.positions:
-            raise RuleViolation("aliquot", aliquot.public_id, "is already used or not available")
+        check_loadable(aliquot)
         on_column_after(batch, aliquot)
         element = aliquot_element(aliquot, batch.element)
         if element is None:

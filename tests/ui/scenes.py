@@ -8,7 +8,7 @@ from collections.abc import Awaitable, Callable
 from dataclasses import dataclass
 
 from textual.pilot import Pilot
-from textual.widgets import Input, TabbedContent
+from textual.widgets import DataTable, Input, TabbedContent
 
 from tests.ui.conftest import scan, settle, until
 from tracker.ui.screens.drill import DrillScreen
@@ -123,6 +123,32 @@ async def _dispose(pilot: Pilot[None]) -> None:
     await settle(pilot)
 
 
+async def _plan_options(pilot: Pilot[None]) -> None:
+    await _loan(pilot)
+    await pilot.press("p")  # every option of the plan, defaults beside the labels
+    await settle(pilot)
+    for name, value in (("ug_per_analysis", "30"), ("replicates", "2"), ("margin_percent", "35")):
+        pilot.app.screen.query_one(f"#f-{name}", Input).value = value
+
+
+async def _plan(pilot: Pilot[None]) -> None:
+    await _plan_options(pilot)
+    await pilot.press("ctrl+s")
+    await settle(pilot)
+
+
+async def _remove_refused(pilot: Pilot[None]) -> None:
+    await _batch(pilot)
+    pilot.app.screen.query_one("#positions", DataTable).move_cursor(row=1)  # column 2: it ran
+    await pilot.press("ctrl+d")
+    await settle(pilot)
+    pilot.app.screen.query_one("#f-reason", Input).value = "scanned the wrong tube"
+    await pilot.press("ctrl+s")
+    await settle(pilot)
+    await pilot.press("y")
+    await settle(pilot)
+
+
 async def _help(pilot: Pilot[None]) -> None:
     await settle(pilot)
     await pilot.press("f1")
@@ -153,4 +179,7 @@ SCENES = [
     Scene("report-80x24", (80, 24), _report),
     Scene("override-asked-80x24", (80, 24), _override_asked),
     Scene("dispose-80x24", (80, 24), _dispose),
+    Scene("plan-options-80x24", (80, 24), _plan_options),
+    Scene("plan-80x24", (80, 24), _plan),
+    Scene("batch-remove-refused-80x24", (80, 24), _remove_refused),
 ]

@@ -82,6 +82,7 @@ UPDATABLE: dict[str, tuple[str, ...]] = {
     "aliquot": (*_HELD, *CORRECTED["aliquot"]),
     "cut": (*_HELD, *CORRECTED["cut"]),
     **DERIVED,
+    "batch_position": (*DERIVED["batch_position"], "removed_at", "removal_reason"),
     "column_batch": ("blank_deltas",),
     "loan": ("status", "returned_on", "sr_curve_id"),
     "label": ("status", "job_id"),

@@ -40,6 +40,7 @@ ACTION_WORDS: dict[str, str] = {
     "aliquot.taken": "aliquot taken",
     "batch.created": "column batch created",
     "batch.position_added": "column loaded in batch",
+    "batch.position_removed": "column removed from batch (scanned by mistake)",
     "batch.sheet_entered": "column sheet entered",
     "batch.blank_delta_set": "procedural blank's delta set",
     "cut.recorded": "cut recovered",

@@ -51,11 +51,21 @@ def facts_parts(facts: ItemFacts | None) -> list[str]:
             ]
         case AliquotFacts():
             return [precision.grams(facts.mass_g, facts.mass_u_g)]
-        case PositionFacts() if facts.loaded_ug is not None:
-            return [f"loaded {precision.micrograms(facts.loaded_ug, facts.loaded_u_ug)}"]
+        case PositionFacts():
+            return _position_parts(facts)
         case CutFacts():
             return _cut_parts(facts)
     return []
+
+
+def _position_parts(facts: PositionFacts) -> list[str]:
+    parts = []
+    if facts.loaded_ug is not None:
+        parts.append(f"loaded {precision.micrograms(facts.loaded_ug, facts.loaded_u_ug)}")
+    if facts.removed_at is not None:
+        day = facts.removed_at.date().isoformat()
+        parts.append(f"removed from the batch {day}: {visible(facts.removal_reason or '')}")
+    return parts
 
 
 def _cut_parts(facts: CutFacts) -> list[str]:

@@ -13,7 +13,8 @@ from tracker.domain import precision
 from tracker.domain.text_rules import visible
 from tracker.present.bars import flag_lines
 from tracker.present.text import plain_table
-from tracker.services.bench.columns import BatchSummary, PositionLine
+from tracker.services.bench.chemistry import RemovedPositionView
+from tracker.services.bench.columns import BatchSummary, PositionLine, RemovedLine
 from tracker.services.instrument.reduction import Reduction, ResultLine
 from tracker.services.instrument.results import SpecimenResult
 from tracker.services.instrument.screening import Screening
@@ -67,7 +68,32 @@ def batch_table(summary: BatchSummary) -> RenderableType:
             share,
             flag_lines(line.flags),
         )
-    return Group(head, table)
+    if not summary.removed:
+        return Group(head, table)
+    return Group(head, table, removed_text(summary.removed))
+
+
+def removed_text(removed: list[RemovedLine]) -> Text:
+    """The columns taken off a batch as scanned by mistake, one line each, with the reason."""
+    text = Text()
+    for line in removed:
+        text.append("\n" if text else "")
+        text.append(f"removed: column {line.slot} {line.id} ", style="dim")
+        text.append(visible(f"{line.kind} {holds_text(line.holds, line.catalog_number)}"))
+        text.append(f" on {line.removed_at.date().isoformat()}: ", style="dim")
+        text.append(visible(line.reason))
+    return text
+
+
+def position_removed(item: RemovedPositionView) -> str:
+    """What removing a column did, in one line (the CLI's answer and the interface's)."""
+    holds = holds_text(item.holds, item.catalog_number)
+    again = f"; {item.holds} is available again" if item.kind == "sample" and item.holds else ""
+    labels = f"; {item.labels_cancelled} queued label(s) cancelled" if item.labels_cancelled else ""
+    return (
+        f"{item.id} ({item.kind} {holds}) taken off {item.batch}: "
+        f"column {item.slot} is free{again}{labels}"
+    )
 
 
 def result_value(kind: str, value: float, two_sd: float | None, n: int | None = None) -> str:

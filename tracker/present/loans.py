@@ -153,5 +153,25 @@ def plan_table(plan: Plan) -> RenderableType:
     return Group(head, table)
 
 
+def plan_text(plan: Plan) -> Text:
+    """A plan in a few lines for the loan screen's Plan tab: the material, what the loan still
+    allows before and after, and each specimen's verdict with the powder to drill."""
+    text = Text()
+    text.append(f"{plan.material} · {plan.tissue} · terms v{plan.terms_version}\n", style="bold")
+    before, after = plan.loan_remaining_before_mg, plan.loan_remaining_after_mg
+    text.append(f"loan allows {_more(before)} more; after this plan {_more(after)}\n")
+    for s in plan.specimens:
+        mark = "✓" if s.feasible else "✗"
+        drill = precision.mass_mg(s.to_drill_mg)
+        line = f"{mark} {s.id} {s.catalog_number}: drill {drill} — {s.reason}\n"
+        text.append(visible(line), style="" if s.feasible else "red")
+    return text
+
+
+def _more(mg: float | None) -> str:
+    """What a loan's total still allows: ``no limit`` when it has none."""
+    return "no limit" if mg is None else precision.mass_mg(mg)
+
+
 def _mg_or_none(value: float | None) -> str:
     return "no limit" if value is None else _mg(value)

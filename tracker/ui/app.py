@@ -412,6 +412,7 @@ class TrackerApp(KeyRouting):
 def bench_form(form: str, **values: str) -> Screen[None]:
     """The bench form by name, prefilled (e.g. the specimen on screen)."""
     from tracker.ui.screens.aliquot import AliquotScreen
+    from tracker.ui.screens.batch_forms import RemovePositionScreen
     from tracker.ui.screens.checkin import CheckInScreen
     from tracker.ui.screens.concentration import ConcentrationScreen
     from tracker.ui.screens.correct_weighing import CorrectWeighingScreen
@@ -441,6 +442,7 @@ def bench_form(form: str, **values: str) -> Screen[None]:
         "loan_close": CloseLoanScreen,
         "loan_amend": AmendLoanScreen,
         "labels_cancel": CancelLabelsScreen,
+        "batch_remove": RemovePositionScreen,
     }
     if form not in forms:
         raise InputError("form", form, f"is not one of {', '.join(forms)}")
@@ -484,6 +486,11 @@ PALETTE: list[tuple[str, str, str]] = [
     ("Close a loan", "Managers: the lab's obligations are met", "bench('loan_close')"),
     ("Loans overview", "Open loans by urgency (F2)", "loans"),
     ("Column batches", "Build a batch by scanning aliquots; recoveries and yields (F3)", "batches"),
+    (
+        "Remove a column from a batch",
+        "Scanned by mistake, nothing collected yet; with the reason (F3, then Ctrl+D)",
+        "bench('batch_remove')",
+    ),
     ("Instrument sessions", "Import an export, reduce, see QC and drift (F4)", "sessions"),
     ("Labels", "Queue, choose, preview on a stock, print (F5)", "labels"),
     (

@@ -48,22 +48,20 @@ def plan(
     ] = 0.5,
 ) -> None:
     """How much powder to drill for the planned analyses, checked against the loan's terms."""
-    request = {
-        "target": target,
-        "material": material,
-        "tissue": tissue,
-        "margin_percent": margin_percent,
-        "aliquot_share": aliquot_share,
-        "min_powder_mg": min_powder_mg,
-        "analyses": [
-            {
-                "element": element,
-                "ug_per_analysis": ug_per_analysis,
-                "replicates": replicates,
-                "expected_yield": expected_yield,
-            }
-        ],
-    }
+    request = planning.one_analysis(
+        target,
+        {
+            "element": element,
+            "ug_per_analysis": ug_per_analysis,
+            "replicates": replicates,
+            "expected_yield": expected_yield,
+            "material": material,
+            "tissue": tissue,
+            "margin_percent": margin_percent,
+            "aliquot_share": aliquot_share,
+            "min_powder_mg": min_powder_mg,
+        },
+    )
     with database(ctx) as db:
         answer = planning.plan(db, request)
     emit(ctx, answer, lambda: plan_table(answer))

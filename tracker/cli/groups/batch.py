@@ -10,7 +10,7 @@ from tracker.cli.fields import Fills
 from tracker.cli.state import database, emit, perform, read_upload
 from tracker.domain.models import PositionKind
 from tracker.present import text as words
-from tracker.present.lab import batch_table
+from tracker.present.lab import batch_table, position_removed
 from tracker.present.text import done
 from tracker.services.bench import batch_sheet as batch_sheet_service
 from tracker.services.bench import chemistry, columns
@@ -119,6 +119,26 @@ def batch_cut(
     answer = perform(ctx, columns.record_cut, request)
     item = answer.item
     emit(ctx, answer, lambda: done(answer, words.cut_recorded(item)))
+
+
+BATCH_REMOVE_EPILOG = (
+    "Example: tracker batch remove CP-00002-6 --reason 'scanned the neighbouring tube by mistake'"
+)
+
+
+@app.command("remove", epilog=BATCH_REMOVE_EPILOG)
+def batch_remove(
+    ctx: typer.Context,
+    position: Annotated[str, typer.Argument(help="Column position ID (CP-...).")],
+    reason: Annotated[str, Opt("--reason", help="Why the column comes off (kept forever).")],
+) -> None:
+    """Take a column scanned by mistake off its batch, before any cut is collected.
+
+    The column stays on record as removed, with the reason; its slot takes the next column
+    added, and its aliquot is available again.
+    """
+    answer = perform(ctx, chemistry.remove_position, {"position": position, "reason": reason})
+    emit(ctx, answer, lambda: done(answer, position_removed(answer.item)))
 
 
 @app.command("show", epilog="Example: tracker batch show CB-00001-G")

@@ -7,7 +7,7 @@ from datetime import date, datetime
 from decimal import Decimal
 from typing import TYPE_CHECKING, Any
 
-from sqlalchemy import ForeignKey, String, Text, UniqueConstraint
+from sqlalchemy import ForeignKey, Index, String, Text, UniqueConstraint, text
 from sqlalchemy.orm import Mapped, mapped_column, relationship
 
 from tracker.domain import checks
@@ -57,16 +57,33 @@ class ColumnBatch(HasPublicId, Base):
     created_at: Mapped[datetime]
 
     positions: Mapped[list[BatchPosition]] = relationship(
-        back_populates="batch", order_by="BatchPosition.slot"
+        back_populates="batch", order_by="[BatchPosition.slot, BatchPosition.id]"
     )
 
 
+# A removed column keeps its row (the ledger and the aliquot's history name it) but frees its
+# slot: only columns still in the batch hold a slot (SQLite and PostgreSQL both have partial
+# unique indexes).
+IN_BATCH_SQL = "removed_at IS NULL"
+
+
 class BatchPosition(HasPublicId, Base):
-    """One column of a batch: a sample aliquot, a procedural blank or a reference material."""
+    """One column of a batch: a sample aliquot, a procedural blank or a reference material.
+
+    A column scanned by mistake is removed, not deleted (``removed_at``, ``removal_reason``):
+    the ledger replays every row, a workstation login holds no DELETE, and the aliquot's
+    history must still say it was loaded and then taken off, and why."""
 
     __tablename__ = "batch_position"
     __table_args__ = (
-        UniqueConstraint("batch_id", "slot"),
+        Index(
+            "uq_batch_position_slot_in_batch",
+            "batch_id",
+            "slot",
+            unique=True,
+            sqlite_where=text(IN_BATCH_SQL),
+            postgresql_where=text(IN_BATCH_SQL),
+        ),
         checks.counted_from_one("slot"),
         checks.not_negative("loaded_ug"),
         checks.not_negative("loaded_u_ug"),
@@ -84,11 +101,18 @@ class BatchPosition(HasPublicId, Base):
     loaded_ug: Mapped[float | None]  # element loaded on the column
     loaded_u_ug: Mapped[float | None]
     created_at: Mapped[datetime]
+    removed_at: Mapped[datetime | None]  # taken off the batch (scanned by mistake)
+    removal_reason: Mapped[str | None] = mapped_column(Text)
 
     batch: Mapped[ColumnBatch] = relationship(back_populates="positions")
     aliquot: Mapped[Aliquot | None] = relationship(back_populates="positions")
     reference_material: Mapped[ReferenceMaterial | None] = relationship()
     cuts: Mapped[list[Cut]] = relationship(back_populates="position", order_by="Cut.id")
+
+    @property
+    def in_batch(self) -> bool:
+        """Still one of its batch's columns (not removed)."""
+        return self.removed_at is None
 
 
 class Cut(HasPublicId, Base):

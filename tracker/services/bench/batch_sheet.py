@@ -38,7 +38,7 @@ from tracker.domain.models import (
 from tracker.domain.spreadsheets import Row, TableError, read_table
 from tracker.domain.units import UnitError, mass_to_mg
 from tracker.services.bench.chemistry import AddPosition, Holding, holding, place
-from tracker.services.bench.columns import RecordCut, collect
+from tracker.services.bench.columns import RecordCut, collect, held_by
 from tracker.services.core.common import finish
 from tracker.services.core.inputs import Raw, Request, parse
 from tracker.services.core.label_queue import queue_label
@@ -244,8 +244,11 @@ class _Sheet:
 
     def __init__(self, uow: UnitOfWork, batch: ColumnBatch, filename: str) -> None:
         self.uow, self.batch, self.filename = uow, batch, filename
-        self.positions = {p.slot: p for p in _positions(uow.session, batch)}
+        entered = _positions(uow.session, batch)
+        self.positions = {p.slot: p for p in entered if p.in_batch}
         self.following = 1 + max(self.positions, default=0)
+        # slots freed by columns removed as scanned by mistake: a sheet may fill them again
+        self.freed = {p.slot for p in entered if not p.in_batch} - set(self.positions)
         self.holdings: dict[tuple[str, str], Holding] = {}
         self.new_items: list[BatchPosition | Cut] = []
         self.added: list[dict[str, Any]] = []
@@ -286,7 +289,7 @@ class _Sheet:
                 _same_position(existing, line.position.kind, line.item)
             self.skipped += 1
             return existing
-        if line.slot != self.following:
+        if line.slot != self.following and line.slot not in self.freed:
             raise InputError(
                 at_cell(self.filename, line.row, "slot"),
                 line.slot_text,
@@ -297,7 +300,9 @@ class _Sheet:
                 self.uow, self.batch, line.slot, line.position, self._holding(line.position)
             )
         self.positions[line.slot] = position
-        self.following += 1
+        if line.slot == self.following:
+            self.following += 1
+        self.freed.discard(line.slot)
         self.new_items.append(position)
         self.added.append(
             {
@@ -375,13 +380,7 @@ def _micrograms(text: str) -> float:
 
 
 def _same_position(position: BatchPosition, kind: PositionKind, item: str) -> None:
-    holds = (
-        position.aliquot.public_id
-        if position.aliquot
-        else position.reference_material.name
-        if position.reference_material
-        else ""
-    )
+    holds = held_by(position) or ""
     same_item = item.replace("-", "").upper() == holds.replace("-", "").upper()
     if position.kind is not kind or not same_item:
         raise RuleViolation(

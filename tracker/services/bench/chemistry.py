@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from dataclasses import dataclass
-from datetime import date
+from datetime import date, datetime
 from typing import Annotated, Any
 
 from pydantic import Field, field_validator, model_validator
@@ -17,14 +17,16 @@ from tracker.domain.models import (
     BatchPosition,
     ColumnBatch,
     ContainerStatus,
+    LabelStatus,
     PositionKind,
     ReferenceMaterial,
 )
-from tracker.services.bench.columns import specimen_of
+from tracker.domain.models.instrument import Measurement
+from tracker.services.bench.columns import held_by, specimen_of
 from tracker.services.bench.solutions import aliquot_element, on_column_after
 from tracker.services.core.common import finish
 from tracker.services.core.inputs import Element, FieldProblem, Name, Raw, Request, Text, parse
-from tracker.services.core.label_queue import queue_label
+from tracker.services.core.label_queue import queue_label, queued_labels
 from tracker.services.core.lookup import get_by_id, get_reference_material
 from tracker.services.core.uow import Acting, UnitOfWork, unit_of_work
 from tracker.services.core.views import Done, View
@@ -174,7 +176,7 @@ def add_position(db: Database, actor: str | None, data: AddPosition | Raw) -> Do
     request = parse(AddPosition, data)
     with unit_of_work(db, actor) as uow:
         batch = get_by_id(uow.session, ColumnBatch, "batch", request.batch)
-        slot = 1 + max((p.slot for p in batch.positions), default=0)
+        slot = next_slot(batch)
         position, holds = place(uow, batch, slot, request, holding(uow.session, request))
         payload = position_payload(batch, position, request, holds, queue_label(uow, position))
         return finish(
@@ -194,6 +196,23 @@ def add_position(db: Database, actor: str | None, data: AddPosition | Raw) -> Do
             ),
             parent=batch,
         )
+
+
+def next_slot(batch: ColumnBatch) -> int:
+    """Where the next column goes: the lowest slot a removed column freed, else after the
+    last (the service's, a batch sheet's and the bench's bulk writer's one rule)."""
+    held = {p.slot for p in batch.positions if p.in_batch}
+    freed = {p.slot for p in batch.positions if not p.in_batch} - held
+    return min(freed, default=1 + max(held, default=0))
+
+
+def check_loadable(aliquot: Aliquot) -> None:
+    """An aliquot goes on a column only while available and on no column of any batch
+    (a column removed as scanned by mistake no longer holds it)."""
+    if aliquot.status is not ContainerStatus.AVAILABLE or any(
+        p.in_batch for p in aliquot.positions
+    ):
+        raise RuleViolation("aliquot", aliquot.public_id, "is already used or not available")
 
 
 def position_payload(
@@ -243,8 +262,7 @@ def place(
     held = None
     if holds.aliquot is not None:
         aliquot = holds.aliquot
-        if aliquot.status is not ContainerStatus.AVAILABLE or aliquot.positions:
-            raise RuleViolation("aliquot", aliquot.public_id, "is already used or not available")
+        check_loadable(aliquot)
         on_column_after(batch, aliquot)
         element = aliquot_element(aliquot, batch.element)
         if element is None:
@@ -274,3 +292,104 @@ def place(
     if holds.aliquot is not None:
         holds.aliquot.status = ContainerStatus.CONSUMED
     return position, held
+
+
+class RemovedPositionView(View):
+    id: str
+    batch: str
+    slot: int  # free again for the next column
+    kind: str
+    holds: str | None  # the aliquot's ID, or the reference material's name
+    catalog_number: str | None
+    reason: str
+    removed_at: datetime
+    labels_cancelled: int  # its labels still waiting in the queue, taken off
+
+
+class RemovePosition(Request):
+    position: str
+    reason: Text = Field(min_length=3)
+
+
+def remove_position(
+    db: Database, actor: str | None, data: RemovePosition | Raw
+) -> Done[RemovedPositionView]:
+    """Take a column scanned by mistake off its batch, while nothing is collected from it.
+
+    The row stays, marked removed with the reason (the ledger rebuilds every row, and the
+    aliquot's history must still say it was loaded, then removed, and why); its slot is free
+    for the next column; its aliquot, never really loaded, is available again; its labels
+    still in the queue are cancelled. One event says all of it.
+    """
+    request = parse(RemovePosition, data)
+    with unit_of_work(db, actor) as uow:
+        position = get_by_id(uow.session, BatchPosition, "position", request.position)
+        check_removable(uow.session, position)
+        position.removed_at = uow.now
+        position.removal_reason = request.reason
+        if position.aliquot is not None and position.aliquot.status is ContainerStatus.CONSUMED:
+            position.aliquot.status = ContainerStatus.AVAILABLE
+        labels = queued_labels(uow.session, position.public_id)
+        for label in labels:
+            label.status = LabelStatus.CANCELLED
+        view = lambda: _removed_view(position, len(labels))  # noqa: E731
+        payload = removal_payload(position, len(labels))
+        return finish(uow, "batch.position_removed", position, payload, view, parent=position.batch)
+
+
+def check_removable(session: Session, position: BatchPosition) -> None:
+    """A column comes off only while nothing came out of it: no cut collected, nothing
+    measured on the instrument under its ID. Once it has run it stays, and its material is
+    set aside by disposing of its cuts."""
+    if not position.in_batch:
+        removed = position.removed_at.date().isoformat() if position.removed_at else "?"
+        raise RuleViolation(
+            "position",
+            position.public_id,
+            f"was already removed from {position.batch.name} on {removed} "
+            f"({position.removal_reason}); nothing to do",
+        )
+    if position.cuts:
+        names = ", ".join(c.name for c in position.cuts)
+        raise RuleViolation(
+            "position",
+            position.public_id,
+            f"has cuts collected ({names}), so the column ran and stays in its batch; "
+            "dispose of its cuts as destroyed, with the reason, instead",
+        )
+    measured = select(Measurement.id).where(Measurement.position_id == position.id).limit(1)
+    if session.scalar(measured) is not None:
+        raise RuleViolation(
+            "position",
+            position.public_id,
+            "was measured in an instrument session, so the column ran and stays in its "
+            "batch with that measurement; add a new column for what should have been there",
+        )
+
+
+def removal_payload(position: BatchPosition, labels_cancelled: int) -> dict[str, Any]:
+    """What the ``batch.position_removed`` event says."""
+    return {
+        "batch": position.batch.public_id,
+        "slot": position.slot,
+        "kind": position.kind.value,
+        "holds": held_by(position),
+        "reason": position.removal_reason,
+        "aliquot_status": position.aliquot.status.value if position.aliquot else None,
+        "labels_cancelled": labels_cancelled,
+    }
+
+
+def _removed_view(position: BatchPosition, labels_cancelled: int) -> RemovedPositionView:
+    assert position.removed_at is not None and position.removal_reason is not None
+    return RemovedPositionView(
+        id=position.public_id,
+        batch=position.batch.public_id,
+        slot=position.slot,
+        kind=position.kind.value,
+        holds=held_by(position),
+        catalog_number=specimen_of(position),
+        reason=position.removal_reason,
+        removed_at=position.removed_at,
+        labels_cancelled=labels_cancelled,
+    )

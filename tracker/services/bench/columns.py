@@ -11,6 +11,7 @@ own δ is known.
 from __future__ import annotations
 
 import statistics
+from datetime import datetime
 from decimal import Decimal
 from typing import Annotated, Any
 
@@ -121,6 +122,13 @@ def collect(uow: UnitOfWork, position: BatchPosition, request: RecordCut) -> Cut
 def check_cut(position: BatchPosition, request: RecordCut) -> None:
     """A cut the batch collects and the column has not given yet."""
     batch = position.batch
+    if not position.in_batch:
+        raise RuleViolation(
+            "position",
+            position.public_id,
+            f"was removed from {batch.name} ({position.removal_reason}); "
+            "record the cut on the column that holds the material",
+        )
     if request.cut not in batch.cut_names:
         raise RuleViolation(
             "cut", request.cut, f"is not one of the batch's cuts ({', '.join(batch.cut_names)})"
@@ -197,6 +205,18 @@ class PositionLine(View):
     flags: list[str]
 
 
+class RemovedLine(View):
+    """A column taken off the batch: what it held, when and why (its slot is free)."""
+
+    id: str
+    slot: int
+    kind: str
+    holds: str | None
+    catalog_number: str | None
+    removed_at: datetime
+    reason: str
+
+
 class BatchSummary(View):
     id: str
     name: str
@@ -206,7 +226,8 @@ class BatchSummary(View):
     blank_ng: float | None  # mean procedural blank of the batch
     blank_sd_ng: float | None
     blanks: int
-    positions: list[PositionLine]
+    positions: list[PositionLine]  # the columns in the batch
+    removed: list[RemovedLine]  # columns taken off as scanned by mistake
     flags: list[str]
     blank_deltas: dict[str, float]
 
@@ -223,7 +244,7 @@ def blank_ng(batch: ColumnBatch) -> tuple[float | None, float | None, int]:
     values = [
         float(c.recovered_ug) * 1000
         for p in batch.positions
-        if p.kind is PositionKind.BLANK
+        if p.kind is PositionKind.BLANK and p.in_batch
         for c in [element_cut(p)]
         if c is not None and c.recovered_ug is not None
     ]
@@ -247,7 +268,7 @@ def summarize_batch(db: Database, batch_ref: str) -> BatchSummary:
 
 def _summary(batch: ColumnBatch) -> BatchSummary:
     blank, spread, count = blank_ng(batch)
-    lines = [_position_line(p, batch, blank) for p in batch.positions]
+    lines = [_position_line(p, batch, blank) for p in batch.positions if p.in_batch]
     flags = sorted({f for line in lines for f in line.flags})
     if count == 0:
         flags.append("no procedural blank measured")
@@ -261,6 +282,7 @@ def _summary(batch: ColumnBatch) -> BatchSummary:
         blank_sd_ng=spread,
         blanks=count,
         positions=lines,
+        removed=[_removed_line(p) for p in batch.positions if not p.in_batch],
         flags=flags,
         blank_deltas={k: float(v) for k, v in batch.blank_deltas.items()},
     )
@@ -278,6 +300,26 @@ def specimen_of(position: BatchPosition) -> str | None:
     return aliquot.solution.powder.specimen.catalog_number if aliquot is not None else None
 
 
+def _removed_line(position: BatchPosition) -> RemovedLine:
+    assert position.removed_at is not None
+    return RemovedLine(
+        id=position.public_id,
+        slot=position.slot,
+        kind=position.kind.value,
+        holds=held_by(position),
+        catalog_number=specimen_of(position),
+        removed_at=position.removed_at,
+        reason=position.removal_reason or "",
+    )
+
+
+def held_by(position: BatchPosition) -> str | None:
+    """What a column holds: its aliquot's ID, or its reference material's name."""
+    if position.aliquot is not None:
+        return position.aliquot.public_id
+    return position.reference_material.name if position.reference_material else None
+
+
 def _position_line(
     position: BatchPosition, batch: ColumnBatch, blank: float | None
 ) -> PositionLine:
@@ -293,13 +335,7 @@ def _position_line(
             flags.append("high blank")
     if position.kind is not PositionKind.BLANK and (cut is None or cut.recovered_ug is None):
         flags.append("recovery not measured")
-    holds = (
-        position.aliquot.public_id
-        if position.aliquot
-        else position.reference_material.name
-        if position.reference_material
-        else None
-    )
+    holds = held_by(position)
     return PositionLine(
         id=position.public_id,
         slot=position.slot,

@@ -92,6 +92,8 @@ class Matcher:
             return f"{label} is not a cut or a column position"
         if position is None:
             return f"{label} names nothing in this database"
+        if not position.in_batch:
+            return f"{label} was removed from its batch ({position.removal_reason})"
         if position.batch.element != self.element:
             return f"{label} is from a {position.batch.element} batch"
         if position.kind is PositionKind.BLANK:

@@ -11,8 +11,9 @@ Read-only: a plan records nothing.
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass
-from typing import Annotated
+from typing import Annotated, Any
 
 from pydantic import Field
 
@@ -51,6 +52,26 @@ class PlanRequest(Request):
     # The smallest powder worth weighing and dissolving (common practice: about 0.5 mg on a
     # microbalance reading to 0.001 mg, where the weighing's relative uncertainty is < 0.1 %).
     min_powder_mg: Annotated[float, Field(ge=0, le=1000)] = 0.5
+
+
+ANALYSIS_FIELDS = tuple(PlannedAnalysis.model_fields)  # element, µg, replicates, yield
+
+
+def one_analysis(target: str, values: Mapping[str, Any]) -> dict[str, Any]:
+    """A plan request for one kind of analysis from flat fields (the command line's options,
+    the interface's form): the analysis's own fields go into ``analyses``, the rest stay on
+    the request; fields left out (None) take the request's defaults."""
+    given = {name: value for name, value in values.items() if value is not None}
+    analysis = {name: given.pop(name) for name in ANALYSIS_FIELDS if name in given}
+    return {"target": target, **given, "analyses": [analysis]}
+
+
+def default_of(name: str) -> Any:
+    """The value a plan takes for a field left out (None where it is worked out instead)."""
+    for model in (PlannedAnalysis, PlanRequest):
+        if name in model.model_fields:
+            return model.model_fields[name].get_default()
+    raise KeyError(name)
 
 
 class SpecimenPlan(View):

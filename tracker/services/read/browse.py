@@ -52,7 +52,7 @@ def list_batches(db: Database) -> list[BatchLine]:
                 name=b.name,
                 element=b.element,
                 performed_on=b.performed_on,
-                positions=len(b.positions),
+                positions=sum(p.in_batch for p in b.positions),
                 cut_names=list(b.cut_names),
             )
             for b in rows

@@ -10,6 +10,7 @@ Units are in the field names. How the numbers are written is ``domain/precision.
 
 from __future__ import annotations
 
+from datetime import datetime
 from decimal import Decimal
 from typing import Annotated, Literal
 
@@ -69,6 +70,8 @@ class PositionFacts(View):
     kind: Literal["batchposition"] = "batchposition"
     loaded_ug: float | None  # element loaded on the column (none for a blank)
     loaded_u_ug: float | None
+    removed_at: datetime | None = None  # taken off its batch as scanned by mistake
+    removal_reason: str | None = None
 
 
 class CutResult(View):
@@ -119,7 +122,12 @@ def facts_of(row: HasPublicId) -> ItemFacts | None:
         case Aliquot():
             return AliquotFacts(mass_g=row.mass_g, mass_u_g=row.mass_u_g)
         case BatchPosition():
-            return PositionFacts(loaded_ug=row.loaded_ug, loaded_u_ug=row.loaded_u_ug)
+            return PositionFacts(
+                loaded_ug=row.loaded_ug,
+                loaded_u_ug=row.loaded_u_ug,
+                removed_at=row.removed_at,
+                removal_reason=row.removal_reason,
+            )
         case Cut():
             return _cut_facts(row)
     return None

@@ -25,7 +25,12 @@ from tracker.services.read.browse import BatchLine
 from tracker.ui.context import database, operator, tracker_app
 from tracker.ui.messages import Refused, refusal_text
 from tracker.ui.plain import shown
-from tracker.ui.screens.batch_forms import CutScreen, NewBatchScreen, ReferencePositionScreen
+from tracker.ui.screens.batch_forms import (
+    CutScreen,
+    NewBatchScreen,
+    ReferencePositionScreen,
+    RemovePositionScreen,
+)
 from tracker.ui.widgets.id_field import IdField
 from tracker.ui.widgets.operator_bar import OperatorBar
 
@@ -37,6 +42,7 @@ class BatchScreen(Screen[None]):
         Binding("ctrl+b", "add_blank", "Blank", id="batch.blank", priority=True),
         Binding("ctrl+r", "add_reference", "Ref. material", id="batch.reference", priority=True),
         Binding("ctrl+e", "enter_cut", "Recovery", id="batch.cut", priority=True),
+        Binding("ctrl+d", "remove_position", "Remove column", id="batch.remove", priority=True),
         Binding("ctrl+t", "other_batch", "Other batch", id="batch.other", priority=True),
         Binding("escape", "app.previous", "Back", id="batch.back"),
     ]
@@ -145,6 +151,9 @@ class BatchScreen(Screen[None]):
         head.append(shown(f"{s.id} {s.name} · {s.element}", style="bold"))
         head.append(f"\n{lab.limits_text(s)} · ")
         head.append_text(flag_text(s.flags))
+        if s.removed:
+            head.append("\n")
+            head.append_text(lab.removed_text(s.removed))
         self.query_one("#batch-head", Static).update(head)
         table = self.query_one("#positions", DataTable)
         keep = table.cursor_row
@@ -222,11 +231,26 @@ class BatchScreen(Screen[None]):
             self.app.push_screen(ReferencePositionScreen(batch=self.batch_id))
 
     def action_enter_cut(self) -> None:
+        key = self._highlighted()
+        if self.summary is not None and key is not None:
+            self.app.push_screen(CutScreen(position=key, cut=self.summary.element))
+
+    def action_remove_position(self) -> None:
+        """The highlighted column, scanned by mistake: the form asks for the reason, then
+        for confirmation."""
+        key = self._highlighted()
+        if key is None:
+            self._outcome("✗ highlight the column to remove first", error=True)
+            return
+        self.app.push_screen(RemovePositionScreen(position=key))
+
+    def _highlighted(self) -> str | None:
+        """The ID of the column the cursor is on, if the batch shows any."""
         table = self.query_one("#positions", DataTable)
         if self.summary is None or not table.row_count:
-            return
+            return None
         key = table.coordinate_to_cell_key(table.cursor_coordinate).row_key.value
-        self.app.push_screen(CutScreen(position=str(key), cut=self.summary.element))
+        return str(key) if key else None
 
     def action_other_batch(self) -> None:
         self.batch_id = None

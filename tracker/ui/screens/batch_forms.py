@@ -1,4 +1,5 @@
-"""The column batch's forms: open a batch, put a reference material on a column, record a cut."""
+"""The column batch's forms: open a batch, put a reference material on a column, record a
+cut, remove a column scanned by mistake."""
 
 from __future__ import annotations
 
@@ -6,6 +7,7 @@ from datetime import date
 from typing import Any, ClassVar
 
 from tracker.db.database import Database
+from tracker.present.lab import position_removed
 from tracker.services.bench import chemistry, columns
 from tracker.services.core.views import Done
 from tracker.ui.context import tracker_app
@@ -68,4 +70,34 @@ class CutScreen(FormScreen):
         return columns.record_cut(db, actor, values)
 
     def after_save(self, done: Done[Any]) -> None:
+        tracker_app(self).pop_screen()
+
+
+class RemovePositionScreen(FormScreen):
+    TITLE = "Remove a column from its batch"
+    INTRO = (
+        "For a column scanned by mistake, before any cut is collected from it. It stays on "
+        "record as removed, with your reason; its slot takes the next column added and its "
+        "aliquot is available again."
+    )
+    FIELDS: ClassVar[list[Field]] = [
+        Field("position", "Column position", kind="id", hint="scan the column position CP-"),
+        Field("reason", "Reason", hint="e.g. scanned the neighbouring tube by mistake"),
+    ]
+
+    @staticmethod
+    def service(db: Database, actor: str | None, values: dict[str, Any]) -> Done[Any]:
+        return chemistry.remove_position(db, actor, values)
+
+    def confirm_first(self, values: dict[str, Any]) -> tuple[str, str] | None:
+        position = values.get("position", "this column")
+        return (
+            f"Remove {position} from its batch?",
+            "The removal and its reason are signed in the ledger under your name and cannot "
+            "be taken back; the column stays on record as removed.",
+        )
+
+    def after_save(self, done: Done[Any]) -> None:
+        """Back to the batch, which shows the column gone; the notice says what changed."""
+        tracker_app(self).tell(position_removed(done.item), title="Column removed")
         tracker_app(self).pop_screen()

@@ -56,6 +56,9 @@ passphrase is `demo passphrase, invented`.
    keeps the focus, so scan one after another. **Ctrl+B** adds a procedural blank, **Ctrl+R**
    a reference material. Move to a column and press **Ctrl+E** (or Enter) to enter the
    recovered element: yields and blank shares are flagged against the batch's limits.
+   Scanned the wrong aliquot? Move to its column and press **Ctrl+D**: type why, Ctrl+S,
+   then **y**. Only a column with no cut collected comes off; it stays on record as removed
+   with your reason, its slot takes the next column you add, its aliquot is available again.
 4. **Import and reduce a session.** Press **F4**, then **i**. Give the export's path, a saved
    profile (`mc-ca` on the demo), a name, the instrument, element and bracketing standard,
    Ctrl+S. The session opens: unmatched rows are listed with why; press **r** to reduce —
@@ -75,6 +78,10 @@ passphrase is `demo passphrase, invented`.
 Enter opens a specimen · **c** check in · **d** drill the selected specimen · **p** plan what
 each specimen still needs · **R** return report · **I** manifest import · tabs (**1 2 3**):
 specimens with consumption bars, terms with amendments and overrides, plan.
+**p** asks for the plan's options on one screen, every one `tracker plan` takes: µg per
+analysis, replicates, element, expected yield, material, tissue, safety margin, the share
+kept for concentration, the smallest powder worth drilling. An empty field takes the value
+shown beside its label; Ctrl+S shows the plan on the Plan tab; p again keeps what you typed.
 
 ## On an item
 Its lineage (specimen → powders → solutions → aliquots → columns → cuts and results) with

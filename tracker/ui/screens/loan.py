@@ -3,21 +3,21 @@ what can still be drilled (planning), and the doors to the return report and the
 
 from __future__ import annotations
 
-from typing import ClassVar
+from typing import Any, ClassVar
 
 from rich.text import Text
 from textual import on, work
 from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
-from textual.containers import Horizontal
 from textual.message import Message
 from textual.screen import Screen
-from textual.widgets import DataTable, Footer, Input, Static, TabbedContent, TabPane
+from textual.widgets import DataTable, Footer, Static, TabbedContent, TabPane
 
 from tracker.domain import precision
 from tracker.domain.errors import TrackerError
 from tracker.present.bars import flag_text, usage_bar
 from tracker.present.items import override_text
+from tracker.present.loans import plan_text
 from tracker.services.loans import planning
 from tracker.services.loans.planning import Plan
 from tracker.services.read import lineage, reconcile
@@ -60,6 +60,8 @@ class LoanScreen(TabKeys, Screen[None]):
         super().__init__()
         self.loan = loan
         self.flagged: list[FlaggedRow] = []  # the specimens' rows, refitted on a resize
+        self.plan_typed: dict[str, str] = {}  # the plan form's fields as last typed
+        self.plan_request: dict[str, Any] | None = None  # the plan last asked for
 
     def compose(self) -> ComposeResult:
         yield OperatorBar(f"Loan {self.loan}")
@@ -70,12 +72,11 @@ class LoanScreen(TabKeys, Screen[None]):
             with TabPane("Terms", id="tab-terms"):
                 yield Static("", id="terms")
             with TabPane("Plan", id="tab-plan"):
-                with Horizontal(classes="plan-inputs"):
-                    yield Static("element, µg per analysis, replicates:")
-                    yield Input("Ca", id="plan-element", placeholder="element")
-                    yield Input("2", id="plan-ug", placeholder="µg per analysis")
-                    yield Input("4", id="plan-replicates", placeholder="replicates")
-                yield Static("Press p to see what each specimen still needs.", id="plan")
+                yield Static(
+                    "Press p to choose the analyses and options, and see what each specimen "
+                    "still needs.",
+                    id="plan",
+                )
         yield Static("", id="outcome")
         yield Footer(compact=True)
 
@@ -117,8 +118,7 @@ class LoanScreen(TabKeys, Screen[None]):
         head.append("  ")
         head.append_text(flag_text(line.flags))
         self.query_one("#loan-head", Static).update(head)
-        rows = [FlaggedRow(s.id, _specimen_cells(s), s.flags) for s in line.specimen_lines]
-        self.flagged = rows
+        self.flagged = [FlaggedRow(s.id, _specimen_cells(s), s.flags) for s in line.specimen_lines]
         self.on_resize()  # fills the table
         terms = Text()
         for t in detail.terms:
@@ -171,18 +171,20 @@ class LoanScreen(TabKeys, Screen[None]):
         tracker_app(self).action_manifest_import(self.loan)
 
     def action_plan(self) -> None:
-        request = {
-            "target": self.loan,
-            "analyses": [
-                {
-                    "element": self.query_one("#plan-element", Input).value.strip(),
-                    "ug_per_analysis": self.query_one("#plan-ug", Input).value.strip(),
-                    "replicates": self.query_one("#plan-replicates", Input).value.strip(),
-                }
-            ],
-        }
-        self.query_one("#loan-tabs", TabbedContent).active = "tab-plan"
-        self.plan(request)
+        """Every option of the plan on a small form; the plan shows here when it returns."""
+        from tracker.ui.screens.plan_form import PlanFormScreen
+
+        form = PlanFormScreen(self.loan, self.plan_typed)
+
+        def chosen(request: dict[str, Any] | None) -> None:
+            if request is None:
+                return
+            self.plan_typed, self.plan_request = form.typed, request
+            self.query_one("#loan-tabs", TabbedContent).active = "tab-plan"
+            self.query_one("#plan", Static).update("… planning")
+            self.plan(request)
+
+        self.app.push_screen(form, chosen)
 
     @work(thread=True, exclusive=True, group="plan")
     def plan(self, request: dict[str, object]) -> None:
@@ -194,24 +196,7 @@ class LoanScreen(TabKeys, Screen[None]):
         self.post_message(self.Planned(answer))
 
     def on_loan_screen_planned(self, event: Planned) -> None:
-        plan = event.plan
-        text = Text()
-        text.append(
-            f"{plan.material} · {plan.tissue} · terms v{plan.terms_version}\n", style="bold"
-        )
-        before, after = plan.loan_remaining_before_mg, plan.loan_remaining_after_mg
-        text.append(f"loan allows {_more(before)} more; after this plan {_more(after)}\n")
-        for s in plan.specimens:
-            mark = "✓" if s.feasible else "✗"
-            drill = precision.mass_mg(s.to_drill_mg)
-            line = f"{mark} {s.id} {s.catalog_number}: drill {drill} — {s.reason}\n"
-            text.append(shown(line, style="" if s.feasible else "red"))
-        self.query_one("#plan", Static).update(text)
-
-
-def _more(mg: float | None) -> str:
-    """What a loan's total still allows: ``no limit`` when it has none."""
-    return "no limit" if mg is None else precision.mass_mg(mg)
+        self.query_one("#plan", Static).update(plan_text(event.plan))
 
 
 def _specimen_cells(s: SpecimenLine) -> tuple[str | Text, ...]:
