@@ -14,14 +14,13 @@ class CancelLabelsScreen(FormScreen):
     TITLE = "Cancel queued labels"
     INTRO = "The items whose queued labels will not be printed, and why."
     FIELDS: ClassVar[list[Field]] = [
-        Field("items", "Items", hint="IDs separated by commas"),
+        Field("items", "Items", kind="ids", hint="scan each, or type IDs separated by commas"),
         Field("reason", "Reason", hint="e.g. scanned twice by mistake"),
     ]
 
     @staticmethod
     def service(db: Database, actor: str | None, values: dict[str, Any]) -> Done[Any]:
-        items = [part.strip() for part in str(values.get("items", "")).split(",")]
-        return handling.cancel_labels(db, actor, {**values, "items": [i for i in items if i]})
+        return handling.cancel_labels(db, actor, values)
 
     def after_save(self, done: Done[Any]) -> None:
         self.app.pop_screen()  # back to the queue, which reloads

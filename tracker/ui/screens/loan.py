@@ -29,6 +29,10 @@ from tracker.ui.plain import shown
 from tracker.ui.screens.tabs import TabKeys, tab_keys
 from tracker.ui.widgets.operator_bar import OperatorBar
 
+# The bench forms that take the loan on screen, and those that take its highlighted specimen.
+LOAN_FORMS = frozenset({"shipment", "loan_returned", "loan_close", "loan_amend", "loan_attach"})
+SPECIMEN_FORMS = frozenset({"checkin", "drill", "return", "specimen_photo"})
+
 
 class LoanScreen(TabKeys, Screen[None]):
     BINDINGS: ClassVar[list[BindingType]] = [
@@ -170,6 +174,14 @@ class LoanScreen(TabKeys, Screen[None]):
         chosen = self.selected_specimen()
         if chosen:
             tracker_app(self).open_id(chosen)
+
+    def prefill(self, form: str) -> dict[str, str]:
+        """What a bench form opened here takes from this screen: the loan, or the
+        highlighted specimen (see ``TrackerApp.action_bench``)."""
+        if form in LOAN_FORMS:
+            return {"loan": self.loan}
+        chosen = self.selected_specimen()
+        return {"specimen": chosen} if chosen and form in SPECIMEN_FORMS else {}
 
     def action_act(self, form: str) -> None:
         chosen = self.selected_specimen()
