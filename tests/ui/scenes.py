@@ -123,6 +123,42 @@ async def _dispose(pilot: Pilot[None]) -> None:
     await settle(pilot)
 
 
+async def _correct_concentration(pilot: Pilot[None]) -> None:
+    await _item_then_form(pilot, "SO-00001-M", "correct_concentration")
+
+
+async def _correct_recovery(pilot: Pilot[None]) -> None:
+    await _item_then_form(pilot, "CU-00004-F", "correct_recovery")
+
+
+async def _specimen_photo(pilot: Pilot[None]) -> None:
+    await _item_then_form(pilot, "SP-00004-Q", "specimen_photo")
+
+
+async def _item_then_form(pilot: Pilot[None], item: str, form: str) -> None:
+    """The form opened from the palette on an item's screen: the item is filled in."""
+    await settle(pilot)
+    await scan(pilot, item)
+    await settle(pilot)
+    await pilot.app.run_action(f"bench('{form}')")
+    await settle(pilot)
+
+
+async def _loan_attach(pilot: Pilot[None]) -> None:
+    await _loan(pilot)
+    await pilot.app.run_action("bench('loan_attach')")
+    await settle(pilot)
+
+
+async def _labels_reprint(pilot: Pilot[None]) -> None:
+    await settle(pilot)
+    await pilot.press("f5")
+    await settle(pilot)
+    pilot.app.screen.query_one("#queue").focus()
+    await pilot.press("R")
+    await settle(pilot)
+
+
 async def _help(pilot: Pilot[None]) -> None:
     await settle(pilot)
     await pilot.press("f1")
@@ -153,4 +189,9 @@ SCENES = [
     Scene("report-80x24", (80, 24), _report),
     Scene("override-asked-80x24", (80, 24), _override_asked),
     Scene("dispose-80x24", (80, 24), _dispose),
+    Scene("correct-concentration-80x24", (80, 24), _correct_concentration),
+    Scene("correct-recovery-80x24", (80, 24), _correct_recovery),
+    Scene("specimen-photo-80x24", (80, 24), _specimen_photo),
+    Scene("loan-attach-80x24", (80, 24), _loan_attach),
+    Scene("labels-reprint-80x24", (80, 24), _labels_reprint),
 ]
