@@ -176,7 +176,8 @@ async def test_a_recovery_that_is_not_an_amount_is_refused(lab: Lab) -> None:
 
 def kestrel_specimen(lab: Lab) -> Specimen:
     in_kestrel = select(Specimen).join(Loan).where(Loan.reference == KESTREL)
-    return query(lab, in_kestrel.order_by(Specimen.id).limit(1))[0]
+    first: Specimen = query(lab, in_kestrel.order_by(Specimen.id).limit(1))[0]
+    return first
 
 
 async def test_a_specimen_photo_attached_from_a_typed_path(lab: Lab, tmp_path: Path) -> None:
