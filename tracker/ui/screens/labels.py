@@ -157,21 +157,23 @@ class LabelsScreen(TabKeys, Screen[None]):
             return list(self.chosen)
         return [str(table.coordinate_to_cell_key(table.cursor_coordinate).row_key.value)]
 
+    def prefill(self, form: str) -> dict[str, str]:
+        """What a form opened here takes (a key or the palette): the chosen labels (or the
+        highlighted one) and, to reprint them, this screen's stock, start and printer."""
+        items = {"items": ", ".join(self.picked())}
+        if form == "labels_cancel":
+            return items
+        if form == "labels_reprint":
+            stock, start, printer = self._options()
+            return items | {"stock": stock, "start": start, "printer": printer}
+        return {}
+
     def action_cancel_labels(self) -> None:
-        """The cancel form, with the chosen labels (or the highlighted one) filled in."""
-        tracker_app(self).action_bench("labels_cancel", items=", ".join(self.picked()))
+        tracker_app(self).action_bench("labels_cancel", **self.prefill("labels_cancel"))
 
     def action_reprint(self) -> None:
-        """The reprint form, with the chosen labels (or the highlighted one) and this
-        screen's stock, start position and printer filled in; it asks before printing."""
-        stock, start, printer = self._options()
-        tracker_app(self).action_bench(
-            "labels_reprint",
-            items=", ".join(self.picked()),
-            stock=stock,
-            start=start,
-            printer=printer,
-        )
+        """The reprint form, filled in from this screen; it asks before printing."""
+        tracker_app(self).action_bench("labels_reprint", **self.prefill("labels_reprint"))
 
     def _options(self) -> tuple[str, str, str]:
         stock = str(self.query_one("#stock", Select).value)
