@@ -45,10 +45,12 @@ class ReprintLabelsScreen(FormScreen):
 
     def confirm_first(self, values: dict[str, Any]) -> tuple[str, str] | None:
         items = values.get("items", [])
+        if not items:
+            return None  # nothing to ask about: the service says what is missing
         where = f"to the printer {values['printer']}" if values.get("printer") else "to a PDF"
         return (
             f"Reprint {len(items)} label(s) {where}?",
-            f"{', '.join(items) or 'no items named'} on {values.get('stock', '?')}, from "
+            f"{', '.join(items)} on {values.get('stock', '?')}, from "
             f"position {values.get('start', '1')}; the reprint and its reason are signed "
             "in the ledger under your name.",
         )
