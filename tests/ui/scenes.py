@@ -146,6 +146,39 @@ async def _remove_refused(pilot: Pilot[None]) -> None:
     await pilot.press("ctrl+s")
     await settle(pilot)
     await pilot.press("y")
+async def _correct_concentration(pilot: Pilot[None]) -> None:
+    await _item_then_form(pilot, "SO-00001-M", "correct_concentration")
+
+
+async def _correct_recovery(pilot: Pilot[None]) -> None:
+    await _item_then_form(pilot, "CU-00004-F", "correct_recovery")
+
+
+async def _specimen_photo(pilot: Pilot[None]) -> None:
+    await _item_then_form(pilot, "SP-00004-Q", "specimen_photo")
+
+
+async def _item_then_form(pilot: Pilot[None], item: str, form: str) -> None:
+    """The form opened from the palette on an item's screen: the item is filled in."""
+    await settle(pilot)
+    await scan(pilot, item)
+    await settle(pilot)
+    await pilot.app.run_action(f"bench('{form}')")
+    await settle(pilot)
+
+
+async def _loan_attach(pilot: Pilot[None]) -> None:
+    await _loan(pilot)
+    await pilot.app.run_action("bench('loan_attach')")
+    await settle(pilot)
+
+
+async def _labels_reprint(pilot: Pilot[None]) -> None:
+    await settle(pilot)
+    await pilot.press("f5")
+    await settle(pilot)
+    pilot.app.screen.query_one("#queue").focus()
+    await pilot.press("R")
     await settle(pilot)
 
 
@@ -182,4 +215,9 @@ SCENES = [
     Scene("plan-options-80x24", (80, 24), _plan_options),
     Scene("plan-80x24", (80, 24), _plan),
     Scene("batch-remove-refused-80x24", (80, 24), _remove_refused),
+    Scene("correct-concentration-80x24", (80, 24), _correct_concentration),
+    Scene("correct-recovery-80x24", (80, 24), _correct_recovery),
+    Scene("specimen-photo-80x24", (80, 24), _specimen_photo),
+    Scene("loan-attach-80x24", (80, 24), _loan_attach),
+    Scene("labels-reprint-80x24", (80, 24), _labels_reprint),
 ]

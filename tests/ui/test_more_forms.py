@@ -92,7 +92,7 @@ async def test_a_weighing_corrected_with_its_reason(lab: Lab) -> None:
             "reason": "gross read from the wrong line",
         },
     )
-    assert said.startswith("✓ saved · ledger event #"), said
+    assert said.startswith(f"✓ {powder.public_id} powder mass corrected · ledger event #"), said
     (row,) = query(lab, select(Correction).where(Correction.item_ref == powder.public_id))
     assert Decimal(row.value["mass_mg"]) == powder.mass_mg + Decimal("0.100")
     assert row.reason == "gross read from the wrong line"

@@ -24,7 +24,8 @@ from typer.core import TyperGroup
 
 from tracker.cli.fields import name_for_cli
 from tracker.db.location import default_database
-from tracker.domain.errors import InputError, TrackerError
+from tracker.db.uploads import read_upload as read_upload  # the commands' one file reader
+from tracker.domain.errors import TrackerError
 from tracker.domain.text_rules import json_visible, visible
 
 
@@ -165,27 +166,6 @@ def program() -> str:
     if found is not None and Path(found).resolve() == Path(typed).resolve():
         return "tracker"
     return typed
-
-
-# Bigger than any file a service accepts, so the service's own limit names the problem;
-# only a file far beyond it is refused here, before it is read into memory at all.
-MAX_UPLOAD_BYTES = 256 * 1024 * 1024
-
-
-def read_upload(
-    path: Path | None, option: str, limit: int = MAX_UPLOAD_BYTES
-) -> dict[str, Any] | None:
-    """Read a file for a service; the service keeps it by SHA-256."""
-    if path is None:
-        return None
-    try:
-        with path.open("rb") as handle:
-            content = handle.read(limit + 1)
-    except OSError as error:
-        raise InputError(option, str(path), f"cannot be read ({error.strerror})") from None
-    if len(content) > limit:
-        raise InputError(option, str(path), f"is larger than {limit:,} bytes: refused")
-    return {"filename": path.name, "content": content}
 
 
 def jsonable(data: Any) -> Any:

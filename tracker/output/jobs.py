@@ -90,11 +90,13 @@ def reprint(
     out: Path | None = None,
     printer: str | None = None,
     stocks_file: Path | None = None,
+    folder: Path | None = None,
     force: bool = False,
 ) -> PrintOutcome:
-    """Named items' labels again, with the reason, recorded as one reprint job."""
+    """Named items' labels again, with the reason, recorded as one reprint job; named and
+    placed as :func:`print_queue` names and places its PDF."""
     request = {"items": items, "reason": reason, "stock": stock, "start": start, "printer": printer}
-    return _run(db, actor, printing.reprint, request, Target(out, None, force), stocks_file)
+    return _run(db, actor, printing.reprint, request, Target(out, folder, force), stocks_file)
 
 
 Service = Callable[..., Done[JobView]]

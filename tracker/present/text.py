@@ -17,6 +17,7 @@ from tracker.services.core.views import (
     PowderView,
     SolutionView,
 )
+from tracker.services.corrections.correcting import CorrectionView
 
 
 def done(answer: Done[Any], what: str) -> Text:
@@ -75,3 +76,10 @@ def cut_recorded(item: CutView) -> str:
 
 def blank_delta_set(ratio: str, delta_permil: float, batch: str) -> str:
     return f"blank δ{ratio} = {precision.delta(delta_permil)} for {batch}"
+
+
+def corrected(item: CorrectionView) -> str:
+    """What a correction changed, and the sessions whose results were reduced again."""
+    reduced = item.effects.get("sessions_reduced") or []
+    again = f"; reduced again: {', '.join(reduced)}" if reduced else ""
+    return f"{item.item} {item.quantity} corrected{again}"

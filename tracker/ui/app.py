@@ -346,6 +346,11 @@ class TrackerApp(KeyRouting):
         return not (action == "bench" and isinstance(self.screen, FormScreen))
 
     def action_bench(self, form: str, **values: str) -> None:
+        """Open a bench form; with no values given (the palette, a key anywhere), the
+        screen on top fills in what it shows (the item or the loan) where the form takes it."""
+        known = getattr(self.screen, "prefill", None)
+        if not values and callable(known):
+            values = known(form)
         self.push_screen(bench_form(form, **values))
 
     def action_return_report(self, loan: str = "") -> None:
@@ -415,17 +420,22 @@ def bench_form(form: str, **values: str) -> Screen[None]:
     from tracker.ui.screens.batch_forms import RemovePositionScreen
     from tracker.ui.screens.checkin import CheckInScreen
     from tracker.ui.screens.concentration import ConcentrationScreen
+    from tracker.ui.screens.correct_concentration import CorrectConcentrationScreen
+    from tracker.ui.screens.correct_recovery import CorrectRecoveryScreen
     from tracker.ui.screens.correct_weighing import CorrectWeighingScreen
     from tracker.ui.screens.dispose import DisposeScreen
     from tracker.ui.screens.dissolve import DissolveScreen
     from tracker.ui.screens.drill import DrillScreen
     from tracker.ui.screens.labels_cancel import CancelLabelsScreen
+    from tracker.ui.screens.labels_reprint import ReprintLabelsScreen
     from tracker.ui.screens.loan_amend import AmendLoanScreen
+    from tracker.ui.screens.loan_attach import AttachDocumentScreen
     from tracker.ui.screens.loan_close import CloseLoanScreen
     from tracker.ui.screens.loan_returned import MarkReturnedScreen
     from tracker.ui.screens.move import MoveScreen
     from tracker.ui.screens.return_specimen import ReturnSpecimenScreen
     from tracker.ui.screens.shipment import ShipmentScreen
+    from tracker.ui.screens.specimen_photo import SpecimenPhotoScreen
 
     forms: dict[str, type[Screen[None]]] = {
         "checkin": CheckInScreen,
@@ -436,13 +446,18 @@ def bench_form(form: str, **values: str) -> Screen[None]:
         "move": MoveScreen,
         "return": ReturnSpecimenScreen,
         "correct_weighing": CorrectWeighingScreen,
+        "correct_concentration": CorrectConcentrationScreen,
+        "correct_recovery": CorrectRecoveryScreen,
+        "specimen_photo": SpecimenPhotoScreen,
         "dispose": DisposeScreen,
         "shipment": ShipmentScreen,
         "loan_returned": MarkReturnedScreen,
         "loan_close": CloseLoanScreen,
         "loan_amend": AmendLoanScreen,
+        "loan_attach": AttachDocumentScreen,
         "labels_cancel": CancelLabelsScreen,
         "batch_remove": RemovePositionScreen,
+        "labels_reprint": ReprintLabelsScreen,
     }
     if form not in forms:
         raise InputError("form", form, f"is not one of {', '.join(forms)}")
@@ -476,6 +491,21 @@ PALETTE: list[tuple[str, str, str]] = [
         "bench('correct_weighing')",
     ),
     (
+        "Correct a concentration",
+        "A solution's element mass fraction, with the reason; loads and results follow",
+        "bench('correct_concentration')",
+    ),
+    (
+        "Correct a column recovery",
+        "The element recovered in a cut, with the reason; yields and results follow",
+        "bench('correct_recovery')",
+    ),
+    (
+        "Attach a specimen photo",
+        "A photograph of its condition on arrival, on return or otherwise",
+        "bench('specimen_photo')",
+    ),
+    (
         "Return or dispose of a vial",
         "Powder or solution returned, destroyed, retained or used up",
         "bench('dispose')",
@@ -484,6 +514,11 @@ PALETTE: list[tuple[str, str, str]] = [
     ("Mark a loan returned", "Every specimen has gone back", "bench('loan_returned')"),
     ("Amend a loan's terms", "Managers: extension, allowance, tissues", "bench('loan_amend')"),
     ("Close a loan", "Managers: the lab's obligations are met", "bench('loan_close')"),
+    (
+        "Attach a document to a loan",
+        "Agreement, amendment, letter or photo, kept by its SHA-256",
+        "bench('loan_attach')",
+    ),
     ("Loans overview", "Open loans by urgency (F2)", "loans"),
     ("Column batches", "Build a batch by scanning aliquots; recoveries and yields (F3)", "batches"),
     (
@@ -497,6 +532,11 @@ PALETTE: list[tuple[str, str, str]] = [
         "Cancel queued labels",
         "Labels that will not be printed, with the reason",
         "bench('labels_cancel')",
+    ),
+    (
+        "Reprint labels",
+        "Named items' labels again, with the reason; asked first (F5, then R)",
+        "bench('labels_reprint')",
     ),
     ("Ledger", "Browse, filter, verify the chain (F6)", "ledger"),
     (

@@ -6,7 +6,7 @@ import typer
 
 from tracker.cli.state import database, emit, perform
 from tracker.present.aligned import AlignedTable
-from tracker.present.text import done, plain_table
+from tracker.present.text import corrected, done, plain_table
 from tracker.services.corrections import correcting, measured_values, weighings
 
 Opt = typer.Option
@@ -21,10 +21,7 @@ app = typer.Typer(
 
 
 def _answer(ctx: typer.Context, answer: Any) -> None:
-    item = answer.item
-    reduced = item.effects.get("sessions_reduced") or []
-    again = f"; reduced again: {', '.join(reduced)}" if reduced else ""
-    emit(ctx, answer, lambda: done(answer, f"{item.item} {item.quantity} corrected{again}"))
+    emit(ctx, answer, lambda: done(answer, corrected(answer.item)))
 
 
 @app.command(

@@ -8,6 +8,7 @@ can say which parcel carried what.
 from __future__ import annotations
 
 import io
+import mimetypes
 import warnings
 from datetime import date
 from typing import Annotated, Literal
@@ -158,6 +159,8 @@ def _require_image(upload: Upload) -> None:
     """
     from PIL import Image, UnidentifiedImageError  # Pillow comes with qrcode[pil]
 
+    if mimetypes.guess_type(upload.filename)[0] is None:  # kept with the type its name says
+        raise InputError("photo", upload.filename, "has no image file extension")
     bomb = Image.DecompressionBombWarning
     try:
         with (

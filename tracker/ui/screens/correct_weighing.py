@@ -10,10 +10,11 @@ from typing import Any, ClassVar
 from tracker.db.database import Database
 from tracker.services.core.views import Done
 from tracker.services.corrections import weighings
-from tracker.ui.screens.form import Field, FormScreen
+from tracker.ui.screens.correction import CorrectionForm
+from tracker.ui.screens.form import Field
 
 
-class CorrectWeighingScreen(FormScreen):
+class CorrectWeighingScreen(CorrectionForm):
     TITLE = "Correct a weighing"
     INTRO = (
         "The tare and gross as they should have been recorded, and why. Someone else's entry "

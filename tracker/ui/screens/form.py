@@ -27,7 +27,7 @@ from tracker.ui.context import database, operator, tracker_app
 from tracker.ui.messages import Refused, refusal_text
 from tracker.ui.screens.confirm import ConfirmScreen
 from tracker.ui.widgets.field_label import FieldLabel
-from tracker.ui.widgets.id_field import IdField, IdInput
+from tracker.ui.widgets.id_field import IdField, IdInput, IdListInput
 from tracker.ui.widgets.operator_bar import OperatorBar
 from tracker.ui.widgets.outcome import show_outcome
 
@@ -40,7 +40,7 @@ class Field:
 
     name: str
     label: str
-    kind: str = "text"  # "id" for scannable IDs, "location" for a place scanned or named
+    kind: str = "text"  # "id": a scannable ID; "ids": several (each scan added); "location"
     hint: str = ""  # an example or how to fill it, shown beside the label (never in the field)
     value: str = ""
     manager_only: bool = False
@@ -67,8 +67,8 @@ class FormScreen(Screen[None]):
         self.initial = values
         self.last_done: Done[Any] | None = None
 
-    @staticmethod
-    def service(db: Database, actor: str | None, values: dict[str, Any]) -> Done[Any]:
+    def service(self, db: Database, actor: str | None, values: dict[str, Any]) -> Done[Any]:
+        """The one service call (run in the save worker); most forms need no ``self``."""
         raise NotImplementedError
 
     def compose(self) -> ComposeResult:
@@ -99,19 +99,22 @@ class FormScreen(Screen[None]):
             note = f"🔒 locked: {tracker_app(self).operator} is not a manager"
         with Horizontal(classes="field-row"):
             yield FieldLabel(spec.label, "" if locked else spec.hint, note)
-            yield Input(value, id=f"f-{spec.name}", disabled=locked, classes="field", compact=True)
+            box = IdListInput if spec.kind == "ids" else Input
+            yield box(value, id=f"f-{spec.name}", disabled=locked, classes="field", compact=True)
 
     def on_mount(self) -> None:
         first_empty = next((i for i in self.query(Input) if not i.value and not i.disabled), None)
         (first_empty or self.query(Input).first()).focus()
 
     def values(self) -> dict[str, Any]:
-        """What was typed, by service field name; empty fields are left out."""
+        """What was typed, by service field name; empty fields are left out, and a field of
+        several IDs is their list."""
         typed: dict[str, Any] = {}
         for spec in self.FIELDS:
             text = self.query_one(f"#f-{spec.name}", Input).value.strip()
             if text:
-                typed[spec.name.replace("-", "_")] = text
+                name = spec.name.replace("-", "_")
+                typed[name] = IdListInput.ids(text) if spec.kind == "ids" else text
         return typed
 
     def action_save(self) -> None:

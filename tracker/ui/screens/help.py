@@ -29,8 +29,9 @@ F5 labels · F6 ledger · Ctrl+O switch operator · Ctrl+P all actions (command 
 Esc back · Ctrl+Q quit. Bench forms: **c** check in · **d** drill · **s** dissolve ·
 **k** concentration · **a** aliquot · **m** move. In a form, **Ctrl+S** saves. Number keys
 open a screen's tabs. Corrections, returning or disposing of vials, shipments, amending,
-returning and closing a loan: Ctrl+P. An override, printing the whole queue and closing a
-loan are asked first (**y** yes, **n** no).
+returning and closing a loan: Ctrl+P. An override, printing the whole queue, reprinting and
+closing a loan are asked first (**y** yes, **n** no). A form opened with Ctrl+P on an item
+or a loan has it filled in where it fits.
 
 Status is always written in words and symbols: ✓ ok/pass · ⚠ warning · ✗ refused, over a
 limit or failed · ↩ powder to return · ? results or recovery missing.
@@ -67,6 +68,8 @@ passphrase is `demo passphrase, invented`.
 5. **Print labels.** Press **F5**. Choose the stock, the first free position, **v** draws the
    sheet; **space** chooses labels, **p** prints the chosen ones (or, asked first, the whole
    queue) to a PDF (and to a printer if you name one); **x** cancels labels with a reason.
+   **R** reprints the chosen or highlighted labels with a reason, asked first (or Ctrl+P,
+   *Reprint labels*, scanning each item); the queue stays as it is.
 6. **Return report.** On a loan (F2, Enter), **R** opens the return report: every
    specimen's account, the flags and the ledger head; **Ctrl+S** writes it (PDF, CSV, XLSX
    or JSON) with its anchor file, signed by a manager's key and recorded in the ledger first.
@@ -87,6 +90,15 @@ shown beside its label; Ctrl+S shows the plan on the Plan tab; p again keeps wha
 Its lineage (specimen → powders → solutions → aliquots → columns → cuts and results) with
 masses, element amounts and yields; its custody history on the second tab. **d s k a m c r**
 open the bench forms with this item filled in; **l** queues its label again.
+
+## Corrections, attachments, reprints (Ctrl+P)
+Opened on an item or a loan, the form has it filled in; the old value stays in the history.
+
+- **Correct a concentration**: the value, one uncertainty, the reason (`SO-00001-M`).
+- **Correct a column recovery**: the element recovered in a cut, the reason (`CU-00004-F`).
+- **Attach a specimen photo**: the file's path, stage, caption; a missing file is named.
+- **Attach a document to a loan**: the file's path and its role (agreement, letter ...).
+- **Reprint labels**: scan the items, give the reason; asked first (or **R** on F5).
 
 ## Managers
 Overriding a loan limit needs a manager and a written reason (the drill form's last field,

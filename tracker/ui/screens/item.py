@@ -16,6 +16,8 @@ from textual.widgets.tree import TreeNode
 
 from tracker.domain.errors import TrackerError
 from tracker.present.items import ancestry, node_text
+from tracker.domain.ids import BadId, Kind, parse_id
+from tracker.present.items import node_text
 from tracker.services.core.views import Done
 from tracker.services.labels import handling
 from tracker.services.read import lineage
@@ -27,15 +29,22 @@ from tracker.ui.screens.tabs import TabKeys, tab_keys
 from tracker.ui.widgets import event_rows
 from tracker.ui.widgets.operator_bar import OperatorBar
 
-# Which field of each bench form the item on screen fills.
-PREFILL = {
-    "checkin": "specimen",
-    "drill": "specimen",
-    "return": "specimen",
-    "dissolve": "powder",
-    "concentration": "solution",
-    "aliquot": "solution",
-    "move": "item",
+# Which field of each bench form the item on screen fills, and the kinds of item that form
+# takes there (None: any item).
+PREFILL: dict[str, tuple[str, frozenset[Kind] | None]] = {
+    "checkin": ("specimen", frozenset({Kind.SPECIMEN})),
+    "drill": ("specimen", frozenset({Kind.SPECIMEN})),
+    "return": ("specimen", frozenset({Kind.SPECIMEN})),
+    "specimen_photo": ("specimen", frozenset({Kind.SPECIMEN})),
+    "dissolve": ("powder", frozenset({Kind.POWDER})),
+    "concentration": ("solution", frozenset({Kind.SOLUTION})),
+    "aliquot": ("solution", frozenset({Kind.SOLUTION})),
+    "correct_concentration": ("solution", frozenset({Kind.SOLUTION})),
+    "correct_weighing": ("item", frozenset({Kind.POWDER, Kind.SOLUTION, Kind.ALIQUOT})),
+    "dispose": ("item", frozenset({Kind.POWDER, Kind.SOLUTION})),
+    "correct_recovery": ("cut", frozenset({Kind.CUT})),
+    "move": ("item", None),
+    "labels_reprint": ("items", None),
 }
 
 
@@ -135,7 +144,21 @@ class ItemScreen(TabKeys, Screen[None]):
             tracker_app(self).open_id(event.node.data)
 
     def action_act(self, form: str) -> None:
-        tracker_app(self).action_bench(form, **{PREFILL[form]: self.item_id})
+        """A key asks for this form on this item: its field is filled whatever the kind (the
+        service says why not, if the item does not fit)."""
+        tracker_app(self).action_bench(form, **{PREFILL[form][0]: self.item_id})
+
+    def prefill(self, form: str) -> dict[str, str]:
+        """What a bench form opened here (the palette) takes from this screen: this item,
+        where the form takes an item of its kind (see ``TrackerApp.action_bench``)."""
+        field, kinds = PREFILL.get(form, ("", None))
+        if not field:
+            return {}
+        try:
+            kind = parse_id(self.item_id).kind
+        except BadId:  # not loaded yet: named by a catalogue number
+            return {}
+        return {field: self.item_id} if kinds is None or kind in kinds else {}
 
     def action_queue_label(self) -> None:
         self.queue_label()

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from typing import Any, ClassVar
+from typing import TYPE_CHECKING, Any, ClassVar
 
 from rich.text import Text
 from textual import on, work
@@ -13,7 +13,7 @@ from textual.message import Message
 from textual.screen import Screen
 from textual.widgets import DataTable, Footer, Input, Select, Static, TabbedContent, TabPane
 
-from tracker.domain.errors import TrackerError
+from tracker.domain.errors import InputError, TrackerError
 from tracker.services.core.views import Done
 from tracker.services.labels import handling
 from tracker.services.labels.handling import LabelView
@@ -25,6 +25,9 @@ from tracker.ui.screens.tabs import TabKeys, tab_keys
 from tracker.ui.widgets.id_field import IdField
 from tracker.ui.widgets.operator_bar import OperatorBar
 
+if TYPE_CHECKING:  # the label drawing libraries load when a sheet is drawn or printed
+    from tracker.output.jobs import PrintOutcome
+
 DEFAULT_STOCK = "a4-65"
 
 
@@ -33,6 +36,7 @@ class LabelsScreen(TabKeys, Screen[None]):
         Binding("space", "choose", "Choose", id="labels.choose"),
         Binding("p", "print_queue", "Print", id="labels.print"),
         Binding("x", "cancel_labels", "Cancel labels", id="labels.cancel"),
+        Binding("R", "reprint", "Reprint", id="labels.reprint"),
         Binding("v", "preview", "Preview sheet", id="labels.preview"),
         Binding("r", "refresh", "Refresh", id="labels.refresh"),
         Binding("escape", "app.previous", "Back", id="labels.back"),
@@ -130,7 +134,7 @@ class LabelsScreen(TabKeys, Screen[None]):
             )
         self.query_one("#label-hint", Static).update(
             f"{len(event.queue)} label(s) queued · space chooses some · p prints the chosen "
-            "(or all) · x cancels · v draws the sheet"
+            "(or all) · R reprints · x cancels · v draws the sheet"
         )
 
     def action_choose(self) -> None:
@@ -146,13 +150,30 @@ class LabelsScreen(TabKeys, Screen[None]):
         table.update_cell(item, "chosen", "✓" if item in self.chosen else "")
         table.move_cursor(row=min(table.cursor_row + 1, table.row_count - 1))
 
-    def action_cancel_labels(self) -> None:
-        """The cancel form, with the chosen labels (or the highlighted one) filled in."""
+    def picked(self) -> list[str]:
+        """The chosen labels' items, or else the highlighted one's (none in an empty queue)."""
         table = self.query_one("#queue", DataTable)
-        items = list(self.chosen)
-        if not items and table.row_count:
-            items = [str(table.coordinate_to_cell_key(table.cursor_coordinate).row_key.value)]
-        tracker_app(self).action_bench("labels_cancel", items=", ".join(items))
+        if self.chosen or not table.row_count:
+            return list(self.chosen)
+        return [str(table.coordinate_to_cell_key(table.cursor_coordinate).row_key.value)]
+
+    def prefill(self, form: str) -> dict[str, str]:
+        """What a form opened here takes (a key or the palette): the chosen labels (or the
+        highlighted one) and, to reprint them, this screen's stock, start and printer."""
+        items = {"items": ", ".join(self.picked())}
+        if form == "labels_cancel":
+            return items
+        if form == "labels_reprint":
+            stock, start, printer = self._options()
+            return items | {"stock": stock, "start": start, "printer": printer}
+        return {}
+
+    def action_cancel_labels(self) -> None:
+        tracker_app(self).action_bench("labels_cancel", **self.prefill("labels_cancel"))
+
+    def action_reprint(self) -> None:
+        """The reprint form, filled in from this screen; it asks before printing."""
+        tracker_app(self).action_bench("labels_reprint", **self.prefill("labels_reprint"))
 
     def _options(self) -> tuple[str, str, str]:
         stock = str(self.query_one("#stock", Select).value)
@@ -169,15 +190,12 @@ class LabelsScreen(TabKeys, Screen[None]):
 
     @work(thread=True, exclusive=True, group="preview")
     def preview(self, stock_name: str, start_text: str) -> None:
-        from tracker.domain.errors import InputError
         from tracker.output.layout import lay_out
         from tracker.output.stocks import load_stock
         from tracker.ui.widgets.label_sheet import sheet_text
 
         try:
-            if not start_text.isdigit():
-                raise InputError("start", start_text, "is not a whole number")
-            start = int(start_text)
+            start = start_position(start_text)
             stock = load_stock(stock_name)
             pages = lay_out(stock, handling.queued_facts(database(self)), start)
         except TrackerError as error:
@@ -216,17 +234,14 @@ class LabelsScreen(TabKeys, Screen[None]):
 
     @work(thread=True, exclusive=True, group="save")
     def print_queue(self, stock: str, start: str, printer: str, items: list[str] | None) -> None:
-        from tracker.domain.errors import InputError
         from tracker.output import jobs
 
         try:
-            if not start.isdigit():
-                raise InputError("start", start, "is not a whole number")
             outcome = jobs.print_queue(
                 database(self),
                 operator(self),
                 stock=stock,
-                start=int(start),
+                start=start_position(start),
                 printer=printer or None,
                 folder=tracker_app(self).out_dir,
                 items=items,
@@ -237,13 +252,7 @@ class LabelsScreen(TabKeys, Screen[None]):
         self.post_message(self.Printed(outcome))
 
     def on_labels_screen_printed(self, event: Printed) -> None:
-        job = event.outcome.job
-        sent = f" · sent to {job.printer}" if job.printer else ""
-        self._outcome(
-            f"✓ printed {job.labels} label(s) on {job.pages} page(s) as {job.id} → "
-            f"{event.outcome.out}{sent} · event #{event.outcome.event_seq}",
-            error=False,
-        )
+        self._outcome(printed_line(event.outcome), error=False)
         self.chosen = []
         self.load()
 
@@ -281,3 +290,21 @@ class LabelsScreen(TabKeys, Screen[None]):
         outcome = self.query_one("#outcome", Static)
         outcome.update(text if isinstance(text, Text) else shown(text))
         outcome.set_class(error, "-error")
+
+
+def start_position(text: str) -> int:
+    """The first free position on the sheet, as typed (the stock says how far it may go)."""
+    if not text.isdigit():
+        raise InputError("start", text, "is not a whole number")
+    return int(text)
+
+
+def printed_line(outcome: PrintOutcome) -> str:
+    """One line for a print or reprint job: labels, pages, the job, its new file, the event."""
+    job = outcome.job
+    sent = f" · sent to {job.printer}" if job.printer else ""
+    done = "reprinted" if job.kind == "reprint" else "printed"
+    return (
+        f"✓ {done} {job.labels} label(s) on {job.pages} page(s) as {job.id} → "
+        f"{outcome.out}{sent} · event #{outcome.event_seq}"
+    )

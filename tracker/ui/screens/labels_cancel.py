@@ -14,7 +14,7 @@ class CancelLabelsScreen(FormScreen):
     TITLE = "Cancel queued labels"
     INTRO = "The items whose queued labels will not be printed, and why."
     FIELDS: ClassVar[list[Field]] = [
-        Field("items", "Items", hint="IDs separated by commas"),
+        Field("items", "Items", kind="ids", hint="scan each, or type IDs separated by commas"),
         Field("reason", "Reason", hint="e.g. scanned twice by mistake"),
     ]
 

@@ -32,6 +32,9 @@ from tracker.ui.widgets.flagged_rows import FlaggedRow
 from tracker.ui.widgets.operator_bar import OperatorBar
 
 SPECIMEN_COLUMNS = ("Specimen", "Catalogue no.", "Status", "Drilled / permitted")
+# The bench forms that take the loan on screen, and those that take its highlighted specimen.
+LOAN_FORMS = frozenset({"shipment", "loan_returned", "loan_close", "loan_amend", "loan_attach"})
+SPECIMEN_FORMS = frozenset({"checkin", "drill", "return", "specimen_photo"})
 
 
 class LoanScreen(TabKeys, Screen[None]):
@@ -159,6 +162,14 @@ class LoanScreen(TabKeys, Screen[None]):
         chosen = self.selected_specimen()
         if chosen:
             tracker_app(self).open_id(chosen)
+
+    def prefill(self, form: str) -> dict[str, str]:
+        """What a bench form opened here takes from this screen: the loan, or the
+        highlighted specimen (see ``TrackerApp.action_bench``)."""
+        if form in LOAN_FORMS:
+            return {"loan": self.loan}
+        chosen = self.selected_specimen()
+        return {"specimen": chosen} if chosen and form in SPECIMEN_FORMS else {}
 
     def action_act(self, form: str) -> None:
         chosen = self.selected_specimen()

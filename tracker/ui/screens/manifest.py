@@ -8,7 +8,6 @@ list never reaches the database.
 
 from __future__ import annotations
 
-from pathlib import Path
 from typing import Any, ClassVar
 
 from rich.text import Text
@@ -19,7 +18,8 @@ from textual.message import Message
 from textual.screen import Screen
 from textual.widgets import DataTable, Footer, Input, Static
 
-from tracker.domain.errors import InputError, TrackerError
+from tracker.db.uploads import read_typed_path
+from tracker.domain.errors import TrackerError
 from tracker.services.loans import manifests
 from tracker.services.loans.manifests import ManifestOutcome, ManifestPreview, RowResult
 from tracker.ui.context import database, operator, tracker_app
@@ -159,14 +159,7 @@ def _with_file(request: dict[str, Any]) -> dict[str, Any]:
     """The service's request: the file's name and bytes instead of its path."""
     typed = dict(request)
     text = str(typed.pop("path"))
-    if not text:
-        raise InputError("file", text, "type the path of the lender's list")
-    path = Path(text).expanduser()
-    try:
-        content = path.read_bytes()
-    except OSError as error:
-        raise InputError("file", str(path), f"cannot be read ({error.strerror})") from None
-    return typed | {"filename": path.name, "content": content}
+    return typed | read_typed_path(text, "file", "type the path of the lender's list")
 
 
 def _summary(preview: ManifestPreview) -> Text:

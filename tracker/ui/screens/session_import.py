@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-from pathlib import Path
 from typing import Any, ClassVar
 
 from textual import work
@@ -10,7 +9,7 @@ from textual.message import Message
 from textual.widgets import Static
 
 from tracker.db.database import Database
-from tracker.domain.errors import InputError
+from tracker.db.uploads import read_typed_path
 from tracker.services.core.views import Done
 from tracker.services.instrument import sessions
 from tracker.services.instrument.sessions import ProfileView
@@ -51,10 +50,6 @@ class ImportSessionScreen(FormScreen):
     @staticmethod
     def service(db: Database, actor: str | None, values: dict[str, Any]) -> Done[Any]:
         request = dict(values)
-        path = Path(str(request.pop("file", ""))).expanduser()
-        try:
-            content = path.read_bytes()
-        except OSError as error:
-            raise InputError("file", str(path), f"cannot be read ({error.strerror})") from None
-        request |= {"filename": path.name, "content": content}
+        typed = str(request.pop("file", ""))
+        request |= read_typed_path(typed, "file", "type the path of the instrument's export")
         return sessions.import_session(db, actor, request)

@@ -42,6 +42,23 @@ class IdInput(Input):
         self.post_message(self.Scanned(self, self.value))
 
 
+class IdListInput(IdInput):
+    """A text box for several IDs, separated by commas: each scan is added to the end, and
+    the cursor stays to take the next one."""
+
+    SEPARATOR = ", "
+
+    def fill_from_scan(self, text: str) -> None:
+        typed = self.value.rstrip().rstrip(",").rstrip()
+        self.value = f"{typed}{self.SEPARATOR if typed else ''}{text.strip()}"
+        self.cursor_position = len(self.value)
+
+    @classmethod
+    def ids(cls, text: str) -> list[str]:
+        """The IDs (or catalogue numbers, which may hold spaces) in what was typed."""
+        return [part.strip() for part in text.split(",") if part.strip()]
+
+
 class IdField(Vertical):
     """Label, ID input and a hint line; posts :class:`IdField.Resolved` after each lookup."""
 
