@@ -146,6 +146,8 @@ async def _remove_refused(pilot: Pilot[None]) -> None:
     await pilot.press("ctrl+s")
     await settle(pilot)
     await pilot.press("y")
+
+
 async def _correct_concentration(pilot: Pilot[None]) -> None:
     await _item_then_form(pilot, "SO-00001-M", "correct_concentration")
 

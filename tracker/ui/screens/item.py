@@ -15,9 +15,8 @@ from textual.widgets import DataTable, Footer, Static, TabbedContent, TabPane, T
 from textual.widgets.tree import TreeNode
 
 from tracker.domain.errors import TrackerError
-from tracker.present.items import ancestry, node_text
 from tracker.domain.ids import BadId, Kind, parse_id
-from tracker.present.items import node_text
+from tracker.present.items import ancestry, node_text
 from tracker.services.core.views import Done
 from tracker.services.labels import handling
 from tracker.services.read import lineage
