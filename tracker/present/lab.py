@@ -16,7 +16,7 @@ from tracker.present.text import plain_table
 from tracker.services.bench.columns import BatchSummary, PositionLine
 from tracker.services.instrument.reduction import Reduction, ResultLine
 from tracker.services.instrument.results import SpecimenResult
-from tracker.services.instrument.screening import Screening
+from tracker.services.instrument.screening import CurveView, Screening
 
 BLANK_SHARE_PLACES = 2  # a blank is a small share of a column: 0.19 %, not 0.2 %
 AGE_PLACES = 2  # an age the curve allows, in Ma: the screening's own places (as before)
@@ -154,47 +154,58 @@ def results_table(rows: list[SpecimenResult]) -> RenderableType:
     return table
 
 
+def curve_text(curve: CurveView) -> Text:
+    """Which curve a loan is screened against, and the ages it covers."""
+    span = f"{precision.as_given(curve.youngest_ma)}–{precision.as_given(curve.oldest_ma)} Ma"
+    return Text.assemble(
+        "screened against ", (visible(curve.name), "bold"), f" ({span}, {curve.points} points)"
+    )
+
+
 VERDICT_MARKS = {True: ("✓", "green"), False: ("✗", "bold red"), None: ("?", "yellow")}
 
 
 def screening_text(lines: list[Screening]) -> Text:
-    """Each specimen's measured ⁸⁷Sr/⁸⁶Sr beside what the loan's curve expects at its stated
-    age, the ages the curve allows for it, and the verdict in the service's words: three
-    lines a specimen, in the CLI's ``screen`` and on a loan's Sr screening tab alike (80
-    columns hold them; a table of six columns would not)."""
+    """Each specimen's verdict in the service's words, its measured ⁸⁷Sr/⁸⁶Sr, what the
+    loan's curve expects at its stated age, and the ages the curve allows for the measured
+    ratio: four lines a specimen, in the CLI's ``screen`` and on a loan's Sr screening tab
+    alike (80 columns hold them; a table of six columns would not)."""
     if not lines:
         return Text("No ⁸⁷Sr/⁸⁶Sr results for this loan yet.")
     text = Text()
-    for s in lines:
+    for number, s in enumerate(lines):
         mark, style = VERDICT_MARKS[s.consistent]
+        if number:
+            text.append("\n")
         text.append(s.specimen, "bold")
-        text.append(f"  {visible(s.catalog_number)}", "dim")
-        text.append(f"  stated age {_age_range(s.age_min_ma, s.age_max_ma)}\n")
-        text.append(f"  ⁸⁷Sr/⁸⁶Sr {precision.result('ratio', s.ratio, s.two_sd, s.n)}")
-        text.append(f" · curve at its age {_expected(s)}\n")
-        text.append(f"  {mark} {s.verdict}", style)
-        text.append(f" · curve allows {_allowed(s.intervals_ma)}\n")
+        text.append(f"  {visible(s.catalog_number)}  ", "dim")
+        text.append(f"{mark} {s.verdict}\n", style)
+        measured = precision.result("ratio", s.ratio, s.two_sd, s.n)
+        text.append(f"  {'⁸⁷Sr/⁸⁶Sr measured':<25}{measured}\n")
+        stated = _age_range(s.age_min_ma, s.age_max_ma)
+        text.append(f"  {'curve at its stated age':<25}{_expected(s)} ({stated})\n")
+        text.append(f"  {'ages the curve allows':<25}{_allowed(s.intervals_ma)}\n")
     return text
 
 
 def _age_range(youngest: float | None, oldest: float | None) -> str:
     """A stated (stratigraphic) age range as it was set, in Ma."""
     if youngest is None or oldest is None:
-        return precision.ABSENT
+        return "no stated age"
     return f"{precision.as_given(youngest)}–{precision.as_given(oldest)} Ma"
 
 
 def _expected(s: Screening) -> str:
     """The curve's ⁸⁷Sr/⁸⁶Sr ± 2u over the stated ages, at a ratio's places."""
     if s.expected_low is None or s.expected_high is None:
-        return "none (no stated age)" if s.age_min_ma is None else "none (outside the curve)"
+        return "none" if s.age_min_ma is None else "none (the curve does not reach it)"
     return f"{precision.ratio(s.expected_low)}–{precision.ratio(s.expected_high)}"
 
 
 def _allowed(intervals: list[tuple[float, float]]) -> str:
     """The ages the curve allows for the measured ratio, in Ma (several where it turns)."""
     if not intervals:
-        return "no age"
+        return "none (the ratio is outside the curve)"
     spans = "; ".join(
         f"{precision.number(a, AGE_PLACES)}–{precision.number(b, AGE_PLACES)}" for a, b in intervals
     )
