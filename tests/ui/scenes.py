@@ -123,6 +123,29 @@ async def _dispose(pilot: Pilot[None]) -> None:
     await settle(pilot)
 
 
+async def _brachiopods(pilot: Pilot[None], *keys: str) -> None:
+    """MDGC/LN/0457 (the most urgent loan: Sr results and a curve), then ``keys``."""
+    await settle(pilot)
+    await pilot.press("enter")
+    await settle(pilot)
+    for key in keys:
+        await pilot.press(key)
+        await settle(pilot)
+
+
+async def _loan_results(pilot: Pilot[None]) -> None:
+    await _brachiopods(pilot, "4", "v", "down", "down", "enter")  # on Seawater in-house
+
+
+async def _loan_screening(pilot: Pilot[None]) -> None:
+    await _brachiopods(pilot, "5")
+
+
+async def _loan_curve(pilot: Pilot[None]) -> None:
+    await _brachiopods(pilot, "5", "u")
+    await settle(pilot)
+
+
 async def _help(pilot: Pilot[None]) -> None:
     await settle(pilot)
     await pilot.press("f1")
@@ -153,4 +176,7 @@ SCENES = [
     Scene("report-80x24", (80, 24), _report),
     Scene("override-asked-80x24", (80, 24), _override_asked),
     Scene("dispose-80x24", (80, 24), _dispose),
+    Scene("loan-results-80x24", (80, 24), _loan_results),
+    Scene("loan-screening-80x24", (80, 24), _loan_screening),
+    Scene("loan-curve-80x24", (80, 24), _loan_curve),
 ]
