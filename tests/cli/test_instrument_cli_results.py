@@ -291,6 +291,13 @@ def test_results_convert_exactly_to_a_new_reference_scale(demo: Path) -> None:
     assert kinds == {"delta", "ratio"}
 
 
+def test_the_results_list_gives_every_delta_and_its_2sd_in_per_mil(demo_db: Path) -> None:
+    rows = ok_json(invoke("results", "--loan", KF, db=demo_db, as_json=True))
+    deltas = [r for r in rows if r["kind"] == "delta" and r["two_sd"]]
+    printed = invoke("results", "--loan", KF, db=demo_db).stdout
+    assert deltas and printed.count("‰") == 2 * len(deltas)  # the value's and the 2SD's
+
+
 def test_a_scale_without_an_accepted_value_is_refused(demo_db: Path) -> None:
     result = invoke("results", "--loan", KF, "--scale", "SRM 987", db=demo_db)
     assert "SRM 987" in refused(result, 1, "--scale")  # SRM 987 has no δ44/40 on SRM 915a

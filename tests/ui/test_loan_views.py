@@ -13,6 +13,7 @@ from sqlalchemy import select
 from textual.pilot import Pilot
 from textual.widgets import Select, Static, TabbedContent
 
+from tests.conftest import snapshot_counts
 from tests.ui.conftest import Lab, events_after, head, query, screen_as, settle, until
 from tracker.demo import scenario_path
 from tracker.domain.models import Loan, SrCurve
@@ -201,8 +202,16 @@ async def test_a_curve_chosen_for_a_loan_in_a_form(lab: Lab) -> None:
     assert row.sr_curve_id == curve.id
 
 
+def counted(lab: Lab) -> dict[str, int]:
+    db = lab.open()
+    try:
+        return snapshot_counts(db)
+    finally:
+        db.close()
+
+
 async def test_saving_without_a_curve_is_refused_and_writes_nothing(lab: Lab) -> None:
-    start = head(lab)
+    start, before = head(lab), counted(lab)
     async with lab.app().run_test(size=(80, 24)) as pilot:
         await settle(pilot)
         await pilot.app.run_action("bench('loan_curve')")  # from the palette: nothing filled
@@ -213,6 +222,7 @@ async def test_saving_without_a_curve_is_refused_and_writes_nothing(lab: Lab) ->
         outcome = on_screen(form.query_one("#outcome", Static))
         assert outcome.startswith("✗") and "loan" in outcome
     assert head(lab) == start and events_after(lab, start) == []
+    assert counted(lab) == before
 
 
 def test_the_palette_reaches_every_loan_view() -> None:
