@@ -131,10 +131,32 @@ def test_screening_flags_one_specimen_and_its_intervals_match_a_dense_scan(
         assert (line["age_min_ma"], line["age_max_ma"]) == STRATA_MA
 
 
-def test_human_screening_table_shows_the_verdicts(demo_db: Path) -> None:
+def curve_band_by_hand(youngest: float, oldest: float) -> tuple[float, float]:
+    """The demo curve's ratio ± 2u over an age range, by a 0.001 Ma scan with numpy.interp."""
+    _header, *rows = kept_rows(INSTRUMENT / "sr-curve-INVENTED.csv")
+    ages, values, us = (np.array([float(r[i]) for r in rows]) for i in range(3))
+    grid = np.linspace(youngest, oldest, round((oldest - youngest) * 1000) + 1)
+    middle, spread = np.interp(grid, ages, values), 2 * np.interp(grid, ages, us)
+    return float(np.min(middle - spread)), float(np.max(middle + spread))
+
+
+def test_screening_gives_the_ratio_the_curve_expects_at_the_stated_age(demo_db: Path) -> None:
+    lines = ok_json(invoke("screen", MDGC, db=demo_db, as_json=True))
+    low, high = curve_band_by_hand(*STRATA_MA)
+    assert lines and all(
+        (line["expected_low"], line["expected_high"]) == pytest.approx((low, high), abs=1e-9)
+        for line in lines
+    )
+
+
+def test_human_screening_shows_measured_expected_and_the_verdicts(demo_db: Path) -> None:
     result = invoke("screen", MDGC, db=demo_db)
     assert result.exit_code == 0, result.stderr
     assert "possibly reworked" in result.stdout and "consistent with" in result.stdout
+    low, high = curve_band_by_hand(*STRATA_MA)
+    assert f"{low:.6f}–{high:.6f}" in result.stdout  # a ratio at six decimals, by hand
+    for line in ok_json(invoke("screen", MDGC, db=demo_db, as_json=True)):
+        assert f"{line['ratio']:.6f} ± " in result.stdout  # measured, with its 2SD
 
 
 CURVE_HEAD = "age_ma,87sr/86sr,u\n"
@@ -267,6 +289,13 @@ def test_results_convert_exactly_to_a_new_reference_scale(demo: Path) -> None:
         else:  # a normalised ratio is not a δ: it stays as it is
             assert (new["value"], new["scale"]) == (old["value"], old["scale"])
     assert kinds == {"delta", "ratio"}
+
+
+def test_the_results_list_gives_every_delta_and_its_2sd_in_per_mil(demo_db: Path) -> None:
+    rows = ok_json(invoke("results", "--loan", KF, db=demo_db, as_json=True))
+    deltas = [r for r in rows if r["kind"] == "delta" and r["two_sd"]]
+    printed = invoke("results", "--loan", KF, db=demo_db).stdout
+    assert deltas and printed.count("‰") == 2 * len(deltas)  # the value's and the 2SD's
 
 
 def test_a_scale_without_an_accepted_value_is_refused(demo_db: Path) -> None:

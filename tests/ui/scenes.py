@@ -181,6 +181,28 @@ async def _labels_reprint(pilot: Pilot[None]) -> None:
     await settle(pilot)
     pilot.app.screen.query_one("#queue").focus()
     await pilot.press("R")
+
+
+async def _brachiopods(pilot: Pilot[None], *keys: str) -> None:
+    """MDGC/LN/0457 (the most urgent loan: Sr results and a curve), then ``keys``."""
+    await settle(pilot)
+    await pilot.press("enter")
+    await settle(pilot)
+    for key in keys:
+        await pilot.press(key)
+        await settle(pilot)
+
+
+async def _loan_results(pilot: Pilot[None]) -> None:
+    await _brachiopods(pilot, "4", "v", "down", "down", "enter")  # on Seawater in-house
+
+
+async def _loan_screening(pilot: Pilot[None]) -> None:
+    await _brachiopods(pilot, "5")
+
+
+async def _loan_curve(pilot: Pilot[None]) -> None:
+    await _brachiopods(pilot, "5", "u")
     await settle(pilot)
 
 
@@ -222,4 +244,7 @@ SCENES = [
     Scene("specimen-photo-80x24", (80, 24), _specimen_photo),
     Scene("loan-attach-80x24", (80, 24), _loan_attach),
     Scene("labels-reprint-80x24", (80, 24), _labels_reprint),
+    Scene("loan-results-80x24", (80, 24), _loan_results),
+    Scene("loan-screening-80x24", (80, 24), _loan_screening),
+    Scene("loan-curve-80x24", (80, 24), _loan_curve),
 ]

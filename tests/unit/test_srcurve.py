@@ -92,3 +92,38 @@ def test_a_flat_curve_whose_ends_do_not_divide_evenly_spans_to_its_last_age() ->
     )
     assert curve.intervals(0.703125, 0.0) == [(1.4445674446407963, 257.8365392930713)]
     assert curve.intervals(0.71875, 0.0) == []
+
+
+def band_by_scan(text: str, youngest: float, oldest: float) -> tuple[float, float]:
+    """Independent check: the curve's ratio ± 2u at every 0.001 Ma of the range, by hand."""
+    rows = [line.split(",") for line in text.splitlines()[2:]]
+    points = [(float(a), float(r), float(s)) for a, r, s in rows]
+    low, high = math.inf, -math.inf
+    steps = max(round((oldest - youngest) / 0.001), 1)
+    for i in range(steps + 1):
+        age = youngest + (oldest - youngest) * i / steps
+        for (a0, r0, u0), (a1, r1, u1) in pairwise(points):
+            if a0 <= age <= a1:
+                t = (age - a0) / (a1 - a0)
+                value, u_curve = r0 + t * (r1 - r0), u0 + t * (u1 - u0)
+                break
+        low, high = min(low, value - 2 * u_curve), max(high, value + 2 * u_curve)
+    return low, high
+
+
+@pytest.mark.parametrize(
+    ("youngest", "oldest"), [(12.0, 17.0), (15.0, 35.0), (26.5, 26.5), (0.0, 40.0), (33.3, 38.1)]
+)
+def test_expected_ratio_over_an_age_range_matches_a_dense_scan(
+    youngest: float, oldest: float
+) -> None:
+    band = parse_curve_csv(CURVE).expected(youngest, oldest)
+    assert band is not None
+    low, high = band_by_scan(CURVE, youngest, oldest)
+    assert band[0] == pytest.approx(low, abs=1e-9) and band[1] == pytest.approx(high, abs=1e-9)
+
+
+def test_expected_ratio_counts_only_the_ages_the_curve_covers() -> None:
+    curve = parse_curve_csv(CURVE)
+    assert curve.expected(41.0, 50.0) is None  # wholly older than the curve
+    assert curve.expected(35.0, 60.0) == pytest.approx(band_by_scan(CURVE, 35.0, 40.0))

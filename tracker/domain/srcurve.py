@@ -94,6 +94,24 @@ class Curve:
             found.append((start, ages[-1]))
         return found
 
+    def expected(
+        self, youngest: float, oldest: float, k: float = COVERAGE
+    ) -> tuple[float, float] | None:
+        """The ⁸⁷Sr/⁸⁶Sr (lowest, highest) the curve expects, ± k·u, anywhere in an age range:
+        what a specimen of that stated age should measure, for a person to set beside its
+        measured ratio. Only the part of the range the curve covers counts; None when the
+        range lies wholly outside the curve.
+
+        Ratio and uncertainty are both linear between points, so the band's extremes lie at
+        the range's ends or at the curve's points inside it.
+        """
+        start, end = max(youngest, self.span[0]), min(oldest, self.span[1])
+        if start > end:
+            return None
+        ages = [start, *(a for a in self.ages if start < a < end), end]
+        band = [self.at(age) for age in ages]
+        return min(r - k * u for r, u in band), max(r + k * u for r, u in band)
+
     def _grid(self) -> list[float]:
         ages = [self.points[0].age_ma]
         for left, right in pairwise(self.points):

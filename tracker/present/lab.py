@@ -17,9 +17,10 @@ from tracker.services.bench.chemistry import RemovedPositionView
 from tracker.services.bench.columns import BatchSummary, PositionLine, RemovedLine
 from tracker.services.instrument.reduction import Reduction, ResultLine
 from tracker.services.instrument.results import SpecimenResult
-from tracker.services.instrument.screening import Screening
+from tracker.services.instrument.screening import CurveView, Screening
 
 BLANK_SHARE_PLACES = 2  # a blank is a small share of a column: 0.19 %, not 0.2 %
+AGE_PLACES = 2  # an age the curve allows, in Ma: the screening's own places (as before)
 
 
 def limits_text(summary: BatchSummary) -> str:
@@ -155,43 +156,83 @@ def result_cells(kind: str, value: float, two_sd: float | None) -> tuple[str, st
     return shown + unit, precision.ABSENT if spread is None else spread
 
 
+def specimen_result_cells(row: SpecimenResult) -> tuple[str, str, str, str]:
+    """A result's ratio, value and 2SD (each with its unit: ‰ for a δ, none for a ratio)
+    and n, as cells; the 2SD decides the places, and a 2SD that rounds away is left out."""
+    value, spread = precision.result_pair(row.kind, row.value, row.two_sd)
+    unit = " ‰" if row.kind == "delta" else ""
+    two_sd = precision.ABSENT if spread is None else spread + unit
+    return row.ratio, value + unit, two_sd, str(row.n)
+
+
 def results_table(rows: list[SpecimenResult]) -> RenderableType:
+    """Results per specimen, in the CLI's ``results`` and on a loan's Results tab alike."""
     if not rows:
         return Text("No results yet: import and reduce an instrument session.")
     table = plain_table("specimen", "ratio", "value", "2SD", "n", "scale", "flags")
     for r in rows:
         table.add_row(
             Text.assemble(f"{r.specimen}\n", (visible(r.catalog_number), "dim")),
-            r.ratio,
-            *result_cells(r.kind, r.value, r.two_sd),
-            str(r.n),
-            r.scale,
+            *specimen_result_cells(r),
+            visible(r.scale),
             flag_lines(r.flags),
         )
     return table
 
 
-def screen_table(lines: list[Screening]) -> RenderableType:
+def curve_text(curve: CurveView) -> Text:
+    """Which curve a loan is screened against, and the ages it covers."""
+    span = f"{precision.as_given(curve.youngest_ma)}–{precision.as_given(curve.oldest_ma)} Ma"
+    return Text.assemble(
+        "screened against ", (visible(curve.name), "bold"), f" ({span}, {curve.points} points)"
+    )
+
+
+VERDICT_MARKS = {True: ("✓", "green"), False: ("✗", "bold red"), None: ("?", "yellow")}
+
+
+def screening_text(lines: list[Screening]) -> Text:
+    """Each specimen's verdict in the service's words, its measured ⁸⁷Sr/⁸⁶Sr, what the
+    loan's curve expects at its stated age, and the ages the curve allows for the measured
+    ratio: four lines a specimen, in the CLI's ``screen`` and on a loan's Sr screening tab
+    alike (80 columns hold them; a table of six columns would not)."""
     if not lines:
         return Text("No ⁸⁷Sr/⁸⁶Sr results for this loan yet.")
-    table = plain_table("specimen", "87Sr/86Sr", "curve allows (Ma)", "strata (Ma)", "verdict")
-    for s in lines:
-        allowed = (
-            "; ".join(
-                f"{precision.number(a, 2)}–{precision.number(b, 2)}" for a, b in s.intervals_ma
-            )
-            or "none"
-        )
-        strata = (
-            precision.ABSENT
-            if s.age_min_ma is None
-            else f"{precision.as_given(s.age_min_ma)}–{precision.as_given(s.age_max_ma)}"
-        )
-        table.add_row(
-            Text.assemble(f"{s.specimen}\n", (visible(s.catalog_number), "dim")),
-            precision.ratio(s.ratio),  # the verdict needs the width; `results` has the 2SD
-            allowed,
-            strata,
-            s.verdict,
-        )
-    return table
+    text = Text()
+    for number, s in enumerate(lines):
+        mark, style = VERDICT_MARKS[s.consistent]
+        if number:
+            text.append("\n")
+        text.append(s.specimen, "bold")
+        text.append(f"  {visible(s.catalog_number)}  ", "dim")
+        text.append(f"{mark} {s.verdict}\n", style)
+        measured = precision.result("ratio", s.ratio, s.two_sd, s.n)
+        text.append(f"  {'⁸⁷Sr/⁸⁶Sr measured':<25}{measured}\n")
+        stated = _age_range(s.age_min_ma, s.age_max_ma)
+        text.append(f"  {'curve at its stated age':<25}{_expected(s)} ({stated})\n")
+        text.append(f"  {'ages the curve allows':<25}{_allowed(s.intervals_ma)}\n")
+    return text
+
+
+def _age_range(youngest: float | None, oldest: float | None) -> str:
+    """A stated (stratigraphic) age range as it was set, in Ma."""
+    if youngest is None or oldest is None:
+        return "no stated age"
+    return f"{precision.as_given(youngest)}–{precision.as_given(oldest)} Ma"
+
+
+def _expected(s: Screening) -> str:
+    """The curve's ⁸⁷Sr/⁸⁶Sr ± 2u over the stated ages, at a ratio's places."""
+    if s.expected_low is None or s.expected_high is None:
+        return "none" if s.age_min_ma is None else "none (the curve does not reach it)"
+    return f"{precision.ratio(s.expected_low)}–{precision.ratio(s.expected_high)}"
+
+
+def _allowed(intervals: list[tuple[float, float]]) -> str:
+    """The ages the curve allows for the measured ratio, in Ma (several where it turns)."""
+    if not intervals:
+        return "none (the ratio is outside the curve)"
+    spans = "; ".join(
+        f"{precision.number(a, AGE_PLACES)}–{precision.number(b, AGE_PLACES)}" for a, b in intervals
+    )
+    return f"{spans} Ma"

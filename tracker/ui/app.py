@@ -362,6 +362,15 @@ class TrackerApp(KeyRouting):
         else:
             self.tell("Open a loan (F2, Enter) and press R for its return report.")
 
+    def action_loan_view(self, view: str) -> None:
+        """One of a loan's views (results, scale, screening) on the loan on screen."""
+        from tracker.ui.screens.loan import LoanScreen
+
+        if isinstance(self.screen, LoanScreen):
+            self.screen.action_show_view(view)
+        else:
+            self.tell("Open a loan first (F2, Enter): 4 shows its results, 5 its Sr screening.")
+
     def action_manifest_import(self, loan: str = "") -> None:
         from tracker.ui.screens.manifest import ManifestScreen
 
@@ -431,6 +440,7 @@ def bench_form(form: str, **values: str) -> Screen[None]:
     from tracker.ui.screens.loan_amend import AmendLoanScreen
     from tracker.ui.screens.loan_attach import AttachDocumentScreen
     from tracker.ui.screens.loan_close import CloseLoanScreen
+    from tracker.ui.screens.loan_curve import ChooseCurveScreen
     from tracker.ui.screens.loan_returned import MarkReturnedScreen
     from tracker.ui.screens.move import MoveScreen
     from tracker.ui.screens.return_specimen import ReturnSpecimenScreen
@@ -455,6 +465,7 @@ def bench_form(form: str, **values: str) -> Screen[None]:
         "loan_close": CloseLoanScreen,
         "loan_amend": AmendLoanScreen,
         "loan_attach": AttachDocumentScreen,
+        "loan_curve": ChooseCurveScreen,
         "labels_cancel": CancelLabelsScreen,
         "batch_remove": RemovePositionScreen,
         "labels_reprint": ReprintLabelsScreen,
@@ -553,4 +564,24 @@ PALETTE: list[tuple[str, str, str]] = [
     ("Help", "Keys and a walk through every task (F1)", "help"),
     ("Return report", "Open a loan, then R: the report for its lender", "return_report"),
     ("Import a manifest", "Open a loan, then I: the lender's specimen list", "manifest_import"),
+    (
+        "Results of a loan",
+        "On a loan: each specimen's results with 2SD and n (key 4)",
+        "loan_view('results')",
+    ),
+    (
+        "Results on another scale",
+        "On a loan: choose a reference scale with accepted values (key v)",
+        "loan_view('scale')",
+    ),
+    (
+        "Sr age screening of a loan",
+        "On a loan: measured ⁸⁷Sr/⁸⁶Sr against the curve at each stated age (key 5)",
+        "loan_view('screening')",
+    ),
+    (
+        "Choose a loan's Sr curve",
+        "The stored curve its specimens are screened against (key u on a loan)",
+        "bench('loan_curve')",
+    ),
 ]

@@ -12,7 +12,7 @@ from tracker.cli.progress import progress_bar
 from tracker.cli.state import database, emit, errors, state
 from tracker.db import outputs
 from tracker.domain.errors import InputError
-from tracker.present.lab import results_table, screen_table
+from tracker.present.lab import results_table, screening_text
 from tracker.present.loans import plan_table, reconcile_summary, reconcile_tables
 from tracker.services.instrument import results, screening
 from tracker.services.ledger.audit import AuditReport
@@ -161,4 +161,4 @@ def screen_command(
     """Ages each specimen's ⁸⁷Sr/⁸⁶Sr allows on the loan's curve, and whether they fit."""
     with database(ctx) as db:
         lines = screening.screen(db, loan)
-    emit(ctx, lines, lambda: screen_table(lines))
+    emit(ctx, lines, lambda: screening_text(lines))

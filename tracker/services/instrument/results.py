@@ -9,10 +9,10 @@ another scale through the accepted δ of that scale's reference on the session's
 from __future__ import annotations
 
 from datetime import date
-from typing import Annotated, Literal
+from typing import Annotated, Literal, TypeVarTuple
 
 from pydantic import Field, model_validator
-from sqlalchemy import select
+from sqlalchemy import Select, select
 from sqlalchemy.orm import Session
 
 from tracker.db.database import Database
@@ -25,6 +25,7 @@ from tracker.domain.models import (
     InstrumentSession,
     Loan,
     Powder,
+    ReferenceMaterial,
     ReferenceValue,
     Result,
     Solution,
@@ -35,6 +36,8 @@ from tracker.services.core.inputs import FieldProblem, Name, Raw, Request, parse
 from tracker.services.core.lookup import get_loan, get_reference_material
 from tracker.services.core.uow import unit_of_work
 from tracker.services.core.views import Done, View
+
+Row = TypeVarTuple("Row")
 
 
 class SpecimenResult(View):
@@ -63,13 +66,7 @@ def results(
     """Every sample result, with its specimen, optionally converted to another scale."""
     with db.read_session() as session:
         query = (
-            select(Result, Cut, Specimen, Loan, InstrumentSession)
-            .join(Cut, Result.cut_id == Cut.id)
-            .join(BatchPosition, Cut.position_id == BatchPosition.id)
-            .join(Aliquot, BatchPosition.aliquot_id == Aliquot.id)
-            .join(Solution, Aliquot.solution_id == Solution.id)
-            .join(Powder, Solution.powder_id == Powder.id)
-            .join(Specimen, Powder.specimen_id == Specimen.id)
+            _to_specimen(select(Result, Cut, Specimen, Loan, InstrumentSession))
             .join(Loan, Specimen.loan_id == Loan.id)
             .join(InstrumentSession, Result.session_id == InstrumentSession.id)
             .order_by(Loan.id, Specimen.id, Result.ratio, Result.id)
@@ -103,6 +100,40 @@ def results(
                 )
             )
         return lines
+
+
+def _to_specimen(query: Select[*Row]) -> Select[*Row]:
+    """A query of results joined down their lineage to the specimen they were measured on."""
+    return (
+        query.join(Cut, Result.cut_id == Cut.id)
+        .join(BatchPosition, Cut.position_id == BatchPosition.id)
+        .join(Aliquot, BatchPosition.aliquot_id == Aliquot.id)
+        .join(Solution, Aliquot.solution_id == Solution.id)
+        .join(Powder, Solution.powder_id == Powder.id)
+        .join(Specimen, Powder.specimen_id == Specimen.id)
+    )
+
+
+def scales(db: Database, loan: str) -> list[str]:
+    """The reference scales a loan's results can be shown on, by name: each reference
+    material with an accepted δ on the scale of every δ the loan has (the ratio and the
+    scale it was measured on), so that choosing one of them is never refused. None while the
+    loan has no δ results (a ratio keeps no scale to change)."""
+    with db.read_session() as session:
+        loan_id = get_loan(session, "loan", loan).id
+        measured = _to_specimen(select(Result.ratio, Result.scale).distinct()).where(
+            Specimen.loan_id == loan_id, Result.kind == "delta"
+        )
+        needed = {(ratio, scale) for ratio, scale in session.execute(measured)}
+        accepted = (
+            select(ReferenceMaterial.name, ReferenceValue.ratio, ReferenceValue.scale)
+            .join(ReferenceValue, ReferenceValue.reference_material_id == ReferenceMaterial.id)
+            .where(ReferenceValue.kind == "delta")
+        )
+        known: dict[str, set[tuple[str, str]]] = {}
+        for name, ratio, scale in session.execute(accepted):
+            known.setdefault(name, set()).add((ratio, scale))
+    return sorted(name for name, pairs in known.items() if needed and needed <= pairs)
 
 
 def _anchors(session: Session, scale: str) -> dict[tuple[str, str], ReferenceValue]:

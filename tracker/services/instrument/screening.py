@@ -25,7 +25,7 @@ from tracker.services.core.inputs import Name, Raw, Request, Text, parse
 from tracker.services.core.lookup import get_loan
 from tracker.services.core.uow import unit_of_work
 from tracker.services.core.views import Done, LoanView, View
-from tracker.services.instrument.results import results
+from tracker.services.instrument.results import SpecimenResult, results
 
 SR_RATIO = "87/86"
 # A curve of a few thousand points is a few hundred kB (common practice: published
@@ -106,6 +106,31 @@ def use_curve(db: Database, actor: str | None, data: UseCurve | Raw) -> Done[Loa
         return finish(uow, "loan.curve_set", loan, {"curve": curve.name}, view)
 
 
+def _curve_view(row: SrCurve) -> CurveView:
+    return CurveView(
+        name=row.name,
+        points=len(row.points),
+        youngest_ma=row.points[0][0],
+        oldest_ma=row.points[-1][0],
+        sha256=row.source_sha256,
+    )
+
+
+def list_curves(db: Database) -> list[CurveView]:
+    """Every stored curve, by name: what a loan may be screened against."""
+    with db.read_session() as session:
+        return [_curve_view(c) for c in session.scalars(select(SrCurve).order_by(SrCurve.name))]
+
+
+def chosen_curve(db: Database, loan: str) -> CurveView | None:
+    """The curve a loan is screened against, or None before one is chosen."""
+    with db.read_session() as session:
+        row = get_loan(session, "loan", loan)
+        if row.sr_curve_id is None:
+            return None
+        return _curve_view(session.get_one(SrCurve, row.sr_curve_id))
+
+
 class Screening(View):
     specimen: str
     catalog_number: str
@@ -115,6 +140,9 @@ class Screening(View):
     intervals_ma: list[tuple[float, float]]
     age_min_ma: float | None
     age_max_ma: float | None
+    # the curve's ⁸⁷Sr/⁸⁶Sr ± 2u over the stated ages: what the specimen should measure
+    expected_low: float | None
+    expected_high: float | None
     consistent: bool | None
     verdict: str
 
@@ -134,31 +162,15 @@ def screen(db: Database, loan: str) -> list[Screening]:
             continue
         u = (result.two_se or 0.0) / 2 if result.n > 1 else (result.two_sd or 0.0) / 2
         intervals = curve.intervals(result.value, max(u, 1e-9))
-        lines.append(
-            _verdict(
-                result.specimen,
-                result.catalog_number,
-                result.value,
-                result.two_sd,
-                result.n,
-                intervals,
-                result.age_min_ma,
-                result.age_max_ma,
-            )
-        )
+        lines.append(_verdict(result, intervals, curve))
     return lines
 
 
 def _verdict(
-    specimen: str,
-    catalog: str,
-    ratio: float,
-    two_sd: float | None,
-    n: int,
-    intervals: list[tuple[float, float]],
-    youngest: float | None,
-    oldest: float | None,
+    result: SpecimenResult, intervals: list[tuple[float, float]], curve: Curve
 ) -> Screening:
+    youngest, oldest = result.age_min_ma, result.age_max_ma
+    expected = None if youngest is None or oldest is None else curve.expected(youngest, oldest)
     if youngest is None or oldest is None:
         consistent, verdict = None, "no stratigraphic age on record"
     elif not intervals:
@@ -169,14 +181,16 @@ def _verdict(
         consistent, verdict = False, "possibly reworked or altered"
     rounded = [(round(a, 3), round(b, 3)) for a, b in intervals if not math.isnan(a)]
     return Screening(
-        specimen=specimen,
-        catalog_number=catalog,
-        ratio=ratio,
-        two_sd=two_sd,
-        n=n,
+        specimen=result.specimen,
+        catalog_number=result.catalog_number,
+        ratio=result.value,
+        two_sd=result.two_sd,
+        n=result.n,
         intervals_ma=rounded,
         age_min_ma=youngest,
         age_max_ma=oldest,
+        expected_low=None if expected is None else expected[0],
+        expected_high=None if expected is None else expected[1],
         consistent=consistent,
         verdict=verdict,
     )

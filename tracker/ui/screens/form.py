@@ -18,13 +18,14 @@ from textual.binding import Binding, BindingType
 from textual.containers import Horizontal, VerticalScroll
 from textual.message import Message
 from textual.screen import Screen
-from textual.widgets import Footer, Input, Static
+from textual.widgets import Footer, Input, Select, Static
 
 from tracker.db.database import Database
 from tracker.domain.errors import TrackerError
 from tracker.services.core.views import Done
 from tracker.ui.context import database, operator, tracker_app
 from tracker.ui.messages import Refused, refusal_text
+from tracker.ui.plain import shown
 from tracker.ui.screens.confirm import ConfirmScreen
 from tracker.ui.widgets.field_label import FieldLabel
 from tracker.ui.widgets.id_field import IdField, IdInput, IdListInput
@@ -40,7 +41,7 @@ class Field:
 
     name: str
     label: str
-    kind: str = "text"  # "id": a scannable ID; "ids": several (each scan added); "location"
+    kind: str = "text"  # "id", "ids" (several, each scan added), "location" or "choice"
     hint: str = ""  # an example or how to fill it, shown beside the label (never in the field)
     value: str = ""
     manager_only: bool = False
@@ -62,6 +63,13 @@ class FormScreen(Screen[None]):
             super().__init__()
             self.done = done
 
+    class Offered(Message):
+        """What each choice field offers, read from the database."""
+
+        def __init__(self, offered: dict[str, list[str]]) -> None:
+            super().__init__()
+            self.offered = offered
+
     def __init__(self, **values: str) -> None:
         super().__init__()
         self.initial = values
@@ -82,6 +90,12 @@ class FormScreen(Screen[None]):
         yield Static("", id="outcome")
         yield Footer(compact=True)
 
+    @staticmethod
+    def choices(db: Database) -> dict[str, list[str]]:
+        """What each choice field offers, by field name: a read service, called in a worker
+        (none by default). A person picks one; nothing outside the list can be given."""
+        return {}
+
     def compose_field(self, spec: Field) -> ComposeResult:
         value = self.initial.get(spec.name, spec.value)
         if spec.kind in ("id", "location"):
@@ -92,6 +106,10 @@ class FormScreen(Screen[None]):
                 hint=spec.hint or ("scan it, or type its name" if spec.kind == "location" else ""),
                 offers_locations=spec.kind == "location",
             )
+            return
+        if spec.kind == "choice":
+            yield FieldLabel(spec.label, spec.hint, "")
+            yield Select[str]([], prompt="reading …", id=f"f-{spec.name}", classes="field")
             return
         locked = spec.manager_only and not tracker_app(self).is_manager
         note = "🔒 managers only" if spec.manager_only else ""
@@ -104,14 +122,40 @@ class FormScreen(Screen[None]):
 
     def on_mount(self) -> None:
         first_empty = next((i for i in self.query(Input) if not i.value and not i.disabled), None)
-        (first_empty or self.query(Input).first()).focus()
+        choice = self.query(Select).first() if self.query(Select) else None
+        (first_empty or choice or self.query(Input).first()).focus()
+        if choice is not None:
+            self.offer_choices()
+
+    @work(thread=True, exclusive=True, group="choices")
+    def offer_choices(self) -> None:
+        try:
+            offered = self.choices(database(self))
+        except TrackerError as error:
+            self.post_message(Refused(error, "choices"))
+            return
+        self.post_message(self.Offered(offered))
+
+    def on_form_screen_offered(self, event: FormScreen.Offered) -> None:
+        """Each choice field's options; what the form was opened with stays chosen."""
+        event.stop()
+        for name, options in event.offered.items():
+            select: Select[str] = self.query_one(f"#f-{name}", Select)
+            select.set_options((shown(option), option) for option in options)
+            select.prompt = "choose one (Enter)" if options else "nothing to choose yet"
+            if self.initial.get(name) in options:
+                select.value = self.initial[name]
 
     def values(self) -> dict[str, Any]:
-        """What was typed, by service field name; empty fields are left out, and a field of
-        several IDs is their list."""
+        """What was typed or chosen, by service field name; empty fields are left out, and a
+        field of several IDs is their list."""
         typed: dict[str, Any] = {}
         for spec in self.FIELDS:
-            text = self.query_one(f"#f-{spec.name}", Input).value.strip()
+            if spec.kind == "choice":
+                select: Select[str] = self.query_one(f"#f-{spec.name}", Select)
+                text = "" if select.is_blank() else str(select.value)
+            else:
+                text = self.query_one(f"#f-{spec.name}", Input).value.strip()
             if text:
                 name = spec.name.replace("-", "_")
                 typed[name] = IdListInput.ids(text) if spec.kind == "ids" else text
@@ -178,12 +222,15 @@ class FormScreen(Screen[None]):
     def show_outcome(self, text: str | Text, *, error: bool) -> None:
         show_outcome(self.query_one("#outcome", Static), text, error=error)
 
-    def on_input_changed(self, event: Input.Changed) -> None:
+    def on_input_changed(self, event: Input.Changed | Select.Changed) -> None:
         """A refusal speaks of what was typed then: once a field changes it is cleared,
         so that nothing on screen speaks of a state that has passed."""
         outcome = self.query_one("#outcome", Static)
         if outcome.has_class("-error"):
             show_outcome(outcome, "", error=False)
+
+    def on_select_changed(self, event: Select.Changed) -> None:
+        self.on_input_changed(event)
 
     def on_id_field_scanned(self, event: IdField.Scanned) -> None:
         """A scan into this form's ID field moves on to the next field to fill."""

@@ -79,12 +79,23 @@ passphrase is `demo passphrase, invented`.
 
 ## On a loan (F2, Enter)
 Enter opens a specimen · **c** check in · **d** drill the selected specimen · **p** plan what
-each specimen still needs · **R** return report · **I** manifest import · tabs (**1 2 3**):
-specimens with consumption bars, terms with amendments and overrides, plan.
+each specimen still needs · **R** return report · **I** manifest import · tabs (**1 2 3 4
+5**): specimens with consumption bars, terms with amendments and overrides, plan, results,
+Sr screening.
 **p** asks for the plan's options on one screen, every one `tracker plan` takes: µg per
 analysis, replicates, element, expected yield, material, tissue, safety margin, the share
 kept for concentration, the smallest powder worth drilling. An empty field takes the value
 shown beside its label; Ctrl+S shows the plan on the Plan tab; p again keeps what you typed.
+
+**Results** (**4**): each specimen's results, value ± 2SD and n, on the scale each session
+measured on. **v** opens the scale chooser: pick a reference material whose accepted values
+cover every δ of the loan (on the demo's brachiopod loan `MDGC/LN/0457`, *Seawater
+in-house*) and the δ values are shown on its scale; ratios such as ⁸⁷Sr/⁸⁶Sr keep theirs.
+
+**Sr screening** (**5**): each specimen's measured ⁸⁷Sr/⁸⁶Sr, what the loan's reference
+curve expects at its stated age, the ages the curve allows for it, and the verdict — a
+prompt to look closer, not a judgement. **u** chooses the curve (one of the stored curves),
+**Ctrl+S** records the choice in the ledger.
 
 ## On an item
 Its lineage (specimen → powders → solutions → aliquots → columns → cuts and results) with

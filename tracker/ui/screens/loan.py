@@ -1,5 +1,6 @@
 """One loan: terms in force and their amendments, its specimens with consumption bars,
-what can still be drilled (planning), and the doors to the return report and the manifest import."""
+what can still be drilled (planning), its results on a chosen reference scale, its Sr age
+screening, and the doors to the return report, the manifest import and the curve chooser."""
 
 from __future__ import annotations
 
@@ -29,6 +30,8 @@ from tracker.ui.plain import shown
 from tracker.ui.screens.tabs import TabKeys, tab_keys
 from tracker.ui.widgets import flagged_rows
 from tracker.ui.widgets.flagged_rows import FlaggedRow
+from tracker.ui.widgets.loan_results import ResultsPane
+from tracker.ui.widgets.loan_screening import ScreeningPane
 from tracker.ui.widgets.operator_bar import OperatorBar
 
 SPECIMEN_COLUMNS = ("Specimen", "Catalogue no.", "Status", "Drilled / permitted")
@@ -45,8 +48,16 @@ class LoanScreen(TabKeys, Screen[None]):
         Binding("p", "plan", "Plan", id="loan.plan"),
         Binding("R", "report", "Return report", id="loan.report"),
         Binding("I", "manifest", "Manifest", id="loan.manifest"),
+        Binding("v", "show_view('scale')", "Scale", id="loan.scale"),
+        Binding("u", "choose_curve", "Sr curve", id="loan.curve"),
         Binding("escape", "app.previous", "Back", id="loan.back"),
-        *tab_keys(("tab-specimens", "Specimens"), ("tab-terms", "Terms"), ("tab-plan", "Plan")),
+        *tab_keys(
+            ("tab-specimens", "Specimens"),
+            ("tab-terms", "Terms"),
+            ("tab-plan", "Plan"),
+            ("tab-results", "Results"),
+            ("tab-screening", "Sr screening"),
+        ),
     ]
 
     class Loaded(Message):
@@ -80,6 +91,10 @@ class LoanScreen(TabKeys, Screen[None]):
                     "still needs.",
                     id="plan",
                 )
+            with TabPane("Results", id="tab-results"):
+                yield ResultsPane(id="results-pane")
+            with TabPane("Sr screening", id="tab-screening"):
+                yield ScreeningPane(id="screening-pane")
         yield Static("", id="outcome")
         yield Footer(compact=True)
 
@@ -89,10 +104,16 @@ class LoanScreen(TabKeys, Screen[None]):
         flagged_rows.fill(table, SPECIMEN_COLUMNS, self.flagged, self.size.width)
 
     def on_mount(self) -> None:
-        self.load()
+        self.reload()
 
     def on_screen_resume(self) -> None:
+        self.reload()
+
+    def reload(self) -> None:
+        """The loan and its tabs, each read by its own worker."""
         self.load()
+        self.query_one(ResultsPane).show(self.loan)
+        self.query_one(ScreeningPane).show(self.loan)
 
     @work(thread=True, exclusive=True, group="load")
     def load(self) -> None:
@@ -174,6 +195,20 @@ class LoanScreen(TabKeys, Screen[None]):
     def action_act(self, form: str) -> None:
         chosen = self.selected_specimen()
         tracker_app(self).action_bench(form, **({"specimen": chosen} if chosen else {}))
+
+    def action_show_view(self, view: str) -> None:
+        """A view of the loan by name, as the palette asks for it: its results, the scale
+        chooser over them, or its Sr screening."""
+        tab = {"results": "tab-results", "scale": "tab-results", "screening": "tab-screening"}
+        self.query_one("#loan-tabs", TabbedContent).active = tab[view]
+        if view == "scale":
+            self.query_one(ResultsPane).choose_scale()
+
+    def action_choose_curve(self) -> None:
+        """The curve chooser for this loan, its present curve chosen (if it has one)."""
+        current = self.query_one(ScreeningPane).curve
+        chosen = {"curve": current} if current else {}
+        tracker_app(self).action_bench("loan_curve", loan=self.loan, **chosen)
 
     def action_report(self) -> None:
         tracker_app(self).action_return_report(self.loan)
