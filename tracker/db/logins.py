@@ -83,6 +83,8 @@ UPDATABLE: dict[str, tuple[str, ...]] = {
     "cut": (*_HELD, *CORRECTED["cut"]),
     **DERIVED,
     "column_batch": ("blank_deltas",),
+    # an unmatched instrument row matched after its import (revision 0012)
+    "measurement": ("role", "cut_id", "reference_material_id", "position_id"),
     "loan": ("status", "returned_on", "sr_curve_id"),
     "label": ("status", "job_id"),
     "label_job": ("pages", "sha256"),

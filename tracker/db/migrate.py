@@ -23,6 +23,7 @@ REVISIONS: tuple[str, ...] = (
     "0009_signing",
     "0010_logins",
     "0011_checks",
+    "0012_matched_runs",
 )
 HEAD = REVISIONS[-1]
 MIGRATIONS_DIR = Path(__file__).with_name("migrations")
