@@ -17,7 +17,7 @@ from tracker.domain.errors import InputError, NotFound, RuleViolation
 from tracker.domain.ids import Kind, format_id
 from tracker.domain.models import CustodyEvent, Measurement, MeasurementRole, Result
 from tracker.services.bench import chemistry, columns, solutions
-from tracker.services.instrument import reduction, run_matching, sessions
+from tracker.services.instrument import reduction, run_matching, session_detail, sessions
 from tracker.services.loans import specimens
 
 
@@ -237,3 +237,16 @@ def test_nothing_left_to_match_by_name_writes_nothing(db: Database, counts: Coun
     with pytest.raises(RuleViolation, match="no unmatched row could be matched: run 4"):
         run_matching.match_by_name(db, "tech", {"session": b.session})
     assert counts() == before
+
+
+def test_the_session_says_why_and_when_its_results_are_stale(db: Database) -> None:
+    b = lab(db)
+    reduction.reduce_session(db, "tech", {"session": b.session})
+    assert not session_detail.session_detail(db, b.session).matched_since_reduced
+    run_matching.match_by_name(db, "tech", {"session": b.session})
+    detail = session_detail.session_detail(db, b.session)
+    assert detail.matched_since_reduced
+    reasons = {u.run_order: u.reason for u in detail.unmatched}
+    assert set(reasons) == {4, 10, 12, LAST} and "2 Ca cuts" in reasons[10]
+    reduction.reduce_session(db, "tech", {"session": b.session})
+    assert not session_detail.session_detail(db, b.session).matched_since_reduced
