@@ -357,6 +357,15 @@ class TrackerApp(KeyRouting):
         else:
             self.tell("Open a loan (F2, Enter) and press R for its return report.")
 
+    def action_match_names(self) -> None:
+        from tracker.ui.screens.session import SessionScreen
+
+        screen = self.screen
+        if isinstance(screen, SessionScreen) and screen.session is not None:
+            screen.action_match_names()
+        else:
+            self.tell("Open a session (F4, Enter) and press n to match its rows by name.")
+
     def action_manifest_import(self, loan: str = "") -> None:
         from tracker.ui.screens.manifest import ManifestScreen
 
@@ -424,6 +433,7 @@ def bench_form(form: str, **values: str) -> Screen[None]:
     from tracker.ui.screens.loan_returned import MarkReturnedScreen
     from tracker.ui.screens.move import MoveScreen
     from tracker.ui.screens.return_specimen import ReturnSpecimenScreen
+    from tracker.ui.screens.session_match import MatchRowScreen
     from tracker.ui.screens.shipment import ShipmentScreen
 
     forms: dict[str, type[Screen[None]]] = {
@@ -441,6 +451,7 @@ def bench_form(form: str, **values: str) -> Screen[None]:
         "loan_close": CloseLoanScreen,
         "loan_amend": AmendLoanScreen,
         "labels_cancel": CancelLabelsScreen,
+        "match_row": MatchRowScreen,
     }
     if form not in forms:
         raise InputError("form", form, f"is not one of {', '.join(forms)}")
@@ -485,6 +496,16 @@ PALETTE: list[tuple[str, str, str]] = [
     ("Loans overview", "Open loans by urgency (F2)", "loans"),
     ("Column batches", "Build a batch by scanning aliquots; recoveries and yields (F3)", "batches"),
     ("Instrument sessions", "Import an export, reduce, see QC and drift (F4)", "sessions"),
+    (
+        "Match an instrument row",
+        "Say what an unmatched row measured: its cut (F4, a session, m)",
+        "bench('match_row')",
+    ),
+    (
+        "Match rows by catalogue number",
+        "Open a session (F4, Enter), then n: rows named by a specimen's catalogue number",
+        "match_names",
+    ),
     ("Labels", "Queue, choose, preview on a stock, print (F5)", "labels"),
     (
         "Cancel queued labels",
