@@ -25,7 +25,7 @@ pytestmark = pytest.mark.postgresql
 REFUSED = re.compile(
     "permission denied|must be owner|needs an operator with the manager role|records only as"
     "|changes only by a correction|needs its ledger event|only .* may change it"
-    "|was recorded by|bound to no operator|is not what correction"
+    "|was recorded by|bound to no operator|is not what correction|is matched already"
 )
 
 
@@ -195,6 +195,24 @@ def test_a_correction_by_hand_is_held_to_the_rules(demo_lab: Lab) -> None:
 def test_derived_values_change_only_with_a_reduction_or_a_correction(demo_lab: Lab) -> None:
     said = refused(demo_lab, "tomas", event("tomas", "item.moved"), "UPDATE result SET n = 1")
     assert "changed with the event item.moved" in said
+
+
+def test_a_row_is_matched_only_with_its_event_and_only_once(demo_lab: Lab) -> None:
+    """The demo's calcium rerun keeps rows typed by name unmatched (revision 0012)."""
+    row = (
+        "FROM measurement m JOIN instrument_session s ON s.id = m.session_id "
+        "WHERE s.name = 'Ca 2026-11-27 rerun' AND m.run_order"
+    )
+    cut = "(SELECT min(id) FROM cut)"
+    match = f"UPDATE measurement SET role = 'sample', cut_id = {cut} WHERE id = (SELECT m.id "
+    assert "needs its ledger event" in refused(demo_lab, "tomas", f"{match}{row} = 6)")
+    said = refused(demo_lab, "tomas", event("tomas", "item.moved"), f"{match}{row} = 6)")
+    assert "only session.row_matched, session.rows_matched may change it" in said
+    said = refused(demo_lab, "tomas", event("tomas", "session.row_matched"), f"{match}{row} = 1)")
+    assert "is matched already" in said  # run 1 is a bracketing standard
+    with demo_lab.raw("tomas") as conn:  # as the service does it: with its event
+        for statement in [event("tomas", "session.row_matched"), f"{match}{row} = 6)"]:
+            conn.execute(text(statement))
 
 
 def test_a_managers_sql_without_the_event_is_refused(demo_lab: Lab) -> None:

@@ -81,6 +81,32 @@ async def _drift(pilot: Pilot[None]) -> None:
     await settle(pilot)
 
 
+async def _unmatched(pilot: Pilot[None]) -> None:
+    """The demo's calcium rerun, whose samples were typed by name: its Unmatched rows tab."""
+    await settle(pilot)
+    await scan(pilot, "IS-00003-6")
+    await pilot.press("2")
+    await settle(pilot)
+
+
+async def _matched_by_name(pilot: Pilot[None]) -> None:
+    await _unmatched(pilot)
+    await pilot.press("n")
+    await settle(pilot)
+
+
+async def _match_row(pilot: Pilot[None]) -> None:
+    """m on the rerun's last unmatched row ("tooth 14 rerun"), its catalogue number typed."""
+    await _unmatched(pilot)
+    pilot.app.screen.query_one("#unmatched").focus()
+    await pilot.press("down", "down")
+    await settle(pilot)
+    await pilot.press("m")
+    await settle(pilot)
+    pilot.app.screen.query_one("#f-target", Input).value = "KFMNH P 20313"
+    await settle(pilot)
+
+
 async def _labels(pilot: Pilot[None]) -> None:
     await settle(pilot)
     await pilot.press("f5")
@@ -247,4 +273,7 @@ SCENES = [
     Scene("loan-results-80x24", (80, 24), _loan_results),
     Scene("loan-screening-80x24", (80, 24), _loan_screening),
     Scene("loan-curve-80x24", (80, 24), _loan_curve),
+    Scene("unmatched-80x24", (80, 24), _unmatched),
+    Scene("matched-by-name-80x24", (80, 24), _matched_by_name),
+    Scene("match-row-80x24", (80, 24), _match_row),
 ]

@@ -221,7 +221,9 @@ COMMANDS: tuple[Entry, ...] = (
     Entry("reference", "reference", "Reference materials and bracketing standards.", group=True),
     Entry("material", "material", "Materials and their element mass fractions.", group=True),
     Entry("profile", "profile", "Column mapping profiles for instrument exports.", group=True),
-    Entry("session", "session", "Instrument sessions: import, reduce, plot.", group=True),
+    Entry(
+        "session", "session", "Instrument sessions: import, match rows, reduce, plot.", group=True
+    ),
     Entry("curve", "curve", "Strontium reference curves for age screening.", group=True),
     Entry("report", "report", "Reports for lenders.", group=True),
     Entry("manifest", "manifest", "Lenders' specimen lists (Darwin Core headings).", group=True),

@@ -84,6 +84,8 @@ UPDATABLE: dict[str, tuple[str, ...]] = {
     **DERIVED,
     "batch_position": (*DERIVED["batch_position"], "removed_at", "removal_reason"),
     "column_batch": ("blank_deltas",),
+    # an unmatched instrument row matched after its import (revision 0012)
+    "measurement": ("role", "cut_id", "reference_material_id", "position_id"),
     "loan": ("status", "returned_on", "sr_curve_id"),
     "label": ("status", "job_id"),
     "label_job": ("pages", "sha256"),

@@ -24,6 +24,7 @@ REVISIONS: tuple[str, ...] = (
     "0010_logins",
     "0011_checks",
     "0012_removed_positions",
+    "0013_matched_runs",
 )
 HEAD = REVISIONS[-1]
 MIGRATIONS_DIR = Path(__file__).with_name("migrations")

@@ -51,6 +51,8 @@ ACTION_WORDS: dict[str, str] = {
     "profile.saved": "instrument export profile saved",
     "session.imported": "instrument session imported",
     "session.reduced": "instrument session reduced",
+    "session.row_matched": "instrument row matched by hand",
+    "session.rows_matched": "instrument rows matched by catalogue number",
     "curve.added": "strontium age curve added",
     "labels.queued": "labels queued",
     "labels.printed": "labels printed",

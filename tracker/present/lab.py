@@ -17,6 +17,7 @@ from tracker.services.bench.chemistry import RemovedPositionView
 from tracker.services.bench.columns import BatchSummary, PositionLine, RemovedLine
 from tracker.services.instrument.reduction import Reduction, ResultLine
 from tracker.services.instrument.results import SpecimenResult
+from tracker.services.instrument.run_matching import MatchedRow, NamesMatched
 from tracker.services.instrument.screening import CurveView, Screening
 
 BLANK_SHARE_PLACES = 2  # a blank is a small share of a column: 0.19 %, not 0.2 %
@@ -236,3 +237,24 @@ def _allowed(intervals: list[tuple[float, float]]) -> str:
         f"{precision.number(a, AGE_PLACES)}–{precision.number(b, AGE_PLACES)}" for a, b in intervals
     )
     return f"{spans} Ma"
+
+
+def matched_line(row: MatchedRow) -> str:
+    """One matched instrument row, as both front ends say it."""
+    what = {"sample": "a run of", "reference": "a run of", "blank": "a procedural blank,"}
+    if row.target is None:
+        said = f"the bracketing standard ({row.label})"
+    else:
+        said = f"{what.get(row.role, 'a run of')} {row.target}, {row.label}"
+    return visible(f"run {row.run_order} ({row.sample_name!r}) is {said}")
+
+
+def names_matched_lines(answer: NamesMatched) -> list[str]:
+    """What matching by name did: each row matched, each row left and why, then what next."""
+    lines = [f"{len(answer.matched)} row(s) matched, {len(answer.unmatched)} left unmatched"]
+    lines += [f"  ✓ {matched_line(row)}" for row in answer.matched]
+    lines += [
+        visible(f"  · run {row.run_order} ({row.sample_name!r}) {row.reason}")
+        for row in answer.unmatched
+    ]
+    return lines

@@ -371,6 +371,15 @@ class TrackerApp(KeyRouting):
         else:
             self.tell("Open a loan first (F2, Enter): 4 shows its results, 5 its Sr screening.")
 
+    def action_match_names(self) -> None:
+        from tracker.ui.screens.session import SessionScreen
+
+        screen = self.screen
+        if isinstance(screen, SessionScreen) and screen.session is not None:
+            screen.action_match_names()
+        else:
+            self.tell("Open a session (F4, Enter) and press n to match its rows by name.")
+
     def action_manifest_import(self, loan: str = "") -> None:
         from tracker.ui.screens.manifest import ManifestScreen
 
@@ -444,6 +453,7 @@ def bench_form(form: str, **values: str) -> Screen[None]:
     from tracker.ui.screens.loan_returned import MarkReturnedScreen
     from tracker.ui.screens.move import MoveScreen
     from tracker.ui.screens.return_specimen import ReturnSpecimenScreen
+    from tracker.ui.screens.session_match import MatchRowScreen
     from tracker.ui.screens.shipment import ShipmentScreen
     from tracker.ui.screens.specimen_photo import SpecimenPhotoScreen
 
@@ -469,6 +479,7 @@ def bench_form(form: str, **values: str) -> Screen[None]:
         "labels_cancel": CancelLabelsScreen,
         "batch_remove": RemovePositionScreen,
         "labels_reprint": ReprintLabelsScreen,
+        "match_row": MatchRowScreen,
     }
     if form not in forms:
         raise InputError("form", form, f"is not one of {', '.join(forms)}")
@@ -538,6 +549,16 @@ PALETTE: list[tuple[str, str, str]] = [
         "bench('batch_remove')",
     ),
     ("Instrument sessions", "Import an export, reduce, see QC and drift (F4)", "sessions"),
+    (
+        "Match an instrument row",
+        "Say what an unmatched row measured: its cut (F4, a session, m)",
+        "bench('match_row')",
+    ),
+    (
+        "Match rows by catalogue number",
+        "Open a session (F4, Enter), then n: rows named by a specimen's catalogue number",
+        "match_names",
+    ),
     ("Labels", "Queue, choose, preview on a stock, print (F5)", "labels"),
     (
         "Cancel queued labels",

@@ -10,13 +10,13 @@ from tracker.cli.out_options import Force, kept_as, kept_note
 from tracker.cli.state import database, emit, perform, read_upload
 from tracker.db import outputs
 from tracker.domain.errors import InputError
-from tracker.present.lab import reduction_table
-from tracker.services.instrument import reduction, sessions
+from tracker.present.lab import matched_line, names_matched_lines, reduction_table
+from tracker.services.instrument import reduction, run_matching, sessions
 
 Opt = typer.Option
 
 app = typer.Typer(
-    help="Instrument sessions: import, reduce, plot.",
+    help="Instrument sessions: import, match rows, reduce, plot.",
     no_args_is_help=True,
     epilog="Example: tracker session reduce IS-00001-A",
 )
@@ -102,6 +102,62 @@ def session_reduce(
     """Bracket, average and check a session: δ with 2SD and n, reference materials pass/fail."""
     answer = perform(ctx, reduction.reduce_session, {"session": session})
     emit(ctx, answer, lambda: reduction_table(answer.item))
+
+
+@app.command(
+    "match",
+    epilog="Example: tracker --as priya session match IS-00003-6 6 CU-00004-F",
+)
+def session_match(
+    ctx: typer.Context,
+    session: Annotated[str, typer.Argument(help="Session ID (IS-...).")],
+    run_order: Annotated[
+        int, typer.Argument(metavar="RUN", help="The unmatched row's run number.")
+    ],
+    target: Annotated[
+        str,
+        typer.Argument(
+            help="What the row measured: a cut ID, or a specimen's catalogue number or ID "
+            "(powder, solution, aliquot) with one cut of the session's element, a column, "
+            "a reference material, or the bracketing standard's name."
+        ),
+    ],
+) -> None:
+    """Say what one unmatched row of a session measured; then reduce the session again."""
+    answer = perform(
+        ctx,
+        run_matching.match_row,
+        {"session": session, "run_order": run_order, "target": target},
+    )
+    item = answer.item
+
+    def human() -> str:
+        return (
+            f"{matched_line(item.matched)}\n"
+            f"reduce the session again: tracker session reduce {item.session}"
+        )
+
+    emit(ctx, answer, human)
+
+
+@app.command(
+    "match-names",
+    epilog="Example: tracker --as priya session match-names IS-00003-6",
+)
+def session_match_names(
+    ctx: typer.Context,
+    session: Annotated[str, typer.Argument(help="Session ID (IS-...).")],
+) -> None:
+    """Match the unmatched rows named by a specimen's catalogue number; list the rest."""
+    answer = perform(ctx, run_matching.match_by_name, {"session": session})
+    item = answer.item
+
+    def human() -> str:
+        lines = names_matched_lines(item)
+        lines.append(f"reduce the session again: tracker session reduce {item.session}")
+        return "\n".join(lines)
+
+    emit(ctx, answer, human)
 
 
 @app.command("plot", epilog="Example: tracker session plot IS-00001-A --out drift.png")

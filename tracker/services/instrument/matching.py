@@ -92,6 +92,13 @@ class Matcher:
             return f"{label} is not a cut or a column position"
         if position is None:
             return f"{label} names nothing in this database"
+        return self.place(measurement, position, cut, label)
+
+    def place(
+        self, measurement: Measurement, position: BatchPosition, cut: Cut | None, label: str
+    ) -> str:
+        """Make the run a blank, reference or sample of this column (``cut`` if one is named,
+        else the column's cut of the session's element); return why not, or ''."""
         if not position.in_batch:
             return f"{label} was removed from its batch ({position.removal_reason})"
         if position.batch.element != self.element:

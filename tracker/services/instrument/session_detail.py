@@ -59,6 +59,7 @@ class SessionDetail(View):
     results: list[ResultLine]
     flags: list[str]
     reduced: bool
+    matched_since_reduced: bool = False  # rows matched after the stored results: reduce again
 
 
 def session_detail(db: Database, ref: str) -> SessionDetail:
@@ -66,7 +67,7 @@ def session_detail(db: Database, ref: str) -> SessionDetail:
     results its last reduction stored, reference materials judged as the reduction judged them."""
     with db.read_session() as sql:
         session = get_by_id(sql, InstrumentSession, "session", ref)
-        reasons = _import_reasons(sql, session.public_id)
+        reasons, stale = _reasons_and_staleness(sql, session.public_id)
         unmatched = [
             UnmatchedLine(
                 run_order=m.run_order,
@@ -103,20 +104,34 @@ def session_detail(db: Database, ref: str) -> SessionDetail:
             results=lines,
             flags=list(session.flags),
             reduced=bool(lines),
+            matched_since_reduced=bool(lines) and stale,
         )
 
 
-def _import_reasons(sql: Session, public_id: str) -> dict[int, str]:
-    event = sql.scalars(
+# The events of a session that say why its rows are unmatched, or that its results are stale.
+_REASONS = ("session.imported", "session.rows_matched")
+_MATCHED = ("session.row_matched", "session.rows_matched")
+
+
+def _reasons_and_staleness(sql: Session, public_id: str) -> tuple[dict[int, str], bool]:
+    """Why each unmatched row is unmatched (the import's reason, or the latest matching by
+    name's), and whether a row was matched after the session was last reduced."""
+    found = sql.scalars(
         select(CustodyEvent)
-        .where(CustodyEvent.object_ref == public_id, CustodyEvent.action == "session.imported")
-        .order_by(CustodyEvent.seq.desc())
-        .limit(1)
-    ).first()
-    if event is None:
-        return {}
-    payload = json.loads(event.payload)
-    return {int(u["run_order"]): str(u["reason"]) for u in payload.get("unmatched", [])}
+        .where(
+            CustodyEvent.object_ref == public_id,
+            CustodyEvent.action.in_((*_REASONS, *_MATCHED, "session.reduced")),
+        )
+        .order_by(CustodyEvent.seq)
+    )
+    reasons: dict[int, str] = {}
+    stale = False
+    for event in found:
+        stale = event.action in _MATCHED or (stale and event.action != "session.reduced")
+        if event.action in _REASONS:
+            payload = json.loads(event.payload)
+            reasons |= {int(u["run_order"]): str(u["reason"]) for u in payload.get("unmatched", [])}
+    return reasons, stale
 
 
 def _stored_line(

@@ -64,7 +64,10 @@ passphrase is `demo passphrase, invented`.
    profile (`mc-ca` on the demo), a name, the instrument, element and bracketing standard,
    Ctrl+S. The session opens: unmatched rows are listed with why; press **r** to reduce —
    results with 2SD and n, reference materials ✓ pass or ✗ FAIL, and the standard's drift
-   plotted on its own tab.
+   plotted on its own tab. Rows typed at the instrument by name (`IS-00003-6` on the demo):
+   on the Unmatched tab (**2**) press **n** to match the rows named by a specimen's
+   catalogue number, or **m** on a row to scan or type its cut (`CU-00004-F`, or the
+   catalogue number `KFMNH P 20313`); then **r** reduces again.
 5. **Print labels.** Press **F5**. Choose the stock, the first free position, **v** draws the
    sheet; **space** chooses labels, **p** prints the chosen ones (or, asked first, the whole
    queue) to a PDF (and to a printer if you name one); **x** cancels labels with a reason.

@@ -1,5 +1,6 @@
-"""Instrument sessions: import through a profile, unmatched rows, reduced results with 2SD
-and n, reference materials ✓ pass / ✗ FAIL, and the bracketing standard's drift."""
+"""Instrument sessions: import through a profile, unmatched rows (matched by hand or by
+catalogue number), reduced results with 2SD and n, reference materials ✓ pass / ✗ FAIL, and
+the bracketing standard's drift."""
 
 from __future__ import annotations
 
@@ -16,15 +17,16 @@ from textual.widgets import DataTable, Footer, Static, TabbedContent, TabPane
 from tracker.domain.errors import TrackerError
 from tracker.present import lab
 from tracker.present.bars import flag_text
-from tracker.present.lab import accepted_text
+from tracker.present.lab import accepted_text, names_matched_lines
 from tracker.services.core.views import Done
-from tracker.services.instrument import reduction, session_detail, sessions
+from tracker.services.instrument import reduction, run_matching, session_detail, sessions
 from tracker.services.instrument.reduction import ResultLine
+from tracker.services.instrument.run_matching import NamesMatched
 from tracker.services.instrument.session_detail import SessionDetail
 from tracker.services.instrument.sessions import DriftSeries
 from tracker.services.read import browse
 from tracker.services.read.browse import SessionLine
-from tracker.ui.context import database, operator
+from tracker.ui.context import database, operator, tracker_app
 from tracker.ui.messages import Refused, refusal_text
 from tracker.ui.plain import shown
 from tracker.ui.screens.session_import import ImportSessionScreen
@@ -37,6 +39,8 @@ class SessionScreen(TabKeys, Screen[None]):
     BINDINGS: ClassVar[list[BindingType]] = [
         Binding("i", "import_session", "Import", id="session.import"),
         Binding("r", "reduce", "Reduce", id="session.reduce"),
+        Binding("m", "match_row", "Match row", id="session.match_row"),
+        Binding("n", "match_names", "Match by name", id="session.match_names"),
         Binding("o", "other_session", "Other session", id="session.other"),
         Binding("escape", "app.previous", "Back", id="session.back"),
         *tab_keys(
@@ -56,6 +60,11 @@ class SessionScreen(TabKeys, Screen[None]):
 
     class Reduced(Message):
         def __init__(self, done: Done[Any]) -> None:
+            super().__init__()
+            self.done = done
+
+    class MatchedByName(Message):
+        def __init__(self, done: Done[NamesMatched]) -> None:
             super().__init__()
             self.done = done
 
@@ -155,7 +164,10 @@ class SessionScreen(TabKeys, Screen[None]):
             )
         )
         head.append(f"{len(d.unmatched)} unmatched row(s) · ")
-        head.append("reduced · " if d.reduced else "⚠ not reduced yet (press r) · ")
+        if d.matched_since_reduced:
+            head.append("⚠ rows matched since the last reduction: reduce again (press r) · ")
+        else:
+            head.append("reduced · " if d.reduced else "⚠ not reduced yet (press r) · ")
         head.append_text(flag_text(d.flags))
         self.query_one("#session-head", Static).update(head)
         results = self.query_one("#results", DataTable)
@@ -165,7 +177,9 @@ class SessionScreen(TabKeys, Screen[None]):
         unmatched = self.query_one("#unmatched", DataTable)
         unmatched.clear()
         for u in d.unmatched:
-            unmatched.add_row(str(u.run_order), shown(u.sample_name), shown(u.reason))
+            unmatched.add_row(
+                str(u.run_order), shown(u.sample_name), shown(u.reason), key=str(u.run_order)
+            )
         self.query_one("#drift", DriftPlot).show(event.drift)
 
     def on_refused(self, event: Refused) -> None:
@@ -184,6 +198,45 @@ class SessionScreen(TabKeys, Screen[None]):
         if self.session is not None:
             self.query_one("#outcome", Static).update("… reducing")
             self.reduce(self.session)
+
+    def action_match_row(self) -> None:
+        """The form for the highlighted unmatched row, its session and run filled in."""
+        if self.session is None:
+            self._say("Choose a session first (Enter).")
+            return
+        table = self.query_one("#unmatched", DataTable)
+        if table.row_count == 0:
+            self._say("This session has no unmatched rows.")
+            return
+        self.query_one("#session-tabs", TabbedContent).active = "tab-unmatched"
+        run = table.coordinate_to_cell_key(table.cursor_coordinate).row_key.value
+        prefilled = {"session": self.session, "run-order": str(run)}
+        tracker_app(self).action_bench("match_row", **prefilled)
+
+    def action_match_names(self) -> None:
+        if self.session is not None:
+            self._say("… matching rows named by a catalogue number")
+            self.match_names(self.session)
+
+    def _say(self, text: str | Text) -> None:
+        outcome = self.query_one("#outcome", Static)
+        outcome.set_class(False, "-error")
+        outcome.update(text if isinstance(text, Text) else Text(text))
+
+    @work(thread=True, exclusive=True, group="save")
+    def match_names(self, session: str) -> None:
+        try:
+            done = run_matching.match_by_name(database(self), operator(self), {"session": session})
+        except TrackerError as error:
+            self.post_message(Refused(error, "match"))
+            return
+        self.post_message(self.MatchedByName(done))
+
+    def on_session_screen_matched_by_name(self, event: MatchedByName) -> None:
+        lines = names_matched_lines(event.done.item)
+        lines[0] = f"✓ {lines[0]} · event #{event.done.event_seq} · press r to reduce again"
+        self._say(shown("\n".join(lines)))
+        self.refresh_view()
 
     @work(thread=True, exclusive=True, group="save")
     def reduce(self, session: str) -> None:
