@@ -45,6 +45,8 @@ FLAG_SYMBOLS = {
     "mass-dependence off": "⚠",
     "single run": "⚠",
     "no procedural blank measured": "⚠",
+    "FAIL": "✗",  # a reference material outside its accepted value
+    "pass": "✓",  # a reference material within it
 }
 
 
@@ -74,7 +76,7 @@ def flag_lines(flags: Sequence[str]) -> str:
 
 
 def _severity(flag: str) -> int:
-    return "✗⚠↩?•".index(symbol_of(flag))
+    return "✗⚠↩?•✓".index(symbol_of(flag))
 
 
 def flag_cell(flags: Sequence[str], width: int) -> Text:
@@ -86,7 +88,7 @@ def flag_cell(flags: Sequence[str], width: int) -> Text:
     text = Text()
     for index, flag in enumerate(sorted(flags, key=_severity)):
         symbol = symbol_of(flag)
-        style = "bold red" if symbol == "✗" else "yellow" if symbol in "⚠?" else ""
+        style = {"✗": "bold red", "⚠": "yellow", "?": "yellow", "✓": "green"}.get(symbol, "")
         if index:
             text.append("\n")
         text.append("\n  ".join(wrapped(f"{symbol} {flag}", width)), style=style)

@@ -18,7 +18,7 @@ from tracker.domain.errors import TrackerError
 from tracker.present import lab
 from tracker.present.bars import flag_text
 from tracker.services.bench import chemistry, columns
-from tracker.services.bench.columns import BatchSummary
+from tracker.services.bench.columns import BatchSummary, PositionLine
 from tracker.services.core.views import Done
 from tracker.services.read import browse
 from tracker.services.read.browse import BatchLine
@@ -31,6 +31,8 @@ from tracker.ui.screens.batch_forms import (
     ReferencePositionScreen,
     RemovePositionScreen,
 )
+from tracker.ui.widgets import flagged_rows
+from tracker.ui.widgets.flagged_rows import FlaggedRow
 from tracker.ui.widgets.id_field import IdField
 from tracker.ui.widgets.operator_bar import OperatorBar
 
@@ -84,19 +86,6 @@ class BatchScreen(Screen[None]):
         batches = self.query_one("#batches", DataTable)
         for label in ("Batch", "Name", "Element", "Date", "Columns"):
             batches.add_column(label)
-        positions = self.query_one("#positions", DataTable)
-        for label in (
-            "#",
-            "Column",
-            "Kind",
-            "Holds",
-            "Loaded",
-            "Recovered",
-            "Yield",
-            "Blank",
-            "Flags",
-        ):
-            positions.add_column(label)
         self.refresh_view()
 
     def on_screen_resume(self) -> None:
@@ -157,20 +146,21 @@ class BatchScreen(Screen[None]):
         self.query_one("#batch-head", Static).update(head)
         table = self.query_one("#positions", DataTable)
         keep = table.cursor_row
-        table.clear()
-        for p in s.positions:
-            table.add_row(
-                str(p.slot),
-                p.id,
-                p.kind,
-                shown(lab.holds_text(p.holds, p.catalog_number)),
-                *lab.position_cells(p),
-                flag_text(p.flags),
-                key=p.id,
-            )
+        self.fill_positions()
         if table.row_count:
             table.move_cursor(row=min(keep, table.row_count - 1))
         self.query_one("#f-aliquot", Input).focus()
+
+    def on_resize(self) -> None:
+        self.fill_positions()
+
+    def fill_positions(self) -> None:
+        """The columns, two lines each so the flags keep their room at 80 columns."""
+        if self.summary is None:
+            return
+        rows = [FlaggedRow(p.id, _position_cells(p), p.flags) for p in self.summary.positions]
+        table = self.query_one("#positions", DataTable)
+        flagged_rows.fill(table, POSITION_COLUMNS, rows, self.size.width, least_height=2)
 
     # ------------------------------------------------------------------ building
     def on_id_field_scanned(self, event: IdField.Scanned) -> None:
@@ -264,3 +254,19 @@ class BatchScreen(Screen[None]):
                 if self.summary
                 else CutScreen()
             )
+
+
+POSITION_COLUMNS = ("Column", "Holds", "Loaded/recov.", "Yield/blank")
+
+
+def _position_cells(p: PositionLine) -> tuple[Text | str, ...]:
+    """A column: slot, ID and kind; the specimen (or material) and aliquot it holds; the
+    element loaded and recovered; its yield and the procedural blank's share."""
+    loaded, recovered, yield_text, share = lab.position_cells(p)
+    holds = f"{p.catalog_number}\n{p.holds}" if p.catalog_number else (p.holds or "—")
+    return (
+        Text.assemble(f"{p.slot}. {p.id}\n", (p.kind, "dim")),
+        shown(holds),
+        f"{loaded} →\n{recovered}",
+        f"{yield_text}\n{share}",
+    )

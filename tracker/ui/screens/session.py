@@ -16,7 +16,7 @@ from textual.widgets import DataTable, Footer, Static, TabbedContent, TabPane
 
 from tracker.domain.errors import TrackerError
 from tracker.present import lab
-from tracker.present.bars import flag_text
+from tracker.present.bars import flag_cell, flag_text, words_cell
 from tracker.present.lab import accepted_text, names_matched_lines
 from tracker.services.core.views import Done
 from tracker.services.instrument import reduction, run_matching, session_detail, sessions
@@ -31,7 +31,9 @@ from tracker.ui.messages import Refused, refusal_text
 from tracker.ui.plain import shown
 from tracker.ui.screens.session_import import ImportSessionScreen
 from tracker.ui.screens.tabs import TabKeys, tab_keys
+from tracker.ui.widgets import flagged_rows
 from tracker.ui.widgets.drift_plot import DriftPlot
+from tracker.ui.widgets.flagged_rows import FlaggedRow, LastColumn
 from tracker.ui.widgets.operator_bar import OperatorBar
 
 
@@ -71,6 +73,7 @@ class SessionScreen(TabKeys, Screen[None]):
     def __init__(self, session: str | None) -> None:
         super().__init__()
         self.session = session
+        self.detail: SessionDetail | None = None  # the session shown, refitted on a resize
 
     def compose(self) -> ComposeResult:
         yield OperatorBar("Instrument session")
@@ -92,8 +95,6 @@ class SessionScreen(TabKeys, Screen[None]):
                 "#sessions",
                 ("Session", "Name", "Element", "Started", "Runs", "Unmatched", "Results"),
             ),
-            ("#results", ("Target", "Ratio", "Value", "2SD", "n", "QC / flags")),
-            ("#unmatched", ("Run", "Sample name", "Why not matched")),
         ):
             table = self.query_one(table_id, DataTable)
             for label in labels:
@@ -170,17 +171,31 @@ class SessionScreen(TabKeys, Screen[None]):
             head.append("reduced · " if d.reduced else "⚠ not reduced yet (press r) · ")
         head.append_text(flag_text(d.flags))
         self.query_one("#session-head", Static).update(head)
-        results = self.query_one("#results", DataTable)
-        results.clear()
-        for line in d.results:
-            results.add_row(*result_cells(line, d.mode))
-        unmatched = self.query_one("#unmatched", DataTable)
-        unmatched.clear()
-        for u in d.unmatched:
-            unmatched.add_row(
-                str(u.run_order), shown(u.sample_name), shown(u.reason), key=str(u.run_order)
-            )
+        self.detail = d
+        self.fill_tables()
         self.query_one("#drift", DriftPlot).show(event.drift)
+
+    def on_resize(self) -> None:
+        self.fill_tables()
+
+    def fill_tables(self) -> None:
+        """Results and unmatched rows; their last column wraps in what the others leave."""
+        d = self.detail
+        if d is None:
+            return
+        results = [
+            FlaggedRow(str(n), result_cells(line, d.mode), qc_words(line, d.mode))
+            for n, line in enumerate(d.results)
+        ]
+        width = self.size.width
+        table = self.query_one("#results", DataTable)
+        flagged_rows.fill(table, RESULT_COLUMNS, results, width, last=("QC / flags", flag_cell))
+        unmatched = [
+            FlaggedRow(str(u.run_order), (str(u.run_order), shown(u.sample_name)), [u.reason])
+            for u in d.unmatched
+        ]
+        table = self.query_one("#unmatched", DataTable)
+        flagged_rows.fill(table, UNMATCHED_COLUMNS, unmatched, width, last=WHY_UNMATCHED)
 
     def on_refused(self, event: Refused) -> None:
         outcome = self.query_one("#outcome", Static)
@@ -259,14 +274,20 @@ class SessionScreen(TabKeys, Screen[None]):
         self.refresh_view()
 
 
-def result_cells(line: ResultLine, mode: str) -> tuple[Any, ...]:
-    flags = [f for f in line.flags if f != "failed acceptance"]
-    text = Text("✓ pass" if line.passed else "", style="green")
-    if line.passed is False:
-        text = Text(f"✗ FAIL (accepted {accepted_text(line, mode)}, 2SD)", style="bold red")
-    if flags:
-        if text.plain:
-            text.append(" · ")
-        text.append_text(flag_text(flags))
+RESULT_COLUMNS = ("Target", "Ratio", "Value", "2SD", "n")
+UNMATCHED_COLUMNS = ("Run", "Sample name")
+WHY_UNMATCHED: LastColumn = ("Why not matched", words_cell)
+
+
+def result_cells(line: ResultLine, mode: str) -> tuple[Text | str, ...]:
+    """A result's target, ratio, value, 2SD and number of runs."""
     value, two_sd = lab.result_cells(mode, line.value, line.two_sd)
-    return (shown(line.label), shown(line.ratio), value, two_sd, str(line.n), text)
+    return (shown(line.label), shown(line.ratio), value, two_sd, str(line.n))
+
+
+def qc_words(line: ResultLine, mode: str) -> list[str]:
+    """A reference material's verdict against its accepted value, then the result's flags."""
+    flags = [f for f in line.flags if f != "failed acceptance"]
+    if line.passed is False:
+        return [f"FAIL (accepted {accepted_text(line, mode)}, 2SD)", *flags]
+    return ["pass", *flags] if line.passed else flags
