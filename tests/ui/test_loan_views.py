@@ -227,7 +227,7 @@ async def test_saving_without_a_curve_is_refused_and_writes_nothing(lab: Lab) ->
 
 def test_the_palette_reaches_every_loan_view() -> None:
     actions = {action for _, _, action in PALETTE}
-    for view in ("results", "scale", "screening"):
+    for view in ("plan", "results", "scale", "screening"):
         assert f"loan_view('{view}')" in actions
     assert "bench('loan_curve')" in actions
 

@@ -91,3 +91,14 @@ async def test_a_bad_option_is_refused_on_the_form(lab: Lab) -> None:
         outcome = text_of(form.query_one("#outcome", Static))
         assert "expected-yield" in outcome and "1.5" in outcome, outcome
         assert pilot.app.focused is form.query_one("#f-expected_yield", Input)
+
+
+async def test_the_palette_on_a_loan_opens_the_plan_form(lab: Lab) -> None:
+    app = lab.app("tomas")
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        app.open_id(KESTREL)
+        await settle(pilot)
+        await pilot.app.run_action("loan_view('plan')")  # the palette's entry
+        await settle(pilot)
+        screen_as(pilot, PlanFormScreen)

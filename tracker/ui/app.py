@@ -363,13 +363,16 @@ class TrackerApp(KeyRouting):
             self.tell("Open a loan (F2, Enter) and press R for its return report.")
 
     def action_loan_view(self, view: str) -> None:
-        """One of a loan's views (results, scale, screening) on the loan on screen."""
+        """One of a loan's views (plan, results, scale, screening) on the loan on screen."""
         from tracker.ui.screens.loan import LoanScreen
 
         if isinstance(self.screen, LoanScreen):
             self.screen.action_show_view(view)
         else:
-            self.tell("Open a loan first (F2, Enter): 4 shows its results, 5 its Sr screening.")
+            self.tell(
+                "Open a loan first (F2, Enter): p plans it, 4 shows its results, 5 its Sr "
+                "screening."
+            )
 
     def action_match_names(self) -> None:
         from tracker.ui.screens.session import SessionScreen
@@ -585,6 +588,11 @@ PALETTE: list[tuple[str, str, str]] = [
     ("Help", "Keys and a walk through every task (F1)", "help"),
     ("Return report", "Open a loan, then R: the report for its lender", "return_report"),
     ("Import a manifest", "Open a loan, then I: the lender's specimen list", "manifest_import"),
+    (
+        "Plan a loan's drilling",
+        "On a loan: what each specimen still needs, with every option (key p)",
+        "loan_view('plan')",
+    ),
     (
         "Results of a loan",
         "On a loan: each specimen's results with 2SD and n (key 4)",

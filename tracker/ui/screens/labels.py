@@ -44,9 +44,9 @@ class LabelsScreen(TabKeys, Screen[None]):
     ]
 
     class Loaded(Message):
-        def __init__(self, queue: list[LabelView], stocks: list[str]) -> None:
+        def __init__(self, queue: list[LabelView], stocks: list[str], seq: int) -> None:
             super().__init__()
-            self.queue, self.stocks = queue, stocks
+            self.queue, self.stocks, self.seq = queue, stocks, seq
 
     class Previewed(Message):
         def __init__(self, sheet: Text) -> None:
@@ -66,6 +66,7 @@ class LabelsScreen(TabKeys, Screen[None]):
     def __init__(self) -> None:
         super().__init__()
         self.chosen: list[str] = []  # items whose queued labels are picked, in queue order
+        self.loads = 0  # reads of the queue started; only the newest one's answer is shown
 
     def compose(self) -> ComposeResult:
         yield OperatorBar("Labels")
@@ -102,8 +103,14 @@ class LabelsScreen(TabKeys, Screen[None]):
     def on_screen_resume(self) -> None:
         self.load()  # back from a form (labels cancelled): the queue as it is now
 
-    @work(thread=True, exclusive=True, group="load")
     def load(self) -> None:
+        """Read the queue again. Reads may overlap (back from a question while a print
+        finishes): only the newest one's answer is shown, never an older queue after it."""
+        self.loads += 1
+        self._read_queue(self.loads)
+
+    @work(thread=True, exclusive=True, group="load")
+    def _read_queue(self, seq: int) -> None:
         from tracker.output.stocks import entries
 
         try:
@@ -112,9 +119,11 @@ class LabelsScreen(TabKeys, Screen[None]):
         except TrackerError as error:
             self.post_message(Refused(error, "load"))
             return
-        self.post_message(self.Loaded(queue, stocks))
+        self.post_message(self.Loaded(queue, stocks, seq))
 
     def on_labels_screen_loaded(self, event: Loaded) -> None:
+        if event.seq != self.loads:
+            return  # an older read, overtaken by a newer one
         select: Select[str] = self.query_one("#stock", Select)
         current = select.value
         select.set_options([(name, name) for name in event.stocks])

@@ -197,8 +197,11 @@ class LoanScreen(TabKeys, Screen[None]):
         tracker_app(self).action_bench(form, **({"specimen": chosen} if chosen else {}))
 
     def action_show_view(self, view: str) -> None:
-        """A view of the loan by name, as the palette asks for it: its results, the scale
-        chooser over them, or its Sr screening."""
+        """A view of the loan by name, as the palette asks for it: its plan (the options form
+        first), its results, the scale chooser over them, or its Sr screening."""
+        if view == "plan":
+            self.action_plan()
+            return
         tab = {"results": "tab-results", "scale": "tab-results", "screening": "tab-screening"}
         self.query_one("#loan-tabs", TabbedContent).active = tab[view]
         if view == "scale":
