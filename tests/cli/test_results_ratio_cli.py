@@ -17,6 +17,7 @@ import pytest
 from tests.cli.budget_book import validate
 from tests.cli.conftest import counts, invoke, ok_json
 from tests.cli.test_instrument_cli import refused
+from tests.cli.test_instrument_cli_results import assert_png
 
 KF, MDGC = "KF-2026-014", "MDGC/LN/0457"  # loans of demo_db/scenario.toml
 
@@ -103,3 +104,11 @@ def test_a_ratio_or_law_that_cannot_be_used_is_refused(
     line = refused(invoke("results", "--loan", KF, *options, db=demo), 2, option)
     assert value in line
     assert counts(demo) == before
+
+
+def test_a_plot_draws_the_converted_deltas_too(demo_db: Path, tmp_path: Path) -> None:
+    out = tmp_path / "age.png"
+    options = ("--ratio", "44/40", "--plot", str(out))
+    result = invoke("results", "--loan", MDGC, *options, db=demo_db)
+    assert result.exit_code == 0, result.stderr
+    assert_png(out)

@@ -111,8 +111,7 @@ def results(
                 flags=list(result.flags),
             )
             lines.append(line if wanted is None else _on_ratio(line, run.element, *wanted))
-            if result.kind == "delta":
-                elements.add(run.element)
+            elements.add(run.element)
     if wanted is not None:
         _check_element(elements or set(ISOTOPE_MASS), wanted[0])
     return lines
@@ -151,8 +150,9 @@ def _on_ratio(line: SpecimenResult, element: str, ratio: str, law: Law) -> Speci
 
 
 def _check_element(elements: set[str], ratio: str) -> None:
-    """Refuse a ratio that is not one of the element's isotopes, for the elements of the δ
-    results listed (or any element known, when none is listed): nothing could be put on it."""
+    """Refuse a ratio of isotopes that no element of the results listed has (any element
+    known, when none is listed): nothing could be shown on it. A ratio of one element's
+    isotopes leaves another element's results as measured (a loan's Sr beside its Ca)."""
     if any(has_ratio(element, ratio) for element in elements):
         return
     isotopes = "; ".join(
