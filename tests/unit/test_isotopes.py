@@ -9,8 +9,13 @@ import pytest
 
 from tracker.domain.isotopes import (
     ISOTOPE_MASS,
+    LAWS,
+    Law,
+    convert_delta,
     equilibrium_factor,
     exponential_factor,
+    has_ratio,
+    law_factor,
     parse_ratio,
     predicted_delta,
 )
@@ -55,6 +60,58 @@ def test_bad_ratio_names(bad: str) -> None:
         parse_ratio(bad)
 
 
-def test_ratios_must_share_an_isotope() -> None:
-    with pytest.raises(ValueError, match="share an isotope"):
-        exponential_factor("Ca", "44/40", "43/42")
+def pt_mass(number: int) -> float:
+    """A calcium isotope's mass from periodictable 2.1 (AME2020): the reference library."""
+    return float(periodictable.Ca[number].mass)
+
+
+def law_k(law: str, wanted: tuple[int, int], measured: tuple[int, int]) -> float:
+    """k written out independently from periodictable's masses (Young et al. 2002 forms:
+    exponential ln(mi/mj), equilibrium 1/mj − 1/mi)."""
+    (i, j), (p, q) = wanted, measured
+    if law == "exponential":
+        return math.log(pt_mass(i) / pt_mass(j)) / math.log(pt_mass(p) / pt_mass(q))
+    return (1 / pt_mass(j) - 1 / pt_mass(i)) / (1 / pt_mass(q) - 1 / pt_mass(p))
+
+
+@pytest.mark.parametrize("law", LAWS)
+@pytest.mark.parametrize(
+    ("measured", "wanted"), [("44/42", "44/40"), ("43/42", "44/40"), ("44/40", "43/42")]
+)
+@pytest.mark.parametrize(("value", "two_sd"), [(-0.85, 0.12), (1.6, 0.07), (0.0, None)])
+def test_conversions_agree_with_periodictable_masses(
+    law: Law, measured: str, wanted: str, value: float, two_sd: float | None
+) -> None:
+    a, b = (tuple(int(x) for x in r.split("/")) for r in (wanted, measured))
+    k = law_k(law, (a[0], a[1]), (b[0], b[1]))
+    converted = convert_delta("Ca", value, two_sd, measured, wanted, law)
+    assert converted.factor == pytest.approx(k, rel=1e-12)
+    assert converted.law == law
+    # exact: 1 + δa/1000 = (1 + δb/1000)^k, i.e. δ' = 1000 ln(1 + δ/1000) scales by k
+    exact = 1000 * math.expm1(k * math.log1p(value / 1000))
+    assert converted.value == pytest.approx(exact, rel=1e-12, abs=1e-12)
+    if value:  # the exact form is not the linear k·δ: they differ by ≈ k(k−1)δ²/2000
+        assert abs(converted.value - k * value) > abs(k * (k - 1) * value**2 / 2000) / 2
+    if two_sd is None:
+        assert converted.two_sd is None
+    else:  # a small spread carried through the map numerically (central difference)
+        h = 1e-6
+        up = 1000 * math.expm1(k * math.log1p((value + h) / 1000))
+        down = 1000 * math.expm1(k * math.log1p((value - h) / 1000))
+        assert converted.two_sd == pytest.approx(two_sd * (up - down) / (2 * h), rel=1e-7)
+
+
+def test_the_exponential_k_for_44_40_from_44_42_is_about_2_05() -> None:
+    # from memory: δ44/40 ≈ 2.05 × δ44/42 under the kinetic law is the usual quoted factor
+    assert convert_delta("Ca", 1.0, 0.1, "44/42", "44/40", "exponential").factor == (
+        pytest.approx(2.05, abs=0.01)
+    )
+    # from memory: the equilibrium factor is a little larger, about 2.10
+    assert law_factor("Ca", "44/40", "44/42", "equilibrium") == pytest.approx(2.10, abs=0.01)
+
+
+def test_a_ratio_the_element_has_no_isotope_for_is_refused() -> None:
+    assert has_ratio("Ca", "44/40") and has_ratio("Ca", "43/42")
+    assert not has_ratio("Ca", "45/40") and not has_ratio("Sr", "44/40")
+    with pytest.raises(ValueError, match="no stable isotope 45"):
+        convert_delta("Ca", 1.0, None, "44/42", "45/40", "exponential")

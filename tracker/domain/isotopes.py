@@ -3,17 +3,24 @@
 Masses are the AME2020 atomic masses (Wang et al. 2021, Chinese Phys. C 45:030003) as
 distributed by ``periodictable`` 2.1; a test compares every value with that package.
 
-For two ratios of one element that share an isotope, e.g. 44/40 and 44/42 for calcium
-or 87/86 and 88/86 for strontium, mass-dependent fractionation predicts
+For two ratios of one element, e.g. 44/40 and 44/42 for calcium or 87/86 and 88/86 for
+strontium (they need not share an isotope: 44/40 and 43/42 are related as well, since one
+fractionation acts on every ratio of the element), mass-dependent fractionation predicts
     δ(44/40) = ((1 + δ(44/42)/1000)^k − 1) × 1000 ‰
 with, for the exponential (kinetic) law, k = ln(m44/m40) / ln(m44/m42) ≈ 2.048, and for
 the equilibrium law k = (1/m40 − 1/m44) / (1/m42 − 1/m44) ≈ 2.099 (Sr: 87/86 vs 88/86,
-k ≈ 0.504).
+k ≈ 0.504). The power form is exact for both laws (δ' = 1000·ln(1 + δ/1000) is then
+linear, δ'a = k·δ'b); k·δb is only its first-order approximation.
 """
 
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
+from typing import Literal
+
+Law = Literal["exponential", "equilibrium"]
+LAWS: tuple[Law, ...] = ("exponential", "equilibrium")
 
 ISOTOPE_MASS: dict[str, dict[int, float]] = {
     "Ca": {
@@ -41,13 +48,18 @@ def _mass(element: str, number: int) -> float:
     try:
         return ISOTOPE_MASS[element][number]
     except KeyError:
-        raise ValueError(f"no isotope mass for {number}{element}") from None
+        known = ", ".join(str(n) for n in ISOTOPE_MASS.get(element, {}))
+        has = f" (its isotopes: {known})" if known else ""
+        raise ValueError(f"{element} has no stable isotope {number}{has}") from None
+
+
+def has_ratio(element: str, ratio: str) -> bool:
+    """Whether both isotopes of a ratio name (a well-formed one) are isotopes of the element."""
+    return set(parse_ratio(ratio)) <= set(ISOTOPE_MASS.get(element, {}))
 
 
 def _pair(element: str, ratio_a: str, ratio_b: str) -> tuple[float, float, float, float]:
     (num_a, den_a), (num_b, den_b) = parse_ratio(ratio_a), parse_ratio(ratio_b)
-    if not {num_a, den_a} & {num_b, den_b}:
-        raise ValueError("the two ratios must share an isotope, e.g. 44/40 and 44/42")
     return (
         _mass(element, num_a),
         _mass(element, den_a),
@@ -69,5 +81,38 @@ def equilibrium_factor(element: str, ratio_a: str, ratio_b: str) -> float:
 
 
 def predicted_delta(delta_b_permil: float, k: float) -> float:
-    """δa predicted from δb by the exponential law, exactly (not the linear k·δb)."""
+    """δa predicted from δb by a law's k, exactly (not the linear k·δb)."""
     return float(((1 + delta_b_permil / 1000) ** k - 1) * 1000)
+
+
+def law_factor(element: str, ratio_a: str, ratio_b: str, law: Law) -> float:
+    """k of the named law relating δ of ratio_a to δ of ratio_b."""
+    if law == "exponential":
+        return exponential_factor(element, ratio_a, ratio_b)
+    if law == "equilibrium":
+        return equilibrium_factor(element, ratio_a, ratio_b)
+    raise ValueError(f"{law!r} is not a law: use {' or '.join(LAWS)}")
+
+
+@dataclass(frozen=True)
+class ConvertedDelta:
+    """A δ (‰) and its 2SD put on another ratio, with the law and the k that did it."""
+
+    value: float
+    two_sd: float | None
+    factor: float
+    law: Law
+    slope: float  # dδ(wanted)/dδ(measured) at the value: what any spread is multiplied by
+
+
+def convert_delta(
+    element: str, value: float, two_sd: float | None, measured: str, wanted: str, law: Law
+) -> ConvertedDelta:
+    """δ(measured) ± 2SD as δ(wanted) by a mass-dependent law, exactly.
+
+    The spread is carried through the exact map's slope, dδa/dδb = k·(1 + δb/1000)^(k−1),
+    so a 2SD becomes that slope times the measured 2SD (first order in the 2SD itself)."""
+    k = law_factor(element, wanted, measured, law)
+    slope = k * (1 + value / 1000) ** (k - 1)
+    spread = None if two_sd is None else float(two_sd * slope)
+    return ConvertedDelta(predicted_delta(value, k), spread, k, law, float(slope))

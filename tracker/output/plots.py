@@ -45,7 +45,8 @@ def drift_png(series: DriftSeries) -> bytes:
 
 
 def delta_vs_age_png(results: list[SpecimenResult], ratio: str) -> bytes:
-    """δ (± 2SD) against stratigraphic mid-age (± half the age range), one point per result."""
+    """δ (± 2SD) against stratigraphic mid-age (± half the age range), one point per result;
+    a δ converted from another ratio is drawn hollow, and a legend says so."""
     plt = _pyplot()
     figure, axes = plt.subplots(figsize=(WIDTH_IN, HEIGHT_IN), dpi=DPI)
     dated = [
@@ -55,22 +56,37 @@ def delta_vs_age_png(results: list[SpecimenResult], ratio: str) -> bytes:
     ]
     if not dated:
         raise ValueError(f"no {ratio} results with a stratigraphic age to plot")
-    ages = [(r.age_min_ma + r.age_max_ma) / 2 for r in dated]  # type: ignore[operator]
-    spans = [(r.age_max_ma - r.age_min_ma) / 2 for r in dated]  # type: ignore[operator]
-    axes.errorbar(
-        ages,
-        [r.value for r in dated],
-        xerr=spans,
-        yerr=[r.two_sd or 0.0 for r in dated],
-        fmt="o",
-        capsize=3,
-    )
+    measured = [r for r in dated if r.converted_from is None]
+    converted = [r for r in dated if r.converted_from is not None]
+    for drawn, style, label in (
+        (measured, {"fmt": "o"}, "measured"),
+        (converted, {"fmt": "o", "mfc": "none"}, "converted from another ratio"),
+    ):
+        if drawn:
+            _age_points(axes, drawn, label if converted else None, style)
+    if converted:
+        axes.legend()
     unit = "‰" if dated[0].kind == "delta" else ""
     axes.set_xlabel("stratigraphic age (Ma)")
     axes.set_ylabel(f"δ{ratio} {unit} ({dated[0].scale})" if unit else f"{ratio}")
     axes.invert_xaxis()
     axes.set_title(f"{ratio} against age ({len(dated)} results)")
     return _png(plt, figure)
+
+
+def _age_points(
+    axes: Any, dated: list[SpecimenResult], label: str | None, style: dict[str, str]
+) -> None:
+    """Results at their stratigraphic mid-age (± half the range), δ ± 2SD."""
+    axes.errorbar(
+        [(r.age_min_ma + r.age_max_ma) / 2 for r in dated],  # type: ignore[operator]
+        [r.value for r in dated],
+        xerr=[(r.age_max_ma - r.age_min_ma) / 2 for r in dated],  # type: ignore[operator]
+        yerr=[r.two_sd or 0.0 for r in dated],
+        capsize=3,
+        label=label,
+        **style,
+    )
 
 
 def _png(plt: Any, figure: Any) -> bytes:

@@ -166,19 +166,32 @@ def specimen_result_cells(row: SpecimenResult) -> tuple[str, str, str, str]:
     return row.ratio, value + unit, two_sd, str(row.n)
 
 
+FACTOR_PLACES = 4  # k of a mass-dependent law, as it is usually quoted (2.0483)
+
+
 def results_table(rows: list[SpecimenResult]) -> RenderableType:
-    """Results per specimen, in the CLI's ``results`` and on a loan's Results tab alike."""
+    """Results per specimen, in the CLI's ``results`` and on a loan's Results tab alike; a δ
+    put on another ratio says so under its ratio, and a note under the table says how."""
     if not rows:
         return Text("No results yet: import and reduce an instrument session.")
-    table = plain_table("specimen", "ratio", "value", "2SD", "n", "scale", "flags")
+    table = plain_table("specimen", "ratio", "value", "2SD", "n", "scale", "flags", whole=2)
     for r in rows:
+        ratio, *cells = specimen_result_cells(r)
         table.add_row(
             Text.assemble(f"{r.specimen}\n", (visible(r.catalog_number), "dim")),
-            *specimen_result_cells(r),
+            Text.assemble(ratio, (f"\n← {r.converted_from}", "dim") if r.converted_from else ""),
+            *cells,
             visible(r.scale),
             flag_lines(r.flags),
         )
-    return table
+    notes = dict.fromkeys(conversion_note(r) for r in rows if r.converted_from)
+    return Group(table, Text("\n".join(notes))) if notes else table
+
+
+def conversion_note(row: SpecimenResult) -> str:
+    """How a δ came to be on a ratio it was not measured on, in one line."""
+    k = precision.number(row.factor or 0.0, FACTOR_PLACES)
+    return f"← δ{row.ratio} converted from δ{row.converted_from}, {row.law} law, k = {k}"
 
 
 def curve_text(curve: CurveView) -> Text:

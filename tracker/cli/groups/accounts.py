@@ -112,7 +112,8 @@ def _verdicts(checked: AuditReport) -> str:
     return f"ledger intact: {head}; {checked.verdict()}"
 
 
-RESULTS_EPILOG = "Example: tracker results --loan KF-2026-014 --scale 'Seawater in-house'"
+RESULTS_EPILOG = "Example: tracker results --loan KF-2026-014 --ratio 44/40 --law exponential"
+PLOTTED_RATIO = "44/40"  # what --plot draws when no --ratio is given
 
 
 @app.command("results", epilog=RESULTS_EPILOG)
@@ -123,16 +124,22 @@ def results_command(
     plot: Annotated[
         Path | None, Opt("--plot", help="Also write δ against age to a new PNG file.")
     ] = None,
-    ratio: Annotated[str, Opt("--ratio", help="Ratio to plot.")] = "44/40",
+    ratio: Annotated[
+        str | None,
+        Opt("--ratio", help="Show every δ on this ratio (others converted by --law); plot it."),
+    ] = None,
+    law: Annotated[
+        str, Opt("--law", help="Mass-dependent law for --ratio: exponential or equilibrium.")
+    ] = "exponential",
     force: Force = False,
 ) -> None:
     """Results per specimen (δ with 2SD and n), optionally on another reference scale."""
     with database(ctx) as db:
         if plot is not None:
             outputs.check_target(plot, "--plot", force=force, database=db.path)
-        rows = results.results(db, loan, scale)
+        rows = results.results(db, loan, scale, ratio, law)
         if plot is not None:
-            _write_plot(db, rows, ratio, plot, force)
+            _write_plot(db, rows, ratio or PLOTTED_RATIO, plot, force)
     emit(ctx, rows, lambda: results_table(rows))
 
 

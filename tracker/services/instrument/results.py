@@ -3,7 +3,9 @@
 A result belongs to a column cut; the cut to its column position, aliquot, solution,
 powder and finally the lender's specimen — so results can be listed per loan. Values
 are reported on the session's scale (its bracketing standard) or converted exactly to
-another scale through the accepted δ of that scale's reference on the session's scale.
+another scale through the accepted δ of that scale's reference on the session's scale, and
+a δ measured on one ratio can be shown on another of its element's ratios by a
+mass-dependent law (``domain.isotopes.convert_delta``), marked as converted.
 """
 
 from __future__ import annotations
@@ -17,7 +19,8 @@ from sqlalchemy.orm import Session
 
 from tracker.db.database import Database
 from tracker.domain.delta import change_scale, invert
-from tracker.domain.errors import NotFound, RuleViolation
+from tracker.domain.errors import InputError, NotFound, RuleViolation
+from tracker.domain.isotopes import ISOTOPE_MASS, LAWS, Law, convert_delta, has_ratio, parse_ratio
 from tracker.domain.models import (
     Aliquot,
     BatchPosition,
@@ -58,12 +61,22 @@ class SpecimenResult(View):
     determined_on: date  # the instrument session's day
     determined_by: str  # the operator who ran it
     flags: list[str]
+    # set on a δ shown on another ratio than it was measured on: that ratio, the law, its k
+    converted_from: str | None = None
+    law: Law | None = None
+    factor: float | None = None
 
 
 def results(
-    db: Database, loan: str | None = None, scale: str | None = None
+    db: Database,
+    loan: str | None = None,
+    scale: str | None = None,
+    ratio: str | None = None,
+    law: str = "exponential",
 ) -> list[SpecimenResult]:
-    """Every sample result, with its specimen, optionally converted to another scale."""
+    """Every sample result, with its specimen, optionally converted to another scale and
+    each δ to another ratio of its element (``ratio``) by a mass-dependent ``law``."""
+    wanted = None if ratio is None else _wanted(ratio, law)
     with db.read_session() as session:
         query = (
             _to_specimen(select(Result, Cut, Specimen, Loan, InstrumentSession))
@@ -74,32 +87,79 @@ def results(
         if loan is not None:
             query = query.where(Loan.id == get_loan(session, "loan", loan).id)
         anchors = {} if scale is None else _anchors(session, scale)
-        lines = []
+        lines, elements = [], set()
         for result, cut, specimen, loan_row, run in session.execute(query):
             value, on, factor = _on_scale(result, scale, anchors)
             sd = None if result.sd_permil is None else result.sd_permil * factor
-            lines.append(
-                SpecimenResult(
-                    specimen=specimen.public_id,
-                    catalog_number=specimen.catalog_number,
-                    loan=loan_row.reference,
-                    cut=cut.public_id,
-                    session=run.public_id,
-                    ratio=result.ratio,
-                    kind=result.kind,
-                    value=value,
-                    two_sd=None if sd is None else 2 * sd,
-                    two_se=None if result.two_se_permil is None else result.two_se_permil * factor,
-                    n=result.n,
-                    scale=on,
-                    age_min_ma=specimen.age_min_ma,
-                    age_max_ma=specimen.age_max_ma,
-                    determined_on=run.started_at.date(),
-                    determined_by=run.operator,
-                    flags=list(result.flags),
-                )
+            line = SpecimenResult(
+                specimen=specimen.public_id,
+                catalog_number=specimen.catalog_number,
+                loan=loan_row.reference,
+                cut=cut.public_id,
+                session=run.public_id,
+                ratio=result.ratio,
+                kind=result.kind,
+                value=value,
+                two_sd=None if sd is None else 2 * sd,
+                two_se=None if result.two_se_permil is None else result.two_se_permil * factor,
+                n=result.n,
+                scale=on,
+                age_min_ma=specimen.age_min_ma,
+                age_max_ma=specimen.age_max_ma,
+                determined_on=run.started_at.date(),
+                determined_by=run.operator,
+                flags=list(result.flags),
             )
-        return lines
+            lines.append(line if wanted is None else _on_ratio(line, run.element, *wanted))
+            elements.add(run.element)
+    if wanted is not None:
+        _check_element(elements or set(ISOTOPE_MASS), wanted[0])
+    return lines
+
+
+def _wanted(ratio: str, law: str) -> tuple[str, Law]:
+    """The target ratio and law, checked before anything is read."""
+    try:
+        parse_ratio(ratio)
+    except ValueError:
+        raise InputError("ratio", ratio, "not an isotope ratio such as 44/40") from None
+    for known in LAWS:
+        if law == known:
+            return ratio, known
+    raise InputError("law", law, f"not a mass-dependent law: use {' or '.join(LAWS)}")
+
+
+def _on_ratio(line: SpecimenResult, element: str, ratio: str, law: Law) -> SpecimenResult:
+    """A δ of another ratio of the element put on ``ratio``; anything else as measured."""
+    if line.kind != "delta" or line.ratio == ratio:
+        return line
+    if not (has_ratio(element, ratio) and has_ratio(element, line.ratio)):
+        return line  # another element's δ: shown as measured, under its own ratio
+    moved = convert_delta(element, line.value, line.two_sd, line.ratio, ratio, law)
+    return line.model_copy(
+        update={
+            "ratio": ratio,
+            "value": moved.value,
+            "two_sd": moved.two_sd,
+            "two_se": None if line.two_se is None else line.two_se * moved.slope,
+            "converted_from": line.ratio,
+            "law": law,
+            "factor": moved.factor,
+        }
+    )
+
+
+def _check_element(elements: set[str], ratio: str) -> None:
+    """Refuse a ratio of isotopes that no element of the results listed has (any element
+    known, when none is listed): nothing could be shown on it. A ratio of one element's
+    isotopes leaves another element's results as measured (a loan's Sr beside its Ca)."""
+    if any(has_ratio(element, ratio) for element in elements):
+        return
+    isotopes = "; ".join(
+        f"{e} {', '.join(str(n) for n in ISOTOPE_MASS.get(e, {})) or 'none known'}"
+        for e in sorted(elements)
+    )
+    raise InputError("ratio", ratio, f"not a ratio of the element's isotopes ({isotopes})")
 
 
 def _to_specimen(query: Select[*Row]) -> Select[*Row]:
