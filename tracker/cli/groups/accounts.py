@@ -28,24 +28,45 @@ app = typer.Typer()  # its commands join the top level (see tracker/cli/__init__
 PLAN_EPILOG = "Example: tracker plan KF-2026-014 --ug 2 --replicates 4 --yield 0.95"
 
 
+def _default(field: str) -> str:
+    """An option's default as the plan request states it (one place for both front ends)."""
+    return f"Default: {planning.default_of(field)}."
+
+
 @app.command("plan", epilog=PLAN_EPILOG)
 def plan(
     ctx: typer.Context,
     target: Annotated[str, typer.Argument(help="Specimen ID, or loan ID or reference.")],
     ug_per_analysis: Annotated[float, Opt("--ug", help="Element per analysis, µg.")],
-    replicates: Annotated[int, Opt("--replicates", help="Analyses per specimen.")] = 1,
-    element: Annotated[str, Opt("--element", help="Element analysed.")] = "Ca",
-    expected_yield: Annotated[float, Opt("--yield", help="Expected column yield, 0-1.")] = 0.95,
+    replicates: Annotated[
+        int | None, Opt("--replicates", help=f"Analyses per specimen. {_default('replicates')}")
+    ] = None,
+    element: Annotated[
+        str | None, Opt("--element", help=f"Element analysed. {_default('element')}")
+    ] = None,
+    expected_yield: Annotated[
+        float | None,
+        Opt("--yield", help=f"Expected column yield, 0-1. {_default('expected_yield')}"),
+    ] = None,
     material: Annotated[str | None, Opt("--material", help="Default: from the tissue.")] = None,
     tissue: Annotated[str | None, Opt("--tissue", help="Default: the loan's first tissue.")] = None,
-    margin_percent: Annotated[float, Opt("--margin", help="Safety margin, %.")] = 20.0,
+    margin_percent: Annotated[
+        float | None, Opt("--margin", help=f"Safety margin, %. {_default('margin_percent')}")
+    ] = None,
     aliquot_share: Annotated[
-        float,
-        Opt("--aliquot-share", help="Share of each solution for concentration and archive, 0-1."),
-    ] = 0.10,
+        float | None,
+        Opt(
+            "--aliquot-share",
+            help="Share of each solution for concentration and archive, 0-1. "
+            f"{_default('aliquot_share')}",
+        ),
+    ] = None,
     min_powder_mg: Annotated[
-        float, Opt("--min-powder", help="Smallest powder worth drilling, mg.")
-    ] = 0.5,
+        float | None,
+        Opt(
+            "--min-powder", help=f"Smallest powder worth drilling, mg. {_default('min_powder_mg')}"
+        ),
+    ] = None,
 ) -> None:
     """How much powder to drill for the planned analyses, checked against the loan's terms."""
     request = planning.one_analysis(
