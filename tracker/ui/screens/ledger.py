@@ -83,7 +83,6 @@ class LedgerScreen(Screen[None]):
 
     def on_mount(self) -> None:
         self.listed = LedgerScreen.Listed([], {})  # the events shown, and their items' names
-        self.events: dict[str, EventView] = {}  # the same, by row key
         self.load("", "", "")
         self.query_one("#events", DataTable).focus()
 
@@ -120,7 +119,6 @@ class LedgerScreen(Screen[None]):
 
     def on_ledger_screen_listed(self, event: Listed) -> None:
         self.listed = event
-        self.events = {str(e.seq): e for e in event.events}
         table = self.query_one("#events", DataTable)
         keep = table.cursor_row
         event_rows.fill(table, event.events, event.names, self.size.width)
@@ -129,7 +127,8 @@ class LedgerScreen(Screen[None]):
 
     @on(DataTable.RowHighlighted, "#events")
     def _show_payload(self, event: DataTable.RowHighlighted) -> None:
-        chosen = self.events.get(str(event.row_key.value))
+        key = str(event.row_key.value)
+        chosen = next((e for e in self.listed.events if str(e.seq) == key), None)
         if chosen is not None:
             payload = json.dumps(chosen.payload, ensure_ascii=False)[:300]
             where = f"{chosen.os_user}@{chosen.host}" + (

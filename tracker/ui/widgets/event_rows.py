@@ -9,6 +9,7 @@ from collections.abc import Sequence
 from rich.text import Text
 from textual.widgets import DataTable
 
+from tracker.domain.text_rules import visible
 from tracker.present.bars import words_cell
 from tracker.services.core.views import EventView
 from tracker.ui.plain import shown
@@ -39,7 +40,7 @@ def fill(
 def action_words(event: EventView, names: dict[str, str]) -> str:
     """The action in words, then the name of its item: ``drilled · KFMNH P 20311``."""
     name = names.get(event.object)
-    return shown(f"{event.said} · {name}" if name else event.said).plain
+    return visible(f"{event.said} · {name}" if name else event.said)
 
 
 def named(ref: str, names: dict[str, str]) -> str:
