@@ -228,11 +228,9 @@ def rewrite_page(
 
 def _read(path: Path, field: str) -> str:
     """A file's text, read by tracker's one reader of files handed over (same refusals)."""
-    from tracker.db.uploads import read_upload
+    from tracker.db.uploads import read_file
 
-    upload = read_upload(path, field)
-    assert upload is not None  # a path was given
-    return bytes(upload["content"]).decode("utf-8", errors="replace")
+    return bytes(read_file(path, field)["content"]).decode("utf-8", errors="replace")
 
 
 def _only(only: str | None, backend: str) -> tuple[str, ...]:

@@ -27,8 +27,11 @@ def read_upload(
     refusal names it: ``photo: /tmp/x.jpg: cannot be read (No such file or directory)``.
     A leading ``~`` is the person's home folder, as a shell would read it.
     """
-    if path is None:
-        return None
+    return None if path is None else read_file(path, field, limit)
+
+
+def read_file(path: Path, field: str, limit: int = MAX_UPLOAD_BYTES) -> dict[str, Any]:
+    """A named file's name and bytes, refused in one line naming ``field`` and the path."""
     path = path.expanduser()
     try:
         with path.open("rb") as handle:
@@ -44,6 +47,4 @@ def read_typed_path(text: str, field: str, missing: str) -> dict[str, Any]:
     """A path typed into a form: ``missing`` says what to type when the field is empty."""
     if not text.strip():
         raise InputError(field, None, missing)
-    upload = read_upload(Path(text.strip()), field)
-    assert upload is not None
-    return upload
+    return read_file(Path(text.strip()), field)
