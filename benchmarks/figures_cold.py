@@ -61,6 +61,7 @@ class Cold:
 def cold_figures(db: Database, target: str, copy: str, work: Path, repeat: int) -> list[Figure]:
     """Every everyday command's whole-process figure on ``target`` (``db``'s SQLite file or
     PostgreSQL URL); the commands that write run on ``copy``, the caller's copy of it."""
+    _compiled()
     env = _environment(work)
     trouble = [_settled(target, env, AUDITED), _settled(copy, env, VERIFIED)]
     commands = _starts(work) if db.backend == "sqlite" else []
@@ -71,6 +72,19 @@ def cold_figures(db: Database, target: str, copy: str, work: Path, repeat: int) 
         figure.floor_title = FLOORS[db.backend]
         figure.problems.extend(problem for problem in trouble if problem)
     return figures
+
+
+def _compiled() -> None:
+    """Compile the checkout's modules to bytecode, untimed, as an installation does.
+
+    A person's second command reads the bytecode its first one wrote. Where bytecode is
+    never written (``PYTHONDONTWRITEBYTECODE`` set, as on some build machines), each timed
+    run would compile every module from source again: a cost no installed program pays.
+    """
+    import compileall
+
+    for package in ("tracker", "benchmarks"):
+        compileall.compile_dir(str(children.CHECKOUT / package), quiet=1)
 
 
 # Untimed, before the runs, what a workstation in use has done before: a verification of the

@@ -9,11 +9,12 @@ import io
 from hypothesis import given, settings
 from hypothesis import strategies as st
 from rich import box
+from rich.cells import cell_len
 from rich.console import Console
 from rich.table import Table
 from rich.text import Text
 
-from tracker.present.aligned import AlignedTable
+from tracker.present.aligned import AlignedTable, cell_width
 
 WORD = st.text(alphabet="abcdefghijklmnopqrstuvwxyz0123456789-/.±‰µ", min_size=1, max_size=9)
 CELL = st.lists(st.lists(WORD, min_size=0, max_size=3).map(" ".join), min_size=1, max_size=3).map(
@@ -92,3 +93,11 @@ def test_a_row_of_the_wrong_length_is_refused() -> None:
         assert "1 cells under 2 headers" in str(error)
     else:
         raise AssertionError("a short row was taken")
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.text(alphabet=st.characters(blacklist_categories=("Cc", "Cs")), max_size=12))
+def test_a_cell_is_measured_as_rich_measures_it(text: str) -> None:
+    # rich's cell_len is the reference for the width a terminal gives a character (wide
+    # East Asian characters take two cells, combining marks none); ASCII is counted by len.
+    assert cell_width(text) == cell_len(text)
