@@ -30,19 +30,42 @@ def accepted(db: Database, reference: str, ratio: str, value: float) -> None:
     results.set_reference_value(db, "boss", request)
 
 
-def test_a_scale_is_offered_only_with_an_accepted_value_for_every_ratio(db: Database) -> None:
+def test_a_scale_is_offered_with_an_accepted_value_for_any_ratio(db: Database) -> None:
     b = bench(db)
     session = do_import(db, session_of(b.cut, [0.5, 0.6, 0.4]))
     reduction.reduce_session(db, "tech", {"session": session})
     loan = results.results(db)[0].loan
-    chemistry.add_reference_material(db, "boss", {"name": "RM-B", "element": "Ca"})
+    for name in ("RM-B", "RM-C"):
+        chemistry.add_reference_material(db, "boss", {"name": name, "element": "Ca"})
     accepted(db, "RM-A", "44/40", 1.2)
     accepted(db, "RM-A", "44/42", 0.6)
-    accepted(db, "RM-B", "44/40", 1.1)  # no 44/42: its scale cannot hold the loan's results
-    assert results.scales(db, loan) == ["RM-A"]
+    accepted(db, "RM-B", "44/40", 1.1)  # no 44/42: its δ44/42 stays on the session's scale
+    results.set_reference_value(
+        db,
+        "boss",
+        {
+            "reference": "RM-C",
+            "ratio": "44/40",
+            "scale": "ANOTHER-STD",  # a value, but not on the scale the loan was measured on
+            "value": 0.9,
+            "two_sd": 0.1,
+            "source": "invented for the test",
+        },
+    )
+    assert results.scales(db, loan) == ["RM-A", "RM-B"]
     assert {r.scale for r in results.results(db, loan, "RM-A")} == {"RM-A"}
-    with pytest.raises(RuleViolation, match="44/42"):
-        results.results(db, loan, "RM-B")  # the refusal the chooser spares a person
+    measured = {r.ratio: r for r in results.results(db, loan)}
+    partial = {r.ratio: r for r in results.results(db, loan, "RM-B")}
+    assert partial["44/40"].scale == "RM-B"
+    assert partial["44/40"].flags == measured["44/40"].flags  # the bench's flags, no more
+    # δ_new = (1 + δ/1000)/(1 + a/1000) − 1, the exact change of scale (common practice)
+    expected = ((1 + measured["44/40"].value / 1000) / (1 + 1.1 / 1000) - 1) * 1000
+    assert partial["44/40"].value == pytest.approx(expected, abs=1e-12)
+    assert partial["44/42"].scale == "STD-X"
+    assert partial["44/42"].value == measured["44/42"].value
+    assert any(f.startswith("no scale value") and "RM-B" in f for f in partial["44/42"].flags)
+    with pytest.raises(RuleViolation, match="no accepted value of RM-C"):
+        results.results(db, loan, "RM-C")  # nothing here could be put on its scale
 
 
 def test_a_loan_without_results_has_no_scale_to_change_to(db: Database) -> None:

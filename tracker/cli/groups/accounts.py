@@ -141,7 +141,13 @@ PLOTTED_RATIO = "44/40"  # what --plot draws when no --ratio is given
 def results_command(
     ctx: typer.Context,
     loan: Annotated[str | None, Opt("--loan", help="Only this loan.")] = None,
-    scale: Annotated[str | None, Opt("--scale", help="Report on this reference's scale.")] = None,
+    scale: Annotated[
+        str | None,
+        Opt(
+            "--scale",
+            help="Report on this reference's scale (a δ it has no value for stays as measured).",
+        ),
+    ] = None,
     plot: Annotated[
         Path | None, Opt("--plot", help="Also write δ against age to a new PNG file.")
     ] = None,

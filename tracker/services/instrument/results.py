@@ -87,9 +87,11 @@ def results(
         if loan is not None:
             query = query.where(Loan.id == get_loan(session, "loan", loan).id)
         anchors = {} if scale is None else _anchors(session, scale)
-        lines, elements = [], set()
+        lines, elements, unanchored = [], set(), 0
         for result, cut, specimen, loan_row, run in session.execute(query):
             value, on, factor = _on_scale(result, scale, anchors)
+            missing = _no_scale_value(result, scale, on)
+            unanchored += bool(missing)
             sd = None if result.sd_permil is None else result.sd_permil * factor
             line = SpecimenResult(
                 specimen=specimen.public_id,
@@ -108,10 +110,12 @@ def results(
                 age_max_ma=specimen.age_max_ma,
                 determined_on=run.started_at.date(),
                 determined_by=run.operator,
-                flags=list(result.flags),
+                flags=[*result.flags, *missing],
             )
             lines.append(line if wanted is None else _on_ratio(line, run.element, *wanted))
             elements.add(run.element)
+    if scale is not None and unanchored and not any(_on(line, scale) for line in lines):
+        _refuse_unanchored(scale, lines)
     if wanted is not None:
         _check_element(elements or set(ISOTOPE_MASS), wanted[0])
     return lines
@@ -176,9 +180,10 @@ def _to_specimen(query: Select[*Row]) -> Select[*Row]:
 
 def scales(db: Database, loan: str) -> list[str]:
     """The reference scales a loan's results can be shown on, by name: each reference
-    material with an accepted δ on the scale of every δ the loan has (the ratio and the
-    scale it was measured on), so that choosing one of them is never refused. None while the
-    loan has no δ results (a ratio keeps no scale to change)."""
+    material with an accepted δ for at least one δ the loan has (its ratio, on the scale it
+    was measured on), so that choosing one of them is never refused; the δ it has no value
+    for are shown as measured, each saying so. None while the loan has no δ results (a ratio
+    keeps no scale to change)."""
     with db.read_session() as session:
         loan_id = get_loan(session, "loan", loan).id
         measured = _to_specimen(select(Result.ratio, Result.scale).distinct()).where(
@@ -193,7 +198,7 @@ def scales(db: Database, loan: str) -> list[str]:
         known: dict[str, set[tuple[str, str]]] = {}
         for name, ratio, scale in session.execute(accepted):
             known.setdefault(name, set()).add((ratio, scale))
-    return sorted(name for name, pairs in known.items() if needed and needed <= pairs)
+    return sorted(name for name, pairs in known.items() if needed & pairs)
 
 
 def _anchors(session: Session, scale: str) -> dict[tuple[str, str], ReferenceValue]:
@@ -212,23 +217,47 @@ def _anchors(session: Session, scale: str) -> dict[tuple[str, str], ReferenceVal
     return latest
 
 
+def _no_scale_value(result: Result, scale: str | None, on: str) -> list[str]:
+    """The flag of a δ asked on ``scale`` but left on its own: no accepted value to convert
+    it by. Empty when it was converted, or needs no conversion (its own scale, a ratio)."""
+    if scale is None or on.lower() == scale.lower() or result.kind != "delta":
+        return []
+    return [
+        f"no scale value: {scale} has no accepted δ{result.ratio} on the {result.scale} "
+        f"scale; shown on {result.scale}"
+    ]
+
+
+def _on(line: SpecimenResult, scale: str) -> bool:
+    return line.scale.lower() == scale.lower()
+
+
+def _refuse_unanchored(scale: str, lines: list[SpecimenResult]) -> None:
+    """Refuse a scale that none of the δ could be put on: the list would only repeat them
+    as measured, each saying so."""
+    needed = sorted({f"δ{x.ratio} on the {x.scale} scale" for x in lines if x.kind == "delta"})
+    raise RuleViolation(
+        "scale",
+        scale,
+        f"no accepted value of {scale} for any result here ({', '.join(needed)}); "
+        "record one first",
+    )
+
+
 def _on_scale(
     result: Result, scale: str | None, anchors: dict[tuple[str, str], ReferenceValue]
 ) -> tuple[float, str, float]:
     """The value on the asked scale, that scale, and the factor spreads scale by.
 
     δ_new = (1 + δ/1000)/(1 + a/1000) − 1, so spreads scale by 1/(1 + a/1000) exactly.
+    A δ whose ratio the scale's reference has no accepted value for, on the scale it was
+    measured on, stays on that scale (``_no_scale_value`` says so on its line).
     """
     if scale is None or scale.lower() == result.scale.lower() or result.kind != "delta":
         return result.delta_permil, result.scale, 1.0
     anchor = anchors.get((result.ratio, result.scale))
     if anchor is None:
-        raise RuleViolation(
-            "scale",
-            scale,
-            f"no accepted δ{result.ratio} of {scale} on the {result.scale} scale; "
-            "record that accepted value first",
-        )
+        return result.delta_permil, result.scale, 1.0
     factor = 1 / (1 + anchor.value / 1000)
     return change_scale(result.delta_permil, invert(anchor.value)), scale, factor
 

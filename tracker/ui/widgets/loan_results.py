@@ -1,6 +1,7 @@
 """A loan's results per specimen (value, 2SD and n), on the scale a person chooses: as
-measured, or the scale of a reference material whose accepted δ is known for every δ the
-loan has (``results.scales``), so no choice offered is refused. The list is the CLI's
+measured, or the scale of a reference material whose accepted δ is known for at least one δ
+the loan has (``results.scales``), so no choice offered is refused; a δ the scale has no
+value for stays as measured and says so ("no scale value"). The list is the CLI's
 ``tracker results`` rendering (``present.lab.results_table``), drawn here as it prints."""
 
 from __future__ import annotations
