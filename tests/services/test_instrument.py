@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+import random
 from dataclasses import dataclass
 
 import pytest
@@ -11,7 +12,7 @@ from tests import factories as make
 from tests.conftest import Counts
 from tracker.db.database import Database
 from tracker.domain.errors import InputError, RuleViolation
-from tracker.domain.isotopes import exponential_factor
+from tracker.domain.isotopes import exponential_factor, predicted_delta
 from tracker.services.bench import chemistry, columns
 from tracker.services.instrument import reduction, results, sessions
 
@@ -187,6 +188,69 @@ def test_mass_dependence_check(db: Database) -> None:
     off = reduction.reduce_session(db, "tech", {"session": do_import(db, export(rows), name="S3")})
     flagged = [r for r in off.item.results if any("mass-dependence" in f for f in r.flags)]
     assert {r.ratio for r in flagged} == {"44/40", "44/42"}
+
+
+def mass_flags(reduced: reduction.Reduction) -> set[str]:
+    return {f for r in reduced.results for f in r.flags if f.startswith("mass-dependence")}
+
+
+def test_an_offset_hidden_in_runs_that_drift_along_the_law_is_flagged(db: Database) -> None:
+    # Each run's mass bias moves δ44/40 and δ44/42 together along the law (0.1 ‰ of
+    # δ44/42, invented); δ44/40 sits 0.05 ‰ off the law. The two ratios' errors are then
+    # correlated: judged as independent, the spread would hide the offset.
+    b = bench(db)
+    rng = random.Random(3)
+    rows, run = [delta_row(1, "STD-X", STD, 0.0)], 1
+    for _ in range(6):
+        d4442 = 0.4 + rng.gauss(0, 0.1)
+        d4440 = predicted_delta(d4442, K) + 0.05
+        rows += [
+            delta_row(run + 1, b.cut, STD, d4440, d4442),
+            delta_row(run + 2, "STD-X", STD, 0.0),
+        ]
+        run += 2
+    reduced = reduction.reduce_session(db, "tech", {"session": do_import(db, export(rows))}).item
+    (flag,) = mass_flags(reduced)
+    assert "44/40 vs 44/42" in flag and "from replicates" in flag
+
+
+def test_a_single_run_is_judged_by_its_internal_errors(db: Database) -> None:
+    b = bench(db)
+    columns_with_errors = {
+        "run_order": "Run",
+        "sample_name": "Name",
+        "ratios": {"44/40": "r4440", "44/42": "r4442"},
+        "errors": {"44/40": "e4440", "44/42": "e4442"},
+    }
+    definition = {"format": "csv", "columns": columns_with_errors}
+    sessions.save_profile(db, "tech", {"name": "with errors", "definition": definition})
+
+    def one_run(offset: float, two_se: float) -> bytes:
+        # internal 2SE of each ratio, as a fraction of it (invented)
+        rows = [
+            delta_row(1, "STD-X", STD, 0.0),
+            delta_row(2, b.cut, STD, predicted_delta(0.4, K) + offset, 0.4),
+            delta_row(3, "STD-X", STD, 0.0),
+        ]
+        lines = [f"{row},{STD[0] * two_se:.3e},{STD[1] * two_se:.3e}" for row in rows]
+        return ("Run,Name,r4440,r4442,e4440,e4442\n" + "\n".join(lines) + "\n").encode()
+
+    def reduced(content: bytes, name: str) -> reduction.Reduction:
+        session = do_import(db, content, profile="with errors", name=name)
+        return reduction.reduce_session(db, "tech", {"session": session}).item
+
+    # 2SE of 2e-5 of each ratio: about 0.02 ‰ on each bracketed δ, far below 0.3 ‰
+    (flag,) = mass_flags(reduced(one_run(0.3, 2e-5), "off"))
+    assert "from internal errors" in flag
+    assert not mass_flags(reduced(one_run(0.003, 2e-5), "on the law"))
+    # without internal errors a single run has nothing to be judged by
+    bare = [
+        delta_row(1, "STD-X", STD, 0.0),
+        delta_row(2, b.cut, STD, predicted_delta(0.4, K) + 0.3, 0.4),
+        delta_row(3, "STD-X", STD, 0.0),
+    ]
+    plain = do_import(db, export(bare), name="bare")
+    assert not mass_flags(reduction.reduce_session(db, "tech", {"session": plain}).item)
 
 
 def test_blank_correction_when_the_blank_delta_is_known(db: Database) -> None:

@@ -3,7 +3,10 @@
 from __future__ import annotations
 
 import math
+import random
+import statistics
 
+import numpy
 import periodictable
 import pytest
 
@@ -12,6 +15,8 @@ from tracker.domain.isotopes import (
     LAWS,
     Law,
     convert_delta,
+    departure_of_one_run,
+    departure_of_replicates,
     equilibrium_factor,
     exponential_factor,
     has_ratio,
@@ -115,3 +120,65 @@ def test_a_ratio_the_element_has_no_isotope_for_is_refused() -> None:
     assert not has_ratio("Ca", "45/40") and not has_ratio("Sr", "44/40")
     with pytest.raises(ValueError, match="no stable isotope 45"):
         convert_delta("Ca", 1.0, None, "44/42", "45/40", "exponential")
+
+
+def law_runs(offset: float, n: int = 8, seed: int = 7) -> tuple[list[float], list[float]]:
+    """Runs whose mass bias jitters along the law (0.1 ‰ in δ44/42, as a drifting instrument
+    moves both ratios together), δ44/40 offset from the law by ``offset``, and a little
+    independent noise (0.005 ‰) on each ratio. Invented numbers."""
+    rng = random.Random(seed)
+    k = exponential_factor("Ca", "44/40", "44/42")
+    b = [0.40 + rng.gauss(0, 0.1) for _ in range(n)]
+    a = [predicted_delta(x, k) + offset + rng.gauss(0, 0.005) for x in b]
+    return a, [x + rng.gauss(0, 0.005) for x in b]
+
+
+def test_a_departure_from_replicates_carries_the_covariance_of_the_two_ratios() -> None:
+    k = exponential_factor("Ca", "44/40", "44/42")
+    a, b = law_runs(offset=0.0)
+    found = departure_of_replicates(a, b, k)
+    assert found is not None and found.basis == "replicates"
+    # Independent route: first-order variance of a − k′b from numpy's sample covariance,
+    # var = var(a) + k′²var(b) − 2k′cov(a, b) (GUM, JCGM 100:2008, eq. 13), k′ the law's
+    # slope at the mean δb.
+    cov = numpy.cov(a, b, ddof=1)
+    slope = k * (1 + statistics.fmean(b) / 1000) ** (k - 1)
+    variance = cov[0, 0] + slope**2 * cov[1, 1] - 2 * slope * cov[0, 1]
+    assert found.se == pytest.approx(math.sqrt(variance / len(a)), rel=1e-3)
+    assert not found.significant
+
+
+def test_an_offset_hidden_by_correlated_runs_is_found() -> None:
+    k = exponential_factor("Ca", "44/40", "44/42")
+    a, b = law_runs(offset=0.05)
+    found = departure_of_replicates(a, b, k)
+    assert found is not None and found.significant
+    assert found.residual == pytest.approx(0.05, abs=0.01)
+    # Treated as independent (the SE of each mean, added in quadrature), the same runs
+    # would pass: the jitter along the law swamps the offset.
+    n = len(a)
+    independent = math.hypot(
+        statistics.stdev(a) / math.sqrt(n), k * statistics.stdev(b) / math.sqrt(n)
+    )
+    assert abs(found.residual) < 2 * independent
+
+
+def test_a_single_run_is_judged_from_its_internal_errors() -> None:
+    k = exponential_factor("Ca", "44/40", "44/42")
+    b, u_a, u_b = 0.40, 0.010, 0.006
+    on_law = predicted_delta(b, k)
+    # the law's slope by a central difference, independent of the code's derivative
+    h = 1e-4
+    slope = (predicted_delta(b + h, k) - predicted_delta(b - h, k)) / (2 * h)
+    found = departure_of_one_run(on_law + 0.05, u_a, b, u_b, k)
+    assert found.basis == "internal errors"
+    assert found.se == pytest.approx(math.hypot(u_a, slope * u_b), rel=1e-9)
+    assert found.residual == pytest.approx(0.05, abs=1e-12)
+    assert found.significant
+    assert not departure_of_one_run(on_law + 0.01, u_a, b, u_b, k).significant
+
+
+def test_a_departure_needs_two_paired_runs() -> None:
+    assert departure_of_replicates([0.5], [0.25], 2.0) is None
+    with pytest.raises(ValueError):
+        departure_of_replicates([0.5, 0.6], [0.25], 2.0)

@@ -16,6 +16,8 @@ linear, δ'a = k·δ'b); k·δb is only its first-order approximation.
 from __future__ import annotations
 
 import math
+import statistics
+from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import Literal
 
@@ -116,3 +118,55 @@ def convert_delta(
     slope = k * (1 + value / 1000) ** (k - 1)
     spread = None if two_sd is None else float(two_sd * slope)
     return ConvertedDelta(predicted_delta(value, k), spread, k, law, float(slope))
+
+
+# δ are reported to 0.001 ‰ at the finest (the precision rules), so a departure from the
+# law smaller than that cannot be told from the rounding of the values compared.
+RESOLUTION_PERMIL = 0.001
+
+
+@dataclass(frozen=True)
+class Departure:
+    """How far a target's δa lies from the δa its δb predicts, and the standard error of that
+    residual (‰); ``basis`` says where the error came from."""
+
+    residual: float
+    se: float
+    basis: Literal["replicates", "internal errors"]
+
+    @property
+    def significant(self) -> bool:
+        """Beyond twice its standard error (about 95 %, common practice) and beyond the
+        resolution of the values."""
+        return abs(self.residual) > max(2 * self.se, RESOLUTION_PERMIL)
+
+
+def departure_of_replicates(a: Sequence[float], b: Sequence[float], k: float) -> Departure | None:
+    """The residual of paired runs (δa and δb of the same run), None under two pairs.
+
+    δa and δb share an isotope (⁴⁴Ca in 44/40 and 44/42), so each run's errors in the two
+    are correlated, and treating them as independent overstates the residual's error. Each
+    run's own residual rᵢ = δaᵢ − predicted(δbᵢ) carries that covariance with it:
+    var(r) = var(a) + k′²·var(b) − 2k′·cov(a, b) to first order, k′ the law's local slope.
+    The residual is the mean of rᵢ and its standard error SD(r)/√n.
+    """
+    if len(a) != len(b):
+        raise ValueError("δa and δb must come from the same runs")
+    if len(a) < 2:
+        return None
+    residuals = [x - predicted_delta(y, k) for x, y in zip(a, b, strict=True)]
+    se = statistics.stdev(residuals) / math.sqrt(len(residuals))
+    return Departure(statistics.fmean(residuals), se, "replicates")
+
+
+def departure_of_one_run(a: float, u_a: float, b: float, u_b: float, k: float) -> Departure:
+    """The residual of a single run, its error from the run's internal errors (standard
+    uncertainties of δa and δb, first-order propagation).
+
+    One run gives no covariance of δa and δb, so they are taken as independent. Their shared
+    isotope correlates them positively, and with k > 0 that correlation lowers the residual's
+    variance: taken as independent, the error is if anything too large and the check
+    cautious.
+    """
+    slope = k * (1 + b / 1000) ** (k - 1)  # d predicted(δb) / dδb
+    return Departure(a - predicted_delta(b, k), math.hypot(u_a, slope * u_b), "internal errors")

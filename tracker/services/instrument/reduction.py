@@ -6,16 +6,17 @@ ratio (ratio mode, e.g. ⁸⁷Sr/⁸⁶Sr normalised to the standard). Runs of o
 then averaged: mean, SD, 2SD, 2SE, n. Reference materials are checked against their
 accepted value within the lab's long-term 2SD; a failure flags the whole session.
 Where two ratios share an isotope (44/40 and 44/42), every target is checked for
-mass-dependent consistency under the exponential law.
+mass-dependent consistency under the exponential law, from its runs' paired residuals
+(so the correlation of two ratios sharing an isotope is counted), or from a single run's
+internal errors.
 """
 
 from __future__ import annotations
 
-import math
 from bisect import bisect_left, bisect_right
 from collections import defaultdict
 from collections.abc import Iterable
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from datetime import datetime
 from itertools import combinations
 
@@ -23,10 +24,23 @@ from sqlalchemy import select
 from sqlalchemy.orm import Session, joinedload
 
 from tracker.db.database import Database
-from tracker.domain.delta import Replicates, blank_corrected, bracketed_delta, replicate_stats
+from tracker.domain import precision
+from tracker.domain.delta import (
+    Replicates,
+    blank_corrected,
+    bracketed_delta,
+    bracketed_delta_u,
+    replicate_stats,
+)
 from tracker.domain.errors import RuleViolation
 from tracker.domain.ids import Kind, format_id
-from tracker.domain.isotopes import exponential_factor, parse_ratio, predicted_delta
+from tracker.domain.isotopes import (
+    Departure,
+    departure_of_one_run,
+    departure_of_replicates,
+    exponential_factor,
+    parse_ratio,
+)
 from tracker.domain.models import (
     Aliquot,
     BatchPosition,
@@ -112,12 +126,14 @@ def recompute(sql: Session, session: InstrumentSession, now: datetime) -> Reduct
     )
     lines: list[ResultLine] = []
     rows: list[Result] = []
+    measured: dict[tuple[str, str], _Runs] = {}
     for ratio in session.ratio_names:
-        for target, stats in _replicates(session, runs, ratio).items():
-            line, row = _result(sql, session, ratio, target, stats, now, accepted)
+        for target, runs_of in _replicates(session, runs, ratio).items():
+            line, row = _result(sql, session, ratio, target, runs_of.stats, now, accepted)
             lines.append(line)
             rows.append(row)
-    _mass_dependence(session, lines)
+            measured[(line.target, ratio)] = runs_of
+    _mass_dependence(session, lines, measured)
     flags = sorted(
         {f"reference material failed: {x.label} {x.ratio}" for x in lines if x.passed is False}
     )
@@ -167,15 +183,30 @@ def _target_of(row: Result) -> tuple[int | None, int | None, int | None, str]:
     return row.cut_id, row.reference_material_id, row.position_id, row.ratio
 
 
+@dataclass
+class _Runs:
+    """One target's runs on one ratio: each run's value, its order in the session and, when
+    the export gives internal errors, the standard uncertainty of its δ."""
+
+    values: list[float] = field(default_factory=list)
+    orders: list[int] = field(default_factory=list)
+    internal: list[float | None] = field(default_factory=list)
+
+    @property
+    def stats(self) -> Replicates:
+        return replicate_stats(self.values)
+
+
 def _replicates(
     session: InstrumentSession, runs: list[Measurement], ratio: str
-) -> dict[Target, tuple[Replicates, list[int]]]:
-    standards = sorted(
-        (m.run_order, m.ratios[ratio]) for m in runs if m.role is MeasurementRole.STANDARD
+) -> dict[Target, _Runs]:
+    standards: list[Standard] = sorted(
+        (m.run_order, m.ratios[ratio], _u(m, ratio))
+        for m in runs
+        if m.role is MeasurementRole.STANDARD
     )
-    order = [run for run, _ in standards]  # searched, never scanned, for each run's neighbours
-    values: dict[Target, list[float]] = defaultdict(list)
-    orders: dict[Target, list[int]] = defaultdict(list)
+    order = [run for run, _, _ in standards]  # searched, never scanned, for each run's neighbours
+    found: dict[Target, _Runs] = defaultdict(_Runs)
     for m in runs:
         target = _target(m)
         if target is None:
@@ -188,10 +219,34 @@ def _replicates(
                 f"run {m.run_order} ({m.sample_name}) lost its bracketing "
                 "standard (an excluded standard run?)",
             )
-        neighbours = standards[before - 1][1], standards[after][1]
-        values[target].append(_value(session, ratio, m.ratios[ratio], *neighbours))
-        orders[target].append(m.run_order)
-    return {t: (replicate_stats(v), orders[t]) for t, v in values.items()}
+        neighbours = standards[before - 1], standards[after]
+        sample = m.ratios[ratio]
+        runs_of = found[target]
+        runs_of.values.append(_value(session, ratio, sample, neighbours[0][1], neighbours[1][1]))
+        runs_of.orders.append(m.run_order)
+        runs_of.internal.append(_internal_u(session, sample, _u(m, ratio), *neighbours))
+    return dict(found)
+
+
+Standard = tuple[int, float, float | None]  # a standard run: its order, ratio and uncertainty
+
+
+def _internal_u(
+    session: InstrumentSession, sample: float, u: float | None, before: Standard, after: Standard
+) -> float | None:
+    """The standard uncertainty of a run's bracketed δ from the internal errors of the run
+    and of its two standards; None in ratio mode or when any of them was not given."""
+    _, r_before, u_before = before
+    _, r_after, u_after = after
+    if session.mode != "delta" or u is None or u_before is None or u_after is None:
+        return None
+    return bracketed_delta_u(sample, u, r_before, u_before, r_after, u_after)
+
+
+def _u(m: Measurement, ratio: str) -> float | None:
+    """A run's internal standard uncertainty of ``ratio``: half its internal 2SE, if given."""
+    two_se = m.errors.get(ratio)
+    return None if two_se is None else float(two_se) / 2
 
 
 def _value(
@@ -217,11 +272,10 @@ def _result(
     session: InstrumentSession,
     ratio: str,
     target: Target,
-    data: tuple[Replicates, list[int]],
+    stats: Replicates,
     now: datetime,
     accepted_values: dict[tuple[int, str], ReferenceValue],
 ) -> tuple[ResultLine, Result]:
-    stats, _ = data
     kind, key = target
     value, corrected, flags = stats.mean, False, []
     row = Result(
@@ -356,20 +410,42 @@ def _pairs(element: str, ratios: Iterable[str]) -> list[_Pair]:
     return found
 
 
-def _mass_dependence(session: InstrumentSession, lines: list[ResultLine]) -> None:
-    """Flag targets whose two ratios disagree with mass-dependent fractionation."""
+def _mass_dependence(
+    session: InstrumentSession, lines: list[ResultLine], measured: dict[tuple[str, str], _Runs]
+) -> None:
+    """Flag targets whose two ratios disagree with mass-dependent fractionation: from the
+    runs' paired residuals (their covariance included), or a single run's internal errors."""
     if session.mode != "delta":
         return
     by_target: dict[str, dict[str, ResultLine]] = defaultdict(dict)
     for line in lines:
         by_target[line.target][line.ratio] = line
     for pair in _pairs(session.element, session.ratio_names):
-        for pairs in by_target.values():
+        for target, pairs in by_target.items():
             a, b = pairs.get(pair.a), pairs.get(pair.b)
-            if a is None or b is None or a.sd is None or b.sd is None:
+            if a is None or b is None:
                 continue
-            residual = a.value - predicted_delta(b.value, pair.k)
-            se = math.hypot(a.sd / math.sqrt(a.n), pair.k * b.sd / math.sqrt(b.n))
-            if abs(residual) > 2 * se:
-                for line in (a, b):
-                    line.flags.append(f"mass-dependence off ({pair.a} vs {pair.b})")
+            found = _departure(measured[(target, pair.a)], measured[(target, pair.b)], pair.k)
+            if found is not None and found.significant:
+                note = (
+                    f"mass-dependence off ({pair.a} vs {pair.b}: "
+                    f"{precision.delta(found.residual, 2 * found.se)} from {found.basis})"
+                )
+                a.flags.append(note)
+                b.flags.append(note)
+
+
+def _departure(a: _Runs, b: _Runs, k: float) -> Departure | None:
+    """The departure of δa from the law, from the runs that measured both ratios."""
+    b_of = dict(zip(b.orders, zip(b.values, b.internal, strict=True), strict=True))
+    paired = [
+        (value, u, *b_of[order])
+        for order, value, u in zip(a.orders, a.values, a.internal, strict=True)
+        if order in b_of
+    ]
+    if len(paired) == 1:
+        a_value, u_a, b_value, u_b = paired[0]
+        if u_a is None or u_b is None:
+            return None
+        return departure_of_one_run(a_value, u_a, b_value, u_b, k)
+    return departure_of_replicates([p[0] for p in paired], [p[2] for p in paired], k)
