@@ -9,10 +9,12 @@ import numpy
 import pytest
 
 from tracker.domain.delta import (
+    T_975,
     blank_corrected,
     bracketed_delta,
     bracketed_delta_u,
     change_scale,
+    coverage_95,
     delta_permil,
     invert,
     replicate_stats,
@@ -84,3 +86,29 @@ def test_blank_mixing_correction_by_mass_balance() -> None:
     mixed = (10000 * 1.0 + 100 * -5.0) / 10100
     assert blank_corrected(mixed, 10000, -5.0, 100) == pytest.approx(1.0, abs=1e-12)
     assert blank_corrected(0.5, 1000, 0.5, 50) == pytest.approx(0.5, abs=1e-12)  # same δ: no shift
+
+
+def student_t_cdf(t: float, df: int, steps: int = 20000) -> float:
+    """P(T ≤ t) for Student's t, by Simpson's rule on its density (the density's formula,
+    e.g. NIST/SEMATECH e-Handbook of Statistical Methods, 1.3.6.6.4), from 0 to t."""
+    norm = math.gamma((df + 1) / 2) / (math.sqrt(df * math.pi) * math.gamma(df / 2))
+
+    def density(x: float) -> float:
+        return float(norm * (1 + x * x / df) ** (-(df + 1) / 2))
+
+    h = t / steps
+    inner = sum((4 if i % 2 else 2) * density(i * h) for i in range(1, steps))
+    return 0.5 + h / 3 * (density(0.0) + inner + density(t))
+
+
+@pytest.mark.parametrize("df", range(1, len(T_975) + 1))
+def test_the_t_table_gives_two_sided_95_percent(df: int) -> None:
+    # each tabled quantile, rounded to three decimals, leaves 2.5 % in the upper tail
+    assert student_t_cdf(T_975[df - 1], df) == pytest.approx(0.975, abs=2e-4)
+    assert coverage_95(df) == T_975[df - 1]
+
+
+def test_many_replicates_keep_the_widest_tabled_factor() -> None:
+    assert coverage_95(200) == T_975[-1] > 1.96
+    with pytest.raises(ValueError):
+        coverage_95(0)

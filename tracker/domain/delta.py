@@ -84,3 +84,49 @@ def blank_corrected(
     if sample_mass <= 0:
         raise ValueError("sample element mass must be positive")
     return (delta_measured * (sample_mass + blank_mass) - delta_blank * blank_mass) / sample_mass
+
+
+# Student's t, two-sided 95 % (the 0.975 quantile), by degrees of freedom: the standard
+# table (from memory of any statistics handbook; tests/unit/test_delta.py checks every entry
+# by integrating the t density). Beyond 30 degrees of freedom the value for 30 is used,
+# which is a little wide (the limit is 1.960) and so errs on the side of fewer flags.
+T_975 = (
+    12.706,
+    4.303,
+    3.182,
+    2.776,
+    2.571,
+    2.447,
+    2.365,
+    2.306,
+    2.262,
+    2.228,
+    2.201,
+    2.179,
+    2.160,
+    2.145,
+    2.131,
+    2.120,
+    2.110,
+    2.101,
+    2.093,
+    2.086,
+    2.080,
+    2.074,
+    2.069,
+    2.064,
+    2.060,
+    2.056,
+    2.052,
+    2.048,
+    2.045,
+    2.042,
+)
+
+
+def coverage_95(degrees_of_freedom: int) -> float:
+    """The factor that turns a standard error estimated from ``degrees_of_freedom`` + 1
+    replicates into a 95 % half-interval (Student's t; 2 is right only for many)."""
+    if degrees_of_freedom < 1:
+        raise ValueError("a standard error from replicates needs at least two of them")
+    return T_975[min(degrees_of_freedom, len(T_975)) - 1]

@@ -21,6 +21,8 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import Literal
 
+from tracker.domain.delta import coverage_95
+
 Law = Literal["exponential", "equilibrium"]
 LAWS: tuple[Law, ...] = ("exponential", "equilibrium")
 
@@ -123,6 +125,9 @@ def convert_delta(
 # δ are reported to 0.001 ‰ at the finest (the precision rules), so a departure from the
 # law smaller than that cannot be told from the rounding of the values compared.
 RESOLUTION_PERMIL = 0.001
+# An uncertainty stated by the instrument (internal errors) is taken as known: k = 2 gives
+# about 95 % (GUM, JCGM 100:2008, 6.3.3; common practice).
+KNOWN_COVERAGE = 2.0
 
 
 @dataclass(frozen=True)
@@ -133,12 +138,12 @@ class Departure:
     residual: float
     se: float
     basis: Literal["replicates", "internal errors"]
+    coverage: float  # the 95 % factor on se: Student's t from replicates, 2 for known errors
 
     @property
     def significant(self) -> bool:
-        """Beyond twice its standard error (about 95 %, common practice) and beyond the
-        resolution of the values."""
-        return abs(self.residual) > max(2 * self.se, RESOLUTION_PERMIL)
+        """Outside its 95 % interval and beyond the resolution of the values."""
+        return abs(self.residual) > max(self.coverage * self.se, RESOLUTION_PERMIL)
 
 
 def departure_of_replicates(a: Sequence[float], b: Sequence[float], k: float) -> Departure | None:
@@ -148,7 +153,8 @@ def departure_of_replicates(a: Sequence[float], b: Sequence[float], k: float) ->
     are correlated, and treating them as independent overstates the residual's error. Each
     run's own residual rᵢ = δaᵢ − predicted(δbᵢ) carries that covariance with it:
     var(r) = var(a) + k′²·var(b) − 2k′·cov(a, b) to first order, k′ the law's local slope.
-    The residual is the mean of rᵢ and its standard error SD(r)/√n.
+    The residual is the mean of rᵢ and its standard error SD(r)/√n; that SD is estimated
+    from n runs, so the 95 % interval takes Student's t with n − 1 degrees of freedom.
     """
     if len(a) != len(b):
         raise ValueError("δa and δb must come from the same runs")
@@ -156,7 +162,7 @@ def departure_of_replicates(a: Sequence[float], b: Sequence[float], k: float) ->
         return None
     residuals = [x - predicted_delta(y, k) for x, y in zip(a, b, strict=True)]
     se = statistics.stdev(residuals) / math.sqrt(len(residuals))
-    return Departure(statistics.fmean(residuals), se, "replicates")
+    return Departure(statistics.fmean(residuals), se, "replicates", coverage_95(len(a) - 1))
 
 
 def departure_of_one_run(a: float, u_a: float, b: float, u_b: float, k: float) -> Departure:
@@ -169,4 +175,5 @@ def departure_of_one_run(a: float, u_a: float, b: float, u_b: float, k: float) -
     cautious.
     """
     slope = k * (1 + b / 1000) ** (k - 1)  # d predicted(δb) / dδb
-    return Departure(a - predicted_delta(b, k), math.hypot(u_a, slope * u_b), "internal errors")
+    u = math.hypot(u_a, slope * u_b)
+    return Departure(a - predicted_delta(b, k), u, "internal errors", KNOWN_COVERAGE)

@@ -427,10 +427,9 @@ def _mass_dependence(
                 continue
             found = _departure(measured[(target, pair.a)], measured[(target, pair.b)], pair.k)
             if found is not None and found.significant:
-                note = (
-                    f"mass-dependence off ({pair.a} vs {pair.b}: "
-                    f"{precision.delta(found.residual, 2 * found.se)} from {found.basis})"
-                )
+                interval = precision.delta(found.residual, found.coverage * found.se)
+                pairing = f"{pair.a} vs {pair.b}"
+                note = f"mass-dependence off ({pairing}: {interval}, 95 %, from {found.basis})"
                 a.flags.append(note)
                 b.flags.append(note)
 

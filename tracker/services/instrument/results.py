@@ -34,11 +34,13 @@ from tracker.domain.models import (
     Solution,
     Specimen,
 )
+from tracker.domain.reproducibility import Basis, reported_two_sd
 from tracker.services.core.common import finish
 from tracker.services.core.inputs import FieldProblem, Name, Raw, Request, parse
 from tracker.services.core.lookup import get_loan, get_reference_material
 from tracker.services.core.uow import unit_of_work
 from tracker.services.core.views import Done, View
+from tracker.services.instrument.reproducibility import lab_record, session_flag
 
 Row = TypeVarTuple("Row")
 
@@ -52,7 +54,9 @@ class SpecimenResult(View):
     ratio: str
     kind: str
     value: float
-    two_sd: float | None
+    two_sd: float | None  # the 2SD reported: the larger of internal_two_sd and the lab's
+    internal_two_sd: float | None  # the spread of this sample's own runs
+    uncertainty: Basis  # which of the two two_sd is
     two_se: float | None
     n: int
     scale: str
@@ -87,12 +91,16 @@ def results(
         if loan is not None:
             query = query.where(Loan.id == get_loan(session, "loan", loan).id)
         anchors = {} if scale is None else _anchors(session, scale)
+        record = lab_record(session)
         lines, elements, unanchored = [], set(), 0
         for result, cut, specimen, loan_row, run in session.execute(query):
             value, on, factor = _on_scale(result, scale, anchors)
             missing = _no_scale_value(result, scale, on)
             unanchored += bool(missing)
-            sd = None if result.sd_permil is None else result.sd_permil * factor
+            internal = None if result.sd_permil is None else 2 * result.sd_permil
+            method = (result.ratio, result.scale, result.kind)
+            two_sd, basis = reported_two_sd(internal, record.two_sd.get(method))
+            outside = record.outside.get(result.session_id)
             line = SpecimenResult(
                 specimen=specimen.public_id,
                 catalog_number=specimen.catalog_number,
@@ -102,7 +110,9 @@ def results(
                 ratio=result.ratio,
                 kind=result.kind,
                 value=value,
-                two_sd=None if sd is None else 2 * sd,
+                two_sd=None if two_sd is None else two_sd * factor,
+                internal_two_sd=None if internal is None else internal * factor,
+                uncertainty=basis,
                 two_se=None if result.two_se_permil is None else result.two_se_permil * factor,
                 n=result.n,
                 scale=on,
@@ -110,7 +120,7 @@ def results(
                 age_max_ma=specimen.age_max_ma,
                 determined_on=run.started_at.date(),
                 determined_by=run.operator,
-                flags=[*result.flags, *missing],
+                flags=[*result.flags, *missing, *([session_flag(outside)] if outside else [])],
             )
             lines.append(line if wanted is None else _on_ratio(line, run.element, *wanted))
             elements.add(run.element)
@@ -239,8 +249,7 @@ def _refuse_unanchored(scale: str, lines: list[SpecimenResult]) -> None:
     raise RuleViolation(
         "scale",
         scale,
-        f"no accepted value of {scale} for any result here ({', '.join(needed)}); "
-        "record one first",
+        f"no accepted value of {scale} for any result here ({', '.join(needed)}); record one first",
     )
 
 
