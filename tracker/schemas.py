@@ -21,6 +21,7 @@ from tracker.services.bench.columns import BatchSummary
 from tracker.services.core.views import Done
 from tracker.services.corrections.correcting import CorrectionView
 from tracker.services.instrument.reduction import Reduction
+from tracker.services.instrument.reproducibility import ControlChart
 from tracker.services.instrument.results import SpecimenResult
 from tracker.services.instrument.screening import Screening
 from tracker.services.instrument.sessions import ProfileDefinition, SessionView
@@ -88,6 +89,11 @@ DOCUMENTS: dict[str, tuple[str, str, Callable[[], dict[str, Any]]]] = {
         "tracker results",
         "Output of `tracker --json results`.",
         _of(list[SpecimenResult]),
+    ),
+    "control-chart.schema.json": (
+        "tracker reference chart",
+        "Output of `tracker --json reference chart`.",
+        _of(ControlChart),
     ),
     "screening.schema.json": (
         "tracker screen",

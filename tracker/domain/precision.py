@@ -39,6 +39,12 @@ Number = float | int | Decimal
 
 PLUS_MINUS = " ± "
 ABSENT = "—"  # a value that does not exist yet (a result not measured, a limit not set)
+# after a 2SD that is the lab's long-term one (larger than the result's own), and its key
+LONG_TERM_MARK = " (lab)"
+LONG_TERM_NOTE = (
+    "(lab): the lab's long-term 2SD of its reference materials on that ratio and scale, "
+    "reported because it is larger than the result's own spread (common practice)"
+)
 # An uncertainty whose three leading digits are below this keeps two significant digits,
 # from it one (the Particle Data Group's rounding rule, Review of Particle Physics,
 # "Introduction"; from memory).
@@ -255,3 +261,11 @@ def used_of_limit(used_mg: Number, limit: Number | None) -> str:
     """Mass used against its limit, compactly: ``0.814/50 mg``, or ``0.814 mg`` unlimited."""
     used = number(used_mg, MASS_PLACES)
     return f"{used} mg" if not limit else f"{used}/{limit_mg(limit)}"
+
+
+def reported_spread(spread: str | None, unit: str, basis: str) -> str:
+    """A result's 2SD cell: the spread with its unit, marked when it is the lab's long-term
+    2SD rather than the result's own; a dash when there is none."""
+    if spread is None:
+        return ABSENT
+    return spread + unit + (LONG_TERM_MARK if basis == "long-term" else "")

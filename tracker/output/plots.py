@@ -1,4 +1,5 @@
-"""PNG figures for reports: the bracketing standard's drift and δ against age.
+"""PNG figures for reports: the bracketing standard's drift, δ against age, and a reference
+material's control chart.
 
 matplotlib is imported lazily with the non-interactive Agg backend, so the tool never
 needs a display (and `tracker --help` never pays for the import).
@@ -9,6 +10,7 @@ from __future__ import annotations
 import io
 from typing import Any
 
+from tracker.services.instrument.reproducibility import ControlChart
 from tracker.services.instrument.results import SpecimenResult
 from tracker.services.instrument.sessions import DriftSeries
 
@@ -87,6 +89,48 @@ def _age_points(
         label=label,
         **style,
     )
+
+
+def control_chart_png(chart: ControlChart) -> bytes:
+    """Each session's mean ± its 2SD, in session order, against the lab's long-term mean and
+    ± 2SD (solid and dotted) and the accepted value (dashed); sessions found outside the
+    limits the others set are drawn in red."""
+    plt = _pyplot()
+    figure, axes = plt.subplots(figsize=(WIDTH_IN, HEIGHT_IN), dpi=DPI)
+    numbered = list(enumerate(chart.points, start=1))
+    for outside, colour, label in (
+        (False, "tab:blue", "session mean ± 2SD"),
+        (True, "tab:red", "outside the others' limits"),
+    ):
+        drawn = [(n, p) for n, p in numbered if (p.within is False) == outside]
+        if drawn:
+            axes.errorbar(
+                [n for n, _ in drawn],
+                [p.value for _, p in drawn],
+                yerr=[p.two_sd or 0.0 for _, p in drawn],
+                fmt="o",
+                capsize=3,
+                color=colour,
+                label=label,
+            )
+    if chart.long_term_mean is not None and chart.long_term_two_sd is not None:
+        axes.axhline(chart.long_term_mean, color="grey", linewidth=1, label="long-term mean")
+        for side in (-1, 1):
+            axes.axhline(
+                chart.long_term_mean + side * chart.long_term_two_sd,
+                color="grey",
+                linestyle=":",
+                label="long-term ± 2SD" if side > 0 else None,
+            )
+    if chart.accepted is not None:
+        axes.axhline(chart.accepted, color="black", linestyle="--", label="accepted value")
+    name = f"δ{chart.ratio} (‰, {chart.scale} scale)" if chart.kind == "delta" else chart.ratio
+    axes.set_xticks([n for n, _ in numbered], [p.session for _, p in numbered], rotation=30)
+    axes.set_xlabel("session (oldest first)")
+    axes.set_ylabel(name)
+    axes.set_title(f"{chart.reference}: {len(chart.points)} sessions")
+    axes.legend(fontsize="small")
+    return _png(plt, figure)
 
 
 def _png(plt: Any, figure: Any) -> bytes:

@@ -378,7 +378,7 @@ def _specimen(
         result_rows += [
             [
                 r.ratio,
-                *_result_cells(r.kind, r.value, r.two_sd),
+                *_result_cells(r.kind, r.value, r.two_sd, r.uncertainty),
                 r.n,
                 r.scale,
                 r.session,
@@ -390,6 +390,8 @@ def _specimen(
             Spacer(1, 2 * mm),
             _table(result_rows, [0.1, 0.14, 0.12, 0.05, 0.16, 0.15, 0.28], styles),
         ]
+        if any(r.uncertainty == "long-term" for r in entry.results):
+            flow.append(Paragraph(precision.LONG_TERM_NOTE, styles["small"]))
     flow += _thumbnails(entry, photos, styles)
     return [KeepTogether(flow[:2]), *flow[2:], Spacer(1, 3 * mm)]
 
@@ -419,13 +421,13 @@ def _fate(status: str, shipment: str | None, permission: str | None, override: s
     return text + ("; drilled under an override" if override else "")
 
 
-def _result_cells(kind: str, value: float, two_sd: float | None) -> list[str]:
+def _result_cells(kind: str, value: float, two_sd: float | None, basis: str) -> list[str]:
     """A result's value and 2SD at the place the 2SD decides (``domain/precision.py``)."""
     shown, spread = precision.result_pair(kind, value, two_sd)
     unit = " ‰" if kind == "delta" else ""
     return [
         f"δ {shown}{unit}" if kind == "delta" else shown,
-        precision.ABSENT if spread is None else f"{spread}{unit}",
+        precision.reported_spread(spread, unit, basis),
     ]
 
 

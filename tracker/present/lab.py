@@ -162,7 +162,7 @@ def specimen_result_cells(row: SpecimenResult) -> tuple[str, str, str, str]:
     and n, as cells; the 2SD decides the places, and a 2SD that rounds away is left out."""
     value, spread = precision.result_pair(row.kind, row.value, row.two_sd)
     unit = " ‰" if row.kind == "delta" else ""
-    two_sd = precision.ABSENT if spread is None else spread + unit
+    two_sd = precision.reported_spread(spread, unit, row.uncertainty)
     return row.ratio, value + unit, two_sd, str(row.n)
 
 
@@ -185,6 +185,8 @@ def results_table(rows: list[SpecimenResult]) -> RenderableType:
             flag_lines(r.flags),
         )
     notes = dict.fromkeys(conversion_note(r) for r in rows if r.converted_from)
+    if any(r.uncertainty == "long-term" for r in rows):
+        notes[precision.LONG_TERM_NOTE] = None
     return Group(table, Text("\n".join(notes))) if notes else table
 
 

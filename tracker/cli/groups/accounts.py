@@ -7,7 +7,7 @@ import typer
 from rich.console import Group
 from rich.text import Text
 
-from tracker.cli.out_options import Despite, Force
+from tracker.cli.out_options import Despite, Force, write_picture
 from tracker.cli.progress import progress_bar
 from tracker.cli.state import database, emit, errors, state
 from tracker.db import outputs
@@ -177,11 +177,7 @@ def _write_plot(db: Any, rows: Any, ratio: str, plot: Path, force: bool) -> None
         picture = delta_vs_age_png(rows, ratio)
     except ValueError as error:
         raise InputError("ratio", ratio, str(error)) from None
-    written = outputs.write_new(
-        plot, picture, "--plot", force=force, database=db.path, clock=db.clock
-    )
-    if written.replaced is not None:
-        errors.print(f"kept the replaced file as {written.replaced}", markup=False, soft_wrap=True)
+    write_picture(db, plot, picture, "--plot", force)
 
 
 SCREEN_EPILOG = "Example: tracker screen MDGC/LN/0457"

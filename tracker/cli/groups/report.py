@@ -5,7 +5,7 @@ from typing import Annotated
 
 import typer
 
-from tracker.cli.out_options import Despite, Force
+from tracker.cli.out_options import Despite, Force, say_kept
 from tracker.cli.state import emit, errors, state, writing
 from tracker.output import report_files
 from tracker.present.text import done
@@ -61,4 +61,4 @@ def report_return(
         soft_wrap=True,
     )
     for replaced in written.replaced:
-        errors.print(f"kept the replaced file as {replaced}", markup=False, soft_wrap=True)
+        say_kept(replaced)

@@ -67,7 +67,7 @@ def control_chart(
             )
             .order_by(InstrumentSession.started_at, InstrumentSession.id)
         )
-        rows = list(sql.execute(query).tuples())
+        rows = [(result, run) for result, run in sql.execute(query)]
         accepted = _accepted(sql, material.id, ratio, scale)
         kind = rows[0][0].kind if rows else "delta"
     means = [result.delta_permil for result, _ in rows]

@@ -19,7 +19,7 @@ from tracker.db.database import Database
 from tracker.domain.darwincore import is_term
 from tracker.domain.models import Loan, Powder, Specimen, SpecimenStatus
 from tracker.services.core.lookup import get_loan
-from tracker.services.instrument.results import results
+from tracker.services.instrument.results import SpecimenResult, results
 from tracker.services.ledger.loan_audit import audit_loan
 
 SPECIMEN_TERMS = [
@@ -173,9 +173,7 @@ def _measurement_rows(db: Database, loan: str) -> tuple[list[str], list[dict[str
                     else f"isotope ratio {r.ratio} (normalised to {r.scale})"
                 ),
                 "measurementValue": round(r.value, 6 if delta else 8),
-                "measurementAccuracy": None
-                if r.two_sd is None
-                else f"{r.two_sd:.3g} (2SD, n={r.n})",
+                "measurementAccuracy": None if r.two_sd is None else _accuracy(r),
                 "measurementUnit": "permil" if delta else "ratio",
                 "measurementDeterminedDate": r.determined_on.isoformat(),
                 "measurementDeterminedBy": r.determined_by,
@@ -203,3 +201,11 @@ def loan_document(db: Database, loan: str, despite_discrepancies: bool = False) 
         ]
     lineage = [show_item(db, i).item.model_dump(mode="json") for i in ids]
     return {"report": report.model_dump(mode="json"), "lineage": lineage}
+
+
+def _accuracy(result: SpecimenResult) -> str:
+    """The 2SD as a lender's record states it: the result's own (with its n), or the lab's
+    long-term one where that is larger and so was reported."""
+    if result.uncertainty == "long-term":
+        return f"{result.two_sd:.3g} (2SD, lab's long-term reproducibility)"
+    return f"{result.two_sd:.3g} (2SD, n={result.n})"

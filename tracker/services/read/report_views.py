@@ -44,6 +44,7 @@ class ResultEntry(View):
     kind: str
     value: float
     two_sd: float | None
+    uncertainty: str  # "internal", or "long-term" when two_sd is the lab's larger one
     n: int
     scale: str
     session: str

@@ -79,6 +79,7 @@ def build_return_report(
                 kind=r.kind,
                 value=r.value,
                 two_sd=r.two_sd,
+                uncertainty=r.uncertainty,
                 n=r.n,
                 scale=r.scale,
                 session=r.session,
