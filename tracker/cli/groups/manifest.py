@@ -44,6 +44,11 @@ def _preview_table(preview: manifests.ManifestPreview) -> Any:
                 if preview.kept_as_extra
                 else ""
             )
+            + (
+                f"; not imported (archive extensions): {', '.join(preview.not_imported)}"
+                if preview.not_imported
+                else ""
+            )
         )
     )
     table = plain_table("row", "catalogue no.", "action", "problems / changes")
