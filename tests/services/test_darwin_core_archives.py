@@ -123,6 +123,36 @@ def test_a_comma_delimited_archive_reads_quoted_cells(db: Database) -> None:
     assert rows["IMN 5002"]["locality"] == 'the "red" bed (invented)'
 
 
+def test_an_archive_in_a_single_byte_encoding_with_crlf_lines_is_read_as_meta_says(
+    db: Database,
+) -> None:
+    loan = factories.loan(db)
+    fields = field(0, "occurrenceID") + field(1, "catalogNumber") + field(2, "locality")
+    attributes = 'fieldsTerminatedBy="\\t" fieldsEnclosedBy="" ignoreHeaderLines="0"'
+    meta_core = archive("", fields, attributes=attributes)
+    core = "q1\tIMN 5101\tCôte Orrin (invented)\r\n".encode("iso-8859-1")
+    content = rebuilt(
+        meta_core,
+        core,
+        'encoding="UTF-8" linesTerminatedBy="\\n"',
+        'encoding="ISO-8859-1" linesTerminatedBy="\\r\\n"',
+    )
+    manifests.import_manifest(db, "boss", request(loan, content))
+    assert cells(db, loan)["IMN 5101"]["locality"] == "Côte Orrin (invented)"
+
+
+def rebuilt(content: bytes, core: bytes, old: str, new: str) -> bytes:
+    """The archive with another core file and one attribute text of meta.xml replaced."""
+    buffer = io.BytesIO()
+    with zipfile.ZipFile(io.BytesIO(content)) as source, zipfile.ZipFile(buffer, "w") as made:
+        for name in source.namelist():
+            data = source.read(name)
+            if name == "meta.xml":
+                data = data.replace(old.encode(), new.encode())
+            made.writestr(name, core if name == "occurrence.txt" else data)
+    return buffer.getvalue()
+
+
 def test_the_preview_names_the_extensions_it_does_not_import(db: Database) -> None:
     loan = factories.loan(db)
     extension = (
@@ -277,8 +307,8 @@ def test_unknown_terms_and_the_lenders_dynamic_properties_come_back_out(db: Data
     loan = factories.loan(db)
     lender_json = '{"drawer": "D9", "tagColour": "blue"}'
     core = (
-        "id\tcatalogNumber\tdynamicProperties\ttrayLabel\tdrawer\tverbatimLabel\n"
-        f"q1\tIMN 9001\t{lender_json}\tTray 12 (invented)\tD2\tIMN 9001 Orrin\n"
+        "id\tcatalogNumber\tdynamicProperties\ttrayLabel\tdrawer\tverbatimLabel\tboxNote\n"
+        f"q1\tIMN 9001\t{lender_json}\tTray 12 (invented)\tD2\tIMN 9001 Orrin\tbox 3\n"
     )
     fields = field(0, "occurrenceID") + field(1, "catalogNumber")
     fields += field(2, "dynamicProperties") + field(5, "verbatimLabel")
@@ -292,4 +322,5 @@ def test_unknown_terms_and_the_lenders_dynamic_properties_come_back_out(db: Data
     assert props["tagColour"] == "blue" and props["drawer"] == "D9"  # the lender's, kept
     assert props["drawer (column)"] == "D2"  # their column with the same name, beside it
     assert props["http://example.org/invented/trayLabel"] == "Tray 12 (invented)"
+    assert props["boxNote"] == "box 3"  # no term in meta.xml: the file's own heading
     assert props["trackerId"]  # what tracker adds, beside the lender's

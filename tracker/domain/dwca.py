@@ -19,6 +19,7 @@ from __future__ import annotations
 
 import codecs
 import io
+import itertools
 import zipfile
 from collections.abc import Iterator
 from dataclasses import dataclass
@@ -99,8 +100,11 @@ def read_archive(content: bytes, *, keep_formulas: bool = False) -> Archive:
         raise TableError(1, "meta.xml", f"has {len(cores)} <core> elements; the guide asks for one")
     core = cores[0]
     location = _location(core)
-    columns = _described(core)
-    lines = _core_lines(_member(archive, location, MAX_CORE_BYTES), core, location)
+    records, skip = _core_records(_member(archive, location, MAX_CORE_BYTES), core, location)
+    first = next(records, None)
+    own = first[1] if first is not None and skip else []  # the file's header line, if any
+    columns = _described(core, own)
+    lines = (r for r in itertools.chain([first] if first else [], records) if r[0] > skip)
     table = described_table(columns.header, _filled(lines, columns), keep_formulas=keep_formulas)
     return Archive(table, location, [_extension(e) for e in root if _local(e.tag) == "extension"])
 
@@ -186,37 +190,46 @@ class _Columns:
     blank_defaults: dict[int, str]  # a field's default, for a blank cell at that index
 
 
-def _described(core: ElementTree.Element) -> _Columns:
-    """The core's headings (terms through ``term_headings``) and default values."""
+def _described(core: ElementTree.Element, own: list[str]) -> _Columns:
+    """The core's headings (terms through ``term_headings``) and default values.
+
+    A column meta.xml gives no term (the record id's, for one) keeps the file's own
+    heading (``own``, its header line), or is named by its place: it is kept with the
+    specimen, never dropped.
+    """
     by_index: dict[int, str] = {}
     blank_defaults: dict[int, str] = {}
     constants: list[tuple[str, str]] = []
+    ids: set[int] = set()
     for node in core:
-        tag = _local(node.tag)
-        if tag not in ("field", "id"):
+        if _local(node.tag) == "id":
+            ids.add(_index(node.get("index", "0"), "id"))
             continue
-        index = node.get("index")
-        term = node.get("term", "id" if tag == "id" else "")
+        if _local(node.tag) != "field":
+            continue
+        term, index, default = node.get("term", ""), node.get("index"), node.get("default")
         if not term:
             raise TableError(1, "meta.xml", "a <field> has no term")
         if index is None:
-            if tag == "field":
-                constants.append((term, node.get("default", "")))
+            constants.append((term, default or ""))
             continue
-        if not index.isdigit() or int(index) >= 1_000:
-            raise TableError(1, "meta.xml", f"field {term!r} has index {index!r}")
-        if tag == "field" or int(index) not in by_index:
-            by_index[int(index)] = term
-        if node.get("default"):
-            blank_defaults[int(index)] = node.get("default", "")
-    width = max(by_index, default=-1) + 1
-    written = [by_index.get(i, f"column {i + 1}") for i in range(width)]
+        by_index[_index(index, term)] = term
+        if default:
+            blank_defaults[_index(index, term)] = default
+    width = max(max([*by_index, *ids], default=-1) + 1, len(own))
+    written = [by_index.get(i) or _own(own, i, "id" if i in ids else "") for i in range(width)]
     written += [term for term, _ in constants]
     try:
         header = term_headings(written)
     except ValueError as exc:
         raise TableError(1, "meta.xml", str(exc)) from None
     return _Columns(header, width, [value for _, value in constants], blank_defaults)
+
+
+def _index(index: str, term: str) -> int:
+    if not index.strip().isdigit() or int(index) >= 1_000:
+        raise TableError(1, "meta.xml", f"field {term!r} has index {index!r}")
+    return int(index)
 
 
 def _attribute(core: ElementTree.Element, name: str) -> str:
@@ -227,10 +240,16 @@ def _attribute(core: ElementTree.Element, name: str) -> str:
     return value
 
 
-def _core_lines(
+def _own(own: list[str], index: int, fallback: str) -> str:
+    """A column's heading in the file's header line, else ``fallback`` or its place."""
+    heading = own[index].strip() if index < len(own) else ""
+    return heading or fallback or f"column {index + 1}"
+
+
+def _core_records(
     content: bytes, core: ElementTree.Element, location: str
-) -> Iterator[tuple[int, list[str]]]:
-    """The core file's records after its header lines, as meta.xml says to read them."""
+) -> tuple[Iterator[tuple[int, list[str]]], int]:
+    """The core file's records as meta.xml says to read them, and its header lines' count."""
     delimiter = _attribute(core, "fieldsTerminatedBy")
     quote = _attribute(core, "fieldsEnclosedBy")
     ending = _attribute(core, "linesTerminatedBy")
@@ -248,8 +267,7 @@ def _core_lines(
     text = _decoded(content, delimiter, core.get("encoding", "UTF-8").strip())
     if ending == "\r":
         text = text.replace("\r", "\n")
-    records = csv_records(text, delimiter, quote or None)
-    return (record for record in records if record[0] > int(skip))
+    return csv_records(text, delimiter, quote or None), int(skip)
 
 
 def _decoded(content: bytes, delimiter: str, encoding: str) -> str:
