@@ -252,6 +252,22 @@ def test_headings_are_matched_by_term_name_prefix_or_iri(db: Database) -> None:
     assert row["modified"] == "2025-02-03" and row["rightsHolder"] == "Invented Museum"
 
 
+def test_workbook_headings_are_spelt_by_the_same_rule(db: Database) -> None:
+    from openpyxl import Workbook
+
+    loan = factories.loan(db)
+    book = Workbook()
+    sheet = book.active
+    assert sheet is not None
+    sheet.append(["dwc:catalogNumber", "Locality", "http://purl.org/dc/terms/license"])
+    sheet.append(["IMN 7101", "Orrin Bluff (invented)", "CC0 (invented note)"])
+    buffer = io.BytesIO()
+    book.save(buffer)
+    manifests.import_manifest(db, "boss", request(loan, buffer.getvalue(), "list.xlsx"))
+    row = cells(db, loan)["IMN 7101"]
+    assert row["locality"] == "Orrin Bluff (invented)" and row["license"] == "CC0 (invented note)"
+
+
 def test_two_headings_naming_one_term_are_refused(db: Database) -> None:
     loan = factories.loan(db)
     text = "catalogNumber,dwc:catalogNumber\nIMN 1,IMN 1\n"
