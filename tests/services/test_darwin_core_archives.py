@@ -218,7 +218,7 @@ def test_refused_archives_say_why_and_write_nothing(
     assert snapshot_counts(db) == before
 
 
-def test_an_archive_member_over_its_cap_is_refused_before_unpacking(
+def test_an_archive_over_its_caps_is_refused_before_unpacking(
     db: Database, monkeypatch: pytest.MonkeyPatch
 ) -> None:
     from tracker.domain import dwca
@@ -229,6 +229,10 @@ def test_an_archive_member_over_its_cap_is_refused_before_unpacking(
     content = archive(core, field(0, "occurrenceID") + field(1, "catalogNumber"))
     before = snapshot_counts(db)
     with pytest.raises(InputError, match=r"occurrence\.txt unpacks to .* capped at 64"):
+        manifests.import_manifest(db, "boss", request(loan, content))
+    assert snapshot_counts(db) == before
+    monkeypatch.setattr(dwca, "MAX_ARCHIVE_MEMBERS", 2)  # meta.xml, the core and eml.xml
+    with pytest.raises(InputError, match="holds 3 files; archives are capped at 2"):
         manifests.import_manifest(db, "boss", request(loan, content))
     assert snapshot_counts(db) == before
 

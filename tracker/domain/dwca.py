@@ -97,7 +97,7 @@ def read_archive(content: bytes, *, keep_formulas: bool = False) -> Archive:
     root = _parse_meta(_member(archive, META, MAX_META_BYTES))
     cores = [child for child in root if _local(child.tag) == "core"]
     if len(cores) != 1:
-        raise TableError(1, "meta.xml", f"has {len(cores)} <core> elements; the guide asks for one")
+        raise _meta(f"has {len(cores)} <core> elements; the guide asks for one")
     core = cores[0]
     location = _location(core)
     records, skip = _core_records(_member(archive, location, MAX_CORE_BYTES), core, location)
@@ -109,14 +109,17 @@ def read_archive(content: bytes, *, keep_formulas: bool = False) -> Archive:
     return Archive(table, location, [_extension(e) for e in root if _local(e.tag) == "extension"])
 
 
+def _meta(reason: str) -> TableError:
+    """A problem of meta.xml, said of the file as a whole."""
+    return TableError(1, "file", f"meta.xml {reason}")
+
+
 def _member(archive: zipfile.ZipFile, name: str, cap: int) -> bytes:
     """One member's bytes, refused before unpacking when it declares more than ``cap``."""
     try:
         info = archive.getinfo(name)
     except KeyError:
-        raise TableError(
-            1, "meta.xml", f"names {name!r}, which the archive does not hold"
-        ) from None
+        raise _meta(f"names {name!r}, which the archive does not hold") from None
     if info.file_size > cap:
         raise TableError(
             1,
@@ -134,14 +137,14 @@ def _parse_meta(content: bytes) -> ElementTree.Element:
     """meta.xml's root, refused when it declares a DTD or entities (never expanded)."""
     head = content.upper()
     if b"<!DOCTYPE" in head or b"<!ENTITY" in head:
-        raise TableError(1, "meta.xml", "declares a DTD or entities; archives never need them")
+        raise _meta("declares a DTD or entities; archives never need them")
     try:
         root = ElementTree.fromstring(content)
     except ElementTree.ParseError as exc:
         line, column = exc.position
-        raise TableError(line, "meta.xml", f"is not well-formed XML (column {column})") from None
+        raise _meta(f"is not well-formed XML (line {line}, column {column})") from None
     if _local(root.tag) != "archive":
-        raise TableError(1, "meta.xml", f"its root is <{_local(root.tag)}>, not <archive>")
+        raise _meta(f"its root is <{_local(root.tag)}>, not <archive>")
     return root
 
 
@@ -158,7 +161,7 @@ def _location(element: ElementTree.Element) -> str:
         if _local(node.tag) == "location" and (node.text or "").strip()
     ]
     if not found:
-        raise TableError(1, "meta.xml", "the <core> element names no <files><location>")
+        raise _meta("the <core> element names no <files><location>")
     location = found[0]
     if (
         location.startswith("/")
@@ -167,9 +170,7 @@ def _location(element: ElementTree.Element) -> str:
         or normpath(location) != location
         or location.startswith("../")
     ):
-        raise TableError(
-            1, "meta.xml", f"the core location {location[:80]!r} leaves the archive; refused"
-        )
+        raise _meta(f"the core location {location[:80]!r} leaves the archive; refused")
     return location
 
 
@@ -209,7 +210,7 @@ def _described(core: ElementTree.Element, own: list[str]) -> _Columns:
             continue
         term, index, default = node.get("term", ""), node.get("index"), node.get("default")
         if not term:
-            raise TableError(1, "meta.xml", "a <field> has no term")
+            raise _meta("a <field> has no term")
         if index is None:
             constants.append((term, default or ""))
             continue
@@ -222,13 +223,13 @@ def _described(core: ElementTree.Element, own: list[str]) -> _Columns:
     try:
         header = term_headings(written)
     except ValueError as exc:
-        raise TableError(1, "meta.xml", str(exc)) from None
+        raise _meta(str(exc)) from None
     return _Columns(header, width, [value for _, value in constants], blank_defaults)
 
 
 def _index(index: str, term: str) -> int:
     if not index.strip().isdigit() or int(index) >= 1_000:
-        raise TableError(1, "meta.xml", f"field {term!r} has index {index!r}")
+        raise _meta(f"field {term!r} has index {index!r}")
     return int(index)
 
 
@@ -255,15 +256,13 @@ def _core_records(
     ending = _attribute(core, "linesTerminatedBy")
     skip = core.get("ignoreHeaderLines", "0").strip()
     if len(delimiter) != 1 or len(quote) > 1 or ending not in ("\n", "\r\n", "\r"):
-        raise TableError(
-            1,
-            "meta.xml",
+        raise _meta(
             f"reads {location} with fieldsTerminatedBy {delimiter!r}, fieldsEnclosedBy "
             f"{quote!r}, linesTerminatedBy {ending!r}: tracker reads one-character delimiters, "
             "at most one quote character and the usual line ends",
         )
     if not skip.isdigit() or int(skip) > 100:
-        raise TableError(1, "meta.xml", f"ignoreHeaderLines is {skip!r}, not a small number")
+        raise _meta(f"ignoreHeaderLines is {skip!r}, not a small number")
     text = _decoded(content, delimiter, core.get("encoding", "UTF-8").strip())
     if ending == "\r":
         text = text.replace("\r", "\n")
@@ -275,9 +274,7 @@ def _decoded(content: bytes, delimiter: str, encoding: str) -> str:
     try:
         name = codecs.lookup(encoding).name
     except LookupError:
-        raise TableError(
-            1, "meta.xml", f"names the encoding {encoding!r}, which is unknown"
-        ) from None
+        raise _meta(f"names the encoding {encoding!r}, which is unknown") from None
     if name.startswith(("utf-16", "utf-32")):
         raise TableError(1, "file", f"the core file is {encoding}; save it as UTF-8")
     try:
