@@ -44,6 +44,8 @@ _DEFAULTS = {
     "encoding": "UTF-8",
     "ignoreHeaderLines": "0",
 }
+NOT_AN_ARCHIVE = "is a zip archive without meta.xml: not a Darwin Core Archive"
+DAMAGED = "is a damaged ZIP archive"
 _ESCAPES = {"\\t": "\t", "\\n": "\n", "\\r": "\r", "\\\\": "\\"}
 
 
@@ -58,33 +60,36 @@ class Archive:
 
 def zip_problem(content: bytes) -> str:
     """Why a ZIP given as a CSV or TSV cannot be read so: say what the ZIP is."""
-    try:
-        names = set(zipfile.ZipFile(io.BytesIO(content)).namelist())
-    except (zipfile.BadZipFile, ValueError, EOFError):
-        return "is a damaged ZIP archive"
-    if "[Content_Types].xml" in names:
+    archive = _opened(content)
+    if archive is None:
+        return DAMAGED
+    names = set(archive.namelist())
+    if "[Content_Types].xml" in names:  # the part every XLSX holds (ECMA-376)
         return "looks like an XLSX workbook; use a profile with format xlsx"
     if META in names:
         return "is a Darwin Core Archive (it holds meta.xml); give it as a lender's manifest"
-    return "is a zip archive without meta.xml: not a Darwin Core Archive"
+    return NOT_AN_ARCHIVE
 
 
 def is_archive(content: bytes) -> bool:
     """Whether the bytes are a ZIP holding meta.xml at its top (a Darwin Core Archive)."""
-    if content[:4] != b"PK\x03\x04":
-        return False
+    archive = _opened(content) if content[:4] == b"PK\x03\x04" else None
+    return archive is not None and META in archive.namelist()
+
+
+def _opened(content: bytes) -> zipfile.ZipFile | None:
+    """The bytes as a ZIP archive, or None when its directory cannot be read."""
     try:
-        return META in zipfile.ZipFile(io.BytesIO(content)).namelist()
+        return zipfile.ZipFile(io.BytesIO(content))
     except (zipfile.BadZipFile, ValueError, EOFError):
-        return False
+        return None
 
 
 def read_archive(content: bytes, *, keep_formulas: bool = False) -> Archive:
     """The core file's rows under the terms meta.xml gives, read lazily."""
-    try:
-        archive = zipfile.ZipFile(io.BytesIO(content))
-    except (zipfile.BadZipFile, ValueError, EOFError):
-        raise TableError(1, "file", "is not a readable ZIP archive") from None
+    archive = _opened(content)
+    if archive is None:
+        raise TableError(1, "file", DAMAGED)
     members = archive.infolist()
     if len(members) > MAX_ARCHIVE_MEMBERS:
         raise TableError(
@@ -93,7 +98,7 @@ def read_archive(content: bytes, *, keep_formulas: bool = False) -> Archive:
             f"holds {len(members):,} files; archives are capped at {MAX_ARCHIVE_MEMBERS:,}",
         )
     if META not in archive.namelist():
-        raise TableError(1, "file", "is a zip archive without meta.xml: not a Darwin Core Archive")
+        raise TableError(1, "file", NOT_AN_ARCHIVE)
     root = _parse_meta(_member(archive, META, MAX_META_BYTES))
     cores = [child for child in root if _local(child.tag) == "core"]
     if len(cores) != 1:
