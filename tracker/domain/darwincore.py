@@ -74,7 +74,7 @@ TERMS: frozenset[str] = frozenset(
     measurementDeterminedDate measurementMethod measurementRemarks resourceRelationshipID
     resourceID relationshipOfResourceID relatedResourceID relationshipOfResource
     relationshipAccordingTo relationshipEstablishedDate relationshipRemarks
-    """.split()  # noqa: SIM905 - the names as the TDWG file lists them, one per line
+    """.split()  # noqa: SIM905 - the TDWG file's names, in its order
 )
 # tracker's own headings for what Darwin Core does not define (numeric ages in Ma).
 OWN_HEADINGS = ("ageMinMa", "ageMaxMa")
