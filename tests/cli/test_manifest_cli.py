@@ -323,3 +323,34 @@ def test_a_formula_heading_never_reaches_a_spreadsheet_live(lab: Lab, tmp_path: 
             assert all(c.data_type != "f" for c in first)  # no live formula in the heading row
             header = [c.value for c in first]
         assert not [h for h in header if str(h).startswith("=")], header
+
+
+# ---------------------------------------------------------------- Darwin Core Archives
+
+
+def test_an_archive_is_previewed_with_its_extensions_named_and_imported(
+    lab: Lab, tmp_path: Path
+) -> None:
+    from tests.services.test_darwin_core_archives import DWC, archive, field
+
+    extension = (
+        f'  <extension rowType="{DWC}Identification">\n'
+        "    <files><location>identifications.txt</location></files>\n"
+        '    <coreid index="0"/>\n  </extension>\n'
+    )
+    content = archive(
+        "id\tcatalogNumber\tlocality\nq1\tFNHC M-901\tOrrin Bluff (invented)\n",
+        field(0, "occurrenceID") + field(1, "catalogNumber") + field(2, "locality"),
+        extensions=extension,
+    )
+    file = put(tmp_path, "fnhc-archive.zip", content)
+    answer = preview(lab, file)
+    assert answer["not_imported"] == [f"identifications.txt ({DWC}Identification)"]
+    shown = invoke("manifest", "preview", "FH-77", str(file), db=lab.path)
+    said = " ".join(shown.stdout.split())  # the line wraps at the terminal's width
+    assert "not imported (archive extensions): identifications.txt" in said
+    outcome = manifest_import(lab, file)
+    assert len(outcome["created"]) == 1
+    event = last_event(lab)
+    assert event["action"] == "manifest.imported"
+    assert event["payload"]["sha256"] == hashlib.sha256(content).hexdigest()

@@ -93,30 +93,42 @@ def _rebuild(base: bytes, replace: dict[str, bytes | Callable[[zipfile.ZipFile],
 SHEET = "xl/worksheets/sheet1.xml"
 
 
-def zip_bomb(unpacked: int = 300 * 1024 * 1024) -> bytes:
-    """A workbook whose sheet really inflates to ``unpacked`` bytes (declared honestly)."""
+def _inflating(
+    name: str, unpacked: int, head: bytes, tail: bytes
+) -> Callable[[zipfile.ZipFile], None]:
+    """A part that really inflates to ``unpacked`` bytes of blanks between head and tail."""
 
-    def sheet(target: zipfile.ZipFile) -> None:
-        info = zipfile.ZipInfo(SHEET)
+    def part(target: zipfile.ZipFile) -> None:
+        info = zipfile.ZipInfo(name)
         info.compress_type = zipfile.ZIP_DEFLATED
         with target.open(info, "w", force_zip64=True) as handle:
-            handle.write(b'<?xml version="1.0"?><worksheet><sheetData>')
+            handle.write(head)
             block = b" " * (1024 * 1024)
             for _ in range(unpacked // len(block)):
                 handle.write(block)
-            handle.write(b"</sheetData></worksheet>")
+            handle.write(tail)
 
-    return _rebuild(good_workbook(), {SHEET: sheet})
+    return part
 
 
-def lying_zip() -> bytes:
-    """A workbook whose sheet declares 100 bytes but inflates to 10 MB (sizes patched).
+def zip_bomb(unpacked: int = 300 * 1024 * 1024) -> bytes:
+    """A workbook whose sheet really inflates to ``unpacked`` bytes (declared honestly)."""
+    head, tail = b'<?xml version="1.0"?><worksheet><sheetData>', b"</sheetData></worksheet>"
+    return _rebuild(good_workbook(), {SHEET: _inflating(SHEET, unpacked, head, tail)})
+
+
+def lying_zip(base: bytes | None = None, part: str = SHEET) -> bytes:
+    """A workbook whose sheet (or another ZIP's ``part``) declares 100 bytes but inflates
+    to 10 MB (sizes patched).
 
     ZIP layout (PKWARE APPNOTE 4.3.7, 4.3.12): a local header "PK\\3\\4" has the
     uncompressed size at offset 22 and the name length at 26, the name at 30; a central
     directory entry "PK\\1\\2" has them at 24, 28 and 46.
     """
-    data = bytearray(_rebuild(good_workbook(), {SHEET: b"<worksheet>" + b" " * 10_000_000}))
+    spoiled: dict[str, bytes | Callable[[zipfile.ZipFile], None]] = {
+        part: b"<worksheet>" + b" " * 10_000_000
+    }
+    data = bytearray(_rebuild(good_workbook() if base is None else base, spoiled))
     for marker, size_at, length_at, name_at in (
         (b"PK\x03\x04", 22, 26, 30),
         (b"PK\x01\x02", 24, 28, 46),
@@ -125,7 +137,7 @@ def lying_zip() -> bytes:
         while found >= 0:
             (length,) = struct.unpack_from("<H", data, found + length_at)
             name = bytes(data[found + name_at : found + name_at + length])
-            if name == SHEET.encode():
+            if name == part.encode():
                 struct.pack_into("<I", data, found + size_at, 100)
             found = data.find(marker, found + 4)
     return bytes(data)
@@ -189,3 +201,48 @@ def deep_json(depth: int = 100_000) -> bytes:
 
 def deep_toml(depth: int = 100_000) -> bytes:
     return ("x = " + "[" * depth + "]" * depth + "\n").encode()
+
+
+# ---------------------------------------------------------------- Darwin Core Archives
+
+CORE = "occurrence.txt"
+
+
+def dwc_archive(location: str = CORE, doctype: bytes = b"") -> bytes:
+    """A small Darwin Core Archive (TDWG Text Guide shape) of invented rows."""
+    meta = (
+        b'<?xml version="1.0"?>' + doctype + b'<archive xmlns="http://rs.tdwg.org/dwc/text/">'
+        b'<core fieldsTerminatedBy="\\t" fieldsEnclosedBy="" ignoreHeaderLines="1">'
+        b"<files><location>" + location.encode() + b"</location></files>"
+        b'<field index="0" term="http://rs.tdwg.org/dwc/terms/catalogNumber"/>'
+        b"</core></archive>"
+    )
+    out = io.BytesIO()
+    with zipfile.ZipFile(out, "w", zipfile.ZIP_DEFLATED) as target:
+        target.writestr("meta.xml", meta)
+        target.writestr(CORE, "catalogNumber\nINV 1\nINV 2\n")
+    return out.getvalue()
+
+
+def archive_bomb(unpacked: int = 300 * 1024 * 1024) -> bytes:
+    """An archive whose core file really inflates to ``unpacked`` bytes."""
+    core = _inflating(CORE, unpacked, b"catalogNumber\nINV 1", b"\n")
+    return _rebuild(dwc_archive(), {CORE: core})
+
+
+def archive_laughs() -> bytes:
+    """An archive whose meta.xml declares the billion-laughs entities."""
+    return dwc_archive(doctype=_entities())
+
+
+def archive_escape() -> bytes:
+    """An archive whose meta.xml points outside the archive."""
+    return dwc_archive(location="../../outside/occurrence.txt")
+
+
+def zip_without_meta() -> bytes:
+    """A ZIP of a lender's list, with no meta.xml."""
+    out = io.BytesIO()
+    with zipfile.ZipFile(out, "w", zipfile.ZIP_DEFLATED) as target:
+        target.writestr("lender-list.csv", "catalogNumber\nINV 1\n")
+    return out.getvalue()

@@ -12,6 +12,7 @@ import csv
 import io
 import math
 import shutil
+import zipfile
 from collections.abc import Callable, Iterator
 from pathlib import Path
 from typing import Any, TypeVar
@@ -26,6 +27,7 @@ from tests.conftest import TickingClock, snapshot_counts
 from tests.reliability.report import record
 from tracker.db.database import Database, open_database
 from tracker.domain.anchors import AnchorError, parse_anchor
+from tracker.domain.dwca import read_archive
 from tracker.domain.errors import InputError, TrackerError
 from tracker.domain.formula_cells import looks_like_formula
 from tracker.domain.models import SrCurve
@@ -147,6 +149,59 @@ def test_read_table_refuses_or_reads_every_cell(content: bytes, fmt: str) -> Non
     for row in rows:
         for text in row.cells.values():
             assert "\x00" not in text and not looks_like_formula(text)
+
+
+@st.composite
+def spoiled_archives(draw: st.DrawFn) -> bytes:
+    """A Darwin Core Archive (TDWG Text Guide shape) with drawn attributes, fields and rows."""
+    attributes = {
+        name: draw(st.sampled_from(values))
+        for name, values in {
+            "fieldsTerminatedBy": ["\\t", ",", ";", "", "ab", "&quot;"],
+            "fieldsEnclosedBy": ["", "&quot;", "'", "xy"],
+            "linesTerminatedBy": ["\\n", "\\r\\n", "\\r", "|"],
+            "encoding": ["UTF-8", "ISO-8859-1", "UTF-16", "no-such-code"],
+            "ignoreHeaderLines": ["0", "1", "2", "-1", "x"],
+        }.items()
+    }
+    indexes = draw(st.lists(st.one_of(st.none(), st.integers(0, 6)), max_size=6))
+    terms = ["catalogNumber", "locality", "dynamicProperties", "drawer", ""]
+    fields = "".join(
+        f"<field{'' if i is None else f' index={chr(34)}{i}{chr(34)}'} "
+        f'term="{draw(st.sampled_from(terms))}" default="{draw(st.sampled_from(["", "d"]))}"/>'
+        for i in indexes
+    )
+    spoken = " ".join(f'{k}="{v}"' for k, v in attributes.items())
+    location = draw(st.sampled_from(["core.txt", "../core.txt", "missing.txt", "/core.txt"]))
+    meta = (
+        f'<archive xmlns="http://rs.tdwg.org/dwc/text/"><core {spoken}>'
+        f"<files><location>{location}</location></files>{fields}</core></archive>"
+    )
+    rows = draw(st.lists(st.lists(CELL, max_size=6), max_size=6))
+    core = csv_text(rows, draw(st.sampled_from([",", "\t"]))) + draw(st.binary(max_size=20))
+    buffer = io.BytesIO()
+    with zipfile.ZipFile(buffer, "w") as made:
+        made.writestr("meta.xml", meta)
+        made.writestr("core.txt", core)
+    return buffer.getvalue()
+
+
+@FAST
+@given(
+    content=st.one_of(st.binary(max_size=500).map(lambda b: b"PK\x03\x04" + b), spoiled_archives())
+)
+def test_read_archive_refuses_or_reads_every_cell(content: bytes) -> None:
+    _count("Darwin Core Archives")
+    try:
+        header, lazy = read_archive(content).table
+        rows = list(lazy)
+    except TableError as problem:
+        assert problem.row >= 1 and problem.column and problem.reason
+        return
+    assert len(set(header)) == len(header)
+    for row in rows:
+        assert list(row.cells) == header
+    _count("Darwin Core Archives", accepted=True)
 
 
 @FAST

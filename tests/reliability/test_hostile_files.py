@@ -33,6 +33,7 @@ IMPORTERS: dict[str, tuple[str, Run]] = {
     "batch sheet": (".csv", lambda b, p: ["batch", "sheet", b.batch, str(p)]),
     "lender manifest": (".csv", lambda b, p: ["manifest", "import", b.lab.loan, str(p)]),
     "lender manifest (XLSX)": (".xlsx", lambda b, p: ["manifest", "import", b.lab.loan, str(p)]),
+    "lender manifest (archive)": (".zip", lambda b, p: ["manifest", "import", b.lab.loan, str(p)]),
     "batch sheet (XLSX)": (".xlsx", lambda b, p: ["batch", "sheet", b.batch, str(p)]),
     "Sr reference curve": (".csv", lambda b, p: ["curve", "add", "hostile", str(p)]),
     "mapping profile (TOML)": (".toml", lambda b, p: ["profile", "save", "hostile", str(p)]),
@@ -146,6 +147,18 @@ for name in ("instrument export (XLSX)", "batch sheet (XLSX)", "lender manifest 
         (name, "5000 columns", h.wide_row, ("columns",)),
         (name, "plain text", lambda: b"Run,Name\n1,x\n", ("not an XLSX",)),
     ]
+CASES += [
+    ("lender manifest (archive)", "a zip bomb (300 MB core)", h.archive_bomb, ("unpacks to",)),
+    (
+        "lender manifest (archive)",
+        "a core lying about its size",
+        lambda: h.lying_zip(h.dwc_archive(), h.CORE),
+        ("cannot be unpacked",),
+    ),
+    ("lender manifest (archive)", "a billion-laughs meta.xml", h.archive_laughs, ("entities",)),
+    ("lender manifest (archive)", "a core outside the archive", h.archive_escape, ("leaves",)),
+    ("lender manifest (archive)", "a ZIP without meta.xml", h.zip_without_meta, ("meta.xml",)),
+]
 CASES += [
     (
         "instrument export (XLSX)",

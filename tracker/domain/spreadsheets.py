@@ -72,11 +72,13 @@ def read_table(
     A cell a spreadsheet would run as a formula is refused, unless ``keep_formulas``
     (for a caller that reports such cells row by row itself).
     """
-    zipped = content[:4] == b"PK\x03\x04"  # XLSX files are ZIP archives
+    zipped = content[:4] == b"PK\x03\x04"  # XLSX files (and Darwin Core Archives) are ZIPs
     if fmt == "xlsx" and not zipped:
         raise TableError(1, "file", "is not an XLSX workbook; use a csv or tsv profile")
     if fmt != "xlsx" and zipped:
-        raise TableError(1, "file", "looks like an XLSX workbook; use a profile with format xlsx")
+        from tracker.domain.dwca import zip_problem
+
+        raise TableError(1, "file", zip_problem(content))
     if fmt == "xlsx":
         from tracker.domain.workbooks import sheet_lines  # openpyxl only for workbooks
 
@@ -92,6 +94,17 @@ def read_table(
     header_number, header = _header(kept, header_row)
     if len(set(header)) != len(header):
         raise TableError(header_number, "header", "two columns have the same name")
+    return Table(header, _rows(kept, header, keep_formulas))
+
+
+def described_table(
+    header: list[str], lines: Iterable[tuple[int, list[str]]], *, keep_formulas: bool = False
+) -> Table:
+    """Rows under a header given from elsewhere (a Darwin Core Archive's meta.xml).
+
+    The lines are counted, capped and checked as :func:`read_table` does its own.
+    """
+    kept = ((n, cells) for n, cells in _counted(lines) if cells)
     return Table(header, _rows(kept, header, keep_formulas))
 
 
@@ -138,7 +151,7 @@ def _row(number: int, cells: list[str], header: list[str]) -> Row:
             number,
             str(width + 1),
             f"the row has {len(cells)} cells but the header names {width} columns "
-            "(an unquoted comma?)",
+            "(a delimiter inside a cell, unquoted?)",
         )
     if len(cells) < width:
         cells = cells + [""] * (width - len(cells))
@@ -161,21 +174,29 @@ def _refuse_formulas(row: Row, header: list[str]) -> None:
 
 
 def _text_lines(content: bytes, fmt: str) -> Iterator[tuple[int, list[str]]]:
+    """A CSV's records, or a TSV's lines split at tabs (quotes are data in TSV)."""
     delimiter = "\t" if fmt == "tsv" else ","
     try:
         text = decode_text(content, delimiter)
     except FileProblem as problem:
         raise TableError(problem.row, problem.column, problem.reason) from None
-    return csv_records(text, delimiter)
+    return csv_records(text, delimiter, None if fmt == "tsv" else '"')
 
 
-def csv_records(text: str, delimiter: str = ",") -> Iterator[tuple[int, list[str]]]:
+def csv_records(
+    text: str, delimiter: str = ",", quote: str | None = '"'
+) -> Iterator[tuple[int, list[str]]]:
     """Each CSV record with the line it starts on (a quoted cell may span lines).
 
     Strict: a quote left open would otherwise swallow every line after it into one
-    cell, silently; here it is refused at the line and cell where it opens.
+    cell, silently; here it is refused at the line and cell where it opens. With no
+    ``quote`` every character is data: TSV has no quoting (the IANA registration of
+    text/tab-separated-values, from memory), nor an archive whose fieldsEnclosedBy is empty.
     """
-    reader = csv.reader(_lines(text), delimiter=delimiter, strict=True)
+    if quote is None:
+        reader = csv.reader(_lines(text), delimiter=delimiter, quoting=csv.QUOTE_NONE)
+    else:
+        reader = csv.reader(_lines(text), delimiter=delimiter, quotechar=quote, strict=True)
     start = 1
     try:
         for cells in reader:
@@ -183,8 +204,8 @@ def csv_records(text: str, delimiter: str = ",") -> Iterator[tuple[int, list[str
             start = reader.line_num + 1
     except csv.Error as exc:
         line = _line(text, start)
-        quote = line.find('"')
-        cell = line[: max(quote, 0)].count(delimiter) + 1
+        opened = line.find(quote or '"')
+        cell = line[: max(opened, 0)].count(delimiter) + 1
         raise TableError(start, str(cell), f"cannot be read as CSV: {exc}") from None
 
 

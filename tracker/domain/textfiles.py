@@ -55,8 +55,14 @@ def check_size(content: bytes, limit: int) -> None:
         )
 
 
-def decode_text(content: bytes, delimiter: str = ",", limit: int = MAX_TABLE_BYTES) -> str:
-    """UTF-8 text (a BOM allowed) or a FileProblem saying what the bytes are instead."""
+def decode_text(
+    content: bytes, delimiter: str = ",", limit: int = MAX_TABLE_BYTES, encoding: str = "utf-8"
+) -> str:
+    """UTF-8 text (a BOM allowed) or a FileProblem saying what the bytes are instead.
+
+    Another ``encoding`` (a single-byte one a file declares, such as ISO-8859-1) is
+    decoded with the same checks; the problem then names that encoding.
+    """
     check_size(content, limit)
     sep = delimiter.encode()
     for bom, name in _BOMS:
@@ -67,12 +73,14 @@ def decode_text(content: bytes, delimiter: str = ",", limit: int = MAX_TABLE_BYT
         row, cell = _place(content, nul, sep)
         raise FileProblem(row, cell, "holds a NUL byte: a binary file, or not UTF-8 text")
     _check_lines(content, sep)
+    utf8 = codecs.lookup(encoding).name == "utf-8"
     try:
-        return content.decode("utf-8-sig")
+        return content.decode("utf-8-sig" if utf8 else encoding)
     except UnicodeDecodeError as exc:
         row, cell = _place(content, exc.start, sep)
+        said = "UTF-8" if utf8 else encoding
         raise FileProblem(
-            row, cell, f"byte 0x{content[exc.start]:02X} is not UTF-8; save the file as UTF-8"
+            row, cell, f"byte 0x{content[exc.start]:02X} is not {said}; save the file as UTF-8"
         ) from None
 
 

@@ -44,6 +44,11 @@ def _preview_table(preview: manifests.ManifestPreview) -> Any:
                 if preview.kept_as_extra
                 else ""
             )
+            + (
+                f"; not imported (archive extensions): {', '.join(preview.not_imported)}"
+                if preview.not_imported
+                else ""
+            )
         )
     )
     table = plain_table("row", "catalogue no.", "action", "problems / changes")
@@ -66,7 +71,11 @@ def _preview_table(preview: manifests.ManifestPreview) -> Any:
 def manifest_preview(
     ctx: typer.Context,
     loan: Annotated[str, typer.Argument(help="Loan ID or reference.")],
-    file: Annotated[Path, typer.Argument(help="CSV, TSV or XLSX."), Fills("content", "filename")],
+    file: Annotated[
+        Path,
+        typer.Argument(help="CSV, TSV (.tsv, .txt), XLSX or Darwin Core Archive (.zip)."),
+        Fills("content", "filename"),
+    ],
     mapping: Annotated[
         str | None, Opt("--mapping", help="Saved mapping for non-Darwin-Core headings.")
     ] = None,
@@ -83,7 +92,11 @@ def manifest_preview(
 def manifest_import(
     ctx: typer.Context,
     loan: Annotated[str, typer.Argument(help="Loan ID or reference.")],
-    file: Annotated[Path, typer.Argument(help="CSV, TSV or XLSX."), Fills("content", "filename")],
+    file: Annotated[
+        Path,
+        typer.Argument(help="CSV, TSV (.tsv, .txt), XLSX or Darwin Core Archive (.zip)."),
+        Fills("content", "filename"),
+    ],
     mapping: Annotated[str | None, Opt("--mapping", help="Saved mapping.")] = None,
 ) -> None:
     """Create and update the loan's specimens from a clean list (one transaction)."""

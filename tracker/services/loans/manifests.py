@@ -1,7 +1,11 @@
 """Lender manifests: the list of specimens a loan brings, read from CSV, TSV or XLSX.
 
-Columns named with Darwin Core terms (TDWG) are understood as they are; any other
-headings are read through a saved mapping. Every row is checked and the whole file is
+A Darwin Core Archive (a ZIP with meta.xml, TDWG Darwin Core Text Guide) is read as it
+describes itself (:mod:`tracker.domain.dwca`); its extensions are named in the preview as
+not imported. Columns named with Darwin Core terms (TDWG) are understood as they are,
+in any case, with a ``dwc:``/``dcterms:`` prefix or as the term's IRI
+(:func:`~tracker.domain.darwincore.term_name`); any other headings are read through a
+saved mapping. Every row is checked and the whole file is
 previewed row by row — what would be created, updated or left unchanged, and every
 problem with its row number — before anything is written. A clean import is one
 transaction and one ledger event; importing the same file again changes nothing.
@@ -22,6 +26,8 @@ from sqlalchemy.orm import Session, undefer
 
 from tracker.db.database import Database
 from tracker.db.rows import insert_rows
+from tracker.domain.darwincore import term_headings
+from tracker.domain.dwca import is_archive, read_archive
 from tracker.domain.errors import InputError, NotFound, RuleViolation, at_cell
 from tracker.domain.facts import Stated, rows_facts
 from tracker.domain.ids import Kind, format_id
@@ -98,6 +104,8 @@ class ManifestPreview(View):
     unchanged: int
     problems: int
     kept_as_extra: list[str]  # headings that are not specimen columns: stored, never dropped
+    # a Darwin Core Archive's extensions (file and row type): named, never imported
+    not_imported: list[str] = Field(default_factory=list)
 
     @property
     def clean(self) -> bool:
@@ -249,20 +257,34 @@ def _mapping(session: Session, name: str | None) -> ManifestMapping:
     return mapping
 
 
-def _table(request: ManifestRequest, mapping: ManifestMapping) -> Table:
-    """The file's headings (as terms, through the mapping) and its rows, read as they are used."""
+def _table(request: ManifestRequest, mapping: ManifestMapping) -> tuple[Table, list[str]]:
+    """The file's headings (as terms, through the mapping) and its rows, read as they are used;
+    and what the file holds that is not imported (a Darwin Core Archive's extensions).
+
+    Every reader's headings go through one spelling of the terms (``term_headings``).
+    """
     fmt = mapping.format if request.mapping else _format_of(request.filename)
-    rename = {heading: term for term, heading in mapping.columns.items()}
+    mapped = {heading: term for term, heading in mapping.columns.items()}
+    not_imported: list[str] = []
     with _as_input(request.filename):
-        header, rows = read_table(
-            request.content,
-            fmt,
-            header_row=mapping.header_row,
-            sheet=mapping.sheet,
-            comment_prefix=None,
-            keep_formulas=True,  # flagged row by row in the preview instead
-        )
-    return Table([rename.get(h, h) for h in header], _renamed(request.filename, rows, rename))
+        if is_archive(request.content):  # an archive describes itself, whatever the profile
+            archive = read_archive(request.content, keep_formulas=True)
+            (header, rows), not_imported = archive.table, archive.not_imported
+        else:
+            header, rows = read_table(
+                request.content,
+                fmt,
+                header_row=mapping.header_row,
+                sheet=mapping.sheet,
+                comment_prefix=None,
+                keep_formulas=True,  # flagged row by row in the preview instead
+            )
+        try:
+            terms = term_headings([mapped.get(h, h) for h in header])
+        except ValueError as exc:
+            raise TableError(mapping.header_row, "header", str(exc)) from None
+    rename = {h: t for h, t in zip(header, terms, strict=True) if h != t}
+    return Table(terms, _renamed(request.filename, rows, rename)), not_imported
 
 
 def _renamed(filename: str, rows: Iterator[Row], rename: dict[str, str]) -> Iterator[Row]:
@@ -295,7 +317,11 @@ def _as_input(filename: str) -> Iterator[None]:
 def _format_of(filename: str) -> str:
     lower = filename.lower()
     return (
-        "xlsx" if lower.endswith(".xlsx") else "tsv" if lower.endswith((".tsv", ".tab")) else "csv"
+        "xlsx"
+        if lower.endswith(".xlsx")
+        else "tsv"
+        if lower.endswith((".tsv", ".tab", ".txt"))  # .txt: tab-separated, as archives write it
+        else "csv"
     )
 
 
@@ -307,6 +333,7 @@ class _Reading:
     header_problems: list[str]
     rows: list[CheckedRow]
     sha256: str
+    not_imported: list[str]
 
     @property
     def slice_rows(self) -> int:
@@ -315,10 +342,10 @@ class _Reading:
 
 
 def _read_file(request: ManifestRequest, mapping: ManifestMapping) -> _Reading:
-    header, rows = _table(request, mapping)
+    (header, rows), not_imported = _table(request, mapping)
     problems = header_problems(header)
     digest = hashlib.sha256(request.content).hexdigest()
-    return _Reading(header, problems, check_file(header, rows, problems), digest)
+    return _Reading(header, problems, check_file(header, rows, problems), digest, not_imported)
 
 
 @dataclass(frozen=True)
@@ -362,6 +389,7 @@ def _examine(session: Session, request: ManifestRequest, reading: _Reading) -> _
         unchanged=tally["unchanged"],
         problems=problems,
         kept_as_extra=extra,
+        not_imported=reading.not_imported,
     )
     return _Examined(loan, preview, compared.updates, compared.fields, reading.slice_rows)
 

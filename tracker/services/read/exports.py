@@ -8,7 +8,6 @@ attached to their record without knowing anything about tracker.
 
 from __future__ import annotations
 
-import json
 from decimal import Decimal
 from typing import Any
 
@@ -16,7 +15,7 @@ from sqlalchemy import select
 from sqlalchemy.orm import selectinload, undefer
 
 from tracker.db.database import Database
-from tracker.domain.darwincore import is_term
+from tracker.domain.darwincore import dynamic_properties, is_term
 from tracker.domain.models import Loan, Powder, Specimen, SpecimenStatus
 from tracker.services.core.lookup import get_loan
 from tracker.services.instrument.results import SpecimenResult, results
@@ -114,16 +113,16 @@ def _specimen_rows(db: Database, loan: str) -> tuple[list[str], list[dict[str, A
             "earliestEpochOrLowestSeries": s.earliest_epoch,
             "latestEpochOrHighestSeries": s.latest_epoch,
             "disposition": _DISPOSITION[s.status],
-            "dynamicProperties": json.dumps(
+            "dynamicProperties": dynamic_properties(
+                s.extra.get("dynamicProperties"),
+                {k: v for k, v in s.extra.items() if not is_term(k)},
                 {
                     "trackerId": s.public_id,
                     "sampled": bool(s.powders),
                     "drilledMg": float(sum((p.mass_mg for p in s.powders), Decimal(0))),
                     "ageMinMa": s.age_min_ma,
                     "ageMaxMa": s.age_max_ma,
-                    **{k: v for k, v in s.extra.items() if not is_term(k)},
                 },
-                sort_keys=True,
             ),
         }
         row.update({term: s.extra.get(term) for term in extra_terms})

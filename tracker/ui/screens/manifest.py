@@ -172,6 +172,8 @@ def _summary(preview: ManifestPreview) -> Text:
         text.append(
             f"\nkept as extra terms (stored, not dropped): {', '.join(preview.kept_as_extra)}"
         )
+    if preview.not_imported:
+        text.append(f"\nnot imported (archive extensions): {', '.join(preview.not_imported)}")
     return text
 
 
