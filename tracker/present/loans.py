@@ -3,13 +3,14 @@
 from __future__ import annotations
 
 from rich import box
-from rich.console import Group, RenderableType
+from rich.console import Console, ConsoleOptions, Group, RenderableType, RenderResult
+from rich.measure import Measurement
 from rich.table import Table
 from rich.text import Text
 
 from tracker.domain import precision
 from tracker.domain.text_rules import visible
-from tracker.present.bars import flag_lines, usage_bar
+from tracker.present.bars import flag_cell, flag_lines, usage_bar
 from tracker.present.text import days_left, plain_table
 from tracker.services.loans.planning import Plan
 from tracker.services.read.reconcile import LoanLine
@@ -18,17 +19,57 @@ BAR_WIDTH = 8
 
 
 def overview_table(lines: list[LoanLine]) -> RenderableType:
-    """Fits 80 columns: each cell stacks two short lines instead of adding columns."""
+    """Fits 80 columns: each cell stacks two short lines instead of adding columns, and the
+    flags take the width the other columns leave, wrapped whole, or go under the table
+    when too little is left (never cut short)."""
     if not lines:
         return Text("No loans yet. Add one with `tracker loan add --help`.")
+    return _Overview(lines)
+
+
+FLAG_ROOM = 24  # the narrowest flags column worth drawing; narrower, they go under the table
+
+
+class _Overview:
+    """The overview, laid out when the terminal's width is known."""
+
+    def __init__(self, lines: list[LoanLine]) -> None:
+        self.lines = lines
+
+    def __rich_console__(self, console: Console, options: ConsoleOptions) -> RenderResult:
+        bare = _overview_columns(self.lines, None)
+        room = options.max_width - Measurement.get(console, options, bare).maximum - 3
+        if room >= FLAG_ROOM:
+            yield _overview_columns(self.lines, room)
+            return
+        yield bare
+        flagged = [line for line in self.lines if line.flags]
+        if flagged:
+            yield Text("Flags", style="bold")
+        for line in flagged:
+            yield Text.assemble(f"  {visible(line.reference)}\n", _indented(line.flags, options))
+
+
+def _indented(flags: list[str], options: ConsoleOptions) -> Text:
+    cell = flag_cell(flags, max(FLAG_ROOM, options.max_width - 4))
+    indented = Text("    ")
+    for part in cell.split("\n", allow_blank=True):
+        indented.append_text(part)
+        indented.append("\n    ")
+    indented.right_crop(5)
+    return indented
+
+
+def _overview_columns(lines: list[LoanLine], flags_width: int | None) -> Table:
+    """The loans table; with ``flags_width`` a flags column that wide, else none."""
     table = Table(
         title="Loans, most urgent first", title_justify="left", box=box.SIMPLE_HEAD, padding=(0, 1)
     )
     table.add_column("loan", no_wrap=True)
-    table.add_column("specimens", no_wrap=True)
-    table.add_column("mass drilled", no_wrap=True)
-    table.add_column("due", no_wrap=True)
-    table.add_column("flags")
+    for heading in ("specimens", "mass drilled", "due"):  # wrapped only on a narrow terminal
+        table.add_column(heading, overflow="fold")
+    if flags_width is not None:
+        table.add_column("flags", max_width=flags_width)
     for line in lines:
         due = (
             f"{line.due_on.isoformat()}\n{days_left(line.days_left)}"
@@ -36,7 +77,7 @@ def overview_table(lines: list[LoanLine]) -> RenderableType:
             else line.status
         )
         sampled = sampled_of(line.sampled, line.specimens, line.max_specimens_sampled)
-        table.add_row(
+        cells: list[RenderableType] = [
             Text.assemble(visible(line.reference), "\n", (f"{line.lender_code} {line.id}", "dim")),
             f"{sampled}\n{line.on_hand}/{line.specimens} on hand",
             Text.assemble(
@@ -45,8 +86,10 @@ def overview_table(lines: list[LoanLine]) -> RenderableType:
                 usage_bar(line.used_fraction, BAR_WIDTH),
             ),
             due,
-            flag_lines(line.flags),
-        )
+        ]
+        if flags_width is not None:
+            cells.append(flag_cell(line.flags, flags_width))
+        table.add_row(*cells)
     return table
 
 
