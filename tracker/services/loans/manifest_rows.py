@@ -22,6 +22,7 @@ from typing import Any, Literal, TypeVar
 from pydantic import Field, TypeAdapter, ValidationError
 
 from tracker.domain.darwincore import extra_terms_problem
+from tracker.domain.dwc_dates import DateProblem, read_date
 from tracker.domain.formula_cells import FORMULA_TRIGGERS, looks_like_formula
 from tracker.domain.models import Specimen
 from tracker.domain.spreadsheets import Row
@@ -44,7 +45,14 @@ TERM_FIELDS = {
 }
 # tracker's own headings for what Darwin Core does not define (numeric ages in Ma)
 OWN_FIELDS = {"ageMinMa": "age_min_ma", "ageMaxMa": "age_max_ma"}
+# Darwin Core date terms, read whole as ISO 8601 (`tracker.domain.dwc_dates`) and kept as typed.
+# eventDate must read: it is the date Darwin Core readers sort and filter specimens by,
+# and the row schema has always promised it as a date. tracker computes with none of the
+# others; a legacy text in one of them that is no ISO 8601 date (12/03/1987) is kept as
+# typed, with a warning on its row. Any date that reads but cannot be right (an interval
+# ending before it starts, a date after today) is refused in every date term.
 DATE_TERMS = ("eventDate", "dateIdentified", "georeferencedDate")
+STRICT_DATE_TERMS = frozenset({"eventDate"})
 NUMBER_TERMS = ("decimalLatitude", "decimalLongitude", "ageMinMa", "ageMaxMa")
 REQUIRED = "catalogNumber"
 # A refusal of a specimen field's text names the file's column it came from.
@@ -64,6 +72,8 @@ class RowResult(View):
     action: Literal["create", "update", "unchanged", "error"]
     problems: list[str]
     changes: dict[str, list[Any]] = Field(default_factory=dict)
+    # what the row keeps as typed but does not read as the standard has it (a legacy date)
+    warnings: list[str] = Field(default_factory=list)
 
 
 def header_problems(header: list[str]) -> list[str]:
@@ -103,6 +113,7 @@ class CheckedRow:
     catalog: str
     problems: list[str]
     fields: Fields | None  # None for a row with problems
+    warnings: list[str]
 
 
 @dataclass(frozen=True)
@@ -114,14 +125,17 @@ class Compared:
     updates: dict[str, Specimen]  # catalogue number -> the loan's specimen a row changes
 
 
-def check_file(header: list[str], rows: Iterable[Row], file_problem: list[str]) -> list[CheckedRow]:
+def check_file(
+    header: list[str], rows: Iterable[Row], file_problem: list[str], today: date
+) -> list[CheckedRow]:
     """Every row checked against the file alone (no database): run before any lock.
 
     Rows are taken a slice at a time; a clean row's specimen columns are validated with
     its slice in one call, by the model `specimen add` uses, and only they are kept.
-    :func:`compare` then says what each clean row changes.
+    :func:`compare` then says what each clean row changes. ``today`` is the last day a
+    date may start on.
     """
-    columns = _Columns.of(header)
+    columns = _Columns.of(header, today)
     seen: dict[str, int] = {}
     checked: list[CheckedRow] = []
     for chunk in slices(rows, rows_per_slice(len(header))):
@@ -145,8 +159,12 @@ def _check_slice(
     rows: list[Row], columns: _Columns, seen: dict[str, int], file_problem: list[str]
 ) -> list[CheckedRow]:
     """One slice of rows checked together; each clean row keeps its validated columns."""
-    if file_problem or not _cells_all_read(rows, columns.typed):
-        found = [_first_checks(row, seen, file_problem, columns.typed) for row in rows]
+    warned: list[list[str]] = [[] for _ in rows]
+    if file_problem or not _cells_all_read(rows, columns):
+        found = [
+            _first_checks(row, seen, file_problem, columns, warnings)
+            for row, warnings in zip(rows, warned, strict=True)
+        ]
     else:  # the common case: only a catalogue number can still be wrong
         found = [_catalog_problems(row, seen, []) for row in rows]
     clean = [n for n, problems in enumerate(found) if not problems]
@@ -158,7 +176,13 @@ def _check_slice(
         else:
             found[n].append(problem)
     return [
-        CheckedRow(row.number, nfc(row.cells.get(REQUIRED, "").strip()), problems, fields.get(n))
+        CheckedRow(
+            row.number,
+            nfc(row.cells.get(REQUIRED, "").strip()),
+            problems,
+            fields.get(n),
+            warned[n],
+        )
         for n, (row, problems) in enumerate(zip(rows, found, strict=True))
     ]
 
@@ -174,7 +198,7 @@ def compare(checked: list[CheckedRow], find: Find, size: int) -> Compared:
         existing = find([row.catalog for row in chunk if row.fields is not None])
         results = []
         for row in chunk:
-            result = _result(row.number, row.catalog, row.problems, row.fields, existing)
+            result = _result(row, existing)
             if result["action"] in ("create", "update") and row.fields is not None:
                 compared.fields[row.number] = row.fields
             if result["action"] == "update":
@@ -196,9 +220,10 @@ class _Columns:
     ages: list[tuple[str, str]]  # tracker's numeric age heading -> specimen column
     extras: list[str]  # any other heading: kept with the specimen when not blank
     keys: list[str]  # the specimen columns the file has: "extra", then in file order
+    today: date  # the last day a date may start on
 
     @classmethod
-    def of(cls, terms: list[str]) -> _Columns:
+    def of(cls, terms: list[str], today: date) -> _Columns:
         return cls(
             typed=[(t, t in DATE_TERMS) for t in terms if t in DATE_TERMS or t in NUMBER_TERMS],
             texts=[(t, TERM_FIELDS[t]) for t in terms if t in TERM_FIELDS],
@@ -212,6 +237,7 @@ class _Columns:
                     if t in TERM_FIELDS or t in OWN_FIELDS
                 ),
             ],
+            today=today,
         )
 
 
@@ -230,24 +256,30 @@ def _formula_start(joined: str) -> bool:
 
 
 def _first_checks(
-    row: Row, seen: dict[str, int], file_problem: list[str], typed: list[tuple[str, bool]]
+    row: Row,
+    seen: dict[str, int],
+    file_problem: list[str],
+    columns: _Columns,
+    warnings: list[str],
 ) -> list[str]:
     """The problems a row's cells show before its columns are validated as a specimen.
 
     Only a row in which some cell starts like a formula needs every cell looked at;
     in any other row only the dates and numbers can be wrong, and only a date or
-    number that does not read is looked at again to say why.
+    number that does not read is looked at again to say why. What the row keeps as
+    typed although it does not read (a legacy date) is added to ``warnings``.
     """
     problems = list(file_problem)
     cells = row.cells
     if _formula_start("\x00".join(cells.values())):
         for term, value in cells.items():
             problems += _cell_problems(term, value)
-    else:
-        for term, is_date in typed:
-            value = cells[term]
-            if value and not _reads(value, is_date):
-                problems += _cell_problems(term, value)
+    for term, is_date in columns.typed:
+        value = cells[term]
+        if value and not _reads(value, is_date, columns.today):
+            said = _typed_problem(term, value, is_date, columns.today)
+            unreadable = is_date and term not in STRICT_DATE_TERMS and said.endswith(_KEPT)
+            (warnings if unreadable else problems).append(said)
     return _catalog_problems(row, seen, problems)
 
 
@@ -267,7 +299,7 @@ def _catalog_problems(row: Row, seen: dict[str, int], problems: list[str]) -> li
     return problems
 
 
-def _cells_all_read(rows: list[Row], typed: list[tuple[str, bool]]) -> bool:
+def _cells_all_read(rows: list[Row], columns: _Columns) -> bool:
     """True when no cell in the file starts like a formula and every date and number reads.
 
     Checked column by column over the whole file, so that a clean file (the usual one)
@@ -276,45 +308,58 @@ def _cells_all_read(rows: list[Row], typed: list[tuple[str, bool]]) -> bool:
     every_cell = "\x00".join(["\x00".join(row.cells.values()) for row in rows])
     if _formula_start(every_cell):
         return False
-    return all(_column_reads([row.cells[term] for row in rows], is_date) for term, is_date in typed)
+    return all(
+        _column_reads([row.cells[term] for row in rows], is_date, columns.today)
+        for term, is_date in columns.typed
+    )
 
 
-def _column_reads(values: list[str], is_date: bool) -> bool:
+def _column_reads(values: list[str], is_date: bool, today: date) -> bool:
     """Whether every filled cell of a date or number column reads as one."""
     filled = [value for value in values if value]
     try:
         if is_date:
-            [date.fromisoformat(value[:10]) for value in filled]
+            [read_date(value, today) for value in filled]
         else:
             list(map(float, filled))
-    except ValueError:
+    except ValueError:  # DateProblem is one
         return False
     return True
 
 
-def _reads(value: str, is_date: bool) -> bool:
+def _reads(value: str, is_date: bool, today: date) -> bool:
     """Whether a (stripped) cell reads as the date or number its column holds."""
     try:
-        date.fromisoformat(value[:10]) if is_date else float(value)
+        read_date(value, today) if is_date else float(value)
     except ValueError:
         return False
     return True
+
+
+# How a warning about a date kept as typed ends (told apart from a refusal by it).
+_KEPT = "; kept as typed"
+
+
+def _typed_problem(term: str, value: str, is_date: bool, today: date) -> str:
+    """Why a date or number cell does not read, said at its column.
+
+    A decimal comma (12,5) is not read as a number: as 12.5 or as 125 it would be a
+    guess, so it is said to be no number like any other text.
+    """
+    where = f"column {term}: {value!r}"
+    if not is_date:
+        return f"{where} is not a number (write decimals with a point: 12.5)"
+    try:
+        read_date(value, today)
+    except DateProblem as problem:
+        kept = _KEPT if problem.unreadable and term not in STRICT_DATE_TERMS else ""
+        return f"{where} {problem.reason}{kept}"
+    return f"{where} is not a date"  # not reached: the caller found it unreadable
 
 
 def _cell_problems(term: str, value: str) -> list[str]:
-    where = f"column {term}"
     if looks_like_formula(value):
-        return [f"{where}: {value[:30]!r} looks like a spreadsheet formula"]
-    if term in DATE_TERMS and value.strip():
-        try:
-            date.fromisoformat(value.strip()[:10])
-        except ValueError:
-            return [f"{where}: {value!r} is not an ISO 8601 date (YYYY-MM-DD)"]
-    if term in NUMBER_TERMS and value.strip():
-        try:
-            float(value)
-        except ValueError:
-            return [f"{where}: {value!r} is not a number"]
+        return [f"column {term}: {value[:30]!r} looks like a spreadsheet formula"]
     return []
 
 
@@ -393,33 +438,17 @@ def _said(error: Any) -> str:
 _ROW_RESULTS = TypeAdapter(list[RowResult])
 
 
-def _result(
-    number: int,
-    catalog: str,
-    problems: list[str],
-    fields: Fields | None,
-    existing: Mapping[str, Specimen],
-) -> dict[str, Any]:
+def _result(row: CheckedRow, existing: Mapping[str, Specimen]) -> dict[str, Any]:
     """A row's result, as the fields of its RowResult."""
-    if problems or fields is None:
-        return {
-            "row": number,
-            "catalog_number": catalog or None,
-            "action": "error",
-            "problems": problems,
-        }
-    current = existing.get(catalog)
+    said = {"row": row.number, "problems": row.problems, "warnings": row.warnings}
+    if row.problems or row.fields is None:
+        return {**said, "catalog_number": row.catalog or None, "action": "error"}
+    current = existing.get(row.catalog)
     if current is None:
-        return {"row": number, "catalog_number": catalog, "action": "create", "problems": []}
-    changes = _changes(current, fields)
+        return {**said, "catalog_number": row.catalog, "action": "create"}
+    changes = _changes(current, row.fields)
     action = "update" if changes else "unchanged"
-    return {
-        "row": number,
-        "catalog_number": catalog,
-        "action": action,
-        "problems": [],
-        "changes": changes,
-    }
+    return {**said, "catalog_number": row.catalog, "action": action, "changes": changes}
 
 
 def _changes(current: Specimen, fields: Fields) -> dict[str, list[Any]]:
