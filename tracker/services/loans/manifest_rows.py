@@ -21,6 +21,7 @@ from typing import Any, Literal, TypeVar
 
 from pydantic import Field, TypeAdapter, ValidationError
 
+from tracker.domain.chronostrat import TERM_PAIRS, name_problem, range_problem
 from tracker.domain.darwincore import extra_terms_problem
 from tracker.domain.dwc_dates import DateProblem, read_date
 from tracker.domain.formula_cells import FORMULA_TRIGGERS, looks_like_formula
@@ -74,6 +75,14 @@ class RowResult(View):
     changes: dict[str, list[Any]] = Field(default_factory=dict)
     # what the row keeps as typed but does not read as the standard has it (a legacy date)
     warnings: list[str] = Field(default_factory=list)
+
+    def detail(self) -> str:
+        """The row as a preview says it: its problems, or its changes; then any warnings."""
+        said = "; ".join(self.problems) or "; ".join(
+            f"{field}: {old!r} → {new!r}" for field, (old, new) in self.changes.items()
+        )
+        warned = "; ".join(f"warning: {warning}" for warning in self.warnings)
+        return "; ".join(part for part in (said, warned) if part)
 
 
 def header_problems(header: list[str]) -> list[str]:
@@ -167,6 +176,9 @@ def _check_slice(
         ]
     else:  # the common case: only a catalogue number can still be wrong
         found = [_catalog_problems(row, seen, []) for row in rows]
+    if columns.chrono:
+        for row, problems, warnings in zip(rows, found, warned, strict=True):
+            _chrono_checks(row.cells, columns.chrono, problems, warnings)
     clean = [n for n, problems in enumerate(found) if not problems]
     validated = _validate(columns, [rows[n] for n in clean])
     fields: dict[int, Fields] = {}
@@ -221,6 +233,7 @@ class _Columns:
     extras: list[str]  # any other heading: kept with the specimen when not blank
     keys: list[str]  # the specimen columns the file has: "extra", then in file order
     today: date  # the last day a date may start on
+    chrono: list[str]  # the Darwin Core terms naming chart units that the file has
 
     @classmethod
     def of(cls, terms: list[str], today: date) -> _Columns:
@@ -238,6 +251,7 @@ class _Columns:
                 ),
             ],
             today=today,
+            chrono=[t for t in terms if t in _CHRONO_TERMS],
         )
 
 
@@ -334,6 +348,28 @@ def _reads(value: str, is_date: bool, today: date) -> bool:
     except ValueError:
         return False
     return True
+
+
+# The chronostratigraphic terms: a name the chart does not have is kept as typed with a
+# warning (tracker computes with none of them: they are stored and exported as given);
+# an earliest unit wholly after its latest is refused, since the pair contradicts itself.
+_CHRONO_TERMS = frozenset(term for pair in TERM_PAIRS for term in pair[:2])
+
+
+def _chrono_checks(
+    cells: dict[str, str], present: list[str], problems: list[str], warnings: list[str]
+) -> None:
+    """A row's chart names checked: unknown ones warned of, a reversed pair a problem."""
+    for term in present:
+        name = cells[term]
+        said = name_problem(term, name) if name else None
+        if said is not None:
+            warnings.append(f"column {term}: {name!r} {said}; kept as typed")
+    for earliest, latest, _ in TERM_PAIRS:
+        if cells.get(earliest) and cells.get(latest):
+            said = range_problem(cells[earliest], cells[latest])
+            if said is not None:
+                problems.append(f"columns {earliest} and {latest}: {said}")
 
 
 # How a warning about a date kept as typed ends (told apart from a refusal by it).
