@@ -135,7 +135,12 @@ class Compared:
 
 
 def check_file(
-    header: list[str], rows: Iterable[Row], file_problem: list[str], today: date
+    header: list[str],
+    rows: Iterable[Row],
+    file_problem: list[str],
+    today: date,
+    *,
+    workbook: bool,
 ) -> list[CheckedRow]:
     """Every row checked against the file alone (no database): run before any lock.
 
@@ -143,8 +148,14 @@ def check_file(
     its slice in one call, by the model `specimen add` uses, and only they are kept.
     :func:`compare` then says what each clean row changes. ``today`` is the last day a
     date may start on.
+
+    Text is kept as typed: a locality "- 5 km N of the ford", a collector "@team", a
+    telephone "+44 ..." or "=sum" are text, made safe only when exported (see
+    `tracker.output.tabular`). Only a ``workbook``'s cells that start like a formula are
+    reported: openpyxl reads a formula cell as its formula text, the same as a typed
+    text, so a live formula (whose value the file never held) cannot otherwise be told.
     """
-    columns = _Columns.of(header, today)
+    columns = _Columns.of(header, today, workbook)
     seen: dict[str, int] = {}
     checked: list[CheckedRow] = []
     for chunk in slices(rows, rows_per_slice(len(header))):
@@ -234,9 +245,10 @@ class _Columns:
     keys: list[str]  # the specimen columns the file has: "extra", then in file order
     today: date  # the last day a date may start on
     chrono: list[str]  # the Darwin Core terms naming chart units that the file has
+    formulas: bool  # whether a cell starting like a formula is a problem (workbooks only)
 
     @classmethod
-    def of(cls, terms: list[str], today: date) -> _Columns:
+    def of(cls, terms: list[str], today: date, workbook: bool) -> _Columns:
         return cls(
             typed=[(t, t in DATE_TERMS) for t in terms if t in DATE_TERMS or t in NUMBER_TERMS],
             texts=[(t, TERM_FIELDS[t]) for t in terms if t in TERM_FIELDS],
@@ -252,6 +264,7 @@ class _Columns:
             ],
             today=today,
             chrono=[t for t in terms if t in _CHRONO_TERMS],
+            formulas=workbook,
         )
 
 
@@ -285,7 +298,7 @@ def _first_checks(
     """
     problems = list(file_problem)
     cells = row.cells
-    if _formula_start("\x00".join(cells.values())):
+    if columns.formulas and _formula_start("\x00".join(cells.values())):
         for term, value in cells.items():
             problems += _cell_problems(term, value)
     for term, is_date in columns.typed:
@@ -314,14 +327,15 @@ def _catalog_problems(row: Row, seen: dict[str, int], problems: list[str]) -> li
 
 
 def _cells_all_read(rows: list[Row], columns: _Columns) -> bool:
-    """True when no cell in the file starts like a formula and every date and number reads.
+    """True when every date and number reads (and, in a workbook, no cell starts like a formula).
 
     Checked column by column over the whole file, so that a clean file (the usual one)
     needs no cell-by-cell look; a file where this is False is checked row by row.
     """
-    every_cell = "\x00".join(["\x00".join(row.cells.values()) for row in rows])
-    if _formula_start(every_cell):
-        return False
+    if columns.formulas:
+        every_cell = "\x00".join(["\x00".join(row.cells.values()) for row in rows])
+        if _formula_start(every_cell):
+            return False
     return all(
         _column_reads([row.cells[term] for row in rows], is_date, columns.today)
         for term, is_date in columns.typed

@@ -259,7 +259,7 @@ def _mapping(session: Session, name: str | None) -> ManifestMapping:
 
 def _table(request: ManifestRequest, mapping: ManifestMapping) -> Table:
     """The file's headings (as terms, through the mapping) and its rows, read as they are used."""
-    fmt = mapping.format if request.mapping else _format_of(request.filename)
+    fmt = _table_format(request, mapping)
     rename = {heading: term for term, heading in mapping.columns.items()}
     with _as_input(request.filename):
         header, rows = read_table(
@@ -300,6 +300,11 @@ def _as_input(filename: str) -> Iterator[None]:
         raise InputError(where, None, exc.reason) from None
 
 
+def _table_format(request: ManifestRequest, mapping: ManifestMapping) -> str:
+    """csv, tsv or xlsx: as a saved mapping says, else as the file's name ends."""
+    return mapping.format if request.mapping else _format_of(request.filename)
+
+
 def _format_of(filename: str) -> str:
     lower = filename.lower()
     return (
@@ -328,7 +333,9 @@ def _read_file(db: Database, request: ManifestRequest, mapping: ManifestMapping)
     problems = header_problems(header)
     digest = hashlib.sha256(request.content).hexdigest()
     today = as_utc(db.clock()).date()
-    return _Reading(header, problems, check_file(header, rows, problems, today), digest)
+    workbook = _table_format(request, mapping) == "xlsx"
+    checked = check_file(header, rows, problems, today, workbook=workbook)
+    return _Reading(header, problems, checked, digest)
 
 
 @dataclass(frozen=True)
