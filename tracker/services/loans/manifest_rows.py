@@ -12,7 +12,6 @@ a way to find the loan's specimens that a slice of rows names.
 from __future__ import annotations
 
 import json
-import re
 from collections.abc import Callable, Iterable, Iterator, Mapping
 from dataclasses import dataclass
 from datetime import date
@@ -24,7 +23,7 @@ from pydantic import Field, TypeAdapter, ValidationError
 from tracker.domain.chronostrat import TERM_PAIRS, name_problem, range_problem
 from tracker.domain.darwincore import extra_terms_problem
 from tracker.domain.dwc_dates import DateProblem, read_date
-from tracker.domain.formula_cells import FORMULA_TRIGGERS, looks_like_formula
+from tracker.domain.formula_cells import FORMULA_MARK, is_formula_cell, looks_like_formula
 from tracker.domain.models import Specimen
 from tracker.domain.spreadsheets import Row
 from tracker.domain.text_rules import TextProblem, accept, nfc
@@ -151,9 +150,9 @@ def check_file(
 
     Text is kept as typed: a locality "- 5 km N of the ford", a collector "@team", a
     telephone "+44 ..." or "=sum" are text, made safe only when exported (see
-    `tracker.output.tabular`). Only a ``workbook``'s cells that start like a formula are
-    reported: openpyxl reads a formula cell as its formula text, the same as a typed
-    text, so a live formula (whose value the file never held) cannot otherwise be told.
+    `tracker.output.tabular`). Only a ``workbook``'s formula cells are reported (read
+    as FORMULA_MARK and the formula, `tracker.domain.workbooks`): their value is a
+    calculation the file does not hold, not text a person typed.
     """
     columns = _Columns.of(header, today, workbook)
     seen: dict[str, int] = {}
@@ -268,20 +267,6 @@ class _Columns:
         )
 
 
-# A cell after the first that starts like a formula, in cells joined by NUL (a literal
-# first character lets the regular expression engine skip ahead at C speed).
-_AFTER_NUL = re.compile("\x00[" + re.escape("".join(FORMULA_TRIGGERS)) + "]")
-
-
-def _formula_start(joined: str) -> bool:
-    """Whether any of some cells joined by NUL starts like a spreadsheet formula.
-
-    (Text files with NUL bytes are refused before parsing; a NUL inside a cell could
-    only raise a false alarm, which the exact cell-by-cell check then settles.)
-    """
-    return joined.startswith(FORMULA_TRIGGERS) or _AFTER_NUL.search(joined) is not None
-
-
 def _first_checks(
     row: Row,
     seen: dict[str, int],
@@ -291,14 +276,14 @@ def _first_checks(
 ) -> list[str]:
     """The problems a row's cells show before its columns are validated as a specimen.
 
-    Only a row in which some cell starts like a formula needs every cell looked at;
+    Only a row in which some cell was a workbook's formula needs every cell looked at;
     in any other row only the dates and numbers can be wrong, and only a date or
     number that does not read is looked at again to say why. What the row keeps as
     typed although it does not read (a legacy date) is added to ``warnings``.
     """
     problems = list(file_problem)
     cells = row.cells
-    if columns.formulas and _formula_start("\x00".join(cells.values())):
+    if columns.formulas and FORMULA_MARK in "".join(cells.values()):
         for term, value in cells.items():
             problems += _cell_problems(term, value)
     for term, is_date in columns.typed:
@@ -327,15 +312,13 @@ def _catalog_problems(row: Row, seen: dict[str, int], problems: list[str]) -> li
 
 
 def _cells_all_read(rows: list[Row], columns: _Columns) -> bool:
-    """True when every date and number reads (and, in a workbook, no cell starts like a formula).
+    """True when every date and number reads (and, in a workbook, no cell was a formula).
 
     Checked column by column over the whole file, so that a clean file (the usual one)
     needs no cell-by-cell look; a file where this is False is checked row by row.
     """
-    if columns.formulas:
-        every_cell = "\x00".join(["\x00".join(row.cells.values()) for row in rows])
-        if _formula_start(every_cell):
-            return False
+    if columns.formulas and FORMULA_MARK in "".join(["".join(r.cells.values()) for r in rows]):
+        return False
     return all(
         _column_reads([row.cells[term] for row in rows], is_date, columns.today)
         for term, is_date in columns.typed
@@ -408,8 +391,9 @@ def _typed_problem(term: str, value: str, is_date: bool, today: date) -> str:
 
 
 def _cell_problems(term: str, value: str) -> list[str]:
-    if looks_like_formula(value):
-        return [f"column {term}: {value[:30]!r} looks like a spreadsheet formula"]
+    if is_formula_cell(value):
+        shown = value.removeprefix(FORMULA_MARK)[:30]
+        return [f"column {term}: {shown!r} is a spreadsheet formula (export values, not formulas)"]
     return []
 
 
