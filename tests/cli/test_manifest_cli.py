@@ -360,3 +360,13 @@ def test_a_formula_heading_never_reaches_a_spreadsheet_live(lab: Lab, tmp_path: 
             assert all(c.data_type != "f" for c in first)  # no live formula in the heading row
             header = [c.value for c in first]
         assert not [h for h in header if str(h).startswith("=")], header
+
+
+def test_a_legacy_date_is_shown_as_a_warning_in_the_preview(lab: Lab, tmp_path: Path) -> None:
+    path = put(tmp_path, "w.csv", "catalogNumber,dateIdentified\nFNHC W-1,12/03/1987\n")
+    answer = preview(lab, path)
+    assert answer["problems"] == 0 and answer["rows"][0]["action"] == "create"
+    (warning,) = answer["rows"][0]["warnings"]
+    human = invoke("manifest", "preview", "FH-77", str(path), db=lab.path)
+    assert human.exit_code == 0 and "warning: column dateIdentified" in human.stdout
+    assert "12/03/1987" in warning

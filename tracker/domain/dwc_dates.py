@@ -65,6 +65,14 @@ def read_date(text: str, today: date) -> Span:
     ``today`` is the last day a date may start on (a specimen cannot have been
     collected, identified or georeferenced tomorrow).
     """
+    if len(text) == 10 and text[4] == text[7] == "-" and text.isascii():  # a day, the usual
+        try:
+            day = date.fromisoformat(text)  # read directly: most cells are days
+        except ValueError:
+            raise _unreadable() from None
+        if day > today:
+            raise _after(today)
+        return Span(day, day)
     start_text, slash, end_text = text.partition("/")
     start = _point(start_text)
     span = start
@@ -73,8 +81,12 @@ def read_date(text: str, today: date) -> Span:
         _check_order(start, end)
         span = Span(start.first, end.last, start.start, end.end)
     if span.first > today or (span.start is not None and span.start.date() > today):
-        raise DateProblem(f"starts after today ({today.isoformat()})", unreadable=False)
+        raise _after(today)
     return span
+
+
+def _after(today: date) -> DateProblem:
+    return DateProblem(f"starts after today ({today.isoformat()})", unreadable=False)
 
 
 def _unreadable() -> DateProblem:
