@@ -97,7 +97,7 @@ def test_a_legacy_date_in_a_term_never_computed_with_is_kept_with_a_warning(
     with db.read_session() as session:
         event = session.scalars(select(CustodyEvent).where(CustodyEvent.seq == outcome.event_seq))
         payload = json.loads(event.one().payload)
-    assert payload["warnings"] == {"FM L-1": [warning]}  # the warning kept in the ledger
+    assert payload["kept_with_warnings"] == ["FM L-1"]  # the row named in the ledger
 
 
 def test_chart_names_unknown_are_warned_of_and_reversed_ranges_refused(db: Database) -> None:

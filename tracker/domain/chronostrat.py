@@ -19,6 +19,7 @@ from __future__ import annotations
 
 import re
 from dataclasses import dataclass
+from functools import lru_cache
 from typing import Literal
 
 CHART = "ICS International Chronostratigraphic Chart v2023/09"
@@ -168,6 +169,7 @@ def _key(name: str) -> str:
 UNITS = _units()
 
 
+@lru_cache(maxsize=1024)  # a list repeats its few names on every row
 def find_unit(name: str) -> Unit | None:
     """The chart's unit this name means (see the module's note on spellings), or None."""
     return UNITS.get(_key(name))

@@ -206,9 +206,9 @@ def _import(db: Database, actor: str | None, request: ManifestRequest) -> Manife
             "updated": {r.catalog_number: r.changes for r in preview.rows if r.action == "update"},
             "unchanged": preview.unchanged,
         }
-        warned = {r.catalog_number: r.warnings for r in preview.rows if r.warnings}
-        if warned:  # what was kept as typed though it does not read, said where it is kept
-            payload["warnings"] = warned
+        warned = [r.catalog_number for r in preview.rows if r.warnings]
+        if warned:  # rows that keep a value as typed though it does not read (a legacy date):
+            payload["kept_with_warnings"] = warned  # each warning is said again from its value
         done = finish(uow, "manifest.imported", loan, payload, lambda: preview)
     return ManifestOutcome(
         preview=preview, created=created, updated=updated, event_seq=done.event_seq
