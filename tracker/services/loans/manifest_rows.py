@@ -15,6 +15,7 @@ import json
 from collections.abc import Callable, Iterable, Iterator, Mapping
 from dataclasses import dataclass
 from datetime import date
+from functools import lru_cache
 from itertools import islice
 from typing import Any, Literal, TypeVar
 
@@ -358,15 +359,20 @@ def _chrono_checks(
 ) -> None:
     """A row's chart names checked: unknown ones warned of, a reversed pair a problem."""
     for term in present:
-        name = cells[term]
-        said = name_problem(term, name) if name else None
+        said = _chart_warning(term, cells[term]) if cells[term] else None
         if said is not None:
-            warnings.append(f"column {term}: {name!r} {said}; kept as typed")
+            warnings.append(said)
     for earliest, latest, _ in TERM_PAIRS:
         if cells.get(earliest) and cells.get(latest):
             said = range_problem(cells[earliest], cells[latest])
             if said is not None:
                 problems.append(f"columns {earliest} and {latest}: {said}")
+
+
+@lru_cache(maxsize=1024)  # one text for a name every row repeats, held once
+def _chart_warning(term: str, name: str) -> str | None:
+    said = name_problem(term, name)
+    return None if said is None else f"column {term}: {name!r} {said}; kept as typed"
 
 
 # How a warning about a date kept as typed ends (told apart from a refusal by it).
