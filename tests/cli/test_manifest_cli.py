@@ -69,7 +69,7 @@ def last_event(lab: Lab) -> Any:
 BAD = """catalogNumber,scientificName,locality,eventDate,decimalLatitude
 FNHC M-201,Lamniformes indet.,Quillan Cut (invented),1987-03-12,-41.25
 FNHC M-201,Lamniformes indet.,Quillan Cut (invented),1987-03-12,-41.25
-FNHC M-203,Lamniformes indet.,"=HYPERLINK(""http://example.invalid/a"",""a"")",1987-03-12,-41.25
+FNHC M-203,Lamniformes indet.,Quillan Cut (invented),1987-03-12,"-41,25"
 FNHC M-204,Lamniformes indet.,Quillan Cut (invented),12/03/1987,-41.25
 FNHC M-205,Lamniformes indet.,Quillan Cut (invented),1987-03-12,forty-one south
 ,Lamniformes indet.,Quillan Cut (invented),1987-03-12,-41.25
@@ -77,7 +77,7 @@ FNHC M-205,Lamniformes indet.,Quillan Cut (invented),1987-03-12,forty-one south
 # row (line in the file) -> words its one problem must contain
 EXPECTED = {
     3: ["catalogNumber", "FNHC M-201", "row 2"],  # a repeat of row 2
-    4: ["locality", "HYPERLINK", "formula"],
+    4: ["decimalLatitude", "-41,25", "not a number"],  # a decimal comma is not guessed at
     5: ["eventDate", "12/03/1987"],  # day/month/year, not ISO 8601
     6: ["decimalLatitude", "forty-one south", "number"],
     7: ["catalogNumber", "empty"],
@@ -279,18 +279,55 @@ def test_xlsx_imports_like_csv(lab: Lab, tmp_path: Path) -> None:
     same = manifest_import(lab, put(tmp_path, "fnhc.csv", text))  # the CSV finds nothing new
     assert (same["created"], same["updated"], same["event_seq"]) == ([], [], None)
     rows = {r["row"]: r for r in preview(lab, xlsx(tmp_path / "bad.xlsx", BAD))["rows"]}
-    for number in (3, 5, 6, 7):  # row 4's formula: see the next test
+    for number in (3, 4, 5, 6, 7):
         (problem,) = rows[number]["problems"]
         assert all(w in problem for w in EXPECTED[number]), (number, problem)
 
 
+FORMULA = '=HYPERLINK("http://example.invalid/a","a")'
+
+
 def test_an_xlsx_formula_cell_is_reported(lab: Lab, tmp_path: Path) -> None:
-    book = xlsx(tmp_path / "bad.xlsx", BAD)
+    quoted = '"' + FORMULA.replace('"', '""') + '"'
+    text = f"catalogNumber,locality\nFNHC M-301,{quoted}\n"
+    book = xlsx(tmp_path / "bad.xlsx", text)
     sheet = load_workbook(book).active
-    assert sheet is not None and sheet["C4"].data_type == "f"  # openpyxl wrote it as a formula
-    rows = {r["row"]: r for r in preview(lab, book)["rows"]}
-    (problem,) = rows[4]["problems"]
-    assert all(w in problem for w in EXPECTED[4]), problem
+    assert sheet is not None and sheet["B2"].data_type == "f"  # openpyxl wrote it as a formula
+    (row,) = preview(lab, book)["rows"]
+    (problem,) = row["problems"]
+    assert all(w in problem for w in ("locality", "HYPERLINK", "formula")), problem
+
+
+TYPED = ["- 5 km N of the ford (invented)", "@team", "=sum", "+44 0000 000000", FORMULA]
+
+
+def test_text_that_starts_like_a_formula_is_kept_as_typed(lab: Lab, tmp_path: Path) -> None:
+    buffer = io.StringIO()
+    writer = csv.writer(buffer)
+    writer.writerow(["catalogNumber", "locality", "recordedBy"])
+    for n, text in enumerate(TYPED, start=1):
+        writer.writerow([f"FNHC T-{n}", text, text])
+    path = put(tmp_path, "typed.csv", buffer.getvalue())
+    answer = preview(lab, path)
+    assert (answer["problems"], answer["create"]) == (0, len(TYPED)), answer["rows"]
+    manifest_import(lab, path)
+    out = tmp_path / "out.csv"
+    run(lab.path, ["export", "specimens", "--loan", "FH-77", "--out", str(out)], None)
+    rows = {r["catalogNumber"]: r for r in csv_rows(out)}
+    for n, text in enumerate(TYPED, start=1):  # CSV: the usual leading apostrophe
+        assert rows[f"FNHC T-{n}"]["locality"] == "'" + text
+    book = tmp_path / "out.xlsx"
+    run(lab.path, ["export", "specimens", "--loan", "FH-77", "--out", str(book)], None)
+    sheet = load_workbook(book).active
+    assert sheet is not None
+    header = [c.value for c in next(sheet.iter_rows())]
+    found = {}
+    for cells in sheet.iter_rows(min_row=2):
+        values = dict(zip(header, cells, strict=True))
+        found[values["catalogNumber"].value] = values["locality"]
+    for n, text in enumerate(TYPED, start=1):  # XLSX: a string cell holding the text exactly
+        cell = found[f"FNHC T-{n}"]
+        assert (cell.data_type, cell.value) == ("s", text)
 
 
 def test_an_xlsx_date_cell_reads_as_the_csv_date(lab: Lab, tmp_path: Path) -> None:
@@ -354,3 +391,13 @@ def test_an_archive_is_previewed_with_its_extensions_named_and_imported(
     event = last_event(lab)
     assert event["action"] == "manifest.imported"
     assert event["payload"]["sha256"] == hashlib.sha256(content).hexdigest()
+
+
+def test_a_legacy_date_is_shown_as_a_warning_in_the_preview(lab: Lab, tmp_path: Path) -> None:
+    path = put(tmp_path, "w.csv", "catalogNumber,dateIdentified\nFNHC W-1,12/03/1987\n")
+    answer = preview(lab, path)
+    assert answer["problems"] == 0 and answer["rows"][0]["action"] == "create"
+    (warning,) = answer["rows"][0]["warnings"]
+    human = invoke("manifest", "preview", "FH-77", str(path), db=lab.path)
+    assert human.exit_code == 0 and "warning: column dateIdentified" in human.stdout
+    assert "12/03/1987" in warning

@@ -430,15 +430,17 @@ def test_formula_like_text_is_neutralised_in_every_export(lab: Lab, tmp_path: Pa
         else:
             do(["export", path.stem, "--loan", "FH-77", "--out", str(path)])
     for path in files:
-        if path.suffix == ".csv":
+        if path.suffix == ".csv":  # CSV: text a spreadsheet would run gets an apostrophe
             cells = [c for row in csv.reader(csv_text(path.read_bytes())) for c in row]
-        else:
+            assert [c for c in cells if unsafe(c)] == [], path
+            assert "'" + link in cells, path  # the catalogue number, shown as text
+        else:  # XLSX: every text is a string cell (never run), holding the text exactly
             sheet = load_workbook(path).active
             assert sheet is not None
-            assert all(c.data_type != "f" for row in sheet.iter_rows() for c in row), path
-            cells = [c for row in sheet.iter_rows(values_only=True) for c in row]
-        assert [c for c in cells if unsafe(c)] == [], path
-        assert "'" + link in cells, path  # the catalogue number, shown as text
+            typed = [c for row in sheet.iter_rows() for c in row if isinstance(c.value, str)]
+            assert {c.data_type for c in typed} == {"s"}, path
+            cells = [c.value for c in typed]
+            assert link in cells and "'" + link not in cells, path
         assert not any(isinstance(c, str) and c.endswith("FNHC 10") and c[0] != "F" for c in cells)
     specimens = csv_rows(tmp_path / "specimens.csv")
     assert {"'+44 Quarry Lane (invented)", "-12.5", "'=1+1"} <= {r["locality"] for r in specimens}
@@ -451,7 +453,7 @@ def test_formula_like_text_is_neutralised_in_every_export(lab: Lab, tmp_path: Pa
     assert Decimal(drilled["measurementValue"]) == Decimal("1.250")  # 1001.250 − 1000.000
 
 
-def test_writers_prefix_triggers_and_keep_numbers_numbers(tmp_path: Path) -> None:
+def test_csv_prefixes_triggers_xlsx_writes_strings_and_numbers_stay_numbers(tmp_path: Path) -> None:
     texts = ["=1+1", "+A1", "-x", "@A1", "\tTAB", "\rCR", "-12.5", "+3", "plain"]
     numbers = [-12.5, -3, 0.25] * 3
     rows = [{"text": t, "number": n} for t, n in zip(texts, numbers, strict=True)]
@@ -461,9 +463,14 @@ def test_writers_prefix_triggers_and_keep_numbers_numbers(tmp_path: Path) -> Non
     assert [float(r[1]) for r in read[1:]] == numbers
     (tmp_path / "t.xlsx").write_bytes(tabular.xlsx_bytes(["text", "number"], rows, "t"))
     _, cells = xlsx_rows(tmp_path / "t.xlsx")
-    # XML reads a raw CR back as LF (openpyxl writes it unescaped); the apostrophe stays first
-    assert [c[0] for c in cells] == [e.replace("\r", "\n") for e in expected]
+    # XLSX: the text exactly, no apostrophe (a string cell is never run); XML reads a raw
+    # CR back as LF (openpyxl writes it unescaped)
+    assert [c[0] for c in cells] == [t.replace("\r", "\n") for t in texts]
     assert [c[1] for c in cells] == numbers  # numbers, not text
+    sheet = load_workbook(tmp_path / "t.xlsx").active
+    assert sheet is not None
+    kinds = [(row[0].data_type, row[1].data_type) for row in sheet.iter_rows(min_row=2)]
+    assert kinds == [("s", "n")] * len(texts)  # string cells, never formulas
 
 
 # ---------------------------------------------------------------- 6. shipments and photos

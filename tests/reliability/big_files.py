@@ -68,8 +68,8 @@ def _specimen_cells(rng: random.Random, n: int) -> dict[str, str]:
         "preparations": rng.choice(["tooth", "bone", "shell"]),
         "locality": f"Synthetic locality {rng.randint(1, 900):04d} (invented)",
         "formation": f"Synthetic Formation {rng.randint(1, 60):02d}",
-        "earliestEpochOrLowestSeries": "Synthetic Lower Series",
-        "latestEpochOrHighestSeries": "Synthetic Upper Series",
+        "earliestEpochOrLowestSeries": "Paleocene",
+        "latestEpochOrHighestSeries": "Pleistocene",
         "ageMinMa": str(young),
         "ageMaxMa": str(round(young + rng.uniform(0, 5), 2)),
     }

@@ -119,10 +119,14 @@ CASES += [
         ("row 3", "column Ca", "formula"),
     ),
     (
-        "lender manifest",
-        "a formula",
-        lambda: (MANIFEST + 'INV 3,"=HYPERLINK(""x"")"\n').encode(),
-        ("row 4", "column locality", "formula"),
+        "lender manifest",  # text that starts like a formula is kept; a decimal comma is not
+        "a decimal comma",
+        lambda: (
+            MANIFEST.replace("locality", "decimalLatitude")
+            .replace("Pit (invented)", '"-41,25"')
+            .encode()
+        ),
+        ("row 2", "decimalLatitude", "-41,25", "not a number"),
     ),
     ("mapping profile (JSON)", "JSON nested 100 000 deep", h.deep_json, ("too deeply",)),
     ("mapping profile (TOML)", "TOML nested 100 000 deep", h.deep_toml, ("too deeply",)),

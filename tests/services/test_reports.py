@@ -93,7 +93,7 @@ def test_a_manifest_with_problems_writes_nothing(db: Database, counts: Counts) -
     bad = csv_bytes(
         ROWS[0],
         ROWS[0],  # row 3 repeats row 2
-        ROWS[1].replace("Brackwater Pit (invented)", "@SUM(1;2)"),  # row 4: a formula
+        ROWS[1].replace("1991-05-03", "1991-05/1991-03"),  # row 4: an interval ending first
         ROWS[1].replace("INV 2", "INV 5").replace("1991-05-03", "03/05/1991"),  # row 5
         ROWS[1].replace("INV 2", "INV 6").replace("-38.6", "south"),  # row 6
         ROWS[1].replace("INV 2", ""),  # row 7: no catalogue number

@@ -15,6 +15,17 @@ FORMULA_TRIGGERS = ("=", "+", "-", "@", "\t", "\r")
 _NUMBER = re.compile(r"^[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$")
 
 
+# How a workbook's formula cell is read: its formula text after this mark. A workbook
+# cannot hold U+0001 in its text (XML 1.0 allows no C0 control but tab, LF and CR), so
+# the mark tells a live formula from text typed to start with "=" (a string cell).
+FORMULA_MARK = "\x01"
+
+
+def is_formula_cell(value: str) -> bool:
+    """True for a workbook cell that was a formula (read as FORMULA_MARK + its formula)."""
+    return value.startswith(FORMULA_MARK)
+
+
 def looks_like_formula(value: str) -> bool:
     """True for text a spreadsheet could evaluate (not for plain signed numbers)."""
     return bool(value) and value.startswith(FORMULA_TRIGGERS) and not _NUMBER.match(value.strip())

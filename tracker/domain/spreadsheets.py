@@ -21,7 +21,7 @@ from collections.abc import Iterable, Iterator
 from dataclasses import dataclass
 from typing import NamedTuple
 
-from tracker.domain.formula_cells import looks_like_formula
+from tracker.domain.formula_cells import FORMULA_MARK, is_formula_cell, looks_like_formula
 from tracker.domain.textfiles import FileProblem, decode_text
 
 MAX_ROWS = 500_000
@@ -70,7 +70,8 @@ def read_table(
     """The file's header (the ``header_row``-th kept line) and its rows, read lazily.
 
     A cell a spreadsheet would run as a formula is refused, unless ``keep_formulas``
-    (for a caller that reports such cells row by row itself).
+    (for a caller that reports such cells row by row itself: a workbook's formula cell
+    then reads as FORMULA_MARK and its formula, see `is_formula_cell`).
     """
     zipped = content[:4] == b"PK\x03\x04"  # XLSX files (and Darwin Core Archives) are ZIPs
     if fmt == "xlsx" and not zipped:
@@ -165,11 +166,12 @@ def column_name(header: list[str], column: str) -> str:
 
 def _refuse_formulas(row: Row, header: list[str]) -> None:
     for column, text in row.cells.items():
-        if looks_like_formula(text):
+        if is_formula_cell(text) or looks_like_formula(text):
+            shown = text.removeprefix(FORMULA_MARK)[:20]
             raise TableError(
                 row.number,
                 column_name(header, column),
-                f"holds a spreadsheet formula ({text[:20]!r}); export values, not formulas",
+                f"holds a spreadsheet formula ({shown!r}); export values, not formulas",
             )
 
 

@@ -18,6 +18,7 @@ from datetime import date, datetime, time
 from typing import IO
 from xml.parsers import expat
 
+from tracker.domain.formula_cells import FORMULA_MARK
 from tracker.domain.spreadsheets import TableError
 from tracker.domain.textfiles import MAX_TABLE_BYTES, FileProblem, check_size
 
@@ -56,7 +57,7 @@ def sheet_lines(content: bytes, sheet: str | None) -> Iterator[tuple[int, list[s
             )
         page = book[sheet] if sheet else book.worksheets[0]
         page.reset_dimensions()  # the file's own claim of its size is not trusted
-        rows = enumerate(page.iter_rows(values_only=True), start=1)
+        rows = enumerate(page.iter_rows(), start=1)
         while True:
             try:
                 number, values = next(rows)
@@ -66,7 +67,7 @@ def sheet_lines(content: bytes, sheet: str | None) -> Iterator[tuple[int, list[s
                 raise
             except Exception as exc:  # a sheet's XML broken part-way through
                 raise _unreadable(exc) from None
-            yield number, [_cell_text(v) for v in values]
+            yield number, [_cell_text(c.value, c.data_type == "f") for c in values]
     finally:
         book.close()
 
@@ -193,8 +194,13 @@ def _unreadable(exc: Exception) -> TableError:
     return TableError(1, "file", f"is not a readable XLSX workbook ({_short(exc)})")
 
 
-def _cell_text(value: object) -> str:
-    """A workbook cell as the text a CSV export of it would hold (dates in ISO 8601)."""
+def _cell_text(value: object, formula: bool) -> str:
+    """A workbook cell as the text a CSV export of it would hold (dates in ISO 8601).
+
+    A formula cell is its formula after FORMULA_MARK, so that no reader takes it for text.
+    """
+    if formula:
+        return FORMULA_MARK + str(value)
     if value is None:
         return ""
     if isinstance(value, float):

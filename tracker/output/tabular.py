@@ -1,7 +1,10 @@
 """CSV and XLSX writers that never hand a spreadsheet a formula to run.
 
-Every text cell passes through :func:`tracker.domain.formula_cells.neutralise`; numbers
-stay numbers. XLSX cells are written as explicit strings or numbers, never as formulas.
+A CSV text cell passes through :func:`tracker.domain.formula_cells.neutralise` (a
+leading apostrophe before text a spreadsheet would run); numbers stay numbers. An XLSX
+text cell is written as a string cell (its type set to string explicitly, so openpyxl
+never takes a leading = for a formula) holding the text exactly, with no apostrophe
+added: a string cell is never run, and its value is what was typed.
 
 Stored text can hold characters an older release let in (an ESC, a bidi override).
 CSV keeps every character exactly: a CSV export is a copy of the data for another
@@ -32,20 +35,21 @@ from tracker.domain.text_rules import marker
 _NOT_XML_TEXT = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\ud800-\udfff\ufffe\uffff]")
 
 
-def _cell(value: Any) -> Any:
+def _plain(value: Any) -> Any:
+    """A value as a cell holds it: numbers as numbers, anything else as its text."""
     if value is None:
         return ""
     if isinstance(value, bool):
         return "yes" if value else "no"
     if isinstance(value, int | float | Decimal):
         return value
-    return neutralise(str(value))
+    return str(value)
 
 
 def _csv_cell(value: Any) -> Any:
-    """A CSV cell: an exact value as its digits (``str`` would write ``1E-7``)."""
-    cell = _cell(value)
-    return decimal_text(cell) if isinstance(cell, Decimal) else cell
+    """A CSV cell: an exact value as its digits (``str`` would write ``1E-7``), text neutralised."""
+    cell = _plain(value)
+    return decimal_text(cell) if isinstance(cell, Decimal) else neutralise(cell)
 
 
 def csv_bytes(columns: Sequence[str], rows: Sequence[dict[str, Any]]) -> bytes:
@@ -58,11 +62,18 @@ def csv_bytes(columns: Sequence[str], rows: Sequence[dict[str, Any]]) -> bytes:
     return ("\ufeff" + buffer.getvalue()).encode("utf-8")
 
 
-def _xlsx_cell(value: Any) -> Any:
-    cell = _cell(value)
-    if isinstance(cell, str) and _NOT_XML_TEXT.search(cell):
-        return _NOT_XML_TEXT.sub(lambda found: marker(found.group()), cell)
-    return cell
+def _xlsx_cell(page: Any, value: Any) -> Any:
+    """An XLSX cell: a number as a number, text as a string cell (never a formula)."""
+    from openpyxl.cell import WriteOnlyCell
+
+    cell = _plain(value)
+    if not isinstance(cell, str):
+        return cell
+    if _NOT_XML_TEXT.search(cell):
+        cell = _NOT_XML_TEXT.sub(lambda found: marker(found.group()), cell)
+    written = WriteOnlyCell(page, value=cell)
+    written.data_type = "s"  # openpyxl would take text starting with = for a formula
+    return written
 
 
 def xlsx_bytes(columns: Sequence[str], rows: Sequence[dict[str, Any]], sheet: str) -> bytes:
@@ -71,9 +82,9 @@ def xlsx_bytes(columns: Sequence[str], rows: Sequence[dict[str, Any]], sheet: st
 
     book = Workbook(write_only=True)
     page = book.create_sheet(sheet[:31])
-    page.append([_xlsx_cell(c) for c in columns])
+    page.append([_xlsx_cell(page, c) for c in columns])
     for row in rows:
-        page.append([_xlsx_cell(row.get(c)) for c in columns])
+        page.append([_xlsx_cell(page, row.get(c)) for c in columns])
     buffer = io.BytesIO()
     book.save(buffer)
     return buffer.getvalue()

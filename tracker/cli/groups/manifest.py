@@ -53,16 +53,13 @@ def _preview_table(preview: manifests.ManifestPreview) -> Any:
     )
     table = plain_table("row", "catalogue no.", "action", "problems / changes")
     for r in preview.rows:
-        if r.action == "unchanged":
+        if r.action == "unchanged" and not r.warnings:
             continue
-        detail = "; ".join(r.problems) or "; ".join(
-            f"{k}: {v[0]!r} → {v[1]!r}" for k, v in r.changes.items()
-        )
         table.add_row(
             str(r.row),
             r.catalog_number or "—",
             "ERROR" if r.action == "error" else r.action,
-            detail,
+            r.detail(),
         )
     return Group(head, table)
 

@@ -12,17 +12,19 @@ a way to find the loan's specimens that a slice of rows names.
 from __future__ import annotations
 
 import json
-import re
 from collections.abc import Callable, Iterable, Iterator, Mapping
 from dataclasses import dataclass
 from datetime import date
+from functools import lru_cache
 from itertools import islice
 from typing import Any, Literal, TypeVar
 
 from pydantic import Field, TypeAdapter, ValidationError
 
+from tracker.domain.chronostrat import TERM_PAIRS, name_problem, range_problem
 from tracker.domain.darwincore import extra_terms_problem
-from tracker.domain.formula_cells import FORMULA_TRIGGERS, looks_like_formula
+from tracker.domain.dwc_dates import DateProblem, read_date
+from tracker.domain.formula_cells import FORMULA_MARK, is_formula_cell, looks_like_formula
 from tracker.domain.models import Specimen
 from tracker.domain.spreadsheets import Row
 from tracker.domain.text_rules import TextProblem, accept, nfc
@@ -44,7 +46,14 @@ TERM_FIELDS = {
 }
 # tracker's own headings for what Darwin Core does not define (numeric ages in Ma)
 OWN_FIELDS = {"ageMinMa": "age_min_ma", "ageMaxMa": "age_max_ma"}
+# Darwin Core date terms, read whole as ISO 8601 (`tracker.domain.dwc_dates`) and kept as typed.
+# eventDate must read: it is the date Darwin Core readers sort and filter specimens by,
+# and the row schema has always promised it as a date. tracker computes with none of the
+# others; a legacy text in one of them that is no ISO 8601 date (12/03/1987) is kept as
+# typed, with a warning on its row. Any date that reads but cannot be right (an interval
+# ending before it starts, a date after today) is refused in every date term.
 DATE_TERMS = ("eventDate", "dateIdentified", "georeferencedDate")
+STRICT_DATE_TERMS = frozenset({"eventDate"})
 NUMBER_TERMS = ("decimalLatitude", "decimalLongitude", "ageMinMa", "ageMaxMa")
 REQUIRED = "catalogNumber"
 # A refusal of a specimen field's text names the file's column it came from.
@@ -64,6 +73,16 @@ class RowResult(View):
     action: Literal["create", "update", "unchanged", "error"]
     problems: list[str]
     changes: dict[str, list[Any]] = Field(default_factory=dict)
+    # what the row keeps as typed but does not read as the standard has it (a legacy date)
+    warnings: list[str] = Field(default_factory=list)
+
+    def detail(self) -> str:
+        """The row as a preview says it: its problems, or its changes; then any warnings."""
+        said = "; ".join(self.problems) or "; ".join(
+            f"{field}: {old!r} → {new!r}" for field, (old, new) in self.changes.items()
+        )
+        warned = "; ".join(f"warning: {warning}" for warning in self.warnings)
+        return "; ".join(part for part in (said, warned) if part)
 
 
 def header_problems(header: list[str]) -> list[str]:
@@ -103,6 +122,7 @@ class CheckedRow:
     catalog: str
     problems: list[str]
     fields: Fields | None  # None for a row with problems
+    warnings: list[str]
 
 
 @dataclass(frozen=True)
@@ -114,14 +134,28 @@ class Compared:
     updates: dict[str, Specimen]  # catalogue number -> the loan's specimen a row changes
 
 
-def check_file(header: list[str], rows: Iterable[Row], file_problem: list[str]) -> list[CheckedRow]:
+def check_file(
+    header: list[str],
+    rows: Iterable[Row],
+    file_problem: list[str],
+    today: date,
+    *,
+    workbook: bool,
+) -> list[CheckedRow]:
     """Every row checked against the file alone (no database): run before any lock.
 
     Rows are taken a slice at a time; a clean row's specimen columns are validated with
     its slice in one call, by the model `specimen add` uses, and only they are kept.
-    :func:`compare` then says what each clean row changes.
+    :func:`compare` then says what each clean row changes. ``today`` is the last day a
+    date may start on.
+
+    Text is kept as typed: a locality "- 5 km N of the ford", a collector "@team", a
+    telephone "+44 ..." or "=sum" are text, made safe only when exported (see
+    `tracker.output.tabular`). Only a ``workbook``'s formula cells are reported (read
+    as FORMULA_MARK and the formula, `tracker.domain.workbooks`): their value is a
+    calculation the file does not hold, not text a person typed.
     """
-    columns = _Columns.of(header)
+    columns = _Columns.of(header, today, workbook)
     seen: dict[str, int] = {}
     checked: list[CheckedRow] = []
     for chunk in slices(rows, rows_per_slice(len(header))):
@@ -145,10 +179,17 @@ def _check_slice(
     rows: list[Row], columns: _Columns, seen: dict[str, int], file_problem: list[str]
 ) -> list[CheckedRow]:
     """One slice of rows checked together; each clean row keeps its validated columns."""
-    if file_problem or not _cells_all_read(rows, columns.typed):
-        found = [_first_checks(row, seen, file_problem, columns.typed) for row in rows]
+    warned: list[list[str]] = [[] for _ in rows]
+    if file_problem or not _cells_all_read(rows, columns):
+        found = [
+            _first_checks(row, seen, file_problem, columns, warnings)
+            for row, warnings in zip(rows, warned, strict=True)
+        ]
     else:  # the common case: only a catalogue number can still be wrong
         found = [_catalog_problems(row, seen, []) for row in rows]
+    if columns.chrono:
+        for row, problems, warnings in zip(rows, found, warned, strict=True):
+            _chrono_checks(row.cells, columns.chrono, problems, warnings)
     clean = [n for n, problems in enumerate(found) if not problems]
     validated = _validate(columns, [rows[n] for n in clean])
     fields: dict[int, Fields] = {}
@@ -158,7 +199,13 @@ def _check_slice(
         else:
             found[n].append(problem)
     return [
-        CheckedRow(row.number, nfc(row.cells.get(REQUIRED, "").strip()), problems, fields.get(n))
+        CheckedRow(
+            row.number,
+            nfc(row.cells.get(REQUIRED, "").strip()),
+            problems,
+            fields.get(n),
+            warned[n],
+        )
         for n, (row, problems) in enumerate(zip(rows, found, strict=True))
     ]
 
@@ -174,7 +221,7 @@ def compare(checked: list[CheckedRow], find: Find, size: int) -> Compared:
         existing = find([row.catalog for row in chunk if row.fields is not None])
         results = []
         for row in chunk:
-            result = _result(row.number, row.catalog, row.problems, row.fields, existing)
+            result = _result(row, existing)
             if result["action"] in ("create", "update") and row.fields is not None:
                 compared.fields[row.number] = row.fields
             if result["action"] == "update":
@@ -196,9 +243,12 @@ class _Columns:
     ages: list[tuple[str, str]]  # tracker's numeric age heading -> specimen column
     extras: list[str]  # any other heading: kept with the specimen when not blank
     keys: list[str]  # the specimen columns the file has: "extra", then in file order
+    today: date  # the last day a date may start on
+    chrono: list[str]  # the Darwin Core terms naming chart units that the file has
+    formulas: bool  # whether a cell starting like a formula is a problem (workbooks only)
 
     @classmethod
-    def of(cls, terms: list[str]) -> _Columns:
+    def of(cls, terms: list[str], today: date, workbook: bool) -> _Columns:
         return cls(
             typed=[(t, t in DATE_TERMS) for t in terms if t in DATE_TERMS or t in NUMBER_TERMS],
             texts=[(t, TERM_FIELDS[t]) for t in terms if t in TERM_FIELDS],
@@ -212,42 +262,37 @@ class _Columns:
                     if t in TERM_FIELDS or t in OWN_FIELDS
                 ),
             ],
+            today=today,
+            chrono=[t for t in terms if t in _CHRONO_TERMS],
+            formulas=workbook,
         )
 
 
-# A cell after the first that starts like a formula, in cells joined by NUL (a literal
-# first character lets the regular expression engine skip ahead at C speed).
-_AFTER_NUL = re.compile("\x00[" + re.escape("".join(FORMULA_TRIGGERS)) + "]")
-
-
-def _formula_start(joined: str) -> bool:
-    """Whether any of some cells joined by NUL starts like a spreadsheet formula.
-
-    (Text files with NUL bytes are refused before parsing; a NUL inside a cell could
-    only raise a false alarm, which the exact cell-by-cell check then settles.)
-    """
-    return joined.startswith(FORMULA_TRIGGERS) or _AFTER_NUL.search(joined) is not None
-
-
 def _first_checks(
-    row: Row, seen: dict[str, int], file_problem: list[str], typed: list[tuple[str, bool]]
+    row: Row,
+    seen: dict[str, int],
+    file_problem: list[str],
+    columns: _Columns,
+    warnings: list[str],
 ) -> list[str]:
     """The problems a row's cells show before its columns are validated as a specimen.
 
-    Only a row in which some cell starts like a formula needs every cell looked at;
+    Only a row in which some cell was a workbook's formula needs every cell looked at;
     in any other row only the dates and numbers can be wrong, and only a date or
-    number that does not read is looked at again to say why.
+    number that does not read is looked at again to say why. What the row keeps as
+    typed although it does not read (a legacy date) is added to ``warnings``.
     """
     problems = list(file_problem)
     cells = row.cells
-    if _formula_start("\x00".join(cells.values())):
+    if columns.formulas and FORMULA_MARK in "".join(cells.values()):
         for term, value in cells.items():
             problems += _cell_problems(term, value)
-    else:
-        for term, is_date in typed:
-            value = cells[term]
-            if value and not _reads(value, is_date):
-                problems += _cell_problems(term, value)
+    for term, is_date in columns.typed:
+        value = cells[term]
+        if value and not _reads(value, is_date, columns.today):
+            said = _typed_problem(term, value, is_date, columns.today)
+            unreadable = is_date and term not in STRICT_DATE_TERMS and said.endswith(_KEPT)
+            (warnings if unreadable else problems).append(said)
     return _catalog_problems(row, seen, problems)
 
 
@@ -267,54 +312,94 @@ def _catalog_problems(row: Row, seen: dict[str, int], problems: list[str]) -> li
     return problems
 
 
-def _cells_all_read(rows: list[Row], typed: list[tuple[str, bool]]) -> bool:
-    """True when no cell in the file starts like a formula and every date and number reads.
+def _cells_all_read(rows: list[Row], columns: _Columns) -> bool:
+    """True when every date and number reads (and, in a workbook, no cell was a formula).
 
     Checked column by column over the whole file, so that a clean file (the usual one)
     needs no cell-by-cell look; a file where this is False is checked row by row.
     """
-    every_cell = "\x00".join(["\x00".join(row.cells.values()) for row in rows])
-    if _formula_start(every_cell):
+    if columns.formulas and FORMULA_MARK in "".join(["".join(r.cells.values()) for r in rows]):
         return False
-    return all(_column_reads([row.cells[term] for row in rows], is_date) for term, is_date in typed)
+    return all(
+        _column_reads([row.cells[term] for row in rows], is_date, columns.today)
+        for term, is_date in columns.typed
+    )
 
 
-def _column_reads(values: list[str], is_date: bool) -> bool:
+def _column_reads(values: list[str], is_date: bool, today: date) -> bool:
     """Whether every filled cell of a date or number column reads as one."""
     filled = [value for value in values if value]
     try:
         if is_date:
-            [date.fromisoformat(value[:10]) for value in filled]
+            [read_date(value, today) for value in filled]
         else:
             list(map(float, filled))
-    except ValueError:
+    except ValueError:  # DateProblem is one
         return False
     return True
 
 
-def _reads(value: str, is_date: bool) -> bool:
+def _reads(value: str, is_date: bool, today: date) -> bool:
     """Whether a (stripped) cell reads as the date or number its column holds."""
     try:
-        date.fromisoformat(value[:10]) if is_date else float(value)
+        read_date(value, today) if is_date else float(value)
     except ValueError:
         return False
     return True
+
+
+# The chronostratigraphic terms: a name the chart does not have is kept as typed with a
+# warning (tracker computes with none of them: they are stored and exported as given);
+# an earliest unit wholly after its latest is refused, since the pair contradicts itself.
+_CHRONO_TERMS = frozenset(term for pair in TERM_PAIRS for term in pair[:2])
+
+
+def _chrono_checks(
+    cells: dict[str, str], present: list[str], problems: list[str], warnings: list[str]
+) -> None:
+    """A row's chart names checked: unknown ones warned of, a reversed pair a problem."""
+    for term in present:
+        said = _chart_warning(term, cells[term]) if cells[term] else None
+        if said is not None:
+            warnings.append(said)
+    for earliest, latest, _ in TERM_PAIRS:
+        if cells.get(earliest) and cells.get(latest):
+            said = range_problem(cells[earliest], cells[latest])
+            if said is not None:
+                problems.append(f"columns {earliest} and {latest}: {said}")
+
+
+@lru_cache(maxsize=1024)  # one text for a name every row repeats, held once
+def _chart_warning(term: str, name: str) -> str | None:
+    said = name_problem(term, name)
+    return None if said is None else f"column {term}: {name!r} {said}; kept as typed"
+
+
+# How a warning about a date kept as typed ends (told apart from a refusal by it).
+_KEPT = "; kept as typed"
+
+
+def _typed_problem(term: str, value: str, is_date: bool, today: date) -> str:
+    """Why a date or number cell does not read, said at its column.
+
+    A decimal comma (12,5) is not read as a number: as 12.5 or as 125 it would be a
+    guess, so it is said to be no number like any other text.
+    """
+    where = f"column {term}: {value!r}"
+    if not is_date:
+        return f"{where} is not a number (write decimals with a point: 12.5)"
+    try:
+        read_date(value, today)
+    except DateProblem as problem:
+        kept = _KEPT if problem.unreadable and term not in STRICT_DATE_TERMS else ""
+        return f"{where} {problem.reason}{kept}"
+    return f"{where} is not a date"  # not reached: the caller found it unreadable
 
 
 def _cell_problems(term: str, value: str) -> list[str]:
-    where = f"column {term}"
-    if looks_like_formula(value):
-        return [f"{where}: {value[:30]!r} looks like a spreadsheet formula"]
-    if term in DATE_TERMS and value.strip():
-        try:
-            date.fromisoformat(value.strip()[:10])
-        except ValueError:
-            return [f"{where}: {value!r} is not an ISO 8601 date (YYYY-MM-DD)"]
-    if term in NUMBER_TERMS and value.strip():
-        try:
-            float(value)
-        except ValueError:
-            return [f"{where}: {value!r} is not a number"]
+    if is_formula_cell(value):
+        shown = value.removeprefix(FORMULA_MARK)[:30]
+        return [f"column {term}: {shown!r} is a spreadsheet formula (export values, not formulas)"]
     return []
 
 
@@ -393,33 +478,17 @@ def _said(error: Any) -> str:
 _ROW_RESULTS = TypeAdapter(list[RowResult])
 
 
-def _result(
-    number: int,
-    catalog: str,
-    problems: list[str],
-    fields: Fields | None,
-    existing: Mapping[str, Specimen],
-) -> dict[str, Any]:
+def _result(row: CheckedRow, existing: Mapping[str, Specimen]) -> dict[str, Any]:
     """A row's result, as the fields of its RowResult."""
-    if problems or fields is None:
-        return {
-            "row": number,
-            "catalog_number": catalog or None,
-            "action": "error",
-            "problems": problems,
-        }
-    current = existing.get(catalog)
+    said = {"row": row.number, "problems": row.problems, "warnings": row.warnings}
+    if row.problems or row.fields is None:
+        return {**said, "catalog_number": row.catalog or None, "action": "error"}
+    current = existing.get(row.catalog)
     if current is None:
-        return {"row": number, "catalog_number": catalog, "action": "create", "problems": []}
-    changes = _changes(current, fields)
+        return {**said, "catalog_number": row.catalog, "action": "create"}
+    changes = _changes(current, row.fields)
     action = "update" if changes else "unchanged"
-    return {
-        "row": number,
-        "catalog_number": catalog,
-        "action": action,
-        "problems": [],
-        "changes": changes,
-    }
+    return {**said, "catalog_number": row.catalog, "action": action, "changes": changes}
 
 
 def _changes(current: Specimen, fields: Fields) -> dict[str, list[Any]]:

@@ -33,6 +33,7 @@ from tracker.domain.facts import Stated, rows_facts
 from tracker.domain.ids import Kind, format_id
 from tracker.domain.models import Loan, LoanStatus, MappingProfile, Specimen, SpecimenStatus
 from tracker.domain.spreadsheets import Row, Table, TableError, read_table
+from tracker.domain.timeutil import as_utc
 from tracker.services.core.common import finish
 from tracker.services.core.inputs import Name, Raw, Request, parse
 from tracker.services.core.lookup import get_loan
@@ -67,6 +68,9 @@ class ManifestMapping(Request):
 
 
 Term = Annotated[str, Field(max_length=4000)]
+# How an eventDate starts (the schema's hint; the importer reads it whole, `dwc_dates`):
+# 1937, 1937-01, 1937-01-05, then a time (T...) or an interval's end (/...), or nothing.
+_ISO_DATE_START = r"^\d{4}(-\d{2}(-\d{2})?)?([T/]|$)"
 
 
 class ManifestRecord(BaseModel):
@@ -87,7 +91,8 @@ class ManifestRecord(BaseModel):
     formation: Term | None = None
     earliestEpochOrLowestSeries: Term | None = None  # noqa: N815
     latestEpochOrHighestSeries: Term | None = None  # noqa: N815
-    eventDate: Annotated[str, Field(pattern=r"^\d{4}-\d{2}-\d{2}")] | None = None  # noqa: N815
+    # ISO 8601 as Darwin Core takes it: 1937, 1937-01, 1937-01-05, a date-time, an interval
+    eventDate: Annotated[str, Field(pattern=_ISO_DATE_START)] | None = None  # noqa: N815
     decimalLatitude: Annotated[float, Field(ge=-90, le=90)] | None = None  # noqa: N815
     decimalLongitude: Annotated[float, Field(ge=-180, le=180)] | None = None  # noqa: N815
     ageMinMa: Annotated[float, Field(ge=0, le=4600)] | None = None  # noqa: N815
@@ -167,7 +172,7 @@ def save_mapping(db: Database, actor: str | None, data: NewMapping | Raw) -> Don
 def preview_manifest(db: Database, data: ManifestRequest | Raw) -> ManifestPreview:
     """Everything the import would do, and every problem, row by row. Writes nothing."""
     request = parse(ManifestRequest, data)
-    reading = _read_file(request, _saved_mapping(db, request))
+    reading = _read_file(db, request, _saved_mapping(db, request))
     with db.read_session() as session:
         return _examine(session, request, reading).preview
 
@@ -186,11 +191,11 @@ def import_manifest(
 
 def _import(db: Database, actor: str | None, request: ManifestRequest) -> ManifestOutcome:
     mapping = _saved_mapping(db, request)
-    reading = _read_file(request, mapping)  # the whole file, before the lock
+    reading = _read_file(db, request, mapping)  # the whole file, before the lock
     with unit_of_work(db, actor, "import lender manifest") as uow:
         current = _mapping(uow.session, request.mapping)
         if current != mapping:  # saved anew meanwhile: read the file as it says now
-            reading = _read_file(request, current)
+            reading = _read_file(db, request, current)
         examined = _examine(uow.session, request, reading)
         preview = examined.preview
         if not preview.clean:
@@ -209,6 +214,9 @@ def _import(db: Database, actor: str | None, request: ManifestRequest) -> Manife
             "updated": {r.catalog_number: r.changes for r in preview.rows if r.action == "update"},
             "unchanged": preview.unchanged,
         }
+        warned = [r.catalog_number for r in preview.rows if r.warnings]
+        if warned:  # rows that keep a value as typed though it does not read (a legacy date):
+            payload["kept_with_warnings"] = warned  # each warning is said again from its value
         done = finish(uow, "manifest.imported", loan, payload, lambda: preview)
     return ManifestOutcome(
         preview=preview, created=created, updated=updated, event_seq=done.event_seq
@@ -263,7 +271,7 @@ def _table(request: ManifestRequest, mapping: ManifestMapping) -> tuple[Table, l
 
     Every reader's headings go through one spelling of the terms (``term_headings``).
     """
-    fmt = mapping.format if request.mapping else _format_of(request.filename)
+    fmt = _table_format(request, mapping)
     mapped = {heading: term for term, heading in mapping.columns.items()}
     not_imported: list[str] = []
     with _as_input(request.filename):
@@ -314,6 +322,11 @@ def _as_input(filename: str) -> Iterator[None]:
         raise InputError(where, None, exc.reason) from None
 
 
+def _table_format(request: ManifestRequest, mapping: ManifestMapping) -> str:
+    """csv, tsv or xlsx: as a saved mapping says, else as the file's name ends."""
+    return mapping.format if request.mapping else _format_of(request.filename)
+
+
 def _format_of(filename: str) -> str:
     lower = filename.lower()
     return (
@@ -341,11 +354,15 @@ class _Reading:
         return rows_per_slice(len(self.header))
 
 
-def _read_file(request: ManifestRequest, mapping: ManifestMapping) -> _Reading:
+def _read_file(db: Database, request: ManifestRequest, mapping: ManifestMapping) -> _Reading:
+    """The file read and checked; a date may start no later than today (UTC) by the db's clock."""
     (header, rows), not_imported = _table(request, mapping)
     problems = header_problems(header)
     digest = hashlib.sha256(request.content).hexdigest()
-    return _Reading(header, problems, check_file(header, rows, problems), digest, not_imported)
+    today = as_utc(db.clock()).date()
+    workbook = _table_format(request, mapping) == "xlsx" and not is_archive(request.content)
+    checked = check_file(header, rows, problems, today, workbook=workbook)
+    return _Reading(header, problems, checked, digest, not_imported)
 
 
 @dataclass(frozen=True)

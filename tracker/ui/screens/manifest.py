@@ -178,6 +178,4 @@ def _summary(preview: ManifestPreview) -> Text:
 
 
 def _detail(row: RowResult) -> str:
-    if row.problems:
-        return "; ".join(row.problems)
-    return "; ".join(f"{field}: {old!r} → {new!r}" for field, (old, new) in row.changes.items())
+    return row.detail()
