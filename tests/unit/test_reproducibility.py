@@ -6,6 +6,8 @@ from datetime import date
 
 import numpy
 import pytest
+from hypothesis import given
+from hypothesis import strategies as st
 
 from tracker.domain.reproducibility import (
     MIN_SESSIONS,
@@ -39,6 +41,17 @@ def test_each_session_is_judged_by_the_others_alone() -> None:
     # 0.62 lies within their mean ± 2SD
     everyone = long_term(means)
     assert everyone is not None and everyone.within(0.62)
+
+
+@given(st.lists(st.floats(-5, 5, allow_nan=False), min_size=MIN_SESSIONS + 1, max_size=40))
+def test_each_leave_one_out_matches_numpy_on_the_others(means: list[float]) -> None:
+    # numpy as the reference: mean and 2·SD (ddof = 1) of the list without that session
+    for index, (others, within) in enumerate(judged_by_the_others(means)):
+        rest = means[:index] + means[index + 1 :]
+        assert others is not None and others.sessions == len(rest)
+        assert others.mean == pytest.approx(float(numpy.mean(rest)), abs=1e-9)
+        assert others.two_sd == pytest.approx(2 * float(numpy.std(rest, ddof=1)), abs=1e-6)
+        assert within is (abs(means[index] - others.mean) <= others.two_sd)
 
 
 def test_too_few_other_sessions_judge_nothing() -> None:

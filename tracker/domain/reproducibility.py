@@ -18,6 +18,7 @@ Two uses, both common practice in isotope labs:
 
 from __future__ import annotations
 
+import math
 import statistics
 from collections.abc import Sequence
 from dataclasses import dataclass
@@ -52,11 +53,25 @@ def long_term(means: Sequence[float]) -> LongTerm | None:
 
 def judged_by_the_others(means: Sequence[float]) -> list[tuple[LongTerm | None, bool | None]]:
     """For each session mean, the long-term statistics of the *other* sessions and whether
-    the mean lies within their mean ± 2SD (None while the others are too few)."""
+    the mean lies within their mean ± 2SD (None while the others are too few).
+
+    Each leave-one-out mean and SD comes from the whole set's centred sums in constant time
+    (a lab's record holds thousands of sessions): with m and SS the mean and the sum of
+    squared deviations of all n, leaving xᵢ out gives the mean (n·m − xᵢ)/(n − 1) and the
+    sum of squares SS − (xᵢ − m)²·n/(n − 1) (the update of Welford's and Chan's formulas).
+    """
+    n = len(means)
+    if n - 1 < MIN_SESSIONS:
+        return [(None, None)] * n
+    mean = math.fsum(means) / n
+    squares = math.fsum((x - mean) ** 2 for x in means)
     judged: list[tuple[LongTerm | None, bool | None]] = []
-    for index, value in enumerate(means):
-        others = long_term([m for number, m in enumerate(means) if number != index])
-        judged.append((others, None if others is None else others.within(value)))
+    for value in means:
+        deviation = value - mean
+        others_mean = mean - deviation / (n - 1)
+        others_squares = max(0.0, squares - deviation * deviation * n / (n - 1))
+        others = LongTerm(others_mean, 2 * math.sqrt(others_squares / (n - 2)), n - 1)
+        judged.append((others, others.within(value)))
     return judged
 
 
