@@ -1,9 +1,12 @@
 """Cells a spreadsheet would execute: detected on the way in, neutralised on the way out.
 
 A text cell that begins with =, +, -, @, a tab or a carriage return may be run as a
-formula when the file is opened in a spreadsheet (the "CSV injection" problem). On
-import such a cell is reported as a problem; on export it is prefixed with an
-apostrophe, which spreadsheets show as text. Numbers (-12.5, +3) are left alone.
+formula when the file is opened in a spreadsheet (the "CSV injection" problem). Such
+text is ordinary on the way in ("- 5 km N of the quarry", "@team") and kept as typed;
+only a workbook's live formula cell (whose value the file does not hold) is reported.
+On the way out a CSV cell of such text is prefixed with an apostrophe, which spreadsheets
+show as text; an XLSX cell is written as a string cell instead. Numbers (-12.5, +3) are
+left alone.
 """
 
 from __future__ import annotations
