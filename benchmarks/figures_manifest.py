@@ -28,7 +28,7 @@ from tracker.db.database import open_database
 from tracker.demo import StepClock
 from tracker.domain.ids import Kind, format_id
 from tracker.services.loans import lending, manifests
-from tracker.services.loans.manifest_rows import OWN_FIELDS, TERM_FIELDS
+from tracker.services.loans.manifest_terms import OWN_FIELDS, TERM_FIELDS
 
 ROWS = 20_000
 # Darwin Core term -> specimen column, as tracker reads them (the floor writes the same)

@@ -26,7 +26,8 @@ from tracker.services.instrument.results import SpecimenResult
 from tracker.services.instrument.screening import Screening
 from tracker.services.instrument.sessions import ProfileDefinition, SessionView
 from tracker.services.ledger.chain import AnchorFile, LedgerLine
-from tracker.services.loans.manifests import ManifestMapping, ManifestPreview, ManifestRecord
+from tracker.services.loans.manifest_terms import record_model
+from tracker.services.loans.manifests import ManifestMapping, ManifestPreview
 from tracker.services.loans.planning import Plan
 from tracker.services.read.lineage import ItemDetail
 from tracker.services.read.reconcile import LoanLine
@@ -109,7 +110,7 @@ DOCUMENTS: dict[str, tuple[str, str, Callable[[], dict[str, Any]]]] = {
         "manifest row",
         "One row of a lender's specimen list "
         "(Darwin Core terms), read by `tracker manifest import`.",
-        _of(ManifestRecord),
+        _of(record_model()),
     ),
     "manifest-mapping.schema.json": (
         "manifest mapping",

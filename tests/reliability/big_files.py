@@ -18,7 +18,7 @@ from xml.sax.saxutils import escape
 
 from PIL import Image
 
-from tracker.services.loans.manifest_rows import OWN_FIELDS, TERM_FIELDS
+from tracker.services.loans.manifest_terms import OWN_FIELDS, TERM_FIELDS
 
 # The columns a specimen row keeps, as tracker names them: the file builders take the
 # product's list so a big lender list exercises every specimen column; what the tests

@@ -30,32 +30,17 @@ from tracker.domain.spreadsheets import Row
 from tracker.domain.text_rules import TextProblem, accept, nfc
 from tracker.services.core.inputs import TextRefused
 from tracker.services.core.views import View
+from tracker.services.loans.manifest_terms import (
+    DATE_TERMS,
+    NUMBER_TERMS,
+    OWN_FIELDS,
+    REQUIRED,
+    STRICT_DATE_TERMS,
+    TERM_FIELDS,
+    outside,
+)
 from tracker.services.loans.specimens import NewSpecimen
 
-# Darwin Core terms (TDWG standard) that become specimen columns; the rest go to `extra`.
-TERM_FIELDS = {
-    "catalogNumber": "catalog_number",
-    "institutionCode": "institution_code",
-    "collectionCode": "collection_code",
-    "scientificName": "scientific_name",
-    "preparations": "skeletal_element",
-    "locality": "locality",
-    "formation": "formation",
-    "earliestEpochOrLowestSeries": "earliest_epoch",
-    "latestEpochOrHighestSeries": "latest_epoch",
-}
-# tracker's own headings for what Darwin Core does not define (numeric ages in Ma)
-OWN_FIELDS = {"ageMinMa": "age_min_ma", "ageMaxMa": "age_max_ma"}
-# Darwin Core date terms, read whole as ISO 8601 (`tracker.domain.dwc_dates`) and kept as typed.
-# eventDate must read: it is the date Darwin Core readers sort and filter specimens by,
-# and the row schema has always promised it as a date. tracker computes with none of the
-# others; a legacy text in one of them that is no ISO 8601 date (12/03/1987) is kept as
-# typed, with a warning on its row. Any date that reads but cannot be right (an interval
-# ending before it starts, a date after today) is refused in every date term.
-DATE_TERMS = ("eventDate", "dateIdentified", "georeferencedDate")
-STRICT_DATE_TERMS = frozenset({"eventDate"})
-NUMBER_TERMS = ("decimalLatitude", "decimalLongitude", "ageMinMa", "ageMaxMa")
-REQUIRED = "catalogNumber"
 # A refusal of a specimen field's text names the file's column it came from.
 _COLUMN_OF_FIELD = {
     field.replace("_", "-"): term for term, field in {**TERM_FIELDS, **OWN_FIELDS}.items()
@@ -289,7 +274,7 @@ def _first_checks(
             problems += _cell_problems(term, value)
     for term, is_date in columns.typed:
         value = cells[term]
-        if value and not _reads(value, is_date, columns.today):
+        if value and not _reads(term, value, is_date, columns.today):
             said = _typed_problem(term, value, is_date, columns.today)
             unreadable = is_date and term not in STRICT_DATE_TERMS and said.endswith(_KEPT)
             (warnings if unreadable else problems).append(said)
@@ -321,31 +306,34 @@ def _cells_all_read(rows: list[Row], columns: _Columns) -> bool:
     if columns.formulas and FORMULA_MARK in "".join(["".join(r.cells.values()) for r in rows]):
         return False
     return all(
-        _column_reads([row.cells[term] for row in rows], is_date, columns.today)
+        _column_reads(term, [row.cells[term] for row in rows], is_date, columns.today)
         for term, is_date in columns.typed
     )
 
 
-def _column_reads(values: list[str], is_date: bool, today: date) -> bool:
-    """Whether every filled cell of a date or number column reads as one."""
+def _column_reads(term: str, values: list[str], is_date: bool, today: date) -> bool:
+    """Whether every filled cell of a date or number column reads as one (a number within
+    its term's range)."""
     filled = [value for value in values if value]
     try:
         if is_date:
             [read_date(value, today) for value in filled]
-        else:
-            list(map(float, filled))
+            return True
+        numbers = list(map(float, filled))
     except ValueError:  # DateProblem is one
         return False
-    return True
+    return not any(outside(term, number) for number in numbers)
 
 
-def _reads(value: str, is_date: bool, today: date) -> bool:
+def _reads(term: str, value: str, is_date: bool, today: date) -> bool:
     """Whether a (stripped) cell reads as the date or number its column holds."""
     try:
-        read_date(value, today) if is_date else float(value)
+        if is_date:
+            read_date(value, today)
+            return True
+        return outside(term, float(value)) is None
     except ValueError:
         return False
-    return True
 
 
 # The chronostratigraphic terms: a name the chart does not have is kept as typed with a
@@ -387,7 +375,11 @@ def _typed_problem(term: str, value: str, is_date: bool, today: date) -> str:
     """
     where = f"column {term}: {value!r}"
     if not is_date:
-        return f"{where} is not a number (write decimals with a point: 12.5)"
+        try:
+            said = outside(term, float(value))
+        except ValueError:
+            return f"{where} is not a number (write decimals with a point: 12.5)"
+        return f"{where} {said}"
     try:
         read_date(value, today)
     except DateProblem as problem:

@@ -20,7 +20,7 @@ from contextlib import contextmanager
 from dataclasses import dataclass
 from typing import Annotated, Any, Literal
 
-from pydantic import BaseModel, ConfigDict, Field
+from pydantic import Field
 from sqlalchemy import select
 from sqlalchemy.orm import Session, undefer
 
@@ -40,8 +40,6 @@ from tracker.services.core.lookup import get_loan
 from tracker.services.core.uow import UnitOfWork, unit_of_work
 from tracker.services.core.views import Done, View
 from tracker.services.loans.manifest_rows import (
-    OWN_FIELDS,
-    TERM_FIELDS,
     CheckedRow,
     Fields,
     check_file,
@@ -51,6 +49,7 @@ from tracker.services.loans.manifest_rows import (
     unpacked,
 )
 from tracker.services.loans.manifest_rows import RowResult as RowResult
+from tracker.services.loans.manifest_terms import OWN_FIELDS, TERM_FIELDS
 
 MAX_ROWS = 100_000
 # New specimens are inserted by the driver's executemany (no ORM object per row).
@@ -65,38 +64,6 @@ class ManifestMapping(Request):
     sheet: str | None = None
     header_row: Annotated[int, Field(ge=1, le=100)] = 1
     columns: dict[str, str] = Field(default_factory=dict)  # term -> heading in the file
-
-
-Term = Annotated[str, Field(max_length=4000)]
-# How an eventDate starts (the schema's hint; the importer reads it whole, `dwc_dates`):
-# 1937, 1937-01, 1937-01-05, then a time (T...) or an interval's end (/...), or nothing.
-_ISO_DATE_START = r"^\d{4}(-\d{2}(-\d{2})?)?([T/]|$)"
-
-
-class ManifestRecord(BaseModel):
-    """One row of a lender's list, as Darwin Core terms (TDWG) plus tracker's numeric ages.
-
-    Any other Darwin Core term may appear too; it is kept with the specimen. This model
-    documents the row for the schema in schemas/; rows are checked by `manifest_rows`.
-    """
-
-    model_config = ConfigDict(extra="allow")
-
-    catalogNumber: Annotated[str, Field(min_length=1, max_length=80)]  # noqa: N815
-    institutionCode: Term | None = None  # noqa: N815
-    collectionCode: Term | None = None  # noqa: N815
-    scientificName: Term | None = None  # noqa: N815
-    preparations: Term | None = None
-    locality: Term | None = None
-    formation: Term | None = None
-    earliestEpochOrLowestSeries: Term | None = None  # noqa: N815
-    latestEpochOrHighestSeries: Term | None = None  # noqa: N815
-    # ISO 8601 as Darwin Core takes it: 1937, 1937-01, 1937-01-05, a date-time, an interval
-    eventDate: Annotated[str, Field(pattern=_ISO_DATE_START)] | None = None  # noqa: N815
-    decimalLatitude: Annotated[float, Field(ge=-90, le=90)] | None = None  # noqa: N815
-    decimalLongitude: Annotated[float, Field(ge=-180, le=180)] | None = None  # noqa: N815
-    ageMinMa: Annotated[float, Field(ge=0, le=4600)] | None = None  # noqa: N815
-    ageMaxMa: Annotated[float, Field(ge=0, le=4600)] | None = None  # noqa: N815
 
 
 class ManifestPreview(View):
