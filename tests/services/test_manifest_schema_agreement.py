@@ -14,6 +14,7 @@ from datetime import date
 from pathlib import Path
 from typing import Any
 
+import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 from jsonschema import Draft202012Validator
@@ -97,3 +98,26 @@ def test_the_checks_and_the_schema_give_one_verdict(catalog: str, cells: dict[st
     (checked,) = check_file(header, [Row(2, row)], header_problems(header), TODAY, workbook=False)
     schema_errors = [e.message for e in Draft202012Validator(SCHEMA).iter_errors(as_json(row))]
     assert (not checked.problems) == (not schema_errors), (row, checked.problems, schema_errors)
+
+
+BAD_ROWS = [
+    ({"institutionCode": "x" * 41}, "institutionCode", "is longer than 40 characters"),
+    ({"catalogNumber": "A" * 81}, "catalogNumber", "is longer than 80 characters"),
+    ({"ageMaxMa": "5000"}, "ageMaxMa", "5000 is above 4600"),
+    ({"ageMaxMa": "-1.5"}, "ageMaxMa", "-1.5 is below 0"),
+    ({"ageMinMa": "5", "ageMaxMa": "3"}, "ageMinMa", "is older than the oldest age"),
+    ({"decimalLatitude": "91"}, "decimalLatitude", "is outside -90 to 90"),
+    ({"decimalLongitude": "12,5"}, "decimalLongitude", "is not a number"),
+]
+
+
+@pytest.mark.parametrize(("cells", "heading", "reason"), BAD_ROWS)
+def test_a_refusal_names_the_file_s_heading_in_plain_words(
+    cells: dict[str, str], heading: str, reason: str
+) -> None:
+    row = {"catalogNumber": "KFM P 1", **cells}
+    (checked,) = check_file(list(row), [Row(2, row)], [], TODAY, workbook=False)
+    (problem,) = checked.problems
+    assert problem.startswith(f"column {heading}: ") and reason in problem, problem
+    # never a field's internal name, nor the validation library's own wording
+    assert "_" not in problem.split(":")[0] and "should" not in problem

@@ -224,10 +224,15 @@ def parse(model: type[R], data: R | Raw) -> R:
             field, given = _file_field(field), _file_name(data, first["loc"])
         if isinstance(given, dict):
             given = None
-        reason = _PLAIN_REASONS.get(first["type"], first["msg"].removeprefix("Value error, "))
-        if first["type"] == "bytes_too_long":
-            reason = f"is larger than {first.get('ctx', {}).get('max_length', 0):,} bytes: refused"
-        raise InputError(field.replace("_", "-"), given, reason) from None
+        raise InputError(field.replace("_", "-"), given, plain_reason(first)) from None
+
+
+def plain_reason(error: Mapping[str, Any]) -> str:
+    """Why pydantic refused a value, worded for a person (its own wording as a last resort)."""
+    kind, limits = error["type"], error.get("ctx", {})
+    if kind in _LIMIT_REASONS:
+        return _LIMIT_REASONS[kind].format(**limits)
+    return _PLAIN_REASONS.get(kind, str(error["msg"]).removeprefix("Value error, "))
 
 
 def _file_name(data: object, loc: tuple[int | str, ...]) -> str | None:
@@ -254,6 +259,17 @@ def _blamed_field(blamed: FieldProblem, loc: tuple[int | str, ...]) -> str:
     return ".".join([*(str(part).replace("_", "-") for part in loc), blamed.field])
 
 
+# Pydantic's refusals of a value beyond a limit, with the limit (its ``ctx``) in the words.
+_LIMIT_REASONS = {
+    "string_too_long": "is longer than {max_length} characters",
+    "string_too_short": "is shorter than {min_length} character(s)",
+    "bytes_too_long": "is larger than {max_length:,} bytes: refused",
+    "less_than_equal": "is above {le:g}, the most it may be",
+    "less_than": "must be below {lt:g}",
+    "greater_than_equal": "is below {ge:g}, the least it may be",
+    "greater_than": "must be above {gt:g}",
+    "too_long": "has more than {max_length} entries",
+}
 # Pydantic's wording for the commonest slips, said the way a bench form would say it.
 _PLAIN_REASONS = {
     "datetime_parsing": "is not a date and time; write ISO 8601 with a zone: 2026-03-04T09:15Z",

@@ -28,7 +28,7 @@ from tracker.domain.formula_cells import FORMULA_MARK, is_formula_cell, looks_li
 from tracker.domain.models import Specimen
 from tracker.domain.spreadsheets import Row
 from tracker.domain.text_rules import TextProblem, accept, nfc
-from tracker.services.core.inputs import TextRefused
+from tracker.services.core.inputs import TextRefused, plain_reason
 from tracker.services.core.views import View
 from tracker.services.loans.manifest_terms import (
     DATE_TERMS,
@@ -456,14 +456,25 @@ def unpacked(fields: Fields) -> Fields:
 
 
 def _said(error: Any) -> str:
-    """A validation error as the preview says it: the field (or who is blamed) and why."""
+    """A validation error as the preview says it: at the file's column where the field came
+    from one (else the field, or who is blamed), with the value and why."""
     blamed = error.get("ctx", {}).get("error")
     if isinstance(blamed, TextRefused):  # said at the cell, as the other cell problems are
         column = _COLUMN_OF_FIELD.get(blamed.field) or blamed.field.removeprefix("extra.")
         return f"column {column}: {blamed.value!r} {blamed.reason}"
-    reason = getattr(blamed, "reason", None) or error["msg"]
-    where = getattr(blamed, "field", None) or ".".join(str(p) for p in error["loc"][1:])
-    return f"{where}: {reason}"
+    reason = getattr(blamed, "reason", None) or plain_reason(error)
+    field = str(getattr(blamed, "field", None) or ".".join(str(p) for p in error["loc"][1:]))
+    heading = _COLUMN_OF_FIELD.get(field.replace("_", "-"))
+    if heading is None:
+        return f"{field}: {reason}"
+    given = getattr(blamed, "value", error.get("input"))
+    if isinstance(given, float):
+        return f"column {heading}: {given:g} {reason}"
+    return (
+        f"column {heading}: {given!r} {reason}"
+        if isinstance(given, str)
+        else f"column {heading}: {reason}"
+    )
 
 
 # The preview's rows are validated in one call (a list adapter), not one call per row.
