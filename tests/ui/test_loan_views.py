@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import io
 import re
+from itertools import pairwise
 
 from rich.console import Console
 from sqlalchemy import select
@@ -121,6 +122,52 @@ async def test_results_per_specimen_and_another_scale_chosen_with_keys(lab: Lab)
         await until(pilot, lambda: SEAWATER in on_screen(listing))
         assert chooser.value == SEAWATER
         assert_shows(on_screen(listing), converted)
+
+
+async def test_every_delta_put_on_one_ratio_chosen_with_keys(lab: Lab) -> None:
+    db = lab.open()
+    try:
+        offered = results.ratios(db, MDGC)
+        converted = results.results(db, MDGC, None, "44/40", "equilibrium")
+    finally:
+        db.close()
+    moved = [r for r in converted if r.converted_from is not None]
+    assert "44/40" in offered and moved  # the premise: δ44/42 results to put on 44/40
+    async with lab.app().run_test(size=(80, 24)) as pilot:
+        loan = await open_loan(pilot, 0)
+        await pilot.press("4")
+        listing = loan.query_one("#results-list", Static)
+        await until(pilot, lambda: "SP-" in on_screen(listing))
+        assert "←" not in on_screen(listing)  # as measured: nothing converted
+        await pilot.press("r")  # the ratio chooser opens over the list
+        await settle(pilot)
+        chooser = loan.query_one("#results-ratio", Select)
+        assert chooser.expanded and chooser.has_focus_within
+        # options: each δ on its own ratio, then each offered ratio by each law
+        index = 1 + 2 * offered.index("44/40") + 1  # the equilibrium law of 44/40
+        await pilot.press(*(["down"] * index), "enter")
+        await until(pilot, lambda: "←" in on_screen(listing))
+        assert chooser.value == "44/40 equilibrium"
+        shown = on_screen(listing)
+        assert "equilibrium law" in shown  # the note under the list names the law and k
+        lines = converted_lines(shown)
+        assert len(lines) == len(moved)
+        for r in moved:  # each converted δ on screen, to the places shown, with its unit
+            assert any(
+                specimen == r.specimen and close_to(value.removesuffix(" ‰"), r.value)
+                for specimen, value in lines
+            ), r
+
+
+def converted_lines(text: str) -> list[tuple[str, str]]:
+    """(specimen, value) of each list row whose ratio cell says it was converted (the row's
+    second line holds ``← 44/42``)."""
+    found = []
+    for line, below in pairwise(text.splitlines()):
+        cells = re.split(r" {3,}", line.strip())
+        if cells[0].startswith("SP-") and "← 44/42" in below:
+            found.append((cells[0], cells[2]))
+    return found
 
 
 async def test_the_scales_offered_are_the_services(lab: Lab) -> None:

@@ -25,6 +25,9 @@ from tracker.domain.delta import coverage_95
 
 Law = Literal["exponential", "equilibrium"]
 LAWS: tuple[Law, ...] = ("exponential", "equilibrium")
+# The ratio an element's δ is usually reported on (common practice: δ44/40Ca, the larger
+# spread; labs measuring 44/42 convert to it to compare with the literature).
+REPORTED_RATIO = {"Ca": "44/40"}
 
 ISOTOPE_MASS: dict[str, dict[int, float]] = {
     "Ca": {

@@ -363,7 +363,7 @@ class TrackerApp(KeyRouting):
             self.tell("Open a loan (F2, Enter) and press R for its return report.")
 
     def action_loan_view(self, view: str) -> None:
-        """One of a loan's views (plan, results, scale, screening) on the loan on screen."""
+        """One of a loan's views (plan, results, scale, ratio, screening) on the loan on screen."""
         from tracker.ui.screens.loan import LoanScreen
 
         if isinstance(self.screen, LoanScreen):
@@ -602,6 +602,11 @@ PALETTE: list[tuple[str, str, str]] = [
         "Results on another scale",
         "On a loan: choose a reference scale with accepted values (key v)",
         "loan_view('scale')",
+    ),
+    (
+        "Results on another ratio",
+        "On a loan: every δ on one ratio by a mass-dependent law (key r)",
+        "loan_view('ratio')",
     ),
     (
         "Sr age screening of a loan",

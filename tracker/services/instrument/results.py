@@ -20,7 +20,15 @@ from sqlalchemy.orm import Session
 from tracker.db.database import Database
 from tracker.domain.delta import change_scale, invert
 from tracker.domain.errors import InputError, NotFound, RuleViolation
-from tracker.domain.isotopes import ISOTOPE_MASS, LAWS, Law, convert_delta, has_ratio, parse_ratio
+from tracker.domain.isotopes import (
+    ISOTOPE_MASS,
+    LAWS,
+    REPORTED_RATIO,
+    Law,
+    convert_delta,
+    has_ratio,
+    parse_ratio,
+)
 from tracker.domain.models import (
     Aliquot,
     BatchPosition,
@@ -209,6 +217,23 @@ def scales(db: Database, loan: str) -> list[str]:
         for name, ratio, scale in session.execute(accepted):
             known.setdefault(name, set()).add((ratio, scale))
     return sorted(name for name, pairs in known.items() if needed & pairs)
+
+
+def ratios(db: Database, loan: str) -> list[str]:
+    """The ratios a loan's δ can be shown on by a mass-dependent law: those its δ were
+    measured on, and the ratio its elements are usually reported on (δ44/40 for calcium,
+    common practice) when that was not measured (an instrument that cannot see ⁴⁰Ca)."""
+    with db.read_session() as session:
+        loan_id = get_loan(session, "loan", loan).id
+        measured = _to_specimen(
+            select(Result.ratio, InstrumentSession.element)
+            .join(InstrumentSession, Result.session_id == InstrumentSession.id)
+            .distinct()
+        ).where(Specimen.loan_id == loan_id, Result.kind == "delta")
+        found = {(ratio, element) for ratio, element in session.execute(measured)}
+    offered = {ratio for ratio, _ in found}
+    offered |= {REPORTED_RATIO[e] for _, e in found if e in REPORTED_RATIO}
+    return sorted(offered)
 
 
 def _anchors(session: Session, scale: str) -> dict[tuple[str, str], ReferenceValue]:

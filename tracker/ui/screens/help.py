@@ -91,9 +91,12 @@ kept for concentration, the smallest powder worth drilling. An empty field takes
 shown beside its label; Ctrl+S shows the plan on the Plan tab; p again keeps what you typed.
 
 **Results** (**4**): each specimen's results, value ± 2SD and n, on the scale each session
-measured on. **v** opens the scale chooser: pick a reference material whose accepted values
-cover every δ of the loan (on the demo's brachiopod loan `MDGC/LN/0457`, *Seawater
-in-house*) and the δ values are shown on its scale; ratios such as ⁸⁷Sr/⁸⁶Sr keep theirs.
+measured on. **v** opens the scale chooser: pick a reference material with accepted values
+for the loan's δ (on the demo's brachiopod loan `MDGC/LN/0457`, *Seawater in-house*) and the
+δ values are shown on its scale (one it has no value for stays as measured, flagged "no
+scale value"); ratios such as ⁸⁷Sr/⁸⁶Sr keep theirs. **r** opens the ratio chooser: every δ
+of the element on one ratio (δ44/42 put on δ44/40, say) by the exponential or equilibrium
+law, each converted value marked `← 44/42` with the law and its factor k under the list.
 
 **Sr screening** (**5**): each specimen's measured ⁸⁷Sr/⁸⁶Sr, what the loan's reference
 curve expects at its stated age, the ages the curve allows for it, and the verdict — a

@@ -49,6 +49,7 @@ class LoanScreen(TabKeys, Screen[None]):
         Binding("R", "report", "Return report", id="loan.report"),
         Binding("I", "manifest", "Manifest", id="loan.manifest"),
         Binding("v", "show_view('scale')", "Scale", id="loan.scale"),
+        Binding("r", "show_view('ratio')", "Ratio", id="loan.ratio"),
         Binding("u", "choose_curve", "Sr curve", id="loan.curve"),
         Binding("escape", "app.previous", "Back", id="loan.back"),
         *tab_keys(
@@ -198,14 +199,21 @@ class LoanScreen(TabKeys, Screen[None]):
 
     def action_show_view(self, view: str) -> None:
         """A view of the loan by name, as the palette asks for it: its plan (the options form
-        first), its results, the scale chooser over them, or its Sr screening."""
+        first), its results, the scale or ratio chooser over them, or its Sr screening."""
         if view == "plan":
             self.action_plan()
             return
-        tab = {"results": "tab-results", "scale": "tab-results", "screening": "tab-screening"}
+        tab = {
+            "results": "tab-results",
+            "scale": "tab-results",
+            "ratio": "tab-results",
+            "screening": "tab-screening",
+        }
         self.query_one("#loan-tabs", TabbedContent).active = tab[view]
         if view == "scale":
             self.query_one(ResultsPane).choose_scale()
+        if view == "ratio":
+            self.query_one(ResultsPane).choose_ratio()
 
     def action_choose_curve(self) -> None:
         """The curve chooser for this loan, its present curve chosen (if it has one)."""
