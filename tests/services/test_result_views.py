@@ -12,7 +12,7 @@ from tracker.db.database import Database
 from tracker.demo import scenario_path
 from tracker.domain.errors import RuleViolation
 from tracker.services.bench import chemistry
-from tracker.services.instrument import reduction, results, screening
+from tracker.services.instrument import reduction, results, screening, sessions
 
 CURVE = (scenario_path().parent / "instrument" / "sr-curve-INVENTED.csv").read_bytes()
 
@@ -93,3 +93,27 @@ def test_curves_are_listed_by_name_and_a_loan_knows_its_own(db: Database, counts
         table: after[table] - before[table] for table in after if after[table] != before[table]
     }
     assert changed == {"custody_event": 1, "ledger_head": 1}  # one event, no other row
+
+
+def test_the_ratios_offered_are_those_measured_and_calcium_s_usual_one(db: Database) -> None:
+    b = bench(db)
+    session = do_import(db, session_of(b.cut, [0.5, 0.6, 0.4]))
+    reduction.reduce_session(db, "tech", {"session": session})
+    loan = results.results(db)[0].loan
+    assert results.ratios(db, loan) == ["44/40", "44/42"]
+    # a loan with no δ offers nothing to convert
+    assert results.ratios(db, make.loan(db)) == []
+
+
+def test_a_loan_measured_only_on_44_42_is_offered_44_40(db: Database) -> None:
+    b = bench(db)
+    only_4442 = {
+        "format": "csv",
+        "columns": {"run_order": "Run", "sample_name": "Name", "ratios": {"44/42": "r4442"}},
+    }
+    sessions.save_profile(db, "tech", {"name": "no 40", "definition": only_4442})
+    session = do_import(db, session_of(b.cut, [0.5, 0.6, 0.4]), profile="no 40")
+    reduction.reduce_session(db, "tech", {"session": session})
+    (line,) = results.results(db)
+    assert line.ratio == "44/42"
+    assert results.ratios(db, line.loan) == ["44/40", "44/42"]  # δ44/40: how Ca is reported
