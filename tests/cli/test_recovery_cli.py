@@ -57,3 +57,17 @@ def test_an_impossible_concentration_is_refused_then_confirmed(lab: Lab) -> None
     assert float(confirmed["item"]["value_ug_per_g"]) == 4500
     history = ok_json(invoke("show", lab.solution, db=lab.path, as_json=True))["history"]
     assert history[-1]["payload"]["confirmed_implausible"]["material"] == "enamel bioapatite"
+
+
+def test_the_recovery_window_is_shown_and_set_by_a_manager_only(lab: Lab) -> None:
+    shown = ok_json(invoke("recovery-window", db=lab.path, as_json=True))
+    assert (shown["low_percent"], shown["high_percent"], shown["default"]) == (90, 110, True)
+    before = counts(lab.path)
+    refused = invoke("recovery-window", "70", "90", db=lab.path, actor=lab.technician)
+    assert refused.exit_code == 1 and counts(lab.path) == before
+    ok_json(invoke("recovery-window", "70", "90", db=lab.path, actor=lab.manager, as_json=True))
+    human = invoke("recovery-window", db=lab.path)
+    assert "70–90 %" in human.stdout and "default" not in human.stdout
+    # 75-84 % now lies within the lab's window: no flag
+    facts = ok_json(invoke("show", lab.solution, db=lab.path, as_json=True))["item"]["facts"]
+    assert facts["recoveries"][0]["outside"] is False

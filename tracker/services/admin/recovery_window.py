@@ -54,6 +54,7 @@ def _said(window: Window) -> str:
 class RecoveryWindow(View):
     low_percent: float
     high_percent: float
+    said: str  # as a person reads it: "90–110 %"
     default: bool  # the lab has not set one; tracker's default applies
 
 
@@ -74,6 +75,7 @@ def _view(window: Window, default: bool) -> RecoveryWindow:
     return RecoveryWindow(
         low_percent=round(window.low * 100, 6),
         high_percent=round(window.high * 100, 6),
+        said=window.said(),
         default=default,
     )
 
