@@ -59,7 +59,6 @@ def facts_parts(facts: ItemFacts | None) -> list[str]:
                     f"{symbol} {precision.micrograms(amount.ug, amount.u_ug)}"
                     for symbol, amount in facts.elements.items()
                 ),
-                *(f"solution's {recovery_text(r)}" for r in facts.recoveries),
             ]
         case PositionFacts():
             return _position_parts(facts)

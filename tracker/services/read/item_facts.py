@@ -110,7 +110,6 @@ class AliquotFacts(View):
     mass_g: Decimal
     mass_u_g: Decimal
     elements: dict[str, ElementAmount] = Field(default_factory=dict)  # in the aliquot
-    recoveries: list[RecoveryFacts] = Field(default_factory=list)  # its solution's
 
 
 class PositionFacts(View):
@@ -209,7 +208,6 @@ def _aliquot_facts(row: Aliquot) -> AliquotFacts:
         mass_g=row.mass_g,
         mass_u_g=row.mass_u_g,
         elements=elements,
-        recoveries=recoveries_of(row.solution),
     )
 
 
