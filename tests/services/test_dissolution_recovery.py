@@ -143,7 +143,8 @@ def test_a_confirmed_impossible_concentration_is_recorded_as_confirmed(db: Datab
         assert event is not None and event.action == "concentration.recorded"
         confirmed = json.loads(event.payload)["confirmed_implausible"]
     assert confirmed["element_ug"] == pytest.approx(390, rel=1e-9)
-    assert confirmed["most_ug"] == pytest.approx(500 * HAP_CA, rel=1e-9)
+    # the most: hydroxyapatite's Ca at the top of the default window (110 %)
+    assert confirmed["most_ug"] == pytest.approx(500 * HAP_CA * 1.10, rel=1e-9)
     assert _facts(db, solution).recoveries[0].outside
 
 
@@ -154,6 +155,15 @@ def test_a_possible_value_records_no_confirmation(db: Database) -> None:
         event = session.scalars(select(CustodyEvent).order_by(CustodyEvent.seq.desc())).first()
         assert event is not None
         assert "confirmed_implausible" not in json.loads(event.payload)
+
+
+def test_a_recovery_inside_the_window_is_never_refused(db: Database) -> None:
+    # 105 % of what stoichiometric hydroxyapatite holds: above its Ca, inside 90-110 %
+    solution = _solution(db, "hydroxyapatite", "2.000", "1.0000")
+    value = 1.05 * 2000 * HAP_CA
+    _record(db, solution, f"{value:.1f} ug/g")
+    (found,) = _facts(db, solution).recoveries
+    assert found.low == pytest.approx(1.05, rel=1e-4) and not found.outside
 
 
 def test_a_correction_to_an_impossible_value_needs_the_same_confirmation(db: Database) -> None:

@@ -1,8 +1,9 @@
 """Is a measured concentration possible? The dissolved powder's material says how much of
 the element it can hold at most (:meth:`tracker.domain.materials.Material.ceiling`).
 
-A concentration that puts more of the element in the solution than that, beyond what the
-uncertainty explains (:func:`tracker.domain.recovery.beyond_ceiling`), is almost always a
+A concentration that puts more of the element in the solution than that — beyond the top of
+the lab's recovery window (a recovery the lab accepts is never refused) and beyond what the
+uncertainty explains (:func:`tracker.domain.recovery.beyond_ceiling`) — is almost always a
 slip of the keyboard (a decimal point, µg/g for mg/g); it is refused unless the person
 confirms it, and a confirmed one says so in its ledger event.
 """
@@ -21,6 +22,7 @@ from tracker.domain.models import Powder, Solution
 from tracker.domain.precision import concentration, mass_mg, micrograms, percent
 from tracker.domain.recovery import UG_PER_MG, beyond_ceiling
 from tracker.services.admin.materials import find_material
+from tracker.services.admin.recovery_window import recovery_window
 
 
 def material_of(session: Session, powder: Powder) -> Material | None:
@@ -56,9 +58,10 @@ def require_plausible(
         Amount.of(solution.solution_mass_g, solution.solution_mass_u_g), Amount.of(*value)
     )
     powder = powder_taken(solution)
-    if not beyond_ceiling(held, powder, ceiling):
+    most = ceiling * max(1.0, recovery_window(session).high)
+    if not beyond_ceiling(held, powder, most):
         return None
-    most_ug = UG_PER_MG * powder.value * ceiling
+    most_ug = UG_PER_MG * powder.value * most
     if confirmed:
         return {"element_ug": held.value, "most_ug": most_ug, "material": material.name}
     share = held.value / (UG_PER_MG * powder.value)
