@@ -15,7 +15,7 @@ from tests.cli.conftest import future_due_day, invoke, ok_json, past_day
 MANAGER, TECH = "odile", "wenna"
 # Inputs as a person types them; expected values are computed from these below.
 DRILL_TARE, DRILL_GROSS, MICRO = "1203.557 mg", "1206.118 mg", "0.001 mg"
-TAKEN = "2.000 mg"
+TAKEN = "2.400 mg"  # 913 ug of Ca from it: 38 % Ca, which enamel can hold
 VIAL_TARE, VIAL_GROSS, ANALYTICAL = "6.3812 g", "8.3997 g", "0.1 mg"
 CONC, REL_U_PERCENT = Decimal("452.3"), Decimal("1.5")
 ALIQ_TARE, ALIQ_GROSS, FINE = "3.10214 g", "3.12537 g", "0.01 mg"

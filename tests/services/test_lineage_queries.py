@@ -43,7 +43,7 @@ def _grown(db: Database, width: int) -> Tree:
             powder = make.powder(db, specimen, "2.000")
             first.setdefault("powder", powder)
             for _ in range(width):
-                solution = make.solution(db, powder, taken="0.200 mg")
+                solution = make.solution(db, powder, grams="0.1000", taken="0.200 mg")
                 make.concentration(db, solution, "500 ug/g")
                 first.setdefault("solution", solution)
                 for _ in range(width):

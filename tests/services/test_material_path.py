@@ -194,7 +194,9 @@ def test_rounding_at_the_last_digit_is_not_an_overdraw(db: Database) -> None:
 
 
 def test_element_amounts_follow_the_concentration(db: Database) -> None:
-    solution = make.solution(db, make.powder(db, make.specimen(db, make.loan(db))), grams="2.0000")
+    # 3 mg of enamel powder: 1000 ug of Ca in it is possible (33 %; hydroxyapatite is 39.9 %)
+    powder = make.powder(db, make.specimen(db, make.loan(db)), mg="3.000")
+    solution = make.solution(db, powder, grams="2.0000")
     answer = solutions.record_concentration(
         db,
         "tech",

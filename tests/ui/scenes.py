@@ -178,6 +178,16 @@ async def _correct_concentration(pilot: Pilot[None]) -> None:
     await _item_then_form(pilot, "SO-00001-M", "correct_concentration")
 
 
+async def _concentration_refused(pilot: Pilot[None]) -> None:
+    """A value the solution's powder cannot hold, refused as a likely typo."""
+    await _item_then_form(pilot, "SO-00001-M", "concentration")
+    pilot.app.screen.query_one("#f-element", Input).value = "Ca"
+    pilot.app.screen.query_one("#f-value", Input).value = "81200 ug/g"
+    pilot.app.screen.query_one("#f-relative-uncertainty-percent", Input).value = "2"
+    await pilot.press("ctrl+s")
+    await settle(pilot)
+
+
 async def _correct_recovery(pilot: Pilot[None]) -> None:
     await _item_then_form(pilot, "CU-00004-F", "correct_recovery")
 
@@ -266,6 +276,7 @@ SCENES = [
     Scene("plan-80x24", (80, 24), _plan),
     Scene("batch-remove-refused-80x24", (80, 24), _remove_refused),
     Scene("correct-concentration-80x24", (80, 24), _correct_concentration),
+    Scene("concentration-refused-80x24", (80, 24), _concentration_refused),
     Scene("correct-recovery-80x24", (80, 24), _correct_recovery),
     Scene("specimen-photo-80x24", (80, 24), _specimen_photo),
     Scene("loan-attach-80x24", (80, 24), _loan_attach),

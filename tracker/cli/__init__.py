@@ -108,6 +108,12 @@ COMMANDS: tuple[Entry, ...] = (
         group=False,
     ),
     Entry(
+        "recovery-window",
+        "setup",
+        "Show or set (managers) the dissolution recoveries accepted without a flag.",
+        group=False,
+    ),
+    Entry(
         "demo",
         "setup",
         "Build the demo database (invented loans and specimens) and open it.",

@@ -54,6 +54,7 @@ HINTS = (
     ("loan", "mark it returned first", "`tracker loan mark-returned`"),
     ("cut", "recovery changes it", "`tracker correct recovery`"),
     ("element", "no concentration of it", "`tracker concentration`"),
+    ("value", "likely a typo", "if it is right, pass --confirm-implausible"),
     ("scale", "accepted value first", "`tracker reference value`"),
     (None, "the audit of the books lists them", "`tracker ledger audit`; --despite-discrepancies"),
 )

@@ -61,6 +61,7 @@ ACTION_WORDS: dict[str, str] = {
     "labels.uri_prefix_set": "label link prefix set",
     "report.generated": "return report written",
     "settings.backdating_window_set": "backdating window set",
+    "settings.recovery_window_set": "dissolution recovery window set",
     "database.restored": "database restored from a backup",
 }
 

@@ -44,6 +44,7 @@ MANAGER_ACTIONS: dict[str, str] = {
     "loan.amended": "amending a loan",
     "loan.closed": "closing a loan",
     "settings.backdating_window_set": "setting the backdating window",
+    "settings.recovery_window_set": "setting the dissolution recovery window",
     "labels.uri_prefix_set": "setting the label URI prefix",
     "reference.value_set": "setting an accepted reference value",
 }

@@ -26,6 +26,9 @@ class Material:
     fraction_low: float | None = None
     fraction_high: float | None = None
     note: str = ""
+    # The highest fraction the element can reach in this material whatever the specimen
+    # (a range's stoichiometric end member); None: the range's high end or the formula's.
+    fraction_ceiling: float | None = None
 
     def fraction_range(self, element: str) -> tuple[float, float] | None:
         """(low, high) mass fraction of ``element``; None when this material cannot say."""
@@ -38,10 +41,20 @@ class Material:
         value = mass_fraction(self.formula, element)
         return (value, value) if value > 0 else None
 
+    def ceiling(self, element: str) -> float | None:
+        """The most of ``element`` this material can hold, as a mass fraction: more than
+        this in a dissolved powder is impossible (see :func:`tracker.domain.recovery`)."""
+        span = self.fraction_range(element)
+        if span is None:
+            return None
+        return max(span[1], self.fraction_ceiling or 0.0)
+
 
 def _apatite_range(name: str, low: float, high: float, note: str) -> Material:
     stoichiometric = mass_fraction(HYDROXYAPATITE, "Ca")
-    return Material(name, None, "Ca", stoichiometric * low, stoichiometric * high, note)
+    return Material(
+        name, None, "Ca", stoichiometric * low, stoichiometric * high, note, stoichiometric
+    )
 
 
 PRESETS: dict[str, Material] = {

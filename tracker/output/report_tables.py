@@ -5,6 +5,7 @@ from __future__ import annotations
 from typing import Any
 
 from tracker.domain import precision
+from tracker.domain.recovery import recovery_words
 from tracker.domain.timeutil import iso_utc
 from tracker.services.read.report_views import ResultEntry, ReturnReport, SpecimenEntry
 
@@ -27,6 +28,7 @@ COLUMNS = [
     "powderConsumedMg",
     "powderStillHeldMg",
     "residualSolutions",
+    "dissolutionRecovery",
     "conditionAtReceipt",
     "conditionAtReturn",
     "returnedAt",
@@ -81,6 +83,11 @@ def rows(report: ReturnReport) -> list[dict[str, Any]]:
                 "powderConsumedMg": _fate_mass(s, "consumed"),
                 "powderStillHeldMg": _fate_mass(s, "available"),
                 "residualSolutions": "; ".join(f"{x.id} {x.status}" for x in s.solutions),
+                "dissolutionRecovery": "; ".join(
+                    f"{x.id} {recovery_words(r.as_recovery())}"
+                    for x in s.solutions
+                    for r in x.recoveries
+                ),
                 "conditionAtReceipt": s.condition_in,
                 "conditionAtReturn": s.condition_out,
                 "returnedAt": iso_utc(s.returned_at) if s.returned_at else None,

@@ -12,6 +12,7 @@ from rich.text import Text
 from rich.tree import Tree
 
 from tracker.domain import precision
+from tracker.domain.recovery import recovery_words
 from tracker.domain.text_rules import visible
 from tracker.present.text import plain_table
 from tracker.services.core.views import EventView
@@ -22,6 +23,7 @@ from tracker.services.read.item_facts import (
     LoanFacts,
     PositionFacts,
     PowderFacts,
+    RecoveryFacts,
     SolutionFacts,
 )
 from tracker.services.read.lineage import ItemDetail, Node, OverrideView
@@ -48,14 +50,26 @@ def facts_parts(facts: ItemFacts | None) -> list[str]:
                     f"{symbol} {precision.micrograms(amount.ug, amount.u_ug)}"
                     for symbol, amount in facts.elements.items()
                 ),
+                *(recovery_text(r) for r in facts.recoveries),
             ]
         case AliquotFacts():
-            return [precision.grams(facts.mass_g, facts.mass_u_g)]
+            return [
+                precision.grams(facts.mass_g, facts.mass_u_g),
+                *(
+                    f"{symbol} {precision.micrograms(amount.ug, amount.u_ug)}"
+                    for symbol, amount in facts.elements.items()
+                ),
+            ]
         case PositionFacts():
             return _position_parts(facts)
         case CutFacts():
             return _cut_parts(facts)
     return []
+
+
+def recovery_text(r: RecoveryFacts) -> str:
+    """A dissolution recovery in words (:func:`tracker.domain.recovery.recovery_words`)."""
+    return recovery_words(r.as_recovery())
 
 
 def _position_parts(facts: PositionFacts) -> list[str]:

@@ -161,6 +161,14 @@ def dissolve(
     emit(ctx, answer, lambda: done(answer, words.dissolved(item)))
 
 
+ConfirmImplausible = Annotated[
+    bool,
+    Opt(
+        "--confirm-implausible",
+        help="Record a value the dissolved powder cannot hold, after checking it (a typo "
+        "otherwise); the ledger says it was confirmed.",
+    ),
+]
 CONCENTRATION_EPILOG = (
     "Example: tracker concentration SO-00001-M --element Ca "
     "--value '812 ug/g' --rel-u 2 --method ICP-OES"
@@ -179,6 +187,7 @@ def concentration(
     ] = None,
     method: Annotated[str | None, Opt("--method", help="e.g. ICP-OES.")] = None,
     measured_at: At = None,
+    confirm_implausible: ConfirmImplausible = False,
 ) -> None:
     """Record an element concentration measured in a solution."""
     request = {
@@ -189,6 +198,7 @@ def concentration(
         "relative_uncertainty_percent": relative_uncertainty_percent,
         "method": method,
         "measured_at": measured_at,
+        "confirm_implausible": confirm_implausible,
     }
     answer = perform(ctx, solutions.record_concentration, request)
     item = answer.item

@@ -4,6 +4,7 @@ from typing import Annotated, Any
 
 import typer
 
+from tracker.cli.groups.bench import ConfirmImplausible
 from tracker.cli.state import database, emit, perform
 from tracker.present.aligned import AlignedTable
 from tracker.present.text import corrected, done, plain_table
@@ -88,6 +89,7 @@ def concentration(
         float | None, Opt("--rel-u", help="Or relative uncertainty, %.")
     ] = None,
     method: Annotated[str | None, Opt("--method", help="Default: as recorded.")] = None,
+    confirm_implausible: ConfirmImplausible = False,
 ) -> None:
     """Correct the concentration in force; aliquot loads and reduced results follow."""
     request = {
@@ -98,6 +100,7 @@ def concentration(
         "relative_uncertainty_percent": relative_uncertainty_percent,
         "method": method,
         "reason": reason,
+        "confirm_implausible": confirm_implausible,
     }
     _answer(ctx, perform(ctx, measured_values.correct_concentration, request))
 

@@ -1,5 +1,5 @@
 """Top-level commands that set a database up and keep it safe: init, the backdating
-window, the demo, backup and restore."""
+window, the dissolution recovery window, the demo, backup and restore."""
 
 from pathlib import Path
 from typing import Annotated
@@ -20,7 +20,7 @@ from tracker.cli.state import (
 )
 from tracker.domain.models import Role
 from tracker.present.text import done
-from tracker.services.admin import backdating, backups, setup
+from tracker.services.admin import backdating, backups, recovery_window, setup
 from tracker.services.ledger import chain
 
 app = typer.Typer()  # its commands join the top level (see tracker/cli/__init__.py)
@@ -101,6 +101,35 @@ def backdating_window(
         return
     answer = perform(ctx, backdating.set_backdating_window, {"window": window})
     emit(ctx, answer, lambda: done(answer, f"backdating window: {answer.item.said}"))
+
+
+RECOVERY_EPILOG = "Example: tracker --as amira recovery-window 95 105"
+
+
+@app.command("recovery-window", epilog=RECOVERY_EPILOG)
+def recovery_window_command(
+    ctx: typer.Context,
+    low_percent: Annotated[
+        float | None, typer.Argument(help="Lowest recovery accepted, %.", show_default=False)
+    ] = None,
+    high_percent: Annotated[
+        float | None, typer.Argument(help="Highest recovery accepted, %.", show_default=False)
+    ] = None,
+) -> None:
+    """Show or set (managers) the dissolution recoveries accepted without a flag.
+
+    A solution's recovery is the element it holds over what the dissolved powder's material
+    should hold; one outside the window is flagged by show and in the return report.
+    """
+    if low_percent is None and high_percent is None:
+        with database(ctx) as db:
+            shown = recovery_window.show_recovery_window(db)
+        note = " (tracker's default)" if shown.default else ""
+        emit(ctx, shown, lambda: f"dissolution recovery window: {shown.said}{note}")
+        return
+    request = {"low_percent": low_percent, "high_percent": high_percent}
+    answer = perform(ctx, recovery_window.set_recovery_window, request)
+    emit(ctx, answer, lambda: done(answer, f"dissolution recovery window: {answer.item.said}"))
 
 
 DEMO_FILE = "tracker-demo.sqlite"

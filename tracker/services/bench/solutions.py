@@ -33,6 +33,7 @@ from tracker.domain.models import (
 from tracker.domain.precision import grams, mass_mg
 from tracker.domain.timing import Since, not_before
 from tracker.domain.units import decimals_below
+from tracker.services.bench.plausibility import require_plausible
 from tracker.services.core.common import (
     ANALYTICAL_BALANCE_MG,
     MICROBALANCE_MG,
@@ -221,6 +222,8 @@ class ConcentrationValue(Request):
     uncertainty: FractionUgPerG | None = None
     relative_uncertainty_percent: Annotated[float, Field(gt=0, lt=100)] | None = None
     method: Annotated[str, Field(max_length=120)] | None = None
+    # The person confirms a value its powder cannot hold (see ``bench/plausibility.py``).
+    confirm_implausible: bool = False
 
     @model_validator(mode="after")
     def _one_uncertainty(self) -> ConcentrationValue:
@@ -303,10 +306,19 @@ def record_concentration(
             [dissolved(solution)],
             books=solution.powder.specimen,
         )
+        confirmed = require_plausible(
+            uow.session,
+            solution,
+            request.element,
+            (request.value, request.standard_uncertainty()),
+            request.confirm_implausible,
+        )
         row = concentration_row(uow, solution, request, when)
         uow.session.add(row)
         uow.session.flush()
         element, payload = concentration_payload(solution, row)
+        if confirmed is not None:
+            payload["confirmed_implausible"] = confirmed
         return finish(
             uow,
             "concentration.recorded",

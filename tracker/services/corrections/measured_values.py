@@ -10,7 +10,7 @@ reduced results of sessions that measured the batch — inside the same unit of 
 from __future__ import annotations
 
 from decimal import Decimal
-from typing import Annotated
+from typing import Annotated, Any
 
 from pydantic import Field, model_validator
 from sqlalchemy.orm import Session
@@ -19,6 +19,7 @@ from tracker.db.database import Database
 from tracker.domain.errors import RuleViolation
 from tracker.domain.models import Concentration, Cut, Solution
 from tracker.services.bench.columns import recovered_in_ug
+from tracker.services.bench.plausibility import require_plausible
 from tracker.services.bench.solutions import ConcentrationValue, latest_concentration
 from tracker.services.core.inputs import FieldProblem, MassMg, Raw, Request, parse
 from tracker.services.core.lookup import get_by_id
@@ -60,6 +61,13 @@ def correct_concentration(
             )
         entry = _concentration_entry(uow.session, solution, current)
         authorise(uow, entry)
+        confirmed = require_plausible(
+            uow.session,
+            solution,
+            current.element,
+            (request.value, request.standard_uncertainty()),
+            request.confirm_implausible,
+        )
         row = Concentration(
             solution=solution,
             element=current.element,
@@ -75,7 +83,9 @@ def correct_concentration(
         require_change(entry, probe, "value", f"{request.value} ug/g")
         uow.session.add(row)
         uow.session.flush()
-        value = {"row": row.id, **probe, "method": row.method}
+        value: dict[str, Any] = {"row": row.id, **probe, "method": row.method}
+        if confirmed is not None:
+            value["confirmed_implausible"] = confirmed
         changes, batches = refresh_loaded(solution.aliquots)
         effects = {"loaded": changes, "sessions_reduced": rereduce(uow, batches)}
         return finish_correction(

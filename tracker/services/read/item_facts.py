@@ -20,8 +20,11 @@ from tracker.domain.base import HasPublicId
 from tracker.domain.ids import Kind, format_id
 from tracker.domain.models import Aliquot, BatchPosition, Cut, Loan, Powder, Solution
 from tracker.domain.models.instrument import Result
+from tracker.domain.recovery import Recovery, Window
 from tracker.services.bench.columns import cut_yield
+from tracker.services.bench.recovery import dissolution_recoveries
 from tracker.services.bench.solutions import (
+    aliquot_element,
     powder_remaining,
     solution_element,
     solution_remaining_g,
@@ -43,10 +46,51 @@ class PowderFacts(View):
 
 
 class ElementAmount(View):
-    """An element in the whole of a solution, in µg."""
+    """An element in the whole of a solution (or of an aliquot), in µg."""
 
     ug: float
     u_ug: float
+
+
+class RecoveryFacts(View):
+    """The share of an element the dissolved powder should hold that the solution holds
+    (1.0 = 100 %); a range when the material's mass fraction is one (``low`` < ``high``).
+    See :mod:`tracker.domain.recovery`."""
+
+    element: str
+    material: str
+    low: float
+    high: float
+    u_low: float
+    u_high: float
+    window_low: float
+    window_high: float
+    outside: bool  # the whole recovery lies outside the lab's window
+
+    @classmethod
+    def of(cls, found: Recovery) -> RecoveryFacts:
+        return cls(
+            element=found.element,
+            material=found.material,
+            low=found.low,
+            high=found.high,
+            u_low=found.u_low,
+            u_high=found.u_high,
+            window_low=found.window.low,
+            window_high=found.window.high,
+            outside=found.outside,
+        )
+
+    def as_recovery(self) -> Recovery:
+        window = Window(self.window_low, self.window_high)
+        return Recovery(
+            self.element, self.material, self.low, self.high, self.u_low, self.u_high, window
+        )
+
+
+def recoveries_of(solution: Solution) -> list[RecoveryFacts]:
+    """Every reader's recoveries of a solution (show, the interface, the return report)."""
+    return [RecoveryFacts.of(r) for r in dissolution_recoveries(solution)]
 
 
 class SolutionFacts(View):
@@ -58,12 +102,14 @@ class SolutionFacts(View):
     remaining_g: float  # not yet taken into aliquots
     remaining_u_g: float
     elements: dict[str, ElementAmount] = Field(default_factory=dict)  # by element symbol
+    recoveries: list[RecoveryFacts] = Field(default_factory=list)
 
 
 class AliquotFacts(View):
     kind: Literal["aliquot"] = "aliquot"
     mass_g: Decimal
     mass_u_g: Decimal
+    elements: dict[str, ElementAmount] = Field(default_factory=dict)  # in the aliquot
 
 
 class PositionFacts(View):
@@ -120,7 +166,7 @@ def facts_of(row: HasPublicId) -> ItemFacts | None:
         case Solution():
             return _solution_facts(row)
         case Aliquot():
-            return AliquotFacts(mass_g=row.mass_g, mass_u_g=row.mass_u_g)
+            return _aliquot_facts(row)
         case BatchPosition():
             return PositionFacts(
                 loaded_ug=row.loaded_ug,
@@ -147,6 +193,20 @@ def _solution_facts(row: Solution) -> SolutionFacts:
         solution_mass_u_g=row.solution_mass_u_g,
         remaining_g=left.value,
         remaining_u_g=left.u,
+        elements=elements,
+        recoveries=recoveries_of(row),
+    )
+
+
+def _aliquot_facts(row: Aliquot) -> AliquotFacts:
+    elements = {}
+    for symbol in dict.fromkeys(c.element for c in row.solution.concentrations):
+        amount = aliquot_element(row, symbol)
+        if amount is not None:
+            elements[symbol] = ElementAmount(ug=amount[1], u_ug=amount[2])
+    return AliquotFacts(
+        mass_g=row.mass_g,
+        mass_u_g=row.mass_u_g,
         elements=elements,
     )
 

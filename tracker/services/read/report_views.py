@@ -10,6 +10,7 @@ from pydantic import Field
 
 from tracker.services.core.views import DocumentView, TermsView, View
 from tracker.services.ledger.audit import AUDIT_COMMAND, AuditReport, DiscrepancyView
+from tracker.services.read.item_facts import RecoveryFacts
 from tracker.services.read.reconcile import LoanLine
 
 FORMAT = "tracker-return-report/1"
@@ -37,6 +38,7 @@ class SolutionLine(View):
     status: str
     residual_g: float | None
     disposal_reason: str | None
+    recoveries: list[RecoveryFacts] = Field(default_factory=list)  # of its dissolution
 
 
 class ResultEntry(View):

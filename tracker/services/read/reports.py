@@ -40,6 +40,7 @@ from tracker.services.core.uow import unit_of_work
 from tracker.services.core.views import DocumentView, Done, TermsView, View
 from tracker.services.instrument.results import results
 from tracker.services.ledger.loan_audit import audit_loan
+from tracker.services.read.item_facts import recoveries_of
 from tracker.services.read.reconcile import reconcile
 from tracker.services.read.report_views import (
     FORMAT,
@@ -173,6 +174,10 @@ def _load(session: Session, loan_ref: str) -> Loan:
             .selectinload(Specimen.powders)
             .selectinload(Powder.solutions)
             .selectinload(Solution.aliquots),
+            selectinload(Loan.specimens)
+            .selectinload(Specimen.powders)
+            .selectinload(Powder.solutions)
+            .selectinload(Solution.concentrations),
         )
     ).one()
     return loan
@@ -212,6 +217,7 @@ def _specimen(
             status=x.status.value,
             residual_g=x.residual_g,
             disposal_reason=dispositions.get(x.public_id, {}).get("reason"),
+            recoveries=recoveries_of(x),
         )
         for p in specimen.powders
         for x in p.solutions

@@ -11,6 +11,7 @@ from typing import Any, ClassVar
 from tracker.db.database import Database
 from tracker.services.core.views import Done
 from tracker.services.corrections import measured_values
+from tracker.ui.screens.concentration import CONFIRM_IMPLAUSIBLE, confirm_implausible_first
 from tracker.ui.screens.correction import CorrectionForm
 from tracker.ui.screens.form import Field
 
@@ -29,7 +30,11 @@ class CorrectConcentrationScreen(CorrectionForm):
         Field("uncertainty", "Or standard uncertainty", hint="with its unit, e.g. 16 ug/g"),
         Field("method", "Method (optional)", hint="empty: as recorded"),
         Field("reason", "Reason", hint="e.g. dilution factor applied twice"),
+        CONFIRM_IMPLAUSIBLE,
     ]
+
+    def confirm_first(self, values: dict[str, Any]) -> tuple[str, str] | None:
+        return confirm_implausible_first(values)
 
     @staticmethod
     def service(db: Database, actor: str | None, values: dict[str, Any]) -> Done[Any]:

@@ -111,7 +111,9 @@ open the bench forms with this item filled in; **l** queues its label again.
 ## Corrections, attachments, reprints (Ctrl+P)
 Opened on an item or a loan, the form has it filled in; the old value stays in the history.
 
-- **Correct a concentration**: the value, one uncertainty, the reason (`SO-00001-M`).
+- **Correct a concentration**: the value, one uncertainty, the reason (`SO-00001-M`). A value
+  its powder cannot hold is refused as a likely typo, here and in the concentration form
+  (**k**); type `yes` in the confirmation field once you have checked it.
 - **Correct a column recovery**: the element recovered in a cut, the reason (`CU-00004-F`).
 - **Attach a specimen photo**: the file's path, stage, caption; a missing file is named.
 - **Attach a document to a loan**: the file's path and its role (agreement, letter ...).
