@@ -3,6 +3,7 @@ history, and the bench actions that apply to it (prefilled with its ID)."""
 
 from __future__ import annotations
 
+from collections.abc import Iterator
 from typing import Any, ClassVar
 
 from rich.text import Text
@@ -75,6 +76,7 @@ class ItemScreen(TabKeys, Screen[None]):
         super().__init__()
         self.item_id = item_id
         self.shown: ItemScreen.Loaded | None = None  # what the screen shows, kept for a resize
+        self.nodes: dict[str, Node] = {}  # every step of the lineage shown, by its ID
 
     def compose(self) -> ComposeResult:
         yield OperatorBar(f"Item {self.item_id}")
@@ -82,6 +84,7 @@ class ItemScreen(TabKeys, Screen[None]):
         with TabbedContent(id="item-tabs"):
             with TabPane("Lineage", id="tab-lineage"):
                 yield Tree("lineage", id="lineage")
+                yield Static("", id="node-detail")
             with TabPane("Custody history", id="tab-history"):
                 yield DataTable(id="history", cursor_type="row", zebra_stripes=True)
         yield Static("", id="outcome")
@@ -123,8 +126,11 @@ class ItemScreen(TabKeys, Screen[None]):
         tree.clear()
         tree.root.set_label(node_text(detail.item))
         tree.root.data = detail.item.id
+        self.nodes = dict(_steps(detail.item))
         _grow(tree.root, detail.item)
         tree.root.expand_all()
+        cursor = tree.cursor_node
+        self._show_detail((cursor.data if cursor is not None else None) or detail.item.id)
         self.shown = event
         self._history(event)
 
@@ -136,6 +142,17 @@ class ItemScreen(TabKeys, Screen[None]):
         outcome = self.query_one("#outcome", Static)
         outcome.update(refusal_text(event.error))
         outcome.set_class(True, "-error")
+
+    @on(Tree.NodeHighlighted, "#lineage")
+    def _detail(self, event: Tree.NodeHighlighted[str]) -> None:
+        """The highlighted step's whole line, wrapped under the tree: a tree line longer
+        than the screen runs past its edge, and nothing of it may be out of reach."""
+        self._show_detail(event.node.data)
+
+    def _show_detail(self, item_id: str | None) -> None:
+        node = self.nodes.get(item_id or "")
+        if node is not None:  # a node being built has no ID yet: the last one stays
+            self.query_one("#node-detail", Static).update(node_text(node))
 
     @on(Tree.NodeSelected, "#lineage")
     def _open_node(self, event: Tree.NodeSelected[str]) -> None:
@@ -175,6 +192,13 @@ class ItemScreen(TabKeys, Screen[None]):
         outcome = self.query_one("#outcome", Static)
         outcome.set_class(False, "-error")
         outcome.update(shown(f"✓ label queued for {self.item_id} · event #{event.done.event_seq}"))
+
+
+def _steps(node: Node) -> Iterator[tuple[str, Node]]:
+    """Every step of a lineage with its ID, the node first."""
+    yield node.id, node
+    for child in node.children:
+        yield from _steps(child)
 
 
 def _grow(parent: TreeNode[str], node: Node) -> None:
