@@ -71,7 +71,7 @@ def test_loan_records_original_terms(db: Database) -> None:
         ),
         ({"permitted_tissues": " , "}, "terms.permitted-tissues", "at least one tissue"),
         ({"max_total_mass": "-3 mg"}, "terms.max-total-mass", "greater than zero"),
-        ({"max_specimens_sampled": 0}, "terms.max-specimens-sampled", "greater than 0"),
+        ({"max_specimens_sampled": 0}, "terms.max-specimens-sampled", "must be above 0"),
         ({"due_on": "2025-12-01"}, "due-on", "before the loan starts"),
         ({"powder_disposition": "sell"}, "terms.powder-disposition", "return"),
     ],
