@@ -75,11 +75,12 @@ def chart_heading(chart: ControlChart) -> Text:
 
 
 def control_table(chart: ControlChart) -> RenderableType:
-    """The heading, then a line per session, oldest first."""
+    """The heading, then a row per session, oldest first: its day under its ID, so the
+    strip and the verdict fit 80 columns whole (the values wrap beside them)."""
     if not chart.points:
         return Text(f"{chart.reference} has no results on {chart.ratio} yet.")
-    headers = ("session", "day", "mean ± 2SD", "n", "others' limits", "[ limits ]", "judged")
-    table = plain_table(*headers, whole=2)
+    headers = ("session", "mean ± 2SD", "n", "others' limits", "[ limits ]", "judged")
+    table = plain_table(*headers, whole=1)
     for p in chart.points:
         limits = (
             precision.ABSENT
@@ -87,8 +88,7 @@ def control_table(chart: ControlChart) -> RenderableType:
             else _value(chart, p.others_mean, p.others_two_sd)
         )
         table.add_row(
-            p.session,
-            p.day.isoformat(),
+            f"{p.session}\n{p.day.isoformat()}",
             _value(chart, p.value, p.two_sd),
             str(p.n),
             limits,
