@@ -56,7 +56,7 @@ class ReferenceChartScreen(Screen[None]):
         yield OperatorBar("Reference material control chart")
         with Horizontal(classes="scale-choice", id="chart-choice-row"):
             yield Static("Chart", classes="field-label")
-            yield Select[int]([], prompt="reading …", compact=True, id="chart-choice")
+            yield Select[int]([], prompt="choose a chart", compact=True, id="chart-choice")
         with VerticalScroll(id="chart-scroll"):
             yield Static("reading the reference materials measured …", id="chart-body")
         yield Static("", id="outcome")
