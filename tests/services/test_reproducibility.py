@@ -9,6 +9,7 @@ import pytest
 
 from tests.services.test_instrument import STD, bench, delta_row, do_import, export
 from tracker.db.database import Database
+from tracker.services.bench import chemistry
 from tracker.services.instrument import reduction, reproducibility, results
 
 # Invented: the material's δ44/40 in six ordinary sessions, then one that came out high.
@@ -74,3 +75,20 @@ def test_without_a_record_results_keep_their_own_2sd(db: Database) -> None:
     chart = reproducibility.control_chart(db, "RM-A", "44/40")
     assert chart.long_term_two_sd is None
     assert [p.within for p in chart.points] == [None, None]
+
+
+def test_the_charts_offered_are_those_with_results(db: Database) -> None:
+    assert reproducibility.charts(db) == []  # nothing measured yet: nothing to choose
+    b = bench(db)
+    # a material with no results (its name sorts first) is not offered
+    chemistry.add_reference_material(db, "boss", {"name": "RM-0", "element": "Ca"})
+    made = [a_session(db, b.cut, m, f"S{i}") for i, m in enumerate(ORDINARY[:3])]
+    offered = reproducibility.charts(db)
+    assert [(c.reference, c.ratio, c.scale, c.kind) for c in offered] == [
+        ("RM-A", "44/40", "STD-X", "delta"),
+        ("RM-A", "44/42", "STD-X", "delta"),
+    ]
+    assert all(c.sessions == len(made) for c in offered)
+    for choice in offered:  # each choice draws a chart with one point per session counted
+        chart = reproducibility.control_chart(db, choice.reference, choice.ratio, choice.scale)
+        assert [p.session for p in chart.points] == made

@@ -242,6 +242,13 @@ async def _loan_curve(pilot: Pilot[None]) -> None:
     await settle(pilot)
 
 
+async def _reference_chart(pilot: Pilot[None]) -> None:
+    """The palette's control chart on the demo: SRM 915b's δ44/40 in its two sessions."""
+    await settle(pilot)
+    await pilot.app.run_action("reference_chart")
+    await settle(pilot)
+
+
 async def _help(pilot: Pilot[None]) -> None:
     await settle(pilot)
     await pilot.press("f1")
@@ -287,4 +294,5 @@ SCENES = [
     Scene("unmatched-80x24", (80, 24), _unmatched),
     Scene("matched-by-name-80x24", (80, 24), _matched_by_name),
     Scene("match-row-80x24", (80, 24), _match_row),
+    Scene("reference-chart-80x24", (80, 24), _reference_chart),
 ]

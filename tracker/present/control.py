@@ -13,7 +13,12 @@ from rich.text import Text
 
 from tracker.domain import precision
 from tracker.present.text import plain_table
-from tracker.services.instrument.reproducibility import ControlChart, ControlPoint
+from tracker.services.instrument.reproducibility import (
+    ChartChoice,
+    ControlChart,
+    ControlPoint,
+    ratio_name,
+)
 
 STRIP = 21  # characters: the limits sit a quarter in from each end
 HALF = 5  # characters from the centre to a limit (one 2SD)
@@ -46,9 +51,16 @@ def _value(chart: ControlChart, value: float | None, two_sd: float | None) -> st
     return precision.ratio(value, two_sd)
 
 
+def choice_label(choice: ChartChoice) -> str:
+    """A chart offered to choose: material, ratio, scale and how many sessions it has."""
+    sessions = "1 session" if choice.sessions == 1 else f"{choice.sessions} sessions"
+    ratio = ratio_name(choice.kind, choice.ratio)
+    return f"{choice.reference} · {ratio} · {choice.scale} scale ({sessions})"
+
+
 def chart_heading(chart: ControlChart) -> Text:
     """What the chart is of, the accepted value and the lab's long-term mean ± 2SD."""
-    name = f"δ{chart.ratio}" if chart.kind == "delta" else chart.ratio
+    name = ratio_name(chart.kind, chart.ratio)
     lines = [
         f"{chart.reference}, {name} on the {chart.scale} scale: {len(chart.points)} session(s)",
         f"accepted: {_value(chart, chart.accepted, chart.accepted_two_sd)}",
@@ -63,11 +75,12 @@ def chart_heading(chart: ControlChart) -> Text:
 
 
 def control_table(chart: ControlChart) -> RenderableType:
-    """The heading, then a line per session, oldest first."""
+    """The heading, then a row per session, oldest first: its day under its ID, so the
+    strip and the verdict fit 80 columns whole (the values wrap beside them)."""
     if not chart.points:
         return Text(f"{chart.reference} has no results on {chart.ratio} yet.")
-    headers = ("session", "day", "mean ± 2SD", "n", "others' limits", "[ limits ]", "judged")
-    table = plain_table(*headers, whole=2)
+    headers = ("session", "mean ± 2SD", "n", "others' limits", "[ limits ]", "judged")
+    table = plain_table(*headers, whole=1)
     for p in chart.points:
         limits = (
             precision.ABSENT
@@ -75,8 +88,7 @@ def control_table(chart: ControlChart) -> RenderableType:
             else _value(chart, p.others_mean, p.others_two_sd)
         )
         table.add_row(
-            p.session,
-            p.day.isoformat(),
+            f"{p.session}\n{p.day.isoformat()}",
             _value(chart, p.value, p.two_sd),
             str(p.n),
             limits,

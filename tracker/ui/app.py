@@ -374,6 +374,11 @@ class TrackerApp(KeyRouting):
                 "screening."
             )
 
+    def action_reference_chart(self) -> None:
+        from tracker.ui.screens.reference_chart import ReferenceChartScreen
+
+        self.push_screen(ReferenceChartScreen())
+
     def action_match_names(self) -> None:
         from tracker.ui.screens.session import SessionScreen
 
@@ -561,6 +566,11 @@ PALETTE: list[tuple[str, str, str]] = [
         "Match rows by catalogue number",
         "Open a session (F4, Enter), then n: rows named by a specimen's catalogue number",
         "match_names",
+    ),
+    (
+        "Reference material control chart",
+        "Session means against the lab's long-term limits (F4, then l)",
+        "reference_chart",
     ),
     ("Labels", "Queue, choose, preview on a stock, print (F5)", "labels"),
     (

@@ -12,7 +12,7 @@ from collections import defaultdict
 from dataclasses import dataclass, field
 from datetime import date
 
-from sqlalchemy import select
+from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
 from tracker.db.database import Database
@@ -47,6 +47,38 @@ class ControlChart(View):
     long_term_two_sd: float | None
     min_sessions: int
     points: list[ControlPoint]
+
+
+class ChartChoice(View):
+    """One control chart there is something to draw on: a material, ratio and scale."""
+
+    reference: str
+    ratio: str
+    scale: str
+    kind: str
+    sessions: int
+
+
+def charts(db: Database) -> list[ChartChoice]:
+    """Every (reference material, ratio, scale) with results, by material name then ratio,
+    with how many sessions measured it: what a person can ask ``control_chart`` for."""
+    query = (
+        select(
+            ReferenceMaterial.name,
+            Result.ratio,
+            Result.scale,
+            Result.kind,
+            func.count(Result.session_id.distinct()),
+        )
+        .join(ReferenceMaterial, Result.reference_material_id == ReferenceMaterial.id)
+        .group_by(ReferenceMaterial.name, Result.ratio, Result.scale, Result.kind)
+        .order_by(ReferenceMaterial.name, Result.ratio, Result.scale, Result.kind)
+    )
+    with db.read_session() as sql:
+        return [
+            ChartChoice(reference=name, ratio=ratio, scale=scale, kind=kind, sessions=sessions)
+            for name, ratio, scale, kind, sessions in sql.execute(query)
+        ]
 
 
 def control_chart(
@@ -172,11 +204,12 @@ def lab_record(sql: Session) -> LabRecord:
             record.two_sd[method] = max(record.two_sd.get(method, 0.0), overall.two_sd)
         for (session, _), (_, within) in zip(points, judged_by_the_others(means), strict=True):
             if within is False:
-                record.outside[session].append(f"{name} {_ratio_name(kind, ratio)}")
+                record.outside[session].append(f"{name} {ratio_name(kind, ratio)}")
     return record
 
 
-def _ratio_name(kind: str, ratio: str) -> str:
+def ratio_name(kind: str, ratio: str) -> str:
+    """How a ratio is written: ``δ44/40`` for a δ, the bare ratio otherwise."""
     return f"δ{ratio}" if kind == "delta" else ratio
 
 

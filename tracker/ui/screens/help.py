@@ -68,6 +68,11 @@ passphrase is `demo passphrase, invented`.
    on the Unmatched tab (**2**) press **n** to match the rows named by a specimen's
    catalogue number, or **m** on a row to scan or type its cut (`CU-00004-F`, or the
    catalogue number `KFMNH P 20313`); then **r** reduces again.
+   **l** (or Ctrl+P, *Reference material control chart*) shows a reference material's
+   record across sessions: choose the material, ratio and scale (**v** opens the chooser;
+   on the demo, *SRM 915b*); each session's mean ± 2SD, the other sessions' limits (their
+   mean ± 2SD), a strip `·····[··●··]·····` of where it fell, and *within* or *OUTSIDE*
+   once there are 3 other sessions to judge it by — as `tracker reference chart` prints it.
 5. **Print labels.** Press **F5**. Choose the stock, the first free position, **v** draws the
    sheet; **space** chooses labels, **p** prints the chosen ones (or, asked first, the whole
    queue) to a PDF (and to a printer if you name one); **x** cancels labels with a reason.

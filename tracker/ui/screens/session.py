@@ -44,6 +44,8 @@ class SessionScreen(TabKeys, Screen[None]):
         Binding("m", "match_row", "Match row", id="session.match_row"),
         Binding("n", "match_names", "Match by name", id="session.match_names"),
         Binding("o", "other_session", "Other session", id="session.other"),
+        # not in the footer (full at 80 columns): in the help and the palette
+        Binding("l", "app.reference_chart", "Control chart", id="session.chart", show=False),
         Binding("escape", "app.previous", "Back", id="session.back"),
         *tab_keys(
             ("tab-results", "Results"), ("tab-unmatched", "Unmatched"), ("tab-drift", "Drift")
