@@ -15,8 +15,8 @@ from pydantic import Field
 
 from tracker.db.database import Database
 from tracker.domain.errors import RuleViolation
-from tracker.domain.models import LabSetting
 from tracker.domain.timing import describe_window, hours_of, parse_window
+from tracker.services.admin.lab_settings import is_set, write_setting
 from tracker.services.core.common import finish
 from tracker.services.core.inputs import Raw, Request, parse
 from tracker.services.core.lookup import BACKDATING_WINDOW_KEY, backdating_window
@@ -41,8 +41,8 @@ def _view(window: timedelta, default: bool) -> BackdatingWindow:
 def show_backdating_window(db: Database) -> BackdatingWindow:
     with db.read_session() as session:
         window = backdating_window(session)
-        is_set = session.get(LabSetting, BACKDATING_WINDOW_KEY) is not None
-    return _view(window, not is_set)
+        default = not is_set(session, BACKDATING_WINDOW_KEY)
+    return _view(window, default)
 
 
 def set_backdating_window(
@@ -56,11 +56,7 @@ def set_backdating_window(
         before = backdating_window(uow.session)
         if before == window:
             raise RuleViolation("window", request.window, "is already the lab's setting")
-        row = uow.session.get(LabSetting, BACKDATING_WINDOW_KEY)
-        row = row or LabSetting(key=BACKDATING_WINDOW_KEY)
-        row.value = str(hours_of(window))
-        row.updated_by, row.updated_at = uow.operator.code, uow.now
-        uow.session.add(row)
+        write_setting(uow, BACKDATING_WINDOW_KEY, str(hours_of(window)))
         payload = {"window_hours": hours_of(window), "previous_hours": hours_of(before)}
         view = _view(window, False)
         return finish(uow, "settings.backdating_window_set", None, payload, lambda: view)

@@ -19,6 +19,7 @@ from tracker.db.database import Database
 from tracker.domain.errors import RuleViolation
 from tracker.domain.models import LabSetting
 from tracker.domain.recovery import DEFAULT_WINDOW, Window
+from tracker.services.admin.lab_settings import is_set, write_setting
 from tracker.services.core.common import finish
 from tracker.services.core.inputs import FieldProblem, Raw, Request, parse
 from tracker.services.core.uow import unit_of_work
@@ -83,8 +84,8 @@ def _view(window: Window, default: bool) -> RecoveryWindow:
 def show_recovery_window(db: Database) -> RecoveryWindow:
     with db.read_session() as session:
         window = recovery_window(session)
-        is_set = session.get(LabSetting, RECOVERY_WINDOW_KEY) is not None
-    return _view(window, not is_set)
+        default = not is_set(session, RECOVERY_WINDOW_KEY)
+    return _view(window, default)
 
 
 def set_recovery_window(
@@ -100,11 +101,7 @@ def set_recovery_window(
             raise RuleViolation(
                 "low-percent", f"{_said(window)} %", "is already the lab's recovery window"
             )
-        row = uow.session.get(LabSetting, RECOVERY_WINDOW_KEY)
-        row = row or LabSetting(key=RECOVERY_WINDOW_KEY)
-        row.value = _said(window)
-        row.updated_by, row.updated_at = uow.operator.code, uow.now
-        uow.session.add(row)
+        write_setting(uow, RECOVERY_WINDOW_KEY, _said(window))
         uow.session.info.pop(_CACHE_KEY, None)
         payload = {"window_percent": _said(window), "previous_percent": _said(before)}
         view = _view(window, False)
